@@ -1,0 +1,92 @@
+/**
+ * The one image representation shared by the core, the app, the CLI and the store.
+ *
+ * Pixels are held as 32-bit floats in row-major order (index = y * width + x), whatever the
+ * file's own sample type, so every algorithm sees one kind of array. The original sample type
+ * and the calibration travel with the pixels.
+ */
+
+/** Where a pixel size came from. */
+export type CalibrationSource = 'metadata' | 'manual' | 'scale-bar' | 'standard' | 'profile';
+
+/** A pixel size with its provenance and its relative standard uncertainty. */
+export interface Calibration {
+  /** Pixel size along x, in nanometres per pixel. */
+  nmPerPx: number;
+  /** Pixel size along y in nm per pixel when the pixels are not square; absent when square. */
+  nmPerPxY?: number;
+  /** Which route produced the value. */
+  source: CalibrationSource;
+  /** Relative standard uncertainty of nmPerPx (k = 1), e.g. 0.05 for 5 %. */
+  relUncertainty: number;
+  /** Readable detail: the tag read, the standard used, the profile's name. */
+  detail: string;
+}
+
+/** Sample type of the file the image came from. */
+export type SampleKind = 'uint' | 'int' | 'float';
+
+export interface GreyImage {
+  /** Width in pixels (columns). */
+  width: number;
+  /** Height in pixels (rows). */
+  height: number;
+  /** Grey values, row-major, length width * height. */
+  data: Float32Array;
+  /** Bits per sample in the original file (8, 16 or 32). */
+  bitDepth: number;
+  /** Sample type in the original file. */
+  sampleKind: SampleKind;
+  /** Smallest finite value in data. */
+  min: number;
+  /** Largest finite value in data. */
+  max: number;
+  /** Pixel size, or null when the file carries no physical calibration. */
+  calibration: Calibration | null;
+  /** Notes for the user made while reading (e.g. a 72 dpi tag that is not a calibration). */
+  warnings: string[];
+}
+
+/** Builds a GreyImage from pixels, computing the value range; rejects a length mismatch. */
+export function makeGreyImage(
+  width: number,
+  height: number,
+  data: Float32Array,
+  fields: Partial<Omit<GreyImage, 'width' | 'height' | 'data' | 'min' | 'max'>> = {},
+): GreyImage {
+  if (!Number.isInteger(width) || width < 1) throw new RangeError(`width must be a positive integer, got ${width}`);
+  if (!Number.isInteger(height) || height < 1) throw new RangeError(`height must be a positive integer, got ${height}`);
+  if (data.length !== width * height) {
+    throw new RangeError(`data length ${data.length} does not match ${width} × ${height} = ${width * height}`);
+  }
+  let min = Infinity;
+  let max = -Infinity;
+  for (let i = 0; i < data.length; i++) {
+    const v = data[i];
+    if (v < min) min = v;
+    if (v > max) max = v;
+  }
+  return {
+    width,
+    height,
+    data,
+    bitDepth: fields.bitDepth ?? 32,
+    sampleKind: fields.sampleKind ?? 'float',
+    min,
+    max,
+    calibration: fields.calibration ?? null,
+    warnings: fields.warnings ?? [],
+  };
+}
+
+/** Absolute standard uncertainty in nm of a length measured in pixels. */
+export function lengthUncertaintyNm(
+  lengthPx: number,
+  uncertaintyPx: number,
+  calibration: Calibration,
+): number {
+  const nm = lengthPx * calibration.nmPerPx;
+  const statNm = uncertaintyPx * calibration.nmPerPx;
+  const calNm = nm * calibration.relUncertainty;
+  return Math.hypot(statNm, calNm);
+}

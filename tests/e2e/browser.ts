@@ -1,0 +1,57 @@
+// Shared set-up for the browser tests: serve dist/ on 127.0.0.1, launch the system Chromium,
+// and record every request so a test can assert that nothing leaves the machine.
+import { existsSync, mkdtempSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { chromium, type BrowserContext, type Page } from 'playwright-core';
+// @ts-expect-error plain JavaScript module without types
+import { serve } from '../../scripts/serve.mjs';
+
+export function chromiumPath(): string {
+  const candidates = [process.env.CHROMIUM_PATH, '/usr/bin/chromium', '/usr/bin/chromium-browser'].filter(Boolean) as string[];
+  const found = candidates.find((p) => existsSync(p));
+  if (!found) throw new Error('No Chromium found: install Debian\'s "chromium" package or set CHROMIUM_PATH');
+  return found;
+}
+
+export interface Session {
+  url: string;
+  context: BrowserContext;
+  page: Page;
+  /** Every URL the page or its workers asked for. */
+  requests: string[];
+  close(): Promise<void>;
+}
+
+/** Serves `dir` (default dist/) and opens a fresh persistent Chromium profile on it. */
+export async function openSession(dir = 'dist'): Promise<Session> {
+  if (!existsSync(join(dir, 'index.html'))) throw new Error(`${dir}/index.html is missing: run npm run build first`);
+  const { server, url } = await serve({ dir, port: 0 });
+  const userDataDir = mkdtempSync(join(tmpdir(), 'strata-e2e-'));
+  const context = await chromium.launchPersistentContext(userDataDir, {
+    executablePath: chromiumPath(),
+    headless: true,
+    args: ['--headless', '--no-sandbox', '--disable-gpu', '--disable-background-networking', '--disable-quic',
+      '--no-first-run', '--disable-component-update', '--disable-sync'],
+    viewport: { width: 1400, height: 900 },
+  });
+  const requests: string[] = [];
+  context.on('request', (r) => requests.push(r.url()));
+  const page = context.pages()[0] ?? (await context.newPage());
+  return {
+    url,
+    context,
+    page,
+    requests,
+    async close() {
+      await context.close();
+      await new Promise((r) => server.close(r));
+    },
+  };
+}
+
+/** The requests that went anywhere but the local server (data: and blob: URLs are local). */
+export function foreignRequests(requests: string[], url: string): string[] {
+  const origin = new URL(url).origin;
+  return requests.filter((r) => !r.startsWith(origin) && !r.startsWith('data:') && !r.startsWith('blob:'));
+}
