@@ -1,0 +1,234 @@
+/**
+ * Exports of a batch: a CSV table with one row per measured period, a per-file summary table,
+ * the full results as JSON, statistics pooled over the batch, and everything as one zip archive.
+ */
+import { strToU8, zipSync } from 'fflate';
+import { summarize, type Summary } from '../measure/stats';
+import type { Recipe } from './recipe';
+import type { FileResult } from './run';
+
+/** Columns of the results table, in order; units are in the names. */
+export const RESULT_COLUMNS = [
+  'file',
+  'status',
+  'reason',
+  'calibrationSource',
+  'nmPerPx',
+  'calibrationRelUncertainty',
+  'calibrationDetail',
+  'measurementId',
+  'tool',
+  'regionXPx',
+  'regionYPx',
+  'regionWidthPx',
+  'regionHeightPx',
+  'rank',
+  'periodPx',
+  'uncertaintyPx',
+  'periodNm',
+  'uncertaintyNm',
+  'angleDeg',
+  'strength',
+] as const;
+
+/** Columns of the per-file summary table. */
+export const SUMMARY_COLUMNS = [
+  'file',
+  'status',
+  'reason',
+  'calibrationSource',
+  'nmPerPx',
+  'calibrationRelUncertainty',
+  'widthPx',
+  'heightPx',
+  'topPeriodNm',
+  'topUncertaintyNm',
+  'topAngleDeg',
+  'periodCount',
+  'sheetCount',
+  'meanThicknessNm',
+  'sdThicknessNm',
+] as const;
+
+type Cell = string | number | null | undefined;
+
+/**
+ * One CSV field, quoted when it has to be.
+ *
+ * RFC 4180, "Common Format and MIME Type for CSV Files" (2005), section 2.
+ *
+ * @param value text, number, or null/undefined for an empty field
+ * @returns the field: enclosed in double quotes, inner quotes doubled, when it contains a comma,
+ *   a double quote, CR or LF (or leading/trailing spaces); numbers in shortest round-trip form
+ * Notes: a text starting with =, +, - or @ is prefixed with an apostrophe so a spreadsheet does
+ * not run it as a formula (common practice); numbers are never changed.
+ */
+export function csvField(value: Cell): string {
+  if (value === null || value === undefined) return '';
+  if (typeof value === 'number') {
+    if (!Number.isFinite(value)) throw new RangeError(`a CSV number must be finite, got ${value}`);
+    return String(value);
+  }
+  let s = String(value);
+  if (/^[=+\-@]/.test(s)) s = `'${s}`;
+  if (/[",\r\n]/.test(s) || /^\s|\s$/.test(s)) return `"${s.replace(/"/g, '""')}"`;
+  return s;
+}
+
+function csvLine(cells: Cell[]): string {
+  return cells.map(csvField).join(',');
+}
+
+/**
+ * The results table: one row per accepted period of every measurement; a measurement without
+ * any period gets one row with empty period columns, a failed file one row with its reason.
+ *
+ * @param results the batch's file results
+ * @returns CSV text, CRLF line ends as RFC 4180 asks, header first
+ * Notes: the calibration source and relative uncertainty are on every row, so a row taken out of
+ * the table still says what its nm are worth.
+ */
+export function resultsCsv(results: FileResult[]): string {
+  const lines = [csvLine([...RESULT_COLUMNS])];
+  for (const r of results) {
+    const cal = r.calibration;
+    const base: Cell[] = [r.file, r.status, r.reason ?? '', cal?.source, cal?.nmPerPx, cal?.relUncertainty, cal?.detail];
+    if (r.status === 'failed' || r.measurements.length === 0) {
+      lines.push(csvLine([...base, ...new Array(RESULT_COLUMNS.length - base.length).fill(null)]));
+      continue;
+    }
+    for (const m of r.measurements) {
+      const reg = m.region?.kind === 'rect' ? m.region : null;
+      const mcells: Cell[] = [m.id, m.tool, reg?.x, reg?.y, reg?.width, reg?.height];
+      if (m.periodicities.length === 0) {
+        lines.push(csvLine([...base, ...mcells, null, null, null, null, null, null, null]));
+        continue;
+      }
+      m.periodicities.forEach((p, i) => {
+        lines.push(csvLine([...base, ...mcells, i + 1, p.periodPx, p.uncertaintyPx, p.periodNm, p.uncertaintyNm, p.angleDeg, p.strength]));
+      });
+    }
+  }
+  return `${lines.join('\r\n')}\r\n`;
+}
+
+/** The per-file summary table: one row per file (RFC 4180, as `resultsCsv`). */
+export function summaryCsv(results: FileResult[]): string {
+  const lines = [csvLine([...SUMMARY_COLUMNS])];
+  for (const r of results) {
+    const cal = r.calibration;
+    const top = r.summary.topPeriods[0];
+    lines.push(
+      csvLine([
+        r.file,
+        r.status,
+        r.reason ?? '',
+        cal?.source,
+        cal?.nmPerPx,
+        cal?.relUncertainty,
+        r.image?.widthPx,
+        r.image?.heightPx,
+        top?.periodNm,
+        top?.uncertaintyNm,
+        top?.angleDeg,
+        r.summary.topPeriods.length,
+        r.summary.sheetCount,
+        r.summary.meanThicknessNm,
+        r.summary.sdThicknessNm,
+      ]),
+    );
+  }
+  return `${lines.join('\r\n')}\r\n`;
+}
+
+/** Statistics of a whole batch. */
+export interface PooledStats {
+  /** Files in the batch, finished with status ok, and failed. */
+  files: { total: number; ok: number; failed: number };
+  /** The strongest accepted period of each ok file that has one, pooled (nm). */
+  topPeriodNm: Summary | null;
+  /**
+   * The same periods weighted by 1/u² (inverse-variance weighted mean and its standard
+   * uncertainty); null with no period. The calibration part of u is shared between images of
+   * one calibration, so this uncertainty is a lower bound there.
+   */
+  weightedTopPeriodNm: { mean: number; uncertainty: number; n: number } | null;
+  /** Every sheet of every file, pooled (nm). */
+  sheetThicknessNm: Summary | null;
+  /** Total number of sheets found (null when no file ran the sheets step). */
+  sheetCount: number | null;
+}
+
+/**
+ * Statistics pooled over the batch.
+ *
+ * Inverse-variance weighting: e.g. Taylor, An Introduction to Error Analysis, 2nd ed. (1997), §7.2.
+ *
+ * @param results the batch's file results
+ * @returns file counts, the pooled summary of each file's strongest period, its weighted mean,
+ *   and the pooled sheet thickness
+ * Notes: pooling sheets is concatenating the sheets of all files (`summarize`); each file's
+ * strongest period counts once.
+ */
+export function pooledStats(results: FileResult[]): PooledStats {
+  const ok = results.filter((r) => r.status === 'ok');
+  const tops = ok.map((r) => r.summary.topPeriods[0]).filter((t) => t !== undefined);
+  let weightedTopPeriodNm: PooledStats['weightedTopPeriodNm'] = null;
+  const weighted = tops.filter((t) => t.uncertaintyNm > 0);
+  if (weighted.length > 0) {
+    let sw = 0;
+    let swx = 0;
+    for (const t of weighted) {
+      const w = 1 / (t.uncertaintyNm * t.uncertaintyNm);
+      sw += w;
+      swx += w * t.periodNm;
+    }
+    weightedTopPeriodNm = { mean: swx / sw, uncertainty: 1 / Math.sqrt(sw), n: weighted.length };
+  }
+  const sheets = ok.flatMap((r) => r.summary.sheetThicknessNm);
+  const ran = ok.filter((r) => r.summary.sheetCount !== null);
+  return {
+    files: { total: results.length, ok: ok.length, failed: results.length - ok.length },
+    topPeriodNm: summarize(tops.map((t) => t.periodNm)),
+    weightedTopPeriodNm,
+    sheetThicknessNm: summarize(sheets),
+    sheetCount: ran.length ? ran.reduce((s, r) => s + (r.summary.sheetCount ?? 0), 0) : null,
+  };
+}
+
+/** The JSON export of a batch. */
+export interface BatchJson {
+  /** Format version of this export. */
+  schemaVersion: 1;
+  /** The recipe every file was processed with. */
+  recipe: Recipe;
+  /** ISO 8601 time the export was made. */
+  createdIso: string;
+  pooled: PooledStats;
+  results: FileResult[];
+}
+
+/** The full results of a batch as JSON text (two-space indented). */
+export function batchJson(recipe: Recipe, results: FileResult[], createdIso: string = new Date().toISOString()): string {
+  const doc: BatchJson = { schemaVersion: 1, recipe, createdIso, pooled: pooledStats(results), results };
+  return `${JSON.stringify(doc, null, 2)}\n`;
+}
+
+/**
+ * All export files of a batch in one zip archive.
+ *
+ * @param files archive paths (forward slashes, relative, no "..") to text or bytes
+ * @returns the zip archive's bytes (fflate `zipSync`; text stored as UTF-8; PNG stored without
+ *   recompression)
+ */
+export function zipExports(files: Record<string, string | Uint8Array>): Uint8Array {
+  const entries: Record<string, Uint8Array | [Uint8Array, { level: 0 }]> = {};
+  for (const [name, content] of Object.entries(files)) {
+    if (!name || name.startsWith('/') || name.includes('\\') || name.split('/').includes('..')) {
+      throw new RangeError(`archive path must be relative with forward slashes and no "..", got ${JSON.stringify(name)}`);
+    }
+    const bytes = typeof content === 'string' ? strToU8(content) : content;
+    entries[name] = /\.png$/i.test(name) ? [bytes, { level: 0 }] : bytes;
+  }
+  return zipSync(entries, { level: 6 });
+}

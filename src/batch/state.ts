@@ -1,0 +1,88 @@
+/**
+ * Resume state of a batch: which files are finished, identified by the SHA-256 of their bytes and
+ * the hash of the recipe they were processed with, and where each file's result record lies.
+ *
+ * Pure data and functions; reading, hashing and the atomic writes (temp file, then rename) are the
+ * caller's. A file counts as finished only when its entry matches both hashes, so a changed file
+ * or a changed recipe is processed again, and a file never gets two records.
+ */
+import type { FileResult } from './run';
+
+/** The state format this code reads and writes. */
+export const STATE_SCHEMA_VERSION = 1;
+
+/** The state's file name inside the output folder. */
+export const STATE_FILE_NAME = 'batch-state.json';
+
+/** One finished file. */
+export interface StateEntry {
+  /** SHA-256 of the file's bytes, lower-case hex. */
+  sha256: string;
+  /** Hash of the canonical recipe JSON it was processed with, lower-case hex. */
+  recipeHash: string;
+  status: FileResult['status'];
+  /** The result record's file name, relative to the output folder. */
+  recordFile: string;
+  /** ISO 8601 time it finished. */
+  finishedIso: string;
+}
+
+export interface BatchState {
+  schemaVersion: typeof STATE_SCHEMA_VERSION;
+  /** Finished files by their name relative to the batch folder. */
+  entries: Record<string, StateEntry>;
+}
+
+/** A state with no finished file. */
+export function emptyState(): BatchState {
+  return { schemaVersion: STATE_SCHEMA_VERSION, entries: {} };
+}
+
+const HEX64 = /^[0-9a-f]{64}$/;
+
+/**
+ * Reads a state file's text.
+ * @param text the JSON text
+ * @returns the state
+ * @throws Error naming what is wrong (not JSON, other schema version, a malformed entry)
+ * Notes: an unreadable state is an error, not an empty state, so that results are never
+ * silently processed twice.
+ */
+export function parseState(text: string): BatchState {
+  let v: unknown;
+  try {
+    v = JSON.parse(text);
+  } catch (e) {
+    throw new Error(`batch state is not valid JSON (${(e as Error).message})`);
+  }
+  const o = v as Partial<BatchState> | null;
+  if (!o || typeof o !== 'object' || o.schemaVersion !== STATE_SCHEMA_VERSION) {
+    throw new Error(`batch state has schemaVersion ${JSON.stringify(o?.schemaVersion)}, expected ${STATE_SCHEMA_VERSION}`);
+  }
+  if (!o.entries || typeof o.entries !== 'object') throw new Error('batch state has no entries object');
+  for (const [file, e] of Object.entries(o.entries)) {
+    if (!e || !HEX64.test(e.sha256) || !HEX64.test(e.recipeHash) || (e.status !== 'ok' && e.status !== 'failed') || typeof e.recordFile !== 'string') {
+      throw new Error(`batch state entry ${JSON.stringify(file)} is malformed`);
+    }
+  }
+  return { schemaVersion: STATE_SCHEMA_VERSION, entries: o.entries };
+}
+
+/** True when `file` with these bytes was already processed with this recipe. */
+export function isFinished(state: BatchState, file: string, sha256: string, recipeHash: string): boolean {
+  const e = state.entries[file];
+  return !!e && e.sha256 === sha256 && e.recipeHash === recipeHash;
+}
+
+/** A new state with `file`'s entry set (replacing an older entry of the same file). */
+export function withEntry(state: BatchState, file: string, entry: StateEntry): BatchState {
+  if (!HEX64.test(entry.sha256)) throw new RangeError(`sha256 must be 64 lower-case hex digits, got ${JSON.stringify(entry.sha256)}`);
+  if (!HEX64.test(entry.recipeHash)) throw new RangeError(`recipeHash must be 64 lower-case hex digits, got ${JSON.stringify(entry.recipeHash)}`);
+  return { schemaVersion: STATE_SCHEMA_VERSION, entries: { ...state.entries, [file]: entry } };
+}
+
+/** The record file name for a file's bytes and recipe: unique per (bytes, recipe, name). */
+export function recordFileName(file: string, sha256: string, recipeHash: string): string {
+  const safe = file.replace(/[^A-Za-z0-9._-]+/g, '_').slice(-80);
+  return `records/${safe}.${sha256.slice(0, 16)}.${recipeHash.slice(0, 8)}.json`;
+}

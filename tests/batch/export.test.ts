@@ -1,0 +1,127 @@
+import { strFromU8, unzipSync } from 'fflate';
+import { describe, expect, test } from 'vitest';
+import { batchJson, csvField, pooledStats, RESULT_COLUMNS, resultsCsv, summaryCsv, zipExports } from '../../src/batch/export';
+import { parseRecipe } from '../../src/batch/recipe';
+import { processOne, type FileResult } from '../../src/batch/run';
+import { fakeDeps, fakeFile } from './fakes';
+
+/** Splits CSV text into records by the RFC 4180 grammar (quoted fields may hold commas, quotes, line breaks). */
+function parseCsv(text: string): string[][] {
+  const rows: string[][] = [];
+  let row: string[] = [];
+  let field = '';
+  let i = 0;
+  let quoted = false;
+  while (i < text.length) {
+    const c = text[i];
+    if (quoted) {
+      if (c === '"' && text[i + 1] === '"') { field += '"'; i += 2; continue; }
+      if (c === '"') { quoted = false; i++; continue; }
+      field += c; i++; continue;
+    }
+    if (c === '"') { quoted = true; i++; continue; }
+    if (c === ',') { row.push(field); field = ''; i++; continue; }
+    if (c === '\r' && text[i + 1] === '\n') { row.push(field); rows.push(row); row = []; field = ''; i += 2; continue; }
+    field += c; i++;
+  }
+  if (field || row.length) throw new Error('CSV does not end with CRLF');
+  return rows;
+}
+
+async function sampleResults(): Promise<FileResult[]> {
+  const recipe = parseRecipe({ schemaVersion: 1, area: { kind: 'whole', infoStripPx: 0 }, measurements: [{ tool: 'spectrum', topK: 2 }, { tool: 'sheets' }] });
+  const deps = fakeDeps();
+  return [
+    (await processOne(fakeFile(300, 200, 0.05, 20), 'tactoid, "edge-on" #1.tif', recipe, deps)).result,
+    (await processOne(fakeFile(200, 200, 0.05, 22), 'tactoid 2.tif', recipe, deps)).result,
+    (await processOne(new Uint8Array([1, 2]), 'broken\nname.tif', recipe, deps)).result,
+  ];
+}
+
+describe('csvField (RFC 4180 §2)', () => {
+  test('quotes fields with commas, quotes and line breaks, doubling inner quotes', () => {
+    expect(csvField('plain.tif')).toBe('plain.tif');
+    expect(csvField('a,b')).toBe('"a,b"'); // rule 6
+    expect(csvField('say "hi"')).toBe('"say ""hi"""'); // rule 7
+    expect(csvField('two\r\nlines')).toBe('"two\r\nlines"'); // rule 6
+    expect(csvField(null)).toBe('');
+    expect(csvField(-0.25)).toBe('-0.25');
+  });
+  test('text that a spreadsheet would run as a formula is defused (common practice)', () => {
+    expect(csvField('=HYPERLINK("x")')).toBe('"\'=HYPERLINK(""x"")"');
+    expect(csvField('-x.tif')).toBe("'-x.tif");
+  });
+  test('non-finite numbers are refused', () => {
+    expect(() => csvField(NaN)).toThrow(/finite/);
+  });
+});
+
+describe('resultsCsv', () => {
+  test('one row per period, units in the column names, calibration on every row', async () => {
+    const rows = parseCsv(resultsCsv(await sampleResults()));
+    expect(rows[0]).toEqual([...RESULT_COLUMNS]);
+    expect(rows[0]).toEqual(expect.arrayContaining(['periodNm', 'uncertaintyNm', 'angleDeg', 'nmPerPx', 'calibrationRelUncertainty']));
+    const body = rows.slice(1);
+    // file 1: 2 spectrum periods + 1 sheets row; file 2: the same; file 3: one failed row
+    expect(body).toHaveLength(7);
+    expect(body.every((r) => r.length === RESULT_COLUMNS.length)).toBe(true);
+    const col = (name: string) => RESULT_COLUMNS.indexOf(name as (typeof RESULT_COLUMNS)[number]);
+    expect(body[0][col('file')]).toBe('tactoid, "edge-on" #1.tif');
+    expect(body[6][col('file')]).toBe('broken\nname.tif');
+    expect(body[6][col('status')]).toBe('failed');
+    expect(body[6][col('reason')]).toMatch(/cannot read the file/);
+    for (const r of body.slice(0, 6)) {
+      expect(r[col('calibrationSource')]).toBe('metadata');
+      expect(r[col('calibrationRelUncertainty')]).toBe('0.02');
+    }
+    // 20 px × 0.05 nm/px = 1 nm (definition of the pixel size)
+    expect(Number(body[0][col('periodNm')])).toBeCloseTo(1.0, 12);
+    expect(body[0][col('rank')]).toBe('1');
+    expect(body[2][col('tool')]).toBe('sheets-auto');
+    expect(body[2][col('periodNm')]).toBe('');
+  });
+
+  test('the summary table has one row per file', async () => {
+    const rows = parseCsv(summaryCsv(await sampleResults()));
+    expect(rows).toHaveLength(4);
+    expect(rows[0]).toContain('meanThicknessNm');
+    expect(rows[1][rows[0].indexOf('sheetCount')]).toBe('3');
+  });
+});
+
+describe('pooledStats', () => {
+  test('counts files, pools the strongest period and every sheet', async () => {
+    const p = pooledStats(await sampleResults());
+    expect(p.files).toEqual({ total: 3, ok: 2, failed: 1 });
+    // strongest periods 1.0 and 1.1 nm: mean 1.05, sample SD 0.1/√2
+    expect(p.topPeriodNm?.n).toBe(2);
+    expect(p.topPeriodNm?.mean).toBeCloseTo(1.05, 12);
+    expect(p.topPeriodNm?.sd).toBeCloseTo(0.1 / Math.SQRT2, 12);
+    // inverse-variance weights (Taylor 1997 §7.2) with u ∝ d: w ∝ 1/d²
+    const w1 = 1 / 1.0 ** 2;
+    const w2 = 1 / 1.1 ** 2;
+    expect(p.weightedTopPeriodNm?.mean).toBeCloseTo((w1 * 1.0 + w2 * 1.1) / (w1 + w2), 12);
+    expect(p.sheetCount).toBe(5); // 300 px → 3 sheets, 200 px → 2 (fake tool)
+    expect(p.sheetThicknessNm?.n).toBe(5);
+  });
+});
+
+describe('batchJson and zipExports', () => {
+  test('the JSON holds the recipe, pooled statistics and every record', async () => {
+    const recipe = parseRecipe({ schemaVersion: 1 });
+    const doc = JSON.parse(batchJson(recipe, await sampleResults(), '2026-01-01T00:00:00.000Z'));
+    expect(doc.schemaVersion).toBe(1);
+    expect(parseRecipe(doc.recipe)).toEqual(recipe);
+    expect(doc.results).toHaveLength(3);
+    expect(doc.pooled.files.failed).toBe(1);
+  });
+
+  test('the zip archive holds every export file unchanged', () => {
+    const png = new Uint8Array([137, 80, 78, 71, 13, 10, 26, 10]);
+    const zip = zipExports({ 'results.csv': 'a,b\r\n', 'figures/x.png': png });
+    const back = unzipSync(zip);
+    expect(strFromU8(back['results.csv'])).toBe('a,b\r\n');
+    expect(back['figures/x.png']).toEqual(png);
+    expect(() => zipExports({ '../x.csv': 'a' })).toThrow(/relative/);
+  });
+});
