@@ -17,7 +17,11 @@ export interface EncodeMrcOptions {
   depth?: number;
   /** Data mode; must match the array type (0 Int8Array, 1 Int16Array, 2 Float32Array, 6 Uint16Array). */
   mode: MrcMode;
-  /** Voxels, x fastest, then y, then z; length width × height × depth. */
+  /**
+   * Voxels, x fastest, then rows from the top of the image as shown, then sections; length
+   * width × height × depth. The file stores rows with y upwards (first stored row at the bottom
+   * of the displayed image), so rows are written in reverse order; decodeImage flips them back.
+   */
   data: Int8Array | Int16Array | Float32Array | Uint16Array;
   /** Pixel spacing in Å along x; the cell is written as xlen = spacing × MX with MX = NX. Default 0 (unset). */
   pixelSpacingAngstrom?: number;
@@ -123,7 +127,9 @@ export function encodeMrc(options: EncodeMrcOptions): Uint8Array {
 
   let at = 1024 + ext;
   for (let i = 0; i < data.length; i++, at += bytesPer) {
-    const x = data[i];
+    const z = Math.floor(i / (width * height));
+    const yStored = Math.floor(i / width) % height;
+    const x = data[z * width * height + (height - 1 - yStored) * width + (i % width)];
     if (mode === 0) v.setInt8(at, x);
     else if (mode === 1) v.setInt16(at, x, le);
     else if (mode === 6) v.setUint16(at, x, le);

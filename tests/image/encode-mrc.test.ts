@@ -18,7 +18,9 @@ describe('encodeMrc', () => {
     expect(String.fromCharCode(...b.subarray(208, 212))).toBe('MAP ');
     expect([b[212], b[213]]).toEqual([0x44, 0x44]);
     expect(b.length).toBe(1024 + 16 + 6 * 4);
-    expect(v.getFloat32(1024 + 16, true)).toBe(1.5);
+    // Rows are stored bottom row first (y upwards); the top row [1.5, -2, 3] comes second.
+    expect(v.getFloat32(1024 + 16, true)).toBe(4);
+    expect(v.getFloat32(1024 + 16 + 12, true)).toBe(1.5);
     expect([f(20), f(21)]).toEqual([-2, 6]); // DMIN, DMAX
   });
 
