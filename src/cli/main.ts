@@ -5,6 +5,7 @@ import { UsageError } from './command';
 async function loadCommands(): Promise<CliCommand[]> {
   const modules = await Promise.all([
     // commands: one line each, kept in this order
+    import('./info'),
   ] as Promise<{ command: CliCommand }>[]);
   return modules.map((m) => m.command);
 }
