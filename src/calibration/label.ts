@@ -1,0 +1,353 @@
+/**
+ * Scale-bar labels: parsing the text, preparing the label's pixels for OCR, and turning a bar
+ * plus its label into a Calibration. Pure: the OCR engine is passed in (see ./ocr).
+ */
+import type { Calibration, GreyImage } from '../image/grey-image';
+import type { Box, ScaleBar, ScaleBarOptions } from './scale-bar';
+import { findScaleBar } from './scale-bar';
+
+/** Length units a scale-bar label may carry. */
+export type LabelUnit = 'pm' | 'Å' | 'nm' | 'µm';
+
+/** A parsed scale-bar label. */
+export interface ScaleLabel {
+  /** The number as written. */
+  value: number;
+  /** The unit as written (normalised spelling). */
+  unit: LabelUnit;
+  /** The length in nm. */
+  nm: number;
+  /** 1 when the whole text is exactly a number and a unit; 0.7 when they were found among other characters. */
+  confidence: number;
+}
+
+const NM_PER_UNIT: Record<LabelUnit, number> = { pm: 0.001, Å: 0.1, nm: 1, µm: 1000 };
+
+/**
+ * Parses a scale-bar label such as "200 nm", "0,5 µm", "5 um", "20 Å" or "500pm".
+ * @param text the label text (typed or read by OCR)
+ * @returns the value, unit, length in nm and a parse confidence, or null when no single
+ *   number-and-unit can be read (the caller then asks the user; nothing is guessed)
+ * Notes: accepts `u`, `µ` (U+00B5) and `μ` (U+03BC) for micro, `A`, `Å` and the ångström sign
+ * for ångström, a decimal comma, and spaces anywhere between number and unit. Units of the SI
+ * brochure (BIPM, 9th ed., 2019) plus the ångström (0.1 nm).
+ */
+export function parseScaleLabel(text: string): ScaleLabel | null {
+  if (typeof text !== 'string') throw new TypeError(`text must be a string, got ${typeof text}`);
+  const t = text.normalize('NFC').replace(/\u212b/g, 'Å').replace(/\u03bc/g, 'µ').trim();
+  if (!t) return null;
+  const re = /(\d+(?:[.,]\d+)?|[.,]\d+)\s*(pm|nm|µm|um|Å|A)(?![A-Za-z])/g;
+  const matches = [...t.matchAll(re)];
+  if (matches.length !== 1) return null;
+  const m = matches[0];
+  const value = Number(m[1].replace(',', '.'));
+  if (!Number.isFinite(value) || value <= 0) return null;
+  const raw = m[2];
+  const unit: LabelUnit = raw === 'um' || raw === 'µm' ? 'µm' : raw === 'A' || raw === 'Å' ? 'Å' : (raw as LabelUnit);
+  const exact = m[0].length === t.length;
+  // other digits outside the match make the reading doubtful
+  const rest = t.slice(0, m.index) + t.slice((m.index ?? 0) + m[0].length);
+  if (/\d/.test(rest)) return null;
+  return { value, unit, nm: value * NM_PER_UNIT[unit], confidence: exact ? 1 : 0.7 };
+}
+
+/**
+ * Otsu's threshold of 8-bit grey values: the level maximising the between-class variance.
+ * @param data grey values 0–255
+ * @returns the threshold t; pixels > t are the bright class
+ * Notes: Otsu, IEEE Trans. Syst. Man Cybern. 9(1), 62–66 (1979).
+ */
+export function otsuThreshold(data: Uint8Array): number {
+  if (!(data instanceof Uint8Array) || data.length === 0) throw new TypeError('data must be a non-empty Uint8Array');
+  const hist = new Float64Array(256);
+  for (let i = 0; i < data.length; i++) hist[data[i]]++;
+  const total = data.length;
+  let sumAll = 0;
+  for (let i = 0; i < 256; i++) sumAll += i * hist[i];
+  let w0 = 0;
+  let sum0 = 0;
+  let best = 0;
+  let bestVar = -1;
+  for (let t = 0; t < 256; t++) {
+    w0 += hist[t];
+    if (w0 === 0) continue;
+    const w1 = total - w0;
+    if (w1 === 0) break;
+    sum0 += t * hist[t];
+    const m0 = sum0 / w0;
+    const m1 = (sumAll - sum0) / w1;
+    const between = w0 * w1 * (m0 - m1) ** 2;
+    if (between > bestVar) {
+      bestVar = between;
+      best = t;
+    }
+  }
+  return best;
+}
+
+export interface LabelPrepOptions {
+  /** Target height of the label box after up-scaling, px; 64 when absent. */
+  targetHeightPx?: number;
+  /** White margin added on every side, px; 16 when absent. */
+  marginPx?: number;
+}
+
+/**
+ * Crops the label, scales it up (bilinear), binarises it by Otsu's threshold and makes the text
+ * black on white, the form OCR engines read best.
+ * @param image the micrograph
+ * @param box the label's box [x, y, w, h]
+ * @param options target height and margin
+ * @returns an 8-bit raster, values 0 (text) and 255 (ground)
+ * Notes: threshold by Otsu (1979); the text's polarity is taken as the minority class.
+ */
+export function prepareLabelForOcr(
+  image: GreyImage,
+  box: Box,
+  options: LabelPrepOptions = {},
+): { width: number; height: number; data: Uint8Array } {
+  const [bx, by, bw, bh] = box;
+  if (![bx, by, bw, bh].every(Number.isInteger) || bw < 1 || bh < 1 || bx < 0 || by < 0 || bx + bw > image.width || by + bh > image.height) {
+    throw new RangeError(`label box [${box.join(', ')}] is not an integer box inside the ${image.width} × ${image.height} image`);
+  }
+  const target = options.targetHeightPx ?? 64;
+  const margin = options.marginPx ?? 16;
+  if (!(target >= 8)) throw new RangeError(`targetHeightPx must be at least 8, got ${target}`);
+  if (!(margin >= 0) || !Number.isInteger(margin)) throw new RangeError(`marginPx must be a non-negative integer, got ${margin}`);
+  const scale = Math.max(1, Math.min(12, target / bh));
+  const w = Math.max(1, Math.round(bw * scale));
+  const h = Math.max(1, Math.round(bh * scale));
+  let lo = Infinity;
+  let hi = -Infinity;
+  for (let y = by; y < by + bh; y++) {
+    for (let x = bx; x < bx + bw; x++) {
+      const v = image.data[y * image.width + x];
+      if (v < lo) lo = v;
+      if (v > hi) hi = v;
+    }
+  }
+  const span = hi > lo ? hi - lo : 1;
+  const grey = new Uint8Array(w * h);
+  const px = (x: number, y: number) => image.data[(by + Math.min(bh - 1, Math.max(0, y))) * image.width + bx + Math.min(bw - 1, Math.max(0, x))];
+  for (let j = 0; j < h; j++) {
+    const sy = (j + 0.5) / scale - 0.5;
+    const y0 = Math.floor(sy);
+    const fy = sy - y0;
+    for (let i = 0; i < w; i++) {
+      const sx = (i + 0.5) / scale - 0.5;
+      const x0 = Math.floor(sx);
+      const fx = sx - x0;
+      const v =
+        (1 - fy) * ((1 - fx) * px(x0, y0) + fx * px(x0 + 1, y0)) + fy * ((1 - fx) * px(x0, y0 + 1) + fx * px(x0 + 1, y0 + 1));
+      grey[j * w + i] = Math.round((255 * (v - lo)) / span);
+    }
+  }
+  const t = otsuThreshold(grey);
+  let bright = 0;
+  for (let i = 0; i < grey.length; i++) if (grey[i] > t) bright++;
+  const textIsBright = bright < grey.length / 2;
+  const W = w + 2 * margin;
+  const H = h + 2 * margin;
+  const out = new Uint8Array(W * H).fill(255);
+  for (let j = 0; j < h; j++) {
+    for (let i = 0; i < w; i++) {
+      const isText = grey[j * w + i] > t === textIsBright;
+      out[(j + margin) * W + i + margin] = isText ? 0 : 255;
+    }
+  }
+  return { width: W, height: H, data: out };
+}
+
+/** One 8-connected blob of text pixels in a binarised label. */
+interface Blob {
+  x0: number;
+  y0: number;
+  x1: number;
+  y1: number;
+  pixels: number[];
+}
+
+function textBlobs(r: { width: number; height: number; data: Uint8Array }): Blob[] {
+  const { width, height, data } = r;
+  const seen = new Uint8Array(width * height);
+  const blobs: Blob[] = [];
+  for (let i = 0; i < data.length; i++) {
+    if (seen[i] || data[i] !== 0) continue;
+    const b: Blob = { x0: width, y0: height, x1: -1, y1: -1, pixels: [] };
+    const stack = [i];
+    seen[i] = 1;
+    while (stack.length) {
+      const k = stack.pop()!;
+      const x = k % width;
+      const y = (k - x) / width;
+      b.pixels.push(k);
+      if (x < b.x0) b.x0 = x;
+      if (x > b.x1) b.x1 = x;
+      if (y < b.y0) b.y0 = y;
+      if (y > b.y1) b.y1 = y;
+      for (let dy = -1; dy <= 1; dy++) {
+        for (let dx = -1; dx <= 1; dx++) {
+          const nx = x + dx;
+          const ny = y + dy;
+          if (nx < 0 || ny < 0 || nx >= width || ny >= height) continue;
+          const nk = ny * width + nx;
+          if (!seen[nk] && data[nk] === 0) {
+            seen[nk] = 1;
+            stack.push(nk);
+          }
+        }
+      }
+    }
+    if (b.pixels.length >= 4) blobs.push(b);
+  }
+  return blobs.sort((a, c) => a.x0 - c.x0);
+}
+
+/** Number of enclosed background regions (holes) of a blob, by flood fill from its box's rim. */
+function holeCount(b: Blob, width: number): number {
+  const w = b.x1 - b.x0 + 3;
+  const h = b.y1 - b.y0 + 3;
+  const ink = new Uint8Array(w * h);
+  for (const k of b.pixels) {
+    const x = k % width;
+    const y = (k - x) / width;
+    ink[(y - b.y0 + 1) * w + (x - b.x0 + 1)] = 1;
+  }
+  const label = new Int32Array(w * h);
+  let regions = 0;
+  let holes = 0;
+  const minHole = Math.max(2, Math.round(0.002 * b.pixels.length));
+  for (let i = 0; i < w * h; i++) {
+    if (ink[i] || label[i]) continue;
+    regions++;
+    const stack = [i];
+    label[i] = regions;
+    let size = 0;
+    while (stack.length) {
+      const k = stack.pop()!;
+      size++;
+      const x = k % w;
+      const y = (k - x) / w;
+      for (const [nx, ny] of [[x - 1, y], [x + 1, y], [x, y - 1], [x, y + 1]]) {
+        if (nx < 0 || ny < 0 || nx >= w || ny >= h) continue;
+        const nk = ny * w + nx;
+        if (!ink[nk] && !label[nk]) {
+          label[nk] = regions;
+          stack.push(nk);
+        }
+      }
+    }
+    if (regions > 1 && size >= minHole) holes++; // region 1 holds the rim: the outside
+  }
+  return holes;
+}
+
+/**
+ * Settles p versus µ (or u) in an OCR reading of a "p m" / "µ m" unit from the glyph's shape: a p
+ * encloses a bowl, a µ (and its stand-in u) does not.
+ * @param raster the binarised label (text 0, ground 255), as prepareLabelForOcr makes it
+ * @param text the OCR engine's reading
+ * @returns the text with the prefix letter corrected; unchanged when the unit is not p/µ/u + m;
+ *   with '?' in place of the prefix when the glyphs touch and cannot be matched to the characters
+ * Notes: the English OCR models confuse the micro sign with p, a factor of 10⁶ in the length;
+ * the hole count (topology of the binary glyph, flood fill of its background, common practice)
+ * does not.
+ */
+export function checkMicroPrefix(raster: { width: number; height: number; data: Uint8Array }, text: string): string {
+  const m = /([pµu])m\s*$/.exec(text);
+  if (!m) return text;
+  const blobs = textBlobs(raster);
+  // the blobs of the characters that have ink, left to right; a dot or comma is its own blob
+  const letters = text.replace(/\s/g, '');
+  // glyphs that touch cannot be told apart: the prefix stays unread ('?') and the caller asks the user
+  if (blobs.length !== letters.length || blobs.length < 2) return text.slice(0, m.index) + '?' + text.slice(m.index + 1);
+  const prefix = blobs[blobs.length - 2];
+  const holes = holeCount(prefix, raster.width);
+  const want = holes >= 1 ? 'p' : 'µ';
+  return text.slice(0, m.index) + want + text.slice(m.index + 1);
+}
+
+/** Characters a scale-bar label can hold, for the OCR engine's whitelist. */
+export const LABEL_CHARACTERS = '0123456789.,nmuµpÅA ';
+
+export interface ScaleBarCalibrationOptions {
+  /**
+   * Relative standard uncertainty allowed for how well a burned-in bar represents the true pixel
+   * size; 0.029 when absent. The bar is drawn from the instrument's nominal calibration, whose
+   * indicated magnification is reproducible to ±5 % (EMSA abstract "Magnification determination
+   * for high resolution electron microscopy"); taken as a rectangular bound, 5 %/√3 = 2.9 %.
+   */
+  representationRelUncertainty?: number;
+}
+
+/**
+ * The pixel size a scale bar and its label imply.
+ * @param bar the bar (length and its uncertainty)
+ * @param labelNm the label's length in nm
+ * @param options the allowance for how well a burned-in bar represents the calibration
+ * @returns a Calibration with source 'scale-bar'
+ * Notes: u_rel = √((u_L/L)² + u_rep²), the root-sum-square of independent relative
+ * uncertainties (JCGM 100:2008, GUM, §5.1.6).
+ */
+export function scaleBarCalibration(
+  bar: Pick<ScaleBar, 'lengthPx' | 'uncertaintyPx'>,
+  labelNm: number,
+  options: ScaleBarCalibrationOptions = {},
+): Calibration {
+  if (!(bar?.lengthPx > 0) || !Number.isFinite(bar.lengthPx)) throw new RangeError(`bar lengthPx must be positive, got ${bar?.lengthPx}`);
+  if (!(bar.uncertaintyPx >= 0)) throw new RangeError(`bar uncertaintyPx must be non-negative, got ${bar.uncertaintyPx}`);
+  if (!(labelNm > 0) || !Number.isFinite(labelNm)) throw new RangeError(`labelNm must be positive, got ${labelNm}`);
+  const rep = options.representationRelUncertainty ?? 0.029;
+  if (!(rep >= 0 && rep < 1)) throw new RangeError(`representationRelUncertainty must be in [0, 1), got ${rep}`);
+  const endRel = bar.uncertaintyPx / bar.lengthPx;
+  return {
+    nmPerPx: labelNm / bar.lengthPx,
+    source: 'scale-bar',
+    relUncertainty: Math.hypot(endRel, rep),
+    detail: `scale bar ${formatNum(labelNm)} nm over ${bar.lengthPx.toFixed(2)} ± ${bar.uncertaintyPx.toFixed(2)} px (end points ${(100 * endRel).toFixed(2)} %, bar representation allowance ${(100 * rep).toFixed(1)} %)`,
+  };
+}
+
+function formatNum(v: number): string {
+  return Number(v.toPrecision(6)).toString();
+}
+
+/** Reads one line of text: the shape of the OCR adapter's reader (see ./ocr). */
+export interface LineReader {
+  read(raster: { width: number; height: number; data: Uint8Array }): Promise<{ text: string; confidence: number }>;
+}
+
+/** What reading a scale bar produced. */
+export interface ScaleBarReading {
+  bar: ScaleBar | null;
+  /** The label as read, or null when there was no label box or the text could not be parsed. */
+  label: (ScaleLabel & { text: string; ocrConfidence: number }) | null;
+  /** The raw OCR text even when it could not be parsed (so the user sees what was read). */
+  ocrText: string | null;
+  calibration: Calibration | null;
+}
+
+/**
+ * Finds the scale bar, reads its label with the given OCR reader and makes the calibration.
+ * @param image the micrograph
+ * @param reader an OCR line reader (createTextReader from ./ocr, or any other)
+ * @param options bar-search options and the calibration allowance
+ * @returns the bar, the parsed label, the raw OCR text and the calibration (null when any step fails)
+ * Notes: label confidence is the smaller of the OCR engine's and the parser's.
+ */
+export async function readScaleBar(
+  image: GreyImage,
+  reader: LineReader,
+  options: ScaleBarOptions & ScaleBarCalibrationOptions & LabelPrepOptions = {},
+): Promise<ScaleBarReading> {
+  if (!reader || typeof reader.read !== 'function') throw new TypeError('reader must have a read(raster) method');
+  const bar = findScaleBar(image, options);
+  if (!bar || !bar.labelBox) return { bar, label: null, ocrText: null, calibration: null };
+  const raster = prepareLabelForOcr(image, bar.labelBox, options);
+  const ocr = await reader.read(raster);
+  const text = checkMicroPrefix(raster, ocr.text);
+  const parsed = parseScaleLabel(text);
+  if (!parsed) return { bar, label: null, ocrText: ocr.text, calibration: null };
+  const label = { ...parsed, text, ocrConfidence: ocr.confidence, confidence: Math.min(parsed.confidence, ocr.confidence) };
+  return { bar, label, ocrText: ocr.text, calibration: scaleBarCalibration(bar, parsed.nm, options) };
+}
