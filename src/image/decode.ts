@@ -60,10 +60,18 @@ export const METADATA_REL_UNCERTAINTY = 0.05;
  */
 export const LUMA_BT709 = { r: 0.2126, g: 0.7152, b: 0.0722 } as const;
 
-/** Resolutions that editors and cameras write by default, in pixels per inch: not a calibration. */
-const DEFAULT_DPI = [72, 96, 150, 300, 600];
-/** Pixel sizes outside this range are not a physical calibration of a micrograph (common practice). */
-const MAX_CALIBRATED_NM_PER_PX = 1e6; // 1 mm
+/**
+ * Resolutions that editors, plotting libraries, scanners and cameras write by default, in pixels
+ * per inch (matched within ±0.5 %, which also catches the rounded per-cm and per-metre forms):
+ * not a calibration (common practice).
+ */
+const DEFAULT_DPI = [72, 96, 100, 150, 200, 240, 300, 400, 600, 1200];
+/**
+ * Pixel sizes outside this range are not a physical calibration of an electron micrograph
+ * (common practice): above 10 µm a pixel is a print or screen resolution (every default dpi
+ * lies there), below 1 pm it is below any instrument's sampling.
+ */
+const MAX_CALIBRATED_NM_PER_PX = 1e4; // 10 µm
 const MIN_CALIBRATED_NM_PER_PX = 1e-3; // 1 pm
 
 const NM_PER_INCH = 25.4e6; // 1 inch = 25.4 mm exactly (international yard and pound agreement, 1959)
@@ -288,7 +296,7 @@ function resolutionCalibration(
   const nmPerPxY = nmPerUnit / pxPerUnitY;
   for (const s of [nmPerPx, nmPerPxY]) {
     if (s > MAX_CALIBRATED_NM_PER_PX || s < MIN_CALIBRATED_NM_PER_PX) {
-      warnings.push(`not a calibration: ${detail} gives ${fmt(s)} nm per pixel, outside 1 pm to 1 mm`);
+      warnings.push(`not a calibration: ${detail} gives ${fmt(s)} nm per pixel, outside 1 pm to 10 µm`);
       return null;
     }
   }
@@ -753,7 +761,7 @@ function readMrc(bytes: Uint8Array, maxPixels: number, fail: Fail): Decoded {
     const nmPerPx = (xlen / mx) / 10;
     const nmPerPxY = my > 0 && ylen > 0 && Number.isFinite(ylen) ? (ylen / my) / 10 : nmPerPx;
     if (nmPerPx > MAX_CALIBRATED_NM_PER_PX || nmPerPx < MIN_CALIBRATED_NM_PER_PX) {
-      warnings.push(`not a calibration: MRC cell gives ${fmt(nmPerPx)} nm per pixel, outside 1 pm to 1 mm`);
+      warnings.push(`not a calibration: MRC cell gives ${fmt(nmPerPx)} nm per pixel, outside 1 pm to 10 µm`);
     } else {
       calibration = {
         nmPerPx,

@@ -1,7 +1,7 @@
 import { readFileSync } from 'node:fs';
 import { describe, expect, test } from 'vitest';
 import { encode as encodePng } from 'fast-png';
-import { Image, encode as encodeRaster } from 'image-js';
+import { Image, decode as decodeRaster, encode as encodeRaster } from 'image-js';
 import { encodeTiff, encodeTiffPages } from '../../src/image/encode-tiff';
 import { encodeMrc } from '../../src/image/encode-mrc';
 import { decodeImage, detectFormat, ImageReadError, LUMA_BT709 } from '../../src/image/decode';
@@ -147,10 +147,12 @@ describe('TIFF', () => {
       ['150 dpi', { x: 150, unit: 'inch' }, /150 dpi/],
       ['300 dpi', { x: 300, unit: 'inch' }, /300 dpi/],
       ['600 dpi', { x: 600, unit: 'inch' }, /600 dpi/],
+      ['100 dpi', { x: 100, unit: 'inch' }, /100 dpi/],
+      ['1200 dpi', { x: 1200, unit: 'inch' }, /1200 dpi/],
       // 72 dpi = 72 / 2.54 = 28.35 px/cm; 300 dpi = 118.11 px/cm (common practice: editors round them).
       ['28.35 px/cm', { x: 28.35, unit: 'cm' }, /72 dpi/],
       ['118.11 px/cm', { x: 118.11, unit: 'cm' }, /300 dpi/],
-      ['pixels of 2 mm', { x: 5, unit: 'cm' }, /outside 1 pm to 1 mm/],
+      ['pixels of 2 mm', { x: 5, unit: 'cm' }, /outside 1 pm to 10 µm/],
     ];
     for (const [name, resolution, why] of cases) {
       test(name, () => {
@@ -160,9 +162,12 @@ describe('TIFF', () => {
         expect(img.warnings.join()).toMatch(why);
       });
     }
-    test('73 dpi is outside the ±0.5 % band and is taken as a calibration', () => {
-      const img = decodeImage(encodeTiff({ width: 4, height: 4, data: new Uint8Array(16), resolution: { x: 73, unit: 'inch' } }), 'a.tif');
-      expect(img.calibration?.nmPerPx).toBeCloseTo(25.4e6 / 73, 3);
+    test('pixels of 10 µm and below are a calibration, above are not', () => {
+      // 1001 px/cm = 9.99 µm per pixel; 999 px/cm = 10.01 µm per pixel (1 cm = 1e7 nm).
+      const at = (x: number) => decodeImage(encodeTiff({ width: 4, height: 4, data: new Uint8Array(16), resolution: { x, unit: 'cm' } }), 'a.tif');
+      expect(at(1001).calibration?.nmPerPx).toBeCloseTo(1e7 / 1001, 6);
+      expect(at(999).calibration).toBeNull();
+      expect(at(999).warnings.join()).toMatch(/outside 1 pm to 10 µm/);
     });
   });
 
@@ -274,6 +279,17 @@ describe('PNG', () => {
     expect([img.width, img.height, img.bitDepth]).toEqual([256, 256, 8]);
     expect(img.warnings.join()).toMatch(/R = G = B/);
     expect(img.max).toBeGreaterThan(img.min);
+    // Its pHYs says 3937 px/m = 100.0 dpi, a plotting default, not the specimen pixel size.
+    expect(img.calibration).toBeNull();
+    expect(img.warnings.join()).toMatch(/not a calibration: PNG pHYs chunk is 3937 pixels per metre \(100 dpi\)/);
+    // R = G = B: the grey values are the red channel itself (image-js reads the same file as RGBA).
+    const rgba = decodeRaster(bytes);
+    const raw = rgba.getRawImage().data;
+    for (let i = 0; i < 256 * 256; i += 97) {
+      expect(raw[i * 4]).toBe(raw[i * 4 + 1]);
+      expect(raw[i * 4]).toBe(raw[i * 4 + 2]);
+      expect(img.data[i]).toBe(raw[i * 4]);
+    }
   });
 });
 
