@@ -242,20 +242,72 @@ function holeCount(b: Blob, width: number): number {
   return holes;
 }
 
+/** Background regions inside the box that do not reach its rim (4-connected). */
+function holesInBox(r: { width: number; height: number; data: Uint8Array }, bx0: number, by0: number, bx1: number, by1: number): number {
+  const x0 = Math.max(0, Math.floor(bx0));
+  const y0 = Math.max(0, Math.floor(by0));
+  const x1 = Math.min(r.width - 1, Math.ceil(bx1));
+  const y1 = Math.min(r.height - 1, Math.ceil(by1));
+  const w = x1 - x0 + 1;
+  const h = y1 - y0 + 1;
+  if (w < 3 || h < 3) return 0;
+  const seen = new Uint8Array(w * h);
+  let ink = 0;
+  for (let y = 0; y < h; y++) for (let x = 0; x < w; x++) if (r.data[(y + y0) * r.width + x + x0] === 0) ink++;
+  const minHole = Math.max(2, Math.round(0.01 * ink));
+  let holes = 0;
+  for (let i = 0; i < w * h; i++) {
+    if (seen[i] || r.data[(Math.floor(i / w) + y0) * r.width + (i % w) + x0] === 0) continue;
+    const stack = [i];
+    seen[i] = 1;
+    let size = 0;
+    let rim = false;
+    while (stack.length) {
+      const k = stack.pop()!;
+      const x = k % w;
+      const y = (k - x) / w;
+      size++;
+      if (x === 0 || y === 0 || x === w - 1 || y === h - 1) rim = true;
+      for (const [nx, ny] of [[x - 1, y], [x + 1, y], [x, y - 1], [x, y + 1]]) {
+        if (nx < 0 || ny < 0 || nx >= w || ny >= h) continue;
+        const nk = ny * w + nx;
+        if (!seen[nk] && r.data[(ny + y0) * r.width + nx + x0] !== 0) {
+          seen[nk] = 1;
+          stack.push(nk);
+        }
+      }
+    }
+    if (!rim && size >= minHole) holes++;
+  }
+  return holes;
+}
+
 /**
  * Settles p versus µ (or u) in an OCR reading of a "p m" / "µ m" unit from the glyph's shape: a p
  * encloses a bowl, a µ (and its stand-in u) does not.
  * @param raster the binarised label (text 0, ground 255), as prepareLabelForOcr makes it
  * @param text the OCR engine's reading
+ * @param symbols the engine's character boxes, when it gives them (used in preference to blobs)
  * @returns the text with the prefix letter corrected; unchanged when the unit is not p/µ/u + m;
  *   with '?' in place of the prefix when the glyphs touch and cannot be matched to the characters
  * Notes: the English OCR models confuse the micro sign with p, a factor of 10⁶ in the length;
  * the hole count (topology of the binary glyph, flood fill of its background, common practice)
  * does not.
  */
-export function checkMicroPrefix(raster: { width: number; height: number; data: Uint8Array }, text: string): string {
+export function checkMicroPrefix(
+  raster: { width: number; height: number; data: Uint8Array },
+  text: string,
+  symbols?: readonly { text: string; x0: number; y0: number; x1: number; y1: number }[],
+): string {
   const m = /([pµu])m\s*$/.exec(text);
   if (!m) return text;
+  const letters0 = text.replace(/\s/g, '');
+  if (symbols && symbols.length === letters0.length && symbols.map((c) => c.text).join('') === letters0) {
+    // the engine's own box of the prefix character: count the holes inside it
+    const c = symbols[symbols.length - 2];
+    const want = holesInBox(raster, c.x0, c.y0, c.x1, c.y1) >= 1 ? 'p' : 'µ';
+    return text.slice(0, m.index) + want + text.slice(m.index + 1);
+  }
   const blobs = textBlobs(raster);
   // the blobs of the characters that have ink, left to right; a dot or comma is its own blob
   const letters = text.replace(/\s/g, '');
@@ -314,7 +366,11 @@ function formatNum(v: number): string {
 
 /** Reads one line of text: the shape of the OCR adapter's reader (see ./ocr). */
 export interface LineReader {
-  read(raster: { width: number; height: number; data: Uint8Array }): Promise<{ text: string; confidence: number }>;
+  read(raster: { width: number; height: number; data: Uint8Array }): Promise<{
+    text: string;
+    confidence: number;
+    symbols?: { text: string; x0: number; y0: number; x1: number; y1: number }[];
+  }>;
 }
 
 /** What reading a scale bar produced. */
@@ -345,7 +401,7 @@ export async function readScaleBar(
   if (!bar || !bar.labelBox) return { bar, label: null, ocrText: null, calibration: null };
   const raster = prepareLabelForOcr(image, bar.labelBox, options);
   const ocr = await reader.read(raster);
-  const text = checkMicroPrefix(raster, ocr.text);
+  const text = checkMicroPrefix(raster, ocr.text, ocr.symbols);
   const parsed = parseScaleLabel(text);
   if (!parsed) return { bar, label: null, ocrText: ocr.text, calibration: null };
   const label = { ...parsed, text, ocrConfidence: ocr.confidence, confidence: Math.min(parsed.confidence, ocr.confidence) };

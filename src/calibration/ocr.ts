@@ -20,6 +20,17 @@ export interface OcrResult {
   text: string;
   /** The engine's own mean confidence, scaled to [0, 1]. */
   confidence: number;
+  /** Each character read, with its box in the raster (inclusive pixel bounds). */
+  symbols: OcrSymbol[];
+}
+
+/** One character the engine read and where. */
+export interface OcrSymbol {
+  text: string;
+  x0: number;
+  y0: number;
+  x1: number;
+  y1: number;
 }
 
 /** A running OCR engine; close it when done to free its worker. */
@@ -93,8 +104,18 @@ export async function createTextReader(options: TextReaderOptions = {}): Promise
       }
       const png = encode({ width: raster.width, height: raster.height, data: raster.data, channels: 1, depth: 8 });
       const input = isNode ? Buffer.from(png.buffer, png.byteOffset, png.byteLength) : new Blob([new Uint8Array(png)], { type: 'image/png' });
-      const { data } = await worker.recognize(input);
-      return { text: String(data.text ?? '').trim(), confidence: Math.max(0, Math.min(1, (data.confidence ?? 0) / 100)) };
+      const { data } = await worker.recognize(input, {}, { text: true, blocks: true });
+      const symbols: OcrSymbol[] = [];
+      for (const b of data.blocks ?? []) {
+        for (const p of b.paragraphs ?? []) {
+          for (const l of p.lines ?? []) {
+            for (const w of l.words ?? []) {
+              for (const c of w.symbols ?? []) symbols.push({ text: String(c.text), x0: c.bbox.x0, y0: c.bbox.y0, x1: c.bbox.x1, y1: c.bbox.y1 });
+            }
+          }
+        }
+      }
+      return { text: String(data.text ?? '').trim(), confidence: Math.max(0, Math.min(1, (data.confidence ?? 0) / 100)), symbols };
     },
     async close(): Promise<void> {
       await worker.terminate();
