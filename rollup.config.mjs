@@ -1,7 +1,7 @@
 // Builds the browser app into dist/: the page's modules, the workers, opencv.js in a chunk of
 // its own, public/ copied as it is, and the vendor files the app loads at run time (OCR).
-import { cpSync, mkdirSync, existsSync } from 'node:fs';
-import { dirname, join } from 'node:path';
+import { cpSync, mkdirSync, existsSync, readdirSync, readFileSync, writeFileSync } from 'node:fs';
+import { dirname, join, resolve as resolvePath } from 'node:path';
 import resolve from '@rollup/plugin-node-resolve';
 import commonjs from '@rollup/plugin-commonjs';
 import typescript from '@rollup/plugin-typescript';
@@ -26,9 +26,72 @@ function copyStatic() {
   };
 }
 
+/**
+ * Copies the demo files listed in demo-data/index.json into dist/demo/ with the list itself.
+ * Missing list: no demos (the start screen then shows none); a listed file that is missing
+ * fails the build, so a broken demo is never shipped.
+ */
+function copyDemo() {
+  return {
+    name: 'copy-demo',
+    buildStart() {
+      if (existsSync('demo-data/index.json')) this.addWatchFile('demo-data/index.json');
+    },
+    writeBundle() {
+      const list = 'demo-data/index.json';
+      if (!existsSync(list)) return;
+      const entries = JSON.parse(readFileSync(list, 'utf8'));
+      if (!Array.isArray(entries)) throw new Error(`${list} must hold a list`);
+      mkdirSync('dist/demo', { recursive: true });
+      for (const e of entries) {
+        if (!e || typeof e.file !== 'string' || e.file.includes('..') || e.file.startsWith('/')) {
+          throw new Error(`${list}: bad entry ${JSON.stringify(e)}`);
+        }
+        const from = join('demo-data', e.file);
+        if (!existsSync(from)) throw new Error(`${list} lists ${e.file}, which is not in demo-data/`);
+        const to = join('dist/demo', e.file);
+        mkdirSync(dirname(to), { recursive: true });
+        cpSync(from, to);
+      }
+      writeFileSync('dist/demo/index.json', JSON.stringify(entries, null, 2));
+    },
+  };
+}
+
+/**
+ * The module `virtual:strata-panels`: one lazily loaded entry per components/*-panel.ts, in a
+ * fixed order (measuring first, the rest by name), so a panel appears once its file exists.
+ */
+function sidePanels() {
+  const ID = 'virtual:strata-panels';
+  const ORDER = ['measure', 'calibration', 'sheets', 'diffraction'];
+  return {
+    name: 'side-panels',
+    resolveId(id) {
+      return id === ID ? `\0${ID}` : null;
+    },
+    load(id) {
+      if (id !== `\0${ID}`) return null;
+      this.addWatchFile(resolvePath('components'));
+      const ids = readdirSync('components')
+        .filter((f) => f.endsWith('-panel.ts'))
+        .map((f) => f.slice(0, -'-panel.ts'.length))
+        .sort((a, b) => {
+          const ia = ORDER.indexOf(a) < 0 ? ORDER.length : ORDER.indexOf(a);
+          const ib = ORDER.indexOf(b) < 0 ? ORDER.length : ORDER.indexOf(b);
+          return ia - ib || a.localeCompare(b);
+        });
+      const label = (s) => s.split('-').map((w, i) => (i ? w : w[0].toUpperCase() + w.slice(1))).join(' ');
+      const lines = ids.map((p) => `  { id: ${JSON.stringify(p)}, label: ${JSON.stringify(label(p))}, load: () => import(${JSON.stringify(resolvePath('components', `${p}-panel.ts`))}) },`);
+      return `export const panels = [\n${lines.join('\n')}\n];\n`;
+    },
+  };
+}
+
 export default {
   input: {
     app: 'components/app.ts',
+    'compute-worker': 'components/compute-worker.ts',
   },
   output: {
     dir: 'dist',
@@ -47,7 +110,9 @@ export default {
     // opencv.js mentions Node's modules in code paths the browser never takes.
     commonjs({ ignore: ['fs', 'path', 'crypto'] }),
     typescript({ tsconfig: './tsconfig.json', noEmit: false, outDir: 'dist', sourceMap: true, include: ['src/**/*.ts', 'components/**/*.ts'] }),
+    sidePanels(),
     copyStatic(),
+    copyDemo(),
   ],
   onwarn(warning, warn) {
     if (warning.code === 'CIRCULAR_DEPENDENCY' && warning.ids?.some((i) => i.includes('node_modules'))) return;

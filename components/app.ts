@@ -1,26 +1,422 @@
-import { LitElement, css, html } from 'lit';
+import { LitElement, css, html, nothing } from 'lit';
+import { panels, type PanelEntry } from 'virtual:strata-panels';
+import type { Calibration, GreyImage } from '../src/image/grey-image';
+import { sha256Hex } from '../src/store/bytes';
+import {
+  findImagesBySha256,
+  getImage,
+  imageBytes,
+  openLibrary,
+  putImage,
+  requestPersistence,
+  setImageCalibration,
+  storageEstimate,
+  type StorageEstimate,
+} from '../src/store/library';
+import type { ImageRecord } from '../src/store/records';
+import type { LibraryDb } from '../src/store/schema';
+import { ComputeClient } from './compute-client';
+import type { Histogram } from './pyramid';
+import { controlStyles } from './styles';
+import './library';
+import './viewer';
+import type { LineDrawnDetail, OverlayShape, RectDrawnDetail, StrataViewer } from './viewer';
 
-/** The application shell: header, work area and status line. */
+/** One demo file as listed in demo/index.json. */
+interface DemoEntry {
+  file: string;
+  title: string;
+  description: string;
+  kind: 'micrograph' | 'pattern';
+}
+
+interface Message {
+  text: string;
+  kind: 'info' | 'error' | 'busy';
+}
+
+/** A side-panel tab: the library, or a panel element loaded from its own module. */
+interface Tab {
+  id: string;
+  label: string;
+  tag?: string;
+}
+
+const ACCEPT = '.tif,.tiff,.png,.jpg,.jpeg,.mrc,.mrcs,image/tiff,image/png,image/jpeg';
+
+function formatBytes(n: number): string {
+  if (n < 1048576) return `${(n / 1024).toFixed(0)} kB`;
+  if (n < 1073741824) return `${(n / 1048576).toFixed(1)} MB`;
+  return `${(n / 1073741824).toFixed(1)} GB`;
+}
+
+function mimeFor(fileName: string): string {
+  const ext = fileName.toLowerCase().split('.').pop() ?? '';
+  return ({ tif: 'image/tiff', tiff: 'image/tiff', png: 'image/png', jpg: 'image/jpeg', jpeg: 'image/jpeg' } as Record<string, string>)[ext] ?? '';
+}
+
+/**
+ * `<strata-app>`: the application shell. Header with file opening and storage use, a message
+ * line, the viewer in the centre and tabbed side panels (the library and every measurement
+ * panel present in the build).
+ *
+ * Side panels are the modules `components/*-panel.ts`, found at build time. Each is given the
+ * properties `image` (GreyImage | null), `record` (ImageRecord | null), `db` (LibraryDb | null),
+ * `compute` (ComputeClient), `viewer` (the StrataViewer), `line` (LineDrawnDetail | null) and
+ * `rect` (RectDrawnDetail | null), and may send the events `status-message` {text, kind},
+ * `overlay-shapes` {shapes}, `calibration-changed` {calibration} and `library-changed`.
+ */
 export class StrataApp extends LitElement {
-  static override styles = css`
-    :host { display: flex; flex-direction: column; height: 100vh; }
-    header { display: flex; align-items: center; gap: 12px; padding: 8px 14px; background: var(--panel); border-bottom: 1px solid var(--line); }
-    h1 { font-size: 16px; margin: 0; letter-spacing: 0.04em; }
-    main { flex: 1; display: grid; place-items: center; color: var(--muted); }
-  `;
+  static override properties = {
+    image: { state: true },
+    record: { state: true },
+    levels: { state: true },
+    histogram: { state: true },
+    message: { state: true },
+    storage: { state: true },
+    demos: { state: true },
+    tabs: { state: true },
+    activeTab: { state: true },
+    libraryRevision: { state: true },
+    dragging: { state: true },
+    shapes: { state: true },
+    line: { state: true },
+    rect: { state: true },
+  };
+
+  image: GreyImage | null = null;
+  record: ImageRecord | null = null;
+  levels: GreyImage[] = [];
+  histogram: Histogram | null = null;
+  message: Message | null = null;
+  storage: StorageEstimate | null = null;
+  demos: DemoEntry[] = [];
+  tabs: Tab[] = [{ id: 'library', label: 'Library' }];
+  activeTab = 'library';
+  libraryRevision = 0;
+  dragging = false;
+  shapes: OverlayShape[] = [];
+  line: LineDrawnDetail | null = null;
+  rect: RectDrawnDetail | null = null;
+
+  private db: LibraryDb | null = null;
+  private readonly compute = new ComputeClient();
+  private warming: Promise<void> | null = null;
+
+  static override styles = [
+    controlStyles,
+    css`
+      :host { display: flex; flex-direction: column; height: 100vh; }
+      header { display: flex; align-items: center; gap: 10px; padding: 6px 12px; background: var(--panel); border-bottom: 1px solid var(--line); }
+      h1 { font-size: 15px; margin: 0; letter-spacing: 0.04em; font-weight: 600; }
+      .tagline { color: var(--muted); font-size: 12px; }
+      .spacer { flex: 1; }
+      .storage { font-size: 12px; color: var(--muted); }
+      .message { margin: 0; padding: 4px 12px; font-size: 13px; border-bottom: 1px solid var(--line); min-height: 20px; background: #141a20; }
+      .message.error { color: #ffb4b4; background: #2a1717; }
+      .message.busy { color: var(--accent-2); }
+      .work { flex: 1; display: grid; grid-template-columns: 1fr 360px; min-height: 0; }
+      strata-viewer { min-height: 0; }
+      .start { overflow-y: auto; padding: 28px 36px; border-right: 1px solid var(--line); }
+      .start h2 { font-size: 16px; font-weight: 600; margin: 0 0 6px; }
+      .start p { color: var(--muted); margin: 0 0 16px; max-width: 60em; line-height: 1.5; }
+      .drop { border: 1px dashed var(--line); border-radius: 4px; padding: 22px; text-align: center; color: var(--muted); margin-bottom: 24px; }
+      .drop.on, :host(.dragging) .drop { border-color: var(--accent); color: var(--text); }
+      .demos { display: grid; grid-template-columns: repeat(auto-fill, minmax(250px, 1fr)); gap: 10px; }
+      .demo { text-align: left; padding: 10px 12px; display: flex; flex-direction: column; gap: 4px; min-height: 76px; }
+      .demo b { font-size: 13px; }
+      .demo span { color: var(--muted); font-size: 12px; line-height: 1.4; }
+      .demo .kind { color: var(--accent-2); font-size: 11px; text-transform: uppercase; letter-spacing: 0.06em; }
+      aside { display: flex; flex-direction: column; min-height: 0; background: var(--panel); border-left: 1px solid var(--line); }
+      [role='tablist'] { display: flex; border-bottom: 1px solid var(--line); }
+      [role='tab'] { border: 0; border-radius: 0; background: transparent; padding: 6px 12px; border-bottom: 2px solid transparent; color: var(--muted); }
+      [role='tab'][aria-selected='true'] { color: var(--text); border-bottom-color: var(--accent); }
+      [role='tabpanel'] { flex: 1; min-height: 0; display: flex; flex-direction: column; overflow-y: auto; }
+      [role='tabpanel'][hidden] { display: none; }
+      input[type='file'] { display: none; }
+    `,
+  ];
 
   override connectedCallback(): void {
     super.connectedCallback();
     if ('serviceWorker' in navigator && location.protocol !== 'file:') {
       navigator.serviceWorker.register('sw.js').catch((e) => console.warn('service worker not registered', e));
     }
+    this.addEventListener('dragover', this.onDragOver);
+    this.addEventListener('dragleave', this.onDragLeave);
+    this.addEventListener('drop', this.onDrop);
+    void this.start();
+  }
+
+  private async start(): Promise<void> {
+    try {
+      this.db = await openLibrary({ onVersionChange: () => this.say('A newer Stratameter was opened in another tab: reload this page.', 'error') });
+      this.libraryRevision++;
+    } catch (e) {
+      this.say(`The local library cannot be opened (${(e as Error).message}); images will not be kept.`, 'error');
+    }
+    void requestPersistence().then(() => this.refreshStorage()).catch(() => undefined);
+    void this.loadDemos();
+    void this.loadPanels();
+  }
+
+  private async loadDemos(): Promise<void> {
+    try {
+      const res = await fetch('demo/index.json');
+      if (!res.ok) return;
+      const list = (await res.json()) as DemoEntry[];
+      this.demos = Array.isArray(list) ? list.filter((d) => d && typeof d.file === 'string') : [];
+    } catch {
+      this.demos = [];
+    }
+  }
+
+  private async loadPanels(): Promise<void> {
+    const loaded: Tab[] = [];
+    for (const p of panels as PanelEntry[]) {
+      try {
+        const mod = (await p.load()) as Record<string, unknown>;
+        let tag: string | undefined;
+        for (const v of Object.values(mod)) {
+          if (typeof v === 'function' && v.prototype instanceof HTMLElement) {
+            tag = customElements.getName(v as CustomElementConstructor) ?? undefined;
+            if (tag) break;
+          }
+        }
+        if (!tag) continue;
+        const label = typeof mod.panelLabel === 'string' ? mod.panelLabel : p.label;
+        loaded.push({ id: p.id, label, tag });
+      } catch (e) {
+        console.warn(`panel ${p.id} not loaded`, e);
+      }
+    }
+    this.tabs = [...loaded, { id: 'library', label: 'Library' }];
+    if (loaded.length && !this.image) this.activeTab = 'library';
+  }
+
+  private async refreshStorage(): Promise<void> {
+    this.storage = await storageEstimate().catch(() => null);
+  }
+
+  /** Shows a message on the message line (errors stay until the next message). */
+  say(text: string, kind: Message['kind'] = 'info'): void {
+    this.message = { text, kind };
+  }
+
+  private onDragOver = (e: DragEvent): void => {
+    if (!e.dataTransfer?.types.includes('Files')) return;
+    e.preventDefault();
+    this.dragging = true;
+  };
+
+  private onDragLeave = (e: DragEvent): void => {
+    if (e.target === this) this.dragging = false;
+  };
+
+  private onDrop = (e: DragEvent): void => {
+    e.preventDefault();
+    this.dragging = false;
+    const files = [...(e.dataTransfer?.files ?? [])];
+    void this.openFiles(files);
+  };
+
+  private async openFiles(files: File[]): Promise<void> {
+    let last: ImageRecord | null = null;
+    for (const f of files) {
+      const bytes = new Uint8Array(await f.arrayBuffer());
+      const rec = await this.openBytes(bytes, f.name, f.type || mimeFor(f.name));
+      if (rec) last = rec;
+    }
+    if (files.length > 1 && last) this.say(`Opened ${files.length} files; showing ${last.fileName}. All are in the library.`);
+  }
+
+  private async openDemo(d: DemoEntry): Promise<void> {
+    try {
+      this.say(`Reading ${d.title}…`, 'busy');
+      const res = await fetch(`demo/${d.file}`);
+      if (!res.ok) throw new Error(`demo file ${d.file} is missing (${res.status})`);
+      await this.openBytes(new Uint8Array(await res.arrayBuffer()), d.file, mimeFor(d.file));
+    } catch (e) {
+      this.say(`Could not open the demo ${d.title}: ${(e as Error).message}`, 'error');
+    }
+  }
+
+  /** Decodes in the worker, shows the image and keeps it in the library (once per file content). */
+  private async openBytes(bytes: Uint8Array, fileName: string, mimeType: string, existing?: ImageRecord): Promise<ImageRecord | null> {
+    this.say(`Reading ${fileName} (${formatBytes(bytes.byteLength)})…`, 'busy');
+    try {
+      const copy = bytes.slice();
+      const { image, levels, histogram } = await this.compute.call('openImage', { bytes: copy, fileName }, [copy.buffer]);
+      let record = existing ?? null;
+      if (!record && this.db) {
+        const [same] = await findImagesBySha256(this.db, await sha256Hex(bytes));
+        record = same ?? (await putImage(this.db, { bytes, fileName, image, mimeType, thumbnailFrom: levels[levels.length - 1] }));
+        this.libraryRevision++;
+        void this.refreshStorage();
+      }
+      if (record?.calibration && !image.calibration) image.calibration = record.calibration;
+      this.levels = levels;
+      this.histogram = histogram;
+      this.image = image;
+      this.record = record;
+      this.shapes = [];
+      this.line = null;
+      this.rect = null;
+      // The measuring engine (opencv.js, about 11 MB) starts in the worker while the user looks.
+      this.warming ??= this.compute.call('warmUp', {}).then(
+        (r) => { this.dataset.engine = r.opencvVersion; },
+        (e) => { this.warming = null; console.warn('measuring engine not loaded', e); },
+      );
+      const notes = image.warnings.length ? ` Note: ${image.warnings.join(' ')}` : '';
+      const cal = image.calibration ? `${image.calibration.nmPerPx.toPrecision(4)} nm/px (${image.calibration.source})` : 'no pixel size: lengths are in pixels until you calibrate';
+      this.say(`${fileName}: ${image.width} × ${image.height} px, ${image.bitDepth}-bit, ${cal}.${record && !existing ? ' Kept in the library.' : ''}${notes}`);
+      return record;
+    } catch (e) {
+      this.say((e as Error).message || `Could not read ${fileName}.`, 'error');
+      return null;
+    }
+  }
+
+  private async openStored(id: string): Promise<void> {
+    if (!this.db) return;
+    const rec = await getImage(this.db, id);
+    if (!rec) {
+      this.say('That image is no longer in the library.', 'error');
+      this.libraryRevision++;
+      return;
+    }
+    await this.openBytes(await imageBytes(rec), rec.fileName, rec.mimeType, rec);
+  }
+
+  private async onCalibrationChanged(calibration: Calibration | null): Promise<void> {
+    if (!this.image) return;
+    this.image = { ...this.image, calibration };
+    if (this.db && this.record) {
+      try {
+        this.record = await setImageCalibration(this.db, this.record.id, calibration);
+        this.libraryRevision++;
+      } catch (e) {
+        this.say((e as Error).message, 'error');
+      }
+    }
+  }
+
+  private onPanelEvent = (e: Event): void => {
+    const detail = (e as CustomEvent).detail;
+    switch (e.type) {
+      case 'status-message': this.say(String(detail?.text ?? ''), detail?.kind === 'error' ? 'error' : 'info'); break;
+      case 'overlay-shapes': this.shapes = Array.isArray(detail?.shapes) ? detail.shapes : []; break;
+      case 'calibration-changed': void this.onCalibrationChanged(detail?.calibration ?? null); break;
+      case 'library-changed': this.libraryRevision++; void this.refreshStorage(); break;
+      case 'open-image': void this.openStored(String(detail?.id)); break;
+    }
+  };
+
+  protected override firstUpdated(): void {
+    const aside = this.renderRoot.querySelector('aside');
+    for (const t of ['status-message', 'overlay-shapes', 'calibration-changed', 'library-changed', 'open-image']) {
+      aside?.addEventListener(t, this.onPanelEvent);
+      if (t === 'status-message') this.renderRoot.querySelector('.work')?.addEventListener(t, this.onPanelEvent);
+    }
+  }
+
+  private viewer(): StrataViewer | null {
+    return this.renderRoot.querySelector('strata-viewer');
+  }
+
+  protected override updated(): void {
+    // Panels are plain custom elements of other modules: hand them the current state.
+    const viewer = this.viewer();
+    for (const el of this.renderRoot.querySelectorAll<HTMLElement>('[data-panel]')) {
+      Object.assign(el, { image: this.image, record: this.record, db: this.db, compute: this.compute, viewer, line: this.line, rect: this.rect });
+    }
+  }
+
+  private onTabKey(e: KeyboardEvent): void {
+    const i = this.tabs.findIndex((t) => t.id === this.activeTab);
+    let next = i;
+    if (e.key === 'ArrowRight') next = (i + 1) % this.tabs.length;
+    else if (e.key === 'ArrowLeft') next = (i - 1 + this.tabs.length) % this.tabs.length;
+    else return;
+    e.preventDefault();
+    this.activeTab = this.tabs[next].id;
+    void this.updateComplete.then(() => this.renderRoot.querySelector<HTMLElement>(`[role='tab'][aria-selected='true']`)?.focus());
+  }
+
+  private renderStart() {
+    const micrographs = this.demos.filter((d) => d.kind !== 'pattern');
+    return html`<section class="start" aria-label="Start">
+      <h2>Open a micrograph</h2>
+      <p>TEM and STEM images as TIFF (8, 16 or 32-bit), PNG, JPEG or MRC. The pixel size is read from the file where it is stored;
+        otherwise calibrate from the scale bar, a lattice spacing of a known standard, or an instrument profile.
+        Everything stays in this browser and works without a network.</p>
+      <div class=${this.dragging ? 'drop on' : 'drop'}>
+        Drop image files here, or <button @click=${() => this.renderRoot.querySelector<HTMLInputElement>('input.open')?.click()}>choose files…</button>
+      </div>
+      ${micrographs.length
+        ? html`<h2>Demo images</h2>
+            <p>Synthetic micrographs of layered materials with known periods, to try the tools on.</p>
+            <div class="demos">${micrographs.map((d) => html`<button class="demo" @click=${() => this.openDemo(d)}>
+              <span class="kind">${d.kind}</span><b>${d.title}</b><span>${d.description}</span></button>`)}</div>`
+        : nothing}
+    </section>`;
+  }
+
+  private renderStorage() {
+    const s = this.storage;
+    if (!s) return nothing;
+    const used = formatBytes(s.usageBytes);
+    const quota = s.quotaBytes ? formatBytes(s.quotaBytes) : '?';
+    return html`<span class="storage num" title=${s.persisted ? 'The browser keeps this data under storage pressure' : 'The browser may clear this data when the disk is short of space; export the library to keep a copy'}>
+      Local storage ${used} of ${quota}${s.persisted ? ' · kept' : ' · may be cleared'}</span>`;
   }
 
   override render() {
+    const m = this.message;
     return html`
-      <header><h1>Stratameter</h1></header>
-      <main><p>Open a micrograph to begin.</p></main>
+      <header>
+        <h1>Stratameter</h1>
+        <span class="tagline">lattice fringes · sheet thickness · diffraction</span>
+        <button @click=${() => this.renderRoot.querySelector<HTMLInputElement>('input.open')?.click()} title="Open TEM/STEM images (TIFF, PNG, JPEG, MRC)">Open images…</button>
+        <input class="open" type="file" multiple accept=${ACCEPT}
+          @change=${(e: Event) => { const i = e.target as HTMLInputElement; const files = [...(i.files ?? [])]; i.value = ''; void this.openFiles(files); }}>
+        ${this.image ? html`<button @click=${() => { this.image = null; this.record = null; this.message = null; }} title="Back to the start screen">Close image</button>` : nothing}
+        <span class="spacer"></span>
+        ${this.renderStorage()}
+      </header>
+      <p class="message ${m?.kind ?? ''}" role=${m?.kind === 'error' ? 'alert' : 'status'}>${m?.text ?? ''}</p>
+      <div class="work">
+        ${this.image
+          ? html`<strata-viewer .image=${this.image} .levels=${this.levels} .histogram=${this.histogram} .shapes=${this.shapes}
+              @line-drawn=${(e: CustomEvent<LineDrawnDetail>) => (this.line = e.detail)}
+              @rect-drawn=${(e: CustomEvent<RectDrawnDetail>) => (this.rect = e.detail)}></strata-viewer>`
+          : this.renderStart()}
+        <aside>
+          <div role="tablist" aria-label="Panels" @keydown=${this.onTabKey}>
+            ${this.tabs.map((t) => html`<button role="tab" id=${`tab-${t.id}`} aria-controls=${`panel-${t.id}`}
+              aria-selected=${t.id === this.activeTab ? 'true' : 'false'} tabindex=${t.id === this.activeTab ? '0' : '-1'}
+              @click=${() => (this.activeTab = t.id)}>${t.label}</button>`)}
+          </div>
+          ${this.tabs.map((t) => html`<div role="tabpanel" id=${`panel-${t.id}`} aria-labelledby=${`tab-${t.id}`} ?hidden=${t.id !== this.activeTab}>
+            ${t.id === 'library'
+              ? html`<strata-library .db=${this.db} .currentId=${this.record?.id ?? null} .revision=${this.libraryRevision}></strata-library>`
+              : this.renderPanel(t)}
+          </div>`)}
+        </aside>
+      </div>
     `;
+  }
+
+  private readonly panelElements = new Map<string, HTMLElement>();
+
+  private renderPanel(t: Tab) {
+    let el = this.panelElements.get(t.id);
+    if (!el && t.tag) {
+      el = document.createElement(t.tag);
+      el.dataset.panel = t.id;
+      this.panelElements.set(t.id, el);
+    }
+    return el ?? nothing;
   }
 }
 

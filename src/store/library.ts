@@ -122,6 +122,8 @@ export interface NewImage {
   image: GreyImage;
   /** MIME type of the file, if known. */
   mimeType?: string;
+  /** A smaller version of the image to make the thumbnail from (e.g. a pyramid level); default the image. */
+  thumbnailFrom?: GreyImage;
   /** Id to use (default a new random UUID). */
   id?: string;
   /** Time added (default now). */
@@ -153,7 +155,7 @@ export async function putImage(db: LibraryDb, input: NewImage): Promise<ImageRec
     bitDepth: image.bitDepth,
     sampleKind: image.sampleKind,
     calibration: image.calibration,
-    thumbnail: makeThumbnail(image),
+    thumbnail: makeThumbnail(input.thumbnailFrom ?? image),
   };
   await saveInOneTransaction(db, ['images'], `the image ${record.fileName} (${formatBytes(record.byteSize)})`, async (tx) => {
     await tx.objectStore('images').put(record);

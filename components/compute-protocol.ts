@@ -1,0 +1,50 @@
+/**
+ * The calls the compute worker answers: name → argument and result types. Adding a call is one
+ * line here and one entry in the handler table of compute-worker.ts.
+ */
+import type { GreyImage } from '../src/image/grey-image';
+import type { Histogram } from './pyramid';
+
+export interface ComputeCalls {
+  /** Decodes a file's bytes into a GreyImage. */
+  decode: { args: { bytes: Uint8Array; fileName: string }; result: GreyImage };
+  /** Box-averaged pyramid levels below full resolution, and a histogram for the display. */
+  prepareView: { args: { image: GreyImage; smallestSidePx?: number }; result: { levels: GreyImage[]; histogram: Histogram } };
+  /** Loads opencv.js in the worker ahead of the first measurement; resolves to its version. */
+  warmUp: { args: Record<string, never>; result: { opencvVersion: string } };
+  /** Decodes and prepares in one round trip (what opening a file needs). */
+  openImage: {
+    args: { bytes: Uint8Array; fileName: string };
+    result: { image: GreyImage; levels: GreyImage[]; histogram: Histogram };
+  };
+}
+
+export type CallName = keyof ComputeCalls;
+export type CallArgs<K extends CallName> = ComputeCalls[K]['args'];
+export type CallResult<K extends CallName> = ComputeCalls[K]['result'];
+
+/** Page → worker. */
+export interface ComputeRequest {
+  id: number;
+  name: CallName;
+  args: unknown;
+}
+
+/** Worker → page. */
+export type ComputeResponse =
+  | { id: number; ok: true; result: unknown }
+  | { id: number; ok: false; error: { name: string; message: string } };
+
+/** Every ArrayBuffer inside a value (typed arrays included), once each, for a transfer list. */
+export function transferablesOf(value: unknown, found = new Set<ArrayBuffer>(), seen = new Set<unknown>()): ArrayBuffer[] {
+  if (value && typeof value === 'object' && !seen.has(value)) {
+    seen.add(value);
+    if (value instanceof ArrayBuffer) found.add(value);
+    else if (ArrayBuffer.isView(value)) {
+      if (value.buffer instanceof ArrayBuffer) found.add(value.buffer);
+    } else if (!(typeof Blob !== 'undefined' && value instanceof Blob)) {
+      for (const v of Object.values(value)) transferablesOf(v, found, seen);
+    }
+  }
+  return [...found];
+}

@@ -1,0 +1,55 @@
+/// <reference lib="webworker" />
+/**
+ * The compute worker: heavy work off the page's thread. One handler per call in the table
+ * below; results are sent back with their ArrayBuffers transferred, not copied.
+ */
+import type { CallArgs, CallName, CallResult, ComputeRequest, ComputeResponse } from './compute-protocol';
+import { transferablesOf } from './compute-protocol';
+import { buildPyramid, histogram } from './pyramid';
+
+type Handlers = { [K in CallName]: (args: CallArgs<K>) => Promise<CallResult<K>> | CallResult<K> };
+
+async function decode(args: CallArgs<'decode'>): Promise<CallResult<'decode'>> {
+  const { decodeImage } = await import('../src/image/decode');
+  return decodeImage(args.bytes, args.fileName);
+}
+
+function prepareView(args: CallArgs<'prepareView'>): CallResult<'prepareView'> {
+  const levels = buildPyramid(args.image, { smallestSidePx: args.smallestSidePx });
+  // The histogram of a level of about a million pixels shows the same distribution at a fraction of the cost.
+  const forHistogram = levels.find((l) => l.width * l.height <= 1 << 20) ?? args.image;
+  return { levels, histogram: histogram(forHistogram) };
+}
+
+async function warmUp(): Promise<CallResult<'warmUp'>> {
+  const { loadCv } = await import('../src/image/cv');
+  const { cv } = await loadCv();
+  const info = String(cv.getBuildInformation?.() ?? '');
+  const version = /General configuration for OpenCV ([^\s=]+)/.exec(info)?.[1] ?? 'unknown';
+  return { opencvVersion: version };
+}
+
+const handlers: Handlers = {
+  decode,
+  prepareView,
+  warmUp,
+  openImage: async (args) => {
+    const image = await decode(args);
+    return { image, ...prepareView({ image }) };
+  },
+};
+
+const scope = self as unknown as DedicatedWorkerGlobalScope;
+scope.onmessage = async (event: MessageEvent<ComputeRequest>) => {
+  const { id, name, args } = event.data;
+  let reply: ComputeResponse;
+  try {
+    const handler = handlers[name] as (a: unknown) => unknown;
+    if (!handler) throw new Error(`the compute worker has no call named ${JSON.stringify(name)}`);
+    reply = { id, ok: true, result: await handler(args) };
+  } catch (e) {
+    const err = e instanceof Error ? e : new Error(String(e));
+    reply = { id, ok: false, error: { name: err.name, message: err.message } };
+  }
+  scope.postMessage(reply, reply.ok ? transferablesOf(reply.result) : []);
+};

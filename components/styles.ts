@@ -1,0 +1,23 @@
+// Shared look of the controls in every panel: dark, calm, dense, with a visible focus ring.
+import { css } from 'lit';
+
+export const controlStyles = css`
+  :host { color: var(--text); font: inherit; }
+  *:focus-visible { outline: 2px solid var(--focus); outline-offset: 1px; }
+  button, select, input {
+    font: inherit; font-size: 13px; color: var(--text); background: #212b35; border: 1px solid var(--line);
+    border-radius: 3px; padding: 3px 8px; min-height: 26px; box-sizing: border-box;
+  }
+  button { cursor: pointer; }
+  button:hover { background: #2a3642; }
+  button[aria-pressed='true'], button.on { background: #34475a; border-color: var(--accent-2); color: #fff; }
+  button:disabled { opacity: 0.5; cursor: default; }
+  button.danger { border-color: #6b3434; }
+  button.danger:hover { background: #4a2626; }
+  input[type='number'] { width: 6.5em; padding: 3px 4px; }
+  input[type='checkbox'] { min-height: 0; accent-color: var(--accent-2); }
+  label { color: var(--muted); font-size: 12px; display: inline-flex; align-items: center; gap: 4px; }
+  .sep { width: 1px; align-self: stretch; background: var(--line); margin: 0 4px; }
+  .muted { color: var(--muted); }
+  .num { font-variant-numeric: tabular-nums; }
+`;

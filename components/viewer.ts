@@ -1,0 +1,599 @@
+import { LitElement, css, html, svg, nothing, type PropertyValues } from 'lit';
+import type { GreyImage } from '../src/image/grey-image';
+import { histogram as makeHistogram, histogramPercentile, type Histogram } from './pyramid';
+import { controlStyles } from './styles';
+
+/** The drawing tool the pointer is bound to. */
+export type ViewerTool = 'pan' | 'line' | 'rect';
+
+/** Detail of `line-drawn`: a line in image-pixel coordinates with its averaging width. */
+export interface LineDrawnDetail {
+  x0: number;
+  y0: number;
+  x1: number;
+  y1: number;
+  widthPx: number;
+}
+
+/** Detail of `rect-drawn`: a rectangle in image-pixel coordinates (whole pixels). */
+export interface RectDrawnDetail {
+  x: number;
+  y: number;
+  width: number;
+  height: number;
+}
+
+/** A shape the overlay shows, in image-pixel coordinates. */
+export type OverlayShape =
+  | ({ kind: 'line'; label?: string; tone?: 'accent' | 'info' | 'warn' } & LineDrawnDetail)
+  | ({ kind: 'rect'; label?: string; tone?: 'accent' | 'info' | 'warn' } & RectDrawnDetail)
+  | { kind: 'point'; x: number; y: number; label?: string; tone?: 'accent' | 'info' | 'warn' };
+
+type Drag =
+  | { mode: 'pan'; startX: number; startY: number; cx: number; cy: number }
+  | { mode: 'line'; x0: number; y0: number }
+  | { mode: 'rect'; x0: number; y0: number }
+  | { mode: 'width' };
+
+const ZOOM_STEP = 1.25;
+const NICE = [1, 2, 5];
+
+/** A length near `target` of the form 1, 2 or 5 × 10^n. */
+function niceLength(target: number): number {
+  const p = Math.pow(10, Math.floor(Math.log10(target)));
+  let best = p;
+  for (const n of NICE) if (n * p <= target) best = n * p;
+  return best;
+}
+
+function formatNm(nm: number): string {
+  if (nm >= 1000) return `${+(nm / 1000).toPrecision(3)} µm`;
+  return `${+nm.toPrecision(3)} nm`;
+}
+
+function formatValue(v: number): string {
+  if (!Number.isFinite(v)) return String(v);
+  if (Number.isInteger(v)) return String(v);
+  return Math.abs(v) >= 1000 || Math.abs(v) < 0.01 ? v.toExponential(3) : v.toFixed(3);
+}
+
+/**
+ * `<strata-viewer>`: shows a GreyImage on a canvas with zoom, pan, contrast, histogram, cursor
+ * readout, scale bar and an overlay for measurement shapes.
+ *
+ * Properties: `image`, `levels` (box-averaged pyramid below full resolution, optional),
+ * `histogram` (optional; computed from the smallest level when absent), `tool`, `shapes`,
+ * `lineWidthPx`, `lowPercent`, `highPercent`, `invert`.
+ * Events: `line-drawn` (LineDrawnDetail), `rect-drawn` (RectDrawnDetail), `tool-changed`.
+ */
+export class StrataViewer extends LitElement {
+  static override properties = {
+    image: { attribute: false },
+    levels: { attribute: false },
+    histogram: { attribute: false },
+    tool: { type: String },
+    shapes: { attribute: false },
+    lineWidthPx: { type: Number, attribute: 'line-width-px' },
+    lowPercent: { type: Number, attribute: 'low-percent' },
+    highPercent: { type: Number, attribute: 'high-percent' },
+    invert: { type: Boolean },
+    zoom: { state: true },
+    cx: { state: true },
+    cy: { state: true },
+    black: { state: true },
+    white: { state: true },
+    manual: { state: true },
+    cursor: { state: true },
+    draft: { state: true },
+  };
+
+  image: GreyImage | null = null;
+  levels: GreyImage[] = [];
+  histogram: Histogram | null = null;
+  tool: ViewerTool = 'pan';
+  shapes: OverlayShape[] = [];
+  lineWidthPx = 5;
+  lowPercent = 0.5;
+  highPercent = 99.5;
+  invert = false;
+
+  /** Screen (CSS) pixels per image pixel. */
+  zoom = 1;
+  /** Image coordinates at the centre of the view. */
+  cx = 0;
+  cy = 0;
+  /** Grey value shown black / white. */
+  black = 0;
+  white = 1;
+  /** True when the user typed the limits (the percentiles no longer apply). */
+  manual = false;
+  cursor: { x: number; y: number; value: number } | null = null;
+  draft: OverlayShape | null = null;
+
+  private drag: Drag | null = null;
+  private viewW = 0;
+  private viewH = 0;
+  private frame = 0;
+  private resizer: ResizeObserver | null = null;
+  private shownHistogram: Histogram | null = null;
+  private imageData: ImageData | null = null;
+
+  static override styles = [
+    controlStyles,
+    css`
+      :host { display: flex; flex-direction: column; min-width: 0; min-height: 0; background: #0b0e11; }
+      .bar { display: flex; flex-wrap: wrap; align-items: center; gap: 4px; padding: 4px 8px; background: var(--panel); border-bottom: 1px solid var(--line); }
+      .group { display: inline-flex; gap: 2px; }
+      .stage { position: relative; flex: 1; min-height: 120px; overflow: hidden; outline: none; cursor: grab; touch-action: none; }
+      .stage.drawing { cursor: crosshair; }
+      .stage:focus-visible { box-shadow: inset 0 0 0 2px var(--focus); }
+      canvas.view { position: absolute; inset: 0; width: 100%; height: 100%; image-rendering: pixelated; }
+      svg.overlay { position: absolute; inset: 0; width: 100%; height: 100%; pointer-events: none; }
+      svg .handle { pointer-events: all; cursor: ew-resize; }
+      .empty { position: absolute; inset: 0; display: grid; place-items: center; color: var(--muted); }
+      .foot { display: flex; align-items: center; gap: 12px; padding: 3px 8px; background: var(--panel); border-top: 1px solid var(--line); font-size: 12px; min-height: 66px; }
+      .readout { flex: 1; display: grid; grid-template-columns: repeat(3, max-content); gap: 2px 16px; }
+      .readout b { color: var(--muted); font-weight: normal; margin-right: 4px; }
+      canvas.hist { width: 260px; height: 56px; background: #0b0e11; border: 1px solid var(--line); }
+    `,
+  ];
+
+  override connectedCallback(): void {
+    super.connectedCallback();
+    this.resizer = new ResizeObserver(() => this.measure());
+  }
+
+  override disconnectedCallback(): void {
+    super.disconnectedCallback();
+    this.resizer?.disconnect();
+    cancelAnimationFrame(this.frame);
+  }
+
+  protected override firstUpdated(): void {
+    const stage = this.stage();
+    if (stage) this.resizer?.observe(stage);
+    stage?.addEventListener('wheel', (e) => this.onWheel(e), { passive: false });
+    this.measure();
+  }
+
+  protected override willUpdate(changed: PropertyValues<this>): void {
+    if (changed.has('image') || changed.has('levels') || changed.has('histogram')) {
+      this.shownHistogram = this.histogram ?? (this.image ? makeHistogram(this.smallestLevel()) : null);
+      if (changed.has('image')) {
+        this.manual = false;
+        this.draft = null;
+        this.cursor = null;
+        this.fitToWindow();
+      }
+      if (!this.manual) this.autoLimits();
+    }
+    if ((changed.has('lowPercent') || changed.has('highPercent')) && !this.manual) this.autoLimits();
+  }
+
+  protected override updated(): void {
+    this.scheduleDraw();
+    this.drawHistogram();
+  }
+
+  /** Largest zoom-out level (smallest image) available. */
+  private smallestLevel(): GreyImage {
+    return this.levels.length ? this.levels[this.levels.length - 1] : (this.image as GreyImage);
+  }
+
+  private stage(): HTMLElement | null {
+    return this.renderRoot.querySelector('.stage');
+  }
+
+  private measure(): void {
+    const stage = this.stage();
+    if (!stage) return;
+    const w = stage.clientWidth;
+    const h = stage.clientHeight;
+    const first = this.viewW === 0;
+    this.viewW = w;
+    this.viewH = h;
+    if (first && this.image) this.fitToWindow();
+    this.requestUpdate();
+  }
+
+  /** Sets black and white from the percentiles of the histogram. */
+  autoLimits(): void {
+    const h = this.shownHistogram;
+    if (!h) return;
+    this.manual = false;
+    this.black = histogramPercentile(h, this.lowPercent);
+    this.white = histogramPercentile(h, this.highPercent);
+    if (!(this.white > this.black)) this.white = this.black + Math.max(1e-6, (h.max - h.min) / h.counts.length);
+  }
+
+  /** Zooms so the whole image fits the view, centred. */
+  fitToWindow(): void {
+    if (!this.image) return;
+    this.cx = this.image.width / 2;
+    this.cy = this.image.height / 2;
+    if (this.viewW > 0 && this.viewH > 0) this.zoom = Math.min(this.viewW / this.image.width, this.viewH / this.image.height) * 0.98;
+  }
+
+  /** One image pixel per screen pixel. */
+  actualSize(): void {
+    this.zoom = 1 / (globalThis.devicePixelRatio || 1);
+  }
+
+  /** Multiplies the zoom by `factor`, keeping the image point under (sx, sy) in place. */
+  zoomBy(factor: number, sx = this.viewW / 2, sy = this.viewH / 2): void {
+    if (!this.image) return;
+    const next = Math.min(64, Math.max(1 / 256, this.zoom * factor));
+    const [ix, iy] = this.toImage(sx, sy);
+    this.zoom = next;
+    this.cx = ix - (sx - this.viewW / 2) / next;
+    this.cy = iy - (sy - this.viewH / 2) / next;
+  }
+
+  /** Screen (CSS px within the stage) → image pixel coordinates. */
+  toImage(sx: number, sy: number): [number, number] {
+    return [this.cx + (sx - this.viewW / 2) / this.zoom, this.cy + (sy - this.viewH / 2) / this.zoom];
+  }
+
+  /** Image pixel coordinates → screen (CSS px within the stage). */
+  toScreen(ix: number, iy: number): [number, number] {
+    return [(ix - this.cx) * this.zoom + this.viewW / 2, (iy - this.cy) * this.zoom + this.viewH / 2];
+  }
+
+  private scheduleDraw(): void {
+    cancelAnimationFrame(this.frame);
+    this.frame = requestAnimationFrame(() => this.draw());
+  }
+
+  /** Draws the visible part of the image from the pyramid level that matches the zoom. */
+  private draw(): void {
+    const canvas = this.renderRoot.querySelector<HTMLCanvasElement>('canvas.view');
+    if (!canvas || !this.image || this.viewW === 0) return;
+    const dpr = globalThis.devicePixelRatio || 1;
+    const W = Math.max(1, Math.round(this.viewW * dpr));
+    const H = Math.max(1, Math.round(this.viewH * dpr));
+    if (canvas.width !== W || canvas.height !== H) {
+      canvas.width = W;
+      canvas.height = H;
+      this.imageData = null;
+    }
+    const ctx = canvas.getContext('2d');
+    if (!ctx) return;
+    if (!this.imageData || this.imageData.width !== W || this.imageData.height !== H) this.imageData = ctx.createImageData(W, H);
+    const devicePerImagePx = this.zoom * dpr;
+    let k = Math.floor(Math.log2(1 / devicePerImagePx));
+    k = Math.max(0, Math.min(this.levels.length, k));
+    const level = k === 0 ? this.image : this.levels[k - 1];
+    const f = this.image.width / level.width;
+    const lw = level.width;
+    const lh = level.height;
+    const cols = new Int32Array(W);
+    for (let sx = 0; sx < W; sx++) {
+      const ix = this.cx + (sx / dpr + 0.5 / dpr - this.viewW / 2) / this.zoom;
+      const lx = Math.floor(ix / f);
+      cols[sx] = ix < 0 || lx >= lw ? -1 : lx;
+    }
+    const out = new Uint32Array(this.imageData.data.buffer);
+    const bg = 0xff110e0b; // ABGR of #0b0e11
+    const black = this.black;
+    const scale = 255 / (this.white - this.black);
+    const inv = this.invert;
+    const data = level.data;
+    for (let sy = 0; sy < H; sy++) {
+      const iy = this.cy + (sy / dpr + 0.5 / dpr - this.viewH / 2) / this.zoom;
+      const ly = Math.floor(iy / f);
+      const o = sy * W;
+      if (iy < 0 || ly >= lh) {
+        out.fill(bg, o, o + W);
+        continue;
+      }
+      const row = ly * lw;
+      for (let sx = 0; sx < W; sx++) {
+        const c = cols[sx];
+        if (c < 0) {
+          out[o + sx] = bg;
+          continue;
+        }
+        let g = (data[row + c] - black) * scale;
+        g = g < 0 ? 0 : g > 255 ? 255 : g | 0;
+        if (inv) g = 255 - g;
+        out[o + sx] = 0xff000000 | (g << 16) | (g << 8) | g;
+      }
+    }
+    ctx.putImageData(this.imageData, 0, 0);
+    this.dataset.level = String(k);
+  }
+
+  private drawHistogram(): void {
+    const canvas = this.renderRoot.querySelector<HTMLCanvasElement>('canvas.hist');
+    const h = this.shownHistogram;
+    if (!canvas || !h) return;
+    const W = 260;
+    const H = 56;
+    canvas.width = W;
+    canvas.height = H;
+    const ctx = canvas.getContext('2d');
+    if (!ctx) return;
+    ctx.clearRect(0, 0, W, H);
+    const per = h.counts.length / W;
+    const col = new Float64Array(W);
+    let peak = 0;
+    for (let x = 0; x < W; x++) {
+      let s = 0;
+      for (let i = Math.floor(x * per); i < Math.floor((x + 1) * per); i++) s += h.counts[i];
+      col[x] = Math.log1p(s);
+      if (col[x] > peak) peak = col[x];
+    }
+    ctx.fillStyle = '#6c8796';
+    for (let x = 0; x < W; x++) {
+      const bh = peak ? (col[x] / peak) * (H - 4) : 0;
+      ctx.fillRect(x, H - bh, 1, bh);
+    }
+    const toX = (v: number) => ((v - h.min) / (h.max - h.min || 1)) * W;
+    ctx.fillStyle = '#e8c872';
+    ctx.fillRect(Math.round(toX(this.black)), 0, 1, H);
+    ctx.fillRect(Math.round(toX(this.white)), 0, 1, H);
+  }
+
+  private stagePoint(e: PointerEvent | WheelEvent): [number, number] {
+    const r = (e.currentTarget as HTMLElement).getBoundingClientRect();
+    return [e.clientX - r.left, e.clientY - r.top];
+  }
+
+  private onWheel(e: WheelEvent): void {
+    if (!this.image) return;
+    e.preventDefault();
+    const [sx, sy] = this.stagePoint(e);
+    const steps = Math.max(-5, Math.min(5, -e.deltaY / 100));
+    this.zoomBy(Math.pow(ZOOM_STEP, steps), sx, sy);
+  }
+
+  private onPointerDown(e: PointerEvent): void {
+    if (!this.image) return;
+    const stage = e.currentTarget as HTMLElement;
+    stage.focus();
+    const [sx, sy] = this.stagePoint(e);
+    const [ix, iy] = this.toImage(sx, sy);
+    if ((e.target as Element).classList?.contains('handle')) {
+      this.drag = { mode: 'width' };
+    } else if (this.tool === 'pan' || e.button === 1) {
+      this.drag = { mode: 'pan', startX: sx, startY: sy, cx: this.cx, cy: this.cy };
+    } else if (this.tool === 'line') {
+      this.drag = { mode: 'line', x0: ix, y0: iy };
+      this.draft = { kind: 'line', x0: ix, y0: iy, x1: ix, y1: iy, widthPx: this.lineWidthPx };
+    } else {
+      this.drag = { mode: 'rect', x0: ix, y0: iy };
+      this.draft = { kind: 'rect', x: ix, y: iy, width: 0, height: 0 };
+    }
+    stage.setPointerCapture(e.pointerId);
+  }
+
+  private onPointerMove(e: PointerEvent): void {
+    if (!this.image) return;
+    const [sx, sy] = this.stagePoint(e);
+    const [ix, iy] = this.toImage(sx, sy);
+    const px = Math.floor(ix);
+    const py = Math.floor(iy);
+    this.cursor = px >= 0 && py >= 0 && px < this.image.width && py < this.image.height
+      ? { x: px, y: py, value: this.image.data[py * this.image.width + px] }
+      : null;
+    const d = this.drag;
+    if (!d) return;
+    if (d.mode === 'pan') {
+      this.cx = d.cx - (sx - d.startX) / this.zoom;
+      this.cy = d.cy - (sy - d.startY) / this.zoom;
+    } else if (d.mode === 'line') {
+      this.draft = { kind: 'line', x0: d.x0, y0: d.y0, x1: ix, y1: iy, widthPx: this.lineWidthPx };
+    } else if (d.mode === 'rect') {
+      this.draft = { kind: 'rect', ...this.normalRect(d.x0, d.y0, ix, iy) };
+    } else if (d.mode === 'width' && this.draft?.kind === 'line') {
+      const l = this.draft;
+      const len = Math.hypot(l.x1 - l.x0, l.y1 - l.y0) || 1;
+      const dist = Math.abs((ix - l.x0) * (l.y1 - l.y0) - (iy - l.y0) * (l.x1 - l.x0)) / len;
+      this.lineWidthPx = Math.max(1, Math.round(2 * dist));
+      this.draft = { ...l, widthPx: this.lineWidthPx };
+    }
+  }
+
+  private onPointerUp(e: PointerEvent): void {
+    const d = this.drag;
+    this.drag = null;
+    (e.currentTarget as HTMLElement).releasePointerCapture?.(e.pointerId);
+    if (!d || !this.draft) return;
+    if (d.mode === 'line' || d.mode === 'width') {
+      const l = this.draft as Extract<OverlayShape, { kind: 'line' }>;
+      if (Math.hypot(l.x1 - l.x0, l.y1 - l.y0) < 2) {
+        this.draft = null;
+        return;
+      }
+      this.emitLine();
+    } else if (d.mode === 'rect') {
+      const r = this.draft as Extract<OverlayShape, { kind: 'rect' }>;
+      if (r.width < 2 || r.height < 2) {
+        this.draft = null;
+        return;
+      }
+      this.dispatchEvent(new CustomEvent<RectDrawnDetail>('rect-drawn', {
+        detail: { x: r.x, y: r.y, width: r.width, height: r.height }, bubbles: true, composed: true,
+      }));
+    }
+  }
+
+  private emitLine(): void {
+    if (this.draft?.kind !== 'line') return;
+    const { x0, y0, x1, y1, widthPx } = this.draft;
+    this.dispatchEvent(new CustomEvent<LineDrawnDetail>('line-drawn', { detail: { x0, y0, x1, y1, widthPx }, bubbles: true, composed: true }));
+  }
+
+  /** A rectangle in whole pixels, clipped to the image. */
+  private normalRect(ax: number, ay: number, bx: number, by: number): RectDrawnDetail {
+    const w = this.image?.width ?? 0;
+    const h = this.image?.height ?? 0;
+    const x0 = Math.max(0, Math.min(w, Math.round(Math.min(ax, bx))));
+    const y0 = Math.max(0, Math.min(h, Math.round(Math.min(ay, by))));
+    const x1 = Math.max(0, Math.min(w, Math.round(Math.max(ax, bx))));
+    const y1 = Math.max(0, Math.min(h, Math.round(Math.max(ay, by))));
+    return { x: x0, y: y0, width: x1 - x0, height: y1 - y0 };
+  }
+
+  private onKey(e: KeyboardEvent): void {
+    if (!this.image) return;
+    const panStep = (e.shiftKey ? 0.5 : 0.1) * Math.min(this.viewW, this.viewH) / this.zoom;
+    let handled = true;
+    switch (e.key) {
+      case '+': case '=': this.zoomBy(ZOOM_STEP); break;
+      case '-': case '_': this.zoomBy(1 / ZOOM_STEP); break;
+      case 'ArrowLeft': this.cx -= panStep; break;
+      case 'ArrowRight': this.cx += panStep; break;
+      case 'ArrowUp': this.cy -= panStep; break;
+      case 'ArrowDown': this.cy += panStep; break;
+      case 'f': case '0': this.fitToWindow(); break;
+      case '1': this.actualSize(); break;
+      case 'i': this.invert = !this.invert; break;
+      case '[': this.changeWidth(-1); break;
+      case ']': this.changeWidth(1); break;
+      case 'Escape': this.draft = null; break;
+      default: handled = false;
+    }
+    if (handled) e.preventDefault();
+  }
+
+  private changeWidth(delta: number): void {
+    this.lineWidthPx = Math.max(1, this.lineWidthPx + delta);
+    if (this.draft?.kind === 'line') {
+      this.draft = { ...this.draft, widthPx: this.lineWidthPx };
+      this.emitLine();
+    }
+  }
+
+  private setTool(tool: ViewerTool): void {
+    this.tool = tool;
+    this.draft = null;
+    this.dispatchEvent(new CustomEvent('tool-changed', { detail: { tool }, bubbles: true, composed: true }));
+  }
+
+  private setLimit(which: 'black' | 'white', e: Event): void {
+    const v = Number((e.target as HTMLInputElement).value);
+    if (!Number.isFinite(v)) return;
+    this.manual = true;
+    this[which] = v;
+    if (!(this.white > this.black)) {
+      if (which === 'black') this.white = v + 1;
+      else this.black = v - 1;
+    }
+  }
+
+  private setPercent(which: 'lowPercent' | 'highPercent', e: Event): void {
+    const v = Number((e.target as HTMLInputElement).value);
+    if (!(v >= 0 && v <= 100)) return;
+    this[which] = v;
+    if (this.lowPercent >= this.highPercent) return;
+    this.autoLimits();
+  }
+
+  private renderShape(s: OverlayShape, draft: boolean) {
+    const tone = draft ? '#ffd84d' : s.tone === 'info' ? '#9fd3e6' : s.tone === 'warn' ? '#f0a35e' : '#e8c872';
+    if (s.kind === 'line') {
+      const [ax, ay] = this.toScreen(s.x0, s.y0);
+      const [bx, by] = this.toScreen(s.x1, s.y1);
+      const len = Math.hypot(bx - ax, by - ay) || 1;
+      const nx = (-(by - ay) / len) * (s.widthPx / 2) * this.zoom;
+      const ny = ((bx - ax) / len) * (s.widthPx / 2) * this.zoom;
+      const band = `${ax + nx},${ay + ny} ${bx + nx},${by + ny} ${bx - nx},${by - ny} ${ax - nx},${ay - ny}`;
+      const mx = (ax + bx) / 2 + nx;
+      const my = (ay + by) / 2 + ny;
+      return svg`
+        <polygon points=${band} fill=${tone} fill-opacity="0.12" stroke=${tone} stroke-opacity="0.5" stroke-dasharray="3 3"></polygon>
+        <line x1=${ax} y1=${ay} x2=${bx} y2=${by} stroke=${tone} stroke-width="1.5"></line>
+        <circle cx=${ax} cy=${ay} r="3" fill=${tone}></circle><circle cx=${bx} cy=${by} r="3" fill=${tone}></circle>
+        ${draft ? svg`<circle class="handle" cx=${mx} cy=${my} r="6" fill="#101418" stroke=${tone} stroke-width="2"><title>Drag to set the averaging width</title></circle>` : nothing}
+        ${s.label ? svg`<text x=${bx + 6} y=${by - 6} fill=${tone} font-size="12">${s.label}</text>` : nothing}`;
+    }
+    if (s.kind === 'rect') {
+      const [ax, ay] = this.toScreen(s.x, s.y);
+      return svg`
+        <rect x=${ax} y=${ay} width=${s.width * this.zoom} height=${s.height * this.zoom} fill="none" stroke=${tone} stroke-width="1.5"></rect>
+        ${s.label ? svg`<text x=${ax + 4} y=${ay - 5} fill=${tone} font-size="12">${s.label}</text>` : nothing}`;
+    }
+    const [px, py] = this.toScreen(s.x, s.y);
+    return svg`<circle cx=${px} cy=${py} r="4" fill="none" stroke=${tone} stroke-width="1.5"></circle>
+      ${s.label ? svg`<text x=${px + 6} y=${py - 6} fill=${tone} font-size="12">${s.label}</text>` : nothing}`;
+  }
+
+  private renderScaleBar() {
+    const cal = this.image?.calibration;
+    if (!cal || this.viewW === 0) return nothing;
+    const nmPerScreenPx = cal.nmPerPx / this.zoom;
+    const lengthNm = niceLength(nmPerScreenPx * Math.min(160, this.viewW / 4));
+    const barPx = lengthNm / nmPerScreenPx;
+    const x = 16;
+    const y = this.viewH - 22;
+    return svg`<g class="scalebar">
+      <rect x=${x - 6} y=${y - 20} width=${barPx + 12} height="32" fill="#000" fill-opacity="0.55" rx="3"></rect>
+      <rect x=${x} y=${y} width=${barPx} height="5" fill="#fff"></rect>
+      <text x=${x + barPx / 2} y=${y - 6} fill="#fff" font-size="12" text-anchor="middle">${formatNm(lengthNm)}</text></g>`;
+  }
+
+  private renderReadout() {
+    const im = this.image;
+    if (!im) return nothing;
+    const c = this.cursor;
+    const cal = im.calibration;
+    const pct = `${(this.zoom * (globalThis.devicePixelRatio || 1) * 100).toPrecision(3)} %`;
+    return html`<div class="readout num" aria-live="off">
+      <span><b>x</b>${c ? c.x : '–'}</span><span><b>y</b>${c ? c.y : '–'}</span><span><b>value</b>${c ? formatValue(c.value) : '–'}</span>
+      <span><b>x nm</b>${c && cal ? (c.x * cal.nmPerPx).toFixed(2) : '–'}</span><span><b>y nm</b>${c && cal ? (c.y * (cal.nmPerPxY ?? cal.nmPerPx)).toFixed(2) : '–'}</span>
+      <span><b>zoom</b>${pct}</span>
+      <span class="muted">${im.width} × ${im.height} px, ${im.bitDepth}-bit</span>
+      <span class="muted">${cal ? `${cal.nmPerPx.toPrecision(4)} nm/px (${cal.source}, ±${(cal.relUncertainty * 100).toFixed(1)} %)` : 'uncalibrated: lengths in px'}</span>
+    </div>`;
+  }
+
+  override render() {
+    const im = this.image;
+    const tools: [ViewerTool, string, string][] = [
+      ['pan', 'Pan', 'Drag to move the image'],
+      ['line', 'Line profile', 'Drag to draw a line; drag its round handle (or press [ and ]) to set the averaging width'],
+      ['rect', 'Region', 'Drag to draw a rectangle'],
+    ];
+    return html`
+      <div class="bar" role="toolbar" aria-label="Viewer">
+        <span class="group" role="group" aria-label="Tool">
+          ${tools.map(([t, label, hint]) => html`<button aria-pressed=${this.tool === t ? 'true' : 'false'} title=${hint} @click=${() => this.setTool(t)}>${label}</button>`)}
+        </span>
+        <span class="sep"></span>
+        <span class="group" role="group" aria-label="Zoom">
+          <button title="Zoom out (−)" aria-label="Zoom out" ?disabled=${!im} @click=${() => this.zoomBy(1 / ZOOM_STEP)}>−</button>
+          <button title="Zoom in (+)" aria-label="Zoom in" ?disabled=${!im} @click=${() => this.zoomBy(ZOOM_STEP)}>+</button>
+          <button title="Fit the image to the window (F)" ?disabled=${!im} @click=${() => this.fitToWindow()}>Fit</button>
+          <button title="One image pixel per screen pixel (1)" ?disabled=${!im} @click=${() => this.actualSize()}>1:1</button>
+        </span>
+        <span class="sep"></span>
+        <label>low % <input type="number" min="0" max="100" step="0.1" .value=${String(this.lowPercent)} ?disabled=${!im} @change=${(e: Event) => this.setPercent('lowPercent', e)}></label>
+        <label>high % <input type="number" min="0" max="100" step="0.1" .value=${String(this.highPercent)} ?disabled=${!im} @change=${(e: Event) => this.setPercent('highPercent', e)}></label>
+        <label>black <input type="number" step="any" .value=${formatValue(this.black)} ?disabled=${!im} @change=${(e: Event) => this.setLimit('black', e)}></label>
+        <label>white <input type="number" step="any" .value=${formatValue(this.white)} ?disabled=${!im} @change=${(e: Event) => this.setLimit('white', e)}></label>
+        <button class=${this.manual ? '' : 'on'} title="Limits from the percentiles" ?disabled=${!im} @click=${() => this.autoLimits()}>Auto</button>
+        <label><input type="checkbox" .checked=${this.invert} ?disabled=${!im} @change=${(e: Event) => (this.invert = (e.target as HTMLInputElement).checked)}> invert</label>
+      </div>
+      <div class="stage ${this.tool === 'pan' ? '' : 'drawing'}" tabindex="0" role="img"
+        aria-label=${im ? `Image ${im.width} by ${im.height} pixels. Plus and minus zoom, arrow keys pan, F fits, 1 shows actual size.` : 'No image open'}
+        @pointerdown=${this.onPointerDown} @pointermove=${this.onPointerMove} @pointerup=${this.onPointerUp}
+        @pointerleave=${() => (this.cursor = null)} @keydown=${this.onKey}>
+        <canvas class="view"></canvas>
+        ${im ? html`<svg class="overlay" viewBox="0 0 ${this.viewW} ${this.viewH}">
+          ${this.shapes.map((s) => this.renderShape(s, false))}
+          ${this.draft ? this.renderShape(this.draft, true) : nothing}
+          ${this.renderScaleBar()}</svg>` : html`<div class="empty">No image open</div>`}
+      </div>
+      <div class="foot">${this.renderReadout()}${im ? html`<canvas class="hist" role="img" aria-label="Intensity histogram (log counts) with the black and white limits"></canvas>` : nothing}</div>
+    `;
+  }
+}
+
+customElements.define('strata-viewer', StrataViewer);
+
+declare global {
+  interface HTMLElementTagNameMap {
+    'strata-viewer': StrataViewer;
+  }
+}
