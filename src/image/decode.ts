@@ -74,6 +74,9 @@ const DEFAULT_DPI = [72, 96, 100, 150, 200, 240, 300, 400, 600, 1200];
 const MAX_CALIBRATED_NM_PER_PX = 1e4; // 10 µm
 const MIN_CALIBRATED_NM_PER_PX = 1e-3; // 1 pm
 
+/** Largest expansion of a Deflate stream: 258 bytes from a 2-bit code, about 1032:1 (RFC 1951). */
+const DEFLATE_MAX_RATIO = 1032;
+
 const NM_PER_INCH = 25.4e6; // 1 inch = 25.4 mm exactly (international yard and pound agreement, 1959)
 const NM_PER_CM = 1e7;
 const NM_PER_M = 1e9;
@@ -473,6 +476,12 @@ function readTiff(bytes: Uint8Array, maxPixels: number, fail: Fail): Decoded {
       fail(`truncated: ${tiled ? 'tile' : 'strip'} ${i} needs bytes ${offsets[i]}–${offsets[i] + count} but the file has ${bytes.length}`);
     }
   }
+  if ((compression === 8 || compression === 32946) && counts.length) {
+    // Deflate expands at most 1032:1 (RFC 1951: a 258-byte match costs at least 2 bits): fewer
+    // compressed bytes than that cannot hold the declared image.
+    const total = counts.reduce((a, b) => a + b, 0);
+    if (total * DEFLATE_MAX_RATIO < rowBytes * height) fail(`truncated or corrupt: ${total} bytes of Deflate data cannot hold ${rowBytes * height} bytes of image`);
+  }
   if (!tiled && compression === 1 && counts.length) {
     const total = counts.reduce((a, b) => a + b, 0);
     if (total < rowBytes * height) fail(`truncated: the strips hold ${total} bytes, the image needs ${rowBytes * height}`);
@@ -551,12 +560,16 @@ function readPng(bytes: Uint8Array, maxPixels: number, fail: Fail): Decoded {
   let at = 8;
   let ended = false;
   let idat = false;
+  let idatBytes = 0;
   let phys: { x: number; y: number; unit: number } | null = null;
   while (at + 12 <= bytes.length) {
     const len = view.getUint32(at);
     const type = chunkType(at + 4);
     if (at + 12 + len > bytes.length) fail(`truncated: PNG chunk ${type} at byte ${at} runs past the end of the file`);
-    if (type === 'IDAT') idat = true;
+    if (type === 'IDAT') {
+      idat = true;
+      idatBytes += len;
+    }
     if (type === 'pHYs' && len === 9) phys = { x: view.getUint32(at + 8), y: view.getUint32(at + 12), unit: bytes[at + 16] };
     at += 12 + len;
     if (type === 'IEND') {
@@ -566,6 +579,8 @@ function readPng(bytes: Uint8Array, maxPixels: number, fail: Fail): Decoded {
   }
   if (!idat) fail('truncated: the PNG has no image data (IDAT)');
   if (!ended) fail('truncated: the PNG ends before its IEND chunk');
+  const rawBytes = height * (1 + Math.ceil((width * channelsByType[colourType] * depth) / 8));
+  if (idatBytes * DEFLATE_MAX_RATIO < rawBytes) fail(`truncated or corrupt: ${idatBytes} bytes of image data cannot hold ${width} × ${height} pixels`);
 
   const img = decodeRaster(bytes);
   const spp = img.channels;
@@ -639,6 +654,9 @@ function readJpeg(bytes: Uint8Array, maxPixels: number, fail: Fail): Decoded {
     }
   }
   if (!eoi) fail('truncated: the JPEG has no end-of-image marker');
+  // Each 8 × 8 block needs at least one bit of entropy-coded data (its DC difference code).
+  const blocks = Math.ceil(frame.width / 8) * Math.ceil(frame.height / 8);
+  if ((bytes.length - scanAt) * 8 < blocks) fail(`truncated or corrupt: ${bytes.length - scanAt} bytes of image data cannot hold ${frame.width} × ${frame.height} pixels`);
 
   const img = decodeRaster(bytes);
   const pixels = frame.width * frame.height;

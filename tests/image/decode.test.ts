@@ -391,6 +391,32 @@ describe('MRC2014', () => {
   });
 });
 
+describe('small files that declare large images', () => {
+  // Deflate expands at most about 1032:1 (RFC 1951: a 258-byte match from a code of 2 bits or
+  // more); a JPEG needs at least one bit per 8 × 8 block (ITU-T T.81: each block codes its DC).
+  test('a PNG whose IHDR was enlarged is refused before decoding', () => {
+    const file = png({ width: 16, height: 16, data: new Uint8Array(256) });
+    const big = file.slice();
+    new DataView(big.buffer).setUint32(16, 10000); // IHDR width
+    new DataView(big.buffer).setUint32(20, 10000); // IHDR height
+    expectReadError(() => decodeImage(big, 'a.png'), /cannot hold 10000 × 10000 pixels/, 'a.png');
+  });
+  test('a Deflate TIFF whose size tags were enlarged is refused before decoding', () => {
+    const file = encodeTiff({ width: 16, height: 16, data: new Uint8Array(256), compression: 'deflate' });
+    const big = setTiffTag(setTiffTag(setTiffTag(file, 256, 10000), 257, 10000), 278, 10000);
+    expectReadError(() => decodeImage(big, 'a.tif'), /Deflate data cannot hold 100000000 bytes/, 'a.tif');
+  });
+  test('a JPEG whose frame header was enlarged is refused before decoding', () => {
+    const img = new Image(16, 16, { colorModel: 'GREY' });
+    const file = encodeRaster(img, { format: 'jpeg' });
+    let sof = 2;
+    while (!(file[sof] === 0xff && file[sof + 1] === 0xc0)) sof += 2 + ((file[sof + 2] << 8) | file[sof + 3]);
+    const big = file.slice();
+    big.set([0x27, 0x10, 0x27, 0x10], sof + 5); // height, width = 10000
+    expectReadError(() => decodeImage(big, 'a.jpg'), /cannot hold 10000 × 10000 pixels/, 'a.jpg');
+  });
+});
+
 describe('argument checks', () => {
   test('bad options name the value', () => {
     const file = png({ width: 2, height: 2, data: new Uint8Array(4) });
