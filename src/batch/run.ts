@@ -231,11 +231,17 @@ function failed(file: string, reason: string, image: FileResult['image'], calibr
   return { file, status: 'failed', reason, image, calibration, measurements: [], summary: emptySummary(), notes };
 }
 
+/** The recipe's steps for which `deps` has no tool (empty when the recipe can run). */
+export function missingTools(recipe: Recipe, deps: BatchDeps): string[] {
+  const missing: string[] = [];
+  if (typeof deps?.decodeImage !== 'function') missing.push('decodeImage');
+  for (const step of recipe.measurements) if (typeof deps?.[step.tool] !== 'function') missing.push(step.tool);
+  return missing;
+}
+
 function checkRecipeDeps(recipe: Recipe, deps: BatchDeps): void {
-  if (typeof deps?.decodeImage !== 'function') throw new TypeError('deps.decodeImage must be a function');
-  for (const step of recipe.measurements) {
-    if (typeof deps[step.tool] !== 'function') throw new TypeError(`the recipe asks for the ${step.tool} step, but deps.${step.tool} is not given`);
-  }
+  const missing = missingTools(recipe, deps);
+  if (missing.length) throw new TypeError(`the recipe needs ${missing.join(', ')}, not given in deps (deps.${missing[0]})`);
 }
 
 /**
@@ -291,22 +297,24 @@ export async function processOne(
     const measurements: Measurement[] = [];
     const sheetThicknessNm: number[] = [];
     let sheetCount: number | null = null;
+    // every measurement is recorded under the batch's file name
+    const own = (m: Measurement): Measurement => (m.fileName === fileName ? m : { ...m, fileName });
     for (const step of recipe.measurements) {
       for (const region of regions) {
         try {
           switch (step.tool) {
             case 'spectrum':
-              measurements.push(applyAcceptance(await deps.spectrum!(calibrated, region, { topK: step.topK }), recipe.acceptance));
+              measurements.push(applyAcceptance(own(await deps.spectrum!(calibrated, region, { topK: step.topK })), recipe.acceptance));
               break;
             case 'rings':
-              measurements.push(applyAcceptance(await deps.rings!(calibrated, region), recipe.acceptance));
+              measurements.push(applyAcceptance(own(await deps.rings!(calibrated, region)), recipe.acceptance));
               break;
             case 'domains':
-              measurements.push(applyAcceptance(await deps.domains!(calibrated, region), recipe.acceptance));
+              measurements.push(applyAcceptance(own(await deps.domains!(calibrated, region)), recipe.acceptance));
               break;
             case 'sheets': {
               const s = await deps.sheets!(calibrated, region);
-              measurements.push(s.measurement);
+              measurements.push(own(s.measurement));
               sheetCount = (sheetCount ?? 0) + s.thicknessNm.length;
               sheetThicknessNm.push(...s.thicknessNm);
               break;

@@ -6,6 +6,8 @@ async function loadCommands(): Promise<CliCommand[]> {
   const modules = await Promise.all([
     // commands: one line each, kept in this order
     import('./info'),
+    import('./batch'),
+    import('./measure'),
   ] as Promise<{ command: CliCommand }>[]);
   return modules.map((m) => m.command);
 }

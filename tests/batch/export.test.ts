@@ -3,30 +3,8 @@ import { describe, expect, test } from 'vitest';
 import { batchJson, csvField, pooledStats, RESULT_COLUMNS, resultsCsv, summaryCsv, zipExports } from '../../src/batch/export';
 import { parseRecipe } from '../../src/batch/recipe';
 import { processOne, type FileResult } from '../../src/batch/run';
+import { parseCsv } from './csv';
 import { fakeDeps, fakeFile } from './fakes';
-
-/** Splits CSV text into records by the RFC 4180 grammar (quoted fields may hold commas, quotes, line breaks). */
-function parseCsv(text: string): string[][] {
-  const rows: string[][] = [];
-  let row: string[] = [];
-  let field = '';
-  let i = 0;
-  let quoted = false;
-  while (i < text.length) {
-    const c = text[i];
-    if (quoted) {
-      if (c === '"' && text[i + 1] === '"') { field += '"'; i += 2; continue; }
-      if (c === '"') { quoted = false; i++; continue; }
-      field += c; i++; continue;
-    }
-    if (c === '"') { quoted = true; i++; continue; }
-    if (c === ',') { row.push(field); field = ''; i++; continue; }
-    if (c === '\r' && text[i + 1] === '\n') { row.push(field); rows.push(row); row = []; field = ''; i += 2; continue; }
-    field += c; i++;
-  }
-  if (field || row.length) throw new Error('CSV does not end with CRLF');
-  return rows;
-}
 
 async function sampleResults(): Promise<FileResult[]> {
   const recipe = parseRecipe({ schemaVersion: 1, area: { kind: 'whole', infoStripPx: 0 }, measurements: [{ tool: 'spectrum', topK: 2 }, { tool: 'sheets' }] });

@@ -79,3 +79,8 @@ export function fakeDeps(over: Partial<BatchDeps> = {}): BatchDeps & { calls: { 
   };
 
 }
+
+/** The deps-module contract of the batch command: the fakes, for worker threads in tests. */
+export async function createBatchDeps(): Promise<BatchDeps> {
+  return fakeDeps();
+}

@@ -1,0 +1,69 @@
+import { mkdtemp, readdir, readFile, rm, writeFile } from 'node:fs/promises';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { afterEach, beforeEach, expect, test } from 'vitest';
+import { parseRecipe } from '../../src/batch/recipe';
+import { runBatch } from '../../src/cli/batch';
+import { fakeFile } from './fakes';
+
+// The runner in worker threads with the fake decoder and tools (tests/batch/fakes.ts).
+const depsModule = new URL('./fakes.ts', import.meta.url).href;
+let dir = '';
+const io = { out: () => {}, err: () => {} };
+
+beforeEach(async () => {
+  dir = await mkdtemp(join(tmpdir(), 'batch-fake-'));
+  await writeFile(join(dir, 'a.tif'), fakeFile(256, 256, 0.05, 20));
+  await writeFile(join(dir, 'b.tif'), fakeFile(256, 256, 0.05, 24));
+  await writeFile(join(dir, 'c,"odd".tif'), fakeFile(256, 256, 0.05, 28));
+  await writeFile(join(dir, 'broken.tif'), new Uint8Array([1, 2, 3]));
+  await writeFile(join(dir, 'notes.txt'), 'not an image');
+});
+afterEach(async () => {
+  await rm(dir, { recursive: true, force: true });
+});
+
+test('two workers process every file; a re-run skips all; a changed file is redone', async () => {
+  const recipe = parseRecipe({ schemaVersion: 1, area: { kind: 'whole', infoStripPx: 0 }, outputs: { zip: true } });
+  const opts = { folder: dir, recipe, outCsv: join(dir, 'out', 'results.csv'), jobs: 2, depsModule };
+  const first = await runBatch(opts, io);
+  expect([first.total, first.processed, first.skipped]).toEqual([4, 4, 0]);
+  expect(first.results.map((r) => [r.file, r.status])).toEqual([
+    ['a.tif', 'ok'],
+    ['b.tif', 'ok'],
+    ['broken.tif', 'failed'],
+    ['c,"odd".tif', 'ok'],
+  ]);
+  expect(first.workerPeakBytes).toHaveLength(2);
+  const csv = await readFile(join(dir, 'out', 'results.csv'), 'utf8');
+  // header + 3 ok files × 2 periods + 1 failed row
+  expect(csv.trimEnd().split('\r\n')).toHaveLength(1 + 6 + 1);
+  expect(csv).toContain('"c,""odd"".tif"');
+  const records = await readdir(join(dir, 'out', 'records'));
+  expect(records).toHaveLength(4);
+
+  const second = await runBatch(opts, io);
+  expect([second.processed, second.skipped]).toEqual([0, 4]);
+  expect(second.results).toEqual(first.results);
+  expect(await readFile(join(dir, 'out', 'results.csv'), 'utf8')).toBe(csv);
+
+  await writeFile(join(dir, 'b.tif'), fakeFile(256, 256, 0.05, 30));
+  const third = await runBatch(opts, io);
+  expect([third.processed, third.skipped]).toEqual([1, 3]);
+  expect(third.results[1].summary.topPeriods[0].periodNm).toBeCloseTo(1.5, 12); // 30 px × 0.05 nm/px
+  expect(await readdir(join(dir, 'out', 'records'))).toHaveLength(5); // the old record stays, the state points at the new one
+  const state = JSON.parse(await readFile(join(dir, 'out', 'batch-state.json'), 'utf8'));
+  expect(Object.keys(state.entries).sort()).toEqual(['a.tif', 'b.tif', 'broken.tif', 'c,"odd".tif']);
+  expect(await readdir(join(dir, 'out'))).toEqual(expect.arrayContaining(['results.zip', 'results.json', 'results-summary.csv']));
+}, 120_000);
+
+test('a changed recipe processes every file again', async () => {
+  const outCsv = join(dir, 'out', 'r.csv');
+  const a = parseRecipe({ schemaVersion: 1, area: { kind: 'whole', infoStripPx: 0 } });
+  const b = parseRecipe({ schemaVersion: 1, area: { kind: 'whole', infoStripPx: 0 }, acceptance: { minStrength: 5 } });
+  await runBatch({ folder: dir, recipe: a, outCsv, jobs: 1, depsModule }, io);
+  const again = await runBatch({ folder: dir, recipe: b, outCsv, jobs: 1, depsModule }, io);
+  expect([again.processed, again.skipped]).toEqual([4, 0]);
+  // the weaker harmonic (strength 2, fake tool) is now rejected
+  expect(again.results[0].summary.topPeriods).toHaveLength(1);
+}, 120_000);

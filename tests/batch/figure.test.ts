@@ -1,0 +1,91 @@
+import { decode } from 'fast-png';
+import { describe, expect, test } from 'vitest';
+import { annotatedFigure, annotatedFigurePng, histogramSvg, lengthLabel, roundScaleBar } from '../../src/batch/figure';
+import type { FileResult } from '../../src/batch/run';
+import { makeGreyImage, type Calibration } from '../../src/image/grey-image';
+
+const isOneTwoFive = (v: number) => {
+  const m = v / 10 ** Math.floor(Math.log10(v) + 1e-12);
+  return [1, 2, 5].some((k) => Math.abs(m - k) < 1e-9);
+};
+
+describe('roundScaleBar', () => {
+  test('bar length in px is the round length divided by the pixel size', () => {
+    // 2048 px × 0.05 nm/px = 102.4 nm wide; 20 % is 20.48 nm → 20 nm = 400 px
+    expect(roundScaleBar(2048, 0.05)).toEqual({ lengthNm: 20, lengthPx: 400, label: '20 nm' });
+    // 1024 px × 0.0213 nm/px = 21.81 nm; 20 % = 4.36 nm → 5 nm = 234.74 px
+    const b = roundScaleBar(1024, 0.0213);
+    expect(b.lengthNm).toBe(5);
+    expect(b.lengthPx).toBeCloseTo(5 / 0.0213, 9);
+  });
+
+  test('over many pixel sizes the bar is a 1-2-5 value near a fifth of the width', () => {
+    for (let i = 0; i < 400; i++) {
+      const nmPerPx = 0.001 * 10 ** (i / 80); // 0.001 … 100 nm/px
+      for (const width of [512, 1000, 4096]) {
+        const b = roundScaleBar(width, nmPerPx);
+        expect(isOneTwoFive(b.lengthNm)).toBe(true);
+        expect(b.lengthPx).toBeCloseTo(b.lengthNm / nmPerPx, 9);
+        const f = b.lengthPx / width;
+        // nearest on a log scale with steps ×2 and ×2.5: within [0.2/√2.5, 0.2·√2.5]
+        expect(f).toBeGreaterThanOrEqual(0.2 / Math.sqrt(2.5) - 1e-9);
+        expect(f).toBeLessThanOrEqual(0.2 * Math.sqrt(2.5) + 1e-9);
+      }
+    }
+  });
+
+  test('labels switch to µm at 1000 nm and keep small values exact', () => {
+    expect(lengthLabel(0.5)).toBe('0.5 nm');
+    expect(lengthLabel(2000)).toBe('2 µm');
+    expect(roundScaleBar(1000, 10).label).toBe('2 µm');
+    expect(() => roundScaleBar(0, 1)).toThrow(/widthPx/);
+    expect(() => roundScaleBar(10, -1)).toThrow(/nmPerPx/);
+  });
+});
+
+function flatResult(cal: Calibration): FileResult {
+  return {
+    file: 'f.tif',
+    status: 'ok',
+    image: { widthPx: 1024, heightPx: 768, bitDepth: 16 },
+    calibration: cal,
+    measurements: [],
+    summary: { topPeriods: [], sheetCount: null, meanThicknessNm: null, sdThicknessNm: null, sheetThicknessNm: [] },
+    notes: [],
+  };
+}
+
+describe('annotatedFigure', () => {
+  const cal: Calibration = { nmPerPx: 0.0213, source: 'manual', relUncertainty: 0.02, detail: '' };
+  const image = makeGreyImage(1024, 768, new Float32Array(1024 * 768).fill(100), { calibration: cal });
+  test('the drawn bar is as long as the round length over the pixel size', () => {
+    const r = annotatedFigure({ ...image, max: 200 }, flatResult(cal), [{ kind: 'rect', x: 0, y: 0, width: 1024, height: 768 }]);
+    // the flat image maps to 0 (its 0.5 % quantile); the bar is white (255) with exact edge coverage
+    let best = 0;
+    for (let y = 0; y < r.height; y++) {
+      let sum = 0;
+      for (let x = 0; x < r.width / 2; x++) sum += r.data[y * r.width + x] / 255;
+      best = Math.max(best, sum);
+    }
+    // 5 nm / 0.0213 nm/px = 234.74 px (a full row through the bar, nothing else in the left half)
+    expect(best).toBeCloseTo(5 / 0.0213, 1);
+  });
+
+  test('the PNG is the full image size, 8-bit grey', () => {
+    const png = decode(annotatedFigurePng(image, flatResult(cal), [{ kind: 'rect', x: 0, y: 0, width: 1024, height: 700 }]));
+    expect([png.width, png.height, png.channels, png.depth]).toEqual([1024, 768, 1, 8]);
+  });
+});
+
+describe('histogramSvg', () => {
+  test('one bar per non-empty bin, counts adding up to the sample', () => {
+    const values = [1.0, 1.1, 1.1, 1.2, 1.2, 1.2, 1.3, 2.0];
+    const svg = histogramSvg(values, { xLabel: 'period (nm)', title: 'strongest period <per image>', binWidth: 0.25 });
+    expect(svg.startsWith('<svg xmlns="http://www.w3.org/2000/svg"')).toBe(true);
+    const counts = [...svg.matchAll(/data-count="(\d+)"/g)].map((m) => Number(m[1]));
+    // bins of 0.25 from 1.0: [1, 1.25) holds 6, [1.25, 1.5) 1, [1.75, 2.0] 1
+    expect(counts).toEqual([6, 1, 1]);
+    expect(svg).toContain('strongest period &lt;per image&gt;');
+    expect(svg).toContain('period (nm)');
+  });
+});
