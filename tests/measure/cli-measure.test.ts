@@ -1,0 +1,66 @@
+import { describe, expect, test } from 'vitest';
+import { main } from '../../src/cli/main';
+import { formatPlusMinus, parseRegion } from '../../src/cli/measure';
+
+const STEM = 'tests/fixtures/reference-data/stem-haadf_AlMgSi-alloy_Al-001-matrix_thumbnail256.png';
+
+function capture() {
+  const out: string[] = [];
+  const err: string[] = [];
+  return { io: { out: (t: string) => out.push(t), err: (t: string) => err.push(t) }, out, err };
+}
+
+describe('stratameter measure', () => {
+  test('--json prints exactly one object with the documented fields, strongest first', async () => {
+    const c = capture();
+    // 0.0743 nm/px: SOURCES.md §1 (d200 = 0.20248 nm, a = 0.40495 nm from memory).
+    expect(await main(['measure', STEM, '--nm-per-px', '0.0743', '--rel-uncertainty', '0.01', '--json'], c.io)).toBe(0);
+    const text = c.out.join('');
+    expect(text.trim().split('\n').length).toBe(1);
+    const r = JSON.parse(text);
+    expect(Object.keys(r)).toEqual(['file', 'width', 'height', 'calibration', 'periodicities']);
+    expect(r.calibration).toEqual({ nmPerPx: 0.0743, source: 'manual', relUncertainty: 0.01 });
+    expect([r.width, r.height]).toEqual([256, 256]);
+    const first = r.periodicities[0];
+    expect(Object.keys(first)).toEqual(['periodPx', 'periodNm', 'angleDeg', 'uncertaintyPx', 'uncertaintyNm', 'strength']);
+    // Al {200} = a/2 = 0.20248 nm (SOURCES.md §1): within 1 % at this calibration.
+    expect(Math.abs(first.periodNm - 0.20248) / 0.20248).toBeLessThan(0.01);
+    for (let i = 1; i < r.periodicities.length; i++) {
+      expect(r.periodicities[i].strength).toBeLessThanOrEqual(r.periodicities[i - 1].strength);
+    }
+    // The manual 1 % dominates the nm uncertainty (quadrature with a tiny statistical part).
+    expect(first.uncertaintyNm / first.periodNm).toBeCloseTo(0.01, 3);
+  });
+
+  test('a table with d ± u by default, and the 5 % manual default', async () => {
+    const c = capture();
+    expect(await main(['measure', STEM, '--nm-per-px', '0.0743', '--region', '0,0,128,128'], c.io)).toBe(0);
+    const text = c.out.join('');
+    expect(text).toMatch(/±5 % \(source: manual\)/);
+    expect(text).toMatch(/d \(px\)\s+d \(nm\)\s+angle/);
+    expect(text).toMatch(/\d\.\d+ ± \d\.\d+/);
+  });
+
+  test('errors go to stderr with a non-zero exit code', async () => {
+    let c = capture();
+    expect(await main(['measure', 'no-such-file.png'], c.io)).toBe(1);
+    expect(c.err.join('')).toMatch(/cannot read no-such-file.png/);
+    c = capture();
+    expect(await main(['measure', STEM, '--region', '0,0,300,10'], c.io)).toBe(2);
+    expect(c.err.join('')).toMatch(/outside the 256 × 256 image/);
+    c = capture();
+    expect(await main(['measure', STEM, '--nm-per-px', '-1'], c.io)).toBe(2);
+    expect(c.err.join('')).toMatch(/--nm-per-px must be a positive number, got '-1'/);
+    c = capture();
+    expect(await main(['measure', 'tests/fixtures/reference-data/SOURCES.md'], c.io)).toBe(1);
+    expect(c.out.join('')).toBe('');
+  });
+
+  test('helpers: region parsing and rounding of d ± u', () => {
+    expect(parseRegion('1,2,30,40')).toEqual({ x: 1, y: 2, width: 30, height: 40 });
+    expect(() => parseRegion('1,2,3')).toThrow(/four non-negative integers/);
+    // Rounding to two significant digits of u (GUM 7.2.6 practice).
+    expect(formatPlusMinus(0.313564, 0.0012345)).toBe('0.3136 ± 0.0012');
+    expect(formatPlusMinus(12.345, 0.26)).toBe('12.35 ± 0.26');
+  });
+});
