@@ -1,0 +1,165 @@
+/**
+ * Wavelengths and Bragg's law: conversions between 2θ, d and q for any wavelength.
+ *
+ * All lengths are in nm; q = 4π sin θ / λ = 2π / d in nm⁻¹ (the crystallographic convention
+ * with the 2π factor, as used in small-angle scattering).
+ */
+
+/** A named X-ray emission line. */
+export interface XrayLine {
+  /** Short key used on the command line, e.g. 'CuKa1'. */
+  key: string;
+  /** Readable name, e.g. 'Cu Kα1'. */
+  label: string;
+  /** Wavelength of the line (for a weighted mean, the mean), in nm. */
+  wavelengthNm: number;
+  /** Wavelength of the Kα2 companion in nm, when the line is Kα1 (for doublet fitting). */
+  ka2Nm?: number;
+  /** Where the value comes from. */
+  source: string;
+}
+
+/**
+ * Wavelength presets, all on the SI ångström scale (not Bearden's Å* scale; for Cu the two differ
+ * by 2.01×10⁻⁵, ITC C Table 4.2.2.6).
+ * Kα1 values for Cu and Mo: International Tables for Crystallography Vol. C (2006) Table 4.2.2.6.
+ * Kα2 and the Co, Cr, Ag lines: Hölzer et al., Phys. Rev. A 56, 4554 (1997) and the NIST X-ray
+ * transition energies (Deslattes et al., Rev. Mod. Phys. 75, 35 (2003)), in secondary transcription.
+ * Cu Kα weighted = (2·Kα1 + Kα2)/3, computed from the two values above.
+ */
+export const XRAY_LINES: readonly XrayLine[] = [
+  { key: 'CuKa1', label: 'Cu Kα1', wavelengthNm: 0.154059292, ka2Nm: 0.15444274, source: 'ITC C (2006) Table 4.2.2.6; Kα2 Hölzer et al. 1997' },
+  { key: 'CuKa', label: 'Cu Kα (weighted 2:1)', wavelengthNm: (2 * 0.154059292 + 0.15444274) / 3, source: '(2·Kα1 + Kα2)/3 from ITC C Table 4.2.2.6 and Hölzer et al. 1997' },
+  { key: 'MoKa1', label: 'Mo Kα1', wavelengthNm: 0.070931713, ka2Nm: 0.0713607, source: 'ITC C (2006) Table 4.2.2.6; Kα2 NIST X-ray transition energies' },
+  { key: 'CoKa1', label: 'Co Kα1', wavelengthNm: 0.1788996, ka2Nm: 0.1792835, source: 'Hölzer et al., Phys. Rev. A 56, 4554 (1997)' },
+  { key: 'CrKa1', label: 'Cr Kα1', wavelengthNm: 0.2289726, ka2Nm: 0.2293651, source: 'Hölzer et al., Phys. Rev. A 56, 4554 (1997)' },
+  { key: 'AgKa1', label: 'Ag Kα1', wavelengthNm: 0.055942178, ka2Nm: 0.05638131, source: 'NIST X-ray transition energies (Deslattes et al. 2003)' },
+];
+
+/** Kα2 : Kα1 intensity ratio by convention (Rachinger 1948, noted in ITC C §2.3.3.2). */
+export const KA2_RATIO = 0.5;
+
+/**
+ * Parses a wavelength given by a user: a preset key ('CuKa1', case-insensitive, 'Cu' alone means
+ * Cu Kα1), or a number with unit ('0.15406nm', '1.5406A', '1.5406 Å'). A bare number is taken as Å
+ * when above 0.3 (the X-ray habit) and rejected otherwise to avoid a silent factor of ten.
+ *
+ * @param text the wavelength as typed
+ * @returns the wavelength in nm, the Kα2 companion when known, and a label
+ */
+export function parseWavelength(text: string): { wavelengthNm: number; ka2Nm?: number; label: string } {
+  const t = text.trim();
+  const compact = t.replace(/[\s-]/g, '').replace(/α/g, 'a').toLowerCase();
+  for (const line of XRAY_LINES) {
+    if (compact === line.key.toLowerCase()) return { wavelengthNm: line.wavelengthNm, ka2Nm: line.ka2Nm, label: line.label };
+  }
+  const anode: Record<string, string> = { cu: 'CuKa1', mo: 'MoKa1', co: 'CoKa1', cr: 'CrKa1', ag: 'AgKa1' };
+  if (anode[compact]) return parseWavelength(anode[compact]);
+  const m = /^([0-9]*[.,]?[0-9]+(?:e[-+]?[0-9]+)?)\s*(nm|a|å|angstrom|ångström|pm)?$/i.exec(t.replace(/\s+/g, ''));
+  if (!m) throw new RangeError(`wavelength '${text}' is neither a preset (${XRAY_LINES.map((l) => l.key).join(', ')}) nor a number with unit nm or A`);
+  const v = Number(m[1].replace(',', '.'));
+  const unit = (m[2] ?? '').toLowerCase();
+  let nm: number;
+  if (unit === 'nm') nm = v;
+  else if (unit === 'pm') nm = v / 1000;
+  else if (unit !== '') nm = v / 10;
+  else if (v > 0.3) nm = v / 10;
+  else throw new RangeError(`wavelength '${text}' has no unit: write e.g. ${v}nm or ${v}A`);
+  if (!(nm > 0) || nm > 10) throw new RangeError(`wavelength '${text}' is outside (0, 10] nm`);
+  return { wavelengthNm: nm, label: `${(nm * 10).toPrecision(6)} Å` };
+}
+
+function checkLambda(wavelengthNm: number): void {
+  if (!(wavelengthNm > 0) || !Number.isFinite(wavelengthNm)) throw new RangeError(`wavelengthNm must be positive, got ${wavelengthNm}`);
+}
+
+/**
+ * Bragg's law, first order: d = λ / (2 sin θ).
+ * @param twoThetaDeg scattering angle 2θ in degrees, in (0, 180)
+ * @param wavelengthNm wavelength in nm
+ * @returns d in nm
+ * Reference: W. L. Bragg, Proc. Camb. Phil. Soc. 17, 43 (1913).
+ */
+export function twoThetaToD(twoThetaDeg: number, wavelengthNm: number): number {
+  checkLambda(wavelengthNm);
+  if (!(twoThetaDeg > 0 && twoThetaDeg < 180)) throw new RangeError(`twoThetaDeg must be in (0, 180), got ${twoThetaDeg}`);
+  return wavelengthNm / (2 * Math.sin((twoThetaDeg * Math.PI) / 360));
+}
+
+/**
+ * Inverse Bragg's law: 2θ = 2 asin(λ / 2d).
+ * @param dNm spacing in nm; must be above λ/2 (else no reflection exists)
+ * @param wavelengthNm wavelength in nm
+ * @returns 2θ in degrees
+ */
+export function dToTwoTheta(dNm: number, wavelengthNm: number): number {
+  checkLambda(wavelengthNm);
+  if (!(dNm > 0)) throw new RangeError(`dNm must be positive, got ${dNm}`);
+  const s = wavelengthNm / (2 * dNm);
+  if (s > 1) throw new RangeError(`d = ${dNm} nm is below λ/2 = ${wavelengthNm / 2} nm: no Bragg reflection`);
+  return (360 / Math.PI) * Math.asin(s);
+}
+
+/** q = 2π/d in nm⁻¹ from d in nm. */
+export function dToQ(dNm: number): number {
+  if (!(dNm > 0)) throw new RangeError(`dNm must be positive, got ${dNm}`);
+  return (2 * Math.PI) / dNm;
+}
+
+/** d = 2π/q in nm from q in nm⁻¹. */
+export function qToD(qInvNm: number): number {
+  if (!(qInvNm > 0)) throw new RangeError(`qInvNm must be positive, got ${qInvNm}`);
+  return (2 * Math.PI) / qInvNm;
+}
+
+/** q = 4π sin θ / λ in nm⁻¹. */
+export function twoThetaToQ(twoThetaDeg: number, wavelengthNm: number): number {
+  return dToQ(twoThetaToD(twoThetaDeg, wavelengthNm));
+}
+
+/** 2θ in degrees from q in nm⁻¹. */
+export function qToTwoTheta(qInvNm: number, wavelengthNm: number): number {
+  return dToTwoTheta(qToD(qInvNm), wavelengthNm);
+}
+
+/**
+ * Standard uncertainty of d from that of 2θ: σ_d = d · cot θ · σ_θ (σ_θ = σ_2θ / 2, in radians).
+ * @param twoThetaDeg 2θ in degrees
+ * @param sigmaTwoThetaDeg standard uncertainty of 2θ in degrees
+ * @param wavelengthNm wavelength in nm
+ * @returns σ_d in nm
+ */
+export function dUncertaintyNm(twoThetaDeg: number, sigmaTwoThetaDeg: number, wavelengthNm: number): number {
+  const d = twoThetaToD(twoThetaDeg, wavelengthNm);
+  const theta = (twoThetaDeg * Math.PI) / 360;
+  return (d * Math.abs(sigmaTwoThetaDeg) * Math.PI) / 360 / Math.tan(theta);
+}
+
+/**
+ * 2θ of the Kα2 companion of a Kα1 reflection at 2θ₁: the same d with the other wavelength.
+ * @param twoThetaDeg Kα1 position in degrees
+ * @param ka1Nm Kα1 wavelength in nm
+ * @param ka2Nm Kα2 wavelength in nm
+ * @returns Kα2 position in degrees (NaN when beyond 180°)
+ */
+export function ka2Position(twoThetaDeg: number, ka1Nm: number, ka2Nm: number): number {
+  const s = (Math.sin((twoThetaDeg * Math.PI) / 360) * ka2Nm) / ka1Nm;
+  return s >= 1 ? NaN : (360 / Math.PI) * Math.asin(s);
+}
+
+/**
+ * Relativistic electron wavelength for an accelerating voltage:
+ * λ = h / √(2 m₀ e U (1 + e U / (2 m₀ c²))).
+ * @param voltageV accelerating voltage in volts (e.g. 200e3)
+ * @returns wavelength in nm
+ * Reference: relativistic de Broglie relation with CODATA 2018 constants.
+ */
+export function electronWavelengthNm(voltageV: number): number {
+  if (!(voltageV > 0) || !Number.isFinite(voltageV)) throw new RangeError(`voltageV must be positive, got ${voltageV}`);
+  const h = 6.62607015e-34;
+  const m0 = 9.1093837015e-31;
+  const e = 1.602176634e-19;
+  const c = 299792458;
+  const p = Math.sqrt(2 * m0 * e * voltageV * (1 + (e * voltageV) / (2 * m0 * c * c)));
+  return (h / p) * 1e9;
+}

@@ -1,0 +1,239 @@
+/**
+ * Reading a measured diffraction pattern (powder XRD in 2θ, or small-angle data in q) from text,
+ * and typed peak lists.
+ */
+import { dToQ, parseWavelength, qToD, twoThetaToD } from './bragg';
+
+/** Axis of the first column as the user or the header declares it. */
+export type AxisUnit = 'twoThetaDeg' | 'qInvNm' | 'qInvA';
+
+/** A pattern on one axis: 2θ in degrees, or q in nm⁻¹ (Å⁻¹ input is converted on reading). */
+export interface Pattern {
+  /** 'twoTheta': x is 2θ in degrees; 'q': x is q = 4π sin θ / λ in nm⁻¹. */
+  axis: 'twoTheta' | 'q';
+  /** Abscissae, strictly increasing. */
+  x: Float64Array;
+  /** Intensities (counts or arbitrary units). */
+  y: Float64Array;
+  /** Standard uncertainties of y from a third column, or null. */
+  sigma: Float64Array | null;
+  /** Wavelength in nm (Kα1 when a doublet), or null when neither header nor user gave one. */
+  wavelengthNm: number | null;
+  /** Kα2 wavelength in nm when the radiation is a Kα doublet, else null. */
+  ka2Nm: number | null;
+  /** Where the wavelength came from: 'header', 'option' or 'none'. */
+  wavelengthFrom: 'header' | 'option' | 'none';
+  /** Every rule applied while reading (skipped headers, reversed order...), for the user. */
+  notes: string[];
+}
+
+export interface ParsePatternOptions {
+  /** Unit of the first column; overrides the header. Default: from the header, else 2θ in degrees. */
+  axis?: AxisUnit;
+  /** Wavelength as typed (preset key or number with unit, see parseWavelength); overrides the header. */
+  wavelength?: string;
+  /** Kα2 wavelength in nm to use with `wavelength` (a preset Kα1 brings its own). */
+  ka2Nm?: number;
+}
+
+const COMMENT = /^\s*(#|;|!|\/\/)/;
+const NUMBER = /^[-+]?(\d+([.,]\d*)?|[.,]\d+)([eE][-+]?\d+)?$/;
+
+/** Splits a data line into number tokens by the separator rules documented on parsePattern. */
+function splitLine(line: string): string[] {
+  const s = line.trim();
+  if (s.includes(';')) return s.split(/\s*;\s*/).filter((t) => t !== '').map((t) => t.replace(',', '.'));
+  if (s.includes('\t')) return s.split(/\s*\t\s*/).filter((t) => t !== '').map((t) => t.replace(',', '.'));
+  const ws = s.split(/\s+/);
+  if (ws.length >= 2) {
+    return ws.map((t) => t.replace(/,$/, '')).filter((t) => t !== '').map((t) => t.replace(',', '.'));
+  }
+  return s.split(',');
+}
+
+function headerWavelength(lines: string[]): { ka1Nm: number; ka2Nm: number | null } | null {
+  const text = lines.join('\n');
+  const toNm = (v: string, unit: string | undefined) => {
+    const n = Number(v.replace(',', '.'));
+    const u = (unit ?? '').toLowerCase();
+    return u === 'nm' ? n : u === '' ? (n > 0.3 ? n / 10 : n) : n / 10;
+  };
+  const ka1 = /k[-\s_]?(?:alpha|α|a)\s*1\s*[:=]?\s*(\d+[.,]\d+)\s*(nm|å|a|angstrom)?\b/i.exec(text);
+  const ka2 = /k[-\s_]?(?:alpha|α|a)\s*2\s*[:=]?\s*(\d+[.,]\d+)\s*(nm|å|a|angstrom)?\b/i.exec(text);
+  if (ka1) return { ka1Nm: toNm(ka1[1], ka1[2]), ka2Nm: ka2 ? toNm(ka2[1], ka2[2]) : null };
+  const kw = /(?:wavelength|wave length|lambda|λ)\s*[:=]?\s*(\d+[.,]\d+|\d+)\s*(nm|å|a|angstrom)?\b/i.exec(text);
+  if (kw) return { ka1Nm: toNm(kw[1], kw[2]), ka2Nm: null };
+  const anode = /\b(Cu|Mo|Co|Cr|Ag)\b[\s-]*(?:K[-\s]?(?:alpha|α|a)|anode|tube|radiation)/i.exec(text);
+  if (anode) {
+    const w = parseWavelength(anode[1]);
+    return { ka1Nm: w.wavelengthNm, ka2Nm: w.ka2Nm ?? null };
+  }
+  return null;
+}
+
+function headerAxis(lines: string[]): AxisUnit | null {
+  const text = lines.join('\n');
+  if (/\bq\b[^\n]*?(å|a)\s*(\^?-1|⁻¹)|\bq\b[^\n]*?1\s*\/\s*(å|a)\b|inverse\s+(å|angstrom)/i.test(text)) return 'qInvA';
+  if (/\bq\b[^\n]*?nm\s*(\^?-1|⁻¹)|\bq\b[^\n]*?1\s*\/\s*nm\b|inverse\s+nm/i.test(text)) return 'qInvNm';
+  if (/2\s*-?\s*theta|2θ|two[-\s]?theta/i.test(text)) return 'twoThetaDeg';
+  return null;
+}
+
+/**
+ * Reads a diffraction pattern from text: two columns (position, intensity) and an optional third
+ * (standard uncertainty of the intensity).
+ *
+ * @param text the file's contents
+ * @param options axis unit and wavelength overriding the header
+ * @returns the pattern, with every reading rule that was applied listed in `notes`
+ *
+ * Notes — the reading rules, all explicit:
+ * - lines starting with #, ;, !, // are comments; blank lines are skipped;
+ * - non-numeric lines before the first data line are header lines; a non-numeric line after it
+ *   is an error naming the line;
+ * - separators: `;` or tab when present (a comma is then a decimal comma), else whitespace
+ *   (a comma inside a number is a decimal comma, a trailing comma is a separator), else comma;
+ * - a data row with one column, more than three, a non-finite value or σ ≤ 0 is an error;
+ * - x must be strictly monotonic; a file in decreasing order is reversed (noted), repeated or
+ *   unsorted x is an error with the line number;
+ * - the wavelength comes from the option, else from a header line (`wavelength: 1.5406 A`,
+ *   `lambda = 0.15406 nm`, `K-alpha1 1.540598 A`, or an anode name such as `Cu K-alpha`);
+ * - q in Å⁻¹ is converted to nm⁻¹ (× 10).
+ * Reference: file layout is common practice for two-column powder data.
+ */
+export function parsePattern(text: string, options: ParsePatternOptions = {}): Pattern {
+  if (typeof text !== 'string') throw new TypeError('parsePattern: text must be a string');
+  const lines = text.split(/\r\n|\r|\n/);
+  const header: string[] = [];
+  const xs: number[] = [];
+  const ys: number[] = [];
+  const ss: number[] = [];
+  const lineNo: number[] = [];
+  const notes: string[] = [];
+  let columns = 0;
+  let headerCount = 0;
+  for (let i = 0; i < lines.length; i++) {
+    const raw = lines[i];
+    if (raw.trim() === '') continue;
+    if (COMMENT.test(raw)) {
+      header.push(raw);
+      continue;
+    }
+    const tokens = splitLine(raw);
+    const numeric = tokens.every((t) => NUMBER.test(t.trim()));
+    if (!numeric) {
+      if (xs.length === 0) {
+        header.push(raw);
+        headerCount++;
+        continue;
+      }
+      throw new SyntaxError(`line ${i + 1}: not a data row: '${raw.trim().slice(0, 60)}'`);
+    }
+    if (tokens.length < 2) throw new SyntaxError(`line ${i + 1}: only one column ('${raw.trim()}'); expected position and intensity`);
+    if (tokens.length > 3) throw new SyntaxError(`line ${i + 1}: ${tokens.length} columns; expected 2 (position, intensity) or 3 (with uncertainty)`);
+    if (columns === 0) columns = tokens.length;
+    else if (tokens.length !== columns) throw new SyntaxError(`line ${i + 1}: ${tokens.length} columns where earlier rows have ${columns}`);
+    const v = tokens.map((t) => Number(t.trim().replace(',', '.')));
+    if (!v.every(Number.isFinite)) throw new SyntaxError(`line ${i + 1}: non-finite value in '${raw.trim()}'`);
+    if (columns === 3 && !(v[2] > 0)) throw new SyntaxError(`line ${i + 1}: uncertainty ${v[2]} must be positive`);
+    xs.push(v[0]);
+    ys.push(v[1]);
+    if (columns === 3) ss.push(v[2]);
+    lineNo.push(i + 1);
+  }
+  if (xs.length < 3) throw new SyntaxError(`pattern has ${xs.length} data rows; at least 3 are needed`);
+  if (headerCount > 0) notes.push(`${headerCount} header line(s) read before the data`);
+  let reversed = false;
+  if (xs[1] < xs[0]) {
+    reversed = true;
+    xs.reverse();
+    ys.reverse();
+    ss.reverse();
+    lineNo.reverse();
+    notes.push('x was in decreasing order; reversed');
+  }
+  for (let k = 1; k < xs.length; k++) {
+    if (!(xs[k] > xs[k - 1])) {
+      throw new SyntaxError(`line ${lineNo[k]}: x = ${xs[k]} is not ${reversed ? 'below' : 'above'} the previous row's ${xs[k - 1]} (x must be strictly monotonic)`);
+    }
+  }
+  const axisUnit: AxisUnit = options.axis ?? headerAxis(header) ?? 'twoThetaDeg';
+  if (!options.axis && !headerAxis(header)) notes.push('axis not stated: first column read as 2θ in degrees');
+  let x = Float64Array.from(xs);
+  if (axisUnit === 'qInvA') {
+    x = x.map((v) => v * 10);
+    notes.push('q converted from Å⁻¹ to nm⁻¹');
+  }
+  if (axisUnit === 'twoThetaDeg' && (x[0] <= 0 || x[x.length - 1] >= 180)) {
+    throw new RangeError(`2θ range ${x[0]}–${x[x.length - 1]}° is outside (0, 180); is the first column q? (set the axis)`);
+  }
+  if (axisUnit !== 'twoThetaDeg' && x[0] <= 0) notes.push('q ≤ 0 rows present: d is undefined there');
+  let wavelengthNm: number | null = null;
+  let ka2Nm: number | null = null;
+  let wavelengthFrom: Pattern['wavelengthFrom'] = 'none';
+  const fromHeader = headerWavelength(header);
+  if (options.wavelength !== undefined) {
+    const w = parseWavelength(options.wavelength);
+    wavelengthNm = w.wavelengthNm;
+    ka2Nm = options.ka2Nm ?? w.ka2Nm ?? null;
+    wavelengthFrom = 'option';
+    if (fromHeader && Math.abs(fromHeader.ka1Nm - wavelengthNm) > 1e-6) {
+      notes.push(`header wavelength ${fromHeader.ka1Nm} nm overridden by the option ${wavelengthNm} nm`);
+    }
+  } else if (fromHeader) {
+    wavelengthNm = fromHeader.ka1Nm;
+    ka2Nm = fromHeader.ka2Nm;
+    wavelengthFrom = 'header';
+    notes.push(`wavelength ${wavelengthNm} nm${ka2Nm ? ` (Kα2 ${ka2Nm} nm)` : ''} read from the header`);
+  }
+  if (wavelengthNm !== null && !(wavelengthNm > 0 && wavelengthNm < 10)) throw new RangeError(`wavelength ${wavelengthNm} nm is not plausible`);
+  return {
+    axis: axisUnit === 'twoThetaDeg' ? 'twoTheta' : 'q',
+    x,
+    y: Float64Array.from(ys),
+    sigma: columns === 3 ? Float64Array.from(ss) : null,
+    wavelengthNm,
+    ka2Nm,
+    wavelengthFrom,
+    notes,
+  };
+}
+
+/** How a typed peak list is given. */
+export type PeakListUnit = 'twoThetaDeg' | 'dNm' | 'dA' | 'qInvNm' | 'qInvA';
+
+/** A peak typed by the user, converted to every axis that the wavelength allows. */
+export interface ManualPeak {
+  /** 2θ in degrees, or null without a wavelength (or beyond 180°). */
+  twoThetaDeg: number | null;
+  /** d-spacing in nm. */
+  dNm: number;
+  /** q = 2π/d in nm⁻¹. */
+  qInvNm: number;
+}
+
+/**
+ * Reads a typed list of peak positions ("3.35, 1.68; 1.12" or one a line).
+ * @param text numbers separated by commas, semicolons, whitespace or new lines (decimal point)
+ * @param unit what the numbers are
+ * @param wavelengthNm wavelength in nm; needed for 2θ input, optional otherwise
+ * @returns the peaks in input order
+ */
+export function parsePeakList(text: string, unit: PeakListUnit, wavelengthNm?: number): ManualPeak[] {
+  const tokens = text.split(/[\s,;]+/).filter((t) => t !== '');
+  if (tokens.length === 0) throw new RangeError('peak list is empty');
+  if (unit === 'twoThetaDeg' && wavelengthNm === undefined) throw new RangeError('a 2θ peak list needs a wavelength');
+  return tokens.map((t, i) => {
+    const v = Number(t);
+    if (!Number.isFinite(v) || v <= 0) throw new RangeError(`peak ${i + 1}: '${t}' is not a positive number`);
+    let dNm: number;
+    if (unit === 'twoThetaDeg') dNm = twoThetaToD(v, wavelengthNm!);
+    else if (unit === 'dNm') dNm = v;
+    else if (unit === 'dA') dNm = v / 10;
+    else if (unit === 'qInvNm') dNm = qToD(v);
+    else dNm = qToD(v * 10);
+    let twoThetaDeg: number | null = null;
+    if (wavelengthNm !== undefined && wavelengthNm / (2 * dNm) <= 1) twoThetaDeg = (360 / Math.PI) * Math.asin(wavelengthNm / (2 * dNm));
+    return { twoThetaDeg, dNm, qInvNm: dToQ(dNm) };
+  });
+}

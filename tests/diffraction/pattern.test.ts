@@ -1,0 +1,78 @@
+import { readFileSync } from 'node:fs';
+import { describe, expect, test } from 'vitest';
+import { parsePattern, parsePeakList } from '../../src/diffraction/pattern';
+
+const FIXTURE = 'tests/fixtures/reference-data/xrd-powder_propylammonium-chloride_CuKa12_COD1516218_2theta-counts.xy';
+
+describe('parsePattern', () => {
+  test('the measured propylammonium chloride pattern: 3955 points, 3.000–89.988°, Cu Kα1 + Kα2 from the header (SOURCES.md §2)', () => {
+    const p = parsePattern(readFileSync(FIXTURE, 'utf8'));
+    expect(p.x.length).toBe(3955);
+    expect(p.x[0]).toBe(3);
+    expect(p.x[p.x.length - 1]).toBeCloseTo(89.988, 6);
+    expect(p.wavelengthNm).toBeCloseTo(0.1540598, 9);
+    expect(p.ka2Nm).toBeCloseTo(0.154439, 9);
+    expect(p.wavelengthFrom).toBe('header');
+  });
+  test('decimal comma with semicolons, and with whitespace', () => {
+    const a = parsePattern('2theta;counts\n12,5;340\n12,6;350\n12,7;360\n');
+    expect(Array.from(a.x)).toEqual([12.5, 12.6, 12.7]);
+    expect(Array.from(a.y)).toEqual([340, 350, 360]);
+    const b = parsePattern('12,5 340\n12,6 350\n12,7 360');
+    expect(Array.from(b.x)).toEqual([12.5, 12.6, 12.7]);
+  });
+  test('comma-separated and tab-separated with a third σ column', () => {
+    const a = parsePattern('10.0,5,1.5\n10.1,6,1.6\n10.2,7,1.7');
+    expect(Array.from(a.sigma!)).toEqual([1.5, 1.6, 1.7]);
+    const b = parsePattern('10.0\t5\n10.1\t6\n10.2\t7');
+    expect(Array.from(b.y)).toEqual([5, 6, 7]);
+  });
+  test('every comment style is skipped', () => {
+    const p = parsePattern('# a\n; b\n! c\n// d\n10 1\n11 2\n12 3\n');
+    expect(p.x.length).toBe(3);
+  });
+  test('wavelength from header lines in nm, Å and as an anode name', () => {
+    expect(parsePattern('# wavelength: 1.5406 A\n10 1\n11 2\n12 3').wavelengthNm).toBeCloseTo(0.15406, 9);
+    expect(parsePattern('# lambda = 0.15406 nm\n10 1\n11 2\n12 3').wavelengthNm).toBeCloseTo(0.15406, 9);
+    const mo = parsePattern('# Mo K-alpha radiation\n10 1\n11 2\n12 3');
+    expect(mo.wavelengthNm).toBe(0.070931713);
+    const opt = parsePattern('# lambda = 0.15406 nm\n10 1\n11 2\n12 3', { wavelength: 'CoKa1' });
+    expect(opt.wavelengthNm).toBeCloseTo(0.1788996, 9);
+    expect(opt.notes.join()).toMatch(/overridden/);
+  });
+  test('q in Å⁻¹ from the header is converted to nm⁻¹', () => {
+    const p = parsePattern('# q (A^-1)  I\n0.10 5\n0.11 6\n0.12 7');
+    expect(p.axis).toBe('q');
+    expect(p.x[0]).toBeCloseTo(1.0, 12);
+    const n = parsePattern('# q (nm^-1) I\n1.0 5\n1.1 6\n1.2 7');
+    expect(n.x[0]).toBe(1);
+  });
+  test('decreasing x is reversed and reported', () => {
+    const p = parsePattern('12 3\n11 2\n10 1');
+    expect(Array.from(p.x)).toEqual([10, 11, 12]);
+    expect(p.notes.join()).toMatch(/reversed/);
+  });
+  test('bad rows are errors with the line number; nothing is dropped silently', () => {
+    expect(() => parsePattern('10 1\n11\n12 3\n13 4')).toThrow(/line 2: only one column/);
+    expect(() => parsePattern('10 1\n11 2\n11 3\n13 4')).toThrow(/line 3: .*strictly monotonic/);
+    expect(() => parsePattern('10 1\n11 2\nNaN 3\n13 4')).toThrow(/line 3/);
+    expect(() => parsePattern('10 1\n11 2\n12 x\n13 4')).toThrow(/line 3: not a data row/);
+    expect(() => parsePattern('10 1 1\n11 2 0\n12 3 1')).toThrow(/line 2: uncertainty 0/);
+    expect(() => parsePattern('10 1\n11 2 5\n12 3')).toThrow(/line 2: 3 columns/);
+    expect(() => parsePattern('10 1\n')).toThrow(/at least 3/);
+  });
+});
+
+describe('parsePeakList', () => {
+  test('d in Å, q in nm⁻¹ and 2θ with a wavelength give the same d', () => {
+    const d = parsePeakList('7.405, 3.7025', 'dA');
+    expect(d[0].dNm).toBeCloseTo(0.7405, 10);
+    const q = parsePeakList(`${(2 * Math.PI) / 0.7405}`, 'qInvNm');
+    expect(q[0].dNm).toBeCloseTo(0.7405, 10);
+    // 001 of propylammonium chloride at 11.941° 2θ, Cu Kα1 1.540598 Å (SOURCES.md §2, computed)
+    const t = parsePeakList('11.941', 'twoThetaDeg', 0.1540598);
+    expect(t[0].dNm).toBeCloseTo(0.74055, 4);
+    expect(() => parsePeakList('11.9', 'twoThetaDeg')).toThrow(/wavelength/);
+    expect(() => parsePeakList('3, -1', 'dA')).toThrow(/peak 2/);
+  });
+});
