@@ -6,6 +6,7 @@ async function loadCommands(): Promise<CliCommand[]> {
   const modules = await Promise.all([
     // commands: one line each, kept in this order
     import('./info'),
+    import('./calibrate'),
     import('./batch'),
     import('./measure'),
   ] as Promise<{ command: CliCommand }>[]);

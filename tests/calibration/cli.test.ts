@@ -1,0 +1,88 @@
+import { afterAll, beforeAll, expect, test } from 'vitest';
+import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { encode } from 'fast-png';
+import { main } from '../../src/cli/main';
+import { encodeTiff } from '../../src/image/encode-tiff';
+import { scene, type SceneSpec } from './scenes';
+
+let dir: string;
+beforeAll(() => {
+  dir = mkdtempSync(join(tmpdir(), 'calibrate-cli-'));
+});
+afterAll(() => rmSync(dir, { recursive: true, force: true }));
+
+function capture() {
+  const out: string[] = [];
+  const err: string[] = [];
+  return { io: { out: (t: string) => out.push(t), err: (t: string) => err.push(t) }, out, err };
+}
+
+const spec: SceneSpec = { layout: 'strip-bottom', width: 640, height: 480, lengthPx: 160.4, x0: 50.3, thicknessPx: 8, label: '200 nm', font: 'sans', sizePx: 20, full: 255, seed: 31 };
+const truthNmPerPx = 200 / 160.4;
+
+function writePng(name: string): string {
+  const img = scene(spec);
+  const file = join(dir, name);
+  writeFileSync(file, encode({ width: img.width, height: img.height, data: Uint8Array.from(img.data), channels: 1, depth: 8 }));
+  return file;
+}
+
+function writeTiff(name: string, nmPerPx: number): string {
+  const img = scene(spec);
+  const file = join(dir, name);
+  // pixels per cm = 1e7 nm / nmPerPx
+  writeFileSync(file, encodeTiff({ width: img.width, height: img.height, data: Uint8Array.from(img.data), resolution: { x: 1e7 / nmPerPx, unit: 'cm' } }));
+  return file;
+}
+
+test('a PNG with a scale bar only: the bar is measured and its label read offline', async () => {
+  const c = capture();
+  expect(await main(['calibrate', writePng('bar.png'), '--json'], c.io)).toBe(0);
+  const r = JSON.parse(c.out.join(''));
+  expect(r.source).toBe('scale-bar');
+  expect(Math.abs(r.scaleBar.lengthPx - spec.lengthPx)).toBeLessThan(0.5);
+  expect(r.scaleBar.label).toMatchObject({ value: 200, unit: 'nm' });
+  expect(Math.abs(r.nmPerPx / truthNmPerPx - 1)).toBeLessThan(0.005);
+  expect(r.scaleBar.stripBox).toEqual([0, expect.any(Number), 640, expect.any(Number)]);
+  expect(r.warning).toBeNull();
+});
+
+test('metadata and bar that agree: metadata chosen, no warning', async () => {
+  const c = capture();
+  expect(await main(['calibrate', writeTiff('agree.tif', truthNmPerPx * 1.01), '--json', '--label', '200 nm'], c.io)).toBe(0);
+  const r = JSON.parse(c.out.join(''));
+  expect(r.source).toBe('metadata');
+  expect(r.candidates.map((x: { source: string }) => x.source).sort()).toEqual(['metadata', 'scale-bar']);
+  expect(r.warning).toBeNull();
+});
+
+test('metadata and bar that disagree beyond k = 2: a warning showing both', async () => {
+  const c = capture();
+  expect(await main(['calibrate', writeTiff('disagree.tif', truthNmPerPx * 1.3), '--label', '200 nm'], c.io)).toBe(0);
+  const text = c.out.join('');
+  expect(text).toMatch(/WARNING/);
+  expect(text).toMatch(/metadata .* vs scale-bar/);
+});
+
+test('a lattice standard with a period measured by hand', async () => {
+  const c = capture();
+  // graphite (002) 0.3354 nm (IUPAC Gold Book) at 6.708 px → 0.05 nm/px
+  expect(await main(['calibrate', writePng('std.png'), '--json', '--no-ocr', '--standard', 'graphite-002', '--period-px', '6.708'], c.io)).toBe(0);
+  const r = JSON.parse(c.out.join(''));
+  expect(r.source).toBe('standard');
+  expect(r.nmPerPx).toBeCloseTo(0.05, 10);
+});
+
+test('usage errors name the offending value', async () => {
+  const c = capture();
+  expect(await main(['calibrate', 'x.png', '--label', 'two hundred'], c.io)).toBe(2);
+  expect(c.err.join('')).toMatch(/two hundred/);
+  const d = capture();
+  expect(await main(['calibrate', 'x.png', '--standard', 'kryptonite', '--period-px', '3'], d.io)).toBe(2);
+  expect(d.err.join('')).toMatch(/kryptonite/);
+  const e = capture();
+  expect(await main(['calibrate', '--list-standards'], e.io)).toBe(0);
+  expect(e.out.join('')).toMatch(/si-111/);
+});
