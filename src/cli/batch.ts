@@ -52,8 +52,14 @@ export interface BatchOutcome {
   results: FileResult[];
   /** Peak isolate memory (V8 heap + external, bytes) reported by each worker. */
   workerPeakBytes: number[];
+  /** The same peak after each worker's first three files (equal to the final peak: memory does not grow with the files). */
+  workerEarlyPeakBytes: number[];
+  /** Files each worker processed. */
+  workerFiles: number[];
   /** Wall-clock seconds of the run. */
   seconds: number;
+  /** Seconds from the start until the last worker had loaded its tools (thread start, TypeScript loader, opencv.js). */
+  startupSeconds: number;
   /** Files written (exports). */
   written: string[];
 }
@@ -123,6 +129,10 @@ class BatchWorker {
   private worker: Worker;
   private pending: { resolve: (r: WorkerReply) => void; reject: (e: Error) => void } | null = null;
   peakBytes = 0;
+  /** Peak after the first three files. */
+  earlyPeakBytes = 0;
+  /** Files processed. */
+  files = 0;
   /** Settles when the worker has loaded its tools; rejects with a message for the user when it cannot run the recipe. */
   readonly ready: Promise<void>;
 
@@ -143,6 +153,7 @@ class BatchWorker {
       if (!p) return;
       if (m.type === 'result') {
         this.peakBytes = Math.max(this.peakBytes, m.peakBytes);
+        if (++this.files <= 3) this.earlyPeakBytes = this.peakBytes;
         p.resolve(m);
       } else p.reject(new Error(m.message));
     });
@@ -294,7 +305,10 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
 
   const depsModule = options.depsModule ?? DEFAULT_DEPS_MODULE;
   const workerCount = Math.min(options.jobs, Math.max(1, total));
+  let startupMs = 0;
   const peaks: number[] = [];
+  const earlyPeaks: number[] = [];
+  const workerFiles: number[] = [];
   let fatal: Error | null = null;
   const loops: Promise<void>[] = [];
   for (let w = 0; w < workerCount; w++) {
@@ -302,6 +316,8 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
       (async () => {
         let worker: BatchWorker | null = null;
         let peak = 0;
+        let early = 0;
+        let count = 0;
         try {
           for (;;) {
             if (fatal) break;
@@ -311,6 +327,7 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
               worker = new BatchWorker(recipe, depsModule, !!figuresDir);
               try {
                 await worker.ready;
+                startupMs = Math.max(startupMs, performance.now() - t0);
               } catch (e) {
                 fatal ??= e as Error;
                 break;
@@ -322,6 +339,8 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
             } catch (e) {
               // a crashed worker fails its file only; a fresh worker takes the next one
               peak = Math.max(peak, worker.peakBytes);
+              early = Math.max(early, worker.earlyPeakBytes);
+              count += worker.files;
               await worker.stop().catch(() => 0);
               worker = null;
               const reason = `processing stopped: ${(e as Error).message.split('\n')[0]}`;
@@ -333,9 +352,15 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
         } finally {
           if (worker) {
             peak = Math.max(peak, worker.peakBytes);
+            early = Math.max(early, worker.earlyPeakBytes);
+            count += worker.files;
             await worker.stop().catch(() => 0);
           }
-          if (peak > 0) peaks.push(peak);
+          if (peak > 0) {
+            peaks.push(peak);
+            earlyPeaks.push(early);
+            workerFiles.push(count);
+          }
         }
       })(),
     );
@@ -373,7 +398,7 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
     await writeAtomic(zipPath, zipExports(exportsZip));
     written.push(zipPath);
   }
-  return { total, processed, skipped, results: ordered, workerPeakBytes: peaks, seconds: (performance.now() - t0) / 1000, written };
+  return { total, processed, skipped, results: ordered, workerPeakBytes: peaks, workerEarlyPeakBytes: earlyPeaks, workerFiles, seconds: (performance.now() - t0) / 1000, startupSeconds: startupMs / 1000, written };
 }
 
 const usage = `Usage: stratameter batch FOLDER [--recipe FILE.json] [--out results.csv] [--json-out results.json] [--figures DIR] [--jobs N]

@@ -1,0 +1,110 @@
+/**
+ * Batch throughput and worker memory: seeded synthetic 2048 × 2048 16-bit TIFFs (lamellar
+ * fringes of clay tactoids in a polymer film, with shot-like noise) through a typical recipe,
+ * with 1 and 2 worker threads.
+ *
+ *   npm run bench:batch                 50 files
+ *   npm run bench:batch -- --files 10   fewer files
+ *   npm run bench:batch -- --size 1024  smaller images
+ *
+ * The files are written to a temporary folder and deleted afterwards.
+ */
+import { mkdtemp, rm, writeFile } from 'node:fs/promises';
+import { availableParallelism, loadavg, tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { parseRecipe } from '../src/batch/recipe';
+import { runBatch } from '../src/cli/batch';
+import { encodeTiff } from '../src/image/encode-tiff';
+
+function option(name: string, fallback: number): number {
+  const i = process.argv.indexOf(`--${name}`);
+  if (i < 0) return fallback;
+  const v = Number(process.argv[i + 1]);
+  if (!(Number.isInteger(v) && v > 0)) throw new Error(`--${name} needs a positive integer, got ${process.argv[i + 1]}`);
+  return v;
+}
+
+const files = option('files', 50);
+const size = option('size', 2048);
+const NM_PER_PX = 0.05;
+
+/** Mulberry32, a small seeded generator (common practice for reproducible test data). */
+function rng(seed: number): () => number {
+  let a = seed >>> 0;
+  return () => {
+    a = (a + 0x6d2b79f5) >>> 0;
+    let t = a;
+    t = Math.imul(t ^ (t >>> 15), t | 1);
+    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
+    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
+  };
+}
+
+/** One synthetic micrograph: a tactoid of fringes (period 1.0–1.4 nm) in an amorphous matrix. */
+function micrograph(seed: number): Uint16Array {
+  const r = rng(seed);
+  const periodPx = (1.0 + 0.4 * r()) / NM_PER_PX;
+  const angle = Math.PI * r();
+  const fx = Math.cos(angle) / periodPx;
+  const fy = -Math.sin(angle) / periodPx;
+  const cx = size * (0.3 + 0.4 * r());
+  const cy = size * (0.3 + 0.4 * r());
+  const sigma = size * 0.25;
+  const out = new Uint16Array(size * size);
+  const row = new Float64Array(size);
+  for (let y = 0; y < size; y++) {
+    const gy = Math.exp(-((y - cy) ** 2) / (2 * sigma * sigma));
+    for (let x = 0; x < size; x++) row[x] = Math.exp(-((x - cx) ** 2) / (2 * sigma * sigma)) * gy;
+    for (let x = 0; x < size; x++) {
+      const fringe = 6000 * row[x] * Math.cos(2 * Math.PI * (fx * x + fy * y));
+      const noise = (r() + r() + r() - 1.5) * 5000;
+      out[y * size + x] = Math.max(0, Math.min(65535, Math.round(28000 + fringe + noise)));
+    }
+  }
+  return out;
+}
+
+const mib = (b: number) => (b / 2 ** 20).toFixed(0);
+
+async function main(): Promise<void> {
+  const dir = await mkdtemp(join(tmpdir(), 'stratameter-bench-batch-'));
+  try {
+    const t0 = performance.now();
+    for (let i = 0; i < files; i++) {
+      const tiff = encodeTiff({ width: size, height: size, data: micrograph(1000 + i), resolution: { x: 1e7 / NM_PER_PX, unit: 'cm' } });
+      await writeFile(join(dir, `tactoid-${String(i).padStart(3, '0')}.tif`), tiff);
+    }
+    const genS = (performance.now() - t0) / 1000;
+    const recipe = parseRecipe({
+      schemaVersion: 1,
+      name: 'bench: tactoid fringes',
+      area: { kind: 'whole', infoStripPx: 0 },
+      measurements: [{ tool: 'spectrum', topK: 3 }],
+      acceptance: { periodRangeNm: [0.5, 3] },
+      outputs: { csv: true, json: true, figures: false, zip: false },
+    });
+    console.log(`batch benchmark: ${files} files of ${size} × ${size} px, 16-bit TIFF (${((size * size * 2) / 2 ** 20).toFixed(0)} MiB each), generated in ${genS.toFixed(1)} s; ${availableParallelism()} cores`);
+    console.log('recipe: metadata calibration, whole image, spectrum top 3, period range 0.5–3 nm; no figures\n');
+    const rows: string[] = [];
+    let base = 0;
+    for (const jobs of [1, 2]) {
+      const out = await runBatch({ folder: dir, recipe, outCsv: join(dir, `out-${jobs}`, 'results.csv'), jobs }, { out: () => {}, err: () => {} });
+      const ok = out.results.filter((r) => r.status === 'ok').length;
+      const found = out.results.filter((r) => r.summary.topPeriods.length > 0).length;
+      const rate = out.processed / (out.seconds - out.startupSeconds);
+      if (jobs === 1) base = rate;
+      rows.push(
+        `| ${jobs} | ${out.processed} | ${ok} | ${found} | ${out.seconds.toFixed(1)} | ${out.startupSeconds.toFixed(1)} | ${rate.toFixed(2)} | ${(rate / base).toFixed(2)}× | ${out.workerEarlyPeakBytes.map(mib).join(' / ')} | ${out.workerPeakBytes.map(mib).join(' / ')} | ${out.workerFiles.join(' / ')} |`,
+      );
+    }
+    console.log('| workers | files | ok | with a period | wall s | of which start-up s | images/s after start-up | speed-up | peak MiB per worker after 3 files | peak MiB per worker at the end | files per worker |');
+    console.log('|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|');
+    for (const r of rows) console.log(r);
+    console.log(`\nload average at the end: ${loadavg().map((l) => l.toFixed(1)).join(' ')} (other processes on the machine lower the speed-up)`);
+    console.log('Peak memory: V8 heap + external (incl. the opencv.js wasm heap) of each worker isolate, sampled after every file.');
+  } finally {
+    await rm(dir, { recursive: true, force: true });
+  }
+}
+
+await main();
