@@ -1,0 +1,429 @@
+/**
+ * Nanosheet thickness and layer counts along a line profile drawn across a stack of layers.
+ *
+ * The profile is band-passed around the layer frequency with a zero-phase Gaussian filter that
+ * keeps only positive frequencies, which yields the analytic signal directly: its real part is
+ * the band-passed profile (layers at its extrema), its modulus the envelope of the periodic
+ * signal (sheets where it is high).
+ */
+import { padReflect, sheetFft } from './sheets-signal';
+
+/** Options for `sheetsAlongProfile`. */
+export interface SheetProfileOptions {
+  /** Expected layer period in samples; default: estimated from the profile's periodogram. */
+  periodPx?: number;
+  /** Shortest period searched when estimating (samples, default 2.5). */
+  minPeriodPx?: number;
+  /** Longest period searched when estimating (samples, default length / 3). */
+  maxPeriodPx?: number;
+  /** Standard deviation of the Gaussian band-pass as a fraction of the layer frequency (default 0.3). */
+  relBandwidth?: number;
+  /** Layers are 'dark' fringes (minima, bright-field TEM; default) or 'bright' ones (maxima). */
+  polarity?: 'dark' | 'bright';
+  /** A periodic run must peak above this many times the noise envelope rms (default 3.5); it extends while the envelope stays above 2/3 of that level. */
+  snrThreshold?: number;
+  /** ... and above this fraction of the profile's largest envelope (half of it to extend; default 0.2). */
+  relThreshold?: number;
+  /** A run is split at an envelope dip below this fraction of the smaller neighbouring peak (default 0.6). */
+  splitRatio?: number;
+  /** A spacing outside period × (1 ± this) breaks a sheet (default 0.3). */
+  spacingTolerance?: number;
+  /** Sheets with fewer layers are dropped (default 2; 1 keeps single fringes). */
+  minLayers?: number;
+  /** Sample spacing in nm for the nm fields (null or absent: nm fields are null). */
+  nmPerSample?: number | null;
+}
+
+/** One sheet found along a profile. Positions are in samples from the profile's start. */
+export interface ProfileSheet {
+  /** Number of layers (extrema of the band-passed profile inside the sheet). */
+  layers: number;
+  /** Sub-sample positions of the layer centres, ascending. */
+  layerPositionsPx: number[];
+  /** Mean layer period inside the sheet (least-squares slope of centre against index; the profile period for one layer). */
+  periodPx: number;
+  /** Standard deviation of the individual spacings (0 with fewer than 3 layers). */
+  spacingSdPx: number;
+  /** Thickness = (last − first layer centre) + periodPx = layers × periodPx. */
+  thicknessPx: number;
+  /** Distance between the envelope's half-maximum crossings on either side. */
+  edgeToEdgePx: number;
+  /** The two half-maximum crossings. */
+  edgesPx: [number, number];
+  /** Centre of the sheet (midway between first and last layer). */
+  centerPx: number;
+  /** Peak envelope (grey units of the band-passed signal). */
+  amplitude: number;
+  /** The sheet touches an end of the profile, so it may continue beyond it. */
+  truncated: boolean;
+  /** thicknessPx, edgeToEdgePx and periodPx in nm (null without nmPerSample). */
+  thicknessNm: number | null;
+  edgeToEdgeNm: number | null;
+  periodNm: number | null;
+}
+
+/** The result of `sheetsAlongProfile`. */
+export interface ProfileSheetsResult {
+  /** The layer period the band-pass was centred on (samples). */
+  periodPx: number;
+  /** Whether periodPx was given or estimated. */
+  periodSource: 'given' | 'estimated';
+  /** The band-passed profile (real part of the analytic signal). */
+  filtered: Float64Array;
+  /** The envelope (modulus of the analytic signal). */
+  envelope: Float64Array;
+  /** The envelope level a periodic run had to reach (the high hysteresis level). */
+  threshold: number;
+  /** Noise envelope rms (larger of a white-noise and a background estimate; see the notes of `sheetsAlongProfile`). */
+  noiseRms: number;
+  /** The sheets, in order along the profile. */
+  sheets: ProfileSheet[];
+  /** Edge-to-edge gaps between consecutive sheets (length sheets.length − 1), samples. */
+  gapsPx: number[];
+  /** The gaps in nm (null without nmPerSample). */
+  gapsNm: number[] | null;
+}
+
+/**
+ * Periodogram estimate of the dominant period of a profile.
+ *
+ * Schuster periodogram of the Hann-windowed, mean-removed profile zero-padded ×8; among local maxima above 5 % of the largest, the one with the largest power over its octave's median wins; parabola on log power (common practice).
+ *
+ * @param values the profile
+ * @param minPeriodPx shortest period searched (≥ 2)
+ * @param maxPeriodPx longest period searched
+ * @returns the period in samples and its peak power over the median power of the octave around it
+ */
+export function profilePeriod(
+  values: ArrayLike<number>,
+  minPeriodPx = 2.5,
+  maxPeriodPx = values.length / 3,
+): { periodPx: number; peakToMedian: number } {
+  const n = values.length;
+  if (n < 8) throw new RangeError(`profile needs at least 8 samples, got ${n}`);
+  if (!(minPeriodPx >= 2)) throw new RangeError(`minPeriodPx must be ≥ 2, got ${minPeriodPx}`);
+  if (!(maxPeriodPx > minPeriodPx)) throw new RangeError(`maxPeriodPx must exceed minPeriodPx (${minPeriodPx}), got ${maxPeriodPx}`);
+  let mean = 0;
+  for (let i = 0; i < n; i++) mean += values[i];
+  mean /= n;
+  let size = 1;
+  while (size < 8 * n) size <<= 1;
+  const re = new Float64Array(size);
+  const im = new Float64Array(size);
+  for (let i = 0; i < n; i++) re[i] = (values[i] - mean) * (0.5 - 0.5 * Math.cos((2 * Math.PI * (i + 0.5)) / n));
+  sheetFft(re, im, -1);
+  const kLo = Math.max(1, Math.floor(size / maxPeriodPx));
+  const kHi = Math.min(size / 2 - 2, Math.ceil(size / minPeriodPx));
+  const power = new Float64Array(size / 2);
+  for (let k = 0; k < size / 2; k++) power[k] = re[k] * re[k] + im[k] * im[k];
+  // score each local maximum by its power over the median power of the octave around it, so the
+  // broad low-frequency content of a few stacks does not win over the narrow layer peak
+  let maxPower = 0;
+  for (let k = kLo; k <= kHi; k++) maxPower = Math.max(maxPower, power[k]);
+  let best = kLo;
+  let bestScore = -1;
+  let median = 1e-300;
+  const window: number[] = [];
+  for (let k = Math.max(kLo, 1); k <= kHi; k++) {
+    if (!(power[k] >= power[k - 1] && power[k] >= power[k + 1]) || power[k] < 0.05 * maxPower) continue;
+    const a = Math.max(1, Math.floor(k / Math.SQRT2));
+    const b = Math.min(size / 2 - 1, Math.ceil(k * Math.SQRT2));
+    window.length = 0;
+    for (let j = a; j <= b; j += Math.max(1, Math.floor((b - a) / 64))) window.push(power[j]);
+    window.sort((x, y) => x - y);
+    const med = window[window.length >> 1] || 1e-300;
+    const score = power[k] / med;
+    if (score > bestScore) { bestScore = score; best = k; median = med; }
+  }
+  const bestP = power[best];
+  let delta = 0;
+  if (best > 1 && best < size / 2 - 1) {
+    const pm = Math.log(power[best - 1] + 1e-300);
+    const p0 = Math.log(bestP + 1e-300);
+    const pp = Math.log(power[best + 1] + 1e-300);
+    const den = pm - 2 * p0 + pp;
+    if (den < 0) delta = Math.max(-0.5, Math.min(0.5, (0.5 * (pm - pp)) / den));
+  }
+  return { periodPx: size / (best + delta), peakToMedian: bestP / median };
+}
+
+/** Analytic signal of the Gaussian band-passed profile: returns real part and modulus, plus the noise envelope rms. */
+function bandpassAnalytic(
+  values: ArrayLike<number>,
+  periodPx: number,
+  relBandwidth: number,
+): { filtered: Float64Array; envelope: Float64Array; noiseRms: number } {
+  const n = values.length;
+  const { re, offset } = padReflect(values, 3 * periodPx);
+  const size = re.length;
+  const im = new Float64Array(size);
+  sheetFft(re, im, -1);
+  const f0 = size / periodPx; // layer frequency in bins
+  const sigma = relBandwidth * f0;
+  // noise: median power in two side bands next to the layer band ([0.45, 0.7] f0 and
+  // [1.45, 1.8] f0), where coloured (amorphous) backgrounds have about the in-band level
+  const lowBand: number[] = [];
+  const highBand: number[] = [];
+  const upperBand: number[] = [];
+  for (let k = Math.max(1, Math.floor(0.45 * f0)); k < size / 2; k++) {
+    const h = k / f0;
+    const p = re[k] * re[k] + im[k] * im[k];
+    if (h >= 0.45 && h <= 0.7) lowBand.push(p);
+    if (h >= 1.45 && h <= 1.8) highBand.push(p);
+    if (h >= 2.3 && Math.abs(h - Math.round(h)) > 0.3) upperBand.push(p);
+  }
+  let gainSq = 0;
+  for (let k = 1; k < size / 2; k++) {
+    const g = 2 * Math.exp(-0.5 * ((k - f0) / sigma) ** 2);
+    re[k] *= g;
+    im[k] *= g;
+    gainSq += g * g;
+  }
+  re[0] = 0; im[0] = 0;
+  for (let k = size / 2; k < size; k++) { re[k] = 0; im[k] = 0; }
+  sheetFft(re, im, 1);
+  const filtered = new Float64Array(n);
+  const envelope = new Float64Array(n);
+  for (let i = 0; i < n; i++) {
+    const a = re[i + offset] / size;
+    const b = im[i + offset] / size;
+    filtered[i] = a;
+    envelope[i] = Math.hypot(a, b);
+  }
+  // Noise envelope rms, the larger of two estimates: (a) white noise from the upper spectrum
+  // away from the harmonics; (b) the smaller of the side bands next to the layer band (coloured,
+  // amorphous backgrounds have about the in-band level there) and of the envelope's 20 % quantile
+  // (Rayleigh: q20 = 0.472 rms), which is low wherever some of the profile is background.
+  // A white-noise bin's power is exponential: median = ln 2 × mean (common practice).
+  const medianOf = (v: number[]) => (v.length ? v.sort((x, y) => x - y)[v.length >> 1] : 0);
+  const fromBins = (perBinMedian: number) => Math.sqrt(((perBinMedian / Math.LN2) * gainSq) / (size * size));
+  const white = fromBins(medianOf(upperBand));
+  const side = fromBins(Math.max(medianOf(lowBand), medianOf(highBand)));
+  const q20 = Float64Array.from(envelope).sort()[Math.floor(0.2 * (n - 1))] / Math.sqrt(-Math.log(0.8));
+  const noiseRms = Math.max(white, Math.min(side, q20));
+  return { filtered, envelope, noiseRms };
+}
+
+/** Sub-sample position of the extremum at i by a three-point parabola. */
+function parabolicPeak(y: Float64Array, i: number): number {
+  const a = y[i - 1];
+  const b = y[i];
+  const c = y[i + 1];
+  const den = a - 2 * b + c;
+  if (den === 0) return i;
+  return i + Math.max(-0.5, Math.min(0.5, (0.5 * (a - c)) / den));
+}
+
+/** Linear interpolation of where y crosses level between indices i and i + 1. */
+function crossing(y: Float64Array, i: number, level: number): number {
+  const d = y[i + 1] - y[i];
+  return d === 0 ? i + 0.5 : i + (level - y[i]) / d;
+}
+
+/**
+ * Locates layers along a width-averaged profile drawn across a stack and groups them into sheets.
+ *
+ * Analytic signal (Gabor, J. IEE 93, 429 (1946)) of a Gaussian band-pass around the layer frequency; sheets where its envelope is high.
+ *
+ * @param values the profile (grey values at equal sample spacing, e.g. `lineProfile(...).mean`)
+ * @param options period, band-pass width, polarity, thresholds, calibration
+ * @returns the band-passed profile, envelope, layer positions grouped into sheets, and the gaps
+ * Notes:
+ * - Layers are the sub-sample extrema (three-point parabola) of the band-passed profile from the
+ *   first to the last one whose envelope is at least half the sheet's peak envelope.
+ * - A run of samples above threshold (noise-based and relative, with hysteresis) is split where the envelope dips
+ *   below `splitRatio` of the smaller neighbouring peak, and where a spacing breaks the period.
+ * - thicknessPx = (last − first layer centre) + the sheet's mean period (= layers × period);
+ *   edgeToEdgePx = distance between the envelope's half-maximum crossings. For a uniform stack
+ *   both approach layers × period; edge-to-edge is widened by the filter for one or two layers.
+ */
+export function sheetsAlongProfile(values: ArrayLike<number>, options: SheetProfileOptions = {}): ProfileSheetsResult {
+  const n = values.length;
+  if (n < 8) throw new RangeError(`profile needs at least 8 samples, got ${n}`);
+  for (let i = 0; i < n; i++) {
+    if (!Number.isFinite(values[i])) throw new RangeError(`values[${i}] must be finite, got ${values[i]}`);
+  }
+  const relBandwidth = options.relBandwidth ?? 0.3;
+  const snrThreshold = options.snrThreshold ?? 3.5;
+  const relThreshold = options.relThreshold ?? 0.2;
+  const splitRatio = options.splitRatio ?? 0.6;
+  const spacingTolerance = options.spacingTolerance ?? 0.3;
+  const minLayers = options.minLayers ?? 2;
+  const nm = options.nmPerSample ?? null;
+  const polarity = options.polarity ?? 'dark';
+  if (!(relBandwidth > 0 && relBandwidth <= 1)) throw new RangeError(`relBandwidth must be in (0, 1], got ${relBandwidth}`);
+  if (!(snrThreshold >= 0)) throw new RangeError(`snrThreshold must be ≥ 0, got ${snrThreshold}`);
+  if (!(relThreshold >= 0 && relThreshold < 1)) throw new RangeError(`relThreshold must be in [0, 1), got ${relThreshold}`);
+  if (!(splitRatio > 0 && splitRatio <= 1)) throw new RangeError(`splitRatio must be in (0, 1], got ${splitRatio}`);
+  if (!(spacingTolerance > 0 && spacingTolerance < 1)) throw new RangeError(`spacingTolerance must be in (0, 1), got ${spacingTolerance}`);
+  if (!(Number.isInteger(minLayers) && minLayers >= 1)) throw new RangeError(`minLayers must be an integer ≥ 1, got ${minLayers}`);
+  if (nm !== null && !(nm > 0 && Number.isFinite(nm))) throw new RangeError(`nmPerSample must be a positive number, got ${nm}`);
+  if (polarity !== 'dark' && polarity !== 'bright') throw new RangeError(`polarity must be 'dark' or 'bright', got ${String(polarity)}`);
+
+  let periodPx: number;
+  let periodSource: ProfileSheetsResult['periodSource'];
+  if (options.periodPx !== undefined) {
+    if (!(options.periodPx >= 2 && options.periodPx <= n / 1.5)) {
+      throw new RangeError(`periodPx must be in [2, ${(n / 1.5).toFixed(1)}] for a ${n}-sample profile, got ${options.periodPx}`);
+    }
+    periodPx = options.periodPx;
+    periodSource = 'given';
+  } else {
+    periodPx = profilePeriod(values, options.minPeriodPx ?? 2.5, options.maxPeriodPx ?? n / 3).periodPx;
+    periodSource = 'estimated';
+  }
+
+  const { filtered, envelope, noiseRms } = bandpassAnalytic(values, periodPx, relBandwidth);
+  let maxEnv = 0;
+  for (let i = 0; i < n; i++) if (envelope[i] > maxEnv) maxEnv = envelope[i];
+  // hysteresis (as in Canny, IEEE PAMI 8, 679 (1986)): a run is the samples above the low level,
+  // kept when its peak clears the high level
+  const threshold = Math.max(snrThreshold * noiseRms, relThreshold * maxEnv, 1e-12 * (maxEnv || 1));
+  const low = Math.max((2 / 3) * snrThreshold * noiseRms, 0.5 * relThreshold * maxEnv, 1e-12 * (maxEnv || 1));
+  const runs: [number, number][] = [];
+  for (let i = 0; i < n; ) {
+    if (envelope[i] <= low) { i++; continue; }
+    let j = i;
+    let top = envelope[i];
+    while (j + 1 < n && envelope[j + 1] > low) { j++; top = Math.max(top, envelope[j]); }
+    if (top > threshold) runs.push([i, j]);
+    i = j + 1;
+  }
+
+  // split each run at deep envelope dips
+  const segments: [number, number][] = [];
+  for (const [a, b] of runs) {
+    let start = a;
+    let peakSoFar = envelope[a];
+    for (let i = a + 1; i < b; i++) {
+      peakSoFar = Math.max(peakSoFar, envelope[i]);
+      if (!(envelope[i] <= envelope[i - 1] && envelope[i] <= envelope[i + 1])) continue;
+      let nextPeak = envelope[i];
+      for (let k = i + 1; k <= b; k++) nextPeak = Math.max(nextPeak, envelope[k]);
+      // the right peak: the largest value up to the next dip deeper than this one is simply the run's remaining max
+      if (envelope[i] < splitRatio * Math.min(peakSoFar, nextPeak)) {
+        segments.push([start, i]);
+        start = i;
+        peakSoFar = envelope[i];
+      }
+    }
+    segments.push([start, b]);
+  }
+
+  const sign = polarity === 'dark' ? -1 : 1;
+  const sheets: ProfileSheet[] = [];
+  const spacingOk = (d: number) => Math.abs(d - periodPx) <= spacingTolerance * periodPx;
+  for (const [a, b] of segments) {
+    let peak = 0;
+    let peakAt = a;
+    for (let i = a; i <= b; i++) if (envelope[i] > peak) { peak = envelope[i]; peakAt = i; }
+    const half = 0.5 * peak;
+    // layer extrema inside the segment with envelope ≥ half the segment's peak
+    const extrema: number[] = [];
+    let firstOk = -1;
+    let lastOk = -1;
+    for (let i = Math.max(1, a); i <= Math.min(n - 2, b); i++) {
+      const v = sign * filtered[i];
+      if (v > 0 && v >= sign * filtered[i - 1] && v > sign * filtered[i + 1]) {
+        if (envelope[i] >= half) {
+          if (firstOk < 0) firstOk = extrema.length;
+          lastOk = extrema.length;
+        }
+        extrema.push(i);
+      }
+    }
+    // every extremum from the first to the last one at ≥ half the peak envelope is a layer
+    const layers = firstOk < 0 ? [] : extrema.slice(firstOk, lastOk + 1).map((i) => parabolicPeak(filtered, i));
+    if (layers.length === 0) continue;
+    // split at spacing breaks
+    let groupStart = 0;
+    for (let k = 1; k <= layers.length; k++) {
+      if (k < layers.length && spacingOk(layers[k] - layers[k - 1])) continue;
+      const group = layers.slice(groupStart, k);
+      groupStart = k;
+      if (group.length < minLayers) continue;
+      sheets.push(makeSheet(group, envelope, filtered, periodPx, a, b, peakAt, nm, n));
+    }
+  }
+  sheets.sort((s, t) => s.centerPx - t.centerPx);
+  const gapsPx: number[] = [];
+  for (let k = 1; k < sheets.length; k++) gapsPx.push(sheets[k].edgesPx[0] - sheets[k - 1].edgesPx[1]);
+  return {
+    periodPx,
+    periodSource,
+    filtered,
+    envelope,
+    threshold,
+    noiseRms,
+    sheets,
+    gapsPx,
+    gapsNm: nm === null ? null : gapsPx.map((g) => g * nm),
+  };
+}
+
+function makeSheet(
+  layers: number[],
+  envelope: Float64Array,
+  _filtered: Float64Array,
+  profilePeriodPx: number,
+  segA: number,
+  segB: number,
+  _segPeakAt: number,
+  nm: number | null,
+  n: number,
+): ProfileSheet {
+  const first = layers[0];
+  const last = layers[layers.length - 1];
+  const count = layers.length;
+  // mean period: least-squares slope of layer position against layer index
+  let periodPx = profilePeriodPx;
+  if (count > 1) {
+    const mk = (count - 1) / 2;
+    let mx = 0;
+    for (const x of layers) mx += x;
+    mx /= count;
+    let sxy = 0;
+    let sxx = 0;
+    layers.forEach((x, k) => { sxy += (k - mk) * (x - mx); sxx += (k - mk) ** 2; });
+    periodPx = sxy / sxx;
+  }
+  let spacingSdPx = 0;
+  if (count > 2) {
+    let ss = 0;
+    for (let k = 1; k < count; k++) ss += (layers[k] - layers[k - 1] - periodPx) ** 2;
+    spacingSdPx = Math.sqrt(ss / (count - 2));
+  }
+  // envelope peak between the first and last layer (± half a period)
+  const lo = Math.max(segA, Math.floor(first - periodPx / 2));
+  const hi = Math.min(segB, Math.ceil(last + periodPx / 2));
+  let peak = 0;
+  for (let i = lo; i <= hi; i++) peak = Math.max(peak, envelope[i]);
+  const half = 0.5 * peak;
+  // half-maximum crossings outward from the first and last layer, not beyond the segment
+  let left = Math.max(0, Math.floor(first));
+  while (left > segA && envelope[left - 1] >= half) left--;
+  let leftEdge = left > 0 && envelope[left - 1] < half ? crossing(envelope, left - 1, half) : left;
+  let right = Math.min(n - 1, Math.ceil(last));
+  while (right < segB && envelope[right + 1] >= half) right++;
+  let rightEdge = right < n - 1 && envelope[right + 1] < half ? crossing(envelope, right, half) : right;
+  const truncated = left <= 0 || right >= n - 1 || first < profilePeriodPx / 2 || last > n - 1 - profilePeriodPx / 2;
+  if (leftEdge > first) leftEdge = first;
+  if (rightEdge < last) rightEdge = last;
+  const thicknessPx = last - first + periodPx;
+  const edgeToEdgePx = rightEdge - leftEdge;
+  return {
+    layers: count,
+    layerPositionsPx: layers,
+    periodPx,
+    spacingSdPx,
+    thicknessPx,
+    edgeToEdgePx,
+    edgesPx: [leftEdge, rightEdge],
+    centerPx: 0.5 * (first + last),
+    amplitude: peak,
+    truncated,
+    thicknessNm: nm === null ? null : thicknessPx * nm,
+    edgeToEdgeNm: nm === null ? null : edgeToEdgePx * nm,
+    periodNm: nm === null ? null : periodPx * nm,
+  };
+}

@@ -1,0 +1,92 @@
+import { describe, expect, it } from 'vitest';
+import { profilePeriod, sheetsAlongProfile } from '../../src/measure/sheets';
+import { rng, gauss, syntheticProfile } from './synthetic';
+
+// Synthetic stacks with known truth (algorithm tests): dark Gaussian layer lines, period 8 samples.
+const truth = [
+  { layers: 1, periodPx: 8, firstPx: 30 },
+  { layers: 5, periodPx: 8, firstPx: 80 },
+  { layers: 2, periodPx: 8, firstPx: 160 },
+  { layers: 12, periodPx: 8, firstPx: 210 },
+];
+
+describe('sheetsAlongProfile', () => {
+  it('counts layers exactly and measures thickness within half a period (noise-free)', () => {
+    const r = sheetsAlongProfile(syntheticProfile(400, truth), { minLayers: 1, nmPerSample: 0.125 });
+    expect(r.periodSource).toBe('estimated');
+    expect(r.periodPx).toBeCloseTo(8, 0);
+    expect(r.sheets.map((s) => s.layers)).toEqual([1, 5, 2, 12]);
+    r.sheets.forEach((s, k) => {
+      const t = truth[k];
+      // thickness definition: layers × period = (last − first centre) + period
+      expect(Math.abs(s.thicknessPx - t.layers * t.periodPx)).toBeLessThan(t.periodPx / 2);
+      expect(s.thicknessNm).toBeCloseTo(s.thicknessPx * 0.125, 12);
+      expect(Math.abs(s.centerPx - (t.firstPx + ((t.layers - 1) * t.periodPx) / 2))).toBeLessThan(0.5);
+    });
+    // edge-to-edge of the 5- and 12-layer sheets ≈ layers × period (half-maximum of the envelope)
+    expect(Math.abs(r.sheets[1].edgeToEdgePx - 40)).toBeLessThan(4);
+    expect(Math.abs(r.sheets[3].edgeToEdgePx - 96)).toBeLessThan(4);
+    // gap between the 5- and 2-layer sheets: 156 − 116 = 40 samples edge to edge
+    expect(Math.abs(r.gapsPx[1] - 40)).toBeLessThan(4);
+    expect(r.gapsNm![1]).toBeCloseTo(r.gapsPx[1] * 0.125, 12);
+    // layer centres within 0.3 sample of the truth in the 12-layer sheet
+    r.sheets[3].layerPositionsPx.forEach((x, k) => expect(Math.abs(x - (210 + 8 * k))).toBeLessThan(0.3));
+  });
+
+  it('finds the sheets of two or more layers at moderate noise', () => {
+    for (const seed of [3, 4, 5]) {
+      const r = sheetsAlongProfile(syntheticProfile(400, truth, { noise: 0.03, seed }));
+      expect(r.sheets.map((s) => s.layers)).toEqual([5, 2, 12]);
+    }
+  });
+
+  it('splits a stack at a missing layer and at a spacing break', () => {
+    // 4 layers, one layer missing, 4 layers: two sheets of 4
+    const missing = syntheticProfile(200, [
+      { layers: 4, periodPx: 8, firstPx: 40 },
+      { layers: 4, periodPx: 8, firstPx: 40 + 5 * 8 },
+    ]);
+    expect(sheetsAlongProfile(missing, { periodPx: 8 }).sheets.map((s) => s.layers)).toEqual([4, 4]);
+    // 5 layers, then 5 more after a half-period slip (spacing 12 instead of 8)
+    const slip = syntheticProfile(200, [
+      { layers: 5, periodPx: 8, firstPx: 40 },
+      { layers: 5, periodPx: 8, firstPx: 40 + 4 * 8 + 12 },
+    ]);
+    const r = sheetsAlongProfile(slip, { periodPx: 8 });
+    expect(r.sheets.map((s) => s.layers)).toEqual([5, 5]);
+  });
+
+  it('reports no sheets in amorphous noise', () => {
+    // purely amorphous: white noise smoothed over 3 samples, 20 seeds
+    for (let seed = 1; seed <= 20; seed++) {
+      const r0 = rng(seed);
+      const w = Array.from({ length: 402 }, () => gauss(r0));
+      const v = Array.from({ length: 400 }, (_, i) => 1 + 0.05 * (w[i] + w[i + 1] + w[i + 2]));
+      expect(sheetsAlongProfile(v, { periodPx: 8 }).sheets).toEqual([]);
+    }
+  });
+
+  it('bright layers with polarity "bright"', () => {
+    const p = syntheticProfile(300, [{ layers: 6, periodPx: 10, firstPx: 100 }]).map((v) => 2 - v);
+    const r = sheetsAlongProfile(p, { polarity: 'bright' });
+    expect(r.sheets.map((s) => s.layers)).toEqual([6]);
+    expect(Math.abs(r.sheets[0].periodPx - 10)).toBeLessThan(0.15);
+    expect(r.sheets[0].periodNm).toBeNull();
+  });
+
+  it('rejects bad arguments by name', () => {
+    const p = syntheticProfile(100, truth.slice(0, 1));
+    expect(() => sheetsAlongProfile(p.slice(0, 5))).toThrow(/at least 8/);
+    expect(() => sheetsAlongProfile(p, { periodPx: 1 })).toThrow(/periodPx/);
+    expect(() => sheetsAlongProfile(p, { minLayers: 0 })).toThrow(/minLayers/);
+    expect(() => sheetsAlongProfile(p, { nmPerSample: -1 })).toThrow(/nmPerSample/);
+    expect(() => sheetsAlongProfile([...p.slice(0, 20), NaN])).toThrow(/values\[20\]/);
+  });
+});
+
+describe('profilePeriod', () => {
+  it('recovers the period of a long stack to 0.5 %', () => {
+    const p = syntheticProfile(512, [{ layers: 50, periodPx: 9.3, firstPx: 20 }], { noise: 0.05, seed: 9 });
+    expect(Math.abs(profilePeriod(p).periodPx - 9.3) / 9.3).toBeLessThan(0.005);
+  });
+});
