@@ -160,7 +160,8 @@ export class StrataLibrary extends LitElement {
     this.busy = true;
     try {
       const s = await importLibrary(this.db, await file.text());
-      this.say(`Imported ${file.name}: ${s.images} images, ${s.measurements} results, ${s.calibrations} calibration profiles, ${s.diffraction} diffraction sets.`);
+      const n = (k: number, one: string, many = `${one}s`) => `${k} ${k === 1 ? one : many}`;
+      this.say(`Imported ${file.name}: ${n(s.images, 'image')}, ${n(s.measurements, 'result')}, ${n(s.calibrations, 'calibration profile')}, ${n(s.diffraction, 'diffraction set')}.`);
       this.changed();
       await this.reload();
     } catch (err) {

@@ -14,7 +14,7 @@ export const controlStyles = css`
   button:disabled { opacity: 0.5; cursor: default; }
   button.danger { border-color: #6b3434; }
   button.danger:hover { background: #4a2626; }
-  input[type='number'] { width: 6.5em; padding: 3px 4px; }
+  input[type='number'] { width: 7em; padding: 3px 4px; font-variant-numeric: tabular-nums; }
   input[type='checkbox'] { min-height: 0; accent-color: var(--accent-2); }
   label { color: var(--muted); font-size: 12px; display: inline-flex; align-items: center; gap: 4px; }
   .sep { width: 1px; align-self: stretch; background: var(--line); margin: 0 4px; }

@@ -54,7 +54,15 @@ function formatNm(nm: number): string {
 function formatValue(v: number): string {
   if (!Number.isFinite(v)) return String(v);
   if (Number.isInteger(v)) return String(v);
-  return Math.abs(v) >= 1000 || Math.abs(v) < 0.01 ? v.toExponential(3) : v.toFixed(3);
+  const a = Math.abs(v);
+  if (a >= 1e6 || (a < 1e-3 && a > 0)) return v.toExponential(3);
+  return String(+v.toPrecision(a >= 100 ? 6 : 4));
+}
+
+/** A display limit as typed into the black/white fields: whole numbers for integer images. */
+function formatLimit(v: number, image: GreyImage | null): string {
+  if (image && image.sampleKind !== 'float') return String(Math.round(v));
+  return formatValue(v);
 }
 
 /**
@@ -570,8 +578,8 @@ export class StrataViewer extends LitElement {
         <span class="sep"></span>
         <label>low % <input type="number" min="0" max="100" step="0.1" .value=${String(this.lowPercent)} ?disabled=${!im} @change=${(e: Event) => this.setPercent('lowPercent', e)}></label>
         <label>high % <input type="number" min="0" max="100" step="0.1" .value=${String(this.highPercent)} ?disabled=${!im} @change=${(e: Event) => this.setPercent('highPercent', e)}></label>
-        <label>black <input type="number" step="any" .value=${formatValue(this.black)} ?disabled=${!im} @change=${(e: Event) => this.setLimit('black', e)}></label>
-        <label>white <input type="number" step="any" .value=${formatValue(this.white)} ?disabled=${!im} @change=${(e: Event) => this.setLimit('white', e)}></label>
+        <label>black <input type="number" step="any" .value=${formatLimit(this.black, im)} ?disabled=${!im} @change=${(e: Event) => this.setLimit('black', e)}></label>
+        <label>white <input type="number" step="any" .value=${formatLimit(this.white, im)} ?disabled=${!im} @change=${(e: Event) => this.setLimit('white', e)}></label>
         <button class=${this.manual ? '' : 'on'} title="Limits from the percentiles" ?disabled=${!im} @click=${() => this.autoLimits()}>Auto</button>
         <label><input type="checkbox" .checked=${this.invert} ?disabled=${!im} @change=${(e: Event) => (this.invert = (e.target as HTMLInputElement).checked)}> invert</label>
       </div>

@@ -15,23 +15,27 @@ const LOOKUP = (() => {
  * Reference: RFC 4648 §4, "Base 64 Encoding".
  */
 export function toBase64(bytes: Uint8Array): string {
-  const parts: string[] = [];
-  const chunk = 3 * 4096;
-  for (let start = 0; start < bytes.length; start += chunk) {
-    const end = Math.min(start + chunk, bytes.length);
-    let s = '';
-    for (let i = start; i < end; i += 3) {
-      const b0 = bytes[i];
-      const b1 = i + 1 < end ? bytes[i + 1] : 0;
-      const b2 = i + 2 < end ? bytes[i + 2] : 0;
-      const n = (b0 << 16) | (b1 << 8) | b2;
-      s += ALPHABET[(n >> 18) & 63] + ALPHABET[(n >> 12) & 63];
-      s += i + 1 < end ? ALPHABET[(n >> 6) & 63] : '=';
-      s += i + 2 < end ? ALPHABET[n & 63] : '=';
-    }
-    parts.push(s);
+  const codes = new Uint8Array(Math.ceil(bytes.length / 3) * 4);
+  const a = new Uint8Array(64);
+  for (let i = 0; i < 64; i++) a[i] = ALPHABET.charCodeAt(i);
+  const full = bytes.length - (bytes.length % 3);
+  let o = 0;
+  for (let i = 0; i < full; i += 3) {
+    const n = (bytes[i] << 16) | (bytes[i + 1] << 8) | bytes[i + 2];
+    codes[o++] = a[n >> 18];
+    codes[o++] = a[(n >> 12) & 63];
+    codes[o++] = a[(n >> 6) & 63];
+    codes[o++] = a[n & 63];
   }
-  return parts.join('');
+  const rest = bytes.length - full;
+  if (rest) {
+    const n = (bytes[full] << 16) | (rest === 2 ? bytes[full + 1] << 8 : 0);
+    codes[o++] = a[n >> 18];
+    codes[o++] = a[(n >> 12) & 63];
+    codes[o++] = rest === 2 ? a[(n >> 6) & 63] : 61;
+    codes[o++] = 61;
+  }
+  return new TextDecoder('latin1').decode(codes);
 }
 
 /**
