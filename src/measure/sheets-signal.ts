@@ -1,43 +1,19 @@
 /**
- * Small signal helpers for the sheet measurements: an in-place radix-2 FFT and the analytic
- * signal of a Gaussian band-passed profile. Private to the sheets code (not a general FFT).
+ * Small signal helpers for the sheet measurements: forward/inverse FFT on top of the shared
+ * radix-2 transform, and reflect padding.
  */
+import { fftRadix2 } from './period-profile';
 
-/** In-place iterative radix-2 complex FFT (Cooley & Tukey, Math. Comput. 19, 297 (1965)); sign −1 forward, +1 inverse (unscaled). */
+/** In-place radix-2 complex FFT: sign −1 forward, +1 inverse (unscaled, by conjugation of the forward transform). */
 export function sheetFft(re: Float64Array, im: Float64Array, sign: 1 | -1): void {
-  const n = re.length;
-  if (n !== im.length) throw new RangeError(`re and im lengths differ: ${n} vs ${im.length}`);
-  if (n & (n - 1)) throw new RangeError(`FFT length must be a power of two, got ${n}`);
-  for (let i = 1, j = 0; i < n; i++) {
-    let bit = n >> 1;
-    for (; j & bit; bit >>= 1) j ^= bit;
-    j ^= bit;
-    if (i < j) {
-      let t = re[i]; re[i] = re[j]; re[j] = t;
-      t = im[i]; im[i] = im[j]; im[j] = t;
-    }
+  if (re.length !== im.length) throw new RangeError(`re and im lengths differ: ${re.length} vs ${im.length}`);
+  if (sign === -1) {
+    fftRadix2(re, im);
+    return;
   }
-  for (let len = 2; len <= n; len <<= 1) {
-    const ang = (sign * 2 * Math.PI) / len;
-    const wr = Math.cos(ang);
-    const wi = Math.sin(ang);
-    const half = len >> 1;
-    for (let i = 0; i < n; i += len) {
-      let cr = 1;
-      let ci = 0;
-      for (let k = 0; k < half; k++) {
-        const a = i + k;
-        const b = a + half;
-        const xr = re[b] * cr - im[b] * ci;
-        const xi = re[b] * ci + im[b] * cr;
-        re[b] = re[a] - xr; im[b] = im[a] - xi;
-        re[a] += xr; im[a] += xi;
-        const t = cr * wr - ci * wi;
-        ci = cr * wi + ci * wr;
-        cr = t;
-      }
-    }
-  }
+  for (let i = 0; i < im.length; i++) im[i] = -im[i];
+  fftRadix2(re, im);
+  for (let i = 0; i < im.length; i++) im[i] = -im[i];
 }
 
 /** Smallest power of two ≥ n. */

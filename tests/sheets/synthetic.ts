@@ -129,11 +129,11 @@ export function syntheticImage(
     const scale = amorphous / Math.sqrt(ss / sm.length);
     for (let i = 0; i < data.length; i++) data[i] += scale * sm[i];
   }
-  let out = data;
+  let out: Float32Array = data;
   if (opts.blurPx && opts.blurPx > 0) out = boxBlur(out, width, height, opts.blurPx);
   const noise = opts.noise ?? 0;
   if (noise > 0) for (let i = 0; i < out.length; i++) out[i] += noise * gauss(r);
-  return makeGreyImage(width, height, out);
+  return makeGreyImage(width, height, Float32Array.from(out));
 }
 
 function boxBlur(src: Float32Array, w: number, h: number, rad: number): Float32Array {
