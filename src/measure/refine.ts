@@ -1,0 +1,154 @@
+/**
+ * Final refinement of a spectrum spot by maximising a lightly tapered periodogram, which wastes
+ * fewer samples than the Hann window used for detection and so comes closer to the Cramér–Rao bound.
+ */
+import type { GreyImage } from '../image/grey-image';
+import { frequencyCrbStd, solve } from './period-profile';
+import { frequencyAngleDeg, type RectPx, type Spot } from './spectrum';
+import { windowSamples, windowVarianceFactor } from './window';
+
+/** Options of {@link refineSpot}. */
+export interface RefineSpotOptions {
+  /** Tukey taper fraction of the refinement window (0 < α ≤ 1, default 0.3). */
+  tukeyAlpha?: number;
+  /** Newton iterations (default 4). */
+  iterations?: number;
+}
+
+/** Region pixels with the mean removed and a separable Tukey window applied, ready for refineSpot. */
+export interface RefineData {
+  /** The area (image pixels). */
+  area: RectPx;
+  /** Windowed, mean-removed samples, row-major. */
+  values: Float64Array;
+  /** The windows along x and y. */
+  windowX: Float64Array;
+  windowY: Float64Array;
+}
+
+/**
+ * Prepares the data of an area for {@link refineSpot} (done once per region).
+ *
+ * Parameters: image; area (inside the image); tukeyAlpha (default 0.3).
+ * Returns: the mean-removed, Tukey-windowed samples.
+ * Reference: Tukey (tapered cosine) window, Harris, Proc. IEEE 66(1), 51 (1978).
+ */
+export function refineData(image: GreyImage, area: RectPx, tukeyAlpha = 0.3): RefineData {
+  const { x, y, width: w, height: h } = area;
+  if (x < 0 || y < 0 || x + w > image.width || y + h > image.height) {
+    throw new RangeError(`area x ${x}, y ${y}, ${w} × ${h} lies outside the ${image.width} × ${image.height} image`);
+  }
+  const wx = windowSamples('tukey', w, tukeyAlpha);
+  const wy = windowSamples('tukey', h, tukeyAlpha);
+  const values = new Float64Array(w * h);
+  let sum = 0;
+  for (let j = 0; j < h; j++) for (let i = 0; i < w; i++) sum += image.data[(y + j) * image.width + x + i];
+  const mean = sum / (w * h);
+  for (let j = 0; j < h; j++) {
+    for (let i = 0; i < w; i++) values[j * w + i] = (image.data[(y + j) * image.width + x + i] - mean) * wx[i] * wy[j];
+  }
+  return { area, values, windowX: wx, windowY: wy };
+}
+
+/**
+ * Refines a spot's frequency vector to the maximum of the Tukey-windowed periodogram.
+ *
+ * Parameters: data from {@link refineData}; spot (from findSpots on the same area, which supplies
+ * the starting point and the SNR); options.
+ * Returns: the spot with refined fx, fy, period, angle and their uncertainties, or null when the
+ * iteration does not converge within half a bin of the start (the caller keeps the original).
+ * Notes: Newton's method on J(ω) = |Σ wₓ w_y d e^(−i(ωₓx + ω_y y))|², with the gradient and Hessian
+ * from first and second moments of the windowed data, evaluated row by row (O(N) per step). The
+ * periodogram maximiser is the maximum-likelihood frequency estimate for one tone in white noise;
+ * the light taper keeps leakage from the region's edges and other spots small while the variance
+ * stays close to the bound: factor √F ≈ 1.27 for α = 0.3 instead of 1.88 for Hann
+ * ({@link windowVarianceFactor}).
+ * Reference: Rife & Boorstyn, IEEE Trans. Inf. Theory 20(5), 591–598 (1974) (periodogram maximum as ML estimator).
+ */
+export function refineSpot(data: RefineData, spot: Spot, options: RefineSpotOptions = {}): Spot | null {
+  const iterations = options.iterations ?? 4;
+  if (!(Number.isInteger(iterations) && iterations >= 1)) throw new RangeError(`iterations must be a positive integer, got ${iterations}`);
+  const { width: w, height: h } = data.area;
+  const v = data.values;
+  const cx = (w - 1) / 2;
+  const cy = (h - 1) / 2;
+  let ox = 2 * Math.PI * spot.fx;
+  let oy = 2 * Math.PI * spot.fy;
+  const ox0 = ox;
+  const oy0 = oy;
+  const er = new Float64Array(w);
+  const ei = new Float64Array(w);
+  for (let it = 0; it < iterations; it++) {
+    for (let i = 0; i < w; i++) {
+      er[i] = Math.cos(ox * (i - cx));
+      ei[i] = -Math.sin(ox * (i - cx));
+    }
+    // Y = Σ_y e_y R0, Y_x = −i Σ e_y R1, Y_xx = −Σ e_y R2, Y_y = −i Σ y e_y R0, Y_yy = −Σ y² e_y R0, Y_xy = −Σ y e_y R1.
+    let yr = 0, yi = 0, xr = 0, xi = 0, xxr = 0, xxi = 0, gyr = 0, gyi = 0, yyr = 0, yyi = 0, xyr = 0, xyi = 0;
+    for (let j = 0; j < h; j++) {
+      let r0r = 0, r0i = 0, r1r = 0, r1i = 0, r2r = 0, r2i = 0;
+      const o = j * w;
+      for (let i = 0; i < w; i++) {
+        const d = v[o + i];
+        if (d === 0) continue;
+        const ar = d * er[i];
+        const ai = d * ei[i];
+        const t = i - cx;
+        r0r += ar;
+        r0i += ai;
+        r1r += t * ar;
+        r1i += t * ai;
+        r2r += t * t * ar;
+        r2i += t * t * ai;
+      }
+      const s = j - cy;
+      const c = Math.cos(oy * s);
+      const sn = -Math.sin(oy * s);
+      const m = (ar: number, ai: number) => [ar * c - ai * sn, ar * sn + ai * c];
+      const [a0r, a0i] = m(r0r, r0i);
+      const [a1r, a1i] = m(r1r, r1i);
+      const [a2r, a2i] = m(r2r, r2i);
+      yr += a0r;
+      yi += a0i;
+      xr += a1i; // −i·(a + ib) = b − ia
+      xi += -a1r;
+      xxr += -a2r;
+      xxi += -a2i;
+      gyr += s * a0i;
+      gyi += -s * a0r;
+      yyr += -s * s * a0r;
+      yyi += -s * s * a0i;
+      xyr += -s * a1r;
+      xyi += -s * a1i;
+    }
+    // J = |Y|²; ∂J = 2 Re(Y* ∂Y); ∂²J = 2 Re(∂aY* ∂bY + Y* ∂a∂bY).
+    const re = (ar: number, ai: number, br: number, bi: number) => ar * br + ai * bi; // Re(a* b)
+    const gx = 2 * re(yr, yi, xr, xi);
+    const gy = 2 * re(yr, yi, gyr, gyi);
+    const hxx = 2 * (re(xr, xi, xr, xi) + re(yr, yi, xxr, xxi));
+    const hyy = 2 * (re(gyr, gyi, gyr, gyi) + re(yr, yi, yyr, yyi));
+    const hxy = 2 * (re(xr, xi, gyr, gyi) + re(yr, yi, xyr, xyi));
+    const det = hxx * hyy - hxy * hxy;
+    if (!(hxx < 0 && det > 0)) return null; // not at a maximum
+    const step = solve(Float64Array.from([hxx, hxy, hxy, hyy]), Float64Array.from([-gx, -gy]), 2);
+    ox += step[0];
+    oy += step[1];
+    if (Math.abs(ox - ox0) > Math.PI / w || Math.abs(oy - oy0) > Math.PI / h) return null;
+  }
+  const fx = ox / (2 * Math.PI);
+  const fy = oy / (2 * Math.PI);
+  const f = Math.hypot(fx, fy);
+  const sx = frequencyCrbStd(spot.snr, w, h) * Math.sqrt(windowVarianceFactor(data.windowX, data.windowY));
+  const sy = frequencyCrbStd(spot.snr, h, w) * Math.sqrt(windowVarianceFactor(data.windowY, data.windowX));
+  const sRad = Math.sqrt((fx * fx * sx * sx + fy * fy * sy * sy) / (f * f));
+  const sTan = Math.sqrt((fy * fy * sx * sx + fx * fx * sy * sy) / (f * f));
+  return {
+    ...spot,
+    fx,
+    fy,
+    periodPx: 1 / f,
+    periodUncertaintyPx: sRad / (f * f),
+    angleDeg: frequencyAngleDeg(fx, fy),
+    angleUncertaintyDeg: ((sTan / f) * 180) / Math.PI,
+  };
+}
