@@ -8,7 +8,14 @@ import typescript from '@rollup/plugin-typescript';
 
 /** Files copied into dist/ untouched: [from (relative to the project), to (relative to dist/)]. */
 export const vendorAssets = [
-  // OCR runtime for reading scale-bar labels offline (calibration).
+  // OCR runtime for reading scale-bar labels offline (calibration): the worker script, the LSTM-only
+  // wasm cores (plain, SIMD, relaxed SIMD: the worker picks the one the browser supports) and the
+  // English model. src/calibration/ocr.ts points tesseract.js at vendor/ocr/ (OCR_VENDOR_DIR).
+  ['node_modules/tesseract.js/dist/worker.min.js', 'vendor/ocr/worker.min.js'],
+  ['node_modules/tesseract.js-core/tesseract-core-lstm.wasm.js', 'vendor/ocr/core/tesseract-core-lstm.wasm.js'],
+  ['node_modules/tesseract.js-core/tesseract-core-simd-lstm.wasm.js', 'vendor/ocr/core/tesseract-core-simd-lstm.wasm.js'],
+  ['node_modules/tesseract.js-core/tesseract-core-relaxedsimd-lstm.wasm.js', 'vendor/ocr/core/tesseract-core-relaxedsimd-lstm.wasm.js'],
+  ['node_modules/@tesseract.js-data/eng/4.0.0_best_int/eng.traineddata.gz', 'vendor/ocr/lang/eng.traineddata.gz'],
 ];
 
 function copyStatic() {
