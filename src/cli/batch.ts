@@ -231,9 +231,10 @@ function progressLine(done: number, total: number, file: string, status: string,
  * @param options folder, recipe, output paths, worker count
  * @param io where progress goes (err)
  * @returns counts, every file's result, worker memory peaks
- * Notes: a file that fails (corrupt, unsupported, no calibration, a worker crash) gets a failed
- * record; every other file is still processed. Interrupting the run loses at most the files
- * being processed at that moment.
+ * Notes: a file that fails (corrupt, unsupported, no calibration, a failing tool) gets a failed
+ * record; every other file is still processed. A file whose worker thread stopped is reported
+ * failed but not marked finished, so the next run tries it again. Interrupting the run loses at
+ * most the files being processed at that moment.
  */
 export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<BatchOutcome> {
   const t0 = performance.now();
@@ -265,13 +266,17 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
 
   // Commits run one after the other, so the state file always holds every finished file.
   let commitChain: Promise<void> = Promise.resolve();
-  const commit = (job: Job, result: FileResult, figurePng?: Uint8Array) => {
+  // `persist: false` reports a result in this run's exports without marking the file finished
+  // (a worker that stopped may have run out of memory on a busy machine: the next run retries).
+  const commit = (job: Job, result: FileResult, figurePng?: Uint8Array, persist = true) => {
     commitChain = commitChain.then(async () => {
-      const recordFile = recordFileName(job.file, job.sha256, recipeHash);
-      await writeAtomic(join(outDir, recordFile), `${JSON.stringify(result)}\n`);
-      if (figurePng && figuresDir) await writeAtomic(join(figuresDir, figureName(job.file)), figurePng);
-      state = withEntry(state, job.file, { sha256: job.sha256, recipeHash, status: result.status, recordFile, finishedIso: new Date().toISOString() });
-      await writeAtomic(statePath, `${JSON.stringify(state, null, 1)}\n`);
+      if (persist) {
+        const recordFile = recordFileName(job.file, job.sha256, recipeHash);
+        await writeAtomic(join(outDir, recordFile), `${JSON.stringify(result)}\n`);
+        if (figurePng && figuresDir) await writeAtomic(join(figuresDir, figureName(job.file)), figurePng);
+        state = withEntry(state, job.file, { sha256: job.sha256, recipeHash, status: result.status, recordFile, finishedIso: new Date().toISOString() });
+        await writeAtomic(statePath, `${JSON.stringify(state, null, 1)}\n`);
+      }
       results.set(job.file, result);
       processed++;
       done++;
@@ -344,7 +349,7 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
               await worker.stop().catch(() => 0);
               worker = null;
               const reason = `processing stopped: ${(e as Error).message.split('\n')[0]}`;
-              await commit(job, { file: job.file, status: 'failed', reason, image: null, calibration: null, measurements: [], summary: { topPeriods: [], sheetCount: null, meanThicknessNm: null, sdThicknessNm: null, sheetThicknessNm: [] }, notes: [] });
+              await commit(job, { file: job.file, status: 'failed', reason, image: null, calibration: null, measurements: [], summary: { topPeriods: [], sheetCount: null, meanThicknessNm: null, sdThicknessNm: null, sheetThicknessNm: [] }, notes: [] }, undefined, false);
               continue;
             }
             await commit(job, reply.result, reply.figurePng);

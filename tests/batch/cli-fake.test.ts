@@ -67,3 +67,20 @@ test('a changed recipe processes every file again', async () => {
   // the weaker harmonic (strength 2, fake tool) is now rejected
   expect(again.results[0].summary.topPeriods).toHaveLength(1);
 }, 120_000);
+
+test('a file that stops its worker fails alone; a fresh worker takes the remaining files', async () => {
+  await writeFile(join(dir, 'b0-crash.tif'), 'CRASH');
+  const recipe = parseRecipe({ schemaVersion: 1, area: { kind: 'whole', infoStripPx: 0 } });
+  const out = await runBatch({ folder: dir, recipe, outCsv: join(dir, 'out', 'results.csv'), jobs: 1, depsModule }, io);
+  expect(out.results.map((r) => [r.file, r.status])).toEqual([
+    ['a.tif', 'ok'],
+    ['b.tif', 'ok'],
+    ['b0-crash.tif', 'failed'],
+    ['broken.tif', 'failed'],
+    ['c,"odd".tif', 'ok'],
+  ]);
+  expect(out.results[2].reason).toMatch(/processing stopped: worker stopped with exit code 7/);
+  // not marked finished: the next run tries it again, and only it
+  const again = await runBatch({ folder: dir, recipe, outCsv: join(dir, 'out', 'results.csv'), jobs: 1, depsModule }, io);
+  expect([again.processed, again.skipped]).toEqual([1, 4]);
+}, 120_000);

@@ -48,6 +48,8 @@ export function fakeDeps(over: Partial<BatchDeps> = {}): BatchDeps & { calls: { 
     calls,
     decodeImage(bytes: Uint8Array, fileName: string): GreyImage {
       const text = new TextDecoder().decode(bytes);
+      // a file that takes its worker thread down with it (process.exit in a worker ends that thread only)
+      if (text === 'CRASH') process.exit(7);
       const m = /^FAKE (\d+) (\d+) (\S+) (\S+)$/.exec(text);
       if (!m) throw new Error(`${fileName}: not a fake image`);
       const [w, h] = [Number(m[1]), Number(m[2])];
