@@ -1,6 +1,6 @@
 // Builds the browser app into dist/: the page's modules, the workers, opencv.js in a chunk of
 // its own, public/ copied as it is, and the vendor files the app loads at run time (OCR).
-import { cpSync, mkdirSync, existsSync, readdirSync, readFileSync, writeFileSync } from 'node:fs';
+import { cpSync, mkdirSync, existsSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { dirname, join, resolve as resolvePath } from 'node:path';
 import resolve from '@rollup/plugin-node-resolve';
 import commonjs from '@rollup/plugin-commonjs';
@@ -46,6 +46,8 @@ function copyDemo() {
     },
     writeBundle() {
       const list = 'demo-data/index.json';
+      // Start from an empty dist/demo, so a demo removed from the list is not shipped (or precached).
+      rmSync('dist/demo', { recursive: true, force: true });
       if (!existsSync(list)) return;
       const entries = JSON.parse(readFileSync(list, 'utf8'));
       if (!Array.isArray(entries)) throw new Error(`${list} must hold a list`);

@@ -248,10 +248,16 @@ export class StrataApp extends LitElement {
       const copy = bytes.slice();
       const { image, levels, histogram } = await this.compute.call('openImage', { bytes: copy, fileName }, [copy.buffer]);
       let record = existing ?? null;
+      let notKept = '';
       if (!record && this.db) {
-        const [same] = await findImagesBySha256(this.db, await sha256Hex(bytes));
-        record = same ?? (await putImage(this.db, { bytes, fileName, image, mimeType, thumbnailFrom: levels[levels.length - 1] }));
-        this.libraryRevision++;
+        try {
+          const [same] = await findImagesBySha256(this.db, await sha256Hex(bytes));
+          record = same ?? (await putImage(this.db, { bytes, fileName, image, mimeType, thumbnailFrom: levels[levels.length - 1] }));
+          this.libraryRevision++;
+        } catch (e) {
+          // The image is still shown; only keeping it failed (e.g. StorageFullError).
+          notKept = ` Not kept in the library: ${(e as Error).message}`;
+        }
         void this.refreshStorage();
       }
       if (record?.calibration && !image.calibration) image.calibration = record.calibration;
@@ -269,7 +275,8 @@ export class StrataApp extends LitElement {
       );
       const notes = image.warnings.length ? ` Note: ${image.warnings.join(' ')}` : '';
       const cal = image.calibration ? `${image.calibration.nmPerPx.toPrecision(4)} nm/px (${image.calibration.source})` : 'no pixel size: lengths are in pixels until you calibrate';
-      this.say(`${fileName}: ${image.width} × ${image.height} px, ${image.bitDepth}-bit, ${cal}.${record && !existing ? ' Kept in the library.' : ''}${notes}`);
+      this.say(`${fileName}: ${image.width} × ${image.height} px, ${image.bitDepth}-bit, ${cal}.${record && !existing ? ' Kept in the library.' : ''}${notes}${notKept}`,
+        notKept ? 'error' : 'info');
       return record;
     } catch (e) {
       this.say((e as Error).message || `Could not read ${fileName}.`, 'error');
