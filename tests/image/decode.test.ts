@@ -115,6 +115,19 @@ describe('TIFF', () => {
     expect(img.warnings).toContain('multi-page TIFF: read page 1 of 3');
   });
 
+  test('a broken or looping page chain still gives page 1, with a warning', () => {
+    const bytes = encodeTiffPages([{ width: 4, height: 4, data: new Uint8Array(16).fill(5) }, { width: 4, height: 4, data: new Uint8Array(16) }]);
+    const v = new DataView(bytes.buffer);
+    const ifd = v.getUint32(4, true);
+    const next = ifd + 2 + v.getUint16(ifd, true) * 12; // TIFF 6.0 section 2: next-IFD offset after the entries
+    for (const pointer of [bytes.length + 100, ifd]) {
+      v.setUint32(next, pointer, true);
+      const img = decodeImage(bytes, 'chain.tif');
+      expect(img.data[0]).toBe(5);
+      expect(img.warnings.join()).toMatch(/page chain is broken after page 1/);
+    }
+  });
+
   // 1 inch = 25.4 mm exactly (international yard and pound agreement, 1959).
   test('XResolution per cm and per inch become nm per pixel', () => {
     const perCm = decodeImage(encodeTiff({ width: W, height: H, data: u8, resolution: { x: 4e7, unit: 'cm' } }), 'a.tif');
