@@ -1,0 +1,255 @@
+// The calibration side panel: set the image's pixel size from its burned-in scale bar (found
+// and read offline), two points on a feature of known length, a lattice standard, or a typed
+// value; shows a warning when the new value disagrees with the one in use.
+import { LitElement, css, html, nothing } from 'lit';
+import type { Calibration, GreyImage } from '../src/image/grey-image';
+import { findScaleBar, type ScaleBar } from '../src/calibration/scale-bar';
+import { checkMicroPrefix, LABEL_CHARACTERS, parseScaleLabel, prepareLabelForOcr, scaleBarCalibration } from '../src/calibration/label';
+import { manualCalibration, typedCalibration } from '../src/calibration/manual';
+import { calibrateFromStandard, LATTICE_STANDARDS } from '../src/calibration/standards';
+import { compareCalibrations } from '../src/calibration/compare';
+import type { TextReader } from '../src/calibration/ocr';
+import { controlStyles } from './styles';
+
+export const panelLabel = 'Calibration';
+
+interface LineDetail {
+  x0: number;
+  y0: number;
+  x1: number;
+  y1: number;
+  widthPx: number;
+}
+
+const sig = (v: number, n = 5) => Number(v.toPrecision(n)).toString();
+const pct = (v: number) => `${sig(100 * v, 2)} %`;
+
+/**
+ * `<strata-calibration-panel>`. Properties: `image` (GreyImage | null), `line` (the last line
+ * drawn in the viewer, image px, or null). Events: `calibration-changed` {calibration},
+ * `overlay-shapes` {shapes}, `status-message` {text, kind}.
+ */
+export class StrataCalibrationPanel extends LitElement {
+  static override properties = {
+    image: { attribute: false },
+    line: { attribute: false },
+    bar: { state: true },
+    labelText: { state: true },
+    ocrNote: { state: true },
+    busy: { state: true },
+    candidate: { state: true },
+    knownNm: { state: true },
+    standardId: { state: true },
+    periodPx: { state: true },
+    periodUPx: { state: true },
+    typedNmPerPx: { state: true },
+    typedRelPct: { state: true },
+  };
+
+  static override styles = [
+    controlStyles,
+    css`
+      :host { display: block; padding: 10px 12px; font-size: 13px; }
+      section { border-bottom: 1px solid var(--line); padding: 8px 0 10px; }
+      h3 { margin: 0 0 6px; font-size: 13px; font-weight: 600; }
+      .row { display: flex; flex-wrap: wrap; gap: 6px; align-items: center; margin: 4px 0; }
+      .warn { color: #f0b45a; }
+      input[type='text'] { width: 8em; }
+      select { max-width: 100%; }
+      p { margin: 4px 0; }
+    `,
+  ];
+
+  image: GreyImage | null = null;
+  line: LineDetail | null = null;
+  bar: ScaleBar | null = null;
+  labelText = '';
+  ocrNote = '';
+  busy = false;
+  candidate: Calibration | null = null;
+  knownNm = '';
+  standardId = LATTICE_STANDARDS[0].id;
+  periodPx = '';
+  periodUPx = '';
+  typedNmPerPx = '';
+  typedRelPct = '5';
+
+  private reader: Promise<TextReader> | null = null;
+  private shownImage: GreyImage | null = null;
+
+  override disconnectedCallback(): void {
+    super.disconnectedCallback();
+    const r = this.reader;
+    this.reader = null;
+    void r?.then((x) => x.close()).catch(() => undefined);
+  }
+
+  protected override willUpdate(): void {
+    // a new image: forget the previous one's bar and candidate (the calibration itself stays on the image)
+    if (this.image !== this.shownImage && (this.image?.data !== this.shownImage?.data)) {
+      this.bar = null;
+      this.labelText = '';
+      this.ocrNote = '';
+      this.candidate = null;
+    }
+    this.shownImage = this.image;
+  }
+
+  private emit(type: string, detail: unknown): void {
+    this.dispatchEvent(new CustomEvent(type, { detail, bubbles: true, composed: true }));
+  }
+
+  private say(text: string, kind: 'info' | 'error' = 'info'): void {
+    this.emit('status-message', { text, kind });
+  }
+
+  private async findBar(): Promise<void> {
+    const image = this.image;
+    if (!image) return;
+    this.busy = true;
+    try {
+      const bar = findScaleBar(image);
+      this.bar = bar;
+      this.candidate = null;
+      if (!bar) {
+        this.ocrNote = 'No scale bar found. Use two points on a feature of known length or a standard.';
+        this.emit('overlay-shapes', { shapes: [] });
+        return;
+      }
+      const shapes: unknown[] = [{ kind: 'line', x0: bar.x0, y0: bar.y0, x1: bar.x1, y1: bar.y1, widthPx: bar.thicknessPx, label: `${sig(bar.lengthPx)} px`, tone: 'accent' }];
+      if (bar.labelBox) {
+        const [x, y, width, height] = bar.labelBox;
+        shapes.push({ kind: 'rect', x, y, width, height, label: 'label', tone: 'info' });
+      }
+      if (bar.stripBox) {
+        const [x, y, width, height] = bar.stripBox;
+        shapes.push({ kind: 'rect', x, y, width, height, label: 'information strip', tone: 'warn' });
+      }
+      this.emit('overlay-shapes', { shapes });
+      if (!bar.labelBox) {
+        this.ocrNote = 'No label found next to the bar: type it.';
+        return;
+      }
+      this.ocrNote = 'Reading the label…';
+      if (!this.reader) {
+        const { createTextReader } = await import('../src/calibration/ocr');
+        this.reader = createTextReader({ whitelist: LABEL_CHARACTERS });
+      }
+      const reader = await this.reader;
+      const raster = prepareLabelForOcr(image, bar.labelBox);
+      const ocr = await reader.read(raster);
+      const text = checkMicroPrefix(raster, ocr.text, ocr.symbols);
+      const parsed = parseScaleLabel(text);
+      if (parsed) {
+        this.labelText = `${parsed.value} ${parsed.unit}`;
+        this.ocrNote = `Read "${text}" (confidence ${ocr.confidence.toFixed(2)}). Check it against the image.`;
+        this.candidate = scaleBarCalibration(bar, parsed.nm);
+      } else {
+        this.labelText = '';
+        this.ocrNote = `The label could not be read${ocr.text ? ` (OCR gave "${ocr.text}")` : ''}: type it, e.g. 200 nm.`;
+      }
+    } catch (e) {
+      this.ocrNote = `Label reading failed: ${(e as Error).message}. Type the label.`;
+    } finally {
+      this.busy = false;
+    }
+  }
+
+  private onLabelInput(e: Event): void {
+    this.labelText = (e.target as HTMLInputElement).value;
+    const p = parseScaleLabel(this.labelText);
+    this.candidate = p && this.bar ? scaleBarCalibration(this.bar, p.nm) : null;
+  }
+
+  private fromLine(): void {
+    try {
+      if (!this.line) throw new Error('draw a line over a feature of known length first');
+      const lengthPx = Math.hypot(this.line.x1 - this.line.x0, this.line.y1 - this.line.y0);
+      this.candidate = manualCalibration({ lengthPx, knownLengthNm: Number(this.knownNm), note: 'line drawn on the image' });
+    } catch (e) {
+      this.say((e as Error).message, 'error');
+    }
+  }
+
+  private fromStandard(): void {
+    try {
+      const p = Number(this.periodPx);
+      const u = this.periodUPx.trim() === '' ? 0.01 * p : Number(this.periodUPx);
+      this.candidate = calibrateFromStandard(p, u, this.standardId);
+    } catch (e) {
+      this.say((e as Error).message, 'error');
+    }
+  }
+
+  private fromTyped(): void {
+    try {
+      this.candidate = typedCalibration(Number(this.typedNmPerPx), Number(this.typedRelPct) / 100);
+    } catch (e) {
+      this.say((e as Error).message, 'error');
+    }
+  }
+
+  private apply(): void {
+    if (!this.candidate) return;
+    this.emit('calibration-changed', { calibration: this.candidate });
+    this.say(`Pixel size set: ${sig(this.candidate.nmPerPx)} nm/px ± ${pct(this.candidate.relUncertainty)} (${this.candidate.source})`);
+  }
+
+  protected override render() {
+    const img = this.image;
+    if (!img) return html`<p class="muted">Open an image to calibrate it.</p>`;
+    const cur = img.calibration;
+    const cand = this.candidate;
+    const cmp = cur && cand ? compareCalibrations(cur, cand) : null;
+    const input = (v: string, set: (s: string) => void, label: string, type = 'number') =>
+      html`<label>${label} <input type=${type} .value=${v} @input=${(e: Event) => set((e.target as HTMLInputElement).value)} /></label>`;
+    return html`
+      <section>
+        <h3>In use</h3>
+        ${cur
+          ? html`<p class="num">${sig(cur.nmPerPx)} nm per pixel ± ${pct(cur.relUncertainty)} <span class="muted">(${cur.source})</span></p>
+              <p class="muted">${cur.detail}</p>`
+          : html`<p class="muted">None: lengths are in pixels until you set one.</p>`}
+      </section>
+      <section>
+        <h3>Scale bar</h3>
+        <div class="row"><button ?disabled=${this.busy} @click=${() => this.findBar()}>Find and read the scale bar</button></div>
+        ${this.bar
+          ? html`<p class="num">Bar ${sig(this.bar.lengthPx)} ± ${sig(this.bar.uncertaintyPx, 2)} px (${this.bar.polarity})</p>
+              <div class="row"><label>Label <input type="text" .value=${this.labelText} placeholder="e.g. 200 nm" @input=${this.onLabelInput} /></label></div>`
+          : nothing}
+        ${this.ocrNote ? html`<p class="muted">${this.ocrNote}</p>` : nothing}
+      </section>
+      <section>
+        <h3>Feature of known length</h3>
+        <p class="muted">${this.line ? `Line drawn: ${sig(Math.hypot(this.line.x1 - this.line.x0, this.line.y1 - this.line.y0))} px` : 'Draw a line along the feature in the viewer.'}</p>
+        <div class="row">${input(this.knownNm, (s) => (this.knownNm = s), 'Length (nm)')}<button ?disabled=${!this.line} @click=${this.fromLine}>Compute</button></div>
+      </section>
+      <section>
+        <h3>Lattice standard</h3>
+        <div class="row">
+          <select aria-label="Standard" @change=${(e: Event) => (this.standardId = (e.target as HTMLSelectElement).value)}>
+            ${LATTICE_STANDARDS.map((s) => html`<option value=${s.id} ?selected=${s.id === this.standardId}>${s.name}: ${sig(s.dNm)} nm${s.status === 'from memory' ? ' (unconfirmed)' : ''}</option>`)}
+          </select>
+        </div>
+        <div class="row">${input(this.periodPx, (s) => (this.periodPx = s), 'Period (px)')}${input(this.periodUPx, (s) => (this.periodUPx = s), '± (px)')}<button @click=${this.fromStandard}>Compute</button></div>
+        <p class="muted">${LATTICE_STANDARDS.find((s) => s.id === this.standardId)?.source}</p>
+      </section>
+      <section>
+        <h3>Typed value</h3>
+        <div class="row">${input(this.typedNmPerPx, (s) => (this.typedNmPerPx = s), 'nm/px')}${input(this.typedRelPct, (s) => (this.typedRelPct = s), '± %')}<button @click=${this.fromTyped}>Compute</button></div>
+      </section>
+      ${cand
+        ? html`<section>
+            <h3>New pixel size</h3>
+            <p class="num">${sig(cand.nmPerPx)} nm per pixel ± ${pct(cand.relUncertainty)} <span class="muted">(${cand.source})</span></p>
+            <p class="muted">${cand.detail}</p>
+            ${cmp?.warning ? html`<p class="warn" role="alert">${cmp.warning}</p>` : nothing}
+            <div class="row"><button class="on" @click=${this.apply}>Use for this image</button></div>
+          </section>`
+        : nothing}
+    `;
+  }
+}
+
+customElements.define('strata-calibration-panel', StrataCalibrationPanel);
