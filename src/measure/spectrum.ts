@@ -102,56 +102,62 @@ export async function powerSpectrum(
   const area = { x: r.x + ((r.width - w) >> 1), y: r.y + ((r.height - h) >> 1), width: w, height: h };
   const wx = windowSamples(window, w, tukeyAlpha);
   const wy = windowSamples(window, h, tukeyAlpha);
-  const src = new Float32Array(w * h);
   const d = image.data;
+  const iw = image.width;
   let sum = 0;
   for (let j = 0; j < h; j++) {
-    const o = (area.y + j) * image.width + area.x;
-    for (let i = 0; i < w; i++) {
-      const v = d[o + i];
+    const o = (area.y + j) * iw + area.x;
+    for (let i = 0; i < w; i++) sum += d[o + i];
+  }
+  if (!Number.isFinite(sum)) {
+    for (let j = 0; j < h; j++) for (let i = 0; i < w; i++) {
+      const v = d[(area.y + j) * iw + area.x + i];
       if (!Number.isFinite(v)) throw new RangeError(`pixel (${area.x + i}, ${area.y + j}) is not finite (${v})`);
-      src[j * w + i] = v;
-      sum += v;
     }
   }
   const mean = sum / (w * h);
+  const cx = (w - 1) / 2;
+  const cy = (h - 1) / 2;
   let gx = 0;
   let gy = 0;
   if (detrend === 'plane') {
     // Least-squares plane on centred coordinates: the slopes decouple from the mean.
     let sxv = 0;
     let syv = 0;
-    const cx = (w - 1) / 2;
-    const cy = (h - 1) / 2;
-    for (let j = 0; j < h; j++) for (let i = 0; i < w; i++) {
-      const v = src[j * w + i] - mean;
-      sxv += (i - cx) * v;
-      syv += (j - cy) * v;
+    for (let j = 0; j < h; j++) {
+      const o = (area.y + j) * iw + area.x;
+      for (let i = 0; i < w; i++) {
+        const v = d[o + i] - mean;
+        sxv += (i - cx) * v;
+        syv += (j - cy) * v;
+      }
     }
     gx = sxv / ((h * w * (w * w - 1)) / 12);
     gy = syv / ((w * h * (h * h - 1)) / 12);
-  }
-  const cx = (w - 1) / 2;
-  const cy = (h - 1) / 2;
-  for (let j = 0; j < h; j++) {
-    const rowBase = mean + gy * (j - cy);
-    for (let i = 0; i < w; i++) {
-      const k = j * w + i;
-      src[k] = (src[k] - rowBase - gx * (i - cx)) * wx[i] * wy[j];
-    }
   }
   const { cv } = await loadCv();
   const mat = new cv.Mat(h, w, cv.CV_32F);
   const out = new cv.Mat();
   let power: Float32Array;
   try {
-    (mat.data32F as Float32Array).set(src);
+    // Write the detrended, windowed region straight into the opencv matrix.
+    const m = mat.data32F as Float32Array;
+    const wxg = new Float64Array(w);
+    for (let i = 0; i < w; i++) wxg[i] = gx * (i - cx);
+    for (let j = 0; j < h; j++) {
+      const rowBase = mean + gy * (j - cy);
+      const o = (area.y + j) * iw + area.x;
+      const wj = wy[j];
+      const r = j * w;
+      for (let i = 0; i < w; i++) m[r + i] = (d[o + i] - rowBase - wxg[i]) * wx[i] * wj;
+    }
     cv.dft(mat, out, cv.DFT_COMPLEX_OUTPUT);
     const c = out.data32F as Float32Array;
-    power = new Float32Array(w * h);
-    for (let k = 0; k < w * h; k++) {
-      const re = c[2 * k];
-      const im = c[2 * k + 1];
+    const n = w * h;
+    power = new Float32Array(n);
+    for (let k = 0, q = 0; k < n; k++, q += 2) {
+      const re = c[q];
+      const im = c[q + 1];
       power[k] = re * re + im * im;
     }
   } finally {
@@ -198,39 +204,48 @@ const EULER_GAMMA = 0.5772156649015329;
 export interface RadialBackground {
   /** Background power per ring (ring r covers radius r / max(width, height) cycles/px ± half a ring). */
   background: Float64Array;
-  /** Ring index of each bin, DFT order. */
-  ringOfBin: Uint16Array;
   /** Number of rings. */
   rings: number;
+}
+
+/** Squared signed frequency (cycles/px)² of each DFT index of an n-point transform. */
+function squaredFrequencies(n: number): Float64Array {
+  const f2 = new Float64Array(n);
+  for (let k = 0; k < n; k++) {
+    const f = signedIndex(k, n) / n;
+    f2[k] = f * f;
+  }
+  return f2;
 }
 
 /**
  * Background power as a function of spatial frequency, robust to spots.
  *
  * Parameters: a power spectrum; smoothRings, rings pooled either side (default 2).
- * Returns: background per ring and the ring index of every bin.
+ * Returns: background per ring (ring of a bin: round(|f| · max(width, height))).
  * Notes: for a featureless (Gaussian-noise-like) region every bin's power is exponentially
  * distributed about the local mean B, and E[ln P] = ln B − γ, so B = exp(⟨ln P⟩ + γ). Averaging logs
  * keeps a few bright spots from lifting the background (a spot adds only its log to the average).
  * Rings are 1/max(width, height) cycles/px wide in physical frequency, so non-square regions work.
+ * Only the half-plane v ≤ height/2 is read: the power of a real image is point-symmetric.
  * Reference: log-periodogram bias γ, Geweke & Porter-Hudak, J. Time Ser. Anal. 4(4), 221 (1983).
  */
 export function radialBackground(spectrum: PowerSpectrum, smoothRings = 2): RadialBackground {
   const { width: w, height: h, power } = spectrum;
+  if (!(Number.isInteger(smoothRings) && smoothRings >= 0)) throw new RangeError(`smoothRings must be a non-negative integer, got ${smoothRings}`);
   const nMax = Math.max(w, h);
   const rings = Math.ceil(Math.SQRT1_2 * nMax) + 2;
-  const ringOfBin = new Uint16Array(w * h);
   const sumLog = new Float64Array(rings);
   const count = new Float64Array(rings);
-  for (let v = 0; v < h; v++) {
-    const fy = signedIndex(v, h) / h;
+  const fx2 = squaredFrequencies(w);
+  const fy2 = squaredFrequencies(h);
+  for (let v = 0; v <= h >> 1; v++) {
+    const o = v * w;
+    const fy = fy2[v];
     for (let u = 0; u < w; u++) {
-      const fx = signedIndex(u, w) / w;
-      const ring = Math.round(Math.hypot(fx, fy) * nMax);
-      const k = v * w + u;
-      ringOfBin[k] = ring;
-      const p = power[k];
-      if (k !== 0 && p > 0) {
+      const p = power[o + u];
+      if (p > 0) {
+        const ring = (Math.sqrt(fx2[u] + fy) * nMax + 0.5) | 0;
         sumLog[ring] += Math.log(p);
         count[ring] += 1;
       }
@@ -246,7 +261,7 @@ export function radialBackground(spectrum: PowerSpectrum, smoothRings = 2): Radi
     }
     background[r] = c > 0 ? Math.exp(s / c + EULER_GAMMA) : 0;
   }
-  return { background, ringOfBin, rings };
+  return { background, rings };
 }
 
 /** Options of {@link findSpots}. */
@@ -356,27 +371,15 @@ export function findSpots(spectrum: PowerSpectrum, options: SpotOptions = {}): S
   const fMax = minP > 0 ? 1 / minP : Infinity;
   const bg = radialBackground(spectrum);
   const B = bg.background;
-  const ringOf = bg.ringOfBin;
-  // Bins of the half-plane v > 0, or v = 0 and u > 0, within the frequency range.
-  let searched = 0;
-  const cand: number[] = [];
-  for (let v = 0; v <= h >> 1; v++) {
-    const sv = signedIndex(v, h);
-    if (sv < 0) continue;
-    const fy = sv / h;
-    for (let u = 0; u < w; u++) {
-      const su = signedIndex(u, w);
-      if (sv === 0 && su <= 0) continue;
-      const f = Math.hypot(su / w, fy);
-      if (f < fMin || f > fMax) continue;
-      searched++;
-      const k = v * w + u;
-      const p = power[k];
-      const b = B[ringOf[k]];
-      if (!(b > 0)) continue;
-      cand.push(k);
-    }
-  }
+  const nMax = Math.max(w, h);
+  const fx2 = squaredFrequencies(w);
+  const fy2 = squaredFrequencies(h);
+  const ringOf = (k: number) => {
+    const u = k % w;
+    return (Math.sqrt(fx2[u] + fy2[(k - u) / w]) * nMax + 0.5) | 0;
+  };
+  const fMin2 = fMin * fMin;
+  const fMax2 = fMax * fMax;
   // Local background (see notes): log-mean of the radially normalised power in a square annulus
   // of Chebyshev radii LOCAL_INNER..LOCAL_OUTER bins around the candidate; its own estimation noise
   // var(ln L) = (π²/6)·κ/K (κ bins per independent sample, K bins) raises the threshold to the t that
@@ -386,10 +389,20 @@ export function findSpots(spectrum: PowerSpectrum, options: SpotOptions = {}): S
   const localBins = (2 * LOCAL_OUTER + 1) ** 2 - (2 * LOCAL_INNER - 1) ** 2;
   const kappa = noiseBandwidthBins(spectrum.windowX) * noiseBandwidthBins(spectrum.windowY);
   const varLog = ((Math.PI * Math.PI) / 6) * (kappa / localBins);
-  const base = Math.log(searched / alpha);
+  // Bins of the half-plane v > 0, or v = 0 and u > 0, within the frequency range: count them first.
+  let searched = 0;
+  for (let v = 0; v <= h >> 1; v++) {
+    if (signedIndex(v, h) < 0) continue;
+    for (let u = 0; u < w; u++) {
+      if (v === 0 && signedIndex(u, w) <= 0) continue;
+      const f2 = fx2[u] + fy2[v];
+      if (f2 >= fMin2 && f2 <= fMax2) searched++;
+    }
+  }
+  const base = Math.log(Math.max(1, searched) / alpha);
   const disc = 1 - 2 * varLog * base;
   const threshold = disc > 0 ? (1 - Math.sqrt(disc)) / varLog : 2 * base;
-  const zOf = (k: number) => power[k] / B[ringOf[k]];
+  const zOf = (k: number) => power[k] / B[ringOf(k)];
   const localLevel = (u: number, v: number) => {
     let s = 0;
     let c = 0;
@@ -407,29 +420,35 @@ export function findSpots(spectrum: PowerSpectrum, options: SpotOptions = {}): S
     }
     return c > 0 ? Math.exp(s / c + EULER_GAMMA) : 1;
   };
+  const screen = threshold / 2;
   const peaks: { k: number; p: number; z: number }[] = [];
-  for (const k of cand) {
-    const p = power[k];
-    const zRadial = p / B[ringOf[k]];
-    // Screen on the radial background at half the threshold, confirm on the local one below.
-    if (zRadial <= threshold / 2) continue;
-    const u = k % w;
-    const v = (k - u) / w;
-    let isMax = true;
-    for (let dv = -1; dv <= 1 && isMax; dv++) {
-      const vv = (v + dv + h) % h;
-      for (let du = -1; du <= 1; du++) {
-        if (du === 0 && dv === 0) continue;
-        const q = power[vv * w + ((u + du + w) % w)];
-        if (q > p || (q === p && (dv < 0 || (dv === 0 && du < 0)))) {
-          isMax = false;
-          break;
+  for (let v = 0; v <= h >> 1; v++) {
+    if (signedIndex(v, h) < 0) continue;
+    const o = v * w;
+    for (let u = 0; u < w; u++) {
+      if (v === 0 && signedIndex(u, w) <= 0) continue;
+      const f2 = fx2[u] + fy2[v];
+      if (f2 < fMin2 || f2 > fMax2) continue;
+      const k = o + u;
+      const p = power[k];
+      const b = B[(Math.sqrt(f2) * nMax + 0.5) | 0];
+      // Screen on the radial background at half the threshold, confirm on the local one below.
+      if (!(b > 0) || p <= screen * b) continue;
+      const zRadial = p / b;
+      let isMax = true;
+      for (let dv = -1; dv <= 1 && isMax; dv++) {
+        const vv = (v + dv + h) % h;
+        for (let du = -1; du <= 1; du++) {
+          if (du === 0 && dv === 0) continue;
+          const q = power[vv * w + ((u + du + w) % w)];
+          if (q > p || (q === p && (dv < 0 || (dv === 0 && du < 0)))) {
+            isMax = false;
+            break;
+          }
         }
       }
+      if (isMax) peaks.push({ k, p, z: zRadial });
     }
-    if (!isMax) continue;
-    const z = zRadial / localLevel(u, v);
-    if (z > threshold) peaks.push({ k, p, z });
   }
   peaks.sort((a, b) => b.p - a.p);
   const mainLobe = window === 'none' ? 1.5 : 2.5;
@@ -448,14 +467,17 @@ export function findSpots(spectrum: PowerSpectrum, options: SpotOptions = {}): S
       }
       if (!keep) break;
     }
-    if (keep) accepted.push({ su, sv, p: c.p, z: c.z, k: c.k });
+    if (!keep) continue;
+    // Confirm against the local background only now, for the few candidates left.
+    const z = c.z / localLevel(u, v);
+    if (z > threshold) accepted.push({ su, sv, p: c.p, z, k: c.k });
   }
   const fxFactor = Math.sqrt(windowVarianceFactor(spectrum.windowX, spectrum.windowY));
   const fyFactor = Math.sqrt(windowVarianceFactor(spectrum.windowY, spectrum.windowX));
   const spots: Spot[] = accepted.map((a) => {
     const u = ((a.su % w) + w) % w;
     const v = ((a.sv % h) + h) % h;
-    const b = B[ringOf[a.k]];
+    const b = B[ringOf(a.k)];
     const at = (du: number, dv: number) => power[((v + dv + h) % h) * w + ((u + du + w) % w)];
     const amp = (du: number, dv: number) => Math.sqrt(Math.max(at(du, dv) - b, 1e-30));
     let du: number;
