@@ -85,46 +85,68 @@ export interface ProfileSheetsResult {
 }
 
 /**
- * Periodogram estimate of the dominant period of a profile.
+ * Power spectrum of a profile on a fixed frequency grid, for summing over several profiles.
  *
- * Schuster periodogram of the Hann-windowed, mean-removed profile zero-padded ×8; among local maxima above 5 % of the largest, the one with the largest power over its octave's median wins; parabola on log power (common practice).
+ * Schuster periodogram of the high-passed (Gaussian, σ = highPassPx), Hann-windowed profile, zero-padded to `size` (common practice).
  *
- * @param values the profile
- * @param minPeriodPx shortest period searched (≥ 2)
- * @param maxPeriodPx longest period searched
- * @returns the period in samples and its peak power over the median power of the octave around it
+ * @param values the profile (at least 8 samples, at most size)
+ * @param size transform length, a power of two ≥ values.length
+ * @param highPassPx σ of the Gaussian smoothing subtracted first, samples
+ * @returns power at bins 0 … size/2 (bin k is frequency k/size cycles per sample)
  */
-export function profilePeriod(
-  values: ArrayLike<number>,
-  minPeriodPx = 2.5,
-  maxPeriodPx = values.length / 3,
-): { periodPx: number; peakToMedian: number } {
+export function profilePeriodogram(values: ArrayLike<number>, size: number, highPassPx: number): Float64Array {
   const n = values.length;
   if (n < 8) throw new RangeError(`profile needs at least 8 samples, got ${n}`);
-  if (!(minPeriodPx >= 2)) throw new RangeError(`minPeriodPx must be ≥ 2, got ${minPeriodPx}`);
-  if (!(maxPeriodPx > minPeriodPx)) throw new RangeError(`maxPeriodPx must exceed minPeriodPx (${minPeriodPx}), got ${maxPeriodPx}`);
-  let mean = 0;
-  for (let i = 0; i < n; i++) mean += values[i];
-  mean /= n;
-  let size = 1;
-  while (size < 8 * n) size <<= 1;
+  if (!(size >= n && (size & (size - 1)) === 0)) throw new RangeError(`size must be a power of two ≥ ${n}, got ${size}`);
+  if (!(highPassPx > 0)) throw new RangeError(`highPassPx must be > 0, got ${highPassPx}`);
+  const sigma = highPassPx;
+  const r = Math.ceil(3 * sigma);
   const re = new Float64Array(size);
   const im = new Float64Array(size);
-  for (let i = 0; i < n; i++) re[i] = (values[i] - mean) * (0.5 - 0.5 * Math.cos((2 * Math.PI * (i + 0.5)) / n));
+  for (let i = 0; i < n; i++) {
+    let s = 0;
+    let w = 0;
+    for (let k = Math.max(0, i - r); k <= Math.min(n - 1, i + r); k++) {
+      const g = Math.exp(-0.5 * ((k - i) / sigma) ** 2);
+      s += g * values[k];
+      w += g;
+    }
+    re[i] = (values[i] - s / w) * (0.5 - 0.5 * Math.cos((2 * Math.PI * (i + 0.5)) / n));
+  }
   sheetFft(re, im, -1);
+  const power = new Float64Array(size / 2 + 1);
+  for (let k = 0; k <= size / 2; k++) power[k] = re[k] * re[k] + im[k] * im[k];
+  return power;
+}
+
+/**
+ * The dominant period of a power spectrum on a grid of `size` bins, searched between two periods.
+ *
+ * Among local maxima above 5 % of the largest, the one with the largest power over its octave's median wins; parabola on log power (common practice).
+ *
+ * @param power bins 0 … size/2 (from `profilePeriodogram`, possibly summed)
+ * @param size the transform length
+ * @param minPeriodPx shortest period (≥ 2)
+ * @param maxPeriodPx longest period
+ * @returns the period in samples and its peak power over the median power of the octave around it
+ */
+export function periodFromPeriodogram(
+  power: Float64Array,
+  size: number,
+  minPeriodPx: number,
+  maxPeriodPx: number,
+): { periodPx: number; peakToMedian: number } {
+  if (!(minPeriodPx >= 2)) throw new RangeError(`minPeriodPx must be ≥ 2, got ${minPeriodPx}`);
+  if (!(maxPeriodPx > minPeriodPx)) throw new RangeError(`maxPeriodPx must exceed minPeriodPx (${minPeriodPx}), got ${maxPeriodPx}`);
   const kLo = Math.max(1, Math.floor(size / maxPeriodPx));
   const kHi = Math.min(size / 2 - 2, Math.ceil(size / minPeriodPx));
-  const power = new Float64Array(size / 2);
-  for (let k = 0; k < size / 2; k++) power[k] = re[k] * re[k] + im[k] * im[k];
-  // score each local maximum by its power over the median power of the octave around it, so the
-  // broad low-frequency content of a few stacks does not win over the narrow layer peak
   let maxPower = 0;
   for (let k = kLo; k <= kHi; k++) maxPower = Math.max(maxPower, power[k]);
   let best = kLo;
   let bestScore = -1;
   let median = 1e-300;
   const window: number[] = [];
-  for (let k = Math.max(kLo, 1); k <= kHi; k++) {
+  for (let k = kLo; k <= kHi; k++) {
     if (!(power[k] >= power[k - 1] && power[k] >= power[k + 1]) || power[k] < 0.05 * maxPower) continue;
     const a = Math.max(1, Math.floor(k / Math.SQRT2));
     const b = Math.min(size / 2 - 1, Math.ceil(k * Math.SQRT2));
@@ -145,6 +167,31 @@ export function profilePeriod(
     if (den < 0) delta = Math.max(-0.5, Math.min(0.5, (0.5 * (pm - pp)) / den));
   }
   return { periodPx: size / (best + delta), peakToMedian: bestP / median };
+}
+
+/**
+ * Periodogram estimate of the dominant period of a profile.
+ *
+ * Schuster periodogram (high-passed, Hann window, zero-padded ×8) and octave-contrast peak choice, see `periodFromPeriodogram` (common practice).
+ *
+ * @param values the profile
+ * @param minPeriodPx shortest period searched (≥ 2)
+ * @param maxPeriodPx longest period searched
+ * @returns the period in samples and its peak power over the median power of the octave around it
+ */
+export function profilePeriod(
+  values: ArrayLike<number>,
+  minPeriodPx = 2.5,
+  maxPeriodPx = values.length / 3,
+): { periodPx: number; peakToMedian: number } {
+  const n = values.length;
+  if (n < 8) throw new RangeError(`profile needs at least 8 samples, got ${n}`);
+  if (!(minPeriodPx >= 2)) throw new RangeError(`minPeriodPx must be ≥ 2, got ${minPeriodPx}`);
+  if (!(maxPeriodPx > minPeriodPx)) throw new RangeError(`maxPeriodPx must exceed minPeriodPx (${minPeriodPx}), got ${maxPeriodPx}`);
+  let size = 1;
+  while (size < 8 * n) size <<= 1;
+  const power = profilePeriodogram(values, size, Math.max(maxPeriodPx / 2, 2 * minPeriodPx));
+  return periodFromPeriodogram(power, size, minPeriodPx, maxPeriodPx);
 }
 
 /** Analytic signal of the Gaussian band-passed profile: returns real part and modulus, plus the noise envelope rms. */
