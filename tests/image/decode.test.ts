@@ -5,7 +5,7 @@ import { Image, decode as decodeRaster, encode as encodeRaster } from 'image-js'
 import { encodeTiff, encodeTiffPages } from '../../src/image/encode-tiff';
 import { encodeMrc } from '../../src/image/encode-mrc';
 import { decodeImage, detectFormat, ImageReadError, LUMA_BT709 } from '../../src/image/decode';
-import { addPngPhys, lcg, renumberTiffTag, setMrcWord, setTiffTag } from './fixtures';
+import { addPngPhys, greyJpeg, lcg, renumberTiffTag, setMrcWord, setTiffTag } from './fixtures';
 
 const W = 48;
 const H = 32;
@@ -319,6 +319,21 @@ describe('JPEG', () => {
     // Lossy: allow a few grey levels (quality 95; common practice).
     expect(Math.abs(img.data[10] - 80)).toBeLessThan(6);
     expect(img.warnings.join()).toMatch(/lossy/);
+  });
+  // A grey JPEG of flat blocks, built from T.81: value = 128 + DC / 8 with unit quantisers.
+  test('a greyscale (one-component) JPEG is read', () => {
+    const dc = [256, 0, 256, 0, 256, 256]; // 3 × 2 blocks: 160 128 160 / 128 160 160
+    const img = decodeImage(greyJpeg(3, 2, dc), 'g.jpg');
+    expect([img.width, img.height, img.bitDepth]).toEqual([24, 16, 8]);
+    const expected = dc.map((v) => 128 + v / 8);
+    for (let by = 0; by < 2; by++) {
+      for (let bx = 0; bx < 3; bx++) {
+        for (const [x, y] of [[0, 0], [7, 7], [3, 4]]) {
+          expect(Math.abs(img.data[(by * 8 + y) * 24 + bx * 8 + x] - expected[by * 3 + bx])).toBeLessThanOrEqual(1);
+        }
+      }
+    }
+    expect(img.warnings.join()).not.toMatch(/colour/);
   });
   test('truncated and oversized JPEGs are errors', () => {
     const bytes = jpegOf(() => 128, 64, 64);

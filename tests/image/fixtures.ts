@@ -82,3 +82,47 @@ export function lcg(seed: number): () => number {
   let s = seed >>> 0;
   return () => (s = (s * 1664525 + 1013904223) >>> 0) / 2 ** 32;
 }
+
+/**
+ * A greyscale baseline JPEG built by hand (ITU-T T.81 annex B) whose 8 × 8 blocks are flat:
+ * block k has grey value 128 + dc[k] / 8 (DC coefficient dc[k], all quantiser steps 1, AC all
+ * zero). dc values must be 0 or 256 (steps between neighbours 0 or ±256). Blocks run left to right, top to bottom.
+ */
+export function greyJpeg(blocksX: number, blocksY: number, dc: number[]): Uint8Array {
+  if (dc.length !== blocksX * blocksY) throw new Error('one DC value per block');
+  const out: number[] = [0xff, 0xd8];
+  const segment = (marker: number, body: number[]) => out.push(0xff, marker, (body.length + 2) >> 8, (body.length + 2) & 0xff, ...body);
+  segment(0xdb, [0x00, ...new Array(64).fill(1)]); // DQT: table 0, 8-bit, all steps 1
+  const w = blocksX * 8;
+  const h = blocksY * 8;
+  segment(0xc0, [8, h >> 8, h & 0xff, w >> 8, w & 0xff, 1, 1, 0x11, 0]); // SOF0: 1 component
+  // DHT DC table 0: category 0 -> code '0' (length 1), category 9 -> code '10' (length 2).
+  segment(0xc4, [0x00, 1, 1, ...new Array(14).fill(0), 0, 9]);
+  // DHT AC table 0: EOB (0x00) -> code '0'.
+  segment(0xc4, [0x10, 1, ...new Array(15).fill(0), 0x00]);
+  segment(0xda, [1, 1, 0x00, 0, 63, 0]); // SOS: component 1, tables 0/0, Ss 0, Se 63
+  const bits: number[] = [];
+  let previous = 0;
+  for (const value of dc) {
+    const diff = value - previous;
+    previous = value;
+    if (diff === 0) bits.push(0);
+    else {
+      // Category 9 holds |diff| in 256..511 (T.81 Table F.1); only ±256 is needed here.
+      if (Math.abs(diff) !== 256) throw new Error('DC steps between blocks must be 0 or ±256');
+      bits.push(1, 0);
+      const extra = diff > 0 ? diff : diff + 511; // T.81 F.1.2.1: negative values as one's complement
+      for (let b = 8; b >= 0; b--) bits.push((extra >> b) & 1);
+    }
+    bits.push(0); // EOB
+  }
+  while (bits.length % 8) bits.push(1); // pad with 1-bits (T.81 F.1.2.3)
+  for (let i = 0; i < bits.length; i += 8) {
+    let byte = 0;
+    for (let b = 0; b < 8; b++) byte = (byte << 1) | bits[i + b];
+    out.push(byte);
+    if (byte === 0xff) out.push(0x00); // byte stuffing (T.81 B.1.1.5)
+  }
+  out.push(0xff, 0xd9);
+  return Uint8Array.from(out);
+}
