@@ -104,10 +104,10 @@ export const LATTICE_STANDARDS: readonly LatticeStandard[] = Object.freeze([
     id: 'illite-001',
     name: 'muscovite / illite basal spacing',
     dNm: 1.0,
-    uncertaintyNm: null,
+    uncertaintyNm: 0.0015 / Math.sqrt(3),
     source: 'illite d001 = 10 Å: Schroeder, GEOL 6550 notes, University of Georgia; muscovite 9.97–10.0 Å',
     status: 'published',
-    derivation: 'as published (muscovite 2M1 (002) = 1M (001))',
+    derivation: 'as published (muscovite 2M1 (002) = 1M (001)); u: the 9.97–10.0 Å spread as a rectangular half-width, 0.15 Å/√3',
   },
   {
     id: 'catalase-b',

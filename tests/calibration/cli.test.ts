@@ -75,6 +75,16 @@ test('a lattice standard with a period measured by hand', async () => {
   expect(r.nmPerPx).toBeCloseTo(0.05, 10);
 });
 
+test('a lattice standard measured in a region of the demo fringe image (period 25 px by construction)', async () => {
+  const c = capture();
+  // illite d001 = 1.00 nm (Schroeder) against fringes drawn at 25 px: 0.04 nm/px, which must disagree with the 0.05 nm/px tags
+  expect(await main(['calibrate', 'demo-data/tactoid-fringes_hr.tif', '--json', '--standard', 'illite-001', '--region', '180,180,300,300'], c.io)).toBe(0);
+  const r = JSON.parse(c.out.join(''));
+  expect(r.source).toBe('standard');
+  expect(Math.abs(r.nmPerPx / 0.04 - 1)).toBeLessThan(0.01);
+  expect(r.warning).toMatch(/disagree/);
+});
+
 test('usage errors name the offending value', async () => {
   const c = capture();
   expect(await main(['calibrate', 'x.png', '--label', 'two hundred'], c.io)).toBe(2);
