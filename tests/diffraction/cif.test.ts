@@ -1,0 +1,101 @@
+import { readFileSync } from 'node:fs';
+import { describe, expect, test } from 'vitest';
+import { dSpacingNm, parseCif, parseCifNumber, parseSymOp, powderReflections } from '../../src/diffraction/cif';
+import { elementOf, scatteringFactor } from '../../src/diffraction/scattering';
+
+const DIR = 'tests/fixtures/reference-data/';
+const read = (f: string) => parseCif(readFileSync(DIR + f, 'utf8'));
+
+describe('CIF reading', () => {
+  test('numbers with su in parentheses', () => {
+    expect(parseCifNumber('5.1963(4)')).toEqual({ value: 5.1963, su: expect.closeTo(0.0004, 12) });
+    expect(parseCifNumber('29.97049(160)').su).toBeCloseTo(0.0016, 12);
+    expect(parseCifNumber('-0.230(1)').value).toBe(-0.23);
+    expect(Number.isNaN(parseCifNumber('?').value)).toBe(true);
+  });
+  test('symmetry operations with fractions in either order', () => {
+    const op = parseSymOp('-y,x-y,1/3+z');
+    expect(op.r).toEqual([0, -1, 0, 1, -1, 0, 0, 0, 1]);
+    expect(op.t[2]).toBeCloseTo(1 / 3, 12);
+    expect(parseSymOp('x+1/2,-y,z').t[0]).toBe(0.5);
+    expect(() => parseSymOp('x,y')).toThrow(/three components/);
+    expect(() => parseSymOp('x,y,w')).toThrow(/cannot read/);
+  });
+  test('muscovite-3T: P3₁12 (151), a = 5.1963(4) Å, c = 29.97049(160) Å, six operations, dummy H skipped (COD 1100015)', () => {
+    const s = read('crystal_muscovite-3T_COD1100015.cif');
+    expect(s.spaceGroupNumber).toBe(151);
+    expect(s.cell.aNm.value).toBeCloseTo(0.51963, 10);
+    expect(s.cell.aNm.su).toBeCloseTo(0.00004, 10);
+    expect(s.cell.cNm.value).toBeCloseTo(2.997049, 10);
+    expect(s.symops).toHaveLength(6);
+    expect(s.atoms).toHaveLength(13);
+    expect(s.notes.join()).toMatch(/dummy atom H1/);
+  });
+  test('element symbols from CIF type symbols', () => {
+    expect(elementOf('Al3+')).toBe('Al');
+    expect(elementOf('O2-')).toBe('O');
+    expect(elementOf('C0')).toBe('C');
+    expect(elementOf('FE')).toBe('Fe');
+  });
+});
+
+describe('scattering factors (ITC C Table 6.1.1.4)', () => {
+  test('f(0) = a1+a2+a3+a4+c is close to the atomic number Z (neutral atoms; physics of the form factor)', () => {
+    for (const [el, z] of [['H', 1], ['C', 6], ['O', 8], ['Mg', 12], ['Al', 13], ['Si', 14], ['Cl', 17], ['K', 19], ['Fe', 26]] as const) {
+      expect(Math.abs(scatteringFactor(el, 0) - z)).toBeLessThan(0.02); // the 9-parameter fit reproduces f(0) to ~0.01 e (from memory)
+    }
+  });
+  test('f falls with s and unknown elements are named in the error', () => {
+    expect(scatteringFactor('Si', 0.5)).toBeLessThan(scatteringFactor('Si', 0.1));
+    expect(() => scatteringFactor('Xx', 0)).toThrow(/Xx/);
+  });
+});
+
+describe('reflections against the d-values computed from the cells in SOURCES.md', () => {
+  test('graphite-2H: 002 at 3.395 Å, 100 2.139, 101 2.040, 004 1.698, 110 1.235; 001 absent (6₃ screw)', () => {
+    const s = read('crystal_graphite-2H_COD1200017.cif');
+    const r = powderReflections(s, { dMinNm: 0.12, wavelengthNm: 0.1540598, includeAbsent: true });
+    const find = (h: number, k: number, l: number) => r.find((x) => x.hkl[0] === h && x.hkl[1] === k && x.hkl[2] === l)!;
+    expect(find(0, 0, 2).dNm * 10).toBeCloseTo(3.395, 3);
+    expect(find(0, 0, 2).twoThetaDeg!).toBeCloseTo(26.23, 2);
+    expect(find(1, 0, 0).dNm * 10).toBeCloseTo(2.139, 3);
+    expect(find(1, 0, 1).dNm * 10).toBeCloseTo(2.04, 3);
+    expect(find(0, 0, 4).dNm * 10).toBeCloseTo(1.698, 3);
+    expect(find(1, 1, 0).dNm * 10).toBeCloseTo(1.235, 3);
+    expect(find(0, 0, 1).absent).toBe(true);
+    expect(find(0, 0, 3).absent).toBe(true);
+    // 002 is the strongest graphite line (common practice)
+    expect(find(0, 0, 2).intensity).toBeCloseTo(100, 9);
+    expect(find(1, 0, 0).multiplicity).toBe(6);
+  });
+  test('muscovite-3T: basal 003 at 9.990 Å (8.84°), 006 4.995, 009 3.330, 00 12 2.4975, 00 15 1.998; 00l with l ≠ 3n absent (3₁ screw)', () => {
+    const s = read('crystal_muscovite-3T_COD1100015.cif');
+    const r = powderReflections(s, { dMinNm: 0.19, wavelengthNm: 0.1540598, includeAbsent: true });
+    const basal = r.filter((x) => x.hkl[0] === 0 && x.hkl[1] === 0);
+    const present = basal.filter((x) => !x.absent).map((x) => x.hkl[2]);
+    expect(present).toEqual([3, 6, 9, 12, 15]);
+    expect(basal.filter((x) => x.absent).map((x) => x.hkl[2])).toEqual([1, 2, 4, 5, 7, 8, 10, 11, 13, 14]);
+    const d = basal.filter((x) => !x.absent).map((x) => x.dNm * 10);
+    [9.99, 4.995, 3.33, 2.4975, 1.998].forEach((v, i) => expect(d[i]).toBeCloseTo(v, 3));
+    expect(basal[2].twoThetaDeg!).toBeCloseTo(8.84, 2);
+  });
+  test('brucite: 001 at 4.766 Å (18.60°), 100 2.721, 101 2.363, 102 1.793, 110 1.571', () => {
+    const s = read('crystal_brucite_COD1000054.cif');
+    const c = s.cell;
+    expect(dSpacingNm(c, 0, 0, 1) * 10).toBeCloseTo(4.766, 3);
+    expect(dSpacingNm(c, 1, 0, 0) * 10).toBeCloseTo(2.721, 3);
+    expect(dSpacingNm(c, 1, 0, 1) * 10).toBeCloseTo(2.363, 3);
+    expect(dSpacingNm(c, 1, 0, 2) * 10).toBeCloseTo(1.793, 3);
+    expect(dSpacingNm(c, 1, 1, 0) * 10).toBeCloseTo(1.571, 3);
+    const r = powderReflections(s, { dMinNm: 0.15, wavelengthNm: 0.1540598 });
+    expect(r[0].hkl).toEqual([0, 0, 1]);
+    expect(r[0].twoThetaDeg!).toBeCloseTo(18.6, 2);
+    expect(r.every((x) => !x.absent)).toBe(true); // P-3m1 has no reflection conditions (ITC A)
+  });
+  test('centring is found from the operations: an I-centred cubic cell keeps only h+k+l even (ITC A reflection conditions)', () => {
+    const cif = `data_test\n_cell_length_a 4\n_cell_length_b 4\n_cell_length_c 4\n_cell_angle_alpha 90\n_cell_angle_beta 90\n_cell_angle_gamma 90\nloop_\n_symmetry_equiv_pos_as_xyz\nx,y,z\nx+1/2,y+1/2,z+1/2\nloop_\n_atom_site_label\n_atom_site_type_symbol\n_atom_site_fract_x\n_atom_site_fract_y\n_atom_site_fract_z\nFe1 Fe 0.1 0.2 0.3\n`;
+    const r = powderReflections(parseCif(cif), { dMinNm: 0.15, includeAbsent: true });
+    for (const x of r) expect(x.absent).toBe((x.hkl[0] + x.hkl[1] + x.hkl[2]) % 2 !== 0);
+    expect(() => powderReflections(parseCif(cif), { dMinNm: 0 })).toThrow(/dMinNm/);
+  });
+});
