@@ -72,13 +72,12 @@ export async function createTextReader(options: TextReaderOptions = {}): Promise
   // eslint-disable-next-line @typescript-eslint/no-explicit-any
   let workerOptions: Record<string, any>;
   if (isNode) {
+    // only node:module, which the browser build leaves external (rollup.config.mjs)
     const { createRequire } = await import('node:module');
-    const { dirname, join } = await import('node:path');
-    const { tmpdir } = await import('node:os');
     const require = createRequire(import.meta.url);
     tesseract = require('tesseract.js');
-    const langDir = join(dirname(require.resolve('@tesseract.js-data/eng/package.json')), '4.0.0_best_int');
-    workerOptions = { langPath: langDir, gzip: true, cachePath: tmpdir(), cacheMethod: 'none' };
+    const langDir = `${require.resolve('@tesseract.js-data/eng/package.json').replace(/package\.json$/, '')}4.0.0_best_int`;
+    workerOptions = { langPath: langDir, gzip: true, cacheMethod: 'none' };
   } else {
     tesseract = await import('tesseract.js');
     tesseract = tesseract.default ?? tesseract;
