@@ -9,6 +9,7 @@ async function loadCommands(): Promise<CliCommand[]> {
     import('./calibrate'),
     import('./batch'),
     import('./measure'),
+    import('./sheets'),
   ] as Promise<{ command: CliCommand }>[]);
   return modules.map((m) => m.command);
 }

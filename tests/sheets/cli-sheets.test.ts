@@ -1,0 +1,53 @@
+import { mkdtempSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { describe, expect, it } from 'vitest';
+import { main } from '../../src/cli/main';
+import { encodeTiff } from '../../src/image/encode-tiff';
+import { syntheticImage } from './synthetic';
+
+function capture() {
+  const out: string[] = [];
+  const err: string[] = [];
+  return { io: { out: (t: string) => out.push(t), err: (t: string) => err.push(t) }, out, err };
+}
+
+// A synthetic 32-bit float TIFF: a 6-layer and a 3-layer stack, period 8 px (known truth).
+const dir = mkdtempSync(join(tmpdir(), 'sheets-cli-'));
+const file = join(dir, 'tactoids.tif');
+const img = syntheticImage(256, 256, [
+  { layers: 6, periodPx: 8, cx: 80, cy: 128, angleDeg: 0, lengthPx: 120 },
+  { layers: 3, periodPx: 8, cx: 190, cy: 128, angleDeg: 0, lengthPx: 120 },
+], { noise: 0.03, seed: 7 });
+writeFileSync(file, encodeTiff({ width: 256, height: 256, data: img.data }));
+
+describe('stratameter sheets', () => {
+  it('--line --json gives the documented shape with nm values', async () => {
+    const c = capture();
+    const code = await main(['sheets', file, '--nm-per-px', '0.125', '--line', '20,128,240,128,15', '--json'], c.io);
+    expect(code).toBe(0);
+    const r = JSON.parse(c.out.join(''));
+    expect(r.file).toBe(file);
+    expect(r.calibration).toEqual({ nmPerPx: 0.125, source: 'manual', relUncertainty: 0.05 });
+    expect(r.sheets.map((s: { layers: number }) => s.layers)).toEqual([6, 3]);
+    const s = r.sheets[0];
+    for (const k of ['layers', 'thicknessPx', 'thicknessNm', 'edgeToEdgeNm', 'periodPx', 'periodNm', 'angleDeg', 'centerPx']) expect(s).toHaveProperty(k);
+    // 6 layers × 8 px × 0.125 nm/px = 6 nm, within half a period (0.5 nm)
+    expect(Math.abs(s.thicknessNm - 6)).toBeLessThan(0.5);
+    expect(r.stats.n).toBe(2);
+    expect(r.stats.layers.mean).toBeCloseTo(4.5, 12);
+    for (const k of ['mean', 'sd', 'median', 'q1', 'q3', 'min', 'max', 'ci95']) expect(r.stats.thicknessNm).toHaveProperty(k);
+  });
+  it('automatic detection over the image prints a table', async () => {
+    const c = capture();
+    expect(await main(['sheets', file], c.io)).toBe(0);
+    const text = c.out.join('');
+    expect(text).toMatch(/layers/);
+    expect(text).toMatch(/sheets\s+2/);
+  });
+  it('rejects a malformed --line', async () => {
+    const c = capture();
+    expect(await main(['sheets', file, '--line', '1,2,3'], c.io)).toBe(2);
+    expect(c.err.join('')).toMatch(/--line must be/);
+  });
+});
