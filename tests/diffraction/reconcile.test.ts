@@ -1,0 +1,57 @@
+import { describe, expect, test } from 'vitest';
+import { reconcile } from '../../src/diffraction/reconcile';
+import type { IndexedSeries } from '../../src/diffraction/series';
+
+describe('reconcile', () => {
+  test('fringes pair with the lines they can be, with z from the combined uncertainty', () => {
+    // graphite (002) 0.3354 nm: IUPAC Gold Book; muscovite-3T basal 0.9990 nm: computed from COD 1100015 (SOURCES.md §4)
+    const r = reconcile(
+      { periods: [{ periodNm: 0.34, uncertaintyNm: 0.004, label: 'fringe A' }, { periodNm: 1.01, uncertaintyNm: 0.02 }, { periodNm: 0.62, uncertaintyNm: 0.005 }] },
+      { lines: [{ dNm: 0.3354, dUncNm: 0.0001, label: 'graphite 002' }, { dNm: 0.999, dUncNm: 0.0005, label: 'mica 003' }, { dNm: 0.2139, dUncNm: 0.0001, label: 'graphite 100' }] },
+    );
+    expect(r.best[0]!.label).toBe('graphite 002');
+    expect(r.best[0]!.z).toBeCloseTo((0.34 - 0.3354) / Math.hypot(0.004, 0.0001), 10);
+    expect(r.best[0]!.relDiff).toBeCloseTo(0.34 / 0.3354 - 1, 12);
+    expect(r.best[1]!.label).toBe('mica 003');
+    expect(r.unmatchedPeriods).toEqual([2]);
+    expect(r.unmatchedLines).toEqual(['graphite 100']);
+  });
+  test('a fringe showing d₁₁ of a recognised hexagonal phase pairs with the series member (d₁₁ = a₀/2, from d_hk = (√3/2)a/√(h²+hk+k²), Hamley Table 1.1)', () => {
+    const a0 = 10;
+    const series: IndexedSeries[] = [{ kind: 'hexagonal', members: [
+      { index: '10', peak: 0, dNm: (a0 * Math.sqrt(3)) / 2, dCalcNm: (a0 * Math.sqrt(3)) / 2, residual: 0 },
+      { index: '20', peak: 1, dNm: (a0 * Math.sqrt(3)) / 4, dCalcNm: (a0 * Math.sqrt(3)) / 4, residual: 0 },
+    ], cellNm: a0, cellUncNm: 0.02, rmsResidual: 0, missing: ['11'] }];
+    const r = reconcile({ periods: [{ periodNm: 5.02, uncertaintyNm: 0.05 }] }, { lines: [{ dNm: (a0 * Math.sqrt(3)) / 2, dUncNm: 0.01, label: 'peak 1' }], series });
+    expect(r.best[0]!.source).toBe('series');
+    expect(r.best[0]!.label).toBe('hexagonal 11');
+    expect(r.best[0]!.dNm).toBeCloseTo(5, 12);
+  });
+  test('a common 5 % offset is proposed as a calibration factor, not applied (synthetic: pixel size 5 % too large)', () => {
+    // brucite 001 0.4766 nm and muscovite basal 0.9990 nm (SOURCES.md §4–5, computed from the cells)
+    const f = 1.05;
+    const periods = [0.4766 * f, 0.999 * f].map((d) => ({ periodNm: d, uncertaintyNm: Math.hypot(0.002 * d, 0.05 * d) }));
+    const r = reconcile({ periods, calibrationRelUncertainty: 0.05 }, { lines: [{ dNm: 0.4766, dUncNm: 0.0002, label: 'brucite 001' }, { dNm: 0.999, dUncNm: 0.0005, label: 'mica 003' }] });
+    expect(r.best.map((b) => b!.label)).toEqual(['brucite 001', 'mica 003']);
+    expect(r.calibration).not.toBeNull();
+    expect(r.calibration!.factor).toBeCloseTo(1 / f, 3);
+    expect(r.calibration!.reason).toMatch(/not applied/);
+    expect(periods[0].periodNm).toBeCloseTo(0.4766 * f, 12);
+    // consistent data: no proposal
+    const ok = reconcile({ periods: [{ periodNm: 0.4767, uncertaintyNm: 0.01 }], calibrationRelUncertainty: 0.02 }, { lines: [{ dNm: 0.4766, dUncNm: 0.0002, label: 'brucite 001' }] });
+    expect(ok.calibration).toBeNull();
+  });
+  test('sheet thickness against the 00l crystallite size gives both layer counts', () => {
+    const series: IndexedSeries[] = [{ kind: 'lamellar', members: [{ index: '001', peak: 0, dNm: 0.74, dCalcNm: 0.74, residual: 0 }, { index: '002', peak: 1, dNm: 0.37, dCalcNm: 0.37, residual: 0 }], cellNm: 0.74, cellUncNm: 0.001, rmsResidual: 0, missing: [] }];
+    const r = reconcile(
+      { periods: [{ periodNm: 0.75, uncertaintyNm: 0.02 }], sheets: { n: 40, meanNm: 7.4, sdNm: 1.5 } },
+      { lines: [{ dNm: 0.74, dUncNm: 0.001, label: '001', crystalliteNm: 14.8 }, { dNm: 0.37, dUncNm: 0.001, label: '002', crystalliteNm: 14.8 }], series },
+    );
+    expect(r.thickness!.layersFromSheets).toBeCloseTo(10, 10);
+    expect(r.thickness!.layersFromCrystallite).toBeCloseTo(20, 10);
+  });
+  test('bad input is rejected with the value', () => {
+    expect(() => reconcile({ periods: [{ periodNm: -1, uncertaintyNm: 0 }] }, { lines: [] })).toThrow(/-1/);
+    expect(() => reconcile({ periods: [] }, { lines: [] }, { zMax: 0 })).toThrow(/zMax/);
+  });
+});
