@@ -28,6 +28,8 @@ export interface RunBatchOptions {
   recipe: Recipe;
   /** Results CSV path; its folder is the output folder (state, records, summary). */
   outCsv: string;
+  /** Write the two CSV tables; default: as the recipe's outputs say. */
+  writeCsv?: boolean;
   /** JSON export path; default `<out>.json` when the recipe asks for JSON, else none. */
   jsonOut?: string;
   /** Figures folder; default `<output folder>/figures` when the recipe asks for figures, else none. */
@@ -38,6 +40,8 @@ export interface RunBatchOptions {
   depsModule?: string;
   /** Draw a progress bar (TTY) instead of progress lines. */
   progressBar?: boolean;
+  /** Measure each worker's retained memory after a forced garbage collection after every file (benchmarks). */
+  measureRetained?: boolean;
 }
 
 /** What a batch run did. */
@@ -56,6 +60,8 @@ export interface BatchOutcome {
   workerEarlyPeakBytes: number[];
   /** Files each worker processed. */
   workerFiles: number[];
+  /** With `measureRetained`: each worker's V8 heap used + external after a full collection, after its third file and after its last. */
+  workerRetainedBytes: { afterThird: number; afterLast: number }[];
   /** Wall-clock seconds of the run. */
   seconds: number;
   /** Seconds from the start until the last worker had loaded its tools (thread start, TypeScript loader, opencv.js). */
@@ -76,6 +82,7 @@ interface WorkerReply {
   result: FileResult;
   figurePng?: Uint8Array;
   peakBytes: number;
+  retainedBytes: number;
 }
 
 const DEFAULT_DEPS_MODULE = new URL('../batch/deps.ts', import.meta.url).href;
@@ -133,11 +140,14 @@ class BatchWorker {
   earlyPeakBytes = 0;
   /** Files processed. */
   files = 0;
+  /** Retained memory after the third and after the last file (0 when not measured). */
+  retainedAfterThird = 0;
+  retainedAfterLast = 0;
   /** Settles when the worker has loaded its tools; rejects with a message for the user when it cannot run the recipe. */
   readonly ready: Promise<void>;
 
-  constructor(recipe: Recipe, depsModule: string, figures: boolean) {
-    this.worker = new Worker(workerBootUrl(), { workerData: { stratameterBatch: true, recipe, depsModule, figures } });
+  constructor(recipe: Recipe, depsModule: string, figures: boolean, measureRetained: boolean) {
+    this.worker = new Worker(workerBootUrl(), { workerData: { stratameterBatch: true, recipe, depsModule, figures, measureRetained } });
     let readyResolve: () => void = () => {};
     let readyReject: (e: Error) => void = () => {};
     this.ready = new Promise<void>((res, rej) => {
@@ -153,7 +163,11 @@ class BatchWorker {
       if (!p) return;
       if (m.type === 'result') {
         this.peakBytes = Math.max(this.peakBytes, m.peakBytes);
-        if (++this.files <= 3) this.earlyPeakBytes = this.peakBytes;
+        if (++this.files <= 3) {
+          this.earlyPeakBytes = this.peakBytes;
+          this.retainedAfterThird = m.retainedBytes;
+        }
+        this.retainedAfterLast = m.retainedBytes;
         p.resolve(m);
       } else p.reject(new Error(m.message));
     });
@@ -184,7 +198,14 @@ class BatchWorker {
 export async function workerMain(): Promise<void> {
   if (isMainThread || !parentPort || !workerData?.stratameterBatch) throw new Error('workerMain runs only inside a batch worker thread');
   const port = parentPort;
-  const { recipe, depsModule, figures } = workerData as { recipe: Recipe; depsModule: string; figures: boolean };
+  const { recipe, depsModule, figures, measureRetained } = workerData as { recipe: Recipe; depsModule: string; figures: boolean; measureRetained: boolean };
+  let gc: (() => void) | null = null;
+  if (measureRetained) {
+    const v8 = await import('node:v8');
+    const vm = await import('node:vm');
+    v8.setFlagsFromString('--expose-gc');
+    gc = vm.runInNewContext('gc') as () => void;
+  }
   let deps: BatchDeps;
   try {
     const mod = (await import(depsModule)) as { createBatchDeps(): Promise<BatchDeps> };
@@ -208,7 +229,13 @@ export async function workerMain(): Promise<void> {
     try {
       const out = await processOne(msg.bytes, msg.file, recipe, deps, { figure: figures, renderFigure: annotatedFigurePng });
       sample();
-      const reply: WorkerReply = { type: 'result', file: msg.file, result: out.result, figurePng: out.figurePng, peakBytes };
+      let retainedBytes = 0;
+      if (gc) {
+        gc();
+        const m = process.memoryUsage();
+        retainedBytes = m.heapUsed + m.external;
+      }
+      const reply: WorkerReply = { type: 'result', file: msg.file, result: out.result, figurePng: out.figurePng, peakBytes, retainedBytes };
       port.postMessage(reply, out.figurePng ? [out.figurePng.buffer as ArrayBuffer] : []);
     } catch (e) {
       port.postMessage({ type: 'error', message: (e as Error).stack ?? String(e) });
@@ -314,6 +341,7 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
   const peaks: number[] = [];
   const earlyPeaks: number[] = [];
   const workerFiles: number[] = [];
+  const retained: BatchOutcome['workerRetainedBytes'] = [];
   let fatal: Error | null = null;
   const loops: Promise<void>[] = [];
   for (let w = 0; w < workerCount; w++) {
@@ -323,13 +351,15 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
         let peak = 0;
         let early = 0;
         let count = 0;
+        let third = 0;
+        let last = 0;
         try {
           for (;;) {
             if (fatal) break;
             const job = await takeJob();
             if (!job) break;
             if (!worker) {
-              worker = new BatchWorker(recipe, depsModule, !!figuresDir);
+              worker = new BatchWorker(recipe, depsModule, !!figuresDir, !!options.measureRetained);
               try {
                 await worker.ready;
                 startupMs = Math.max(startupMs, performance.now() - t0);
@@ -346,6 +376,8 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
               peak = Math.max(peak, worker.peakBytes);
               early = Math.max(early, worker.earlyPeakBytes);
               count += worker.files;
+              third ||= worker.retainedAfterThird;
+              last = worker.retainedAfterLast || last;
               await worker.stop().catch(() => 0);
               worker = null;
               const reason = `processing stopped: ${(e as Error).message.split('\n')[0]}`;
@@ -359,12 +391,15 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
             peak = Math.max(peak, worker.peakBytes);
             early = Math.max(early, worker.earlyPeakBytes);
             count += worker.files;
+            third ||= worker.retainedAfterThird;
+            last = worker.retainedAfterLast || last;
             await worker.stop().catch(() => 0);
           }
           if (peak > 0) {
             peaks.push(peak);
             earlyPeaks.push(early);
             workerFiles.push(count);
+            retained.push({ afterThird: third, afterLast: last });
           }
         }
       })(),
@@ -382,8 +417,10 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
     written.push(path);
     exportsZip[zipName] = content;
   };
-  await put(outCsv, resultsCsv(ordered), basename(outCsv));
-  await put(`${outBase}-summary.csv`, summaryCsv(ordered), `${basename(outBase)}-summary.csv`);
+  if (options.writeCsv ?? recipe.outputs.csv) {
+    await put(outCsv, resultsCsv(ordered), basename(outCsv));
+    await put(`${outBase}-summary.csv`, summaryCsv(ordered), `${basename(outBase)}-summary.csv`);
+  }
   if (jsonOut) await put(jsonOut, batchJson(recipe, ordered), basename(jsonOut));
   if (figuresDir) {
     const pooled = pooledStats(ordered);
@@ -403,7 +440,7 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
     await writeAtomic(zipPath, zipExports(exportsZip));
     written.push(zipPath);
   }
-  return { total, processed, skipped, results: ordered, workerPeakBytes: peaks, workerEarlyPeakBytes: earlyPeaks, workerFiles, seconds: (performance.now() - t0) / 1000, startupSeconds: startupMs / 1000, written };
+  return { total, processed, skipped, results: ordered, workerPeakBytes: peaks, workerEarlyPeakBytes: earlyPeaks, workerFiles, workerRetainedBytes: retained, seconds: (performance.now() - t0) / 1000, startupSeconds: startupMs / 1000, written };
 }
 
 const usage = `Usage: stratameter batch FOLDER [--recipe FILE.json] [--out results.csv] [--json-out results.json] [--figures DIR] [--jobs N]
@@ -412,8 +449,9 @@ Runs a recipe on every image in FOLDER (${IMAGE_EXTENSIONS.join(' ')}; not recur
 
   --recipe FILE.json  the batch recipe (default: pixel size from the file metadata, whole image
                       without the information strip, the three strongest spectrum periods)
-  --out FILE.csv      results table, one row per period (default results.csv); its folder also
-                      gets FILE-summary.csv (one row per image), ${STATE_FILE_NAME} and records/
+  --out FILE.csv      results table, one row per period (default results.csv, written unless the
+                      recipe turns csv off); its folder also gets FILE-summary.csv (one row per
+                      image), ${STATE_FILE_NAME} and records/ (the resume state)
   --json-out FILE     full results and pooled statistics as JSON
   --figures DIR       an annotated PNG per image (scale bar, periods) and SVG histograms
   --jobs N            worker threads (default: the number of cores)
@@ -450,6 +488,7 @@ export const command: CliCommand = {
         folder: positional[0],
         recipe,
         outCsv: options.get('out') ?? 'results.csv',
+        writeCsv: recipe.outputs.csv || options.has('out'),
         jsonOut: options.get('json-out'),
         figuresDir: options.get('figures'),
         jobs,
