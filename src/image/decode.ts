@@ -7,7 +7,9 @@
  * (TIFF by the `tiff` package, PNG and JPEG by image-js, MRC here).
  */
 import { decode as decodeRaster } from 'image-js';
+import { unzlibSync } from 'fflate';
 import { decode as decodeTiffPages } from 'tiff';
+import { decompressLzw } from './lzw';
 import type { Calibration, GreyImage, SampleKind } from './grey-image';
 import { makeGreyImage } from './grey-image';
 
@@ -398,7 +400,7 @@ class TiffHeader {
 const T = {
   width: 256, height: 257, bits: 258, compression: 259, photometric: 262, stripOffsets: 273,
   spp: 277, rowsPerStrip: 278, stripByteCounts: 279, xRes: 282, yRes: 283, planar: 284,
-  resUnit: 296, predictor: 317, tileWidth: 322, tileLength: 323, tileOffsets: 324,
+  resUnit: 296, orientation: 274, predictor: 317, tileWidth: 322, tileLength: 323, tileOffsets: 324,
   tileByteCounts: 325, extraSamples: 338, sampleFormat: 339,
 } as const;
 
@@ -507,15 +509,24 @@ function readTiff(bytes: Uint8Array, maxPixels: number, fail: Fail): Decoded {
   }
   if (pages > 1) warnings.push(`multi-page TIFF: read page 1 of ${pages}`);
 
-  // Decode the pixels of page 1.
-  const page = decodeTiffPages(bytes, { pages: [0] })[0] as unknown as { data: ArrayLike<number> & { buffer: ArrayBufferLike; byteOffset: number; length: number } };
+  // Decode the pixels of page 1: strips without a predictor here (fast), anything else
+  // (tiles, predictors, WhiteIsZero, orientation) by the tiff package.
   const pixels = width * height;
-  if (!page?.data || page.data.length !== pixels * spp) fail(`truncated or corrupt TIFF data: decoded ${page?.data?.length ?? 0} samples, expected ${pixels * spp}`);
-  let samples: ArrayLike<number> = page.data;
-  if (sampleKind === 'int') {
-    samples = bits === 8
-      ? new Int8Array(page.data.buffer, page.data.byteOffset, page.data.length)
-      : new Int16Array(page.data.buffer, page.data.byteOffset, page.data.length);
+  let samples: ArrayLike<number>;
+  const predictor = one(T.predictor, 1);
+  const orientation = one(T.orientation, 1);
+  if (!tiled && predictor === 1 && photometric !== 0 && orientation === 1) {
+    const rps = Math.min(one(T.rowsPerStrip, height), height);
+    samples = readTiffStrips(bytes, h.le, offsets, counts, compression, rowBytes, rps, height, bits, sampleKind, fail);
+  } else {
+    const page = decodeTiffPages(bytes, { pages: [0] })[0] as unknown as { data: ArrayLike<number> & { buffer: ArrayBufferLike; byteOffset: number; length: number } };
+    if (!page?.data || page.data.length !== pixels * spp) fail(`truncated or corrupt TIFF data: decoded ${page?.data?.length ?? 0} samples, expected ${pixels * spp}`);
+    samples = page.data;
+    if (sampleKind === 'int') {
+      samples = bits === 8
+        ? new Int8Array(page.data.buffer, page.data.byteOffset, page.data.length)
+        : new Int16Array(page.data.buffer, page.data.byteOffset, page.data.length);
+    }
   }
   if (photometric === 0) warnings.push('WhiteIsZero TIFF: values inverted so that larger is brighter');
   const extra = h.numbers(entries.get(T.extraSamples));
@@ -533,6 +544,49 @@ function readTiff(bytes: Uint8Array, maxPixels: number, fail: Fail): Decoded {
     calibration = resolutionCalibration(xr[0], yr.length ? yr[0] : xr[0], nmPerUnit, unitName, 'TIFF XResolution/YResolution (tags 282/283, ResolutionUnit 296)', warnings);
   }
   return { width, height, data, bitDepth: bits, sampleKind, calibration, warnings, mayBeNonFinite: sampleKind === 'float' };
+}
+
+/** Decompresses and joins the strips of a chunky, predictor-free TIFF into typed samples. */
+function readTiffStrips(
+  bytes: Uint8Array,
+  le: boolean,
+  offsets: number[],
+  counts: number[],
+  compression: number,
+  rowBytes: number,
+  rowsPerStrip: number,
+  height: number,
+  bits: number,
+  sampleKind: SampleKind,
+  fail: Fail,
+): Int8Array | Uint8Array | Int16Array | Uint16Array | Float32Array {
+  const total = rowBytes * height;
+  const raw = new Uint8Array(total);
+  const strips = Math.ceil(height / rowsPerStrip);
+  for (let i = 0; i < strips; i++) {
+    const start = i * rowsPerStrip * rowBytes;
+    const want = Math.min(rowsPerStrip * rowBytes, total - start);
+    const count = counts.length ? counts[i] : want;
+    const src = bytes.subarray(offsets[i], offsets[i] + count);
+    let got: Uint8Array;
+    if (compression === 1) got = src.subarray(0, want);
+    else if (compression === 5) got = decompressLzw(src, want);
+    else got = unzlibSync(src, { out: new Uint8Array(rowsPerStrip * rowBytes) }); // a last strip may be padded to full height
+    if (got.length < want) fail(`truncated or corrupt TIFF data: strip ${i} gives ${got.length} bytes, ${want} expected`);
+    raw.set(got.subarray(0, want), start);
+  }
+  const n = total / (bits / 8);
+  const v = new DataView(raw.buffer);
+  if (bits === 8) return sampleKind === 'int' ? new Int8Array(raw.buffer) : raw;
+  if (bits === 16) {
+    const out = sampleKind === 'int' ? new Int16Array(n) : new Uint16Array(n);
+    if (sampleKind === 'int') for (let i = 0; i < n; i++) out[i] = v.getInt16(2 * i, le);
+    else for (let i = 0; i < n; i++) out[i] = v.getUint16(2 * i, le);
+    return out;
+  }
+  const out = new Float32Array(n);
+  for (let i = 0; i < n; i++) out[i] = v.getFloat32(4 * i, le);
+  return out;
 }
 
 // ---------------------------------------------------------------------------------------------

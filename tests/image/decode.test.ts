@@ -84,6 +84,14 @@ describe('TIFF', () => {
     expect(img.sampleKind).toBe('int');
   });
 
+  // TIFF 6.0 section 3: PhotometricInterpretation 0 = WhiteIsZero (0 is white).
+  test('WhiteIsZero is inverted so that larger is brighter', () => {
+    const bytes = setTiffTag(encodeTiff({ width: W, height: H, data: u8, compression: 'lzw' }), 262, 0);
+    const img = decodeImage(bytes, 'w.tif');
+    expect(Array.from(img.data)).toEqual(Array.from(u8, (v) => 255 - v));
+    expect(img.warnings.join()).toMatch(/WhiteIsZero/);
+  });
+
   // ITU-R BT.709 luma: Y = 0.2126 R + 0.7152 G + 0.0722 B (Rec. BT.709-6, item 3.2).
   test('RGB is converted to grey with the BT.709 weights and a warning', () => {
     expect(LUMA_BT709.r + LUMA_BT709.g + LUMA_BT709.b).toBeCloseTo(1, 12);
