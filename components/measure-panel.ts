@@ -1,0 +1,839 @@
+import { LitElement, css, html, nothing, svg, type PropertyValues } from 'lit';
+import { classMap } from 'lit/directives/class-map.js';
+import { styleMap } from 'lit/directives/style-map.js';
+import type { GreyImage } from '../src/image/grey-image';
+import { type Measurement, type Periodicity, toNm } from '../src/measure/measurement';
+import { angleBetweenDeg, type Spot } from '../src/measure/spectrum';
+import type { WindowKind } from '../src/measure/window';
+import { putMeasurement } from '../src/store/library';
+import type { ImageRecord } from '../src/store/records';
+import type { LibraryDb } from '../src/store/schema';
+import type { ComputeClient } from './compute-client';
+import { calibrationSourceText, cropImage, formatWithUncertainty, jsonNumbers } from './measure-format';
+import { spotPeriodicity } from './measure-spot-near';
+import type { FilterResult, Picture, ProfileEstimator, ProfileResult, SpectrumResult, SpectrumSettings } from './measure-types';
+import { linePlot, plotStyles, type PlotPoint } from './plot-line';
+import { controlStyles } from './styles';
+import type { LineDrawnDetail, OverlayShape, RectDrawnDetail, StrataViewer } from './viewer';
+
+/** The tab's label. */
+export const panelLabel = 'Periods';
+
+/** Side of the spectrum picture on screen, CSS px. */
+const SPECTRUM_CSS_PX = 320;
+/** Longest side of pictures computed in the worker, px. */
+const PICTURE_PX = 512;
+/** Largest region sent for a spectrum, pixels. */
+const MAX_REGION_PIXELS = 4096 * 4096;
+const PLOT_WIDTH = 330;
+
+/** A spot in the table: found by the search or added by a click. */
+interface TableSpot extends Spot {
+  /** Number shown in the table and on the spectrum (stable while the spot exists). */
+  n: number;
+  added: boolean;
+}
+
+const WINDOW_HELP: Record<WindowKind, string> = {
+  hann: 'Hann window: strong taper, low leakage from the region edges; the default for finding spots.',
+  tukey: 'Tukey window (half the region tapered): narrower spots than Hann, a little more edge leakage.',
+  none: 'No window: sharpest spots, but the region edges leak as streaks through the centre of the power spectrum.',
+};
+
+const ESTIMATORS: [ProfileEstimator, string][] = [
+  ['hann', 'Hann window, Grandke ratio'],
+  ['candan', 'no window, Candan'],
+  ['jacobsen', 'no window, Jacobsen'],
+  ['quinn', 'no window, Quinn'],
+  ['macleod', 'no window, Macleod'],
+];
+
+const ALPHAS = [0.05, 0.01, 0.001, 1e-4, 1e-6];
+
+/**
+ * `<strata-measure-panel>`: periods of lattice fringes and lamellae, from a line profile and from
+ * the 2D power spectrum of a region.
+ *
+ * Properties (given by the app shell): `image`, `record`, `db`, `compute`, `viewer`, `line`, `rect`.
+ * Events: `status-message` {text, kind}, `overlay-shapes` {shapes}, `library-changed`.
+ * Heavy work (profile periods, spectrum, spot refinement, Fourier filter) runs in the compute
+ * worker on copies of the drawn region, so the page stays responsive and the viewer's image is
+ * never detached.
+ */
+export class StrataMeasurePanel extends LitElement {
+  static override properties = {
+    image: { attribute: false },
+    record: { attribute: false },
+    db: { attribute: false },
+    compute: { attribute: false },
+    viewer: { attribute: false },
+    line: { attribute: false },
+    rect: { attribute: false },
+    windowKind: { state: true },
+    alpha: { state: true },
+    estimator: { state: true },
+    widthPx: { state: true },
+    profile: { state: true },
+    profileLine: { state: true },
+    profileBusy: { state: true },
+    profileError: { state: true },
+    spectrum: { state: true },
+    spectrumRect: { state: true },
+    spots: { state: true },
+    selected: { state: true },
+    spectrumBusy: { state: true },
+    spectrumError: { state: true },
+    filtered: { state: true },
+    showFiltered: { state: true },
+    filterBusy: { state: true },
+    crosshair: { state: true },
+    savedProfile: { state: true },
+    savedSpectrum: { state: true },
+    activeTool: { state: true },
+  };
+
+  image: GreyImage | null = null;
+  record: ImageRecord | null = null;
+  db: LibraryDb | null = null;
+  compute: ComputeClient | null = null;
+  viewer: StrataViewer | null = null;
+  line: LineDrawnDetail | null = null;
+  rect: RectDrawnDetail | null = null;
+
+  windowKind: WindowKind = 'hann';
+  alpha = 0.001;
+  estimator: ProfileEstimator = 'hann';
+  widthPx = 5;
+  profile: ProfileResult | null = null;
+  profileLine: LineDrawnDetail | null = null;
+  profileBusy = false;
+  profileError = '';
+  spectrum: SpectrumResult | null = null;
+  spectrumRect: RectDrawnDetail | null = null;
+  spots: TableSpot[] = [];
+  selected: number[] = [];
+  spectrumBusy = false;
+  spectrumError = '';
+  filtered: FilterResult | null = null;
+  showFiltered = true;
+  filterBusy = false;
+  crosshair: { u: number; v: number } | null = null;
+  savedProfile = '';
+  savedSpectrum = '';
+  activeTool: 'pan' | 'line' | 'rect' = 'pan';
+
+  private profileRun = 0;
+  private spectrumRun = 0;
+  private nextSpot = 1;
+  private lastData: Float32Array | null = null;
+
+  static override styles = [
+    controlStyles,
+    plotStyles,
+    css`
+      :host { display: block; padding: 8px 12px 24px; font-size: 13px; }
+      h2 { font-size: 13px; font-weight: 600; margin: 16px 0 6px; letter-spacing: 0.02em; }
+      h3 { font-size: 12px; font-weight: 600; margin: 12px 0 4px; color: var(--muted); }
+      p { margin: 4px 0; line-height: 1.45; }
+      .row { display: flex; flex-wrap: wrap; align-items: center; gap: 6px; margin: 6px 0; }
+      .cal { padding: 6px 8px; border: 1px solid var(--line); border-radius: 3px; background: #161d24; }
+      .cal.none { border-color: #6b5a34; background: #221d12; color: #f0d9a0; }
+      .cal b { font-weight: 600; }
+      select { max-width: 100%; }
+      input.width { width: 4.5em; }
+      .results { display: grid; grid-template-columns: 1fr 1fr; gap: 6px; margin: 6px 0; }
+      .card { border: 1px solid var(--line); border-radius: 3px; padding: 6px; background: #161d24; min-width: 0; }
+      .card .what { color: var(--muted); font-size: 11px; text-transform: uppercase; letter-spacing: 0.05em; }
+      .card .d { font-size: 14px; font-weight: 600; margin: 2px 0; }
+      .card .px { font-size: 12px; }
+      .card .how { color: var(--muted); font-size: 11px; line-height: 1.35; margin-top: 3px; }
+      .note { color: var(--muted); font-size: 12px; }
+      .error { color: #ffb4b4; }
+      .busy { color: var(--accent-2); }
+      .figure { position: relative; margin: 6px 0; outline: none; border-radius: 3px; }
+      .figure:focus-visible { box-shadow: 0 0 0 2px var(--focus); }
+      .figure canvas { display: block; image-rendering: pixelated; border: 1px solid var(--line); }
+      .figure svg.marks { position: absolute; left: 0; top: 0; cursor: crosshair; }
+      svg.marks .spot { fill: none; stroke: #e8c872; stroke-width: 1.5; }
+      svg.marks .spot.sel { stroke: #ffd84d; stroke-width: 2.5; }
+      svg.marks .spot.added { stroke: #f0a35e; }
+      svg.marks .mate { fill: none; stroke: #e8c872; stroke-width: 1; stroke-dasharray: 2 2; }
+      svg.marks .cross { stroke: #9fd3e6; stroke-width: 1; }
+      svg.marks text { fill: #ffe9a8; font-size: 10px; paint-order: stroke; stroke: #000; stroke-width: 2.5px; }
+      table { border-collapse: collapse; width: 100%; font-size: 12px; margin: 4px 0; }
+      th, td { padding: 2px 4px; text-align: right; border-bottom: 1px solid var(--line); white-space: nowrap; }
+      th { color: var(--muted); font-weight: normal; }
+      th:first-child, td:first-child { text-align: center; }
+      tr.sel td { background: #23303c; }
+      td button { min-height: 20px; padding: 0 6px; }
+      .between { padding: 4px 6px; border-left: 2px solid var(--accent-2); margin: 4px 0; }
+      .toggle { display: inline-flex; gap: 2px; }
+      .empty { color: var(--muted); padding: 12px 0; }
+    `,
+  ];
+
+  protected override willUpdate(changed: PropertyValues<this>): void {
+    if (changed.has('image')) {
+      const data = this.image?.data ?? null;
+      if (data !== this.lastData) {
+        this.lastData = data;
+        this.resetResults();
+      } else if (this.image) {
+        // Same pixels, new calibration: measure again so the nm values follow it.
+        if (this.profileLine) void this.runProfile(this.profileLine);
+        if (this.spectrumRect) void this.runSpectrum(this.spectrumRect);
+      }
+    }
+    if (changed.has('viewer') && this.viewer) {
+      this.widthPx = this.viewer.lineWidthPx;
+      this.activeTool = this.viewer.tool;
+      this.viewer.addEventListener('tool-changed', this.onToolChanged);
+    }
+    if (changed.has('line') && this.line && this.image && this.line !== this.profileLine) {
+      this.widthPx = this.line.widthPx;
+      void this.runProfile(this.line);
+    }
+    if (changed.has('rect') && this.rect && this.image && this.rect !== this.spectrumRect) void this.runSpectrum(this.rect);
+  }
+
+  private onToolChanged = (e: Event): void => {
+    const tool = (e as CustomEvent<{ tool: 'pan' | 'line' | 'rect' }>).detail?.tool;
+    if (tool) this.activeTool = tool;
+  };
+
+  private resetResults(): void {
+    this.profileRun++;
+    this.spectrumRun++;
+    this.profile = null;
+    this.profileLine = null;
+    this.profileError = '';
+    this.profileBusy = false;
+    this.spectrum = null;
+    this.spectrumRect = null;
+    this.spots = [];
+    this.selected = [];
+    this.spectrumError = '';
+    this.spectrumBusy = false;
+    this.filtered = null;
+    this.crosshair = null;
+    this.savedProfile = '';
+    this.savedSpectrum = '';
+  }
+
+  private say(text: string, kind: 'info' | 'error' = 'info'): void {
+    this.dispatchEvent(new CustomEvent('status-message', { detail: { text, kind }, bubbles: true, composed: true }));
+  }
+
+  private sendShapes(): void {
+    const shapes: OverlayShape[] = [];
+    const cal = this.image?.calibration ?? null;
+    if (this.spectrumRect) {
+      const top = this.spots[0];
+      const label = top ? `FFT region · d ${this.dText(top.periodPx, cal, top.fx, top.fy)}` : 'FFT region';
+      shapes.push({ kind: 'rect', ...this.spectrumRect, label, tone: 'info' });
+    }
+    if (this.profileLine) {
+      const p = this.profile?.spectral;
+      shapes.push({ kind: 'line', ...this.profileLine, label: p ? `profile · d ${this.dText(p.periodPx, cal)}` : 'profile', tone: 'accent' });
+    }
+    this.dispatchEvent(new CustomEvent('overlay-shapes', { detail: { shapes }, bubbles: true, composed: true }));
+  }
+
+  /** A short d for labels: nm when calibrated, px otherwise. */
+  private dText(periodPx: number, cal: GreyImage['calibration'], fx?: number, fy?: number): string {
+    if (!cal) return `${periodPx.toPrecision(4)} px`;
+    if (fx !== undefined && fy !== undefined) {
+      const nm = 1 / Math.hypot(fx / cal.nmPerPx, fy / (cal.nmPerPxY ?? cal.nmPerPx));
+      return `${nm.toPrecision(4)} nm`;
+    }
+    return `${(periodPx * cal.nmPerPx).toPrecision(4)} nm`;
+  }
+
+  private setTool(tool: 'pan' | 'line' | 'rect'): void {
+    if (!this.viewer) return;
+    this.viewer.tool = tool;
+    this.activeTool = tool;
+    if (tool === 'line') this.viewer.lineWidthPx = this.widthPx;
+    this.say(tool === 'line'
+      ? 'Drag across the fringes on the image to draw the profile line; [ and ] change its width.'
+      : tool === 'rect' ? 'Drag on the image to draw the region for the power spectrum.' : 'Drag to move the image.');
+  }
+
+  private setWidth(e: Event): void {
+    const v = Math.round(Number((e.target as HTMLInputElement).value));
+    if (!(v >= 1 && v <= 512)) return;
+    this.widthPx = v;
+    if (this.viewer) this.viewer.lineWidthPx = v;
+    if (this.profileLine) void this.runProfile({ ...this.profileLine, widthPx: v });
+  }
+
+  // ---------------------------------------------------------------- profile
+
+  private async runProfile(line: LineDrawnDetail): Promise<void> {
+    const image = this.image;
+    if (!image || !this.compute) return;
+    const run = ++this.profileRun;
+    this.profileLine = line;
+    this.profileError = '';
+    this.savedProfile = '';
+    const across = Math.max(1, Math.round(line.widthPx));
+    const half = (across - 1) / 2;
+    const len = Math.hypot(line.x1 - line.x0, line.y1 - line.y0);
+    if (!(len >= 2)) {
+      this.profileError = 'The line is shorter than 2 px: draw it across several fringes.';
+      return;
+    }
+    const nx = -(line.y1 - line.y0) / len;
+    const ny = (line.x1 - line.x0) / len;
+    const xs: number[] = [];
+    const ys: number[] = [];
+    for (const [px, py] of [[line.x0, line.y0], [line.x1, line.y1]]) {
+      for (const s of [-half, half]) {
+        xs.push(px + nx * s);
+        ys.push(py + ny * s);
+      }
+    }
+    const outside = xs.some((x) => x < 0 || x > image.width - 1) || ys.some((y) => y < 0 || y > image.height - 1);
+    if (outside) {
+      this.profile = null;
+      this.profileError = `The ${across} px wide band of this line leaves the image: move the line inward or make it narrower.`;
+      this.sendShapes();
+      return;
+    }
+    const cx0 = Math.max(0, Math.floor(Math.min(...xs)) - 1);
+    const cy0 = Math.max(0, Math.floor(Math.min(...ys)) - 1);
+    const cx1 = Math.min(image.width - 1, Math.ceil(Math.max(...xs)) + 1);
+    const cy1 = Math.min(image.height - 1, Math.ceil(Math.max(...ys)) + 1);
+    const crop = cropImage(image, cx0, cy0, cx1 - cx0 + 1, cy1 - cy0 + 1);
+    this.profileBusy = true;
+    try {
+      const result = await this.compute.call('profilePeriods', {
+        image: crop, x0: line.x0 - cx0, y0: line.y0 - cy0, x1: line.x1 - cx0, y1: line.y1 - cy0, widthPx: across, estimator: this.estimator,
+      }, [crop.data.buffer]);
+      if (run !== this.profileRun) return;
+      this.profile = result;
+    } catch (e) {
+      if (run !== this.profileRun) return;
+      this.profile = null;
+      this.profileError = `The profile could not be measured: ${(e as Error).message}`;
+    } finally {
+      if (run === this.profileRun) this.profileBusy = false;
+    }
+    this.sendShapes();
+  }
+
+  private profilePeriodicities(): Periodicity[] {
+    const p = this.profile;
+    const cal = this.image?.calibration ?? null;
+    if (!p) return [];
+    return [p.spectral, p.realSpace].filter((e) => e !== null).map((e) => ({
+      periodPx: e.periodPx,
+      ...toNm(e.periodPx, e.uncertaintyPx, cal && p.distanceNm && p.distancePx.length > 1
+        ? { ...cal, nmPerPx: p.distanceNm[1] / p.distancePx[1] } : cal),
+      angleDeg: p.angleDeg,
+      uncertaintyPx: e.uncertaintyPx,
+      strength: e.snr,
+    }));
+  }
+
+  private async saveProfile(): Promise<void> {
+    const p = this.profile;
+    const line = this.profileLine;
+    if (!p || !line || !this.image) return;
+    if (!this.db) {
+      this.say('The local library is not open: the result cannot be kept.', 'error');
+      return;
+    }
+    const estimators = [p.spectral, p.realSpace].filter((e) => e !== null);
+    const m: Measurement = {
+      id: globalThis.crypto.randomUUID(),
+      imageId: this.record?.id ?? null,
+      fileName: this.record?.fileName ?? '',
+      createdIso: new Date().toISOString(),
+      tool: 'profile',
+      region: { kind: 'line', x0: line.x0, y0: line.y0, x1: line.x1, y1: line.y1, widthPx: Math.max(1, Math.round(line.widthPx)) },
+      calibration: this.image.calibration,
+      settings: { widthPx: Math.max(1, Math.round(line.widthPx)), spectralEstimator: this.estimator, sampleStepPx: 1 },
+      periodicities: this.profilePeriodicities(),
+      detail: {
+        estimators: estimators.map((e) => ({ method: e.method, periodPx: e.periodPx, uncertaintyPx: e.uncertaintyPx, fringes: e.fringes, snr: Number.isFinite(e.snr) ? e.snr : null })),
+        extremaPx: p.realSpace ? jsonNumbers(p.realSpace.extremaPx) : [],
+        lengthPx: p.lengthPx,
+        lineAngleDeg: p.angleDeg,
+        samples: { distancePx: jsonNumbers(p.distancePx), mean: jsonNumbers(p.mean), standardError: jsonNumbers(p.standardError) },
+      },
+      notes: [...p.notes, ...(this.image.calibration ? [] : ['image not calibrated: periods in px only'])],
+    };
+    await this.save(m, (t) => (this.savedProfile = t));
+  }
+
+  private async save(m: Measurement, done: (text: string) => void): Promise<void> {
+    try {
+      await putMeasurement(this.db as LibraryDb, m);
+      const what = m.tool === 'profile' ? 'Profile periods' : 'Spectrum spots';
+      done(`${what} saved to the library (${new Date(m.createdIso).toLocaleTimeString()}).`);
+      this.say(`${what} of ${m.fileName || 'this image'} saved to the library.`);
+      this.dispatchEvent(new CustomEvent('library-changed', { bubbles: true, composed: true }));
+    } catch (e) {
+      this.say(`Not saved: ${(e as Error).message}`, 'error');
+    }
+  }
+
+  // ---------------------------------------------------------------- spectrum
+
+  private settings(): SpectrumSettings {
+    return { window: this.windowKind, tukeyAlpha: 0.5, alpha: this.alpha };
+  }
+
+  private regionCrop(): GreyImage | null {
+    const r = this.spectrumRect;
+    if (!r || !this.image) return null;
+    return cropImage(this.image, r.x, r.y, r.width, r.height);
+  }
+
+  private async runSpectrum(rect: RectDrawnDetail): Promise<void> {
+    const image = this.image;
+    if (!image || !this.compute) return;
+    const run = ++this.spectrumRun;
+    this.spectrumRect = rect;
+    this.spectrumError = '';
+    this.savedSpectrum = '';
+    this.filtered = null;
+    if (rect.width < 16 || rect.height < 16) {
+      this.spectrum = null;
+      this.spots = [];
+      this.spectrumError = `The region is ${rect.width} × ${rect.height} px: a power spectrum needs at least 16 × 16 px (a few periods across is better).`;
+      this.sendShapes();
+      return;
+    }
+    if (rect.width * rect.height > MAX_REGION_PIXELS) {
+      this.spectrumError = `The region is ${rect.width} × ${rect.height} px: draw one of at most 4096 × 4096 px.`;
+      return;
+    }
+    const crop = cropImage(image, rect.x, rect.y, rect.width, rect.height);
+    this.spectrumBusy = true;
+    try {
+      const result = await this.compute.call('regionSpectrum', {
+        image: crop, originX: rect.x, originY: rect.y, settings: this.settings(), displayPx: PICTURE_PX,
+      }, [crop.data.buffer]);
+      if (run !== this.spectrumRun) return;
+      this.spectrum = result;
+      this.nextSpot = 1;
+      this.spots = result.spots.map((s) => ({ ...s, n: this.nextSpot++, added: false }));
+      this.selected = this.spots.length ? [this.spots[0].n] : [];
+      this.crosshair = null;
+    } catch (e) {
+      if (run !== this.spectrumRun) return;
+      this.spectrum = null;
+      this.spots = [];
+      this.spectrumError = `The power spectrum could not be computed: ${(e as Error).message}`;
+    } finally {
+      if (run === this.spectrumRun) this.spectrumBusy = false;
+    }
+    this.sendShapes();
+  }
+
+  /** Transform bin (signed, DC = 0) → CSS px on the spectrum picture. */
+  private binToCss(su: number, sv: number): [number, number] {
+    const s = this.spectrum as SpectrumResult;
+    const k = s.binsPerPicturePx;
+    const scale = this.pictureScale();
+    return [(((s.width >> 1) + su) / k + 0.5 / k) * scale, (((s.height >> 1) + sv) / k + 0.5 / k) * scale];
+  }
+
+  /** CSS px per picture pixel. */
+  private pictureScale(): number {
+    const p = (this.spectrum as SpectrumResult).picture;
+    return SPECTRUM_CSS_PX / Math.max(p.width, p.height);
+  }
+
+  private onSpectrumClick(e: MouseEvent): void {
+    const s = this.spectrum;
+    if (!s) return;
+    const r = (e.currentTarget as Element).getBoundingClientRect();
+    const k = s.binsPerPicturePx;
+    const scale = this.pictureScale();
+    // The marks start one border pixel inside the drawing; bin centres sit half a picture pixel in.
+    const u = ((e.clientX - r.left - 1) / scale - 0.5 / k) * k - (s.width >> 1);
+    const v = ((e.clientY - r.top - 1) / scale - 0.5 / k) * k - (s.height >> 1);
+    this.crosshair = { u: Math.round(u), v: Math.round(v) };
+    void this.addSpot(u / s.width, v / s.height);
+  }
+
+  private onSpectrumKey(e: KeyboardEvent): void {
+    const s = this.spectrum;
+    if (!s) return;
+    const step = e.shiftKey ? 10 : 1;
+    const c = this.crosshair ?? { u: 0, v: 0 };
+    let { u, v } = c;
+    switch (e.key) {
+      case 'ArrowLeft': u -= step; break;
+      case 'ArrowRight': u += step; break;
+      case 'ArrowUp': v -= step; break;
+      case 'ArrowDown': v += step; break;
+      case 'Enter': case ' ': e.preventDefault(); void this.addSpot(u / s.width, v / s.height); return;
+      case 'Escape': this.crosshair = null; return;
+      default: return;
+    }
+    e.preventDefault();
+    const hu = s.width >> 1;
+    const hv = s.height >> 1;
+    this.crosshair = { u: Math.max(-hu, Math.min(s.width - 1 - hu, u)), v: Math.max(-hv, Math.min(s.height - 1 - hv, v)) };
+  }
+
+  private async addSpot(fx: number, fy: number): Promise<void> {
+    const crop = this.regionCrop();
+    if (!crop || !this.compute) return;
+    fx = Math.max(-0.5, Math.min(0.5, fx));
+    fy = Math.max(-0.5, Math.min(0.5, fy));
+    const run = this.spectrumRun;
+    try {
+      const { spot } = await this.compute.call('addSpotNear', { image: crop, settings: this.settings(), fx, fy, radiusBins: 3 }, [crop.data.buffer]);
+      if (run !== this.spectrumRun) return;
+      if (!spot) {
+        this.say('No spot above the background near that point of the power spectrum.', 'error');
+        return;
+      }
+      // A click on a spot already listed (or on its Friedel mate) selects it instead of adding it twice.
+      const same = this.spots.find((t) => Math.min(Math.hypot((t.fx - spot.fx) * this.spectrum!.width, (t.fy - spot.fy) * this.spectrum!.height),
+        Math.hypot((t.fx + spot.fx) * this.spectrum!.width, (t.fy + spot.fy) * this.spectrum!.height)) < 1.5);
+      if (same) {
+        if (!this.selected.includes(same.n)) this.selected = [...this.selected, same.n];
+        this.say(`Spot #${same.n} is already in the table; it is now selected.`);
+        return;
+      }
+      const t: TableSpot = { ...spot, n: this.nextSpot++, added: true };
+      this.spots = [...this.spots, t];
+      this.selected = [...this.selected, t.n];
+      this.savedSpectrum = '';
+      this.say(`Spot #${t.n} added: d ${this.dText(t.periodPx, this.image?.calibration ?? null, t.fx, t.fy)}, ${t.angleDeg.toFixed(1)}°.`);
+    } catch (e) {
+      this.say(`The spot could not be added: ${(e as Error).message}`, 'error');
+    }
+  }
+
+  private toggleSpot(n: number): void {
+    this.selected = this.selected.includes(n) ? this.selected.filter((k) => k !== n) : [...this.selected, n];
+    this.filtered = null;
+  }
+
+  private removeSpot(n: number): void {
+    this.spots = this.spots.filter((s) => s.n !== n);
+    this.selected = this.selected.filter((k) => k !== n);
+    this.filtered = null;
+    this.savedSpectrum = '';
+  }
+
+  private async runFilter(): Promise<void> {
+    const crop = this.regionCrop();
+    if (!crop || !this.compute) return;
+    const chosen = this.spots.filter((s) => this.selected.includes(s.n));
+    if (!chosen.length) return;
+    this.filterBusy = true;
+    try {
+      this.filtered = await this.compute.call('filterSpots', { image: crop, spots: chosen.map((s) => ({ fx: s.fx, fy: s.fy })), displayPx: PICTURE_PX }, [crop.data.buffer]);
+      this.showFiltered = true;
+    } catch (e) {
+      this.say(`The Fourier filter failed: ${(e as Error).message}`, 'error');
+    } finally {
+      this.filterBusy = false;
+    }
+  }
+
+  private async saveSpectrum(): Promise<void> {
+    const s = this.spectrum;
+    if (!s || !this.image || !this.spectrumRect) return;
+    if (!this.db) {
+      this.say('The local library is not open: the result cannot be kept.', 'error');
+      return;
+    }
+    const cal = this.image.calibration;
+    const base = s.measurement;
+    const ordered = [...this.spots].sort((a, b) => b.normalisedPower - a.normalisedPower);
+    const m: Measurement = {
+      ...base,
+      id: globalThis.crypto.randomUUID(),
+      imageId: this.record?.id ?? null,
+      fileName: this.record?.fileName ?? '',
+      createdIso: new Date().toISOString(),
+      calibration: cal,
+      periodicities: ordered.map((t) => spotPeriodicity(t, cal)),
+      detail: {
+        ...base.detail,
+        spots: ordered.map((t) => ({
+          number: t.n, fxPerPx: t.fx, fyPerPx: t.fy, normalisedPower: t.normalisedPower, snr: t.snr,
+          angleUncertaintyDeg: t.angleUncertaintyDeg, addedByHand: t.added,
+        })),
+        rings: s.rings.map((r) => ({ periodPx: r.periodPx, uncertaintyPx: r.uncertaintyPx, strength: r.strength, ...toNm(r.periodPx, r.uncertaintyPx, cal) })),
+        selectedSpots: [...this.selected],
+      },
+      notes: [...base.notes, ...(ordered.some((t) => t.added) ? ['spots added by hand are not tested for significance'] : [])],
+    };
+    await this.save(m, (t) => (this.savedSpectrum = t));
+  }
+
+  // ---------------------------------------------------------------- rendering
+
+  private renderCalibration() {
+    const cal = this.image?.calibration;
+    if (!this.image) return nothing;
+    if (!cal) {
+      return html`<p class="cal none" role="note"><b>Uncalibrated</b>: periods are given in px only. Calibrate the pixel size (scale bar, lattice standard or a typed value) to get nm.</p>`;
+    }
+    return html`<p class="cal num" title=${cal.detail}>Pixel size <b>${cal.nmPerPx.toPrecision(4)} nm/px</b>${cal.nmPerPxY ? html` × ${cal.nmPerPxY.toPrecision(4)} nm/px` : nothing}
+      from ${calibrationSourceText(cal)}, ±${(cal.relUncertainty * 100).toFixed(1)} % (k = 1), included in every ± in nm.</p>`;
+  }
+
+  private renderTools() {
+    const tools: ['line' | 'rect', string, string][] = [
+      ['line', 'Draw profile line', 'Draw a line across the fringes on the image: grey values are averaged over the width and the period is measured along the line'],
+      ['rect', 'Draw region', 'Draw a rectangle on the image: its 2D power spectrum (FFT) shows one spot pair per set of lattice fringes'],
+    ];
+    return html`<div class="row" role="group" aria-label="Drawing tools">
+      ${tools.map(([t, label, hint]) => html`<button aria-pressed=${this.activeTool === t ? 'true' : 'false'} title=${hint} ?disabled=${!this.viewer} @click=${() => this.setTool(t)}>${label}</button>`)}
+      <label title="Averaging width across the profile line, in pixels. Wider lines lower the noise but blur fringes that are not perpendicular to the line.">width
+        <input class="width" type="number" min="1" max="512" step="1" .value=${String(this.widthPx)} @change=${this.setWidth} aria-label="Profile width in pixels"> px</label>
+    </div>`;
+  }
+
+  private renderSettings() {
+    return html`<div class="row">
+      <label title="Data window applied to the region before the FFT. ${WINDOW_HELP[this.windowKind]}">window
+        <select aria-label="Window" @change=${(e: Event) => { this.windowKind = (e.target as HTMLSelectElement).value as WindowKind; if (this.spectrumRect) void this.runSpectrum(this.spectrumRect); }}>
+          ${(['hann', 'tukey', 'none'] as WindowKind[]).map((w) => html`<option value=${w} ?selected=${w === this.windowKind} title=${WINDOW_HELP[w]}>${w === 'none' ? 'none' : w[0].toUpperCase() + w.slice(1)}</option>`)}
+        </select></label>
+      <label title="Significance of a spot or ring: the chance that pure noise (an amorphous region) shows at least one false spot anywhere in the power spectrum. Smaller finds fewer, surer spots.">false-alarm probability
+        <select aria-label="False-alarm probability" @change=${(e: Event) => { this.alpha = Number((e.target as HTMLSelectElement).value); if (this.spectrumRect) void this.runSpectrum(this.spectrumRect); }}>
+          ${ALPHAS.map((a) => html`<option value=${String(a)} ?selected=${a === this.alpha}>${a >= 0.001 ? a : a.toExponential(0)}</option>`)}
+        </select></label>
+    </div>`;
+  }
+
+  private periodCard(what: string, e: { periodPx: number; uncertaintyPx: number; fringes: number; method: string; snr: number } | null, how: string) {
+    const p = this.profile as ProfileResult;
+    const cal = this.image?.calibration ?? null;
+    if (!e) return html`<div class="card"><div class="what">${what}</div><div class="d">–</div><div class="how">not found</div></div>`;
+    const nmPerStep = cal && p.distanceNm && p.distancePx.length > 1 ? p.distanceNm[1] / p.distancePx[1] : 0;
+    const nm = cal ? toNm(e.periodPx, e.uncertaintyPx, { ...cal, nmPerPx: nmPerStep }) : null;
+    return html`<div class="card">
+      <div class="what">${what}</div>
+      <div class="d num">${nm?.periodNm != null ? `${formatWithUncertainty(nm.periodNm, nm.uncertaintyNm ?? NaN)} nm` : `${formatWithUncertainty(e.periodPx, e.uncertaintyPx)} px`}</div>
+      ${nm ? html`<div class="px num">${formatWithUncertainty(e.periodPx, e.uncertaintyPx)} px</div>` : nothing}
+      <div class="how">${how}</div>
+    </div>`;
+  }
+
+  private renderProfile() {
+    const p = this.profile;
+    const cal = this.image?.calibration ?? null;
+    const body = [];
+    if (this.profileBusy) body.push(html`<p class="busy" role="status">Measuring the profile…</p>`);
+    if (this.profileError) body.push(html`<p class="error" role="alert">${this.profileError}</p>`);
+    if (!p && !this.profileBusy && !this.profileError) {
+      body.push(html`<p class="empty">Draw a profile line across the fringes (perpendicular to them) to measure their period.</p>`);
+    }
+    if (p) {
+      const x = cal && p.distanceNm ? p.distanceNm : p.distancePx;
+      const se = p.standardError;
+      const hasBand = se.length > 0 && Number.isFinite(se[0]);
+      const lo = hasBand ? p.mean.map((m, i) => m - se[i]) : null;
+      const hi = hasBand ? p.mean.map((m, i) => m + se[i]) : null;
+      const points: PlotPoint[] = [];
+      const rs = p.realSpace;
+      if (rs) {
+        const P = rs.periodPx;
+        for (const xe of rs.extremaPx) {
+          const i = Math.max(0, Math.min(p.mean.length - 2, Math.floor(xe)));
+          const f = xe - i;
+          const y = p.mean[i] * (1 - f) + p.mean[i + 1] * f;
+          let s = 0;
+          let c = 0;
+          for (let j = Math.max(0, Math.round(xe - P / 2)); j <= Math.min(p.mean.length - 1, Math.round(xe + P / 2)); j++) { s += p.mean[j]; c++; }
+          const scale = x.length > 1 ? x[1] - x[0] : 1;
+          points.push({ x: xe * scale, y, kind: y > s / c ? 'max' : 'min' });
+        }
+      }
+      const width = Math.max(1, Math.round(this.profileLine?.widthPx ?? 1));
+      body.push(linePlot({
+        width: PLOT_WIDTH, height: 170, x, y: p.mean, lo, hi,
+        xLabel: cal ? 'distance along the line (nm)' : 'distance along the line (px)',
+        yLabel: 'mean grey value',
+        description: `Line profile, ${p.lengthPx.toFixed(0)} px long, averaged over ${width} px${hasBand ? ', band: ± standard error of the mean' : ''}; ${rs ? `${rs.extremaPx.length} fringe extrema marked` : 'no fringe extrema found'}`,
+        points,
+      }));
+      body.push(html`<p class="note">${p.lengthPx.toFixed(1)} px at ${p.angleDeg.toFixed(1)}°, averaged over ${width} px${hasBand ? '; band ± standard error' : ''}. ● maxima, ○ minima used by the real-space estimate.</p>`);
+      const sp = p.spectral;
+      const est = ESTIMATORS.find(([k]) => k === this.estimator)?.[1] ?? this.estimator;
+      body.push(html`<div class="results">
+        ${this.periodCard('spectral', sp, sp ? `${est}; ${sp.fringes.toFixed(1)} periods along the line, SNR ${Number.isFinite(sp.snr) ? sp.snr.toPrecision(3) : '∞'}` : '')}
+        ${this.periodCard('real space', rs, rs ? `extrema and least-squares line; ${rs.extremaPx.length} extrema over ${rs.fringes.toFixed(1)} fringes` : '')}
+      </div>`);
+      for (const n of p.notes) body.push(html`<p class="note">${n}</p>`);
+      body.push(html`<div class="row">
+        <button @click=${() => this.saveProfile()} ?disabled=${!this.db || !(p.spectral || p.realSpace)} title="Keep both estimates in the library with the line, its width, the estimator and the calibration">Save profile periods</button>
+        ${this.savedProfile ? html`<span class="note" role="status">${this.savedProfile}</span>` : nothing}</div>`);
+    }
+    return html`<section aria-labelledby="h-profile">
+      <h2 id="h-profile">Line profile</h2>
+      <div class="row">
+        <label title="How the spectral estimate locates the period between FFT bins. Hann + Grandke is robust; the no-window interpolators use every sample fully but suffer more from a trend or a partial fringe at the ends.">spectral estimator
+          <select aria-label="Spectral estimator" @change=${(e: Event) => { this.estimator = (e.target as HTMLSelectElement).value as ProfileEstimator; if (this.profileLine) void this.runProfile(this.profileLine); }}>
+            ${ESTIMATORS.map(([k, label]) => html`<option value=${k} ?selected=${k === this.estimator}>${label}</option>`)}
+          </select></label>
+      </div>
+      ${body}
+    </section>`;
+  }
+
+  private renderSpectrumFigure(s: SpectrumResult) {
+    const pic = s.picture;
+    const scale = this.pictureScale();
+    const cw = Math.round(pic.width * scale);
+    const ch = Math.round(pic.height * scale);
+    const cal = this.image?.calibration ?? null;
+    const marks = this.spots.map((t) => {
+      const su = t.fx * s.width;
+      const sv = t.fy * s.height;
+      const [x, y] = this.binToCss(su, sv);
+      const [mx, my] = this.binToCss(-su, -sv);
+      const sel = this.selected.includes(t.n);
+      const right = x < cw - 90;
+      return svg`<circle class=${classMap({ spot: true, sel, added: t.added })} cx=${x} cy=${y} r="6"></circle>
+        <circle class="mate" cx=${mx} cy=${my} r="6"></circle>
+        <text x=${right ? x + 9 : x - 9} y=${y - 7} text-anchor=${right ? 'start' : 'end'}>#${t.n} ${this.dText(t.periodPx, cal, t.fx, t.fy)} ${t.angleDeg.toFixed(0)}°</text>`;
+    });
+    const c = this.crosshair;
+    const cross = c ? (() => {
+      const [x, y] = this.binToCss(c.u, c.v);
+      return svg`<line class="cross" x1=${x - 8} x2=${x + 8} y1=${y} y2=${y}></line><line class="cross" x1=${x} x2=${x} y1=${y - 8} y2=${y + 8}></line>`;
+    })() : nothing;
+    return html`<div class="figure" tabindex="0" role="application"
+        aria-label="Power spectrum of the region, centre = zero frequency. Click a spot, or move the crosshair with the arrow keys (Shift: 10 bins) and press Enter, to add the spot nearest to it."
+        style=${styleMap({ width: `${cw + 2}px`, height: `${ch + 2}px` })} @keydown=${this.onSpectrumKey}>
+      <canvas class="spectrum" width=${pic.width} height=${pic.height} style=${styleMap({ width: `${cw}px`, height: `${ch}px` })}></canvas>
+      <svg class="marks" width=${cw + 2} height=${ch + 2} viewBox="-1 -1 ${cw + 2} ${ch + 2}" @click=${this.onSpectrumClick}>${marks}${cross}</svg>
+    </div>`;
+  }
+
+  private renderSpotTable(s: SpectrumResult) {
+    const cal = this.image?.calibration ?? null;
+    if (!this.spots.length) {
+      return html`<p class="note">No spot above the detection threshold (false-alarm probability ${this.alpha} over ${s.searchedBins} FFT bins): no significant lattice fringes in this region. Click the spectrum to measure a spot anyway.</p>`;
+    }
+    const rows = this.spots.map((t) => {
+      const per = spotPeriodicity(t, cal);
+      const sel = this.selected.includes(t.n);
+      return html`<tr class=${sel ? 'sel' : ''}>
+        <td><input type="checkbox" .checked=${sel} @change=${() => this.toggleSpot(t.n)} aria-label=${`Select spot ${t.n}`}></td>
+        <td>#${t.n}${t.added ? html`<span title="added by hand; not tested for significance">*</span>` : nothing}</td>
+        ${cal ? html`<td class="num">${formatWithUncertainty(per.periodNm as number, per.uncertaintyNm as number)}</td>` : nothing}
+        <td class="num">${formatWithUncertainty(t.periodPx, t.periodUncertaintyPx)}</td>
+        <td class="num">${formatWithUncertainty(t.angleDeg, t.angleUncertaintyDeg)}</td>
+        <td class="num">${t.normalisedPower.toPrecision(3)}</td>
+        <td><button @click=${() => this.removeSpot(t.n)} aria-label=${`Remove spot ${t.n}`} title="Remove this spot from the table">×</button></td>
+      </tr>`;
+    });
+    const pair = this.selected.length === 2 ? this.selected.map((n) => this.spots.find((t) => t.n === n)).filter((t) => t !== undefined) : [];
+    return html`<table>
+        <caption class="note">Spots (one of each Friedel pair), strongest first. Angle: fringe normal, counter-clockwise from +x.</caption>
+        <thead><tr><th scope="col">use</th><th scope="col">spot</th>${cal ? html`<th scope="col">d (nm)</th>` : nothing}<th scope="col">d (px)</th><th scope="col">angle (°)</th>
+          <th scope="col" title="Spot power over the local background of the power spectrum">strength</th><th scope="col"><span class="muted">remove</span></th></tr></thead>
+        <tbody>${rows}</tbody></table>
+      ${pair.length === 2
+        ? html`<p class="between num" role="status">Angle between #${pair[0].n} and #${pair[1].n}: <b>${formatWithUncertainty(angleBetweenDeg(pair[0], pair[1]), Math.hypot(pair[0].angleUncertaintyDeg, pair[1].angleUncertaintyDeg))}°</b></p>`
+        : html`<p class="note">Select two spots to see the angle between their fringe normals.</p>`}`;
+  }
+
+  private renderRadial(s: SpectrumResult) {
+    const cal = this.image?.calibration ?? null;
+    const k = cal ? 1 / cal.nmPerPx : 1;
+    const f = Array.from(s.radialFrequencyPerPx).slice(2);
+    const y = Array.from(s.radialPower).slice(2).map((v) => (v > 0 ? Math.log10(v) : NaN));
+    const rings = s.rings.slice(0, 4);
+    return html`<h3>Radial average</h3>
+      ${linePlot({
+        width: PLOT_WIDTH, height: 150, x: f.map((v) => v * k), y,
+        xLabel: cal ? 'spatial frequency (nm⁻¹)' : 'spatial frequency (px⁻¹)', yLabel: 'log₁₀ power',
+        description: `Radial average of the power spectrum; ${rings.length ? `rings at ${rings.map((r) => this.dText(r.periodPx, cal)).join(', ')}` : 'no significant ring'}`,
+        rules: rings.map((r) => ({ x: r.frequencyPerPx * k, label: `d ${this.dText(r.periodPx, cal)}` })),
+      })}
+      ${s.rings.length
+        ? html`<p class="note num">Rings: ${s.rings.slice(0, 6).map((r) => {
+          const nm = toNm(r.periodPx, r.uncertaintyPx, cal);
+          return nm.periodNm !== null ? `${formatWithUncertainty(nm.periodNm, nm.uncertaintyNm as number)} nm` : `${formatWithUncertainty(r.periodPx, r.uncertaintyPx)} px`;
+        }).join(' · ')}</p>`
+        : html`<p class="note">No significant ring in the radial average.</p>`}`;
+  }
+
+  private renderFilter() {
+    const chosen = this.spots.filter((t) => this.selected.includes(t.n));
+    const f = this.filtered;
+    const pic: Picture | null = f ? (this.showFiltered ? f.filtered : f.original) : null;
+    let view = nothing as unknown;
+    if (pic) {
+      const scale = SPECTRUM_CSS_PX / Math.max(pic.width, pic.height);
+      view = html`<div class="row toggle" role="group" aria-label="Shown image">
+          <button aria-pressed=${this.showFiltered ? 'false' : 'true'} @click=${() => (this.showFiltered = false)}>Original region</button>
+          <button aria-pressed=${this.showFiltered ? 'true' : 'false'} @click=${() => (this.showFiltered = true)}>Fourier-filtered</button>
+        </div>
+        <div class="figure"><canvas class="filtered" width=${pic.width} height=${pic.height} role="img"
+          aria-label=${this.showFiltered ? 'The region Fourier-filtered to the selected spots' : 'The region as recorded'}
+          style=${styleMap({ width: `${Math.round(pic.width * scale)}px`, height: `${Math.round(pic.height * scale)}px` })}></canvas></div>`;
+    }
+    return html`<h3>Fourier filter</h3>
+      <div class="row"><button ?disabled=${!chosen.length || this.filterBusy} @click=${() => this.runFilter()}
+        title="Keep only the selected spots and their Friedel mates (soft Gaussian masks) and transform back: shows where in the region these fringes are">
+        ${this.filterBusy ? 'Filtering…' : `Filter to ${chosen.length ? chosen.map((t) => `#${t.n}`).join(', ') : 'selected spots'}`}</button></div>
+      ${view}`;
+  }
+
+  private renderSpectrum() {
+    const s = this.spectrum;
+    const body = [];
+    if (this.spectrumBusy) body.push(html`<p class="busy" role="status">Computing the power spectrum…</p>`);
+    if (this.spectrumError) body.push(html`<p class="error" role="alert">${this.spectrumError}</p>`);
+    if (!s && !this.spectrumBusy && !this.spectrumError) body.push(html`<p class="empty">Draw a region over the fringes to see its power spectrum and the d-spacing of each spot.</p>`);
+    if (s) {
+      const trimmed = s.width !== this.spectrumRect?.width || s.height !== this.spectrumRect?.height;
+      body.push(html`<p class="note num">${s.width} × ${s.height} px transformed${trimmed ? ' (trimmed, centred, to a fast FFT size)' : ''}, ${this.windowKind === 'none' ? 'no window' : `${this.windowKind} window`}.</p>`);
+      body.push(this.renderSpectrumFigure(s));
+      body.push(html`<p class="note">Solid circles: spots; dashed: their Friedel mates. Click the spectrum (or focus it and use the arrow keys and Enter) to add a spot.</p>`);
+      body.push(this.renderSpotTable(s));
+      body.push(this.renderFilter());
+      body.push(this.renderRadial(s));
+      body.push(html`<div class="row">
+        <button @click=${() => this.saveSpectrum()} ?disabled=${!this.db} title="Keep the spots, rings, region, window, significance and calibration in the library">Save spectrum spots</button>
+        ${this.savedSpectrum ? html`<span class="note" role="status">${this.savedSpectrum}</span>` : nothing}</div>`);
+    }
+    return html`<section aria-labelledby="h-spectrum"><h2 id="h-spectrum">Power spectrum of a region</h2>${this.renderSettings()}${body}</section>`;
+  }
+
+  protected override updated(): void {
+    const paint = (selector: string, pic: Picture | null | undefined) => {
+      const canvas = this.renderRoot.querySelector<HTMLCanvasElement>(selector);
+      if (!canvas || !pic) return;
+      if ((canvas as unknown as { painted?: Uint8ClampedArray }).painted === pic.rgba) return;
+      const ctx = canvas.getContext('2d');
+      if (!ctx) return;
+      ctx.putImageData(new ImageData(new Uint8ClampedArray(pic.rgba), pic.width, pic.height), 0, 0);
+      (canvas as unknown as { painted?: Uint8ClampedArray }).painted = pic.rgba;
+    };
+    paint('canvas.spectrum', this.spectrum?.picture);
+    paint('canvas.filtered', this.filtered ? (this.showFiltered ? this.filtered.filtered : this.filtered.original) : null);
+  }
+
+  override render() {
+    if (!this.image) {
+      return html`<p class="empty">Open a micrograph to measure lattice-fringe and lamellar periods: a line profile across the fringes, or the power spectrum of a region.</p>`;
+    }
+    return html`${this.renderCalibration()}${this.renderTools()}${this.renderProfile()}${this.renderSpectrum()}`;
+  }
+}
+
+customElements.define('strata-measure-panel', StrataMeasurePanel);
+
+declare global {
+  interface HTMLElementTagNameMap {
+    'strata-measure-panel': StrataMeasurePanel;
+  }
+}

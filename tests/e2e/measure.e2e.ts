@@ -1,0 +1,193 @@
+// The periods panel in the browser, on the lattice-fringe demo (truth in demo-data/index.json:
+// 1.25 nm basal fringes = 25 px at 0.05 nm/px; tactoid A centred at (330, 330) with its fringe
+// normal at 28°): a region's power spectrum, a spot added by clicking, a profile line across the
+// fringes with both estimators, the Fourier filter, saving to the library.
+import { mkdtempSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { afterAll, beforeAll, expect, test } from 'vitest';
+import { foreignRequests, openSession, type Session } from './browser';
+
+let s: Session;
+const dir = mkdtempSync(join(tmpdir(), 'strata-measure-'));
+const errors: string[] = [];
+
+/** Truth of the demo's tactoid A (demo-data/index.json, made by demo-data/make-demo.ts). */
+const PERIOD_NM = 1.25;
+const NORMAL_DEG = 28;
+const CENTRE = 330;
+
+interface PanelState {
+  spots: { n: number; periodPx: number; angleDeg: number; fx: number; fy: number; added: boolean }[];
+  spectrum: { width: number; height: number; binsPerPicturePx: number; picture: { width: number; height: number } } | null;
+  profile: { spectral: { periodPx: number; uncertaintyPx: number } | null; realSpace: { periodPx: number; uncertaintyPx: number; extremaPx: number[] } | null } | null;
+  spectrumBusy: boolean;
+  profileBusy: boolean;
+}
+
+const app = () => s.page.locator('strata-app');
+const panel = () => s.page.locator('strata-measure-panel');
+const viewer = () => s.page.locator('strata-viewer');
+const panelState = () => panel().evaluate((el) => {
+  const p = el as unknown as PanelState;
+  return JSON.parse(JSON.stringify({ spots: p.spots, spectrum: p.spectrum && { width: p.spectrum.width, height: p.spectrum.height, binsPerPicturePx: p.spectrum.binsPerPicturePx, picture: { width: p.spectrum.picture.width, height: p.spectrum.picture.height } }, profile: p.profile && { spectral: p.profile.spectral, realSpace: p.profile.realSpace }, spectrumBusy: p.spectrumBusy, profileBusy: p.profileBusy })) as PanelState;
+});
+
+async function settle() {
+  await s.page.evaluate(() => new Promise((r) => requestAnimationFrame(() => requestAnimationFrame(r))));
+}
+
+/** Image pixel → page coordinates through the viewer's current zoom and centre. */
+async function toPage(x: number, y: number): Promise<[number, number]> {
+  const st = await viewer().evaluate((el) => {
+    const v = el as unknown as { zoom: number; cx: number; cy: number };
+    return { zoom: v.zoom, cx: v.cx, cy: v.cy };
+  });
+  const box = (await viewer().locator('.stage').boundingBox())!;
+  return [box.x + box.width / 2 + (x - st.cx) * st.zoom, box.y + box.height / 2 + (y - st.cy) * st.zoom];
+}
+
+async function drag(from: [number, number], to: [number, number]) {
+  await s.page.mouse.move(from[0], from[1]);
+  await s.page.mouse.down();
+  await s.page.mouse.move(to[0], to[1], { steps: 6 });
+  await s.page.mouse.up();
+}
+
+/** A tall viewport so the whole panel shows in one screenshot. */
+async function shootPanel(name: string) {
+  await s.page.setViewportSize({ width: 1400, height: 2300 });
+  await settle();
+  await s.page.screenshot({ path: join(dir, name) });
+  await s.page.setViewportSize({ width: 1400, height: 900 });
+  await settle();
+}
+
+beforeAll(async () => {
+  s = await openSession();
+  s.page.on('pageerror', (e) => errors.push(String(e)));
+  await s.page.goto(s.url);
+  await s.page.waitForSelector('strata-app');
+  await app().locator('button.demo', { hasText: 'Tactoid lattice fringes' }).click();
+  await s.page.waitForFunction(() => {
+    const v = document.querySelector('strata-app')?.shadowRoot?.querySelector('strata-viewer') as unknown as { image?: { width: number } };
+    return v?.image?.width === 1024;
+  }, undefined, { timeout: 60_000 });
+  await app().locator('[role="tab"]', { hasText: 'Periods' }).click();
+  await settle();
+});
+afterAll(async () => {
+  await s?.close();
+  console.log(`screenshots in ${dir}`);
+});
+
+test('the panel shows the calibration read from the file', async () => {
+  // The demo TIFF carries 0.05 nm/px in its resolution tags (demo-data/index.json).
+  await expect.poll(() => panel().locator('.cal').textContent()).toMatch(/0\.05000 nm\/px\s+from file metadata/);
+});
+
+test('a region over the fringes gives a strongest spot at 1.25 nm, and a click on the spectrum adds a spot', async () => {
+  await panel().locator('button', { hasText: 'Draw region' }).click();
+  expect(await viewer().evaluate((el) => (el as unknown as { tool: string }).tool)).toBe('rect');
+  await drag(await toPage(CENTRE - 80, CENTRE - 80), await toPage(CENTRE + 80, CENTRE + 80));
+  await expect.poll(async () => (await panelState()).spots.length, { timeout: 60_000 }).toBeGreaterThan(0);
+  const st = await panelState();
+  const top = st.spots[0];
+  // Demo truth: 25 px = 1.25 nm (demo-data/index.json); the stated uncertainty covers the calibration's 5 %.
+  expect(Math.abs(top.periodPx - 25) / 25).toBeLessThan(0.01);
+  expect(Math.abs(top.angleDeg - NORMAL_DEG)).toBeLessThan(1.5);
+  const firstRow = panel().locator('tbody tr').first();
+  const cells = await firstRow.locator('td').allTextContents();
+  const [d, u] = cells[2].split('±').map(Number);
+  expect(Math.abs(d - PERIOD_NM)).toBeLessThanOrEqual(u);
+  expect(Math.abs(d - PERIOD_NM) / PERIOD_NM).toBeLessThan(0.01);
+  expect(await panel().locator('canvas.spectrum').count()).toBe(1);
+  expect(await panel().locator('svg.marks text').first().textContent()).toMatch(/#1 1\.2\d* nm 28°/);
+  await s.page.screenshot({ path: join(dir, 'spectrum.png') });
+
+  // Remove the spot, then click its Friedel mate on the spectrum: the nearest spot is found and refined again.
+  await firstRow.locator('button', { hasText: '×' }).click();
+  expect((await panelState()).spots.length).toBe(st.spots.length - 1);
+  const sp = st.spectrum!;
+  const box = (await panel().locator('svg.marks').boundingBox())!;
+  const scale = 320 / Math.max(sp.picture.width, sp.picture.height);
+  const k = sp.binsPerPicturePx;
+  // Mate at −f, one bin off so the refinement has something to do.
+  const bu = (sp.width >> 1) - top.fx * sp.width + 1;
+  const bv = (sp.height >> 1) - top.fy * sp.height;
+  await s.page.mouse.click(box.x + 1 + ((bu + 0.5) / k) * scale, box.y + 1 + ((bv + 0.5) / k) * scale);
+  await expect.poll(async () => (await panelState()).spots.some((t) => t.added)).toBe(true);
+  const added = (await panelState()).spots.find((t) => t.added)!;
+  expect(Math.abs(added.periodPx - top.periodPx)).toBeLessThan(0.05);
+  expect(Math.abs(added.angleDeg - top.angleDeg)).toBeLessThan(0.5);
+});
+
+test('two selected spots show the angle between them, and the Fourier filter shows the region', async () => {
+  const boxes = panel().locator('tbody input[type="checkbox"]');
+  const n = await boxes.count();
+  for (let i = 0; i < n; i++) if (await boxes.nth(i).isChecked()) await boxes.nth(i).uncheck();
+  if (n >= 2) {
+    await boxes.nth(0).check();
+    await boxes.nth(1).check();
+    expect(await panel().locator('.between').textContent()).toMatch(/Angle between #\d+ and #\d+: \d+(\.\d+)? ± \d/);
+    await boxes.nth(1).uncheck();
+  } else {
+    await boxes.nth(0).check();
+  }
+  await panel().locator('button', { hasText: /^\s*Filter to/ }).click();
+  await expect.poll(() => panel().locator('canvas.filtered').count(), { timeout: 60_000 }).toBe(1);
+  await panel().locator('button', { hasText: 'Original region' }).click();
+  expect(await panel().locator('button', { hasText: 'Original region' }).getAttribute('aria-pressed')).toBe('true');
+  await panel().locator('button', { hasText: 'Fourier-filtered' }).click();
+});
+
+test('a profile line across the fringes gives 1.25 nm by both estimators', async () => {
+  const width = panel().locator('input.width');
+  await width.fill('9');
+  await width.dispatchEvent('change');
+  await panel().locator('button', { hasText: 'Draw profile line' }).click();
+  const c = Math.cos((NORMAL_DEG * Math.PI) / 180);
+  const sn = Math.sin((NORMAL_DEG * Math.PI) / 180);
+  // Along the fringe normal (28° counter-clockwise from +x, y up), 190 px ≈ 7.6 fringes.
+  await drag(await toPage(CENTRE - 95 * c, CENTRE + 95 * sn), await toPage(CENTRE + 95 * c, CENTRE - 95 * sn));
+  await expect.poll(async () => !!(await panelState()).profile?.realSpace, { timeout: 60_000 }).toBe(true);
+  const { profile } = await panelState();
+  // Demo truth 25 px (demo-data/index.json); a 190 px line holds under 8 periods, so allow 2 % or 3 standard uncertainties.
+  for (const e of [profile!.spectral!, profile!.realSpace!]) {
+    expect(Math.abs(e.periodPx - 25)).toBeLessThan(Math.max(0.5, 3 * e.uncertaintyPx));
+  }
+  expect(profile!.realSpace!.extremaPx.length).toBeGreaterThanOrEqual(8);
+  const cards = await panel().locator('.card .d').allTextContents();
+  expect(cards.length).toBe(2);
+  for (const t of cards) {
+    const [d, u] = t.replace('nm', '').split('±').map(Number);
+    expect(Math.abs(d - PERIOD_NM)).toBeLessThanOrEqual(u); // u includes the calibration's 5 % (TIFF tags, relUncertainty 0.05)
+  }
+  expect(await panel().locator('svg.plot circle.max').count()).toBeGreaterThanOrEqual(4);
+  expect(await panel().locator('svg.plot circle.min').count()).toBeGreaterThanOrEqual(4);
+  await s.page.screenshot({ path: join(dir, 'profile.png') });
+  await shootPanel('panel-full.png');
+});
+
+test('both results are saved to the library with their region and calibration', async () => {
+  await panel().locator('button', { hasText: 'Save profile periods' }).click();
+  await expect.poll(() => panel().locator('section[aria-labelledby="h-profile"] [role="status"]').last().textContent()).toMatch(/saved to the library/);
+  await panel().locator('button', { hasText: 'Save spectrum spots' }).click();
+  await expect.poll(() => panel().locator('section[aria-labelledby="h-spectrum"] [role="status"]').last().textContent()).toMatch(/saved to the library/);
+  await app().locator('[role="tab"]', { hasText: 'Library' }).click();
+  const item = s.page.locator('strata-library li', { hasText: 'tactoid-fringes_hr.tif' });
+  await expect.poll(() => item.textContent()).toMatch(/2 results/);
+  expect(await item.textContent()).toMatch(/spectrum: d = 1\.2\d* ± 0\.0\d+ nm/);
+  await s.page.screenshot({ path: join(dir, 'library.png') });
+  expect(errors).toEqual([]);
+  expect(foreignRequests(s.requests, s.url)).toEqual([]);
+});
+
+test('uncalibrated is said clearly and periods are in px', async () => {
+  await app().locator('[role="tab"]', { hasText: 'Periods' }).click();
+  // The way another panel clears a calibration: the shell replaces the image's calibration.
+  await panel().evaluate((el) => el.dispatchEvent(new CustomEvent('calibration-changed', { detail: { calibration: null }, bubbles: true, composed: true })));
+  await expect.poll(() => panel().locator('.cal').textContent()).toMatch(/Uncalibrated.*px only/);
+  await expect.poll(async () => (await panel().locator('.card .d').first().textContent()) ?? '', { timeout: 60_000 }).toMatch(/px$/);
+  expect(await panel().locator('thead').textContent()).not.toMatch(/d \(nm\)/);
+});
