@@ -4,10 +4,14 @@
  */
 import type { GreyImage } from '../src/image/grey-image';
 import type { Histogram } from './pyramid';
+import type { FilterArgs, FilterResult, ProfileArgs, ProfileResult, SpectrumArgs, SpectrumResult, SpotNearArgs } from './measure-types';
+import type { Spot } from '../src/measure/spectrum';
 
 export interface ComputeCalls {
   /** Decodes a file's bytes into a GreyImage. */
   decode: { args: { bytes: Uint8Array; fileName: string }; result: GreyImage };
+  /** Box-mean reduction by a whole factor (src/image/downsample). */
+  downsample: { args: { image: GreyImage; factor: number }; result: GreyImage };
   /** Box-averaged pyramid levels below full resolution, and a histogram for the display. */
   prepareView: { args: { image: GreyImage; smallestSidePx?: number }; result: { levels: GreyImage[]; histogram: Histogram } };
   /** Loads opencv.js in the worker ahead of the first measurement; resolves to its version. */
@@ -17,6 +21,14 @@ export interface ComputeCalls {
     args: { bytes: Uint8Array; fileName: string };
     result: { image: GreyImage; levels: GreyImage[]; histogram: Histogram };
   };
+  /** Width-averaged line profile of a crop and its period by both estimators (measuring panel). */
+  profilePeriods: { args: ProfileArgs; result: ProfileResult };
+  /** Power spectrum of a region copy: spots, radial average, rings and a display picture (measuring panel). */
+  regionSpectrum: { args: SpectrumArgs; result: SpectrumResult };
+  /** The spot nearest a clicked frequency of the region's spectrum, refined (measuring panel). */
+  addSpotNear: { args: SpotNearArgs; result: { spot: Spot | null } };
+  /** The region Fourier-filtered to chosen spots and their Friedel mates, as pictures (measuring panel). */
+  filterSpots: { args: FilterArgs; result: FilterResult };
 }
 
 export type CallName = keyof ComputeCalls;

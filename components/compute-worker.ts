@@ -6,6 +6,7 @@
 import type { CallArgs, CallName, CallResult, ComputeRequest, ComputeResponse } from './compute-protocol';
 import { transferablesOf } from './compute-protocol';
 import { buildPyramid, histogram } from './pyramid';
+import { addSpotNear, filterSpots, profilePeriods, regionSpectrum } from './measure-worker-calls';
 
 type Handlers = { [K in CallName]: (args: CallArgs<K>) => Promise<CallResult<K>> | CallResult<K> };
 
@@ -17,7 +18,7 @@ async function decode(args: CallArgs<'decode'>): Promise<CallResult<'decode'>> {
 function prepareView(args: CallArgs<'prepareView'>): CallResult<'prepareView'> {
   const levels = buildPyramid(args.image, { smallestSidePx: args.smallestSidePx });
   // The histogram of a level of about a million pixels shows the same distribution at a fraction of the cost.
-  const forHistogram = levels.find((l) => l.width * l.height <= 1 << 20) ?? args.image;
+  const forHistogram = [args.image, ...levels].find((l) => l.width * l.height <= 1 << 20) ?? levels[levels.length - 1] ?? args.image;
   return { levels, histogram: histogram(forHistogram) };
 }
 
@@ -31,12 +32,17 @@ async function warmUp(): Promise<CallResult<'warmUp'>> {
 
 const handlers: Handlers = {
   decode,
+  downsample: async ({ image, factor }) => (await import('../src/image/downsample')).downsample(image, factor),
   prepareView,
   warmUp,
   openImage: async (args) => {
     const image = await decode(args);
     return { image, ...prepareView({ image }) };
   },
+  profilePeriods,
+  regionSpectrum,
+  addSpotNear,
+  filterSpots,
 };
 
 const scope = self as unknown as DedicatedWorkerGlobalScope;
