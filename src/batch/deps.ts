@@ -7,11 +7,12 @@ import { LABEL_CHARACTERS, readScaleBar } from '../calibration/label';
 import type { TextReader } from '../calibration/ocr';
 import { findScaleBar, type ScaleBar } from '../calibration/scale-bar';
 import { decodeImage } from '../image/decode';
-import type { GreyImage } from '../image/grey-image';
+import { makeGreyImage, type GreyImage } from '../image/grey-image';
 import { measureRegion } from '../measure/measure-region';
 import { toNm, type Measurement, type Region } from '../measure/measurement';
+import { detectSheets } from '../measure/sheets-auto';
 import { findRings, powerSpectrum, radialProfile, type RectPx } from '../measure/spectrum';
-import type { BatchDeps } from './run';
+import type { BatchDeps, SheetsResult } from './run';
 
 function rectOf(region: Region): RectPx | null {
   return region.kind === 'rect' ? { x: region.x, y: region.y, width: region.width, height: region.height } : null;
@@ -49,13 +50,61 @@ export async function ringsMeasurement(image: GreyImage, region: Region): Promis
   };
 }
 
+/** The pixels of a rectangle as an image of its own (same calibration and sample type). */
+function cropImage(image: GreyImage, r: RectPx): GreyImage {
+  if (r.x === 0 && r.y === 0 && r.width === image.width && r.height === image.height) return image;
+  const data = new Float32Array(r.width * r.height);
+  for (let y = 0; y < r.height; y++) data.set(image.data.subarray((r.y + y) * image.width + r.x, (r.y + y) * image.width + r.x + r.width), y * r.width);
+  return makeGreyImage(r.width, r.height, data, { bitDepth: image.bitDepth, sampleKind: image.sampleKind, calibration: image.calibration });
+}
+
+/**
+ * Automatic sheets in a region as a Measurement (tool 'sheets-auto') with each sheet's thickness.
+ * @param image calibrated or not (uncalibrated sheets have no nm thickness)
+ * @param region the region
+ * @returns the measurement (sheets in detail.sheets, centres in image pixels, outlines left out)
+ *   and the thickness in nm of every sheet that has one
+ * Reference: as detectSheets (structure-tensor coherence, Bigün & Granlund 1987; analytic-signal profiles).
+ */
+export async function sheetsMeasurement(image: GreyImage, region: Region): Promise<SheetsResult> {
+  const rect = rectOf(region) ?? { x: 0, y: 0, width: image.width, height: image.height };
+  const found = detectSheets(cropImage(image, rect));
+  const sheets = found.sheets.map((s) => ({
+    id: s.id,
+    layers: s.layers,
+    thicknessPx: s.thicknessPx,
+    thicknessNm: s.thicknessNm,
+    edgeToEdgeNm: s.edgeToEdgeNm,
+    periodPx: s.periodPx,
+    periodNm: s.periodNm,
+    angleDeg: s.angleDeg,
+    centerPx: [s.centerPx[0] + rect.x, s.centerPx[1] + rect.y],
+    lengthPx: s.lengthPx,
+    lines: s.crossings.length,
+  }));
+  const measurement: Measurement = {
+    id: globalThis.crypto.randomUUID(),
+    imageId: null,
+    fileName: '',
+    createdIso: new Date().toISOString(),
+    tool: 'sheets-auto',
+    region: { kind: 'rect', ...rect },
+    calibration: image.calibration,
+    settings: found.settings,
+    periodicities: [],
+    detail: { sheets, layeredRegions: found.regions },
+    notes: sheets.length ? [] : ['no sheet found'],
+  };
+  return { measurement, thicknessNm: sheets.map((s) => s.thicknessNm).filter((t): t is number => t !== null) };
+}
+
 /**
  * The batch runner's tools.
- * @returns decoder, information-strip and scale-bar reading, spectrum and ring steps
+ * @returns decoder, information-strip and scale-bar reading, spectrum, ring and sheet steps
  * Notes: the information strip is the edge panel holding the scale bar (findScaleBar's
  * stripBox) when it lies along the bottom; the scale-bar route reads the bar's label offline
- * (one OCR engine per worker, started on first use). Steps not in this build (sheets, domains)
- * are absent; `processOne` names a missing one if a recipe asks for it.
+ * (one OCR engine per worker, started on first use). Steps not in this build (domains) are
+ * absent; `processOne` names a missing one if a recipe asks for it.
  */
 export async function createBatchDeps(): Promise<BatchDeps> {
   const bars = new WeakMap<Float32Array, ScaleBar | null>();
@@ -79,5 +128,6 @@ export async function createBatchDeps(): Promise<BatchDeps> {
     },
     spectrum: (image, region, options) => measureRegion(image, rectOf(region), { maxSpots: options.topK }),
     rings: ringsMeasurement,
+    sheets: sheetsMeasurement,
   };
 }

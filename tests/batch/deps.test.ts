@@ -1,10 +1,11 @@
 import { expect, test } from 'vitest';
-import { createBatchDeps, ringsMeasurement } from '../../src/batch/deps';
+import { createBatchDeps, ringsMeasurement, sheetsMeasurement } from '../../src/batch/deps';
 import { parseRecipe } from '../../src/batch/recipe';
 import { processOne } from '../../src/batch/run';
 import { encodeTiff } from '../../src/image/encode-tiff';
 import { makeGreyImage } from '../../src/image/grey-image';
 import { scene } from '../calibration/scenes';
+import { syntheticImage } from '../sheets/synthetic';
 
 test('rings: randomly oriented fringes of one period give a ring at that period', async () => {
   // 36 fringe patches at 5° steps, all 12 px: the powder-like case the radial average is for
@@ -39,3 +40,22 @@ test('scale-bar route with the information strip: the bar calibrates, the strip 
   expect(strip).toBeGreaterThan(0);
   expect(result.measurements[0].region).toEqual({ kind: 'rect', x: 0, y: 0, width: 640, height: 560 - strip });
 }, 120_000);
+
+test('sheets: the automatic sheets of a region, thickness in nm, centres in image pixels', async () => {
+  // synthetic tactoids with known truth (tests/sheets/synthetic.ts), 8 px period
+  const truth = [
+    { layers: 5, periodPx: 8, cx: 100, cy: 100, angleDeg: 90, lengthPx: 120 },
+    { layers: 3, periodPx: 8, cx: 320, cy: 320, angleDeg: 0, lengthPx: 100 },
+  ];
+  const img = syntheticImage(420, 420, truth, { noise: 0.05, amorphous: 0.05, seed: 2 });
+  img.calibration = { nmPerPx: 0.125, source: 'manual', relUncertainty: 0.02, detail: 'test' };
+  const all = await sheetsMeasurement(img, { kind: 'rect', x: 0, y: 0, width: 420, height: 420 });
+  expect(all.thicknessNm).toHaveLength(2);
+  // thickness = layers × period (the sheet tool's definition): 5 × 8 px × 0.125 nm/px = 5 nm, 3 × 8 × 0.125 = 3 nm
+  expect(all.thicknessNm.map((t) => Math.round(t)).sort()).toEqual([3, 5]);
+  // the right half only: the 3-layer sheet, its centre still in image pixels
+  const half = await sheetsMeasurement(img, { kind: 'rect', x: 210, y: 210, width: 210, height: 210 });
+  const sheets = half.measurement.detail!.sheets as { layers: number; centerPx: [number, number] }[];
+  expect(sheets.map((s) => s.layers)).toEqual([3]);
+  expect(Math.hypot(sheets[0].centerPx[0] - 320, sheets[0].centerPx[1] - 320)).toBeLessThan(10);
+}, 60_000);
