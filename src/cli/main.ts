@@ -10,6 +10,8 @@ async function loadCommands(): Promise<CliCommand[]> {
     import('./batch'),
     import('./measure'),
     import('./sheets'),
+    import('./xrd'),
+    import('./match'),
   ] as Promise<{ command: CliCommand }>[]);
   return modules.map((m) => m.command);
 }

@@ -1,0 +1,182 @@
+/**
+ * `stratameter match --pattern PATTERN MEASUREMENT.json...`: reconciles periods and sheets measured
+ * in micrographs with the peaks of a diffraction pattern (and optionally a reference phase's CIF).
+ */
+import { readFile } from 'node:fs/promises';
+import { basename } from 'node:path';
+import type { CliCommand, CliIo } from './command';
+import { parseArgs, UsageError } from './command';
+import { loadAndAnalyse } from './xrd';
+import { parseCif, powderReflections } from '../diffraction/cif';
+import { reconcile, type DiffractionLine, type MicrographPeriod, type SheetStats } from '../diffraction/reconcile';
+
+const usage = `Usage: stratameter match --pattern PATTERN [--cif CIF] MEASUREMENT.json... [--wavelength W]
+                         [--z-max Z] [--json]
+
+Pairs every period measured in the micrographs (the JSON printed by 'stratameter measure --json'
+or 'stratameter sheets --json') with the diffraction d-values it can be: the pattern's fitted
+peaks, every member of a lamellar, hexagonal or cubic series recognised in it, and, with --cif,
+the reflections of a reference phase. Each pair gets its relative difference and its z =
+(period − d)/√(u_period² + u_d²). Sheet thickness is compared with the Scherrer size of the 00l
+peaks. When the best pairs agree on one significant common factor, a pixel-size correction is
+proposed (never applied).
+
+Options:
+  --pattern PATTERN  the diffraction pattern (see 'stratameter xrd --help' for its options:
+                     --wavelength, --axis, --k, --instrument-fwhm, --ka2, --min-snr also apply)
+  --cif CIF          add a reference phase's reflections (d ≥ 0.1 nm)
+  --z-max Z          largest |z| for a pair (default 3)
+  --json             one JSON object on standard output instead of a table
+`;
+
+interface Loaded {
+  periods: MicrographPeriod[];
+  sheets: SheetStats | null;
+  relUnc: number | null;
+  notes: string[];
+}
+
+/** Reads one measurement JSON (measure or sheets report) into periods and sheet statistics. */
+function fromReport(file: string, j: any): Loaded {
+  const notes: string[] = [];
+  const periods: MicrographPeriod[] = [];
+  if (typeof j !== 'object' || j === null) throw new UsageError(`${file}: not a JSON object`);
+  const rel = typeof j.calibration?.relUncertainty === 'number' ? j.calibration.relUncertainty : null;
+  const name = basename(file);
+  let sheets: SheetStats | null = null;
+  if (Array.isArray(j.periodicities)) {
+    j.periodicities.forEach((p: any, i: number) => {
+      if (typeof p.periodNm !== 'number' || typeof p.uncertaintyNm !== 'number') {
+        notes.push(`${name}: periodicity ${i + 1} has no calibrated period and is left out`);
+        return;
+      }
+      periods.push({ periodNm: p.periodNm, uncertaintyNm: p.uncertaintyNm, label: `${name} #${i + 1} (${Number(p.angleDeg).toFixed(0)}°)` });
+    });
+  } else if (Array.isArray(j.sheets)) {
+    const ps = j.sheets.map((s: any) => s.periodNm).filter((v: unknown): v is number => typeof v === 'number' && v > 0);
+    if (ps.length > 0) {
+      const mean = ps.reduce((a: number, b: number) => a + b, 0) / ps.length;
+      const sd = ps.length > 1 ? Math.sqrt(ps.reduce((a: number, b: number) => a + (b - mean) ** 2, 0) / (ps.length - 1)) : 0;
+      const u = Math.hypot(ps.length > 1 ? sd / Math.sqrt(ps.length) : 0, mean * (rel ?? 0));
+      periods.push({ periodNm: mean, uncertaintyNm: u, label: `${name} layer period (mean of ${ps.length} sheets)` });
+      if (ps.length === 1) notes.push(`${name}: one sheet only: its layer period's uncertainty is the calibration's alone`);
+    } else notes.push(`${name}: no calibrated sheet periods`);
+    const t = j.stats?.thicknessNm;
+    if (t && typeof t.mean === 'number') sheets = { n: j.stats.n, meanNm: t.mean, sdNm: t.sd ?? 0, medianNm: t.median };
+  } else throw new UsageError(`${file}: neither a 'measure --json' (periodicities) nor a 'sheets --json' (sheets) report`);
+  return { periods, sheets, relUnc: rel, notes };
+}
+
+const f = (v: number, d = 4) => (Number.isFinite(v) ? v.toFixed(d) : '—');
+
+export const command: CliCommand = {
+  name: 'match',
+  summary: 'reconcile micrograph periods and sheets with a diffraction pattern',
+  usage,
+  async run(args: string[], io: CliIo): Promise<number> {
+    const { positional, options, flags } = parseArgs(args, {
+      values: ['pattern', 'cif', 'z-max', 'wavelength', 'axis', 'k', 'instrument-fwhm', 'standard', 'correction', 'ka2', 'min-snr'],
+      booleans: ['json'],
+    });
+    const patternPath = options.get('pattern');
+    if (!patternPath) throw new UsageError('--pattern PATTERN is required');
+    if (positional.length === 0) throw new UsageError('give at least one MEASUREMENT.json');
+    const zMaxText = options.get('z-max');
+    const zMax = zMaxText === undefined ? 3 : Number(zMaxText);
+    if (!(zMax > 0)) throw new UsageError(`--z-max must be a positive number, got '${zMaxText}'`);
+    const { analysis } = await loadAndAnalyse(patternPath, options);
+    const notes: string[] = [];
+    const periods: MicrographPeriod[] = [];
+    let sheets: SheetStats | null = null;
+    const rels = new Set<number>();
+    for (const file of positional) {
+      let j: unknown;
+      try {
+        j = JSON.parse(await readFile(file, 'utf8'));
+      } catch (e) {
+        throw new UsageError(`cannot read measurement '${file}': ${(e as Error).message}`);
+      }
+      const l = fromReport(file, j);
+      periods.push(...l.periods);
+      notes.push(...l.notes);
+      if (l.relUnc !== null) rels.add(l.relUnc);
+      if (l.sheets) {
+        if (sheets) notes.push(`${file}: a second sheet statistic; only the first is compared`);
+        else sheets = l.sheets;
+      }
+    }
+    const seriesLabel = new Map<number, string>();
+    for (const s of analysis.series) for (const m of s.members) seriesLabel.set(m.peak, s.kind === 'lamellar' ? m.index : `${s.kind} ${m.index}`);
+    const lines: DiffractionLine[] = analysis.peaks.map((p, i) => ({
+      dNm: p.dNm,
+      dUncNm: p.dUncNm,
+      label: seriesLabel.get(i) ?? (p.twoThetaDeg !== null ? `peak ${p.twoThetaDeg.toFixed(3)}°` : `peak q ${p.qInvNm.toFixed(4)}`),
+      phase: basename(patternPath),
+      crystalliteNm: p.crystalliteNm,
+      intensity: p.intensity,
+    }));
+    const cifPath = options.get('cif');
+    if (cifPath) {
+      let text: string;
+      try {
+        text = await readFile(cifPath, 'utf8');
+      } catch {
+        throw new UsageError(`cannot read CIF '${cifPath}'`);
+      }
+      const st = parseCif(text);
+      const c = st.cell;
+      const relSu = Math.max(c.aNm.su / c.aNm.value, c.bNm.su / c.bNm.value, c.cNm.su / c.cNm.value);
+      const phase = st.name || basename(cifPath);
+      for (const r of powderReflections(st, { dMinNm: 0.1, wavelengthNm: analysis.wavelengthNm ?? undefined })) {
+        if (r.intensity < 0.5) continue;
+        lines.push({ dNm: r.dNm, dUncNm: r.dNm * relSu, label: `${phase} ${r.hkl.join(' ')}`, phase, intensity: r.intensity });
+      }
+      notes.push(...st.notes.map((n) => `${basename(cifPath)}: ${n}`));
+    }
+    const calRel = rels.size === 1 ? [...rels][0] : undefined;
+    if (rels.size > 1) notes.push('measurements carry different calibration uncertainties: the calibration proposal uses the full uncertainties');
+    const rec = reconcile({ periods, sheets: sheets ?? undefined, calibrationRelUncertainty: calRel }, { lines, series: analysis.series }, { zMax });
+    if (flags.has('json')) {
+      io.out(JSON.stringify({
+        pattern: patternPath,
+        measurements: positional,
+        wavelengthNm: analysis.wavelengthNm,
+        periods,
+        pairs: rec.pairs,
+        best: rec.best,
+        unmatchedPeriods: rec.unmatchedPeriods.map((i) => periods[i]),
+        unmatchedLines: rec.unmatchedLines,
+        series: analysis.series.map((s) => ({ kind: s.kind, cellNm: s.cellNm, cellUncNm: s.cellUncNm, members: s.members.map((m) => ({ index: m.index, dNm: m.dNm })) })),
+        thickness: rec.thickness,
+        calibration: rec.calibration,
+        notes: [...notes, ...rec.notes],
+      }, null, 2) + '\n');
+      return 0;
+    }
+    const out: string[] = [];
+    out.push(`${periods.length} micrograph period(s) against ${lines.length} diffraction line(s) from ${patternPath}${cifPath ? ` and ${cifPath}` : ''}`);
+    out.push('');
+    out.push('period (nm)          best match                       d (nm)             diff      z');
+    periods.forEach((p, i) => {
+      const b = rec.best[i];
+      const left = `${f(p.periodNm)} ±${f(p.uncertaintyNm)}`.padEnd(20);
+      if (!b) out.push(`${left} —  (no line within |z| ≤ ${zMax})   ${p.label ?? ''}`);
+      else out.push(`${left} ${b.label.padEnd(32)} ${`${f(b.dNm, 5)} ±${f(b.dUncNm, 5)}`.padEnd(18)} ${(100 * b.relDiff).toFixed(2).padStart(6)} %  ${b.z.toFixed(2).padStart(5)}   ${p.label ?? ''}`);
+      const others = rec.pairs.filter((q) => q.period === i && q !== b);
+      if (others.length) out.push(`${''.padEnd(20)} also: ${others.slice(0, 4).map((q) => `${q.label} (z ${q.z.toFixed(1)})`).join(', ')}`);
+    });
+    out.push('');
+    out.push(`Unmatched lines: ${rec.unmatchedLines.length ? rec.unmatchedLines.join(', ') : 'none'}`);
+    if (rec.thickness) {
+      const t = rec.thickness;
+      out.push(`Sheets: mean thickness ${f(t.sheetMeanNm, 2)} ± ${f(t.sheetSdNm, 2)} nm (sd); 00l crystallite size ${f(t.crystalliteNm, 1)} nm` +
+        (t.layerPeriodNm ? `; layers: ${f(t.layersFromSheets!, 1)} from sheets, ${f(t.layersFromCrystallite!, 1)} from the crystallite size (period ${f(t.layerPeriodNm, 5)} nm)` : ''));
+      out.push(`  ${t.note}`);
+    }
+    if (rec.calibration) out.push(`Calibration: multiply nm per pixel by ${f(rec.calibration.factor, 4)} ± ${f(rec.calibration.factorUnc, 4)} — ${rec.calibration.reason}`);
+    else out.push('Calibration: no correction proposed');
+    for (const n of [...notes, ...rec.notes]) out.push(`note: ${n}`);
+    io.out(out.join('\n') + '\n');
+    return 0;
+  },
+};
