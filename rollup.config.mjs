@@ -97,6 +97,18 @@ function sidePanels() {
   };
 }
 
+/** JSON files as ES modules (a dependency reads its own package.json). */
+function jsonModules() {
+  return {
+    name: 'json-modules',
+    transform(code, id) {
+      if (!id.endsWith('.json')) return null;
+      JSON.parse(code);
+      return { code: `export default ${code};`, map: { mappings: '' } };
+    },
+  };
+}
+
 export default {
   input: {
     app: 'components/app.ts',
@@ -115,6 +127,7 @@ export default {
   },
   external: ['node:module'],
   plugins: [
+    jsonModules(),
     resolve({ browser: true, extensions: ['.ts', '.mjs', '.js', '.json'], preferBuiltins: false }),
     // opencv.js mentions Node's modules in code paths the browser never takes.
     commonjs({ ignore: ['fs', 'path', 'crypto'] }),

@@ -1,8 +1,9 @@
 /**
- * Display helpers for the viewer: an image pyramid of box-averaged levels, an intensity
- * histogram and percentile limits. Pure TypeScript on typed arrays (runs in the compute worker).
+ * Display helpers for the viewer: an image pyramid of box-averaged levels and an intensity
+ * histogram. Pure TypeScript on typed arrays (runs in the compute worker).
  */
-import { makeGreyImage, type GreyImage } from '../src/image/grey-image';
+import type { GreyImage } from '../src/image/grey-image';
+import { downsample } from '../src/image/downsample';
 
 /** Options for buildPyramid. */
 export interface PyramidOptions {
@@ -16,7 +17,7 @@ export interface PyramidOptions {
  * @param image the full-resolution image (level 0, not copied into the result)
  * @param options where to stop
  * @returns levels 1..n, each half the size of the one before (rounded up; edge blocks average
- * the pixels they have)
+ * the pixels they have; the calibration is scaled with the level)
  * Reference: image pyramid by repeated 2 × 2 averaging, Burt & Adelson, IEEE Trans. Commun. 31, 532 (1983).
  */
 export function buildPyramid(image: GreyImage, options: PyramidOptions = {}): GreyImage[] {
@@ -25,22 +26,7 @@ export function buildPyramid(image: GreyImage, options: PyramidOptions = {}): Gr
   const levels: GreyImage[] = [];
   let src = image;
   while (Math.max(src.width, src.height) > smallest) {
-    const w = Math.ceil(src.width / 2);
-    const h = Math.ceil(src.height / 2);
-    const out = new Float32Array(w * h);
-    const sw = src.width;
-    const sh = src.height;
-    const d = src.data;
-    for (let y = 0; y < h; y++) {
-      const y0 = 2 * y;
-      const y1 = Math.min(y0 + 1, sh - 1);
-      for (let x = 0; x < w; x++) {
-        const x0 = 2 * x;
-        const x1 = Math.min(x0 + 1, sw - 1);
-        out[y * w + x] = (d[y0 * sw + x0] + d[y0 * sw + x1] + d[y1 * sw + x0] + d[y1 * sw + x1]) / 4;
-      }
-    }
-    src = makeGreyImage(w, h, out, { bitDepth: image.bitDepth, sampleKind: image.sampleKind, calibration: image.calibration });
+    src = downsample(src, 2);
     levels.push(src);
   }
   return levels;
@@ -86,26 +72,4 @@ export function histogram(image: GreyImage, bins = 1024): Histogram {
     counts[Math.min(bins - 1, Math.floor((v - min) * k))]++;
   }
   return { min, max, counts };
-}
-
-/**
- * The grey value below which `percent` % of the counted values lie (linear within a bin).
- *
- * @param h the histogram
- * @param percent 0–100
- */
-export function histogramPercentile(h: Histogram, percent: number): number {
-  if (!(percent >= 0 && percent <= 100)) throw new RangeError(`percent must be in [0, 100], got ${percent}`);
-  let total = 0;
-  for (let i = 0; i < h.counts.length; i++) total += h.counts[i];
-  if (total === 0 || !(h.max > h.min)) return h.min;
-  const target = (percent / 100) * total;
-  const width = (h.max - h.min) / h.counts.length;
-  let acc = 0;
-  for (let i = 0; i < h.counts.length; i++) {
-    const c = h.counts[i];
-    if (acc + c >= target && c > 0) return h.min + (i + (target - acc) / c) * width;
-    acc += c;
-  }
-  return h.max;
 }

@@ -1,6 +1,7 @@
 import { LitElement, css, html, svg, nothing, type PropertyValues } from 'lit';
 import type { GreyImage } from '../src/image/grey-image';
-import { histogram as makeHistogram, histogramPercentile, type Histogram } from './pyramid';
+import { percentileRange } from '../src/image/downsample';
+import { histogram as makeHistogram, type Histogram } from './pyramid';
 import { controlStyles } from './styles';
 
 /** The drawing tool the pointer is bound to. */
@@ -125,6 +126,7 @@ export class StrataViewer extends LitElement {
   private resizer: ResizeObserver | null = null;
   private shownHistogram: Histogram | null = null;
   private imageData: ImageData | null = null;
+  private shownData: Float32Array | null = null;
 
   static override styles = [
     controlStyles,
@@ -166,8 +168,10 @@ export class StrataViewer extends LitElement {
 
   protected override willUpdate(changed: PropertyValues<this>): void {
     if (changed.has('image') || changed.has('levels') || changed.has('histogram')) {
-      this.shownHistogram = this.histogram ?? (this.image ? makeHistogram(this.smallestLevel()) : null);
-      if (changed.has('image')) {
+      this.shownHistogram = this.histogram ?? (this.image ? makeHistogram(this.statsLevel()) : null);
+      // A new image (new pixels) resets the view; the same pixels with a new calibration do not.
+      if (changed.has('image') && this.image?.data !== this.shownData) {
+        this.shownData = this.image?.data ?? null;
         this.manual = false;
         this.draft = null;
         this.cursor = null;
@@ -204,14 +208,18 @@ export class StrataViewer extends LitElement {
     this.requestUpdate();
   }
 
-  /** Sets black and white from the percentiles of the histogram. */
+  /** The level percentiles and the histogram are taken from: about a million pixels at most. */
+  private statsLevel(): GreyImage {
+    return [this.image as GreyImage, ...this.levels].find((l) => l.width * l.height <= 1 << 20) ?? this.smallestLevel();
+  }
+
+  /** Sets black and white from the percentiles of the grey values. */
   autoLimits(): void {
-    const h = this.shownHistogram;
-    if (!h) return;
+    if (!this.image) return;
     this.manual = false;
-    this.black = histogramPercentile(h, this.lowPercent);
-    this.white = histogramPercentile(h, this.highPercent);
-    if (!(this.white > this.black)) this.white = this.black + Math.max(1e-6, (h.max - h.min) / h.counts.length);
+    const { low, high } = percentileRange(this.statsLevel().data, this.lowPercent, this.highPercent);
+    this.black = Number.isFinite(low) ? low : 0;
+    this.white = high > this.black ? high : this.black + 1;
   }
 
   /** Zooms so the whole image fits the view, centred. */
@@ -583,7 +591,7 @@ export class StrataViewer extends LitElement {
         <button class=${this.manual ? '' : 'on'} title="Limits from the percentiles" ?disabled=${!im} @click=${() => this.autoLimits()}>Auto</button>
         <label><input type="checkbox" .checked=${this.invert} ?disabled=${!im} @change=${(e: Event) => (this.invert = (e.target as HTMLInputElement).checked)}> invert</label>
       </div>
-      <div class="stage ${this.tool === 'pan' ? '' : 'drawing'}" tabindex="0" role="img"
+      <div class="stage ${this.tool === 'pan' ? '' : 'drawing'}" tabindex="0" role="application" aria-roledescription="image viewer"
         aria-label=${im ? `Image ${im.width} by ${im.height} pixels. Plus and minus zoom, arrow keys pan, F fits, 1 shows actual size.` : 'No image open'}
         @pointerdown=${this.onPointerDown} @pointermove=${this.onPointerMove} @pointerup=${this.onPointerUp}
         @pointerleave=${() => (this.cursor = null)} @keydown=${this.onKey}>
