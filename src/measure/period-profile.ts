@@ -31,6 +31,8 @@ export interface SpectralPeriodOptions {
   minPeriodPx?: number;
   /** Longest period searched, in samples (default: a third of the profile length). */
   maxPeriodPx?: number;
+  /** With window 'hann': finish at the maximum of a Tukey(0.3)-windowed periodogram (default true). */
+  refine?: boolean;
 }
 
 /** Removes the least-squares straight line from values; returns a new array. */
@@ -192,7 +194,9 @@ function checkProfile(values: ArrayLike<number>): void {
  * Notes: the profile is detrended (straight line removed) and windowed (periodic Hann by default),
  * zero-padded for the coarse search of the strongest non-DC peak, then refined below one bin by
  * evaluating the transform exactly at f̂ and f̂ ± 1/N and applying Grandke's Hann magnitude-ratio form
- * (or a complex-value interpolator for no window), iterated to a fixed point. Uncertainty: the
+ * (or a complex-value interpolator for no window), iterated to a fixed point; then (refine) Newton
+ * steps to the maximum of a Tukey(0.3)-windowed periodogram, the maximum-likelihood estimate with a
+ * light taper, whose variance is closer to the bound than the Hann interpolation. Uncertainty: the
  * Cramér–Rao bound for the fitted amplitude and residual noise, times the window's variance factor
  * ({@link windowVarianceFactor}); σ_P = σ_f / f².
  * Reference: Grandke, IEEE Trans. Instrum. Meas. 32(2), 350 (1983); bound: Rife & Boorstyn, IEEE Trans. Inf. Theory 20(5), 591 (1974).
@@ -245,16 +249,59 @@ export function spectralPeriod(values: ArrayLike<number>, options: SpectralPerio
     if (Math.abs(delta) < 1e-9) break;
   }
   if (!(f > 0 && f < 0.5)) return null;
+  let method = window === 'hann' ? 'spectral (Hann, Grandke interpolation)' : `spectral (no window, ${interp} interpolation)`;
+  let wUsed = w;
+  if (window === 'hann' && (options.refine ?? true)) {
+    const wt = windowSamples('tukey', n, 0.3);
+    const ft = periodogramMaximum(d, wt, f);
+    if (ft !== null) {
+      f = ft;
+      wUsed = wt;
+      method = 'spectral (Hann + Grandke, then Tukey(0.3) periodogram maximum)';
+    }
+  }
   const fit = sineFit(d, f);
   const snr = fit.residVar > 0 ? fit.amp2 / (2 * fit.residVar) : Infinity;
-  const sf = frequencyCrbStd(snr, n) * Math.sqrt(windowVarianceFactor(w));
+  const sf = frequencyCrbStd(snr, n) * Math.sqrt(windowVarianceFactor(wUsed));
   return {
     periodPx: 1 / f,
     uncertaintyPx: Number.isFinite(sf) ? sf / (f * f) : Infinity,
     fringes: n * f,
-    method: window === 'hann' ? 'spectral (Hann, Grandke interpolation)' : `spectral (no window, ${interp} interpolation)`,
+    method,
     snr,
   };
+}
+
+/**
+ * Newton iteration to the maximum of the windowed periodogram |Σ wₙ xₙ e^(−2πifn)|² near f0;
+ * null when it leaves ±half a bin of f0 or is not at a maximum (the caller keeps f0).
+ */
+function periodogramMaximum(x: Float64Array, w: Float64Array, f0: number): number | null {
+  const n = x.length;
+  const c = (n - 1) / 2;
+  let om = 2 * Math.PI * f0;
+  for (let it = 0; it < 5; it++) {
+    let yr = 0, yi = 0, y1r = 0, y1i = 0, y2r = 0, y2i = 0;
+    for (let k = 0; k < n; k++) {
+      const t = k - c;
+      const a = w[k] * x[k];
+      const cr = a * Math.cos(om * t);
+      const ci = -a * Math.sin(om * t);
+      yr += cr;
+      yi += ci;
+      // Y' = −i Σ t a e^(−iωt), Y'' = −Σ t² a e^(−iωt)
+      y1r += t * ci;
+      y1i += -t * cr;
+      y2r += -t * t * cr;
+      y2i += -t * t * ci;
+    }
+    const g = 2 * (yr * y1r + yi * y1i);
+    const hss = 2 * (y1r * y1r + y1i * y1i + yr * y2r + yi * y2i);
+    if (!(hss < 0)) return null;
+    om -= g / hss;
+    if (Math.abs(om / (2 * Math.PI) - f0) > 0.5 / n) return null;
+  }
+  return om / (2 * Math.PI);
 }
 
 /** Options of {@link realSpacePeriod}. */
@@ -286,19 +333,39 @@ export interface RealSpacePeriod extends ProfilePeriod {
  * samples within half a period, and numbered in half periods. The period is twice the slope of the
  * least-squares line through position against half index (separate offsets for maxima and minima,
  * so an asymmetric fringe shape does not bias it): the "measure across N fringes and divide"
- * practice, using every fringe. Uncertainty: the slope's standard error from the residuals.
+ * practice, using every fringe. Uncertainty: the slope's standard error from the residuals, plus
+ * the first guess's uncertainty propagated through dP/dP_guess (when the guess is the spectral estimate).
  * Reference: least-squares straight line and slope standard error, Taylor, An Introduction to Error Analysis, 2nd ed. §8 (1997).
  */
 export function realSpacePeriod(values: ArrayLike<number>, options: RealSpacePeriodOptions = {}): RealSpacePeriod | null {
   checkProfile(values);
   const n = values.length;
   let p = options.approxPeriodPx;
+  let guessU = 0;
   if (p === undefined) {
     const s = spectralPeriod(values, { minPeriodPx: options.minPeriodPx, maxPeriodPx: options.maxPeriodPx });
     if (!s) return null;
     p = s.periodPx;
+    guessU = Number.isFinite(s.uncertaintyPx) ? s.uncertaintyPx : 0;
   }
   if (!(p >= 2 && p < n / 2)) throw new RangeError(`approxPeriodPx must be in [2, ${n / 2}), got ${p}`);
+  const result = extremaPeriod(values, p);
+  if (!result || guessU === 0) return result;
+  // The local fits use the guessed period, so the result leans on the guess (strongly when a
+  // quarter period spans only a few samples): propagate the guess's uncertainty through the
+  // numerical derivative dP/dP_guess and add it in quadrature.
+  const h = Math.max(guessU, 1e-4 * p);
+  const shifted = extremaPeriod(values, p + h);
+  if (shifted) {
+    const slope = (shifted.periodPx - result.periodPx) / h;
+    result.uncertaintyPx = Math.hypot(result.uncertaintyPx, slope * guessU);
+  }
+  return result;
+}
+
+/** One pass of realSpacePeriod with a given period guess p. */
+function extremaPeriod(values: ArrayLike<number>, p: number): RealSpacePeriod | null {
+  const n = values.length;
   const d = detrendLinear(values);
   // Gaussian smoothing, σ = P/8.
   const sigma = p / 8;
