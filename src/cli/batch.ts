@@ -19,7 +19,7 @@ import { emptyState, isFinished, parseState, recordFileName, STATE_FILE_NAME, wi
 import { parseArgs, UsageError, type CliCommand, type CliIo } from './command';
 
 /** File name extensions the batch picks up (lower case, with the dot). */
-export const IMAGE_EXTENSIONS = ['.tif', '.tiff', '.png', '.jpg', '.jpeg', '.mrc', '.dm3', '.dm4', '.emd', '.ser', '.bmp', '.pgm'];
+export const IMAGE_EXTENSIONS = ['.tif', '.tiff', '.png', '.jpg', '.jpeg', '.mrc'];
 
 /** Options of `runBatch`. */
 export interface RunBatchOptions {
