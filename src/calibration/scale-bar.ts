@@ -13,7 +13,10 @@ export interface ScaleBarOptions {
   minLengthPx?: number;
   /** Thickest bar considered, in px; max(40, 8 % of the image height) when absent. */
   maxThicknessPx?: number;
-  /** Largest grey-value change inside a uniform run, as a fraction of the image's value range; 0.02 when absent. */
+  /**
+   * Largest departure of a pixel from its run's running mean, as a fraction of the image's value
+   * range; 0.02 when absent (then a lenient 0.08 pass follows if the strict one finds nothing).
+   */
   valueTolerance?: number;
   /** Smallest bar-to-surroundings difference, as a fraction of the value range; 0.25 when absent. */
   minContrast?: number;
@@ -79,10 +82,10 @@ function uniformRuns(img: GreyImage, tol: number, minLen: number): Run[] {
     const row = y * width;
     let s = 0;
     while (s < width) {
-      const ref = data[row + s];
+      let sum = data[row + s];
       let e = s + 1;
-      while (e < width && Math.abs(data[row + e] - ref) <= tol) e++;
-      if (e - s >= minLen) runs.push({ y, x0: s, x1: e - 1, v: ref });
+      while (e < width && Math.abs(data[row + e] - sum / (e - s)) <= tol) sum += data[row + e++];
+      if (e - s >= minLen) runs.push({ y, x0: s, x1: e - 1, v: sum / (e - s) });
       s = e;
     }
   }
@@ -102,7 +105,9 @@ function uniformRuns(img: GreyImage, tol: number, minLen: number): Run[] {
  * uncertainty is the spread over rows, at least 0.05 px when the edge is resolved by grey levels
  * and 1/√12 px when the edge falls on a pixel boundary (no grey level to interpolate). End ticks
  * flush with the ends are part of the bar; a border outside the bar is not. Only horizontal bars
- * are searched.
+ * are searched. When the strict search (runs within valueTolerance of their running mean, ends
+ * straight to 1 px) finds nothing and no tolerance was given, a lenient pass (8 % of the range,
+ * ends straight to 2 px) finds bars blurred by lossy compression such as JPEG.
  */
 export function findScaleBar(image: GreyImage, options: ScaleBarOptions = {}): ScaleBar | null {
   if (!image || !(image.data instanceof Float32Array) || image.data.length !== image.width * image.height) {
@@ -119,83 +124,16 @@ export function findScaleBar(image: GreyImage, options: ScaleBarOptions = {}): S
   if (!(contrastFrac > 0 && contrastFrac <= 1)) throw new RangeError(`minContrast must be in (0, 1], got ${contrastFrac}`);
   const range = image.max - image.min;
   if (!(range > 0)) return null;
-  const tol = tolFrac * range;
   const minContrast = contrastFrac * range;
 
-  // 1. uniform runs, linked into components across rows
-  const runs = uniformRuns(image, tol, minLen);
-  const parent = new Int32Array(runs.length).map((_, i) => i);
-  let prevStart = 0;
-  let prevEnd = 0;
-  for (let i = 0; i < runs.length; ) {
-    const y = runs[i].y;
-    let j = i;
-    while (j < runs.length && runs[j].y === y) j++;
-    if (prevEnd > prevStart && runs[prevStart].y === y - 1) {
-      for (let a = i; a < j; a++) {
-        for (let b = prevStart; b < prevEnd; b++) {
-          const ra = runs[a];
-          const rb = runs[b];
-          if (ra.x0 <= rb.x1 && rb.x0 <= ra.x1 && Math.abs(ra.v - rb.v) <= tol) {
-            const pa = find(parent, a);
-            const pb = find(parent, b);
-            if (pa !== pb) parent[pa] = pb;
-          }
-        }
-      }
-    }
-    prevStart = i;
-    prevEnd = j;
-    i = j;
-  }
-  const groups = new Map<number, Run[]>();
-  runs.forEach((r, i) => {
-    const root = find(parent, i);
-    const g = groups.get(root);
-    if (g) g.push(r);
-    else groups.set(root, [r]);
-  });
-
-  // 2. candidates: solid thin rectangles with contrast above and below
-  let best: { rows: Run[]; score: number; v: number } | null = null;
   const at = (x: number, y: number) => data[y * width + x];
-  for (const rows of groups.values()) {
-    const n = rows.length;
-    if (n < 2 || n > maxThick) continue;
-    const ys = new Set(rows.map((r) => r.y));
-    if (ys.size !== n) continue; // more than one run in a row: not a solid rectangle
-    const top = rows[0].y;
-    const bottom = rows[n - 1].y;
-    if (bottom - top + 1 !== n || top < 1 || bottom > height - 2) continue;
-    const x0s = rows.map((r) => r.x0);
-    const x1s = rows.map((r) => r.x1);
-    const xa = Math.min(...x0s);
-    const xb = Math.max(...x1s);
-    if (Math.max(...x0s) - xa > 1 || xb - Math.min(...x1s) > 1) continue; // ragged ends
-    if (xa < 2 || xb > width - 3) continue;
-    const len = xb - xa + 1;
-    if (len < 4 * n) continue;
-    const v = median(rows.map((r) => r.v));
-    let contrastCols = 0;
-    for (let x = xa; x <= xb; x++) {
-      if (Math.abs(at(x, top - 1) - v) >= minContrast && Math.abs(at(x, bottom + 1) - v) >= minContrast) contrastCols++;
-    }
-    if (contrastCols < 0.7 * len) continue;
-    // a bar sits on one ground: the rows above and below it look alike (a panel's margin does not)
-    const above: number[] = [];
-    const below: number[] = [];
-    for (let x = xa; x <= xb; x++) {
-      above.push(at(x, top - 1));
-      below.push(at(x, bottom + 1));
-    }
-    const ma = median(above);
-    const mb = median(below);
-    if (Math.abs(ma - mb) > 0.5 * Math.min(Math.abs(v - ma), Math.abs(v - mb))) continue;
-    // and the pixels beyond both ends differ from it
-    const mid = rows[n >> 1];
-    if (Math.abs(at(mid.x0 - 2, mid.y) - v) < minContrast || Math.abs(at(mid.x1 + 2, mid.y) - v) < minContrast) continue;
-    const score = len * (contrastCols / len);
-    if (!best || score > best.score || (score === best.score && top > best.rows[0].y)) best = { rows, score, v };
+  // a strict pass for clean, drawn bars; then, unless the tolerance was given, a lenient one for
+  // bars blurred by lossy compression (JPEG ringing)
+  let tol = tolFrac * range;
+  let best = searchBar(image, tol, 1, minLen, maxThick, minContrast);
+  if (!best && options.valueTolerance === undefined) {
+    tol = LENIENT_TOLERANCE * range;
+    best = searchBar(image, tol, 2, minLen, maxThick, minContrast);
   }
   if (!best) return null;
 
@@ -280,6 +218,97 @@ export function findScaleBar(image: GreyImage, options: ScaleBarOptions = {}): S
     panelBox: panel ? panel.box : null,
     stripBox,
   };
+}
+
+/** Value tolerance of the second, lenient search pass, as a fraction of the value range. */
+const LENIENT_TOLERANCE = 0.08;
+
+/** The best bar candidate: a stack of uniform runs forming a solid, thin, contrasting rectangle. */
+function searchBar(
+  image: GreyImage,
+  tol: number,
+  raggedPx: number,
+  minLen: number,
+  maxThick: number,
+  minContrast: number,
+): { rows: Run[]; score: number; v: number } | null {
+  const { width, height, data } = image;
+  const at = (x: number, y: number) => data[y * width + x];
+  // 1. uniform runs, linked into components across rows
+  const runs = uniformRuns(image, tol, minLen);
+  const parent = new Int32Array(runs.length).map((_, i) => i);
+  let prevStart = 0;
+  let prevEnd = 0;
+  for (let i = 0; i < runs.length; ) {
+    const y = runs[i].y;
+    let j = i;
+    while (j < runs.length && runs[j].y === y) j++;
+    if (prevEnd > prevStart && runs[prevStart].y === y - 1) {
+      for (let a = i; a < j; a++) {
+        for (let b = prevStart; b < prevEnd; b++) {
+          const ra = runs[a];
+          const rb = runs[b];
+          if (ra.x0 <= rb.x1 && rb.x0 <= ra.x1 && Math.abs(ra.v - rb.v) <= tol) {
+            const pa = find(parent, a);
+            const pb = find(parent, b);
+            if (pa !== pb) parent[pa] = pb;
+          }
+        }
+      }
+    }
+    prevStart = i;
+    prevEnd = j;
+    i = j;
+  }
+  const groups = new Map<number, Run[]>();
+  runs.forEach((r, i) => {
+    const root = find(parent, i);
+    const g = groups.get(root);
+    if (g) g.push(r);
+    else groups.set(root, [r]);
+  });
+
+  // 2. candidates: solid thin rectangles with contrast above and below
+  let best: { rows: Run[]; score: number; v: number } | null = null;
+  for (const rows of groups.values()) {
+    const n = rows.length;
+    if (n < 2 || n > maxThick) continue;
+    const ys = new Set(rows.map((r) => r.y));
+    if (ys.size !== n) continue; // more than one run in a row: not a solid rectangle
+    const top = rows[0].y;
+    const bottom = rows[n - 1].y;
+    if (bottom - top + 1 !== n || top < 1 || bottom > height - 2) continue;
+    const x0s = rows.map((r) => r.x0);
+    const x1s = rows.map((r) => r.x1);
+    const xa = Math.min(...x0s);
+    const xb = Math.max(...x1s);
+    if (Math.max(...x0s) - xa > raggedPx || xb - Math.min(...x1s) > raggedPx) continue; // ragged ends
+    if (xa < 2 || xb > width - 3) continue;
+    const len = xb - xa + 1;
+    if (len < 4 * n) continue;
+    const v = median(rows.map((r) => r.v));
+    let contrastCols = 0;
+    for (let x = xa; x <= xb; x++) {
+      if (Math.abs(at(x, top - 1) - v) >= minContrast && Math.abs(at(x, bottom + 1) - v) >= minContrast) contrastCols++;
+    }
+    if (contrastCols < 0.7 * len) continue;
+    // a bar sits on one ground: the rows above and below it look alike (a panel's margin does not)
+    const above: number[] = [];
+    const below: number[] = [];
+    for (let x = xa; x <= xb; x++) {
+      above.push(at(x, top - 1));
+      below.push(at(x, bottom + 1));
+    }
+    const ma = median(above);
+    const mb = median(below);
+    if (Math.abs(ma - mb) > 0.5 * Math.min(Math.abs(v - ma), Math.abs(v - mb))) continue;
+    // and the pixels beyond both ends differ from it
+    const mid = rows[n >> 1];
+    if (Math.abs(at(mid.x0 - 2, mid.y) - v) < minContrast || Math.abs(at(mid.x1 + 2, mid.y) - v) < minContrast) continue;
+    const score = len * (contrastCols / len);
+    if (!best || score > best.score || (score === best.score && top > best.rows[0].y)) best = { rows, score, v };
+  }
+  return best;
 }
 
 /** Flood fill of ground-valued pixels from the ring around the bar; null when it is too small to be a panel. */

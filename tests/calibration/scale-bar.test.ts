@@ -88,3 +88,16 @@ test('bad options are rejected by name', () => {
   expect(() => findScaleBar(img, { valueTolerance: 0.7 })).toThrow(/valueTolerance/);
   expect(() => findScaleBar(img, { minContrast: 0 })).toThrow(/minContrast/);
 });
+
+test('bars in JPEG files (quality 85): found, length within 0.5 px', async () => {
+  const { Image, encodeJpeg } = await import('image-js');
+  const { decodeImage } = await import('../../src/image/decode');
+  for (const s of SPECS.filter((x) => x.full === 255)) {
+    const img = scene(s);
+    const grey = new Image(img.width, img.height, { colorModel: 'GREY', data: Uint8Array.from(img.data) });
+    const jpeg = decodeImage(encodeJpeg(grey, { quality: 85 }), 'bar.jpg');
+    const bar = findScaleBar(jpeg);
+    expect(bar, s.layout).not.toBeNull();
+    expect(Math.abs(bar!.lengthPx - s.lengthPx)).toBeLessThan(0.5);
+  }
+});
