@@ -53,9 +53,9 @@ export interface AutoSheet {
   /** Identifier unique within one detection run. */
   id: string;
   status: SheetStatus;
-  /** Median layer count over the measurement lines. */
+  /** Layer count: the most frequent count over the measurement lines. */
   layers: number;
-  /** Median thickness (layers × period), px and nm. */
+  /** Median thickness (layers × period) over the lines that agree with the layer count, px and nm. */
   thicknessPx: number;
   thicknessNm: number | null;
   /** Median edge-to-edge distance between half-maximum crossings, px and nm. */
@@ -123,6 +123,15 @@ function median(v: number[]): number {
   return s.length % 2 ? s[m] : 0.5 * (s[m - 1] + s[m]);
 }
 
+/** Most frequent value; ties go to the largest tied value (a dropped edge layer, below the half-maximum, is the commoner error). */
+function modeCount(v: number[]): number {
+  const counts = new Map<number, number>();
+  for (const x of v) counts.set(x, (counts.get(x) ?? 0) + 1);
+  const top = Math.max(...counts.values());
+  const tied = [...counts].filter(([, c]) => c === top).map(([x]) => x).sort((a, b) => a - b);
+  return tied[tied.length - 1];
+}
+
 function inBox(x: number, y: number, box: [number, number, number, number] | null | undefined): boolean {
   return !!box && x >= box[0] && x < box[0] + box[2] && y >= box[1] && y < box[1] + box[3];
 }
@@ -138,8 +147,9 @@ function inBox(x: number, y: number, box: [number, number, number, number] | nul
  * Notes: unless periodPx is given, one layer period is estimated for the image from the summed
  * periodograms of the regions' central profiles; regions are connected pixels (on a 2-px grid) of coherence above the threshold whose
  * normals agree within the tolerance; each region gets `linesPerSheet` lines along its layers,
- * each through the region's local centre along the local normal; sheets on the lines are matched
- * by their offset along the normal, and a sheet must be seen on at least half the lines.
+ * spread over the central 70 % of its length, each through the region's local centre along the
+ * local normal; sheets on the lines are matched by their offset along the normal, a sheet must be
+ * seen on at least half the lines, and its layer count is the most frequent count.
  */
 export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): AutoSheetsResult {
   const minPeriodPx = options.minPeriodPx ?? 3;
@@ -215,9 +225,10 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
     const lineThrough = (px: number, py: number, ux: number, uy: number, half: number) => clipLine(px, py, ux, uy, half, width, height, hw);
     const periodPx = imagePeriodPx as number;
     const obs: { line: number; offset: number; s: LineSheet; ux: number; uy: number }[] = [];
-    const slab = Math.max(2, length / (2 * k));
+    const slab = Math.max(2, (0.7 * length) / (2 * k));
     for (let j = 0; j < k; j++) {
-      const ak = aMin + (length * (j + 0.5)) / k;
+      // lines spread over the central 70 % of the region (its ends are where layers fade out)
+      const ak = aMin + length * (0.15 + (0.7 * (j + 0.5)) / k);
       const angles: number[] = [];
       const weights: number[] = [];
       let bSum = 0;
@@ -279,10 +290,11 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
       if (c.length < need) continue;
       c.sort((p, q) => p.line - q.line);
       const cal = c[0].s;
-      const layers = Math.round(median(c.map((q) => q.s.layers)));
-      const thicknessPx = median(c.map((q) => q.s.thicknessPx));
-      const edgeToEdgePx = median(c.map((q) => q.s.edgeToEdgePx));
-      const periodMean = c.reduce((acc, q) => acc + q.s.periodPx, 0) / c.length;
+      const layers = modeCount(c.map((q) => q.s.layers));
+      const agree = c.filter((q) => q.s.layers === layers);
+      const thicknessPx = median(agree.map((q) => q.s.thicknessPx));
+      const edgeToEdgePx = median(agree.map((q) => q.s.edgeToEdgePx));
+      const periodMean = agree.reduce((acc, q) => acc + q.s.periodPx, 0) / agree.length;
       const nmPerPx = cal.thicknessNm !== null ? cal.thicknessNm / cal.thicknessPx : null;
       const cx = c.reduce((acc, q) => acc + q.s.centerXY[0], 0) / c.length;
       const cy = c.reduce((acc, q) => acc + q.s.centerXY[1], 0) / c.length;

@@ -20,7 +20,7 @@ export interface SheetProfileOptions {
   relBandwidth?: number;
   /** Layers are 'dark' fringes (minima, bright-field TEM; default) or 'bright' ones (maxima). */
   polarity?: 'dark' | 'bright';
-  /** A periodic run must peak above this many times the noise envelope rms (default 3.5); it extends while the envelope stays above 2/3 of that level. */
+  /** A periodic run must peak above this many times the noise envelope rms (default 3); it extends while the envelope stays above 2/3 of that level. */
   snrThreshold?: number;
   /** ... and above this fraction of the profile's largest envelope (half of it to extend; default 0.2). */
   relThreshold?: number;
@@ -239,15 +239,15 @@ function bandpassAnalytic(
   }
   // Noise envelope rms, the larger of two estimates: (a) white noise from the upper spectrum
   // away from the harmonics; (b) the smaller of the side bands next to the layer band (coloured,
-  // amorphous backgrounds have about the in-band level there) and of the envelope's 20 % quantile
-  // (Rayleigh: q20 = 0.472 rms), which is low wherever some of the profile is background.
+  // amorphous backgrounds have about the in-band level there) and of the envelope's 10 % quantile
+  // (Rayleigh: q10 = 0.325 rms), which is low wherever a tenth of the profile is background.
   // A white-noise bin's power is exponential: median = ln 2 × mean (common practice).
   const medianOf = (v: number[]) => (v.length ? v.sort((x, y) => x - y)[v.length >> 1] : 0);
   const fromBins = (perBinMedian: number) => Math.sqrt(((perBinMedian / Math.LN2) * gainSq) / (size * size));
   const white = fromBins(medianOf(upperBand));
   const side = fromBins(Math.max(medianOf(lowBand), medianOf(highBand)));
-  const q20 = Float64Array.from(envelope).sort()[Math.floor(0.2 * (n - 1))] / Math.sqrt(-Math.log(0.8));
-  const noiseRms = Math.max(white, Math.min(side, q20));
+  const q10 = Float64Array.from(envelope).sort()[Math.floor(0.1 * (n - 1))] / Math.sqrt(-Math.log(0.9));
+  const noiseRms = Math.max(white, Math.min(side, q10));
   return { filtered, envelope, noiseRms };
 }
 
@@ -291,7 +291,7 @@ export function sheetsAlongProfile(values: ArrayLike<number>, options: SheetProf
     if (!Number.isFinite(values[i])) throw new RangeError(`values[${i}] must be finite, got ${values[i]}`);
   }
   const relBandwidth = options.relBandwidth ?? 0.3;
-  const snrThreshold = options.snrThreshold ?? 3.5;
+  const snrThreshold = options.snrThreshold ?? 3;
   const relThreshold = options.relThreshold ?? 0.2;
   const splitRatio = options.splitRatio ?? 0.6;
   const spacingTolerance = options.spacingTolerance ?? 0.3;

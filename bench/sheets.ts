@@ -1,0 +1,174 @@
+/**
+ * bench:sheets — accuracy of layer counts and thickness on seeded synthetic stacks
+ * (clay tactoids in a polymer film): along drawn lines and automatic over whole images.
+ * Targets: layer count exact for ≥ 95 % of sheets of ≥ 2 layers at moderate noise; thickness
+ * within half a period; no sheets in a purely amorphous image.
+ */
+import { sheetsAlongProfile } from '../src/measure/sheets';
+import { detectSheets } from '../src/measure/sheets-auto';
+import { axialDifferenceDeg } from '../src/measure/structure-tensor';
+import { gauss, rng, syntheticImage, syntheticProfile, type ImageSheet } from '../tests/sheets/synthetic';
+
+function table(head: string[], rows: (string | number)[][]): void {
+  const cells = rows.map((r) => r.map(String));
+  const w = head.map((h, k) => Math.max(h.length, ...cells.map((r) => r[k].length)));
+  console.log(`| ${head.map((h, k) => h.padEnd(w[k])).join(' | ')} |`);
+  console.log(`|${w.map((x, k) => (k === 0 ? '-'.repeat(x + 2) : `${'-'.repeat(x + 1)}:`)).join('|')}|`);
+  for (const r of cells) console.log(`| ${r.map((c, k) => (k === 0 ? c.padEnd(w[k]) : c.padStart(w[k]))).join(' | ')} |`);
+  console.log('');
+}
+
+const pct = (a: number, b: number) => (b === 0 ? '—' : `${((100 * a) / b).toFixed(1)} %`);
+
+/** Gaussian blur of a 1D profile. */
+function blur1d(v: Float64Array, sigma: number): Float64Array {
+  if (sigma <= 0) return v;
+  const r = Math.ceil(3 * sigma);
+  const out = new Float64Array(v.length);
+  for (let i = 0; i < v.length; i++) {
+    let s = 0;
+    let w = 0;
+    for (let k = -r; k <= r; k++) {
+      const j = Math.min(v.length - 1, Math.max(0, i + k));
+      const g = Math.exp(-0.5 * (k / sigma) ** 2);
+      s += g * v[j];
+      w += g;
+    }
+    out[i] = s / w;
+  }
+  return out;
+}
+
+// ---------- A: along a line (profiles of 2 stacks with a gap) ----------
+const parts = process.argv[2] ?? 'ABC';
+const noiseLevels: [string, number][] = [
+  ['low', 0.015],
+  ['moderate', 0.03],
+  ['high', 0.06],
+];
+if (parts.includes('A')) {
+console.log('## A. Along a line: two stacks per profile, period 6–14 px, gap 1–6 periods, 8 seeds per row');
+console.log('profile noise sd relative to a layer depth of 0.3 (a 9 px wide line on an image with 3× this noise);');
+console.log('blur σ = 0.15 period on odd seeds.\n');
+const rowsA: (string | number)[][] = [];
+const summaryA = new Map<string, { n: number; exact: number; thick: number; found: number }>();
+for (const [label, noise] of noiseLevels) {
+  for (let layers = 1; layers <= 12; layers++) {
+    let n = 0;
+    let found = 0;
+    let exact = 0;
+    let thick = 0;
+    let absErr = 0;
+    for (let seed = 1; seed <= 8; seed++) {
+      const r = rng(1000 * layers + seed + 77 * noise * 1000);
+      const p = 6 + 8 * r();
+      const other = 2 + Math.floor(6 * r());
+      const gap = p * (1 + 5 * r());
+      const first = 4 * p + 10 * r();
+      const truth = [
+        { layers, periodPx: p, firstPx: first },
+        { layers: other, periodPx: p, firstPx: first + (layers - 1) * p + gap + p },
+      ];
+      const length = Math.ceil(truth[1].firstPx + other * p + 4 * p);
+      let prof = syntheticProfile(length, truth, { noise: 0, seed });
+      prof = blur1d(prof, seed % 2 ? 0.15 * p : 0);
+      const rn = rng(seed * 31 + layers);
+      prof = prof.map((v) => v + noise * gauss(rn));
+      const res = sheetsAlongProfile(prof, { minLayers: layers === 1 ? 1 : 2 });
+      n++;
+      const centre = first + ((layers - 1) * p) / 2;
+      const s = res.sheets.find((q) => Math.abs(q.centerPx - centre) < Math.max(p, (layers * p) / 3));
+      if (!s) continue;
+      found++;
+      if (s.layers === layers) exact++;
+      const err = Math.abs(s.thicknessPx - layers * p);
+      if (err < p / 2) thick++;
+      absErr += err / p;
+    }
+    rowsA.push([label, layers, n, pct(found, n), pct(exact, n), pct(thick, n), found ? (absErr / found).toFixed(3) : '—']);
+    if (layers >= 2) {
+      const s = summaryA.get(label) ?? { n: 0, exact: 0, thick: 0, found: 0 };
+      s.n += n; s.exact += exact; s.thick += thick; s.found += found;
+      summaryA.set(label, s);
+    }
+  }
+}
+table(['noise', 'layers', 'sheets', 'found', 'count exact', 'thickness < p/2', 'mean |Δt| / p'], rowsA);
+console.log('Summary, sheets of ≥ 2 layers:\n');
+table(['noise', 'sheets', 'found', 'count exact', 'thickness < p/2'],
+  [...summaryA].map(([k, s]) => [k, s.n, pct(s.found, s.n), pct(s.exact, s.n), pct(s.thick, s.n)]));
+
+}
+// ---------- B: automatic over whole images ----------
+if (parts.includes('B')) {
+console.log('## B. Automatic over 400 × 400 px images: 4 sheets each (1–12 layers, period 7–11 px, random angle, every other one bent), amorphous film, 4 images per row\n');
+const rowsB: (string | number)[][] = [];
+const imageNoise: [string, number, number][] = [
+  ['low', 0.04, 0],
+  ['moderate', 0.08, 0],
+  ['moderate + blur', 0.08, 1],
+  ['high', 0.15, 0],
+];
+for (const [label, noise, blurPx] of imageNoise) {
+  let nTrue = 0;
+  let nTrue2 = 0;
+  let found = 0;
+  let exact2 = 0;
+  let thick = 0;
+  let angleOk = 0;
+  let falseSheets = 0;
+  const t0 = performance.now();
+  for (let seed = 1; seed <= 4; seed++) {
+    const r = rng(seed * 7919);
+    const p = 7 + 4 * r();
+    const centres: [number, number][] = [[105, 105], [295, 105], [105, 295], [295, 295]];
+    const truth: ImageSheet[] = centres.map(([cx, cy], k) => ({
+      layers: 1 + Math.floor(12 * r()),
+      periodPx: p,
+      cx: cx + 10 * (r() - 0.5),
+      cy: cy + 10 * (r() - 0.5),
+      angleDeg: 180 * r(),
+      lengthPx: 110 + 30 * r(),
+      curvature: k % 2 ? 0.004 : 0,
+    }));
+    const img = syntheticImage(400, 400, truth, { noise, amorphous: 0.05, seed, blurPx });
+    const res = detectSheets(img);
+    const used = new Set<number>();
+    for (const t of truth) {
+      nTrue++;
+      if (t.layers >= 2) nTrue2++;
+      const k = res.sheets.findIndex((s, i) => !used.has(i) && Math.hypot(s.centerPx[0] - t.cx, s.centerPx[1] - t.cy) < Math.max(12, (t.layers * p) / 2));
+      if (k < 0) continue;
+      used.add(k);
+      const s = res.sheets[k];
+      found++;
+      if (t.layers >= 2 && s.layers === t.layers) exact2++;
+      if (Math.abs(s.thicknessPx - t.layers * p) < p / 2) thick++;
+      if (axialDifferenceDeg(s.angleDeg, t.angleDeg) < 5) angleOk++;
+    }
+    falseSheets += res.sheets.length - used.size;
+  }
+  const ms = (performance.now() - t0) / 4;
+  rowsB.push([label, nTrue, pct(found, nTrue), pct(exact2, nTrue2), pct(thick, nTrue), pct(angleOk, nTrue), falseSheets, ms.toFixed(0)]);
+}
+table(['image noise', 'true sheets', 'found', 'count exact (≥ 2 layers)', 'thickness < p/2', 'angle < 5°', 'false sheets', 'ms / image'], rowsB);
+
+}
+// ---------- C: amorphous images ----------
+if (parts.includes('C')) {
+console.log('## C. Purely amorphous images (no sheets): 400 × 400 px, 6 seeds\n');
+const rowsC: (string | number)[][] = [];
+for (const [label, noise] of [['amorphous film only', 0], ['film + moderate noise', 0.08], ['film + high noise', 0.15]] as [string, number][]) {
+  let sheets = 0;
+  let lineSheets = 0;
+  for (let seed = 1; seed <= 6; seed++) {
+    const img = syntheticImage(400, 400, [], { noise, amorphous: 0.05, seed: 100 + seed });
+    sheets += detectSheets(img).sheets.length;
+    // and a drawn line across the middle, 9 px wide
+    const { sheetsAlongLine } = await import('../src/measure/sheets-line');
+    lineSheets += sheetsAlongLine(img, 20, 200, 380, 200, { widthPx: 9 }).sheets.length;
+  }
+  rowsC.push([label, 6, sheets, lineSheets]);
+}
+table(['image', 'images', 'automatic sheets', 'sheets on a line'], rowsC);
+}
