@@ -37,6 +37,8 @@ export interface EncodeTiffOptions {
   description?: string;
   /** Software (tag 305), ASCII. */
   software?: string;
+  /** Deflate effort 1 (fastest) to 9 (smallest); default 6. */
+  deflateLevel?: number;
   /** Rows per strip; default: as many rows as fit in about 64 KiB, at least 1. */
   rowsPerStrip?: number;
 }
@@ -88,7 +90,24 @@ function asciiBytes(text: string, field: string): Uint8Array {
  * EOI = 257, first free code 258, code width grows one code early ("early change").
  */
 export function compressLzw(input: Uint8Array): Uint8Array {
-  const out: number[] = [];
+  return compressLzwWith(input, newLzwTables());
+}
+
+interface LzwTables {
+  codes: Uint16Array;
+  stamp: Uint32Array;
+  generation: number;
+}
+
+function newLzwTables(): LzwTables {
+  return { codes: new Uint16Array(4096 * 256), stamp: new Uint32Array(4096 * 256), generation: 0 };
+}
+
+/** LZW with caller-owned tables, so that the strips of one page share one allocation. */
+function compressLzwWith(input: Uint8Array, tables: LzwTables): Uint8Array {
+  // At most 12 bits per input byte, plus Clear codes and EOI.
+  const out = new Uint8Array(Math.ceil(input.length * 1.5) + Math.ceil(input.length / 2000) * 2 + 16);
+  let o = 0;
   let bitBuf = 0;
   let bitCount = 0;
   let width = 9;
@@ -97,11 +116,14 @@ export function compressLzw(input: Uint8Array): Uint8Array {
     bitCount += width;
     while (bitCount >= 8) {
       bitCount -= 8;
-      out.push((bitBuf >>> bitCount) & 0xff);
+      out[o++] = (bitBuf >>> bitCount) & 0xff;
     }
     bitBuf &= (1 << bitCount) - 1;
   };
-  let dict = new Map<number, number>();
+  // Table lookup by (prefix code, byte) = prefix * 256 + byte, direct-indexed; a generation
+  // stamp per slot makes a table reset O(1).
+  const { codes, stamp } = tables;
+  let generation = ++tables.generation;
   let next = 258;
   put(256);
   if (input.length > 0) {
@@ -109,16 +131,16 @@ export function compressLzw(input: Uint8Array): Uint8Array {
     for (let i = 1; i < input.length; i++) {
       const k = input[i];
       const key = w * 256 + k;
-      const found = dict.get(key);
-      if (found !== undefined) {
-        w = found;
+      if (stamp[key] === generation) {
+        w = codes[key];
         continue;
       }
       put(w);
-      dict.set(key, next++);
+      stamp[key] = generation;
+      codes[key] = next++;
       if (next === 4094) {
         put(256);
-        dict = new Map();
+        generation = ++tables.generation;
         next = 258;
         width = 9;
       } else if (next > (1 << width) - 1) {
@@ -131,8 +153,8 @@ export function compressLzw(input: Uint8Array): Uint8Array {
     if (next > (1 << width) - 1 && width < 12) width++;
   }
   put(257);
-  if (bitCount > 0) out.push((bitBuf << (8 - bitCount)) & 0xff);
-  return Uint8Array.from(out);
+  if (bitCount > 0) out[o++] = (bitBuf << (8 - bitCount)) & 0xff;
+  return out.slice(0, o);
 }
 
 function validate(o: EncodeTiffOptions): void {
@@ -150,6 +172,9 @@ function validate(o: EncodeTiffOptions): void {
   if (c !== 'none' && c !== 'deflate' && c !== 'lzw') throw new RangeError(`compression must be 'none', 'deflate' or 'lzw', got '${c}'`);
   if (o.rowsPerStrip !== undefined && (!Number.isInteger(o.rowsPerStrip) || o.rowsPerStrip < 1)) {
     throw new RangeError(`rowsPerStrip must be a positive integer, got ${o.rowsPerStrip}`);
+  }
+  if (o.deflateLevel !== undefined && (!Number.isInteger(o.deflateLevel) || o.deflateLevel < 1 || o.deflateLevel > 9)) {
+    throw new RangeError(`deflateLevel must be an integer from 1 to 9, got ${o.deflateLevel}`);
   }
   if (o.resolution) {
     const u = o.resolution.unit;
@@ -182,10 +207,11 @@ function buildPage(o: EncodeTiffOptions): PageLayout {
 
   const compression = o.compression ?? 'none';
   const strips: Uint8Array[] = [];
+  const tables = compression === 'lzw' ? newLzwTables() : null;
   for (let y = 0; y < o.height; y += rowsPerStrip) {
     const rows = Math.min(rowsPerStrip, o.height - y);
     const chunk = raw.subarray(y * rowBytes, (y + rows) * rowBytes);
-    strips.push(compression === 'deflate' ? zlibSync(chunk) : compression === 'lzw' ? compressLzw(chunk) : chunk);
+    strips.push(compression === 'deflate' ? zlibSync(chunk, { level: (o.deflateLevel ?? 6) as 6 }) : tables ? compressLzwWith(chunk, tables) : chunk);
   }
 
   const entries: Entry[] = [

@@ -99,6 +99,12 @@ describe('encodeTiff', () => {
     expect(() => toRational(0)).toThrow(/positive finite number, got 0/);
   });
 
+  test('deflateLevel trades size for speed and still reads back', () => {
+    const fast = encodeTiff({ width: W, height: H, data: samples.u16, compression: 'deflate', deflateLevel: 1 });
+    expect(Array.from(decodeTiff(fast)[0].data)).toEqual(Array.from(samples.u16));
+    expect(() => encodeTiff({ width: W, height: H, data: samples.u16, compression: 'deflate', deflateLevel: 0 })).toThrow(/deflateLevel .* got 0/);
+  });
+
   test('rejects bad arguments, naming the value', () => {
     expect(() => encodeTiff({ width: 0, height: 2, data: new Uint8Array(0) })).toThrow(/width .* got 0/);
     expect(() => encodeTiff({ width: 2, height: 2, data: new Uint8Array(3) })).toThrow(/data length 3/);
