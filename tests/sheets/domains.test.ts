@@ -1,0 +1,50 @@
+import { describe, expect, it } from 'vitest';
+import { makeGreyImage } from '../../src/image/grey-image';
+import { domainMap } from '../../src/measure/domains';
+import { axialDifferenceDeg } from '../../src/measure/structure-tensor';
+import { gauss, rng } from './synthetic';
+
+// Two lamellar grains with known truth (algorithm test): left half period 8 px, normal 20°;
+// right half period 11 px, normal 110°; white noise.
+function twoGrains(noise: number): ReturnType<typeof makeGreyImage> {
+  const w = 256;
+  const h = 192;
+  const r = rng(5);
+  const data = new Float32Array(w * h);
+  for (let y = 0; y < h; y++) {
+    for (let x = 0; x < w; x++) {
+      const [p, a] = x < 128 ? [8, 20] : [11, 110];
+      const th = (a * Math.PI) / 180;
+      data[y * w + x] = Math.cos((2 * Math.PI * (x * Math.cos(th) - y * Math.sin(th))) / p) + noise * gauss(r);
+    }
+  }
+  return makeGreyImage(w, h, data, { calibration: { nmPerPx: 0.5, source: 'manual', relUncertainty: 0.02, detail: 'test' } });
+}
+
+describe('domainMap', () => {
+  it('separates two grains by period and orientation', () => {
+    const m = domainMap(twoGrains(0.5), { tileSizePx: 48, stepPx: 24 });
+    const big = m.domains.filter((d) => d.tiles >= 4);
+    expect(big).toHaveLength(2);
+    const left = big.find((d) => d.centerPx[0] < 128)!;
+    const right = big.find((d) => d.centerPx[0] > 128)!;
+    expect(left.periodPx).toBeCloseTo(8, 1);
+    expect(right.periodPx).toBeCloseTo(11, 1);
+    expect(axialDifferenceDeg(left.angleDeg, 20)).toBeLessThan(2);
+    expect(axialDifferenceDeg(right.angleDeg, 110)).toBeLessThan(2);
+    expect(left.periodNm!).toBeCloseTo(left.periodPx * 0.5, 9);
+    expect(left.areaNm2!).toBeCloseTo(left.areaPx * 0.25, 9);
+    expect(m.labels.length).toBe(m.columns * m.rows);
+  });
+  it('marks pure noise as not periodic', () => {
+    const r = rng(9);
+    const d = new Float32Array(128 * 128).map(() => gauss(r));
+    const m = domainMap(makeGreyImage(128, 128, d));
+    expect(m.domains).toEqual([]);
+    expect(Array.from(m.labels).every((l) => l === -1)).toBe(true);
+  });
+  it('rejects bad tiles by name', () => {
+    const img = makeGreyImage(32, 32, new Float32Array(1024));
+    expect(() => domainMap(img, { tileSizePx: 64 })).toThrow(/tileSizePx/);
+  });
+});
