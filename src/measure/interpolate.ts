@@ -88,8 +88,8 @@ export function magnitudeRatioOffset(am: number, a0: number, ap: number, window:
  *
  * Parameters: pm, p0, pp, powers at bins k − 1, k, k + 1 (all > 0).
  * Returns: δ in bins, clamped to [−0.5, 0.5].
- * Notes: window-agnostic; biased for any window whose main lobe is not Gaussian (a few hundredths of
- * a bin for Tukey/Hann), so it is used only when no exact form exists.
+ * Notes: window-agnostic but biased for any window whose main lobe is not Gaussian: up to about
+ * 0.1 bin on Tukey(0.5) data (our computation), so the spectrum code uses kernelRatioOffset instead.
  * Reference: Gasior & Gonzalez, CERN-AB-2004-023 (2004), Gaussian interpolation of DFT spectra.
  */
 export function logParabolaOffset(pm: number, p0: number, pp: number): number {
@@ -100,4 +100,47 @@ export function logParabolaOffset(pm: number, p0: number, pp: number): number {
   const den = lm - 2 * l0 + lp;
   if (!(den < 0)) return 0;
   return Math.max(-0.5, Math.min(0.5, (lm - lp) / (2 * den)));
+}
+
+/** |DTFT| of a window at x bins from its centre frequency: |Σ wₙ e^(−2πixn/N)|. */
+function kernelMagnitude(w: Float64Array, x: number): number {
+  const n = w.length;
+  let re = 0;
+  let im = 0;
+  for (let k = 0; k < n; k++) {
+    const a = (-2 * Math.PI * x * k) / n;
+    re += w[k] * Math.cos(a);
+    im += w[k] * Math.sin(a);
+  }
+  return Math.hypot(re, im);
+}
+
+/**
+ * Peak offset from three DFT magnitudes under any symmetric window, by inverting the window's own
+ * kernel ratio.
+ *
+ * Parameters: am, a0, ap, magnitudes |X| at bins k − 1, k, k + 1; w, the window samples used.
+ * Returns: δ in bins, in [−0.5, 0.5].
+ * Notes: a tone δ bins above bin k gives |X(k + j)| ∝ K(j − δ), K the magnitude of the window's
+ * DTFT; the ratio K(1 − δ)/K(δ) of the larger neighbour to the middle bin rises monotonically on
+ * [0, 0.5], so δ follows by bisection. For the periodic Hann window this reduces to Grandke's closed
+ * form; for a Tukey window, where the log-parabola is biased by up to 0.11 bin (α = 0.5), it is exact
+ * up to the neglected negative-frequency image.
+ * Reference: generalises the ratio method of Grandke, IEEE Trans. Instrum. Meas. 32(2), 350–355 (1983).
+ */
+export function kernelRatioOffset(am: number, a0: number, ap: number, w: Float64Array): number {
+  if (!(a0 > 0) || w.length < 2) return 0;
+  const right = ap >= am;
+  const alpha = Math.min(1, (right ? ap : am) / a0);
+  const ratio = (d: number) => kernelMagnitude(w, 1 - d) / kernelMagnitude(w, d);
+  let lo = 0;
+  let hi = 0.5;
+  if (alpha <= ratio(0)) return 0;
+  for (let it = 0; it < 40; it++) {
+    const mid = 0.5 * (lo + hi);
+    if (ratio(mid) < alpha) lo = mid;
+    else hi = mid;
+  }
+  const d = 0.5 * (lo + hi);
+  return right ? d : -d;
 }

@@ -4,7 +4,7 @@
  */
 import type { GreyImage } from '../image/grey-image';
 import { loadCv } from '../image/cv';
-import { logParabolaOffset, magnitudeRatioOffset } from './interpolate';
+import { kernelRatioOffset, magnitudeRatioOffset } from './interpolate';
 import { frequencyCrbStd } from './period-profile';
 import { type WindowKind, windowSamples, windowVarianceFactor } from './window';
 
@@ -352,8 +352,8 @@ export function frequencyAngleDeg(fx: number, fy: number): number {
  * half-plane is searched, because the power of a real image is point-symmetric (Friedel mates).
  * Candidates are 3 × 3 local maxima; one inside another's main lobe or below its window sidelobe
  * envelope is dropped. Each spot is refined along u and v from the background-subtracted
- * magnitudes: Grandke's exact ratio forms for Hann and rectangular windows, Gaussian
- * (log-parabola) interpolation for Tukey. Uncertainty: the 2D Cramér–Rao bound with the SNR from the
+ * magnitudes: Grandke's exact ratio forms for Hann and rectangular windows, and the inversion of
+ * the window's own kernel ratio for Tukey (kernelRatioOffset). Uncertainty: the 2D Cramér–Rao bound with the SNR from the
  * spot's energy, times the window's variance factor.
  * Reference: Bonferroni threshold on an exponential periodogram, Fisher, Proc. R. Soc. A 125, 54 (1929) (from memory); interpolation: Grandke, IEEE Trans. Instrum. Meas. 32(2), 350 (1983).
  */
@@ -483,8 +483,8 @@ export function findSpots(spectrum: PowerSpectrum, options: SpotOptions = {}): S
     let du: number;
     let dv: number;
     if (window === 'tukey') {
-      du = logParabolaOffset(Math.max(at(-1, 0) - b, 1e-30), at(0, 0) - b, Math.max(at(1, 0) - b, 1e-30));
-      dv = logParabolaOffset(Math.max(at(0, -1) - b, 1e-30), at(0, 0) - b, Math.max(at(0, 1) - b, 1e-30));
+      du = kernelRatioOffset(amp(-1, 0), amp(0, 0), amp(1, 0), spectrum.windowX);
+      dv = kernelRatioOffset(amp(0, -1), amp(0, 0), amp(0, 1), spectrum.windowY);
     } else {
       du = magnitudeRatioOffset(amp(-1, 0), amp(0, 0), amp(1, 0), window);
       dv = magnitudeRatioOffset(amp(0, -1), amp(0, 0), amp(0, 1), window);

@@ -1,7 +1,8 @@
 import { describe, expect, test } from 'vitest';
 import { makeGreyImage } from '../../src/image/grey-image';
 import { lineProfile } from '../../src/measure/profile';
-import { complexPeakOffset, magnitudeRatioOffset, type Complex } from '../../src/measure/interpolate';
+import { complexPeakOffset, kernelRatioOffset, logParabolaOffset, magnitudeRatioOffset, type Complex } from '../../src/measure/interpolate';
+import { windowSamples } from '../../src/measure/window';
 import { realSpacePeriod, spectralPeriod } from '../../src/measure/period-profile';
 import { fringeImage, gaussian, manualCalibration, rng } from './synth';
 
@@ -46,6 +47,32 @@ describe('peak interpolators (reference-values §5)', () => {
     expect(maxBias((a, b, c) => complexPeakOffset(a, b, c, 'jacobsen'), true)).toBeCloseTo(0.25, 2);
     // Grandke 1983 Hann form: exact up to O(1/N²) (its derivation); well under 1e-4 bin here.
     expect(maxBias((a, b, c) => magnitudeRatioOffset(abs(a), abs(b), abs(c), 'hann'), true)).toBeLessThan(1e-4);
+  });
+});
+
+describe('window-kernel ratio interpolation', () => {
+  /** Largest error in bins for a real-valued tone 40 + δ bins, N 256, window w, with method m. */
+  function worst(w: Float64Array, m: (a: number, b: number, c: number) => number): number {
+    const n = w.length;
+    let e = 0;
+    for (let d = 0; d <= 0.5; d += 0.025) {
+      const f = 40 + d;
+      const x = Array.from({ length: n }, (_, i) => ({ re: w[i] * Math.cos((2 * Math.PI * f * i) / n), im: 0 }));
+      const mags = [39, 40, 41].map((k) => Math.hypot(bin(x, k).re, bin(x, k).im));
+      e = Math.max(e, Math.abs(40 + m(mags[0], mags[1], mags[2]) - f));
+    }
+    return e;
+  }
+  test('exact for Tukey where the log-parabola is not, and equal to Grandke for Hann', () => {
+    const tukey = windowSamples('tukey', 256, 0.5);
+    // Gaussian (log-parabola) interpolation on a Tukey(0.5) kernel: biased by about 0.1 bin (our computation).
+    expect(worst(tukey, (a, b, c) => logParabolaOffset(a * a, b * b, c * c))).toBeGreaterThan(0.05);
+    // Kernel-ratio inversion: limited only by the negative-frequency image of a real tone.
+    expect(worst(tukey, (a, b, c) => kernelRatioOffset(a, b, c, tukey))).toBeLessThan(2e-3);
+    const hann = windowSamples('hann', 256);
+    for (const [a, b, c] of [[0.2, 1, 0.6], [0.7, 1, 0.3], [0.5, 1, 0.5]]) {
+      expect(kernelRatioOffset(a, b, c, hann)).toBeCloseTo(magnitudeRatioOffset(a, b, c, 'hann'), 4);
+    }
   });
 });
 

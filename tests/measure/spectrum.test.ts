@@ -59,6 +59,21 @@ describe('spots of lattice-fringe images', () => {
     expect(m.notes.join(' ')).toMatch(/trimmed from 300 × 290 to 300 × 288/);
   });
 
+  test('every window recovers the periods of two crossed fringe sets', async () => {
+    // Synthetic truth: 6.37 px at 33° and 11.1 px at 100°, white noise.
+    const img = fringeImage(200, 180, [{ periodPx: 6.37, angleDeg: 33, amplitude: 3 }, { periodPx: 11.1, angleDeg: 100, amplitude: 2 }], 4, 3);
+    for (const window of ['hann', 'tukey', 'none'] as const) {
+      for (const refineSpots of [0, 6]) {
+        const m = await measureRegion(img, null, { window, refineSpots });
+        expect(m.periodicities.length).toBe(2);
+        for (const truth of [6.37, 11.1]) {
+          const p = m.periodicities.find((q) => Math.abs(q.periodPx - truth) < 0.2)!;
+          expect(Math.abs(p.periodPx - truth)).toBeLessThan(4 * p.uncertaintyPx);
+        }
+      }
+    }
+  });
+
   test('non-square pixels: the period in nm uses the pixel size along the fringe normal', async () => {
     // Synthetic truth: fringes along y only, 8 px period, y pixels 0.02 nm, x pixels 0.01 nm → 0.16 nm.
     const img = fringeImage(128, 128, [{ periodPx: 8, angleDeg: 90, amplitude: 5 }], 1, 9, {
