@@ -193,11 +193,13 @@ export function findScaleBar(image: GreyImage, options: ScaleBarOptions = {}): S
   const polarity = v > ground ? 'bright' : 'dark';
 
   // 5. the panel (uniform ground connected to the ring) and the label inside it
-  const panel = findPanel(image, ground, tol, xa, xb, top, bottom);
+  // the panel is flat ground: a lenient bar tolerance would let the flood leak into the picture
+  const groundTol = Math.min(tol, PANEL_TOLERANCE * range);
+  const panel = findPanel(image, ground, groundTol, xa, xb, top, bottom);
   let labelBox: Box | null = null;
   let stripBox: Box | null = null;
   if (panel) {
-    labelBox = findLabel(image, panel.mask, panel.box, ground, tol, { xa, xb, top, bottom }, Math.round((xa + xb) / 2), Math.floor(yc));
+    labelBox = findLabel(image, panel.mask, panel.box, ground, groundTol, { xa, xb, top, bottom }, Math.round((xa + xb) / 2), Math.floor(yc));
     const [px, py, pw, ph] = panel.box;
     const spansX = pw >= 0.9 * width && (py === 0 || py + ph === height);
     const spansY = ph >= 0.9 * height && (px === 0 || px + pw === width);
@@ -219,6 +221,9 @@ export function findScaleBar(image: GreyImage, options: ScaleBarOptions = {}): S
     stripBox,
   };
 }
+
+/** Largest departure from the ground value inside a panel, as a fraction of the value range. */
+const PANEL_TOLERANCE = 0.03;
 
 /** Value tolerance of the second, lenient search pass, as a fraction of the value range. */
 const LENIENT_TOLERANCE = 0.08;
@@ -360,8 +365,8 @@ function findPanel(
   const barArea = (xb - xa + 1) * (bottom - top + 1);
   if (area < 2 * barArea) return null;
   const box: Box = [minX, minY, maxX - minX + 1, maxY - minY + 1];
-  // a panel is mostly ground: a flood that leaked into the picture is not one
-  if (area < 0.5 * box[2] * box[3]) return null;
+  // a panel is mostly ground (bar and text cover little of it): a flood that leaked into the picture is not one
+  if (area < 0.7 * box[2] * box[3]) return null;
   return { mask, box };
 }
 
@@ -447,9 +452,12 @@ function findLabel(
       }
     }
   }
-  let bestLine = lines[0];
+  // a text line has some ink and some height; specks of compression noise do not
+  const textLines = lines.filter((l) => l.n >= 30 && l.y1 - l.y0 + 1 >= 6);
+  if (textLines.length === 0) return null;
+  let bestLine = textLines[0];
   let bestD = Infinity;
-  for (const l of lines) {
+  for (const l of textLines) {
     const dx = Math.max(0, bar.xa - l.x1, l.x0 - bar.xb);
     const dy = Math.max(0, bar.top - l.y1, l.y0 - bar.bottom);
     const d = Math.hypot(dx, dy);

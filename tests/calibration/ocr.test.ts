@@ -40,3 +40,17 @@ for (const s of CASES) {
     expect(Math.abs(cal.nmPerPx / (truth.nm / s.lengthPx) - 1)).toBeLessThan(0.005); // task target, bars ≥ 100 px
   });
 }
+
+test('labels survive JPEG compression (quality 75)', async () => {
+  const { Image, encodeJpeg } = await import('image-js');
+  const { decodeImage } = await import('../../src/image/decode');
+  for (const s of [CASES[4], CASES[7], { ...CASES[8], font: 'block' as const }]) {
+    const img = scene(s);
+    const grey = new Image(img.width, img.height, { colorModel: 'GREY', data: Uint8Array.from(img.data) });
+    const reading = await readScaleBar(decodeImage(encodeJpeg(grey, { quality: 75 }), 'bar.jpg'), reader);
+    const truth = parseScaleLabel(s.label)!;
+    expect(reading.label, `OCR read ${JSON.stringify(reading.ocrText)}`).not.toBeNull();
+    expect(reading.label!.nm).toBeCloseTo(truth.nm, 12);
+    expect(Math.abs(reading.bar!.lengthPx - s.lengthPx)).toBeLessThan(0.5);
+  }
+});
