@@ -546,6 +546,9 @@ function readTiff(bytes: Uint8Array, maxPixels: number, fail: Fail): Decoded {
   return { width, height, data, bitDepth: bits, sampleKind, calibration, warnings, mayBeNonFinite: sampleKind === 'float' };
 }
 
+/** Byte order of this machine (typed arrays use it). */
+const HOST_LITTLE_ENDIAN = new Uint8Array(new Uint16Array([1]).buffer)[0] === 1;
+
 /** Decompresses and joins the strips of a chunky, predictor-free TIFF into typed samples. */
 function readTiffStrips(
   bytes: Uint8Array,
@@ -578,6 +581,11 @@ function readTiffStrips(
   const n = total / (bits / 8);
   const v = new DataView(raw.buffer);
   if (bits === 8) return sampleKind === 'int' ? new Int8Array(raw.buffer) : raw;
+  if (le === HOST_LITTLE_ENDIAN) {
+    // Same byte order as this machine: view the bytes directly (raw is fresh, so aligned).
+    if (bits === 16) return sampleKind === 'int' ? new Int16Array(raw.buffer) : new Uint16Array(raw.buffer);
+    return new Float32Array(raw.buffer);
+  }
   if (bits === 16) {
     const out = sampleKind === 'int' ? new Int16Array(n) : new Uint16Array(n);
     if (sampleKind === 'int') for (let i = 0; i < n; i++) out[i] = v.getInt16(2 * i, le);

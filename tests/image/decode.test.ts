@@ -5,7 +5,7 @@ import { Image, decode as decodeRaster, encode as encodeRaster } from 'image-js'
 import { encodeTiff, encodeTiffPages } from '../../src/image/encode-tiff';
 import { encodeMrc } from '../../src/image/encode-mrc';
 import { decodeImage, detectFormat, ImageReadError, LUMA_BT709 } from '../../src/image/decode';
-import { addPngPhys, greyJpeg, lcg, renumberTiffTag, setMrcWord, setTiffTag } from './fixtures';
+import { addPngPhys, greyJpeg, lcg, renumberTiffTag, setMrcWord, setTiffTag, tiffToBigEndian } from './fixtures';
 
 const W = 48;
 const H = 32;
@@ -74,6 +74,25 @@ describe('TIFF', () => {
       }
     });
   }
+
+  // TIFF 6.0 section 2: "MM" files store every number big-endian.
+  test('big-endian ("MM") files are read, through both decoding paths', () => {
+    for (const [data, size] of [[u8, 1], [u16, 2], [f32, 4]] as const) {
+      const be = tiffToBigEndian(encodeTiff({ width: W, height: H, data, rowsPerStrip: 7, resolution: { x: 4e7, unit: 'cm' } }), size);
+      expect([be[0], be[1]]).toEqual([0x4d, 0x4d]);
+      const img = decodeImage(be, 'be.tif');
+      expect(Array.from(img.data)).toEqual(Array.from(data));
+      expect(img.calibration?.nmPerPx).toBeCloseTo(0.25, 9);
+    }
+    // PhotometricInterpretation 0 routes the file to the tiff package (big-endian value at bytes 8–9).
+    const be = tiffToBigEndian(encodeTiff({ width: W, height: H, data: u16 }), 2);
+    const v = new DataView(be.buffer);
+    const ifd = v.getUint32(4, false);
+    for (let i = 0; i < v.getUint16(ifd, false); i++) {
+      if (v.getUint16(ifd + 2 + i * 12, false) === 262) v.setUint16(ifd + 2 + i * 12 + 8, 0, false);
+    }
+    expect(Array.from(decodeImage(be, 'be.tif').data)).toEqual(Array.from(u16, (x) => 65535 - x));
+  });
 
   // TIFF 6.0 section 19: SampleFormat 2 = two's complement signed integer.
   test('signed 16-bit samples are read as signed', () => {

@@ -126,3 +126,66 @@ export function greyJpeg(blocksX: number, blocksY: number, dc: number[]): Uint8A
   out.push(0xff, 0xd9);
   return Uint8Array.from(out);
 }
+
+/**
+ * Turns an uncompressed single-page little-endian TIFF (as encodeTiff writes it) into the same
+ * image in big-endian ("MM") byte order: header, directory entries, out-of-line values and
+ * samples are all byte-swapped (TIFF 6.0 section 2).
+ */
+export function tiffToBigEndian(bytes: Uint8Array, bytesPerSample: 1 | 2 | 4): Uint8Array {
+  const src = new DataView(bytes.buffer, bytes.byteOffset, bytes.byteLength);
+  const out = bytes.slice();
+  const dst = new DataView(out.buffer);
+  out[0] = out[1] = 0x4d;
+  dst.setUint16(2, 42, false);
+  const ifd = src.getUint32(4, true);
+  dst.setUint32(4, ifd, false);
+  const n = src.getUint16(ifd, true);
+  dst.setUint16(ifd, n, false);
+  const size: Record<number, number> = { 1: 1, 2: 1, 3: 2, 4: 4, 5: 4 };
+  let stripOffsets: number[] = [];
+  let stripCounts: number[] = [];
+  const swapValues = (at: number, type: number, count: number) => {
+    const vals: number[] = [];
+    const items = type === 5 ? count * 2 : count;
+    for (let i = 0; i < items; i++) {
+      if (size[type] === 2) {
+        const v = src.getUint16(at + 2 * i, true);
+        dst.setUint16(at + 2 * i, v, false);
+        vals.push(v);
+      } else if (size[type] === 4) {
+        const v = src.getUint32(at + 4 * i, true);
+        dst.setUint32(at + 4 * i, v, false);
+        vals.push(v);
+      }
+    }
+    return vals;
+  };
+  for (let i = 0; i < n; i++) {
+    const e = ifd + 2 + i * 12;
+    const tag = src.getUint16(e, true);
+    const type = src.getUint16(e + 2, true);
+    const count = src.getUint32(e + 4, true);
+    dst.setUint16(e, tag, false);
+    dst.setUint16(e + 2, type, false);
+    dst.setUint32(e + 4, count, false);
+    const total = (type === 5 ? 8 : size[type]) * count;
+    let vals: number[];
+    if (total <= 4) {
+      out.set(bytes.subarray(e + 8, e + 12), e + 8);
+      vals = swapValues(e + 8, type, count);
+    } else {
+      const at = src.getUint32(e + 8, true);
+      dst.setUint32(e + 8, at, false);
+      vals = swapValues(at, type, count);
+    }
+    if (tag === 273) stripOffsets = vals;
+    if (tag === 279) stripCounts = vals;
+  }
+  stripOffsets.forEach((at, s) => {
+    for (let k = 0; k < stripCounts[s]; k += bytesPerSample) {
+      for (let b = 0; b < bytesPerSample; b++) out[at + k + b] = bytes[at + k + bytesPerSample - 1 - b];
+    }
+  });
+  return out;
+}
