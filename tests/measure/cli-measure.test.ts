@@ -56,7 +56,7 @@ describe('stratameter measure', () => {
     expect(c.out.join('')).toBe('');
   });
 
-  test('helpers: region parsing and rounding of d ± u', () => {
+  test('region parsing and rounding of d ± u', () => {
     expect(parseRegion('1,2,30,40')).toEqual({ x: 1, y: 2, width: 30, height: 40 });
     expect(() => parseRegion('1,2,3')).toThrow(/four non-negative integers/);
     // Rounding to two significant digits of u (GUM 7.2.6 practice).
