@@ -9,6 +9,8 @@ import { manualCalibration, typedCalibration } from '../src/calibration/manual';
 import { calibrateFromStandard, LATTICE_STANDARDS } from '../src/calibration/standards';
 import { compareCalibrations } from '../src/calibration/compare';
 import type { TextReader } from '../src/calibration/ocr';
+import { makeProfile, matchProfile } from '../src/calibration/profiles';
+import { listCalibrationProfiles, putCalibrationProfile, type LibraryDb } from '../src/store/library';
 import { controlStyles } from './styles';
 
 export const panelLabel = 'Calibration';
@@ -26,13 +28,18 @@ const pct = (v: number) => `${sig(100 * v, 2)} %`;
 
 /**
  * `<strata-calibration-panel>`. Properties: `image` (GreyImage | null), `line` (the last line
- * drawn in the viewer, image px, or null). Events: `calibration-changed` {calibration},
+ * drawn in the viewer, image px, or null), `db` (the local library, for instrument profiles). Events: `calibration-changed` {calibration},
  * `overlay-shapes` {shapes}, `status-message` {text, kind}.
  */
 export class StrataCalibrationPanel extends LitElement {
   static override properties = {
     image: { attribute: false },
     line: { attribute: false },
+    db: { attribute: false },
+    instrument: { state: true },
+    magnification: { state: true },
+    camera: { state: true },
+    binning: { state: true },
     bar: { state: true },
     labelText: { state: true },
     ocrNote: { state: true },
@@ -62,6 +69,11 @@ export class StrataCalibrationPanel extends LitElement {
 
   image: GreyImage | null = null;
   line: LineDetail | null = null;
+  db: LibraryDb | null = null;
+  instrument = '';
+  magnification = '';
+  camera = '';
+  binning = '1';
   bar: ScaleBar | null = null;
   labelText = '';
   ocrNote = '';
@@ -189,6 +201,36 @@ export class StrataCalibrationPanel extends LitElement {
     }
   }
 
+  private setting() {
+    const magnification = Number(this.magnification);
+    const binning = Number(this.binning || '1');
+    return { instrument: this.instrument, magnification, camera: this.camera, binning };
+  }
+
+  private async saveProfile(): Promise<void> {
+    try {
+      if (!this.db) throw new Error('the local library is not available');
+      const cal = this.image?.calibration;
+      if (!cal) throw new Error('set a pixel size for this image first');
+      const profile = makeProfile({ id: crypto.randomUUID(), setting: this.setting(), calibration: cal, createdIso: new Date().toISOString() });
+      await putCalibrationProfile(this.db, profile);
+      this.say(`Profile saved: ${profile.name}`);
+    } catch (e) {
+      this.say((e as Error).message, 'error');
+    }
+  }
+
+  private async useProfile(): Promise<void> {
+    try {
+      if (!this.db) throw new Error('the local library is not available');
+      const m = matchProfile(await listCalibrationProfiles(this.db), this.setting());
+      if (!m) throw new Error('no saved profile for this instrument, camera and magnification');
+      this.candidate = m.calibration;
+    } catch (e) {
+      this.say((e as Error).message, 'error');
+    }
+  }
+
   private apply(): void {
     if (!this.candidate) return;
     this.emit('calibration-changed', { calibration: this.candidate });
@@ -238,6 +280,21 @@ export class StrataCalibrationPanel extends LitElement {
       <section>
         <h3>Typed value</h3>
         <div class="row">${input(this.typedNmPerPx, (s) => (this.typedNmPerPx = s), 'nm/px')}${input(this.typedRelPct, (s) => (this.typedRelPct = s), '± %')}<button @click=${this.fromTyped}>Compute</button></div>
+      </section>
+      <section>
+        <h3>Instrument profile</h3>
+        <div class="row">
+          ${input(this.instrument, (v) => (this.instrument = v), 'Instrument', 'text')}
+          ${input(this.magnification, (v) => (this.magnification = v), 'Magnification')}
+        </div>
+        <div class="row">
+          ${input(this.camera, (v) => (this.camera = v), 'Camera', 'text')}
+          ${input(this.binning, (v) => (this.binning = v), 'Binning')}
+        </div>
+        <div class="row">
+          <button ?disabled=${!this.db || !cur} @click=${this.saveProfile}>Save the pixel size in use</button>
+          <button ?disabled=${!this.db} @click=${this.useProfile}>Use the saved profile</button>
+        </div>
       </section>
       ${cand
         ? html`<section>
