@@ -71,7 +71,7 @@ export interface IndexedSeries {
   members: SeriesMember[];
   /** Cell: lamellar period, hexagonal a₀, or cubic a, in nm (weighted least squares over members). */
   cellNm: number;
-  /** Standard uncertainty of cellNm (from the peaks' σ, or from the scatter when none is given). */
+  /** Standard uncertainty of cellNm: from the peaks' σ (× the Birge ratio when the members scatter more), or from the scatter when no σ is given. */
   cellUncNm: number;
   /** RMS of the relative residuals. */
   rmsResidual: number;
@@ -176,11 +176,18 @@ export function indexSeries(peaks: SeriesPeak[], options: IndexSeriesOptions = {
         cellUnc = Math.sqrt(cells.reduce((a, c) => a + (c - mean) ** 2, 0) / Math.max(1, cells.length - 1) / cells.length);
       }
       let ss = 0;
-      for (const m of members) {
+      let chi2 = 0;
+      members.forEach((m, q) => {
         m.dCalcNm = dOf(kind, cell, nOf(m.index));
         m.residual = m.dNm / m.dCalcNm - 1;
         ss += m.residual ** 2;
-      }
+        const n = nOf(m.index);
+        const factor = kind === 'hexagonal' ? (2 * Math.sqrt(n)) / Math.sqrt(3) : Math.sqrt(n);
+        const sc = (peaks[m.peak].dUncNm ?? 0) * factor;
+        if (sc > 0) chi2 += ((cells[q] - cell) / sc) ** 2;
+      });
+      // members that scatter more than their σ allow: inflate by the Birge ratio √(χ²/(n−1))
+      if (haveSigma && members.length > 1) cellUnc *= Math.max(1, Math.sqrt(chi2 / (members.length - 1)));
       const s: IndexedSeries = { kind, members, cellNm: cell, cellUncNm: cellUnc, rmsResidual: Math.sqrt(ss / members.length), missing };
       const strength = members.reduce((a, m) => a + (peaks[m.peak].intensity ?? 0), 0);
       const score = members.length * 1e12 + Math.min(strength, 1e11);
