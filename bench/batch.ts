@@ -89,34 +89,41 @@ async function main(): Promise<void> {
     console.log('recipe: metadata calibration, whole image, spectrum top 3, period range 0.5–3 nm; no figures\n');
     // Runs alternate 1, 2, 1, 2 … workers; the best rate of each counts, so that other work on a
     // shared machine disturbs the comparison less.
-    interface Best { rate: number; out: Awaited<ReturnType<typeof runBatch>> }
+    interface Best { rate: number; cpuPerImage: number; out: Awaited<ReturnType<typeof runBatch>> }
     const best = new Map<number, Best>();
     const allRates = new Map<number, number[]>();
+    const cpuAll = new Map<number, number[]>();
     for (let rep = 0; rep < repeats; rep++) {
       for (const jobs of [1, 2]) {
+        const cpu0 = process.cpuUsage();
         const out = await runBatch(
           { folder: dir, recipe, outCsv: join(dir, `out-${jobs}-${rep}`, 'results.csv'), jobs, measureRetained: true },
           { out: () => {}, err: () => {} },
         );
+        const cpu = process.cpuUsage(cpu0);
+        // CPU time of the whole process (all threads), start-up included, per processed image
+        const cpuPerImage = (cpu.user + cpu.system) / 1e6 / out.processed;
         const rate = out.processed / (out.seconds - out.startupSeconds);
+        cpuAll.set(jobs, [...(cpuAll.get(jobs) ?? []), cpuPerImage]);
         allRates.set(jobs, [...(allRates.get(jobs) ?? []), rate]);
-        if (rate > (best.get(jobs)?.rate ?? 0)) best.set(jobs, { rate, out });
+        if (rate > (best.get(jobs)?.rate ?? 0)) best.set(jobs, { rate, cpuPerImage, out });
         console.error(`  run ${rep + 1}/${repeats}, ${jobs} worker(s): ${rate.toFixed(3)} images/s (load ${loadavg()[0].toFixed(1)})`);
       }
     }
     const base = best.get(1)!.rate;
-    console.log('| workers | files | ok | with a period | wall s (best run) | start-up s | images/s, each run | images/s, best | speed-up (best) | peak MiB per worker | retained MiB after 3rd file → after last | files per worker |');
-    console.log('|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|');
+    console.log('| workers | files | ok | with a period | wall s (best run) | start-up s | images/s, each run | images/s, best | speed-up (best) | CPU s per image, each run | peak MiB per worker | retained MiB after 3rd file → after last | files per worker |');
+    console.log('|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|');
     for (const jobs of [1, 2]) {
       const { rate, out } = best.get(jobs)!;
       const ok = out.results.filter((r) => r.status === 'ok').length;
       const found = out.results.filter((r) => r.summary.topPeriods.length > 0).length;
       const retained = out.workerRetainedBytes.map((r) => `${mib(r.afterThird)} → ${mib(r.afterLast)}`).join(' / ');
       console.log(
-        `| ${jobs} | ${out.processed} | ${ok} | ${found} | ${out.seconds.toFixed(1)} | ${out.startupSeconds.toFixed(1)} | ${allRates.get(jobs)!.map((r) => r.toFixed(2)).join(', ')} | ${rate.toFixed(2)} | ${(rate / base).toFixed(2)}× | ${out.workerPeakBytes.map(mib).join(' / ')} | ${retained} | ${out.workerFiles.join(' / ')} |`,
+        `| ${jobs} | ${out.processed} | ${ok} | ${found} | ${out.seconds.toFixed(1)} | ${out.startupSeconds.toFixed(1)} | ${allRates.get(jobs)!.map((r) => r.toFixed(2)).join(', ')} | ${rate.toFixed(2)} | ${(rate / base).toFixed(2)}× | ${cpuAll.get(jobs)!.map((c) => c.toFixed(2)).join(', ')} | ${out.workerPeakBytes.map(mib).join(' / ')} | ${retained} | ${out.workerFiles.join(' / ')} |`,
       );
     }
     console.log(`\nload average at the end: ${loadavg().map((l) => l.toFixed(1)).join(' ')} (other processes on the machine lower the speed-up)`);
+    console.log('CPU s per image: user + system time of the whole process (all worker threads, start-up included) per image; equal for 1 and 2 workers means the work parallelises without overhead, so on an otherwise idle 2-core machine the speed-up approaches 2×.');
     console.log('Peak: V8 heap total + external (incl. the opencv.js wasm heap) of each worker isolate, sampled after every file.');
     console.log('Retained: heap used + external after a forced full garbage collection; equal after the 3rd and the last file means no growth with the number of files.');
   } finally {
