@@ -74,6 +74,19 @@ describe('spots of lattice-fringe images', () => {
     }
   });
 
+  test('angle convention: counter-clockwise from +x with y up the screen', async () => {
+    // Convention of the Measurement type: fringes whose grey value changes along x − row vary towards
+    // the upper right of the screen (row 0 is the top line), so their normal is at 45°; x + row gives 135°.
+    for (const [sign, expected] of [[-1, 45], [1, 135]] as const) {
+      const w = 128;
+      const data = new Float32Array(w * w);
+      for (let row = 0; row < w; row++) for (let x = 0; x < w; x++) data[row * w + x] = Math.cos((2 * Math.PI * (x + sign * row)) / (8 * Math.SQRT2));
+      const m = await measureRegion(makeGreyImage(w, w, data), null);
+      expect(m.periodicities[0].angleDeg).toBeCloseTo(expected, 3);
+      expect(m.periodicities[0].periodPx).toBeCloseTo(8, 3);
+    }
+  });
+
   test('non-square pixels: the period in nm uses the pixel size along the fringe normal', async () => {
     // Synthetic truth: fringes along y only, 8 px period, y pixels 0.02 nm, x pixels 0.01 nm → 0.16 nm.
     const img = fringeImage(128, 128, [{ periodPx: 8, angleDeg: 90, amplitude: 5 }], 1, 9, {
