@@ -226,7 +226,11 @@ function handleNonFinite(data: Float32Array, policy: NonFinitePolicy, warnings: 
   warnings.push(`${bad} NaN or infinite pixels were replaced by the median of the finite pixels (${median})`);
 }
 
-/** Grey from interleaved samples: channel 0 if spp < 3 or R = G = B everywhere, else BT.709 luma. */
+/**
+ * Grey from interleaved samples (spp per pixel). Grey files (colour false) give channel 0; colour
+ * files give channel 0 when R = G = B everywhere, else BT.709 luma. With hasAlpha, the last
+ * sample is alpha, counted for the warning and otherwise ignored.
+ */
 function toGrey(
   samples: ArrayLike<number>,
   pixels: number,
@@ -234,6 +238,7 @@ function toGrey(
   warnings: string[],
   hasAlpha: boolean,
   alphaMax: number,
+  colour = spp >= 3,
 ): Float32Array {
   const out = new Float32Array(pixels);
   if (spp === 1) {
@@ -245,8 +250,8 @@ function toGrey(
     const a = spp - 1;
     for (let i = 0; i < pixels; i++) if (samples[i * spp + a] !== alphaMax) transparent++;
   }
-  if (spp === 2) {
-    for (let i = 0; i < pixels; i++) out[i] = samples[i * 2];
+  if (!colour) {
+    for (let i = 0; i < pixels; i++) out[i] = samples[i * spp];
   } else {
     let equal = true;
     for (let i = 0; i < pixels && equal; i++) {
@@ -530,8 +535,10 @@ function readTiff(bytes: Uint8Array, maxPixels: number, fail: Fail): Decoded {
   }
   if (photometric === 0) warnings.push('WhiteIsZero TIFF: values inverted so that larger is brighter');
   const extra = h.numbers(entries.get(T.extraSamples));
+  // ExtraSamples (tag 338) 1 or 2 = associated or unassociated alpha; a 4th RGB or 2nd grey sample without the tag is taken as alpha too.
   const hasAlpha = (photometric === 2 && spp === 4) || (photometric < 2 && spp === 2) || extra.some((x) => x === 1 || x === 2);
-  const data = toGrey(samples, pixels, photometric === 2 ? spp : Math.min(spp, 2), warnings, hasAlpha, sampleKind === 'uint' ? 2 ** bits - 1 : NaN);
+  if (photometric < 2 && spp > 1) warnings.push(`grey TIFF with ${spp} samples per pixel: read the first`);
+  const data = toGrey(samples, pixels, spp, warnings, hasAlpha, sampleKind === 'uint' ? 2 ** bits - 1 : NaN, photometric === 2);
 
   // Calibration: XResolution/YResolution (pixels per ResolutionUnit; unit default 2 = inch).
   let calibration: Calibration | null = null;

@@ -131,6 +131,14 @@ describe('TIFF', () => {
     expect(img.warnings.join()).toMatch(/alpha channel ignored \(1 pixels/);
   });
 
+  test('a grey file with extra samples gives the first sample of each pixel', () => {
+    // 3 samples per pixel under PhotometricInterpretation 1 (BlackIsZero): grey plus 2 extra.
+    const bytes = setTiffTag(encodeTiff({ width: 2, height: 1, data: Uint8Array.from([10, 1, 2, 20, 3, 4]), samplesPerPixel: 3 }), 262, 1);
+    const img = decodeImage(bytes, 'x.tif');
+    expect(Array.from(img.data)).toEqual([10, 20]);
+    expect(img.warnings.join()).toMatch(/3 samples per pixel: read the first/);
+  });
+
   test('a multi-page file gives page 1 and a warning', () => {
     const bytes = encodeTiffPages([
       { width: W, height: H, data: u8 },
