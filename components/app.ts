@@ -261,6 +261,8 @@ export class StrataApp extends LitElement {
         void this.refreshStorage();
       }
       if (record?.calibration && !image.calibration) image.calibration = record.calibration;
+      // From the start screen, go straight to measuring: the first panel after the library.
+      if (!this.image && this.activeTab === 'library' && this.tabs.length > 1) this.activeTab = this.tabs[0].id;
       this.levels = levels;
       this.histogram = histogram;
       this.image = image;

@@ -47,17 +47,18 @@ export interface Histogram {
  *
  * @param image the image (a pyramid level is enough for display)
  * @param bins number of bins (default 1024)
- * @returns the histogram; non-finite values are skipped. Integer images whose range is narrower
- * than `bins` get one bin per value (the last bin's upper edge is max + 1).
+ * @returns the histogram; non-finite values are skipped. Integer images get bins a whole number
+ * of grey values wide (at most `bins` of them; the last bin's upper edge may pass max).
  */
 export function histogram(image: GreyImage, bins = 1024): Histogram {
   if (!Number.isInteger(bins) || bins < 2) throw new RangeError(`bins must be an integer ≥ 2, got ${bins}`);
   const { min, data } = image;
   let max = image.max;
-  // Whole-number samples: one bin per value when they fit, so no bin is empty by construction.
-  if (image.sampleKind !== 'float' && Number.isInteger(min) && Number.isInteger(max) && max - min + 1 <= bins) {
-    bins = max - min + 1;
-    max += 1;
+  // Whole-number samples: bins a whole number of values wide, so no bin is empty by construction.
+  if (image.sampleKind !== 'float' && Number.isInteger(min) && Number.isInteger(max)) {
+    const perBin = Math.ceil((max - min + 1) / bins);
+    bins = Math.ceil((max - min + 1) / perBin);
+    max = min + bins * perBin;
   }
   const counts = new Uint32Array(bins);
   const span = max - min;

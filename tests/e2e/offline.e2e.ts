@@ -66,6 +66,21 @@ test('first visit: the service worker installs, precaches opencv.js and takes co
   }
 });
 
+test('the web app manifest makes the app installable: standalone, with its icons served', async () => {
+  const manifest = await s.page.evaluate(async () => {
+    const href = document.querySelector('link[rel="manifest"]')!.getAttribute('href')!;
+    const m = await (await fetch(href)).json();
+    const icons = await Promise.all(m.icons.map(async (i: { src: string }) => (await fetch(i.src)).status));
+    return { ...m, iconStatus: icons };
+  });
+  // Installability needs a name, a start URL, a standalone display and 192 and 512 px icons (common practice, from memory of Chromium's criteria).
+  expect(manifest.name).toBe('Stratameter');
+  expect(manifest.display).toBe('standalone');
+  expect(manifest.start_url).toBeTruthy();
+  expect(manifest.icons.map((i: { sizes: string }) => i.sizes)).toEqual(expect.arrayContaining(['192x192', '512x512']));
+  expect(manifest.iconStatus.every((st: number) => st === 200)).toBe(true);
+});
+
 test('offline: a demo micrograph opens, is drawn, is stored, and the measuring engine loads', async () => {
   await s.context.setOffline(true);
   await s.page.reload();
@@ -79,6 +94,7 @@ test('offline: a demo micrograph opens, is drawn, is stored, and the measuring e
   expect(stats.image).toBeGreaterThan(stats.pixels * 0.2);
   expect(stats.distinct).toBeGreaterThan(16);
   expect(stats.sd).toBeGreaterThan(10);
+  await s.page.locator('strata-app [role="tab"]', { hasText: 'Library' }).click();
   await expect.poll(() => s.page.locator('strata-library li').count()).toBe(1);
   expect(await s.page.locator('strata-app .message').textContent()).toMatch(/Kept in the library/);
   // opencv.js (about 11 MB) starts in the compute worker from the precache.

@@ -131,6 +131,7 @@ test('line and rectangle tools report image-pixel coordinates; the scale bar and
 });
 
 test('the library asks before deleting, and export then import brings the images back', async () => {
+  await s.page.locator('strata-app [role="tab"]', { hasText: 'Library' }).click();
   const items = s.page.locator('strata-library li');
   await expect.poll(() => items.count()).toBe(2);
   const big = items.filter({ hasText: 'fringes-8192x8192.tif' });
