@@ -274,6 +274,14 @@ describe('PNG', () => {
     expect(Array.from(b.data)).toEqual(Array.from(u16));
   });
 
+  // PNG specification section 8.2: Adam7 interlacing (IHDR interlace method 1).
+  test('an Adam7-interlaced 16-bit PNG is read exactly', () => {
+    const data = Uint16Array.from({ length: 37 * 23 }, (_, i) => i * 31);
+    const bytes = encodePng({ width: 37, height: 23, data, depth: 16, channels: 1 }, { interlace: 'Adam7' });
+    expect(bytes[28]).toBe(1);
+    expect(Array.from(decodeImage(bytes, 'i.png').data)).toEqual(Array.from(data));
+  });
+
   test('grey + alpha, RGB, RGBA and palette give grey', () => {
     const ga = decodeImage(png({ width: 2, height: 1, channels: 2, data: Uint8Array.from([9, 255, 200, 255]) }), 'a.png');
     expect(Array.from(ga.data)).toEqual([9, 200]);
