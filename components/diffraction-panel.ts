@@ -1,0 +1,330 @@
+// The diffraction side panel: a powder XRD / SAXS pattern (file or typed peaks), its background
+// and fitted peaks on a 2θ, d or q axis, the peak table, and the micrograph periods drawn as
+// markers with uncertainty bands beside the reconciliation table.
+import { LitElement, css, html, nothing, svg, type TemplateResult } from 'lit';
+import { analysePattern, type PatternAnalysis } from '../src/diffraction/analyse';
+import { dToTwoTheta, parseWavelength, XRAY_LINES } from '../src/diffraction/bragg';
+import { parsePattern, parsePeakList, type ManualPeak, type Pattern, type PeakListUnit } from '../src/diffraction/pattern';
+import { reconcile, type DiffractionLine, type MicrographPeriod, type Reconciliation } from '../src/diffraction/reconcile';
+import { indexSeries, type IndexedSeries } from '../src/diffraction/series';
+import { niceTicks } from './plot-line';
+import { controlStyles } from './styles';
+
+export const panelLabel = 'Diffraction';
+
+type AxisView = '2theta' | 'd' | 'q';
+
+/** What `diffraction-set-save` carries: everything needed to show the set again. */
+export interface DiffractionSetDetail {
+  fileName: string | null;
+  patternText: string | null;
+  wavelengthNm: number | null;
+  ka2Nm: number | null;
+  peaks: Array<{ twoThetaDeg: number | null; dNm: number; dUncNm: number; qInvNm: number; fwhmDeg: number | null; intensity: number | null; crystalliteNm: number | null }>;
+  series: IndexedSeries[];
+  reconciliation: Reconciliation | null;
+  createdIso: string;
+}
+
+const f = (v: number | null | undefined, d = 4) => (v === null || v === undefined || !Number.isFinite(v) ? '—' : v.toFixed(d));
+
+/**
+ * `<strata-diffraction-panel>`. Properties: `periods` (micrograph periods with uncertainties,
+ * `{ periodNm, uncertaintyNm, label? }[]`), `calibrationRelUncertainty` (the pixel size's share
+ * of those uncertainties, optional). Events: `diffraction-set-save` (DiffractionSetDetail),
+ * `status-message` {text, kind}. The fit runs on the main thread (a few seconds for 4000 points).
+ */
+export class StrataDiffractionPanel extends LitElement {
+  static override properties = {
+    periods: { attribute: false },
+    calibrationRelUncertainty: { attribute: false },
+    wavelengthKey: { state: true },
+    customWavelength: { state: true },
+    axisView: { state: true },
+    logY: { state: true },
+    analysis: { state: true },
+    manual: { state: true },
+    manualUnit: { state: true },
+    error: { state: true },
+    busy: { state: true },
+  };
+
+  static override styles = [
+    controlStyles,
+    css`
+      :host { display: block; padding: 10px 12px; font-size: 13px; }
+      section { border-bottom: 1px solid var(--line); padding: 8px 0 10px; }
+      h3 { margin: 0 0 6px; font-size: 13px; font-weight: 600; }
+      .row { display: flex; flex-wrap: wrap; gap: 6px; align-items: center; margin: 4px 0; }
+      table { border-collapse: collapse; width: 100%; font-variant-numeric: tabular-nums; }
+      th, td { padding: 2px 4px; text-align: right; border-bottom: 1px solid var(--line); }
+      th:first-child, td:first-child { text-align: left; }
+      textarea { width: 100%; box-sizing: border-box; font: inherit; color: var(--text); background: #212b35; border: 1px solid var(--line); }
+      .error { color: #f08a7a; }
+      svg.xrd { display: block; width: 100%; background: #0d1115; border: 1px solid var(--line); border-radius: 3px; }
+      svg.xrd .axis { stroke: #5d6b78; fill: none; }
+      svg.xrd .grid { stroke: #27313b; }
+      svg.xrd text { fill: #a9b6c2; font-size: 10px; }
+      svg.xrd .data { stroke: #9fd3e6; stroke-width: 1; fill: none; }
+      svg.xrd .bg { stroke: #7c8a97; stroke-width: 1; stroke-dasharray: 4 3; fill: none; }
+      svg.xrd .model { stroke: #f0c05a; stroke-width: 1; fill: none; }
+      svg.xrd .peak { stroke: #f0c05a; stroke-width: 1; }
+      svg.xrd .band { fill: #7fd18b; fill-opacity: 0.18; }
+      svg.xrd .period { stroke: #7fd18b; stroke-width: 1.5; }
+      td.good { color: #7fd18b; }
+      td.warn { color: #f0c05a; }
+    `,
+  ];
+
+  periods: MicrographPeriod[] = [];
+  calibrationRelUncertainty: number | undefined = undefined;
+  wavelengthKey = 'header';
+  customWavelength = '';
+  axisView: AxisView = '2theta';
+  logY = false;
+  analysis: PatternAnalysis | null = null;
+  manual: ManualPeak[] = [];
+  manualUnit: PeakListUnit = 'dNm';
+  error = '';
+  busy = false;
+  private pattern: Pattern | null = null;
+  private patternText: string | null = null;
+  private fileName: string | null = null;
+
+  private emit(type: string, detail: unknown): void {
+    this.dispatchEvent(new CustomEvent(type, { detail, bubbles: true, composed: true }));
+  }
+
+  private wavelengthOption(): string | undefined {
+    if (this.wavelengthKey === 'header') return undefined;
+    if (this.wavelengthKey === 'custom') return this.customWavelength.trim() || undefined;
+    return this.wavelengthKey;
+  }
+
+  private async onFile(e: Event): Promise<void> {
+    const input = e.target as HTMLInputElement;
+    const file = input.files?.[0];
+    if (!file) return;
+    this.patternText = await file.text();
+    this.fileName = file.name;
+    this.analyse();
+  }
+
+  private analyse(): void {
+    if (this.patternText === null) return;
+    this.error = '';
+    this.busy = true;
+    // let the busy state paint before the fit
+    setTimeout(() => {
+      try {
+        this.pattern = parsePattern(this.patternText!, { wavelength: this.wavelengthOption() });
+        if (this.pattern.axis === 'twoTheta' && this.pattern.wavelengthNm === null) throw new Error('no wavelength in the file: choose one');
+        this.analysis = analysePattern(this.pattern);
+        this.manual = [];
+        this.emit('status-message', { text: `${this.fileName}: ${this.analysis.peaks.length} peaks fitted`, kind: 'info' });
+      } catch (err) {
+        this.analysis = null;
+        this.error = (err as Error).message;
+      } finally {
+        this.busy = false;
+      }
+    }, 0);
+  }
+
+  private onManual(text: string): void {
+    this.error = '';
+    if (!text.trim()) {
+      this.manual = [];
+      return;
+    }
+    try {
+      const w = this.wavelengthOption();
+      this.manual = parsePeakList(text, this.manualUnit, w ? parseWavelength(w).wavelengthNm : undefined);
+    } catch (err) {
+      this.error = (err as Error).message;
+    }
+  }
+
+  /** Diffraction lines from the fit or the typed list, with series labels. */
+  private lines(): { lines: DiffractionLine[]; series: IndexedSeries[] } {
+    if (this.analysis) {
+      const label = new Map<number, string>();
+      for (const s of this.analysis.series) for (const m of s.members) label.set(m.peak, s.kind === 'lamellar' ? m.index : `${s.kind} ${m.index}`);
+      return {
+        lines: this.analysis.peaks.map((p, i) => ({ dNm: p.dNm, dUncNm: p.dUncNm, label: label.get(i) ?? `d ${p.dNm.toFixed(4)}`, crystalliteNm: p.crystalliteNm, intensity: p.intensity })),
+        series: this.analysis.series,
+      };
+    }
+    const series = indexSeries(this.manual.map((m) => ({ dNm: m.dNm })));
+    return { lines: this.manual.map((m, i) => ({ dNm: m.dNm, dUncNm: 0, label: `typed ${i + 1}` })), series };
+  }
+
+  private reconciliation(): Reconciliation | null {
+    const ok = (this.periods ?? []).filter((p) => p.periodNm > 0 && p.uncertaintyNm >= 0);
+    if (ok.length === 0) return null;
+    const { lines, series } = this.lines();
+    if (lines.length === 0) return null;
+    return reconcile({ periods: ok, calibrationRelUncertainty: this.calibrationRelUncertainty }, { lines, series });
+  }
+
+  private save(): void {
+    const a = this.analysis;
+    const detail: DiffractionSetDetail = {
+      fileName: this.fileName,
+      patternText: a ? this.patternText : null,
+      wavelengthNm: a?.wavelengthNm ?? null,
+      ka2Nm: a?.ka2Nm ?? null,
+      peaks: a
+        ? a.peaks.map((p) => ({ twoThetaDeg: p.twoThetaDeg, dNm: p.dNm, dUncNm: p.dUncNm, qInvNm: p.qInvNm, fwhmDeg: p.fwhmDeg, intensity: p.intensity, crystalliteNm: p.crystalliteNm }))
+        : this.manual.map((m) => ({ twoThetaDeg: m.twoThetaDeg, dNm: m.dNm, dUncNm: 0, qInvNm: m.qInvNm, fwhmDeg: null, intensity: null, crystalliteNm: null })),
+      series: this.lines().series,
+      reconciliation: this.reconciliation(),
+      createdIso: new Date().toISOString(),
+    };
+    this.emit('diffraction-set-save', detail);
+  }
+
+  /** Maps a d-spacing (nm) to the current axis; null when not representable. */
+  private xOfD(dNm: number): number | null {
+    if (this.axisView === 'd') return dNm;
+    if (this.axisView === 'q') return (2 * Math.PI) / dNm;
+    const lambda = this.pattern?.wavelengthNm ?? (this.wavelengthOption() ? parseWavelength(this.wavelengthOption()!).wavelengthNm : null);
+    if (!lambda || lambda / (2 * dNm) > 1) return null;
+    return dToTwoTheta(dNm, lambda);
+  }
+
+  private plot(): TemplateResult | typeof nothing {
+    const p = this.pattern;
+    const a = this.analysis;
+    const W = 640;
+    const H = 260;
+    const L = 52;
+    const R = 10;
+    const T = 10;
+    const B = 30;
+    const xsD: number[] = [];
+    let curves: Array<{ cls: string; ys: ArrayLike<number> }> = [];
+    if (p && a) {
+      for (let i = 0; i < p.x.length; i++) xsD.push(p.axis === 'q' ? (2 * Math.PI) / p.x[i] : p.wavelengthNm! / (2 * Math.sin((p.x[i] * Math.PI) / 360)));
+      curves = [{ cls: 'data', ys: p.y }, { cls: 'bg', ys: a.background }, { cls: 'model', ys: a.model }];
+    }
+    const peakDs = a ? a.peaks.map((q) => q.dNm) : this.manual.map((m) => m.dNm);
+    const periodXs = (this.periods ?? []).map((q) => ({ c: this.xOfD(q.periodNm), lo: this.xOfD(q.periodNm + q.uncertaintyNm), hi: this.xOfD(Math.max(1e-6, q.periodNm - q.uncertaintyNm)) }));
+    const xs = xsD.map((d) => this.xOfD(d)).filter((v): v is number => v !== null && Number.isFinite(v));
+    const all = [...xs, ...peakDs.map((d) => this.xOfD(d)).filter((v): v is number => v !== null), ...periodXs.map((q) => q.c).filter((v): v is number => v !== null)];
+    if (all.length === 0) return nothing;
+    let x0 = Math.min(...all);
+    let x1 = Math.max(...all);
+    if (this.axisView === 'd' && xs.length) {
+      // d explodes at low angle: show down to the pattern's largest d that a peak or period needs
+      x1 = Math.min(x1, 2 * Math.max(...peakDs, ...(this.periods ?? []).map((q) => q.periodNm)));
+    }
+    if (!(x1 > x0)) {
+      x0 -= 1;
+      x1 += 1;
+    }
+    const pw = W - L - R;
+    const ph = H - T - B;
+    const sx = (x: number) => L + ((x - x0) / (x1 - x0)) * pw;
+    const tY = (y: number) => (this.logY ? Math.log10(Math.max(y, 1)) : y);
+    let y0 = Infinity;
+    let y1 = -Infinity;
+    for (const c of curves) for (let i = 0; i < c.ys.length; i++) {
+      const v = tY(c.ys[i]);
+      if (v < y0) y0 = v;
+      if (v > y1) y1 = v;
+    }
+    if (!Number.isFinite(y0)) {
+      y0 = 0;
+      y1 = 1;
+    }
+    if (!(y1 > y0)) y1 = y0 + 1;
+    const sy = (y: number) => T + ph - ((tY(y) - y0) / (y1 - y0)) * ph;
+    const path = (ys: ArrayLike<number>) => {
+      const pts: string[] = [];
+      for (let i = 0; i < xsD.length; i++) {
+        const x = this.xOfD(xsD[i]);
+        if (x === null || x < x0 || x > x1) continue;
+        pts.push(`${sx(x).toFixed(1)},${sy(ys[i]).toFixed(1)}`);
+      }
+      return pts.join(' ');
+    };
+    const ticks = niceTicks(x0, x1, 6);
+    const unit = this.axisView === '2theta' ? '2θ (°)' : this.axisView === 'd' ? 'd (nm)' : 'q (nm⁻¹)';
+    return html`<svg class="xrd" viewBox="0 0 ${W} ${H}" role="img" aria-label="diffraction pattern">
+      ${ticks.map((t) => svg`<line class="grid" x1=${sx(t)} x2=${sx(t)} y1=${T} y2=${T + ph}></line><text x=${sx(t)} y=${H - 16} text-anchor="middle">${+t.toPrecision(4)}</text>`)}
+      <text x=${L + pw / 2} y=${H - 3} text-anchor="middle">${unit}</text>
+      <text x="4" y=${T + 8}>${this.logY ? 'log I' : 'I'}</text>
+      ${periodXs.map((q) => (q.c === null ? nothing : svg`<rect class="band" x=${sx(Math.min(q.lo ?? q.c, q.hi ?? q.c))} y=${T} width=${Math.max(1, Math.abs(sx(q.hi ?? q.c) - sx(q.lo ?? q.c)))} height=${ph}></rect><line class="period" x1=${sx(q.c)} x2=${sx(q.c)} y1=${T} y2=${T + ph}></line>`))}
+      ${curves.map((c) => svg`<polyline class=${c.cls} points=${path(c.ys)}></polyline>`)}
+      ${peakDs.map((d) => {
+        const x = this.xOfD(d);
+        return x === null || x < x0 || x > x1 ? nothing : svg`<line class="peak" x1=${sx(x)} x2=${sx(x)} y1=${T + ph} y2=${T + ph - 12}></line>`;
+      })}
+      <rect class="axis" x=${L} y=${T} width=${pw} height=${ph}></rect>
+    </svg>`;
+  }
+
+  override render(): TemplateResult {
+    const a = this.analysis;
+    const rec = this.reconciliation();
+    return html`
+      <section>
+        <h3>Pattern</h3>
+        <div class="row">
+          <label>File <input type="file" accept=".xy,.txt,.dat,.csv,.asc" @change=${(e: Event) => this.onFile(e)} /></label>
+          <label>Wavelength
+            <select @change=${(e: Event) => { this.wavelengthKey = (e.target as HTMLSelectElement).value; this.analyse(); }}>
+              <option value="header" ?selected=${this.wavelengthKey === 'header'}>from the file</option>
+              ${XRAY_LINES.map((l) => html`<option value=${l.key} ?selected=${this.wavelengthKey === l.key}>${l.label} ${(l.wavelengthNm * 10).toFixed(5)} Å</option>`)}
+              <option value="custom" ?selected=${this.wavelengthKey === 'custom'}>other…</option>
+            </select>
+          </label>
+          ${this.wavelengthKey === 'custom' ? html`<input type="text" placeholder="1.5406A or 0.15406nm" .value=${this.customWavelength} @change=${(e: Event) => { this.customWavelength = (e.target as HTMLInputElement).value; this.analyse(); }} />` : nothing}
+        </div>
+        <div class="row">
+          <label>Typed peaks
+            <select @change=${(e: Event) => { this.manualUnit = (e.target as HTMLSelectElement).value as PeakListUnit; }}>
+              <option value="dNm">d (nm)</option><option value="dA">d (Å)</option><option value="twoThetaDeg">2θ (°)</option><option value="qInvNm">q (nm⁻¹)</option><option value="qInvA">q (Å⁻¹)</option>
+            </select>
+          </label>
+        </div>
+        <textarea rows="2" placeholder="e.g. 1.25, 0.625, 0.417" ?disabled=${a !== null} @change=${(e: Event) => this.onManual((e.target as HTMLTextAreaElement).value)}></textarea>
+        ${this.busy ? html`<p class="muted">Fitting…</p>` : nothing}
+        ${this.error ? html`<p class="error">${this.error}</p>` : nothing}
+      </section>
+      <section>
+        <div class="row">
+          ${(['2theta', 'd', 'q'] as AxisView[]).map((v) => html`<button aria-pressed=${this.axisView === v ? 'true' : 'false'} @click=${() => { this.axisView = v; }}>${v === '2theta' ? '2θ' : v}</button>`)}
+          <label><input type="checkbox" .checked=${this.logY} @change=${(e: Event) => { this.logY = (e.target as HTMLInputElement).checked; }} /> log intensity</label>
+          <button ?disabled=${!a && this.manual.length === 0} @click=${() => this.save()}>Save set</button>
+        </div>
+        ${this.plot()}
+      </section>
+      ${a ? html`<section>
+        <h3>Peaks (${a.peaks.length})</h3>
+        <table>
+          <tr><th>2θ (°)</th><th>d (nm)</th><th>±</th><th>FWHM (°)</th><th>height</th><th>size (nm)</th></tr>
+          ${a.peaks.map((p) => html`<tr><td>${f(p.twoThetaDeg, 3)}</td><td>${f(p.dNm, 5)}</td><td>${f(p.dUncNm, 5)}</td><td>${f(p.fwhmDeg, 3)}</td><td>${f(p.intensity, 0)}</td><td>${f(p.crystalliteNm, 1)}</td></tr>`)}
+        </table>
+        ${a.series.map((s) => html`<p>${s.kind}: ${s.members.map((m) => m.index).join(', ')} — cell ${f(s.cellNm, 5)} ± ${f(s.cellUncNm, 5)} nm</p>`)}
+        <p class="muted">${a.sizeMethod}</p>
+      </section>` : nothing}
+      ${rec ? html`<section>
+        <h3>Micrograph periods against diffraction</h3>
+        <table>
+          <tr><th>period (nm)</th><th>match</th><th>d (nm)</th><th>diff</th><th>z</th></tr>
+          ${rec.best.map((b, i) => {
+            const p = this.periods[i];
+            if (!b) return html`<tr><td>${f(p.periodNm)} ± ${f(p.uncertaintyNm)}</td><td>—</td><td></td><td></td><td></td></tr>`;
+            return html`<tr><td>${f(p.periodNm)} ± ${f(p.uncertaintyNm)}</td><td>${b.label}</td><td>${f(b.dNm, 5)}</td><td>${(100 * b.relDiff).toFixed(2)} %</td><td class=${Math.abs(b.z) <= 2 ? 'good' : 'warn'}>${b.z.toFixed(2)}</td></tr>`;
+          })}
+        </table>
+        ${rec.unmatchedLines.length ? html`<p class="muted">Unmatched lines: ${rec.unmatchedLines.join(', ')}</p>` : nothing}
+        ${rec.calibration ? html`<p>Proposed (not applied): multiply nm per pixel by ${f(rec.calibration.factor)} ± ${f(rec.calibration.factorUnc)}. ${rec.calibration.reason}</p>` : nothing}
+      </section>` : nothing}
+    `;
+  }
+}
+
+customElements.define('strata-diffraction-panel', StrataDiffractionPanel);
