@@ -1,5 +1,10 @@
+import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
 import { describe, expect, test } from 'vitest';
 import { main } from '../../src/cli/main';
+import { encodeTiff } from '../../src/image/encode-tiff';
+import { colouredNoiseImage } from './synth';
 import { formatPlusMinus, parseRegion } from '../../src/cli/measure';
 
 const STEM = 'tests/fixtures/reference-data/stem-haadf_AlMgSi-alloy_Al-001-matrix_thumbnail256.png';
@@ -39,6 +44,25 @@ describe('stratameter measure', () => {
     expect(text).toMatch(/±5 % \(source: manual\)/);
     expect(text).toMatch(/d \(px\)\s+d \(nm\)\s+angle/);
     expect(text).toMatch(/\d\.\d+ ± \d\.\d+/);
+  });
+
+  test('an amorphous image reports an empty list, not noise', async () => {
+    const dir = mkdtempSync(join(tmpdir(), 'measure-'));
+    try {
+      const img = colouredNoiseImage(256, 256, 5);
+      const file = join(dir, 'amorphous.tif');
+      writeFileSync(file, encodeTiff({ width: 256, height: 256, data: img.data }));
+      const c = capture();
+      expect(await main(['measure', file, '--json'], c.io)).toBe(0);
+      const r = JSON.parse(c.out.join(''));
+      expect(r.periodicities).toEqual([]);
+      expect(r.calibration).toEqual({ nmPerPx: null, source: null, relUncertainty: null });
+      const t = capture();
+      expect(await main(['measure', file], t.io)).toBe(0);
+      expect(t.out.join('')).toMatch(/no significant periodicity/);
+    } finally {
+      rmSync(dir, { recursive: true, force: true });
+    }
   });
 
   test('errors go to stderr with a non-zero exit code', async () => {
