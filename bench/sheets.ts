@@ -59,7 +59,11 @@ for (const [label, noise] of noiseLevels) {
     let exact = 0;
     let thick = 0;
     let absErr = 0;
+    const sharp = { n: 0, exact: 0, thick: 0, found: 0 };
+    const blurred = { n: 0, exact: 0, thick: 0, found: 0 };
     for (let seed = 1; seed <= 8; seed++) {
+      const part = seed % 2 ? blurred : sharp;
+      part.n++;
       const r = rng(1000 * layers + seed + 77 * noise * 1000);
       const p = 6 + 8 * r();
       const other = 2 + Math.floor(6 * r());
@@ -80,16 +84,20 @@ for (const [label, noise] of noiseLevels) {
       const s = res.sheets.find((q) => Math.abs(q.centerPx - centre) < Math.max(p, (layers * p) / 3));
       if (!s) continue;
       found++;
-      if (s.layers === layers) exact++;
+      part.found++;
+      if (s.layers === layers) { exact++; part.exact++; }
       const err = Math.abs(s.thicknessPx - layers * p);
-      if (err < p / 2) thick++;
+      if (err < p / 2) { thick++; part.thick++; }
       absErr += err / p;
     }
     rowsA.push([label, layers, n, pct(found, n), pct(exact, n), pct(thick, n), found ? (absErr / found).toFixed(3) : '—']);
+    const all = { n, exact, thick, found };
     if (layers >= 2) {
-      const s = summaryA.get(label) ?? { n: 0, exact: 0, thick: 0, found: 0 };
-      s.n += n; s.exact += exact; s.thick += thick; s.found += found;
-      summaryA.set(label, s);
+      for (const [key, st] of [[label, all], [`${label}, sharp`, sharp], [`${label}, blurred`, blurred]] as const) {
+        const s = summaryA.get(key) ?? { n: 0, exact: 0, thick: 0, found: 0 };
+        s.n += st.n; s.exact += st.exact; s.thick += st.thick; s.found += st.found;
+        summaryA.set(key, s);
+      }
     }
   }
 }
