@@ -14,6 +14,7 @@ import type {
   Measurement,
   RecipeRecord,
 } from './records';
+import type { BatchFileRecord } from './batches';
 
 /** Name of the IndexedDB database. */
 export const DB_NAME = 'stratameter';
@@ -26,6 +27,7 @@ export interface LibrarySchema extends DBSchema {
   diffraction: { key: string; value: DiffractionSet };
   recipes: { key: string; value: RecipeRecord };
   batches: { key: string; value: BatchRecord };
+  batchFiles: { key: string; value: BatchFileRecord; indexes: { byBatch: string } };
 }
 
 export type LibraryDb = IDBPDatabase<LibrarySchema>;
@@ -51,6 +53,11 @@ export const UPGRADE_STEPS: readonly UpgradeStep[] = [
     const images = tx.objectStore('images');
     images.createIndex('bySha256', 'sha256Hex');
     images.createIndex('byAdded', 'addedIso');
+  },
+  // 2 → 3: the files of a batch run (original bytes, status, result), found by their batch.
+  (db) => {
+    const f = db.createObjectStore('batchFiles', { keyPath: 'id' });
+    f.createIndex('byBatch', 'batchId');
   },
 ];
 
