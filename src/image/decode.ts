@@ -4,7 +4,8 @@
  * The format is found from the content (magic bytes), never from the extension alone. Every
  * header is parsed here first, so sizes are checked against the memory budget and truncated
  * files are refused before any pixel buffer is allocated; only then are the pixels decoded
- * (TIFF by the `tiff` package, PNG and JPEG by image-js, MRC here).
+ * (TIFF strips and MRC here; TIFF tiles, predictors and WhiteIsZero by the `tiff` package; PNG
+ * and JPEG by image-js).
  */
 import { decode as decodeRaster } from 'image-js';
 import { unzlibSync } from 'fflate';

@@ -29,18 +29,15 @@ export function downsample(image: GreyImage, factor: number): GreyImage {
   if (factor === 1) out.set(data);
   else {
     const sums = new Float64Array(outW);
+    const column = new Int32Array(width); // output column of each input column
+    for (let x = 0; x < width; x++) column[x] = (x / factor) | 0;
     for (let oy = 0; oy < outH; oy++) {
       sums.fill(0);
       const y0 = oy * factor;
       const y1 = Math.min(height, y0 + factor);
       for (let y = y0; y < y1; y++) {
         const row = y * width;
-        for (let ox = 0, x = 0; ox < outW; ox++) {
-          const xEnd = Math.min(width, x + factor);
-          let s = 0;
-          for (; x < xEnd; x++) s += data[row + x];
-          sums[ox] += s;
-        }
+        for (let x = 0; x < width; x++) sums[column[x]] += data[row + x];
       }
       const rows = y1 - y0;
       const o = oy * outW;
