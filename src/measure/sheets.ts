@@ -122,13 +122,13 @@ export function profilePeriodogram(values: ArrayLike<number>, size: number, high
 /**
  * The dominant period of a power spectrum on a grid of `size` bins, searched between two periods.
  *
- * Among local maxima above 5 % of the largest, the one with the largest power over its octave's median wins; parabola on log power (common practice).
+ * Among local maxima above 5 % of the largest, the one with the largest power over the median of the two octaves around it ([f/2, 2f]) wins; parabola on log power (common practice).
  *
  * @param power bins 0 … size/2 (from `profilePeriodogram`, possibly summed)
  * @param size the transform length
  * @param minPeriodPx shortest period (≥ 2)
  * @param maxPeriodPx longest period
- * @returns the period in samples and its peak power over the median power of the octave around it
+ * @returns the period in samples and its peak power over the median power of the two octaves around it
  */
 export function periodFromPeriodogram(
   power: Float64Array,
@@ -148,8 +148,8 @@ export function periodFromPeriodogram(
   const window: number[] = [];
   for (let k = kLo; k <= kHi; k++) {
     if (!(power[k] >= power[k - 1] && power[k] >= power[k + 1]) || power[k] < 0.05 * maxPower) continue;
-    const a = Math.max(1, Math.floor(k / Math.SQRT2));
-    const b = Math.min(size / 2 - 1, Math.ceil(k * Math.SQRT2));
+    const a = Math.max(1, Math.floor(k / 2));
+    const b = Math.min(size / 2 - 1, Math.ceil(k * 2));
     window.length = 0;
     for (let j = a; j <= b; j += Math.max(1, Math.floor((b - a) / 64))) window.push(power[j]);
     window.sort((x, y) => x - y);
@@ -172,12 +172,12 @@ export function periodFromPeriodogram(
 /**
  * Periodogram estimate of the dominant period of a profile.
  *
- * Schuster periodogram (high-passed, Hann window, zero-padded ×8) and octave-contrast peak choice, see `periodFromPeriodogram` (common practice).
+ * Schuster periodogram (high-passed, Hann window, zero-padded ×8) and two-octave contrast peak choice, see `periodFromPeriodogram` (common practice).
  *
  * @param values the profile
  * @param minPeriodPx shortest period searched (≥ 2)
  * @param maxPeriodPx longest period searched
- * @returns the period in samples and its peak power over the median power of the octave around it
+ * @returns the period in samples and its peak power over the median power of the two octaves around it
  */
 export function profilePeriod(
   values: ArrayLike<number>,
