@@ -67,7 +67,7 @@ export class StrataDiffractionPanel extends LitElement {
       svg.xrd text { fill: #a9b6c2; font-size: 10px; }
       svg.xrd .data { stroke: #9fd3e6; stroke-width: 1; fill: none; }
       svg.xrd .bg { stroke: #7c8a97; stroke-width: 1; stroke-dasharray: 4 3; fill: none; }
-      svg.xrd .model { stroke: #f0c05a; stroke-width: 1; fill: none; }
+      svg.xrd .model { stroke: #f0c05a; stroke-width: 2.5; stroke-opacity: 0.6; fill: none; }
       svg.xrd .peak { stroke: #f0c05a; stroke-width: 1; }
       svg.xrd .band { fill: #7fd18b; fill-opacity: 0.18; }
       svg.xrd .period { stroke: #7fd18b; stroke-width: 1.5; }
@@ -206,7 +206,8 @@ export class StrataDiffractionPanel extends LitElement {
     let curves: Array<{ cls: string; ys: ArrayLike<number> }> = [];
     if (p && a) {
       for (let i = 0; i < p.x.length; i++) xsD.push(p.axis === 'q' ? (2 * Math.PI) / p.x[i] : p.wavelengthNm! / (2 * Math.sin((p.x[i] * Math.PI) / 360)));
-      curves = [{ cls: 'data', ys: p.y }, { cls: 'bg', ys: a.background }, { cls: 'model', ys: a.model }];
+      // the fit underneath, wide and translucent, the data on top
+      curves = [{ cls: 'bg', ys: a.background }, { cls: 'model', ys: a.model }, { cls: 'data', ys: p.y }];
     }
     const peakDs = a ? a.peaks.map((q) => q.dNm) : this.manual.map((m) => m.dNm);
     const periodXs = (this.periods ?? []).map((q) => ({ c: this.xOfD(q.periodNm), lo: this.xOfD(q.periodNm + q.uncertaintyNm), hi: this.xOfD(Math.max(1e-6, q.periodNm - q.uncertaintyNm)) }));
