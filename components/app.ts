@@ -65,6 +65,8 @@ function mimeFor(fileName: string): string {
  * `compute` (ComputeClient), `viewer` (the StrataViewer), `line` (LineDrawnDetail | null) and
  * `rect` (RectDrawnDetail | null), and may send the events `status-message` {text, kind},
  * `overlay-shapes` {shapes}, `calibration-changed` {calibration} and `library-changed`.
+ * The diffraction panel (id `diffraction`) also receives an `open-pattern` event {fileName, text}
+ * on its element when the user opens a demo pattern from the start screen.
  */
 export class StrataApp extends LitElement {
   static override properties = {
@@ -119,6 +121,7 @@ export class StrataApp extends LitElement {
       strata-viewer { min-height: 0; }
       .start { overflow-y: auto; padding: 28px 36px; border-right: 1px solid var(--line); }
       .start h2 { font-size: 16px; font-weight: 600; margin: 0 0 6px; }
+      .start h2.later { margin-top: 24px; }
       .start p { color: var(--muted); margin: 0 0 16px; max-width: 60em; line-height: 1.5; }
       .drop { border: 1px dashed var(--line); border-radius: 4px; padding: 22px; text-align: center; color: var(--muted); margin-bottom: 24px; }
       .drop.on, :host(.dragging) .drop { border-color: var(--accent); color: var(--text); }
@@ -241,6 +244,24 @@ export class StrataApp extends LitElement {
     }
   }
 
+  /**
+   * Hands a demo pattern to the diffraction panel as an `open-pattern` event {fileName, text}
+   * dispatched on the panel's element, and shows that panel.
+   */
+  private async openDemoPattern(d: DemoEntry): Promise<void> {
+    try {
+      const res = await fetch(`demo/${d.file}`);
+      if (!res.ok) throw new Error(`demo file ${d.file} is missing (${res.status})`);
+      const text = await res.text();
+      this.activeTab = 'diffraction';
+      await this.updateComplete;
+      this.panelElements.get('diffraction')?.dispatchEvent(new CustomEvent('open-pattern', { detail: { fileName: d.file, text } }));
+      this.say(`${d.title}: handed to the ${this.tabs.find((t) => t.id === 'diffraction')?.label ?? 'diffraction'} panel.`);
+    } catch (e) {
+      this.say(`Could not open the demo ${d.title}: ${(e as Error).message}`, 'error');
+    }
+  }
+
   /** Decodes in the worker, shows the image and keeps it in the library (once per file content). */
   private async openBytes(bytes: Uint8Array, fileName: string, mimeType: string, existing?: ImageRecord): Promise<ImageRecord | null> {
     this.say(`Reading ${fileName} (${formatBytes(bytes.byteLength)})…`, 'busy');
@@ -354,6 +375,8 @@ export class StrataApp extends LitElement {
 
   private renderStart() {
     const micrographs = this.demos.filter((d) => d.kind !== 'pattern');
+    const diffractionTab = this.tabs.find((t) => t.id === 'diffraction');
+    const patterns = diffractionTab ? this.demos.filter((d) => d.kind === 'pattern') : [];
     return html`<section class="start" aria-label="Start">
       <h2>Open a micrograph</h2>
       <p>TEM and STEM images as TIFF (8, 16 or 32-bit), PNG, JPEG or MRC. The pixel size is read from the file where it is stored;
@@ -366,6 +389,12 @@ export class StrataApp extends LitElement {
         ? html`<h2>Demo images</h2>
             <p>Synthetic micrographs of layered materials with known periods, to try the tools on.</p>
             <div class="demos">${micrographs.map((d) => html`<button class="demo" @click=${() => this.openDemo(d)}>
+              <span class="kind">${d.kind}</span><b>${d.title}</b><span>${d.description}</span></button>`)}</div>`
+        : nothing}
+      ${patterns.length
+        ? html`<h2 class="later">Demo diffraction patterns</h2>
+            <p>Open in the ${diffractionTab!.label} panel, to set against the periods measured in the micrographs.</p>
+            <div class="demos">${patterns.map((d) => html`<button class="demo" @click=${() => this.openDemoPattern(d)}>
               <span class="kind">${d.kind}</span><b>${d.title}</b><span>${d.description}</span></button>`)}</div>`
         : nothing}
     </section>`;
