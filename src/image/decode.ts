@@ -199,7 +199,7 @@ export function decodeImage(bytes: Uint8Array, fileName: string, options: Decode
 }
 
 // ---------------------------------------------------------------------------------------------
-// Shared helpers
+// Shared routines
 
 function checkSize(width: number, height: number, maxPixels: number, fail: Fail, what: string): void {
   if (!Number.isFinite(width) || !Number.isFinite(height) || width <= 0 || height <= 0 || !Number.isInteger(width) || !Number.isInteger(height)) {

@@ -1,5 +1,5 @@
 /**
- * Fast helpers for display: box-mean downsampling for thumbnails and overviews, and
+ * Fast routines for display: box-mean downsampling for thumbnails and overviews, and
  * percentile display ranges from a histogram (no sort of the pixels).
  */
 import type { GreyImage } from './grey-image';

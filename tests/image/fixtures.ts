@@ -1,4 +1,4 @@
-/** Helpers that make and edit small image files for the image tests (no binaries committed). */
+/** Functions that make and edit small image files for the image tests (no binaries committed). */
 
 /** Overwrites the inline value of a SHORT or LONG tag in the first IFD of a little-endian TIFF. */
 export function setTiffTag(bytes: Uint8Array, tag: number, value: number): Uint8Array {
