@@ -162,6 +162,23 @@ test('the library asks before deleting, and export then import brings the images
   await s.page.screenshot({ path: join(dir, 'library.png') });
 });
 
+test('files dropped on the window open like chosen ones', async () => {
+  await s.page.locator('strata-app button', { hasText: 'Close image' }).click();
+  const bytes = [...readFileSync(fringeTiff(96, 64))];
+  await s.page.evaluate((b) => {
+    const dt = new DataTransfer();
+    dt.items.add(new File([new Uint8Array(b)], 'dropped-fringes.tif', { type: 'image/tiff' }));
+    const app = document.querySelector('strata-app')!;
+    app.dispatchEvent(new DragEvent('dragover', { dataTransfer: dt, bubbles: true, cancelable: true }));
+    app.dispatchEvent(new DragEvent('drop', { dataTransfer: dt, bubbles: true, cancelable: true }));
+  }, bytes);
+  await s.page.waitForFunction(() => {
+    const v = document.querySelector('strata-app')?.shadowRoot?.querySelector('strata-viewer') as unknown as { image?: { width: number } };
+    return v?.image?.width === 96;
+  });
+  expect(await s.page.locator('strata-app .message').textContent()).toMatch(/^dropped-fringes\.tif: 96 × 64 px, 16-bit/);
+});
+
 test('a file that is not an image gives a readable message on the message line', async () => {
   const bad = join(dir, 'notes.tif');
   writeFileSync(bad, 'these are my notes, not a micrograph');
