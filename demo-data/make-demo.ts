@@ -89,32 +89,32 @@ function blur(img: Raster, sigmaPx: number): void {
   }
 }
 
-/** Band-limited random texture: a sum of plane waves with random directions, frequencies and phases. */
-function texture(img: Raster, r: () => number, waves: number, fMinPerPx: number, fMaxPerPx: number, amplitude: number): void {
+/**
+ * Band-limited isotropic random texture (amorphous granularity, film thickness variation): white
+ * Gaussian noise filtered by a difference of Gaussians, so its power spectrum is a smooth band
+ * between about fMinPerPx and fMaxPerPx cycles/px with random phases and no discrete
+ * frequencies — unlike a sum of plane waves, which would be a set of true periodicities.
+ */
+function texture(img: Raster, g: () => number, fMinPerPx: number, fMaxPerPx: number, amplitude: number): void {
   const { width: w, height: h, data } = img;
-  const amp = amplitude * Math.sqrt(2 / waves);
-  for (let n = 0; n < waves; n++) {
-    const f = fMinPerPx + (fMaxPerPx - fMinPerPx) * r();
-    const a = Math.PI * r();
-    const kx = 2 * Math.PI * f * Math.cos(a);
-    const ky = 2 * Math.PI * f * Math.sin(a);
-    const ph = 2 * Math.PI * r();
-    // cos(kx·x + ky·y + ph) by rotation recurrences per row: exact enough and fast
-    for (let y = 0; y < h; y++) {
-      const base = ky * y + ph;
-      let c = Math.cos(base);
-      let s = Math.sin(base);
-      const cd = Math.cos(kx);
-      const sd = Math.sin(kx);
-      const row = y * w;
-      for (let x = 0; x < w; x++) {
-        data[row + x] += amp * c;
-        const c2 = c * cd - s * sd;
-        s = s * cd + c * sd;
-        c = c2;
-      }
-    }
+  const fine = raster(w, h, 0);
+  for (let i = 0; i < fine.data.length; i++) fine.data[i] = g();
+  const coarse = raster(w, h, 0);
+  coarse.data.set(fine.data);
+  // A Gaussian of σ px passes frequencies up to about 1/(2πσ) cycles/px.
+  blur(fine, 1 / (2 * Math.PI * fMaxPerPx));
+  blur(coarse, 1 / (2 * Math.PI * fMinPerPx));
+  let sum = 0;
+  let sum2 = 0;
+  for (let i = 0; i < fine.data.length; i++) {
+    const v = fine.data[i] - coarse.data[i];
+    fine.data[i] = v;
+    sum += v;
+    sum2 += v * v;
   }
+  const n = fine.data.length;
+  const sd = Math.sqrt(Math.max(1e-30, sum2 / n - (sum / n) ** 2));
+  for (let i = 0; i < n; i++) data[i] += (amplitude * fine.data[i]) / sd;
 }
 
 /** Electron counts with shot noise, times a gain, clipped to 16 bits. */
@@ -176,8 +176,8 @@ const index: IndexEntry[] = [];
   const periodNm = 1.25;
   const sheetSigmaNm = 0.3;
   const img = raster(W, H, 1);
-  texture(img, r, 60, 0.004, 0.03, 0.05); // slow thickness/density variation of the film
-  texture(img, r, 120, 0.15, 0.45, 0.03); // fine amorphous granularity
+  texture(img, g, 0.004, 0.03, 0.05); // slow thickness/density variation of the film
+  texture(img, g, 0.15, 0.45, 0.03); // fine amorphous granularity
   const tactoids: Record<string, number>[] = [];
   const darkness = 0.35;
   const count = 26;
@@ -292,7 +292,7 @@ const index: IndexEntry[] = [];
   const periodNm = 1.25;
   const img = raster(W, H, 1);
   // amorphous polymer: granularity at 0.01–0.12 cycles/px = 0.2–2.4 nm⁻¹ (phase contrast)
-  texture(img, r, 400, 0.01, 0.12, 0.07);
+  texture(img, g, 0.01, 0.12, 0.07);
   const pPx = periodNm / nmPerPx;
   const regions = [
     { name: 'A', cx: 330, cy: 330, normalDeg: 28, layers: 8, lengthNm: 36, contrast: 0.16 },
@@ -382,7 +382,7 @@ const index: IndexEntry[] = [];
       img.data[y * W + x] = 0.5 + 0.18 * (sv / Math.max(sw, 1e-300));
     }
   }
-  texture(img, r, 80, 0.02, 0.2, 0.03);
+  texture(img, g, 0.02, 0.2, 0.03);
   blur(img, 1.0);
   const counts = expose(img, 120, 1, 0, r, g);
   const u8 = new Uint8Array(W * H);
@@ -436,7 +436,7 @@ const index: IndexEntry[] = [];
   const H = 512;
   const nmPerPx = 0.2;
   const img = raster(W, H, 1);
-  texture(img, r, 300, 0.01, 0.25, 0.08);
+  texture(img, g, 0.01, 0.25, 0.08);
   blur(img, 0.8);
   const counts = expose(img, 100, 20, 500, r, g);
   const file = 'amorphous-polymer.tif';
@@ -449,7 +449,7 @@ const index: IndexEntry[] = [];
     title: 'Amorphous polymer, no order',
     description: 'A region of the film with no tactoid and no lamellae: amorphous granularity only, so no significant periodicity should be reported. 16-bit TIFF, 0.2 nm/px in the tags.',
     kind: 'micrograph',
-    truth: { seed, nmPerPx, periodicities: [], texture: 'random plane waves, 0.01–0.25 cycles/px, random directions and phases', blurSigmaPx: 0.8 },
+    truth: { seed, nmPerPx, periodicities: [], texture: 'white Gaussian noise band-passed by a difference of Gaussians, about 0.01–0.25 cycles/px', blurSigmaPx: 0.8 },
   });
 }
 
