@@ -135,6 +135,35 @@ function calibrationOk(v: unknown, where: string): void {
   str(v as Obj, 'source', where);
 }
 
+/** A value for a message: numbers and short texts as written, lists and objects by kind only (a deeply nested value would overflow JSON.stringify). */
+function shown(v: unknown): string {
+  if (Array.isArray(v)) return 'a list';
+  if (isObj(v)) return 'an object';
+  const s = JSON.stringify(v) ?? String(v);
+  return s.length > 60 ? `${s.slice(0, 57)}...` : s;
+}
+
+/**
+ * Deepest nesting of lists and objects accepted in an imported record. Our own records are less
+ * than 10 deep; a deeper one cannot be stored (structured cloning recurses and overflows the stack).
+ */
+const MAX_NESTING = 64;
+
+/** Nesting depth of a JSON value (a number or text is 0), counted without recursion, stopping above `limit`. */
+function nestingDepth(v: unknown, limit: number): number {
+  let deepest = 0;
+  const stack: [unknown, number][] = [[v, 0]];
+  while (stack.length > 0) {
+    const [x, d] = stack.pop()!;
+    if (typeof x !== 'object' || x === null) continue;
+    const depth = d + 1;
+    if (depth > deepest) deepest = depth;
+    if (deepest > limit) return deepest;
+    for (const c of Array.isArray(x) ? x : Object.values(x)) if (typeof c === 'object' && c !== null) stack.push([c, depth]);
+  }
+  return deepest;
+}
+
 const SAMPLE_KINDS: SampleKind[] = ['uint', 'int', 'float'];
 
 /**
@@ -157,9 +186,15 @@ export async function importLibrary(db: LibraryDb, json: string): Promise<Import
   }
   need(isObj(parsed), 'the file', 'must hold one JSON object');
   const root = parsed as Obj;
-  need(root.format === EXPORT_FORMAT, 'the file', `is not a Stratameter library export (format is ${JSON.stringify(root.format)})`);
+  need(root.format === EXPORT_FORMAT, 'the file', `is not a Stratameter library export (format is ${shown(root.format)})`);
   need(typeof root.formatVersion === 'number' && root.formatVersion <= EXPORT_FORMAT_VERSION, 'formatVersion',
-    `${JSON.stringify(root.formatVersion)} is newer than this version of Stratameter reads (${EXPORT_FORMAT_VERSION})`);
+    `${shown(root.formatVersion)} is newer than this version of Stratameter reads (${EXPORT_FORMAT_VERSION})`);
+
+  for (const key of ['images', 'measurements', 'calibrations', 'diffraction', 'recipes', 'batches']) {
+    const records = root[key];
+    if (!Array.isArray(records)) continue;
+    records.forEach((r, i) => need(nestingDepth(r, MAX_NESTING) <= MAX_NESTING, `${key}[${i}]`, `is nested more than ${MAX_NESTING} levels deep`));
+  }
 
   const images: ImageRecord[] = [];
   const rawImages = list(root, 'images');
