@@ -1,0 +1,140 @@
+/**
+ * The long fuzz run: `npm run test:fuzz -- --seconds 60 --seed 7`.
+ *
+ * Each reader runs in its own worker thread; the worker reports every input before and after
+ * reading it. A worker that says nothing for the time limit is stopped, the input it was
+ * reading is reported as a hang, and a new worker carries on after it. Prints a table of
+ * outcomes per reader and exits with status 1 when any input crashed, hung or grew memory
+ * beyond the bound.
+ */
+import { Worker, isMainThread, parentPort, workerData } from 'node:worker_threads';
+import { setFlagsFromString } from 'node:v8';
+import { runInNewContext } from 'node:vm';
+import { TARGETS, TIME_LIMIT_MS, fuzzTarget, makeInput, runOne, table, type Outcome, type TargetTally } from './harness';
+
+const TSX_API = import.meta.resolve('tsx/esm/api');
+
+interface Job {
+  target: string;
+  seed: number;
+  from: number;
+  deadline: number; // epoch ms
+}
+
+type Msg =
+  | { kind: 'start'; i: number; name: string; mutation: string }
+  | { kind: 'done'; i: number; outcome: Outcome; detail: string; ms: number }
+  | { kind: 'seeds'; failures: TargetTally['failures'] }
+  | { kind: 'end' };
+
+function arg(name: string, fallback: number): number {
+  const i = process.argv.indexOf(`--${name}`);
+  if (i < 0) return fallback;
+  const v = Number(process.argv[i + 1]);
+  if (!Number.isFinite(v) || v < 0) throw new Error(`--${name} must be a non-negative number, got ${process.argv[i + 1]}`);
+  return v;
+}
+
+async function workerMain(job: Job): Promise<void> {
+  // A collection before each input makes the memory growth per input meaningful.
+  setFlagsFromString('--expose-gc');
+  (globalThis as { gc?: unknown }).gc = runInNewContext('gc');
+  const target = TARGETS.find((t) => t.id === job.target)!;
+  const seeds = await target.seeds();
+  const post = (m: Msg) => parentPort!.postMessage(m);
+  if (job.from === 0) {
+    const t = await fuzzTarget(target, job.seed, 0);
+    post({ kind: 'seeds', failures: t.failures });
+  }
+  for (let i = job.from; Date.now() < job.deadline; i++) {
+    const input = makeInput(target, seeds, job.seed, i);
+    post({ kind: 'start', i, name: input.name, mutation: input.mutation });
+    const r = await runOne(target, input);
+    post({ kind: 'done', i, outcome: r.outcome, detail: r.detail, ms: r.ms });
+  }
+  post({ kind: 'end' });
+}
+
+function runTarget(id: string, seed: number, deadline: number): Promise<TargetTally> {
+  const tally: TargetTally = { id, counts: { ok: 0, clear: 0, crash: 0, slow: 0, memory: 0 }, failures: [], longestMs: 0 };
+  return new Promise((resolve) => {
+    const spawn = (from: number) => {
+      // The worker loads this same file through tsx's loader (a bare `--import tsx` does not reach worker threads on Node 20).
+      const boot = `import(${JSON.stringify(TSX_API)}).then((m) => { m.register(); return import(${JSON.stringify(import.meta.url)}); })`;
+      const w = new Worker(boot, {
+        eval: true,
+        workerData: { target: id, seed, from, deadline } satisfies Job,
+        resourceLimits: { maxOldGenerationSizeMb: 1024 },
+      });
+      let current: Extract<Msg, { kind: 'start' }> | null = null;
+      let timer: NodeJS.Timeout | null = null;
+      let finished = false;
+      const arm = (ms: number) => {
+        if (timer) clearTimeout(timer);
+        timer = setTimeout(() => {
+          // No word for the limit: the input in progress hangs.
+          finished = true;
+          void w.terminate();
+          const i = current ? current.i : from;
+          tally.counts.slow++;
+          tally.failures.push({ input: `${current?.name ?? '?'} #${i}`, mutation: current?.mutation ?? '?', outcome: 'slow', detail: `no answer after ${ms} ms (hang)` });
+          if (Date.now() < deadline) spawn(i + 1);
+          else resolve(tally);
+        }, ms);
+      };
+      arm(60_000); // the first message comes after the seeds are made and the modules are loaded
+      w.on('message', (m: Msg) => {
+        if (m.kind === 'start') {
+          current = m;
+          arm(TIME_LIMIT_MS * 4);
+        } else if (m.kind === 'done') {
+          tally.counts[m.outcome]++;
+          tally.longestMs = Math.max(tally.longestMs, m.ms);
+          if (m.outcome !== 'ok' && m.outcome !== 'clear') tally.failures.push({ input: `${current?.name} #${m.i}`, mutation: current?.mutation ?? '', outcome: m.outcome, detail: m.detail });
+          current = null;
+          arm(60_000);
+        } else if (m.kind === 'seeds') {
+          tally.failures.push(...m.failures);
+        } else {
+          finished = true;
+          if (timer) clearTimeout(timer);
+          void w.terminate();
+          resolve(tally);
+        }
+      });
+      w.on('error', (e) => {
+        if (finished) return;
+        finished = true;
+        if (timer) clearTimeout(timer);
+        // The worker died (out of memory, a native fault): the input in progress is to blame.
+        const i = current ? current.i : from;
+        const outcome: Outcome = /memory|heap/i.test(e.message) ? 'memory' : 'crash';
+        tally.counts[outcome]++;
+        tally.failures.push({ input: `${current?.name ?? '?'} #${i}`, mutation: current?.mutation ?? '?', outcome, detail: `worker died: ${e.message}` });
+        // A worker that dies before its first input cannot start at all: stop rather than respawn.
+        if (current && Date.now() < deadline) spawn(i + 1);
+        else resolve(tally);
+      });
+    };
+    spawn(0);
+  });
+}
+
+async function main(): Promise<void> {
+  const seconds = arg('seconds', 60);
+  const seed = arg('seed', 1);
+  console.log(`fuzz run: seed ${seed}, ${seconds} s shared by ${TARGETS.length} readers, per-input limit ${TIME_LIMIT_MS} ms`);
+  const tallies: TargetTally[] = [];
+  for (const t of TARGETS) {
+    const deadline = Date.now() + (seconds * 1000) / TARGETS.length;
+    tallies.push(await runTarget(t.id, seed, deadline));
+  }
+  console.log(table(tallies));
+  const failures = tallies.flatMap((t) => t.failures.map((f) => ({ reader: t.id, ...f })));
+  for (const f of failures) console.log(`FAIL ${f.reader} ${f.input} [${f.mutation}] ${f.outcome}: ${f.detail}`);
+  console.log(failures.length === 0 ? 'no failures' : `${failures.length} failures`);
+  process.exitCode = failures.length === 0 ? 0 : 1;
+}
+
+if (isMainThread) void main();
+else void workerMain(workerData as Job);
