@@ -1,6 +1,7 @@
 /**
  * Accuracy of the diffraction peak fit on seeded synthetic patterns with known truth:
- * true vs fitted position, FWHM and Scherrer size, for three scenarios.
+ * true vs fitted position, FWHM and Scherrer size, for three scenarios. A true peak counts as
+ * found when a fitted peak lies within 0.3 FWHM of it; errors are over found peaks.
  *   npm run bench:diffraction
  */
 import { dToTwoTheta } from '../src/diffraction/bragg';
@@ -63,6 +64,11 @@ function crystalline(): Scenario {
   return { name: 'crystalline (Si cell), Kα doublets', peaks, sizesNm: peaks.map(() => size), options: { rangeDeg: [20, 85], stepDeg: 0.01, background: { a: 120, b: 0, c: 1 } }, fit: {} };
 }
 
+const median = (v: number[]) => {
+  const s = [...v].sort((a, b) => a - b);
+  return s.length ? (s.length % 2 ? s[(s.length - 1) / 2] : 0.5 * (s[s.length / 2 - 1] + s[s.length / 2])) : NaN;
+};
+
 const rows: string[][] = [];
 const t0 = Date.now();
 for (const sc of [lamellar(), clay(), crystalline()]) {
@@ -71,8 +77,8 @@ for (const sc of [lamellar(), clay(), crystalline()]) {
   let posErr = 0;
   let posMax = 0;
   let posZ = 0;
-  let fwErr = 0;
-  let sizeErr = 0;
+  const fwErrs: number[] = [];
+  const sizeErrs: number[] = [];
   let n = 0;
   let cellErr = 0;
   let cells = 0;
@@ -86,7 +92,7 @@ for (const sc of [lamellar(), clay(), crystalline()]) {
     sc.peaks.forEach((tp, i) => {
       let bj = -1;
       fit.peaks.forEach((q, j) => {
-        if (!used.has(j) && Math.abs(q.twoThetaDeg! - tp.twoThetaDeg) < tp.fwhmDeg && (bj < 0 || Math.abs(q.twoThetaDeg! - tp.twoThetaDeg) < Math.abs(fit.peaks[bj].twoThetaDeg! - tp.twoThetaDeg))) bj = j;
+        if (!used.has(j) && Math.abs(q.twoThetaDeg! - tp.twoThetaDeg) < 0.3 * tp.fwhmDeg && (bj < 0 || Math.abs(q.twoThetaDeg! - tp.twoThetaDeg) < Math.abs(fit.peaks[bj].twoThetaDeg! - tp.twoThetaDeg))) bj = j;
       });
       if (bj < 0) return;
       used.add(bj);
@@ -97,9 +103,9 @@ for (const sc of [lamellar(), clay(), crystalline()]) {
       posErr += e;
       posMax = Math.max(posMax, e);
       posZ += (e / (q.twoThetaUncDeg ?? Infinity)) ** 2;
-      fwErr += Math.abs(q.fwhmDeg! / tp.fwhmDeg - 1);
+      fwErrs.push(Math.abs(q.fwhmDeg! / tp.fwhmDeg - 1));
       const s = scherrerSize(q.fwhmDeg!, q.twoThetaDeg!, CU).sizeNm ?? NaN;
-      sizeErr += Math.abs(s / sc.sizesNm[i] - 1);
+      sizeErrs.push(Math.abs(s / sc.sizesNm[i] - 1));
     });
     extra += fit.peaks.length - used.size;
     if (sc.period) {
@@ -117,13 +123,13 @@ for (const sc of [lamellar(), clay(), crystalline()]) {
     (posErr / n).toExponential(2),
     posMax.toExponential(2),
     Math.sqrt(posZ / n).toFixed(2),
-    (100 * fwErr / n).toFixed(2),
-    (100 * sizeErr / n).toFixed(2),
+    `${(100 * median(fwErrs)).toFixed(2)} / ${(100 * Math.max(...fwErrs)).toFixed(1)}`,
+    `${(100 * median(sizeErrs)).toFixed(2)} / ${(100 * Math.max(...sizeErrs)).toFixed(1)}`,
     sc.period ? `${cells}/${SEEDS.length}, ${(100 * cellErr / Math.max(1, cells)).toFixed(3)}` : '—',
     (ms / SEEDS.length).toFixed(0),
   ]);
 }
-const head = ['scenario', 'found', 'extra', 'mean |Δ2θ| °', 'max |Δ2θ| °', 'rms Δ/σ', 'FWHM err %', 'size err %', 'lamellar period: found, err %', 'ms/pattern'];
+const head = ['scenario', 'found', 'extra', 'mean |Δ2θ| °', 'max |Δ2θ| °', 'rms Δ/σ', 'FWHM err % median / max', 'size err % median / max', 'lamellar period: found, err %', 'ms/pattern'];
 const widths = head.map((h, i) => Math.max(h.length, ...rows.map((r) => r[i].length)));
 const line = (r: string[]) => '| ' + r.map((c, i) => c.padEnd(widths[i])).join(' | ') + ' |';
 console.log(`Diffraction fit accuracy: ${SEEDS.length} seeded Poisson realisations per scenario, Cu Kα1+Kα2 (ratio 0.5), pseudo-Voigt truth; sizes by Scherrer (K 0.9, no instrument term)`);
