@@ -99,3 +99,22 @@ describe('reflections against the d-values computed from the cells in SOURCES.md
     expect(() => powderReflections(parseCif(cif), { dMinNm: 0 })).toThrow(/dMinNm/);
   });
 });
+
+describe('displacement parameters and quoted values', () => {
+  const base = (extra: string, row: string) => `data_dw\n_cell_length_a 3\n_cell_length_b 3\n_cell_length_c 3\n_cell_angle_alpha 90\n_cell_angle_beta 90\n_cell_angle_gamma 90\n_symmetry_space_group_name_H-M 'P 1'\nloop_\n_space_group_symop_operation_xyz\n'x, y, z'\nloop_\n_atom_site_label\n_atom_site_type_symbol\n_atom_site_fract_x\n_atom_site_fract_y\n_atom_site_fract_z\n_atom_site_occupancy\n${extra}\n${row}\n`;
+  test('Biso is read as U = B/(8π²) and damps |F|² by exp(−2B s²) (Debye–Waller, ITC C §6.1.1.3, from memory)', () => {
+    const u = parseCif(base('_atom_site_U_iso_or_equiv', 'Si1 Si 0 0 0 1 0.01'));
+    const b = parseCif(base('_atom_site_B_iso_or_equiv', `Si1 Si 0 0 0 1 ${8 * Math.PI * Math.PI * 0.01}`));
+    expect(b.atoms[0].uIsoA2).toBeCloseTo(0.01, 12);
+    expect(u.spaceGroupName).toBe('P 1');
+    const r0 = powderReflections(parseCif(base('_atom_site_U_iso_or_equiv', 'Si1 Si 0 0 0 1 0')), { dMinNm: 0.1 });
+    const r1 = powderReflections(u, { dMinNm: 0.1 });
+    const h = r0.find((x) => x.hkl.join() === '1,0,0')!;
+    const h1 = r1.find((x) => x.hkl.join() === '1,0,0')!;
+    const s = 1 / (2 * h.dNm * 10);
+    expect(h1.f2 / h.f2).toBeCloseTo(Math.exp(-2 * 8 * Math.PI * Math.PI * 0.01 * s * s), 10);
+  });
+  test('a loop with a missing value is an error naming the loop', () => {
+    expect(() => parseCif(base('', 'Si1 Si 0 0 0'))).toThrow(/_atom_site_label/);
+  });
+});

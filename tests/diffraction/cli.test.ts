@@ -94,3 +94,37 @@ describe('stratameter match', () => {
     expect(c.err.join('')).toMatch(/neither/);
   }, 60000);
 });
+
+describe('stratameter xrd --standard and match --cif', () => {
+  const toText = (x: Float64Array, y: Float64Array) => ['# radiation: Cu K-alpha1 1.54059292 A, K-alpha2 1.5444274 A', ...Array.from(x, (v, i) => `${v.toFixed(3)} ${y[i]}`)].join('\n');
+  test('the instrumental breadth measured on a standard is removed (Gaussian rule; synthetic truth)', { timeout: 60000 }, async () => {
+    const { syntheticPattern } = await import('../../src/diffraction/synthetic');
+    const { scherrerSize } = await import('../../src/diffraction/scherrer');
+    const dir = mkdtempSync(join(tmpdir(), 'strata-std-'));
+    // standard: instrument-only lines 0.08° wide; sample: Gaussian lines √(0.08² + 0.25²) wide
+    const pos = [20, 35, 50, 65];
+    const inst = 0.08;
+    const obs = Math.hypot(inst, 0.25);
+    const std = syntheticPattern(pos.map((t) => ({ twoThetaDeg: t, area: 200, fwhmDeg: inst, eta: 0 })), { rangeDeg: [15, 70], stepDeg: 0.01, seed: 2, background: { a: 100, b: 0, c: 1 } });
+    const smp = syntheticPattern([{ twoThetaDeg: 30, area: 300, fwhmDeg: obs, eta: 0 }], { rangeDeg: [25, 36], stepDeg: 0.01, seed: 3, background: { a: 100, b: 0, c: 1 } });
+    writeFileSync(join(dir, 'std.xy'), toText(std.x, std.y));
+    writeFileSync(join(dir, 'smp.xy'), toText(smp.x, smp.y));
+    const c = capture();
+    expect(await main(['xrd', join(dir, 'smp.xy'), '--standard', join(dir, 'std.xy'), '--json'], c.io)).toBe(0);
+    const j = JSON.parse(c.out.join(''));
+    const want = scherrerSize(0.25, 30, 0.154059292).sizeNm!;
+    expect(Math.abs(j.peaks[0].crystalliteNm - want) / want).toBeLessThan(0.1);
+    expect(j.sizeMethod).toMatch(/standard/);
+  });
+  test('--cif adds a reference phase: a 0.999 nm fringe pairs with muscovite-3T 003 (SOURCES.md §4)', { timeout: 60000 }, async () => {
+    const dir = mkdtempSync(join(tmpdir(), 'strata-cif-'));
+    const m = join(dir, 'm.json');
+    writeFileSync(m, JSON.stringify({ file: 'mica.tif', width: 512, height: 512, calibration: { nmPerPx: 0.1, source: 'manual', relUncertainty: 0.03 },
+      periodicities: [{ periodPx: 9.99, periodNm: 0.999, angleDeg: 45, uncertaintyPx: 0.05, uncertaintyNm: 0.031, strength: 10 }] }));
+    const c = capture();
+    expect(await main(['match', '--pattern', FIXTURE, '--cif', 'tests/fixtures/reference-data/crystal_muscovite-3T_COD1100015.cif', m, '--json'], c.io)).toBe(0);
+    const j = JSON.parse(c.out.join(''));
+    const mica = j.pairs.filter((p: any) => /1100015/.test(p.label));
+    expect(mica.map((p: any) => p.label)).toContain('1100015 0 0 3');
+  });
+});
