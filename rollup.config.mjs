@@ -113,6 +113,7 @@ export default {
   input: {
     app: 'components/app.ts',
     'compute-worker': 'components/compute-worker.ts',
+    'batch-worker': 'components/batch-worker.ts',
   },
   output: {
     dir: 'dist',

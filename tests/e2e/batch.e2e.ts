@@ -1,0 +1,151 @@
+// The batch panel in the browser: the demo micrographs plus a corrupt file through the default
+// recipe (pixel size from the file metadata) in the worker pool; a reload after the first file
+// is committed, then Resume; each file exactly once; the zip of every export.
+// Truth from demo-data/index.json: the three TIFF demos carry their pixel size in the tags, the
+// PNG demo has none (only a burned-in bar), so with the metadata route it fails with its reason.
+import { mkdtempSync, readFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { strFromU8, unzipSync } from 'fflate';
+import { afterAll, beforeAll, expect, test } from 'vitest';
+import { foreignRequests, openSession, type Session } from './browser';
+
+let s: Session;
+const dir = mkdtempSync(join(tmpdir(), 'strata-batch-'));
+const errors: string[] = [];
+
+const DEMOS = ['amorphous-polymer.tif', 'lamellar-mesophase.png', 'tactoid-film_overview.tif', 'tactoid-fringes_hr.tif'];
+const CALIBRATED = ['amorphous-polymer.tif', 'tactoid-film_overview.tif', 'tactoid-fringes_hr.tif'];
+const CORRUPT = 'broken-scan.tif';
+
+interface PanelView {
+  batch: { id: string; total: number; ok: number; failed: number; state: string } | null;
+  rows: { name: string; status: string; reason: string | null }[];
+  chosen: number;
+  running: boolean;
+}
+
+const app = () => s.page.locator('strata-app');
+const panel = () => s.page.locator('strata-batch-panel');
+const view = () => panel().evaluate((el) => {
+  const p = el as unknown as { batch: PanelView['batch']; rows: { name: string; status: string; result: { reason?: string } | null }[]; chosen: unknown[]; running: boolean };
+  return {
+    batch: p.batch && { id: p.batch.id, total: p.batch.total, ok: p.batch.ok, failed: p.batch.failed, state: p.batch.state },
+    rows: p.rows.map((r) => ({ name: r.name, status: r.status, reason: r.result?.reason ?? null })),
+    chosen: p.chosen.length,
+    running: p.running,
+  } as PanelView;
+});
+
+/** The stored file records of a batch, read straight from IndexedDB. */
+const stored = (batchId: string) => s.page.evaluate((id) => new Promise<{ name: string; status: string; reason: string | null }[]>((resolve, reject) => {
+  const open = indexedDB.open('stratameter');
+  open.onerror = () => reject(open.error);
+  open.onsuccess = () => {
+    const db = open.result;
+    const req = db.transaction('batchFiles').objectStore('batchFiles').index('byBatch').getAll(id);
+    req.onsuccess = () => {
+      resolve(req.result.map((r: { name: string; status: string; result: { reason?: string } | null }) => ({ name: r.name, status: r.status, reason: r.result?.reason ?? null })));
+      db.close();
+    };
+    req.onerror = () => reject(req.error);
+  };
+}), batchId);
+
+async function shoot(name: string) {
+  await s.page.setViewportSize({ width: 1400, height: 1800 });
+  await s.page.evaluate(() => new Promise((r) => requestAnimationFrame(() => requestAnimationFrame(r))));
+  await s.page.screenshot({ path: join(dir, name) });
+  await s.page.setViewportSize({ width: 1400, height: 900 });
+}
+
+async function openBatchTab() {
+  await s.page.waitForSelector('strata-app');
+  await app().locator('[role="tab"]', { hasText: 'Batch' }).click();
+  await panel().waitFor();
+}
+
+beforeAll(async () => {
+  s = await openSession();
+  s.page.on('pageerror', (e) => errors.push(String(e)));
+  await s.page.goto(s.url);
+  await openBatchTab();
+  console.log(`screenshots in ${dir}`);
+});
+afterAll(async () => {
+  await s?.close();
+});
+
+test('demo images and a corrupt file run as a batch, survive a reload, and export one zip', async () => {
+  // Files: the demo micrographs and a file that starts like a TIFF but is not one.
+  await panel().locator('button.use-demos').click();
+  await s.page.waitForFunction(() => (document.querySelector('strata-app')?.shadowRoot?.querySelector('strata-batch-panel') as unknown as { chosen: unknown[] })?.chosen.length === 4, undefined, { timeout: 60_000 });
+  const corrupt = Buffer.alloc(4096, 7);
+  corrupt.write('II*\0', 0, 'latin1');
+  await panel().locator('input.files').setInputFiles({ name: CORRUPT, mimeType: 'image/tiff', buffer: corrupt });
+  await s.page.waitForFunction(() => (document.querySelector('strata-app')?.shadowRoot?.querySelector('strata-batch-panel') as unknown as { chosen: unknown[] })?.chosen.length === 5);
+  // Annotated figures on: they go into the zip.
+  await panel().locator('input.o-figures').check();
+  await shoot('1-chosen.png');
+
+  await panel().locator('button.start').click();
+  // Reload as soon as the first file is committed.
+  await s.page.waitForFunction(() => {
+    const b = (document.querySelector('strata-app')?.shadowRoot?.querySelector('strata-batch-panel') as unknown as { batch: { ok: number; failed: number } | null })?.batch;
+    return !!b && b.ok + b.failed >= 1;
+  }, undefined, { timeout: 170_000 });
+  await shoot('2-running.png');
+  const before = await view();
+  expect(before.batch?.total).toBe(5);
+  expect(before.running).toBe(true);
+  const batchId = before.batch!.id;
+  await s.page.reload();
+  await openBatchTab();
+
+  // After the reload the stopped batch is shown with Resume; what was committed is kept.
+  await panel().locator('button.resume').waitFor({ timeout: 30_000 });
+  const afterReload = await view();
+  expect(afterReload.batch?.id).toBe(batchId);
+  const kept = await stored(batchId);
+  const committed = kept.filter((r) => r.status !== 'queued').length;
+  expect(committed).toBeGreaterThanOrEqual(1);
+  expect(committed).toBeLessThan(5);
+  expect(afterReload.batch!.ok + afterReload.batch!.failed).toBe(committed);
+  await shoot('3-after-reload.png');
+
+  await panel().locator('button.resume').click();
+  await s.page.waitForFunction(() => {
+    const p = document.querySelector('strata-app')?.shadowRoot?.querySelector('strata-batch-panel') as unknown as { batch: { state: string } | null; running: boolean };
+    return p?.batch?.state === 'finished' && !p.running;
+  }, undefined, { timeout: 170_000 });
+  const done = await view();
+  // Every file exactly once: 3 measured, the PNG without calibration and the corrupt file failed.
+  expect(done.batch).toMatchObject({ total: 5, ok: 3, failed: 2 });
+  const records = await stored(batchId);
+  expect(records.map((r) => r.name).sort()).toEqual([...DEMOS, CORRUPT].sort());
+  for (const name of CALIBRATED) expect(records.find((r) => r.name === name)?.status, name).toBe('ok');
+  expect(records.find((r) => r.name === 'lamellar-mesophase.png')).toMatchObject({ status: 'failed', reason: expect.stringMatching(/no pixel size in the file metadata/) });
+  expect(records.find((r) => r.name === CORRUPT)).toMatchObject({ status: 'failed', reason: expect.stringMatching(/cannot read the file/) });
+  // the table lists the reasons
+  await expect(panel().locator('tr[data-file="broken-scan.tif"] td.status-failed').textContent()).resolves.toBe('failed');
+  await expect(panel().locator('td.reason', { hasText: 'cannot read the file' }).count()).resolves.toBeGreaterThanOrEqual(1);
+  await shoot('4-finished.png');
+
+  // One zip with every export.
+  const [dl] = await Promise.all([s.page.waitForEvent('download'), panel().locator('button.export-zip').click()]);
+  const zip = unzipSync(new Uint8Array(readFileSync((await dl.path())!)));
+  const names = Object.keys(zip).sort();
+  expect(names).toEqual(expect.arrayContaining(['batch.json', 'recipe.json', 'results.csv', 'summary.csv', 'histograms/top-period.svg']));
+  for (const name of CALIBRATED) expect(names).toContain(`figures/${name}.png`);
+  // PNG signature (ISO/IEC 15948 §5.2): 137 80 78 71 13 10 26 10
+  expect([...zip[`figures/${CALIBRATED[0]}.png`].subarray(0, 8)]).toEqual([137, 80, 78, 71, 13, 10, 26, 10]);
+  const doc = JSON.parse(strFromU8(zip['batch.json'])) as { results: { file: string; status: string }[]; pooled: { files: { total: number; ok: number; failed: number } } };
+  expect(doc.results.map((r) => r.file).sort()).toEqual([...DEMOS, CORRUPT].sort());
+  expect(doc.pooled.files).toEqual({ total: 5, ok: 3, failed: 2 });
+  expect(strFromU8(zip['histograms/top-period.svg'])).toContain('<svg xmlns="http://www.w3.org/2000/svg"');
+  const summaryLines = strFromU8(zip['summary.csv']).trim().split(/\r\n/);
+  expect(summaryLines.length).toBe(1 + 5);
+
+  expect(foreignRequests(s.requests, s.url)).toEqual([]);
+  expect(errors).toEqual([]);
+});
