@@ -94,6 +94,7 @@ export class StrataViewer extends LitElement {
     manual: { state: true },
     cursor: { state: true },
     draft: { state: true },
+    keyCursor: { state: true },
   };
 
   image: GreyImage | null = null;
@@ -127,6 +128,9 @@ export class StrataViewer extends LitElement {
   private shownHistogram: Histogram | null = null;
   private imageData: ImageData | null = null;
   private shownData: Float32Array | null = null;
+  /** Keyboard drawing: the cross-hair and the start point set with Enter (image px). */
+  private keyCursor: { x: number; y: number } | null = null;
+  private keyStart: { x: number; y: number } | null = null;
 
   static override styles = [
     controlStyles,
@@ -428,9 +432,7 @@ export class StrataViewer extends LitElement {
         this.draft = null;
         return;
       }
-      this.dispatchEvent(new CustomEvent<RectDrawnDetail>('rect-drawn', {
-        detail: { x: r.x, y: r.y, width: r.width, height: r.height }, bubbles: true, composed: true,
-      }));
+      this.emitRect();
     }
   }
 
@@ -453,6 +455,10 @@ export class StrataViewer extends LitElement {
 
   private onKey(e: KeyboardEvent): void {
     if (!this.image) return;
+    if (this.tool !== 'pan' && this.onDrawKey(e)) {
+      e.preventDefault();
+      return;
+    }
     const panStep = (e.shiftKey ? 0.5 : 0.1) * Math.min(this.viewW, this.viewH) / this.zoom;
     let handled = true;
     switch (e.key) {
@@ -467,10 +473,76 @@ export class StrataViewer extends LitElement {
       case 'i': this.invert = !this.invert; break;
       case '[': this.changeWidth(-1); break;
       case ']': this.changeWidth(1); break;
-      case 'Escape': this.draft = null; break;
+      case 'Escape': this.draft = null; this.keyStart = null; break;
       default: handled = false;
     }
     if (handled) e.preventDefault();
+  }
+
+  /**
+   * Drawing from the keyboard (line and region tools): arrows move a cross-hair (Shift: 10×),
+   * Enter sets the start and then the end; Escape cancels. Returns true when the key was used.
+   */
+  private onDrawKey(e: KeyboardEvent): boolean {
+    const im = this.image as GreyImage;
+    const moves: Record<string, [number, number]> = { ArrowLeft: [-1, 0], ArrowRight: [1, 0], ArrowUp: [0, -1], ArrowDown: [0, 1] };
+    if (!this.keyCursor && (e.key in moves || e.key === 'Enter')) {
+      this.keyCursor = { x: Math.round(Math.min(im.width - 1, Math.max(0, this.cx))), y: Math.round(Math.min(im.height - 1, Math.max(0, this.cy))) };
+      if (e.key !== 'Enter') return true;
+    }
+    const k = this.keyCursor;
+    if (!k) return false;
+    if (e.key in moves) {
+      const step = Math.max(1, Math.round(1 / this.zoom)) * (e.shiftKey ? 10 : 1);
+      const [dx, dy] = moves[e.key];
+      k.x = Math.min(im.width, Math.max(0, k.x + dx * step));
+      k.y = Math.min(im.height, Math.max(0, k.y + dy * step));
+      this.keyCursor = { ...k };
+      const v = k.x < im.width && k.y < im.height ? im.data[k.y * im.width + k.x] : NaN;
+      this.cursor = { x: k.x, y: k.y, value: v };
+      // Keep the cross-hair in view.
+      const [sx, sy] = this.toScreen(k.x, k.y);
+      if (sx < 0 || sx > this.viewW) this.cx = k.x;
+      if (sy < 0 || sy > this.viewH) this.cy = k.y;
+      if (this.keyStart) this.draft = this.shapeBetween(this.keyStart, k);
+      return true;
+    }
+    if (e.key === 'Enter') {
+      if (!this.keyStart) {
+        this.keyStart = { ...k };
+        this.draft = this.shapeBetween(k, k);
+      } else {
+        this.draft = this.shapeBetween(this.keyStart, k);
+        this.keyStart = null;
+        if (this.draft.kind === 'line') {
+          if (Math.hypot(this.draft.x1 - this.draft.x0, this.draft.y1 - this.draft.y0) >= 2) this.emitLine();
+          else this.draft = null;
+        } else if (this.draft.kind === 'rect') {
+          if (this.draft.width >= 2 && this.draft.height >= 2) this.emitRect();
+          else this.draft = null;
+        }
+      }
+      return true;
+    }
+    if (e.key === 'Escape') {
+      this.keyStart = null;
+      this.keyCursor = null;
+      this.draft = null;
+      return true;
+    }
+    return false;
+  }
+
+  private shapeBetween(a: { x: number; y: number }, b: { x: number; y: number }): OverlayShape {
+    return this.tool === 'line'
+      ? { kind: 'line', x0: a.x, y0: a.y, x1: b.x, y1: b.y, widthPx: this.lineWidthPx }
+      : { kind: 'rect', ...this.normalRect(a.x, a.y, b.x, b.y) };
+  }
+
+  private emitRect(): void {
+    if (this.draft?.kind !== 'rect') return;
+    const { x, y, width, height } = this.draft;
+    this.dispatchEvent(new CustomEvent<RectDrawnDetail>('rect-drawn', { detail: { x, y, width, height }, bubbles: true, composed: true }));
   }
 
   private changeWidth(delta: number): void {
@@ -484,6 +556,8 @@ export class StrataViewer extends LitElement {
   private setTool(tool: ViewerTool): void {
     this.tool = tool;
     this.draft = null;
+    this.keyStart = null;
+    this.keyCursor = null;
     this.dispatchEvent(new CustomEvent('tool-changed', { detail: { tool }, bubbles: true, composed: true }));
   }
 
@@ -533,6 +607,13 @@ export class StrataViewer extends LitElement {
     const [px, py] = this.toScreen(s.x, s.y);
     return svg`<circle cx=${px} cy=${py} r="4" fill="none" stroke=${tone} stroke-width="1.5"></circle>
       ${s.label ? svg`<text x=${px + 6} y=${py - 6} fill=${tone} font-size="12">${s.label}</text>` : nothing}`;
+  }
+
+  private renderCrosshair(k: { x: number; y: number }) {
+    const [x, y] = this.toScreen(k.x + 0.5, k.y + 0.5);
+    return svg`<g class="crosshair" stroke="#ffd84d" stroke-width="1.5">
+      <line x1=${x - 12} y1=${y} x2=${x - 3} y2=${y}></line><line x1=${x + 3} y1=${y} x2=${x + 12} y2=${y}></line>
+      <line x1=${x} y1=${y - 12} x2=${x} y2=${y - 3}></line><line x1=${x} y1=${y + 3} x2=${x} y2=${y + 12}></line></g>`;
   }
 
   private renderScaleBar() {
@@ -592,13 +673,14 @@ export class StrataViewer extends LitElement {
         <label><input type="checkbox" .checked=${this.invert} ?disabled=${!im} @change=${(e: Event) => (this.invert = (e.target as HTMLInputElement).checked)}> invert</label>
       </div>
       <div class="stage ${this.tool === 'pan' ? '' : 'drawing'}" tabindex="0" role="application" aria-roledescription="image viewer"
-        aria-label=${im ? `Image ${im.width} by ${im.height} pixels. Plus and minus zoom, arrow keys pan, F fits, 1 shows actual size.` : 'No image open'}
+        aria-label=${im ? `Image ${im.width} by ${im.height} pixels. Plus and minus zoom, arrow keys pan, F fits, 1 shows actual size. With the line or region tool, arrow keys move a cross-hair and Enter sets the start and the end.` : 'No image open'}
         @pointerdown=${this.onPointerDown} @pointermove=${this.onPointerMove} @pointerup=${this.onPointerUp}
         @pointerleave=${() => (this.cursor = null)} @keydown=${this.onKey}>
         <canvas class="view"></canvas>
         ${im ? html`<svg class="overlay" viewBox="0 0 ${this.viewW} ${this.viewH}">
           ${this.shapes.map((s) => this.renderShape(s, false))}
           ${this.draft ? this.renderShape(this.draft, true) : nothing}
+          ${this.keyCursor && this.tool !== 'pan' ? this.renderCrosshair(this.keyCursor) : nothing}
           ${this.renderScaleBar()}</svg>` : html`<div class="empty">No image open</div>`}
       </div>
       <div class="foot">${this.renderReadout()}${im ? html`<canvas class="hist" role="img" aria-label="Intensity histogram (log counts) with the black and white limits"></canvas>` : nothing}</div>

@@ -130,6 +130,23 @@ test('line and rectangle tools report image-pixel coordinates; the scale bar and
   await s.page.screenshot({ path: join(dir, 'tools.png') });
 });
 
+test('with the keyboard alone, a region is drawn from a cross-hair moved by the arrow keys', async () => {
+  await viewer().locator('button', { hasText: 'Region' }).focus();
+  await s.page.keyboard.press('Enter'); // the Region button: already on, stays on
+  await viewer().locator('.stage').focus();
+  const st = await viewerState();
+  const start = { x: Math.round(st.cx), y: Math.round(st.cy) };
+  await s.page.keyboard.press('Enter');
+  for (let i = 0; i < 3; i++) await s.page.keyboard.press('Shift+ArrowRight');
+  for (let i = 0; i < 2; i++) await s.page.keyboard.press('Shift+ArrowDown');
+  await s.page.keyboard.press('ArrowLeft');
+  await s.page.keyboard.press('Enter');
+  const drawn = await s.page.evaluate(() => (window as unknown as { drawn: Record<string, number | string>[] }).drawn);
+  const step = Math.max(1, Math.round(1 / st.zoom));
+  expect(drawn[drawn.length - 1]).toEqual({ type: 'rect', x: start.x, y: start.y, width: 29 * step, height: 20 * step });
+  await s.page.keyboard.press('Escape');
+});
+
 test('the library asks before deleting, and export then import brings the images back', async () => {
   await s.page.locator('strata-app [role="tab"]', { hasText: 'Library' }).click();
   const items = s.page.locator('strata-library li');
