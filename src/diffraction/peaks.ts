@@ -306,7 +306,9 @@ export function fitPattern(pattern: Pattern, options: FitOptions = {}): PatternF
       lower.push(c.position - c.fwhm, 0, 0.2 * c.fwhm, 0);
       upper.push(c.position + c.fwhm, Infinity, 5 * c.fwhm, 1);
     }
+    const c2s = new Float64Array(g.length);
     const evalModel = (p: Float64Array, out: Float64Array) => {
+      for (let k = 0; k < g.length; k++) c2s[k] = useKa2 ? ka2Of(p[2 + 4 * k]) : NaN;
       for (let i = 0; i < xs.length; i++) {
         let v = bg[i] + p[0] + p[1] * (xs[i] - xc);
         for (let k = 0; k < g.length; k++) {
@@ -315,10 +317,7 @@ export function fitPattern(pattern: Pattern, options: FitOptions = {}): PatternF
           const w = p[4 + 4 * k];
           const e = p[5 + 4 * k];
           v += a * pseudoVoigt(xs[i] - c, w, e);
-          if (useKa2) {
-            const c2 = ka2Of(c);
-            if (!Number.isNaN(c2)) v += KA2_RATIO * a * pseudoVoigt(xs[i] - c2, w, e);
-          }
+          if (!Number.isNaN(c2s[k])) v += KA2_RATIO * a * pseudoVoigt(xs[i] - c2s[k], w, e);
         }
         out[i] = v;
       }
@@ -327,7 +326,7 @@ export function fitPattern(pattern: Pattern, options: FitOptions = {}): PatternF
     for (let i = 0; i < xs.length; i++) {
       weights[i] = pattern.sigma ? 1 / pattern.sigma[i0 + i] ** 2 : counts ? 1 / Math.max(ys[i], 1) : 1;
     }
-    const fit = levenbergMarquardt(evalModel, ys, p0, { lower, upper, weights, scaleCovariance: !pattern.sigma, maxIterations: 300 });
+    const fit = levenbergMarquardt(evalModel, ys, p0, { lower, upper, weights, scaleCovariance: !pattern.sigma, maxIterations: 300, tolerance: 1e-7 });
     const full = new Float64Array(xs.length);
     evalModel(fit.params, full);
     for (let i = 0; i < xs.length; i++) model[i0 + i] = full[i];
