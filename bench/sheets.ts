@@ -40,7 +40,7 @@ function blur1d(v: Float64Array, sigma: number): Float64Array {
 }
 
 // ---------- A: along a line (profiles of 2 stacks with a gap) ----------
-const parts = process.argv[2] ?? 'ABC';
+const parts = process.argv[2] ?? 'ABCD';
 const noiseLevels: [string, number][] = [
   ['low', 0.015],
   ['moderate', 0.03],
@@ -179,4 +179,27 @@ for (const [label, noise] of [['amorphous film only', 0], ['film + moderate nois
   rowsC.push([label, 6, sheets, lineSheets]);
 }
 table(['image', 'images', 'automatic sheets', 'sheets on a line'], rowsC);
+}
+
+// ---------- D: time on large images ----------
+if (parts.includes('D')) {
+  console.log('## D. Time for a whole image (one run each, single thread): automatic sheets and the domain map\n');
+  const { domainMap } = await import('../src/measure/domains');
+  const rowsD: (string | number)[][] = [];
+  for (const n of [1024, 2048]) {
+    const sheets: ImageSheet[] = [];
+    const per = n / 256;
+    for (let i = 0; i < per * per; i++) {
+      sheets.push({ layers: 2 + (i % 10), periodPx: 9, cx: 128 + 256 * (i % per), cy: 128 + 256 * Math.floor(i / per), angleDeg: (37 * i) % 180, lengthPx: 150 });
+    }
+    const img = syntheticImage(n, n, sheets, { noise: 0.05, amorphous: 0.05, seed: 1 });
+    let t = performance.now();
+    const r = detectSheets(img);
+    const ta = performance.now() - t;
+    t = performance.now();
+    const d = domainMap(img);
+    const td = performance.now() - t;
+    rowsD.push([`${n} × ${n}`, sheets.length, r.sheets.length, ta.toFixed(0), d.columns * d.rows, td.toFixed(0)]);
+  }
+  table(['image', 'true sheets', 'found', 'automatic (ms)', 'tiles', 'domain map (ms)'], rowsD);
 }

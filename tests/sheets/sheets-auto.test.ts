@@ -2,7 +2,7 @@ import { describe, expect, it } from 'vitest';
 import { makeGreyImage } from '../../src/image/grey-image';
 import { detectSheets, sheetStatistics } from '../../src/measure/sheets-auto';
 import { sheetsAlongLine } from '../../src/measure/sheets-line';
-import { axialDifferenceDeg, structureTensor } from '../../src/measure/structure-tensor';
+import { axialDifferenceDeg, recursiveGaussian, structureTensor } from '../../src/measure/structure-tensor';
 import { syntheticImage } from './synthetic';
 
 // Synthetic clay tactoids in a polymer film with known truth (algorithm tests).
@@ -24,6 +24,21 @@ describe('structureTensor', () => {
     const i = 32 * w + 32;
     expect(axialDifferenceDeg(f.angleDeg[i], 30)).toBeLessThan(0.5);
     expect(f.coherence[i]).toBeGreaterThan(0.95);
+  });
+  it('recursive Gaussian: unit gain and the variance of a Gaussian of that σ', () => {
+    // Young & van Vliet (1995): the impulse response approximates a Gaussian of standard deviation σ
+    for (const sigma of [2, 6, 12]) {
+      const w = 201;
+      const img = new Float32Array(w * w);
+      img[100 * w + 100] = 1;
+      const out = recursiveGaussian(img, w, w, sigma);
+      let sum = 0;
+      let varX = 0;
+      for (let y = 0; y < w; y++) for (let x = 0; x < w; x++) { sum += out[y * w + x]; varX += out[y * w + x] * (x - 100) ** 2; }
+      expect(sum).toBeCloseTo(1, 3);
+      expect(Math.abs(Math.sqrt(varX / sum) - sigma) / sigma).toBeLessThan(0.03);
+      expect(out[100 * w + 100 - 5]).toBeCloseTo(out[100 * w + 105], 4);
+    }
   });
   it('axial differences wrap at 180°', () => {
     expect(axialDifferenceDeg(179, 1)).toBeCloseTo(2, 12);
