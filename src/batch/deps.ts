@@ -10,7 +10,9 @@ import { decodeImage } from '../image/decode';
 import { makeGreyImage, type GreyImage } from '../image/grey-image';
 import { measureRegion } from '../measure/measure-region';
 import { toNm, type Measurement, type Region } from '../measure/measurement';
+import { domainMap } from '../measure/domains';
 import { detectSheets } from '../measure/sheets-auto';
+import { autoSheetsMeasurement, domainsMeasurement } from '../measure/sheets-measurement';
 import { findRings, powerSpectrum, radialProfile, type RectPx } from '../measure/spectrum';
 import type { BatchDeps, SheetsResult } from './run';
 
@@ -62,49 +64,49 @@ function cropImage(image: GreyImage, r: RectPx): GreyImage {
  * Automatic sheets in a region as a Measurement (tool 'sheets-auto') with each sheet's thickness.
  * @param image calibrated or not (uncalibrated sheets have no nm thickness)
  * @param region the region
- * @returns the measurement (sheets in detail.sheets, centres in image pixels, outlines left out)
- *   and the thickness in nm of every sheet that has one
+ * @returns the measurement of `autoSheetsMeasurement` (positions in image pixels, region set) and
+ *   the thickness in nm of every sheet that has one
  * Reference: as detectSheets (structure-tensor coherence, Bigün & Granlund 1987; analytic-signal profiles).
  */
 export async function sheetsMeasurement(image: GreyImage, region: Region): Promise<SheetsResult> {
   const rect = rectOf(region) ?? { x: 0, y: 0, width: image.width, height: image.height };
   const found = detectSheets(cropImage(image, rect));
+  const shift = (p: [number, number]): [number, number] => [p[0] + rect.x, p[1] + rect.y];
   const sheets = found.sheets.map((s) => ({
-    id: s.id,
-    layers: s.layers,
-    thicknessPx: s.thicknessPx,
-    thicknessNm: s.thicknessNm,
-    edgeToEdgeNm: s.edgeToEdgeNm,
-    periodPx: s.periodPx,
-    periodNm: s.periodNm,
-    angleDeg: s.angleDeg,
-    centerPx: [s.centerPx[0] + rect.x, s.centerPx[1] + rect.y],
-    lengthPx: s.lengthPx,
-    lines: s.crossings.length,
+    ...s,
+    centerPx: shift(s.centerPx),
+    outlinePx: s.outlinePx.map(shift),
+    crossings: s.crossings.map((c) => ({ ...c, centerPx: shift(c.centerPx) })),
   }));
-  const measurement: Measurement = {
-    id: globalThis.crypto.randomUUID(),
-    imageId: null,
-    fileName: '',
-    createdIso: new Date().toISOString(),
-    tool: 'sheets-auto',
-    region: { kind: 'rect', ...rect },
-    calibration: image.calibration,
-    settings: found.settings,
-    periodicities: [],
-    detail: { sheets, layeredRegions: found.regions },
-    notes: sheets.length ? [] : ['no sheet found'],
+  const m = autoSheetsMeasurement({ ...found, sheets }, { id: globalThis.crypto.randomUUID(), imageId: null, fileName: '', calibration: image.calibration });
+  return {
+    measurement: { ...m, region: { kind: 'rect', ...rect } },
+    thicknessNm: sheets.map((s) => s.thicknessNm).filter((t): t is number => t !== null),
   };
-  return { measurement, thicknessNm: sheets.map((s) => s.thicknessNm).filter((t): t is number => t !== null) };
+}
+
+/**
+ * The domain map of a region as a Measurement (tool 'domains').
+ * @param image calibrated or not
+ * @param region the region
+ * @returns the measurement of `domainsMeasurement`, region set; domain centres in image pixels,
+ *   the label grid starting at the region's corner (detail.originPx)
+ * Reference: as domainMap (structure tensor, Bigün & Granlund 1987; region growing).
+ */
+export async function domainsOfRegion(image: GreyImage, region: Region): Promise<Measurement> {
+  const rect = rectOf(region) ?? { x: 0, y: 0, width: image.width, height: image.height };
+  const map = domainMap(cropImage(image, rect));
+  const domains = map.domains.map((d) => ({ ...d, centerPx: [d.centerPx[0] + rect.x, d.centerPx[1] + rect.y] as [number, number] }));
+  const m = domainsMeasurement({ ...map, domains }, { id: globalThis.crypto.randomUUID(), imageId: null, fileName: '', calibration: image.calibration });
+  return { ...m, region: { kind: 'rect', ...rect }, detail: { ...(m.detail ?? {}), originPx: [rect.x, rect.y] } };
 }
 
 /**
  * The batch runner's tools.
- * @returns decoder, information-strip and scale-bar reading, spectrum, ring and sheet steps
+ * @returns decoder, information-strip and scale-bar reading, and every measurement step
  * Notes: the information strip is the edge panel holding the scale bar (findScaleBar's
  * stripBox) when it lies along the bottom; the scale-bar route reads the bar's label offline
- * (one OCR engine per worker, started on first use). Steps not in this build (domains) are
- * absent; `processOne` names a missing one if a recipe asks for it.
+ * (one OCR engine per worker, started on first use).
  */
 export async function createBatchDeps(): Promise<BatchDeps> {
   const bars = new WeakMap<Float32Array, ScaleBar | null>();
@@ -129,5 +131,6 @@ export async function createBatchDeps(): Promise<BatchDeps> {
     spectrum: (image, region, options) => measureRegion(image, rectOf(region), { maxSpots: options.topK }),
     rings: ringsMeasurement,
     sheets: sheetsMeasurement,
+    domains: domainsOfRegion,
   };
 }

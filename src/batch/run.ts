@@ -51,7 +51,11 @@ export interface TopPeriod {
 
 /** What a file's results come to. */
 export interface FileSummary {
-  /** Accepted periods of all regions, strongest first (at most the spectrum step's topK, else 3). */
+  /**
+   * Accepted periods of all regions from the recipe's first period step (spectrum, rings or
+   * domains: their strengths are on different scales), strongest first; at most the spectrum
+   * step's topK, else 3.
+   */
   topPeriods: TopPeriod[];
   /** Number of sheets found, or null when the sheets step did not run. */
   sheetCount: number | null;
@@ -327,10 +331,12 @@ export async function processOne(
       }
     }
 
-    const spectrumStep = recipe.measurements.find((s) => s.tool === 'spectrum');
-    const topK = spectrumStep && spectrumStep.tool === 'spectrum' ? spectrumStep.topK : 3;
+    // periods of the first periodic step of the recipe (spectrum, rings or domains): their strength scales differ
+    const periodStep = recipe.measurements.find((st) => st.tool !== 'sheets');
+    const topK = periodStep?.tool === 'spectrum' ? periodStep.topK : 3;
+    const periodTool = periodStep ? ({ spectrum: 'spectrum', rings: 'rings', domains: 'domains' } as const)[periodStep.tool as 'spectrum' | 'rings' | 'domains'] : null;
     const topPeriods: TopPeriod[] = measurements
-      .filter((m) => m.tool !== 'sheets-auto')
+      .filter((m) => m.tool === periodTool)
       .flatMap((m) =>
         m.periodicities
           .filter((p) => p.periodNm !== null && p.uncertaintyNm !== null)

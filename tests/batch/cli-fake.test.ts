@@ -84,3 +84,10 @@ test('a file that stops its worker fails alone; a fresh worker takes the remaini
   const again = await runBatch({ folder: dir, recipe, outCsv: join(dir, 'out', 'results.csv'), jobs: 1, depsModule }, io);
   expect([again.processed, again.skipped]).toEqual([1, 4]);
 }, 120_000);
+
+test('a step the tools lack stops the batch before any file, as a usage error', async () => {
+  // the fakes have no domains tool
+  const recipe = parseRecipe({ schemaVersion: 1, measurements: [{ tool: 'domains' }] });
+  await expect(runBatch({ folder: dir, recipe, outCsv: join(dir, 'out', 'r.csv'), jobs: 1, depsModule }, io)).rejects.toThrow(/cannot run the recipe's step\(s\) domains/);
+  await expect(readdir(join(dir, 'out', 'records'))).rejects.toThrow(/ENOENT/);
+}, 60_000);

@@ -88,11 +88,3 @@ test('batch: a bad recipe is a usage error naming the key', async () => {
   expect(await main(['batch', dir, '--recipe', join(dir, 'bad.json'), '--out', join(dir, 'o2', 'r.csv')], c.io)).toBe(2);
   expect(c.err.join('')).toMatch(/acceptance.periodRangeNm\[0\]: is in pixels/);
 });
-
-test('batch: a step this build lacks stops the batch before any file', async () => {
-  await writeFile(join(dir, 'domains.json'), JSON.stringify({ schemaVersion: 1, measurements: [{ tool: 'domains' }] }));
-  const c = capture();
-  const code = await main(['batch', dir, '--recipe', join(dir, 'domains.json'), '--out', join(dir, 'o3', 'r.csv'), '--jobs', '1'], c.io);
-  expect(code).toBe(2);
-  expect(c.err.join('')).toMatch(/cannot run the recipe's step\(s\) domains/);
-}, 60_000);

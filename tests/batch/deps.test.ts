@@ -1,5 +1,5 @@
 import { expect, test } from 'vitest';
-import { createBatchDeps, ringsMeasurement, sheetsMeasurement } from '../../src/batch/deps';
+import { createBatchDeps, domainsOfRegion, ringsMeasurement, sheetsMeasurement } from '../../src/batch/deps';
 import { parseRecipe } from '../../src/batch/recipe';
 import { processOne } from '../../src/batch/run';
 import { encodeTiff } from '../../src/image/encode-tiff';
@@ -58,4 +58,24 @@ test('sheets: the automatic sheets of a region, thickness in nm, centres in imag
   const sheets = half.measurement.detail!.sheets as { layers: number; centerPx: [number, number] }[];
   expect(sheets.map((s) => s.layers)).toEqual([3]);
   expect(Math.hypot(sheets[0].centerPx[0] - 320, sheets[0].centerPx[1] - 320)).toBeLessThan(10);
+}, 60_000);
+
+test('domains: two halves of different fringe direction are two domains, centres in image pixels', async () => {
+  // left half: normal at 0°, right half: at 90°, both 10 px (synthetic, known truth)
+  const w = 512;
+  const h = 256;
+  const data = new Float32Array(w * h);
+  for (let y = 0; y < h; y++) for (let x = 0; x < w; x++) data[y * w + x] = 100 + 50 * Math.cos((2 * Math.PI * (x < 256 ? x : y)) / 10);
+  const img = makeGreyImage(w, h, data, { calibration: { nmPerPx: 0.1, source: 'manual', relUncertainty: 0.02, detail: '' } });
+  const m = await domainsOfRegion(img, { kind: 'rect', x: 0, y: 0, width: w, height: h });
+  expect(m.tool).toBe('domains');
+  const big = (m.detail!.domains as { tiles: number; periodPx: number; angleDeg: number; centerPx: [number, number] }[]).filter((d) => d.tiles >= 10);
+  expect(big).toHaveLength(2);
+  // 10 px × 0.1 nm/px = 1 nm (definition of the pixel size)
+  for (const d of big) expect(d.periodPx).toBeCloseTo(10, 0);
+  const left = big.find((d) => d.centerPx[0] < 256)!;
+  const right = big.find((d) => d.centerPx[0] >= 256)!;
+  expect(Math.min(left.angleDeg, 180 - left.angleDeg)).toBeLessThan(3);
+  expect(Math.abs(right.angleDeg - 90)).toBeLessThan(3);
+  expect(m.periodicities[0].periodNm!).toBeCloseTo(1.0, 1);
 }, 60_000);

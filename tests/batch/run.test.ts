@@ -128,6 +128,13 @@ describe('processOne', () => {
     expect(result.summary.topPeriods).toHaveLength(1);
   });
 
+  test('the summary takes its periods from the first period step only (strength scales differ)', async () => {
+    const r = recipe({ measurements: [{ tool: 'rings' }, { tool: 'spectrum', topK: 2 }] });
+    const { result } = await processOne(fakeFile(128, 128, 0.05, 20), 'r.tif', r, fakeDeps());
+    expect(result.summary.topPeriods.map((t) => t.tool)).toEqual(['rings']);
+    expect(result.measurements.map((m) => m.tool)).toEqual(['rings', 'spectrum']);
+  });
+
   test('a tool that throws fails the file with the tool named', async () => {
     const deps = fakeDeps({ spectrum: async () => { throw new Error('out of memory'); } });
     const { result } = await processOne(fakeFile(128, 128, 0.05, 20), 'x.tif', recipe(), deps);
