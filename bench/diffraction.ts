@@ -79,6 +79,7 @@ for (const sc of [lamellar(), clay(), crystalline()]) {
   let posZ = 0;
   const fwErrs: number[] = [];
   const sizeErrs: number[] = [];
+  let noSize = 0;
   let n = 0;
   let cellErr = 0;
   let cells = 0;
@@ -104,6 +105,11 @@ for (const sc of [lamellar(), clay(), crystalline()]) {
       posMax = Math.max(posMax, e);
       posZ += (e / (q.twoThetaUncDeg ?? Infinity)) ** 2;
       fwErrs.push(Math.abs(q.fwhmDeg! / tp.fwhmDeg - 1));
+      // as analysePattern: no size from a FWHM known to worse than half its value or at its bound
+      if (q.fwhmUncDeg! > 0.5 * q.fwhmDeg! || q.atBound.includes('fwhm')) {
+        noSize++;
+        return;
+      }
       const s = scherrerSize(q.fwhmDeg!, q.twoThetaDeg!, CU).sizeNm ?? NaN;
       sizeErrs.push(Math.abs(s / sc.sizesNm[i] - 1));
     });
@@ -125,11 +131,12 @@ for (const sc of [lamellar(), clay(), crystalline()]) {
     Math.sqrt(posZ / n).toFixed(2),
     `${(100 * median(fwErrs)).toFixed(2)} / ${(100 * Math.max(...fwErrs)).toFixed(1)}`,
     `${(100 * median(sizeErrs)).toFixed(2)} / ${(100 * Math.max(...sizeErrs)).toFixed(1)}`,
+    String(noSize),
     sc.period ? `${cells}/${SEEDS.length}, ${(100 * cellErr / Math.max(1, cells)).toFixed(3)}` : '—',
     (ms / SEEDS.length).toFixed(0),
   ]);
 }
-const head = ['scenario', 'found', 'extra', 'mean |Δ2θ| °', 'max |Δ2θ| °', 'rms Δ/σ', 'FWHM err % median / max', 'size err % median / max', 'lamellar period: found, err %', 'ms/pattern'];
+const head = ['scenario', 'found', 'extra', 'mean |Δ2θ| °', 'max |Δ2θ| °', 'rms Δ/σ', 'FWHM err % median / max', 'size err % median / max', 'no size', 'lamellar period: found, err %', 'ms/pattern'];
 const widths = head.map((h, i) => Math.max(h.length, ...rows.map((r) => r[i].length)));
 const line = (r: string[]) => '| ' + r.map((c, i) => c.padEnd(widths[i])).join(' | ') + ' |';
 console.log(`Diffraction fit accuracy: ${SEEDS.length} seeded Poisson realisations per scenario, Cu Kα1+Kα2 (ratio 0.5), pseudo-Voigt truth; sizes by Scherrer (K 0.9, no instrument term)`);

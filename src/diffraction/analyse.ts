@@ -42,7 +42,8 @@ export interface PatternAnalysis {
  * @param pattern the pattern
  * @param options fit settings, shape factor and instrumental breadth
  * @returns wavelength, peaks with sizes, series, background and model curves, notes
- * Notes: for q data without a wavelength the size is D = 2πK/Δq, the same Scherrer relation
+ * Notes: no size is given for a peak whose FWHM ended on its bound or has an uncertainty above
+ * half its value (noted). For q data without a wavelength the size is D = 2πK/Δq, the same Scherrer relation
  * written in q (Δq = FWHM in nm⁻¹).
  * Reference: see fitPattern, scherrerSize and indexSeries.
  */
@@ -54,6 +55,11 @@ export function analysePattern(pattern: Pattern, options: AnalyseOptions = {}): 
   let method = '';
   const warnings = new Set<string>();
   const peaks: AnalysedPeak[] = fit.peaks.map((p) => {
+    if (p.fwhmUncInvNm > 0.5 * p.fwhmInvNm || p.atBound.includes('fwhm')) {
+      const where = p.twoThetaDeg !== null ? `${p.twoThetaDeg.toFixed(3)}°` : `q ${p.qInvNm.toFixed(4)} nm⁻¹`;
+      warnings.add(`peak at ${where}: FWHM too poorly determined for a size (${p.atBound.includes('fwhm') ? 'at its bound' : 'uncertainty above half its value'})`);
+      return { ...p, crystalliteNm: null, crystalliteUncNm: null };
+    }
     if (p.fwhmDeg !== null && p.twoThetaDeg !== null && (pattern.wavelengthNm ?? 0) > 0) {
       const r = scherrerSize(p.fwhmDeg, p.twoThetaDeg, pattern.wavelengthNm!, { k, instrumentFwhmDeg: instAt(p.twoThetaDeg), correction: options.correction, fwhmUncDeg: p.fwhmUncDeg ?? 0 });
       method = r.method.replace(/instrument [0-9.]+° removed/, typeof inst === 'function' ? 'instrument breadth from the standard removed' : `instrument ${inst}° removed`);
