@@ -4,11 +4,11 @@
  */
 import { type Calibration, type GreyImage, makeGreyImage } from '../src/image/grey-image';
 
-/** "1.2503 ± 0.0041": the value rounded to the uncertainty's second significant digit. */
-export function formatWithUncertainty(value: number, uncertainty: number): string {
+/** "1.2503 ± 0.0041": the value rounded to the uncertainty's second (or `significant`-th) significant digit. */
+export function formatWithUncertainty(value: number, uncertainty: number, significant = 2): string {
   if (!Number.isFinite(value)) return '–';
   if (!(uncertainty > 0) || !Number.isFinite(uncertainty)) return `${value.toPrecision(4)} ± ?`;
-  const digits = Math.max(0, Math.min(6, 1 - Math.floor(Math.log10(uncertainty))));
+  const digits = Math.max(0, Math.min(6, significant - 1 - Math.floor(Math.log10(uncertainty))));
   return `${value.toFixed(digits)} ± ${uncertainty.toFixed(digits)}`;
 }
 

@@ -1,6 +1,5 @@
 import { LitElement, css, html, nothing, svg, type PropertyValues } from 'lit';
 import { classMap } from 'lit/directives/class-map.js';
-import { styleMap } from 'lit/directives/style-map.js';
 import type { GreyImage } from '../src/image/grey-image';
 import { type Measurement, type Periodicity, toNm } from '../src/measure/measurement';
 import { angleBetweenDeg, type Spot } from '../src/measure/spectrum';
@@ -22,7 +21,7 @@ export const panelLabel = 'Periods';
 /** Side of the spectrum picture on screen, CSS px. */
 const SPECTRUM_CSS_PX = 320;
 /** Longest side of pictures computed in the worker, px. */
-const PICTURE_PX = 512;
+const PICTURE_PX = 1024;
 /** Largest region sent for a spectrum, pixels. */
 const MAX_REGION_PIXELS = 4096 * 4096;
 const PLOT_WIDTH = 330;
@@ -41,11 +40,11 @@ const WINDOW_HELP: Record<WindowKind, string> = {
 };
 
 const ESTIMATORS: [ProfileEstimator, string][] = [
-  ['hann', 'Hann window, Grandke ratio'],
-  ['candan', 'no window, Candan'],
-  ['jacobsen', 'no window, Jacobsen'],
-  ['quinn', 'no window, Quinn'],
-  ['macleod', 'no window, Macleod'],
+  ['hann', 'Hann · Grandke'],
+  ['candan', 'no window · Candan'],
+  ['jacobsen', 'no window · Jacobsen'],
+  ['quinn', 'no window · Quinn'],
+  ['macleod', 'no window · Macleod'],
 ];
 
 const ALPHAS = [0.05, 0.01, 0.001, 1e-4, 1e-6];
@@ -90,6 +89,7 @@ export class StrataMeasurePanel extends LitElement {
     savedProfile: { state: true },
     savedSpectrum: { state: true },
     activeTool: { state: true },
+    zoom: { state: true },
   };
 
   image: GreyImage | null = null;
@@ -121,6 +121,8 @@ export class StrataMeasurePanel extends LitElement {
   savedProfile = '';
   savedSpectrum = '';
   activeTool: 'pan' | 'line' | 'rect' = 'pan';
+  /** Magnification of the spectrum picture about zero frequency. */
+  zoom = 1;
 
   private profileRun = 0;
   private spectrumRun = 0;
@@ -131,7 +133,7 @@ export class StrataMeasurePanel extends LitElement {
     controlStyles,
     plotStyles,
     css`
-      :host { display: block; padding: 8px 12px 24px; font-size: 13px; }
+      :host { display: block; padding: 8px 12px 24px; font-size: 13px; overflow-x: hidden; }
       h2 { font-size: 13px; font-weight: 600; margin: 16px 0 6px; letter-spacing: 0.02em; }
       h3 { font-size: 12px; font-weight: 600; margin: 12px 0 4px; color: var(--muted); }
       p { margin: 4px 0; line-height: 1.45; }
@@ -153,6 +155,8 @@ export class StrataMeasurePanel extends LitElement {
       .figure { position: relative; margin: 6px 0; outline: none; border-radius: 3px; }
       .figure:focus-visible { box-shadow: 0 0 0 2px var(--focus); }
       .figure canvas { display: block; image-rendering: pixelated; border: 1px solid var(--line); }
+      .figure .clip { position: relative; overflow: hidden; border: 1px solid var(--line); }
+      .figure .clip canvas { position: absolute; border: 0; }
       .figure svg.marks { position: absolute; left: 0; top: 0; cursor: crosshair; }
       svg.marks .spot { fill: none; stroke: #e8c872; stroke-width: 1.5; }
       svg.marks .spot.sel { stroke: #ffd84d; stroke-width: 2.5; }
@@ -160,12 +164,16 @@ export class StrataMeasurePanel extends LitElement {
       svg.marks .mate { fill: none; stroke: #e8c872; stroke-width: 1; stroke-dasharray: 2 2; }
       svg.marks .cross { stroke: #9fd3e6; stroke-width: 1; }
       svg.marks text { fill: #ffe9a8; font-size: 10px; paint-order: stroke; stroke: #000; stroke-width: 2.5px; }
+      .table-wrap { overflow-x: auto; max-width: 100%; }
       table { border-collapse: collapse; width: 100%; font-size: 12px; margin: 4px 0; }
-      th, td { padding: 2px 4px; text-align: right; border-bottom: 1px solid var(--line); white-space: nowrap; }
+      th, td { padding: 2px 3px; text-align: right; border-bottom: 1px solid var(--line); white-space: nowrap; }
       th { color: var(--muted); font-weight: normal; }
       th:first-child, td:first-child { text-align: center; }
       tr.sel td { background: #23303c; }
       td button { min-height: 20px; padding: 0 6px; }
+      td .dnm { font-weight: 600; }
+      td .dpx { color: var(--muted); font-size: 11px; }
+      .visually-hidden { position: absolute; width: 1px; height: 1px; overflow: hidden; clip-path: inset(50%); }
       .between { padding: 4px 6px; border-left: 2px solid var(--accent-2); margin: 4px 0; }
       .toggle { display: inline-flex; gap: 2px; }
       .empty { color: var(--muted); padding: 12px 0; }
@@ -422,6 +430,7 @@ export class StrataMeasurePanel extends LitElement {
       this.spots = result.spots.map((s) => ({ ...s, n: this.nextSpot++, added: false }));
       this.selected = this.spots.length ? [this.spots[0].n] : [];
       this.crosshair = null;
+      this.zoom = this.autoZoom();
     } catch (e) {
       if (run !== this.spectrumRun) return;
       this.spectrum = null;
@@ -433,29 +442,56 @@ export class StrataMeasurePanel extends LitElement {
     this.sendShapes();
   }
 
-  /** Transform bin (signed, DC = 0) → CSS px on the spectrum picture. */
-  private binToCss(su: number, sv: number): [number, number] {
-    const s = this.spectrum as SpectrumResult;
-    const k = s.binsPerPicturePx;
-    const scale = this.pictureScale();
-    return [(((s.width >> 1) + su) / k + 0.5 / k) * scale, (((s.height >> 1) + sv) / k + 0.5 / k) * scale];
-  }
-
-  /** CSS px per picture pixel. */
+  /** CSS px per picture pixel at zoom 1. */
   private pictureScale(): number {
     const p = (this.spectrum as SpectrumResult).picture;
     return SPECTRUM_CSS_PX / Math.max(p.width, p.height);
+  }
+
+  /** The visible frame (CSS px) and the zoomed picture's offset and scale inside it. */
+  private frame() {
+    const s = this.spectrum as SpectrumResult;
+    const base = this.pictureScale();
+    const cw = Math.round(s.picture.width * base);
+    const ch = Math.round(s.picture.height * base);
+    const z = this.zoom;
+    return { cw, ch, scale: base * z, left: -(cw * z - cw) / 2, top: -(ch * z - ch) / 2 };
+  }
+
+  /** Transform bin (signed, DC = 0) → CSS px in the visible frame. */
+  private binToCss(su: number, sv: number): [number, number] {
+    const s = this.spectrum as SpectrumResult;
+    const k = s.binsPerPicturePx;
+    const f = this.frame();
+    return [(((s.width >> 1) + su + 0.5) / k) * f.scale + f.left, (((s.height >> 1) + sv + 0.5) / k) * f.scale + f.top];
+  }
+
+  /** CSS px in the visible frame → transform bin (signed, DC = 0, fractional). */
+  private cssToBin(x: number, y: number): [number, number] {
+    const s = this.spectrum as SpectrumResult;
+    const k = s.binsPerPicturePx;
+    const f = this.frame();
+    return [((x - f.left) / f.scale) * k - 0.5 - (s.width >> 1), ((y - f.top) / f.scale) * k - 0.5 - (s.height >> 1)];
+  }
+
+  /** The largest zoom (×1, 2, 4, 8) that keeps every spot well inside the frame. */
+  private autoZoom(): number {
+    const s = this.spectrum;
+    if (!s || !this.spots.length) return 1;
+    let reach = 0;
+    for (const t of this.spots) reach = Math.max(reach, Math.abs(t.fx) * 2, Math.abs(t.fy) * 2);
+    // Zoom in while every spot stays within three quarters of the half-frame and 48 bins or more remain across.
+    let z = 1;
+    while (z < 8 && reach * 2 * z <= 0.75 && Math.min(s.width, s.height) / (2 * z) >= 48) z *= 2;
+    return z;
   }
 
   private onSpectrumClick(e: MouseEvent): void {
     const s = this.spectrum;
     if (!s) return;
     const r = (e.currentTarget as Element).getBoundingClientRect();
-    const k = s.binsPerPicturePx;
-    const scale = this.pictureScale();
-    // The marks start one border pixel inside the drawing; bin centres sit half a picture pixel in.
-    const u = ((e.clientX - r.left - 1) / scale - 0.5 / k) * k - (s.width >> 1);
-    const v = ((e.clientY - r.top - 1) / scale - 0.5 / k) * k - (s.height >> 1);
+    // The marks start one border pixel inside the drawing.
+    const [u, v] = this.cssToBin(e.clientX - r.left - 1, e.clientY - r.top - 1);
     this.crosshair = { u: Math.round(u), v: Math.round(v) };
     void this.addSpot(u / s.width, v / s.height);
   }
@@ -663,9 +699,8 @@ export class StrataMeasurePanel extends LitElement {
       }));
       body.push(html`<p class="note">${p.lengthPx.toFixed(1)} px at ${p.angleDeg.toFixed(1)}°, averaged over ${width} px${hasBand ? '; band ± standard error' : ''}. ● maxima, ○ minima used by the real-space estimate.</p>`);
       const sp = p.spectral;
-      const est = ESTIMATORS.find(([k]) => k === this.estimator)?.[1] ?? this.estimator;
       body.push(html`<div class="results">
-        ${this.periodCard('spectral', sp, sp ? `${est}; ${sp.fringes.toFixed(1)} periods along the line, SNR ${Number.isFinite(sp.snr) ? sp.snr.toPrecision(3) : '∞'}` : '')}
+        ${this.periodCard('spectral', sp, sp ? `${sp.method.replace(/^spectral \(|\)$/g, '')}; ${sp.fringes.toFixed(1)} periods along the line, SNR ${Number.isFinite(sp.snr) ? sp.snr.toPrecision(3) : '∞'}` : '')}
         ${this.periodCard('real space', rs, rs ? `extrema and least-squares line; ${rs.extremaPx.length} extrema over ${rs.fringes.toFixed(1)} fringes` : '')}
       </div>`);
       for (const n of p.notes) body.push(html`<p class="note">${n}</p>`);
@@ -687,30 +722,41 @@ export class StrataMeasurePanel extends LitElement {
 
   private renderSpectrumFigure(s: SpectrumResult) {
     const pic = s.picture;
-    const scale = this.pictureScale();
-    const cw = Math.round(pic.width * scale);
-    const ch = Math.round(pic.height * scale);
+    const { cw, ch, scale, left, top } = this.frame();
     const cal = this.image?.calibration ?? null;
     const marks = this.spots.map((t) => {
-      const su = t.fx * s.width;
-      const sv = t.fy * s.height;
+      // Show each spot in the upper half (y up), where its angle reads as drawn; its Friedel mate opposite.
+      const flip = t.fy > 0 || (t.fy === 0 && t.fx < 0) ? -1 : 1;
+      const su = flip * t.fx * s.width;
+      const sv = flip * t.fy * s.height;
       const [x, y] = this.binToCss(su, sv);
       const [mx, my] = this.binToCss(-su, -sv);
       const sel = this.selected.includes(t.n);
-      const right = x < cw - 90;
+      if (x < -8 || y < -8 || x > cw + 8 || y > ch + 8) return nothing;
+      const right = x < cw - 100;
+      // Full labels for the strongest and the selected spots; the others carry their number only.
+      const full = sel || t === this.spots[0];
       return svg`<circle class=${classMap({ spot: true, sel, added: t.added })} cx=${x} cy=${y} r="6"></circle>
         <circle class="mate" cx=${mx} cy=${my} r="6"></circle>
-        <text x=${right ? x + 9 : x - 9} y=${y - 7} text-anchor=${right ? 'start' : 'end'}>#${t.n} ${this.dText(t.periodPx, cal, t.fx, t.fy)} ${t.angleDeg.toFixed(0)}°</text>`;
+        <text x=${right ? x + 9 : x - 9} y=${y - 7} text-anchor=${right ? 'start' : 'end'}>#${t.n}${full ? ` ${this.dText(t.periodPx, cal, t.fx, t.fy)} ${t.angleDeg.toFixed(0)}°` : ''}</text>`;
     });
     const c = this.crosshair;
     const cross = c ? (() => {
       const [x, y] = this.binToCss(c.u, c.v);
       return svg`<line class="cross" x1=${x - 8} x2=${x + 8} y1=${y} y2=${y}></line><line class="cross" x1=${x} x2=${x} y1=${y - 8} y2=${y + 8}></line>`;
     })() : nothing;
-    return html`<div class="figure" tabindex="0" role="application"
+    const nyquist = cal ? `${(0.5 / cal.nmPerPx / this.zoom).toPrecision(3)} nm⁻¹` : `${(0.5 / this.zoom).toPrecision(3)} px⁻¹`;
+    return html`<div class="row">
+        <span class="toggle" role="group" aria-label="Spectrum zoom">${[1, 2, 4, 8].map((z) => html`<button aria-pressed=${this.zoom === z ? 'true' : 'false'}
+          title=${z === 1 ? 'The whole power spectrum, up to the Nyquist frequency' : `The central 1/${z} of the power spectrum (low spatial frequencies, large d-spacings)`}
+          @click=${() => (this.zoom = z)}>×${z}</button>`)}</span>
+        <span class="note num">edge: ${nyquist}</span></div>
+      <div class="figure" tabindex="0" role="application"
         aria-label="Power spectrum of the region, centre = zero frequency. Click a spot, or move the crosshair with the arrow keys (Shift: 10 bins) and press Enter, to add the spot nearest to it."
-        style=${styleMap({ width: `${cw + 2}px`, height: `${ch + 2}px` })} @keydown=${this.onSpectrumKey}>
-      <canvas class="spectrum" width=${pic.width} height=${pic.height} style=${styleMap({ width: `${cw}px`, height: `${ch}px` })}></canvas>
+        data-w=${cw + 2} data-h=${ch + 2} @keydown=${this.onSpectrumKey}>
+      <div class="clip" data-w=${cw} data-h=${ch}>
+        <canvas class="spectrum" width=${pic.width} height=${pic.height}
+          data-w=${pic.width * scale} data-h=${pic.height * scale} data-l=${left} data-t=${top}></canvas></div>
       <svg class="marks" width=${cw + 2} height=${ch + 2} viewBox="-1 -1 ${cw + 2} ${ch + 2}" @click=${this.onSpectrumClick}>${marks}${cross}</svg>
     </div>`;
   }
@@ -726,19 +772,20 @@ export class StrataMeasurePanel extends LitElement {
       return html`<tr class=${sel ? 'sel' : ''}>
         <td><input type="checkbox" .checked=${sel} @change=${() => this.toggleSpot(t.n)} aria-label=${`Select spot ${t.n}`}></td>
         <td>#${t.n}${t.added ? html`<span title="added by hand; not tested for significance">*</span>` : nothing}</td>
-        ${cal ? html`<td class="num">${formatWithUncertainty(per.periodNm as number, per.uncertaintyNm as number)}</td>` : nothing}
-        <td class="num">${formatWithUncertainty(t.periodPx, t.periodUncertaintyPx)}</td>
-        <td class="num">${formatWithUncertainty(t.angleDeg, t.angleUncertaintyDeg)}</td>
+        <td class="num">${cal ? html`<div class="dnm">${formatWithUncertainty(per.periodNm as number, per.uncertaintyNm as number)} nm</div>` : nothing}
+          <div class=${cal ? 'dpx' : 'dnm'}>${formatWithUncertainty(t.periodPx, t.periodUncertaintyPx)} px</div></td>
+        <td class="num">${formatWithUncertainty(t.angleDeg, t.angleUncertaintyDeg, 1)}°</td>
         <td class="num">${t.normalisedPower.toPrecision(3)}</td>
         <td><button @click=${() => this.removeSpot(t.n)} aria-label=${`Remove spot ${t.n}`} title="Remove this spot from the table">×</button></td>
       </tr>`;
     });
     const pair = this.selected.length === 2 ? this.selected.map((n) => this.spots.find((t) => t.n === n)).filter((t) => t !== undefined) : [];
-    return html`<table>
-        <caption class="note">Spots (one of each Friedel pair), strongest first. Angle: fringe normal, counter-clockwise from +x.</caption>
-        <thead><tr><th scope="col">use</th><th scope="col">spot</th>${cal ? html`<th scope="col">d (nm)</th>` : nothing}<th scope="col">d (px)</th><th scope="col">angle (°)</th>
-          <th scope="col" title="Spot power over the local background of the power spectrum">strength</th><th scope="col"><span class="muted">remove</span></th></tr></thead>
-        <tbody>${rows}</tbody></table>
+    return html`<p class="note">Spots, one of each Friedel pair, strongest first; angle of the fringe normal, counter-clockwise from +x. * added by hand.</p>
+      <div class="table-wrap"><table>
+        <thead><tr><th scope="col" title="Selected spots are used for the angle between two spots and for the Fourier filter">use</th><th scope="col">spot</th>
+          <th scope="col">d-spacing</th><th scope="col">angle</th>
+          <th scope="col" title="Spot power over the local background of the power spectrum">strength</th><th scope="col"><span class="visually-hidden">remove</span></th></tr></thead>
+        <tbody>${rows}</tbody></table></div>
       ${pair.length === 2
         ? html`<p class="between num" role="status">Angle between #${pair[0].n} and #${pair[1].n}: <b>${formatWithUncertainty(angleBetweenDeg(pair[0], pair[1]), Math.hypot(pair[0].angleUncertaintyDeg, pair[1].angleUncertaintyDeg))}°</b></p>`
         : html`<p class="note">Select two spots to see the angle between their fringe normals.</p>`}`;
@@ -778,7 +825,7 @@ export class StrataMeasurePanel extends LitElement {
         </div>
         <div class="figure"><canvas class="filtered" width=${pic.width} height=${pic.height} role="img"
           aria-label=${this.showFiltered ? 'The region Fourier-filtered to the selected spots' : 'The region as recorded'}
-          style=${styleMap({ width: `${Math.round(pic.width * scale)}px`, height: `${Math.round(pic.height * scale)}px` })}></canvas></div>`;
+          data-w=${Math.round(pic.width * scale)} data-h=${Math.round(pic.height * scale)}></canvas></div>`;
     }
     return html`<h3>Fourier filter</h3>
       <div class="row"><button ?disabled=${!chosen.length || this.filterBusy} @click=${() => this.runFilter()}
@@ -795,7 +842,7 @@ export class StrataMeasurePanel extends LitElement {
     if (!s && !this.spectrumBusy && !this.spectrumError) body.push(html`<p class="empty">Draw a region over the fringes to see its power spectrum and the d-spacing of each spot.</p>`);
     if (s) {
       const trimmed = s.width !== this.spectrumRect?.width || s.height !== this.spectrumRect?.height;
-      body.push(html`<p class="note num">${s.width} × ${s.height} px transformed${trimmed ? ' (trimmed, centred, to a fast FFT size)' : ''}, ${this.windowKind === 'none' ? 'no window' : `${this.windowKind} window`}.</p>`);
+      body.push(html`<p class="note num">${s.width} × ${s.height} px transformed${trimmed ? ' (trimmed, centred, to a fast FFT size)' : ''}, ${this.windowKind === 'none' ? 'no window' : `${this.windowKind === 'hann' ? 'Hann' : 'Tukey'} window`}.</p>`);
       body.push(this.renderSpectrumFigure(s));
       body.push(html`<p class="note">Solid circles: spots; dashed: their Friedel mates. Click the spectrum (or focus it and use the arrow keys and Enter) to add a spot.</p>`);
       body.push(this.renderSpotTable(s));
@@ -809,6 +856,14 @@ export class StrataMeasurePanel extends LitElement {
   }
 
   protected override updated(): void {
+    // Sizes and offsets go through the CSSOM (allowed by the page's content security policy, unlike style attributes).
+    for (const el of this.renderRoot.querySelectorAll<HTMLElement>('[data-w]')) {
+      const d = el.dataset;
+      el.style.width = `${d.w}px`;
+      el.style.height = `${d.h}px`;
+      if (d.l !== undefined) el.style.left = `${d.l}px`;
+      if (d.t !== undefined) el.style.top = `${d.t}px`;
+    }
     const paint = (selector: string, pic: Picture | null | undefined) => {
       const canvas = this.renderRoot.querySelector<HTMLCanvasElement>(selector);
       if (!canvas || !pic) return;

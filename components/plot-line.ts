@@ -127,7 +127,7 @@ export function linePlot(o: LinePlotOptions): TemplateResult {
     }
     if (upper.length > 1) band = svg`<polygon class="band" points=${[...upper, ...lower.reverse()].join(' ')}></polygon>`;
   }
-  const xt = niceTicks(x0, x1, Math.max(3, Math.floor(pw / 60)));
+  const xt = niceTicks(x0, x1, Math.max(3, Math.floor(pw / 45)));
   const yt = niceTicks(y0, y1, Math.max(3, Math.floor(ph / 28)));
   const xs = xt.length > 1 ? xt[1] - xt[0] : 1;
   const ys = yt.length > 1 ? yt[1] - yt[0] : 1;

@@ -97,8 +97,7 @@ test('a region over the fringes gives a strongest spot at 1.25 nm, and a click o
   expect(Math.abs(top.periodPx - 25) / 25).toBeLessThan(0.01);
   expect(Math.abs(top.angleDeg - NORMAL_DEG)).toBeLessThan(1.5);
   const firstRow = panel().locator('tbody tr').first();
-  const cells = await firstRow.locator('td').allTextContents();
-  const [d, u] = cells[2].split('±').map(Number);
+  const [d, u] = ((await firstRow.locator('.dnm').textContent()) ?? '').replace('nm', '').split('±').map(Number);
   expect(Math.abs(d - PERIOD_NM)).toBeLessThanOrEqual(u);
   expect(Math.abs(d - PERIOD_NM) / PERIOD_NM).toBeLessThan(0.01);
   expect(await panel().locator('canvas.spectrum').count()).toBe(1);
@@ -110,12 +109,10 @@ test('a region over the fringes gives a strongest spot at 1.25 nm, and a click o
   expect((await panelState()).spots.length).toBe(st.spots.length - 1);
   const sp = st.spectrum!;
   const box = (await panel().locator('svg.marks').boundingBox())!;
-  const scale = 320 / Math.max(sp.picture.width, sp.picture.height);
-  const k = sp.binsPerPicturePx;
-  // Mate at −f, one bin off so the refinement has something to do.
-  const bu = (sp.width >> 1) - top.fx * sp.width + 1;
-  const bv = (sp.height >> 1) - top.fy * sp.height;
-  await s.page.mouse.click(box.x + 1 + ((bu + 0.5) / k) * scale, box.y + 1 + ((bv + 0.5) / k) * scale);
+  // Mate at −f, one bin off so the refinement has something to do; the panel's own bin → screen mapping (zoom included).
+  const [mx, my] = await panel().evaluate((el, b) => (el as unknown as { binToCss(u: number, v: number): [number, number] }).binToCss(b[0], b[1]),
+    [-top.fx * sp.width + 1, -top.fy * sp.height]);
+  await s.page.mouse.click(box.x + 1 + mx, box.y + 1 + my);
   await expect.poll(async () => (await panelState()).spots.some((t) => t.added)).toBe(true);
   const added = (await panelState()).spots.find((t) => t.added)!;
   expect(Math.abs(added.periodPx - top.periodPx)).toBeLessThan(0.05);
@@ -123,6 +120,7 @@ test('a region over the fringes gives a strongest spot at 1.25 nm, and a click o
 });
 
 test('two selected spots show the angle between them, and the Fourier filter shows the region', async () => {
+  await s.page.screenshot({ path: join(dir, 'spot-added.png') });
   const boxes = panel().locator('tbody input[type="checkbox"]');
   const n = await boxes.count();
   for (let i = 0; i < n; i++) if (await boxes.nth(i).isChecked()) await boxes.nth(i).uncheck();
@@ -139,6 +137,26 @@ test('two selected spots show the angle between them, and the Fourier filter sho
   await panel().locator('button', { hasText: 'Original region' }).click();
   expect(await panel().locator('button', { hasText: 'Original region' }).getAttribute('aria-pressed')).toBe('true');
   await panel().locator('button', { hasText: 'Fourier-filtered' }).click();
+});
+
+test('a region over both tactoids gives two spots 89° apart', async () => {
+  await panel().locator('button', { hasText: 'Draw region' }).click();
+  await drag(await toPage(200, 200), await toPage(840, 840));
+  await expect.poll(async () => (await panelState()).spots.filter((t) => !t.added).length, { timeout: 60_000 }).toBeGreaterThanOrEqual(2);
+  const { spots } = await panelState();
+  // Demo truth: fringe normals at 28° and 117° (demo-data/index.json), both 25 px.
+  const a = spots.find((t) => Math.abs(t.angleDeg - 28) < 2);
+  const b = spots.find((t) => Math.abs(t.angleDeg - 117) < 2);
+  expect(a && b).toBeTruthy();
+  const boxes = panel().locator('tbody input[type="checkbox"]');
+  for (let i = 0; i < spots.length; i++) {
+    const want = spots[i].n === a!.n || spots[i].n === b!.n;
+    if ((await boxes.nth(i).isChecked()) !== want) await boxes.nth(i).setChecked(want);
+  }
+  const text = (await panel().locator('.between').textContent()) ?? '';
+  const angle = Number(/: ([\d.]+) ±/.exec(text)?.[1]);
+  expect(Math.abs(angle - 89)).toBeLessThan(2);
+  await s.page.screenshot({ path: join(dir, 'two-spots.png') });
 });
 
 test('a profile line across the fringes gives 1.25 nm by both estimators', async () => {
