@@ -243,7 +243,8 @@ export async function workerMain(): Promise<void> {
   });
 }
 
-function progressLine(done: number, total: number, file: string, status: string, bar: boolean): string {
+/** One progress report: a line per file, or (TTY) a bar redrawn in place. */
+export function progressLine(done: number, total: number, file: string, status: string, bar: boolean): string {
   if (!bar) return `batch: ${done}/${total} ${file} ${status}\n`;
   const width = 30;
   const filled = total ? Math.round((done / total) * width) : width;

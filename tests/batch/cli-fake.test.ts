@@ -91,3 +91,12 @@ test('a step the tools lack stops the batch before any file, as a usage error', 
   await expect(runBatch({ folder: dir, recipe, outCsv: join(dir, 'out', 'r.csv'), jobs: 1, depsModule }, io)).rejects.toThrow(/cannot run the recipe's step\(s\) domains/);
   await expect(readdir(join(dir, 'out', 'records'))).rejects.toThrow(/ENOENT/);
 }, 60_000);
+
+test('progress: plain lines when not a terminal, a bar redrawn in place on one', async () => {
+  const { progressLine } = await import('../../src/cli/batch');
+  expect(progressLine(3, 10, 'a.tif', 'ok', false)).toBe('batch: 3/10 a.tif ok\n');
+  const bar = progressLine(5, 10, 'a.tif', 'ok', true);
+  expect(bar.startsWith('\r[###############...............] 5/10 a.tif')).toBe(true);
+  expect(bar.endsWith('\n')).toBe(false);
+  expect(progressLine(10, 10, 'z.tif', 'ok', true).endsWith('\n')).toBe(true);
+});
