@@ -41,3 +41,25 @@ describe('analysePattern on q data (synthetic truth)', () => {
     expect(Math.abs(hex.cellNm - (2 * 8) / Math.sqrt(3)) / hex.cellNm).toBeLessThan(0.002);
   });
 });
+
+describe('analysePattern withholds sizes it cannot support', () => {
+  test('every peak without a size has a FWHM at its bound or uncertain by more than half, and is noted (seeded synthetic clay pattern)', async () => {
+    const { syntheticPattern } = await import('../../src/diffraction/synthetic');
+    const { dToTwoTheta } = await import('../../src/diffraction/bragg');
+    const cu = 0.154059292;
+    const fw = (size: number, tt: number) => ((0.9 * cu) / (size * Math.cos((tt * Math.PI) / 360)) * 180) / Math.PI;
+    const peaks = [1, 2, 3, 4].map((l, i) => {
+      const tt = dToTwoTheta(1.25 / l, cu);
+      return { twoThetaDeg: tt, area: [600, 80, 120, 40][i], fwhmDeg: fw(8, tt), eta: 0.6 };
+    });
+    const a = analysePattern(syntheticPattern(peaks, { rangeDeg: [3, 40], stepDeg: 0.02, background: { a: 300, b: 3000, c: 3, slope: -2 }, seed: 5 }), { backgroundIterations: 120 });
+    const without = a.peaks.filter((p) => p.crystalliteNm === null);
+    for (const p of without) expect(p.atBound.includes('fwhm') || p.fwhmUncInvNm > 0.5 * p.fwhmInvNm).toBe(true);
+    for (const p of a.peaks.filter((q) => q.crystalliteNm !== null)) expect(p.fwhmUncInvNm).toBeLessThanOrEqual(0.5 * p.fwhmInvNm);
+    expect(without.length).toBeGreaterThan(0); // this seed gives one (the weak 004)
+    expect(a.notes.join()).toMatch(/too poorly determined/);
+    // the strong 001 keeps its size: 8 nm within 10 % (synthetic truth)
+    const p001 = a.peaks.find((p) => Math.abs(p.twoThetaDeg! - 7.07) < 0.1)!;
+    expect(Math.abs(p001.crystalliteNm! - 8) / 8).toBeLessThan(0.1);
+  });
+});
