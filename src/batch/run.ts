@@ -285,7 +285,12 @@ export async function processOne(
   for (const w of image.warnings) notes.push(w);
   let calibration: Calibration | null = null;
   try {
-    calibration = await calibrate(image, recipe.calibration, deps);
+    try {
+      calibration = await calibrate(image, recipe.calibration, deps);
+    } catch (e) {
+      if (e instanceof FileFailure) throw e;
+      throw new FileFailure(`calibration (${recipe.calibration.route}) failed: ${(e as Error)?.message ?? String(e)}`);
+    }
     const calibrated: GreyImage = { ...image, calibration };
 
     let stripPx = 0;
@@ -364,7 +369,7 @@ export async function processOne(
     }
     return out;
   } catch (e) {
-    if (e instanceof FileFailure) return { result: failed(fileName, e.message, info, calibration, notes) };
-    throw e;
+    const reason = e instanceof FileFailure ? e.message : `unexpected error: ${(e as Error)?.message ?? String(e)}`;
+    return { result: failed(fileName, reason, info, calibration, notes) };
   }
 }

@@ -142,6 +142,13 @@ describe('processOne', () => {
     expect(result.reason).toBe('spectrum failed: out of memory');
   });
 
+  test('a scale-bar reader that throws fails the file, naming the route', async () => {
+    const deps = fakeDeps({ findScaleBar: async () => { throw new Error('OCR engine did not start'); } });
+    const { result } = await processOne(fakeFile(128, 128, null, 20), 'x.tif', recipe({ calibration: { route: 'scale-bar' } }), deps);
+    expect(result.status).toBe('failed');
+    expect(result.reason).toBe('calibration (scale-bar) failed: OCR engine did not start');
+  });
+
   test('a figure is rendered when asked for', async () => {
     let seen = 0;
     const out = await processOne(fakeFile(128, 128, 0.05, 20), 'f.tif', recipe(), fakeDeps(), {
