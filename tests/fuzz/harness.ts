@@ -139,6 +139,16 @@ export function mutateBytes(seed: Uint8Array, r: () => number): { bytes: Uint8Ar
 
 const TEXT_PIECES = ['NaN', 'Infinity', '-Infinity', '1e309', '-0', '1e-320', '""', 'null', '[]', '{}', '\u0000', '\t', ';', ',', '\n', '\r', '#', 'é', '\uFFFD', '9'.repeat(400), '0x1F', ' '];
 
+/** The first 500 matches of a global pattern (enough to pick from, cheap on long texts). */
+function firstMatches(t: string, re: RegExp): RegExpMatchArray[] {
+  const out: RegExpMatchArray[] = [];
+  for (const m of t.matchAll(re)) {
+    out.push(m);
+    if (out.length >= 500) break;
+  }
+  return out;
+}
+
 /** Applies 1–3 text mutations: tokens inserted, lines repeated/removed, very long lines, cuts. */
 export function mutateText(seed: Uint8Array, r: () => number, json: boolean): { bytes: Uint8Array; mutation: string } {
   let t = dec.decode(seed);
@@ -160,7 +170,7 @@ export function mutateText(seed: Uint8Array, r: () => number, json: boolean): { 
       done.push(`truncate ${at}`);
     } else if (op === 3) {
       const n = 10_000 + Math.floor(r() * 200_000);
-      t = t.slice(0, at) + 'x1'.repeat(n / 2) + t.slice(at);
+      t = t.slice(0, at) + (r() < 0.5 ? 'x' : '7').repeat(n) + t.slice(at);
       done.push(`long line ${n}@${at}`);
     } else if (op === 4) {
       const lines = t.split('\n');
@@ -170,7 +180,7 @@ export function mutateText(seed: Uint8Array, r: () => number, json: boolean): { 
       done.push(`repeat line ${i}`);
     } else if (op === 5) {
       // Replace a number with an extreme one.
-      const m = [...t.matchAll(/-?\d+(\.\d+)?(e-?\d+)?/gi)];
+      const m = firstMatches(t, /-?\d+(\.\d+)?(e-?\d+)?/gi);
       if (m.length) {
         const hit = m[Math.floor(r() * m.length)];
         const v = pick(r, ['NaN', 'Infinity', '1e308', '-1e308', '0', '-1', '4294967297', '1e-300']);
@@ -184,7 +194,7 @@ export function mutateText(seed: Uint8Array, r: () => number, json: boolean): { 
     } else {
       // Deep nesting in place of a JSON value.
       const depth = pick(r, [100, 1000, 5000, 20000]);
-      const m = [...t.matchAll(/:\s*("[^"]*"|-?\d[\d.eE+-]*|true|false|null)/g)];
+      const m = firstMatches(t, /:\s*("[^"]*"|-?\d[\d.eE+-]*|true|false|null)/g);
       if (m.length) {
         const hit = m[Math.floor(r() * m.length)];
         const open = r() < 0.5 ? '['.repeat(depth) : '{"a":'.repeat(depth);

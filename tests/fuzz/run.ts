@@ -1,12 +1,14 @@
 /**
  * The long fuzz run: `npm run test:fuzz -- --seconds 60 --seed 7`.
  *
- * Each reader runs in its own worker thread; the worker reports every input before and after
+ * Each reader runs in a child process, inside a worker thread; the worker reports every input before and after
  * reading it. A worker that says nothing for the time limit is stopped, the input it was
  * reading is reported as a hang, and a new worker carries on after it. Prints a table of
  * outcomes per reader and exits with status 1 when any input crashed, hung or grew memory
  * beyond the bound.
  */
+import { spawn } from 'node:child_process';
+import { fileURLToPath } from 'node:url';
 import { Worker, isMainThread, parentPort, workerData } from 'node:worker_threads';
 import { setFlagsFromString } from 'node:v8';
 import { runInNewContext } from 'node:vm';
@@ -18,13 +20,15 @@ interface Job {
   target: string;
   seed: number;
   from: number;
-  deadline: number; // epoch ms
+  /** Epoch ms after which no input is started; 0: the budget from when the worker is ready. */
+  deadline: number;
+  budgetMs: number;
 }
 
 type Msg =
   | { kind: 'start'; i: number; name: string; mutation: string }
   | { kind: 'done'; i: number; outcome: Outcome; detail: string; ms: number }
-  | { kind: 'seeds'; failures: TargetTally['failures'] }
+  | { kind: 'seeds'; failures: TargetTally['failures']; deadline: number }
   | { kind: 'end' };
 
 function arg(name: string, fallback: number): number {
@@ -42,11 +46,11 @@ async function workerMain(job: Job): Promise<void> {
   const target = TARGETS.find((t) => t.id === job.target)!;
   const seeds = await target.seeds();
   const post = (m: Msg) => parentPort!.postMessage(m);
-  if (job.from === 0) {
-    const t = await fuzzTarget(target, job.seed, 0);
-    post({ kind: 'seeds', failures: t.failures });
-  }
-  for (let i = job.from; Date.now() < job.deadline; i++) {
+  // The time budget starts when the modules are loaded and the seeds made (slow on a busy machine).
+  const deadline = job.deadline || Date.now() + job.budgetMs;
+  const t = job.from === 0 ? await fuzzTarget(target, job.seed, 0) : { failures: [] };
+  post({ kind: 'seeds', failures: t.failures, deadline });
+  for (let i = job.from; Date.now() < deadline; i++) {
     const input = makeInput(target, seeds, job.seed, i);
     post({ kind: 'start', i, name: input.name, mutation: input.mutation });
     const r = await runOne(target, input);
@@ -55,7 +59,8 @@ async function workerMain(job: Job): Promise<void> {
   post({ kind: 'end' });
 }
 
-function runTarget(id: string, seed: number, deadline: number): Promise<TargetTally> {
+function runTarget(id: string, seed: number, budgetMs: number): Promise<TargetTally> {
+  let deadline = 0;
   const tally: TargetTally = { id, counts: { ok: 0, clear: 0, crash: 0, slow: 0, memory: 0 }, failures: [], longestMs: 0 };
   return new Promise((resolve) => {
     const spawn = (from: number) => {
@@ -63,8 +68,8 @@ function runTarget(id: string, seed: number, deadline: number): Promise<TargetTa
       const boot = `import(${JSON.stringify(TSX_API)}).then((m) => { m.register(); return import(${JSON.stringify(import.meta.url)}); })`;
       const w = new Worker(boot, {
         eval: true,
-        workerData: { target: id, seed, from, deadline } satisfies Job,
-        resourceLimits: { maxOldGenerationSizeMb: 1024 },
+        workerData: { target: id, seed, from, deadline, budgetMs } satisfies Job,
+        
       });
       let current: Extract<Msg, { kind: 'start' }> | null = null;
       let timer: NodeJS.Timeout | null = null;
@@ -95,11 +100,11 @@ function runTarget(id: string, seed: number, deadline: number): Promise<TargetTa
           arm(60_000);
         } else if (m.kind === 'seeds') {
           tally.failures.push(...m.failures);
+          deadline = m.deadline;
         } else {
           finished = true;
           if (timer) clearTimeout(timer);
-          void w.terminate();
-          resolve(tally);
+          void w.terminate().then(() => resolve(tally));
         }
       });
       w.on('error', (e) => {
@@ -120,15 +125,37 @@ function runTarget(id: string, seed: number, deadline: number): Promise<TargetTa
   });
 }
 
+/** Runs one reader in a child process of its own (readers after a busy one ran slowly when they shared the process). */
+function runChild(id: string, seed: number, seconds: number): Promise<TargetTally> {
+  return new Promise((resolve, reject) => {
+    const child = spawn(process.execPath, ['--import', 'tsx', fileURLToPath(import.meta.url), '--only', id, '--seed', String(seed), '--seconds', String(seconds), '--json'], {
+      stdio: ['ignore', 'pipe', 'inherit'],
+    });
+    let out = '';
+    child.stdout.on('data', (d: Buffer) => (out += d.toString()));
+    child.on('close', () => {
+      const line = out.split('\n').find((l) => l.startsWith('{'));
+      if (line) resolve(JSON.parse(line) as TargetTally);
+      else reject(new Error(`the ${id} run printed no result:\n${out}`));
+    });
+  });
+}
+
 async function main(): Promise<void> {
   const seconds = arg('seconds', 60);
   const seed = arg('seed', 1);
+  const only = process.argv.includes('--only') ? process.argv[process.argv.indexOf('--only') + 1] : null;
+  if (only !== null) {
+    if (!TARGETS.some((t) => t.id === only)) throw new Error(`--only ${only}: no such reader (${TARGETS.map((t) => t.id).join(', ')})`);
+    const tally = await runTarget(only, seed, seconds * 1000);
+    if (process.argv.includes('--json')) console.log(JSON.stringify(tally));
+    else console.log(table([tally]));
+    process.exitCode = tally.failures.length === 0 ? 0 : 1;
+    return;
+  }
   console.log(`fuzz run: seed ${seed}, ${seconds} s shared by ${TARGETS.length} readers, per-input limit ${TIME_LIMIT_MS} ms`);
   const tallies: TargetTally[] = [];
-  for (const t of TARGETS) {
-    const deadline = Date.now() + (seconds * 1000) / TARGETS.length;
-    tallies.push(await runTarget(t.id, seed, deadline));
-  }
+  for (const t of TARGETS) tallies.push(await runChild(t.id, seed, seconds / TARGETS.length));
   console.log(table(tallies));
   const failures = tallies.flatMap((t) => t.failures.map((f) => ({ reader: t.id, ...f })));
   for (const f of failures) console.log(`FAIL ${f.reader} ${f.input} [${f.mutation}] ${f.outcome}: ${f.detail}`);
