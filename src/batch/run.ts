@@ -83,6 +83,8 @@ export interface FileResult {
   summary: FileSummary;
   /** Notes for the user (information strip, clipped crop, rejected periods...). */
   notes: string[];
+  /** SHA-256 of the file's bytes (lower-case hex), when the caller computed it: which file exactly. */
+  sha256?: string;
 }
 
 /** Options for `processOne`. */

@@ -296,7 +296,8 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
   let commitChain: Promise<void> = Promise.resolve();
   // `persist: false` reports a result in this run's exports without marking the file finished
   // (a worker that stopped may have run out of memory on a busy machine: the next run retries).
-  const commit = (job: Job, result: FileResult, figurePng?: Uint8Array, persist = true) => {
+  const commit = (job: Job, fileResult: FileResult, figurePng?: Uint8Array, persist = true) => {
+    const result: FileResult = { ...fileResult, sha256: job.sha256 };
     commitChain = commitChain.then(async () => {
       if (persist) {
         const recordFile = recordFileName(job.file, job.sha256, recipeHash);

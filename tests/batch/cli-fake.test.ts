@@ -35,6 +35,9 @@ test('two workers process every file; a re-run skips all; a changed file is redo
     ['c,"odd".tif', 'ok'],
   ]);
   expect(first.workerPeakBytes).toHaveLength(2);
+  // SHA-256 of the bytes in every record (FIPS 180-4, via node:crypto)
+  const { createHash } = await import('node:crypto');
+  expect(first.results[0].sha256).toBe(createHash('sha256').update(fakeFile(256, 256, 0.05, 20)).digest('hex'));
   const csv = await readFile(join(dir, 'out', 'results.csv'), 'utf8');
   // header + 3 ok files × 2 periods + 1 failed row
   expect(csv.trimEnd().split('\r\n')).toHaveLength(1 + 6 + 1);
