@@ -15,6 +15,7 @@ import type {
   RecipeRecord,
 } from './records';
 import type { BatchFileRecord } from './batches';
+import type { DiagnosticEntry } from './diagnostics';
 
 /** Name of the IndexedDB database. */
 export const DB_NAME = 'stratameter';
@@ -28,6 +29,7 @@ export interface LibrarySchema extends DBSchema {
   recipes: { key: string; value: RecipeRecord };
   batches: { key: string; value: BatchRecord };
   batchFiles: { key: string; value: BatchFileRecord; indexes: { byBatch: string } };
+  diagnostics: { key: string; value: DiagnosticEntry; indexes: { byTime: string } };
 }
 
 export type LibraryDb = IDBPDatabase<LibrarySchema>;
@@ -58,6 +60,11 @@ export const UPGRADE_STEPS: readonly UpgradeStep[] = [
   (db) => {
     const f = db.createObjectStore('batchFiles', { keyPath: 'id' });
     f.createIndex('byBatch', 'batchId');
+  },
+  // 3 → 4: the local diagnostics log (errors with time and context), found by time.
+  (db) => {
+    const d = db.createObjectStore('diagnostics', { keyPath: 'id' });
+    d.createIndex('byTime', 'timeIso');
   },
 ];
 
