@@ -138,6 +138,7 @@ export class StrataViewer extends LitElement {
       :host { display: flex; flex-direction: column; min-width: 0; min-height: 0; background: #0b0e11; }
       .bar { display: flex; flex-wrap: wrap; align-items: center; gap: 4px; padding: 4px 8px; background: var(--panel); border-bottom: 1px solid var(--line); }
       .group { display: inline-flex; gap: 2px; }
+      .bar input[type='number'] { width: 5.4em; }
       .stage { position: relative; flex: 1; min-height: 120px; overflow: hidden; outline: none; cursor: grab; touch-action: none; }
       .stage.drawing { cursor: crosshair; }
       .stage:focus-visible { box-shadow: inset 0 0 0 2px var(--focus); }
@@ -339,7 +340,9 @@ export class StrataViewer extends LitElement {
     let peak = 0;
     for (let x = 0; x < W; x++) {
       let s = 0;
-      for (let i = Math.floor(x * per); i < Math.floor((x + 1) * per); i++) s += h.counts[i];
+      const i0 = Math.floor(x * per);
+      const i1 = Math.min(h.counts.length, Math.max(i0 + 1, Math.floor((x + 1) * per)));
+      for (let i = i0; i < i1; i++) s += h.counts[i];
       col[x] = Math.log1p(s);
       if (col[x] > peak) peak = col[x];
     }
