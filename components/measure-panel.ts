@@ -26,6 +26,37 @@ const PICTURE_PX = 1024;
 const MAX_REGION_PIXELS = 4096 * 4096;
 const PLOT_WIDTH = 330;
 
+/**
+ * Grey picture of a centred log power, black and white at the 2nd and 99.8th percentiles of the
+ * part shown at this zoom (the central 1/zoom), so spots near zero frequency stay visible.
+ */
+function spectrumPicture(p: { width: number; height: number; logPower: Float32Array }, zoom: number): Picture {
+  const { width: w, height: h, logPower: v } = p;
+  const hw = Math.max(1, Math.floor(w / (2 * zoom)));
+  const hh = Math.max(1, Math.floor(h / (2 * zoom)));
+  const sample: number[] = [];
+  const step = Math.max(1, Math.floor((4 * hw * hh) / 40000));
+  let k = 0;
+  for (let y = (h >> 1) - hh; y < (h >> 1) + hh; y++) {
+    if (y < 0 || y >= h) continue;
+    for (let x = (w >> 1) - hw; x < (w >> 1) + hw; x++) {
+      if (x >= 0 && x < w && k++ % step === 0) sample.push(v[y * w + x]);
+    }
+  }
+  sample.sort((a, b) => a - b);
+  const lo = sample[Math.floor(0.02 * (sample.length - 1))] ?? 0;
+  let hi = sample[Math.floor(0.998 * (sample.length - 1))] ?? 1;
+  if (!(hi > lo)) hi = lo + 1;
+  const scale = 255 / (hi - lo);
+  const rgba = new Uint8ClampedArray(w * h * 4);
+  for (let i = 0; i < w * h; i++) {
+    const g = (v[i] - lo) * scale;
+    rgba[4 * i] = rgba[4 * i + 1] = rgba[4 * i + 2] = g;
+    rgba[4 * i + 3] = 255;
+  }
+  return { width: w, height: h, rgba };
+}
+
 /** A spot in the table: found by the search or added by a click. */
 interface TableSpot extends Spot {
   /** Number shown in the table and on the spectrum (stable while the spot exists). */
@@ -482,7 +513,7 @@ export class StrataMeasurePanel extends LitElement {
     for (const t of this.spots) reach = Math.max(reach, Math.abs(t.fx) * 2, Math.abs(t.fy) * 2);
     // Zoom in while every spot stays within three quarters of the half-frame and 48 bins or more remain across.
     let z = 1;
-    while (z < 8 && reach * 2 * z <= 0.75 && Math.min(s.width, s.height) / (2 * z) >= 48) z *= 2;
+    while (z < 8 && reach * 2 * z <= 0.75 && Math.min(s.width, s.height) / (4 * z) >= 48) z *= 2;
     return z;
   }
 
@@ -794,9 +825,12 @@ export class StrataMeasurePanel extends LitElement {
   private renderRadial(s: SpectrumResult) {
     const cal = this.image?.calibration ?? null;
     const k = cal ? 1 / cal.nmPerPx : 1;
-    const f = Array.from(s.radialFrequencyPerPx).slice(2);
-    const y = Array.from(s.radialPower).slice(2).map((v) => (v > 0 ? Math.log10(v) : NaN));
     const rings = s.rings.slice(0, 4);
+    // The same frequency range as the spectrum at its zoom, widened to show the strongest ring.
+    const fMax = Math.min(0.5, Math.max(0.5 / this.zoom, 1.2 * (rings[0]?.frequencyPerPx ?? 0)));
+    const keep = Array.from(s.radialFrequencyPerPx).map((v, i) => i >= 2 && v <= fMax);
+    const f = Array.from(s.radialFrequencyPerPx).filter((_, i) => keep[i]);
+    const y = Array.from(s.radialPower).filter((_, i) => keep[i]).map((v) => (v > 0 ? Math.log10(v) : NaN));
     return html`<h3>Radial average</h3>
       ${linePlot({
         width: PLOT_WIDTH, height: 150, x: f.map((v) => v * k), y,
@@ -873,7 +907,18 @@ export class StrataMeasurePanel extends LitElement {
       ctx.putImageData(new ImageData(new Uint8ClampedArray(pic.rgba), pic.width, pic.height), 0, 0);
       (canvas as unknown as { painted?: Uint8ClampedArray }).painted = pic.rgba;
     };
-    paint('canvas.spectrum', this.spectrum?.picture);
+    const sp = this.spectrum;
+    const canvas = this.renderRoot.querySelector<HTMLCanvasElement>('canvas.spectrum');
+    if (sp && canvas) {
+      const key = `${this.zoom}`;
+      const c = canvas as unknown as { painted?: Float32Array; paintedKey?: string };
+      if (c.painted !== sp.picture.logPower || c.paintedKey !== key) {
+        const pic = spectrumPicture(sp.picture, this.zoom);
+        canvas.getContext('2d')?.putImageData(new ImageData(new Uint8ClampedArray(pic.rgba), pic.width, pic.height), 0, 0);
+        c.painted = sp.picture.logPower;
+        c.paintedKey = key;
+      }
+    }
     paint('canvas.filtered', this.filtered ? (this.showFiltered ? this.filtered.filtered : this.filtered.original) : null);
   }
 

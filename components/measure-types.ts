@@ -88,8 +88,8 @@ export interface SpectrumResult {
   /** Transform size (the region trimmed to a fast size). */
   width: number;
   height: number;
-  /** Centred log-power picture (DC in the middle), max-pooled from the transform. */
-  picture: Picture;
+  /** Centred log power (DC in the middle), max-pooled from the transform; the page sets the grey scale. */
+  picture: { width: number; height: number; logPower: Float32Array };
   /** Transform bins per picture pixel along each side (the pooling factor). */
   binsPerPicturePx: number;
   /** Radial average: ring frequency (cycles/px) and mean power per ring, up to the Nyquist ring. */

@@ -105,7 +105,7 @@ export async function regionSpectrum(args: SpectrumArgs): Promise<SpectrumResult
   const log = centredLogPower(sp);
   const factor = Math.max(1, Math.ceil(Math.max(sp.width, sp.height) / Math.max(64, args.displayPx)));
   const small = reduce(log, sp.width, sp.height, factor, 'max');
-  const picture = toPicture(small.data, small.width, small.height, 0.02, 0.998);
+  const picture = { width: small.width, height: small.height, logPower: small.data };
   const radial = radialProfile(sp);
   const nyquist = Math.floor(Math.max(sp.width, sp.height) / 2);
   const rings = findRings(radial, { alpha: s.alpha });
