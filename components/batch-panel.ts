@@ -89,7 +89,8 @@ export class StrataBatchPanel extends LitElement {
       .err { color: #ff9b8f; font-size: 12px; margin: 2px 0 4px; }
       table { border-collapse: collapse; width: 100%; font-variant-numeric: tabular-nums; font-size: 12px; }
       th, td { padding: 2px 4px; text-align: right; border-bottom: 1px solid var(--line); vertical-align: top; }
-      th:first-child, td:first-child { text-align: left; word-break: break-all; }
+      th:first-child, td:first-child { text-align: left; overflow-wrap: anywhere; }
+      table.summary td:first-child { min-width: 8em; }
       td.status-ok { color: #7fd18b; }
       td.status-failed { color: #ff9b8f; }
       td.status-running { color: #f0c060; }
@@ -121,6 +122,8 @@ export class StrataBatchPanel extends LitElement {
   rateText = '';
 
   private pool: BatchPool | null = null;
+  /** Pause or cancel pressed during the current run. */
+  private stopRequest: 'pause' | 'cancel' | null = null;
   private startedMs = 0;
   private doneSinceStart = 0;
   private loadedFor: LibraryDb | null = null;
@@ -309,31 +312,10 @@ export class StrataBatchPanel extends LitElement {
     const db = this.db;
     const batch = this.batch;
     if (!db || !batch || this.running) return;
-    const files = await listBatchFiles(db, batch.id);
-    const queued = files.filter((r) => r.status === 'queued');
-    if (!queued.length) return;
-    this.batch = await setBatchState(db, batch.id, 'running');
-    this.pool ??= new BatchPool(poolSize());
     this.running = true;
-    this.startedMs = performance.now();
-    this.doneSinceStart = 0;
-    const poolFiles: PoolFile[] = queued.map((r) => ({ id: r.id, name: r.name, bytes: async () => new Uint8Array(await r.file.arrayBuffer()) }));
-    const setRow = (id: string, patch: Partial<Row>) => {
-      this.rows = this.rows.map((row) => (row.id === id ? { ...row, ...patch } : row));
-    };
+    this.stopRequest = null;
     try {
-      await this.pool.run(poolFiles, {
-        recipeJson: batch.recipeJson,
-        figures: batch.figures,
-        onStart: (file) => setRow(file.id, { status: 'running' }),
-        onAnswer: async ({ file, result, figurePng }) => {
-          const { batch: next } = await commitFileResult(db, file.id, result, figurePng);
-          if (this.batch?.id === next.id) this.batch = next;
-          setRow(file.id, { status: result.status, result, figurePng });
-          this.doneSinceStart++;
-          this.updateRate();
-        },
-      });
+      await this.runQueued(db, batch);
     } catch (e) {
       this.say(`The batch stopped: ${(e as Error).message}`, 'error');
     } finally {
@@ -343,6 +325,34 @@ export class StrataBatchPanel extends LitElement {
       await this.refreshLibrary();
     }
     if (this.batch?.state === 'finished') this.say(`Batch finished: ${this.batch.ok} files measured, ${this.batch.failed} failed.`);
+  }
+
+  private async runQueued(db: LibraryDb, batch: BatchRun): Promise<void> {
+    const files = await listBatchFiles(db, batch.id);
+    const queued = files.filter((r) => r.status === 'queued');
+    if (!queued.length || this.stopRequest) return;
+    this.batch = await setBatchState(db, batch.id, 'running');
+    // pause or cancel pressed while starting: nothing is handed to the workers
+    if (this.stopRequest) return;
+    this.pool ??= new BatchPool(poolSize());
+    this.startedMs = performance.now();
+    this.doneSinceStart = 0;
+    const poolFiles: PoolFile[] = queued.map((r) => ({ id: r.id, name: r.name, bytes: async () => new Uint8Array(await r.file.arrayBuffer()) }));
+    const setRow = (id: string, patch: Partial<Row>) => {
+      this.rows = this.rows.map((row) => (row.id === id ? { ...row, ...patch } : row));
+    };
+    await this.pool.run(poolFiles, {
+      recipeJson: batch.recipeJson,
+      figures: batch.figures,
+      onStart: (file) => setRow(file.id, { status: 'running' }),
+      onAnswer: async ({ file, result, figurePng }) => {
+        const { batch: next } = await commitFileResult(db, file.id, result, figurePng);
+        if (this.batch?.id === next.id) this.batch = next;
+        setRow(file.id, { status: result.status, result, figurePng });
+        this.doneSinceStart++;
+        this.updateRate();
+      },
+    });
   }
 
   private updateRate(): void {
@@ -357,12 +367,14 @@ export class StrataBatchPanel extends LitElement {
 
   private async pause(): Promise<void> {
     if (!this.db || !this.batch) return;
+    this.stopRequest = 'pause';
     this.pool?.pause();
     this.batch = await setBatchState(this.db, this.batch.id, 'paused');
   }
 
   private async cancel(): Promise<void> {
     if (!this.db || !this.batch) return;
+    this.stopRequest = 'cancel';
     this.pool?.cancel();
     this.batch = await setBatchState(this.db, this.batch.id, 'cancelled');
     await this.refreshLibrary();
@@ -550,7 +562,7 @@ export class StrataBatchPanel extends LitElement {
               (${b.ok} measured, ${b.failed} failed)${this.rateText ? html` · ${this.rateText}` : nothing}</p>
             <table class="files">
               <thead><tr><th>file</th><th>status</th></tr></thead>
-              <tbody>${this.rows.map((r) => html`<tr data-file=${r.name}><td>${r.name}</td><td class="status-${r.status}">${r.status}</td></tr>
+              <tbody>${this.rows.map((r) => html`<tr data-file=${r.name}><td>${r.name}</td><td class="status-${r.status}">${r.status === 'queued' && b.state === 'cancelled' ? 'not run' : r.status}</td></tr>
                 ${r.status === 'failed' ? html`<tr class="reason-row"><td class="reason" colspan="2">${r.result?.reason ?? ''}</td></tr>` : nothing}`)}</tbody>
             </table>`
         : html`<p class="muted">Choose files and start a batch; each file's results are kept in this browser as soon as they are ready.</p>`}

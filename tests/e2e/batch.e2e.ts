@@ -149,3 +149,54 @@ test('demo images and a corrupt file run as a batch, survive a reload, and expor
   expect(foreignRequests(s.requests, s.url)).toEqual([]);
   expect(errors).toEqual([]);
 });
+
+/** Copies of the calibrated overview demo under other names, so a batch lasts long enough to pause. */
+const COPIES = 10;
+async function chooseCopies() {
+  const bytes = readFileSync('demo-data/tactoid-film_overview.tif');
+  await panel().locator('input.files').setInputFiles(Array.from({ length: COPIES }, (_, i) => ({ name: `overview-copy-${String(i + 1).padStart(2, '0')}.tif`, mimeType: 'image/tiff', buffer: bytes })));
+  await s.page.waitForFunction((n) => (document.querySelector('strata-app')?.shadowRoot?.querySelector('strata-batch-panel') as unknown as { chosen: unknown[] })?.chosen.length === n, COPIES, { timeout: 60_000 });
+}
+
+test('a bad recipe is refused next to its field; pause, resume and cancel', async () => {
+  const view2 = async () => (await view()).batch;
+  // A recipe with a wrong type: the message names the key and sits by the acceptance fields.
+  await panel().locator('input.recipe-file').setInputFiles({ name: 'bad.recipe.json', mimeType: 'application/json', buffer: Buffer.from('{"schemaVersion":1,"acceptance":{"minStrength":"high"}}') });
+  const msg = panel().locator('.err[data-field="acceptance"]');
+  await msg.waitFor();
+  await expect(msg.textContent()).resolves.toMatch(/acceptance\.minStrength/);
+  await chooseCopies();
+  await expect(panel().locator('button.start').isDisabled()).resolves.toBe(true);
+  await shoot('5-bad-recipe.png');
+  // A valid recipe (2 × 2 tiles per image) clears the message.
+  await panel().locator('input.recipe-file').setInputFiles({ name: 'tiles.recipe.json', mimeType: 'application/json', buffer: Buffer.from('{"schemaVersion":1,"name":"tiles","area":{"kind":"tiles","infoStripPx":"auto","rows":2,"columns":2}}') });
+  await msg.waitFor({ state: 'detached' });
+  await panel().locator('button.start').click();
+  await s.page.waitForFunction(() => {
+    const b = (document.querySelector('strata-app')?.shadowRoot?.querySelector('strata-batch-panel') as unknown as { batch: { ok: number; failed: number; name: string } | null })?.batch;
+    return !!b && b.name.startsWith('tiles') && b.ok + b.failed >= 1;
+  }, undefined, { timeout: 170_000 });
+  await panel().locator('button.pause').click();
+  // The files in work finish; no new one is taken.
+  await s.page.waitForFunction(() => !(document.querySelector('strata-app')?.shadowRoot?.querySelector('strata-batch-panel') as unknown as { running: boolean }).running, undefined, { timeout: 170_000 });
+  const paused = (await view2())!;
+  expect(paused.state).toBe('paused');
+  expect(paused.ok + paused.failed).toBeLessThan(COPIES);
+  expect((await stored(paused.id)).filter((r) => r.status !== 'queued').length).toBe(paused.ok + paused.failed);
+  await panel().locator('button.resume').click();
+  await s.page.waitForFunction(() => (document.querySelector('strata-app')?.shadowRoot?.querySelector('strata-batch-panel') as unknown as { batch: { state: string } | null })?.batch?.state === 'finished', undefined, { timeout: 170_000 });
+  expect(await view2()).toMatchObject({ total: COPIES, ok: COPIES, failed: 0 });
+
+  // Cancel right after the start: the batch is kept as cancelled, with what was finished.
+  await chooseCopies();
+  await panel().locator('button.start').click();
+  await panel().locator('button.cancel').click();
+  await s.page.waitForFunction(() => !(document.querySelector('strata-app')?.shadowRoot?.querySelector('strata-batch-panel') as unknown as { running: boolean }).running, undefined, { timeout: 60_000 });
+  const cancelled = (await view2())!;
+  expect(cancelled.state).toBe('cancelled');
+  expect(cancelled.ok + cancelled.failed).toBeLessThan(COPIES);
+  expect((await stored(cancelled.id)).filter((r) => r.status !== 'queued').length).toBe(cancelled.ok + cancelled.failed);
+  await expect(panel().locator('button.resume').count()).resolves.toBe(0);
+  await shoot('6-cancelled.png');
+  expect(errors).toEqual([]);
+});
