@@ -6,6 +6,8 @@ import type { GreyImage } from '../src/image/grey-image';
 import type { Histogram } from './pyramid';
 import type { FilterArgs, FilterResult, ProfileArgs, ProfileResult, SpectrumArgs, SpectrumResult, SpotNearArgs } from './measure-types';
 import type { Spot } from '../src/measure/spectrum';
+import type { Pattern } from '../src/diffraction/pattern';
+import type { PatternAnalysis } from '../src/diffraction/analyse';
 
 export interface ComputeCalls {
   /** Decodes a file's bytes into a GreyImage. */
@@ -29,6 +31,8 @@ export interface ComputeCalls {
   addSpotNear: { args: SpotNearArgs; result: { spot: Spot | null } };
   /** The region Fourier-filtered to chosen spots and their Friedel mates, as pictures (measuring panel). */
   filterSpots: { args: FilterArgs; result: FilterResult };
+  /** Reads a diffraction pattern's text and fits its peaks (seconds on a few thousand points). */
+  analysePattern: { args: { text: string; wavelength?: string }; result: { pattern: Pattern; analysis: PatternAnalysis } };
 }
 
 export type CallName = keyof ComputeCalls;

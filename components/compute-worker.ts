@@ -43,6 +43,13 @@ const handlers: Handlers = {
   regionSpectrum,
   addSpotNear,
   filterSpots,
+  analysePattern: async ({ text, wavelength }) => {
+    const { parsePattern } = await import('../src/diffraction/pattern');
+    const { analysePattern: analyse } = await import('../src/diffraction/analyse');
+    const pattern = parsePattern(text, { wavelength });
+    if (pattern.axis === 'twoTheta' && pattern.wavelengthNm === null) throw new Error('no wavelength in the file: choose one');
+    return { pattern, analysis: analyse(pattern) };
+  },
 };
 
 const scope = self as unknown as DedicatedWorkerGlobalScope;

@@ -2,7 +2,9 @@
 // and fitted peaks on a 2θ, d or q axis, the peak table, and the micrograph periods drawn as
 // markers with uncertainty bands beside the reconciliation table.
 import { LitElement, css, html, nothing, svg, type TemplateResult } from 'lit';
-import { analysePattern, type PatternAnalysis } from '../src/diffraction/analyse';
+import type { PatternAnalysis } from '../src/diffraction/analyse';
+import type { ComputeClient } from './compute-client';
+import { listMeasurements, type LibraryDb } from '../src/store/library';
 import { dToTwoTheta, parseWavelength, XRAY_LINES } from '../src/diffraction/bragg';
 import { parsePattern, parsePeakList, type ManualPeak, type Pattern, type PeakListUnit } from '../src/diffraction/pattern';
 import { reconcile, type DiffractionLine, type MicrographPeriod, type Reconciliation } from '../src/diffraction/reconcile';
@@ -37,6 +39,8 @@ const f = (v: number | null | undefined, d = 4) => (v === null || v === undefine
 export class StrataDiffractionPanel extends LitElement {
   static override properties = {
     periods: { attribute: false },
+    compute: { attribute: false },
+    db: { attribute: false },
     calibrationRelUncertainty: { attribute: false },
     wavelengthKey: { state: true },
     customWavelength: { state: true },
@@ -77,6 +81,10 @@ export class StrataDiffractionPanel extends LitElement {
   ];
 
   periods: MicrographPeriod[] = [];
+  /** The compute worker client the shell gives every panel. */
+  compute: ComputeClient | null = null;
+  /** The local library, for the periods measured in stored micrographs. */
+  db: LibraryDb | null = null;
   calibrationRelUncertainty: number | undefined = undefined;
   wavelengthKey = 'header';
   customWavelength = '';
@@ -110,25 +118,39 @@ export class StrataDiffractionPanel extends LitElement {
     this.analyse();
   }
 
-  private analyse(): void {
+  /** Parses and fits the pattern in the compute worker, so the page stays responsive. */
+  private async analyse(): Promise<void> {
     if (this.patternText === null) return;
     this.error = '';
     this.busy = true;
-    // let the busy state paint before the fit
-    setTimeout(() => {
-      try {
-        this.pattern = parsePattern(this.patternText!, { wavelength: this.wavelengthOption() });
-        if (this.pattern.axis === 'twoTheta' && this.pattern.wavelengthNm === null) throw new Error('no wavelength in the file: choose one');
-        this.analysis = analysePattern(this.pattern);
-        this.manual = [];
-        this.emit('status-message', { text: `${this.fileName}: ${this.analysis.peaks.length} peaks fitted`, kind: 'info' });
-      } catch (err) {
-        this.analysis = null;
-        this.error = (err as Error).message;
-      } finally {
-        this.busy = false;
-      }
-    }, 0);
+    try {
+      if (!this.compute) throw new Error('the compute worker is not available');
+      const { pattern, analysis } = await this.compute.call('analysePattern', { text: this.patternText, wavelength: this.wavelengthOption() });
+      this.pattern = pattern;
+      this.analysis = analysis;
+      this.manual = [];
+      this.emit('status-message', { text: `${this.fileName}: ${analysis.peaks.length} peaks fitted`, kind: 'info' });
+    } catch (err) {
+      this.analysis = null;
+      this.error = (err as Error).message;
+    } finally {
+      this.busy = false;
+    }
+  }
+
+  /** The periods the reconciliation can use (positive, with a stated uncertainty). */
+  private validPeriods(): MicrographPeriod[] {
+    return (this.periods ?? []).filter((p) => p.periodNm > 0 && p.uncertaintyNm >= 0);
+  }
+
+  /** Takes every calibrated period saved in the library as the micrograph side of the comparison. */
+  private async loadLibraryPeriods(): Promise<void> {
+    if (!this.db) return;
+    const all = await listMeasurements(this.db);
+    this.periods = all.flatMap((m) => m.periodicities
+      .filter((p) => p.periodNm !== null && p.uncertaintyNm !== null)
+      .map((p) => ({ periodNm: p.periodNm as number, uncertaintyNm: p.uncertaintyNm as number, label: `${m.fileName} · ${p.angleDeg.toFixed(0)}°` })));
+    this.emit('status-message', { text: `${this.periods.length} calibrated periods taken from the library`, kind: 'info' });
   }
 
   private onManual(text: string): void {
@@ -160,7 +182,7 @@ export class StrataDiffractionPanel extends LitElement {
   }
 
   private reconciliation(): Reconciliation | null {
-    const ok = (this.periods ?? []).filter((p) => p.periodNm > 0 && p.uncertaintyNm >= 0);
+    const ok = this.validPeriods();
     if (ok.length === 0) return null;
     const { lines, series } = this.lines();
     if (lines.length === 0) return null;
@@ -269,6 +291,7 @@ export class StrataDiffractionPanel extends LitElement {
   override render(): TemplateResult {
     const a = this.analysis;
     const rec = this.reconciliation();
+    const valid = this.validPeriods();
     return html`
       <section>
         <h3>Pattern</h3>
@@ -311,12 +334,18 @@ export class StrataDiffractionPanel extends LitElement {
         ${a.series.map((s) => html`<p>${s.kind}: ${s.members.map((m) => m.index).join(', ')} — cell ${f(s.cellNm, 5)} ± ${f(s.cellUncNm, 5)} nm</p>`)}
         <p class="muted">${a.sizeMethod}</p>
       </section>` : nothing}
+      <section>
+        <div class="row">
+          <button ?disabled=${!this.db} @click=${() => this.loadLibraryPeriods()} title="Use every calibrated period saved in the library (Periods panel) as the real-space side">Take periods from the library</button>
+          <span class="muted">${this.periods.length} micrograph period${this.periods.length === 1 ? '' : 's'}</span>
+        </div>
+      </section>
       ${rec ? html`<section>
         <h3>Micrograph periods against diffraction</h3>
         <table>
           <tr><th>period (nm)</th><th>match</th><th>d (nm)</th><th>diff</th><th>z</th></tr>
           ${rec.best.map((b, i) => {
-            const p = this.periods[i];
+            const p = valid[i];
             if (!b) return html`<tr><td>${f(p.periodNm)} ± ${f(p.uncertaintyNm)}</td><td>—</td><td></td><td></td><td></td></tr>`;
             return html`<tr><td>${f(p.periodNm)} ± ${f(p.uncertaintyNm)}</td><td>${b.label}</td><td>${f(b.dNm, 5)}</td><td>${(100 * b.relDiff).toFixed(2)} %</td><td class=${Math.abs(b.z) <= 2 ? 'good' : 'warn'}>${b.z.toFixed(2)}</td></tr>`;
           })}
