@@ -117,6 +117,19 @@ test('a region over the fringes gives a strongest spot at 1.25 nm, and a click o
   const added = (await panelState()).spots.find((t) => t.added)!;
   expect(Math.abs(added.periodPx - top.periodPx)).toBeLessThan(0.05);
   expect(Math.abs(added.angleDeg - top.angleDeg)).toBeLessThan(0.5);
+
+  // Keyboard: remove it again, then walk the crosshair from zero frequency to the spot and press Enter.
+  await panel().locator('tbody tr', { hasText: `#${added.n}` }).locator('button', { hasText: '×' }).click();
+  await panel().locator('.figure[role="application"]').focus();
+  await s.page.keyboard.press('Escape'); // the crosshair restarts at zero frequency
+  const du = Math.round(top.fx * sp.width);
+  const dv = Math.round(top.fy * sp.height);
+  for (let i = 0; i < Math.abs(du); i++) await s.page.keyboard.press(du < 0 ? 'ArrowLeft' : 'ArrowRight');
+  for (let i = 0; i < Math.abs(dv); i++) await s.page.keyboard.press(dv < 0 ? 'ArrowUp' : 'ArrowDown');
+  await s.page.keyboard.press('Enter');
+  await expect.poll(async () => (await panelState()).spots.filter((t) => t.added).length).toBe(1);
+  const keyed = (await panelState()).spots.find((t) => t.added)!;
+  expect(Math.abs(keyed.periodPx - top.periodPx)).toBeLessThan(0.05);
 });
 
 test('two selected spots show the angle between them, and the Fourier filter shows the region', async () => {
