@@ -118,6 +118,22 @@ export class StrataDiffractionPanel extends LitElement {
     this.analyse();
   }
 
+  /** Loads the demo powder pattern that ships with the app (listed in demo/index.json). */
+  private async loadDemoPattern(): Promise<void> {
+    try {
+      const list = (await (await fetch('demo/index.json')).json()) as Array<{ file: string; kind: string }>;
+      const entry = list.find((e) => e.kind === 'pattern');
+      if (!entry) throw new Error('no demo pattern in this build');
+      const res = await fetch(`demo/${encodeURIComponent(entry.file)}`);
+      if (!res.ok) throw new Error(`demo pattern not found (${res.status})`);
+      this.patternText = await res.text();
+      this.fileName = entry.file;
+      await this.analyse();
+    } catch (err) {
+      this.error = (err as Error).message;
+    }
+  }
+
   /** Parses and fits the pattern in the compute worker, so the page stays responsive. */
   private async analyse(): Promise<void> {
     if (this.patternText === null) return;
@@ -297,6 +313,7 @@ export class StrataDiffractionPanel extends LitElement {
         <h3>Pattern</h3>
         <div class="row">
           <label>File <input type="file" accept=".xy,.txt,.dat,.csv,.asc" @change=${(e: Event) => this.onFile(e)} /></label>
+          <button @click=${() => this.loadDemoPattern()} title="The synthetic Cu Kα pattern of the demo tactoid film">Demo pattern</button>
           <label>Wavelength
             <select @change=${(e: Event) => { this.wavelengthKey = (e.target as HTMLSelectElement).value; this.analyse(); }}>
               <option value="header" ?selected=${this.wavelengthKey === 'header'}>from the file</option>
