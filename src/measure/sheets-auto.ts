@@ -4,7 +4,7 @@
  * their layers at several places along them, following the local normal of bent sheets.
  */
 import type { GreyImage } from '../image/grey-image';
-import { periodFromPeriodogram, profilePeriodogram, type SheetProfileOptions } from './sheets';
+import { periodCandidates, profilePeriodogram, sheetsAlongProfile, type SheetProfileOptions } from './sheets';
 import { sheetsAlongLine, type LineSheet } from './sheets-line';
 import { lineProfile } from './profile';
 import { axialDifferenceDeg, structureTensor, type OrientationField } from './structure-tensor';
@@ -17,7 +17,7 @@ export type SheetStatus = 'auto' | 'accepted' | 'rejected' | 'manual' | 'correct
 export interface AutoSheetOptions extends Pick<SheetProfileOptions, 'polarity' | 'relBandwidth' | 'snrThreshold' | 'minLayers' | 'spacingTolerance'> {
   /** Expected layer period, px; default: estimated for each region from its central profile. */
   periodPx?: number;
-  /** Shortest period searched, px (default 3). */
+  /** Shortest period searched, px (default 2.2). */
   minPeriodPx?: number;
   /** Longest period searched, px (default 40). */
   maxPeriodPx?: number;
@@ -31,8 +31,10 @@ export interface AutoSheetOptions extends Pick<SheetProfileOptions, 'polarity' |
   minAreaPx?: number;
   /** Measurement lines per region along its layers (default 5). */
   linesPerSheet?: number;
-  /** Width of each measurement line, px (default 7). */
+  /** Width of each measurement line, px (default: 0.6 × the spacing of the lines, within 7–25). */
   lineWidthPx?: number;
+  /** Standard deviation of the structure tensor's derivative filters, px (default 1; fine fringes still orient a region through the edges of their stack). */
+  gradientSigmaPx?: number;
   /** A box [x, y, width, height] in px that is skipped (e.g. the information strip under a scale bar). */
   exclude?: [number, number, number, number] | null;
 }
@@ -144,15 +146,16 @@ function inBox(x: number, y: number, box: [number, number, number, number] | nul
  * @param image the image (its calibration gives the nm fields)
  * @param options period, tensor scale, thresholds, lines per sheet, exclusion box
  * @returns the sheets, each with status 'auto', an outline, the measurement lines and medians
- * Notes: unless periodPx is given, one layer period is estimated for the image from the summed
- * periodograms of the regions' central profiles; regions are connected pixels (on a 2-px grid) of coherence above the threshold whose
+ * Notes: unless periodPx is given, one layer period is estimated for the image: of the three
+ * best peaks of the summed periodograms of the regions' profiles, the one that finds the most
+ * layers on those profiles; regions are connected pixels (on a 2-px grid) of coherence above the threshold whose
  * normals agree within the tolerance; each region gets `linesPerSheet` lines along its layers,
  * spread over the central 70 % of its length, each through the region's local centre along the
  * local normal; sheets on the lines are matched by their offset along the normal, a sheet must be
  * seen on at least half the lines, and its layer count is the most frequent count.
  */
 export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): AutoSheetsResult {
-  const minPeriodPx = options.minPeriodPx ?? 3;
+  const minPeriodPx = options.minPeriodPx ?? 2.2;
   const maxPeriodPx = options.maxPeriodPx ?? 40;
   if (options.periodPx !== undefined && !(options.periodPx >= 2)) throw new RangeError(`periodPx must be ≥ 2, got ${options.periodPx}`);
   if (!(minPeriodPx >= 2)) throw new RangeError(`minPeriodPx must be ≥ 2, got ${minPeriodPx}`);
@@ -162,7 +165,10 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
   const angleToleranceDeg = options.angleToleranceDeg ?? 12;
   const minAreaPx = options.minAreaPx ?? 400;
   const linesPerSheet = options.linesPerSheet ?? 5;
-  const lineWidthPx = options.lineWidthPx ?? 7;
+  const fixedWidthPx = options.lineWidthPx;
+  const lineWidthPx = fixedWidthPx ?? 7;
+  const gradientSigmaPx = options.gradientSigmaPx ?? 1;
+  if (!(gradientSigmaPx > 0)) throw new RangeError(`gradientSigmaPx must be > 0, got ${gradientSigmaPx}`);
   const exclude = options.exclude ?? null;
   if (!(coherenceThreshold > 0 && coherenceThreshold < 1)) throw new RangeError(`coherenceThreshold must be in (0, 1), got ${coherenceThreshold}`);
   if (!(angleToleranceDeg > 0 && angleToleranceDeg <= 90)) throw new RangeError(`angleToleranceDeg must be in (0, 90], got ${angleToleranceDeg}`);
@@ -171,88 +177,62 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
   if (exclude && !(exclude.length === 4 && exclude.every(Number.isFinite) && exclude[2] > 0 && exclude[3] > 0)) {
     throw new RangeError(`exclude must be [x, y, width, height] with positive size, got ${JSON.stringify(exclude)}`);
   }
-  const settings = { minPeriodPx, maxPeriodPx, integrationSigmaPx, coherenceThreshold, angleToleranceDeg, minAreaPx, linesPerSheet, lineWidthPx, exclude, periodPx: options.periodPx ?? null };
-  const field = structureTensor(image, { gradientSigmaPx: 1, integrationSigmaPx });
+  const settings = { minPeriodPx, maxPeriodPx, gradientSigmaPx, integrationSigmaPx, coherenceThreshold, angleToleranceDeg, minAreaPx, linesPerSheet, lineWidthPx: fixedWidthPx ?? 'auto', exclude, periodPx: options.periodPx ?? null };
+  const field = structureTensor(image, { gradientSigmaPx, integrationSigmaPx });
   const regions = layeredRegions(field, { coherenceThreshold, angleToleranceDeg, minAreaPx, exclude, marginPx: Math.ceil(2 * integrationSigmaPx) });
   const sheets: AutoSheet[] = [];
   const { width, height } = image;
-  const hw = (Math.max(1, Math.round(lineWidthPx)) - 1) / 2;
   // one layer period for the image unless given: the periodograms of every region's central
   // profile (over the region's extent) summed, each normalised and weighted by its area
   let imagePeriodPx = options.periodPx;
+  const geometry = regions.map((reg) => regionLines(reg, linesPerSheet, lineWidthPx, fixedWidthPx, exclude));
   if (imagePeriodPx === undefined && regions.length > 0) {
     const size = 4096;
     const sum = new Float64Array(size / 2 + 1);
-    for (const reg of regions) {
-      const th = (reg.angleDeg * Math.PI) / 180;
-      const ux = Math.cos(th);
-      const uy = -Math.sin(th);
-      let bMin = Infinity;
-      let bMax = -Infinity;
-      for (const [x, y] of reg.points) {
-        const bb = (x - reg.cx) * ux + (y - reg.cy) * uy;
-        bMin = Math.min(bMin, bb);
-        bMax = Math.max(bMax, bb);
+    const profiles: Float64Array[] = [];
+    for (const g of geometry) {
+      const regionHw = (Math.max(1, Math.round(g.widthPx)) - 1) / 2;
+      for (const l of g.lines) {
+        const seg = clipLine(l.px, l.py, l.ux, l.uy, Math.max(16, g.extentB / 2 + 4), width, height, regionHw);
+        if (!seg) continue;
+        const prof = lineProfile(image, seg[0], seg[1], seg[2], seg[3], { widthPx: g.widthPx });
+        if (prof.mean.length < 16 || prof.mean.length > size) continue;
+        profiles.push(prof.mean);
+        const p = profilePeriodogram(prof.mean, size, Math.max(maxPeriodPx / 2, 2 * minPeriodPx));
+        let tot = 0;
+        for (let k = 1; k < p.length; k++) tot += p[k];
+        if (!(tot > 0)) continue;
+        const w = g.area / g.lines.length / tot;
+        for (let k = 0; k < p.length; k++) sum[k] += w * p[k];
       }
-      const seg = clipLine(reg.cx, reg.cy, ux, uy, Math.max(16, (bMax - bMin) / 2 + 4), width, height, hw);
-      if (!seg) continue;
-      const prof = lineProfile(image, seg[0], seg[1], seg[2], seg[3], { widthPx: lineWidthPx });
-      if (prof.mean.length < 16 || prof.mean.length > size) continue;
-      const p = profilePeriodogram(prof.mean, size, Math.max(maxPeriodPx / 2, 2 * minPeriodPx));
-      let tot = 0;
-      for (let k = 1; k < p.length; k++) tot += p[k];
-      if (!(tot > 0)) continue;
-      const w = reg.points.length / tot;
-      for (let k = 0; k < p.length; k++) sum[k] += w * p[k];
     }
-    imagePeriodPx = periodFromPeriodogram(sum, size, minPeriodPx, maxPeriodPx).periodPx;
+    // of the three best spectral candidates, the one that finds the most layers on these
+    // profiles (the body of a stack makes spectral side lobes that find few)
+    const candidates = periodCandidates(sum, size, minPeriodPx, maxPeriodPx, 3);
+    let bestLayers = -1;
+    for (const c of candidates) {
+      let layers = 0;
+      for (const v of profiles) {
+        if (c.periodPx > v.length / 1.6) continue;
+        for (const sh of sheetsAlongProfile(v, { periodPx: c.periodPx, polarity: options.polarity, relBandwidth: options.relBandwidth, snrThreshold: options.snrThreshold }).sheets) layers += sh.layers;
+      }
+      if (layers > bestLayers) {
+        bestLayers = layers;
+        imagePeriodPx = c.periodPx;
+      }
+    }
   }
-  for (const reg of regions) {
-    const th = (reg.angleDeg * Math.PI) / 180;
-    const n = [Math.cos(th), -Math.sin(th)];
-    const t = [-n[1], n[0]];
-    const a: number[] = [];
-    const b: number[] = [];
-    for (const [x, y] of reg.points) {
-      a.push((x - reg.cx) * t[0] + (y - reg.cy) * t[1]);
-      b.push((x - reg.cx) * n[0] + (y - reg.cy) * n[1]);
-    }
-    const aMin = Math.min(...a);
-    const aMax = Math.max(...a);
-    const extentB = Math.max(...b) - Math.min(...b);
-    const length = aMax - aMin;
-    const k = Math.max(1, Math.min(linesPerSheet, Math.floor(length / Math.max(lineWidthPx, 4))));
-    const lineThrough = (px: number, py: number, ux: number, uy: number, half: number) => clipLine(px, py, ux, uy, half, width, height, hw);
+  for (const g of geometry) {
+    const { widthPx, extentB, lines, k } = g;
+    const regionHw = (Math.max(1, Math.round(widthPx)) - 1) / 2;
     const periodPx = imagePeriodPx as number;
     const obs: { line: number; offset: number; s: LineSheet; ux: number; uy: number }[] = [];
-    const slab = Math.max(2, (0.7 * length) / (2 * k));
-    for (let j = 0; j < k; j++) {
-      // lines spread over the central 70 % of the region (its ends are where layers fade out)
-      const ak = aMin + length * (0.15 + (0.7 * (j + 0.5)) / k);
-      const angles: number[] = [];
-      const weights: number[] = [];
-      let bSum = 0;
-      let cnt = 0;
-      reg.points.forEach((p, i) => {
-        if (Math.abs(a[i] - ak) > slab) return;
-        angles.push(reg.angles[i]);
-        weights.push(reg.weights[i]);
-        bSum += b[i];
-        cnt++;
-      });
-      if (cnt === 0) continue;
-      const bc = bSum / cnt;
-      const px = reg.cx + ak * t[0] + bc * n[0];
-      const py = reg.cy + ak * t[1] + bc * n[1];
-      if (inBox(px, py, exclude)) continue;
-      const thk = (axialMeanDeg(angles, weights) * Math.PI) / 180;
-      const ux = Math.cos(thk);
-      const uy = -Math.sin(thk);
+    for (const { j, px, py, ux, uy } of lines) {
       const half = extentB / 2 + 4 * periodPx;
-      const seg = lineThrough(px, py, ux, uy, half);
+      const seg = clipLine(px, py, ux, uy, half, width, height, regionHw);
       if (!seg) continue;
       const r = sheetsAlongLine(image, seg[0], seg[1], seg[2], seg[3], {
-        widthPx: lineWidthPx,
+        widthPx,
         periodPx: Math.min(periodPx, Math.hypot(seg[2] - seg[0], seg[3] - seg[1]) / 1.6),
         polarity: options.polarity,
         relBandwidth: options.relBandwidth,
@@ -318,7 +298,7 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
         angleDeg,
         centerPx: [cx, cy],
         outlinePx,
-        lengthPx: Math.hypot(last[0] - first[0], last[1] - first[1]) + (length / k),
+        lengthPx: Math.hypot(last[0] - first[0], last[1] - first[1]) + (0.7 * g.length) / k,
         crossings: c.map((q) => ({
           centerPx: q.s.centerXY,
           layers: q.s.layers,
@@ -330,6 +310,63 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
     }
   }
   return { sheets, regions: regions.length, settings };
+}
+
+/** Where a region is measured: k points along its layers (central 70 %), each with the local normal. */
+function regionLines(
+  reg: LayeredRegion,
+  linesPerSheet: number,
+  lineWidthPx: number,
+  fixedWidthPx: number | undefined,
+  exclude: [number, number, number, number] | null,
+): { k: number; widthPx: number; extentB: number; length: number; area: number; lines: { j: number; px: number; py: number; ux: number; uy: number }[] } {
+  const th = (reg.angleDeg * Math.PI) / 180;
+  const n = [Math.cos(th), -Math.sin(th)];
+  const t = [-n[1], n[0]];
+  const a: number[] = [];
+  const b: number[] = [];
+  let aMin = Infinity;
+  let aMax = -Infinity;
+  let bMin = Infinity;
+  let bMax = -Infinity;
+  for (const [x, y] of reg.points) {
+    const aa = (x - reg.cx) * t[0] + (y - reg.cy) * t[1];
+    const bb = (x - reg.cx) * n[0] + (y - reg.cy) * n[1];
+    a.push(aa);
+    b.push(bb);
+    aMin = Math.min(aMin, aa);
+    aMax = Math.max(aMax, aa);
+    bMin = Math.min(bMin, bb);
+    bMax = Math.max(bMax, bb);
+  }
+  const length = aMax - aMin;
+  const k = Math.max(1, Math.min(linesPerSheet, Math.floor(length / Math.max(lineWidthPx, 4))));
+  const widthPx = fixedWidthPx ?? Math.max(7, Math.min(25, Math.round((0.6 * 0.7 * length) / k)));
+  const slab = Math.max(2, (0.7 * length) / (2 * k));
+  const lines: { j: number; px: number; py: number; ux: number; uy: number }[] = [];
+  for (let j = 0; j < k; j++) {
+    // lines spread over the central 70 % of the region (its ends are where layers fade out)
+    const ak = aMin + length * (0.15 + (0.7 * (j + 0.5)) / k);
+    const angles: number[] = [];
+    const weights: number[] = [];
+    let bSum = 0;
+    let cnt = 0;
+    reg.points.forEach((_, i) => {
+      if (Math.abs(a[i] - ak) > slab) return;
+      angles.push(reg.angles[i]);
+      weights.push(reg.weights[i]);
+      bSum += b[i];
+      cnt++;
+    });
+    if (cnt === 0) continue;
+    const bc = bSum / cnt;
+    const px = reg.cx + ak * t[0] + bc * n[0];
+    const py = reg.cy + ak * t[1] + bc * n[1];
+    if (inBox(px, py, exclude)) continue;
+    const thk = (axialMeanDeg(angles, weights) * Math.PI) / 180;
+    lines.push({ j, px, py, ux: Math.cos(thk), uy: -Math.sin(thk) });
+  }
+  return { k, widthPx, extentB: bMax - bMin, length, area: reg.points.length, lines };
 }
 
 /** End points of a line through P along unit vector u, half-length `half`, clipped so a line of half-width hw stays inside; null if under 16 px. */

@@ -120,53 +120,72 @@ export function profilePeriodogram(values: ArrayLike<number>, size: number, high
 }
 
 /**
- * The dominant period of a power spectrum on a grid of `size` bins, searched between two periods.
+ * Candidate periods of a power spectrum on a grid of `size` bins, best first.
  *
- * Among local maxima above 5 % of the largest, the one with the largest power over the median of the two octaves around it ([f/2, 2f]) wins; parabola on log power (common practice).
+ * Local maxima above 0.2 % of the largest (which leaves out weak harmonics of sharp layer lines), ranked by power over the median of the two octaves around them ([f/2, 2f]); parabola on log power (common practice).
  *
  * @param power bins 0 … size/2 (from `profilePeriodogram`, possibly summed)
  * @param size the transform length
  * @param minPeriodPx shortest period (≥ 2)
  * @param maxPeriodPx longest period
- * @returns the period in samples and its peak power over the median power of the two octaves around it
+ * @param count how many candidates at most (periods within 15 % of a better one are skipped)
+ * @returns candidates with their period in samples and peak power over the two octaves' median
  */
-export function periodFromPeriodogram(
+export function periodCandidates(
   power: Float64Array,
   size: number,
   minPeriodPx: number,
   maxPeriodPx: number,
-): { periodPx: number; peakToMedian: number } {
+  count = 3,
+): { periodPx: number; peakToMedian: number }[] {
   if (!(minPeriodPx >= 2)) throw new RangeError(`minPeriodPx must be ≥ 2, got ${minPeriodPx}`);
   if (!(maxPeriodPx > minPeriodPx)) throw new RangeError(`maxPeriodPx must exceed minPeriodPx (${minPeriodPx}), got ${maxPeriodPx}`);
+  if (!(Number.isInteger(count) && count >= 1)) throw new RangeError(`count must be a positive integer, got ${count}`);
   const kLo = Math.max(1, Math.floor(size / maxPeriodPx));
   const kHi = Math.min(size / 2 - 2, Math.ceil(size / minPeriodPx));
   let maxPower = 0;
   for (let k = kLo; k <= kHi; k++) maxPower = Math.max(maxPower, power[k]);
-  let best = kLo;
-  let bestScore = -1;
-  let median = 1e-300;
+  const found: { k: number; score: number; median: number }[] = [];
   const window: number[] = [];
   for (let k = kLo; k <= kHi; k++) {
-    if (!(power[k] >= power[k - 1] && power[k] >= power[k + 1]) || power[k] < 0.05 * maxPower) continue;
+    if (!(power[k] >= power[k - 1] && power[k] >= power[k + 1]) || power[k] < 0.002 * maxPower) continue;
     const a = Math.max(1, Math.floor(k / 2));
     const b = Math.min(size / 2 - 1, Math.ceil(k * 2));
     window.length = 0;
     for (let j = a; j <= b; j += Math.max(1, Math.floor((b - a) / 64))) window.push(power[j]);
     window.sort((x, y) => x - y);
     const med = window[window.length >> 1] || 1e-300;
-    const score = power[k] / med;
-    if (score > bestScore) { bestScore = score; best = k; median = med; }
+    found.push({ k, score: power[k] / med, median: med });
   }
-  const bestP = power[best];
-  let delta = 0;
-  if (best > 1 && best < size / 2 - 1) {
-    const pm = Math.log(power[best - 1] + 1e-300);
-    const p0 = Math.log(bestP + 1e-300);
-    const pp = Math.log(power[best + 1] + 1e-300);
-    const den = pm - 2 * p0 + pp;
-    if (den < 0) delta = Math.max(-0.5, Math.min(0.5, (0.5 * (pm - pp)) / den));
+  found.sort((p, q) => q.score - p.score);
+  const out: { periodPx: number; peakToMedian: number }[] = [];
+  for (const c of found) {
+    let delta = 0;
+    const k = c.k;
+    if (k > 1 && k < size / 2 - 1) {
+      const pm = Math.log(power[k - 1] + 1e-300);
+      const p0 = Math.log(power[k] + 1e-300);
+      const pp = Math.log(power[k + 1] + 1e-300);
+      const den = pm - 2 * p0 + pp;
+      if (den < 0) delta = Math.max(-0.5, Math.min(0.5, (0.5 * (pm - pp)) / den));
+    }
+    const periodPx = size / (k + delta);
+    if (out.some((o) => Math.abs(o.periodPx - periodPx) < 0.15 * o.periodPx)) continue;
+    out.push({ periodPx, peakToMedian: c.score });
+    if (out.length >= count) break;
   }
-  return { periodPx: size / (best + delta), peakToMedian: bestP / median };
+  if (out.length === 0) out.push({ periodPx: size / Math.max(kLo, 1), peakToMedian: 0 });
+  return out;
+}
+
+/** The best candidate of `periodCandidates` (see there). */
+export function periodFromPeriodogram(
+  power: Float64Array,
+  size: number,
+  minPeriodPx: number,
+  maxPeriodPx: number,
+): { periodPx: number; peakToMedian: number } {
+  return periodCandidates(power, size, minPeriodPx, maxPeriodPx, 1)[0];
 }
 
 /**
