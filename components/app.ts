@@ -18,6 +18,8 @@ import type { LibraryDb } from '../src/store/schema';
 import { ComputeClient } from './compute-client';
 import type { Histogram } from './pyramid';
 import { controlStyles } from './styles';
+import { registerServiceWorker } from './sw-update';
+import { watchErrors, type ErrorLog } from './diagnostics-panel';
 import './library';
 import './viewer';
 import type { LineDrawnDetail, OverlayShape, RectDrawnDetail, StrataViewer } from './viewer';
@@ -142,9 +144,8 @@ export class StrataApp extends LitElement {
 
   override connectedCallback(): void {
     super.connectedCallback();
-    if ('serviceWorker' in navigator && location.protocol !== 'file:') {
-      navigator.serviceWorker.register('sw.js').catch((e) => console.warn('service worker not registered', e));
-    }
+    void registerServiceWorker('sw.js');
+    this.errorLog ??= watchErrors(() => this.db);
     this.addEventListener('dragover', this.onDragOver);
     this.addEventListener('dragleave', this.onDragLeave);
     this.addEventListener('drop', this.onDrop);
@@ -201,9 +202,13 @@ export class StrataApp extends LitElement {
     this.storage = await storageEstimate().catch(() => null);
   }
 
+  /** Errors of the page and error messages shown, logged in the local diagnostics store. */
+  private errorLog: ErrorLog | null = null;
+
   /** Shows a message on the message line (errors stay until the next message). */
   say(text: string, kind: Message['kind'] = 'info'): void {
     this.message = { text, kind };
+    if (kind === 'error') this.errorLog?.log({ kind: 'status', message: text, context: this.record?.fileName ?? '' });
   }
 
   private onDragOver = (e: DragEvent): void => {
