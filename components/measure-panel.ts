@@ -511,9 +511,9 @@ export class StrataMeasurePanel extends LitElement {
     if (!s || !this.spots.length) return 1;
     let reach = 0;
     for (const t of this.spots) reach = Math.max(reach, Math.abs(t.fx) * 2, Math.abs(t.fy) * 2);
-    // Zoom in while every spot stays within three quarters of the half-frame and 48 bins or more remain across.
+    // Zoom in while every spot stays within three quarters of the half-frame and 40 bins or more remain across.
     let z = 1;
-    while (z < 8 && reach * 2 * z <= 0.75 && Math.min(s.width, s.height) / (4 * z) >= 48) z *= 2;
+    while (z < 8 && reach * 2 * z <= 0.75 && Math.min(s.width, s.height) / (2 * z) >= 40) z *= 2;
     return z;
   }
 
