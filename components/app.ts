@@ -119,7 +119,7 @@ export class StrataApp extends LitElement {
       .message { margin: 0; padding: 4px 12px; font-size: 13px; border-bottom: 1px solid var(--line); min-height: 20px; background: #141a20; }
       .message.error { color: #ffb4b4; background: #2a1717; }
       .message.busy { color: var(--accent-2); }
-      .work { flex: 1; display: grid; grid-template-columns: 1fr minmax(360px, 28%); min-height: 0; }
+      .work { flex: 1; display: grid; grid-template-columns: minmax(0, 1fr) minmax(360px, 28%); min-height: 0; overflow: hidden; }
       strata-viewer { min-height: 0; }
       .start { overflow-y: auto; padding: 28px 36px; border-right: 1px solid var(--line); }
       .start h2 { font-size: 16px; font-weight: 600; margin: 0 0 6px; }
@@ -132,7 +132,7 @@ export class StrataApp extends LitElement {
       .demo b { font-size: 13px; }
       .demo span { color: var(--muted); font-size: 12px; line-height: 1.4; }
       .demo .kind { color: var(--accent-2); font-size: 11px; text-transform: uppercase; letter-spacing: 0.06em; }
-      aside { display: flex; flex-direction: column; min-height: 0; background: var(--panel); border-left: 1px solid var(--line); }
+      aside { display: flex; flex-direction: column; min-height: 0; min-width: 0; background: var(--panel); border-left: 1px solid var(--line); }
       [role='tablist'] { display: flex; flex-wrap: wrap; border-bottom: 1px solid var(--line); }
       [role='tab'] { border: 0; border-radius: 0; background: transparent; padding: 6px 10px; border-bottom: 2px solid transparent; color: var(--muted); }
       [role='tab'][aria-selected='true'] { color: var(--text); border-bottom-color: var(--accent); }

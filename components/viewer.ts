@@ -145,6 +145,7 @@ export class StrataViewer extends LitElement {
       canvas.view { position: absolute; inset: 0; width: 100%; height: 100%; image-rendering: pixelated; }
       svg.overlay { position: absolute; inset: 0; width: 100%; height: 100%; pointer-events: none; }
       svg .handle { pointer-events: all; cursor: ew-resize; }
+      svg text { paint-order: stroke; stroke: #000; stroke-width: 3px; stroke-opacity: 0.8; stroke-linejoin: round; }
       .empty { position: absolute; inset: 0; display: grid; place-items: center; color: var(--muted); }
       .foot { display: flex; align-items: center; gap: 12px; padding: 3px 8px; background: var(--panel); border-top: 1px solid var(--line); font-size: 12px; min-height: 66px; }
       .readout { flex: 1; display: grid; grid-template-columns: repeat(3, max-content); gap: 2px 16px; }
