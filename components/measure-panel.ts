@@ -192,7 +192,8 @@ export class StrataMeasurePanel extends LitElement {
       svg.marks .spot { fill: none; stroke: #e8c872; stroke-width: 1.5; }
       svg.marks .spot.sel { stroke: #ffd84d; stroke-width: 2.5; }
       svg.marks .spot.added { stroke: #f0a35e; }
-      svg.marks .mate { fill: none; stroke: #e8c872; stroke-width: 1; stroke-dasharray: 2 2; }
+      svg.marks .mate { fill: none; stroke: #ffd84d; stroke-width: 1.5; stroke-dasharray: 3 2; }
+      svg.marks .halo { fill: none; stroke: #000; stroke-width: 3; stroke-opacity: 0.6; }
       svg.marks .cross { stroke: #9fd3e6; stroke-width: 1; }
       svg.marks text { fill: #ffe9a8; font-size: 10px; paint-order: stroke; stroke: #000; stroke-width: 2.5px; }
       .table-wrap { overflow-x: auto; max-width: 100%; }
@@ -767,8 +768,8 @@ export class StrataMeasurePanel extends LitElement {
       const right = x < cw - 100;
       // Full labels for the strongest and the selected spots; the others carry their number only.
       const full = sel || t === this.spots[0];
-      return svg`<circle class=${classMap({ spot: true, sel, added: t.added })} cx=${x} cy=${y} r="6"></circle>
-        <circle class="mate" cx=${mx} cy=${my} r="6"></circle>
+      return svg`<circle class="halo" cx=${x} cy=${y} r="6"></circle><circle class=${classMap({ spot: true, sel, added: t.added })} cx=${x} cy=${y} r="6"></circle>
+        <circle class="halo" cx=${mx} cy=${my} r="6"></circle><circle class="mate" cx=${mx} cy=${my} r="6"></circle>
         <text x=${right ? x + 9 : x - 9} y=${y - 7} text-anchor=${right ? 'start' : 'end'}>#${t.n}${full ? ` ${this.dText(t.periodPx, cal, t.fx, t.fy)} ${t.angleDeg.toFixed(0)}°` : ''}</text>`;
     });
     const c = this.crosshair;
@@ -776,12 +777,15 @@ export class StrataMeasurePanel extends LitElement {
       const [x, y] = this.binToCss(c.u, c.v);
       return svg`<line class="cross" x1=${x - 8} x2=${x + 8} y1=${y} y2=${y}></line><line class="cross" x1=${x} x2=${x} y1=${y - 8} y2=${y + 8}></line>`;
     })() : nothing;
-    const nyquist = cal ? `${(0.5 / cal.nmPerPx / this.zoom).toPrecision(3)} nm⁻¹` : `${(0.5 / this.zoom).toPrecision(3)} px⁻¹`;
+    const edge = 0.5 / this.zoom;
+    const nyquist = cal
+      ? `${(edge / cal.nmPerPx).toPrecision(3)} nm⁻¹ (d ${(cal.nmPerPx / edge).toPrecision(3)} nm)`
+      : `${edge.toPrecision(3)} px⁻¹ (d ${(1 / edge).toPrecision(3)} px)`;
     return html`<div class="row">
         <span class="toggle" role="group" aria-label="Spectrum zoom">${[1, 2, 4, 8].map((z) => html`<button aria-pressed=${this.zoom === z ? 'true' : 'false'}
           title=${z === 1 ? 'The whole power spectrum, up to the Nyquist frequency' : `The central 1/${z} of the power spectrum (low spatial frequencies, large d-spacings)`}
           @click=${() => (this.zoom = z)}>×${z}</button>`)}</span>
-        <span class="note num">edge: ${nyquist}</span></div>
+        <span class="note num" title="Spatial frequency at the edge of the picture, and the d-spacing it corresponds to">edge ${nyquist}</span></div>
       <div class="figure" tabindex="0" role="application"
         aria-label="Power spectrum of the region, centre = zero frequency. Click a spot, or move the crosshair with the arrow keys (Shift: 10 bins) and press Enter, to add the spot nearest to it."
         data-w=${cw + 2} data-h=${ch + 2} @keydown=${this.onSpectrumKey}>
