@@ -64,9 +64,9 @@ export interface DomainMapOptions {
   coherenceThreshold?: number;
   /** ... and a sinusoid at its period explains more than this fraction of the projected profile's variance (default 0.3). */
   strengthThreshold?: number;
-  /** Neighbouring tiles join a domain when their normals differ by less than this (default 10°) ... */
+  /** A neighbouring tile joins a domain when its normal differs from the domain's mean by less than this (default 10°) ... */
   angleToleranceDeg?: number;
-  /** ... and their periods by less than this fraction (default 0.06). */
+  /** ... and its period from the domain's mean period by less than this fraction (default 0.06). */
   periodTolerance?: number;
 }
 
@@ -114,7 +114,7 @@ export interface DomainMapResult {
 /**
  * Local period and orientation maps and their domain segmentation.
  *
- * Tile orientation from the summed structure tensor (Bigün & Granlund 1987); tile period from the periodogram of the tile projected onto its normal, strength as the R² of a sinusoid fit; domains by 4-connected region growing.
+ * Tile orientation from the summed structure tensor (Bigün & Granlund 1987); tile period from the periodogram of the tile projected onto its normal, strength as the R² of a sinusoid fit; domains by seeded 4-connected region growing against the domain's running mean.
  *
  * @param image the image (its calibration gives the nm fields)
  * @param options tile size and step, period range, thresholds and tolerances
@@ -197,35 +197,46 @@ export function domainMap(image: GreyImage, options: DomainMapOptions = {}): Dom
       }
     }
   }
-  // region growing on the tile grid
-  const parent = new Int32Array(nt);
-  for (let i = 0; i < nt; i++) parent[i] = i;
-  const find = (i: number): number => {
-    while (parent[i] !== i) {
-      parent[i] = parent[parent[i]];
-      i = parent[i];
+  // region growing on the tile grid: seeds in order of coherence; a neighbour joins when it
+  // agrees with the domain's running mean direction and period (not just with its neighbour, so
+  // a slow drift cannot chain grains together)
+  const owner = new Int32Array(nt).fill(-1);
+  const order = Array.from({ length: nt }, (_, i) => i)
+    .filter((i) => Number.isFinite(periodPx[i]))
+    .sort((i, j) => coherence[j] - coherence[i]);
+  const groupsList: number[][] = [];
+  for (const seed of order) {
+    if (owner[seed] >= 0) continue;
+    const id = groupsList.length;
+    const members = [seed];
+    owner[seed] = id;
+    let c2 = Math.cos((2 * angleDeg[seed] * Math.PI) / 180);
+    let s2 = Math.sin((2 * angleDeg[seed] * Math.PI) / 180);
+    let pSum = periodPx[seed];
+    for (let q = 0; q < members.length; q++) {
+      const i = members[q];
+      const c = i % columns;
+      const r = Math.floor(i / columns);
+      const meanAngle = ((((Math.atan2(s2, c2) * 90) / Math.PI) % 180) + 180) % 180;
+      const meanPeriod = pSum / members.length;
+      for (const [dc, dr] of [[1, 0], [-1, 0], [0, 1], [0, -1]]) {
+        const cc = c + dc;
+        const rr = r + dr;
+        if (cc < 0 || rr < 0 || cc >= columns || rr >= rows) continue;
+        const j = rr * columns + cc;
+        if (owner[j] >= 0 || !Number.isFinite(periodPx[j])) continue;
+        if (axialDifferenceDeg(angleDeg[j], meanAngle) >= angTol) continue;
+        if (Math.abs(periodPx[j] - meanPeriod) >= perTol * meanPeriod) continue;
+        owner[j] = id;
+        members.push(j);
+        c2 += Math.cos((2 * angleDeg[j] * Math.PI) / 180);
+        s2 += Math.sin((2 * angleDeg[j] * Math.PI) / 180);
+        pSum += periodPx[j];
+      }
     }
-    return i;
-  };
-  const joins = (i: number, j: number) =>
-    Number.isFinite(periodPx[i]) && Number.isFinite(periodPx[j]) &&
-    axialDifferenceDeg(angleDeg[i], angleDeg[j]) < angTol &&
-    Math.abs(periodPx[i] - periodPx[j]) < perTol * 0.5 * (periodPx[i] + periodPx[j]);
-  for (let r = 0; r < rows; r++) {
-    for (let c = 0; c < columns; c++) {
-      const i = r * columns + c;
-      if (c + 1 < columns && joins(i, i + 1)) parent[find(i)] = find(i + 1);
-      if (r + 1 < rows && joins(i, i + columns)) parent[find(i)] = find(i + columns);
-    }
+    groupsList.push(members);
   }
-  const groups = new Map<number, number[]>();
-  for (let i = 0; i < nt; i++) {
-    if (!Number.isFinite(periodPx[i])) continue;
-    const root = find(i);
-    let g = groups.get(root);
-    if (!g) groups.set(root, (g = []));
-    g.push(i);
-  }
+  const groups = new Map<number, number[]>(groupsList.map((g, k) => [k, g]));
   const sorted = [...groups.values()].sort((p, q) => q.length - p.length);
   const labels = new Int32Array(nt).fill(-1);
   const nm = image.calibration?.nmPerPx ?? null;

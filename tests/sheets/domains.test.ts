@@ -48,3 +48,22 @@ describe('domainMap', () => {
     expect(() => domainMap(img, { tileSizePx: 64 })).toThrow(/tileSizePx/);
   });
 });
+
+describe('domainMap on the demo lamellar mesophase', () => {
+  it('recovers the recorded period and grain directions', async () => {
+    // truth recorded by the demo generator in demo-data/index.json (synthetic, known truth)
+    const { readFileSync } = await import('node:fs');
+    const { decodeImage } = await import('../../src/image/decode');
+    const entries = JSON.parse(readFileSync('demo-data/index.json', 'utf8')) as { file: string; truth: { periodPx: number; grains: { normalAngleDeg: number }[] } }[];
+    const demo = entries.find((e) => e.file === 'lamellar-mesophase.png')!;
+    const img = decodeImage(new Uint8Array(readFileSync(`demo-data/${demo.file}`)), demo.file);
+    const m = domainMap(img);
+    const big = m.domains.filter((d) => d.tiles >= 20);
+    expect(big.length).toBeGreaterThanOrEqual(4);
+    for (const d of big) {
+      expect(Math.abs(d.periodPx - demo.truth.periodPx) / demo.truth.periodPx).toBeLessThan(0.02);
+      const nearest = Math.min(...demo.truth.grains.map((g) => axialDifferenceDeg(g.normalAngleDeg, d.angleDeg)));
+      expect(nearest).toBeLessThan(8);
+    }
+  });
+});
