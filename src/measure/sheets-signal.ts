@@ -1,5 +1,5 @@
 /**
- * Small signal helpers for the sheet measurements: forward/inverse FFT on top of the shared
+ * Small signal routines for the sheet measurements: forward/inverse FFT on top of the shared
  * radix-2 transform, and reflect padding.
  */
 import { fftRadix2 } from './period-profile';
