@@ -86,7 +86,16 @@ export async function exportLibrary(db: LibraryDb): Promise<string> {
     recipes,
     batches,
   };
-  return JSON.stringify(out);
+  try {
+    return JSON.stringify(out);
+  } catch (e) {
+    if (!(e instanceof RangeError)) throw e;
+    const mb = images.reduce((sum, r) => sum + r.byteSize, 0) / 1048576;
+    throw new LibraryError(
+      `The library is too large to export as one file (${mb.toFixed(0)} MB of original images; ` +
+        'a browser text holds about 500 MB). Export it in parts: delete some images after a first export, then export again.',
+    );
+  }
 }
 
 /** How many records of each kind an import wrote. */

@@ -143,3 +143,14 @@ test('a full disk halfway through an import leaves the library as it was', async
   db.close();
   target.close();
 });
+
+test('a library too large for one text gives a readable message instead of a bare RangeError', async () => {
+  const { db } = await filledLibrary();
+  // Browsers throw RangeError ("Invalid string length") past their longest string (common practice: about 2^29 characters in Chromium).
+  vi.spyOn(JSON, 'stringify').mockImplementation(() => {
+    throw new RangeError('Invalid string length');
+  });
+  await expect(exportLibrary(db)).rejects.toThrow(/too large to export as one file \(0 MB of original images/);
+  vi.restoreAllMocks();
+  db.close();
+});
