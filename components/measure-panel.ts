@@ -9,7 +9,7 @@ import type { ImageRecord } from '../src/store/records';
 import type { LibraryDb } from '../src/store/schema';
 import type { ComputeClient } from './compute-client';
 import { calibrationSourceText, cropImage, formatWithUncertainty, jsonNumbers } from './measure-format';
-import { spotPeriodicity } from './measure-spot-near';
+import { spotPeriodicity } from '../src/measure/spot-near';
 import type { FilterResult, Picture, ProfileEstimator, ProfileResult, SpectrumResult, SpectrumSettings } from './measure-types';
 import { linePlot, plotStyles, type PlotPoint } from './plot-line';
 import { controlStyles } from './styles';

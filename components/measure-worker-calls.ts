@@ -129,7 +129,7 @@ export async function addSpotNear(args: SpotNearArgs): Promise<{ spot: Spot | nu
   checkImage(args.image);
   const { powerSpectrum } = await import('../src/measure/spectrum');
   const { refineData, refineSpot } = await import('../src/measure/refine');
-  const { spotNear } = await import('./measure-spot-near');
+  const { spotNear } = await import('../src/measure/spot-near');
   const s = args.settings;
   const sp = await powerSpectrum(args.image, null, { window: s.window, tukeyAlpha: s.tukeyAlpha });
   const spot = spotNear(sp, args.fx, args.fy, { radiusBins: args.radiusBins ?? 3 });

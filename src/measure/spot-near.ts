@@ -2,12 +2,12 @@
  * A spectrum spot picked by the user: the brightest bin near a clicked frequency, refined below
  * one bin the same way the automatic search refines its spots.
  */
-import type { Calibration } from '../src/image/grey-image';
-import { logParabolaOffset, magnitudeRatioOffset } from '../src/measure/interpolate';
-import { type Periodicity, toNm } from '../src/measure/measurement';
-import { frequencyCrbStd } from '../src/measure/period-profile';
-import { frequencyAngleDeg, radialBackground, type PowerSpectrum, type Spot } from '../src/measure/spectrum';
-import { windowVarianceFactor } from '../src/measure/window';
+import type { Calibration } from '../image/grey-image';
+import { logParabolaOffset, magnitudeRatioOffset } from './interpolate';
+import { type Periodicity, toNm } from './measurement';
+import { frequencyCrbStd } from './period-profile';
+import { frequencyAngleDeg, radialBackground, type PowerSpectrum, type Spot } from './spectrum';
+import { windowVarianceFactor } from './window';
 
 /** Options of {@link spotNear}. */
 export interface SpotNearOptions {
