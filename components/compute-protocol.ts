@@ -8,6 +8,7 @@ import type { FilterArgs, FilterResult, ProfileArgs, ProfileResult, SpectrumArgs
 import type { Spot } from '../src/measure/spectrum';
 import type { Pattern } from '../src/diffraction/pattern';
 import type { PatternAnalysis } from '../src/diffraction/analyse';
+import type { AutoSheetsResult } from '../src/measure/sheets-auto';
 
 export interface ComputeCalls {
   /** Decodes a file's bytes into a GreyImage. */
@@ -33,6 +34,8 @@ export interface ComputeCalls {
   filterSpots: { args: FilterArgs; result: FilterResult };
   /** Reads a diffraction pattern's text and fits its peaks (seconds on a few thousand points). */
   analysePattern: { args: { text: string; wavelength?: string }; result: { pattern: Pattern; analysis: PatternAnalysis } };
+  /** Automatic sheet detection over an image (a copy is sent), skipping a scale-bar strip or panel. */
+  autoSheets: { args: { image: GreyImage; polarity: 'dark' | 'bright' }; result: { sheets: AutoSheetsResult; excludedBox: [number, number, number, number] | null } };
 }
 
 export type CallName = keyof ComputeCalls;

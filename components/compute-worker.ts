@@ -43,6 +43,13 @@ const handlers: Handlers = {
   regionSpectrum,
   addSpotNear,
   filterSpots,
+  autoSheets: async ({ image, polarity }) => {
+    const { findScaleBar } = await import('../src/calibration/scale-bar');
+    const { detectSheets } = await import('../src/measure/sheets-auto');
+    const bar = findScaleBar(image);
+    const excludedBox = bar ? bar.stripBox ?? bar.panelBox : null;
+    return { sheets: detectSheets(image, { exclude: excludedBox, polarity }), excludedBox };
+  },
   analysePattern: async ({ text, wavelength }) => {
     const { parsePattern } = await import('../src/diffraction/pattern');
     const { analysePattern: analyse } = await import('../src/diffraction/analyse');

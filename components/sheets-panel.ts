@@ -3,9 +3,9 @@
 // or reject each sheet, histograms and statistics of the kept ones, and a CSV export.
 import { LitElement, css, html, nothing, svg } from 'lit';
 import type { GreyImage } from '../src/image/grey-image';
-import { findScaleBar } from '../src/calibration/scale-bar';
 import { sheetsAlongLine, type LineSheetsResult } from '../src/measure/sheets-line';
-import { detectSheets, sheetStatistics, type SheetStatus } from '../src/measure/sheets-auto';
+import { sheetStatistics, type SheetStatus } from '../src/measure/sheets-auto';
+import type { ComputeClient } from './compute-client';
 import { histogram, type Summary } from '../src/measure/stats';
 import { controlStyles } from './styles';
 import { linePlot, plotStyles } from './plot-line';
@@ -47,6 +47,7 @@ const f = (v: number | null, d = 2) => (v === null || !Number.isFinite(v) ? '—
 export class StrataSheetsPanel extends LitElement {
   static override properties = {
     image: { attribute: false },
+    compute: { attribute: false },
     line: { attribute: false },
     lineResult: { state: true },
     sheets: { state: true },
@@ -78,6 +79,8 @@ export class StrataSheetsPanel extends LitElement {
   ];
 
   image: GreyImage | null = null;
+  /** The compute worker client the shell gives every panel. */
+  compute: ComputeClient | null = null;
   line: LineDetail | null = null;
   lineResult: LineSheetsResult | null = null;
   sheets: ListedSheet[] = [];
@@ -172,11 +175,10 @@ export class StrataSheetsPanel extends LitElement {
     if (!img || this.busy) return;
     this.busy = true;
     this.say('finding sheets…');
-    await new Promise((r) => setTimeout(r, 30)); // let the busy state paint
     try {
-      const bar = findScaleBar(img);
-      const exclude = bar ? bar.stripBox ?? bar.panelBox : null;
-      const r = detectSheets(img, { exclude, polarity: this.bright ? 'bright' : 'dark' });
+      if (!this.compute) throw new Error('the compute worker is not available');
+      // Runs in the compute worker on a copy of the image: the page stays responsive.
+      const { sheets: r, excludedBox: exclude } = await this.compute.call('autoSheets', { image: img, polarity: this.bright ? 'bright' : 'dark' });
       const kept = this.sheets.filter((s) => s.source !== 'auto');
       const found: ListedSheet[] = r.sheets.map((s) => {
         const mid = s.crossings[Math.floor(s.crossings.length / 2)];
