@@ -115,6 +115,7 @@ export class StrataMeasurePanel extends LitElement {
     spectrumError: { state: true },
     filtered: { state: true },
     showFiltered: { state: true },
+    filterOverImage: { state: true },
     filterBusy: { state: true },
     crosshair: { state: true },
     savedProfile: { state: true },
@@ -147,6 +148,8 @@ export class StrataMeasurePanel extends LitElement {
   spectrumError = '';
   filtered: FilterResult | null = null;
   showFiltered = true;
+  /** Whether the Fourier-filtered region is laid over the micrograph in the viewer. */
+  filterOverImage = false;
   filterBusy = false;
   crosshair: { u: number; v: number } | null = null;
   savedProfile = '';
@@ -592,6 +595,20 @@ export class StrataMeasurePanel extends LitElement {
     this.savedSpectrum = '';
   }
 
+  /** Lays the Fourier-filtered region over the micrograph (or removes it) in the viewer. */
+  private syncViewerOverlay(): void {
+    const v = this.viewer;
+    if (!v) return;
+    const r = this.spectrumRect;
+    const want = this.filterOverImage && this.filtered && r
+      ? { picture: this.filtered.filtered, rect: { x: r.x, y: r.y, width: r.width, height: r.height }, opacity: 0.7 }
+      : null;
+    const have = v.overlayPicture;
+    if (want === null && have === null) return;
+    if (want && have && have.picture === want.picture && have.rect.x === want.rect.x && have.rect.y === want.rect.y) return;
+    v.overlayPicture = want;
+  }
+
   private async runFilter(): Promise<void> {
     const crop = this.regionCrop();
     if (!crop || !this.compute) return;
@@ -860,6 +877,8 @@ export class StrataMeasurePanel extends LitElement {
       view = html`<div class="row toggle" role="group" aria-label="Shown image">
           <button aria-pressed=${this.showFiltered ? 'false' : 'true'} @click=${() => (this.showFiltered = false)}>Original region</button>
           <button aria-pressed=${this.showFiltered ? 'true' : 'false'} @click=${() => (this.showFiltered = true)}>Fourier-filtered</button>
+          <label title="Lay the filtered region over the micrograph in the viewer, at 70 % opacity"><input type="checkbox" .checked=${this.filterOverImage}
+            @change=${(e: Event) => { this.filterOverImage = (e.target as HTMLInputElement).checked; }} /> over the micrograph</label>
         </div>
         <div class="figure"><canvas class="filtered" width=${pic.width} height=${pic.height} role="img"
           aria-label=${this.showFiltered ? 'The region Fourier-filtered to the selected spots' : 'The region as recorded'}
@@ -894,6 +913,7 @@ export class StrataMeasurePanel extends LitElement {
   }
 
   protected override updated(): void {
+    this.syncViewerOverlay();
     // Sizes and offsets go through the CSSOM (allowed by the page's content security policy, unlike style attributes).
     for (const el of this.renderRoot.querySelectorAll<HTMLElement>('[data-w]')) {
       const d = el.dataset;

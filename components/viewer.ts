@@ -75,6 +75,15 @@ function formatLimit(v: number, image: GreyImage | null): string {
  * `lineWidthPx`, `lowPercent`, `highPercent`, `invert`.
  * Events: `line-drawn` (LineDrawnDetail), `rect-drawn` (RectDrawnDetail), `tool-changed`.
  */
+/** A picture laid over part of the image (see StrataViewer.overlayPicture). */
+export interface OverlayPicture {
+  picture: { width: number; height: number; rgba: Uint8ClampedArray };
+  /** Where it goes, in image pixels. */
+  rect: { x: number; y: number; width: number; height: number };
+  /** 0 (invisible) to 1 (opaque). */
+  opacity: number;
+}
+
 export class StrataViewer extends LitElement {
   static override properties = {
     image: { attribute: false },
@@ -82,6 +91,7 @@ export class StrataViewer extends LitElement {
     histogram: { attribute: false },
     tool: { type: String },
     shapes: { attribute: false },
+    overlayPicture: { attribute: false },
     lineWidthPx: { type: Number, attribute: 'line-width-px' },
     lowPercent: { type: Number, attribute: 'low-percent' },
     highPercent: { type: Number, attribute: 'high-percent' },
@@ -102,6 +112,12 @@ export class StrataViewer extends LitElement {
   histogram: Histogram | null = null;
   tool: ViewerTool = 'pan';
   shapes: OverlayShape[] = [];
+  /**
+   * An RGBA picture drawn over the image region `rect` (image px) with the given opacity, e.g. a
+   * Fourier-filtered region from the Periods panel; null for none.
+   */
+  overlayPicture: OverlayPicture | null = null;
+  private overlayCanvas: { source: OverlayPicture['picture']; canvas: OffscreenCanvas | HTMLCanvasElement } | null = null;
   lineWidthPx = 5;
   lowPercent = 0.5;
   highPercent = 99.5;
@@ -178,6 +194,7 @@ export class StrataViewer extends LitElement {
       // A new image (new pixels) resets the view; the same pixels with a new calibration do not.
       if (changed.has('image') && this.image?.data !== this.shownData) {
         this.shownData = this.image?.data ?? null;
+        this.overlayPicture = null;
         this.manual = false;
         this.draft = null;
         this.cursor = null;
@@ -322,7 +339,30 @@ export class StrataViewer extends LitElement {
       }
     }
     ctx.putImageData(this.imageData, 0, 0);
+    this.drawOverlayPicture(ctx, dpr);
     this.dataset.level = String(k);
+  }
+
+  /** Draws `overlayPicture` stretched over its image rectangle, at its opacity. */
+  private drawOverlayPicture(ctx: CanvasRenderingContext2D, dpr: number): void {
+    const o = this.overlayPicture;
+    if (!o) return;
+    if (!this.overlayCanvas || this.overlayCanvas.source !== o.picture) {
+      const c = document.createElement('canvas');
+      c.width = o.picture.width;
+      c.height = o.picture.height;
+      c.getContext('2d')?.putImageData(new ImageData(new Uint8ClampedArray(o.picture.rgba), o.picture.width, o.picture.height), 0, 0);
+      this.overlayCanvas = { source: o.picture, canvas: c };
+    }
+    const toScreenX = (ix: number) => ((ix - this.cx) * this.zoom + this.viewW / 2) * dpr;
+    const toScreenY = (iy: number) => ((iy - this.cy) * this.zoom + this.viewH / 2) * dpr;
+    ctx.save();
+    ctx.globalAlpha = Math.min(1, Math.max(0, o.opacity));
+    ctx.imageSmoothingEnabled = true;
+    const x0 = toScreenX(o.rect.x);
+    const y0 = toScreenY(o.rect.y);
+    ctx.drawImage(this.overlayCanvas.canvas as CanvasImageSource, x0, y0, toScreenX(o.rect.x + o.rect.width) - x0, toScreenY(o.rect.y + o.rect.height) - y0);
+    ctx.restore();
   }
 
   private drawHistogram(): void {
