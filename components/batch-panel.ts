@@ -12,8 +12,8 @@ import {
   commitFileResult, createBatch, deleteBatch, getBatch, listBatchFiles, listBatches, setBatchState,
   type BatchFileRecord, type BatchRun,
 } from '../src/store/batches';
-import { listRecipes, putRecipe, type LibraryDb } from '../src/store/library';
-import type { RecipeRecord } from '../src/store/records';
+import { listCalibrationProfiles, listRecipes, putRecipe, type LibraryDb } from '../src/store/library';
+import type { CalibrationProfile, RecipeRecord } from '../src/store/records';
 import { BatchPool, poolSize, type PoolFile } from './batch-pool';
 import { controlStyles } from './styles';
 
@@ -25,7 +25,8 @@ const IMAGE_NAME = /\.(tiff?|png|jpe?g|mrc)$/i;
 /** A file chosen for the next batch. */
 interface ChosenFile {
   name: string;
-  bytes: Uint8Array;
+  /** The file (read when the batch is made, then stored as it is). */
+  bytes: Blob;
 }
 
 /** A row of the per-file table. */
@@ -70,9 +71,11 @@ export class StrataBatchPanel extends LitElement {
     draft: { state: true },
     errors: { state: true },
     stored: { state: true },
+    profiles: { state: true },
     batch: { state: true },
     rows: { state: true },
     running: { state: true },
+    starting: { state: true },
     earlier: { state: true },
     rateText: { state: true },
   };
@@ -113,10 +116,14 @@ export class StrataBatchPanel extends LitElement {
   errors: Partial<Record<Field, string>> = {};
   /** Recipes stored in the library. */
   stored: RecipeRecord[] = [];
+  /** Instrument calibration profiles of the library. */
+  profiles: CalibrationProfile[] = [];
   /** The batch shown. */
   batch: BatchRun | null = null;
   rows: Row[] = [];
   running = false;
+  /** A batch is being made (files hashed and stored). */
+  starting = false;
   /** Batches of the library, newest first. */
   earlier: BatchRun[] = [];
   rateText = '';
@@ -149,6 +156,7 @@ export class StrataBatchPanel extends LitElement {
   private async refreshLibrary(): Promise<void> {
     if (!this.db) return;
     this.stored = await listRecipes(this.db).catch(() => []);
+    this.profiles = await listCalibrationProfiles(this.db).catch(() => []);
     this.earlier = await listBatches(this.db).catch(() => []);
     // After a reload or a crash: offer the batch that stopped before its end.
     const open = this.earlier.find((b) => b.state === 'running' || b.state === 'paused');
@@ -163,7 +171,7 @@ export class StrataBatchPanel extends LitElement {
   private async addFiles(files: { name: string; file: Blob }[]): Promise<void> {
     const images = files.filter((x) => IMAGE_NAME.test(x.name));
     const skipped = files.length - images.length;
-    const read = await Promise.all(images.map(async (x) => ({ name: x.name, bytes: new Uint8Array(await x.file.arrayBuffer()) })));
+    const read = images.map((x) => ({ name: x.name, bytes: x.file }));
     this.chosen = [...this.chosen, ...read].sort((a, b) => a.name.localeCompare(b.name, undefined, { numeric: true }));
     if (skipped) this.say(`${skipped} file${skipped === 1 ? '' : 's'} of other types left out (TIFF, PNG, JPEG and MRC are read).`);
   }
@@ -283,15 +291,20 @@ export class StrataBatchPanel extends LitElement {
   // ---- running --------------------------------------------------------------------------
 
   private async start(): Promise<void> {
-    if (!this.db || !this.chosen.length || Object.keys(this.errors).length || this.running) return;
+    if (!this.db || !this.chosen.length || Object.keys(this.errors).length || this.running || this.starting) return;
+    this.starting = true;
+    this.stopRequest = null;
     try {
       const { batch, duplicates } = await createBatch(this.db, { recipe: this.recipe, files: this.chosen });
       if (duplicates.length) this.say(`${duplicates.length} duplicate file${duplicates.length === 1 ? '' : 's'} left out: ${duplicates.join(', ')}`);
       this.chosen = [];
       await this.show(batch.id);
+      this.starting = false;
       await this.run();
     } catch (e) {
       this.say((e as Error).message, 'error');
+    } finally {
+      this.starting = false;
     }
   }
 
@@ -313,7 +326,6 @@ export class StrataBatchPanel extends LitElement {
     const batch = this.batch;
     if (!db || !batch || this.running) return;
     this.running = true;
-    this.stopRequest = null;
     try {
       await this.runQueued(db, batch);
     } catch (e) {
@@ -353,6 +365,12 @@ export class StrataBatchPanel extends LitElement {
         this.updateRate();
       },
     });
+  }
+
+  /** Resume (after a pause or a reload). */
+  private resume(): Promise<void> {
+    this.stopRequest = null;
+    return this.run();
   }
 
   private updateRate(): void {
@@ -448,7 +466,7 @@ export class StrataBatchPanel extends LitElement {
         @dragleave=${() => { this.dragging = false; this.requestUpdate(); }}
         @drop=${this.onDrop}>or drop many image files here</div>
       <p class="chosen muted">${this.chosen.length
-        ? html`${this.chosen.length} file${this.chosen.length === 1 ? '' : 's'} chosen, ${(this.chosen.reduce((s, c) => s + c.bytes.length, 0) / 1048576).toFixed(1)} MB
+        ? html`${this.chosen.length} file${this.chosen.length === 1 ? '' : 's'} chosen, ${(this.chosen.reduce((s, c) => s + c.bytes.size, 0) / 1048576).toFixed(1)} MB
             <button @click=${() => (this.chosen = [])}>Clear</button>`
         : 'No file chosen.'}</p>
     </section>`;
@@ -482,13 +500,19 @@ export class StrataBatchPanel extends LitElement {
       </div>
       <div class="row">
         <label>calibration
-          <select class="cal-route" .value=${String(cal.route ?? 'metadata')} @change=${(e: Event) => this.edit((x) => {
+          <select class="cal-route" .value=${cal.route === 'profile' ? `profile:${cal.profileId}` : String(cal.route ?? 'metadata')} @change=${(e: Event) => this.edit((x) => {
             const route = (e.target as HTMLSelectElement).value;
-            x.calibration = route === 'fixed' ? { route, nmPerPx: 0.1, relUncertainty: 0.02 } : { route };
+            const profile = this.profiles.find((p) => `profile:${p.id}` === route);
+            x.calibration = profile
+              ? { route: 'profile', profileId: profile.id, nmPerPx: profile.nmPerPx, relUncertainty: profile.relUncertainty }
+              : route === 'fixed' ? { route, nmPerPx: 0.1, relUncertainty: 0.02 } : { route };
           })}>
             <option value="metadata">from the file's metadata</option>
             <option value="scale-bar">from the scale bar</option>
             <option value="fixed">one pixel size for all</option>
+            ${this.profiles.map((p) => html`<option value=${`profile:${p.id}`}>profile: ${p.name} (${p.nmPerPx} nm/px)</option>`)}
+            ${cal.route === 'profile' && !this.profiles.some((p) => p.id === cal.profileId)
+              ? html`<option value=${`profile:${cal.profileId}`}>profile in the recipe (${cal.nmPerPx} nm/px)</option>` : nothing}
           </select></label>
         ${cal.route === 'fixed'
           ? html`<label>nm/px <input type="number" step="any" .value=${String(cal.nmPerPx ?? '')} @change=${(e: Event) => this.edit((x) => (x.calibration.nmPerPx = num(e)))}></label>
@@ -544,15 +568,16 @@ export class StrataBatchPanel extends LitElement {
   private renderRun() {
     const b = this.batch;
     const done = b ? b.ok + b.failed : 0;
-    const canStart = !!this.db && this.chosen.length > 0 && !Object.keys(this.errors).length && !this.running;
+    const canStart = !!this.db && this.chosen.length > 0 && !Object.keys(this.errors).length && !this.running && !this.starting;
     return html`<section aria-label="Run">
       <h3>3 · Run</h3>
       <div class="row">
         <button class="start" ?disabled=${!canStart} @click=${() => void this.start()}>Start batch</button>
-        ${b && !this.running && b.state !== 'finished' && b.state !== 'cancelled'
-          ? html`<button class="resume" @click=${() => void this.run()}>Resume</button>` : nothing}
-        ${this.running && b?.state === 'running' ? html`<button class="pause" @click=${() => void this.pause()}>Pause</button>` : nothing}
-        ${b && (this.running || b.state === 'paused' || b.state === 'running') ? html`<button class="cancel danger" @click=${() => void this.cancel()}>Cancel</button>` : nothing}
+        ${this.starting ? html`<span class="muted">storing the files…</span>` : nothing}
+        ${b && !this.starting && !this.running && b.state !== 'finished' && b.state !== 'cancelled'
+          ? html`<button class="resume" @click=${() => void this.resume()}>Resume</button>` : nothing}
+        ${!this.starting && this.running && b?.state === 'running' ? html`<button class="pause" @click=${() => void this.pause()}>Pause</button>` : nothing}
+        ${b && !this.starting && (this.running || b.state === 'paused' || b.state === 'running') ? html`<button class="cancel danger" @click=${() => void this.cancel()}>Cancel</button>` : nothing}
         <span class="muted">${poolSize()} worker${poolSize() === 1 ? '' : 's'}</span>
       </div>
       ${b
@@ -612,7 +637,7 @@ export class StrataBatchPanel extends LitElement {
           <td>${b.state}</td>
           <td>
             ${(b.state === 'running' || b.state === 'paused') && !(this.running && this.batch?.id === b.id)
-              ? html`<button class="resume-earlier" @click=${async () => { await this.show(b.id); await this.run(); }}>Resume</button>` : nothing}
+              ? html`<button class="resume-earlier" @click=${async () => { await this.show(b.id); await this.resume(); }}>Resume</button>` : nothing}
             ${this.batch?.id !== b.id ? html`<button @click=${() => void this.show(b.id)}>Show</button>` : nothing}
             <button class="danger" title="Delete the batch and its stored files" @click=${() => void this.removeBatch(b.id)}>Delete</button>
           </td>

@@ -113,11 +113,13 @@ export class BatchPool {
   /**
    * Processes the files in order until the queue is empty, `pause()` or `cancel()`.
    * @returns the files not started (queued), in order
+   * @throws the first error of `onAnswer` (e.g. a full storage), after the files in work finish
    */
   async run(files: PoolFile[], options: PoolRunOptions): Promise<PoolFile[]> {
     this.queue = [...files];
     this.stopping = false;
     const gen = ++this.generation;
+    let failure: { error: unknown } | null = null;
     const loop = async (w: PoolWorker) => {
       while (!this.stopping && gen === this.generation) {
         const file = this.queue.shift();
@@ -134,10 +136,19 @@ export class BatchPool {
         const answer: PoolAnswer = reply.ok
           ? { file, result: reply.result, figurePng: reply.figurePng }
           : { file, result: workerFailure(file.name, reply.error), figurePng: null };
-        await options.onAnswer(answer);
+        try {
+          await options.onAnswer(answer);
+        } catch (error) {
+          // the commit failed (e.g. storage full): the file stays queued and no worker takes another
+          failure ??= { error };
+          this.stopping = true;
+          this.queue.unshift(file);
+          return;
+        }
       }
     };
     await Promise.all(this.workers.map(loop));
+    if (failure) throw (failure as { error: unknown }).error;
     return this.queue;
   }
 

@@ -74,8 +74,11 @@ export interface BatchFileRecord {
 export interface BatchInputFile {
   /** Its name (relative to the chosen folder). */
   name: string;
-  /** Its bytes. */
-  bytes: Uint8Array;
+  /**
+   * Its bytes, or the file itself as a Blob (a File of the page): a Blob is read once for its
+   * SHA-256 and stored as it is, so a large folder is never held in memory whole.
+   */
+  bytes: Uint8Array | Blob;
 }
 
 /** Options for `createBatch`. */
@@ -118,7 +121,7 @@ export async function createBatch(db: LibraryDb, options: CreateBatchOptions): P
   if (!Array.isArray(files) || files.length === 0) throw new RangeError(`files must be a non-empty list, got ${Array.isArray(files) ? 'an empty list' : String(files)}`);
   for (const f of files) {
     if (!f || typeof f.name !== 'string' || !f.name) throw new RangeError(`every file needs a name, got ${JSON.stringify(f?.name)}`);
-    if (!(f.bytes instanceof Uint8Array)) throw new TypeError(`file ${f.name}: bytes must be a Uint8Array`);
+    if (!(f.bytes instanceof Uint8Array) && !(f.bytes instanceof Blob)) throw new TypeError(`file ${f.name}: bytes must be a Uint8Array or a Blob`);
   }
   const recipeJson = canonicalRecipeJson(recipe);
   const recipeHash = await sha256Hex(new TextEncoder().encode(recipeJson));
@@ -127,8 +130,9 @@ export async function createBatch(db: LibraryDb, options: CreateBatchOptions): P
   const id = globalThis.crypto.randomUUID();
   const records: BatchFileRecord[] = [];
   for (const f of files) {
-    const sha = await sha256Hex(f.bytes);
-    const key = `${f.name}\n${f.bytes.length}\n${sha}`;
+    const bytes = f.bytes instanceof Blob ? new Uint8Array(await f.bytes.arrayBuffer()) : f.bytes;
+    const sha = await sha256Hex(bytes);
+    const key = `${f.name}\n${bytes.length}\n${sha}`;
     if (seen.has(key)) {
       duplicates.push(f.name);
       continue;
@@ -136,8 +140,8 @@ export async function createBatch(db: LibraryDb, options: CreateBatchOptions): P
     seen.add(key);
     const index = records.length;
     records.push({
-      id: fileKey(id, index), batchId: id, index, name: f.name, byteSize: f.bytes.length, sha256Hex: sha,
-      file: new Blob([f.bytes as Uint8Array<ArrayBuffer>]), status: 'queued', result: null, figurePng: null, finishedIso: null,
+      id: fileKey(id, index), batchId: id, index, name: f.name, byteSize: bytes.length, sha256Hex: sha,
+      file: f.bytes instanceof Blob ? f.bytes : new Blob([bytes as Uint8Array<ArrayBuffer>]), status: 'queued', result: null, figurePng: null, finishedIso: null,
     });
   }
   const createdIso = options.createdIso ?? new Date().toISOString();

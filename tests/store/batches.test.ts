@@ -93,3 +93,18 @@ describe('batch runs in the library', () => {
     await expect(commitFileResult(db, 'nope/000000', result('n', 'ok'))).rejects.toThrow(/nope\/000000/);
   });
 });
+
+describe('batch files given as Blobs', () => {
+  test('a Blob is hashed and stored as it is', async () => {
+    const db = await freshLibrary();
+    const bytes = fileBytes(300, 9);
+    const blob = new Blob([bytes as Uint8Array<ArrayBuffer>]);
+    const { batch } = await createBatch(db, { recipe: defaultRecipe(), files: [{ name: 'c.tif', bytes: blob }, { name: 'c.tif', bytes }] });
+    // the same name, size and content, once as a Blob and once as bytes: one file
+    expect(batch.total).toBe(1);
+    const [rec] = await listBatchFiles(db, batch.id);
+    expect(rec.byteSize).toBe(300);
+    expect(rec.sha256Hex).toBe(await sha256Hex(bytes));
+    expect(await sha256Hex(new Uint8Array(await rec.file.arrayBuffer()))).toBe(rec.sha256Hex);
+  });
+});
