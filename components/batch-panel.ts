@@ -67,6 +67,7 @@ export class StrataBatchPanel extends LitElement {
   static override properties = {
     db: { attribute: false },
     chosen: { state: true },
+    skipped: { state: true },
     recipe: { state: true },
     draft: { state: true },
     errors: { state: true },
@@ -108,6 +109,8 @@ export class StrataBatchPanel extends LitElement {
   db: LibraryDb | null = null;
   /** Files chosen for the next batch. */
   chosen: ChosenFile[] = [];
+  /** Files left out of the choice because their type is not read. */
+  skipped: string[] = [];
   /** The recipe in use (valid). */
   recipe: Recipe = defaultRecipe();
   /** The recipe as being edited (may be invalid). */
@@ -170,10 +173,10 @@ export class StrataBatchPanel extends LitElement {
 
   private async addFiles(files: { name: string; file: Blob }[]): Promise<void> {
     const images = files.filter((x) => IMAGE_NAME.test(x.name));
-    const skipped = files.length - images.length;
+    const skipped = files.filter((x) => !IMAGE_NAME.test(x.name)).map((x) => x.name);
     const read = images.map((x) => ({ name: x.name, bytes: x.file }));
     this.chosen = [...this.chosen, ...read].sort((a, b) => a.name.localeCompare(b.name, undefined, { numeric: true }));
-    if (skipped) this.say(`${skipped} file${skipped === 1 ? '' : 's'} of other types left out (TIFF, PNG, JPEG and MRC are read).`);
+    this.skipped = [...this.skipped, ...skipped];
   }
 
   private async pickFolder(): Promise<void> {
@@ -298,6 +301,7 @@ export class StrataBatchPanel extends LitElement {
       const { batch, duplicates } = await createBatch(this.db, { recipe: this.recipe, files: this.chosen });
       if (duplicates.length) this.say(`${duplicates.length} duplicate file${duplicates.length === 1 ? '' : 's'} left out: ${duplicates.join(', ')}`);
       this.chosen = [];
+      this.skipped = [];
       await this.show(batch.id);
       this.starting = false;
       await this.run();
@@ -467,8 +471,11 @@ export class StrataBatchPanel extends LitElement {
         @drop=${this.onDrop}>or drop many image files here</div>
       <p class="chosen muted">${this.chosen.length
         ? html`${this.chosen.length} file${this.chosen.length === 1 ? '' : 's'} chosen, ${(this.chosen.reduce((s, c) => s + c.bytes.size, 0) / 1048576).toFixed(1)} MB
-            <button @click=${() => (this.chosen = [])}>Clear</button>`
+            <button @click=${() => { this.chosen = []; this.skipped = []; }}>Clear</button>`
         : 'No file chosen.'}</p>
+      ${this.skipped.length
+        ? html`<p class="skipped err">Left out, not a type read here (TIFF, PNG, JPEG, MRC): ${this.skipped.slice(0, 20).join(', ')}${this.skipped.length > 20 ? ` and ${this.skipped.length - 20} more` : ''}</p>`
+        : nothing}
     </section>`;
   }
 

@@ -82,8 +82,13 @@ test('demo images and a corrupt file run as a batch, survive a reload, and expor
   await s.page.waitForFunction(() => (document.querySelector('strata-app')?.shadowRoot?.querySelector('strata-batch-panel') as unknown as { chosen: unknown[] })?.chosen.length === 4, undefined, { timeout: 60_000 });
   const corrupt = Buffer.alloc(4096, 7);
   corrupt.write('II*\0', 0, 'latin1');
-  await panel().locator('input.files').setInputFiles({ name: CORRUPT, mimeType: 'image/tiff', buffer: corrupt });
+  // A text file beside the images is left out by its type, and named.
+  await panel().locator('input.files').setInputFiles([
+    { name: CORRUPT, mimeType: 'image/tiff', buffer: corrupt },
+    { name: 'notes.txt', mimeType: 'text/plain', buffer: Buffer.from('session notes') },
+  ]);
   await s.page.waitForFunction(() => (document.querySelector('strata-app')?.shadowRoot?.querySelector('strata-batch-panel') as unknown as { chosen: unknown[] })?.chosen.length === 5);
+  await expect(panel().locator('p.skipped').textContent()).resolves.toContain('notes.txt');
   // Annotated figures on: they go into the zip.
   await panel().locator('input.o-figures').check();
   await shoot('1-chosen.png');
