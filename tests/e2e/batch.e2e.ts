@@ -205,3 +205,32 @@ test('a bad recipe is refused next to its field; pause, resume and cancel', asyn
   await shoot('6-cancelled.png');
   expect(errors).toEqual([]);
 });
+
+test('the scale-bar route reads each bar in the workers; spectrum periods and sheets per file', async () => {
+  // Truth (demo-data/index.json): overview 0.5 nm/px with a 100 nm bar; lamellar mesophase
+  // 0.3 nm/px with a 50 nm bar and a 3.9 nm period.
+  await panel().locator('input.recipe-file').setInputFiles({ name: 'bar.recipe.json', mimeType: 'application/json', buffer: Buffer.from('{"schemaVersion":1,"name":"scale bar","calibration":{"route":"scale-bar"},"measurements":[{"tool":"spectrum","topK":3},{"tool":"sheets"}]}') });
+  await panel().locator('input.files').setInputFiles(['tactoid-film_overview.tif', 'lamellar-mesophase.png'].map((name) => ({ name, mimeType: 'image/tiff', buffer: readFileSync(`demo-data/${name}`) })));
+  await s.page.waitForFunction(() => (document.querySelector('strata-app')?.shadowRoot?.querySelector('strata-batch-panel') as unknown as { chosen: unknown[] })?.chosen.length === 2);
+  await panel().locator('button.start').click();
+  await s.page.waitForFunction(() => {
+    const b = (document.querySelector('strata-app')?.shadowRoot?.querySelector('strata-batch-panel') as unknown as { batch: { name: string; state: string } | null })?.batch;
+    return !!b && b.name.startsWith('scale bar') && b.state === 'finished';
+  }, undefined, { timeout: 170_000 });
+  const results = await panel().evaluate((el) => (el as unknown as { rows: { name: string; result: { status: string; calibration: { nmPerPx: number; source: string; relUncertainty: number } | null; summary: { topPeriods: { periodNm: number; uncertaintyNm: number }[]; sheetCount: number | null } } }[] }).rows
+    .map((r) => ({ name: r.name, status: r.result.status, calibration: r.result.calibration, top: r.result.summary.topPeriods[0] ?? null, sheets: r.result.summary.sheetCount })));
+  const overview = results.find((r) => r.name === 'tactoid-film_overview.tif')!;
+  const lamellar = results.find((r) => r.name === 'lamellar-mesophase.png')!;
+  for (const [r, nmPerPx] of [[overview, 0.5], [lamellar, 0.3]] as const) {
+    expect(r.status).toBe('ok');
+    expect(r.calibration?.source).toBe('scale-bar');
+    expect(Math.abs(r.calibration!.nmPerPx - nmPerPx)).toBeLessThan(2 * r.calibration!.relUncertainty * nmPerPx);
+    expect(r.sheets).not.toBeNull();
+  }
+  // the lamellar period within two of its standard uncertainties
+  expect(Math.abs(lamellar.top!.periodNm - 3.9)).toBeLessThan(2 * lamellar.top!.uncertaintyNm);
+  // the overview holds tactoids of 2 to 10 layers: sheets are found
+  expect(overview.sheets).toBeGreaterThan(0);
+  await shoot('7-scale-bar.png');
+  expect(errors).toEqual([]);
+});
