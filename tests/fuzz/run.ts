@@ -12,9 +12,23 @@ import { fileURLToPath } from 'node:url';
 import { Worker, isMainThread, parentPort, workerData } from 'node:worker_threads';
 import { setFlagsFromString } from 'node:v8';
 import { runInNewContext } from 'node:vm';
-import { TARGETS, TIME_LIMIT_MS, fuzzTarget, makeInput, runOne, table, type Outcome, type TargetTally } from './harness';
+import { TARGETS, TIME_LIMIT_MS, fuzzTarget, makeInput, runOne, table, type FuzzTarget, type Outcome, type TargetTally } from './harness';
 
 const TSX_API = import.meta.resolve('tsx/esm/api');
+
+/**
+ * A reader that never returns on every 50th input: `--only hang-probe` checks that the watchdog
+ * stops it, reports it as a hang and carries on with the next input.
+ */
+const HANG_PROBE: FuzzTarget = {
+  id: 'hang-probe',
+  seeds: async () => [{ name: 'probe.bin', bytes: new Uint8Array(16) }],
+  mutate: (b, r) => ({ bytes: b, mutation: `n ${Math.floor(r() * 50)}` }),
+  read(input) {
+    if (input.mutation === 'n 0') for (;;) { /* a hang */ }
+  },
+  isClear: () => false,
+};
 
 interface Job {
   target: string;
@@ -43,7 +57,7 @@ async function workerMain(job: Job): Promise<void> {
   // A collection before each input makes the memory growth per input meaningful.
   setFlagsFromString('--expose-gc');
   (globalThis as { gc?: unknown }).gc = runInNewContext('gc');
-  const target = TARGETS.find((t) => t.id === job.target)!;
+  const target = [...TARGETS, HANG_PROBE].find((t) => t.id === job.target)!;
   const seeds = await target.seeds();
   const post = (m: Msg) => parentPort!.postMessage(m);
   // The time budget starts when the modules are loaded and the seeds made (slow on a busy machine).
@@ -146,7 +160,7 @@ async function main(): Promise<void> {
   const seed = arg('seed', 1);
   const only = process.argv.includes('--only') ? process.argv[process.argv.indexOf('--only') + 1] : null;
   if (only !== null) {
-    if (!TARGETS.some((t) => t.id === only)) throw new Error(`--only ${only}: no such reader (${TARGETS.map((t) => t.id).join(', ')})`);
+    if (![...TARGETS, HANG_PROBE].some((t) => t.id === only)) throw new Error(`--only ${only}: no such reader (${TARGETS.map((t) => t.id).join(', ')})`);
     const tally = await runTarget(only, seed, seconds * 1000);
     if (process.argv.includes('--json')) console.log(JSON.stringify(tally));
     else console.log(table([tally]));
