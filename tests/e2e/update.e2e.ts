@@ -53,7 +53,7 @@ beforeAll(async () => {
 
 afterAll(async () => {
   await context?.close();
-  await new Promise((r) => server?.close(r));
+  await new Promise<void>((r) => server?.close(() => r()));
 });
 
 test('build A installs and controls the page; no notice on a first visit', async () => {
@@ -68,7 +68,7 @@ test('build A installs and controls the page; no notice on a first visit', async
 
 test('build B installs in the background; the notice appears; the old page keeps its old files and works', async () => {
   const port = server.address().port;
-  await new Promise((r) => server.close(r));
+  await new Promise<void>((r) => server.close(() => r()));
   await serveDir(distB, port); // same origin, new files
   await page.evaluate(async () => { await (await navigator.serviceWorker.getRegistration())!.update(); });
   await expect.poll(() => page.locator('strata-sw-update').count(), { timeout: 120_000 }).toBe(1);
