@@ -330,7 +330,7 @@ export class StrataDiffractionPanel extends LitElement {
             </select>
           </label>
         </div>
-        <textarea rows="2" placeholder="e.g. 1.25, 0.625, 0.417" ?disabled=${a !== null} @change=${(e: Event) => this.onManual((e.target as HTMLTextAreaElement).value)}></textarea>
+        <textarea rows="2" aria-label="Typed peaks, separated by commas or spaces, in the unit chosen above" placeholder="e.g. 1.25, 0.625, 0.417" ?disabled=${a !== null} @change=${(e: Event) => this.onManual((e.target as HTMLTextAreaElement).value)}></textarea>
         ${this.busy ? html`<p class="muted">Fitting…</p>` : nothing}
         ${this.error ? html`<p class="error">${this.error}</p>` : nothing}
       </section>
