@@ -314,8 +314,8 @@ export class StrataBatchPanel extends LitElement {
 
   /** Shows a stored batch with its files. */
   private async show(id: string): Promise<void> {
-    if (!this.db) return;
-    if (this.running) this.pool?.cancel();
+    // one batch at a time: another is shown only when none runs
+    if (!this.db || this.running) return;
     const batch = await getBatch(this.db, id);
     if (!batch) return;
     const files = await listBatchFiles(this.db, id);
@@ -643,9 +643,9 @@ export class StrataBatchPanel extends LitElement {
           <td>${b.ok + b.failed} / ${b.total}</td>
           <td>${b.state}</td>
           <td>
-            ${(b.state === 'running' || b.state === 'paused') && !(this.running && this.batch?.id === b.id)
+            ${(b.state === 'running' || b.state === 'paused') && !this.running && !this.starting
               ? html`<button class="resume-earlier" @click=${async () => { await this.show(b.id); await this.resume(); }}>Resume</button>` : nothing}
-            ${this.batch?.id !== b.id ? html`<button @click=${() => void this.show(b.id)}>Show</button>` : nothing}
+            ${this.batch?.id !== b.id && !this.running && !this.starting ? html`<button @click=${() => void this.show(b.id)}>Show</button>` : nothing}
             <button class="danger" title="Delete the batch and its stored files" @click=${() => void this.removeBatch(b.id)}>Delete</button>
           </td>
         </tr>`)}</tbody>
