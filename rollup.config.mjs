@@ -18,6 +18,16 @@ export const vendorAssets = [
   ['node_modules/@tesseract.js-data/eng/4.0.0_best_int/eng.traineddata.gz', 'vendor/ocr/lang/eng.traineddata.gz'],
 ];
 
+/** Empties dist/ before a build, so no stale chunk from an earlier build is served or precached. */
+function cleanDist() {
+  return {
+    name: 'clean-dist',
+    buildStart() {
+      rmSync('dist', { recursive: true, force: true });
+    },
+  };
+}
+
 function copyStatic() {
   return {
     name: 'copy-static',
@@ -123,11 +133,17 @@ export default {
     sourcemap: true,
     manualChunks(id) {
       if (id.includes('@techstark/opencv-js')) return 'opencv';
+      // The commonjs plugin's helpers are shared by every CommonJS package (opencv.js, tesseract.js,
+      // image decoders). Left alone, rollup puts them into the opencv chunk, and then merely
+      // decoding an image or starting OCR loads and runs the 11 MB opencv.js (which, in the page,
+      // the Content-Security-Policy stops). Give them a chunk of their own.
+      if (id.startsWith('\0commonjsHelpers')) return 'commonjs-helpers';
       return undefined;
     },
   },
   external: ['node:module'],
   plugins: [
+    cleanDist(),
     jsonModules(),
     resolve({ browser: true, extensions: ['.ts', '.mjs', '.js', '.json'], preferBuiltins: false }),
     // opencv.js mentions Node's modules in code paths the browser never takes.
