@@ -12,6 +12,8 @@ import type { TextReader } from '../src/calibration/ocr';
 import { makeProfile, matchProfile } from '../src/calibration/profiles';
 import { listCalibrationProfiles, putCalibrationProfile, type LibraryDb } from '../src/store/library';
 import { controlStyles } from './styles';
+import type { ComputeClient } from './compute-client';
+import { cropImage } from './measure-format';
 
 export const panelLabel = 'Calibration';
 
@@ -35,6 +37,8 @@ export class StrataCalibrationPanel extends LitElement {
   static override properties = {
     image: { attribute: false },
     line: { attribute: false },
+    rect: { attribute: false },
+    compute: { attribute: false },
     db: { attribute: false },
     instrument: { state: true },
     magnification: { state: true },
@@ -47,6 +51,7 @@ export class StrataCalibrationPanel extends LitElement {
     candidate: { state: true },
     knownNm: { state: true },
     standardId: { state: true },
+    customNm: { state: true },
     periodPx: { state: true },
     periodUPx: { state: true },
     typedNmPerPx: { state: true },
@@ -69,6 +74,10 @@ export class StrataCalibrationPanel extends LitElement {
 
   image: GreyImage | null = null;
   line: LineDetail | null = null;
+  /** The region last drawn on the viewer (image px), for measuring a lattice standard. */
+  rect: { x: number; y: number; width: number; height: number } | null = null;
+  /** The compute worker client the shell gives every panel. */
+  compute: ComputeClient | null = null;
   db: LibraryDb | null = null;
   instrument = '';
   magnification = '';
@@ -81,6 +90,8 @@ export class StrataCalibrationPanel extends LitElement {
   candidate: Calibration | null = null;
   knownNm = '';
   standardId = LATTICE_STANDARDS[0].id;
+  /** The spacing typed for the 'custom' standard, nm. */
+  customNm = '';
   periodPx = '';
   periodUPx = '';
   typedNmPerPx = '';
@@ -183,11 +194,45 @@ export class StrataCalibrationPanel extends LitElement {
     }
   }
 
+  /**
+   * Measures the strongest periodicity in the drawn region (power spectrum in the compute worker)
+   * and fills in the standard's period in px with its uncertainty.
+   */
+  private async measureStandardRegion(): Promise<void> {
+    const r = this.rect;
+    if (!r || !this.image || !this.compute) return;
+    this.busy = true;
+    try {
+      const crop = cropImage(this.image, Math.round(r.x), Math.round(r.y), Math.round(r.width), Math.round(r.height));
+      const res = await this.compute.call('regionSpectrum', {
+        image: crop, originX: Math.round(r.x), originY: Math.round(r.y),
+        settings: { window: 'hann', tukeyAlpha: 0.3, alpha: 0.001 }, displayPx: 64,
+      }, [crop.data.buffer]);
+      const spot = res.spots[0];
+      if (!spot) {
+        this.say('No significant periodicity in the drawn region: choose a region on the standard\'s fringes.', 'error');
+        return;
+      }
+      this.periodPx = spot.periodPx.toPrecision(7);
+      this.periodUPx = spot.periodUncertaintyPx.toPrecision(3);
+      this.say(`Strongest period in the region: ${this.periodPx} ± ${this.periodUPx} px at ${spot.angleDeg.toFixed(1)}°. Check that it is the reflection chosen above.`, 'info');
+      this.fromStandard();
+    } catch (e) {
+      this.say((e as Error).message, 'error');
+    } finally {
+      this.busy = false;
+    }
+  }
+
   private fromStandard(): void {
     try {
       const p = Number(this.periodPx);
       const u = this.periodUPx.trim() === '' ? 0.01 * p : Number(this.periodUPx);
-      this.candidate = calibrateFromStandard(p, u, this.standardId);
+      const standard = this.standardId === 'custom'
+        ? { dNm: Number(this.customNm), name: `custom spacing ${this.customNm} nm` }
+        : this.standardId;
+      if (this.standardId === 'custom' && !(Number(this.customNm) > 0)) throw new Error(`type the known spacing in nm, got "${this.customNm}"`);
+      this.candidate = calibrateFromStandard(p, u, standard);
     } catch (e) {
       this.say((e as Error).message, 'error');
     }
@@ -272,10 +317,14 @@ export class StrataCalibrationPanel extends LitElement {
         <div class="row">
           <select aria-label="Standard" @change=${(e: Event) => (this.standardId = (e.target as HTMLSelectElement).value)}>
             ${LATTICE_STANDARDS.map((s) => html`<option value=${s.id} ?selected=${s.id === this.standardId}>${s.name}: ${sig(s.dNm)} nm${s.status === 'from memory' ? ' (unconfirmed)' : ''}</option>`)}
+            <option value="custom" ?selected=${this.standardId === 'custom'}>another spacing (type it)</option>
           </select>
+          ${this.standardId === 'custom' ? input(this.customNm, (v) => (this.customNm = v), 'Known spacing (nm)') : nothing}
         </div>
         <div class="row">${input(this.periodPx, (s) => (this.periodPx = s), 'Period (px)')}${input(this.periodUPx, (s) => (this.periodUPx = s), '± (px)')}<button @click=${this.fromStandard}>Compute</button></div>
-        <p class="muted">${LATTICE_STANDARDS.find((s) => s.id === this.standardId)?.source}</p>
+        <div class="row"><button ?disabled=${!this.rect || !this.compute || this.busy} @click=${() => this.measureStandardRegion()}
+          title="Draw a region on the standard's fringes with the Region tool, then measure its strongest period here">Measure the drawn region</button></div>
+        <p class="muted">${this.standardId === 'custom' ? 'a spacing you know for this specimen, e.g. from its diffraction pattern' : LATTICE_STANDARDS.find((s) => s.id === this.standardId)?.source}</p>
       </section>
       <section>
         <h3>Typed value</h3>
