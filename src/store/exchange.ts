@@ -17,6 +17,7 @@ import type {
   RecipeRecord,
 } from './records';
 import { SCHEMA_VERSION, type LibraryDb } from './schema';
+import type { BatchFileRecord } from './batches';
 
 /** The `format` field of an exported library. */
 export const EXPORT_FORMAT = 'stratameter-library';
@@ -27,6 +28,12 @@ export const EXPORT_FORMAT_VERSION = 1;
 export interface ExportedImage extends Omit<ImageRecord, 'file' | 'thumbnail'> {
   fileBase64: string;
   thumbnail: { width: number; height: number; greyBase64: string };
+}
+
+/** A batch's queued file as it appears in the export: the original bytes and the figure as base64. */
+export interface ExportedBatchFile extends Omit<BatchFileRecord, 'file' | 'figurePng'> {
+  fileBase64: string;
+  figurePngBase64: string | null;
 }
 
 /** The layout of an exported library. */
@@ -41,6 +48,8 @@ export interface LibraryExport {
   diffraction: DiffractionSet[];
   recipes: RecipeRecord[];
   batches: BatchRecord[];
+  /** Absent in exports made before batch files were stored (read as none). */
+  batchFiles: ExportedBatchFile[];
 }
 
 /** The import found a problem; nothing was written. */
@@ -55,16 +64,26 @@ export class ImportError extends LibraryError {
  * @returns JSON text in the LibraryExport layout
  */
 export async function exportLibrary(db: LibraryDb): Promise<string> {
-  const tx = db.transaction(['images', 'measurements', 'calibrations', 'diffraction', 'recipes', 'batches'], 'readonly');
-  const [images, measurements, calibrations, diffraction, recipes, batches] = await Promise.all([
+  const tx = db.transaction(['images', 'measurements', 'calibrations', 'diffraction', 'recipes', 'batches', 'batchFiles'], 'readonly');
+  const [images, measurements, calibrations, diffraction, recipes, batches, batchFiles] = await Promise.all([
     tx.objectStore('images').getAll(),
     tx.objectStore('measurements').getAll(),
     tx.objectStore('calibrations').getAll(),
     tx.objectStore('diffraction').getAll(),
     tx.objectStore('recipes').getAll(),
     tx.objectStore('batches').getAll(),
+    tx.objectStore('batchFiles').getAll(),
   ]);
   await tx.done;
+  const exportedBatchFiles: ExportedBatchFile[] = [];
+  for (const rec of batchFiles) {
+    const { file, figurePng, ...rest } = rec;
+    exportedBatchFiles.push({
+      ...rest,
+      fileBase64: toBase64(new Uint8Array(await file.arrayBuffer())),
+      figurePngBase64: figurePng ? toBase64(figurePng) : null,
+    });
+  }
   const exportedImages: ExportedImage[] = [];
   for (const rec of images) {
     const { file, thumbnail, ...rest } = rec;
@@ -85,6 +104,7 @@ export async function exportLibrary(db: LibraryDb): Promise<string> {
     diffraction,
     recipes,
     batches,
+    batchFiles: exportedBatchFiles,
   };
   try {
     return JSON.stringify(out);
@@ -106,6 +126,7 @@ export interface ImportSummary {
   diffraction: number;
   recipes: number;
   batches: number;
+  batchFiles: number;
 }
 
 type Obj = Record<string, unknown>;
@@ -199,7 +220,7 @@ export async function importLibrary(db: LibraryDb, json: string): Promise<Import
   need(typeof root.formatVersion === 'number' && root.formatVersion <= EXPORT_FORMAT_VERSION, 'formatVersion',
     `${shown(root.formatVersion)} is newer than this version of Stratameter reads (${EXPORT_FORMAT_VERSION})`);
 
-  for (const key of ['images', 'measurements', 'calibrations', 'diffraction', 'recipes', 'batches']) {
+  for (const key of ['images', 'measurements', 'calibrations', 'diffraction', 'recipes', 'batches', 'batchFiles']) {
     const records = root[key];
     if (!Array.isArray(records)) continue;
     records.forEach((r, i) => need(nestingDepth(r, MAX_NESTING) <= MAX_NESTING, `${key}[${i}]`, `is nested more than ${MAX_NESTING} levels deep`));
@@ -300,10 +321,39 @@ export async function importLibrary(db: LibraryDb, json: string): Promise<Import
     return o as unknown as BatchRecord;
   });
 
+  const batchFiles: BatchFileRecord[] = [];
+  const rawBatchFiles = list(root, 'batchFiles');
+  for (let i = 0; i < rawBatchFiles.length; i++) {
+    const where = `batchFiles[${i}]`;
+    const o = rawBatchFiles[i];
+    need(isObj(o), where, 'must be an object');
+    const r = o as Obj;
+    str(r, 'id', where);
+    str(r, 'batchId', where);
+    const name = str(r, 'name', where);
+    str(r, 'status', where);
+    let bytes: Uint8Array;
+    let figure: Uint8Array | null = null;
+    try {
+      bytes = fromBase64(str(r, 'fileBase64', where, true));
+      if (r.figurePngBase64 !== null && r.figurePngBase64 !== undefined) figure = fromBase64(str(r, 'figurePngBase64', where, true));
+    } catch (e) {
+      throw new ImportError(`The library file is not usable: ${where} (${name}) is damaged: ${(e as Error).message}. Nothing was imported.`);
+    }
+    need((await sha256Hex(bytes)) === r.sha256Hex, where, `(${name}): the file's SHA-256 does not match the one recorded, so the file is damaged`);
+    const { fileBase64: _f, figurePngBase64: _p, ...rest } = r;
+    batchFiles.push({
+      ...(rest as unknown as Omit<BatchFileRecord, 'file' | 'figurePng'>),
+      byteSize: bytes.byteLength,
+      file: new Blob([bytes as Uint8Array<ArrayBuffer>]),
+      figurePng: figure,
+    });
+  }
+
   const bytesTotal = images.reduce((s, r) => s + r.byteSize, 0);
   await saveInOneTransaction(
     db,
-    ['images', 'measurements', 'calibrations', 'diffraction', 'recipes', 'batches'],
+    ['images', 'measurements', 'calibrations', 'diffraction', 'recipes', 'batches', 'batchFiles'],
     `the imported library (${images.length} images, ${(bytesTotal / 1048576).toFixed(1)} MB)`,
     async (tx) => {
       for (const r of images) await tx.objectStore('images').put(r);
@@ -312,6 +362,7 @@ export async function importLibrary(db: LibraryDb, json: string): Promise<Import
       for (const r of diffraction) await tx.objectStore('diffraction').put(r);
       for (const r of recipes) await tx.objectStore('recipes').put(r);
       for (const r of batches) await tx.objectStore('batches').put(r);
+      for (const r of batchFiles) await tx.objectStore('batchFiles').put(r);
     },
   );
   return {
@@ -321,5 +372,6 @@ export async function importLibrary(db: LibraryDb, json: string): Promise<Import
     diffraction: diffraction.length,
     recipes: recipes.length,
     batches: batches.length,
+    batchFiles: batchFiles.length,
   };
 }

@@ -108,3 +108,29 @@ describe('batch files given as Blobs', () => {
     expect(await sha256Hex(new Uint8Array(await rec.file.arrayBuffer()))).toBe(rec.sha256Hex);
   });
 });
+
+describe('batch runs in the library export', () => {
+  test('export then import carries a batch with its queued files byte for byte', async () => {
+    const { exportLibrary, importLibrary } = await import('../../src/store/exchange');
+    const db = await freshLibrary();
+    const a = fileBytes(900, 7);
+    const { batch } = await createBatch(db, { recipe: defaultRecipe(), files: [{ name: 'a.tif', bytes: a }, { name: 'b.tif', bytes: fileBytes(300, 8) }] });
+    const [first] = await queuedBatchFiles(db, batch.id);
+    await commitFileResult(db, first.id, result('a.tif', 'ok'), null);
+    const json = await exportLibrary(db);
+    const other = await freshLibrary();
+    const summary = await importLibrary(other, json);
+    expect(summary.batches).toBe(1);
+    expect(summary.batchFiles).toBe(2);
+    const back = await listBatchFiles(other, batch.id);
+    expect(back.map((f) => [f.name, f.status])).toEqual((await listBatchFiles(db, batch.id)).map((f) => [f.name, f.status]));
+    // SHA-256 (FIPS 180-4) of the restored bytes equals the original's
+    expect(await sha256Hex(new Uint8Array(await back[0].file.arrayBuffer()))).toBe(await sha256Hex(a));
+    // a damaged file in the export is refused as a whole
+    const broken = JSON.parse(json);
+    broken.batchFiles[0].fileBase64 = broken.batchFiles[1].fileBase64;
+    const third = await freshLibrary();
+    await expect(importLibrary(third, JSON.stringify(broken))).rejects.toThrow(/batchFiles\[0\] \(a\.tif\): the file's SHA-256 does not match/);
+    expect(await listBatchFiles(third, batch.id)).toEqual([]);
+  });
+});

@@ -55,7 +55,7 @@ test('export then import into an empty library gives back every record, byte for
 
   const other = await freshLibrary();
   const summary = await importLibrary(other, json);
-  expect(summary).toEqual({ images: 2, measurements: 1, calibrations: 1, diffraction: 1, recipes: 1, batches: 0 });
+  expect(summary).toEqual({ images: 2, measurements: 1, calibrations: 1, diffraction: 1, recipes: 1, batches: 0, batchFiles: 0 });
 
   const a = (await getImage(db, img.id))!;
   const b = (await getImage(other, img.id))!;
