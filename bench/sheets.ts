@@ -40,7 +40,14 @@ function blur1d(v: Float64Array, sigma: number): Float64Array {
 }
 
 // ---------- A: along a line (profiles of 2 stacks with a gap) ----------
-const parts = process.argv[2] ?? 'ABCD';
+// usage: npm run bench:sheets -- [parts, e.g. AB] [--seed N]; --seed shifts every seed by N
+// (default 0), for checking a change on a second, independent set of stacks
+const argv = process.argv.slice(2);
+const seedAt = argv.indexOf('--seed');
+const seedBase = seedAt >= 0 ? Number(argv[seedAt + 1]) : 0;
+if (!Number.isInteger(seedBase) || seedBase < 0) throw new RangeError(`--seed must be a non-negative integer, got ${argv[seedAt + 1]}`);
+const parts = argv.find((a, i) => !a.startsWith('--') && (seedAt < 0 || i !== seedAt + 1)) ?? 'ABCD';
+console.log(`seed offset ${seedBase}\n`);
 const noiseLevels: [string, number][] = [
   ['low', 0.015],
   ['moderate', 0.03],
@@ -61,8 +68,9 @@ for (const [label, noise] of noiseLevels) {
     let absErr = 0;
     const sharp = { n: 0, exact: 0, thick: 0, found: 0 };
     const blurred = { n: 0, exact: 0, thick: 0, found: 0 };
-    for (let seed = 1; seed <= 8; seed++) {
-      const part = seed % 2 ? blurred : sharp;
+    for (let s8 = 1; s8 <= 8; s8++) {
+      const seed = s8 + 8 * seedBase;
+      const part = s8 % 2 ? blurred : sharp;
       part.n++;
       const r = rng(1000 * layers + seed + 77 * noise * 1000);
       const p = 6 + 8 * r();
@@ -75,7 +83,7 @@ for (const [label, noise] of noiseLevels) {
       ];
       const length = Math.ceil(truth[1].firstPx + other * p + 4 * p);
       let prof = syntheticProfile(length, truth, { noise: 0, seed });
-      prof = blur1d(prof, seed % 2 ? 0.15 * p : 0);
+      prof = blur1d(prof, s8 % 2 ? 0.15 * p : 0);
       const rn = rng(seed * 31 + layers);
       prof = prof.map((v) => v + noise * gauss(rn));
       const res = sheetsAlongProfile(prof, { minLayers: layers === 1 ? 1 : 2 });
@@ -126,7 +134,8 @@ for (const [label, noise, blurPx] of imageNoise) {
   let angleOk = 0;
   let falseSheets = 0;
   const t0 = performance.now();
-  for (let seed = 1; seed <= 4; seed++) {
+  for (let s4 = 1; s4 <= 4; s4++) {
+    const seed = s4 + 4 * seedBase;
     const r = rng(seed * 7919);
     const p = 7 + 4 * r();
     const centres: [number, number][] = [[105, 105], [295, 105], [105, 295], [295, 295]];
@@ -169,7 +178,8 @@ const rowsC: (string | number)[][] = [];
 for (const [label, noise] of [['amorphous film only', 0], ['film + moderate noise', 0.08], ['film + high noise', 0.15]] as [string, number][]) {
   let sheets = 0;
   let lineSheets = 0;
-  for (let seed = 1; seed <= 6; seed++) {
+  for (let s6 = 1; s6 <= 6; s6++) {
+    const seed = s6 + 6 * seedBase;
     const img = syntheticImage(400, 400, [], { noise, amorphous: 0.05, seed: 100 + seed });
     sheets += detectSheets(img).sheets.length;
     // and a drawn line across the middle, 9 px wide
