@@ -218,7 +218,7 @@ function bandpassAnalytic(
   values: ArrayLike<number>,
   periodPx: number,
   relBandwidth: number,
-): { filtered: Float64Array; envelope: Float64Array; noiseRms: number } {
+): { filtered: Float64Array; envelope: Float64Array; noiseRms: number; whiteRms: number; sideRms: number } {
   const n = values.length;
   const { re, offset } = padReflect(values, 3 * periodPx);
   const size = re.length;
@@ -267,7 +267,7 @@ function bandpassAnalytic(
   const side = fromBins(Math.max(medianOf(lowBand), medianOf(highBand)));
   const q10 = Float64Array.from(envelope).sort()[Math.floor(0.1 * (n - 1))] / Math.sqrt(-Math.log(0.9));
   const noiseRms = Math.max(white, Math.min(side, q10));
-  return { filtered, envelope, noiseRms };
+  return { filtered, envelope, noiseRms, whiteRms: white, sideRms: side };
 }
 
 /** Sub-sample position of the extremum at i by a three-point parabola. */
@@ -339,22 +339,56 @@ export function sheetsAlongProfile(values: ArrayLike<number>, options: SheetProf
     periodSource = 'estimated';
   }
 
-  const { filtered, envelope, noiseRms } = bandpassAnalytic(values, periodPx, relBandwidth);
+  const band = bandpassAnalytic(values, periodPx, relBandwidth);
+  const { filtered, envelope } = band;
   let maxEnv = 0;
   for (let i = 0; i < n; i++) if (envelope[i] > maxEnv) maxEnv = envelope[i];
   // hysteresis (as in Canny, IEEE PAMI 8, 679 (1986)): a run is the samples above the low level,
   // kept when its peak clears the high level
-  const threshold = Math.max(snrThreshold * noiseRms, relThreshold * maxEnv, 1e-12 * (maxEnv || 1));
-  const low = Math.max((2 / 3) * snrThreshold * noiseRms, 0.5 * relThreshold * maxEnv, 1e-12 * (maxEnv || 1));
-  const runs: [number, number][] = [];
-  for (let i = 0; i < n; ) {
-    if (envelope[i] <= low) { i++; continue; }
-    let j = i;
-    let top = envelope[i];
-    while (j + 1 < n && envelope[j + 1] > low) { j++; top = Math.max(top, envelope[j]); }
-    if (top > threshold) runs.push([i, j]);
-    i = j + 1;
+  const levels = (noise: number) => ({
+    high: Math.max(snrThreshold * noise, relThreshold * maxEnv, 1e-12 * (maxEnv || 1)),
+    low: Math.max((2 / 3) * snrThreshold * noise, 0.5 * relThreshold * maxEnv, 1e-12 * (maxEnv || 1)),
+  });
+  const findRuns = (high: number, low: number): [number, number][] => {
+    const out: [number, number][] = [];
+    for (let i = 0; i < n; ) {
+      if (envelope[i] <= low) { i++; continue; }
+      let j = i;
+      let top = envelope[i];
+      while (j + 1 < n && envelope[j + 1] > low) { j++; top = Math.max(top, envelope[j]); }
+      if (top > high) out.push([i, j]);
+      i = j + 1;
+    }
+    return out;
+  };
+  // The first noise estimate (side bands, 10 % envelope quantile of the whole profile) is raised
+  // by the sheets themselves: the sidelobes of short stacks fall in the side bands, and where
+  // sheets fill most of the profile the quantile is taken inside them, so faint sheets are lost.
+  // Refine it on the background alone: mask the runs found at the current level (widened by 1.5
+  // periods, three spatial σ of the band-pass), take the 30 % quantile of the remaining envelope
+  // (Rayleigh: q30 = 0.597 rms, robust to faint sheets still unmasked) and repeat until it
+  // settles; iterative sigma clipping of the background as in Stetson, PASP 99, 191 (1987).
+  let noiseRms = band.noiseRms;
+  for (let iter = 0; iter < 4; iter++) {
+    const current = levels(noiseRms);
+    const reach = Math.ceil(1.5 * periodPx);
+    const inSheet = new Uint8Array(n);
+    for (const [a, b] of findRuns(current.high, current.low)) {
+      for (let i = Math.max(0, a - reach); i <= Math.min(n - 1, b + reach); i++) inSheet[i] = 1;
+    }
+    const background: number[] = [];
+    for (let i = 0; i < n; i++) if (!inSheet[i]) background.push(envelope[i]);
+    if (background.length < 4 * periodPx) break;
+    background.sort((x, y) => x - y);
+    const q = 0.3;
+    const backgroundRms = background[Math.floor(q * (background.length - 1))] / Math.sqrt(-Math.log(1 - q));
+    const next = Math.max(band.whiteRms, Math.min(band.sideRms, backgroundRms));
+    const settled = Math.abs(next - noiseRms) < 0.01 * noiseRms;
+    noiseRms = next;
+    if (settled) break;
   }
+  const { high: threshold, low } = levels(noiseRms);
+  const runs = findRuns(threshold, low);
 
   // split each run at deep envelope dips
   const segments: [number, number][] = [];
