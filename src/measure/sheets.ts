@@ -370,7 +370,9 @@ export function sheetsAlongProfile(values: ArrayLike<number>, options: SheetProf
   // settles; iterative sigma clipping of the background as in Stetson, PASP 99, 191 (1987).
   let noiseRms = band.noiseRms;
   for (let iter = 0; iter < 4; iter++) {
-    const current = levels(noiseRms);
+    // the first mask is drawn at the white-noise level, the lowest the noise can be, so that
+    // faint sheets are masked too; the later ones at the current estimate
+    const current = levels(iter === 0 ? band.whiteRms : noiseRms);
     const reach = Math.ceil(1.5 * periodPx);
     const inSheet = new Uint8Array(n);
     for (const [a, b] of findRuns(current.high, current.low)) {
