@@ -16,6 +16,7 @@ import { join } from 'node:path';
 import { parseRecipe } from '../src/batch/recipe';
 import { runBatch } from '../src/cli/batch';
 import { encodeTiff } from '../src/image/encode-tiff';
+import { rng } from '../src/synthetic/random';
 
 function option(name: string, fallback: number): number {
   const i = process.argv.indexOf(`--${name}`);
@@ -30,17 +31,6 @@ const size = option('size', 2048);
 const repeats = option('repeat', 2);
 const NM_PER_PX = 0.05;
 
-/** Mulberry32, a small seeded generator (common practice for reproducible test data). */
-function rng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
 
 /** One synthetic micrograph: a tactoid of fringes (period 1.0–1.4 nm) in an amorphous matrix. */
 function micrograph(seed: number): Uint16Array {

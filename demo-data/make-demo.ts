@@ -14,37 +14,11 @@ import { fileURLToPath } from 'node:url';
 import { encode } from 'fast-png';
 import { encodeTiff } from '../src/image/encode-tiff';
 import { drawText, fillRect, measureText, type Raster } from '../src/image/draw-text';
+import { gaussian as gauss, rng } from '../src/synthetic/random';
 
 const OUT = dirname(fileURLToPath(import.meta.url));
 
-/** Mulberry32 (public-domain small seeded generator, common practice). */
-function rng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
 
-/** Standard normal deviates by the Box–Muller transform (Box & Muller, Ann. Math. Stat. 29, 610, 1958). */
-function gauss(r: () => number): () => number {
-  let spare: number | null = null;
-  return () => {
-    if (spare !== null) {
-      const s = spare;
-      spare = null;
-      return s;
-    }
-    const u = 1 - r();
-    const v = r();
-    const m = Math.sqrt(-2 * Math.log(u));
-    spare = m * Math.sin(2 * Math.PI * v);
-    return m * Math.cos(2 * Math.PI * v);
-  };
-}
 
 /** Poisson deviate: exact (Knuth) below mean 30, normal approximation above. */
 function poisson(mean: number, r: () => number, g: () => number): number {

@@ -4,6 +4,7 @@
 import { ka2Position, KA2_RATIO } from './bragg';
 import type { Pattern } from './pattern';
 import { pseudoVoigt } from './peaks';
+import { rng } from '../synthetic/random';
 
 /** A reflection to draw. */
 export interface SyntheticPeak {
@@ -33,17 +34,8 @@ export interface SyntheticOptions {
   seed?: number | null;
 }
 
-/** mulberry32: a small seeded uniform generator in [0, 1). */
-export function seededRandom(seed: number): () => number {
-  let s = seed >>> 0;
-  return () => {
-    s = (s + 0x6d2b79f5) >>> 0;
-    let t = s;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
+/** The seeded uniform generator on [0, 1) used for synthetic patterns (mulberry32, src/synthetic/random.ts). */
+export const seededRandom = rng;
 
 /** Poisson deviate: Knuth's product method below 30, normal approximation above. */
 function poisson(mean: number, rnd: () => number): number {

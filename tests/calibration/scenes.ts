@@ -4,18 +4,9 @@
  */
 import { makeGreyImage, type GreyImage } from '../../src/image/grey-image';
 import { drawText, fillRect, measureText, strokeRectOutside, type StrokeFontName } from '../../src/image/draw-text';
+import { rng } from '../../src/synthetic/random';
+export { rng };
 
-/** Mulberry32, a small seeded generator (public-domain code by T. Ettinger, common practice). */
-export function rng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
 
 export type Layout = 'strip-bottom' | 'corner-overlay' | 'border' | 'ticks';
 

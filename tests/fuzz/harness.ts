@@ -21,18 +21,9 @@ import { parsePattern } from '../../src/diffraction/pattern';
 import { parseRecipe, RecipeError, defaultRecipe } from '../../src/batch/recipe';
 import { exportLibrary, importLibrary, ImportError, openLibrary, putImage, putMeasurement, type LibraryDb } from '../../src/store';
 import { makeGreyImage } from '../../src/image/grey-image';
+import { rng } from '../../src/synthetic/random';
+export { rng };
 
-/** Seeded generator (mulberry32): uniform in [0, 1). */
-export function rng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
 
 export type Outcome = 'ok' | 'clear' | 'crash' | 'slow' | 'memory';
 export const OUTCOMES: readonly Outcome[] = ['ok', 'clear', 'crash', 'slow', 'memory'];
