@@ -16,7 +16,7 @@ describe('makeGreyImage', () => {
 });
 
 describe('lengthUncertaintyNm', () => {
-  // Real-space averaging, shared/reference-values §5 (computed): 1 px at each end over a
+  // Real-space averaging, tests/fixtures/reference-values.md §5 (computed): 1 px at each end over a
   // 100 px length is √2 px, i.e. 1.4 % of the length, added in quadrature to the calibration.
   test('combines end-point and calibration parts in quadrature', () => {
     const cal = { nmPerPx: 0.1, source: 'manual' as const, relUncertainty: 0.02, detail: '' };
