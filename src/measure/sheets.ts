@@ -24,7 +24,7 @@ export interface SheetProfileOptions {
   snrThreshold?: number;
   /** ... and above this fraction of the profile's largest envelope (half of it to extend; default 0.2). */
   relThreshold?: number;
-  /** A run is split at an envelope dip below this fraction of the smaller neighbouring peak (default 0.6). */
+  /** A run is split at an envelope dip below this fraction of the smaller neighbouring peak (default 0.6) and more than 3 noise rms below it. */
   splitRatio?: number;
   /** A spacing outside period × (1 ± this) breaks a sheet (default 0.3). */
   spacingTolerance?: number;
@@ -403,7 +403,11 @@ export function sheetsAlongProfile(values: ArrayLike<number>, options: SheetProf
       let nextPeak = envelope[i];
       for (let k = i + 1; k <= b; k++) nextPeak = Math.max(nextPeak, envelope[k]);
       // the right peak: the largest value up to the next dip deeper than this one is simply the run's remaining max
-      if (envelope[i] < splitRatio * Math.min(peakSoFar, nextPeak)) {
+      // ... and only where the dip is significant: deeper than 3 noise rms below the smaller
+      // peak (the envelope's noise is about rms/√2 along the signal's phase, and the difference of
+      // two such values has sd ≈ rms), so the noise alone does not split a stack (3σ rule, common practice)
+      const smallerPeak = Math.min(peakSoFar, nextPeak);
+      if (envelope[i] < splitRatio * smallerPeak && smallerPeak - envelope[i] > 3 * noiseRms) {
         segments.push([start, i]);
         start = i;
         peakSoFar = envelope[i];
