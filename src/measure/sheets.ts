@@ -40,7 +40,7 @@ export interface ProfileSheet {
   layers: number;
   /** Sub-sample positions of the layer centres, ascending. */
   layerPositionsPx: number[];
-  /** Mean layer period inside the sheet (least-squares slope of centre against index; the profile period for one layer). */
+  /** Mean layer period inside the sheet (least-squares slope of centre against index, over the inner layers when there are four or more; the profile period for one layer). */
   periodPx: number;
   /** Standard deviation of the individual spacings (0 with fewer than 3 layers). */
   spacingSdPx: number;
@@ -503,15 +503,19 @@ function makeSheet(
   const last = layers[layers.length - 1];
   const count = layers.length;
   // mean period: least-squares slope of layer position against layer index
+  // over the inner layers when there are four or more: the band-pass pulls the two outer ones
+  // outward (by about 3 % of a period on a noise-free stack), which would bias the slope high
   let periodPx = profilePeriodPx;
   if (count > 1) {
-    const mk = (count - 1) / 2;
+    const fit = count >= 4 ? layers.slice(1, -1) : layers;
+    const m = fit.length;
+    const mk = (m - 1) / 2;
     let mx = 0;
-    for (const x of layers) mx += x;
-    mx /= count;
+    for (const x of fit) mx += x;
+    mx /= m;
     let sxy = 0;
     let sxx = 0;
-    layers.forEach((x, k) => { sxy += (k - mk) * (x - mx); sxx += (k - mk) ** 2; });
+    fit.forEach((x, k) => { sxy += (k - mk) * (x - mx); sxx += (k - mk) ** 2; });
     periodPx = sxy / sxx;
   }
   let spacingSdPx = 0;
