@@ -104,4 +104,16 @@ describe('profilePeriod', () => {
     const p = syntheticProfile(512, [{ layers: 50, periodPx: 9.3, firstPx: 20 }], { noise: 0.05, seed: 9 });
     expect(Math.abs(profilePeriod(p).periodPx - 9.3) / 9.3).toBeLessThan(0.005);
   });
+
+  it('measures the period of short stacks without the outer layers\' bias, also near 2.5 samples per period', () => {
+    // synthetic truth (noise-free); the band-pass pulls the two outer layers outward by about
+    // 3 % of a period, so a slope over all six layers read 6.058 px; a three-point parabola reads
+    // positions poorly at 2.5 samples per period
+    for (const [periodPx, layers] of [[6, 6], [2.5, 8], [9, 4]]) {
+      const prof = syntheticProfile(Math.ceil(40.3 + layers * periodPx + 40), [{ layers, periodPx, firstPx: 40.3 }], { noise: 0 });
+      const s = sheetsAlongProfile(prof, { periodPx }).sheets;
+      expect(s.map((q) => q.layers)).toEqual([layers]);
+      expect(Math.abs(s[0].periodPx - periodPx) / periodPx).toBeLessThan(0.003);
+    }
+  });
 });
