@@ -58,7 +58,7 @@ describe('sheetsAlongProfile', () => {
 
   it('rarely reports sheets in amorphous noise (false-alarm rate at the default threshold)', () => {
     // 100 seeds each: white noise, and white noise smoothed over 3 samples (a coloured, amorphous
-    // background); measured rates at the default 3 × noise rms are about 1 % and 7 %
+    // background); measured rates at the default 3 × noise rms are about 0–1 % and 7–8 %
     let white = 0;
     let coloured = 0;
     for (let seed = 1; seed <= 100; seed++) {
