@@ -155,7 +155,13 @@ class BatchWorker {
       readyReject = rej;
     });
     this.ready.catch(() => {});
-    this.worker.on('message', (m: WorkerReply | { type: 'error' | 'fatal'; message: string } | { type: 'ready' }) => {
+    this.worker.on('message', (m: WorkerReply | { type: 'error' | 'fatal'; message: string } | { type: 'ready' } | { type: 'retained'; retainedBytes: number }) => {
+      if (m.type === 'retained') {
+        this.retainedAfterLast = m.retainedBytes;
+        this.probe?.();
+        this.probe = null;
+        return;
+      }
       if (m.type === 'ready') return readyResolve();
       if (m.type === 'fatal') return readyReject(new UsageError(m.message));
       const p = this.pending;
@@ -165,20 +171,31 @@ class BatchWorker {
         this.peakBytes = Math.max(this.peakBytes, m.peakBytes);
         if (++this.files <= 3) {
           this.earlyPeakBytes = this.peakBytes;
-          this.retainedAfterThird = m.retainedBytes;
+          if (this.files === 3) this.retainedAfterThird = m.retainedBytes;
         }
-        this.retainedAfterLast = m.retainedBytes;
         p.resolve(m);
       } else p.reject(new Error(m.message));
     });
     const fail = (e: Error) => {
       readyReject(e);
+      this.probe?.();
+      this.probe = null;
       const p = this.pending;
       this.pending = null;
       p?.reject(e);
     };
     this.worker.on('error', fail);
     this.worker.on('exit', (code) => fail(new Error(`worker stopped with exit code ${code}`)));
+  }
+
+  private probe: (() => void) | null = null;
+
+  /** Measures the worker's retained memory now (after a forced collection): sets retainedAfterLast. */
+  measureRetained(): Promise<void> {
+    return new Promise((resolve) => {
+      this.probe = resolve;
+      this.worker.postMessage({ probe: 'retained' });
+    });
   }
 
   run(job: Job): Promise<WorkerReply> {
@@ -225,16 +242,25 @@ export async function workerMain(): Promise<void> {
     const m = process.memoryUsage();
     peakBytes = Math.max(peakBytes, m.heapTotal + m.external);
   };
-  port.on('message', async (msg: { file: string; bytes: Uint8Array }) => {
+  /** Heap used + external after a forced full collection (only when measuring retained memory). */
+  const retainedNow = (): number => {
+    if (!gc) return 0;
+    gc();
+    const m = process.memoryUsage();
+    return m.heapUsed + m.external;
+  };
+  let processed = 0;
+  port.on('message', async (msg: { file: string; bytes: Uint8Array } | { probe: 'retained' }) => {
+    if ('probe' in msg) {
+      port.postMessage({ type: 'retained', retainedBytes: retainedNow() });
+      return;
+    }
     try {
       const out = await processOne(msg.bytes, msg.file, recipe, deps, { figure: figures, renderFigure: annotatedFigurePng });
       sample();
-      let retainedBytes = 0;
-      if (gc) {
-        gc();
-        const m = process.memoryUsage();
-        retainedBytes = m.heapUsed + m.external;
-      }
+      // A forced collection after every file would itself cost time and skew the speed measured,
+      // so retained memory is read after the third file and, through the probe, after the last.
+      const retainedBytes = ++processed === 3 ? retainedNow() : 0;
       const reply: WorkerReply = { type: 'result', file: msg.file, result: out.result, figurePng: out.figurePng, peakBytes, retainedBytes };
       port.postMessage(reply, out.figurePng ? [out.figurePng.buffer as ArrayBuffer] : []);
     } catch (e) {
@@ -356,10 +382,9 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
         let third = 0;
         let last = 0;
         try {
-          for (;;) {
+          let job = await takeJob();
+          for (; job; ) {
             if (fatal) break;
-            const job = await takeJob();
-            if (!job) break;
             if (!worker) {
               worker = new BatchWorker(recipe, depsModule, !!figuresDir, !!options.measureRetained);
               try {
@@ -370,6 +395,8 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
                 break;
               }
             }
+            // Read and hash the next file while this one is measured, so the worker never waits.
+            const prefetch = takeJob();
             let reply: WorkerReply;
             try {
               reply = await worker.run(job);
@@ -384,11 +411,14 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
               worker = null;
               const reason = `processing stopped: ${(e as Error).message.split('\n')[0]}`;
               await commit(job, { file: job.file, status: 'failed', reason, image: null, calibration: null, measurements: [], summary: { topPeriods: [], sheetCount: null, meanThicknessNm: null, sdThicknessNm: null, sheetThicknessNm: [] }, notes: [] }, undefined, false);
+              job = await prefetch;
               continue;
             }
             await commit(job, reply.result, reply.figurePng);
+            job = await prefetch;
           }
         } finally {
+          if (worker && options.measureRetained && worker.files > 0) await worker.measureRetained().catch(() => undefined);
           if (worker) {
             peak = Math.max(peak, worker.peakBytes);
             early = Math.max(early, worker.earlyPeakBytes);
