@@ -104,7 +104,7 @@ test('a full session: calibrate, measure, save, export; no request leaves the or
     s.page.locator('strata-library button', { hasText: 'Export all' }).click(),
   ]);
   const exported = JSON.parse(readFileSync((await download.path())!, 'utf8'));
-  expect(Object.keys(exported).sort()).toEqual(['batches', 'calibrations', 'diffraction', 'exportedIso', 'format', 'formatVersion', 'images', 'measurements', 'recipes', 'schemaVersion']);
+  expect(Object.keys(exported).sort()).toEqual(['batchFiles', 'batches', 'calibrations', 'diffraction', 'exportedIso', 'format', 'formatVersion', 'images', 'measurements', 'recipes', 'schemaVersion']);
   expect(exported.images.length).toBeGreaterThanOrEqual(1);
   expect(exported.measurements.some((m: { tool: string }) => m.tool === 'spectrum')).toBe(true);
 
