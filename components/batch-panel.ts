@@ -15,7 +15,7 @@ import {
 import { listCalibrationProfiles, listRecipes, putRecipe, type LibraryDb } from '../src/store/library';
 import type { CalibrationProfile, RecipeRecord } from '../src/store/records';
 import { BatchPool, poolSize, type PoolFile } from './batch-pool';
-import { controlStyles } from './styles';
+import { controlStyles, panelStyles } from './styles';
 
 export const panelLabel = 'Batch';
 
@@ -83,11 +83,8 @@ export class StrataBatchPanel extends LitElement {
 
   static override styles = [
     controlStyles,
+    panelStyles,
     css`
-      :host { display: block; padding: 10px 12px; font-size: 13px; }
-      section { border-bottom: 1px solid var(--line); padding: 8px 0 10px; }
-      h3 { margin: 0 0 6px; font-size: 13px; font-weight: 600; }
-      .row { display: flex; flex-wrap: wrap; gap: 6px; align-items: center; margin: 4px 0; }
       .drop { border: 1px dashed var(--line); border-radius: 4px; padding: 8px; text-align: center; color: var(--muted); }
       .drop.on { border-color: var(--accent-2); color: var(--text); }
       .err { color: #ff9b8f; font-size: 12px; margin: 2px 0 4px; }

@@ -11,7 +11,7 @@ import { compareCalibrations } from '../src/calibration/compare';
 import type { TextReader } from '../src/calibration/ocr';
 import { makeProfile, matchProfile } from '../src/calibration/profiles';
 import { listCalibrationProfiles, putCalibrationProfile, type LibraryDb } from '../src/store/library';
-import { controlStyles } from './styles';
+import { controlStyles, panelStyles } from './styles';
 import type { ComputeClient } from './compute-client';
 import { cropImage } from './measure-format';
 
@@ -60,11 +60,8 @@ export class StrataCalibrationPanel extends LitElement {
 
   static override styles = [
     controlStyles,
+    panelStyles,
     css`
-      :host { display: block; padding: 10px 12px; font-size: 13px; }
-      section { border-bottom: 1px solid var(--line); padding: 8px 0 10px; }
-      h3 { margin: 0 0 6px; font-size: 13px; font-weight: 600; }
-      .row { display: flex; flex-wrap: wrap; gap: 6px; align-items: center; margin: 4px 0; }
       .warn { color: #f0b45a; }
       input[type='text'] { width: 8em; }
       select { max-width: 100%; }

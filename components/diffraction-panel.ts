@@ -10,7 +10,7 @@ import { parsePattern, parsePeakList, type ManualPeak, type Pattern, type PeakLi
 import { reconcile, type DiffractionLine, type MicrographPeriod, type Reconciliation } from '../src/diffraction/reconcile';
 import { indexSeries, type IndexedSeries } from '../src/diffraction/series';
 import { niceTicks } from './plot-line';
-import { controlStyles } from './styles';
+import { controlStyles, panelStyles } from './styles';
 
 export const panelLabel = 'Diffraction';
 
@@ -55,11 +55,8 @@ export class StrataDiffractionPanel extends LitElement {
 
   static override styles = [
     controlStyles,
+    panelStyles,
     css`
-      :host { display: block; padding: 10px 12px; font-size: 13px; }
-      section { border-bottom: 1px solid var(--line); padding: 8px 0 10px; }
-      h3 { margin: 0 0 6px; font-size: 13px; font-weight: 600; }
-      .row { display: flex; flex-wrap: wrap; gap: 6px; align-items: center; margin: 4px 0; }
       table { border-collapse: collapse; width: 100%; font-variant-numeric: tabular-nums; }
       th, td { padding: 2px 4px; text-align: right; border-bottom: 1px solid var(--line); }
       th:first-child, td:first-child { text-align: left; }

@@ -6,8 +6,9 @@ import type { GreyImage } from '../src/image/grey-image';
 import { sheetsAlongLine, type LineSheetsResult } from '../src/measure/sheets-line';
 import { sheetStatistics, type SheetStatus } from '../src/measure/sheets-auto';
 import type { ComputeClient } from './compute-client';
+import type { SheetSummary } from '../src/measure/sheets-measurement';
 import { histogram, type Summary } from '../src/measure/stats';
-import { controlStyles } from './styles';
+import { controlStyles, panelStyles } from './styles';
 import { linePlot, plotStyles } from './plot-line';
 
 export const panelLabel = 'Sheets';
@@ -21,18 +22,10 @@ interface LineDetail {
 }
 
 /** A sheet in the panel's list (from a line or from the automatic search). */
-interface ListedSheet {
+interface ListedSheet extends SheetSummary {
   id: string;
   source: 'line' | 'auto';
   status: SheetStatus;
-  layers: number;
-  thicknessPx: number;
-  thicknessNm: number | null;
-  edgeToEdgeNm: number | null;
-  periodPx: number;
-  periodNm: number | null;
-  angleDeg: number;
-  centerPx: [number, number];
   /** A segment across the sheet for the overlay (edge to edge on one of its lines). */
   across: [[number, number], [number, number]];
 }
@@ -58,12 +51,9 @@ export class StrataSheetsPanel extends LitElement {
 
   static override styles = [
     controlStyles,
+    panelStyles,
     plotStyles,
     css`
-      :host { display: block; padding: 10px 12px; font-size: 13px; }
-      section { border-bottom: 1px solid var(--line); padding: 8px 0 10px; }
-      h3 { margin: 0 0 6px; font-size: 13px; font-weight: 600; }
-      .row { display: flex; flex-wrap: wrap; gap: 6px; align-items: center; margin: 4px 0; }
       table { border-collapse: collapse; width: 100%; font-variant-numeric: tabular-nums; }
       th, td { padding: 2px 4px; text-align: right; border-bottom: 1px solid var(--line); }
       th:first-child, td:first-child { text-align: left; }

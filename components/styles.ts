@@ -21,3 +21,11 @@ export const controlStyles = css`
   .muted { color: var(--muted); }
   .num { font-variant-numeric: tabular-nums; }
 `;
+
+/** The layout every side panel shares: padded host, sections with a rule, small headings, rows of controls. */
+export const panelStyles = css`
+  :host { display: block; padding: 10px 12px; font-size: 13px; }
+  section { border-bottom: 1px solid var(--line); padding: 8px 0 10px; }
+  h3 { margin: 0 0 6px; font-size: 13px; font-weight: 600; }
+  .row { display: flex; flex-wrap: wrap; gap: 6px; align-items: center; margin: 4px 0; }
+`;
