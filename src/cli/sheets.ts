@@ -11,6 +11,7 @@ import { findScaleBar, type Box } from '../calibration/scale-bar';
 import { detectSheets, sheetStatistics } from '../measure/sheets-auto';
 import { sheetsAlongLine } from '../measure/sheets-line';
 import type { Summary } from '../measure/stats';
+import type { SheetSummary } from '../measure/sheets-measurement';
 
 /** Relative standard uncertainty given to a typed pixel size: 5 %, the reproducibility of an indicated TEM magnification (reference-values §5). */
 const TYPED_REL_UNCERTAINTY = 0.05;
@@ -38,16 +39,7 @@ image is shown (x right, y up).
 `;
 
 /** One sheet in the JSON report. */
-export interface SheetsReportSheet {
-  layers: number;
-  thicknessPx: number;
-  thicknessNm: number | null;
-  edgeToEdgeNm: number | null;
-  periodPx: number;
-  periodNm: number | null;
-  angleDeg: number;
-  centerPx: [number, number];
-}
+export type SheetsReportSheet = SheetSummary;
 
 type StatBlock = Pick<Summary, 'mean' | 'sd' | 'median' | 'q1' | 'q3' | 'min' | 'max' | 'ci95'>;
 

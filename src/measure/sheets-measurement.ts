@@ -8,6 +8,24 @@ import type { AutoSheetsResult } from './sheets-auto';
 import type { LineSheetsResult } from './sheets-line';
 import type { DomainMapResult } from './domains';
 
+/** One sheet as reported everywhere (CLI JSON, the sheets panel, exports). */
+export interface SheetSummary {
+  /** Number of layers. */
+  layers: number;
+  /** (last − first layer centre) + mean period, px. */
+  thicknessPx: number;
+  thicknessNm: number | null;
+  /** Between the envelope's half-maximum crossings, nm. */
+  edgeToEdgeNm: number | null;
+  /** Mean layer period, px. */
+  periodPx: number;
+  periodNm: number | null;
+  /** Direction of the layer normal, degrees in [0, 180), counter-clockwise from +x as shown. */
+  angleDeg: number;
+  /** Centre of the sheet in image pixels [x, y]. */
+  centerPx: [number, number];
+}
+
 /** What every measurement record needs besides the result. */
 export interface MeasurementContext {
   /** Unique id of the record. */
