@@ -6,7 +6,7 @@ import type { GreyImage } from '../src/image/grey-image';
 import { sheetsAlongLine, type LineSheetsResult } from '../src/measure/sheets-line';
 import { sheetStatistics, type SheetStatus } from '../src/measure/sheets-auto';
 import type { ComputeClient } from './compute-client';
-import type { SheetSummary } from '../src/measure/sheets-measurement';
+import { sheetSummary, type SheetSummary } from '../src/measure/sheets-measurement';
 import { histogram, type Summary } from '../src/measure/stats';
 import { controlStyles, panelStyles } from './styles';
 import { linePlot, plotStyles } from './plot-line';
@@ -146,14 +146,7 @@ export class StrataSheetsPanel extends LitElement {
         id: `line-${this.nextId++}`,
         source: 'line',
         status: 'manual',
-        layers: s.layers,
-        thicknessPx: s.thicknessPx,
-        thicknessNm: s.thicknessNm,
-        edgeToEdgeNm: s.edgeToEdgeNm,
-        periodPx: s.periodPx,
-        periodNm: s.periodNm,
-        angleDeg: s.angleDeg,
-        centerPx: s.centerXY,
+        ...sheetSummary(s, s.centerXY),
         across: s.edgesXY,
       }];
     }
@@ -180,14 +173,7 @@ export class StrataSheetsPanel extends LitElement {
           id: `auto-${this.nextId++}`,
           source: 'auto',
           status: 'auto',
-          layers: s.layers,
-          thicknessPx: s.thicknessPx,
-          thicknessNm: s.thicknessNm,
-          edgeToEdgeNm: s.edgeToEdgeNm,
-          periodPx: s.periodPx,
-          periodNm: s.periodNm,
-          angleDeg: s.angleDeg,
-          centerPx: s.centerPx,
+          ...sheetSummary(s, s.centerPx),
           across: [[mid.centerPx[0] - ux * half, mid.centerPx[1] - uy * half], [mid.centerPx[0] + ux * half, mid.centerPx[1] + uy * half]],
         };
       });

@@ -11,7 +11,7 @@ import { findScaleBar, type Box } from '../calibration/scale-bar';
 import { detectSheets, sheetStatistics } from '../measure/sheets-auto';
 import { sheetsAlongLine } from '../measure/sheets-line';
 import type { Summary } from '../measure/stats';
-import type { SheetSummary } from '../measure/sheets-measurement';
+import { sheetSummary, type SheetSummary } from '../measure/sheets-measurement';
 
 /** Relative standard uncertainty given to a typed pixel size: 5 %, the reproducibility of an indicated TEM magnification (reference-values §5). */
 const TYPED_REL_UNCERTAINTY = 0.05;
@@ -95,16 +95,7 @@ export async function sheetsReport(
   if (opts.line) {
     const { x0, y0, x1, y1, widthPx } = opts.line;
     const r = sheetsAlongLine(image, x0, y0, x1, y1, { widthPx, periodPx: opts.periodPx, polarity });
-    sheets = r.sheets.map((s) => ({
-      layers: s.layers,
-      thicknessPx: s.thicknessPx,
-      thicknessNm: s.thicknessNm,
-      edgeToEdgeNm: s.edgeToEdgeNm,
-      periodPx: s.periodPx,
-      periodNm: s.periodNm,
-      angleDeg: s.angleDeg,
-      centerPx: s.centerXY,
-    }));
+    sheets = r.sheets.map((s) => sheetSummary(s, s.centerXY));
     if (r.sheets.some((s) => s.truncated)) notes.push('a sheet touches an end of the line: extend the line onto background');
     stats = sheetStatistics(r.sheets.map((s) => ({ ...s, status: 'manual' as const })));
   } else {
@@ -112,16 +103,7 @@ export async function sheetsReport(
     const box: Box | null = bar ? bar.stripBox ?? bar.panelBox : null;
     if (box) notes.push(`skipped the scale-bar panel at x ${box[0]}, y ${box[1]}, ${box[2]} × ${box[3]} px`);
     const r = detectSheets(image, { periodPx: opts.periodPx, polarity, exclude: box });
-    sheets = r.sheets.map((s) => ({
-      layers: s.layers,
-      thicknessPx: s.thicknessPx,
-      thicknessNm: s.thicknessNm,
-      edgeToEdgeNm: s.edgeToEdgeNm,
-      periodPx: s.periodPx,
-      periodNm: s.periodNm,
-      angleDeg: s.angleDeg,
-      centerPx: s.centerPx,
-    }));
+    sheets = r.sheets.map((s) => sheetSummary(s, s.centerPx));
     stats = sheetStatistics(r.sheets);
   }
   if (!cal) notes.push('no calibration: lengths in px only (set one with --nm-per-px or --scale-bar auto)');

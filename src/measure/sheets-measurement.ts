@@ -26,6 +26,28 @@ export interface SheetSummary {
   centerPx: [number, number];
 }
 
+/**
+ * The reported fields of a measured sheet (from a line or from the automatic search).
+ * @param sheet a sheet with layers, thicknesses, period and angle
+ * @param centerPx its centre in image pixels [x, y]
+ * @returns the SheetSummary, nothing else copied
+ */
+export function sheetSummary(
+  sheet: Omit<SheetSummary, 'centerPx'>,
+  centerPx: [number, number],
+): SheetSummary {
+  return {
+    layers: sheet.layers,
+    thicknessPx: sheet.thicknessPx,
+    thicknessNm: sheet.thicknessNm,
+    edgeToEdgeNm: sheet.edgeToEdgeNm,
+    periodPx: sheet.periodPx,
+    periodNm: sheet.periodNm,
+    angleDeg: sheet.angleDeg,
+    centerPx,
+  };
+}
+
 /** What every measurement record needs besides the result. */
 export interface MeasurementContext {
   /** Unique id of the record. */
@@ -52,6 +74,11 @@ function periodicity(periodPx: number, uncertaintyPx: number, angleDeg: number, 
   return { periodPx, periodNm, angleDeg, uncertaintyPx, uncertaintyNm, strength };
 }
 
+/** The fields every sheets record takes from its context. */
+function recordHead(ctx: MeasurementContext, tool: Measurement['tool']): Pick<Measurement, 'id' | 'imageId' | 'fileName' | 'createdIso' | 'tool'> {
+  return { id: ctx.id, imageId: ctx.imageId, fileName: ctx.fileName, createdIso: ctx.createdIso ?? new Date().toISOString(), tool };
+}
+
 /**
  * The record of sheets measured along a drawn line.
  *
@@ -73,11 +100,7 @@ export function lineSheetsMeasurement(
   if (r.sheets.some((s) => s.truncated)) notes.push('a sheet touches an end of the line and may continue beyond it');
   if (r.sheets.length === 0) notes.push('no sheet along the line');
   return {
-    id: ctx.id,
-    imageId: ctx.imageId,
-    fileName: ctx.fileName,
-    createdIso: ctx.createdIso ?? new Date().toISOString(),
-    tool: 'sheets-line',
+    ...recordHead(ctx, 'sheets-line'),
     region: { kind: 'line', ...line },
     calibration: cal,
     settings: { ...(ctx.settings ?? {}), periodPx: r.periodPx, periodSource: r.periodSource },
@@ -86,15 +109,8 @@ export function lineSheetsMeasurement(
     ),
     detail: {
       sheets: r.sheets.map((s) => ({
-        layers: s.layers,
-        thicknessPx: s.thicknessPx,
-        thicknessNm: s.thicknessNm,
+        ...sheetSummary(s, s.centerXY),
         edgeToEdgePx: s.edgeToEdgePx,
-        edgeToEdgeNm: s.edgeToEdgeNm,
-        periodPx: s.periodPx,
-        periodNm: s.periodNm,
-        angleDeg: s.angleDeg,
-        centerPx: s.centerXY,
         edgesPx: s.edgesXY,
         layerPositionsPx: s.layerPositionsPx,
         truncated: s.truncated,
@@ -120,11 +136,7 @@ export function autoSheetsMeasurement(r: AutoSheetsResult, ctx: MeasurementConte
   checkContext(ctx);
   const cal = ctx.calibration;
   return {
-    id: ctx.id,
-    imageId: ctx.imageId,
-    fileName: ctx.fileName,
-    createdIso: ctx.createdIso ?? new Date().toISOString(),
-    tool: 'sheets-auto',
+    ...recordHead(ctx, 'sheets-auto'),
     region: null,
     calibration: cal,
     settings: { ...r.settings, ...(ctx.settings ?? {}) },
@@ -150,11 +162,7 @@ export function domainsMeasurement(r: DomainMapResult, ctx: MeasurementContext):
   checkContext(ctx);
   const cal = ctx.calibration;
   return {
-    id: ctx.id,
-    imageId: ctx.imageId,
-    fileName: ctx.fileName,
-    createdIso: ctx.createdIso ?? new Date().toISOString(),
-    tool: 'domains',
+    ...recordHead(ctx, 'domains'),
     region: null,
     calibration: cal,
     settings: { ...(ctx.settings ?? {}), tileSizePx: r.tileSizePx, stepPx: r.stepPx },
