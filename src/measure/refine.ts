@@ -15,12 +15,19 @@ export interface RefineSpotOptions {
   iterations?: number;
 }
 
-/** Region pixels with the mean removed and a separable Tukey window applied, ready for refineSpot. */
+/**
+ * An area of an image with its mean and a separable Tukey window, ready for refineSpot. The
+ * pixels are read from the image itself (no copy): the image must not change while it is used.
+ */
 export interface RefineData {
   /** The area (image pixels). */
   area: RectPx;
-  /** Windowed, mean-removed samples, row-major. */
-  values: Float64Array;
+  /** The image's pixels, row-major (the image's own array). */
+  pixels: Float32Array;
+  /** Row length of `pixels` (the image width). */
+  strideX: number;
+  /** Mean of the area's pixels, removed before windowing. */
+  mean: number;
   /** The windows along x and y. */
   windowX: Float64Array;
   windowY: Float64Array;
@@ -40,14 +47,13 @@ export function refineData(image: GreyImage, area: RectPx, tukeyAlpha = 0.3): Re
   }
   const wx = windowSamples('tukey', w, tukeyAlpha);
   const wy = windowSamples('tukey', h, tukeyAlpha);
-  const values = new Float64Array(w * h);
+  const d = image.data;
   let sum = 0;
-  for (let j = 0; j < h; j++) for (let i = 0; i < w; i++) sum += image.data[(y + j) * image.width + x + i];
-  const mean = sum / (w * h);
   for (let j = 0; j < h; j++) {
-    for (let i = 0; i < w; i++) values[j * w + i] = (image.data[(y + j) * image.width + x + i] - mean) * wx[i] * wy[j];
+    const o = (y + j) * image.width + x;
+    for (let i = 0; i < w; i++) sum += d[o + i];
   }
-  return { area, values, windowX: wx, windowY: wy };
+  return { area, pixels: d, strideX: image.width, mean: sum / (w * h), windowX: wx, windowY: wy };
 }
 
 /**
@@ -68,8 +74,8 @@ export function refineData(image: GreyImage, area: RectPx, tukeyAlpha = 0.3): Re
 export function refineSpot(data: RefineData, spot: Spot, options: RefineSpotOptions = {}): Spot | null {
   const iterations = options.iterations ?? 4;
   if (!(Number.isInteger(iterations) && iterations >= 1)) throw new RangeError(`iterations must be a positive integer, got ${iterations}`);
-  const { width: w, height: h } = data.area;
-  const v = data.values;
+  const { x: x0, y: y0, width: w, height: h } = data.area;
+  const { pixels, strideX, mean, windowX: wx, windowY: wy } = data;
   const cx = (w - 1) / 2;
   const cy = (h - 1) / 2;
   let ox = 2 * Math.PI * spot.fx;
@@ -79,18 +85,20 @@ export function refineSpot(data: RefineData, spot: Spot, options: RefineSpotOpti
   const er = new Float64Array(w);
   const ei = new Float64Array(w);
   for (let it = 0; it < iterations; it++) {
+    // the x window is folded into the row kernel, the y window into each row's sums
     for (let i = 0; i < w; i++) {
-      er[i] = Math.cos(ox * (i - cx));
-      ei[i] = -Math.sin(ox * (i - cx));
+      er[i] = wx[i] * Math.cos(ox * (i - cx));
+      ei[i] = -wx[i] * Math.sin(ox * (i - cx));
     }
     // Y = Σ_y e_y R0, Y_x = −i Σ e_y R1, Y_xx = −Σ e_y R2, Y_y = −i Σ y e_y R0, Y_yy = −Σ y² e_y R0, Y_xy = −Σ y e_y R1.
     let yr = 0, yi = 0, xr = 0, xi = 0, xxr = 0, xxi = 0, gyr = 0, gyi = 0, yyr = 0, yyi = 0, xyr = 0, xyi = 0;
     for (let j = 0; j < h; j++) {
+      const wj = wy[j];
+      if (wj === 0) continue;
       let r0r = 0, r0i = 0, r1r = 0, r1i = 0, r2r = 0, r2i = 0;
-      const o = j * w;
+      const o = (y0 + j) * strideX + x0;
       for (let i = 0; i < w; i++) {
-        const d = v[o + i];
-        if (d === 0) continue;
+        const d = pixels[o + i] - mean;
         const ar = d * er[i];
         const ai = d * ei[i];
         const t = i - cx;
@@ -101,6 +109,7 @@ export function refineSpot(data: RefineData, spot: Spot, options: RefineSpotOpti
         r2r += t * t * ar;
         r2i += t * t * ai;
       }
+      r0r *= wj; r0i *= wj; r1r *= wj; r1i *= wj; r2r *= wj; r2i *= wj;
       const s = j - cy;
       const c = Math.cos(oy * s);
       const sn = -Math.sin(oy * s);
