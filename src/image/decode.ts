@@ -13,6 +13,7 @@ import { decode as decodeTiffPages } from 'tiff';
 import { decompressLzw } from './lzw';
 import type { Calibration, GreyImage, SampleKind } from './grey-image';
 import { makeGreyImage } from './grey-image';
+import type { Workspace } from './workspace';
 
 /** A file that cannot be read; the message is `"<fileName>: <reason>"`. */
 export class ImageReadError extends Error {
@@ -45,6 +46,12 @@ export interface DecodeOptions {
    * 'replace' sets them to the median of the finite pixels and adds a warning with the count.
    */
   nonFinite?: NonFinitePolicy;
+  /**
+   * Buffers to reuse for the pixels and the undecoded samples (see createWorkspace): the image
+   * returned is then valid only until the next decode with the same workspace. Default: fresh
+   * arrays.
+   */
+  workspace?: Workspace;
 }
 
 /** Default memory budget: 16384² pixels. */
@@ -128,6 +135,19 @@ interface Decoded {
 
 type Fail = (reason: string) => never;
 
+/** Where a reader takes its large arrays from: fresh ones, or a workspace's. */
+interface Alloc {
+  /** The grey pixels (every element is written). */
+  grey(pixels: number): Float32Array;
+  /** Undecoded sample bytes (every byte is written); byteOffset 0. */
+  raw(byteLength: number): Uint8Array;
+}
+
+function allocFrom(workspace: Workspace | undefined): Alloc {
+  if (!workspace) return { grey: (n) => new Float32Array(n), raw: (n) => new Uint8Array(n) };
+  return { grey: (n) => workspace.float32('decode-grey', n), raw: (n) => workspace.bytes('decode-raw', n) };
+}
+
 /**
  * Reads an image file into a GreyImage.
  *
@@ -179,10 +199,11 @@ export function decodeImage(bytes: Uint8Array, fileName: string, options: Decode
 
   let decoded: Decoded;
   try {
-    if (format === 'tiff') decoded = readTiff(bytes, maxPixels, fail);
-    else if (format === 'png') decoded = readPng(bytes, maxPixels, fail);
-    else if (format === 'jpeg') decoded = readJpeg(bytes, maxPixels, fail);
-    else decoded = readMrc(bytes, maxPixels, fail);
+    const alloc = allocFrom(options.workspace);
+    if (format === 'tiff') decoded = readTiff(bytes, maxPixels, fail, alloc);
+    else if (format === 'png') decoded = readPng(bytes, maxPixels, fail, alloc);
+    else if (format === 'jpeg') decoded = readJpeg(bytes, maxPixels, fail, alloc);
+    else decoded = readMrc(bytes, maxPixels, fail, alloc);
   } catch (e) {
     if (e instanceof ImageReadError) throw e;
     const message = e instanceof Error ? e.message : String(e);
@@ -239,9 +260,10 @@ function toGrey(
   warnings: string[],
   hasAlpha: boolean,
   alphaMax: number,
-  colour = spp >= 3,
+  colour: boolean,
+  alloc: Alloc,
 ): Float32Array {
-  const out = new Float32Array(pixels);
+  const out = alloc.grey(pixels);
   if (spp === 1) {
     for (let i = 0; i < pixels; i++) out[i] = samples[i];
     return out;
@@ -410,7 +432,7 @@ const T = {
   tileByteCounts: 325, extraSamples: 338, sampleFormat: 339,
 } as const;
 
-function readTiff(bytes: Uint8Array, maxPixels: number, fail: Fail): Decoded {
+function readTiff(bytes: Uint8Array, maxPixels: number, fail: Fail, alloc: Alloc): Decoded {
   if (bytes.length < 8) fail(`truncated: ${bytes.length} bytes is shorter than the 8-byte TIFF header`);
   const h = new TiffHeader(bytes, fail);
   const first = h.u32(4);
@@ -523,7 +545,7 @@ function readTiff(bytes: Uint8Array, maxPixels: number, fail: Fail): Decoded {
   const orientation = one(T.orientation, 1);
   if (!tiled && predictor === 1 && photometric !== 0 && orientation === 1) {
     const rps = Math.min(one(T.rowsPerStrip, height), height);
-    samples = readTiffStrips(bytes, h.le, offsets, counts, compression, rowBytes, rps, height, bits, sampleKind, fail);
+    samples = readTiffStrips(bytes, h.le, offsets, counts, compression, rowBytes, rps, height, bits, sampleKind, fail, alloc);
   } else {
     const page = decodeTiffPages(bytes, { pages: [0] })[0] as unknown as { data: ArrayLike<number> & { buffer: ArrayBufferLike; byteOffset: number; length: number } };
     if (!page?.data || page.data.length !== pixels * spp) fail(`truncated or corrupt TIFF data: decoded ${page?.data?.length ?? 0} samples, expected ${pixels * spp}`);
@@ -539,7 +561,7 @@ function readTiff(bytes: Uint8Array, maxPixels: number, fail: Fail): Decoded {
   // ExtraSamples (tag 338) 1 or 2 = associated or unassociated alpha; a 4th RGB or 2nd grey sample without the tag is taken as alpha too.
   const hasAlpha = (photometric === 2 && spp === 4) || (photometric < 2 && spp === 2) || extra.some((x) => x === 1 || x === 2);
   if (photometric < 2 && spp > 1) warnings.push(`grey TIFF with ${spp} samples per pixel: read the first`);
-  const data = toGrey(samples, pixels, spp, warnings, hasAlpha, sampleKind === 'uint' ? 2 ** bits - 1 : NaN, photometric === 2);
+  const data = toGrey(samples, pixels, spp, warnings, hasAlpha, sampleKind === 'uint' ? 2 ** bits - 1 : NaN, photometric === 2, alloc);
 
   // Calibration: XResolution/YResolution (pixels per ResolutionUnit; unit default 2 = inch).
   let calibration: Calibration | null = null;
@@ -570,9 +592,10 @@ function readTiffStrips(
   bits: number,
   sampleKind: SampleKind,
   fail: Fail,
+  alloc: Alloc,
 ): Int8Array | Uint8Array | Int16Array | Uint16Array | Float32Array {
   const total = rowBytes * height;
-  const raw = new Uint8Array(total);
+  const raw = alloc.raw(total);
   const strips = Math.ceil(height / rowsPerStrip);
   for (let i = 0; i < strips; i++) {
     const start = i * rowsPerStrip * rowBytes;
@@ -587,12 +610,12 @@ function readTiffStrips(
     raw.set(got.subarray(0, want), start);
   }
   const n = total / (bits / 8);
-  const v = new DataView(raw.buffer);
-  if (bits === 8) return sampleKind === 'int' ? new Int8Array(raw.buffer) : raw;
+  const v = new DataView(raw.buffer, 0, total);
+  if (bits === 8) return sampleKind === 'int' ? new Int8Array(raw.buffer, 0, n) : raw;
   if (le === HOST_LITTLE_ENDIAN) {
-    // Same byte order as this machine: view the bytes directly (raw is fresh, so aligned).
-    if (bits === 16) return sampleKind === 'int' ? new Int16Array(raw.buffer) : new Uint16Array(raw.buffer);
-    return new Float32Array(raw.buffer);
+    // Same byte order as this machine: view the bytes directly (raw starts at byte 0, so aligned).
+    if (bits === 16) return sampleKind === 'int' ? new Int16Array(raw.buffer, 0, n) : new Uint16Array(raw.buffer, 0, n);
+    return new Float32Array(raw.buffer, 0, n);
   }
   if (bits === 16) {
     const out = sampleKind === 'int' ? new Int16Array(n) : new Uint16Array(n);
@@ -608,7 +631,7 @@ function readTiffStrips(
 // ---------------------------------------------------------------------------------------------
 // PNG: Portable Network Graphics specification (W3C, 3rd edition), sections 5 and 11
 
-function readPng(bytes: Uint8Array, maxPixels: number, fail: Fail): Decoded {
+function readPng(bytes: Uint8Array, maxPixels: number, fail: Fail, alloc: Alloc): Decoded {
   const view = new DataView(bytes.buffer, bytes.byteOffset, bytes.byteLength);
   if (bytes.length < 33) fail(`truncated: ${bytes.length} bytes is too short for a PNG header`);
   const chunkType = (at: number) => String.fromCharCode(bytes[at], bytes[at + 1], bytes[at + 2], bytes[at + 3]);
@@ -660,7 +683,7 @@ function readPng(bytes: Uint8Array, maxPixels: number, fail: Fail): Decoded {
   const warnings: string[] = [];
   if (colourType === 3) warnings.push('palette PNG: palette colours looked up');
   const hasAlpha = spp === 2 || spp === 4;
-  const data = toGrey(raw, pixels, spp, warnings, hasAlpha, colourType === 3 ? 255 : 2 ** depth - 1);
+  const data = toGrey(raw, pixels, spp, warnings, hasAlpha, colourType === 3 ? 255 : 2 ** depth - 1, spp >= 3, alloc);
 
   let calibration: Calibration | null = null;
   if (phys) {
@@ -672,7 +695,7 @@ function readPng(bytes: Uint8Array, maxPixels: number, fail: Fail): Decoded {
 // ---------------------------------------------------------------------------------------------
 // JPEG: ITU-T T.81 (1992), annex B (markers, frame header)
 
-function readJpeg(bytes: Uint8Array, maxPixels: number, fail: Fail): Decoded {
+function readJpeg(bytes: Uint8Array, maxPixels: number, fail: Fail, alloc: Alloc): Decoded {
   let at = 2;
   let frame: { width: number; height: number; precision: number; components: number; marker: number } | null = null;
   let scanAt = -1;
@@ -736,10 +759,10 @@ function readJpeg(bytes: Uint8Array, maxPixels: number, fail: Fail): Decoded {
   const warnings: string[] = [];
   let data: Float32Array;
   if (frame.components === 1) {
-    data = new Float32Array(pixels);
+    data = alloc.grey(pixels);
     for (let i = 0; i < pixels; i++) data[i] = raw[i * spp];
   } else {
-    data = toGrey(raw, pixels, spp, warnings, false, 255);
+    data = toGrey(raw, pixels, spp, warnings, false, 255, spp >= 3, alloc);
   }
   warnings.push('JPEG is lossy: compression artefacts (8 × 8 blocks) add a spurious 8-pixel periodicity');
   return { width: frame.width, height: frame.height, data, bitDepth: 8, sampleKind: 'uint', calibration: null, warnings, mayBeNonFinite: false };
@@ -788,7 +811,7 @@ function halfToFloat(h: number): number {
   return s * (1 + f / 1024) * 2 ** (e - 15);
 }
 
-function readMrc(bytes: Uint8Array, maxPixels: number, fail: Fail): Decoded {
+function readMrc(bytes: Uint8Array, maxPixels: number, fail: Fail, alloc: Alloc): Decoded {
   if (bytes.length < 1024) fail(`truncated: ${bytes.length} bytes is shorter than the 1024-byte MRC header`);
   const view = new DataView(bytes.buffer, bytes.byteOffset, bytes.byteLength);
   const warnings: string[] = [];
@@ -821,7 +844,7 @@ function readMrc(bytes: Uint8Array, maxPixels: number, fail: Fail): Decoded {
   // Data rows are stored with y increasing upwards (first row at the bottom of the displayed
   // image, common practice in EM display, from memory); flip so that row 0 is the top.
   const pixels = nx * ny;
-  const data = new Float32Array(pixels);
+  const data = alloc.grey(pixels);
   for (let y = 0; y < ny; y++) {
     const src = start + (ny - 1 - y) * nx * m.bytes;
     const dst = y * nx;

@@ -3,6 +3,7 @@
  * probability, spot geometry, and the radial (azimuthal) average with ring detection.
  */
 import type { GreyImage } from '../image/grey-image';
+import type { Workspace } from '../image/workspace';
 import { loadCv } from '../image/cv';
 import { kernelRatioOffset, magnitudeRatioOffset } from './interpolate';
 import { frequencyCrbStd } from './period-profile';
@@ -28,6 +29,11 @@ export interface PowerSpectrumOptions {
   tukeyAlpha?: number;
   /** What is subtracted before windowing: the mean (default) or the least-squares plane. */
   detrend?: 'mean' | 'plane';
+  /**
+   * Reuse this workspace's buffer for the power array (see createWorkspace): the spectrum is then
+   * valid only until the next spectrum taken with the same workspace. Default: a fresh array.
+   */
+  workspace?: Workspace;
 }
 
 /** A power spectrum and what is needed to interpret it. */
@@ -154,7 +160,7 @@ export async function powerSpectrum(
     cv.dft(mat, out, cv.DFT_COMPLEX_OUTPUT);
     const c = out.data32F as Float32Array;
     const n = w * h;
-    power = new Float32Array(n);
+    power = options.workspace ? options.workspace.float32('spectrum-power', n) : new Float32Array(n);
     for (let k = 0, q = 0; k < n; k++, q += 2) {
       const re = c[q];
       const im = c[q + 1];

@@ -1,0 +1,52 @@
+/**
+ * Reusable typed-array buffers for a worker that handles one image after another.
+ *
+ * A 2048² image costs tens of MiB of fresh arrays per file (the file's bytes, the grey pixels,
+ * the power spectrum). Allocating them anew for every file of a batch makes the JavaScript engine
+ * collect garbage about twice per file, which keeps a second core busy and halves what a second
+ * worker can add. A workspace hands out the same memory again instead.
+ *
+ * Contract: an array taken for a purpose is valid until the next request for the same purpose
+ * from the same workspace; its contents on arrival are unspecified (callers overwrite every
+ * element). One workspace serves one sequence of work, never two at once.
+ */
+
+/** The purposes a workspace lends buffers for (one buffer each). */
+export type WorkspacePurpose = 'file-bytes' | 'decode-raw' | 'decode-grey' | 'spectrum-power';
+
+/** Buffers lent by purpose; see the module notes for the contract. */
+export interface Workspace {
+  /** A Float32Array of exactly `length` elements for `purpose`. */
+  float32(purpose: WorkspacePurpose, length: number): Float32Array;
+  /** A Uint8Array of exactly `length` bytes for `purpose`; its byteOffset is 0. */
+  bytes(purpose: WorkspacePurpose, length: number): Uint8Array;
+  /** Bytes held now, over all purposes. */
+  heldBytes(): number;
+}
+
+/**
+ * A new, empty workspace.
+ *
+ * @returns a workspace whose buffers grow to the largest request per purpose and are kept
+ * Notes: every request returns a new view object (so caches keyed by the array, such as a
+ * WeakMap, never mistake one file's pixels for the next); views start at byte 0 of the buffer, so
+ * they are aligned for any element type.
+ */
+export function createWorkspace(): Workspace {
+  const buffers = new Map<WorkspacePurpose, ArrayBuffer>();
+  const take = (purpose: WorkspacePurpose, byteLength: number): ArrayBuffer => {
+    if (!(Number.isInteger(byteLength) && byteLength >= 0)) throw new RangeError(`length must be a non-negative integer, got ${byteLength} bytes for ${purpose}`);
+    let b = buffers.get(purpose);
+    if (!b || b.byteLength < byteLength) {
+      // grow by a quarter more than asked, so slowly growing sizes do not reallocate each time
+      b = new ArrayBuffer(b ? Math.max(byteLength, Math.ceil(b.byteLength * 1.25)) : byteLength);
+      buffers.set(purpose, b);
+    }
+    return b;
+  };
+  return {
+    float32: (purpose, length) => new Float32Array(take(purpose, length * 4), 0, length),
+    bytes: (purpose, length) => new Uint8Array(take(purpose, length), 0, length),
+    heldBytes: () => [...buffers.values()].reduce((s, b) => s + b.byteLength, 0),
+  };
+}
