@@ -19,6 +19,7 @@ async function run(job: BatchJob): Promise<BatchJobReply> {
   ]);
   deps ??= createBatchDeps();
   const recipe = parseRecipe(job.recipeJson);
+  await (await deps).prepare?.(recipe);
   const out = await processOne(job.bytes, job.fileName, recipe, await deps, {
     figure: job.figure,
     renderFigure: (image, result, regions) => annotatedFigurePng(image, result, regions),

@@ -8,6 +8,8 @@ import type { TextReader } from '../calibration/ocr';
 import { findScaleBar, type ScaleBar } from '../calibration/scale-bar';
 import { decodeImage } from '../image/decode';
 import { makeGreyImage, type GreyImage } from '../image/grey-image';
+import { loadCv } from '../image/cv';
+import { createWorkspace, type Workspace } from '../image/workspace';
 import { measureRegion } from '../measure/measure-region';
 import { toNm, type Measurement, type Region } from '../measure/measurement';
 import { domainMap } from '../measure/domains';
@@ -24,13 +26,14 @@ function rectOf(region: Region): RectPx | null {
  * Rings of the radial average of a region's power spectrum as a Measurement (tool 'rings').
  * @param image calibrated or not
  * @param region the region
+ * @param workspace buffers to reuse for the power spectrum (optional)
  * @returns periodicities strongest first; angleDeg is 0 (a ring has no direction), strength is
  *   the ring's significance in standard deviations
  * Reference: as findRings (azimuthal average, Bonferroni-corrected peak test).
  */
-export async function ringsMeasurement(image: GreyImage, region: Region): Promise<Measurement> {
+export async function ringsMeasurement(image: GreyImage, region: Region, workspace?: Workspace): Promise<Measurement> {
   const rect = rectOf(region);
-  const spectrum = await powerSpectrum(image, rect);
+  const spectrum = await powerSpectrum(image, rect, { workspace });
   const rings = findRings(radialProfile(spectrum));
   return {
     id: globalThis.crypto.randomUUID(),
@@ -104,11 +107,14 @@ export async function domainsOfRegion(image: GreyImage, region: Region): Promise
 /**
  * The batch runner's tools.
  * @returns decoder, information-strip and scale-bar reading, and every measurement step
+ * @param workspace buffers reused from file to file (default: a new workspace of these tools)
  * Notes: the information strip is the edge panel holding the scale bar (findScaleBar's
  * stripBox) when it lies along the bottom; the scale-bar route reads the bar's label offline
- * (one OCR engine per worker, started on first use).
+ * (one OCR engine per worker, started on first use). The decoded image and the spectra reuse the
+ * workspace's buffers, so an image decoded by these tools is valid until the next decode: the
+ * tools serve one file at a time (as processOne uses them).
  */
-export async function createBatchDeps(): Promise<BatchDeps> {
+export async function createBatchDeps(workspace: Workspace = createWorkspace()): Promise<BatchDeps> {
   const bars = new WeakMap<Float32Array, ScaleBar | null>();
   const barOf = (image: GreyImage): ScaleBar | null => {
     if (!bars.has(image.data)) bars.set(image.data, findScaleBar(image));
@@ -116,7 +122,10 @@ export async function createBatchDeps(): Promise<BatchDeps> {
   };
   let reader: Promise<TextReader> | null = null;
   return {
-    decodeImage: (bytes, fileName) => decodeImage(bytes, fileName),
+    async prepare(recipe) {
+      if (recipe.measurements.some((m) => m.tool === 'spectrum' || m.tool === 'rings')) await loadCv();
+    },
+    decodeImage: (bytes, fileName) => decodeImage(bytes, fileName, { workspace }),
     findInfoStripPx(image) {
       const strip = barOf(image)?.stripBox;
       if (!strip) return 0;
@@ -128,8 +137,8 @@ export async function createBatchDeps(): Promise<BatchDeps> {
       reader ??= import('../calibration/ocr').then((m) => m.createTextReader({ whitelist: LABEL_CHARACTERS }));
       return (await readScaleBar(image, await reader)).calibration;
     },
-    spectrum: (image, region, options) => measureRegion(image, rectOf(region), { maxSpots: options.topK }),
-    rings: ringsMeasurement,
+    spectrum: (image, region, options) => measureRegion(image, rectOf(region), { maxSpots: options.topK, workspace }),
+    rings: (image, region) => ringsMeasurement(image, region, workspace),
     sheets: sheetsMeasurement,
     domains: domainsOfRegion,
   };

@@ -23,6 +23,11 @@ export interface SheetsResult {
  * pass the project's own implementations; tests pass small fakes.
  */
 export interface BatchDeps {
+  /**
+   * Loads ahead of the first file what the recipe's steps need (opencv.js for the spectrum and
+   * rings), so that a worker is ready only when it can measure and a loading failure shows once.
+   */
+  prepare?(recipe: Recipe): Promise<void>;
   /** Decodes file bytes to an image; throws on a corrupt or unsupported file. */
   decodeImage(bytes: Uint8Array, fileName: string): GreyImage;
   /** Height in px of the information strip along the bottom edge (0 when there is none). */

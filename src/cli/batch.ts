@@ -6,6 +6,7 @@
  * listing and reading, SHA-256 hashing, worker threads, progress, atomic writes.
  */
 import { createHash } from 'node:crypto';
+import { closeSync, fstatSync, openSync, readSync } from 'node:fs';
 import { mkdir, readdir, readFile, rename, stat, writeFile } from 'node:fs/promises';
 import { createRequire } from 'node:module';
 import { basename, dirname, extname, join, resolve } from 'node:path';
@@ -16,6 +17,7 @@ import { annotatedFigurePng, histogramSvg } from '../batch/figure';
 import { canonicalRecipeJson, defaultRecipe, parseRecipe, RecipeError, type Recipe } from '../batch/recipe';
 import { missingTools, processOne, type BatchDeps, type FileResult } from '../batch/run';
 import { emptyState, isFinished, parseState, recordFileName, STATE_FILE_NAME, withEntry, type BatchState } from '../batch/state';
+import { createWorkspace, type Workspace } from '../image/workspace';
 import { parseArgs, UsageError, type CliCommand, type CliIo } from './command';
 
 /** File name extensions the batch picks up (lower case, with the dot). */
@@ -70,15 +72,24 @@ export interface BatchOutcome {
   written: string[];
 }
 
+/**
+ * One file to process. The worker reads and hashes it itself (into a reused buffer) unless the
+ * main thread already had to, to compare it with a finished entry of the resume state.
+ */
 interface Job {
   file: string;
-  sha256: string;
-  bytes: Uint8Array;
+  /** Absolute path of the file. */
+  path: string;
+  /** SHA-256 and bytes, when the main thread read the file already. */
+  sha256?: string;
+  bytes?: Uint8Array;
 }
 
 interface WorkerReply {
   type: 'result';
   file: string;
+  /** SHA-256 of the file's bytes ('' when the file could not be read). */
+  sha256: string;
   result: FileResult;
   figurePng?: Uint8Array;
   peakBytes: number;
@@ -201,13 +212,31 @@ class BatchWorker {
   run(job: Job): Promise<WorkerReply> {
     return new Promise((resolve, reject) => {
       this.pending = { resolve, reject };
-      const buf = job.bytes.buffer as ArrayBuffer;
-      this.worker.postMessage({ file: job.file, bytes: job.bytes }, [buf]);
+      const transfer = job.bytes ? [job.bytes.buffer as ArrayBuffer] : [];
+      this.worker.postMessage({ file: job.file, path: job.path, sha256: job.sha256, bytes: job.bytes }, transfer);
     });
   }
 
   stop(): Promise<number> {
     return this.worker.terminate();
+  }
+}
+
+/** Reads a whole file into the workspace's file buffer (valid until the next read). */
+function readInto(path: string, workspace: Workspace): Uint8Array {
+  const fd = openSync(path, 'r');
+  try {
+    const size = fstatSync(fd).size;
+    const bytes = workspace.bytes('file-bytes', size);
+    let at = 0;
+    while (at < size) {
+      const n = readSync(fd, bytes, at, size - at, at);
+      if (n === 0) throw new Error(`the file ended after ${at} of ${size} bytes while it was read`);
+      at += n;
+    }
+    return bytes;
+  } finally {
+    closeSync(fd);
   }
 }
 
@@ -227,6 +256,7 @@ export async function workerMain(): Promise<void> {
   try {
     const mod = (await import(depsModule)) as { createBatchDeps(): Promise<BatchDeps> };
     deps = await mod.createBatchDeps();
+    await deps.prepare?.(recipe);
   } catch (e) {
     port.postMessage({ type: 'fatal', message: `cannot load the measurement tools: ${(e as Error).message}` });
     return;
@@ -250,18 +280,33 @@ export async function workerMain(): Promise<void> {
     return m.heapUsed + m.external;
   };
   let processed = 0;
-  port.on('message', async (msg: { file: string; bytes: Uint8Array } | { probe: 'retained' }) => {
+  // the file's bytes are read into one reused buffer (as the tools reuse theirs: see createWorkspace)
+  const workspace = createWorkspace();
+  port.on('message', async (msg: { file: string; path: string; sha256?: string; bytes?: Uint8Array } | { probe: 'retained' }) => {
     if ('probe' in msg) {
       port.postMessage({ type: 'retained', retainedBytes: retainedNow() });
       return;
     }
     try {
-      const out = await processOne(msg.bytes, msg.file, recipe, deps, { figure: figures, renderFigure: annotatedFigurePng });
+      let bytes = msg.bytes;
+      if (!bytes) {
+        try {
+          bytes = readInto(msg.path, workspace);
+        } catch (e) {
+          const reason = `cannot read the file: ${(e as Error).message}`;
+          const result: FileResult = { file: msg.file, status: 'failed', reason, image: null, calibration: null, measurements: [], summary: { topPeriods: [], sheetCount: null, meanThicknessNm: null, sdThicknessNm: null, sheetThicknessNm: [] }, notes: [] };
+          // no hash: the failure is reported but not marked finished, so a re-run tries the file again
+          port.postMessage({ type: 'result', file: msg.file, sha256: '', result, peakBytes, retainedBytes: 0 } satisfies WorkerReply);
+          return;
+        }
+      }
+      const sha256 = msg.sha256 ?? sha256Hex(bytes);
+      const out = await processOne(bytes, msg.file, recipe, deps, { figure: figures, renderFigure: annotatedFigurePng });
       sample();
       // A forced collection after every file would itself cost time and skew the speed measured,
       // so retained memory is read after the third file and, through the probe, after the last.
       const retainedBytes = ++processed === 3 ? retainedNow() : 0;
-      const reply: WorkerReply = { type: 'result', file: msg.file, result: out.result, figurePng: out.figurePng, peakBytes, retainedBytes };
+      const reply: WorkerReply = { type: 'result', file: msg.file, sha256, result: out.result, figurePng: out.figurePng, peakBytes, retainedBytes };
       port.postMessage(reply, out.figurePng ? [out.figurePng.buffer as ArrayBuffer] : []);
     } catch (e) {
       port.postMessage({ type: 'error', message: (e as Error).stack ?? String(e) });
@@ -322,14 +367,14 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
   let commitChain: Promise<void> = Promise.resolve();
   // `persist: false` reports a result in this run's exports without marking the file finished
   // (a worker that stopped may have run out of memory on a busy machine: the next run retries).
-  const commit = (job: Job, fileResult: FileResult, figurePng?: Uint8Array, persist = true) => {
-    const result: FileResult = { ...fileResult, sha256: job.sha256 };
+  const commit = (job: Job, sha256: string | undefined, fileResult: FileResult, figurePng?: Uint8Array, persist = true) => {
+    const result: FileResult = sha256 ? { ...fileResult, sha256 } : fileResult;
     commitChain = commitChain.then(async () => {
-      if (persist) {
-        const recordFile = recordFileName(job.file, job.sha256, recipeHash);
+      if (persist && sha256) {
+        const recordFile = recordFileName(job.file, sha256, recipeHash);
         await writeAtomic(join(outDir, recordFile), `${JSON.stringify(result)}\n`);
         if (figurePng && figuresDir) await writeAtomic(join(figuresDir, figureName(job.file)), figurePng);
-        state = withEntry(state, job.file, { sha256: job.sha256, recipeHash, status: result.status, recordFile, finishedIso: new Date().toISOString() });
+        state = withEntry(state, job.file, { sha256, recipeHash, status: result.status, recordFile, finishedIso: new Date().toISOString() });
         await writeAtomic(statePath, `${JSON.stringify(state, null, 1)}\n`);
       }
       results.set(job.file, result);
@@ -340,17 +385,24 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
     return commitChain;
   };
 
-  /** The next file that needs processing, or null; finished ones are counted as skipped. */
+  /**
+   * The next file that needs processing, or null; finished ones are counted as skipped. Only a
+   * file with a finished entry for this recipe is read here (to compare its bytes); the others
+   * are read by the worker.
+   */
   const takeJob = async (): Promise<Job | null> => {
     while (next < files.length) {
       const file = files[next++];
-      const buf = await readFile(join(folder, file));
+      const path = resolve(folder, file);
+      const entry = state.entries[file];
+      if (!entry || entry.recipeHash !== recipeHash) return { file, path };
+      const recordPath = join(outDir, entry.recordFile);
+      const figureMissing = figuresDir && entry.status === 'ok' && !(await exists(join(figuresDir, figureName(file))));
+      const buf = await readFile(path).catch(() => null);
+      if (!buf) return { file, path }; // the worker reports why it cannot be read
       const bytes = new Uint8Array(buf.byteLength);
       bytes.set(buf);
       const sha256 = sha256Hex(bytes);
-      const entry = state.entries[file];
-      const recordPath = entry ? join(outDir, entry.recordFile) : '';
-      const figureMissing = figuresDir && entry?.status === 'ok' && !(await exists(join(figuresDir, figureName(file))));
       if (isFinished(state, file, sha256, recipeHash) && !figureMissing && (await exists(recordPath))) {
         results.set(file, JSON.parse(await readFile(recordPath, 'utf8')) as FileResult);
         skipped++;
@@ -358,7 +410,7 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
         io.err(progressLine(done, total, file, 'skipped (finished earlier)', bar));
         continue;
       }
-      return { file, sha256, bytes };
+      return { file, path, sha256, bytes };
     }
     return null;
   };
@@ -410,11 +462,11 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
               await worker.stop().catch(() => 0);
               worker = null;
               const reason = `processing stopped: ${(e as Error).message.split('\n')[0]}`;
-              await commit(job, { file: job.file, status: 'failed', reason, image: null, calibration: null, measurements: [], summary: { topPeriods: [], sheetCount: null, meanThicknessNm: null, sdThicknessNm: null, sheetThicknessNm: [] }, notes: [] }, undefined, false);
+              await commit(job, job.sha256, { file: job.file, status: 'failed', reason, image: null, calibration: null, measurements: [], summary: { topPeriods: [], sheetCount: null, meanThicknessNm: null, sdThicknessNm: null, sheetThicknessNm: [] }, notes: [] }, undefined, false);
               job = await prefetch;
               continue;
             }
-            await commit(job, reply.result, reply.figurePng);
+            await commit(job, reply.sha256, reply.result, reply.figurePng);
             job = await prefetch;
           }
         } finally {
