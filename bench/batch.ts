@@ -77,8 +77,10 @@ async function main(): Promise<void> {
     });
     console.log(`batch benchmark: ${files} files of ${size} × ${size} px, 16-bit TIFF (${((size * size * 2) / 2 ** 20).toFixed(0)} MiB each), generated in ${genS.toFixed(1)} s; ${availableParallelism()} cores`);
     console.log('recipe: metadata calibration, whole image, spectrum top 3, period range 0.5–3 nm; no figures\n');
-    // Runs alternate 1, 2, 1, 2 … workers; the best rate of each counts, so that other work on a
-    // shared machine disturbs the comparison less.
+    // Timed runs alternate 1, 2, 1, 2 … workers; the best rate of each counts, so that other work
+    // on a shared machine disturbs the comparison less. Retained memory needs a forced full
+    // collection in each worker, which would itself cost time, so it is measured in one extra,
+    // untimed run per worker count.
     interface Best { rate: number; cpuPerImage: number; out: Awaited<ReturnType<typeof runBatch>> }
     const best = new Map<number, Best>();
     const allRates = new Map<number, number[]>();
@@ -87,7 +89,7 @@ async function main(): Promise<void> {
       for (const jobs of [1, 2]) {
         const cpu0 = process.cpuUsage();
         const out = await runBatch(
-          { folder: dir, recipe, outCsv: join(dir, `out-${jobs}-${rep}`, 'results.csv'), jobs, measureRetained: true },
+          { folder: dir, recipe, outCsv: join(dir, `out-${jobs}-${rep}`, 'results.csv'), jobs },
           { out: () => {}, err: () => {} },
         );
         const cpu = process.cpuUsage(cpu0);
@@ -100,6 +102,10 @@ async function main(): Promise<void> {
         console.error(`  run ${rep + 1}/${repeats}, ${jobs} worker(s): ${rate.toFixed(3)} images/s (load ${loadavg()[0].toFixed(1)})`);
       }
     }
+    const memory = new Map<number, Awaited<ReturnType<typeof runBatch>>>();
+    for (const jobs of [1, 2]) {
+      memory.set(jobs, await runBatch({ folder: dir, recipe, outCsv: join(dir, `out-${jobs}-memory`, 'results.csv'), jobs, measureRetained: true }, { out: () => {}, err: () => {} }));
+    }
     const base = best.get(1)!.rate;
     const withStartup = (jobs: number) => best.get(jobs)!.out.processed / best.get(jobs)!.out.seconds;
     console.log('| workers | files | ok | with a period | wall s (best run) | start-up s | images/s, each run | images/s, best | speed-up (best) | images/s with start-up (best run) | speed-up with start-up | CPU s per image, each run | peak MiB per worker | retained MiB after 3rd file → after last | files per worker |');
@@ -108,15 +114,16 @@ async function main(): Promise<void> {
       const { rate, out } = best.get(jobs)!;
       const ok = out.results.filter((r) => r.status === 'ok').length;
       const found = out.results.filter((r) => r.summary.topPeriods.length > 0).length;
-      const retained = out.workerRetainedBytes.map((r) => `${mib(r.afterThird)} → ${mib(r.afterLast)}`).join(' / ');
+      const mem = memory.get(jobs)!;
+      const retained = mem.workerRetainedBytes.map((r) => `${mib(r.afterThird)} → ${mib(r.afterLast)}`).join(' / ');
       console.log(
-        `| ${jobs} | ${out.processed} | ${ok} | ${found} | ${out.seconds.toFixed(1)} | ${out.startupSeconds.toFixed(1)} | ${allRates.get(jobs)!.map((r) => r.toFixed(2)).join(', ')} | ${rate.toFixed(2)} | ${(rate / base).toFixed(2)}× | ${withStartup(jobs).toFixed(2)} | ${(withStartup(jobs) / withStartup(1)).toFixed(2)}× | ${cpuAll.get(jobs)!.map((c) => c.toFixed(2)).join(', ')} | ${out.workerPeakBytes.map(mib).join(' / ')} | ${retained} | ${out.workerFiles.join(' / ')} |`,
+        `| ${jobs} | ${out.processed} | ${ok} | ${found} | ${out.seconds.toFixed(1)} | ${out.startupSeconds.toFixed(1)} | ${allRates.get(jobs)!.map((r) => r.toFixed(2)).join(', ')} | ${rate.toFixed(2)} | ${(rate / base).toFixed(2)}× | ${withStartup(jobs).toFixed(2)} | ${(withStartup(jobs) / withStartup(1)).toFixed(2)}× | ${cpuAll.get(jobs)!.map((c) => c.toFixed(2)).join(', ')} | ${mem.workerPeakBytes.map(mib).join(' / ')} | ${retained} | ${out.workerFiles.join(' / ')} |`,
       );
     }
     console.log(`\nload average at the end: ${loadavg().map((l) => l.toFixed(1)).join(' ')} (other processes on the machine lower the speed-up)`);
     console.log('images/s: files over the wall time after the last worker was ready (thread start, TypeScript loader and opencv.js loaded); with start-up: over the whole wall time. Each worker reuses its file, pixel and spectrum buffers from file to file, so the garbage collector has little to do.');
     console.log('CPU s per image: user + system time of the whole process (all worker threads, start-up included) per image; equal for 1 and 2 workers means the work parallelises without overhead, so on an otherwise idle 2-core machine the speed-up approaches 2×.');
-    console.log('Peak: V8 heap total + external (incl. the opencv.js wasm heap) of each worker isolate, sampled after every file.');
+    console.log('Peak and retained memory come from one further run per worker count. Peak: V8 heap total + external (incl. the opencv.js wasm heap) of each worker isolate, sampled after every file.');
     console.log('Retained: heap used + external after a forced full garbage collection; equal after the 3rd and the last file means no growth with the number of files.');
   } finally {
     await rm(dir, { recursive: true, force: true });
