@@ -7,7 +7,50 @@ import {
   studentTCdf,
   studentTQuantile,
   summarize,
+  normalUpperQuantile,
+  chiSquareUpperQuantile,
 } from '../../src/measure/stats';
+
+describe('normal and chi-square upper quantiles', () => {
+  // Standard normal table (NIST/SEMATECH e-Handbook §1.3.6.7.1; from memory): upper tails.
+  for (const [p, z] of [[0.025, 1.959964], [0.05, 1.644854], [0.01, 2.326348], [0.001, 3.090232], [0.5, 0]] as const) {
+    it(`z with P(Z > z) = ${p} is ${z}`, () => expect(normalUpperQuantile(p)).toBeCloseTo(z, 5));
+  }
+  // Critical values of the chi-square distribution, upper tail, NIST/SEMATECH e-Handbook
+  // §1.3.6.7.4 and every textbook table (3 decimals; from memory). Wilson–Hilferty is within 2.5 %.
+  const table: [number, number, number][] = [
+    [0.05, 1, 3.841],
+    [0.05, 2, 5.991],
+    [0.05, 4, 9.488],
+    [0.05, 10, 18.307],
+    [0.01, 2, 9.21],
+    [0.01, 7, 18.475],
+    [0.01, 10, 23.209],
+    [0.01, 20, 37.566],
+    [0.001, 10, 29.588],
+  ];
+  for (const [p, dof, x] of table) {
+    it(`chi-square(${dof}) upper ${p} quantile ${x}, within 2.5 %`, () => {
+      expect(Math.abs(chiSquareUpperQuantile(p, dof) / x - 1)).toBeLessThan(0.025);
+    });
+  }
+  it('the tail probability at the quantile is within 3 % of p for p = 0.05 and 0.01 (even ν, closed form)', () => {
+    // P(χ²_2m > x) = e^(−x/2) Σ_{k<m} (x/2)^k / k! (Poisson sum, closed form for even degrees of freedom)
+    const survival = (x: number, m: number) => {
+      let term = 1;
+      let sum = 1;
+      for (let k = 1; k < m; k++) sum += (term *= x / 2 / k);
+      return Math.exp(-x / 2) * sum;
+    };
+    for (const p of [0.05, 0.01]) {
+      for (const dof of [2, 4, 8, 16, 40]) expect(Math.abs(survival(chiSquareUpperQuantile(p, dof), dof / 2) / p - 1)).toBeLessThan(0.03);
+    }
+  });
+  it('rejects bad arguments by name', () => {
+    expect(() => chiSquareUpperQuantile(0, 3)).toThrow(/p must be in \(0, 1\), got 0/);
+    expect(() => chiSquareUpperQuantile(0.1, -1)).toThrow(/dof must be a positive number, got -1/);
+  });
+});
 
 describe('Student t quantile', () => {
   // Critical values of Student's t, as printed in the NIST/SEMATECH e-Handbook of Statistical
