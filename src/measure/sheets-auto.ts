@@ -239,6 +239,8 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
         snrThreshold: options.snrThreshold,
         minLayers: options.minLayers,
         spacingTolerance: options.spacingTolerance,
+        // the line crosses a region found coherent (layered): a quiet stretch on it is a gap
+        minBackgroundSamples: 1,
       });
       // offset of each sheet from the region's local centre, along the normal
       const startOffset = (seg[0] - px) * ux + (seg[1] - py) * uy;
