@@ -57,6 +57,7 @@ export class StrataSheetsPanel extends LitElement {
       table { border-collapse: collapse; width: 100%; font-variant-numeric: tabular-nums; }
       th, td { padding: 2px 4px; text-align: right; border-bottom: 1px solid var(--line); }
       th:first-child, td:first-child { text-align: left; }
+      table.stats th[scope='row'] { font-weight: normal; }
       tr.rejected td { opacity: 0.45; text-decoration: line-through; }
       tr.accepted td:first-child { color: #7fd18b; }
       .muted { opacity: 0.7; }
@@ -250,10 +251,24 @@ export class StrataSheetsPanel extends LitElement {
     </figure>`;
   }
 
-  private renderStats(label: string, s: Summary | null, d: number) {
-    if (!s) return nothing;
-    return html`<tr><td>${label}</td><td>${s.n}</td><td>${f(s.mean, d)}</td><td>${f(s.sd, d)}</td><td>${f(s.median, d)}</td>
-      <td>${f(s.q1, d)}–${f(s.q3, d)}</td><td>${f(s.min, d)}–${f(s.max, d)}</td><td>${s.ci95 ? `${f(s.ci95[0], d)}–${f(s.ci95[1], d)}` : '—'}</td></tr>`;
+  /**
+   * The statistics as rows (one per statistic) and columns (thickness, layers): two narrow
+   * columns fit the side panel, where eight statistic columns would not.
+   */
+  private renderStats(columns: { label: string; s: Summary | null; d: number }[]) {
+    const cols = columns.filter((c) => c.s) as { label: string; s: Summary; d: number }[];
+    const row = (name: string, cell: (s: Summary, d: number) => string) =>
+      html`<tr><th scope="row">${name}</th>${cols.map((c) => html`<td>${cell(c.s, c.d)}</td>`)}</tr>`;
+    return html`<table class="stats">
+      <tr><th></th>${cols.map((c) => html`<th scope="col">${c.label}</th>`)}</tr>
+      ${row('n', (s) => String(s.n))}
+      ${row('mean', (s, d) => f(s.mean, d))}
+      ${row('sd', (s, d) => f(s.sd, d))}
+      ${row('median', (s, d) => f(s.median, d))}
+      ${row('quartiles', (s, d) => `${f(s.q1, d)}–${f(s.q3, d)}`)}
+      ${row('range', (s, d) => `${f(s.min, d)}–${f(s.max, d)}`)}
+      ${row('95 % CI of the mean', (s, d) => (s.ci95 ? `${f(s.ci95[0], d)}–${f(s.ci95[1], d)}` : '—'))}
+    </table>`;
   }
 
   override render() {
@@ -299,11 +314,10 @@ export class StrataSheetsPanel extends LitElement {
       ${stats.n
         ? html`<section>
             <h3>Statistics (${stats.n} sheets)</h3>
-            <table>
-              <tr><th></th><th>n</th><th>mean</th><th>sd</th><th>median</th><th>quartiles</th><th>range</th><th>95 % CI</th></tr>
-              ${this.renderStats(`thickness (${unit})`, cal ? stats.thicknessNm : stats.thicknessPx, 2)}
-              ${this.renderStats('layers', stats.layers, 1)}
-            </table>
+            ${this.renderStats([
+              { label: `thickness (${unit})`, s: cal ? stats.thicknessNm : stats.thicknessPx, d: 2 },
+              { label: 'layers', s: stats.layers, d: 1 },
+            ])}
             <p class="muted">Quartiles: Hyndman & Fan type 7. CI: Student t. Histogram bins: Freedman–Diaconis.</p>
             <div class="hists">
               ${this.renderHistogram(thickVals, `thickness (${unit})`, false)}
