@@ -4,7 +4,8 @@
 import { LitElement, css, html, nothing, svg, type TemplateResult } from 'lit';
 import type { PatternAnalysis } from '../src/diffraction/analyse';
 import type { ComputeClient } from './compute-client';
-import { listMeasurements, type LibraryDb } from '../src/store/library';
+import { diffractionSetRecord } from '../src/diffraction/stored-set';
+import { listMeasurements, putDiffractionSet, type LibraryDb } from '../src/store/library';
 import { dToTwoTheta, parseWavelength, XRAY_LINES } from '../src/diffraction/bragg';
 import { parsePattern, parsePeakList, type ManualPeak, type Pattern, type PeakListUnit } from '../src/diffraction/pattern';
 import { reconcile, type DiffractionLine, type MicrographPeriod, type Reconciliation } from '../src/diffraction/reconcile';
@@ -16,24 +17,12 @@ export const panelLabel = 'Diffraction';
 
 type AxisView = '2theta' | 'd' | 'q';
 
-/** What `diffraction-set-save` carries: everything needed to show the set again. */
-export interface DiffractionSetDetail {
-  fileName: string | null;
-  patternText: string | null;
-  wavelengthNm: number | null;
-  ka2Nm: number | null;
-  peaks: Array<{ twoThetaDeg: number | null; dNm: number; dUncNm: number; qInvNm: number; fwhmDeg: number | null; intensity: number | null; crystalliteNm: number | null }>;
-  series: IndexedSeries[];
-  reconciliation: Reconciliation | null;
-  createdIso: string;
-}
-
 const f = (v: number | null | undefined, d = 4) => (v === null || v === undefined || !Number.isFinite(v) ? '—' : v.toFixed(d));
 
 /**
  * `<strata-diffraction-panel>`. Properties: `periods` (micrograph periods with uncertainties,
  * `{ periodNm, uncertaintyNm, label? }[]`), `calibrationRelUncertainty` (the pixel size's share
- * of those uncertainties, optional). Events: `diffraction-set-save` (DiffractionSetDetail),
+ * of those uncertainties, optional). Events: `library-changed` (after "Save set" stored the set),
  * `status-message` {text, kind}. The fit runs on the main thread (a few seconds for 4000 points).
  */
 export class StrataDiffractionPanel extends LitElement {
@@ -98,6 +87,10 @@ export class StrataDiffractionPanel extends LitElement {
 
   private emit(type: string, detail: unknown): void {
     this.dispatchEvent(new CustomEvent(type, { detail, bubbles: true, composed: true }));
+  }
+
+  private say(text: string, kind: 'info' | 'error' = 'info'): void {
+    this.emit('status-message', { text, kind });
   }
 
   private wavelengthOption(): string | undefined {
@@ -202,21 +195,41 @@ export class StrataDiffractionPanel extends LitElement {
     return reconcile({ periods: ok, calibrationRelUncertainty: this.calibrationRelUncertainty }, { lines, series });
   }
 
-  private save(): void {
+  /** Stores the fitted or typed set in the library (one transaction), with its lines and series. */
+  private async save(): Promise<void> {
+    if (!this.db) {
+      this.say('The library is not open: the set cannot be stored', 'error');
+      return;
+    }
     const a = this.analysis;
-    const detail: DiffractionSetDetail = {
-      fileName: this.fileName,
-      patternText: a ? this.patternText : null,
-      wavelengthNm: a?.wavelengthNm ?? null,
-      ka2Nm: a?.ka2Nm ?? null,
-      peaks: a
-        ? a.peaks.map((p) => ({ twoThetaDeg: p.twoThetaDeg, dNm: p.dNm, dUncNm: p.dUncNm, qInvNm: p.qInvNm, fwhmDeg: p.fwhmDeg, intensity: p.intensity, crystalliteNm: p.crystalliteNm }))
-        : this.manual.map((m) => ({ twoThetaDeg: m.twoThetaDeg, dNm: m.dNm, dUncNm: 0, qInvNm: m.qInvNm, fwhmDeg: null, intensity: null, crystalliteNm: null })),
-      series: this.lines().series,
-      reconciliation: this.reconciliation(),
-      createdIso: new Date().toISOString(),
-    };
-    this.emit('diffraction-set-save', detail);
+    const w = this.wavelengthOption();
+    const wavelengthNm = a?.wavelengthNm ?? (w ? parseWavelength(w).wavelengthNm : null);
+    if (!wavelengthNm) {
+      this.say('Choose the radiation (wavelength) first: a stored set keeps it', 'error');
+      return;
+    }
+    const { lines, series } = this.lines();
+    const createdIso = new Date().toISOString();
+    const name = this.fileName ?? `typed peaks ${createdIso.slice(0, 16).replace('T', ' ')}`;
+    try {
+      const record = diffractionSetRecord({
+        id: globalThis.crypto.randomUUID(),
+        name,
+        createdIso,
+        patternText: a ? this.patternText : null,
+        fileName: this.fileName,
+        wavelengthNm,
+        ka2Nm: a?.ka2Nm ?? null,
+        peaks: a ? a.peaks.map((p) => ({ twoThetaDeg: p.twoThetaDeg, intensity: p.intensity })) : this.manual.map((m) => ({ twoThetaDeg: m.twoThetaDeg ?? null, intensity: null })),
+        lines,
+        series,
+      });
+      await putDiffractionSet(this.db, record);
+      this.emit('library-changed', null);
+      this.say(`Stored the diffraction set ${name} (${lines.length} lines) in the library`);
+    } catch (err) {
+      this.say(`The set was not stored: ${(err as Error).message}`, 'error');
+    }
   }
 
   /** Maps a d-spacing (nm) to the current axis; null when not representable. */
@@ -335,7 +348,7 @@ export class StrataDiffractionPanel extends LitElement {
         <div class="row">
           ${(['2theta', 'd', 'q'] as AxisView[]).map((v) => html`<button aria-pressed=${this.axisView === v ? 'true' : 'false'} @click=${() => { this.axisView = v; }}>${v === '2theta' ? '2θ' : v}</button>`)}
           <label><input type="checkbox" .checked=${this.logY} @change=${(e: Event) => { this.logY = (e.target as HTMLInputElement).checked; }} /> log intensity</label>
-          <button ?disabled=${!a && this.manual.length === 0} @click=${() => this.save()}>Save set</button>
+          <button ?disabled=${!a && this.manual.length === 0} @click=${() => void this.save()} title="Keep the pattern, its lines and series in the library (for the batch comparison and the library export)">Save set</button>
         </div>
         ${this.plot()}
       </section>
