@@ -6,14 +6,17 @@ import { LitElement, css, html, nothing } from 'lit';
 import { unsafeSVG } from 'lit/directives/unsafe-svg.js';
 import { batchJson, pooledStats, resultsCsv, summaryCsv, zipExports } from '../src/batch/export';
 import { histogramSvg } from '../src/batch/figure';
+import { compareBatchWithDiffraction, comparisonCsv, diffractionOverlaySvg, type BatchComparison } from '../src/batch/compare';
+import { diffractionSideOfSet } from '../src/diffraction/stored-set';
+import { svgToPng } from './svg-png';
 import { defaultRecipe, parseRecipe, RecipeError, type Recipe } from '../src/batch/recipe';
 import type { FileResult } from '../src/batch/run';
 import {
   commitFileResult, createBatch, deleteBatch, getBatch, listBatchFiles, listBatches, setBatchState,
   type BatchFileRecord, type BatchRun,
 } from '../src/store/batches';
-import { listCalibrationProfiles, listRecipes, putRecipe, type LibraryDb } from '../src/store/library';
-import type { CalibrationProfile, RecipeRecord } from '../src/store/records';
+import { listCalibrationProfiles, listDiffractionSets, listRecipes, putRecipe, type LibraryDb } from '../src/store/library';
+import type { CalibrationProfile, DiffractionSet, RecipeRecord } from '../src/store/records';
 import { BatchPool, poolSize, type PoolFile } from './batch-pool';
 import { controlStyles, panelStyles } from './styles';
 
@@ -79,6 +82,8 @@ export class StrataBatchPanel extends LitElement {
     starting: { state: true },
     earlier: { state: true },
     rateText: { state: true },
+    diffractionSets: { state: true },
+    compareSetId: { state: true },
   };
 
   static override styles = [
@@ -127,6 +132,10 @@ export class StrataBatchPanel extends LitElement {
   /** Batches of the library, newest first. */
   earlier: BatchRun[] = [];
   rateText = '';
+  /** Diffraction sets of the library, for the comparison in the summary. */
+  diffractionSets: DiffractionSet[] = [];
+  /** The set the summary compares the batch with ('' for none). */
+  compareSetId = '';
 
   private pool: BatchPool | null = null;
   /** Pause or cancel pressed during the current run. */
@@ -158,12 +167,27 @@ export class StrataBatchPanel extends LitElement {
     this.stored = await listRecipes(this.db).catch(() => []);
     this.profiles = await listCalibrationProfiles(this.db).catch(() => []);
     this.earlier = await listBatches(this.db).catch(() => []);
+    await this.refreshDiffractionSets();
     // After a reload or a crash: offer the batch that stopped before its end.
     const open = this.earlier.find((b) => b.state === 'running' || b.state === 'paused');
     if (!this.batch && !this.running && open) {
       await this.show(open.id);
       this.say(`The batch ${open.name} stopped at ${open.ok + open.failed} of ${open.total} files: Resume it in the Batch tab.`);
     }
+  }
+
+  private async refreshDiffractionSets(): Promise<void> {
+    if (!this.db) return;
+    this.diffractionSets = await listDiffractionSets(this.db).catch(() => []);
+  }
+
+  /** The batch against the chosen diffraction set, or null when none is chosen. */
+  private comparison(results: FileResult[]): { set: DiffractionSet; c: BatchComparison; svg: string } | null {
+    const set = this.diffractionSets.find((d) => d.id === this.compareSetId);
+    if (!set) return null;
+    const side = diffractionSideOfSet(set);
+    const c = compareBatchWithDiffraction(results, side);
+    return { set, c, svg: diffractionOverlaySvg(c, side, `${set.name} against the batch`) };
   }
 
   // ---- choosing files -------------------------------------------------------------------
@@ -430,6 +454,11 @@ export class StrataBatchPanel extends LitElement {
     };
     for (const r of this.rows) if (r.figurePng) out[`figures/${r.name.replace(/[^A-Za-z0-9._-]+/g, '_')}.png`] = r.figurePng;
     for (const [name, svgText] of Object.entries(this.histograms(results))) out[`histograms/${name}.svg`] = svgText;
+    const cmp = this.comparison(results);
+    if (cmp) {
+      out['diffraction/comparison.csv'] = comparisonCsv(cmp.c, cmp.set.name);
+      out['diffraction/overlay.svg'] = cmp.svg;
+    }
     return out;
   }
 
@@ -443,11 +472,21 @@ export class StrataBatchPanel extends LitElement {
     return out;
   }
 
-  private exportZip(): void {
+  /** Downloads every export as one zip; each SVG figure also as PNG (twice its size). */
+  private async exportZip(): Promise<void> {
     const b = this.batch;
     if (!b) return;
     const stamp = b.createdIso.slice(0, 19).replace(/[:T]/g, '-');
-    download(`batch-${stamp}.zip`, zipExports(this.exportFiles()), 'application/zip');
+    const files = this.exportFiles();
+    for (const [name, content] of Object.entries(files)) {
+      if (!name.endsWith('.svg') || typeof content !== 'string') continue;
+      try {
+        files[name.replace(/\.svg$/, '.png')] = await svgToPng(content);
+      } catch (e) {
+        this.say(`${name}: no PNG (${(e as Error).message}); the SVG is in the archive`, 'error');
+      }
+    }
+    download(`batch-${stamp}.zip`, zipExports(files), 'application/zip');
   }
 
   // ---- views ----------------------------------------------------------------------------
@@ -623,11 +662,42 @@ export class StrataBatchPanel extends LitElement {
         ${pooled.weightedTopPeriodNm ? html`Weighted mean ${f(pooled.weightedTopPeriodNm.mean)} ± ${f(pooled.weightedTopPeriodNm.uncertainty)} nm.` : nothing}
         ${pooled.sheetThicknessNm ? html`Sheets: ${pooled.sheetCount}, thickness ${f(pooled.sheetThicknessNm.mean, 2)} ± ${f(pooled.sheetThicknessNm.sd, 2)} nm (sd).` : nothing}</p>
       <div class="hists">${Object.values(hists).map((s) => unsafeSVG(s))}</div>
+      ${this.renderComparison(results)}
       <div class="row">
-        <button class="export-zip" @click=${() => this.exportZip()}>Download all exports (zip)</button>
-        <span class="muted">CSV, JSON, recipe${this.rows.some((r) => r.figurePng) ? ', figures' : ''}${Object.keys(hists).length ? ', histograms' : ''}</span>
+        <button class="export-zip" @click=${() => void this.exportZip()}>Download all exports (zip)</button>
+        <span class="muted">CSV, JSON, recipe${this.rows.some((r) => r.figurePng) ? ', figures' : ''}${Object.keys(hists).length ? ', histograms (SVG and PNG)' : ''}${this.compareSetId ? ', diffraction comparison' : ''}</span>
       </div>
     </section>`;
+  }
+
+  private renderComparison(results: FileResult[]) {
+    const cmp = this.comparison(results);
+    const r = cmp?.c.reconciliation;
+    return html`<div class="compare">
+      <div class="row">
+        <label>Compare with a diffraction set
+          <select class="compare-set" @focus=${() => void this.refreshDiffractionSets()} @change=${(e: Event) => { this.compareSetId = (e.target as HTMLSelectElement).value; }}>
+            <option value="" ?selected=${!this.compareSetId}>none</option>
+            ${this.diffractionSets.map((d) => html`<option value=${d.id} ?selected=${d.id === this.compareSetId}>${d.name}</option>`)}
+          </select>
+        </label>
+        ${this.diffractionSets.length ? nothing : html`<span class="muted">Save a set in the Diffraction tab first.</span>`}
+      </div>
+      ${cmp && r
+        ? html`<table class="comparison">
+            <thead><tr><th>period ± u (nm)</th><th>periods / images</th><th>line</th><th>d ± u (nm)</th><th>z</th></tr></thead>
+            <tbody>${cmp.c.groups.map((g, i) => {
+              const b = r.best[i];
+              return html`<tr><td>${f(g.periodNm, 4)} ± ${f(g.uncertaintyNm, 4)}</td><td>${g.n} / ${g.files.length}</td>
+                <td>${b?.label ?? 'no match'}</td><td>${b ? `${f(b.dNm, 4)} ± ${f(b.dUncNm, 4)}` : '—'}</td><td>${b ? f(b.z, 2) : '—'}</td></tr>`;
+            })}</tbody>
+          </table>
+          ${r.thickness ? html`<p class="muted">${r.thickness.note}</p>` : nothing}
+          ${r.calibration ? html`<p class="muted">Proposed, not applied: multiply nm/px by ${f(r.calibration.factor, 4)} ± ${f(r.calibration.factorUnc, 4)} (${r.calibration.reason}).</p>` : nothing}
+          ${r.notes.map((n) => html`<p class="muted">${n}</p>`)}
+          <div class="hists">${unsafeSVG(cmp.svg)}</div>`
+        : nothing}
+    </div>`;
   }
 
   private renderEarlier() {

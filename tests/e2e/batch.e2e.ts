@@ -234,3 +234,44 @@ test('the scale-bar route reads each bar in the workers; spectrum periods and sh
   await shoot('7-scale-bar.png');
   expect(errors).toEqual([]);
 });
+
+test('the batch against a stored diffraction set: matched periods, comparison CSV and every figure as SVG and PNG', async () => {
+  // Demo truth (demo-data/index.json): the pattern holds the lamellar 001 at 3.9 nm and the clay
+  // 001 at 1.25 nm, the periods of the mesophase and of the tactoids in the batch above.
+  await app().locator('[role="tab"]', { hasText: 'Diffraction' }).click();
+  const xrd = s.page.locator('strata-diffraction-panel');
+  await xrd.locator('input[type="file"]').setInputFiles({ name: 'tactoid-film_CuKa.xy', mimeType: 'text/plain', buffer: readFileSync('demo-data/tactoid-film_CuKa.xy') });
+  await expect.poll(() => xrd.evaluate((el) => ((el as unknown as { analysis: { peaks: unknown[] } | null }).analysis?.peaks.length ?? 0)), { timeout: 60_000 }).toBeGreaterThan(2);
+  await xrd.locator('button', { hasText: 'Save set' }).click();
+  await app().locator('[role="tab"]', { hasText: 'Batch' }).click();
+  const select = panel().locator('select.compare-set');
+  await select.focus();
+  await expect.poll(() => select.locator('option').count()).toBe(2);
+  await select.selectOption({ label: 'tactoid-film_CuKa.xy' });
+  const rows = panel().locator('table.comparison tbody tr');
+  const table = async () => rows.evaluateAll((trs) => trs.map((tr) => [...tr.querySelectorAll('td')].map((td) => td.textContent?.trim() ?? '')));
+  const matched = async (d: number) => {
+    const near = async () => (await table()).find((c) => Math.abs(Number(c[0].split('±')[0]) - d) < 0.1 * d);
+    await expect.poll(async () => !!(await near()), { timeout: 30_000 }).toBe(true);
+    const row = await near();
+    expect(row, `a period near ${d} nm`).toBeTruthy();
+    expect(row![2]).not.toBe('no match');
+    expect(Math.abs(Number(row![4]))).toBeLessThan(3);
+  };
+  // the batch shown (scale-bar route): the mesophase's 3.9 nm
+  await matched(3.9);
+  // the first batch (newest first, so the last in the list): the fringes of the tactoids, 1.25 nm
+  await panel().locator('table.earlier tr').last().locator('button', { hasText: 'Show' }).click();
+  await matched(1.25);
+  const cells = await table();
+  expect(await panel().locator('.compare svg path.period').count()).toBe(cells.length);
+  await shoot('8-diffraction.png');
+  const [dl] = await Promise.all([s.page.waitForEvent('download'), panel().locator('button.export-zip').click()]);
+  const zip = unzipSync(new Uint8Array(readFileSync((await dl.path())!)));
+  for (const name of ['diffraction/comparison.csv', 'diffraction/overlay.svg', 'diffraction/overlay.png', 'histograms/top-period.png']) expect(Object.keys(zip)).toContain(name);
+  // PNG signature (ISO/IEC 15948 §5.2)
+  expect([...zip['diffraction/overlay.png'].subarray(0, 8)]).toEqual([137, 80, 78, 71, 13, 10, 26, 10]);
+  expect(strFromU8(zip['diffraction/comparison.csv']).split('\r\n')[0]).toContain('period_nm');
+  expect(foreignRequests(s.requests, s.url)).toEqual([]);
+  expect(errors).toEqual([]);
+});
