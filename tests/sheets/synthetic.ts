@@ -3,18 +3,10 @@
  * Scenario: clay tactoids (stacks of ≈1 nm silicate layers) dispersed in a polymer film.
  */
 import { makeGreyImage, type GreyImage } from '../../src/image/grey-image';
+import { rng } from '../../src/synthetic/random';
 
-/** Mulberry32 seeded generator in [0, 1). */
-export function rng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
+// The project's seeded uniform generator (Mulberry32), also re-exported for the sheet tests and bench.
+export { rng };
 
 /** Standard normal deviate (Box–Muller). */
 export function gauss(r: () => number): number {
