@@ -4,6 +4,7 @@
 import { readFileSync, readdirSync } from 'node:fs';
 import { join } from 'node:path';
 import { describe, expect, test } from 'vitest';
+import { compareBatchWithDiffraction, diffractionOverlaySvg } from '../../src/batch/compare';
 import { histogramSvg } from '../../src/batch/figure';
 
 /** The CSP of an HTML page's meta tag, as directive → sources. */
@@ -60,9 +61,13 @@ function filesIn(dir: string, ext: RegExp): string[] {
 
 /**
  * The raw-markup uses that are known and checked: the batch panel shows the histograms that
- * histogramSvg writes, whose only text is escaped (tested below).
+ * histogramSvg writes and the overlay that diffractionOverlaySvg writes, whose only text is
+ * escaped (tested below).
  */
-const CHECKED_RAW_MARKUP = [/^components\/batch-panel\.ts: *(import \{ unsafeSVG \}|<div class="hists">\$\{Object\.values\(hists\)\.map\(\(s\) => unsafeSVG\(s\)\)\})/];
+const CHECKED_RAW_MARKUP = [
+  /^components\/batch-panel\.ts: *(import \{ unsafeSVG \}|<div class="hists">\$\{Object\.values\(hists\)\.map\(\(s\) => unsafeSVG\(s\)\)\})/,
+  /^components\/batch-panel\.ts: *<div class="hists">\$\{unsafeSVG\(cmp\.svg\)\}<\/div>`$/,
+];
 
 describe('file names and other user text are never written as HTML', () => {
   test('no component uses innerHTML, outerHTML, insertAdjacentHTML, document.write, unsafeHTML or unsafeSVG beyond the checked ones (lit escapes text bindings)', () => {
@@ -83,6 +88,14 @@ describe('file names and other user text are never written as HTML', () => {
     expect(svg).not.toMatch(/<img|<script/);
     expect(svg).toContain('film &lt;img src=x onerror=alert(1)&gt; &amp; &quot;co&quot;');
   });
+});
+
+test('diffractionOverlaySvg escapes the set name and the line labels (XML 1.0 §2.4)', () => {
+  const side = { lines: [{ dNm: 1.25, dUncNm: 0.001, label: '<img src=x onerror=alert(1)>' }], series: [] };
+  const c = compareBatchWithDiffraction([], side);
+  const svg = diffractionOverlaySvg(c, side, 'set "a" <script>x</script> & b');
+  expect(svg).not.toMatch(/<img|<script/);
+  expect(svg).toContain('set &quot;a&quot; &lt;script&gt;x&lt;/script&gt; &amp; b');
 });
 
 describe('no code fetches from another origin', () => {
