@@ -99,7 +99,8 @@ export class StrataApp extends LitElement {
   activeTab = 'library';
   libraryRevision = 0;
   dragging = false;
-  shapes: OverlayShape[] = [];
+  /** Overlay shapes by the panel (tab id) that sent them; the viewer shows the active tab's. */
+  shapes: Map<string, OverlayShape[]> = new Map();
   line: LineDrawnDetail | null = null;
   rect: RectDrawnDetail | null = null;
 
@@ -293,7 +294,7 @@ export class StrataApp extends LitElement {
       this.histogram = histogram;
       this.image = image;
       this.record = record;
-      this.shapes = [];
+      this.shapes = new Map();
       this.line = null;
       this.rect = null;
       // The measuring engine (opencv.js, about 11 MB) starts in the worker while the user looks.
@@ -340,7 +341,13 @@ export class StrataApp extends LitElement {
     const detail = (e as CustomEvent).detail;
     switch (e.type) {
       case 'status-message': this.say(String(detail?.text ?? ''), detail?.kind === 'error' ? 'error' : 'info'); break;
-      case 'overlay-shapes': this.shapes = Array.isArray(detail?.shapes) ? detail.shapes : []; break;
+      case 'overlay-shapes': {
+        // each panel keeps its own overlay, so a panel working in the background (the Periods
+        // panel analysing a line drawn for the Sheets panel) never replaces what the user looks at
+        const tab = (e.target as HTMLElement | null)?.closest?.('[role="tabpanel"]')?.id.replace(/^panel-/, '') ?? this.activeTab;
+        this.shapes = new Map(this.shapes).set(tab, Array.isArray(detail?.shapes) ? detail.shapes : []);
+        break;
+      }
       case 'calibration-changed': void this.onCalibrationChanged(detail?.calibration ?? null); break;
       case 'library-changed': this.libraryRevision++; void this.refreshStorage(); break;
       case 'open-image': void this.openStored(String(detail?.id)); break;
@@ -430,7 +437,7 @@ export class StrataApp extends LitElement {
       <p class="message ${m?.kind ?? ''}" role=${m?.kind === 'error' ? 'alert' : 'status'}>${m?.text ?? ''}</p>
       <div class="work">
         ${this.image
-          ? html`<strata-viewer .image=${this.image} .levels=${this.levels} .histogram=${this.histogram} .shapes=${this.shapes}
+          ? html`<strata-viewer .image=${this.image} .levels=${this.levels} .histogram=${this.histogram} .shapes=${this.shapes.get(this.activeTab) ?? []}
               @line-drawn=${(e: CustomEvent<LineDrawnDetail>) => (this.line = e.detail)}
               @rect-drawn=${(e: CustomEvent<RectDrawnDetail>) => (this.rect = e.detail)}></strata-viewer>`
           : this.renderStart()}

@@ -125,6 +125,11 @@ test('a 25 px line across a tactoid counts its layers', async () => {
   await expect.poll(async () => panel().evaluate((el) => (el as unknown as { lineResult: { sheets: unknown[] } | null }).lineResult?.sheets.length ?? -1)).toBeGreaterThanOrEqual(1);
   const layers = await panel().evaluate((el) => (el as unknown as { lineResult: { sheets: { layers: number }[] } }).lineResult.sheets.map((q) => q.layers));
   expect(layers).toEqual([8]);
+  // the overlay is the Sheets panel's (its sheets with their layer counts), not the Periods
+  // panel's analysis of the same line in the background
+  const labels = await viewer().evaluate((el) => (el as unknown as { shapes: { label?: string }[] }).shapes.map((q) => q.label ?? ''));
+  expect(labels.some((l) => / L$/.test(l))).toBe(true);
+  expect(labels.some((l) => l.startsWith('profile'))).toBe(false);
   await s.page.screenshot({ path: join(dir, 'line.png') });
   expect(errors).toEqual([]);
 });
