@@ -1,6 +1,6 @@
 import { decode } from 'fast-png';
 import { describe, expect, test } from 'vitest';
-import { annotatedFigure, annotatedFigurePng, histogramSvg, lengthLabel, roundScaleBar } from '../../src/batch/figure';
+import { annotatedFigure, annotatedFigurePng, histogramPng, histogramSvg, lengthLabel, roundScaleBar } from '../../src/batch/figure';
 import type { FileResult } from '../../src/batch/run';
 import { makeGreyImage, type Calibration } from '../../src/image/grey-image';
 
@@ -87,5 +87,62 @@ describe('histogramSvg', () => {
     expect(counts).toEqual([6, 1, 1]);
     expect(svg).toContain('strongest period &lt;per image&gt;');
     expect(svg).toContain('period (nm)');
+  });
+});
+
+describe('histogramPng', () => {
+  // a skewed sample with one clear mode: bins of 0.1 nm from the smallest value, the 1.41–1.51 nm bin holds 9 of 20 values
+  const values = [1.21, 1.28, 1.33, 1.35, 1.38, 1.42, 1.43, 1.44, 1.45, 1.46, 1.47, 1.48, 1.49, 1.5, 1.52, 1.55, 1.58, 1.63, 1.71, 1.84];
+  const options = { xLabel: 'strongest period per image (nm)', title: '20 images', binWidth: 0.1 };
+
+  test('PNG signature, 960 × 600 8-bit grey at the default scale 2, 480 × 300 at scale 1', () => {
+    const bytes = histogramPng(values, options);
+    // PNG signature: 137 80 78 71 13 10 26 10 (ISO/IEC 15948:2004 §5.2)
+    expect([...bytes.subarray(0, 8)]).toEqual([137, 80, 78, 71, 13, 10, 26, 10]);
+    const png = decode(bytes);
+    expect([png.width, png.height, png.channels, png.depth]).toEqual([960, 600, 1, 8]);
+    const one = decode(histogramPng(values, { ...options, scale: 1 }));
+    expect([one.width, one.height]).toEqual([480, 300]);
+  });
+
+  test('the tallest bar of the SVG is dark in the PNG from its top to the axis, white above', () => {
+    const svg = histogramSvg(values, options);
+    const bars = [...svg.matchAll(/<rect class="bar" x="([\d.]+)" y="([\d.]+)" width="([\d.]+)" height="([\d.]+)"[^>]*data-count="(\d+)"/g)].map((m) => m.slice(1).map(Number));
+    const [x, y, w, h, count] = bars.reduce((a, b) => (b[4] > a[4] ? b : a));
+    expect(count).toBe(9);
+    const png = decode(histogramPng(values, options));
+    const at = (px: number, py: number) => png.data[py * png.width + px];
+    const col = Math.round((x + w / 2) * 2);
+    const topPx = Math.ceil(y * 2) + 1;
+    const axisPx = Math.floor((y + h) * 2) - 1;
+    for (let py = topPx; py <= axisPx; py++) expect(at(col, py), `row ${py}`).toBeLessThan(160);
+    // the axis line itself is black, the plot area above the bar white
+    expect(at(col, Math.round((y + h) * 2))).toBeLessThan(40);
+    expect(at(col, topPx - 4)).toBe(255);
+    // a column beside the plot, between the count labels, is background
+    expect(at(960 - 4, 300)).toBe(255);
+  });
+
+  test('labels are drawn: ink under the plot (ticks, x label) and in the title band', () => {
+    const png = decode(histogramPng(values, options));
+    const inkIn = (y0: number, y1: number) => {
+      let n = 0;
+      for (let py = y0; py < y1; py++) for (let px = 0; px < png.width; px++) if (png.data[py * png.width + px] < 128) n++;
+      return n;
+    };
+    // SVG layout: title baseline at 20, x axis at 250, ticks at 266, x label at 288 (× 2)
+    expect(inkIn(10, 46)).toBeGreaterThan(100);
+    expect(inkIn(512, 540)).toBeGreaterThan(100);
+    expect(inkIn(550, 590)).toBeGreaterThan(300);
+    const untitled = decode(histogramPng(values, { xLabel: 'period (nm)', binWidth: 0.1 }));
+    let titleInk = 0;
+    for (let i = 0; i < 20 * 960; i++) if (untitled.data[i] < 128) titleInk++;
+    expect(titleInk).toBe(0);
+  });
+
+  test('bad scale and bad values are rejected by name', () => {
+    expect(() => histogramPng(values, { ...options, scale: 0 })).toThrow(/scale/);
+    expect(() => histogramPng(values, { ...options, scale: Number.NaN })).toThrow(/scale/);
+    expect(() => histogramPng([], options)).toThrow(/value/);
   });
 });
