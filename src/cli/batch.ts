@@ -13,7 +13,7 @@ import { basename, dirname, extname, join, resolve } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import { isMainThread, parentPort, Worker, workerData } from 'node:worker_threads';
 import { batchJson, pooledStats, resultsCsv, summaryCsv, zipExports } from '../batch/export';
-import { annotatedFigurePng, histogramSvg } from '../batch/figure';
+import { annotatedFigurePng, histogramPng, histogramSvg } from '../batch/figure';
 import { canonicalRecipeJson, defaultRecipe, parseRecipe, RecipeError, type Recipe } from '../batch/recipe';
 import { missingTools, processOne, type BatchDeps, type FileResult } from '../batch/run';
 import { emptyState, isFinished, parseState, recordFileName, STATE_FILE_NAME, withEntry, type BatchState } from '../batch/state';
@@ -509,9 +509,13 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
   if (figuresDir) {
     const pooled = pooledStats(ordered);
     const tops = ordered.flatMap((r) => (r.summary.topPeriods[0] ? [r.summary.topPeriods[0].periodNm] : []));
-    if (tops.length) await put(join(figuresDir, 'histogram-top-period-nm.svg'), histogramSvg(tops, { xLabel: 'strongest period per image (nm)', title: `${tops.length} images` }), 'figures/histogram-top-period-nm.svg');
+    const topsHist = { xLabel: 'strongest period per image (nm)', title: `${tops.length} images` };
+    if (tops.length) await put(join(figuresDir, 'histogram-top-period-nm.svg'), histogramSvg(tops, topsHist), 'figures/histogram-top-period-nm.svg');
+    if (tops.length) await put(join(figuresDir, 'histogram-top-period-nm.png'), histogramPng(tops, topsHist), 'figures/histogram-top-period-nm.png');
     const sheets = ordered.flatMap((r) => r.summary.sheetThicknessNm);
-    if (sheets.length) await put(join(figuresDir, 'histogram-sheet-thickness-nm.svg'), histogramSvg(sheets, { xLabel: 'sheet thickness (nm)', title: `${pooled.sheetCount} sheets` }), 'figures/histogram-sheet-thickness-nm.svg');
+    const sheetsHist = { xLabel: 'sheet thickness (nm)', title: `${pooled.sheetCount} sheets` };
+    if (sheets.length) await put(join(figuresDir, 'histogram-sheet-thickness-nm.svg'), histogramSvg(sheets, sheetsHist), 'figures/histogram-sheet-thickness-nm.svg');
+    if (sheets.length) await put(join(figuresDir, 'histogram-sheet-thickness-nm.png'), histogramPng(sheets, sheetsHist), 'figures/histogram-sheet-thickness-nm.png');
     if (recipe.outputs.zip) {
       for (const r of ordered) {
         const p = join(figuresDir, figureName(r.file));
@@ -537,7 +541,7 @@ Runs a recipe on every image in FOLDER (${IMAGE_EXTENSIONS.join(' ')}; not recur
                       recipe turns csv off); its folder also gets FILE-summary.csv (one row per
                       image), ${STATE_FILE_NAME} and records/ (the resume state)
   --json-out FILE     full results and pooled statistics as JSON
-  --figures DIR       an annotated PNG per image (scale bar, periods) and SVG histograms
+  --figures DIR       an annotated PNG per image (scale bar, periods) and SVG and PNG histograms
   --jobs N            worker threads (default: the number of cores)
 
 A re-run with the same output folder skips every file already finished with the same bytes and
