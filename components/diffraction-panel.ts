@@ -5,6 +5,7 @@ import { LitElement, css, html, nothing, svg, type TemplateResult } from 'lit';
 import type { PatternAnalysis } from '../src/diffraction/analyse';
 import type { ComputeClient } from './compute-client';
 import { diffractionSetRecord } from '../src/diffraction/stored-set';
+import { listBatchFiles, listBatches } from '../src/store/batches';
 import { listMeasurements, putDiffractionSet, type LibraryDb } from '../src/store/library';
 import { dToTwoTheta, parseWavelength, XRAY_LINES } from '../src/diffraction/bragg';
 import { parsePattern, parsePeakList, type ManualPeak, type Pattern, type PeakListUnit } from '../src/diffraction/pattern';
@@ -149,14 +150,25 @@ export class StrataDiffractionPanel extends LitElement {
     return (this.periods ?? []).filter((p) => p.periodNm > 0 && p.uncertaintyNm >= 0);
   }
 
-  /** Takes every calibrated period saved in the library as the micrograph side of the comparison. */
+  /**
+   * Takes every calibrated period of the library as the micrograph side of the comparison: the
+   * measurements saved from the Periods panel and the accepted periods of every batch's files.
+   */
   private async loadLibraryPeriods(): Promise<void> {
     if (!this.db) return;
     const all = await listMeasurements(this.db);
-    this.periods = all.flatMap((m) => m.periodicities
+    const saved = all.flatMap((m) => m.periodicities
       .filter((p) => p.periodNm !== null && p.uncertaintyNm !== null)
       .map((p) => ({ periodNm: p.periodNm as number, uncertaintyNm: p.uncertaintyNm as number, label: `${m.fileName} · ${p.angleDeg.toFixed(0)}°` })));
-    this.emit('status-message', { text: `${this.periods.length} calibrated periods taken from the library`, kind: 'info' });
+    const batched: MicrographPeriod[] = [];
+    for (const b of await listBatches(this.db)) {
+      for (const f of await listBatchFiles(this.db, b.id)) {
+        if (f.result?.status !== 'ok') continue;
+        for (const p of f.result.summary.topPeriods) batched.push({ periodNm: p.periodNm, uncertaintyNm: p.uncertaintyNm, label: `${b.name} · ${f.name} · ${p.angleDeg.toFixed(0)}°` });
+      }
+    }
+    this.periods = [...saved, ...batched];
+    this.emit('status-message', { text: `${this.periods.length} calibrated periods taken from the library (${saved.length} saved, ${batched.length} from batches)`, kind: 'info' });
   }
 
   private onManual(text: string): void {
@@ -363,7 +375,7 @@ export class StrataDiffractionPanel extends LitElement {
       </section>` : nothing}
       <section>
         <div class="row">
-          <button ?disabled=${!this.db} @click=${() => this.loadLibraryPeriods()} title="Use every calibrated period saved in the library (Periods panel) as the real-space side">Take periods from the library</button>
+          <button ?disabled=${!this.db} @click=${() => this.loadLibraryPeriods()} title="Use every calibrated period of the library (saved in the Periods panel, or from a batch) as the real-space side">Take periods from the library</button>
           <span class="muted">${this.periods.length} micrograph period${this.periods.length === 1 ? '' : 's'}</span>
         </div>
       </section>

@@ -243,6 +243,9 @@ test('the batch against a stored diffraction set: matched periods, comparison CS
   await xrd.locator('input[type="file"]').setInputFiles({ name: 'tactoid-film_CuKa.xy', mimeType: 'text/plain', buffer: readFileSync('demo-data/tactoid-film_CuKa.xy') });
   await expect.poll(() => xrd.evaluate((el) => ((el as unknown as { analysis: { peaks: unknown[] } | null }).analysis?.peaks.length ?? 0)), { timeout: 60_000 }).toBeGreaterThan(2);
   await xrd.locator('button', { hasText: 'Save set' }).click();
+  // the Diffraction tab also sees the periods of the batches' files
+  await xrd.locator('button', { hasText: 'Take periods from the library' }).click();
+  await expect.poll(() => xrd.evaluate((el) => (el as unknown as { periods: { label?: string }[] }).periods.filter((p) => p.label?.includes('tactoid-fringes_hr.tif')).length)).toBeGreaterThan(0);
   await app().locator('[role="tab"]', { hasText: 'Batch' }).click();
   const select = panel().locator('select.compare-set');
   await select.focus();
