@@ -201,14 +201,8 @@ export interface HistogramSvgOptions {
   integer?: boolean;
 }
 
-/**
- * A histogram as a small stand-alone SVG document.
- *
- * @param values the sample (finite, at least one)
- * @param options labels and binning (Freedman & Diaconis 1981 by default, via `histogram`)
- * @returns SVG text, 480 × 300 user units, one rect per non-empty bin
- */
-export function histogramSvg(values: ArrayLike<number>, options: HistogramSvgOptions): string {
+/** The layout of a histogram figure in SVG user units, shared by the SVG and the PNG. */
+function histogramLayout(values: ArrayLike<number>, options: HistogramSvgOptions) {
   const h = histogram(values, { binWidth: options.binWidth, integer: options.integer, maxBins: 60 });
   const W = 480;
   const H = 300;
@@ -223,6 +217,18 @@ export function histogramSvg(values: ArrayLike<number>, options: HistogramSvgOpt
   const maxCount = Math.max(...h.counts);
   const sx = (x: number) => left + ((x - x0) / (x1 - x0)) * pw;
   const sy = (c: number) => top + ph - (c / maxCount) * ph;
+  return { h, W, H, left, top, pw, ph, x0, x1, maxCount, sx, sy };
+}
+
+/**
+ * A histogram as a small stand-alone SVG document.
+ *
+ * @param values the sample (finite, at least one)
+ * @param options labels and binning (Freedman & Diaconis 1981 by default, via `histogram`)
+ * @returns SVG text, 480 × 300 user units, one rect per non-empty bin
+ */
+export function histogramSvg(values: ArrayLike<number>, options: HistogramSvgOptions): string {
+  const { h, W, H, left, top, pw, ph, x0, x1, maxCount, sx, sy } = histogramLayout(values, options);
   const parts: string[] = [
     `<svg xmlns="http://www.w3.org/2000/svg" width="${W}" height="${H}" viewBox="0 0 ${W} ${H}" font-family="sans-serif" font-size="12">`,
     `<rect width="${W}" height="${H}" fill="white"/>`,
@@ -313,21 +319,8 @@ function svgText(r: Raster, text: string, x: number, baselineY: number, emPx: nu
 export function histogramPng(values: ArrayLike<number>, options: HistogramPngOptions): Uint8Array {
   const s = options?.scale ?? 2;
   if (!(Number.isFinite(s) && s > 0 && s <= 16)) throw new RangeError(`scale must be a number in (0, 16], got ${options?.scale}`);
-  const h = histogram(values, { binWidth: options.binWidth, integer: options.integer, maxBins: 60 });
   // layout in SVG user units, exactly as histogramSvg
-  const W = 480;
-  const H = 300;
-  const left = 50;
-  const right = 15;
-  const top = options.title ? 35 : 15;
-  const bottom = 50;
-  const pw = W - left - right;
-  const ph = H - top - bottom;
-  const x0 = h.edges[0];
-  const x1 = h.edges[h.edges.length - 1];
-  const maxCount = Math.max(...h.counts);
-  const sx = (x: number) => left + ((x - x0) / (x1 - x0)) * pw;
-  const sy = (c: number) => top + ph - (c / maxCount) * ph;
+  const { h, W, H, left, top, pw, ph, x0, x1, maxCount, sx, sy } = histogramLayout(values, options);
   const width = Math.max(1, Math.round(W * s));
   const height = Math.max(1, Math.round(H * s));
   const r: Raster = { width, height, data: new Float32Array(width * height).fill(255) };
