@@ -55,3 +55,19 @@ export function foreignRequests(requests: string[], url: string): string[] {
   const origin = new URL(url).origin;
   return requests.filter((r) => !r.startsWith(origin) && !r.startsWith('data:') && !r.startsWith('blob:'));
 }
+
+/** Waits two animation frames, so that what a change draws is on screen. */
+export async function nextFrames(page: Page): Promise<void> {
+  await page.evaluate(() => new Promise((r) => requestAnimationFrame(() => requestAnimationFrame(r))));
+}
+
+/** Image pixel → page coordinates through the viewer's current zoom and centre. */
+export async function imageToPage(page: Page, x: number, y: number): Promise<[number, number]> {
+  const viewer = page.locator('strata-viewer');
+  const st = await viewer.evaluate((el) => {
+    const v = el as unknown as { zoom: number; cx: number; cy: number };
+    return { zoom: v.zoom, cx: v.cx, cy: v.cy };
+  });
+  const box = (await viewer.locator('.stage').boundingBox())!;
+  return [box.x + box.width / 2 + (x - st.cx) * st.zoom, box.y + box.height / 2 + (y - st.cy) * st.zoom];
+}

@@ -6,7 +6,7 @@ import { mkdtempSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, expect, test } from 'vitest';
-import { foreignRequests, openSession, type Session } from './browser';
+import { foreignRequests, openSession, type Session, nextFrames, imageToPage } from './browser';
 
 let s: Session;
 const dir = mkdtempSync(join(tmpdir(), 'strata-measure-'));
@@ -33,19 +33,9 @@ const panelState = () => panel().evaluate((el) => {
   return JSON.parse(JSON.stringify({ spots: p.spots, spectrum: p.spectrum && { width: p.spectrum.width, height: p.spectrum.height, binsPerPicturePx: p.spectrum.binsPerPicturePx, picture: { width: p.spectrum.picture.width, height: p.spectrum.picture.height } }, profile: p.profile && { spectral: p.profile.spectral, realSpace: p.profile.realSpace }, spectrumBusy: p.spectrumBusy, profileBusy: p.profileBusy })) as PanelState;
 });
 
-async function settle() {
-  await s.page.evaluate(() => new Promise((r) => requestAnimationFrame(() => requestAnimationFrame(r))));
-}
+const settle = () => nextFrames(s.page);
 
-/** Image pixel → page coordinates through the viewer's current zoom and centre. */
-async function toPage(x: number, y: number): Promise<[number, number]> {
-  const st = await viewer().evaluate((el) => {
-    const v = el as unknown as { zoom: number; cx: number; cy: number };
-    return { zoom: v.zoom, cx: v.cx, cy: v.cy };
-  });
-  const box = (await viewer().locator('.stage').boundingBox())!;
-  return [box.x + box.width / 2 + (x - st.cx) * st.zoom, box.y + box.height / 2 + (y - st.cy) * st.zoom];
-}
+const toPage = (x: number, y: number) => imageToPage(s.page, x, y);
 
 async function drag(from: [number, number], to: [number, number]) {
   await s.page.mouse.move(from[0], from[1]);

@@ -8,16 +8,14 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, expect, test } from 'vitest';
 import { encodeTiff } from '../../src/image/encode-tiff';
-import { foreignRequests, openSession, type Session } from './browser';
+import { foreignRequests, openSession, type Session, nextFrames } from './browser';
 
 let s: Session;
 const errors: string[] = [];
 const cspConsole: string[] = [];
 const app = () => s.page.locator('strata-app');
 
-async function settle() {
-  await s.page.evaluate(() => new Promise((r) => requestAnimationFrame(() => requestAnimationFrame(r))));
-}
+const settle = () => nextFrames(s.page);
 
 /** Opens a demo from the start screen and waits until the viewer has drawn it. */
 async function openDemo(title: string) {

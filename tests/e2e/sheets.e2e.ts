@@ -5,7 +5,7 @@ import { mkdtempSync, readFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, expect, test } from 'vitest';
-import { openSession, type Session } from './browser';
+import { openSession, type Session, nextFrames, imageToPage } from './browser';
 
 let s: Session;
 const dir = mkdtempSync(join(tmpdir(), 'strata-sheets-'));
@@ -25,19 +25,9 @@ const panelSheets = () => panel().evaluate((el) => {
   return JSON.parse(JSON.stringify(p.sheets.map((q) => ({ status: q.status, layers: q.layers, thicknessNm: q.thicknessNm, center: [(q.across[0][0] + q.across[1][0]) / 2, (q.across[0][1] + q.across[1][1]) / 2] })))) as PanelSheet[];
 });
 
-async function settle() {
-  await s.page.evaluate(() => new Promise((r) => requestAnimationFrame(() => requestAnimationFrame(r))));
-}
+const settle = () => nextFrames(s.page);
 
-/** Image pixel → page coordinates through the viewer's current zoom and centre. */
-async function toPage(x: number, y: number): Promise<[number, number]> {
-  const st = await viewer().evaluate((el) => {
-    const v = el as unknown as { zoom: number; cx: number; cy: number };
-    return { zoom: v.zoom, cx: v.cx, cy: v.cy };
-  });
-  const box = (await viewer().locator('.stage').boundingBox())!;
-  return [box.x + box.width / 2 + (x - st.cx) * st.zoom, box.y + box.height / 2 + (y - st.cy) * st.zoom];
-}
+const toPage = (x: number, y: number) => imageToPage(s.page, x, y);
 
 /** The true tactoid nearest a point, when within half its length (the bench's matching rule). */
 function tactoidAt(x: number, y: number): Tactoid | null {

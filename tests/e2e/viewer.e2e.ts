@@ -6,7 +6,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, expect, test } from 'vitest';
 import { encodeTiff } from '../../src/image/encode-tiff';
-import { foreignRequests, openSession, type Session } from './browser';
+import { foreignRequests, openSession, type Session, nextFrames } from './browser';
 
 let s: Session;
 const dir = mkdtempSync(join(tmpdir(), 'strata-viewer-'));
@@ -31,9 +31,7 @@ const viewerState = () => viewer().evaluate((el) => {
   return { zoom: v.zoom, cx: v.cx, cy: v.cy, level: Number(v.dataset.level) };
 });
 
-async function settle() {
-  await s.page.evaluate(() => new Promise((r) => requestAnimationFrame(() => requestAnimationFrame(r))));
-}
+const settle = () => nextFrames(s.page);
 
 beforeAll(async () => {
   s = await openSession();
