@@ -4,8 +4,10 @@
  * the comparison as CSV and as an SVG overlay on a q axis.
  */
 import { reconcile, type DiffractionSide, type MicrographSide, type Reconciliation } from '../diffraction/reconcile';
-import { summarize } from '../measure/stats';
+import { dToQ } from '../diffraction/bragg';
+import { quantile, summarize } from '../measure/stats';
 import { csvField } from './export';
+import { escapeXml } from './figure';
 import type { FileResult } from './run';
 
 /** One distinct period of a batch: the accepted periods of its images that lie together. */
@@ -30,12 +32,6 @@ export interface BatchPeriodGroup {
 export interface BatchPeriodGroupOptions {
   /** Neighbouring periods (sorted) more than this fraction apart start a new group (default 0.04). */
   relGap?: number;
-}
-
-function median(v: number[]): number {
-  const s = [...v].sort((a, b) => a - b);
-  const m = s.length >> 1;
-  return s.length % 2 ? s[m] : 0.5 * (s[m - 1] + s[m]);
 }
 
 /**
@@ -75,7 +71,7 @@ export function batchPeriodGroups(results: FileResult[], options: BatchPeriodGro
     const n = g.length;
     const mean = g.reduce((s, x) => s + x.p, 0) / n;
     const sd = n > 1 ? Math.sqrt(g.reduce((s, x) => s + (x.p - mean) ** 2, 0) / (n - 1)) : 0;
-    const rel = median(g.map((x) => x.rel));
+    const rel = quantile(g.map((x) => x.rel), 0.5);
     // each member's own statistical part: its combined u without the calibration share
     const own = g.map((x) => Math.sqrt(Math.max(0, x.u * x.u - (x.rel * x.p) ** 2)));
     const ownMean = Math.sqrt(own.reduce((s, v) => s + v * v, 0) / n) / Math.sqrt(n);
@@ -95,7 +91,7 @@ export function batchMicrographSide(results: FileResult[], groups: BatchPeriodGr
   return {
     periods: groups.map((g) => ({ periodNm: g.periodNm, uncertaintyNm: g.uncertaintyNm, label: `${g.n} period${g.n === 1 ? '' : 's'} from ${g.files.length} image${g.files.length === 1 ? '' : 's'}` })),
     sheets: thickness ? { n: thickness.n, meanNm: thickness.mean, sdNm: thickness.sd, medianNm: thickness.median } : undefined,
-    calibrationRelUncertainty: rels.length ? median(rels) : undefined,
+    calibrationRelUncertainty: rels.length ? quantile(rels, 0.5) : undefined,
   };
 }
 
@@ -129,10 +125,6 @@ export function comparisonCsv(c: BatchComparison, setName: string): string {
   return `${[head, ...rows].map((r) => r.map(csvField).join(',')).join('\r\n')}\r\n`; // RFC 4180 line breaks, as the other tables
 }
 
-function esc(s: string): string {
-  return s.replace(/&/g, '&amp;').replace(/</g, '&lt;').replace(/>/g, '&gt;').replace(/"/g, '&quot;');
-}
-
 /**
  * The diffraction lines and the batch's periods on one q axis (q = 2π/d, nm⁻¹), as SVG.
  *
@@ -151,32 +143,32 @@ export function diffractionOverlaySvg(c: BatchComparison, diffraction: Diffracti
   const bottom = 50;
   const pw = W - left - right;
   const ph = H - top - bottom;
-  const qs = [...diffraction.lines.map((l) => (2 * Math.PI) / l.dNm), ...c.groups.map((g) => (2 * Math.PI) / g.periodNm)].filter(Number.isFinite);
+  const qs = [...diffraction.lines.map((l) => dToQ(l.dNm)), ...c.groups.map((g) => dToQ(g.periodNm))];
   const qMax = qs.length ? Math.max(...qs) * 1.08 : 10;
   const sx = (q: number) => left + (q / qMax) * pw;
   const maxI = Math.max(0, ...diffraction.lines.map((l) => l.intensity ?? 0));
   const parts: string[] = [
     `<svg xmlns="http://www.w3.org/2000/svg" width="${W}" height="${H}" viewBox="0 0 ${W} ${H}" font-family="sans-serif" font-size="11">`,
     `<rect width="${W}" height="${H}" fill="white"/>`,
-    `<text x="${W / 2}" y="20" text-anchor="middle" font-size="14">${esc(title)}</text>`,
+    `<text x="${W / 2}" y="20" text-anchor="middle" font-size="14">${escapeXml(title)}</text>`,
     `<line x1="${left}" y1="${top + ph}" x2="${left + pw}" y2="${top + ph}" stroke="black"/>`,
   ];
   for (const l of diffraction.lines) {
-    const x = sx((2 * Math.PI) / l.dNm);
+    const x = sx(dToQ(l.dNm));
     const hFrac = maxI > 0 && l.intensity ? Math.max(0.08, l.intensity / maxI) : 1;
     const y = top + ph - hFrac * ph;
-    parts.push(`<line class="line" x1="${x.toFixed(2)}" y1="${(top + ph).toFixed(2)}" x2="${x.toFixed(2)}" y2="${y.toFixed(2)}" stroke="#333" stroke-width="1.5"><title>${esc(`${l.label}: d = ${l.dNm.toFixed(4)} nm`)}</title></line>`);
-    parts.push(`<text x="${x.toFixed(2)}" y="${(y - 4).toFixed(2)}" text-anchor="middle" font-size="9">${esc(l.label)}</text>`);
+    parts.push(`<line class="line" x1="${x.toFixed(2)}" y1="${(top + ph).toFixed(2)}" x2="${x.toFixed(2)}" y2="${y.toFixed(2)}" stroke="#333" stroke-width="1.5"><title>${escapeXml(`${l.label}: d = ${l.dNm.toFixed(4)} nm`)}</title></line>`);
+    parts.push(`<text x="${x.toFixed(2)}" y="${(y - 4).toFixed(2)}" text-anchor="middle" font-size="9">${escapeXml(l.label)}</text>`);
   }
   c.groups.forEach((g, i) => {
-    const q = (2 * Math.PI) / g.periodNm;
-    const qLo = (2 * Math.PI) / (g.periodNm + g.uncertaintyNm);
-    const qHi = (2 * Math.PI) / Math.max(1e-9, g.periodNm - g.uncertaintyNm);
+    const q = dToQ(g.periodNm);
+    const qLo = dToQ(g.periodNm + g.uncertaintyNm);
+    const qHi = dToQ(Math.max(1e-9, g.periodNm - g.uncertaintyNm));
     const x = sx(q);
     const y = top + ph + 14;
     const b = c.reconciliation.best[i];
     parts.push(`<line x1="${sx(qLo).toFixed(2)}" y1="${y}" x2="${Math.min(left + pw, sx(qHi)).toFixed(2)}" y2="${y}" stroke="#c0392b"/>`);
-    parts.push(`<path class="period" d="M ${x.toFixed(2)} ${y - 6} l -5 9 h 10 z" fill="#c0392b"><title>${esc(`${g.periodNm.toFixed(4)} ± ${g.uncertaintyNm.toFixed(4)} nm from ${g.files.length} images${b ? `; ${b.label}, z = ${b.z.toFixed(2)}` : '; no match'}`)}</title></path>`);
+    parts.push(`<path class="period" d="M ${x.toFixed(2)} ${y - 6} l -5 9 h 10 z" fill="#c0392b"><title>${escapeXml(`${g.periodNm.toFixed(4)} ± ${g.uncertaintyNm.toFixed(4)} nm from ${g.files.length} images${b ? `; ${b.label}, z = ${b.z.toFixed(2)}` : '; no match'}`)}</title></path>`);
   });
   for (const q of [0, qMax / 2, qMax]) parts.push(`<text x="${sx(q).toFixed(2)}" y="${top + ph + 34}" text-anchor="middle">${Number(q.toPrecision(3))}</text>`);
   parts.push(`<text x="${left + pw / 2}" y="${H - 4}" text-anchor="middle">q = 2π/d (nm⁻¹); black: diffraction lines, red: micrograph periods ± u</text>`);

@@ -181,7 +181,8 @@ export function annotatedFigurePng(image: GreyImage, result: FileResult, regions
   return encode({ width: r.width, height: r.height, data: bytes, channels: 1, depth: 8 });
 }
 
-function esc(s: string): string {
+/** Text for an SVG or XML document: & < > " escaped (XML 1.0 §2.4). */
+export function escapeXml(s: string): string {
   return s.replace(/&/g, '&amp;').replace(/</g, '&lt;').replace(/>/g, '&gt;').replace(/"/g, '&quot;');
 }
 
@@ -233,7 +234,7 @@ export function histogramSvg(values: ArrayLike<number>, options: HistogramSvgOpt
     `<svg xmlns="http://www.w3.org/2000/svg" width="${W}" height="${H}" viewBox="0 0 ${W} ${H}" font-family="sans-serif" font-size="12">`,
     `<rect width="${W}" height="${H}" fill="white"/>`,
   ];
-  if (options.title) parts.push(`<text x="${W / 2}" y="20" text-anchor="middle" font-size="14">${esc(options.title)}</text>`);
+  if (options.title) parts.push(`<text x="${W / 2}" y="20" text-anchor="middle" font-size="14">${escapeXml(options.title)}</text>`);
   for (let i = 0; i < h.counts.length; i++) {
     if (h.counts[i] === 0) continue;
     const xa = sx(h.edges[i]);
@@ -248,7 +249,7 @@ export function histogramSvg(values: ArrayLike<number>, options: HistogramSvgOpt
   }
   parts.push(`<text x="${left - 6}" y="${top + 4}" text-anchor="end">${maxCount}</text>`);
   parts.push(`<text x="${left - 6}" y="${top + ph}" text-anchor="end">0</text>`);
-  parts.push(`<text x="${left + pw / 2}" y="${H - 12}" text-anchor="middle">${esc(options.xLabel)}</text>`);
+  parts.push(`<text x="${left + pw / 2}" y="${H - 12}" text-anchor="middle">${escapeXml(options.xLabel)}</text>`);
   parts.push(`<text transform="translate(14 ${top + ph / 2}) rotate(-90)" text-anchor="middle">count</text>`);
   parts.push('</svg>');
   return `${parts.join('\n')}\n`;

@@ -447,7 +447,7 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
                 break;
               }
             }
-            // Read and hash the next file while this one is measured, so the worker never waits.
+            // Take the next file (a finished one is read and hashed here to be skipped) while this one is measured.
             const prefetch = takeJob();
             let reply: WorkerReply;
             try {
