@@ -151,8 +151,8 @@ async function main(): Promise<void> {
           c.periodPx.toFixed(4),
           s.periodPx.toFixed(4),
           `${(e * 100).toFixed(4)} %`,
-          s.periodUncertaintyPx.toExponential(1),
-          (Math.abs(s.periodPx - c.periodPx) / s.periodUncertaintyPx).toFixed(2),
+          s.u.statisticalPx.toExponential(1),
+          (Math.abs(s.periodPx - c.periodPx) / s.u.statisticalPx).toFixed(2),
           c.angleDeg.toFixed(1),
           angleDiff(s.angleDeg, c.angleDeg).toFixed(4),
         ],
@@ -194,7 +194,7 @@ async function main(): Promise<void> {
       const s = nearest(m, c);
       if (!s) continue;
       errs.push(s.periodPx - periodPx);
-      us.push(s.periodUncertaintyPx);
+      us.push(s.u.statisticalPx);
     }
     const rms = Math.sqrt(errs.reduce((p, e) => p + e * e, 0) / errs.length);
     const mu = us.reduce((p, e) => p + e, 0) / us.length;

@@ -2,6 +2,7 @@
 // a pool of Web Workers. Each file's result is committed to the library as soon as it is ready,
 // so a batch interrupted by a reload resumes where it stopped. A per-file table, pooled
 // statistics, histograms and one zip of every export.
+import { budgetContents, expressPeriod, formatBudget, formatPlusMinus } from '../src/measure/measurement';
 import { LitElement, css, html, nothing } from 'lit';
 import { unsafeSVG } from 'lit/directives/unsafe-svg.js';
 import { batchJson, pooledStats, resultsCsv, summaryCsv, zipExports } from '../src/batch/export';
@@ -464,7 +465,7 @@ export class StrataBatchPanel extends LitElement {
 
   private histograms(results: FileResult[]): Record<string, string> {
     const ok = results.filter((r) => r.status === 'ok');
-    const tops = ok.map((r) => r.summary.topPeriods[0]?.periodNm).filter((v): v is number => v !== undefined);
+    const tops = ok.flatMap((r) => (r.summary.topPeriods[0] && r.calibration ? [expressPeriod(r.summary.topPeriods[0], r.calibration).value] : []));
     const sheets = ok.flatMap((r) => r.summary.sheetThicknessNm);
     const out: Record<string, string> = {};
     if (tops.length) out['top-period'] = histogramSvg(tops, { xLabel: 'strongest period (nm)', title: 'Strongest period per image' });
@@ -646,20 +647,20 @@ export class StrataBatchPanel extends LitElement {
     return html`<section aria-label="Summary">
       <h3>4 · Summary</h3>
       <table class="summary">
-        <thead><tr><th>file</th><th>nm/px (source)</th><th>top periods ± u (nm)</th><th>sheets</th><th>thickness ± sd (nm)</th></tr></thead>
+        <thead><tr><th>file</th><th>nm/px (source)</th><th>top periods ± U (nm, k = 2)</th><th>sheets</th><th>thickness ± sd (nm)</th></tr></thead>
         <tbody>${results.map((r) => html`<tr>
           <td>${r.file}</td>
           ${r.status === 'failed'
             ? html`<td class="reason" colspan="4">${r.reason}</td>`
             : html`<td>${calText(r)}</td>
-              <td>${r.summary.topPeriods.length ? r.summary.topPeriods.map((p) => html`<div>${f(p.periodNm)} ± ${f(p.uncertaintyNm)}</div>`) : '—'}</td>
+              <td>${r.summary.topPeriods.length && r.calibration ? r.summary.topPeriods.map((p) => { const b = expressPeriod(p, r.calibration); return html`<div title=${`contains: ${budgetContents(b)}`}>${formatPlusMinus(b.value, b.expanded)}</div>`; }) : '—'}</td>
               <td>${r.summary.sheetCount ?? '—'}</td>
               <td>${r.summary.meanThicknessNm === null ? '—' : `${f(r.summary.meanThicknessNm, 2)} ± ${f(r.summary.sdThicknessNm, 2)}`}</td>`}
         </tr>`)}</tbody>
       </table>
       <p class="pooled num">${pooled.files.ok} measured, ${pooled.files.failed} failed.
         ${pooled.topPeriodNm ? html`Strongest period: mean ${f(pooled.topPeriodNm.mean)} nm, sd ${f(pooled.topPeriodNm.sd)} nm (n = ${pooled.topPeriodNm.n}).` : nothing}
-        ${pooled.weightedTopPeriodNm ? html`Weighted mean ${f(pooled.weightedTopPeriodNm.mean)} ± ${f(pooled.weightedTopPeriodNm.uncertainty)} nm.` : nothing}
+        ${pooled.pooledTopPeriod ? html`Pooled: <span class="pooled-period">${formatBudget(pooled.pooledTopPeriod.budget)}</span>${Number.isFinite(pooled.pooledTopPeriod.birgeRatio) ? `, Birge ratio ${f(pooled.pooledTopPeriod.birgeRatio, 2)}` : ''}.` : nothing}
         ${pooled.sheetThicknessNm ? html`Sheets: ${pooled.sheetCount}, thickness ${f(pooled.sheetThicknessNm.mean, 2)} ± ${f(pooled.sheetThicknessNm.sd, 2)} nm (sd).` : nothing}</p>
       <div class="hists">${Object.values(hists).map((s) => unsafeSVG(s))}</div>
       ${this.renderComparison(results)}
@@ -685,10 +686,10 @@ export class StrataBatchPanel extends LitElement {
       </div>
       ${cmp && r
         ? html`<table class="comparison">
-            <thead><tr><th>period ± u (nm)</th><th>periods / images</th><th>line</th><th>d ± u (nm)</th><th>z</th></tr></thead>
+            <thead><tr><th>period ± U (nm)</th><th>periods / images</th><th>line</th><th>d ± u (nm)</th><th>z</th></tr></thead>
             <tbody>${cmp.c.groups.map((g, i) => {
               const b = r.best[i];
-              return html`<tr><td>${f(g.periodNm, 4)} ± ${f(g.uncertaintyNm, 4)}</td><td>${g.n} / ${g.files.length}</td>
+              return html`<tr><td title=${`k = ${g.budget.k}; contains: ${budgetContents(g.budget)}`}>${formatPlusMinus(g.budget.value, g.budget.expanded)}</td><td>${g.n} / ${g.sources.length}</td>
                 <td>${b?.label ?? 'no match'}</td><td>${b ? `${f(b.dNm, 4)} ± ${f(b.dUncNm, 4)}` : '—'}</td><td>${b ? f(b.z, 2) : '—'}</td></tr>`;
             })}</tbody>
           </table>

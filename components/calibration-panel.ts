@@ -1,6 +1,7 @@
 // The calibration side panel: set the image's pixel size from its burned-in scale bar (found
 // and read offline), two points on a feature of known length, a lattice standard, or a typed
 // value; shows a warning when the new value disagrees with the one in use.
+import { combinedPx } from '../src/measure/measurement';
 import { LitElement, css, html, nothing } from 'lit';
 import type { Calibration, GreyImage } from '../src/image/grey-image';
 import { findScaleBar, type ScaleBar } from '../src/calibration/scale-bar';
@@ -211,7 +212,7 @@ export class StrataCalibrationPanel extends LitElement {
         return;
       }
       this.periodPx = spot.periodPx.toPrecision(7);
-      this.periodUPx = spot.periodUncertaintyPx.toPrecision(3);
+      this.periodUPx = combinedPx(spot.u).toPrecision(3);
       this.say(`Strongest period in the region: ${this.periodPx} ± ${this.periodUPx} px at ${spot.angleDeg.toFixed(1)}°. Check that it is the reflection chosen above.`, 'info');
       this.fromStandard();
     } catch (e) {

@@ -1,6 +1,7 @@
 // The diffraction side panel: a powder XRD / SAXS pattern (file or typed peaks), its background
 // and fitted peaks on a 2θ, d or q axis, the peak table, and the micrograph periods drawn as
 // markers with uncertainty bands beside the reconciliation table.
+import { groupAndPoolPeriods, type SourcedPeriod } from '../src/measure/pool';
 import { LitElement, css, html, nothing, svg, type TemplateResult } from 'lit';
 import type { PatternAnalysis } from '../src/diffraction/analyse';
 import type { ComputeClient } from './compute-client';
@@ -157,18 +158,26 @@ export class StrataDiffractionPanel extends LitElement {
   private async loadLibraryPeriods(): Promise<void> {
     if (!this.db) return;
     const all = await listMeasurements(this.db);
-    const saved = all.flatMap((m) => m.periodicities
-      .filter((p) => p.periodNm !== null && p.uncertaintyNm !== null)
-      .map((p) => ({ periodNm: p.periodNm as number, uncertaintyNm: p.uncertaintyNm as number, label: `${m.fileName} · ${p.angleDeg.toFixed(0)}°` })));
-    const batched: MicrographPeriod[] = [];
+    const items: SourcedPeriod[] = all.flatMap((m) => m.periodicities.map((p) => ({ periodicity: p, calibration: m.calibration, source: m.fileName || m.id })));
+    const saved = items.length;
+    let batched = 0;
     for (const b of await listBatches(this.db)) {
       for (const f of await listBatchFiles(this.db, b.id)) {
-        if (f.result?.status !== 'ok') continue;
-        for (const p of f.result.summary.topPeriods) batched.push({ periodNm: p.periodNm, uncertaintyNm: p.uncertaintyNm, label: `${b.name} · ${f.name} · ${p.angleDeg.toFixed(0)}°` });
+        if (f.result?.status !== 'ok' || !f.result.calibration) continue;
+        for (const p of f.result.summary.topPeriods) {
+          items.push({ periodicity: p, calibration: f.result.calibration, source: `${b.name} · ${f.name}` });
+          batched++;
+        }
       }
     }
-    this.periods = [...saved, ...batched];
-    this.emit('status-message', { text: `${this.periods.length} calibrated periods taken from the library (${saved.length} saved, ${batched.length} from batches)`, kind: 'info' });
+    // The one pooling rule: periods that lie together are pooled (random effects, calibration part once).
+    const groups = groupAndPoolPeriods(items.filter((it) => it.calibration !== null));
+    this.periods = groups.map((g) => ({
+      periodNm: g.budget.value,
+      uncertaintyNm: g.budget.combined,
+      label: `${g.n} period${g.n === 1 ? '' : 's'} from ${g.sources.slice(0, 3).join(', ')}${g.sources.length > 3 ? ` and ${g.sources.length - 3} more` : ''}${Number.isFinite(g.birgeRatio) ? `; Birge ratio ${g.birgeRatio.toFixed(2)}` : ''}`,
+    }));
+    this.emit('status-message', { text: `${this.periods.length} distinct periods pooled from the library (${saved} saved, ${batched} from batches; uncalibrated ones left out)`, kind: 'info' });
   }
 
   private onManual(text: string): void {

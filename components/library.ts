@@ -1,3 +1,4 @@
+import { expressPeriod, formatPlusMinus } from '../src/measure/measurement';
 import { LitElement, css, html, nothing, type PropertyValues } from 'lit';
 import type { LibraryDb } from '../src/store/schema';
 import { deleteImage, listImages, listMeasurements } from '../src/store/library';
@@ -16,16 +17,13 @@ function formatBytes(n: number): string {
   return `${(n / 1048576).toFixed(1)} MB`;
 }
 
-/** One line for the newest result of an image. */
+/** One line for the newest result of an image: the strongest period with its expanded uncertainty (k = 2). */
 export function describeResult(m: Measurement): string {
   const p = m.periodicities[0];
   const what = m.tool.replace('-', ' ');
   if (!p) return `${what}: no significant period`;
-  if (p.periodNm !== null) {
-    const u = p.uncertaintyNm !== null ? ` ± ${p.uncertaintyNm.toPrecision(2)}` : '';
-    return `${what}: d = ${p.periodNm.toPrecision(4)}${u} nm`;
-  }
-  return `${what}: d = ${p.periodPx.toPrecision(4)} ± ${p.uncertaintyPx.toPrecision(2)} px`;
+  const b = expressPeriod(p, m.calibration);
+  return `${what}: d = ${formatPlusMinus(b.value, b.expanded)} ${b.unit} (k = 2)`;
 }
 
 /**

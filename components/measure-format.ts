@@ -1,16 +1,8 @@
 /**
- * Number formatting for the measuring panel: a value with its standard uncertainty rounded to
- * two significant digits of the uncertainty, and the crop of an image around a drawn shape.
+ * Helpers of the measuring panel: the calibration source in words, the crop of an image around a
+ * drawn shape, plain-JSON numbers. (Values with their uncertainty: formatPlusMinus in the core.)
  */
 import { type Calibration, type GreyImage, makeGreyImage } from '../src/image/grey-image';
-
-/** "1.2503 ± 0.0041": the value rounded to the uncertainty's second (or `significant`-th) significant digit. */
-export function formatWithUncertainty(value: number, uncertainty: number, significant = 2): string {
-  if (!Number.isFinite(value)) return '–';
-  if (!(uncertainty > 0) || !Number.isFinite(uncertainty)) return `${value.toPrecision(4)} ± ?`;
-  const digits = Math.max(0, Math.min(6, significant - 1 - Math.floor(Math.log10(uncertainty))));
-  return `${value.toFixed(digits)} ± ${uncertainty.toFixed(digits)}`;
-}
 
 /** Where a pixel size came from, in the user's words. */
 export function calibrationSourceText(c: Calibration): string {

@@ -1,14 +1,15 @@
 import { LitElement, css, html, nothing, svg, type PropertyValues } from 'lit';
 import { classMap } from 'lit/directives/class-map.js';
 import type { GreyImage } from '../src/image/grey-image';
-import { type Measurement, type Periodicity, toNm } from '../src/measure/measurement';
-import { angleBetweenDeg, type Spot } from '../src/measure/spectrum';
+import { budgetContents, expressPeriod, formatPlusMinus, nmPerPxAlong, type Measurement, type Periodicity, type UncertaintyBudget } from '../src/measure/measurement';
+import { calibrationPartsText } from '../src/calibration/calibration';
+import { angleBetweenDeg, ringPeriodicity, type Spot } from '../src/measure/spectrum';
 import type { WindowKind } from '../src/measure/window';
 import { putMeasurement } from '../src/store/library';
 import type { ImageRecord } from '../src/store/records';
 import type { LibraryDb } from '../src/store/schema';
 import type { ComputeClient } from './compute-client';
-import { calibrationSourceText, cropImage, formatWithUncertainty, jsonNumbers } from './measure-format';
+import { calibrationSourceText, cropImage, jsonNumbers } from './measure-format';
 import { spotPeriodicity } from '../src/measure/spot-near';
 import type { FilterResult, Picture, ProfileEstimator, ProfileResult, SpectrumResult, SpectrumSettings } from './measure-types';
 import { linePlot, plotStyles, type PlotPoint } from './plot-line';
@@ -122,6 +123,7 @@ export class StrataMeasurePanel extends LitElement {
     savedSpectrum: { state: true },
     activeTool: { state: true },
     zoom: { state: true },
+    coverageK: { state: true },
   };
 
   image: GreyImage | null = null;
@@ -157,6 +159,8 @@ export class StrataMeasurePanel extends LitElement {
   activeTool: 'pan' | 'line' | 'rect' = 'pan';
   /** Magnification of the spectrum picture about zero frequency. */
   zoom = 1;
+  /** Coverage factor k of every ± shown (U = k·u). */
+  coverageK = 2;
 
   private profileRun = 0;
   private spectrumRun = 0;
@@ -272,24 +276,31 @@ export class StrataMeasurePanel extends LitElement {
     const cal = this.image?.calibration ?? null;
     if (this.spectrumRect) {
       const top = this.spots[0];
-      const label = top ? `FFT region · d ${this.dText(top.periodPx, cal, top.fx, top.fy)}` : 'FFT region';
+      const label = top ? `FFT region · d ${this.dText(top.periodPx, cal, top.angleDeg, 'normal')}` : 'FFT region';
       shapes.push({ kind: 'rect', ...this.spectrumRect, label, tone: 'info' });
     }
     if (this.profileLine) {
       const p = this.profile?.spectral;
-      shapes.push({ kind: 'line', ...this.profileLine, label: p ? `profile · d ${this.dText(p.periodPx, cal)}` : 'profile', tone: 'accent' });
+      shapes.push({ kind: 'line', ...this.profileLine, label: p ? `profile · d ${this.dText(p.periodPx, cal, this.profile?.angleDeg ?? 0)}` : 'profile', tone: 'accent' });
     }
     this.dispatchEvent(new CustomEvent('overlay-shapes', { detail: { shapes }, bubbles: true, composed: true }));
   }
 
   /** A short d for labels: nm when calibrated, px otherwise. */
-  private dText(periodPx: number, cal: GreyImage['calibration'], fx?: number, fy?: number): string {
+  private dText(periodPx: number, cal: GreyImage['calibration'], angleDeg = 0, geometry: Periodicity['geometry'] = 'line'): string {
     if (!cal) return `${periodPx.toPrecision(4)} px`;
-    if (fx !== undefined && fy !== undefined) {
-      const nm = 1 / Math.hypot(fx / cal.nmPerPx, fy / (cal.nmPerPxY ?? cal.nmPerPx));
-      return `${nm.toPrecision(4)} nm`;
-    }
-    return `${(periodPx * cal.nmPerPx).toPrecision(4)} nm`;
+    return `${(periodPx * nmPerPxAlong(cal, geometry, angleDeg)).toPrecision(4)} nm`;
+  }
+
+  /** A periodicity's budget at the chosen coverage factor, in nm when calibrated. */
+  private budget(p: Periodicity): UncertaintyBudget {
+    return expressPeriod(p, this.image?.calibration ?? null, this.coverageK);
+  }
+
+  /** "1.2503 ± 0.0082 nm" with a tooltip that says what the ± contains. */
+  private budgetCell(p: Periodicity) {
+    const b = this.budget(p);
+    return html`<span title=${`± U = k·u, k = ${b.k}; contains ${budgetContents(b)}`}>${formatPlusMinus(b.value, b.expanded)} ${b.unit}</span>`;
   }
 
   private setTool(tool: 'pan' | 'line' | 'rect'): void {
@@ -351,7 +362,7 @@ export class StrataMeasurePanel extends LitElement {
     this.profileBusy = true;
     try {
       const result = await this.compute.call('profilePeriods', {
-        image: crop, x0: line.x0 - cx0, y0: line.y0 - cy0, x1: line.x1 - cx0, y1: line.y1 - cy0, widthPx: across, estimator: this.estimator,
+        image: crop, originX: cx0, originY: cy0, x0: line.x0 - cx0, y0: line.y0 - cy0, x1: line.x1 - cx0, y1: line.y1 - cy0, widthPx: across, estimator: this.estimator,
       }, [crop.data.buffer]);
       if (run !== this.profileRun) return;
       this.profile = result;
@@ -365,47 +376,21 @@ export class StrataMeasurePanel extends LitElement {
     this.sendShapes();
   }
 
-  private profilePeriodicities(): Periodicity[] {
-    const p = this.profile;
-    const cal = this.image?.calibration ?? null;
-    if (!p) return [];
-    return [p.spectral, p.realSpace].filter((e) => e !== null).map((e) => ({
-      periodPx: e.periodPx,
-      ...toNm(e.periodPx, e.uncertaintyPx, cal && p.distanceNm && p.distancePx.length > 1
-        ? { ...cal, nmPerPx: p.distanceNm[1] / p.distancePx[1] } : cal),
-      angleDeg: p.angleDeg,
-      uncertaintyPx: e.uncertaintyPx,
-      strength: e.snr,
-    }));
-  }
-
   private async saveProfile(): Promise<void> {
     const p = this.profile;
-    const line = this.profileLine;
-    if (!p || !line || !this.image) return;
+    if (!p || !this.image) return;
     if (!this.db) {
       this.say('The local library is not open: the result cannot be kept.', 'error');
       return;
     }
-    const estimators = [p.spectral, p.realSpace].filter((e) => e !== null);
     const m: Measurement = {
+      ...p.measurement,
       id: globalThis.crypto.randomUUID(),
       imageId: this.record?.id ?? null,
       fileName: this.record?.fileName ?? '',
       createdIso: new Date().toISOString(),
-      tool: 'profile',
-      region: { kind: 'line', x0: line.x0, y0: line.y0, x1: line.x1, y1: line.y1, widthPx: Math.max(1, Math.round(line.widthPx)) },
       calibration: this.image.calibration,
-      settings: { widthPx: Math.max(1, Math.round(line.widthPx)), spectralEstimator: this.estimator, sampleStepPx: 1 },
-      periodicities: this.profilePeriodicities(),
-      detail: {
-        estimators: estimators.map((e) => ({ method: e.method, periodPx: e.periodPx, uncertaintyPx: e.uncertaintyPx, fringes: e.fringes, snr: Number.isFinite(e.snr) ? e.snr : null })),
-        extremaPx: p.realSpace ? jsonNumbers(p.realSpace.extremaPx) : [],
-        lengthPx: p.lengthPx,
-        lineAngleDeg: p.angleDeg,
-        samples: { distancePx: jsonNumbers(p.distancePx), mean: jsonNumbers(p.mean), standardError: jsonNumbers(p.standardError) },
-      },
-      notes: [...p.notes, ...(this.image.calibration ? [] : ['image not calibrated: periods in px only'])],
+      detail: { ...p.measurement.detail, samples: { distancePx: jsonNumbers(p.distancePx), mean: jsonNumbers(p.mean), standardError: jsonNumbers(p.standardError) } },
     };
     await this.save(m, (t) => (this.savedProfile = t));
   }
@@ -577,7 +562,7 @@ export class StrataMeasurePanel extends LitElement {
       this.spots = [...this.spots, t];
       this.selected = [...this.selected, t.n];
       this.savedSpectrum = '';
-      this.say(`Spot #${t.n} added: d ${this.dText(t.periodPx, this.image?.calibration ?? null, t.fx, t.fy)}, ${t.angleDeg.toFixed(1)}°.`);
+      this.say(`Spot #${t.n} added: d ${this.dText(t.periodPx, this.image?.calibration ?? null, t.angleDeg, 'normal')}, ${t.angleDeg.toFixed(1)}°.`);
     } catch (e) {
       this.say(`The spot could not be added: ${(e as Error).message}`, 'error');
     }
@@ -642,14 +627,14 @@ export class StrataMeasurePanel extends LitElement {
       fileName: this.record?.fileName ?? '',
       createdIso: new Date().toISOString(),
       calibration: cal,
-      periodicities: ordered.map((t) => spotPeriodicity(t, cal)),
+      periodicities: ordered.map(spotPeriodicity),
       detail: {
         ...base.detail,
         spots: ordered.map((t) => ({
           number: t.n, fxPerPx: t.fx, fyPerPx: t.fy, normalisedPower: t.normalisedPower, snr: t.snr,
-          angleUncertaintyDeg: t.angleUncertaintyDeg, addedByHand: t.added,
+          addedByHand: t.added,
         })),
-        rings: s.rings.map((r) => ({ periodPx: r.periodPx, uncertaintyPx: r.uncertaintyPx, strength: r.strength, ...toNm(r.periodPx, r.uncertaintyPx, cal) })),
+        rings: s.rings.map(ringPeriodicity),
         selectedSpots: [...this.selected],
       },
       notes: [...base.notes, ...(ordered.some((t) => t.added) ? ['spots added by hand are not tested for significance'] : [])],
@@ -662,11 +647,21 @@ export class StrataMeasurePanel extends LitElement {
   private renderCalibration() {
     const cal = this.image?.calibration;
     if (!this.image) return nothing;
+    const k = html`<label title="Coverage factor k of every ± on this panel: U = k·u. k = 2 gives about 95 % coverage for a normal distribution (GUM §6.3.3).">k
+      <select class="coverage-k" aria-label="Coverage factor k" @change=${(e: Event) => { this.coverageK = Number((e.target as HTMLSelectElement).value); }}>
+        ${[1, 2, 3].map((v) => html`<option value=${String(v)} ?selected=${v === this.coverageK}>${v}</option>`)}</select></label>`;
     if (!cal) {
-      return html`<p class="cal none" role="note"><b>Uncalibrated</b>: periods are given in px only. Calibrate the pixel size (scale bar, lattice standard or a typed value) to get nm.</p>`;
+      return html`<p class="cal none" role="note"><b>Uncalibrated</b>: periods are given in px only. Calibrate the pixel size (scale bar, lattice standard or a typed value) to get nm. ${k}</p>`;
     }
-    return html`<p class="cal num" title=${cal.detail}>Pixel size <b>${cal.nmPerPx.toPrecision(4)} nm/px</b>${cal.nmPerPxY ? html` × ${cal.nmPerPxY.toPrecision(4)} nm/px` : nothing}
-      from ${calibrationSourceText(cal)}, ±${(cal.relUncertainty * 100).toFixed(1)} % (k = 1), included in every ± in nm.</p>`;
+    return html`<p class="cal num" title=${`${cal.detail}; ${calibrationPartsText(cal)}`}>Pixel size <b>${cal.nmPerPx.toPrecision(4)} nm/px</b>${cal.nmPerPxY ? html` × ${cal.nmPerPxY.toPrecision(4)} nm/px` : nothing}
+      from ${calibrationSourceText(cal)}, u = ${(cal.relUncertainty * 100).toPrecision(2)} % (k = 1), included in every ± in nm. ${k}</p>`;
+  }
+
+  /** What every ± above contains, in words. */
+  private budgetNote(periods: readonly Periodicity[]) {
+    if (!periods.length) return nothing;
+    const contains = [...new Set(periods.map((p) => budgetContents(this.budget(p))))].join(' / ');
+    return html`<p class="note budget-note">± is the expanded uncertainty U = k·u, k = ${this.coverageK}; it contains ${contains}.</p>`;
   }
 
   private renderTools() {
@@ -694,16 +689,14 @@ export class StrataMeasurePanel extends LitElement {
     </div>`;
   }
 
-  private periodCard(what: string, e: { periodPx: number; uncertaintyPx: number; fringes: number; method: string; snr: number } | null, how: string) {
-    const p = this.profile as ProfileResult;
-    const cal = this.image?.calibration ?? null;
-    if (!e) return html`<div class="card"><div class="what">${what}</div><div class="d">–</div><div class="how">not found</div></div>`;
-    const nmPerStep = cal && p.distanceNm && p.distancePx.length > 1 ? p.distanceNm[1] / p.distancePx[1] : 0;
-    const nm = cal ? toNm(e.periodPx, e.uncertaintyPx, { ...cal, nmPerPx: nmPerStep }) : null;
+  private periodCard(what: string, e: { fringes: number; method: string; snr: number } | null, per: Periodicity | undefined, how: string) {
+    if (!e || !per) return html`<div class="card"><div class="what">${what}</div><div class="d">–</div><div class="how">not found</div></div>`;
+    const b = this.budget(per);
+    const px = expressPeriod(per, null, this.coverageK);
     return html`<div class="card">
       <div class="what">${what}</div>
-      <div class="d num">${nm?.periodNm != null ? `${formatWithUncertainty(nm.periodNm, nm.uncertaintyNm ?? NaN)} nm` : `${formatWithUncertainty(e.periodPx, e.uncertaintyPx)} px`}</div>
-      ${nm ? html`<div class="px num">${formatWithUncertainty(e.periodPx, e.uncertaintyPx)} px</div>` : nothing}
+      <div class="d num">${this.budgetCell(per)}</div>
+      ${b.unit === 'nm' ? html`<div class="px num">${formatPlusMinus(px.value, px.expanded)} px</div>` : nothing}
       <div class="how">${how}</div>
     </div>`;
   }
@@ -718,7 +711,8 @@ export class StrataMeasurePanel extends LitElement {
       body.push(html`<p class="empty">Draw a profile line across the fringes (perpendicular to them) to measure their period.</p>`);
     }
     if (p) {
-      const x = cal && p.distanceNm ? p.distanceNm : p.distancePx;
+      const nmStep = cal ? nmPerPxAlong(cal, 'line', p.angleDeg) : 1;
+      const x = cal ? p.distancePx.map((d) => d * nmStep) : p.distancePx;
       const se = p.standardError;
       const hasBand = se.length > 0 && Number.isFinite(se[0]);
       const lo = hasBand ? p.mean.map((m, i) => m - se[i]) : null;
@@ -748,10 +742,12 @@ export class StrataMeasurePanel extends LitElement {
       }));
       body.push(html`<p class="note">${p.lengthPx.toFixed(1)} px at ${p.angleDeg.toFixed(1)}°, averaged over ${width} px${hasBand ? '; band ± standard error' : ''}. ● maxima, ○ minima used by the real-space estimate.</p>`);
       const sp = p.spectral;
+      const pers = p.measurement.periodicities;
       body.push(html`<div class="results">
-        ${this.periodCard('spectral', sp, sp ? `${sp.method.replace(/^spectral \(|\)$/g, '')}; ${sp.fringes.toFixed(1)} periods along the line, SNR ${Number.isFinite(sp.snr) ? sp.snr.toPrecision(3) : '∞'}` : '')}
-        ${this.periodCard('real space', rs, rs ? `extrema and least-squares line; ${rs.extremaPx.length} extrema over ${rs.fringes.toFixed(1)} fringes` : '')}
+        ${this.periodCard('spectral', sp, sp ? pers[0] : undefined, sp ? `${sp.method.replace(/^spectral \(|\)$/g, '')}; ${sp.fringes.toFixed(1)} periods along the line, SNR ${Number.isFinite(sp.snr) ? sp.snr.toPrecision(3) : '∞'}` : '')}
+        ${this.periodCard('real space', rs, rs ? pers[sp ? 1 : 0] : undefined, rs ? `extrema and least-squares line; ${rs.extremaPx.length} extrema over ${rs.fringes.toFixed(1)} fringes` : '')}
       </div>`);
+      body.push(this.budgetNote(pers));
       for (const n of p.notes) body.push(html`<p class="note">${n}</p>`);
       body.push(html`<div class="row">
         <button @click=${() => this.saveProfile()} ?disabled=${!this.db || !(p.spectral || p.realSpace)} title="Keep both estimates in the library with the line, its width, the estimator and the calibration">Save profile periods</button>
@@ -787,7 +783,7 @@ export class StrataMeasurePanel extends LitElement {
       const full = sel || t === this.spots[0];
       return svg`<circle class="halo" cx=${x} cy=${y} r="6"></circle><circle class=${classMap({ spot: true, sel, added: t.added })} cx=${x} cy=${y} r="6"></circle>
         <circle class="halo" cx=${mx} cy=${my} r="6"></circle><circle class="mate" cx=${mx} cy=${my} r="6"></circle>
-        <text x=${right ? x + 9 : x - 9} y=${y - 7} text-anchor=${right ? 'start' : 'end'}>#${t.n}${full ? ` ${this.dText(t.periodPx, cal, t.fx, t.fy)} ${t.angleDeg.toFixed(0)}°` : ''}</text>`;
+        <text x=${right ? x + 9 : x - 9} y=${y - 7} text-anchor=${right ? 'start' : 'end'}>#${t.n}${full ? ` ${this.dText(t.periodPx, cal, t.angleDeg, 'normal')} ${t.angleDeg.toFixed(0)}°` : ''}</text>`;
     });
     const c = this.crosshair;
     const cross = c ? (() => {
@@ -819,14 +815,14 @@ export class StrataMeasurePanel extends LitElement {
       return html`<p class="note">No spot above the detection threshold (false-alarm probability ${this.alpha} over ${s.searchedBins} FFT bins): no significant lattice fringes in this region. Click the spectrum to measure a spot anyway.</p>`;
     }
     const rows = this.spots.map((t) => {
-      const per = spotPeriodicity(t, cal);
       const sel = this.selected.includes(t.n);
       return html`<tr class=${sel ? 'sel' : ''}>
         <td><input type="checkbox" .checked=${sel} @change=${() => this.toggleSpot(t.n)} aria-label=${`Select spot ${t.n}`}></td>
         <td>#${t.n}${t.added ? html`<span title="added by hand; not tested for significance">*</span>` : nothing}</td>
-        <td class="num">${cal ? html`<div class="dnm">${formatWithUncertainty(per.periodNm as number, per.uncertaintyNm as number)} nm</div>` : nothing}
-          <div class=${cal ? 'dpx' : 'dnm'}>${formatWithUncertainty(t.periodPx, t.periodUncertaintyPx)} px</div></td>
-        <td class="num">${formatWithUncertainty(t.angleDeg, t.angleUncertaintyDeg, 1)}°</td>
+        <td class="num">${cal ? html`<div class="dnm">${this.budgetCell(t)}</div>` : nothing}
+          <div class=${cal ? 'dpx' : 'dnm'}>${cal ? (() => { const b = expressPeriod(t, null, this.coverageK); return `${formatPlusMinus(b.value, b.expanded)} px`; })() : this.budgetCell(t)}</div>
+          ${t.flags.length ? html`<div class="flag" title="A spot with a doubt is never ranked first">${t.flags.join(', ')}</div>` : nothing}</td>
+        <td class="num">${formatPlusMinus(t.angleDeg, this.coverageK * t.uAngleDeg, 2)}°</td>
         <td class="num">${t.normalisedPower.toPrecision(3)}</td>
         <td><button @click=${() => this.removeSpot(t.n)} aria-label=${`Remove spot ${t.n}`} title="Remove this spot from the table">×</button></td>
       </tr>`;
@@ -838,8 +834,9 @@ export class StrataMeasurePanel extends LitElement {
           <th scope="col">d-spacing</th><th scope="col">angle</th>
           <th scope="col" title="Spot power over the local background of the power spectrum">strength</th><th scope="col"><span class="visually-hidden">remove</span></th></tr></thead>
         <tbody>${rows}</tbody></table></div>
+      ${this.budgetNote(this.spots)}
       ${pair.length === 2
-        ? html`<p class="between num" role="status">Angle between #${pair[0].n} and #${pair[1].n}: <b>${formatWithUncertainty(angleBetweenDeg(pair[0], pair[1]), Math.hypot(pair[0].angleUncertaintyDeg, pair[1].angleUncertaintyDeg))}°</b></p>`
+        ? html`<p class="between num" role="status">Angle between #${pair[0].n} and #${pair[1].n}: <b>${formatPlusMinus(angleBetweenDeg(pair[0], pair[1]), this.coverageK * Math.hypot(pair[0].uAngleDeg, pair[1].uAngleDeg))}°</b></p>`
         : html`<p class="note">Select two spots to see the angle between their fringe normals.</p>`}`;
   }
 
@@ -861,8 +858,8 @@ export class StrataMeasurePanel extends LitElement {
       })}
       ${s.rings.length
         ? html`<p class="note num">Rings: ${s.rings.slice(0, 6).map((r) => {
-          const nm = toNm(r.periodPx, r.uncertaintyPx, cal);
-          return nm.periodNm !== null ? `${formatWithUncertainty(nm.periodNm, nm.uncertaintyNm as number)} nm` : `${formatWithUncertainty(r.periodPx, r.uncertaintyPx)} px`;
+          const b = this.budget(ringPeriodicity(r));
+          return `${formatPlusMinus(b.value, b.expanded)} ${b.unit}`;
         }).join(' · ')}</p>`
         : html`<p class="note">No significant ring in the radial average.</p>`}`;
   }

@@ -3,20 +3,21 @@
  * regionSpectrum, addSpotNear, filterSpots). Every image sent is a crop (or copy) of the region,
  * never the viewer's own image, because transferring a buffer detaches it on the sending side.
  */
+export type { ProfileEstimator };
 import type { GreyImage } from '../src/image/grey-image';
 import type { Measurement } from '../src/measure/measurement';
 import type { ProfilePeriod, RealSpacePeriod } from '../src/measure/period-profile';
-import type { ComplexInterpolator } from '../src/measure/interpolate';
+import type { ProfileEstimator } from '../src/measure/profile-measurement';
 import type { Ring, Spot } from '../src/measure/spectrum';
 import type { WindowKind } from '../src/measure/window';
-
-/** How the spectral estimator of a profile treats the data: Hann window or no window with a complex interpolator. */
-export type ProfileEstimator = 'hann' | ComplexInterpolator;
 
 /** Arguments of profilePeriods: a crop holding the whole band and the line in crop coordinates. */
 export interface ProfileArgs {
   /** Crop of the image around the line (calibration carried over). */
   image: GreyImage;
+  /** Where the crop's top-left pixel lies in the full image (the record's line is in full-image pixels). */
+  originX: number;
+  originY: number;
   /** Line start and end in crop pixel coordinates. */
   x0: number;
   y0: number;
@@ -28,12 +29,10 @@ export interface ProfileArgs {
   estimator: ProfileEstimator;
 }
 
-/** Result of profilePeriods. */
+/** Result of profilePeriods: the profile for the plot, both estimates and the record. */
 export interface ProfileResult {
   /** Distance of each sample from the start, px. */
   distancePx: Float64Array;
-  /** The same in nm when calibrated. */
-  distanceNm: Float64Array | null;
   /** Width-averaged grey value per sample. */
   mean: Float64Array;
   /** Standard error of that mean (NaN for a 1 px wide line). */
@@ -46,7 +45,9 @@ export interface ProfileResult {
   spectral: ProfilePeriod | null;
   /** Real-space (fringe extrema) estimate, or null when fewer than four extrema are found. */
   realSpace: RealSpacePeriod | null;
-  /** Why an estimator gave nothing, for the user. */
+  /** The record (line in full-image pixels): one periodicity per estimate, spectral first, with their budgets' parts. */
+  measurement: Measurement;
+  /** Why an estimator gave nothing, and other notes for the user. */
   notes: string[];
 }
 

@@ -66,28 +66,15 @@ function checkImage(image: GreyImage): void {
   }
 }
 
-/** Width-averaged line profile and both period estimators. */
+/** Width-averaged line profile, both period estimators and the record with its uncertainty budget. */
 export async function profilePeriods(args: ProfileArgs): Promise<ProfileResult> {
   checkImage(args.image);
-  const { lineProfile } = await import('../src/measure/profile');
-  const { spectralPeriod, realSpacePeriod } = await import('../src/measure/period-profile');
-  const p = lineProfile(args.image, args.x0, args.y0, args.x1, args.y1, { widthPx: args.widthPx });
-  const notes: string[] = [];
-  let spectral = null;
-  let realSpace = null;
-  if (p.mean.length < 16) {
-    notes.push(`the line is ${p.lengthPx.toFixed(1)} px long: draw at least 16 px, across several fringes`);
-  } else {
-    spectral = args.estimator === 'hann'
-      ? spectralPeriod(p.mean, { window: 'hann' })
-      : spectralPeriod(p.mean, { window: 'none', interpolator: args.estimator });
-    if (!spectral) notes.push('spectral: no peak between 2 px and a third of the line length');
-    if (spectral && spectral.periodPx >= 2 && spectral.periodPx < p.mean.length / 2) {
-      realSpace = realSpacePeriod(p.mean, { approxPeriodPx: spectral.periodPx });
-    }
-    if (!realSpace) notes.push('real space: fewer than four fringe extrema found away from the line ends');
-  }
-  return { ...p, spectral, realSpace, notes };
+  const { analyseProfile } = await import('../src/measure/profile-measurement');
+  const a = analyseProfile(args.image, { x0: args.x0, y0: args.y0, x1: args.x1, y1: args.y1, widthPx: args.widthPx }, { estimator: args.estimator });
+  const m = a.measurement;
+  if (m.region?.kind === 'line') m.region = { ...m.region, x0: m.region.x0 + args.originX, y0: m.region.y0 + args.originY, x1: m.region.x1 + args.originX, y1: m.region.y1 + args.originY };
+  const p = a.profile;
+  return { distancePx: p.distancePx, mean: p.mean, standardError: p.standardError, lengthPx: p.lengthPx, angleDeg: p.angleDeg, spectral: a.spectral, realSpace: a.realSpace, measurement: m, notes: m.notes };
 }
 
 /** Power spectrum of the region, spots, radial average and rings, with a display picture. */

@@ -5,91 +5,45 @@
  */
 import { reconcile, type DiffractionSide, type MicrographSide, type Reconciliation } from '../diffraction/reconcile';
 import { dToQ } from '../diffraction/bragg';
+import { budgetCsvCells, budgetCsvHeader, formatBudget } from '../measure/measurement';
+import { groupAndPoolPeriods, type PeriodGroup, type SourcedPeriod } from '../measure/pool';
 import { quantile, summarize } from '../measure/stats';
 import { csvField } from './export';
 import { escapeXml } from './figure';
 import type { FileResult } from './run';
 
-/** One distinct period of a batch: the accepted periods of its images that lie together. */
-export interface BatchPeriodGroup {
-  /** Mean of the members' periods, nm. */
-  periodNm: number;
-  /** Combined standard uncertainty of the mean: statistical part and the pixel size's part, nm. */
-  uncertaintyNm: number;
-  /** Statistical part: sd/√n of the members (their own uncertainty for one member), nm. */
-  statisticalNm: number;
-  /** The pixel size's part: the median relative uncertainty of the members' calibrations × mean, nm. It does not average down over images of one calibration. */
-  calibrationNm: number;
-  /** Sample standard deviation of the members (0 for one), nm. */
-  sdNm: number;
-  /** Number of periods in the group. */
-  n: number;
-  /** The images they come from, in order. */
-  files: string[];
-}
-
 /** Options of `batchPeriodGroups`. */
 export interface BatchPeriodGroupOptions {
   /** Neighbouring periods (sorted) more than this fraction apart start a new group (default 0.04). */
   relGap?: number;
+  /** Coverage factor of the pooled budgets (default 2). */
+  k?: number;
 }
 
 /**
- * Groups the accepted periods of a batch's images into distinct periods.
+ * Groups the accepted periods of a batch's images into distinct periods, each pooled by the one
+ * pooling rule (groupAndPoolPeriods: single linkage, then poolPeriods).
  *
- * Single-linkage grouping on the sorted periods (common practice); combined standard
- * uncertainty of a mean with a fully correlated calibration part (GUM, JCGM 100:2008, §5.2).
- *
- * @param results the batch's file results (failed files are skipped)
- * @param options the relative gap that separates two groups
- * @returns groups by increasing period
- * Notes: every accepted period of every image counts (the file summary's top periods). The
- * statistical part of a group of n ≥ 2 is the larger of sd/√n and the members' own statistical
- * uncertainties combined (rms/√n), so a group of nearly equal values is not claimed more precise
- * than each value is. The calibration part is the same for all images of one calibration and
- * is added in quadrature once.
+ * @param results the batch's file results (failed and uncalibrated files are skipped)
+ * @param options the relative gap that separates two groups, the coverage factor
+ * @returns groups by increasing period (nm); `sources` are the files
  */
-export function batchPeriodGroups(results: FileResult[], options: BatchPeriodGroupOptions = {}): BatchPeriodGroup[] {
-  const relGap = options.relGap ?? 0.04;
-  if (!(relGap > 0 && relGap < 1)) throw new RangeError(`relGap must be in (0, 1), got ${relGap}`);
-  const items: { p: number; u: number; rel: number; file: string }[] = [];
+export function batchPeriodGroups(results: FileResult[], options: BatchPeriodGroupOptions = {}): PeriodGroup[] {
+  const items: SourcedPeriod[] = [];
   for (const r of results) {
-    if (r.status !== 'ok') continue;
-    const rel = r.calibration?.relUncertainty ?? 0;
-    for (const t of r.summary.topPeriods) {
-      if (t.periodNm > 0 && t.uncertaintyNm >= 0) items.push({ p: t.periodNm, u: t.uncertaintyNm, rel, file: r.file });
-    }
+    if (r.status !== 'ok' || !r.calibration) continue;
+    for (const t of r.summary.topPeriods) items.push({ periodicity: t, calibration: r.calibration, source: r.file });
   }
-  items.sort((a, b) => a.p - b.p);
-  const groups: (typeof items)[] = [];
-  for (const it of items) {
-    const last = groups[groups.length - 1];
-    if (last && it.p - last[last.length - 1].p <= relGap * it.p) last.push(it);
-    else groups.push([it]);
-  }
-  return groups.map((g) => {
-    const n = g.length;
-    const mean = g.reduce((s, x) => s + x.p, 0) / n;
-    const sd = n > 1 ? Math.sqrt(g.reduce((s, x) => s + (x.p - mean) ** 2, 0) / (n - 1)) : 0;
-    const rel = quantile(g.map((x) => x.rel), 0.5);
-    // each member's own statistical part: its combined u without the calibration share
-    const own = g.map((x) => Math.sqrt(Math.max(0, x.u * x.u - (x.rel * x.p) ** 2)));
-    const ownMean = Math.sqrt(own.reduce((s, v) => s + v * v, 0) / n) / Math.sqrt(n);
-    const statisticalNm = n > 1 ? Math.max(sd / Math.sqrt(n), ownMean) : own[0];
-    const calibrationNm = rel * mean;
-    const files: string[] = [];
-    for (const x of g) if (!files.includes(x.file)) files.push(x.file);
-    return { periodNm: mean, uncertaintyNm: Math.hypot(statisticalNm, calibrationNm), statisticalNm, calibrationNm, sdNm: sd, n, files };
-  });
+  return groupAndPoolPeriods(items, options);
 }
 
 /** The micrograph side of a reconciliation from a batch: its period groups and pooled sheets. */
-export function batchMicrographSide(results: FileResult[], groups: BatchPeriodGroup[] = batchPeriodGroups(results)): MicrographSide {
+export function batchMicrographSide(results: FileResult[], groups: PeriodGroup[] = batchPeriodGroups(results)): MicrographSide {
   const ok = results.filter((r) => r.status === 'ok');
   const thickness = summarize(ok.flatMap((r) => r.summary.sheetThicknessNm));
   const rels = ok.flatMap((r) => (r.calibration ? [r.calibration.relUncertainty] : []));
   return {
-    periods: groups.map((g) => ({ periodNm: g.periodNm, uncertaintyNm: g.uncertaintyNm, label: `${g.n} period${g.n === 1 ? '' : 's'} from ${g.files.length} image${g.files.length === 1 ? '' : 's'}` })),
+    periods: groups.map((g) => ({ periodNm: g.budget.value, uncertaintyNm: g.budget.combined, label: `${g.n} period${g.n === 1 ? '' : 's'} from ${g.sources.length} image${g.sources.length === 1 ? '' : 's'}` })),
     sheets: thickness ? { n: thickness.n, meanNm: thickness.mean, sdNm: thickness.sd, medianNm: thickness.median } : undefined,
     calibrationRelUncertainty: rels.length ? quantile(rels, 0.5) : undefined,
   };
@@ -97,7 +51,7 @@ export function batchMicrographSide(results: FileResult[], groups: BatchPeriodGr
 
 /** A batch against a diffraction set. */
 export interface BatchComparison {
-  groups: BatchPeriodGroup[];
+  groups: PeriodGroup[];
   reconciliation: Reconciliation;
 }
 
@@ -117,10 +71,11 @@ export function compareBatchWithDiffraction(results: FileResult[], diffraction: 
  * @returns CSV text (RFC 4180) with a header row; units in the column names
  */
 export function comparisonCsv(c: BatchComparison, setName: string): string {
-  const head = ['diffraction_set', 'period_nm', 'u_period_nm', 'u_statistical_nm', 'u_calibration_nm', 'periods', 'images', 'd_nm', 'u_d_nm', 'line', 'relative_difference', 'z'];
+  const head = ['diffractionSet', ...budgetCsvHeader('period', 'nm'), 'birgeRatio', 'periods', 'images', 'dNm', 'uDNm', 'line', 'relativeDifference', 'z'];
+  const r4 = (v: number | undefined) => (v === undefined || !Number.isFinite(v) ? null : Number(v.toPrecision(4)));
   const rows = c.groups.map((g, i) => {
     const b = c.reconciliation.best[i];
-    return [setName, g.periodNm, g.uncertaintyNm, g.statisticalNm, g.calibrationNm, g.n, g.files.length, b?.dNm ?? null, b?.dUncNm ?? null, b?.label ?? null, b?.relDiff ?? null, b?.z ?? null];
+    return [setName, ...budgetCsvCells(g.budget), r4(g.birgeRatio), g.n, g.sources.length, b ? Number(b.dNm.toPrecision(6)) : null, r4(b?.dUncNm), b?.label ?? null, r4(b?.relDiff), r4(b?.z)];
   });
   return `${[head, ...rows].map((r) => r.map(csvField).join(',')).join('\r\n')}\r\n`; // RFC 4180 line breaks, as the other tables
 }
@@ -143,7 +98,7 @@ export function diffractionOverlaySvg(c: BatchComparison, diffraction: Diffracti
   const bottom = 50;
   const pw = W - left - right;
   const ph = H - top - bottom;
-  const qs = [...diffraction.lines.map((l) => dToQ(l.dNm)), ...c.groups.map((g) => dToQ(g.periodNm))];
+  const qs = [...diffraction.lines.map((l) => dToQ(l.dNm)), ...c.groups.map((g) => dToQ(g.budget.value))];
   const qMax = qs.length ? Math.max(...qs) * 1.08 : 10;
   const sx = (q: number) => left + (q / qMax) * pw;
   const maxI = Math.max(0, ...diffraction.lines.map((l) => l.intensity ?? 0));
@@ -161,17 +116,17 @@ export function diffractionOverlaySvg(c: BatchComparison, diffraction: Diffracti
     parts.push(`<text x="${x.toFixed(2)}" y="${(y - 4).toFixed(2)}" text-anchor="middle" font-size="9">${escapeXml(l.label)}</text>`);
   }
   c.groups.forEach((g, i) => {
-    const q = dToQ(g.periodNm);
-    const qLo = dToQ(g.periodNm + g.uncertaintyNm);
-    const qHi = dToQ(Math.max(1e-9, g.periodNm - g.uncertaintyNm));
+    const q = dToQ(g.budget.value);
+    const qLo = dToQ(g.budget.value + g.budget.expanded);
+    const qHi = dToQ(Math.max(1e-9, g.budget.value - g.budget.expanded));
     const x = sx(q);
     const y = top + ph + 14;
     const b = c.reconciliation.best[i];
     parts.push(`<line x1="${sx(qLo).toFixed(2)}" y1="${y}" x2="${Math.min(left + pw, sx(qHi)).toFixed(2)}" y2="${y}" stroke="#c0392b"/>`);
-    parts.push(`<path class="period" d="M ${x.toFixed(2)} ${y - 6} l -5 9 h 10 z" fill="#c0392b"><title>${escapeXml(`${g.periodNm.toFixed(4)} ± ${g.uncertaintyNm.toFixed(4)} nm from ${g.files.length} images${b ? `; ${b.label}, z = ${b.z.toFixed(2)}` : '; no match'}`)}</title></path>`);
+    parts.push(`<path class="period" d="M ${x.toFixed(2)} ${y - 6} l -5 9 h 10 z" fill="#c0392b"><title>${escapeXml(`${formatBudget(g.budget)} from ${g.sources.length} images${b ? `; ${b.label}, z = ${b.z.toFixed(2)}` : '; no match'}`)}</title></path>`);
   });
   for (const q of [0, qMax / 2, qMax]) parts.push(`<text x="${sx(q).toFixed(2)}" y="${top + ph + 34}" text-anchor="middle">${Number(q.toPrecision(3))}</text>`);
-  parts.push(`<text x="${left + pw / 2}" y="${H - 4}" text-anchor="middle">q = 2π/d (nm⁻¹); black: diffraction lines, red: micrograph periods ± u</text>`);
+  parts.push(`<text x="${left + pw / 2}" y="${H - 4}" text-anchor="middle">q = 2π/d (nm⁻¹); black: diffraction lines, red: micrograph periods ± expanded uncertainty</text>`);
   parts.push('</svg>');
   return `${parts.join('\n')}\n`;
 }

@@ -11,11 +11,11 @@ import { makeGreyImage, type GreyImage } from '../image/grey-image';
 import { loadCv } from '../image/cv';
 import { createWorkspace, type Workspace } from '../image/workspace';
 import { measureRegion } from '../measure/measure-region';
-import { toNm, type Measurement, type Region } from '../measure/measurement';
+import { RECORD_VERSION, type Measurement, type Region } from '../measure/measurement';
 import { domainMap } from '../measure/domains';
 import { detectSheets } from '../measure/sheets-auto';
 import { autoSheetsMeasurement, domainsMeasurement } from '../measure/sheets-measurement';
-import { findRings, powerSpectrum, radialProfile, type RectPx } from '../measure/spectrum';
+import { findRings, powerSpectrum, radialProfile, ringPeriodicity, type RectPx } from '../measure/spectrum';
 import type { BatchDeps, SheetsResult } from './run';
 
 function rectOf(region: Region): RectPx | null {
@@ -36,6 +36,7 @@ export async function ringsMeasurement(image: GreyImage, region: Region, workspa
   const spectrum = await powerSpectrum(image, rect, { workspace });
   const rings = findRings(radialProfile(spectrum));
   return {
+    recordVersion: RECORD_VERSION,
     id: globalThis.crypto.randomUUID(),
     imageId: null,
     fileName: '',
@@ -44,13 +45,7 @@ export async function ringsMeasurement(image: GreyImage, region: Region, workspa
     region: rect ? { kind: 'rect', ...rect } : null,
     calibration: image.calibration,
     settings: { window: spectrum.window, area: spectrum.area, alpha: 0.001 },
-    periodicities: rings.map((r) => ({
-      periodPx: r.periodPx,
-      uncertaintyPx: r.uncertaintyPx,
-      angleDeg: 0,
-      strength: r.strength,
-      ...toNm(r.periodPx, r.uncertaintyPx, image.calibration),
-    })),
+    periodicities: rings.map(ringPeriodicity),
     notes: rings.length ? ['rings have no direction: angleDeg is 0'] : ['no significant ring in the radial average'],
   };
 }

@@ -3,6 +3,8 @@
  * the full results as JSON, statistics pooled over the batch, and everything as one zip archive.
  */
 import { strToU8, zipSync } from 'fflate';
+import { budgetCsvCells, budgetCsvHeader, DEFAULT_COVERAGE_FACTOR, expressPeriod, type UncertaintyBudget } from '../measure/measurement';
+import { poolPeriods } from '../measure/pool';
 import { summarize, type Summary } from '../measure/stats';
 import type { Recipe } from './recipe';
 import type { FileResult } from './run';
@@ -24,11 +26,14 @@ export const RESULT_COLUMNS = [
   'regionHeightPx',
   'rank',
   'periodPx',
-  'uncertaintyPx',
-  'periodNm',
-  'uncertaintyNm',
+  'uStatisticalPx',
+  'uLocalVariationPx',
+  'uMethodPx',
+  ...budgetCsvHeader('period', 'nm'),
   'angleDeg',
+  'uAngleDeg',
   'strength',
+  'flags',
 ] as const;
 
 /** Columns of the per-file summary table. */
@@ -41,8 +46,7 @@ export const SUMMARY_COLUMNS = [
   'calibrationRelUncertainty',
   'widthPx',
   'heightPx',
-  'topPeriodNm',
-  'topUncertaintyNm',
+  ...budgetCsvHeader('topPeriod', 'nm'),
   'topAngleDeg',
   'periodCount',
   'sheetCount',
@@ -88,7 +92,7 @@ function csvLine(cells: Cell[]): string {
  * Notes: the calibration source and relative uncertainty are on every row, so a row taken out of
  * the table still says what its nm are worth.
  */
-export function resultsCsv(results: FileResult[]): string {
+export function resultsCsv(results: FileResult[], k: number = DEFAULT_COVERAGE_FACTOR): string {
   const lines = [csvLine([...RESULT_COLUMNS])];
   for (const r of results) {
     const cal = r.calibration;
@@ -101,11 +105,13 @@ export function resultsCsv(results: FileResult[]): string {
       const reg = m.region?.kind === 'rect' ? m.region : null;
       const mcells: Cell[] = [m.id, m.tool, reg?.x, reg?.y, reg?.width, reg?.height];
       if (m.periodicities.length === 0) {
-        lines.push(csvLine([...base, ...mcells, null, null, null, null, null, null, null]));
+        lines.push(csvLine([...base, ...mcells, ...new Array(RESULT_COLUMNS.length - base.length - mcells.length).fill(null)]));
         continue;
       }
       m.periodicities.forEach((p, i) => {
-        lines.push(csvLine([...base, ...mcells, i + 1, p.periodPx, p.uncertaintyPx, p.periodNm, p.uncertaintyNm, p.angleDeg, p.strength]));
+        const nm = cal ? budgetCsvCells(expressPeriod(p, cal, k)) : new Array(budgetCsvHeader('period', 'nm').length).fill(null);
+        const px = [p.periodPx, p.u.statisticalPx, p.u.localVariationPx, p.u.methodPx].map((v) => Number(v.toPrecision(7)));
+        lines.push(csvLine([...base, ...mcells, i + 1, ...px, ...nm, Number(p.angleDeg.toFixed(3)), Number(p.uAngleDeg.toPrecision(3)), Number(p.strength.toPrecision(4)), p.flags.join(' ')]));
       });
     }
   }
@@ -113,7 +119,7 @@ export function resultsCsv(results: FileResult[]): string {
 }
 
 /** The per-file summary table: one row per file (RFC 4180, as `resultsCsv`). */
-export function summaryCsv(results: FileResult[]): string {
+export function summaryCsv(results: FileResult[], k: number = DEFAULT_COVERAGE_FACTOR): string {
   const lines = [csvLine([...SUMMARY_COLUMNS])];
   for (const r of results) {
     const cal = r.calibration;
@@ -128,8 +134,7 @@ export function summaryCsv(results: FileResult[]): string {
         cal?.relUncertainty,
         r.image?.widthPx,
         r.image?.heightPx,
-        top?.periodNm,
-        top?.uncertaintyNm,
+        ...(top && cal ? budgetCsvCells(expressPeriod(top, cal, k)) : new Array(budgetCsvHeader('topPeriod', 'nm').length).fill(null)),
         top?.angleDeg,
         r.summary.topPeriods.length,
         r.summary.sheetCount,
@@ -145,14 +150,14 @@ export function summaryCsv(results: FileResult[]): string {
 export interface PooledStats {
   /** Files in the batch, finished with status ok, and failed. */
   files: { total: number; ok: number; failed: number };
-  /** The strongest accepted period of each ok file that has one, pooled (nm). */
+  /** The strongest accepted period of each ok file that has one, as a distribution (nm). */
   topPeriodNm: Summary | null;
   /**
-   * The same periods weighted by 1/u² (inverse-variance weighted mean and its standard
-   * uncertainty); null with no period. The calibration part of u is shared between images of
-   * one calibration, so this uncertainty is a lower bound there.
+   * The same periods pooled into one value (poolPeriods: random-effects mean of the images'
+   * independent parts, method and calibration parts added once), with the Birge ratio of the
+   * images' agreement; null with no period.
    */
-  weightedTopPeriodNm: { mean: number; uncertainty: number; n: number } | null;
+  pooledTopPeriod: { budget: UncertaintyBudget; n: number; birgeRatio: number } | null;
   /** Every sheet of every file, pooled (nm). */
   sheetThicknessNm: Summary | null;
   /** Total number of sheets found (null when no file ran the sheets step). */
@@ -162,35 +167,25 @@ export interface PooledStats {
 /**
  * Statistics pooled over the batch.
  *
- * Inverse-variance weighting: e.g. Taylor, An Introduction to Error Analysis, 2nd ed. (1997), §7.2.
- *
  * @param results the batch's file results
- * @returns file counts, the pooled summary of each file's strongest period, its weighted mean,
+ * @param k coverage factor of the pooled period (default 2)
+ * @returns file counts, the distribution of each file's strongest period, their pooled value,
  *   and the pooled sheet thickness
  * Notes: pooling sheets is concatenating the sheets of all files (`summarize`); each file's
- * strongest period counts once.
+ * strongest period counts once. The pooled period follows the one pooling rule (poolPeriods,
+ * DerSimonian–Laird random effects; GUM §5.2 for the shared calibration part).
  */
-export function pooledStats(results: FileResult[]): PooledStats {
-  const ok = results.filter((r) => r.status === 'ok');
-  const tops = ok.map((r) => r.summary.topPeriods[0]).filter((t) => t !== undefined);
-  let weightedTopPeriodNm: PooledStats['weightedTopPeriodNm'] = null;
-  const weighted = tops.filter((t) => t.uncertaintyNm > 0);
-  if (weighted.length > 0) {
-    let sw = 0;
-    let swx = 0;
-    for (const t of weighted) {
-      const w = 1 / (t.uncertaintyNm * t.uncertaintyNm);
-      sw += w;
-      swx += w * t.periodNm;
-    }
-    weightedTopPeriodNm = { mean: swx / sw, uncertainty: 1 / Math.sqrt(sw), n: weighted.length };
-  }
+export function pooledStats(results: FileResult[], k: number = DEFAULT_COVERAGE_FACTOR): PooledStats {
+  const ok = results.filter((r) => r.status === 'ok' && r.calibration !== null);
+  const tops = ok.flatMap((r) => (r.summary.topPeriods[0] ? [{ periodicity: r.summary.topPeriods[0], calibration: r.calibration }] : []));
+  const pooled = tops.length ? poolPeriods(tops, k) : null;
   const sheets = ok.flatMap((r) => r.summary.sheetThicknessNm);
   const ran = ok.filter((r) => r.summary.sheetCount !== null);
+  const done = results.filter((r) => r.status === 'ok').length;
   return {
-    files: { total: results.length, ok: ok.length, failed: results.length - ok.length },
-    topPeriodNm: summarize(tops.map((t) => t.periodNm)),
-    weightedTopPeriodNm,
+    files: { total: results.length, ok: done, failed: results.length - done },
+    topPeriodNm: summarize(tops.map((t) => expressPeriod(t.periodicity, t.calibration).value)),
+    pooledTopPeriod: pooled ? { budget: pooled.budget, n: pooled.n, birgeRatio: pooled.birgeRatio } : null,
     sheetThicknessNm: summarize(sheets),
     sheetCount: ran.length ? ran.reduce((s, r) => s + (r.summary.sheetCount ?? 0), 0) : null,
   };

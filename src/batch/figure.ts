@@ -3,6 +3,7 @@
  * 8 bits, a scale bar of a round length, the analysed regions outlined, the accepted periods
  * written out) and small hand-written SVG histograms of the pooled values, also as PNG.
  */
+import { expressPeriod } from '../measure/measurement';
 import { encode } from 'fast-png';
 import { DRAWABLE_CHARACTERS, drawText, fillRect, measureText, strokeRectOutside, type Raster } from '../image/draw-text';
 import type { GreyImage } from '../image/grey-image';
@@ -152,7 +153,7 @@ export function annotatedFigure(image: GreyImage, result: FileResult, regions: R
     }
   }
   // the stroke fonts have digits, a few letters and signs: periods as "1: 1.400 nm", sheets as "n = 8, 2.00 nm"
-  const lines = result.summary.topPeriods.map((p, i) => `${i + 1}: ${p.periodNm.toFixed(3)} nm`);
+  const lines = result.summary.topPeriods.map((p, i) => `${i + 1}: ${result.calibration ? `${expressPeriod(p, result.calibration).value.toFixed(3)} nm` : `${p.periodPx.toFixed(2)} px`}`);
   if (result.summary.sheetCount !== null) {
     lines.push(`n = ${result.summary.sheetCount}` + (result.summary.meanThicknessNm !== null ? `, ${result.summary.meanThicknessNm.toFixed(2)} nm` : ''));
   }

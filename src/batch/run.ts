@@ -7,7 +7,8 @@
  * belong to the caller.
  */
 import type { Calibration, GreyImage } from '../image/grey-image';
-import type { Measurement, Periodicity, Region } from '../measure/measurement';
+import { checkCalibration, expressPeriod, type Measurement, type Periodicity, type Region } from '../measure/measurement';
+import { RecordVersionError, upgradeMeasurement, upgradeSummaryPeriod } from '../measure/record-version';
 import type { Acceptance, AnalysisArea, CalibrationRoute, Recipe } from './recipe';
 
 /** Sheets found by the automatic sheet tool, with the thickness of each sheet. */
@@ -44,12 +45,8 @@ export interface BatchDeps {
   domains?(image: GreyImage, region: Region): Promise<Measurement>;
 }
 
-/** One accepted period in a file's summary. */
-export interface TopPeriod {
-  periodNm: number;
-  uncertaintyNm: number;
-  angleDeg: number;
-  strength: number;
+/** One accepted period in a file's summary: the periodicity (px, with its parts) and the tool that found it; nm through expressPeriod with the file's calibration. */
+export interface TopPeriod extends Periodicity {
   /** The tool that found it. */
   tool: Measurement['tool'];
 }
@@ -90,6 +87,34 @@ export interface FileResult {
   notes: string[];
   /** SHA-256 of the file's bytes (lower-case hex), when the caller computed it: which file exactly. */
   sha256?: string;
+}
+
+/**
+ * A file result read back from a resume record, the library or an export, in the current record
+ * layout: its measurements upgraded (upgradeMeasurement) and its summary periods returned to pixels.
+ * @param raw the parsed result
+ * @param where how to name it in messages
+ * @returns the result (a new object)
+ * @throws RecordVersionError naming the field at fault (a newer record version included)
+ */
+export function upgradeFileResult(raw: unknown, where = 'result'): FileResult {
+  if (!raw || typeof raw !== 'object') throw new RecordVersionError(`${where} is not a file result`);
+  const r = raw as Record<string, unknown>;
+  if (r.status !== 'ok' && r.status !== 'failed') throw new RecordVersionError(`${where}.status must be 'ok' or 'failed', got ${String(r.status)}`);
+  if (typeof r.file !== 'string') throw new RecordVersionError(`${where}.file must be a text`);
+  let calibration: Calibration | null = null;
+  if (r.calibration !== null && r.calibration !== undefined) {
+    try {
+      calibration = checkCalibration(r.calibration as Calibration, `${where}.calibration`);
+    } catch (e) {
+      throw new RecordVersionError((e as Error).message);
+    }
+  }
+  const measurements = Array.isArray(r.measurements) ? r.measurements.map((m, i) => upgradeMeasurement(m, `${where}.measurements[${i}]`)) : [];
+  const summary = { ...emptySummary(), ...((r.summary ?? {}) as Partial<FileSummary>) };
+  const tops = Array.isArray(summary.topPeriods) ? (summary.topPeriods as unknown[]) : [];
+  summary.topPeriods = tops.map((t, i) => upgradeSummaryPeriod((t ?? {}) as Record<string, unknown>, calibration, `${where}.summary.topPeriods[${i}]`));
+  return { ...(r as unknown as FileResult), calibration, measurements, summary };
 }
 
 /** Options for `processOne`. */
@@ -196,17 +221,18 @@ export function analysisRegions(widthPx: number, heightPx: number, area: Analysi
 }
 
 /** Why a periodicity fails the acceptance thresholds, or null when it passes. */
-export function rejectionReason(p: Periodicity, acceptance: Acceptance): string | null {
+export function rejectionReason(p: Periodicity, acceptance: Acceptance, calibration: Calibration | null): string | null {
   if (p.strength < acceptance.minStrength) return `strength ${p.strength} below ${acceptance.minStrength}`;
+  const b = calibration ? expressPeriod(p, calibration, 1) : null;
   if (acceptance.periodRangeNm) {
     const [low, high] = acceptance.periodRangeNm;
-    if (p.periodNm === null) return 'uncalibrated period, a period range in nm cannot be checked';
-    if (p.periodNm < low || p.periodNm > high) return `period ${p.periodNm} nm outside [${low}, ${high}] nm`;
+    if (!b) return 'uncalibrated period, a period range in nm cannot be checked';
+    if (b.value < low || b.value > high) return `period ${Number(b.value.toPrecision(6))} nm outside [${low}, ${high}] nm`;
   }
   if (acceptance.maxRelUncertainty !== null) {
-    if (p.periodNm === null || p.uncertaintyNm === null) return 'uncalibrated period, no relative uncertainty';
-    const rel = p.uncertaintyNm / p.periodNm;
-    if (!(rel <= acceptance.maxRelUncertainty)) return `relative uncertainty ${rel} above ${acceptance.maxRelUncertainty}`;
+    if (!b) return 'uncalibrated period, no relative uncertainty';
+    const rel = b.combined / b.value;
+    if (!(rel <= acceptance.maxRelUncertainty)) return `relative standard uncertainty ${Number(rel.toPrecision(3))} above ${acceptance.maxRelUncertainty}`;
   }
   return null;
 }
@@ -216,7 +242,7 @@ function applyAcceptance(m: Measurement, acceptance: Acceptance): Measurement {
   const accepted: Periodicity[] = [];
   const rejected: { periodicity: Periodicity; reason: string }[] = [];
   for (const p of m.periodicities) {
-    const reason = rejectionReason(p, acceptance);
+    const reason = rejectionReason(p, acceptance, m.calibration);
     if (reason) rejected.push({ periodicity: p, reason });
     else accepted.push(p);
   }
@@ -350,9 +376,7 @@ export async function processOne(
     const topPeriods: TopPeriod[] = measurements
       .filter((m) => m.tool === periodTool)
       .flatMap((m) =>
-        m.periodicities
-          .filter((p) => p.periodNm !== null && p.uncertaintyNm !== null)
-          .map((p) => ({ periodNm: p.periodNm!, uncertaintyNm: p.uncertaintyNm!, angleDeg: p.angleDeg, strength: p.strength, tool: m.tool })),
+        m.periodicities.map((p) => ({ ...p, tool: m.tool })),
       )
       .sort((a, b) => b.strength - a.strength)
       .slice(0, topK);

@@ -5,6 +5,7 @@
  * The per-file work is `processOne` from the core; this file holds what is Node-specific: file
  * listing and reading, SHA-256 hashing, worker threads, progress, atomic writes.
  */
+import { expressPeriod } from '../measure/measurement';
 import { createHash } from 'node:crypto';
 import { closeSync, fstatSync, openSync, readSync } from 'node:fs';
 import { mkdir, readdir, readFile, rename, stat, writeFile } from 'node:fs/promises';
@@ -15,7 +16,7 @@ import { isMainThread, parentPort, Worker, workerData } from 'node:worker_thread
 import { batchJson, pooledStats, resultsCsv, summaryCsv, zipExports } from '../batch/export';
 import { annotatedFigurePng, histogramPng, histogramSvg } from '../batch/figure';
 import { canonicalRecipeJson, defaultRecipe, parseRecipe, RecipeError, type Recipe } from '../batch/recipe';
-import { missingTools, processOne, type BatchDeps, type FileResult } from '../batch/run';
+import { missingTools, processOne, upgradeFileResult, type BatchDeps, type FileResult } from '../batch/run';
 import { emptyState, isFinished, parseState, recordFileName, STATE_FILE_NAME, withEntry, type BatchState } from '../batch/state';
 import { createWorkspace, type Workspace } from '../image/workspace';
 import { parseArgs, UsageError, type CliCommand, type CliIo } from './command';
@@ -404,7 +405,7 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
       bytes.set(buf);
       const sha256 = sha256Hex(bytes);
       if (isFinished(state, file, sha256, recipeHash) && !figureMissing && (await exists(recordPath))) {
-        results.set(file, JSON.parse(await readFile(recordPath, 'utf8')) as FileResult);
+        results.set(file, upgradeFileResult(JSON.parse(await readFile(recordPath, 'utf8')), recordPath));
         skipped++;
         done++;
         io.err(progressLine(done, total, file, 'skipped (finished earlier)', bar));
@@ -508,7 +509,7 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
   if (jsonOut) await put(jsonOut, batchJson(recipe, ordered), basename(jsonOut));
   if (figuresDir) {
     const pooled = pooledStats(ordered);
-    const tops = ordered.flatMap((r) => (r.summary.topPeriods[0] ? [r.summary.topPeriods[0].periodNm] : []));
+    const tops = ordered.flatMap((r) => (r.summary.topPeriods[0] && r.calibration ? [expressPeriod(r.summary.topPeriods[0], r.calibration).value] : []));
     const topsHist = { xLabel: 'strongest period per image (nm)', title: `${tops.length} images` };
     if (tops.length) await put(join(figuresDir, 'histogram-top-period-nm.svg'), histogramSvg(tops, topsHist), 'figures/histogram-top-period-nm.svg');
     if (tops.length) await put(join(figuresDir, 'histogram-top-period-nm.png'), histogramPng(tops, topsHist), 'figures/histogram-top-period-nm.png');

@@ -3,6 +3,7 @@
  * burned-in scale bar (found and read automatically, offline) or an internal lattice standard,
  * with a warning when two of them disagree.
  */
+import { combinedPx } from '../measure/measurement';
 import { readFile } from 'node:fs/promises';
 import type { CliCommand, CliIo } from './command';
 import { parseArgs, UsageError } from './command';
@@ -199,7 +200,7 @@ export const command: CliCommand = {
         const top = m.periodicities[0];
         if (!top) throw new Error(`no significant periodicity in region ${options.get('region')}: choose a region with clear fringes of the standard`);
         periodPx = top.periodPx;
-        uPx = top.uncertaintyPx;
+        uPx = combinedPx(top.u);
       }
       candidates.push(calibrateFromStandard(periodPx, uPx, standardId));
     }

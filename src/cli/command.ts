@@ -56,3 +56,16 @@ export function parseArgs(
   }
   return { positional, options, flags };
 }
+
+/**
+ * The coverage factor k from `--coverage-factor` (default 2).
+ * @param text the option's value, or undefined when not given
+ * @returns k, a positive number
+ * @throws UsageError naming the option when the value is not a positive number
+ */
+export function coverageFactorOption(text: string | undefined): number {
+  if (text === undefined) return 2;
+  const k = Number(text);
+  if (!Number.isFinite(k) || k <= 0) throw new UsageError(`--coverage-factor must be a positive number (k of U = k·u), got '${text}'`);
+  return k;
+}

@@ -4,22 +4,16 @@
  */
 import { readFile } from 'node:fs/promises';
 import type { CliCommand, CliIo } from './command';
-import { parseArgs, UsageError } from './command';
+import { coverageFactorOption, parseArgs, UsageError } from './command';
 import { decodeImage, ImageReadError } from '../image/decode';
 import type { Calibration, GreyImage } from '../image/grey-image';
 import { measureRegion } from '../measure/measure-region';
-import type { Measurement } from '../measure/measurement';
+import { budgetContents, budgetJson, DEFAULT_COVERAGE_FACTOR, expressPeriod, formatPlusMinus, type Measurement, type Periodicity } from '../measure/measurement';
+import { calibrationPartsText, INDICATED_MAGNIFICATION_REL, makeCalibration } from '../calibration/calibration';
 import type { WindowKind } from '../measure/window';
 
-/**
- * Relative standard uncertainty given to a pixel size typed by hand when --rel-uncertainty is not
- * set: 5 %, the reproducibility of an indicated TEM magnification (EMSA abstract "Magnification
- * determination for high resolution electron microscopy", reference-values §5).
- */
-export const MANUAL_REL_UNCERTAINTY = 0.05;
-
 const usage = `Usage: stratameter measure IMAGE [--nm-per-px X] [--rel-uncertainty U] [--region x,y,w,h]
-                           [--alpha A] [--window hann|tukey|none] [--json]
+                           [--alpha A] [--window hann|tukey|none] [--coverage-factor K] [--json]
 
 Finds the periodicities of IMAGE (or of a rectangle of it) in its power spectrum: lattice-fringe
 and lamellar periods (d-spacings) with their directions, strongest first. A region with no
@@ -32,27 +26,27 @@ Options:
   --region x,y,w,h      rectangle in pixels: left, top, width, height (default: the whole image)
   --alpha A             false-alarm probability for the whole spectrum (default 0.001)
   --window W            hann (default), tukey or none
+  --coverage-factor K   k of the expanded uncertainty U = k·u (default 2, about 95 %)
   --json                one JSON object on standard output instead of a table
 
 Angles: direction of the fringe normal in degrees, 0 to 180, counter-clockwise from +x as the
-image is shown (x right, y up). Uncertainties are standard uncertainties (k = 1); in nm they
-include the pixel size's uncertainty.
+image is shown (x right, y up). Each ± is an expanded uncertainty U = k·u; the line below the
+table says what it contains (statistical, local variation, method, calibration). The JSON gives
+every part as a standard uncertainty (k = 1) in its own field.
 `;
 
 /** The JSON shape printed by `measure --json`. */
 export interface MeasureReport {
   file: string;
-  width: number;
-  height: number;
-  calibration: { nmPerPx: number | null; source: string | null; relUncertainty: number | null };
-  periodicities: {
-    periodPx: number;
-    periodNm: number | null;
-    angleDeg: number;
-    uncertaintyPx: number;
-    uncertaintyNm: number | null;
-    strength: number;
-  }[];
+  widthPx: number;
+  heightPx: number;
+  /** The pixel size used, with its uncertainty parts, or null. */
+  calibration: Calibration | null;
+  coverageFactorK: number;
+  /** Each periodicity: the record's pixel values and parts, and its budget in nm (or px when uncalibrated). */
+  periodicities: (Periodicity & { budget: Record<string, number | string> })[];
+  /** The measurement record itself (version 2). */
+  measurement: Measurement;
 }
 
 function positiveNumber(name: string, text: string): number {
@@ -73,56 +67,51 @@ export function parseRegion(text: string): { x: number; y: number; width: number
 }
 
 /** Builds the JSON report from a measurement. */
-export function measureReport(file: string, image: GreyImage, m: Measurement): MeasureReport {
-  const c = m.calibration;
+export function measureReport(file: string, image: GreyImage, m: Measurement, k: number = DEFAULT_COVERAGE_FACTOR): MeasureReport {
   return {
     file,
-    width: image.width,
-    height: image.height,
-    calibration: { nmPerPx: c?.nmPerPx ?? null, source: c?.source ?? null, relUncertainty: c?.relUncertainty ?? null },
-    periodicities: m.periodicities.map((p) => ({
-      periodPx: p.periodPx,
-      periodNm: p.periodNm,
-      angleDeg: p.angleDeg,
-      uncertaintyPx: p.uncertaintyPx,
-      uncertaintyNm: p.uncertaintyNm,
-      strength: p.strength,
-    })),
+    widthPx: image.width,
+    heightPx: image.height,
+    calibration: m.calibration,
+    coverageFactorK: k,
+    periodicities: m.periodicities.map((p) => ({ ...p, budget: budgetJson(expressPeriod(p, m.calibration, k), 'period') })),
+    measurement: m,
   };
-}
-
-/** "d ± u" with u to two significant digits and d to the same decimal place. */
-export function formatPlusMinus(value: number, u: number): string {
-  if (!Number.isFinite(u) || u <= 0) return `${Number(value.toPrecision(6))}`;
-  const decimals = Math.max(0, Math.min(10, 1 - Math.floor(Math.log10(u))));
-  return `${value.toFixed(decimals)} ± ${u.toFixed(decimals)}`;
 }
 
 /** The report as a readable table. */
 export function formatMeasure(r: MeasureReport, notes: string[]): string {
   const c = r.calibration;
-  const lines = [`file         ${r.file} (${r.width} × ${r.height} px)`];
+  const k = r.coverageFactorK;
+  const lines = [`file         ${r.file} (${r.widthPx} × ${r.heightPx} px)`];
   lines.push(
-    c.nmPerPx !== null
-      ? `calibration  ${Number(c.nmPerPx.toPrecision(6))} nm per pixel, ±${Number(((c.relUncertainty ?? 0) * 100).toPrecision(3))} % (source: ${c.source})`
+    c
+      ? `calibration  ${Number(c.nmPerPx.toPrecision(6))} nm per pixel, u = ${Number((c.relUncertainty * 100).toPrecision(2))} % (source: ${c.source}; ${calibrationPartsText(c)})`
       : 'calibration  none (periods in px only; set one with --nm-per-px)',
   );
   if (r.periodicities.length === 0) {
     lines.push('', 'no significant periodicity in this region');
   } else {
+    const budgets = r.periodicities.map((p) => expressPeriod(p, c, k));
+    const pxBudgets = r.periodicities.map((p) => expressPeriod(p, null, k));
     const rows = r.periodicities.map((p, i) => [
       String(i + 1),
-      formatPlusMinus(p.periodPx, p.uncertaintyPx),
-      p.periodNm !== null && p.uncertaintyNm !== null ? formatPlusMinus(p.periodNm, p.uncertaintyNm) : '—',
+      formatPlusMinus(p.periodPx, pxBudgets[i].expanded),
+      c ? formatPlusMinus(budgets[i].value, budgets[i].expanded) : '—',
       p.angleDeg.toFixed(2),
       Number(p.strength.toPrecision(3)).toString(),
+      p.flags.join(', '),
     ]);
-    const head = ['#', 'd (px)', 'd (nm)', 'angle (°)', 'strength'];
+    const head = ['#', 'd (px)', 'd (nm)', 'angle (°)', 'strength', 'doubts'];
     const widths = head.map((h, j) => Math.max(h.length, ...rows.map((row) => row[j].length)));
     const fmt = (row: string[]) => row.map((cell, j) => (j === 0 ? cell.padStart(widths[j]) : cell.padEnd(widths[j]))).join('  ').trimEnd();
     lines.push('', fmt(head), ...rows.map(fmt));
+    const contains = [...new Set(budgets.map((b) => budgetContents(b)))].join(' / ');
+    lines.push('', `± is the expanded uncertainty U = k·u with k = ${k}; it contains: ${contains}.`);
+    if (r.periodicities.some((p) => p.flags.length)) lines.push('doubts: a period with a doubt is never ranked first; see the notes.');
   }
   for (const n of notes) lines.push(`note: ${n}`);
+  lines.push('Results inform research; they do not replace an accredited calibration.');
   return `${lines.join('\n')}\n`;
 }
 
@@ -132,7 +121,7 @@ export const command: CliCommand = {
   usage,
   async run(args: string[], io: CliIo): Promise<number> {
     const { positional, options, flags } = parseArgs(args, {
-      values: ['nm-per-px', 'rel-uncertainty', 'region', 'alpha', 'window'],
+      values: ['nm-per-px', 'rel-uncertainty', 'region', 'alpha', 'window', 'coverage-factor'],
       booleans: ['json'],
     });
     if (positional.length !== 1) throw new UsageError(`expected one IMAGE, got ${positional.length}\n\n${usage}`);
@@ -143,12 +132,15 @@ export const command: CliCommand = {
     let manual: Calibration | null = null;
     if (options.has('nm-per-px')) {
       const nmPerPx = positiveNumber('nm-per-px', options.get('nm-per-px')!);
-      const rel = options.has('rel-uncertainty') ? Number(options.get('rel-uncertainty')) : MANUAL_REL_UNCERTAINTY;
+      const rel = options.has('rel-uncertainty') ? Number(options.get('rel-uncertainty')) : INDICATED_MAGNIFICATION_REL;
       if (!Number.isFinite(rel) || rel < 0 || rel >= 1) {
         throw new UsageError(`--rel-uncertainty must be a number in [0, 1), got '${options.get('rel-uncertainty')}'`);
       }
-      manual = { nmPerPx, source: 'manual', relUncertainty: rel, detail: 'given on the command line' };
+      manual = makeCalibration(nmPerPx, 'manual', 'given on the command line', [
+        { name: options.has('rel-uncertainty') ? 'stated by the user' : 'indicated magnification (no uncertainty given)', rel, type: 'B' },
+      ]);
     }
+    const k = coverageFactorOption(options.get('coverage-factor'));
     const region = options.has('region') ? parseRegion(options.get('region')!) : null;
     const alpha = options.has('alpha') ? Number(options.get('alpha')) : undefined;
     if (alpha !== undefined && !(alpha > 0 && alpha < 1)) throw new UsageError(`--alpha must be in (0, 1), got '${options.get('alpha')}'`);
@@ -181,7 +173,7 @@ export const command: CliCommand = {
       if (e instanceof RangeError) throw new UsageError(e.message);
       throw e;
     }
-    const report = measureReport(file, image, m);
+    const report = measureReport(file, image, m, k);
     if (flags.has('json')) io.out(`${JSON.stringify(report)}\n`);
     else io.out(formatMeasure(report, m.notes));
     for (const w of image.warnings) io.err(`warning: ${w}\n`);

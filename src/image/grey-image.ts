@@ -15,12 +15,29 @@ export interface Calibration {
   nmPerPx: number;
   /** Pixel size along y in nm per pixel when the pixels are not square; absent when square. */
   nmPerPxY?: number;
+  /**
+   * Shear of the pixel grid in degrees: how far the pixel axes deviate from a right angle on the
+   * specimen (scan distortion); absent when there is none.
+   */
+  shearDeg?: number;
   /** Which route produced the value. */
   source: CalibrationSource;
-  /** Relative standard uncertainty of nmPerPx (k = 1), e.g. 0.05 for 5 %. */
+  /** Relative standard uncertainty of nmPerPx (k = 1), e.g. 0.05 for 5 %: the root-sum-square of `parts`. */
   relUncertainty: number;
+  /** What relUncertainty is made of, each a relative standard uncertainty (k = 1); absent in older records. */
+  parts?: CalibrationUncertaintyPart[];
   /** Readable detail: the tag read, the standard used, the profile's name. */
   detail: string;
+}
+
+/** One named part of a calibration's relative standard uncertainty. */
+export interface CalibrationUncertaintyPart {
+  /** What it is, in the user's words (e.g. "bar end location", "label rounding", "standard's spacing"). */
+  name: string;
+  /** Relative standard uncertainty (k = 1). */
+  rel: number;
+  /** Type A (statistical, from the image) or type B (other knowledge: a bound, a certificate). */
+  type: 'A' | 'B';
 }
 
 /** Sample type of the file the image came from. */
@@ -77,16 +94,4 @@ export function makeGreyImage(
     calibration: fields.calibration ?? null,
     warnings: fields.warnings ?? [],
   };
-}
-
-/** Absolute standard uncertainty in nm of a length measured in pixels. */
-export function lengthUncertaintyNm(
-  lengthPx: number,
-  uncertaintyPx: number,
-  calibration: Calibration,
-): number {
-  const nm = lengthPx * calibration.nmPerPx;
-  const statNm = uncertaintyPx * calibration.nmPerPx;
-  const calNm = nm * calibration.relUncertainty;
-  return Math.hypot(statNm, calNm);
 }

@@ -2,8 +2,9 @@
  * The one entry point for "what periods are in this region?", called alike by the command line,
  * the app and the batch runner.
  */
-import type { Calibration, GreyImage } from '../image/grey-image';
-import { type Measurement, type Periodicity, toNm } from './measurement';
+import type { GreyImage } from '../image/grey-image';
+import { type Measurement, RECORD_VERSION } from './measurement';
+import { spotPeriodicity } from './spot-near';
 import { refineData, refineSpot } from './refine';
 import { findSpots, powerSpectrum, type PowerSpectrumOptions, type RectPx, type SpotOptions, type Spot, type PowerSpectrum } from './spectrum';
 
@@ -15,26 +16,6 @@ export interface MeasureRegionOptions extends PowerSpectrumOptions, SpotOptions 
   imageId?: string | null;
   /** Refine this many of the strongest spots on a lightly tapered window (default 6; 0: Hann estimates only). */
   refineSpots?: number;
-}
-
-/** Period in nm of a frequency vector under a calibration, allowing non-square pixels. */
-function periodicityOf(spot: Spot, calibration: Calibration | null): Periodicity {
-  let periodNm: number | null = null;
-  let uncertaintyNm: number | null = null;
-  if (calibration) {
-    const ny = calibration.nmPerPxY ?? calibration.nmPerPx;
-    const dNm = 1 / Math.hypot(spot.fx / calibration.nmPerPx, spot.fy / ny);
-    const scale = dNm / spot.periodPx; // nm per px along the fringe normal
-    ({ periodNm, uncertaintyNm } = toNm(spot.periodPx, spot.periodUncertaintyPx, { ...calibration, nmPerPx: scale }));
-  }
-  return {
-    periodPx: spot.periodPx,
-    periodNm,
-    angleDeg: spot.angleDeg,
-    uncertaintyPx: spot.periodUncertaintyPx,
-    uncertaintyNm,
-    strength: spot.normalisedPower,
-  };
 }
 
 /** A measurement together with the large arrays a display needs. */
@@ -72,7 +53,7 @@ export async function analyseRegion(
       return r ?? s;
     });
   }
-  const periodicities = search.spots.map((s) => periodicityOf(s, image.calibration));
+  const periodicities = search.spots.map(spotPeriodicity);
   const notes: string[] = [];
   const r = region ?? { x: 0, y: 0, width: image.width, height: image.height };
   if (spectrum.width !== r.width || spectrum.height !== r.height) {
@@ -85,6 +66,7 @@ export async function analyseRegion(
   }
   if (!image.calibration) notes.push('image not calibrated: periods in px only');
   const measurement: Measurement = {
+    recordVersion: RECORD_VERSION,
     id: globalThis.crypto.randomUUID(),
     imageId: options.imageId ?? null,
     fileName: options.fileName ?? '',
@@ -113,7 +95,6 @@ export async function analyseRegion(
         fyPerPx: s.fy,
         normalisedPower: s.normalisedPower,
         snr: s.snr,
-        angleUncertaintyDeg: s.angleUncertaintyDeg,
       })),
     },
     notes,

@@ -13,8 +13,6 @@ export interface LineProfileOptions {
 export interface LineProfile {
   /** Distance of each sample from the start point, in pixels (1 px steps). */
   distancePx: Float64Array;
-  /** The same distances in nm, or null when the image carries no calibration. */
-  distanceNm: Float64Array | null;
   /** Mean grey value across the width at each sample. */
   mean: Float64Array;
   /** Standard error of that mean (sample SD across the width / √n); NaN when the width is one sample. */
@@ -47,12 +45,11 @@ function bilinear(img: GreyImage, x: number, y: number): number {
  *
  * Parameters: the image; start (x0, y0) and end (x1, y1) in pixel coordinates (x right, y = row
  * index, pixel centres at integers); options (width).
- * Returns: distances (px and, when calibrated, nm), the mean across the width and its standard
+ * Returns: distances in px (nm follow late, through the calibration), the mean across the width and its standard
  * error at each sample, the line's length and direction.
  * Notes: samples are taken every 1 px from the start point (floor(length) + 1 samples); across the
  * width, round(widthPx) samples 1 px apart centred on the line are averaged. Every sample point must
- * lie inside the image, otherwise the call is rejected. In nm, the distance uses the pixel size along
- * the line's direction (non-square pixels allowed).
+ * lie inside the image, otherwise the call is rejected.
  * Reference: bilinear interpolation, Press et al., Numerical Recipes 3rd ed. §3.6 (2007).
  */
 export function lineProfile(
@@ -112,14 +109,8 @@ export function lineProfile(
     mean[i] = m;
     standardError[i] = across > 1 ? Math.sqrt(Math.max(0, (sum2 - across * m * m) / (across - 1)) / across) : NaN;
   }
-  let distanceNm: Float64Array | null = null;
-  const cal = image.calibration;
-  if (cal) {
-    const nmPerStep = Math.hypot(ux * cal.nmPerPx, uy * (cal.nmPerPxY ?? cal.nmPerPx));
-    distanceNm = distancePx.map((d) => d * nmPerStep);
-  }
   let angleDeg = (Math.atan2(-(y1 - y0), x1 - x0) * 180) / Math.PI;
   angleDeg = ((angleDeg % 180) + 180) % 180;
   if (angleDeg >= 180 - 1e-12) angleDeg = 0;
-  return { distancePx, distanceNm, mean, standardError, lengthPx, angleDeg };
+  return { distancePx, mean, standardError, lengthPx, angleDeg };
 }

@@ -161,8 +161,8 @@ export function refineSpot(data: RefineData, spot: Spot, options: RefineSpotOpti
     fx,
     fy,
     periodPx: 1 / f,
-    periodUncertaintyPx: sRad / (f * f),
+    u: { ...spot.u, statisticalPx: sRad / (f * f) },
     angleDeg: frequencyAngleDeg(fx, fy),
-    angleUncertaintyDeg: ((sTan / f) * 180) / Math.PI,
+    uAngleDeg: ((sTan / f) * 180) / Math.PI,
   };
 }

@@ -1,6 +1,7 @@
 /**
  * Sheets along a line drawn on an image: the width-averaged line profile through `sheetsAlongProfile`.
  */
+import { nmPerPxAlong } from './measurement';
 import type { GreyImage } from '../image/grey-image';
 import { lineProfile } from './profile';
 import { sheetsAlongProfile, type ProfileSheet, type ProfileSheetsResult, type SheetProfileOptions } from './sheets';
@@ -58,7 +59,7 @@ export function sheetsAlongLine(
   const widthPx = options.widthPx ?? 9;
   const prof = lineProfile(image, x0, y0, x1, y1, { widthPx });
   if (prof.mean.length < 8) throw new RangeError(`the line must be at least 8 px long, got ${prof.lengthPx.toFixed(1)} px`);
-  const nmPerSample = prof.distanceNm && prof.distanceNm.length > 1 ? prof.distanceNm[1] - prof.distanceNm[0] : null;
+  const nmPerSample = image.calibration ? nmPerPxAlong(image.calibration, 'line', prof.angleDeg) : null;
   const r = sheetsAlongProfile(prof.mean, { ...options, nmPerSample });
   const ux = (x1 - x0) / prof.lengthPx;
   const uy = (y1 - y0) / prof.lengthPx;

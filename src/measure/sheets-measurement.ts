@@ -3,7 +3,7 @@
  * and the exports). Plain JSON only in `detail`.
  */
 import type { Calibration } from '../image/grey-image';
-import { toNm, type Measurement, type Periodicity } from './measurement';
+import { expressLength, noUncertainty, RECORD_VERSION, type Measurement, type Periodicity } from './measurement';
 import type { AutoSheetsResult } from './sheets-auto';
 import type { LineSheetsResult } from './sheets-line';
 import type { DomainMapResult } from './domains';
@@ -69,14 +69,14 @@ function checkContext(ctx: MeasurementContext): void {
   if (typeof ctx.fileName !== 'string') throw new TypeError(`ctx.fileName must be a string, got ${String(ctx.fileName)}`);
 }
 
-function periodicity(periodPx: number, uncertaintyPx: number, angleDeg: number, strength: number, cal: Calibration | null): Periodicity {
-  const { periodNm, uncertaintyNm } = toNm(periodPx, uncertaintyPx, cal);
-  return { periodPx, periodNm, angleDeg, uncertaintyPx, uncertaintyNm, strength };
+/** A layer period along a layer normal, with its local-variation uncertainty (the spread of spacings or lines over √n). */
+function periodicity(periodPx: number, localVariationPx: number, angleDeg: number, strength: number, geometry: Periodicity['geometry'] = 'normal'): Periodicity {
+  return { periodPx, angleDeg, geometry, u: { ...noUncertainty(), localVariationPx }, uAngleDeg: 0, strength, flags: [] };
 }
 
 /** The fields every sheets record takes from its context. */
-function recordHead(ctx: MeasurementContext, tool: Measurement['tool']): Pick<Measurement, 'id' | 'imageId' | 'fileName' | 'createdIso' | 'tool'> {
-  return { id: ctx.id, imageId: ctx.imageId, fileName: ctx.fileName, createdIso: ctx.createdIso ?? new Date().toISOString(), tool };
+function recordHead(ctx: MeasurementContext, tool: Measurement['tool']): Pick<Measurement, 'recordVersion' | 'id' | 'imageId' | 'fileName' | 'createdIso' | 'tool'> {
+  return { recordVersion: RECORD_VERSION, id: ctx.id, imageId: ctx.imageId, fileName: ctx.fileName, createdIso: ctx.createdIso ?? new Date().toISOString(), tool };
 }
 
 /**
@@ -105,7 +105,7 @@ export function lineSheetsMeasurement(
     calibration: cal,
     settings: { ...(ctx.settings ?? {}), periodPx: r.periodPx, periodSource: r.periodSource },
     periodicities: r.sheets.map((s) =>
-      periodicity(s.periodPx, s.layers > 2 ? s.spacingSdPx / Math.sqrt(s.layers - 1) : 0, s.angleDeg, r.noiseRms > 0 ? s.amplitude / r.noiseRms : Infinity, cal),
+      periodicity(s.periodPx, s.layers > 2 ? s.spacingSdPx / Math.sqrt(s.layers - 1) : 0, s.angleDeg, r.noiseRms > 0 ? s.amplitude / r.noiseRms : Infinity, 'line'),
     ),
     detail: {
       sheets: r.sheets.map((s) => ({
@@ -144,7 +144,7 @@ export function autoSheetsMeasurement(r: AutoSheetsResult, ctx: MeasurementConte
       const ps = s.crossings.map((c) => c.periodPx);
       const m = ps.reduce((a, b) => a + b, 0) / ps.length;
       const sd = ps.length > 1 ? Math.sqrt(ps.reduce((a, b) => a + (b - m) ** 2, 0) / (ps.length - 1)) : 0;
-      return periodicity(s.periodPx, sd / Math.sqrt(ps.length), s.angleDeg, s.crossings.length, cal);
+      return periodicity(s.periodPx, sd / Math.sqrt(ps.length), s.angleDeg, s.crossings.length);
     }),
     detail: { sheets: r.sheets.map((s) => ({ ...s })), regions: r.regions },
     notes: r.sheets.length === 0 ? ['no sheets found'] : [],
@@ -166,7 +166,7 @@ export function domainsMeasurement(r: DomainMapResult, ctx: MeasurementContext):
     region: null,
     calibration: cal,
     settings: { ...(ctx.settings ?? {}), tileSizePx: r.tileSizePx, stepPx: r.stepPx },
-    periodicities: r.domains.map((d) => periodicity(d.periodPx, d.periodSdPx / Math.sqrt(d.tiles), d.angleDeg, d.tiles, cal)),
+    periodicities: r.domains.map((d) => periodicity(d.periodPx, d.periodSdPx / Math.sqrt(d.tiles), d.angleDeg, d.tiles)),
     detail: { domains: r.domains.map((d) => ({ ...d })), columns: r.columns, rows: r.rows, labels: Array.from(r.labels) },
     notes: r.domains.length === 0 ? ['no periodic domains'] : [],
   };

@@ -8,6 +8,7 @@ import { loadCv } from '../image/cv';
 import { kernelRatioOffset, magnitudeRatioOffset } from './interpolate';
 import { frequencyCrbStd } from './period-profile';
 import { normalUpperQuantile } from './stats';
+import type { Periodicity } from './measurement';
 import { type WindowKind, windowSamples, windowVarianceFactor } from './window';
 
 /** A rectangle in pixel coordinates (x right, y = row index). */
@@ -283,21 +284,16 @@ export interface SpotOptions {
   maxSpots?: number;
 }
 
-/** One spot of a power spectrum (one of a Friedel pair; its mate is at −(fx, fy)). */
-export interface Spot {
+/**
+ * One spot of a power spectrum (one of a Friedel pair; its mate is at −(fx, fy)): a periodicity
+ * with geometry 'normal' and the frequency vector it came from.
+ */
+export interface Spot extends Periodicity {
   /** Frequency along x in cycles/px (refined). */
   fx: number;
   /** Frequency along the row index (downwards) in cycles/px (refined). */
   fy: number;
-  /** Period d = 1/|f| in px (square pixels). */
-  periodPx: number;
-  /** Standard uncertainty of periodPx from the data (Cramér–Rao bound × window factor). */
-  periodUncertaintyPx: number;
-  /** Fringe-normal direction, degrees in [0, 180), counter-clockwise from +x as shown (y up). */
-  angleDeg: number;
-  /** Standard uncertainty of angleDeg. */
-  angleUncertaintyDeg: number;
-  /** Peak power over the radial background (normalised power) at the brightest bin. */
+  /** Peak power over the local background (normalised power) at the brightest bin; also `strength`. */
   normalisedPower: number;
   /** SNR η = A²/(2σ²) of the plane wave, from the spot's energy over the background. */
   snr: number;
@@ -512,9 +508,12 @@ export function findSpots(spectrum: PowerSpectrum, options: SpotOptions = {}): S
       fx,
       fy,
       periodPx: 1 / f,
-      periodUncertaintyPx: sRad / (f * f),
       angleDeg: frequencyAngleDeg(fx, fy),
-      angleUncertaintyDeg: ((sTan / f) * 180) / Math.PI,
+      geometry: 'normal',
+      u: { statisticalPx: sRad / (f * f), localVariationPx: 0, methodPx: 0 },
+      uAngleDeg: ((sTan / f) * 180) / Math.PI,
+      strength: a.z,
+      flags: [],
       normalisedPower: a.z,
       snr,
     };
@@ -687,4 +686,21 @@ export function findRings(profile: RadialProfile, options: RingOptions = {}): Ri
   }
   rings.sort((a, b) => b.strength - a.strength);
   return rings;
+}
+
+/**
+ * A ring as the record's Periodicity: geometry 'ring' (no direction, angle 0), strength its significance.
+ * @param ring a ring of {@link findRings}
+ * @returns the Periodicity with the ring's statistical uncertainty
+ */
+export function ringPeriodicity(ring: Ring): Periodicity {
+  return {
+    periodPx: ring.periodPx,
+    angleDeg: 0,
+    geometry: 'ring',
+    u: { statisticalPx: ring.uncertaintyPx, localVariationPx: 0, methodPx: 0 },
+    uAngleDeg: 0,
+    strength: ring.strength,
+    flags: [],
+  };
 }

@@ -2,9 +2,8 @@
  * A spectrum spot picked by the user: the brightest bin near a clicked frequency, refined below
  * one bin the same way the automatic search refines its spots.
  */
-import type { Calibration } from '../image/grey-image';
 import { logParabolaOffset, magnitudeRatioOffset } from './interpolate';
-import { type Periodicity, toNm } from './measurement';
+import type { Periodicity } from './measurement';
 import { frequencyCrbStd } from './period-profile';
 import { frequencyAngleDeg, radialBackground, type PowerSpectrum, type Spot } from './spectrum';
 import { windowVarianceFactor } from './window';
@@ -89,37 +88,31 @@ export function spotNear(spectrum: PowerSpectrum, fx: number, fy: number, option
     fx: sfx,
     fy: sfy,
     periodPx: 1 / f,
-    periodUncertaintyPx: sRad / (f * f),
     angleDeg: frequencyAngleDeg(sfx, sfy),
-    angleUncertaintyDeg: ((sTan / f) * 180) / Math.PI,
+    geometry: 'normal',
+    u: { statisticalPx: sRad / (f * f), localVariationPx: 0, methodPx: 0 },
+    uAngleDeg: ((sTan / f) * 180) / Math.PI,
+    strength: best / b,
+    flags: [],
     normalisedPower: best / b,
     snr,
   };
 }
 
 /**
- * A spot as a Periodicity under a calibration (non-square pixels allowed).
+ * A spot as the record's Periodicity: the same numbers without the frequency vector and SNR.
  *
- * Parameters: spot; calibration or null.
- * Returns: the Periodicity; nm fields null when uncalibrated.
- * Notes: the nm period is 1/|(fx/sx, fy/sy)| with the pixel sizes sx, sy; its uncertainty combines
- * the statistical part and the calibration's relative uncertainty in quadrature (toNm).
- * Reference: GUM, JCGM 100:2008 §5.1 (combined standard uncertainty).
+ * Parameters: spot.
+ * Returns: the Periodicity (px, with its uncertainty parts); nm follow late through expressPeriod.
  */
-export function spotPeriodicity(spot: Spot, calibration: Calibration | null): Periodicity {
-  let periodNm: number | null = null;
-  let uncertaintyNm: number | null = null;
-  if (calibration) {
-    const ny = calibration.nmPerPxY ?? calibration.nmPerPx;
-    const dNm = 1 / Math.hypot(spot.fx / calibration.nmPerPx, spot.fy / ny);
-    ({ periodNm, uncertaintyNm } = toNm(spot.periodPx, spot.periodUncertaintyPx, { ...calibration, nmPerPx: dNm / spot.periodPx }));
-  }
+export function spotPeriodicity(spot: Spot): Periodicity {
   return {
     periodPx: spot.periodPx,
-    periodNm,
     angleDeg: spot.angleDeg,
-    uncertaintyPx: spot.periodUncertaintyPx,
-    uncertaintyNm,
-    strength: spot.normalisedPower,
+    geometry: 'normal',
+    u: { ...spot.u },
+    uAngleDeg: spot.uAngleDeg,
+    strength: spot.strength,
+    flags: [...spot.flags],
   };
 }

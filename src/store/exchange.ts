@@ -17,12 +17,27 @@ import type {
   RecipeRecord,
 } from './records';
 import { SCHEMA_VERSION, type LibraryDb } from './schema';
+import { RecordVersionError, upgradeMeasurement } from '../measure/record-version';
+import { upgradeFileResult } from '../batch/run';
+
+/** Runs a record upgrade, turning its error into an ImportError that names the record. */
+function upgraded<T>(f: () => T): T {
+  try {
+    return f();
+  } catch (e) {
+    if (e instanceof RecordVersionError) throw new ImportError(`The library file is not usable: ${e.message}. Nothing was imported.`);
+    throw e;
+  }
+}
 import type { BatchFileRecord } from './batches';
 
 /** The `format` field of an exported library. */
 export const EXPORT_FORMAT = 'stratameter-library';
-/** Version of the export layout. */
-export const EXPORT_FORMAT_VERSION = 1;
+/**
+ * Version of the export layout. 2: measurement records of version 2 (pixels with their
+ * uncertainty parts, calibration applied late). Version-1 files are read and their records upgraded.
+ */
+export const EXPORT_FORMAT_VERSION = 2;
 
 /** An image as it appears in the export: bytes as base64. */
 export interface ExportedImage extends Omit<ImageRecord, 'file' | 'thumbnail'> {
@@ -286,7 +301,7 @@ export async function importLibrary(db: LibraryDb, json: string): Promise<Import
     str(m, 'createdIso', where);
     need(Array.isArray(m.periodicities), `${where}.periodicities`, 'must be a list');
     calibrationOk(m.calibration ?? null, `${where}.calibration`);
-    return m as unknown as Measurement;
+    return upgraded(() => upgradeMeasurement(m, where));
   });
   const calibrations = list(root, 'calibrations').map((o, i) => {
     const where = `calibrations[${i}]`;
@@ -342,8 +357,10 @@ export async function importLibrary(db: LibraryDb, json: string): Promise<Import
     }
     need((await sha256Hex(bytes)) === r.sha256Hex, where, `(${name}): the file's SHA-256 does not match the one recorded, so the file is damaged`);
     const { fileBase64: _f, figurePngBase64: _p, ...rest } = r;
+    const result = r.result === null || r.result === undefined ? null : upgraded(() => upgradeFileResult(r.result, `${where}.result`));
     batchFiles.push({
       ...(rest as unknown as Omit<BatchFileRecord, 'file' | 'figurePng'>),
+      result,
       byteSize: bytes.byteLength,
       file: new Blob([bytes as Uint8Array<ArrayBuffer>]),
       figurePng: figure,

@@ -6,6 +6,8 @@
  * fake-indexeddb in Node. Nothing is cached here; every function takes the open database.
  * Every save is one transaction: it is stored whole or not at all.
  */
+import { RECORD_VERSION } from '../measure/measurement';
+import { upgradeMeasurement } from '../measure/record-version';
 import { openDB, type StoreNames } from 'idb';
 import type { Calibration, GreyImage } from '../image/grey-image';
 import { sha256Hex } from './bytes';
@@ -226,7 +228,8 @@ export async function deleteImage(db: LibraryDb, id: string): Promise<number> {
 function checkMeasurement(m: Measurement): void {
   if (!m || typeof m.id !== 'string' || !m.id) throw new TypeError(`measurement id must be a non-empty string, got ${JSON.stringify(m?.id)}`);
   if (m.imageId !== null && typeof m.imageId !== 'string') throw new TypeError(`measurement ${m.id}: imageId must be a string or null`);
-  if (!Array.isArray(m.periodicities)) throw new TypeError(`measurement ${m.id}: periodicities must be an array`);
+  if (m.recordVersion !== RECORD_VERSION) throw new TypeError(`measurement ${m.id}: recordVersion must be ${RECORD_VERSION}, got ${String(m.recordVersion)}`);
+  upgradeMeasurement(m, `measurement ${m.id}`); // checks the calibration and every periodicity
 }
 
 /** Stores (or replaces) a measurement. */
@@ -238,9 +241,17 @@ export async function putMeasurement(db: LibraryDb, m: Measurement): Promise<Mea
   return m;
 }
 
-/** Measurements of one image (or all measurements), oldest first. */
+/** Measurements of one image (or all measurements), oldest first, in the current record layout (damaged records left out). */
 export async function listMeasurements(db: LibraryDb, imageId?: string): Promise<Measurement[]> {
-  const all = imageId === undefined ? await db.getAll('measurements') : await db.getAllFromIndex('measurements', 'byImage', imageId);
+  const raw = imageId === undefined ? await db.getAll('measurements') : await db.getAllFromIndex('measurements', 'byImage', imageId);
+  // a record no known version can read (damaged) is left out, never shown with made-up numbers
+  const all = raw.flatMap((m) => {
+    try {
+      return [upgradeMeasurement(m, `measurement ${m?.id}`)];
+    } catch {
+      return [];
+    }
+  });
   return all.sort((a, b) => (a.createdIso < b.createdIso ? -1 : a.createdIso > b.createdIso ? 1 : 0));
 }
 

@@ -16,6 +16,8 @@ import type {
 } from './records';
 import type { BatchFileRecord } from './batches';
 import type { DiagnosticEntry } from './diagnostics';
+import { upgradeMeasurement } from '../measure/record-version';
+import { upgradeFileResult } from '../batch/run';
 
 /** Name of the IndexedDB database. */
 export const DB_NAME = 'stratameter';
@@ -66,7 +68,46 @@ export const UPGRADE_STEPS: readonly UpgradeStep[] = [
     const d = db.createObjectStore('diagnostics', { keyPath: 'id' });
     d.createIndex('byTime', 'timeIso');
   },
+  // 4 → 5: measurement record version 2 (pixels with uncertainty parts, calibration applied late):
+  // every stored measurement and every batch file's result is upgraded in place.
+  (_db, tx) => {
+    upgradeRecordsInPlace(tx);
+  },
 ];
+
+/**
+ * Rewrites every measurement and batch-file result in the current record layout (version 2),
+ * inside the version-change transaction. A record that cannot be read as any known version is
+ * left exactly as it was (the library's readers skip it), so one damaged record never stops the
+ * library from opening.
+ */
+function upgradeRecordsInPlace(tx: UpgradeTx): void {
+  const measurements = tx.objectStore('measurements');
+  void measurements.openCursor().then(async function step(cursor): Promise<void> {
+    if (!cursor) return;
+    let next: Measurement | null = null;
+    try {
+      next = upgradeMeasurement(cursor.value, `measurement ${String(cursor.key)}`);
+    } catch {
+      next = null; // unreadable: kept unchanged
+    }
+    if (next && next !== cursor.value) await cursor.update(next);
+    return step(await cursor.continue());
+  });
+  const files = tx.objectStore('batchFiles');
+  void files.openCursor().then(async function step(cursor): Promise<void> {
+    if (!cursor) return;
+    const rec = cursor.value;
+    if (rec.result) {
+      try {
+        await cursor.update({ ...rec, result: upgradeFileResult(rec.result, `batch file ${rec.name}`) });
+      } catch {
+        // unreadable: kept unchanged
+      }
+    }
+    return step(await cursor.continue());
+  });
+}
 
 /** The schema version this code writes: the number of steps. */
 export const SCHEMA_VERSION = UPGRADE_STEPS.length;

@@ -5,6 +5,7 @@ import { afterEach, beforeEach, expect, test } from 'vitest';
 import { parseRecipe } from '../../src/batch/recipe';
 import { runBatch } from '../../src/cli/batch';
 import { fakeFile } from './fakes';
+import { expressPeriod } from '../../src/measure/measurement';
 
 // The runner in worker threads with the fake decoder and tools (tests/batch/fakes.ts).
 const depsModule = new URL('./fakes.ts', import.meta.url).href;
@@ -53,7 +54,7 @@ test('two workers process every file; a re-run skips all; a changed file is redo
   await writeFile(join(dir, 'b.tif'), fakeFile(256, 256, 0.05, 30));
   const third = await runBatch(opts, io);
   expect([third.processed, third.skipped]).toEqual([1, 3]);
-  expect(third.results[1].summary.topPeriods[0].periodNm).toBeCloseTo(1.5, 12); // 30 px × 0.05 nm/px
+  expect(expressPeriod(third.results[1].summary.topPeriods[0], third.results[1].calibration).value).toBeCloseTo(1.5, 12); // 30 px × 0.05 nm/px
   expect(await readdir(join(dir, 'out', 'records'))).toHaveLength(5); // the old record stays, the state points at the new one
   const state = JSON.parse(await readFile(join(dir, 'out', 'batch-state.json'), 'utf8'));
   expect(Object.keys(state.entries).sort()).toEqual(['a.tif', 'b.tif', 'broken.tif', 'c,"odd".tif']);

@@ -14,7 +14,12 @@ function file(name: string, periods: [number, number][], relCal = 0.02, sheetsNm
     calibration: { nmPerPx: 0.05, source: 'profile', relUncertainty: relCal, detail: 'test' },
     measurements: [],
     summary: {
-      topPeriods: periods.map(([p, u]) => ({ periodNm: p, uncertaintyNm: u, angleDeg: 0, strength: 10, tool: 'spectrum' as const })),
+      // back to pixels at 0.05 nm/px: the statistical part is what remains of u without the calibration's
+      topPeriods: periods.map(([p, u]) => ({
+        periodPx: p / 0.05, angleDeg: 0, geometry: 'normal' as const,
+        u: { statisticalPx: Math.sqrt(Math.max(0, u * u - (relCal * p) ** 2)) / 0.05, localVariationPx: 0, methodPx: 0 },
+        uAngleDeg: 0, strength: 10, flags: [], tool: 'spectrum' as const,
+      })),
       sheetCount: sheetsNm.length,
       meanThicknessNm: null,
       sdThicknessNm: null,
@@ -47,14 +52,16 @@ describe('batchPeriodGroups', () => {
     const g = batchPeriodGroups(results);
     expect(g.map((x) => x.n)).toEqual([1, 3]);
     const basal = g[1];
-    expect(basal.periodNm).toBeCloseTo(0.74, 12);
-    expect(basal.files).toEqual(['c.tif', 'a.tif', 'b.tif']);
-    // sd of 0.738, 0.740, 0.742 is 0.002 (computed); sd/√3 = 0.001155 against the members' own
-    // 0.002/√3 = 0.001155: equal here
-    expect(basal.sdNm).toBeCloseTo(0.002, 10);
-    expect(basal.statisticalNm).toBeCloseTo(0.002 / Math.sqrt(3), 6);
-    expect(basal.calibrationNm).toBeCloseTo(0.02 * 0.74, 10);
-    expect(basal.uncertaintyNm).toBeCloseTo(Math.hypot(0.002 / Math.sqrt(3), 0.0148), 6);
+    expect(basal.budget.value).toBeCloseTo(0.74, 10);
+    expect(basal.sources).toEqual(['c.tif', 'a.tif', 'b.tif']);
+    // 0.738, 0.740, 0.742 each ± 0.002: χ² = 2 = n − 1, so no between-image term (DerSimonian–Laird
+    // τ² = 0) and the inverse-variance mean has u = 0.002/√3 (computed)
+    expect(basal.sd).toBeCloseTo(0.002, 10);
+    expect(basal.birgeRatio).toBeCloseTo(1, 6);
+    expect(basal.budget.parts.statistical).toBeCloseTo(0.002 / Math.sqrt(3), 6);
+    expect(basal.budget.parts.betweenImages).toBeCloseTo(0, 8);
+    expect(basal.budget.parts.calibration).toBeCloseTo(0.02 * 0.74, 8);
+    expect(basal.budget.combined).toBeCloseTo(Math.hypot(0.002 / Math.sqrt(3), 0.0148), 6);
   });
   test('rejects a bad gap by name', () => {
     expect(() => batchPeriodGroups([], { relGap: 0 })).toThrow(/relGap must be in \(0, 1\), got 0/);
@@ -72,7 +79,8 @@ describe('compareBatchWithDiffraction', () => {
     expect(c.reconciliation.best.map((b) => b?.label)).toEqual(['002', '001']);
     for (const b of c.reconciliation.best) expect(Math.abs(b!.z)).toBeLessThan(1);
     const rows = parseCsv(comparisonCsv(c, 'propylammonium chloride'));
-    expect(rows[0]).toContain('period_nm');
+    expect(rows[0]).toContain('periodNm');
+    expect(rows[0]).toContain('uBetweenImagesNm');
     expect(rows.length).toBe(3);
     expect(rows[2][rows[0].indexOf('line')]).toBe('001');
     const svg = diffractionOverlaySvg(c, published, 'propylammonium chloride');

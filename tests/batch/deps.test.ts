@@ -7,6 +7,7 @@ import { makeGreyImage } from '../../src/image/grey-image';
 import { detectSheets } from '../../src/measure/sheets-auto';
 import { scene } from '../calibration/scenes';
 import { syntheticImage } from '../sheets/synthetic';
+import { expressPeriod } from '../../src/measure/measurement';
 
 test('rings: randomly oriented fringes of one period give a ring at that period', async () => {
   // 36 fringe patches at 5° steps, all 12 px: the powder-like case the radial average is for
@@ -24,7 +25,7 @@ test('rings: randomly oriented fringes of one period give a ring at that period'
   expect(m.tool).toBe('rings');
   // 12 px × 0.1 nm/px = 1.2 nm (definition of the pixel size); ring bins are 1/256 cycles/px wide
   expect(m.periodicities[0].periodPx).toBeCloseTo(12, 0);
-  expect(m.periodicities[0].periodNm!).toBeCloseTo(1.2, 1);
+  expect(expressPeriod(m.periodicities[0], m.calibration).value).toBeCloseTo(1.2, 1);
 }, 60_000);
 
 test('scale-bar route with the information strip: the bar calibrates, the strip is left out', async () => {
@@ -86,5 +87,5 @@ test('domains: two halves of different fringe direction are two domains, centres
   const right = big.find((d) => d.centerPx[0] >= 256)!;
   expect(Math.min(left.angleDeg, 180 - left.angleDeg)).toBeLessThan(3);
   expect(Math.abs(right.angleDeg - 90)).toBeLessThan(3);
-  expect(m.periodicities[0].periodNm!).toBeCloseTo(1.0, 1);
+  expect(expressPeriod(m.periodicities[0], m.calibration).value).toBeCloseTo(1.0, 1);
 }, 60_000);

@@ -38,7 +38,7 @@ describe('resultsCsv', () => {
   test('one row per period, units in the column names, calibration on every row', async () => {
     const rows = parseCsv(resultsCsv(await sampleResults()));
     expect(rows[0]).toEqual([...RESULT_COLUMNS]);
-    expect(rows[0]).toEqual(expect.arrayContaining(['periodNm', 'uncertaintyNm', 'angleDeg', 'nmPerPx', 'calibrationRelUncertainty']));
+    expect(rows[0]).toEqual(expect.arrayContaining(['periodNm', 'uStatisticalNm', 'uCalibrationNm', 'uCombinedNm', 'coverageFactorK', 'expandedUncertaintyNm', 'angleDeg', 'nmPerPx', 'calibrationRelUncertainty']));
     const body = rows.slice(1);
     // file 1: 2 spectrum periods + 1 sheets row; file 2: the same; file 3: one failed row
     expect(body).toHaveLength(7);
@@ -54,6 +54,10 @@ describe('resultsCsv', () => {
     }
     // 20 px × 0.05 nm/px = 1 nm (definition of the pixel size)
     expect(Number(body[0][col('periodNm')])).toBeCloseTo(1.0, 12);
+    // each part in its own column: the fake tool's 0.5 % statistical part and the 2 % calibration (GUM §5.1.2)
+    expect(Number(body[0][col('uStatisticalNm')])).toBeCloseTo(0.005, 12);
+    expect(Number(body[0][col('uCalibrationNm')])).toBeCloseTo(0.02, 12);
+    expect(Number(body[0][col('expandedUncertaintyNm')])).toBeCloseTo(2 * Math.hypot(0.005, 0.02), 3);
     expect(body[0][col('rank')]).toBe('1');
     expect(body[2][col('tool')]).toBe('sheets-auto');
     expect(body[2][col('periodNm')]).toBe('');
@@ -75,10 +79,15 @@ describe('pooledStats', () => {
     expect(p.topPeriodNm?.n).toBe(2);
     expect(p.topPeriodNm?.mean).toBeCloseTo(1.05, 12);
     expect(p.topPeriodNm?.sd).toBeCloseTo(0.1 / Math.SQRT2, 12);
-    // inverse-variance weights (Taylor 1997 §7.2) with u ∝ d: w ∝ 1/d²
-    const w1 = 1 / 1.0 ** 2;
-    const w2 = 1 / 1.1 ** 2;
-    expect(p.weightedTopPeriodNm?.mean).toBeCloseTo((w1 * 1.0 + w2 * 1.1) / (w1 + w2), 12);
+    // pooled by the one rule (poolPeriods): statistical parts 0.5 % of d; 1.0 and 1.1 disagree far
+    // beyond them, so a between-image term (DerSimonian–Laird) carries most of the uncertainty
+    const b = p.pooledTopPeriod!.budget;
+    expect(p.pooledTopPeriod?.n).toBe(2);
+    expect(b.value).toBeGreaterThan(1.0);
+    expect(b.value).toBeLessThan(1.1);
+    expect(b.parts.betweenImages).toBeGreaterThan(0.03);
+    expect(b.parts.betweenImages).toBeGreaterThan(10 * b.parts.statistical);
+    expect(p.pooledTopPeriod!.birgeRatio).toBeGreaterThan(5);
     expect(p.sheetCount).toBe(5); // 300 px → 3 sheets, 200 px → 2 (fake tool)
     expect(p.sheetThicknessNm?.n).toBe(5);
   });

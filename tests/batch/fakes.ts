@@ -4,7 +4,7 @@
  */
 import type { BatchDeps } from '../../src/batch/run';
 import { makeGreyImage, type Calibration, type GreyImage } from '../../src/image/grey-image';
-import { toNm, type Measurement, type Region } from '../../src/measure/measurement';
+import { RECORD_VERSION, type Measurement, type Region } from '../../src/measure/measurement';
 
 /**
  * A fake file format: "FAKE w h nmPerPx|none periodPx" as ASCII. The fake spectrum tool reports
@@ -27,6 +27,7 @@ export function fakeDeps(over: Partial<BatchDeps> = {}): BatchDeps & { calls: { 
   const calls: { tool: string; region: Region; nmPerPx: number | null }[] = [];
   let n = 0;
   const meas = (tool: Measurement['tool'], image: GreyImage, region: Region, periods: [number, number][]): Measurement => ({
+    recordVersion: RECORD_VERSION,
     id: `m${++n}`,
     imageId: null,
     fileName: 'x',
@@ -37,10 +38,12 @@ export function fakeDeps(over: Partial<BatchDeps> = {}): BatchDeps & { calls: { 
     settings: {},
     periodicities: periods.map(([periodPx, strength]) => ({
       periodPx,
-      uncertaintyPx: periodPx * 0.005,
       angleDeg: 30,
+      geometry: 'normal' as const,
+      u: { statisticalPx: periodPx * 0.005, localVariationPx: 0, methodPx: 0 },
+      uAngleDeg: 0,
       strength,
-      ...toNm(periodPx, periodPx * 0.005, image.calibration),
+      flags: [],
     })),
     notes: [],
   });

@@ -2,6 +2,7 @@ import { describe, expect, test } from 'vitest';
 import { parseRecipe } from '../../src/batch/recipe';
 import { analysisRegions, processOne, rejectionReason } from '../../src/batch/run';
 import { fakeDeps, fakeFile } from './fakes';
+import { expressPeriod } from '../../src/measure/measurement';
 
 const recipe = (extra: Record<string, unknown> = {}) => parseRecipe({ schemaVersion: 1, ...extra });
 
@@ -37,15 +38,18 @@ describe('analysisRegions', () => {
 });
 
 describe('rejectionReason', () => {
-  const p = { periodPx: 20, periodNm: 1.0, angleDeg: 0, uncertaintyPx: 0.1, uncertaintyNm: 0.03, strength: 5 };
+  // 20 px at 0.05 nm/px = 1.0 nm; u = hypot(0.1 px · 0.05, 0.02 · 1.0) = 0.0206 nm, 2.06 % (GUM quadrature)
+  const p = { periodPx: 20, angleDeg: 0, geometry: 'normal' as const, u: { statisticalPx: 0.1, localVariationPx: 0, methodPx: 0 }, uAngleDeg: 0, strength: 5, flags: [] };
+  const cal = { nmPerPx: 0.05, source: 'manual' as const, relUncertainty: 0.02, detail: '' };
   const all = { minStrength: 0, periodRangeNm: null, maxRelUncertainty: null };
   test('each threshold rejects on its own', () => {
-    expect(rejectionReason(p, all)).toBeNull();
-    expect(rejectionReason(p, { ...all, minStrength: 6 })).toMatch(/strength/);
-    expect(rejectionReason(p, { ...all, periodRangeNm: [1.2, 2] })).toMatch(/outside/);
-    expect(rejectionReason(p, { ...all, periodRangeNm: [0.5, 1.0] })).toBeNull(); // the range is closed
-    expect(rejectionReason(p, { ...all, maxRelUncertainty: 0.02 })).toMatch(/relative uncertainty/);
-    expect(rejectionReason(p, { ...all, maxRelUncertainty: 0.03 })).toBeNull();
+    expect(rejectionReason(p, all, cal)).toBeNull();
+    expect(rejectionReason(p, { ...all, minStrength: 6 }, cal)).toMatch(/strength/);
+    expect(rejectionReason(p, { ...all, periodRangeNm: [1.2, 2] }, cal)).toMatch(/outside/);
+    expect(rejectionReason(p, { ...all, periodRangeNm: [0.5, 1.0] }, cal)).toBeNull(); // the range is closed
+    expect(rejectionReason(p, { ...all, maxRelUncertainty: 0.02 }, cal)).toMatch(/relative standard uncertainty/);
+    expect(rejectionReason(p, { ...all, maxRelUncertainty: 0.021 }, cal)).toBeNull();
+    expect(rejectionReason(p, { ...all, periodRangeNm: [0.5, 2] }, null)).toMatch(/uncalibrated/);
   });
 });
 
@@ -56,9 +60,10 @@ describe('processOne', () => {
     const { result } = await processOne(fakeFile(256, 256, 0.05, 28), 'a.tif', recipe({ area: { kind: 'whole', infoStripPx: 0 } }), deps);
     expect(result.status).toBe('ok');
     expect(result.calibration?.source).toBe('metadata');
-    expect(result.summary.topPeriods.map((t) => t.periodNm)).toEqual([expect.closeTo(1.4, 12), expect.closeTo(0.7, 12)]);
-    // combined uncertainty: hypot(0.005 · 1.4, 0.02 · 1.4) nm (toNm, GUM quadrature sum)
-    expect(result.summary.topPeriods[0].uncertaintyNm).toBeCloseTo(Math.hypot(0.007, 0.028), 12);
+    const nm = result.summary.topPeriods.map((t) => expressPeriod(t, result.calibration, 1));
+    expect(nm.map((b) => b.value)).toEqual([expect.closeTo(1.4, 12), expect.closeTo(0.7, 12)]);
+    // combined standard uncertainty: hypot(0.005 · 1.4, 0.02 · 1.4) nm (GUM quadrature sum)
+    expect(nm[0].combined).toBeCloseTo(Math.hypot(0.007, 0.028), 12);
     expect(result.summary.sheetCount).toBeNull();
     expect(deps.calls).toEqual([{ tool: 'spectrum', region: { kind: 'rect', x: 0, y: 0, width: 256, height: 256 }, nmPerPx: 0.05 }]);
   });
@@ -78,7 +83,7 @@ describe('processOne', () => {
     const b = (await processOne(bytes, 'u.tif', recipe({ calibration: { route: 'fixed', nmPerPx: 0.1, relUncertainty: 0.03 } }), fakeDeps())).result;
     expect(b.status).toBe('ok');
     expect(b.calibration).toEqual({ nmPerPx: 0.1, source: 'manual', relUncertainty: 0.03, detail: 'fixed pixel size from the batch recipe' });
-    expect(b.summary.topPeriods[0].periodNm).toBeCloseTo(2.0, 12);
+    expect(expressPeriod(b.summary.topPeriods[0], b.calibration).value).toBeCloseTo(2.0, 12);
   });
 
   test('an instrument profile overrides the metadata and carries its id', async () => {
@@ -86,7 +91,7 @@ describe('processOne', () => {
     const { result } = await processOne(fakeFile(128, 128, 0.05, 25), 'p.tif', r, fakeDeps());
     expect(result.calibration).toMatchObject({ nmPerPx: 0.04, source: 'profile', relUncertainty: 0.015 });
     expect(result.calibration?.detail).toContain('scope-b-x250k');
-    expect(result.summary.topPeriods[0].periodNm).toBeCloseTo(1.0, 12);
+    expect(expressPeriod(result.summary.topPeriods[0], result.calibration).value).toBeCloseTo(1.0, 12);
   });
 
   test('the scale-bar route fails the file when no bar is found, and uses the bar when one is', async () => {
@@ -95,7 +100,7 @@ describe('processOne', () => {
     const found = fakeDeps({ findScaleBar: async () => ({ nmPerPx: 0.2, source: 'scale-bar', relUncertainty: 0.01, detail: 'bar 50 nm' }) });
     const { result } = await processOne(fakeFile(128, 128, null, 20), 's.tif', recipe({ calibration: { route: 'scale-bar' } }), found);
     expect(result.calibration?.source).toBe('scale-bar');
-    expect(result.summary.topPeriods[0].periodNm).toBeCloseTo(4.0, 12);
+    expect(expressPeriod(result.summary.topPeriods[0], result.calibration).value).toBeCloseTo(4.0, 12);
   });
 
   test('the automatic information strip is left out of every tool', async () => {
@@ -112,7 +117,7 @@ describe('processOne', () => {
     const r = recipe({ acceptance: { periodRangeNm: [1.0, 2.0] } });
     const { result } = await processOne(fakeFile(128, 128, 0.05, 28), 'a.tif', r, fakeDeps());
     const m = result.measurements[0];
-    expect(m.periodicities.map((p) => p.periodNm)).toEqual([expect.closeTo(1.4, 12)]);
+    expect(m.periodicities.map((p) => expressPeriod(p, m.calibration).value)).toEqual([expect.closeTo(1.4, 12)]);
     expect((m.detail?.rejected as { reason: string }[])[0].reason).toMatch(/0\.7.* nm outside \[1, 2\] nm/);
     expect(result.summary.topPeriods).toHaveLength(1);
   });

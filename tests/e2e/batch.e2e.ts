@@ -217,7 +217,7 @@ test('the scale-bar route reads each bar in the workers; spectrum periods and sh
     const b = (document.querySelector('strata-app')?.shadowRoot?.querySelector('strata-batch-panel') as unknown as { batch: { name: string; state: string } | null })?.batch;
     return !!b && b.name.startsWith('scale bar') && b.state === 'finished';
   }, undefined, { timeout: 170_000 });
-  const results = await panel().evaluate((el) => (el as unknown as { rows: { name: string; result: { status: string; calibration: { nmPerPx: number; source: string; relUncertainty: number } | null; summary: { topPeriods: { periodNm: number; uncertaintyNm: number }[]; sheetCount: number | null } } }[] }).rows
+  const results = await panel().evaluate((el) => (el as unknown as { rows: { name: string; result: { status: string; calibration: { nmPerPx: number; source: string; relUncertainty: number } | null; summary: { topPeriods: { periodPx: number; u: { statisticalPx: number; localVariationPx: number; methodPx: number } }[]; sheetCount: number | null } } }[] }).rows
     .map((r) => ({ name: r.name, status: r.result.status, calibration: r.result.calibration, top: r.result.summary.topPeriods[0] ?? null, sheets: r.result.summary.sheetCount })));
   const overview = results.find((r) => r.name === 'tactoid-film_overview.tif')!;
   const lamellar = results.find((r) => r.name === 'lamellar-mesophase.png')!;
@@ -227,8 +227,12 @@ test('the scale-bar route reads each bar in the workers; spectrum periods and sh
     expect(Math.abs(r.calibration!.nmPerPx - nmPerPx)).toBeLessThan(2 * r.calibration!.relUncertainty * nmPerPx);
     expect(r.sheets).not.toBeNull();
   }
-  // the lamellar period within two of its standard uncertainties
-  expect(Math.abs(lamellar.top!.periodNm - 3.9)).toBeLessThan(2 * lamellar.top!.uncertaintyNm);
+  // the lamellar period within its expanded uncertainty (k = 2): pixel parts and the calibration's, GUM quadrature
+  const t = lamellar.top!;
+  const s0 = lamellar.calibration!.nmPerPx;
+  const dNm = t.periodPx * s0;
+  const uNm = Math.hypot(t.u.statisticalPx * s0, t.u.localVariationPx * s0, t.u.methodPx * s0, dNm * lamellar.calibration!.relUncertainty);
+  expect(Math.abs(dNm - 3.9)).toBeLessThan(2 * uNm);
   // the overview holds tactoids of 2 to 10 layers: sheets are found
   expect(overview.sheets).toBeGreaterThan(0);
   await shoot('7-scale-bar.png');
@@ -274,7 +278,7 @@ test('the batch against a stored diffraction set: matched periods, comparison CS
   for (const name of ['diffraction/comparison.csv', 'diffraction/overlay.svg', 'diffraction/overlay.png', 'histograms/top-period.png']) expect(Object.keys(zip)).toContain(name);
   // PNG signature (ISO/IEC 15948 §5.2)
   expect([...zip['diffraction/overlay.png'].subarray(0, 8)]).toEqual([137, 80, 78, 71, 13, 10, 26, 10]);
-  expect(strFromU8(zip['diffraction/comparison.csv']).split('\r\n')[0]).toContain('period_nm');
+  expect(strFromU8(zip['diffraction/comparison.csv']).split('\r\n')[0]).toContain('expandedUncertaintyNm');
   expect(foreignRequests(s.requests, s.url)).toEqual([]);
   expect(errors).toEqual([]);
 });

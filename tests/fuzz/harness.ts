@@ -268,9 +268,9 @@ async function librarySeeds(): Promise<{ name: string; bytes: Uint8Array }[]> {
   const file = Uint8Array.from({ length: 300 }, (_, i) => (i * 37) & 255);
   const rec = await putImage(db, { bytes: file, fileName: 'film <b>"07"</b>.tif', image, mimeType: 'image/tiff' });
   await putMeasurement(db, {
-    id: 'm1', imageId: rec.id, fileName: rec.fileName, createdIso: '2026-01-05T10:00:00Z', tool: 'spectrum',
+    recordVersion: 2, id: 'm1', imageId: rec.id, fileName: rec.fileName, createdIso: '2026-01-05T10:00:00Z', tool: 'spectrum',
     region: { kind: 'rect', x: 0, y: 0, width: 16, height: 16 }, calibration: rec.calibration, settings: { window: 'hann' },
-    periodicities: [{ periodPx: 4, periodNm: 0.4, angleDeg: 0, uncertaintyPx: 0.1, uncertaintyNm: 0.01, strength: 9 }],
+    periodicities: [{ periodPx: 4, angleDeg: 0, geometry: 'normal', u: { statisticalPx: 0.1, localVariationPx: 0, methodPx: 0 }, uAngleDeg: 0, strength: 9, flags: [] }],
     detail: {}, notes: [],
   });
   const text = await exportLibrary(db);

@@ -1,5 +1,5 @@
 import { describe, expect, test } from 'vitest';
-import { lengthUncertaintyNm, makeGreyImage } from '../../src/image/grey-image';
+import { makeGreyImage } from '../../src/image/grey-image';
 
 describe('makeGreyImage', () => {
   test('computes the value range', () => {
@@ -12,15 +12,5 @@ describe('makeGreyImage', () => {
   });
   test('rejects non-integer sizes', () => {
     expect(() => makeGreyImage(0, 2, new Float32Array(0))).toThrow(/width/);
-  });
-});
-
-describe('lengthUncertaintyNm', () => {
-  // Real-space averaging, tests/fixtures/reference-values.md §5 (computed): 1 px at each end over a
-  // 100 px length is √2 px, i.e. 1.4 % of the length, added in quadrature to the calibration.
-  test('combines end-point and calibration parts in quadrature', () => {
-    const cal = { nmPerPx: 0.1, source: 'manual' as const, relUncertainty: 0.02, detail: '' };
-    const u = lengthUncertaintyNm(100, Math.SQRT2, cal);
-    expect(u).toBeCloseTo(Math.hypot(Math.SQRT2 * 0.1, 10 * 0.02), 12);
   });
 });

@@ -5,7 +5,8 @@ import { describe, expect, test } from 'vitest';
 import { main } from '../../src/cli/main';
 import { encodeTiff } from '../../src/image/encode-tiff';
 import { colouredNoiseImage } from './synth';
-import { formatPlusMinus, parseRegion } from '../../src/cli/measure';
+import { parseRegion } from '../../src/cli/measure';
+import { formatPlusMinus } from '../../src/measure/measurement';
 
 const STEM = 'tests/fixtures/reference-data/stem-haadf_AlMgSi-alloy_Al-001-matrix_thumbnail256.png';
 
@@ -23,25 +24,33 @@ describe('stratameter measure', () => {
     const text = c.out.join('');
     expect(text.trim().split('\n').length).toBe(1);
     const r = JSON.parse(text);
-    expect(Object.keys(r)).toEqual(['file', 'width', 'height', 'calibration', 'periodicities']);
-    expect(r.calibration).toEqual({ nmPerPx: 0.0743, source: 'manual', relUncertainty: 0.01 });
-    expect([r.width, r.height]).toEqual([256, 256]);
+    expect(Object.keys(r)).toEqual(['file', 'widthPx', 'heightPx', 'calibration', 'coverageFactorK', 'periodicities', 'measurement']);
+    expect(r.calibration).toMatchObject({ nmPerPx: 0.0743, source: 'manual', relUncertainty: 0.01 });
+    expect(r.calibration.parts).toEqual([{ name: 'stated by the user', rel: 0.01, type: 'B' }]);
+    expect([r.widthPx, r.heightPx]).toEqual([256, 256]);
+    expect(r.coverageFactorK).toBe(2);
+    expect(r.measurement.recordVersion).toBe(2);
     const first = r.periodicities[0];
-    expect(Object.keys(first)).toEqual(['periodPx', 'periodNm', 'angleDeg', 'uncertaintyPx', 'uncertaintyNm', 'strength']);
+    expect(Object.keys(first)).toEqual(['periodPx', 'angleDeg', 'geometry', 'u', 'uAngleDeg', 'strength', 'flags', 'budget']);
+    // every part in its own field, units in the names (issue: "CSV and JSON carry each part")
+    expect(Object.keys(first.budget)).toEqual(['periodNm', 'uStatisticalNm', 'uLocalVariationNm', 'uBetweenImagesNm', 'uMethodNm', 'uCalibrationNm', 'uCombinedNm', 'coverageFactorK', 'expandedUncertaintyNm', 'uncertaintyContains']);
     // Al {200} = a/2 = 0.20248 nm (SOURCES.md §1): within 1 % at this calibration.
-    expect(Math.abs(first.periodNm - 0.20248) / 0.20248).toBeLessThan(0.01);
+    expect(Math.abs(first.budget.periodNm - 0.20248) / 0.20248).toBeLessThan(0.01);
     for (let i = 1; i < r.periodicities.length; i++) {
       expect(r.periodicities[i].strength).toBeLessThanOrEqual(r.periodicities[i - 1].strength);
     }
-    // The manual 1 % dominates the nm uncertainty (quadrature with a tiny statistical part).
-    expect(first.uncertaintyNm / first.periodNm).toBeCloseTo(0.01, 3);
+    // The stated 1 % is the calibration part (GUM quadrature: value × relative u).
+    expect(first.budget.uCalibrationNm / first.budget.periodNm).toBeCloseTo(0.01, 10);
+    expect(first.budget.expandedUncertaintyNm).toBeCloseTo(2 * first.budget.uCombinedNm, 12);
   });
 
   test('a table with d ± u by default, and the 5 % manual default', async () => {
     const c = capture();
     expect(await main(['measure', STEM, '--nm-per-px', '0.0743', '--region', '0,0,128,128'], c.io)).toBe(0);
     const text = c.out.join('');
-    expect(text).toMatch(/±5 % \(source: manual\)/);
+    expect(text).toMatch(/u = 5 % \(source: manual; indicated magnification \(no uncertainty given\) 5 % \(type B\)\)/);
+    expect(text).toMatch(/± is the expanded uncertainty U = k·u with k = 2; it contains: statistical.*calibration/);
+    expect(text).toMatch(/do not replace an accredited calibration/);
     expect(text).toMatch(/d \(px\)\s+d \(nm\)\s+angle/);
     expect(text).toMatch(/\d\.\d+ ± \d\.\d+/);
   });
@@ -56,7 +65,7 @@ describe('stratameter measure', () => {
       expect(await main(['measure', file, '--json'], c.io)).toBe(0);
       const r = JSON.parse(c.out.join(''));
       expect(r.periodicities).toEqual([]);
-      expect(r.calibration).toEqual({ nmPerPx: null, source: null, relUncertainty: null });
+      expect(r.calibration).toBeNull();
       const t = capture();
       expect(await main(['measure', file], t.io)).toBe(0);
       expect(t.out.join('')).toMatch(/no significant periodicity/);

@@ -14,6 +14,7 @@ import {
 } from '../../src/measure/spectrum';
 import { colouredNoiseImage, fringeImage, gaussian, manualCalibration, rng } from './synth';
 import { makeGreyImage } from '../../src/image/grey-image';
+import { combinedPx, expressPeriod } from '../../src/measure/measurement';
 
 describe('spots of lattice-fringe images', () => {
   test('graphite (002) at a known pixel size, fringe normal direction as shown', async () => {
@@ -25,11 +26,14 @@ describe('spots of lattice-fringe images', () => {
     expect(m.tool).toBe('spectrum');
     expect(m.periodicities.length).toBe(1);
     const p = m.periodicities[0];
-    expect(Math.abs(p.periodNm! - d) / d).toBeLessThan(0.002);
-    expect(Math.abs(p.periodPx - d / nmPerPx)).toBeLessThan(4 * p.uncertaintyPx);
+    const b = expressPeriod(p, m.calibration, 2);
+    expect(Math.abs(b.value - d) / d).toBeLessThan(0.002);
+    expect(Math.abs(p.periodPx - d / nmPerPx)).toBeLessThan(4 * combinedPx(p.u));
     expect(p.angleDeg).toBeCloseTo(62.5, 1);
     // Combined uncertainty: the calibration's 3 % dominates (toNm, quadrature).
-    expect(p.uncertaintyNm!).toBeCloseTo(Math.hypot(p.uncertaintyPx * nmPerPx, p.periodNm! * 0.03), 12);
+    expect(b.combined).toBeCloseTo(Math.hypot(combinedPx(p.u) * nmPerPx, b.value * 0.03), 12);
+    expect(b.parts.calibration).toBeCloseTo(b.value * 0.03, 12);
+    expect(b.expanded).toBeCloseTo(2 * b.combined, 12);
   });
 
   test('Au(111) and Au(200) cross fringes: two periods, the interplanar angle 54.7°', async () => {
@@ -53,8 +57,8 @@ describe('spots of lattice-fringe images', () => {
     const m = await measureRegion(img, { x: 10, y: 10, width: 300, height: 290 });
     expect(m.periodicities.length).toBe(2);
     const [s1, s2] = m.periodicities;
-    expect(Math.abs(s1.periodNm! - d111) / d111).toBeLessThan(0.002);
-    expect(Math.abs(s2.periodNm! - d200) / d200).toBeLessThan(0.002);
+    expect(Math.abs(expressPeriod(s1, m.calibration).value - d111) / d111).toBeLessThan(0.002);
+    expect(Math.abs(expressPeriod(s2, m.calibration).value - d200) / d200).toBeLessThan(0.002);
     expect(angleBetweenDeg(s1, s2)).toBeCloseTo(54.7356, 1);
     expect(m.notes.join(' ')).toMatch(/trimmed from 300 × 290 to 300 × 288/);
   });
@@ -68,7 +72,7 @@ describe('spots of lattice-fringe images', () => {
         expect(m.periodicities.length).toBe(2);
         for (const truth of [6.37, 11.1]) {
           const p = m.periodicities.find((q) => Math.abs(q.periodPx - truth) < 0.2)!;
-          expect(Math.abs(p.periodPx - truth)).toBeLessThan(4 * p.uncertaintyPx);
+          expect(Math.abs(p.periodPx - truth)).toBeLessThan(4 * combinedPx(p.u));
         }
       }
     }
@@ -94,7 +98,7 @@ describe('spots of lattice-fringe images', () => {
       nmPerPxY: 0.02,
     });
     const m = await measureRegion(img, null);
-    expect(m.periodicities[0].periodNm).toBeCloseTo(0.16, 4);
+    expect(expressPeriod(m.periodicities[0], m.calibration).value).toBeCloseTo(0.16, 4);
     expect(m.periodicities[0].angleDeg).toBeCloseTo(90, 1);
   });
 
@@ -153,7 +157,7 @@ describe('spots of lattice-fringe images', () => {
       const refined = await measureRegion(img, null);
       errHann.push(hann.periodicities[0].periodPx - truth);
       errRefined.push(refined.periodicities[0].periodPx - truth);
-      us.push(refined.periodicities[0].uncertaintyPx);
+      us.push(refined.periodicities[0].u.statisticalPx);
     }
     const rms = (e: number[]) => Math.sqrt(e.reduce((a, b) => a + b * b, 0) / e.length);
     const meanU = us.reduce((a, b) => a + b, 0) / us.length;

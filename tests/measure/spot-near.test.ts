@@ -2,6 +2,7 @@ import { describe, expect, test } from 'vitest';
 import { makeGreyImage } from '../../src/image/grey-image';
 import { powerSpectrum } from '../../src/measure/spectrum';
 import { spotNear, spotPeriodicity } from '../../src/measure/spot-near';
+import { expressPeriod } from '../../src/measure/measurement';
 
 // Synthetic fringes with a known, non-integer period; truth by construction (DFT definition:
 // a spot at frequency f cycles/px is a period of 1/f px, reference-values §4).
@@ -26,10 +27,11 @@ describe('spotNear', () => {
     const fy = -Math.sin((33 * Math.PI) / 180) / periodPx - 0.003;
     const spot = spotNear(spectrum, fx, fy);
     expect(spot).not.toBeNull();
-    const p = spotPeriodicity(spot!, { nmPerPx: 0.05, source: 'manual', relUncertainty: 0.02, detail: '' });
+    const p = spotPeriodicity(spot!);
+    const b = expressPeriod(p, { nmPerPx: 0.05, source: 'manual', relUncertainty: 0.02, detail: '' });
     expect(Math.abs(p.periodPx - periodPx) / periodPx).toBeLessThan(2e-3);
     expect(Math.abs(p.angleDeg - 33)).toBeLessThan(0.3);
-    expect(p.periodNm).toBeCloseTo(p.periodPx * 0.05, 12);
-    expect(p.uncertaintyNm!).toBeGreaterThanOrEqual(p.periodNm! * 0.02);
+    expect(b.value).toBeCloseTo(p.periodPx * 0.05, 12);
+    expect(b.combined).toBeGreaterThanOrEqual(b.value * 0.02);
   });
 });

@@ -5,6 +5,7 @@
 import 'fake-indexeddb/auto';
 import { afterEach, describe, expect, test, vi } from 'vitest';
 import type { Measurement } from '../../src/measure/measurement';
+import { upgradeMeasurement } from '../../src/measure/record-version';
 import {
   SCHEMA_VERSION,
   StorageFullError,
@@ -27,11 +28,11 @@ afterEach(() => vi.restoreAllMocks());
 
 function measurement(id: string, imageId: string, fileName: string): Measurement {
   return {
-    id, imageId, fileName, createdIso: `2026-02-01T10:00:0${id.length % 10}Z`, tool: 'profile',
+    recordVersion: 2, id, imageId, fileName, createdIso: `2026-02-01T10:00:0${id.length % 10}Z`, tool: 'profile',
     region: { kind: 'line', x0: 0, y0: 10, x1: 63, y1: 10, widthPx: 5 },
     calibration: { nmPerPx: 0.05, source: 'manual', relUncertainty: 0.02, detail: 'typed in' },
     settings: { window: 'hann' },
-    periodicities: [{ periodPx: 8, periodNm: 0.4, angleDeg: 0, uncertaintyPx: 0.05, uncertaintyNm: 0.009, strength: 40 }],
+    periodicities: [{ periodPx: 8, angleDeg: 0, geometry: 'normal' as const, u: { statisticalPx: 0.05, localVariationPx: 0, methodPx: 0 }, uAngleDeg: 0, strength: 40, flags: [] }],
     notes: ['basal fringes of a tactoid'],
   };
 }
@@ -137,7 +138,7 @@ describe('schema upgrades from every earlier version', () => {
   const fields = { sha256Hex: 'ab12', addedIso: '2025-06-01T00:00:00Z', imageId: 'img-0', batchId: 'batch-0' };
 
   for (let v = 1; v < SCHEMA_VERSION; v++) {
-    test(`a version ${v} database with a record in every store opens at version ${SCHEMA_VERSION} with every record unchanged`, async () => {
+    test(`a version ${v} database with a record in every store opens at version ${SCHEMA_VERSION} with every record kept (measurements upgraded to record version 2)`, async () => {
       const name = `upgrade-from-${v}-${process.pid}-${Math.random()}`;
       const old = await openLibrary({ name, steps: UPGRADE_STEPS.slice(0, v) });
       expect(old.version).toBe(v);
@@ -147,6 +148,11 @@ describe('schema upgrades from every earlier version', () => {
           id: `${store}-${i}`, ...fields, note: `written at version ${v}`,
           bytes: Uint8Array.from({ length: 64 }, (_, k) => (k * 7 + i) & 255),
           nested: { periods: [0.62, 1.24], calibration: null },
+          // measurements as record version 1 wrote them: nm bound to the calibration, one uncertainty
+          ...(store === 'measurements' ? {
+            tool: 'spectrum', createdIso: '2025-06-01T00:00:00Z', calibration: { nmPerPx: 0.05, source: 'manual', relUncertainty: 0.02, detail: '' },
+            periodicities: [{ periodPx: 25 + i, periodNm: (25 + i) * 0.05, angleDeg: 10, uncertaintyPx: 0.01, uncertaintyNm: 0.03, strength: 9 }], notes: [],
+          } : {}),
         }));
         for (const r of records) await old.put(store as never, r as never);
         written[store] = records;
@@ -156,8 +162,13 @@ describe('schema upgrades from every earlier version', () => {
       const cur = await openLibrary({ name });
       expect(cur.version).toBe(SCHEMA_VERSION);
       for (const [store, records] of Object.entries(written)) {
-        expect(await cur.getAll(store as never), `store ${store}`).toEqual(records);
+        // measurement records are upgraded to the current record version; every other record is unchanged
+        const want = store === 'measurements' ? records.map((r) => upgradeMeasurement(r)) : records;
+        expect(await cur.getAll(store as never), `store ${store}`).toEqual(want);
       }
+      const [m0] = await listMeasurements(cur);
+      expect(m0.recordVersion).toBe(2);
+      expect(m0.periodicities[0].u.statisticalPx).toBe(0.01);
       // Every store of the current schema exists.
       const fresh = await freshLibrary();
       expect([...cur.objectStoreNames].sort()).toEqual([...fresh.objectStoreNames].sort());

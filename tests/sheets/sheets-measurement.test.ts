@@ -3,6 +3,7 @@ import { detectSheets } from '../../src/measure/sheets-auto';
 import { sheetsAlongLine } from '../../src/measure/sheets-line';
 import { autoSheetsMeasurement, lineSheetsMeasurement } from '../../src/measure/sheets-measurement';
 import { syntheticImage } from './synthetic';
+import { expressPeriod } from '../../src/measure/measurement';
 
 // Synthetic 4-layer sheet, period 8 px, calibrated at 0.25 nm/px ± 2 % (known truth).
 const img = syntheticImage(200, 200, [{ layers: 4, periodPx: 8, cx: 100, cy: 100, angleDeg: 0, lengthPx: 120 }], { noise: 0.03, seed: 3 });
@@ -18,9 +19,10 @@ describe('sheet measurements as records', () => {
     expect(m.region).toEqual({ kind: 'line', ...line });
     expect(m.periodicities).toHaveLength(1);
     const p = m.periodicities[0];
-    expect(p.periodNm!).toBeCloseTo(p.periodPx * 0.25, 12);
+    const b = expressPeriod(p, m.calibration, 1);
+    expect(b.value).toBeCloseTo(p.periodPx * 0.25, 12);
     // combined standard uncertainty ≥ the calibration part alone (GUM: root sum of squares)
-    expect(p.uncertaintyNm!).toBeGreaterThanOrEqual(p.periodNm! * 0.02 - 1e-12);
+    expect(b.combined).toBeGreaterThanOrEqual(b.value * 0.02 - 1e-12);
     const sheets = (m.detail as { sheets: { layers: number }[] }).sheets;
     expect(sheets[0].layers).toBe(4);
     expect(JSON.parse(JSON.stringify(m))).toEqual(m);

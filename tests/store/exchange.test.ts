@@ -28,10 +28,10 @@ async function filledLibrary() {
   const img = await putImage(db, { bytes: fileBytes(3000, 3), fileName: 'tactoid-07.tif', image: fringeImage(), mimeType: 'image/tiff' });
   await putImage(db, { bytes: fileBytes(1200, 4), fileName: 'film-edge.png', image: fringeImage(), mimeType: 'image/png' });
   await putMeasurement(db, {
-    id: 'm1', imageId: img.id, fileName: img.fileName, createdIso: '2026-01-05T10:00:00Z', tool: 'spectrum',
+    recordVersion: 2, id: 'm1', imageId: img.id, fileName: img.fileName, createdIso: '2026-01-05T10:00:00Z', tool: 'spectrum',
     region: { kind: 'rect', x: 0, y: 0, width: 32, height: 32 },
     calibration: img.calibration, settings: { window: 'hann', sizePx: 32 },
-    periodicities: [{ periodPx: 8, periodNm: 0.4, angleDeg: 90, uncertaintyPx: 0.1, uncertaintyNm: 0.01, strength: 12 }],
+    periodicities: [{ periodPx: 8, angleDeg: 90, geometry: 'normal' as const, u: { statisticalPx: 0.1, localVariationPx: 0, methodPx: 0 }, uAngleDeg: 0, strength: 12, flags: [] }],
     detail: { note: 'basal fringes' }, notes: ['few periods in the window'],
   });
   await putCalibrationProfile(db, {
@@ -153,4 +153,32 @@ test('a library too large for one text gives a readable message instead of a bar
   await expect(exportLibrary(db)).rejects.toThrow(/too large to export as one file \(0 MB of original images/);
   vi.restoreAllMocks();
   db.close();
+});
+
+test('exports carry their format version; a version-1 export is read and its records upgraded; a newer record version is refused', async () => {
+  const { db } = await filledLibrary();
+  const json = JSON.parse(await exportLibrary(db));
+  expect(json.formatVersion).toBe(2);
+  expect(json.measurements[0].recordVersion).toBe(2);
+  // the same library as version 1 wrote it: nm bound to the calibration, one uncertainty
+  const v1 = {
+    ...json,
+    formatVersion: 1,
+    measurements: [{ ...json.measurements[0], recordVersion: undefined, periodicities: [{ periodPx: 8, periodNm: 0.4, angleDeg: 90, uncertaintyPx: 0.1, uncertaintyNm: 0.01, strength: 12 }] }],
+  };
+  const other = await freshLibrary();
+  await importLibrary(other, JSON.stringify(v1));
+  const [m] = await listMeasurements(other);
+  expect(m.recordVersion).toBe(2);
+  expect(m.periodicities[0].u).toEqual({ statisticalPx: 0.1, localVariationPx: 0, methodPx: 0 });
+  // a record newer than this program: refused, naming the field, nothing written
+  const third = await freshLibrary();
+  const newer = { ...json, measurements: [{ ...json.measurements[0], recordVersion: 3 }] };
+  const err = await importLibrary(third, JSON.stringify(newer)).catch((e) => e);
+  expect(err).toBeInstanceOf(ImportError);
+  expect(err.message).toMatch(/measurements\[0\]\.recordVersion is 3, newer than this program reads \(2\)/);
+  expect(await listImages(third)).toEqual([]);
+  db.close();
+  other.close();
+  third.close();
 });

@@ -34,6 +34,7 @@ afterEach(() => {
 
 function measurement(id: string, imageId: string | null, createdIso: string): Measurement {
   return {
+    recordVersion: 2,
     id,
     imageId,
     fileName: 'tactoid-01.tif',
@@ -42,7 +43,7 @@ function measurement(id: string, imageId: string | null, createdIso: string): Me
     region: { kind: 'line', x0: 0, y0: 10, x1: 63, y1: 10, widthPx: 5 },
     calibration: { nmPerPx: 0.05, source: 'manual', relUncertainty: 0.02, detail: 'typed in' },
     settings: { window: 'hann' },
-    periodicities: [{ periodPx: 8, periodNm: 0.4, angleDeg: 0, uncertaintyPx: 0.05, uncertaintyNm: 0.009, strength: 40 }],
+    periodicities: [{ periodPx: 8, angleDeg: 0, geometry: 'normal' as const, u: { statisticalPx: 0.05, localVariationPx: 0, methodPx: 0 }, uAngleDeg: 0, strength: 40, flags: [] }],
     notes: [],
   };
 }
