@@ -1,13 +1,12 @@
 // The calibration side panel: set the image's pixel size from its burned-in scale bar (found
 // and read offline), two points on a feature of known length, a lattice standard, or a typed
 // value; shows a warning when the new value disagrees with the one in use.
-import { combinedPx } from '../src/measure/measurement';
 import { LitElement, css, html, nothing } from 'lit';
 import type { Calibration, GreyImage } from '../src/image/grey-image';
 import { findScaleBar, type ScaleBar } from '../src/calibration/scale-bar';
 import { checkMicroPrefix, LABEL_CHARACTERS, parseScaleLabel, prepareLabelForOcr, scaleBarCalibration } from '../src/calibration/label';
 import { manualCalibration, typedCalibration } from '../src/calibration/manual';
-import { calibrateFromStandard, LATTICE_STANDARDS } from '../src/calibration/standards';
+import { calibrateFromStandard, LATTICE_STANDARDS, standardPeriodFromSpots, type StandardPeriod } from '../src/calibration/standards';
 import { compareCalibrations } from '../src/calibration/compare';
 import type { TextReader } from '../src/calibration/ocr';
 import { makeProfile, matchProfile } from '../src/calibration/profiles';
@@ -53,6 +52,7 @@ export class StrataCalibrationPanel extends LitElement {
     knownNm: { state: true },
     standardId: { state: true },
     customNm: { state: true },
+    customUNm: { state: true },
     periodPx: { state: true },
     periodUPx: { state: true },
     typedNmPerPx: { state: true },
@@ -90,6 +90,10 @@ export class StrataCalibrationPanel extends LitElement {
   standardId = LATTICE_STANDARDS[0].id;
   /** The spacing typed for the 'custom' standard, nm. */
   customNm = '';
+  /** Its standard uncertainty, nm (required: a spacing without one cannot calibrate honestly). */
+  customUNm = '';
+  /** The spot family measured in the drawn region, while the period fields still show it. */
+  private family: StandardPeriod | null = null;
   periodPx = '';
   periodUPx = '';
   typedNmPerPx = '';
@@ -206,14 +210,15 @@ export class StrataCalibrationPanel extends LitElement {
         image: crop, originX: Math.round(r.x), originY: Math.round(r.y),
         settings: { window: 'hann', tukeyAlpha: 0.3, alpha: 0.001 }, displayPx: 64,
       }, [crop.data.buffer]);
-      const spot = res.spots[0];
-      if (!spot) {
+      const family = standardPeriodFromSpots(res.spots.filter((t) => t.flags.length === 0));
+      if (!family) {
         this.say('No significant periodicity in the drawn region: choose a region on the standard\'s fringes.', 'error');
         return;
       }
-      this.periodPx = spot.periodPx.toPrecision(7);
-      this.periodUPx = combinedPx(spot.u).toPrecision(3);
-      this.say(`Strongest period in the region: ${this.periodPx} ± ${this.periodUPx} px at ${spot.angleDeg.toFixed(1)}°. Check that it is the reflection chosen above.`, 'info');
+      this.periodPx = family.periodPx.toPrecision(7);
+      this.periodUPx = Math.hypot(family.statisticalPx, family.spreadPx).toPrecision(3);
+      this.family = family;
+      this.say(`Period of the strongest spot's family in the region: ${this.periodPx} ± ${this.periodUPx} px from ${family.spots} spot${family.spots === 1 ? '' : 's'}${family.spreadPx > 0 ? ` (they differ by more than their precision: spread ${family.spreadPx.toPrecision(2)} px)` : ''}. Check that it is the reflection chosen above.`, 'info');
       this.fromStandard();
     } catch (e) {
       this.say((e as Error).message, 'error');
@@ -227,10 +232,15 @@ export class StrataCalibrationPanel extends LitElement {
       const p = Number(this.periodPx);
       const u = this.periodUPx.trim() === '' ? 0.01 * p : Number(this.periodUPx);
       const standard = this.standardId === 'custom'
-        ? { dNm: Number(this.customNm), name: `custom spacing ${this.customNm} nm` }
+        ? { dNm: Number(this.customNm), uncertaintyNm: Number(this.customUNm), name: `spacing ${this.customNm} ± ${this.customUNm} nm` }
         : this.standardId;
       if (this.standardId === 'custom' && !(Number(this.customNm) > 0)) throw new Error(`type the known spacing in nm, got "${this.customNm}"`);
-      this.candidate = calibrateFromStandard(p, u, standard);
+      if (this.standardId === 'custom' && (this.customUNm.trim() === '' || !(Number(this.customUNm) >= 0))) throw new Error(`type the spacing's standard uncertainty in nm (its ±), got "${this.customUNm}"`);
+      const f = this.family;
+      const measured = f && f.periodPx.toPrecision(7) === this.periodPx && Math.hypot(f.statisticalPx, f.spreadPx).toPrecision(3) === this.periodUPx.trim()
+        ? f
+        : { periodPx: p, uncertaintyPx: u };
+      this.candidate = calibrateFromStandard(measured, standard);
     } catch (e) {
       this.say((e as Error).message, 'error');
     }
@@ -314,15 +324,15 @@ export class StrataCalibrationPanel extends LitElement {
         <h3>Lattice standard</h3>
         <div class="row">
           <select aria-label="Standard" @change=${(e: Event) => (this.standardId = (e.target as HTMLSelectElement).value)}>
-            ${LATTICE_STANDARDS.map((s) => html`<option value=${s.id} ?selected=${s.id === this.standardId}>${s.name}: ${sig(s.dNm)} nm${s.status === 'from memory' ? ' (unconfirmed)' : ''}</option>`)}
+            ${LATTICE_STANDARDS.map((s) => html`<option value=${s.id} ?selected=${s.id === this.standardId}>${s.name}: ${sig(s.dNm)} ± ${sig(s.uncertaintyNm, 2)} nm${s.status === 'from memory' ? ' (from memory)' : ''}</option>`)}
             <option value="custom" ?selected=${this.standardId === 'custom'}>another spacing (type it)</option>
           </select>
-          ${this.standardId === 'custom' ? input(this.customNm, (v) => (this.customNm = v), 'Known spacing (nm)') : nothing}
+          ${this.standardId === 'custom' ? html`${input(this.customNm, (v) => (this.customNm = v), 'Known spacing (nm)')}${input(this.customUNm, (v) => (this.customUNm = v), '± (nm, k = 1)')}` : nothing}
         </div>
         <div class="row">${input(this.periodPx, (s) => (this.periodPx = s), 'Period (px)')}${input(this.periodUPx, (s) => (this.periodUPx = s), '± (px)')}<button @click=${this.fromStandard}>Compute</button></div>
         <div class="row"><button ?disabled=${!this.rect || !this.compute || this.busy} @click=${() => this.measureStandardRegion()}
           title="Draw a region on the standard's fringes with the Region tool, then measure its strongest period here">Measure the drawn region</button></div>
-        <p class="muted">${this.standardId === 'custom' ? 'a spacing you know for this specimen, e.g. from its diffraction pattern' : LATTICE_STANDARDS.find((s) => s.id === this.standardId)?.source}</p>
+        <p class="muted">${this.standardId === 'custom' ? 'a spacing you know for this specimen, e.g. from its diffraction pattern, with its standard uncertainty' : (() => { const l = LATTICE_STANDARDS.find((s) => s.id === this.standardId); return l ? `${l.source}; uncertainty: ${l.uncertaintyBasis}` : ''; })()}</p>
       </section>
       <section>
         <h3>Typed value</h3>

@@ -2,6 +2,7 @@
  * Scale-bar labels: parsing the text, preparing the label's pixels for OCR, and turning a bar
  * plus its label into a Calibration. Pure: the OCR engine is passed in (see ./ocr).
  */
+import { makeCalibration, rectangularU, SCALE_BAR_REPRESENTATION_REL } from './calibration';
 import type { Calibration, GreyImage } from '../image/grey-image';
 import type { Box, ScaleBar, ScaleBarOptions } from './scale-bar';
 import { findScaleBar } from './scale-bar';
@@ -325,9 +326,10 @@ export const LABEL_CHARACTERS = '0123456789.,nmuµpÅA ';
 export interface ScaleBarCalibrationOptions {
   /**
    * Relative standard uncertainty allowed for how well a burned-in bar represents the true pixel
-   * size; 0.029 when absent. The bar is drawn from the instrument's nominal calibration, whose
-   * indicated magnification is reproducible to ±5 % (EMSA abstract "Magnification determination
-   * for high resolution electron microscopy"); taken as a rectangular bound, 5 %/√3 = 2.9 %.
+   * size; SCALE_BAR_REPRESENTATION_REL (2.9 %) when absent. The bar is drawn from the instrument's
+   * nominal calibration, whose indicated magnification is reproducible to ±5 % (EMSA abstract
+   * "Magnification determination for high resolution electron microscopy"); taken as a
+   * rectangular bound, 5 %/√3 = 2.9 %.
    */
   representationRelUncertainty?: number;
 }
@@ -337,9 +339,11 @@ export interface ScaleBarCalibrationOptions {
  * @param bar the bar (length and its uncertainty)
  * @param labelNm the label's length in nm
  * @param options the allowance for how well a burned-in bar represents the calibration
- * @returns a Calibration with source 'scale-bar'
- * Notes: u_rel = √((u_L/L)² + u_rep²), the root-sum-square of independent relative
- * uncertainties (JCGM 100:2008, GUM, §5.1.6).
+ * @returns a Calibration with source 'scale-bar' and its three uncertainty parts
+ * Notes: parts, combined as a root-sum-square of independent relative uncertainties (JCGM
+ * 100:2008, GUM, §5.1.6): the bar's end location in this image (type A, u_L/L); the bar drawn to
+ * whole pixels by the instrument, ±0.5 px over its length as a rectangular bound (type B,
+ * 0.5/(√3·L), GUM §4.3.7); and how well the bar represents the true pixel size (type B).
  */
 export function scaleBarCalibration(
   bar: Pick<ScaleBar, 'lengthPx' | 'uncertaintyPx'>,
@@ -349,15 +353,20 @@ export function scaleBarCalibration(
   if (!(bar?.lengthPx > 0) || !Number.isFinite(bar.lengthPx)) throw new RangeError(`bar lengthPx must be positive, got ${bar?.lengthPx}`);
   if (!(bar.uncertaintyPx >= 0)) throw new RangeError(`bar uncertaintyPx must be non-negative, got ${bar.uncertaintyPx}`);
   if (!(labelNm > 0) || !Number.isFinite(labelNm)) throw new RangeError(`labelNm must be positive, got ${labelNm}`);
-  const rep = options.representationRelUncertainty ?? 0.029;
+  const rep = options.representationRelUncertainty ?? SCALE_BAR_REPRESENTATION_REL;
   if (!(rep >= 0 && rep < 1)) throw new RangeError(`representationRelUncertainty must be in [0, 1), got ${rep}`);
   const endRel = bar.uncertaintyPx / bar.lengthPx;
-  return {
-    nmPerPx: labelNm / bar.lengthPx,
-    source: 'scale-bar',
-    relUncertainty: Math.hypot(endRel, rep),
-    detail: `scale bar ${formatNum(labelNm)} nm over ${bar.lengthPx.toFixed(2)} ± ${bar.uncertaintyPx.toFixed(2)} px (end points ${(100 * endRel).toFixed(2)} %, bar representation allowance ${(100 * rep).toFixed(1)} %)`,
-  };
+  const roundRel = rectangularU(0.5) / bar.lengthPx;
+  return makeCalibration(
+    labelNm / bar.lengthPx,
+    'scale-bar',
+    `scale bar ${formatNum(labelNm)} nm over ${bar.lengthPx.toFixed(2)} ± ${bar.uncertaintyPx.toFixed(2)} px (end location ${(100 * endRel).toFixed(2)} %, drawn to whole pixels ${(100 * roundRel).toFixed(2)} %, bar representation allowance ${(100 * rep).toFixed(1)} %)`,
+    [
+      { name: 'bar end location', rel: endRel, type: 'A' },
+      { name: 'bar drawn to whole pixels', rel: roundRel, type: 'B' },
+      { name: 'bar representation of the true pixel size', rel: rep, type: 'B' },
+    ],
+  );
 }
 
 function formatNum(v: number): string {

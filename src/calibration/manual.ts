@@ -2,6 +2,7 @@
  * Manual calibration: two points on a feature of known length, or a pixel size typed in.
  */
 import type { Calibration } from '../image/grey-image';
+import { makeCalibration } from './calibration';
 
 export interface ManualCalibrationInput {
   /** Distance between the two points, px. */
@@ -37,13 +38,15 @@ export function manualCalibration(input: ManualCalibrationInput): Calibration {
   if (!(knownLengthNm > 0) || !Number.isFinite(knownLengthNm)) throw new RangeError(`knownLengthNm must be a positive number, got ${knownLengthNm}`);
   if (!(uPx >= 0) || !Number.isFinite(uPx)) throw new RangeError(`uncertaintyPx must be a non-negative number, got ${uPx}`);
   if (!(uNm >= 0) || !Number.isFinite(uNm)) throw new RangeError(`knownUncertaintyNm must be a non-negative number, got ${uNm}`);
-  const rel = Math.hypot(uPx / lengthPx, uNm / knownLengthNm);
-  return {
-    nmPerPx: knownLengthNm / lengthPx,
-    source: 'manual',
-    relUncertainty: rel,
-    detail: `${input.note ? `${input.note}: ` : ''}${knownLengthNm} nm over ${lengthPx.toPrecision(6)} ± ${uPx.toPrecision(2)} px, two points`,
-  };
+  return makeCalibration(
+    knownLengthNm / lengthPx,
+    'manual',
+    `${input.note ? `${input.note}: ` : ''}${knownLengthNm} nm over ${lengthPx.toPrecision(6)} ± ${uPx.toPrecision(2)} px, two points`,
+    [
+      { name: 'end points placed by hand', rel: uPx / lengthPx, type: input?.uncertaintyPx === undefined ? 'B' : 'A' },
+      { name: "feature's known length", rel: uNm / knownLengthNm, type: 'B' },
+    ],
+  );
 }
 
 /**
@@ -56,5 +59,5 @@ export function manualCalibration(input: ManualCalibrationInput): Calibration {
 export function typedCalibration(nmPerPx: number, relUncertainty: number, note = 'typed in'): Calibration {
   if (!(nmPerPx > 0) || !Number.isFinite(nmPerPx)) throw new RangeError(`nmPerPx must be a positive number, got ${nmPerPx}`);
   if (!(relUncertainty >= 0 && relUncertainty < 1)) throw new RangeError(`relUncertainty must be in [0, 1), got ${relUncertainty}`);
-  return { nmPerPx, source: 'manual', relUncertainty, detail: `${note}: ${nmPerPx} nm/px ± ${(100 * relUncertainty).toPrecision(2)} %` };
+  return makeCalibration(nmPerPx, 'manual', `${note}: ${nmPerPx} nm/px ± ${(100 * relUncertainty).toPrecision(2)} %`, [{ name: 'stated by the user', rel: relUncertainty, type: 'B' }]);
 }

@@ -3,7 +3,6 @@
  * burned-in scale bar (found and read automatically, offline) or an internal lattice standard,
  * with a warning when two of them disagree.
  */
-import { combinedPx } from '../measure/measurement';
 import { readFile } from 'node:fs/promises';
 import type { CliCommand, CliIo } from './command';
 import { parseArgs, UsageError } from './command';
@@ -12,7 +11,7 @@ import type { Calibration } from '../image/grey-image';
 import { findScaleBar, type Box, type ScaleBar } from '../calibration/scale-bar';
 import { checkMicroPrefix, LABEL_CHARACTERS, parseScaleLabel, prepareLabelForOcr, scaleBarCalibration } from '../calibration/label';
 import { compareCalibrations } from '../calibration/compare';
-import { calibrateFromStandard, LATTICE_STANDARDS, latticeStandard } from '../calibration/standards';
+import { calibrateFromStandard, type CustomSpacing, LATTICE_STANDARDS, latticeStandard, standardPeriodFromSpots, type StandardPeriod } from '../calibration/standards';
 
 const usage = `Usage: stratameter calibrate IMAGE [options]
 
@@ -27,7 +26,10 @@ Options:
   --label TEXT           the scale bar's label as you read it, e.g. "200 nm" (skips OCR)
   --no-ocr               find the bar but do not read its label
   --standard ID          calibrate from a lattice standard (see --list-standards) ...
-  --region X,Y,W,H       ... measured in this rectangle (px) of the image's power spectrum
+  --spacing D±U          ... or from a spacing of your own, nm, with its standard uncertainty
+                         (e.g. 1.25±0.01; also written 1.25+-0.01)
+  --region X,Y,W,H       ... measured in this rectangle (px) of the image's power spectrum:
+                         every spot of the strongest spot's family is used
   --period-px P          ... or with the period you measured yourself, px
   --period-uncertainty-px U   standard uncertainty of --period-px (default 1 % of P)
   --list-standards       print the built-in lattice standards and exit
@@ -118,7 +120,7 @@ export const command: CliCommand = {
   usage,
   async run(args: string[], io: CliIo): Promise<number> {
     const { positional, options, flags } = parseArgs(args, {
-      values: ['label', 'standard', 'region', 'period-px', 'period-uncertainty-px'],
+      values: ['label', 'standard', 'spacing', 'region', 'period-px', 'period-uncertainty-px'],
       booleans: ['json', 'no-ocr', 'list-standards'],
     });
     if (flags.has('list-standards')) {
@@ -127,19 +129,21 @@ export const command: CliCommand = {
     }
     if (positional.length !== 1) throw new UsageError(`expected one IMAGE file, got ${positional.length} arguments\n${usage}`);
     const file = positional[0];
-    const standardId = options.get('standard');
-    if (standardId !== undefined) {
+    if (options.has('standard') && options.has('spacing')) throw new UsageError('give --standard ID or --spacing D±U, not both');
+    const spacing = options.has('spacing') ? parseSpacing(options.get('spacing')!) : undefined;
+    const standardId = options.get('standard') ?? (spacing ? 'custom' : undefined);
+    if (options.has('standard')) {
       try {
-        latticeStandard(standardId); // unknown ids fail before any work
+        latticeStandard(standardId!); // unknown ids fail before any work
       } catch (e) {
         throw new UsageError((e as Error).message);
       }
     }
     if (standardId === undefined && (options.has('region') || options.has('period-px'))) {
-      throw new UsageError('--region and --period-px need --standard ID');
+      throw new UsageError('--region and --period-px need --standard ID or --spacing D±U');
     }
     if (standardId !== undefined && !options.has('region') && !options.has('period-px')) {
-      throw new UsageError('--standard needs --region X,Y,W,H or --period-px P');
+      throw new UsageError(`--${spacing ? 'spacing' : 'standard'} needs --region X,Y,W,H or --period-px P`);
     }
     const typedLabel = options.get('label');
     if (typedLabel !== undefined && !parseScaleLabel(typedLabel)) {
@@ -185,11 +189,11 @@ export const command: CliCommand = {
 
     // a lattice standard
     if (standardId !== undefined) {
-      let periodPx: number;
-      let uPx: number;
+      let measured: StandardPeriod;
       if (options.has('period-px')) {
-        periodPx = positive('period-px', options.get('period-px'));
-        uPx = options.has('period-uncertainty-px') ? positive('period-uncertainty-px', options.get('period-uncertainty-px')) : 0.01 * periodPx;
+        const periodPx = positive('period-px', options.get('period-px'));
+        const uPx = options.has('period-uncertainty-px') ? positive('period-uncertainty-px', options.get('period-uncertainty-px')) : 0.01 * periodPx;
+        measured = { periodPx, statisticalPx: uPx, spreadPx: 0, spots: 1 };
       } else {
         const region = parseBox(options.get('region')!);
         if (region.x + region.width > image.width || region.y + region.height > image.height) {
@@ -197,12 +201,11 @@ export const command: CliCommand = {
         }
         const { measureRegion } = await import('../measure/measure-region');
         const m = await measureRegion(image, region, { fileName: file });
-        const top = m.periodicities[0];
-        if (!top) throw new Error(`no significant periodicity in region ${options.get('region')}: choose a region with clear fringes of the standard`);
-        periodPx = top.periodPx;
-        uPx = combinedPx(top.u);
+        const family = standardPeriodFromSpots(m.periodicities.filter((p) => p.flags.length === 0));
+        if (!family) throw new Error(`no significant periodicity in region ${options.get('region')}: choose a region with clear fringes of the standard`);
+        measured = family;
       }
-      candidates.push(calibrateFromStandard(periodPx, uPx, standardId));
+      candidates.push(calibrateFromStandard(measured, spacing ?? standardId));
     }
 
     // the choice: a standard measured in the image, else the file's metadata, else the bar
@@ -243,3 +246,16 @@ export const command: CliCommand = {
     return 0;
   },
 };
+
+/**
+ * A spacing with its standard uncertainty as typed: "1.25±0.01" or "1.25+-0.01" (nm).
+ * @throws UsageError naming the option when the text is not a positive number with a non-negative ±
+ */
+export function parseSpacing(text: string): CustomSpacing {
+  const m = /^\s*([0-9]*\.?[0-9]+(?:[eE][-+]?\d+)?)\s*(?:±|\+-|\+\/-)\s*([0-9]*\.?[0-9]+(?:[eE][-+]?\d+)?)\s*(?:nm)?\s*$/.exec(text);
+  if (!m) throw new UsageError(`--spacing must be a spacing in nm with its standard uncertainty, e.g. 1.25±0.01, got '${text}'`);
+  const dNm = Number(m[1]);
+  const uncertaintyNm = Number(m[2]);
+  if (!(dNm > 0)) throw new UsageError(`--spacing must be positive, got '${text}'`);
+  return { dNm, uncertaintyNm, name: `spacing ${m[1]} ± ${m[2]} nm` };
+}

@@ -5,7 +5,9 @@
 import type { GreyImage } from '../image/grey-image';
 import { type Measurement, RECORD_VERSION } from './measurement';
 import { spotPeriodicity } from './spot-near';
-import { refineData, refineSpot } from './refine';
+import { refineData } from './refine';
+import { budgetSpot, type BudgetedSpot } from './spot-budget';
+import { complexSpectrum } from './spot-field';
 import { findSpots, powerSpectrum, type PowerSpectrumOptions, type RectPx, type SpotOptions, type Spot, type PowerSpectrum } from './spectrum';
 
 /** Options of {@link measureRegion}. */
@@ -16,6 +18,36 @@ export interface MeasureRegionOptions extends PowerSpectrumOptions, SpotOptions 
   imageId?: string | null;
   /** Refine this many of the strongest spots on a lightly tapered window (default 6; 0: Hann estimates only). */
   refineSpots?: number;
+}
+
+/**
+ * Keeps the strongest of spots that belong to one crystal: a weaker spot whose support lies on a
+ * stronger one's, at nearly the same direction (within 6°) and within a quarter of its frequency,
+ * is the side lobe of a finite crystal or the same spot found twice.
+ * Notes: a finite stack of N fringes has a main lobe about 1/N of its frequency wide with side
+ * lobes beside it; after the refit on the support both may converge to one frequency.
+ * Reference: transform of a finite lattice (common practice in diffraction).
+ */
+function dropSideLobes(spots: BudgetedSpot[]): BudgetedSpot[] {
+  const kept: BudgetedSpot[] = [];
+  for (const b of spots) {
+    const f = Math.hypot(b.spot.fx, b.spot.fy);
+    const twin = kept.find((k) => {
+      const fk = Math.hypot(k.spot.fx, k.spot.fy);
+      let dAng = Math.abs(k.spot.angleDeg - b.spot.angleDeg) % 180;
+      if (dAng > 90) dAng = 180 - dAng;
+      if (dAng > 6 || Math.abs(fk - f) > 0.25 * fk) return false;
+      let shared = 0;
+      let own = 0;
+      for (let i = 0; i < b.supportWeights.length; i++) {
+        shared += Math.min(b.supportWeights[i], k.supportWeights[i]);
+        own += b.supportWeights[i];
+      }
+      return own > 0 && shared / own > 0.6;
+    });
+    if (!twin) kept.push(b);
+  }
+  return kept;
 }
 
 /** A measurement together with the large arrays a display needs. */
@@ -44,17 +76,32 @@ export async function analyseRegion(
   const refineCount = options.refineSpots ?? 6;
   if (!(Number.isInteger(refineCount) && refineCount >= 0)) throw new RangeError(`refineSpots must be a non-negative integer, got ${refineCount}`);
   let refined = 0;
+  let onSupport = 0;
+  const budgetNotes: string[] = [];
   if (refineCount > 0 && search.spots.length > 0) {
     const data = refineData(image, spectrum.area);
-    search.spots = search.spots.map((s, i) => {
-      if (i >= refineCount) return s;
-      const r = refineSpot(data, s);
-      if (r) refined++;
-      return r ?? s;
+    const spec = await complexSpectrum(image, spectrum.area);
+    const done: BudgetedSpot[] = [];
+    const rest: Spot[] = [];
+    search.spots.forEach((s, i) => {
+      if (i >= refineCount) {
+        rest.push(s);
+        return;
+      }
+      const b = budgetSpot(image, data, spec, s);
+      refined++;
+      if (b.onSupport) onSupport++;
+      budgetNotes.push(...b.notes);
+      done.push(b);
     });
+    const kept = dropSideLobes(done);
+    if (kept.length < done.length) {
+      budgetNotes.push(`${done.length - kept.length} spot${done.length - kept.length === 1 ? '' : 's'} dropped as the side lobe or double of a stronger spot of the same crystal`);
+    }
+    search.spots = [...kept.map((b) => b.spot), ...rest];
   }
   const periodicities = search.spots.map(spotPeriodicity);
-  const notes: string[] = [];
+  const notes: string[] = [...budgetNotes];
   const r = region ?? { x: 0, y: 0, width: image.width, height: image.height };
   if (spectrum.width !== r.width || spectrum.height !== r.height) {
     notes.push(
@@ -90,6 +137,7 @@ export async function analyseRegion(
       threshold: search.threshold,
       searchedBins: search.searchedBins,
       refinedSpots: refined,
+      spotsOnSupport: onSupport,
       spots: search.spots.map((s) => ({
         fxPerPx: s.fx,
         fyPerPx: s.fy,

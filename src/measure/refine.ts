@@ -13,6 +13,14 @@ export interface RefineSpotOptions {
   tukeyAlpha?: number;
   /** Most Newton iterations (default 4; it stops earlier once a step is below 1e-5 bin). */
   iterations?: number;
+  /**
+   * Weights per pixel of the area (row-major, width · height), multiplying the window: the
+   * fit then uses only where the weights are (e.g. the spot's support from spotSupport).
+   * The weighted mean is removed first. Default: none (the window alone).
+   */
+  weights?: Float32Array;
+  /** Farthest the maximum may lie from the starting frequency, in bins (default 0.5; a small support widens the peak). */
+  maxShiftBins?: number;
 }
 
 /**
@@ -73,10 +81,29 @@ export function refineData(image: GreyImage, area: RectPx, tukeyAlpha = 0.3): Re
  * Reference: Rife & Boorstyn, IEEE Trans. Inf. Theory 20(5), 591–598 (1974) (periodogram maximum as ML estimator).
  */
 export function refineSpot(data: RefineData, spot: Spot, options: RefineSpotOptions = {}): Spot | null {
-  const iterations = options.iterations ?? 4;
+  const iterations = options.iterations ?? (options.weights ? 12 : 4);
   if (!(Number.isInteger(iterations) && iterations >= 1)) throw new RangeError(`iterations must be a positive integer, got ${iterations}`);
   const { x: x0, y: y0, width: w, height: h } = data.area;
-  const { pixels, strideX, mean, windowX: wx, windowY: wy } = data;
+  const { pixels, strideX, windowX: wx, windowY: wy } = data;
+  const weights = options.weights;
+  const maxShift = options.maxShiftBins ?? 0.5;
+  if (!(maxShift > 0)) throw new RangeError(`maxShiftBins must be positive, got ${maxShift}`);
+  if (weights && weights.length !== w * h) throw new RangeError(`weights must have ${w} × ${h} = ${w * h} values, got ${weights.length}`);
+  let mean = data.mean;
+  if (weights) {
+    let sw = 0;
+    let swd = 0;
+    for (let j = 0; j < h; j++) {
+      const o = (y0 + j) * strideX + x0;
+      for (let i = 0; i < w; i++) {
+        const q = weights[j * w + i] * wx[i] * wy[j];
+        sw += q;
+        swd += q * pixels[o + i];
+      }
+    }
+    if (!(sw > 0)) return null;
+    mean = swd / sw;
+  }
   const cx = (w - 1) / 2;
   const cy = (h - 1) / 2;
   let ox = 2 * Math.PI * spot.fx;
@@ -98,8 +125,9 @@ export function refineSpot(data: RefineData, spot: Spot, options: RefineSpotOpti
       if (wj === 0) continue;
       let r0r = 0, r0i = 0, r1r = 0, r1i = 0, r2r = 0, r2i = 0;
       const o = (y0 + j) * strideX + x0;
+      const wo = j * w;
       for (let i = 0; i < w; i++) {
-        const d = pixels[o + i] - mean;
+        const d = weights ? (pixels[o + i] - mean) * weights[wo + i] : pixels[o + i] - mean;
         const ar = d * er[i];
         const ai = d * ei[i];
         const t = i - cx;
@@ -145,7 +173,7 @@ export function refineSpot(data: RefineData, spot: Spot, options: RefineSpotOpti
     const step = solve(Float64Array.from([hxx, hxy, hxy, hyy]), Float64Array.from([-gx, -gy]), 2);
     ox += step[0];
     oy += step[1];
-    if (Math.abs(ox - ox0) > Math.PI / w || Math.abs(oy - oy0) > Math.PI / h) return null;
+    if (Math.abs(ox - ox0) > (2 * Math.PI * maxShift) / w || Math.abs(oy - oy0) > (2 * Math.PI * maxShift) / h) return null;
     // Newton converges quadratically: after a step below 1e-5 bin the error left is ~1e-10 bin
     if (Math.abs(step[0]) < (2e-5 * Math.PI) / w && Math.abs(step[1]) < (2e-5 * Math.PI) / h) break;
   }

@@ -65,8 +65,12 @@ test('scale-bar calibration: nm/px and its combined uncertainty (GUM §5.1.6)', 
   const c = scaleBarCalibration({ lengthPx: 200, uncertaintyPx: 0.2 }, 100);
   expect(c.nmPerPx).toBeCloseTo(0.5, 12);
   expect(c.source).toBe('scale-bar');
-  expect(c.relUncertainty).toBeCloseTo(Math.hypot(0.001, 0.029), 12); // default allowance 2.9 % ≈ 5 %/√3 (EMSA abstract, ±5 % magnification)
-  expect(scaleBarCalibration({ lengthPx: 200, uncertaintyPx: 0.2 }, 100, { representationRelUncertainty: 0 }).relUncertainty).toBeCloseTo(0.001, 12);
+  // parts: end location 0.2/200; whole-pixel drawing ±0.5 px rectangular, 0.5/(√3·200) (GUM §4.3.7);
+  // bar representation 5 %/√3 (EMSA abstract, ±5 % magnification, rectangular)
+  const round = 0.5 / Math.sqrt(3) / 200;
+  expect(c.relUncertainty).toBeCloseTo(Math.hypot(0.001, round, 0.05 / Math.sqrt(3)), 12);
+  expect(c.parts!.map((p) => [p.name, p.type])).toEqual([['bar end location', 'A'], ['bar drawn to whole pixels', 'B'], ['bar representation of the true pixel size', 'B']]);
+  expect(scaleBarCalibration({ lengthPx: 200, uncertaintyPx: 0.2 }, 100, { representationRelUncertainty: 0 }).relUncertainty).toBeCloseTo(Math.hypot(0.001, round), 12);
   expect(() => scaleBarCalibration({ lengthPx: -1, uncertaintyPx: 0 }, 100)).toThrow(/lengthPx/);
   expect(() => scaleBarCalibration({ lengthPx: 10, uncertaintyPx: 0 }, 0)).toThrow(/labelNm/);
 });

@@ -1,5 +1,5 @@
 import { expect, test } from 'vitest';
-import { AU_A_NM, LATTICE_STANDARDS, SI_A_NM, calibrateFromStandard, latticeStandard } from '../../src/calibration/standards';
+import { AU_A_NM, LATTICE_STANDARDS, SI_A_NM, calibrateFromStandard, latticeStandard, standardPeriodFromSpots } from '../../src/calibration/standards';
 
 const d = (id: string) => latticeStandard(id).dNm;
 
@@ -62,26 +62,58 @@ test('every standard carries a source and a positive spacing; ids are unique', (
   }
 });
 
+test('every standard states an uncertainty and its basis; a value from memory carries a stated allowance', () => {
+  for (const s of LATTICE_STANDARDS) {
+    expect(s.uncertaintyNm).toBeGreaterThan(0);
+    expect(s.uncertaintyBasis.length).toBeGreaterThan(5);
+    if (s.status === 'from memory') expect(s.uncertaintyBasis).toMatch(/allowance/);
+  }
+});
+
 test('calibrateFromStandard: nm/px = d/p and u_rel = √((u_p/p)² + (u_d/d)²) (GUM §5.1.6)', () => {
   // graphitized carbon fringes measured at 6.88 ± 0.05 px
-  const c = calibrateFromStandard(6.88, 0.05, 'graphitized-carbon-002');
+  const c = calibrateFromStandard({ periodPx: 6.88, uncertaintyPx: 0.05 }, 'graphitized-carbon-002');
   expect(c.source).toBe('standard');
   expect(c.nmPerPx).toBeCloseTo(0.344 / 6.88, 12);
   expect(c.relUncertainty).toBeCloseTo(Math.hypot(0.05 / 6.88, 0.008), 12);
   expect(c.detail).toMatch(/graphitized carbon/);
-  // a standard with no stated uncertainty adds none, and says so
-  const m = calibrateFromStandard(10, 0.1, latticeStandard('mos2-002'));
-  expect(m.relUncertainty).toBeCloseTo(0.01, 12);
-  expect(m.detail).toMatch(/no uncertainty stated/);
-  // a custom spacing
-  const u = calibrateFromStandard(20, 0.2, { dNm: 1.25, uncertaintyNm: 0.0125, name: 'our clay d001' });
+  expect(c.parts!.map((p) => p.name)).toEqual(['measured period', "standard's spacing"]);
+  // a value from memory adds its stated allowance (0.2 % for MoS2 c), not zero
+  const m = calibrateFromStandard({ periodPx: 10, uncertaintyPx: 0.1 }, latticeStandard('mos2-002'));
+  expect(m.relUncertainty).toBeCloseTo(Math.hypot(0.01, 0.002), 12);
+  expect(m.detail).toMatch(/allowance/);
+  // a custom spacing with its ±
+  const u = calibrateFromStandard({ periodPx: 20, uncertaintyPx: 0.2 }, { dNm: 1.25, uncertaintyNm: 0.0125, name: 'our clay d001' });
   expect(u.nmPerPx).toBeCloseTo(0.0625, 12);
   expect(u.relUncertainty).toBeCloseTo(Math.hypot(0.01, 0.01), 12);
 });
 
+test('a family of symmetry-equivalent spots: all are used, and their spread is a part of its own', () => {
+  // Si {111} along [110]: two spots of one spacing 2.2 % apart in the image (scan distortion, as seen
+  // on a real image, issue "Uncertainty you can sign"); each measured to 0.01 px.
+  const spots = [
+    { periodPx: 10.0, angleDeg: 35, u: { statisticalPx: 0.01, localVariationPx: 0 } },
+    { periodPx: 10.22, angleDeg: 145, u: { statisticalPx: 0.01, localVariationPx: 0 } },
+    { periodPx: 8.66, angleDeg: 90, u: { statisticalPx: 0.01, localVariationPx: 0 } }, // {200}: another family
+  ];
+  const f = standardPeriodFromSpots(spots)!;
+  expect(f.spots).toBe(2);
+  expect(f.periodPx).toBeCloseTo(10.11, 10);
+  // τ² = s² − u² for two equal weights (computed): s² = 0.0242, u² = 0.0001
+  expect(f.spreadPx).toBeCloseTo(Math.sqrt(0.0242 - 0.0001), 6);
+  const c = calibrateFromStandard(f, 'si-111');
+  // the stated uncertainty covers the 1.1 % by which either direction differs from the mean
+  expect(c.relUncertainty).toBeGreaterThan(0.011);
+  expect(c.parts!.map((p) => p.name)).toContain('spread of the 2 spots of the family');
+  // one spot alone: no spread part
+  expect(standardPeriodFromSpots(spots.slice(0, 1))!.spreadPx).toBe(0);
+});
+
 test('calibrateFromStandard rejects bad arguments by name', () => {
-  expect(() => calibrateFromStandard(0, 0.1, 'si-111')).toThrow(/measuredPeriodPx/);
-  expect(() => calibrateFromStandard(5, -1, 'si-111')).toThrow(/uncertaintyPx/);
-  expect(() => calibrateFromStandard(5, 0.1, 'unobtainium')).toThrow(/unobtainium/);
-  expect(() => calibrateFromStandard(5, 0.1, { dNm: -2 })).toThrow(/spacing/);
+  expect(() => calibrateFromStandard({ periodPx: 0, uncertaintyPx: 0.1 }, 'si-111')).toThrow(/measured period/);
+  expect(() => calibrateFromStandard({ periodPx: 5, uncertaintyPx: -1 }, 'si-111')).toThrow(/period's uncertainty/);
+  expect(() => calibrateFromStandard({ periodPx: 5, uncertaintyPx: 0.1 }, 'unobtainium')).toThrow(/unobtainium/);
+  expect(() => calibrateFromStandard({ periodPx: 5, uncertaintyPx: 0.1 }, { dNm: -2, uncertaintyNm: 0 })).toThrow(/spacing/);
+  // a typed spacing without its ± is refused
+  expect(() => calibrateFromStandard({ periodPx: 5, uncertaintyPx: 0.1 }, { dNm: 2 } as never)).toThrow(/give the spacing with its ±/);
 });

@@ -1,0 +1,363 @@
+/**
+ * Where in a region a spectrum spot's fringes live, and how well their frequency is known there:
+ * the spot's complex band-pass field (geometric phase analysis), the crystal support it implies,
+ * and the Cramér–Rao bound of a weighted fit on that support.
+ */
+import type { GreyImage } from '../image/grey-image';
+import { loadCv } from '../image/cv';
+import { fftRadix2 } from './period-profile';
+import type { RectPx } from './spectrum';
+import { windowSamples } from './window';
+
+/** The complex DFT of a lightly tapered region (DFT order, interleaved re, im). */
+export interface ComplexSpectrum {
+  /** The area transformed (image pixels). */
+  area: RectPx;
+  /** Interleaved re, im; index 2·(v·width + u). */
+  data: Float32Array;
+  /** The windows applied along x and y. */
+  windowX: Float64Array;
+  windowY: Float64Array;
+}
+
+/**
+ * Complex DFT of an area after removing its mean and applying a separable Tukey window.
+ *
+ * Parameters: image; area (inside the image, any size ≥ 16 × 16); tukeyAlpha (default 0.3).
+ * Returns: the complex spectrum in DFT order.
+ * Reference: periodogram with data window, Harris, Proc. IEEE 66(1), 51–83 (1978).
+ */
+export async function complexSpectrum(image: GreyImage, area: RectPx, tukeyAlpha = 0.3): Promise<ComplexSpectrum> {
+  const { x, y, width: w, height: h } = area;
+  if (x < 0 || y < 0 || x + w > image.width || y + h > image.height || w < 16 || h < 16) {
+    throw new RangeError(`area x ${x}, y ${y}, ${w} × ${h} must lie inside the ${image.width} × ${image.height} image and be at least 16 × 16`);
+  }
+  const wx = windowSamples('tukey', w, tukeyAlpha);
+  const wy = windowSamples('tukey', h, tukeyAlpha);
+  const d = image.data;
+  let sum = 0;
+  for (let j = 0; j < h; j++) {
+    const o = (y + j) * image.width + x;
+    for (let i = 0; i < w; i++) sum += d[o + i];
+  }
+  const mean = sum / (w * h);
+  const { cv } = await loadCv();
+  const mat = new cv.Mat(h, w, cv.CV_32F);
+  const out = new cv.Mat();
+  try {
+    const m = mat.data32F as Float32Array;
+    for (let j = 0; j < h; j++) {
+      const o = (y + j) * image.width + x;
+      for (let i = 0; i < w; i++) m[j * w + i] = (d[o + i] - mean) * wx[i] * wy[j];
+    }
+    cv.dft(mat, out, cv.DFT_COMPLEX_OUTPUT);
+    return { area: { ...area }, data: Float32Array.from(out.data32F as Float32Array), windowX: wx, windowY: wy };
+  } finally {
+    mat.delete();
+    out.delete();
+  }
+}
+
+/** Options of {@link spotField}. */
+export interface SpotFieldOptions {
+  /** Width σ of the Gaussian band-pass around the spot, in bins of the longer side (default: a sixteenth of the region resolves, see notes). */
+  sigmaBins?: number;
+  /** Side of the (square) grid the field is sampled on (power of two, default 64). */
+  gridSize?: number;
+}
+
+/** A spot's band-pass field on a coarse grid over the area. */
+export interface SpotField {
+  /** Grid side (samples along x and y). */
+  gridSize: number;
+  /** Grid spacing in image pixels along x and y. */
+  cellWidthPx: number;
+  cellHeightPx: number;
+  /** Complex field, interleaved re, im, row-major (gridSize²), at baseband of (fx, fy): B(x) ≈ (a(x)/2)·w(x)·e^(iφ(x)). */
+  field: Float64Array;
+  /** Local fringe amplitude a(x) = 2|B|/w (grey values), row-major. */
+  amplitude: Float64Array;
+  /** Standard deviation of |B| from noise alone (the background near the spot), in amplitude units of `amplitude`. */
+  noiseAmplitude: number;
+  /** White-noise variance per pixel equivalent to the background power near the spot (grey values²). */
+  noiseVariance: number;
+  /** The frequency the field is demodulated at, cycles/px. */
+  fx: number;
+  fy: number;
+  /** σ of the band-pass in cycles/px. */
+  sigmaPerPx: number;
+}
+
+/**
+ * The complex band-pass field of one spectrum spot: the fringes of that spot alone, as an
+ * amplitude and a phase over the region.
+ *
+ * Parameters: spec, the region's complex spectrum; fx, fy, the spot's frequency (cycles/px, fy
+ * along the row index); options.
+ * Returns: the field on a gridSize² grid covering the area, the local amplitude and the noise level.
+ * Notes: the spectrum is multiplied by a Gaussian centred on the spot (σ in bins), shifted to zero
+ * frequency and inverse-transformed on a coarse grid: the demodulated fringe field of geometric
+ * phase analysis. Its amplitude shows where the spot's fringes are; its phase is their local
+ * displacement. The band-pass is kept narrower than a third of the spot's distance from zero so
+ * that the mean contrast of a stack (the envelope around zero frequency) does not leak in. The
+ * noise variance is the median power of the spectrum in an annulus 3σ–6σ around the spot, over
+ * ln 2 (median of an exponential) and over Σw² (the window's energy).
+ * Reference: Hÿtch, Snoeck & Kilaas, Ultramicroscopy 74, 131 (1998).
+ */
+export function spotField(spec: ComplexSpectrum, fx: number, fy: number, options: SpotFieldOptions = {}): SpotField {
+  const { width: w, height: h } = spec.area;
+  const n = options.gridSize ?? 64;
+  if (!(Number.isInteger(Math.log2(n)) && n >= 8 && n <= 512)) throw new RangeError(`gridSize must be a power of two in 8–512, got ${n}`);
+  const nMax = Math.max(w, h);
+  const fAbsBins = Math.hypot(fx * w, fy * h);
+  const sigma = options.sigmaBins ?? Math.max(0.8, Math.min(16 / (2 * Math.PI), fAbsBins / 3.5));
+  if (!(sigma > 0)) throw new RangeError(`sigmaBins must be positive, got ${sigma}`);
+  // σ along each axis in that axis's bins (square in physical frequency)
+  const sx = (sigma * w) / nMax;
+  const sy = (sigma * h) / nMax;
+  const cu = fx * w;
+  const cv = fy * h;
+  const ru = Math.ceil(3.5 * sx);
+  const rv = Math.ceil(3.5 * sy);
+  const re = new Float64Array(n * n);
+  const im = new Float64Array(n * n);
+  const u0 = Math.round(cu);
+  const v0 = Math.round(cv);
+  const d = spec.data;
+  let gSum2 = 0;
+  for (let dv = -rv; dv <= rv; dv++) {
+    const vv = v0 + dv;
+    const ey = (vv - cv) / sy;
+    const vi = ((vv % h) + h) % h;
+    for (let du = -ru; du <= ru; du++) {
+      const uu = u0 + du;
+      const ex = (uu - cu) / sx;
+      const g = Math.exp(-0.5 * (ex * ex + ey * ey));
+      if (g < 1e-4) continue;
+      const ui = ((uu % w) + w) % w;
+      const k = 2 * (vi * w + ui);
+      // shift to baseband: bin offset (uu − cu, vv − cv); the residual sub-bin offset is applied as a phase ramp below
+      const gi = ((dv % n) + n) % n;
+      const gu = ((du % n) + n) % n;
+      re[gi * n + gu] += g * d[k];
+      im[gi * n + gu] += g * d[k + 1];
+      gSum2 += g * g;
+    }
+  }
+  // Inverse transform on the grid: B(x_j) = (1/(W·H)) Σ X(u) e^(2πi (du·x/W + dv·y/H)), x_j = j·W/n.
+  // With integer offsets du the grid transform is an n-point inverse DFT along each axis (n ≥ 2r + 1).
+  ifft2(re, im, n);
+  const field = new Float64Array(2 * n * n);
+  const amplitude = new Float64Array(n * n);
+  const cellW = w / n;
+  const cellH = h / n;
+  const fracU = u0 - cu;
+  const fracV = v0 - cv;
+  const scale = 1 / (w * h);
+  for (let j = 0; j < n; j++) {
+    const yPx = j * cellH;
+    const wyv = spec.windowY[Math.min(h - 1, Math.round(yPx))];
+    for (let i = 0; i < n; i++) {
+      const xPx = i * cellW;
+      // the grid was demodulated at the integer bins (u0, v0): move to the spot's own frequency
+      const ph = 2 * Math.PI * ((fracU * xPx) / w + (fracV * yPx) / h);
+      const c = Math.cos(ph);
+      const s = Math.sin(ph);
+      const k = j * n + i;
+      const r0 = re[k] * scale;
+      const i0 = im[k] * scale;
+      field[2 * k] = r0 * c - i0 * s;
+      field[2 * k + 1] = r0 * s + i0 * c;
+      const wv = spec.windowX[Math.min(w - 1, Math.round(xPx))] * wyv;
+      amplitude[k] = wv > 0.05 ? (2 * Math.hypot(r0, i0)) / wv : 0;
+    }
+  }
+  // Background near the spot: median |X|² in an annulus 3.5σ–7σ (bins), the spot's own bins excluded.
+  const ring: number[] = [];
+  const rOut = Math.ceil(7 * Math.max(sx, sy)) + 2;
+  for (let dv = -rOut; dv <= rOut; dv++) {
+    for (let du = -rOut; du <= rOut; du++) {
+      const e = Math.hypot(du / Math.max(sx, 0.5), dv / Math.max(sy, 0.5));
+      if (e < 3.5 || e > 7 + 2 / Math.max(sx, sy)) continue;
+      const ui = (((u0 + du) % w) + w) % w;
+      const vi = (((v0 + dv) % h) + h) % h;
+      if (ui === 0 && vi === 0) continue;
+      const k = 2 * (vi * w + ui);
+      ring.push(d[k] * d[k] + d[k + 1] * d[k + 1]);
+    }
+  }
+  ring.sort((a, b) => a - b);
+  const medianPower = ring.length ? ring[ring.length >> 1] : 0;
+  let sw2 = 0;
+  for (const a of spec.windowX) for (const b of spec.windowY) sw2 += a * a * b * b;
+  const noiseVariance = sw2 > 0 ? medianPower / Math.LN2 / sw2 : 0;
+  // |B| noise: var(B) = (1/(WH))² Σ G² E|X|², amplitude units ×2 (a = 2|B|)
+  const noiseAmplitude = 2 * Math.sqrt(gSum2 * (medianPower / Math.LN2)) * scale;
+  return { gridSize: n, cellWidthPx: cellW, cellHeightPx: cellH, field, amplitude, noiseAmplitude, noiseVariance, fx, fy, sigmaPerPx: sigma / nMax };
+}
+
+/** In-place 2D inverse DFT (unnormalised) of an n × n complex array, n a power of two. */
+function ifft2(re: Float64Array, im: Float64Array, n: number): void {
+  const rr = new Float64Array(n);
+  const ri = new Float64Array(n);
+  // inverse = conj(FFT(conj(x)))
+  for (let k = 0; k < im.length; k++) im[k] = -im[k];
+  for (let j = 0; j < n; j++) {
+    for (let i = 0; i < n; i++) {
+      rr[i] = re[j * n + i];
+      ri[i] = im[j * n + i];
+    }
+    fftRadix2(rr, ri);
+    for (let i = 0; i < n; i++) {
+      re[j * n + i] = rr[i];
+      im[j * n + i] = ri[i];
+    }
+  }
+  for (let i = 0; i < n; i++) {
+    for (let j = 0; j < n; j++) {
+      rr[j] = re[j * n + i];
+      ri[j] = im[j * n + i];
+    }
+    fftRadix2(rr, ri);
+    for (let j = 0; j < n; j++) {
+      re[j * n + i] = rr[j];
+      im[j * n + i] = ri[j];
+    }
+  }
+  for (let k = 0; k < im.length; k++) im[k] = -im[k];
+}
+
+/** The support of a spot: where its fringes stand above the noise, as weights 0–1 on the field's grid. */
+export interface SpotSupport {
+  /** Weight per grid cell, row-major (gridSize²): 0 where only noise, rising to 1 at full fringe amplitude. */
+  weights: Float64Array;
+  /** Fraction of the area carrying the fringes (Σ weight / cells). */
+  coverage: number;
+  /** Largest local amplitude (grey values). */
+  peakAmplitude: number;
+}
+
+/**
+ * Where a spot's fringes are: a soft mask from the local amplitude of its band-pass field.
+ *
+ * Parameters: field from {@link spotField}.
+ * Returns: weights (0 at and below 3 noise standard deviations, 1 at the peak amplitude's
+ * plateau), the covered fraction and the peak amplitude.
+ * Notes: a weight proportional to the local amplitude is what a maximum-likelihood fit of a tone
+ * of varying amplitude gives each sample (a matched filter); the noise floor is subtracted so that
+ * amorphous parts of the region get no weight.
+ * Reference: amplitude image of geometric phase analysis, Hÿtch, Snoeck & Kilaas (1998).
+ */
+export function spotSupport(field: SpotField): SpotSupport {
+  const a = field.amplitude;
+  const n = field.gridSize;
+  const sorted = Float64Array.from(a).sort();
+  // the plateau: the 95th percentile of the amplitude, robust to a few bright noise cells
+  const peak = sorted[Math.floor(0.95 * (sorted.length - 1))];
+  const floor = 3 * field.noiseAmplitude;
+  const weights = new Float64Array(n * n);
+  let s = 0;
+  if (peak > floor) {
+    for (let k = 0; k < a.length; k++) {
+      const v = Math.max(0, Math.min(1, (a[k] - floor) / (peak - floor)));
+      weights[k] = v;
+      s += v;
+    }
+  }
+  return { weights, coverage: s / (n * n), peakAmplitude: peak };
+}
+
+/**
+ * Weights per image pixel of an area from a grid of weights over it (bilinear).
+ *
+ * Parameters: grid weights (n × n) over an area of width × height px.
+ * Returns: Float32Array of width · height weights.
+ */
+export function pixelWeights(grid: Float64Array, n: number, width: number, height: number): Float32Array {
+  const out = new Float32Array(width * height);
+  const cw = width / n;
+  const ch = height / n;
+  for (let y = 0; y < height; y++) {
+    const gy = Math.min(n - 1.000001, Math.max(0, y / ch));
+    const j0 = Math.floor(gy);
+    const fy = gy - j0;
+    const j1 = Math.min(n - 1, j0 + 1);
+    for (let x = 0; x < width; x++) {
+      const gx = Math.min(n - 1.000001, Math.max(0, x / cw));
+      const i0 = Math.floor(gx);
+      const fx = gx - i0;
+      const i1 = Math.min(n - 1, i0 + 1);
+      out[y * width + x] =
+        (grid[j0 * n + i0] * (1 - fx) + grid[j0 * n + i1] * fx) * (1 - fy) + (grid[j1 * n + i0] * (1 - fx) + grid[j1 * n + i1] * fx) * fy;
+    }
+  }
+  return out;
+}
+
+/** Standard deviations of a fitted frequency vector. */
+export interface FrequencyStd {
+  /** Along x and along the row index, cycles/px. */
+  fxStd: number;
+  fyStd: number;
+}
+
+/**
+ * The Cramér–Rao-type standard deviation of a frequency fitted with weights, for fringes of
+ * varying amplitude in white noise.
+ *
+ * Parameters: field (its amplitude map a(x) and noise variance σ²); weights on the field's grid
+ * (null: 1 everywhere); windowX, windowY, the data window of the fit over the cells used; cells,
+ * the range of grid cells of the fit (default: all, the whole area).
+ * Returns: the standard deviations of fx and fy in cycles/px.
+ * Notes: linearising the maximiser of |Σ W d e^(−2πi f·x)|² for d = a(x) cos(2π f·x + φ) + noise
+ * gives var(f_x) = 2σ² Σ W²(x − x̄)² / ((2π)² [Σ W a (x − x̄)²]²), x̄ the W·a-weighted centroid;
+ * for W = 1 and constant a it is the bound 12/((2π)² η N (N² − 1)) per axis with η = a²/(2σ²).
+ * The sums run over the grid cells (each standing for its cell of pixels, with the cell's own
+ * second moment added).
+ * Reference: Rife & Boorstyn, IEEE Trans. Inf. Theory 20(5), 591 (1974) (the bound); weighted form: linearised periodogram maximiser (derivation ours).
+ */
+export function weightedFrequencyStd(
+  field: SpotField,
+  weights: Float64Array | null,
+  windowX: Float64Array,
+  windowY: Float64Array,
+  cells: { i0: number; i1: number; j0: number; j1: number } = { i0: 0, i1: field.gridSize, j0: 0, j1: field.gridSize },
+): FrequencyStd {
+  const n = field.gridSize;
+  const cw = field.cellWidthPx;
+  const ch = field.cellHeightPx;
+  const area = cw * ch;
+  const sigma2 = field.noiseVariance;
+  // the windows span the cells' pixels: cell i of the range sits at window sample (i − i0)·cw
+  const wAt = (i: number, j: number) =>
+    windowX[Math.min(windowX.length - 1, Math.round((i - cells.i0) * cw))] * windowY[Math.min(windowY.length - 1, Math.round((j - cells.j0) * ch))] * (weights ? weights[j * n + i] : 1);
+  const { i0, i1, j0, j1 } = cells;
+  let swa = 0;
+  let swax = 0;
+  let sway = 0;
+  for (let j = j0; j < j1; j++) for (let i = i0; i < i1; i++) {
+    const wa = wAt(i, j) * field.amplitude[j * n + i];
+    swa += wa;
+    swax += wa * i * cw;
+    sway += wa * j * ch;
+  }
+  if (!(swa > 0) || !(sigma2 > 0)) return { fxStd: Infinity, fyStd: Infinity };
+  const xb = swax / swa;
+  const yb = sway / swa;
+  let s1x = 0;
+  let s1y = 0;
+  let s2x = 0;
+  let s2y = 0;
+  for (let j = j0; j < j1; j++) for (let i = i0; i < i1; i++) {
+    const W = wAt(i, j);
+    const a = field.amplitude[j * n + i];
+    const dx2 = (i * cw - xb) ** 2 + (cw * cw) / 12;
+    const dy2 = (j * ch - yb) ** 2 + (ch * ch) / 12;
+    s1x += W * a * dx2 * area;
+    s1y += W * a * dy2 * area;
+    s2x += W * W * dx2 * area;
+    s2y += W * W * dy2 * area;
+  }
+  const k = 2 * sigma2 / (4 * Math.PI * Math.PI);
+  return { fxStd: Math.sqrt((k * s2x) / (s1x * s1x)), fyStd: Math.sqrt((k * s2y) / (s1y * s1y)) };
+}
