@@ -20,6 +20,40 @@ export interface MeasureRegionOptions extends PowerSpectrumOptions, SpotOptions 
   refineSpots?: number;
 }
 
+/** Power below this fraction of the strongest spot's marks a spot as weak. */
+const WEAK_RELATIVE_POWER = 1e-3;
+
+/**
+ * Flags spots that are more likely artefacts than lattice fringes, and ranks them after the
+ * others (each group by strength).
+ *
+ * Parameters: spots; width, height of the transform (bins).
+ * Returns: the spots with their flags, unflagged first.
+ * Notes: local significance alone ranks a near-Nyquist artefact first when the detector's
+ * transfer leaves almost no noise there. Flags: 'near-nyquist', a frequency within 12 % of the
+ * sampling limit along either axis (frequency components of 0.44 cycles/px and more, periods under 2.28 px); 'weak-relative', peak power
+ * below 10⁻³ of the strongest spot's (a lattice whose spots are that much weaker than another's
+ * is rarely what was meant); 'fixed-pattern', on an axis of the spectrum at a period of a whole
+ * number of pixels up to 16 within 0.5 % (readout, stitching and 8 × 8 compression blocks).
+ * Reference: plausibility checks of lattice spots (common practice; the JPEG block period: ITU-T T.81).
+ */
+function rankByPlausibility(spots: Spot[], width: number, height: number): Spot[] {
+  if (!spots.length) return spots;
+  const maxPower = Math.max(...spots.map((s) => s.peakPower));
+  const flagged = spots.map((s) => {
+    const flags = new Set(s.flags);
+    if (Math.abs(s.fx) >= 0.44 || Math.abs(s.fy) >= 0.44) flags.add('near-nyquist');
+    if (s.peakPower < WEAK_RELATIVE_POWER * maxPower) flags.add('weak-relative');
+    const onAxis = Math.abs(s.fy * height) < 0.5 || Math.abs(s.fx * width) < 0.5;
+    const whole = Math.round(s.periodPx);
+    if (onAxis && whole >= 2 && whole <= 16 && Math.abs(s.periodPx - whole) < 0.005 * whole) flags.add('fixed-pattern');
+    return { ...s, flags: [...flags] };
+  });
+  const ok = flagged.filter((s) => s.flags.length === 0);
+  const doubtful = flagged.filter((s) => s.flags.length > 0);
+  return [...ok, ...doubtful];
+}
+
 /**
  * Keeps the strongest of spots that belong to one crystal: a weaker spot whose support lies on a
  * stronger one's, at nearly the same direction (within 6°) and within a quarter of its frequency,
@@ -100,7 +134,10 @@ export async function analyseRegion(
     }
     search.spots = [...kept.map((b) => b.spot), ...rest];
   }
+  search.spots = rankByPlausibility(search.spots, spectrum.width, spectrum.height);
   const periodicities = search.spots.map(spotPeriodicity);
+  const doubted = search.spots.filter((p) => p.flags.length > 0);
+  if (doubted.length) budgetNotes.push(`${doubted.length} spot${doubted.length === 1 ? '' : 's'} with a doubt (${[...new Set(doubted.flatMap((p) => p.flags))].join(', ')}) ranked after the others`);
   const notes: string[] = [...budgetNotes];
   const r = region ?? { x: 0, y: 0, width: image.width, height: image.height };
   if (spectrum.width !== r.width || spectrum.height !== r.height) {

@@ -297,6 +297,8 @@ export interface Spot extends Periodicity {
   normalisedPower: number;
   /** SNR η = A²/(2σ²) of the plane wave, from the spot's energy over the background. */
   snr: number;
+  /** Power of the spot's brightest bin, in the spectrum's own units (for comparing spots of one spectrum). */
+  peakPower: number;
 }
 
 /** Result of {@link findSpots}: spots and the detection statistics. */
@@ -516,6 +518,7 @@ export function findSpots(spectrum: PowerSpectrum, options: SpotOptions = {}): S
       flags: [],
       normalisedPower: a.z,
       snr,
+      peakPower: a.p,
     };
   });
   spots.sort((a, b) => b.normalisedPower - a.normalisedPower);

@@ -96,6 +96,7 @@ export function spotNear(spectrum: PowerSpectrum, fx: number, fy: number, option
     flags: [],
     normalisedPower: best / b,
     snr,
+    peakPower: best,
   };
 }
 

@@ -229,3 +229,34 @@ describe('spectrum display, rings and filtering', () => {
     await expect(fourierFilter(noisy, null, [])).rejects.toThrow(/at least one spot/);
   });
 });
+
+describe('plausibility of spots', () => {
+  test('a near-Nyquist artefact, far weaker than the lattice but locally significant, is flagged and never ranked first', async () => {
+    // As seen on a real HRTEM image (issue "Uncertainty you can sign"): an artefact of 2.23 px whose
+    // raw power is ~10⁻⁴ of the lattice spots ranked first by local significance. Synthetic truth:
+    // lattice fringes 12.4 px; blurred (low-pass) noise, so almost no noise near Nyquist; then a
+    // faint 2.23 px tone added after the blur (a detector artefact).
+    const w = 256;
+    const g = gaussian(rng(17));
+    const noise = new Float64Array(w * w).map(() => g());
+    const blurred = new Float64Array(w * w);
+    for (let y = 0; y < w; y++) for (let x = 0; x < w; x++) {
+      let s = 0;
+      for (let dy = -2; dy <= 2; dy++) for (let dx = -2; dx <= 2; dx++) s += noise[((y + dy + w) % w) * w + ((x + dx + w) % w)];
+      blurred[y * w + x] = s / 25;
+    }
+    const data = new Float32Array(w * w);
+    for (let y = 0; y < w; y++) for (let x = 0; x < w; x++) {
+      data[y * w + x] = 100 + 30 * Math.cos((2 * Math.PI * (x * Math.cos(0.5) - y * Math.sin(0.5))) / 12.4) + 3 * blurred[y * w + x] + 0.05 * Math.cos((2 * Math.PI * x) / 2.23);
+    }
+    const m = await measureRegion(makeGreyImage(w, w, data), null);
+    const first = m.periodicities[0];
+    expect(first.periodPx).toBeCloseTo(12.4, 1);
+    expect(first.flags).toEqual([]);
+    const artefact = m.periodicities.find((p) => Math.abs(p.periodPx - 2.23) < 0.02);
+    if (artefact) {
+      expect(artefact.flags).toEqual(expect.arrayContaining(['near-nyquist', 'weak-relative']));
+      expect(m.periodicities.indexOf(artefact)).toBeGreaterThan(0);
+    }
+  });
+});
