@@ -33,32 +33,35 @@ import { FAMILIES, type FamilyName, generateCase, type LatticeTruth, type TruePe
 // The one place the benchmark reads an uncertainty.
 // ---------------------------------------------------------------------------------------------
 
-/** Parts of a period's uncertainty in px (k = 1), as the reworked record will carry them. */
+/** Parts of a period's uncertainty in px (k = 1), as the record carries them. */
 type UncertaintyParts = Record<string, unknown>;
 
-/** The helper the reworked measurement module will export (absent today). */
+/** The measurement module's helper for the combined uncertainty (record version 2: combinedPx(u)). */
 const combinedPxHelper = (measurementModule as unknown as { combinedPx?: (u: UncertaintyParts) => number }).combinedPx;
 
 /**
  * The combined standard uncertainty (k = 1) of a period in px, as the tool reports it.
  * @param p a reported periodicity
- * @returns combinedPx(p.u) when the record has a `u` object and the module exports combinedPx; the
- *   root-sum-square of u's finite `…Px` parts when only `u` exists; otherwise p.uncertaintyPx
- *   (today: the statistical part alone)
+ * @returns combinedPx(p.u) when the record has a `u` object and the module exports combinedPx
+ *   (record version 2: statistical, local variation and method parts, root-sum-square); the
+ *   root-sum-square of u's finite `…Px` parts when only `u` exists; otherwise the version-1 field
+ *   uncertaintyPx (the statistical part alone)
  * Notes: every number the benchmark judges passes through here, so a change of the record (issue
- * #13) is a change of this function only. If combinedPx ends up taking the whole periodicity
- * rather than its `u`, change the one call below.
+ * #13) is a change of this function only. The checks are at run time so the same file also runs on
+ * a version-1 checkout, for a before/after comparison.
  */
 function standardUncertaintyPx(p: Periodicity): number {
-  if ('u' in p && typeof (p as { u?: unknown }).u === 'object' && (p as { u?: unknown }).u !== null) {
-    const u = (p as unknown as { u: UncertaintyParts }).u;
+  const record = p as unknown as { u?: unknown; uncertaintyPx?: unknown };
+  if (typeof record.u === 'object' && record.u !== null) {
+    const u = record.u as UncertaintyParts;
     if (typeof combinedPxHelper === 'function') return combinedPxHelper(u);
     const parts = Object.entries(u)
       .filter(([k, v]) => k.endsWith('Px') && typeof v === 'number' && Number.isFinite(v))
       .map(([, v]) => v as number);
     return Math.hypot(...parts);
   }
-  return p.uncertaintyPx;
+  if (typeof record.uncertaintyPx === 'number') return record.uncertaintyPx;
+  throw new TypeError('a periodicity without u or uncertaintyPx: update standardUncertaintyPx in bench/coverage.ts');
 }
 
 // ---------------------------------------------------------------------------------------------
