@@ -201,6 +201,8 @@ interface Row {
   totalSnr: number | null;
   dosePerPx: number;
   notes: string[];
+  /** The reported uncertainty's parts as the record gives them (for the listing), or null. */
+  parts?: Record<string, number> | null;
 }
 
 /** The outcome for one image. */
@@ -295,7 +297,8 @@ async function runCase(family: FamilyName, seed: number, alpha: number): Promise
     const p = periods[si];
     const uPx = standardUncertaintyPx(p);
     if (si > 0) notes.push(`report #${si + 1}`);
-    return { family, seed: truth.seed, label: t.label, truePx: t.periodPx, spot: si, measuredPx: p.periodPx, uPx, errorPx: p.periodPx - t.periodPx, crbPx, totalSnr, dosePerPx: truth.dosePerPx, notes };
+    const parts = (p as unknown as { u?: Record<string, number> }).u ?? null;
+    return { family, seed: truth.seed, label: t.label, truePx: t.periodPx, spot: si, measuredPx: p.periodPx, uPx, errorPx: p.periodPx - t.periodPx, crbPx, totalSnr, dosePerPx: truth.dosePerPx, notes, parts };
   });
   const sat = unexplained.filter((u) => u.satellite).length;
   if (unexplained.length > 0) for (const r of rows) r.notes.push(`${unexplained.length} unexplained report(s), ${sat} along a true direction`);
@@ -453,6 +456,7 @@ function csv(r: Row, truth: LatticeTruth): string {
     r.truePx.toFixed(4),
     Number.isFinite(r.measuredPx) ? r.measuredPx.toFixed(4) : '',
     Number.isFinite(r.uPx) ? r.uPx.toExponential(2) : '',
+    r.parts ? Object.values(r.parts).map((v) => v.toExponential(1)).join(' ') : '',
     Number.isFinite(z) ? z.toFixed(2) : '',
     r.crbPx !== null && Number.isFinite(r.errorPx) ? (Math.abs(r.errorPx) / r.crbPx).toFixed(2) : '',
     JSON.stringify([...truth.notes, ...r.notes].join('; ')),
@@ -463,7 +467,7 @@ function csv(r: Row, truth: LatticeTruth): string {
 function listings(results: CaseResult[], verbose: boolean): void {
   const all = results.flatMap((c) => c.rows.map((r) => ({ r, t: c.truth })));
   const found = all.filter(({ r }) => r.spot !== null).sort((a, b) => Math.abs(b.r.errorPx) / b.r.uPx - Math.abs(a.r.errorPx) / a.r.uPx);
-  const header = 'family,seed,truth,true px,measured px,u px,|err|/u,|err|/CRB,notes';
+  const header = 'family,seed,truth,true px,measured px,u px,u parts (stat local method),|err|/u,|err|/CRB,notes';
   console.log('## Worst cases by |err|/u\n');
   console.log('```');
   console.log(header);

@@ -36,6 +36,9 @@ export interface RefineData {
   strideX: number;
   /** Mean of the area's pixels, removed before windowing. */
   mean: number;
+  /** Slopes of the least-squares plane through the area's pixels (grey values per px along x and y), removed with the mean. */
+  slopeX: number;
+  slopeY: number;
   /** The windows along x and y. */
   windowX: Float64Array;
   windowY: Float64Array;
@@ -44,8 +47,9 @@ export interface RefineData {
 /**
  * Prepares the data of an area for {@link refineSpot} (done once per region).
  *
- * Parameters: image; area (inside the image); tukeyAlpha (default 0.3).
- * Returns: the mean-removed, Tukey-windowed samples.
+ * Parameters: image; area (inside the image); tukeyAlpha (default 0.3; 1 is the Hann window).
+ * Returns: the area with its mean and least-squares plane (removed before windowing, so an uneven
+ * illumination does not leak into the spot) and the separable Tukey window.
  * Reference: Tukey (tapered cosine) window, Harris, Proc. IEEE 66(1), 51 (1978).
  */
 export function refineData(image: GreyImage, area: RectPx, tukeyAlpha = 0.3): RefineData {
@@ -56,12 +60,26 @@ export function refineData(image: GreyImage, area: RectPx, tukeyAlpha = 0.3): Re
   const wx = windowSamples('tukey', w, tukeyAlpha);
   const wy = windowSamples('tukey', h, tukeyAlpha);
   const d = image.data;
+  const cx = (w - 1) / 2;
+  const cy = (h - 1) / 2;
   let sum = 0;
+  let sx = 0;
+  let sy = 0;
   for (let j = 0; j < h; j++) {
     const o = (y + j) * image.width + x;
-    for (let i = 0; i < w; i++) sum += d[o + i];
+    let row = 0;
+    for (let i = 0; i < w; i++) {
+      const v = d[o + i];
+      row += v;
+      sx += (i - cx) * v;
+    }
+    sum += row;
+    sy += (j - cy) * row;
   }
-  return { area, pixels: d, strideX: image.width, mean: sum / (w * h), windowX: wx, windowY: wy };
+  // least-squares plane on centred coordinates: slopes decouple from the mean
+  const slopeX = w > 1 ? sx / ((h * w * (w * w - 1)) / 12) : 0;
+  const slopeY = h > 1 ? sy / ((w * h * (h * h - 1)) / 12) : 0;
+  return { area, pixels: d, strideX: image.width, mean: sum / (w * h), slopeX, slopeY, windowX: wx, windowY: wy };
 }
 
 /**
@@ -89,20 +107,28 @@ export function refineSpot(data: RefineData, spot: Spot, options: RefineSpotOpti
   const maxShift = options.maxShiftBins ?? 0.5;
   if (!(maxShift > 0)) throw new RangeError(`maxShiftBins must be positive, got ${maxShift}`);
   if (weights && weights.length !== w * h) throw new RangeError(`weights must have ${w} × ${h} = ${w * h} values, got ${weights.length}`);
+  const cxp = (w - 1) / 2;
+  const cyp = (h - 1) / 2;
+  const slopeX = data.slopeX;
+  const slopeY = data.slopeY;
+  const planeX = new Float64Array(w);
+  for (let i = 0; i < w; i++) planeX[i] = slopeX * (i - cxp);
   let mean = data.mean;
   if (weights) {
+    // the weighted mean of what the plane leaves
     let sw = 0;
     let swd = 0;
     for (let j = 0; j < h; j++) {
       const o = (y0 + j) * strideX + x0;
+      const py = data.mean + slopeY * (j - cyp);
       for (let i = 0; i < w; i++) {
         const q = weights[j * w + i] * wx[i] * wy[j];
         sw += q;
-        swd += q * pixels[o + i];
+        swd += q * (pixels[o + i] - py - planeX[i]);
       }
     }
     if (!(sw > 0)) return null;
-    mean = swd / sw;
+    mean = data.mean + swd / sw;
   }
   const cx = (w - 1) / 2;
   const cy = (h - 1) / 2;
@@ -126,8 +152,9 @@ export function refineSpot(data: RefineData, spot: Spot, options: RefineSpotOpti
       let r0r = 0, r0i = 0, r1r = 0, r1i = 0, r2r = 0, r2i = 0;
       const o = (y0 + j) * strideX + x0;
       const wo = j * w;
+      const base = mean + slopeY * (j - cyp);
       for (let i = 0; i < w; i++) {
-        const d = weights ? (pixels[o + i] - mean) * weights[wo + i] : pixels[o + i] - mean;
+        const d = weights ? (pixels[o + i] - base - planeX[i]) * weights[wo + i] : pixels[o + i] - base - planeX[i];
         const ar = d * er[i];
         const ai = d * ei[i];
         const t = i - cx;

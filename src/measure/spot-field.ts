@@ -9,6 +9,9 @@ import { fftRadix2 } from './period-profile';
 import type { RectPx } from './spectrum';
 import { windowSamples } from './window';
 
+/** Below this window value (the region's tapered edges) a cell's amplitude is not estimated. */
+export const MIN_WINDOW = 0.5;
+
 /** The complex DFT of a lightly tapered region (DFT order, interleaved re, im). */
 export interface ComplexSpectrum {
   /** The area transformed (image pixels). */
@@ -75,7 +78,7 @@ export interface SpotField {
   cellHeightPx: number;
   /** Complex field, interleaved re, im, row-major (gridSize²), at baseband of (fx, fy): B(x) ≈ (a(x)/2)·w(x)·e^(iφ(x)). */
   field: Float64Array;
-  /** Local fringe amplitude a(x) = 2|B|/w (grey values), row-major. */
+  /** Local fringe amplitude a(x) = 2|B|/w (grey values), row-major; NaN near the edges, where the window is below MIN_WINDOW and the amplitude is not known. */
   amplitude: Float64Array;
   /** Standard deviation of |B| from noise alone (the background near the spot), in amplitude units of `amplitude`. */
   noiseAmplitude: number;
@@ -169,7 +172,7 @@ export function spotField(spec: ComplexSpectrum, fx: number, fy: number, options
       field[2 * k] = r0 * c - i0 * s;
       field[2 * k + 1] = r0 * s + i0 * c;
       const wv = spec.windowX[Math.min(w - 1, Math.round(xPx))] * wyv;
-      amplitude[k] = wv > 0.05 ? (2 * Math.hypot(r0, i0)) / wv : 0;
+      amplitude[k] = wv >= MIN_WINDOW ? (2 * Math.hypot(r0, i0)) / wv : NaN;
     }
   }
   // Background near the spot: median |X|² in an annulus 3.5σ–7σ (bins), the spot's own bins excluded.
@@ -251,20 +254,47 @@ export interface SpotSupport {
 export function spotSupport(field: SpotField): SpotSupport {
   const a = field.amplitude;
   const n = field.gridSize;
-  const sorted = Float64Array.from(a).sort();
-  // the plateau: the 95th percentile of the amplitude, robust to a few bright noise cells
-  const peak = sorted[Math.floor(0.95 * (sorted.length - 1))];
-  const floor = 3 * field.noiseAmplitude;
+  const valid = Array.from(a).filter((v) => Number.isFinite(v)).sort((x, y) => x - y);
   const weights = new Float64Array(n * n);
+  if (!valid.length) return { weights, coverage: 0, peakAmplitude: 0 };
+  // the plateau: the 90th percentile of the amplitude, robust to a few bright noise cells
+  const peak = valid[Math.floor(0.9 * (valid.length - 1))];
+  const floor = 3 * field.noiseAmplitude;
   let s = 0;
+  let cells = 0;
   if (peak > floor) {
     for (let k = 0; k < a.length; k++) {
+      if (!Number.isFinite(a[k])) continue;
       const v = Math.max(0, Math.min(1, (a[k] - floor) / (peak - floor)));
       weights[k] = v;
       s += v;
+      cells++;
+    }
+    // edge cells (window too low to estimate): the weight of the nearest cell inside
+    for (let j = 0; j < n; j++) for (let i = 0; i < n; i++) {
+      const k = j * n + i;
+      if (Number.isFinite(a[k])) continue;
+      let best = Infinity;
+      let w = 0;
+      for (let r = 1; r < n && best === Infinity; r++) {
+        for (let dj = -r; dj <= r; dj++) for (let di = -r; di <= r; di++) {
+          if (Math.max(Math.abs(di), Math.abs(dj)) !== r) continue;
+          const ii = i + di;
+          const jj = j + dj;
+          if (ii < 0 || jj < 0 || ii >= n || jj >= n) continue;
+          const kk = jj * n + ii;
+          if (!Number.isFinite(a[kk])) continue;
+          const d = di * di + dj * dj;
+          if (d < best) {
+            best = d;
+            w = weights[kk];
+          }
+        }
+      }
+      weights[k] = w;
     }
   }
-  return { weights, coverage: s / (n * n), peakAmplitude: peak };
+  return { weights, coverage: cells ? s / cells : 0, peakAmplitude: peak };
 }
 
 /**
@@ -332,11 +362,15 @@ export function weightedFrequencyStd(
   const wAt = (i: number, j: number) =>
     windowX[Math.min(windowX.length - 1, Math.round((i - cells.i0) * cw))] * windowY[Math.min(windowY.length - 1, Math.round((j - cells.j0) * ch))] * (weights ? weights[j * n + i] : 1);
   const { i0, i1, j0, j1 } = cells;
+  // edge cells have no amplitude estimate: take the support's plateau scaled by their weight
+  const finiteAmps = Array.from(field.amplitude).filter((v) => Number.isFinite(v)).sort((x, y) => x - y);
+  const plateau = finiteAmps.length ? finiteAmps[Math.floor(0.9 * (finiteAmps.length - 1))] : 0;
+  const ampAt = (k: number) => (Number.isFinite(field.amplitude[k]) ? field.amplitude[k] : (weights ? weights[k] : 1) * plateau);
   let swa = 0;
   let swax = 0;
   let sway = 0;
   for (let j = j0; j < j1; j++) for (let i = i0; i < i1; i++) {
-    const wa = wAt(i, j) * field.amplitude[j * n + i];
+    const wa = wAt(i, j) * ampAt(j * n + i);
     swa += wa;
     swax += wa * i * cw;
     sway += wa * j * ch;
@@ -350,7 +384,7 @@ export function weightedFrequencyStd(
   let s2y = 0;
   for (let j = j0; j < j1; j++) for (let i = i0; i < i1; i++) {
     const W = wAt(i, j);
-    const a = field.amplitude[j * n + i];
+    const a = ampAt(j * n + i);
     const dx2 = (i * cw - xb) ** 2 + (cw * cw) / 12;
     const dy2 = (j * ch - yb) ** 2 + (ch * ch) / 12;
     s1x += W * a * dx2 * area;
@@ -361,3 +395,4 @@ export function weightedFrequencyStd(
   const k = 2 * sigma2 / (4 * Math.PI * Math.PI);
   return { fxStd: Math.sqrt((k * s2x) / (s1x * s1x)), fyStd: Math.sqrt((k * s2y) / (s1y * s1y)) };
 }
+
