@@ -16,7 +16,7 @@ export interface MeasureRegionOptions extends PowerSpectrumOptions, SpotOptions 
   fileName?: string;
   /** Stored image id recorded in the measurement (default null). */
   imageId?: string | null;
-  /** Refine this many of the strongest spots on a lightly tapered window (default 6; 0: Hann estimates only). */
+  /** Refine this many of the strongest spots where their fringes are, with their full budget (default: every spot, up to maxSpots; 0: Hann estimates only). */
   refineSpots?: number;
 }
 
@@ -107,7 +107,7 @@ export async function analyseRegion(
 ): Promise<RegionAnalysis> {
   const spectrum = await powerSpectrum(image, region, options);
   const search = findSpots(spectrum, options);
-  const refineCount = options.refineSpots ?? 6;
+  const refineCount = options.refineSpots ?? (options.maxSpots ?? 12);
   if (!(Number.isInteger(refineCount) && refineCount >= 0)) throw new RangeError(`refineSpots must be a non-negative integer, got ${refineCount}`);
   let refined = 0;
   let onSupport = 0;
@@ -117,17 +117,17 @@ export async function analyseRegion(
     const spec = await complexSpectrum(image, spectrum.area);
     const done: BudgetedSpot[] = [];
     const rest: Spot[] = [];
-    search.spots.forEach((s, i) => {
+    for (const [i, s] of search.spots.entries()) {
       if (i >= refineCount) {
         rest.push(s);
-        return;
+        continue;
       }
-      const b = budgetSpot(image, data, spec, s);
+      const b = await budgetSpot(image, data, spec, s);
       refined++;
       if (b.onSupport) onSupport++;
       budgetNotes.push(...b.notes);
       done.push(b);
-    });
+    }
     const kept = dropSideLobes(done);
     if (kept.length < done.length) {
       budgetNotes.push(`${done.length - kept.length} spot${done.length - kept.length === 1 ? '' : 's'} dropped as the side lobe or double of a stronger spot of the same crystal`);

@@ -227,49 +227,87 @@ function squaredFrequencies(n: number): Float64Array {
 }
 
 /**
- * Background power as a function of spatial frequency, robust to spots.
+ * Background power as a function of spatial frequency, robust to spots and to rings of spots.
  *
- * Parameters: a power spectrum; smoothRings, rings pooled either side (default 2).
+ * Parameters: a power spectrum; smoothRings, rings either side of the running median across
+ * rings (default 6).
  * Returns: background per ring (ring of a bin: round(|f| · max(width, height))).
  * Notes: for a featureless (Gaussian-noise-like) region every bin's power is exponentially
- * distributed about the local mean B, and E[ln P] = ln B − γ, so B = exp(⟨ln P⟩ + γ). Averaging logs
- * keeps a few bright spots from lifting the background (a spot adds only its log to the average).
- * Rings are 1/max(width, height) cycles/px wide in physical frequency, so non-square regions work.
- * Only the half-plane v ≤ height/2 is read: the power of a real image is point-symmetric.
- * Reference: log-periodogram bias γ, Geweke & Porter-Hudak, J. Time Ser. Anal. 4(4), 221 (1983).
+ * distributed about the local mean B. Within a ring, the 30th percentile of ln P is
+ * ln B + ln(−ln 0.7), so B follows from a low quantile that the spots of the ring do not reach,
+ * even when grains of one spacing put arcs all around it (a fingerprint pattern). A running median
+ * over neighbouring rings then removes what a ring of spots still lifts, since a ring is narrow
+ * in radius and the background varies slowly. Rings are 1/max(width, height) cycles/px wide in
+ * physical frequency, so non-square regions work. Only the half-plane v ≤ height/2 is read: the
+ * power of a real image is point-symmetric.
+ * Reference: quantiles of the exponential distribution (common practice); running median, Tukey, Exploratory Data Analysis (1977).
  */
-export function radialBackground(spectrum: PowerSpectrum, smoothRings = 2): RadialBackground {
+export function radialBackground(spectrum: PowerSpectrum, smoothRings = 6): RadialBackground {
   const { width: w, height: h, power } = spectrum;
   if (!(Number.isInteger(smoothRings) && smoothRings >= 0)) throw new RangeError(`smoothRings must be a non-negative integer, got ${smoothRings}`);
   const nMax = Math.max(w, h);
   const rings = Math.ceil(Math.SQRT1_2 * nMax) + 2;
-  const sumLog = new Float64Array(rings);
-  const count = new Float64Array(rings);
+  const count = new Int32Array(rings);
   const fx2 = squaredFrequencies(w);
   const fy2 = squaredFrequencies(h);
+  const ringOf = new Int32Array(((h >> 1) + 1) * w);
   for (let v = 0; v <= h >> 1; v++) {
-    const o = v * w;
-    const fy = fy2[v];
     for (let u = 0; u < w; u++) {
-      const p = power[o + u];
-      if (p > 0) {
-        const ring = (Math.sqrt(fx2[u] + fy) * nMax + 0.5) | 0;
-        sumLog[ring] += Math.log(p);
-        count[ring] += 1;
-      }
+      const r = (Math.sqrt(fx2[u] + fy2[v]) * nMax + 0.5) | 0;
+      ringOf[v * w + u] = r;
+      if (power[v * w + u] > 0) count[r]++;
     }
+  }
+  const start = new Int32Array(rings + 1);
+  for (let r = 0; r < rings; r++) start[r + 1] = start[r] + count[r];
+  const logs = new Float64Array(start[rings]);
+  const fill = start.slice(0, rings);
+  for (let k = 0; k < ringOf.length; k++) {
+    const p = power[k];
+    if (p > 0) logs[fill[ringOf[k]]++] = Math.log(p);
+  }
+  const Q = 0.3;
+  const offset = Math.log(-Math.log(1 - Q));
+  const raw = new Float64Array(rings).fill(NaN);
+  for (let r = 1; r < rings; r++) {
+    const n = count[r];
+    if (n === 0) continue;
+    raw[r] = quickSelect(logs, start[r], start[r] + n - 1, start[r] + Math.floor(Q * (n - 1))) - offset;
   }
   const background = new Float64Array(rings);
+  const win: number[] = [];
   for (let r = 0; r < rings; r++) {
-    let s = 0;
-    let c = 0;
-    for (let j = Math.max(1, r - smoothRings); j <= Math.min(rings - 1, r + smoothRings); j++) {
-      s += sumLog[j];
-      c += count[j];
-    }
-    background[r] = c > 0 ? Math.exp(s / c + EULER_GAMMA) : 0;
+    win.length = 0;
+    for (let j = Math.max(1, r - smoothRings); j <= Math.min(rings - 1, r + smoothRings); j++) if (Number.isFinite(raw[j])) win.push(raw[j]);
+    if (!win.length) continue;
+    win.sort((a, b) => a - b);
+    background[r] = Math.exp(win[win.length >> 1]);
   }
   return { background, rings };
+}
+
+/** The k-th smallest of a[lo..hi] (inclusive), rearranging that part in place (Hoare's selection). */
+function quickSelect(a: Float64Array, lo: number, hi: number, k: number): number {
+  while (hi > lo) {
+    const pivot = a[(lo + hi) >> 1];
+    let i = lo;
+    let j = hi;
+    while (i <= j) {
+      while (a[i] < pivot) i++;
+      while (a[j] > pivot) j--;
+      if (i <= j) {
+        const t = a[i];
+        a[i] = a[j];
+        a[j] = t;
+        i++;
+        j--;
+      }
+    }
+    if (k <= j) hi = j;
+    else if (k >= i) lo = i;
+    else return a[k];
+  }
+  return a[k];
 }
 
 /** Options of {@link findSpots}. */

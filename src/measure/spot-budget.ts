@@ -6,7 +6,7 @@ import type { GreyImage } from '../image/grey-image';
 import { localSpread } from './pool';
 import { refineData, type RefineData, refineSpot } from './refine';
 import type { RectPx, Spot } from './spectrum';
-import { frequencyAngleDeg } from './spectrum';
+import { frequencyAngleDeg, powerSpectrum } from './spectrum';
 import { type ComplexSpectrum, type FrequencyStd, pixelWeights, type SpotField, spotField, spotSupport, weightedFrequencyStd } from './spot-field';
 
 /** Below this many periods across the region the final fit uses the Hann window (see budgetSpot). */
@@ -67,7 +67,7 @@ function periodAndAngleStd(fx: number, fy: number, std: FrequencyStd): { periodP
  * Reference: Hÿtch, Snoeck & Kilaas, Ultramicroscopy 74, 131 (1998) (support); Rife & Boorstyn,
  * IEEE Trans. Inf. Theory 20(5), 591 (1974) (bound); Cochran, Biometrics 10, 101 (1954); DerSimonian & Laird (1986).
  */
-export function budgetSpot(image: GreyImage, data: RefineData, spec: ComplexSpectrum, spot: Spot, options: SpotBudgetOptions = {}): BudgetedSpot {
+export async function budgetSpot(image: GreyImage, data: RefineData, spec: ComplexSpectrum, spot: Spot, options: SpotBudgetOptions = {}): Promise<BudgetedSpot> {
   // eslint-disable-next-line no-param-reassign
   const coverMax = options.supportCoverage ?? 0.8;
   const notes: string[] = [];
@@ -100,13 +100,29 @@ export function budgetSpot(image: GreyImage, data: RefineData, spec: ComplexSpec
   }
   const std = weightedFrequencyStd(field, weightsGrid, data.windowX, data.windowY);
   const stat = Number.isFinite(std.fxStd) ? periodAndAngleStd(best.fx, best.fy, std) : { periodPx: best.u.statisticalPx, angleDeg: best.uAngleDeg };
+  // Method, for a crystal that fills part of the region: how much the result depends on how its
+  // edges are weighted. A second fit with the support squared (edges weighted down further)
+  // differs from the first by noise (the part of its larger variance not shared) and by the
+  // finite crystal's bias; the difference beyond that noise is the method part.
+  let finiteCrystalPx = 0;
+  if (onSupport && weightsGrid) {
+    const w2grid = weightsGrid.map((v) => v * v);
+    const w2 = pixelWeights(w2grid, field.gridSize, area.width, area.height);
+    const r2 = refineSpot(data, best, { weights: w2, maxShiftBins: 2 });
+    if (r2) {
+      const s2 = weightedFrequencyStd(field, w2grid, data.windowX, data.windowY);
+      const p2 = Number.isFinite(s2.fxStd) ? periodAndAngleStd(r2.fx, r2.fy, s2).periodPx : 0;
+      const noise2 = Math.max(0, p2 * p2 - stat.periodPx * stat.periodPx);
+      finiteCrystalPx = Math.sqrt(Math.max(0, (r2.periodPx - best.periodPx) ** 2 - noise2));
+    }
+  }
 
   // Local periods over sub-regions.
   const n = field.gridSize;
-  const side = (len: number) => Math.max(1, Math.min(4, Math.floor(len / Math.max(48, 5 * best.periodPx))));
+  const side = (len: number) => Math.max(1, Math.min(6, Math.floor(len / Math.max(32, 5 * best.periodPx))));
   const kx = side(area.width);
   const ky = side(area.height);
-  const local: { value: number; u: number }[] = [];
+  const local: { value: number; u: number; angleDeg: number; uAngleDeg: number }[] = [];
   if (kx * ky >= 2) {
     for (let by = 0; by < ky; by++) {
       for (let bx = 0; bx < kx; bx++) {
@@ -123,27 +139,60 @@ export function budgetSpot(image: GreyImage, data: RefineData, spec: ComplexSpec
         let wsum = 0;
         for (let j = j0; j < j1; j++) for (let i = i0; i < i1; i++) wsum += support.weights[j * n + i];
         const blockCover = wsum / ((i1 - i0) * (j1 - j0));
-        if (blockCover < 0.3) continue; // the spot's fringes are not (or barely) here
+        if (blockCover < 0.6) continue; // the spot's fringes do not fill this block: its local fit would see their edges
         const block: RectPx = { x, y, width, height };
         const bData = refineData(image, block, 1); // Hann: a block holds few periods
         const bw = onSupport ? blockWeights(support.weights, n, i0, i1, j0, j1, width, height) : undefined;
-        const rb = refineSpot(bData, best, { weights: bw, maxShiftBins: 1, iterations: 4 });
+        // Bent fringes change direction from block to block: start from the block's own maximum
+        // near the spot (within ±45° and ±15 % of its frequency).
+        const start = await blockPeak(image, block, best);
+        if (!start) continue;
+        const rb = refineSpot(bData, start, { weights: bw, maxShiftBins: 1, iterations: 4 });
         if (!rb) continue;
         const sb = weightedFrequencyStd(field, onSupport ? support.weights : null, bData.windowX, bData.windowY, { i0, i1, j0, j1 });
         const pb = periodAndAngleStd(rb.fx, rb.fy, sb).periodPx;
-        if (Number.isFinite(pb) && pb > 0) local.push({ value: rb.periodPx, u: pb });
+        const ab = periodAndAngleStd(rb.fx, rb.fy, sb).angleDeg;
+        if (Number.isFinite(pb) && pb > 0) local.push({ value: rb.periodPx, u: pb, angleDeg: rb.angleDeg, uAngleDeg: ab });
       }
     }
   }
   const spread = localSpread(local, options.spreadLevel ?? 0.01);
-  if (spread.significant) notes.push(`the period of the spot at ${best.periodPx.toFixed(2)} px varies over the region: local periods ${local.map((l) => l.value.toFixed(2)).join(', ')} px`);
+  // Bent or curved fringes: the local directions differ beyond their own uncertainty. Their spot
+  // is an arc whose maximum lies off the ring, so the whole-region fit is biased; the value is then
+  // the mean of the local periods, stated with their spread (not the precision of one peak fit).
+  const turning = directionSpread(local);
+  let value = best.periodPx;
+  let statisticalPx = stat.periodPx;
+  let localVariationPx = spread.spread;
+  let curved = false;
+  if (turning.significant && local.length >= 3) {
+    curved = true;
+    const m = local.reduce((a, l) => a + l.value, 0) / local.length;
+    const sd = Math.sqrt(local.reduce((a, l) => a + (l.value - m) ** 2, 0) / (local.length - 1));
+    let sw = 0;
+    let swx = 0;
+    for (const l of local) {
+      sw += 1 / (l.u * l.u);
+      swx += l.value / (l.u * l.u);
+    }
+    value = swx / sw;
+    statisticalPx = 1 / Math.sqrt(sw);
+    localVariationPx = sd;
+    notes.push(`the fringes of the spot at ${best.periodPx.toFixed(2)} px bend (local directions spread ${turning.sdDeg.toFixed(1)}°): the period is the mean of ${local.length} local periods, with their spread`);
+  } else if (spread.significant) {
+    notes.push(`the period of the spot at ${best.periodPx.toFixed(2)} px varies over the region: local periods ${local.map((l) => l.value.toFixed(2)).join(', ')} px`);
+  }
   const fx = best.fx;
   const fy = best.fy;
+  const scale = best.periodPx / value; // keep the direction, set |f| = 1/value
   const out: Spot = {
     ...best,
+    fx: fx * scale,
+    fy: fy * scale,
+    periodPx: value,
     angleDeg: frequencyAngleDeg(fx, fy),
-    u: { statisticalPx: stat.periodPx, localVariationPx: spread.spread, methodPx: 0 },
-    uAngleDeg: stat.angleDeg,
+    u: { statisticalPx, localVariationPx, methodPx: curved ? 0 : finiteCrystalPx },
+    uAngleDeg: curved ? Math.max(stat.angleDeg, turning.sdDeg) : stat.angleDeg,
   };
   return { spot: out, coverage: support.coverage, onSupport, localPeriodsPx: local.map((l) => l.value), supportWeights: support.weights, notes };
 }
@@ -171,3 +220,62 @@ function blockWeights(grid: Float64Array, n: number, i0: number, i1: number, j0:
   }
   return out;
 }
+
+/**
+ * The strongest bin of a block's Hann power spectrum near a spot (within ±45° of its direction and
+ * ±15 % of its frequency), as a starting spot for the block's refit; null when the block is too
+ * small or holds nothing there.
+ */
+async function blockPeak(image: GreyImage, block: RectPx, spot: Spot): Promise<Spot | null> {
+  const ps = await powerSpectrum(image, block, { window: 'hann', detrend: 'plane' });
+  const { width: w, height: h, power } = ps;
+  const f0 = Math.hypot(spot.fx, spot.fy);
+  const a0 = Math.atan2(spot.fy, spot.fx);
+  let best = -1;
+  let bu = 0;
+  let bv = 0;
+  for (let v = 0; v < h; v++) {
+    const fy = (v < h / 2 ? v : v - h) / h;
+    for (let u = 0; u < w; u++) {
+      const fx = (u < w / 2 ? u : u - w) / w;
+      const f = Math.hypot(fx, fy);
+      if (f < 0.85 * f0 || f > 1.15 * f0) continue;
+      let da = Math.atan2(fy, fx) - a0;
+      while (da > Math.PI) da -= 2 * Math.PI;
+      while (da < -Math.PI) da += 2 * Math.PI;
+      if (Math.abs(da) > Math.PI / 4) continue;
+      const p = power[v * w + u];
+      if (p > best) {
+        best = p;
+        bu = fx;
+        bv = fy;
+      }
+    }
+  }
+  if (!(best > 0)) return null;
+  return { ...spot, fx: bu, fy: bv, periodPx: 1 / Math.hypot(bu, bv), angleDeg: frequencyAngleDeg(bu, bv) };
+}
+
+/**
+ * Whether local directions differ beyond their own uncertainties (Cochran's Q at 1 % on the
+ * angles, axial), and their weighted standard deviation in degrees.
+ * Reference: Cochran, Biometrics 10, 101 (1954).
+ */
+function directionSpread(local: readonly { angleDeg: number; uAngleDeg: number }[]): { significant: boolean; sdDeg: number } {
+  if (local.length < 2) return { significant: false, sdDeg: 0 };
+  // unwrap axial angles around the first
+  const ref = local[0].angleDeg;
+  const a = local.map((l) => {
+    let d = l.angleDeg - ref;
+    while (d > 90) d -= 180;
+    while (d < -90) d += 180;
+    return { value: ref + d, u: Math.max(l.uAngleDeg, 0.05) };
+  });
+  const m = a.reduce((s, x) => s + x.value, 0) / a.length;
+  const sd = Math.sqrt(a.reduce((s, x) => s + (x.value - m) ** 2, 0) / (a.length - 1));
+  const spread = localSpread(a);
+  return { significant: spread.significant && sd > MIN_TURN_DEG, sdDeg: sd };
+}
+
+/** Local directions must spread by more than this (degrees) to count as bent fringes. */
+const MIN_TURN_DEG = 1.5;
