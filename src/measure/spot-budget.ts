@@ -9,6 +9,9 @@ import type { RectPx, Spot } from './spectrum';
 import { frequencyAngleDeg, powerSpectrum } from './spectrum';
 import { type ComplexSpectrum, type FrequencyStd, pixelWeights, type SpotField, spotField, spotSupport, weightedFrequencyStd } from './spot-field';
 
+/** The support is used only when its plateau amplitude exceeds the noise amplitude by this factor. */
+const SUPPORT_MIN_SNR = 8;
+
 /** Below this many periods across the region the final fit uses the Hann window (see budgetSpot). */
 const HANN_BELOW_PERIODS = 40;
 
@@ -86,7 +89,10 @@ export async function budgetSpot(image: GreyImage, data: RefineData, spec: Compl
   let best = r0;
   let onSupport = false;
   let weightsGrid: Float64Array | null = null;
-  if (support.coverage > 0 && support.coverage < coverMax) {
+  // A support is only known where the fringes stand well above the noise cell by cell; faint
+  // fringes (low dose) are fitted over the whole region, as a noisy mask would cost more than it saves.
+  const supportKnown = support.peakAmplitude > SUPPORT_MIN_SNR * field.noiseAmplitude;
+  if (supportKnown && support.coverage > 0 && support.coverage < coverMax) {
     const w = pixelWeights(support.weights, field.gridSize, area.width, area.height);
     const r1 = refineSpot(data, r0, { weights: w, maxShiftBins: 4 });
     if (r1) {
@@ -223,8 +229,8 @@ function blockWeights(grid: Float64Array, n: number, i0: number, i1: number, j0:
 
 /**
  * The strongest bin of a block's Hann power spectrum near a spot (within ±45° of its direction and
- * ±15 % of its frequency), as a starting spot for the block's refit; null when the block is too
- * small or holds nothing there.
+ * ±15 % of its frequency), as a starting spot for the block's refit; null when the block holds no
+ * peak there that is significant at 1 % against the sector's own background.
  */
 async function blockPeak(image: GreyImage, block: RectPx, spot: Spot): Promise<Spot | null> {
   const ps = await powerSpectrum(image, block, { window: 'hann', detrend: 'plane' });
@@ -234,6 +240,7 @@ async function blockPeak(image: GreyImage, block: RectPx, spot: Spot): Promise<S
   let best = -1;
   let bu = 0;
   let bv = 0;
+  const sector: number[] = [];
   for (let v = 0; v < h; v++) {
     const fy = (v < h / 2 ? v : v - h) / h;
     for (let u = 0; u < w; u++) {
@@ -245,6 +252,7 @@ async function blockPeak(image: GreyImage, block: RectPx, spot: Spot): Promise<S
       while (da < -Math.PI) da += 2 * Math.PI;
       if (Math.abs(da) > Math.PI / 4) continue;
       const p = power[v * w + u];
+      sector.push(p);
       if (p > best) {
         best = p;
         bu = fx;
@@ -252,7 +260,13 @@ async function blockPeak(image: GreyImage, block: RectPx, spot: Spot): Promise<S
       }
     }
   }
-  if (!(best > 0)) return null;
+  if (!(best > 0) || sector.length < 4) return null;
+  // the block's own peak must stand out of its sector (exponential background: median/ln 2 is the
+  // mean; the largest of K bins exceeds ln(K/α) times the mean with probability α), else the
+  // block is too noisy to say anything about the local period
+  sector.sort((a, b) => a - b);
+  const meanBg = sector[sector.length >> 1] / Math.LN2;
+  if (!(best > meanBg * Math.log(sector.length / BLOCK_ALPHA))) return null;
   return { ...spot, fx: bu, fy: bv, periodPx: 1 / Math.hypot(bu, bv), angleDeg: frequencyAngleDeg(bu, bv) };
 }
 
@@ -277,5 +291,8 @@ function directionSpread(local: readonly { angleDeg: number; uAngleDeg: number }
   return { significant: spread.significant && sd > MIN_TURN_DEG, sdDeg: sd };
 }
 
+/** False-alarm probability of a sub-region's own peak (see blockPeak). */
+const BLOCK_ALPHA = 0.01;
+
 /** Local directions must spread by more than this (degrees) to count as bent fringes. */
-const MIN_TURN_DEG = 1.5;
+const MIN_TURN_DEG = 3;

@@ -78,7 +78,7 @@ export interface SpotField {
   cellHeightPx: number;
   /** Complex field, interleaved re, im, row-major (gridSize²), at baseband of (fx, fy): B(x) ≈ (a(x)/2)·w(x)·e^(iφ(x)). */
   field: Float64Array;
-  /** Local fringe amplitude a(x) = 2|B|/w (grey values), row-major; NaN near the edges, where the window is below MIN_WINDOW and the amplitude is not known. */
+  /** Local fringe amplitude a(x) = 2|B|/w (grey values), the noise's mean share removed, row-major; NaN near the edges, where the window is below MIN_WINDOW and the amplitude is not known. */
   amplitude: Float64Array;
   /** Standard deviation of |B| from noise alone (the background near the spot), in amplitude units of `amplitude`. */
   noiseAmplitude: number;
@@ -152,6 +152,7 @@ export function spotField(spec: ComplexSpectrum, fx: number, fy: number, options
   ifft2(re, im, n);
   const field = new Float64Array(2 * n * n);
   const amplitude = new Float64Array(n * n);
+  const windowAt = new Float64Array(n * n);
   const cellW = w / n;
   const cellH = h / n;
   const fracU = u0 - cu;
@@ -173,6 +174,7 @@ export function spotField(spec: ComplexSpectrum, fx: number, fy: number, options
       field[2 * k + 1] = r0 * s + i0 * c;
       const wv = spec.windowX[Math.min(w - 1, Math.round(xPx))] * wyv;
       amplitude[k] = wv >= MIN_WINDOW ? (2 * Math.hypot(r0, i0)) / wv : NaN;
+      windowAt[k] = wv;
     }
   }
   // Background near the spot: median |X|² in an annulus 3.5σ–7σ (bins), the spot's own bins excluded.
@@ -196,6 +198,13 @@ export function spotField(spec: ComplexSpectrum, fx: number, fy: number, options
   const noiseVariance = sw2 > 0 ? medianPower / Math.LN2 / sw2 : 0;
   // |B| noise: var(B) = (1/(WH))² Σ G² E|X|², amplitude units ×2 (a = 2|B|)
   const noiseAmplitude = 2 * Math.sqrt(gSum2 * (medianPower / Math.LN2)) * scale;
+  // |B|² = |signal|² + |noise|² on average: remove the noise's share, so faint fringes are not
+  // credited with the noise's amplitude (which would make their bound too small)
+  for (let k = 0; k < amplitude.length; k++) {
+    if (!Number.isFinite(amplitude[k])) continue;
+    const nk = noiseAmplitude / windowAt[k];
+    amplitude[k] = Math.sqrt(Math.max(0, amplitude[k] * amplitude[k] - nk * nk));
+  }
   return { gridSize: n, cellWidthPx: cellW, cellHeightPx: cellH, field, amplitude, noiseAmplitude, noiseVariance, fx, fy, sigmaPerPx: sigma / nMax };
 }
 
