@@ -6,6 +6,7 @@ import { encodeTiff, encodeTiffPages } from '../../src/image/encode-tiff';
 import { encodeMrc } from '../../src/image/encode-mrc';
 import { decodeImage, detectFormat, ImageReadError, LUMA_BT709 } from '../../src/image/decode';
 import { addPngPhys, greyJpeg, lcg, renumberTiffTag, setMrcWord, setTiffTag, tiffToBigEndian } from './fixtures';
+import { withIhdr } from '../../testing/png';
 
 const W = 48;
 const H = 32;
@@ -323,9 +324,8 @@ describe('PNG', () => {
     for (const keep of [10, 40, file.length - 30, file.length - 4]) {
       expectReadError(() => decodeImage(file.subarray(0, keep), 'a.png'), /truncated/, 'a.png');
     }
-    const zero = file.slice();
-    new DataView(zero.buffer).setUint32(16, 0); // IHDR width
-    expectReadError(() => decodeImage(zero, 'a.png'), /invalid image size 0 × 32/, 'a.png');
+    // IHDR width 0 with its CRC recomputed (PNG spec §11.2.2: width must be at least 1)
+    expectReadError(() => decodeImage(withIhdr(file, { width: 0 }), 'a.png'), /invalid image size 0 × 32/, 'a.png');
   });
 
   // Open reference data, tests/fixtures/reference-data/SOURCES.md §1: 256² RGBA, R = G = B.
@@ -467,9 +467,7 @@ describe('small files that declare large images', () => {
   // more); a JPEG needs at least one bit per 8 × 8 block (ITU-T T.81: each block codes its DC).
   test('a PNG whose IHDR was enlarged is refused before decoding', () => {
     const file = png({ width: 16, height: 16, data: new Uint8Array(256) });
-    const big = file.slice();
-    new DataView(big.buffer).setUint32(16, 10000); // IHDR width
-    new DataView(big.buffer).setUint32(20, 10000); // IHDR height
+    const big = withIhdr(file, { width: 10000, height: 10000 }); // CRC recomputed, so only the size is wrong
     expectReadError(() => decodeImage(big, 'a.png'), /cannot hold 10000 × 10000 pixels/, 'a.png');
   });
   test('a Deflate TIFF whose size tags were enlarged is refused before decoding', () => {
