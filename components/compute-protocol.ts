@@ -33,7 +33,7 @@ export interface ComputeCalls {
   /** The region Fourier-filtered to chosen spots and their Friedel mates, as pictures (measuring panel). */
   filterSpots: { args: FilterArgs; result: FilterResult };
   /** Reads a diffraction pattern's text and fits its peaks (seconds on a few thousand points). */
-  analysePattern: { args: { text: string; wavelength?: string }; result: { pattern: Pattern; analysis: PatternAnalysis } };
+  analysePattern: { args: { text: string; wavelength?: string; fileName?: string }; result: { pattern: Pattern; analysis: PatternAnalysis } };
   /** Automatic sheet detection over an image (a copy is sent), skipping a scale-bar strip or panel. */
   autoSheets: { args: { image: GreyImage; polarity: 'dark' | 'bright' }; result: { sheets: AutoSheetsResult; excludedBox: [number, number, number, number] | null } };
 }

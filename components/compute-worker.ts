@@ -50,10 +50,10 @@ const handlers: Handlers = {
     const excludedBox = bar ? bar.stripBox ?? bar.panelBox : null;
     return { sheets: detectSheets(image, { exclude: excludedBox, polarity }), excludedBox };
   },
-  analysePattern: async ({ text, wavelength }) => {
-    const { parsePattern } = await import('../src/diffraction/pattern');
+  analysePattern: async ({ text, wavelength, fileName }) => {
+    const { readPatternFile } = await import('../src/diffraction/read-pattern');
     const { analysePattern: analyse } = await import('../src/diffraction/analyse');
-    const pattern = parsePattern(text, { wavelength });
+    const pattern = readPatternFile(text, fileName ?? 'the pattern', { wavelength });
     if (pattern.axis === 'twoTheta' && pattern.wavelengthNm === null) throw new Error('no wavelength in the file: choose one');
     return { pattern, analysis: analyse(pattern) };
   },

@@ -133,7 +133,7 @@ export class StrataDiffractionPanel extends LitElement {
     this.busy = true;
     try {
       if (!this.compute) throw new Error('the compute worker is not available');
-      const { pattern, analysis } = await this.compute.call('analysePattern', { text: this.patternText, wavelength: this.wavelengthOption() });
+      const { pattern, analysis } = await this.compute.call('analysePattern', { text: this.patternText, wavelength: this.wavelengthOption(), fileName: this.fileName || undefined });
       this.pattern = pattern;
       this.analysis = analysis;
       this.manual = [];

@@ -7,7 +7,8 @@ import { basename } from 'node:path';
 import type { CliCommand, CliIo } from './command';
 import { parseArgs, UsageError } from './command';
 import { loadAndAnalyse } from './xrd';
-import { parseCif, powderReflections } from '../diffraction/cif';
+import { CifError, parseCif, powderReflections } from '../diffraction/cif';
+import { ReportError, readMeasurementReport } from '../diffraction/measurement-report';
 import { reconcile, type DiffractionLine, type MicrographPeriod, type SheetStats } from '../diffraction/reconcile';
 
 const usage = `Usage: stratameter match --pattern PATTERN [--cif CIF] MEASUREMENT.json... [--wavelength W]
@@ -28,44 +29,6 @@ Options:
   --z-max Z          largest |z| for a pair (default 3)
   --json             one JSON object on standard output instead of a table
 `;
-
-interface Loaded {
-  periods: MicrographPeriod[];
-  sheets: SheetStats | null;
-  relUnc: number | null;
-  notes: string[];
-}
-
-/** Reads one measurement JSON (measure or sheets report) into periods and sheet statistics. */
-function fromReport(file: string, j: any): Loaded {
-  const notes: string[] = [];
-  const periods: MicrographPeriod[] = [];
-  if (typeof j !== 'object' || j === null) throw new UsageError(`${file}: not a JSON object`);
-  const rel = typeof j.calibration?.relUncertainty === 'number' ? j.calibration.relUncertainty : null;
-  const name = basename(file);
-  let sheets: SheetStats | null = null;
-  if (Array.isArray(j.periodicities)) {
-    j.periodicities.forEach((p: any, i: number) => {
-      if (typeof p.periodNm !== 'number' || typeof p.uncertaintyNm !== 'number') {
-        notes.push(`${name}: periodicity ${i + 1} has no calibrated period and is left out`);
-        return;
-      }
-      periods.push({ periodNm: p.periodNm, uncertaintyNm: p.uncertaintyNm, label: `${name} #${i + 1} (${Number(p.angleDeg).toFixed(0)}°)` });
-    });
-  } else if (Array.isArray(j.sheets)) {
-    const ps = j.sheets.map((s: any) => s.periodNm).filter((v: unknown): v is number => typeof v === 'number' && v > 0);
-    if (ps.length > 0) {
-      const mean = ps.reduce((a: number, b: number) => a + b, 0) / ps.length;
-      const sd = ps.length > 1 ? Math.sqrt(ps.reduce((a: number, b: number) => a + (b - mean) ** 2, 0) / (ps.length - 1)) : 0;
-      const u = Math.hypot(ps.length > 1 ? sd / Math.sqrt(ps.length) : 0, mean * (rel ?? 0));
-      periods.push({ periodNm: mean, uncertaintyNm: u, label: `${name} layer period (mean of ${ps.length} sheets)` });
-      if (ps.length === 1) notes.push(`${name}: one sheet only: its layer period's uncertainty is the calibration's alone`);
-    } else notes.push(`${name}: no calibrated sheet periods`);
-    const t = j.stats?.thicknessNm;
-    if (t && typeof t.mean === 'number') sheets = { n: j.stats.n, meanNm: t.mean, sdNm: t.sd ?? 0, medianNm: t.median };
-  } else throw new UsageError(`${file}: neither a 'measure --json' (periodicities) nor a 'sheets --json' (sheets) report`);
-  return { periods, sheets, relUnc: rel, notes };
-}
 
 const f = (v: number, d = 4) => (Number.isFinite(v) ? v.toFixed(d) : '—');
 
@@ -90,16 +53,22 @@ export const command: CliCommand = {
     let sheets: SheetStats | null = null;
     const rels = new Set<number>();
     for (const file of positional) {
-      let j: unknown;
+      let text: string;
       try {
-        j = JSON.parse(await readFile(file, 'utf8'));
+        text = await readFile(file, 'utf8');
       } catch (e) {
-        throw new UsageError(`cannot read measurement '${file}': ${(e as Error).message}`);
+        throw new UsageError(`cannot read measurement '${file}': ${(e as NodeJS.ErrnoException).code ?? 'the file cannot be opened'}`);
       }
-      const l = fromReport(file, j);
+      let l;
+      try {
+        l = readMeasurementReport(text, file);
+      } catch (e) {
+        if (e instanceof ReportError) throw new UsageError(e.message);
+        throw e;
+      }
       periods.push(...l.periods);
       notes.push(...l.notes);
-      if (l.relUnc !== null) rels.add(l.relUnc);
+      if (l.relUncertainty !== null) rels.add(l.relUncertainty);
       if (l.sheets) {
         if (sheets) notes.push(`${file}: a second sheet statistic; only the first is compared`);
         else sheets = l.sheets;
@@ -123,11 +92,24 @@ export const command: CliCommand = {
       } catch {
         throw new UsageError(`cannot read CIF '${cifPath}'`);
       }
-      const st = parseCif(text);
+      let st;
+      try {
+        st = parseCif(text, { fileName: cifPath });
+      } catch (e) {
+        if (e instanceof CifError) throw new UsageError(e.message);
+        throw e;
+      }
       const c = st.cell;
       const relSu = Math.max(c.aNm.su / c.aNm.value, c.bNm.su / c.bNm.value, c.cNm.su / c.cNm.value);
       const phase = st.name || basename(cifPath);
-      for (const r of powderReflections(st, { dMinNm: 0.1, wavelengthNm: analysis.wavelengthNm ?? undefined })) {
+      let reflections;
+      try {
+        reflections = powderReflections(st, { dMinNm: 0.1, wavelengthNm: analysis.wavelengthNm ?? undefined });
+      } catch (e) {
+        if (e instanceof RangeError) throw new UsageError(`${cifPath}: ${e.message}`);
+        throw e;
+      }
+      for (const r of reflections) {
         if (r.intensity < 0.5) continue;
         lines.push({ dNm: r.dNm, dUncNm: r.dNm * relSu, label: `${phase} ${r.hkl.join(' ')}`, phase, intensity: r.intensity });
       }

@@ -6,7 +6,8 @@ import { readFile } from 'node:fs/promises';
 import type { CliCommand, CliIo } from './command';
 import { parseArgs, UsageError } from './command';
 import { analysePattern, instrumentFromStandard, type AnalyseOptions, type PatternAnalysis } from '../diffraction/analyse';
-import { parsePattern, type AxisUnit, type Pattern } from '../diffraction/pattern';
+import type { AxisUnit, Pattern } from '../diffraction/pattern';
+import { PatternReadError, readPatternFile } from '../diffraction/read-pattern';
 
 const usage = `Usage: stratameter xrd PATTERN [--wavelength W] [--axis 2theta|q-nm|q-A] [--k K]
                        [--instrument-fwhm DEG | --standard PATTERN] [--correction gaussian|lorentzian]
@@ -50,9 +51,10 @@ export async function loadAndAnalyse(path: string, options: Map<string, string>)
   const wl = options.get('wavelength');
   let pattern: Pattern;
   try {
-    pattern = parsePattern(await read(path, 'pattern'), { axis, wavelength: wl });
+    pattern = readPatternFile(await read(path, 'pattern'), path, { axis, wavelength: wl });
   } catch (e) {
-    throw new UsageError(`${path}: ${(e as Error).message}`);
+    if (e instanceof PatternReadError) throw new UsageError(e.message);
+    throw e;
   }
   if (pattern.axis === 'twoTheta' && pattern.wavelengthNm === null) {
     throw new UsageError(`${path}: no wavelength in the header; give --wavelength (e.g. CuKa1)`);
@@ -80,7 +82,13 @@ export async function loadAndAnalyse(path: string, options: Map<string, string>)
   if (inst !== undefined && std !== undefined) throw new UsageError('give --instrument-fwhm or --standard, not both');
   if (inst !== undefined) opts.instrumentFwhmDeg = inst;
   if (std !== undefined) {
-    const sp = parsePattern(await read(std, 'standard pattern'), { axis, wavelength: wl ?? (pattern.wavelengthNm ? `${pattern.wavelengthNm}nm` : undefined), ka2Nm: pattern.ka2Nm ?? undefined });
+    let sp: Pattern;
+    try {
+      sp = readPatternFile(await read(std, 'standard pattern'), std, { axis, wavelength: wl ?? (pattern.wavelengthNm ? `${pattern.wavelengthNm}nm` : undefined), ka2Nm: pattern.ka2Nm ?? undefined });
+    } catch (e) {
+      if (e instanceof PatternReadError) throw new UsageError(e.message);
+      throw e;
+    }
     opts.instrumentFwhmDeg = instrumentFromStandard(sp);
   }
   try {

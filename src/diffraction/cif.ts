@@ -65,20 +65,111 @@ export function parseCifNumber(text: string): CifNumber {
   return { value, su };
 }
 
-/** Splits CIF text into tokens (quoted strings and ;-text fields kept whole). */
-function tokenize(text: string): string[] {
-  const tokens: string[] = [];
-  const lines = text.split(/\r\n|\r|\n/);
+/** A structure file that cannot be read; the message is `"<fileName>: line N: <reason>"` (or without the line). */
+export class CifError extends SyntaxError {
+  override name = 'CifError';
+  /** The file name as given to the reader. */
+  readonly fileName: string;
+  /** The line the problem is on (1-based), or null for the file as a whole. */
+  readonly line: number | null;
+  /** The reason alone. */
+  readonly reason: string;
+  constructor(fileName: string, line: number | null, reason: string) {
+    super(`${fileName}: ${line !== null ? `line ${line}: ` : ''}${reason}`);
+    this.fileName = fileName;
+    this.line = line;
+    this.reason = reason;
+  }
+}
+
+/** A token with the line it starts on. */
+interface Token {
+  text: string;
+  line: number;
+  /** True for quoted strings and text fields (never a data name or reserved word). */
+  quoted: boolean;
+}
+
+/**
+ * Characters that Unicode counts as white space but a CIF does not (CIF whitespace is only space,
+ * tab and the line ends): outside quoted text they would silently join or split tokens.
+ */
+const NON_CIF_SPACE: Record<number, string> = {
+  0x85: 'next line (U+0085)', 0xa0: 'no-break space (U+00A0)', 0x1680: 'Ogham space mark (U+1680)',
+  0x2000: 'en quad (U+2000)', 0x2001: 'em quad (U+2001)', 0x2002: 'en space (U+2002)', 0x2003: 'em space (U+2003)',
+  0x2004: 'three-per-em space (U+2004)', 0x2005: 'four-per-em space (U+2005)', 0x2006: 'six-per-em space (U+2006)',
+  0x2007: 'figure space (U+2007)', 0x2008: 'punctuation space (U+2008)', 0x2009: 'thin space (U+2009)',
+  0x200a: 'hair space (U+200A)', 0x200b: 'zero-width space (U+200B)', 0x2028: 'line separator (U+2028)',
+  0x2029: 'paragraph separator (U+2029)', 0x202f: 'narrow no-break space (U+202F)', 0x205f: 'medium mathematical space (U+205F)',
+  0x3000: 'ideographic space (U+3000)', 0xfeff: 'byte-order mark (U+FEFF)',
+};
+
+/** Name of a control character that a CIF may not hold anywhere, or null. */
+function controlName(c: number): string | null {
+  if (c === 0x0b) return 'vertical tab (U+000B)';
+  if (c === 0x0c) return 'form feed (U+000C)';
+  if (c < 0x20 && c !== 0x09 && c !== 0x0a && c !== 0x0d) return `control character U+${c.toString(16).toUpperCase().padStart(4, '0')}`;
+  if (c === 0x7f || (c >= 0x80 && c <= 0x9f && c !== 0x85)) return `control character U+${c.toString(16).toUpperCase().padStart(4, '0')}`;
+  if (c === 0xfffe || c === 0xffff) return `non-character U+${c.toString(16).toUpperCase()}`;
+  return null;
+}
+
+/**
+ * Splits CIF text into tokens by the grammar's own whitespace: space, tab and the line ends
+ * (LF, CR, CR LF); comments from # to the end of a line; quoted strings ending at a matching
+ * quote followed by whitespace; text fields between lines starting with a semicolon.
+ *
+ * @param text - the whole file.
+ * @param fail - stops with a reason and a line.
+ * @returns the tokens with their lines.
+ * Notes: a byte-order mark at the very start is skipped (CIF 2.0 allows one there); control
+ * characters (vertical tab, form feed, NUL...) are refused anywhere, and Unicode spaces that are
+ * not CIF whitespace (no-break space, U+2028...) or a byte-order mark are refused outside quoted
+ * text and text fields, each naming the line and column. Every step consumes at least one
+ * character, so the tokenizer always ends.
+ * Reference: CIF 1.1 syntax specification (IUCr), formal grammar <WhiteSpace> and <eol>;
+ * CIF 2.0, Bernstein et al., J. Appl. Cryst. 49, 277 (2016) (character set, byte-order mark).
+ */
+function tokenize(text: string, fail: (line: number | null, reason: string) => never): Token[] {
+  const tokens: Token[] = [];
+  const body = text.charCodeAt(0) === 0xfeff ? text.slice(1) : text;
+  const lines = body.split(/\r\n|\r|\n/);
+  /** Refuses control characters anywhere on a line, and non-CIF spaces outside the quoted spans and before a comment. */
+  const checkChars = (line: string, no: number, quoted: [number, number][], commentAt: number) => {
+    for (let j = 0; j < line.length; j++) {
+      const c = line.charCodeAt(j);
+      if (c < 0x80 && c >= 0x20 && c !== 0x7f) continue;
+      const control = controlName(c);
+      if (control) fail(no, `column ${j + 1}: ${control} is not allowed in a CIF (whitespace is only space, tab and line ends)`);
+      if (NON_CIF_SPACE[c] && j < commentAt && !quoted.some(([a, b]) => j >= a && j < b)) {
+        fail(no, `column ${j + 1}: ${NON_CIF_SPACE[c]} is not whitespace in a CIF and may appear only inside quotes: replace it with an ordinary space`);
+      }
+    }
+  };
   for (let i = 0; i < lines.length; i++) {
     const line = lines[i];
     if (line.startsWith(';')) {
+      const start = i + 1;
       const parts = [line.slice(1)];
+      checkChars(line, start, [[0, line.length]], line.length);
       i++;
-      while (i < lines.length && !lines[i].startsWith(';')) parts.push(lines[i++]);
-      tokens.push(parts.join('\n').trim());
+      while (i < lines.length && !lines[i].startsWith(';')) {
+        checkChars(lines[i], i + 1, [[0, lines[i].length]], lines[i].length);
+        parts.push(lines[i++]);
+      }
+      if (i >= lines.length) fail(start, 'a text field opened with ";" at the start of this line is never closed');
+      tokens.push({ text: parts.join('\n').trim(), line: start, quoted: true });
+      // anything after the closing ';' on its line is read as ordinary tokens (CIF 1.1 grammar)
+      const rest = lines[i].slice(1);
+      if (rest.trim() !== '') {
+        lines[i] = ' ' + rest;
+        i--;
+      }
       continue;
     }
+    const no = i + 1;
     let j = 0;
+    const quoted: [number, number][] = [];
     while (j < line.length) {
       const ch = line[j];
       if (ch === ' ' || ch === '\t') {
@@ -88,16 +179,19 @@ function tokenize(text: string): string[] {
       if (ch === '#') break;
       if (ch === "'" || ch === '"') {
         let k = j + 1;
-        while (k < line.length && !(line[k] === ch && (k + 1 === line.length || /\s/.test(line[k + 1])))) k++;
-        tokens.push(line.slice(j + 1, k));
+        while (k < line.length && !(line[k] === ch && (k + 1 === line.length || line[k + 1] === ' ' || line[k + 1] === '\t'))) k++;
+        if (k >= line.length) fail(no, `column ${j + 1}: the quoted text starting here is not closed on its line`);
+        tokens.push({ text: line.slice(j + 1, k), line: no, quoted: true });
+        quoted.push([j, k + 1]);
         j = k + 1;
         continue;
       }
       let k = j;
-      while (k < line.length && !/\s/.test(line[k])) k++;
-      tokens.push(line.slice(j, k));
+      while (k < line.length && line[k] !== ' ' && line[k] !== '\t') k++;
+      tokens.push({ text: line.slice(j, k), line: no, quoted: false });
       j = k;
     }
+    checkChars(line, no, quoted, j);
   }
   return tokens;
 }
@@ -145,112 +239,205 @@ export function parseSymOp(text: string): SymOp {
   return { r, t, text };
 }
 
+/** Most symmetry operations a space group has: 48 point operations × 4 centring translations (Fm-3m), ITC A. */
+export const MAX_SYMMETRY_OPERATIONS = 192;
+/** Most atom sites read from one structure (far more than any inorganic structure lists; bounds the reflection work). */
+export const MAX_ATOM_SITES = 2000;
+/**
+ * Plausible cell lengths in Å: from 0.5 Å (below any interatomic distance) to 10 000 Å (1 µm,
+ * beyond the largest virus crystals) (common practice).
+ */
+const CELL_LENGTH_RANGE_A: [number, number] = [0.5, 1e4];
+
+/** Options of {@link parseCif}. */
+export interface ParseCifOptions {
+  /** The file's name, put at the start of every error message (default "CIF"). */
+  fileName?: string;
+}
+
 /**
  * Reads the first data block of a CIF: cell, space group, symmetry operations
  * (`_space_group_symop_operation_xyz` or `_symmetry_equiv_pos_as_xyz`) and atom sites with
  * occupancy and Uiso/Biso; numbers keep their su from the parentheses.
  *
  * @param text the CIF text
+ * @param options the file name for messages
  * @returns the structure; dummy atoms (calc flag 'dum') and atoms without an element with a
  *   scattering factor are skipped and noted
- * Reference: Hall, Allen & Brown, Acta Cryst. A47, 655 (1991) (the CIF format).
+ * @throws CifError naming the file and the line: characters a CIF may not hold, unclosed quotes
+ *   or text fields, a data name without a value or given twice, a loop whose values do not fill
+ *   its rows, a missing or implausible cell (lengths 0.5–10 000 Å, angles strictly between 0° and
+ *   180°, a positive volume), more than 192 symmetry operations or one that is not a lattice
+ *   rotation, an atom-site loop without x, y or z columns, more than 2000 atom sites
+ * Reference: Hall, Allen & Brown, Acta Cryst. A47, 655 (1991) (the CIF format); CIF 1.1 syntax
+ * specification (IUCr); International Tables for Crystallography Vol. A (at most 192 operations).
  */
-export function parseCif(text: string): CifStructure {
-  const tokens = tokenize(text);
-  const items = new Map<string, string>();
-  const loops: Array<{ names: string[]; rows: string[][] }> = [];
+export function parseCif(text: string, options: ParseCifOptions = {}): CifStructure {
+  const fileName = options.fileName ?? 'CIF';
+  if (typeof text !== 'string') throw new TypeError(`parseCif: text must be a string, got ${typeof text}`);
+  const fail = (line: number | null, reason: string): never => {
+    throw new CifError(fileName, line, reason);
+  };
+  const tokens = tokenize(text, fail);
+  const items = new Map<string, Token>();
+  const loops: Array<{ names: string[]; rows: Token[][]; line: number }> = [];
+  const loopOf = new Map<string, number>();
   let name = '';
+  let blocks = 0;
+  const notes: string[] = [];
   let i = 0;
+  const reserved = (t: Token) => !t.quoted && /^(data_|loop_$|save_|global_$|stop_$)/i.test(t.text);
+  const isName = (t: Token) => !t.quoted && t.text.startsWith('_');
   while (i < tokens.length) {
     const tk = tokens[i];
-    if (/^data_/i.test(tk)) {
-      if (name) break;
-      name = tk.slice(5);
+    if (!tk.quoted && /^data_/i.test(tk.text)) {
+      blocks++;
+      if (blocks > 1) break;
+      name = tk.text.slice(5);
       i++;
-    } else if (/^loop_$/i.test(tk)) {
+    } else if (!tk.quoted && /^loop_$/i.test(tk.text)) {
       i++;
       const names: string[] = [];
-      while (i < tokens.length && tokens[i].startsWith('_')) names.push(tokens[i++].toLowerCase());
-      const values: string[] = [];
-      while (i < tokens.length && !tokens[i].startsWith('_') && !/^(loop_|data_)/i.test(tokens[i])) values.push(tokens[i++]);
-      if (names.length === 0 || values.length % names.length !== 0) {
-        throw new SyntaxError(`CIF loop (${names.join(' ')}) has ${values.length} values, not a multiple of ${names.length}`);
+      while (i < tokens.length && isName(tokens[i])) {
+        const n = tokens[i].text.toLowerCase();
+        if (items.has(n) || loopOf.has(n) || names.includes(n)) fail(tokens[i].line, `data name ${tokens[i].text} appears twice in the data block`);
+        names.push(n);
+        i++;
       }
-      const rows: string[][] = [];
+      if (names.length === 0) fail(tk.line, 'a loop_ without data names');
+      const values: Token[] = [];
+      while (i < tokens.length && !isName(tokens[i]) && !reserved(tokens[i])) values.push(tokens[i++]);
+      if (values.length === 0 || values.length % names.length !== 0) {
+        fail(tk.line, `the loop (${names.join(' ')}) has ${values.length} values, not a multiple of its ${names.length} data names`);
+      }
+      const rows: Token[][] = [];
       for (let k = 0; k < values.length; k += names.length) rows.push(values.slice(k, k + names.length));
-      loops.push({ names, rows });
-    } else if (tk.startsWith('_')) {
-      items.set(tk.toLowerCase(), tokens[i + 1] ?? '');
+      for (const n of names) loopOf.set(n, loops.length);
+      loops.push({ names, rows, line: tk.line });
+    } else if (isName(tk)) {
+      const n = tk.text.toLowerCase();
+      if (items.has(n) || loopOf.has(n)) fail(tk.line, `data name ${tk.text} appears twice in the data block`);
+      const v = tokens[i + 1];
+      if (!v || isName(v) || reserved(v)) fail(tk.line, `data name ${tk.text} has no value`);
+      items.set(n, v);
       i += 2;
-    } else i++;
+    } else if (reserved(tk)) {
+      fail(tk.line, `${tk.text} (save frames, global blocks) is not read in a structure file`);
+    } else {
+      fail(tk.line, `value '${tk.text.slice(0, 40)}' without a data name before it`);
+    }
   }
-  const notes: string[] = [];
-  const num = (key: string, required: boolean): CifNumber => {
+  if (blocks === 0) fail(null, 'no data block (a CIF structure starts with data_NAME)');
+  if (blocks > 1) notes.push('only the first data block was read');
+  const num = (key: string, required: boolean): CifNumber & { line: number | null; text: string } => {
     const v = items.get(key);
-    const n = v === undefined ? { value: NaN, su: 0 } : parseCifNumber(v);
-    if (required && !Number.isFinite(n.value)) throw new SyntaxError(`CIF: ${key} is missing or not a number`);
-    return n;
+    const n = v === undefined ? { value: NaN, su: 0 } : parseCifNumber(v.text);
+    if (required && !Number.isFinite(n.value)) {
+      fail(v?.line ?? null, v === undefined ? `${key} is missing` : `${key} '${v.text.slice(0, 40)}' is not a number`);
+    }
+    if (!(n.su >= 0 && Number.isFinite(n.su))) fail(v?.line ?? null, `${key} has an invalid standard uncertainty`);
+    return { ...n, line: v?.line ?? null, text: v?.text ?? '' };
   };
   const len = (key: string) => {
     const n = num(key, true);
+    if (!(n.value >= CELL_LENGTH_RANGE_A[0] && n.value <= CELL_LENGTH_RANGE_A[1])) {
+      fail(n.line, `${key} ${n.text} Å is not a plausible cell length (${CELL_LENGTH_RANGE_A[0]} to ${CELL_LENGTH_RANGE_A[1]} Å)`);
+    }
     return { value: n.value / 10, su: n.su / 10 };
+  };
+  const angle = (key: string) => {
+    const n = num(key, true);
+    if (!(n.value > 0 && n.value < 180)) fail(n.line, `${key} ${n.text}° is not a cell angle (strictly between 0° and 180°)`);
+    return { value: n.value, su: n.su };
   };
   const cell = {
     aNm: len('_cell_length_a'),
     bNm: len('_cell_length_b'),
     cNm: len('_cell_length_c'),
-    alphaDeg: num('_cell_angle_alpha', true),
-    betaDeg: num('_cell_angle_beta', true),
-    gammaDeg: num('_cell_angle_gamma', true),
+    alphaDeg: angle('_cell_angle_alpha'),
+    betaDeg: angle('_cell_angle_beta'),
+    gammaDeg: angle('_cell_angle_gamma'),
   };
-  const sgName = items.get('_space_group_name_h-m_alt') ?? items.get('_symmetry_space_group_name_h-m') ?? null;
-  const sgNumRaw = items.get('_space_group_it_number') ?? items.get('_symmetry_int_tables_number');
-  const sgNum = sgNumRaw !== undefined && /^\d+$/.test(sgNumRaw) ? Number(sgNumRaw) : null;
-  const findLoop = (col: string) => loops.find((l) => l.names.includes(col));
+  try {
+    reciprocalMetric(cell);
+  } catch {
+    fail(items.get('_cell_angle_alpha')?.line ?? null, `the cell angles ${cell.alphaDeg.value}°, ${cell.betaDeg.value}°, ${cell.gammaDeg.value}° do not make a cell of positive volume`);
+  }
+  const sgName = items.get('_space_group_name_h-m_alt')?.text ?? items.get('_symmetry_space_group_name_h-m')?.text ?? null;
+  const sgNumRaw = (items.get('_space_group_it_number') ?? items.get('_symmetry_int_tables_number'))?.text;
+  const sgNum = sgNumRaw !== undefined && /^\d+$/.test(sgNumRaw) && Number(sgNumRaw) >= 1 && Number(sgNumRaw) <= 230 ? Number(sgNumRaw) : null;
+  const findLoop = (col: string) => {
+    const k = loopOf.get(col);
+    return k === undefined ? undefined : loops[k];
+  };
+  const symop = (t: Token): SymOp => {
+    let op: SymOp;
+    try {
+      op = parseSymOp(t.text);
+    } catch (e) {
+      return fail(t.line, (e as Error).message);
+    }
+    const r = op.r;
+    const det = r[0] * (r[4] * r[8] - r[5] * r[7]) - r[1] * (r[3] * r[8] - r[5] * r[6]) + r[2] * (r[3] * r[7] - r[4] * r[6]);
+    if (!r.every(Number.isInteger) || Math.abs(det) !== 1) {
+      fail(t.line, `symmetry operation '${t.text}' is not a crystallographic operation (its rotation part must be an integer matrix of determinant ±1)`);
+    }
+    if (!op.t.every((v) => Number.isFinite(v) && Math.abs(v) <= 1e3)) fail(t.line, `symmetry operation '${t.text}' has an implausible translation`);
+    return op;
+  };
   let symops: SymOp[] = [];
   for (const col of ['_space_group_symop_operation_xyz', '_symmetry_equiv_pos_as_xyz']) {
     const l = findLoop(col);
     if (l) {
+      if (l.rows.length > MAX_SYMMETRY_OPERATIONS) {
+        fail(l.line, `the loop lists ${l.rows.length} symmetry operations; a space group has at most ${MAX_SYMMETRY_OPERATIONS}`);
+      }
       const k = l.names.indexOf(col);
-      symops = l.rows.map((r) => parseSymOp(r[k]));
+      symops = l.rows.map((row) => symop(row[k]));
       break;
     }
   }
   if (symops.length === 0) {
     const single = items.get('_space_group_symop_operation_xyz') ?? items.get('_symmetry_equiv_pos_as_xyz');
-    symops = [parseSymOp(single ?? 'x,y,z')];
+    symops = [single ? symop(single) : parseSymOp('x,y,z')];
     notes.push('no symmetry-operation loop: only the listed operation (or the identity) is used');
   }
   const atoms: AtomSite[] = [];
-  const al = findLoop('_atom_site_fract_x');
-  if (!al) throw new SyntaxError('CIF: no _atom_site_fract_x loop');
+  const al = findLoop('_atom_site_fract_x') ?? findLoop('_atom_site_fract_y') ?? findLoop('_atom_site_fract_z');
+  if (!al) return fail(null, 'no atom-site loop with fractional coordinates (_atom_site_fract_x, _y, _z)');
   const col = (n: string) => al.names.indexOf(n);
   const [cl, ct, cx, cy, cz, co, cu, cb, cf] = [
     '_atom_site_label', '_atom_site_type_symbol', '_atom_site_fract_x', '_atom_site_fract_y', '_atom_site_fract_z',
     '_atom_site_occupancy', '_atom_site_u_iso_or_equiv', '_atom_site_b_iso_or_equiv', '_atom_site_calc_flag',
   ].map(col);
+  const missing = [['x', cx], ['y', cy], ['z', cz]].filter(([, c]) => c === -1).map(([a]) => `_atom_site_fract_${a}`);
+  if (missing.length) fail(al.line, `the atom-site loop has no ${missing.join(' or ')} column: every atom needs x, y and z`);
+  if (al.rows.length > MAX_ATOM_SITES) fail(al.line, `the atom-site loop lists ${al.rows.length} sites; at most ${MAX_ATOM_SITES} are read`);
   for (const row of al.rows) {
-    const label = cl >= 0 ? row[cl] : `atom${atoms.length + 1}`;
-    if (cf >= 0 && row[cf].toLowerCase() === 'dum') {
+    const label = cl >= 0 ? row[cl].text : `atom${atoms.length + 1}`;
+    if (cf >= 0 && row[cf].text.toLowerCase() === 'dum') {
       notes.push(`dummy atom ${label} skipped`);
       continue;
     }
-    const xyz: [number, number, number] = [parseCifNumber(row[cx]).value, parseCifNumber(row[cy]).value, parseCifNumber(row[cz]).value];
+    const xyz: [number, number, number] = [parseCifNumber(row[cx].text).value, parseCifNumber(row[cy].text).value, parseCifNumber(row[cz].text).value];
     if (!xyz.every(Number.isFinite)) {
-      notes.push(`atom ${label} skipped: coordinates not given`);
+      notes.push(`atom ${label} (line ${row[cx].line}) skipped: coordinates not given`);
       continue;
     }
+    if (!xyz.every((v) => Math.abs(v) <= 1e3)) fail(row[cx].line, `atom ${label} has implausible fractional coordinates ${xyz.join(', ')}`);
     let element: string;
     try {
-      element = elementOf(ct >= 0 ? row[ct] : label);
+      element = elementOf(ct >= 0 ? row[ct].text : label);
       scatteringFactor(element, 0);
     } catch (e) {
       notes.push(`atom ${label} skipped: ${(e as Error).message}`);
       continue;
     }
-    const occ = co >= 0 ? parseCifNumber(row[co]).value : 1;
-    let u = cu >= 0 ? parseCifNumber(row[cu]).value : NaN;
-    if (!Number.isFinite(u) && cb >= 0) u = parseCifNumber(row[cb]).value / (8 * Math.PI * Math.PI);
+    const occ = co >= 0 ? parseCifNumber(row[co].text).value : 1;
+    if (Number.isFinite(occ) && !(occ >= 0 && occ <= 1.5)) fail(row[co].line, `atom ${label} has occupancy ${occ} (0 to 1 expected)`);
+    let u = cu >= 0 ? parseCifNumber(row[cu].text).value : NaN;
+    if (!Number.isFinite(u) && cb >= 0) u = parseCifNumber(row[cb].text).value / (8 * Math.PI * Math.PI);
+    if (Number.isFinite(u) && !(u >= 0 && u <= 10)) fail(row[cx].line, `atom ${label} has a displacement parameter U = ${u} Å² (0 to 10 Å² expected)`);
     atoms.push({ label, element, xyz, occupancy: Number.isFinite(occ) ? occ : 1, uIsoA2: Number.isFinite(u) ? u : 0 });
   }
   if (atoms.every((a) => a.uIsoA2 === 0)) notes.push('no displacement parameters: intensities without a Debye–Waller factor');
@@ -314,6 +501,14 @@ export interface PowderReflection {
   absent: boolean;
 }
 
+/** Most structure-factor terms (reflections × atom positions) powderReflections computes: a few seconds. */
+const MAX_STRUCTURE_FACTOR_TERMS = 2e8;
+
+/** Determinant of a row-major 3×3 matrix. */
+function det3(m: number[]): number {
+  return m[0] * (m[4] * m[8] - m[5] * m[7]) - m[1] * (m[3] * m[8] - m[5] * m[6]) + m[2] * (m[3] * m[7] - m[4] * m[6]);
+}
+
 /** Symmetry-generated positions of an atom (duplicates within 1e-3 merged). */
 function orbit(xyz: number[], ops: SymOp[]): number[][] {
   const out: number[][] = [];
@@ -363,6 +558,15 @@ export function powderReflections(structure: CifStructure, options: ReflectionOp
   const lmax = Math.floor(cell.cNm.value / dMin);
   if ((2 * hmax + 1) * (2 * kmax + 1) * (2 * lmax + 1) > 4e6) throw new RangeError(`dMinNm ${dMin} gives too many reflections for this cell`);
   const sites = structure.atoms.map((a) => ({ atom: a, pos: orbit(a.xyz, symops) }));
+  // Work bound: about (4/3)π(1/dMin)³·V reciprocal-lattice points lie within 1/dMin, about one in
+  // 2·(operations) is computed, each summing over every symmetry-generated atom position.
+  const volumeNm3 = 1 / Math.sqrt(Math.max(1e-300, det3(gs)));
+  const points = ((4 / 3) * Math.PI * volumeNm3) / dMin ** 3;
+  const positions = sites.reduce((n, s) => n + s.pos.length, 0);
+  const terms = (points / (2 * symops.length)) * positions;
+  if (terms > MAX_STRUCTURE_FACTOR_TERMS) {
+    throw new RangeError(`dMinNm ${dMin} gives about ${Math.round(points)} reflections over ${positions} atom positions, too much to compute (${terms.toExponential(1)} terms, at most ${MAX_STRUCTURE_FACTOR_TERMS.toExponential(0)}): raise dMinNm`);
+  }
   const seen = new Set<string>();
   const out: PowderReflection[] = [];
   const key = (h: number[]) => h.join(',');

@@ -36,6 +36,14 @@ export interface ParsePatternOptions {
   ka2Nm?: number;
 }
 
+/**
+ * Largest intensity (or its uncertainty) accepted, in magnitude: 10¹² counts is beyond any
+ * detector's count in one step, so a larger value is a damaged number, not data (common practice).
+ */
+export const MAX_ABS_INTENSITY = 1e12;
+/** Largest position accepted, in magnitude: no 2θ exceeds 180° and no measured q reaches 10⁵ nm⁻¹ (d = 0.06 pm) (common practice). */
+export const MAX_ABS_POSITION = 1e5;
+
 const COMMENT = /^\s*(#|;|!|\/\/)/;
 const NUMBER = /^[-+]?(\d+([.,]\d*)?|[.,]\d+)([eE][-+]?\d+)?$/;
 
@@ -93,7 +101,8 @@ function headerAxis(lines: string[]): AxisUnit | null {
  *   is an error naming the line;
  * - separators: `;` or tab when present (a comma is then a decimal comma), else whitespace
  *   (a comma inside a number is a decimal comma, a trailing comma is a separator), else comma;
- * - a data row with one column, more than three, a non-finite value or σ ≤ 0 is an error;
+ * - a data row with one column, more than three, a non-finite value, σ ≤ 0, an intensity or σ
+ *   beyond 10¹² in magnitude or a position beyond 10⁵ is an error;
  * - x must be strictly monotonic; a file in decreasing order is reversed (noted), repeated or
  *   unsorted x is an error with the line number;
  * - the wavelength comes from the option, else from a header line (`wavelength: 1.5406 A`,
@@ -134,8 +143,11 @@ export function parsePattern(text: string, options: ParsePatternOptions = {}): P
     if (columns === 0) columns = tokens.length;
     else if (tokens.length !== columns) throw new SyntaxError(`line ${i + 1}: ${tokens.length} columns where earlier rows have ${columns}`);
     const v = tokens.map((t) => Number(t.trim().replace(',', '.')));
-    if (!v.every(Number.isFinite)) throw new SyntaxError(`line ${i + 1}: non-finite value in '${raw.trim()}'`);
+    if (!v.every(Number.isFinite)) throw new SyntaxError(`line ${i + 1}: non-finite value in '${raw.trim().slice(0, 60)}'`);
+    if (Math.abs(v[0]) > MAX_ABS_POSITION) throw new SyntaxError(`line ${i + 1}: position ${tokens[0].trim()} is not a plausible 2θ or q (at most ${MAX_ABS_POSITION} in magnitude)`);
+    if (Math.abs(v[1]) > MAX_ABS_INTENSITY) throw new SyntaxError(`line ${i + 1}: intensity ${tokens[1].trim()} is not a plausible count (at most ${MAX_ABS_INTENSITY} in magnitude)`);
     if (columns === 3 && !(v[2] > 0)) throw new SyntaxError(`line ${i + 1}: uncertainty ${v[2]} must be positive`);
+    if (columns === 3 && v[2] > MAX_ABS_INTENSITY) throw new SyntaxError(`line ${i + 1}: uncertainty ${tokens[2].trim()} is not plausible (at most ${MAX_ABS_INTENSITY})`);
     xs.push(v[0]);
     ys.push(v[1]);
     if (columns === 3) ss.push(v[2]);

@@ -1,6 +1,6 @@
 import { readFileSync } from 'node:fs';
 import { describe, expect, test } from 'vitest';
-import { dSpacingNm, parseCif, parseCifNumber, parseSymOp, powderReflections } from '../../src/diffraction/cif';
+import { CifError, dSpacingNm, parseCif, parseCifNumber, parseSymOp, powderReflections } from '../../src/diffraction/cif';
 import { elementOf, scatteringFactor } from '../../src/diffraction/scattering';
 
 const DIR = 'tests/fixtures/reference-data/';
@@ -116,5 +116,66 @@ describe('displacement parameters and quoted values', () => {
   });
   test('a loop with a missing value is an error naming the loop', () => {
     expect(() => parseCif(base('', 'Si1 Si 0 0 0'))).toThrow(/_atom_site_label/);
+  });
+});
+
+describe('strict structure-file reading: every error names the file and the line', () => {
+  const cell = `_cell_length_a 4\n_cell_length_b 4\n_cell_length_c 4\n_cell_angle_alpha 90\n_cell_angle_beta 90\n_cell_angle_gamma 90\n`;
+  const atoms = `loop_\n_atom_site_label\n_atom_site_type_symbol\n_atom_site_fract_x\n_atom_site_fract_y\n_atom_site_fract_z\nFe1 Fe 0.1 0.2 0.3\n`;
+  const cif = (body: string) => `data_t\n${body}`;
+  const fails = (text: string, re: RegExp) => {
+    let err: unknown;
+    try {
+      parseCif(text, { fileName: 'phase.cif' });
+    } catch (e) {
+      err = e;
+    }
+    expect(err).toBeInstanceOf(CifError);
+    expect((err as Error).message.startsWith('phase.cif: ')).toBe(true);
+    expect((err as Error).message).toMatch(re);
+  };
+
+  // CIF 1.1 grammar: whitespace is space, tab and the line ends only; CIF 2.0 (Bernstein et al. 2016) allows a leading BOM.
+  test('a byte-order mark at the start is skipped; elsewhere, and every other Unicode space, is refused by line and column', () => {
+    expect(parseCif(`\uFEFF${cif(cell + atoms)}`).atoms).toHaveLength(1);
+    for (const [ch, name] of [['\u00A0', 'no-break space'], ['\u2028', 'line separator'], ['\uFEFF', 'byte-order mark'], ['\u3000', 'ideographic space'], ['\u2009', 'thin space'], ['\u0085', 'next line']]) {
+      fails(cif(`_cell_length_a${ch}4\n` + cell.split('\n').slice(1).join('\n') + atoms), new RegExp(`line 2: column 15: ${name} \\(U\\+[0-9A-F]{4}\\) is not whitespace in a CIF`));
+    }
+    // inside quotes a no-break space is text
+    expect(parseCif(cif(`_chemical_name_common 'clay\u00A0film'\n` + cell + atoms)).atoms).toHaveLength(1);
+  });
+  test('vertical tab, form feed and other control characters are refused anywhere', () => {
+    fails(cif(cell + atoms.replace('Fe1 Fe', 'Fe1\u000BFe')), /line 14: column 4: vertical tab \(U\+000B\) is not allowed in a CIF/);
+    fails(cif(cell + '\u000C' + atoms), /line 8: column 1: form feed \(U\+000C\)/);
+    fails(cif(`_title 'a\u0000b'\n` + cell + atoms), /line 2: column 10: control character U\+0000/);
+  });
+  test('unclosed quotes and text fields, values without names, names without values', () => {
+    fails(cif(`_title 'open\n` + cell + atoms), /line 2: column 8: the quoted text starting here is not closed/);
+    fails(cif(`_title\n;never closed\n` + cell + atoms), /line 3: a text field opened with ";" at the start of this line is never closed/);
+    fails(cif(cell + 'stray\n' + atoms), /line 8: value 'stray' without a data name/);
+    fails(cif('_cell_length_a\n' + cell.split('\n').slice(1).join('\n') + atoms), /line 2: data name _cell_length_a has no value/);
+    fails(cif(cell + '_cell_length_a 5\n' + atoms), /line 8: data name _cell_length_a appears twice/);
+  });
+  test('cells must be positive, finite and plausible (0.5–10 000 Å, angles strictly between 0° and 180°)', () => {
+    fails(cif(cell.replace('_cell_length_a 4', '_cell_length_a 1e16') + atoms), /line 2: _cell_length_a 1e16 Å is not a plausible cell length/);
+    fails(cif(cell.replace('_cell_length_b 4', '_cell_length_b -4') + atoms), /line 3: _cell_length_b -4 Å is not a plausible cell length/);
+    fails(cif(cell.replace('_cell_angle_beta 90', '_cell_angle_beta 180') + atoms), /_cell_angle_beta 180° is not a cell angle/);
+    fails(cif(cell.replace('_cell_angle_gamma 90', '_cell_angle_gamma 179').replace('_cell_angle_alpha 90', '_cell_angle_alpha 1') + atoms), /do not make a cell of positive volume/);
+    fails(cif(cell.replace('_cell_length_c 4', '_cell_length_c ?') + atoms), /line 4: _cell_length_c '\?' is not a number/);
+  });
+  test('symmetry lists are bounded (a space group has at most 192 operations, ITC A) and each must be a lattice rotation', () => {
+    const ops = (n: number) => `loop_\n_symmetry_equiv_pos_as_xyz\n${Array.from({ length: n }, () => 'x,y,z').join('\n')}\n`;
+    expect(parseCif(cif(cell + ops(192) + atoms)).symops).toHaveLength(192);
+    fails(cif(cell + ops(100000) + atoms), /line 8: the loop lists 100000 symmetry operations; a space group has at most 192/);
+    fails(cif(cell + `loop_\n_symmetry_equiv_pos_as_xyz\nx,x,z\n` + atoms), /line 10: symmetry operation 'x,x,z' is not a crystallographic operation/);
+    fails(cif(cell + `loop_\n_symmetry_equiv_pos_as_xyz\nx,y,w\n` + atoms), /line 10: symmetry operation 'x,y,w': cannot read/);
+  });
+  test('an atom loop without y or z is a clear error, not a TypeError', () => {
+    fails(cif(cell + `loop_\n_atom_site_label\n_atom_site_fract_x\nFe1 0.1\n`), /line 8: the atom-site loop has no _atom_site_fract_y or _atom_site_fract_z column/);
+    fails(cif(cell + `loop_\n_atom_site_label\n_atom_site_fract_z\nFe1 0.1\n`), /has no _atom_site_fract_x or _atom_site_fract_y column/);
+  });
+  test('a structure that would need too much reflection work is refused with what to change', () => {
+    const s = parseCif(cif(cell.replace(/ 4\n/g, ' 5000\n') + atoms));
+    expect(() => powderReflections(s, { dMinNm: 0.1 })).toThrow(/too many reflections for this cell|too much to compute .* raise dMinNm/);
   });
 });

@@ -1,6 +1,7 @@
 import { readFileSync } from 'node:fs';
 import { describe, expect, test } from 'vitest';
 import { parsePattern, parsePeakList } from '../../src/diffraction/pattern';
+import { PatternReadError, readPatternFile } from '../../src/diffraction/read-pattern';
 
 const FIXTURE = 'tests/fixtures/reference-data/xrd-powder_propylammonium-chloride_CuKa12_COD1516218_2theta-counts.xy';
 
@@ -74,5 +75,26 @@ describe('parsePeakList', () => {
     expect(t[0].dNm).toBeCloseTo(0.74055, 4);
     expect(() => parsePeakList('11.9', 'twoThetaDeg')).toThrow(/wavelength/);
     expect(() => parsePeakList('3, -1', 'dA')).toThrow(/peak 2/);
+  });
+});
+
+describe('absurd values and file names in pattern errors', () => {
+  test('an intensity, uncertainty or position far beyond any measurement is refused by line (common practice: no detector counts 10¹² in a step)', () => {
+    const rows = (y: string) => `10 100\n10.1 ${y}\n10.2 120\n10.3 90\n`;
+    expect(() => parsePattern(rows('1e300'))).toThrow(/^line 2: intensity 1e300 is not a plausible count/);
+    expect(() => parsePattern(rows('-5e13'))).toThrow(/^line 2: intensity -5e13 is not a plausible count/);
+    expect(() => parsePattern(rows('1e309'))).toThrow(/^line 2: non-finite value/);
+    expect(() => parsePattern('# q (1/nm) intensity\n1 5\n2 6\n3e7 7\n')).toThrow(/^line 4: position 3e7 is not a plausible 2θ or q/);
+    expect(parsePattern(rows('1e11')).y[1]).toBe(1e11);
+  });
+  test('repeated or unsorted 2θ is refused naming the line; a wholly decreasing file is reversed with a note', () => {
+    expect(() => parsePattern('10 1\n10.1 2\n10.1 3\n10.2 4\n')).toThrow(/^line 3: x = 10\.1 is not above/);
+    expect(() => parsePattern('10 1\n10.2 2\n10.1 3\n10.3 4\n')).toThrow(/^line 3: x = 10\.1 is not above/);
+    expect(parsePattern('10.3 1\n10.2 2\n10.1 3\n').notes.join()).toMatch(/decreasing order; reversed/);
+  });
+  test('readPatternFile puts the file name before every reading error', () => {
+    expect(() => readPatternFile('10 1\n10.1 abc\n', 'film.xy')).toThrow(/^film\.xy: line 2: not a data row/);
+    expect(() => readPatternFile('10 1\n', 'film.xy')).toThrow(/^film\.xy: pattern has 1 data rows/);
+    expect(() => readPatternFile('190 1\n191 2\n192 3\n', 'film.xy')).toThrow(PatternReadError);
   });
 });

@@ -55,3 +55,50 @@ describe('reconcile', () => {
     expect(() => reconcile({ periods: [] }, { lines: [] }, { zMax: 0 })).toThrow(/zMax/);
   });
 });
+
+describe('reconcile: matching by sorted windows, and null inputs', () => {
+  /** The matching as it was first written: every period against every candidate (the reference). */
+  function bruteForce(periods: { periodNm: number; uncertaintyNm: number }[], lines: { dNm: number; dUncNm: number; label: string }[], zMax: number, relTol: number) {
+    return periods.map((p) => {
+      const mine: { label: string; z: number }[] = [];
+      for (const c of lines) {
+        const comb = Math.hypot(p.uncertaintyNm, Math.max(0, c.dUncNm));
+        const diff = p.periodNm - c.dNm;
+        const z = comb > 0 ? diff / comb : diff === 0 ? 0 : Infinity * Math.sign(diff);
+        if (Math.abs(z) <= zMax || Math.abs(p.periodNm / c.dNm - 1) <= relTol) mine.push({ label: c.label, z });
+      }
+      return mine.sort((a, b) => Math.abs(a.z) - Math.abs(b.z));
+    });
+  }
+  test('gives exactly the pairs, in the order, of the all-against-all comparison (random sets, seeded; common practice)', () => {
+    let seed = 12345;
+    const r = () => ((seed = (seed * 1103515245 + 12345) % 2 ** 31) / 2 ** 31);
+    for (let trial = 0; trial < 30; trial++) {
+      const scale = 10 ** (Math.floor(r() * 6) - 3);
+      const periods = Array.from({ length: 40 }, () => ({ periodNm: 0.2 + 3 * r(), uncertaintyNm: r() < 0.1 ? 0 : r() * scale }));
+      const lines = Array.from({ length: 60 }, (_, k) => ({ dNm: r() < 0.1 ? periods[k % 40].periodNm : 0.2 + 3 * r(), dUncNm: r() < 0.1 ? 0 : r() < 0.1 ? -0.01 : r() * scale * (r() < 0.2 ? 100 : 1), label: `L${k}` }));
+      const zMax = 0.5 + 3 * r();
+      const relTol = r() < 0.5 ? 0 : r() * 0.05;
+      const got = reconcile({ periods }, { lines }, { zMax, relTolerance: relTol });
+      const want = bruteForce(periods, lines, zMax, relTol);
+      periods.forEach((_, i) => {
+        const mine = got.pairs.filter((p) => p.period === i).map((p) => ({ label: p.label, z: p.z }));
+        expect(mine).toEqual(want[i]);
+        expect(got.best[i]?.label ?? null).toBe(want[i][0]?.label ?? null);
+      });
+    }
+  });
+  test('a null period or line is refused by its index, not a TypeError', () => {
+    const lines = [{ dNm: 1, dUncNm: 0.01, label: 'a' }];
+    expect(() => reconcile({ periods: [{ periodNm: 1, uncertaintyNm: 0.1 }, null as never] }, { lines })).toThrow(/^period 1 is null, not a period/);
+    expect(() => reconcile({ periods: [{ periodNm: null as never, uncertaintyNm: 0.1 }] }, { lines })).toThrow(/period 0: periodNm must be positive, got null/);
+    expect(() => reconcile({ periods: [] }, { lines: [null as never] })).toThrow(/^line 0 is null/);
+    expect(() => reconcile({ periods: null as never }, { lines })).toThrow(/micrograph\.periods must be a list, got null/);
+  });
+  test('10 000 periods against 10 000 lines give every period its nearest pair (the time is in bench/hardening.ts)', () => {
+    const periods = Array.from({ length: 10000 }, (_, i) => ({ periodNm: 0.3 + i * 1e-4, uncertaintyNm: 1e-5 }));
+    const lines = Array.from({ length: 10000 }, (_, i) => ({ dNm: 0.3 + i * 1e-4 + 2e-6, dUncNm: 1e-5, label: `l${i}` }));
+    const r = reconcile({ periods }, { lines });
+    expect(r.best.every((b, i) => b!.label === `l${i}`)).toBe(true);
+  });
+});
