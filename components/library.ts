@@ -157,9 +157,14 @@ export class StrataLibrary extends LitElement {
     if (!file || !this.db) return;
     this.busy = true;
     try {
-      const s = await importLibrary(this.db, await file.text());
+      const s = await importLibrary(this.db, await file.text(), { fileName: file.name });
       const n = (k: number, one: string, many = `${one}s`) => `${k} ${k === 1 ? one : many}`;
-      this.say(`Imported ${file.name}: ${n(s.images, 'image')}, ${n(s.measurements, 'result')}, ${n(s.calibrations, 'calibration profile')}, ${n(s.diffraction, 'diffraction set')}.`);
+      const took = `Imported ${file.name}: ${n(s.images, 'image')}, ${n(s.measurements, 'result')}, ${n(s.calibrations, 'calibration profile')}, ${n(s.diffraction, 'diffraction set')}, ${n(s.recipes, 'recipe')}, ${n(s.batches, 'batch', 'batches')}.`;
+      if (s.skipped.length === 0) this.say(took);
+      else {
+        const first = s.skipped.slice(0, 3).map((k) => `${k.kind}[${k.index}]${k.name ? ` (${k.name})` : ''}: ${k.reason}`).join('; ');
+        this.say(`${took} Skipped ${n(s.skipped.length, 'unusable record')}: ${first}${s.skipped.length > 3 ? '; …' : ''}`, 'error');
+      }
       this.changed();
       await this.reload();
     } catch (err) {

@@ -5,8 +5,7 @@
  * record (and every file's SHA-256) before it writes anything, then writes all of it in one
  * transaction.
  */
-import type { SampleKind } from '../image/grey-image';
-import { fromBase64, sha256Hex, toBase64 } from './bytes';
+import { toBase64 } from './bytes';
 import { LibraryError, saveInOneTransaction } from './library';
 import type {
   BatchRecord,
@@ -20,16 +19,8 @@ import { SCHEMA_VERSION, type LibraryDb } from './schema';
 import { RecordVersionError, upgradeMeasurement } from '../measure/record-version';
 import { upgradeFileResult } from '../batch/run';
 
-/** Runs a record upgrade, turning its error into an ImportError that names the record. */
-function upgraded<T>(f: () => T): T {
-  try {
-    return f();
-  } catch (e) {
-    if (e instanceof RecordVersionError) throw new ImportError(`The library file is not usable: ${e.message}. Nothing was imported.`);
-    throw e;
-  }
-}
 import type { BatchFileRecord } from './batches';
+import { checkBatchFileRecord, checkBatchRecord, checkCalibrationProfile, checkDiffractionSet, checkImageRecord, checkRecipeRecord, isObj, shown, validateMeasurementShape } from './validate';
 
 /** The `format` field of an exported library. */
 export const EXPORT_FORMAT = 'stratameter-library';
@@ -133,7 +124,19 @@ export async function exportLibrary(db: LibraryDb): Promise<string> {
   }
 }
 
-/** How many records of each kind an import wrote. */
+/** A record an import left out, and why. */
+export interface SkippedRecord {
+  /** The list it was in ('images', 'measurements', ...). */
+  kind: string;
+  /** Its position in that list. */
+  index: number;
+  /** Its id or file name, when it has one. */
+  name: string | null;
+  /** Why it cannot be used, in the user's terms. */
+  reason: string;
+}
+
+/** How many records of each kind an import wrote, and the records it skipped. */
 export interface ImportSummary {
   images: number;
   measurements: number;
@@ -142,50 +145,26 @@ export interface ImportSummary {
   recipes: number;
   batches: number;
   batchFiles: number;
+  /** Records that could not be used (none stored), with the reason for each. */
+  skipped: SkippedRecord[];
+}
+
+/** Options of importLibrary. */
+export interface ImportOptions {
+  /** The library file's name, for messages. */
+  fileName?: string;
 }
 
 type Obj = Record<string, unknown>;
 
-function isObj(v: unknown): v is Obj {
-  return typeof v === 'object' && v !== null && !Array.isArray(v);
-}
-
-function need(cond: boolean, where: string, what: string): void {
-  if (!cond) throw new ImportError(`The library file is not usable: ${where} ${what}. Nothing was imported.`);
-}
-
-function str(o: Obj, key: string, where: string, allowEmpty = false): string {
-  const v = o[key];
-  need(typeof v === 'string' && (allowEmpty || v.length > 0), `${where}.${key}`, 'must be a non-empty text');
-  return v as string;
-}
-
-function num(o: Obj, key: string, where: string, positive = false): number {
-  const v = o[key];
-  need(typeof v === 'number' && Number.isFinite(v) && (!positive || v > 0), `${where}.${key}`, positive ? 'must be a positive number' : 'must be a number');
-  return v as number;
-}
-
-function list(o: Obj, key: string): unknown[] {
-  const v = o[key] ?? [];
-  need(Array.isArray(v), key, 'must be a list');
-  return v as unknown[];
-}
-
-function calibrationOk(v: unknown, where: string): void {
-  if (v === null) return;
-  need(isObj(v), where, 'must be a calibration or null');
-  num(v as Obj, 'nmPerPx', where, true);
-  num(v as Obj, 'relUncertainty', where);
-  str(v as Obj, 'source', where);
-}
-
-/** A value for a message: numbers and short texts as written, lists and objects by kind only (a deeply nested value would overflow JSON.stringify). */
-function shown(v: unknown): string {
-  if (Array.isArray(v)) return 'a list';
-  if (isObj(v)) return 'an object';
-  const s = JSON.stringify(v) ?? String(v);
-  return s.length > 60 ? `${s.slice(0, 57)}...` : s;
+/** Runs a record upgrade; an upgrade error (an unknown or newer record version, a bad field) becomes the reason to skip the record. */
+function upgraded<T>(f: () => T): T | string {
+  try {
+    return f();
+  } catch (e) {
+    if (e instanceof RecordVersionError) return e.message;
+    throw e;
+  }
 }
 
 /**
@@ -209,162 +188,108 @@ function nestingDepth(v: unknown, limit: number): number {
   return deepest;
 }
 
-const SAMPLE_KINDS: SampleKind[] = ['uint', 'int', 'float'];
-
 /**
- * Reads an exported library and writes its records into the open library (records with the same
- * id are replaced; others are kept).
+ * Reads an exported library and writes its usable records into the open library (records with
+ * the same id are replaced; others are kept).
  *
  * @param db the open library
  * @param json the text exportLibrary wrote
- * @returns how many records of each kind were written
- * Notes: everything is checked first (layout, types, base64, every file's SHA-256); one bad
- * record rejects the whole file with an ImportError naming it, and nothing is written.
+ * @param options the file's name, for messages
+ * @returns how many records of each kind were written, and every record skipped with its reason
+ * @throws ImportError when the file as a whole cannot be used (not JSON, not a library export, a
+ *   format version this program did not write, a list that is not a list, a record nested too
+ *   deeply); then nothing is written
+ * Notes: every record is checked against its schema first (src/store/validate.ts): an image must
+ * decode to the width, height and sample type it records and match its SHA-256, a recipe must be
+ * a recipe the batch reader accepts, a pixel size and its relative uncertainty must be
+ * plausible, a measurement must have its basic shape. A record that fails is skipped with its
+ * reason and never stored, as is a measurement of a skipped image or a file of a skipped batch;
+ * the usable records are written in one transaction.
  */
-export async function importLibrary(db: LibraryDb, json: string): Promise<ImportSummary> {
+export async function importLibrary(db: LibraryDb, json: string, options: ImportOptions = {}): Promise<ImportSummary> {
   if (typeof json !== 'string') throw new TypeError(`importLibrary: expected JSON text, got ${typeof json}`);
+  const file = options.fileName ? `The library file ${options.fileName}` : 'The library file';
+  const need = (cond: boolean, where: string, what: string): void => {
+    if (!cond) throw new ImportError(`${file} is not usable: ${where} ${what}. Nothing was imported.`);
+  };
   let parsed: unknown;
   try {
     parsed = JSON.parse(json);
-  } catch (e) {
-    throw new ImportError(`The library file is not JSON (${(e as Error).message}). Nothing was imported.`);
+  } catch {
+    throw new ImportError(`${file} is not JSON (it is damaged or not a library export). Nothing was imported.`);
   }
   need(isObj(parsed), 'the file', 'must hold one JSON object');
   const root = parsed as Obj;
   need(root.format === EXPORT_FORMAT, 'the file', `is not a Stratameter library export (format is ${shown(root.format)})`);
   need(typeof root.formatVersion === 'number' && root.formatVersion <= EXPORT_FORMAT_VERSION, 'formatVersion',
     `${shown(root.formatVersion)} is newer than this version of Stratameter reads (${EXPORT_FORMAT_VERSION})`);
+  need(Number.isInteger(root.formatVersion) && (root.formatVersion as number) >= 1, 'formatVersion', `${shown(root.formatVersion)} is not a version this program wrote (1 to ${EXPORT_FORMAT_VERSION})`);
 
+  const list = (key: string): unknown[] => {
+    const v = root[key] ?? [];
+    need(Array.isArray(v), key, 'must be a list');
+    return v as unknown[];
+  };
   for (const key of ['images', 'measurements', 'calibrations', 'diffraction', 'recipes', 'batches', 'batchFiles']) {
     const records = root[key];
     if (!Array.isArray(records)) continue;
     records.forEach((r, i) => need(nestingDepth(r, MAX_NESTING) <= MAX_NESTING, `${key}[${i}]`, `is nested more than ${MAX_NESTING} levels deep`));
   }
 
-  const images: ImageRecord[] = [];
-  const rawImages = list(root, 'images');
-  for (let i = 0; i < rawImages.length; i++) {
-    const where = `images[${i}]`;
-    const o = rawImages[i];
-    need(isObj(o), where, 'must be an object');
-    const r = o as Obj;
-    const id = str(r, 'id', where);
-    const fileName = str(r, 'fileName', where);
-    str(r, 'addedIso', where);
-    const width = num(r, 'width', where, true);
-    const height = num(r, 'height', where, true);
-    num(r, 'bitDepth', where, true);
-    need(SAMPLE_KINDS.includes(r.sampleKind as SampleKind), `${where}.sampleKind`, `must be one of ${SAMPLE_KINDS.join(', ')}`);
-    calibrationOk(r.calibration ?? null, `${where}.calibration`);
-    let bytes: Uint8Array;
-    try {
-      bytes = fromBase64(str(r, 'fileBase64', where, true));
-    } catch (e) {
-      throw new ImportError(`The library file is not usable: ${where}.fileBase64 (${fileName}) is damaged: ${(e as Error).message}. Nothing was imported.`);
-    }
-    const hash = await sha256Hex(bytes);
-    need(hash === r.sha256Hex, where, `(${fileName}): the file's SHA-256 does not match the one recorded, so the file is damaged`);
-    need(isObj(r.thumbnail), `${where}.thumbnail`, 'must be an object');
-    const t = r.thumbnail as Obj;
-    const tw = num(t, 'width', `${where}.thumbnail`, true);
-    const th = num(t, 'height', `${where}.thumbnail`, true);
-    let grey: Uint8Array;
-    try {
-      grey = fromBase64(str(t, 'greyBase64', `${where}.thumbnail`, true));
-    } catch (e) {
-      throw new ImportError(`The library file is not usable: ${where}.thumbnail is damaged: ${(e as Error).message}. Nothing was imported.`);
-    }
-    need(grey.length === tw * th, `${where}.thumbnail`, `has ${grey.length} values for ${tw} × ${th} pixels`);
-    const { fileBase64: _f, thumbnail: _t, ...rest } = r;
-    const mimeType = typeof r.mimeType === 'string' ? r.mimeType : '';
-    images.push({
-      ...(rest as unknown as Omit<ImageRecord, 'file' | 'thumbnail'>),
-      id,
-      fileName,
-      width,
-      height,
-      mimeType,
-      byteSize: bytes.byteLength,
-      calibration: (r.calibration ?? null) as ImageRecord['calibration'],
-      file: new Blob([bytes as Uint8Array<ArrayBuffer>], { type: mimeType }),
-      thumbnail: { width: tw, height: th, grey },
+  const skipped: SkippedRecord[] = [];
+  const nameOf = (o: unknown, key = 'id'): string | null => (isObj(o) && typeof o[key] === 'string' ? (o[key] as string).slice(0, 80) : null);
+  const skip = (kind: string, index: number, o: unknown, reason: string, key = 'id') => skipped.push({ kind, index, name: nameOf(o, key), reason });
+  /** Keeps the records of a list that pass a check, skipping the others with their reason. */
+  const keep = <T>(kind: string, check: (o: unknown) => string | null): T[] =>
+    list(kind).flatMap((o, i) => {
+      const reason = check(o);
+      if (reason) {
+        skip(kind, i, o, reason);
+        return [];
+      }
+      return [o as T];
     });
-  }
 
-  const measurements = list(root, 'measurements').map((o, i) => {
+  const images: ImageRecord[] = [];
+  const skippedImageIds = new Set<string>();
+  const rawImages = list('images');
+  for (let i = 0; i < rawImages.length; i++) {
+    const checked = await checkImageRecord(rawImages[i]);
+    if ('reason' in checked) {
+      skip('images', i, rawImages[i], checked.reason, 'fileName');
+      const id = nameOf(rawImages[i]);
+      if (id) skippedImageIds.add(id);
+    } else images.push(checked.record);
+  }
+  const measurements: Measurement[] = [];
+  list('measurements').forEach((o, i) => {
     const where = `measurements[${i}]`;
-    need(isObj(o), where, 'must be an object');
-    const m = o as Obj;
-    str(m, 'id', where);
-    need(m.imageId === null || typeof m.imageId === 'string', `${where}.imageId`, 'must be a text or null');
-    str(m, 'tool', where);
-    str(m, 'createdIso', where);
-    need(Array.isArray(m.periodicities), `${where}.periodicities`, 'must be a list');
-    calibrationOk(m.calibration ?? null, `${where}.calibration`);
-    return upgraded(() => upgradeMeasurement(m, where));
+    const reason = validateMeasurementShape(o);
+    if (reason) return skip('measurements', i, o, reason);
+    const imageId = (o as Obj).imageId;
+    if (typeof imageId === 'string' && skippedImageIds.has(imageId) && !images.some((r) => r.id === imageId)) return skip('measurements', i, o, `its image ${imageId} was skipped`);
+    const up = upgraded(() => upgradeMeasurement(o, where));
+    if (typeof up === 'string') skip('measurements', i, o, up);
+    else measurements.push(up);
   });
-  const calibrations = list(root, 'calibrations').map((o, i) => {
-    const where = `calibrations[${i}]`;
-    need(isObj(o), where, 'must be an object');
-    const p = o as Obj;
-    str(p, 'id', where);
-    str(p, 'name', where);
-    num(p, 'nmPerPx', where, true);
-    num(p, 'relUncertainty', where);
-    return p as unknown as CalibrationProfile;
-  });
-  const diffraction = list(root, 'diffraction').map((o, i) => {
-    const where = `diffraction[${i}]`;
-    need(isObj(o), where, 'must be an object');
-    const d = o as Obj;
-    str(d, 'id', where);
-    num(d, 'wavelengthNm', where, true);
-    return d as unknown as DiffractionSet;
-  });
-  const recipes = list(root, 'recipes').map((o, i) => {
-    const where = `recipes[${i}]`;
-    need(isObj(o), where, 'must be an object');
-    const r = o as Obj;
-    str(r, 'id', where);
-    str(r, 'json', where);
-    return r as unknown as RecipeRecord;
-  });
-  const batches = list(root, 'batches').map((o, i) => {
-    const where = `batches[${i}]`;
-    need(isObj(o), where, 'must be an object');
-    str(o as Obj, 'id', where);
-    return o as unknown as BatchRecord;
-  });
+  const calibrations = keep<CalibrationProfile>('calibrations', checkCalibrationProfile);
+  const diffraction = keep<DiffractionSet>('diffraction', checkDiffractionSet);
+  const recipes = keep<RecipeRecord>('recipes', checkRecipeRecord);
+  const batches = keep<BatchRecord>('batches', checkBatchRecord);
+  const skippedBatchIds = new Set(skipped.filter((k) => k.kind === 'batches' && k.name).map((k) => k.name as string));
 
   const batchFiles: BatchFileRecord[] = [];
-  const rawBatchFiles = list(root, 'batchFiles');
+  const rawBatchFiles = list('batchFiles');
   for (let i = 0; i < rawBatchFiles.length; i++) {
-    const where = `batchFiles[${i}]`;
-    const o = rawBatchFiles[i];
-    need(isObj(o), where, 'must be an object');
-    const r = o as Obj;
-    str(r, 'id', where);
-    str(r, 'batchId', where);
-    const name = str(r, 'name', where);
-    str(r, 'status', where);
-    let bytes: Uint8Array;
-    let figure: Uint8Array | null = null;
-    try {
-      bytes = fromBase64(str(r, 'fileBase64', where, true));
-      if (r.figurePngBase64 !== null && r.figurePngBase64 !== undefined) figure = fromBase64(str(r, 'figurePngBase64', where, true));
-    } catch (e) {
-      throw new ImportError(`The library file is not usable: ${where} (${name}) is damaged: ${(e as Error).message}. Nothing was imported.`);
+    const checked = await checkBatchFileRecord(rawBatchFiles[i]);
+    if ('reason' in checked) skip('batchFiles', i, rawBatchFiles[i], checked.reason, 'name');
+    else if (skippedBatchIds.has(checked.record.batchId) && !batches.some((b) => b.id === checked.record.batchId)) skip('batchFiles', i, rawBatchFiles[i], `its batch ${checked.record.batchId} was skipped`, 'name');
+    else {
+      const r = checked.record;
+      const result = r.result === null || r.result === undefined ? null : upgraded(() => upgradeFileResult(r.result, 'result'));
+      if (typeof result === 'string') skip('batchFiles', i, rawBatchFiles[i], result, 'name');
+      else batchFiles.push({ ...r, result });
     }
-    need((await sha256Hex(bytes)) === r.sha256Hex, where, `(${name}): the file's SHA-256 does not match the one recorded, so the file is damaged`);
-    const { fileBase64: _f, figurePngBase64: _p, ...rest } = r;
-    const result = r.result === null || r.result === undefined ? null : upgraded(() => upgradeFileResult(r.result, `${where}.result`));
-    batchFiles.push({
-      ...(rest as unknown as Omit<BatchFileRecord, 'file' | 'figurePng'>),
-      result,
-      byteSize: bytes.byteLength,
-      file: new Blob([bytes as Uint8Array<ArrayBuffer>]),
-      figurePng: figure,
-    });
   }
 
   const bytesTotal = images.reduce((s, r) => s + r.byteSize, 0);
@@ -390,5 +315,6 @@ export async function importLibrary(db: LibraryDb, json: string): Promise<Import
     recipes: recipes.length,
     batches: batches.length,
     batchFiles: batchFiles.length,
+    skipped,
   };
 }

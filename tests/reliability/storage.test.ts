@@ -22,7 +22,7 @@ import {
   saveInOneTransaction,
   type LibraryDb,
 } from '../../src/store';
-import { fileBytes, freshLibrary, fringeImage } from '../store/helpers';
+import { fileBytes, freshLibrary, fringeFile, fringeImage } from '../store/helpers';
 
 afterEach(() => vi.restoreAllMocks());
 
@@ -40,7 +40,7 @@ function measurement(id: string, imageId: string, fileName: string): Measurement
 /** A library with two images and a measurement on each. */
 async function filled(): Promise<{ db: LibraryDb; bytes: Uint8Array[] }> {
   const db = await freshLibrary();
-  const bytes = [fileBytes(5000, 11), fileBytes(7000, 12)];
+  const bytes = [fringeFile(11), fringeFile(12)];
   const a = await putImage(db, { bytes: bytes[0], fileName: 'film-a.tif', image: fringeImage(), mimeType: 'image/tiff' });
   const b = await putImage(db, { bytes: bytes[1], fileName: 'film-b.tif', image: fringeImage(), mimeType: 'image/tiff' });
   await putMeasurement(db, measurement('ma', a.id, a.fileName));

@@ -19,14 +19,14 @@ import {
   putMeasurement,
   putRecipe,
 } from '../../src/store';
-import { fileBytes, freshLibrary, fringeImage } from './helpers';
+import { fileBytes, freshLibrary, fringeFile, fringeImage } from './helpers';
 
 afterEach(() => vi.restoreAllMocks());
 
 async function filledLibrary() {
   const db = await freshLibrary();
-  const img = await putImage(db, { bytes: fileBytes(3000, 3), fileName: 'tactoid-07.tif', image: fringeImage(), mimeType: 'image/tiff' });
-  await putImage(db, { bytes: fileBytes(1200, 4), fileName: 'film-edge.png', image: fringeImage(), mimeType: 'image/png' });
+  const img = await putImage(db, { bytes: fringeFile(3), fileName: 'tactoid-07.tif', image: fringeImage(), mimeType: 'image/tiff' });
+  await putImage(db, { bytes: fringeFile(4), fileName: 'film-edge.tif', image: fringeImage(), mimeType: 'image/tiff' });
   await putMeasurement(db, {
     recordVersion: 2, id: 'm1', imageId: img.id, fileName: img.fileName, createdIso: '2026-01-05T10:00:00Z', tool: 'spectrum',
     region: { kind: 'rect', x: 0, y: 0, width: 32, height: 32 },
@@ -39,10 +39,10 @@ async function filledLibrary() {
     nmPerPx: 0.0198, relUncertainty: 0.012, method: 'standard', createdIso: '2026-01-01T00:00:00Z', notes: 'graphite (002)',
   });
   await putDiffractionSet(db, {
-    id: 'd1', name: 'film XRD', createdIso: '2026-01-02T00:00:00Z', patternText: '5.0 100\n5.1 120\n', peaks: null,
+    id: 'd1', name: 'film XRD', createdIso: '2026-01-02T00:00:00Z', patternText: '5.0 100\n5.1 120\n5.2 110\n', peaks: null,
     wavelengthNm: 0.154059292, results: { dNm: [1.24] },
   });
-  await putRecipe(db, { id: 'r1', name: 'basal fringes', version: 1, json: '{"tool":"spectrum"}' });
+  await putRecipe(db, { id: 'r1', name: 'basal fringes', version: 1, json: '{"schemaVersion":1,"name":"basal fringes"}' });
   return { db, img };
 }
 
@@ -55,7 +55,7 @@ test('export then import into an empty library gives back every record, byte for
 
   const other = await freshLibrary();
   const summary = await importLibrary(other, json);
-  expect(summary).toEqual({ images: 2, measurements: 1, calibrations: 1, diffraction: 1, recipes: 1, batches: 0, batchFiles: 0 });
+  expect(summary).toEqual({ images: 2, measurements: 1, calibrations: 1, diffraction: 1, recipes: 1, batches: 0, batchFiles: 0, skipped: [] });
 
   const a = (await getImage(db, img.id))!;
   const b = (await getImage(other, img.id))!;
@@ -82,42 +82,85 @@ test('importing merges: records with the same id are replaced, others kept', asy
   await putImage(target, { bytes: fileBytes(10, 99), fileName: 'already-here.tif', image: fringeImage() });
   await importLibrary(target, json);
   await importLibrary(target, json);
-  expect((await listImages(target)).map((r) => r.fileName).sort()).toEqual(['already-here.tif', 'film-edge.png', 'tactoid-07.tif']);
+  expect((await listImages(target)).map((r) => r.fileName).sort()).toEqual(['already-here.tif', 'film-edge.tif', 'tactoid-07.tif']);
   db.close();
   target.close();
 });
 
-test('a damaged export is refused whole, naming the bad record, and nothing is written', async () => {
+test('a file that is not a library export (or of a format version this program did not write) is refused whole', async () => {
   const { db } = await filledLibrary();
   const good = JSON.parse(await exportLibrary(db));
   const target = await freshLibrary();
-
   await expect(importLibrary(target, 'not json')).rejects.toThrow(/not JSON/);
+  await expect(importLibrary(target, 'not json', { fileName: 'lab.json' })).rejects.toThrow(/^The library file lab\.json is not JSON/);
   await expect(importLibrary(target, '{"format":"something-else"}')).rejects.toThrow(/not a Stratameter library export/);
   await expect(importLibrary(target, JSON.stringify({ ...good, formatVersion: 99 }))).rejects.toThrow(/formatVersion 99 is newer/);
-
-  const flipped = structuredClone(good);
-  const bytes = Buffer.from(flipped.images[1].fileBase64, 'base64');
-  bytes[10] ^= 1;
-  flipped.images[1].fileBase64 = bytes.toString('base64');
-  const err = await importLibrary(target, JSON.stringify(flipped)).catch((e) => e);
-  expect(err).toBeInstanceOf(ImportError);
-  expect(err.message).toMatch(/images\[1\] \(.*\): the file's SHA-256 does not match/);
-
-  const badMeasurement = structuredClone(good);
-  badMeasurement.measurements[0].periodicities = 'none';
-  await expect(importLibrary(target, JSON.stringify(badMeasurement))).rejects.toThrow(/measurements\[0\]\.periodicities must be a list/);
-
-  const badProfile = structuredClone(good);
-  badProfile.calibrations[0].nmPerPx = -0.02;
-  await expect(importLibrary(target, JSON.stringify(badProfile))).rejects.toThrow(/calibrations\[0\]\.nmPerPx must be a positive number/);
-
-  const badThumb = structuredClone(good);
-  badThumb.images[0].thumbnail.width = 3;
-  await expect(importLibrary(target, JSON.stringify(badThumb))).rejects.toThrow(/images\[0\]\.thumbnail has \d+ values for 3 × \d+ pixels/);
-
+  for (const v of [0, -1, 0.5]) {
+    await expect(importLibrary(target, JSON.stringify({ ...good, formatVersion: v }))).rejects.toThrow(new RegExp(`formatVersion ${v} is not a version this program wrote`));
+  }
+  await expect(importLibrary(target, JSON.stringify({ ...good, images: {} }))).rejects.toThrow(ImportError);
   expect(await listImages(target)).toEqual([]);
-  expect(await listMeasurements(target)).toEqual([]);
+  db.close();
+  target.close();
+});
+
+test('every record is checked: unusable ones are skipped with their reason and never stored, the rest imported', async () => {
+  const { db } = await filledLibrary();
+  const good = JSON.parse(await exportLibrary(db));
+  const target = await freshLibrary();
+  const bad = structuredClone(good);
+  // film-edge.tif: one bit flipped, so its SHA-256 (FIPS 180-4) no longer matches
+  const edge = bad.images.find((r: { fileName: string }) => r.fileName === 'film-edge.tif');
+  const bytes = Buffer.from(edge.fileBase64, 'base64');
+  bytes[10] ^= 1;
+  edge.fileBase64 = bytes.toString('base64');
+  // an empty "image", a text file as "image" (hashes made to match), an image whose size is wrong
+  const text = new TextEncoder().encode('this is a note, not a micrograph');
+  const sha = async (b: Uint8Array) => Buffer.from(await crypto.subtle.digest('SHA-256', b as Uint8Array<ArrayBuffer>)).toString('hex');
+  const tactoid = good.images.find((r: { fileName: string }) => r.fileName === 'tactoid-07.tif');
+  bad.images.push({ ...tactoid, id: 'empty', fileName: 'empty.tif', fileBase64: '', sha256Hex: await sha(new Uint8Array(0)) });
+  bad.images.push({ ...tactoid, id: 'note', fileName: 'note.tif', fileBase64: Buffer.from(text).toString('base64'), sha256Hex: await sha(text) });
+  bad.images.push({ ...tactoid, id: 'big', fileName: 'big.tif', width: 640 });
+  bad.measurements.push({ ...good.measurements[0], id: 'm2', imageId: edge.id });
+  bad.measurements.push({ ...good.measurements[0], id: 'm3', periodicities: 'none' });
+  bad.calibrations.push({ ...good.calibrations[0], id: 'p2', relUncertainty: 5 });
+  bad.calibrations.push({ ...good.calibrations[0], id: 'p3', relUncertainty: -1 });
+  bad.calibrations.push({ ...good.calibrations[0], id: 'p4', nmPerPx: -0.02 });
+  bad.recipes.push({ id: 'r2', name: 'broken', version: 1, json: '{"schemaVersion": 1, "area": {"kind": "everywhere"}}' });
+  bad.recipes.push({ id: 'r3', name: 'not json', version: 1, json: '{"schemaVersion": 1,' });
+  bad.diffraction.push({ ...good.diffraction[0], id: 'd2', wavelengthNm: 0 });
+
+  const summary = await importLibrary(target, JSON.stringify(bad));
+  const why = (kind: string, name: string) => summary.skipped.find((k) => k.kind === kind && k.name === name)?.reason;
+  expect(why('images', 'film-edge.tif')).toMatch(/SHA-256 does not match/);
+  expect(why('images', 'empty.tif')).toMatch(/the image file is empty/);
+  expect(why('images', 'note.tif')).toMatch(/not a readable image \(unknown or unsupported format|not a readable image \(not a TIFF file/);
+  expect(why('images', 'big.tif')).toMatch(/the record says 640 × 48 pixels but the file holds 64 × 48/);
+  expect(why('measurements', 'm2')).toMatch(/its image .* was skipped/);
+  expect(why('measurements', 'm3')).toMatch(/periodicities is "none"; it must be a list/);
+  expect(why('calibrations', 'p2')).toMatch(/relUncertainty is 5; it must be a fraction from 0 to below 1/);
+  expect(why('calibrations', 'p3')).toMatch(/relUncertainty is -1/);
+  expect(why('calibrations', 'p4')).toMatch(/nmPerPx is -0\.02; it must be a positive number/);
+  expect(why('recipes', 'r2')).toMatch(/json is not a usable recipe: recipe area\.kind/);
+  expect(why('recipes', 'r3')).toMatch(/json is not a usable recipe: recipe \(top level\): is not valid JSON/);
+  expect(why('diffraction', 'd2')).toMatch(/wavelengthNm is 0/);
+  expect(summary.skipped).toHaveLength(12);
+  expect(summary).toMatchObject({ images: 1, measurements: 1, calibrations: 1, diffraction: 1, recipes: 1 });
+  expect((await listImages(target)).map((r) => r.fileName)).toEqual(['tactoid-07.tif']);
+  expect((await listMeasurements(target)).map((m) => m.id)).toEqual(['m1']);
+  expect((await listCalibrationProfiles(target)).map((p) => p.id)).toEqual(['p1']);
+  db.close();
+  target.close();
+});
+
+test('the thumbnail must be the size it says', async () => {
+  const { db } = await filledLibrary();
+  const bad = JSON.parse(await exportLibrary(db));
+  bad.images[0].thumbnail.width = 3;
+  const target = await freshLibrary();
+  const summary = await importLibrary(target, JSON.stringify(bad));
+  expect(summary.skipped[0].reason).toMatch(/thumbnail has \d+ values for 3 × \d+ pixels/);
+  expect(summary.images).toBe(1);
   db.close();
   target.close();
 });

@@ -1,5 +1,6 @@
 // Shared fixtures for the library tests: a fresh database per test and a small synthetic image.
 import 'fake-indexeddb/auto';
+import { encodeTiff } from '../../src/image/encode-tiff';
 import { makeGreyImage, type GreyImage } from '../../src/image/grey-image';
 import { openLibrary, type LibraryDb } from '../../src/store';
 
@@ -33,4 +34,14 @@ export function fileBytes(n = 1000, seed = 1): Uint8Array {
     b[i] = s >>> 24;
   }
   return b;
+}
+
+/**
+ * A real 16-bit TIFF of a fringe image as `fringeImage` describes it (64 × 48), so an import's
+ * check that the stored file decodes to the recorded size passes; `seed` shifts the grey values
+ * so that files differ byte for byte.
+ */
+export function fringeFile(seed = 0): Uint8Array {
+  const img = fringeImage();
+  return encodeTiff({ width: img.width, height: img.height, data: Uint16Array.from(img.data, (v) => v + seed) });
 }
