@@ -10,6 +10,7 @@ import { histogramSvg } from '../src/batch/figure';
 import { compareBatchWithDiffraction, comparisonCsv, diffractionOverlaySvg, type BatchComparison } from '../src/batch/compare';
 import { diffractionSideOfSet } from '../src/diffraction/stored-set';
 import { svgToPng } from './svg-png';
+import { figureNames } from '../src/batch/names';
 import { defaultRecipe, parseRecipe, RecipeError, type Recipe } from '../src/batch/recipe';
 import type { FileResult } from '../src/batch/run';
 import {
@@ -446,14 +447,17 @@ export class StrataBatchPanel extends LitElement {
     const b = this.batch;
     if (!b) return {};
     const recipe = parseRecipe(b.recipeJson);
-    const results = this.results();
+    // figure names unique within the batch (names differing only in replaced characters never share one), named in each result
+    const figureOf = figureNames(this.rows.map((r) => r.name));
+    const withFigure = new Set(this.rows.filter((r) => r.figurePng).map((r) => r.name));
+    const results = this.results().map((r) => (withFigure.has(r.file) ? { ...r, figureFile: figureOf.get(r.file) } : r));
     const out: Record<string, string | Uint8Array> = {
       'results.csv': resultsCsv(results),
       'summary.csv': summaryCsv(results),
       'batch.json': batchJson(recipe, results),
       'recipe.json': `${JSON.stringify(recipe, null, 2)}\n`,
     };
-    for (const r of this.rows) if (r.figurePng) out[`figures/${r.name.replace(/[^A-Za-z0-9._-]+/g, '_')}.png`] = r.figurePng;
+    for (const r of this.rows) if (r.figurePng) out[`figures/${figureOf.get(r.name)}`] = r.figurePng;
     for (const [name, svgText] of Object.entries(this.histograms(results))) out[`histograms/${name}.svg`] = svgText;
     const cmp = this.comparison(results);
     if (cmp) {

@@ -2,7 +2,9 @@
  * A pool of module Web Workers for a batch: about one per core (`navigator.hardwareConcurrency`,
  * at most 4). Each worker takes the next queued file as soon as it is free; the caller commits
  * each answer before that worker takes another. Pause lets the files in work finish and takes no
- * new one; cancel stops the workers at once (files in work stay queued).
+ * new one; cancel stops the workers at once (files in work stay queued). A file still in work
+ * after the per-file time limit has its worker ended (a fresh one takes the next file) and is
+ * answered as failed with the reason.
  */
 import type { FileResult } from '../src/batch/run';
 import type { BatchJob, BatchJobReply } from './batch-protocol';
@@ -33,7 +35,15 @@ export interface PoolRunOptions {
   onStart?(file: PoolFile): void;
   /** Called with each answer; the worker waits for it (the commit) before its next file. */
   onAnswer(answer: PoolAnswer): Promise<void>;
+  /**
+   * Per-file time limit in ms (default 120 000): a worker still on one file after it is ended
+   * and a fresh one takes the next file; the file is answered as failed with the reason.
+   */
+  fileTimeLimitMs?: number;
 }
+
+/** Default per-file time limit of the page's batch pool, ms (as the command line's). */
+export const DEFAULT_FILE_TIME_LIMIT_MS = 120_000;
 
 /** The number of workers for this machine: one per core, at least 1, at most 4. */
 export function poolSize(cores: number | undefined = globalThis.navigator?.hardwareConcurrency): number {
@@ -72,10 +82,12 @@ class PoolWorker {
     return w;
   }
 
-  process(job: BatchJob): Promise<BatchJobReply> {
+  /** Processes one file; past `timeLimitMs` the worker is ended and the file answered as failed. */
+  process(job: BatchJob, timeLimitMs: number): Promise<BatchJobReply> {
     const w = this.ensure();
     return new Promise((resolve) => {
-      this.pending = { id: job.id, resolve };
+      const timer = setTimeout(() => this.stop(`stopped: it was still in work after the per-file time limit of ${timeLimitMs / 1000} s; the worker was ended and replaced`), timeLimitMs);
+      this.pending = { id: job.id, resolve: (r) => (clearTimeout(timer), resolve(r)) };
       w.postMessage(job, [job.bytes.buffer]);
     });
   }
@@ -128,7 +140,7 @@ export class BatchPool {
         let reply: BatchJobReply;
         try {
           const bytes = await file.bytes();
-          reply = await w.process({ id: file.id, bytes, fileName: file.name, recipeJson: options.recipeJson, figure: options.figures });
+          reply = await w.process({ id: file.id, bytes, fileName: file.name, recipeJson: options.recipeJson, figure: options.figures }, options.fileTimeLimitMs ?? DEFAULT_FILE_TIME_LIMIT_MS);
         } catch (e) {
           reply = { id: file.id, ok: false, error: (e as Error).message };
         }

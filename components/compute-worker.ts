@@ -40,7 +40,12 @@ const handlers: Handlers = {
     return { image, ...prepareView({ image }) };
   },
   profilePeriods,
-  regionSpectrum,
+  regionSpectrum: async (args) => {
+    // a region larger than opencv.js's heap can hold is refused with the size to draw instead
+    const { checkSpectrumRegion } = await import('../src/image/size-limits');
+    checkSpectrumRegion(args.image.width, args.image.height, { x: args.originX, y: args.originY }, 'app');
+    return regionSpectrum(args);
+  },
   addSpotNear,
   filterSpots,
   autoSheets: async ({ image, polarity }) => {

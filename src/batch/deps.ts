@@ -10,6 +10,7 @@ import { decodeImage } from '../image/decode';
 import { makeGreyImage, type GreyImage } from '../image/grey-image';
 import { loadCv } from '../image/cv';
 import { createWorkspace, type Workspace } from '../image/workspace';
+import { checkSpectrumRegion } from '../image/size-limits';
 import { measureRegion } from '../measure/measure-region';
 import { RECORD_VERSION, type Measurement, type Region } from '../measure/measurement';
 import { domainMap } from '../measure/domains';
@@ -99,17 +100,25 @@ export async function domainsOfRegion(image: GreyImage, region: Region): Promise
   return { ...m, region: { kind: 'rect', ...rect }, detail: { ...(m.detail ?? {}), originPx: [rect.x, rect.y] } };
 }
 
+/** Refuses a region the spectrum cannot hold, with recipe advice (before opencv.js runs out of its heap). */
+function guardSpectrum(image: GreyImage, region: Region): void {
+  const rect = rectOf(region) ?? { x: 0, y: 0, width: image.width, height: image.height };
+  checkSpectrumRegion(rect.width, rect.height, rect, 'recipe');
+}
+
 /**
  * The batch runner's tools.
  * @returns decoder, information-strip and scale-bar reading, and every measurement step
  * @param workspace buffers reused from file to file (default: a new workspace of these tools)
+ * @param budgets the decoder's pixel and decompressed-bytes budgets (default the decoder's own),
+ *   set by the batch from its per-file memory limit
  * Notes: the information strip is the edge panel holding the scale bar (findScaleBar's
  * stripBox) when it lies along the bottom; the scale-bar route reads the bar's label offline
  * (one OCR engine per worker, started on first use). The decoded image and the spectra reuse the
  * workspace's buffers, so an image decoded by these tools is valid until the next decode: the
  * tools serve one file at a time (as processOne uses them).
  */
-export async function createBatchDeps(workspace: Workspace = createWorkspace()): Promise<BatchDeps> {
+export async function createBatchDeps(workspace: Workspace = createWorkspace(), budgets: { maxPixels?: number; maxDecompressedBytes?: number } = {}): Promise<BatchDeps> {
   const bars = new WeakMap<Float32Array, ScaleBar | null>();
   const barOf = (image: GreyImage): ScaleBar | null => {
     if (!bars.has(image.data)) bars.set(image.data, findScaleBar(image));
@@ -120,7 +129,7 @@ export async function createBatchDeps(workspace: Workspace = createWorkspace()):
     async prepare(recipe) {
       if (recipe.measurements.some((m) => m.tool === 'spectrum' || m.tool === 'rings')) await loadCv();
     },
-    decodeImage: (bytes, fileName) => decodeImage(bytes, fileName, { workspace }),
+    decodeImage: (bytes, fileName) => decodeImage(bytes, fileName, { workspace, maxPixels: budgets.maxPixels, maxDecompressedBytes: budgets.maxDecompressedBytes }),
     findInfoStripPx(image) {
       const strip = barOf(image)?.stripBox;
       if (!strip) return 0;
@@ -132,8 +141,14 @@ export async function createBatchDeps(workspace: Workspace = createWorkspace()):
       reader ??= import('../calibration/ocr').then((m) => m.createTextReader({ whitelist: LABEL_CHARACTERS }));
       return (await readScaleBar(image, await reader)).calibration;
     },
-    spectrum: (image, region, options) => measureRegion(image, rectOf(region), { maxSpots: options.topK, workspace }),
-    rings: (image, region) => ringsMeasurement(image, region, workspace),
+    spectrum: (image, region, options) => {
+      guardSpectrum(image, region);
+      return measureRegion(image, rectOf(region), { maxSpots: options.topK, workspace });
+    },
+    rings: (image, region) => {
+      guardSpectrum(image, region);
+      return ringsMeasurement(image, region, workspace);
+    },
     sheets: sheetsMeasurement,
     domains: domainsOfRegion,
   };

@@ -87,6 +87,11 @@ export interface FileResult {
   notes: string[];
   /** SHA-256 of the file's bytes (lower-case hex), when the caller computed it: which file exactly. */
   sha256?: string;
+  /**
+   * The annotated figure's file name in the figures folder, when one was written: unique within
+   * the batch, so this is the map from input file to figure (see figureNames).
+   */
+  figureFile?: string;
 }
 
 /**

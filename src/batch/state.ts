@@ -6,6 +6,7 @@
  * caller's. A file counts as finished only when its entry matches both hashes, so a changed file
  * or a changed recipe is processed again, and a file never gets two records.
  */
+import { outputStem } from './names';
 import type { FileResult } from './run';
 
 /** The state format this code reads and writes. */
@@ -81,8 +82,45 @@ export function withEntry(state: BatchState, file: string, entry: StateEntry): B
   return { schemaVersion: STATE_SCHEMA_VERSION, entries: { ...state.entries, [file]: entry } };
 }
 
-/** The record file name for a file's bytes and recipe: unique per (bytes, recipe, name). */
+/**
+ * The record file name for a file's bytes and recipe: unique per (bytes, recipe, name), also for
+ * names that differ only in characters a file name cannot keep (see outputStem).
+ */
 export function recordFileName(file: string, sha256: string, recipeHash: string): string {
-  const safe = file.replace(/[^A-Za-z0-9._-]+/g, '_').slice(-80);
-  return `records/${safe}.${sha256.slice(0, 16)}.${recipeHash.slice(0, 8)}.json`;
+  return `records/${outputStem(file)}.${sha256.slice(0, 16)}.${recipeHash.slice(0, 8)}.json`;
+}
+
+/** A result record found in the records folder, for rebuilding a lost state. */
+export interface FoundRecord {
+  /** Its path relative to the output folder (records/...). */
+  recordFile: string;
+  /** Its parsed content. */
+  result: unknown;
+  /** When it was written (ISO 8601). */
+  writtenIso: string;
+}
+
+/**
+ * Rebuilds a state from the result records when the state file and its copy are both unusable:
+ * every record written for this recipe (its name ends in the recipe hash's first 8 digits) with a
+ * file name and a SHA-256 counts as that file's entry; of several, the newest.
+ *
+ * @param records - the records found.
+ * @param recipeHash - the current recipe's hash (64 hex digits).
+ * @returns the state; a file whose bytes changed since its record is still processed again,
+ *   since `isFinished` compares the SHA-256.
+ */
+export function stateFromRecords(records: FoundRecord[], recipeHash: string): BatchState {
+  if (!HEX64.test(recipeHash)) throw new RangeError(`recipeHash must be 64 lower-case hex digits, got ${JSON.stringify(recipeHash)}`);
+  let state = emptyState();
+  const sorted = [...records].sort((a, b) => a.writtenIso.localeCompare(b.writtenIso));
+  for (const r of sorted) {
+    if (!r.recordFile.endsWith(`.${recipeHash.slice(0, 8)}.json`)) continue;
+    const res = r.result as Partial<FileResult> | null;
+    if (!res || typeof res !== 'object' || typeof res.file !== 'string' || !res.file || typeof res.sha256 !== 'string' || !HEX64.test(res.sha256)) continue;
+    if (res.status !== 'ok' && res.status !== 'failed') continue;
+    if (r.recordFile !== recordFileName(res.file, res.sha256, recipeHash)) continue;
+    state = withEntry(state, res.file, { sha256: res.sha256, recipeHash, status: res.status, recordFile: r.recordFile, finishedIso: r.writtenIso });
+  }
+  return state;
 }

@@ -8,7 +8,7 @@
 import { expressPeriod } from '../measure/measurement';
 import { createHash } from 'node:crypto';
 import { closeSync, fstatSync, openSync, readSync } from 'node:fs';
-import { mkdir, readdir, readFile, rename, stat, writeFile } from 'node:fs/promises';
+import { copyFile, mkdir, readdir, readFile, rename, stat, writeFile } from 'node:fs/promises';
 import { createRequire } from 'node:module';
 import { basename, dirname, extname, join, resolve } from 'node:path';
 import { pathToFileURL } from 'node:url';
@@ -17,8 +17,10 @@ import { batchJson, pooledStats, resultsCsv, summaryCsv, zipExports } from '../b
 import { annotatedFigurePng, histogramPng, histogramSvg } from '../batch/figure';
 import { canonicalRecipeJson, defaultRecipe, parseRecipe, RecipeError, type Recipe } from '../batch/recipe';
 import { missingTools, processOne, upgradeFileResult, type BatchDeps, type FileResult } from '../batch/run';
-import { emptyState, isFinished, parseState, recordFileName, STATE_FILE_NAME, withEntry, type BatchState } from '../batch/state';
+import { emptyState, isFinished, parseState, recordFileName, stateFromRecords, STATE_FILE_NAME, withEntry, type BatchState, type FoundRecord } from '../batch/state';
+import { DEFAULT_MAX_DECOMPRESSED_BYTES, DEFAULT_MAX_PIXELS } from '../image/decode';
 import { createWorkspace, type Workspace } from '../image/workspace';
+import { figureNames } from '../batch/names';
 import { parseArgs, UsageError, type CliCommand, type CliIo } from './command';
 
 /** File name extensions the batch picks up (lower case, with the dot). */
@@ -45,7 +47,23 @@ export interface RunBatchOptions {
   progressBar?: boolean;
   /** Measure each worker's retained memory after a forced garbage collection after every file (benchmarks). */
   measureRetained?: boolean;
+  /**
+   * Per-file time limit in seconds (default 120): a worker still on one file after it is ended
+   * and replaced, and the file is listed as failed with the reason.
+   */
+  fileTimeLimitS?: number;
+  /**
+   * Per-file memory limit in MiB (default 2048): each worker's JavaScript heap is capped there,
+   * its decoder budgets are set from it, and a worker whose process memory runs past the limit
+   * is ended and replaced; the file is listed as failed with the reason.
+   */
+  fileMemoryLimitMb?: number;
 }
+
+/** Default per-file time limit of a batch, seconds. */
+export const DEFAULT_FILE_TIME_LIMIT_S = 120;
+/** Default per-file memory limit of a batch, MiB. */
+export const DEFAULT_FILE_MEMORY_LIMIT_MB = 2048;
 
 /** What a batch run did. */
 export interface BatchOutcome {
@@ -71,6 +89,8 @@ export interface BatchOutcome {
   startupSeconds: number;
   /** Files written (exports). */
   written: string[];
+  /** What the run had to repair or note (a damaged state file recovered...). */
+  notes: string[];
 }
 
 /**
@@ -98,6 +118,17 @@ interface WorkerReply {
 }
 
 const DEFAULT_DEPS_MODULE = new URL('../batch/deps.ts', import.meta.url).href;
+
+/** A worker ended by the runner: the file in work passed a per-file limit. */
+class LimitError extends Error {
+  override name = 'LimitError';
+}
+
+/** The decoder budgets a worker gets from the per-file memory limit (the pixels as floats and the work on them fit in it). */
+export function budgetsFor(memoryLimitMb: number): { maxPixels: number; maxDecompressedBytes: number } {
+  const bytes = memoryLimitMb * 2 ** 20;
+  return { maxPixels: Math.min(DEFAULT_MAX_PIXELS, Math.floor(bytes / 12)), maxDecompressedBytes: Math.min(DEFAULT_MAX_DECOMPRESSED_BYTES, Math.floor(bytes / 2)) };
+}
 
 function sha256Hex(bytes: Uint8Array | string): string {
   return createHash('sha256').update(bytes).digest('hex');
@@ -130,10 +161,6 @@ export async function listImages(folder: string): Promise<string[]> {
     .sort();
 }
 
-function figureName(file: string): string {
-  return `${file.replace(/[^A-Za-z0-9._-]+/g, '_')}.png`;
-}
-
 /** The module a worker boots from: registers tsx, then runs `workerMain` of this file. */
 function workerBootUrl(): URL {
   const tsxDir = dirname(createRequire(import.meta.url).resolve('tsx/package.json'));
@@ -158,8 +185,16 @@ class BatchWorker {
   /** Settles when the worker has loaded its tools; rejects with a message for the user when it cannot run the recipe. */
   readonly ready: Promise<void>;
 
-  constructor(recipe: Recipe, depsModule: string, figures: boolean, measureRetained: boolean) {
-    this.worker = new Worker(workerBootUrl(), { workerData: { stratameterBatch: true, recipe, depsModule, figures, measureRetained } });
+  /** The file in work and when it started (for the memory watchdog), or null. */
+  current: { file: string; startedMs: number } | null = null;
+  private limitTimer: NodeJS.Timeout | null = null;
+
+  constructor(recipe: Recipe, depsModule: string, figures: boolean, measureRetained: boolean, private readonly memoryLimitMb: number) {
+    this.worker = new Worker(workerBootUrl(), {
+      workerData: { stratameterBatch: true, recipe, depsModule, figures, measureRetained, budgets: budgetsFor(memoryLimitMb) },
+      // the JavaScript heap of this worker stops at the per-file limit (V8 ends the worker past it)
+      resourceLimits: { maxOldGenerationSizeMb: memoryLimitMb },
+    });
     let readyResolve: () => void = () => {};
     let readyReject: (e: Error) => void = () => {};
     this.ready = new Promise<void>((res, rej) => {
@@ -189,6 +224,10 @@ class BatchWorker {
       } else p.reject(new Error(m.message));
     });
     const fail = (e: Error) => {
+      if ((e as NodeJS.ErrnoException).code === 'ERR_WORKER_OUT_OF_MEMORY') {
+        e = new LimitError(`it needed more memory than the per-file limit of ${this.memoryLimitMb} MiB; the worker was ended and replaced`);
+      }
+      this.clearLimit();
       readyReject(e);
       this.probe?.();
       this.probe = null;
@@ -210,15 +249,40 @@ class BatchWorker {
     });
   }
 
-  run(job: Job): Promise<WorkerReply> {
+  /**
+   * Processes one file; rejects with a LimitError when the file is still in work after
+   * `timeLimitMs` (the worker is then ended).
+   */
+  run(job: Job, timeLimitMs: number): Promise<WorkerReply> {
     return new Promise((resolve, reject) => {
-      this.pending = { resolve, reject };
+      this.current = { file: job.file, startedMs: performance.now() };
+      const done = () => {
+        this.current = null;
+        this.clearLimit();
+      };
+      this.pending = { resolve: (r) => (done(), resolve(r)), reject: (e) => (done(), reject(e)) };
+      this.limitTimer = setTimeout(() => this.end(`it was still in work after the per-file time limit of ${timeLimitMs / 1000} s; the worker was ended and replaced`), timeLimitMs);
       const transfer = job.bytes ? [job.bytes.buffer as ArrayBuffer] : [];
       this.worker.postMessage({ file: job.file, path: job.path, sha256: job.sha256, bytes: job.bytes }, transfer);
     });
   }
 
+  /** Ends the worker now; the file in work fails with `reason` (a per-file limit). */
+  end(reason: string): void {
+    const p = this.pending;
+    this.pending = null;
+    this.clearLimit();
+    void this.worker.terminate();
+    p?.reject(new LimitError(reason));
+  }
+
+  private clearLimit(): void {
+    if (this.limitTimer) clearTimeout(this.limitTimer);
+    this.limitTimer = null;
+  }
+
   stop(): Promise<number> {
+    this.clearLimit();
     return this.worker.terminate();
   }
 }
@@ -245,7 +309,7 @@ function readInto(path: string, workspace: Workspace): Uint8Array {
 export async function workerMain(): Promise<void> {
   if (isMainThread || !parentPort || !workerData?.stratameterBatch) throw new Error('workerMain runs only inside a batch worker thread');
   const port = parentPort;
-  const { recipe, depsModule, figures, measureRetained } = workerData as { recipe: Recipe; depsModule: string; figures: boolean; measureRetained: boolean };
+  const { recipe, depsModule, figures, measureRetained, budgets } = workerData as { recipe: Recipe; depsModule: string; figures: boolean; measureRetained: boolean; budgets?: { maxPixels: number; maxDecompressedBytes: number } };
   let gc: (() => void) | null = null;
   if (measureRetained) {
     const v8 = await import('node:v8');
@@ -255,8 +319,8 @@ export async function workerMain(): Promise<void> {
   }
   let deps: BatchDeps;
   try {
-    const mod = (await import(depsModule)) as { createBatchDeps(): Promise<BatchDeps> };
-    deps = await mod.createBatchDeps();
+    const mod = (await import(depsModule)) as { createBatchDeps(workspace?: Workspace, options?: { maxPixels: number; maxDecompressedBytes: number }): Promise<BatchDeps> };
+    deps = await mod.createBatchDeps(undefined, budgets);
     await deps.prepare?.(recipe);
   } catch (e) {
     port.postMessage({ type: 'fatal', message: `cannot load the measurement tools: ${(e as Error).message}` });
@@ -315,6 +379,74 @@ export async function workerMain(): Promise<void> {
   });
 }
 
+/** The state file's last good copy, kept beside it. */
+export const STATE_BACKUP_SUFFIX = '.bak';
+
+/** Writes the state atomically, then the same as its last good copy (both: a temporary file renamed over the target). */
+async function saveState(statePath: string, state: BatchState): Promise<void> {
+  const text = `${JSON.stringify(state, null, 1)}\n`;
+  await writeAtomic(statePath, text);
+  await writeAtomic(statePath + STATE_BACKUP_SUFFIX, text);
+}
+
+/** A result record from the records folder, or null when it is missing or damaged (the file is then processed again). */
+async function readRecord(path: string): Promise<FileResult | null> {
+  const text = await readFile(path, 'utf8').catch(() => null);
+  if (text === null) return null;
+  try {
+    // records written by earlier versions are brought up to the current layout
+    return upgradeFileResult(JSON.parse(text), path);
+  } catch {
+    return null;
+  }
+}
+
+/**
+ * The resume state of an output folder: the state file; if it is damaged (cut short by a crash,
+ * edited), its last good copy; if that is damaged too, a state rebuilt from the result records.
+ * A damaged state file is moved aside (never deleted) and the recovery is noted.
+ */
+async function loadState(outDir: string, recipeHash: string, notes: string[]): Promise<BatchState> {
+  const statePath = join(outDir, STATE_FILE_NAME);
+  const text = await readFile(statePath, 'utf8').catch(() => null);
+  const backupText = await readFile(statePath + STATE_BACKUP_SUFFIX, 'utf8').catch(() => null);
+  if (text === null && backupText === null) return emptyState();
+  let problem = 'is missing';
+  if (text !== null) {
+    try {
+      return parseState(text);
+    } catch (e) {
+      problem = `is damaged (${(e as Error).message})`;
+    }
+    const aside = `${statePath}.damaged-${new Date().toISOString().replace(/[:.]/g, '-')}`;
+    await rename(statePath, aside).catch(() => undefined);
+    notes.push(`${STATE_FILE_NAME} ${problem}; it was moved to ${basename(aside)}`);
+  }
+  let state: BatchState | null = null;
+  if (backupText !== null) {
+    try {
+      state = parseState(backupText);
+      notes.push(`resumed from the last good copy ${STATE_FILE_NAME}${STATE_BACKUP_SUFFIX} (${Object.keys(state.entries).length} finished files)`);
+    } catch {
+      state = null;
+    }
+  }
+  if (!state) {
+    const found: FoundRecord[] = [];
+    const dir = join(outDir, 'records');
+    for (const name of await readdir(dir).catch(() => [] as string[])) {
+      if (!name.endsWith('.json')) continue;
+      const path = join(dir, name);
+      const [content, info] = await Promise.all([readRecord(path), stat(path).catch(() => null)]);
+      if (content && info) found.push({ recordFile: `records/${name}`, result: content, writtenIso: info.mtime.toISOString() });
+    }
+    state = stateFromRecords(found, recipeHash);
+    notes.push(`no usable copy of ${STATE_FILE_NAME}: rebuilt it from the ${Object.keys(state.entries).length} result records in records/`);
+  }
+  await saveState(statePath, state);
+  return state;
+}
+
 /** One progress report: a line per file, or (TTY) a bar redrawn in place. */
 export function progressLine(done: number, total: number, file: string, status: string, bar: boolean): string {
   if (!bar) return `batch: ${done}/${total} ${file} ${status}\n`;
@@ -332,9 +464,12 @@ export function progressLine(done: number, total: number, file: string, status: 
  * @param io where progress goes (err)
  * @returns counts, every file's result, worker memory peaks
  * Notes: a file that fails (corrupt, unsupported, no calibration, a failing tool) gets a failed
- * record; every other file is still processed. A file whose worker thread stopped is reported
- * failed but not marked finished, so the next run tries it again. Interrupting the run loses at
- * most the files being processed at that moment.
+ * record; every other file is still processed. A file still in work after the per-file time
+ * limit, or past the per-file memory limit, has its worker ended and replaced; it is reported
+ * failed with that reason but, like a file whose worker crashed, not marked finished, so the next
+ * run tries it again. Interrupting the run loses at most the files being processed at that
+ * moment. Figure names are unique within the batch (`figureNames`) and each result records its
+ * own (`figureFile`).
  */
 export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<BatchOutcome> {
   const t0 = performance.now();
@@ -351,11 +486,16 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
   const recipeHash = sha256Hex(canonicalRecipeJson(recipe));
   await mkdir(outDir, { recursive: true });
 
-  let state: BatchState = emptyState();
-  const stateText = await readFile(statePath, 'utf8').catch(() => null);
-  if (stateText !== null) state = parseState(stateText);
+  const notes: string[] = [];
+  let state = await loadState(outDir, recipeHash, notes);
+  for (const n of notes) io.err(`batch: ${n}\n`);
 
   const files = await listImages(folder);
+  const figureOf = figureNames(files);
+  const memoryLimitMb = options.fileMemoryLimitMb ?? DEFAULT_FILE_MEMORY_LIMIT_MB;
+  const timeLimitS = options.fileTimeLimitS ?? DEFAULT_FILE_TIME_LIMIT_S;
+  if (!(Number.isFinite(timeLimitS) && timeLimitS > 0)) throw new UsageError(`--file-time-limit must be a positive number of seconds, got ${timeLimitS}`);
+  if (!(Number.isInteger(memoryLimitMb) && memoryLimitMb >= 64)) throw new UsageError(`--file-memory-limit must be a whole number of MiB, at least 64, got ${memoryLimitMb}`);
   const total = files.length;
   let next = 0;
   let done = 0;
@@ -373,10 +513,12 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
     commitChain = commitChain.then(async () => {
       if (persist && sha256) {
         const recordFile = recordFileName(job.file, sha256, recipeHash);
+        const figureFile = figureOf.get(job.file)!;
+        if (figurePng && figuresDir) result.figureFile = figureFile;
         await writeAtomic(join(outDir, recordFile), `${JSON.stringify(result)}\n`);
-        if (figurePng && figuresDir) await writeAtomic(join(figuresDir, figureName(job.file)), figurePng);
+        if (figurePng && figuresDir) await writeAtomic(join(figuresDir, figureFile), figurePng);
         state = withEntry(state, job.file, { sha256, recipeHash, status: result.status, recordFile, finishedIso: new Date().toISOString() });
-        await writeAtomic(statePath, `${JSON.stringify(state, null, 1)}\n`);
+        await saveState(statePath, state);
       }
       results.set(job.file, result);
       processed++;
@@ -398,14 +540,15 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
       const entry = state.entries[file];
       if (!entry || entry.recipeHash !== recipeHash) return { file, path };
       const recordPath = join(outDir, entry.recordFile);
-      const figureMissing = figuresDir && entry.status === 'ok' && !(await exists(join(figuresDir, figureName(file))));
+      const figureMissing = figuresDir && entry.status === 'ok' && !(await exists(join(figuresDir, figureOf.get(file)!)));
       const buf = await readFile(path).catch(() => null);
       if (!buf) return { file, path }; // the worker reports why it cannot be read
       const bytes = new Uint8Array(buf.byteLength);
       bytes.set(buf);
       const sha256 = sha256Hex(bytes);
-      if (isFinished(state, file, sha256, recipeHash) && !figureMissing && (await exists(recordPath))) {
-        results.set(file, upgradeFileResult(JSON.parse(await readFile(recordPath, 'utf8')), recordPath));
+      const record = isFinished(state, file, sha256, recipeHash) && !figureMissing ? await readRecord(recordPath) : null;
+      if (record) {
+        results.set(file, record);
         skipped++;
         done++;
         io.err(progressLine(done, total, file, 'skipped (finished earlier)', bar));
@@ -425,6 +568,18 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
   const retained: BatchOutcome['workerRetainedBytes'] = [];
   let fatal: Error | null = null;
   const loops: Promise<void>[] = [];
+  // Memory backstop: the heap of each worker is capped by V8 and its arrays by the decoder
+  // budgets; should the process still grow past every worker's share, the worker longest on its
+  // file is ended and the file fails with the reason.
+  const active = new Set<BatchWorker>();
+  const processLimitBytes = (workerCount * (memoryLimitMb + 256) + 256) * 2 ** 20;
+  const watchdog = setInterval(() => {
+    if (process.memoryUsage.rss() <= processLimitBytes) return;
+    let oldest: BatchWorker | null = null;
+    for (const w of active) if (w.current && (!oldest || w.current.startedMs < oldest.current!.startedMs)) oldest = w;
+    oldest?.end(`the process ran past its memory limit (${memoryLimitMb} MiB per file) while this file was in work; the worker was ended and replaced`);
+  }, 500);
+  watchdog.unref();
   for (let w = 0; w < workerCount; w++) {
     loops.push(
       (async () => {
@@ -439,7 +594,8 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
           for (; job; ) {
             if (fatal) break;
             if (!worker) {
-              worker = new BatchWorker(recipe, depsModule, !!figuresDir, !!options.measureRetained);
+              worker = new BatchWorker(recipe, depsModule, !!figuresDir, !!options.measureRetained, memoryLimitMb);
+              active.add(worker);
               try {
                 await worker.ready;
                 startupMs = Math.max(startupMs, performance.now() - t0);
@@ -452,9 +608,10 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
             const prefetch = takeJob();
             let reply: WorkerReply;
             try {
-              reply = await worker.run(job);
+              reply = await worker.run(job, timeLimitS * 1000);
             } catch (e) {
-              // a crashed worker fails its file only; a fresh worker takes the next one
+              // a crashed or ended worker fails its file only; a fresh worker takes the next one
+              active.delete(worker);
               peak = Math.max(peak, worker.peakBytes);
               early = Math.max(early, worker.earlyPeakBytes);
               count += worker.files;
@@ -462,7 +619,7 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
               last = worker.retainedAfterLast || last;
               await worker.stop().catch(() => 0);
               worker = null;
-              const reason = `processing stopped: ${(e as Error).message.split('\n')[0]}`;
+              const reason = e instanceof LimitError ? `stopped: ${e.message}` : `processing stopped: ${(e as Error).message.split('\n')[0]}`;
               await commit(job, job.sha256, { file: job.file, status: 'failed', reason, image: null, calibration: null, measurements: [], summary: { topPeriods: [], sheetCount: null, meanThicknessNm: null, sdThicknessNm: null, sheetThicknessNm: [] }, notes: [] }, undefined, false);
               job = await prefetch;
               continue;
@@ -473,6 +630,7 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
         } finally {
           if (worker && options.measureRetained && worker.files > 0) await worker.measureRetained().catch(() => undefined);
           if (worker) {
+            active.delete(worker);
             peak = Math.max(peak, worker.peakBytes);
             early = Math.max(early, worker.earlyPeakBytes);
             count += worker.files;
@@ -491,6 +649,7 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
     );
   }
   await Promise.all(loops);
+  clearInterval(watchdog);
   await commitChain;
   if (fatal) throw fatal;
 
@@ -519,8 +678,9 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
     if (sheets.length) await put(join(figuresDir, 'histogram-sheet-thickness-nm.png'), histogramPng(sheets, sheetsHist), 'figures/histogram-sheet-thickness-nm.png');
     if (recipe.outputs.zip) {
       for (const r of ordered) {
-        const p = join(figuresDir, figureName(r.file));
-        if (r.status === 'ok' && (await exists(p))) exportsZip[`figures/${figureName(r.file)}`] = new Uint8Array(await readFile(p));
+        const name = figureOf.get(r.file)!;
+        const p = join(figuresDir, name);
+        if (r.status === 'ok' && (await exists(p))) exportsZip[`figures/${name}`] = new Uint8Array(await readFile(p));
       }
     }
   }
@@ -529,7 +689,7 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
     await writeAtomic(zipPath, zipExports(exportsZip));
     written.push(zipPath);
   }
-  return { total, processed, skipped, results: ordered, workerPeakBytes: peaks, workerEarlyPeakBytes: earlyPeaks, workerFiles, workerRetainedBytes: retained, seconds: (performance.now() - t0) / 1000, startupSeconds: startupMs / 1000, written };
+  return { total, processed, skipped, results: ordered, workerPeakBytes: peaks, workerEarlyPeakBytes: earlyPeaks, workerFiles, workerRetainedBytes: retained, seconds: (performance.now() - t0) / 1000, startupSeconds: startupMs / 1000, written, notes };
 }
 
 const usage = `Usage: stratameter batch FOLDER [--recipe FILE.json] [--out results.csv] [--json-out results.json] [--figures DIR] [--jobs N]
@@ -544,16 +704,20 @@ Runs a recipe on every image in FOLDER (${IMAGE_EXTENSIONS.join(' ')}; not recur
   --json-out FILE     full results and pooled statistics as JSON
   --figures DIR       an annotated PNG per image (scale bar, periods) and SVG and PNG histograms
   --jobs N            worker threads (default: the number of cores)
+  --file-time-limit S     seconds one file may take (default ${DEFAULT_FILE_TIME_LIMIT_S}); past it the file's
+                          worker is ended and replaced and the file is listed as failed
+  --file-memory-limit MB  memory one file may use, MiB (default ${DEFAULT_FILE_MEMORY_LIMIT_MB}); past it likewise
 
 A re-run with the same output folder skips every file already finished with the same bytes and
-the same recipe. The exit code is 1 when any file failed (all other files are still processed).`;
+the same recipe; a damaged state file is recovered from its last good copy (or from records/).
+The exit code is 1 when any file failed (all other files are still processed).`;
 
 export const command: CliCommand = {
   name: 'batch',
   summary: 'run a recipe on every image of a folder (resumable, parallel); CSV, JSON, figures',
   usage,
   async run(args: string[], io: CliIo): Promise<number> {
-    const { positional, options } = parseArgs(args, { values: ['recipe', 'out', 'json-out', 'figures', 'jobs'] });
+    const { positional, options } = parseArgs(args, { values: ['recipe', 'out', 'json-out', 'figures', 'jobs', 'file-time-limit', 'file-memory-limit'] });
     if (positional.length !== 1) throw new UsageError(`batch needs exactly one FOLDER, got ${positional.length}`);
     let recipe = defaultRecipe();
     const recipePath = options.get('recipe');
@@ -572,8 +736,18 @@ export const command: CliCommand = {
     const { availableParallelism } = await import('node:os');
     const jobs = jobsText === undefined ? availableParallelism() : Number(jobsText);
     if (!(Number.isInteger(jobs) && jobs >= 1 && jobs <= 64)) throw new UsageError(`--jobs must be an integer from 1 to 64, got ${jobsText}`);
+    const limit = (name: string, fallback: number) => {
+      const text = options.get(name);
+      const v = text === undefined ? fallback : Number(text);
+      if (!(Number.isFinite(v) && v > 0)) throw new UsageError(`--${name} must be a positive number, got '${text}'`);
+      return v;
+    };
+    const fileTimeLimitS = limit('file-time-limit', DEFAULT_FILE_TIME_LIMIT_S);
+    const fileMemoryLimitMb = Math.round(limit('file-memory-limit', DEFAULT_FILE_MEMORY_LIMIT_MB));
     const outcome = await runBatch(
       {
+        fileTimeLimitS,
+        fileMemoryLimitMb,
         folder: positional[0],
         recipe,
         outCsv: options.get('out') ?? 'results.csv',

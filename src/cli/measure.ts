@@ -6,6 +6,7 @@ import { readFile } from 'node:fs/promises';
 import type { CliCommand, CliIo } from './command';
 import { coverageFactorOption, parseArgs, UsageError } from './command';
 import { decodeImage, ImageReadError } from '../image/decode';
+import { checkSpectrumRegion, RegionTooLargeError } from '../image/size-limits';
 import type { Calibration, GreyImage } from '../image/grey-image';
 import { measureRegion } from '../measure/measure-region';
 import { budgetContents, budgetJson, DEFAULT_COVERAGE_FACTOR, expressPeriod, formatPlusMinus, type Measurement, type Periodicity } from '../measure/measurement';
@@ -166,6 +167,15 @@ export const command: CliCommand = {
       throw e;
     }
     if (manual) image = { ...image, calibration: manual };
+    const r = region ?? { x: 0, y: 0, width: image.width, height: image.height };
+    try {
+      checkSpectrumRegion(Math.min(r.width, image.width - r.x), Math.min(r.height, image.height - r.y), r, 'cli');
+    } catch (e) {
+      if (e instanceof RegionTooLargeError) {
+        io.err(`stratameter measure: ${file}: ${e.message}\n`);
+        return 1;
+      }
+    }
     let m: Measurement;
     try {
       m = await measureRegion(image, region, { alpha, window, fileName: file });

@@ -104,3 +104,55 @@ test('progress: plain lines when not a terminal, a bar redrawn in place on one',
   expect(bar.endsWith('\n')).toBe(false);
   expect(progressLine(10, 10, 'z.tif', 'ok', true).endsWith('\n')).toBe(true);
 });
+
+test('a file that hangs, or fills its heap, is stopped at the per-file limit and listed with the reason; the others finish', async () => {
+  await writeFile(join(dir, 'b1-hang.tif'), 'HANG');
+  await writeFile(join(dir, 'b2-heap.tif'), 'HEAP');
+  const recipe = parseRecipe({ schemaVersion: 1, area: { kind: 'whole', infoStripPx: 0 } });
+  const out = await runBatch({ folder: dir, recipe, outCsv: join(dir, 'out', 'results.csv'), jobs: 1, depsModule, fileTimeLimitS: 4, fileMemoryLimitMb: 96 }, io);
+  expect(out.results.map((r) => [r.file, r.status])).toEqual([
+    ['a.tif', 'ok'],
+    ['b.tif', 'ok'],
+    ['b1-hang.tif', 'failed'],
+    ['b2-heap.tif', 'failed'],
+    ['broken.tif', 'failed'],
+    ['c,"odd".tif', 'ok'],
+  ]);
+  expect(out.results[2].reason).toBe('stopped: it was still in work after the per-file time limit of 4 s; the worker was ended and replaced');
+  expect(out.results[3].reason).toBe('stopped: it needed more memory than the per-file limit of 96 MiB; the worker was ended and replaced');
+}, 180_000);
+
+test('a half-written state file is recovered from its last good copy, or rebuilt from the records', async () => {
+  const recipe = parseRecipe({ schemaVersion: 1, area: { kind: 'whole', infoStripPx: 0 } });
+  const opts = { folder: dir, recipe, outCsv: join(dir, 'out', 'results.csv'), jobs: 1, depsModule };
+  await runBatch(opts, io);
+  const statePath = join(dir, 'out', 'batch-state.json');
+  const good = await readFile(statePath, 'utf8');
+  await writeFile(statePath, good.slice(0, good.length >> 1)); // cut short, as by a crash mid-write
+  const second = await runBatch(opts, io);
+  expect([second.processed, second.skipped]).toEqual([0, 4]);
+  expect(second.notes.join('\n')).toMatch(/batch-state\.json is damaged \(batch state is not valid JSON[^\n]*; it was moved to batch-state\.json\.damaged-/);
+  expect(second.notes.join('\n')).toMatch(/resumed from the last good copy batch-state\.json\.bak \(4 finished files\)/);
+  expect(await readFile(statePath, 'utf8')).toBe(good);
+  // both damaged: the state is rebuilt from records/
+  await writeFile(statePath, '{"schemaVersion":1,"entr');
+  await writeFile(`${statePath}.bak`, '');
+  const third = await runBatch(opts, io);
+  expect([third.processed, third.skipped]).toEqual([0, 4]);
+  expect(third.notes.join('\n')).toMatch(/rebuilt it from the 4 result records/);
+}, 180_000);
+
+test('files whose names differ only in replaced characters get distinct figures, named in their results', async () => {
+  for (const f of await readdir(dir)) await rm(join(dir, f), { force: true });
+  for (const [name, p] of [['a b.tif', 20], ['a_b.tif', 24], ['a+b.tif', 28]] as const) await writeFile(join(dir, name), fakeFile(256, 256, 0.05, p));
+  const recipe = parseRecipe({ schemaVersion: 1, area: { kind: 'whole', infoStripPx: 0 }, outputs: { json: true } });
+  const figures = join(dir, 'out', 'fig');
+  const out = await runBatch({ folder: dir, recipe, outCsv: join(dir, 'out', 'results.csv'), jobs: 1, depsModule, figuresDir: figures }, io);
+  const names = out.results.map((r) => r.figureFile);
+  expect(new Set(names).size).toBe(3);
+  expect(names[out.results.findIndex((r) => r.file === 'a_b.tif')]).toBe('a_b.tif.png');
+  expect((await readdir(figures)).filter((f) => f.startsWith('a_b')).sort()).toEqual([...names].sort());
+  const json = JSON.parse(await readFile(join(dir, 'out', 'results.json'), 'utf8'));
+  expect(json.results.map((r: { file: string; figureFile: string }) => [r.file, r.figureFile])).toEqual(out.results.map((r) => [r.file, r.figureFile]));
+  expect(new Set(await readdir(join(dir, 'out', 'records'))).size).toBe(3);
+}, 180_000);

@@ -53,6 +53,12 @@ export function fakeDeps(over: Partial<BatchDeps> = {}): BatchDeps & { calls: { 
       const text = new TextDecoder().decode(bytes);
       // a file that takes its worker thread down with it (process.exit in a worker ends that thread only)
       if (text === 'CRASH') process.exit(7);
+      // a file that never finishes, and one that fills the JavaScript heap: the per-file limits must stop them
+      if (text === 'HANG') for (;;) { /* a decoder caught in a loop */ }
+      if (text === 'HEAP') {
+        const hog: number[][] = [];
+        for (;;) hog.push(new Array(1 << 16).fill(hog.length));
+      }
       const m = /^FAKE (\d+) (\d+) (\S+) (\S+)$/.exec(text);
       if (!m) throw new Error(`${fileName}: not a fake image`);
       const [w, h] = [Number(m[1]), Number(m[2])];
