@@ -1,6 +1,9 @@
 // Serves dist/ on 127.0.0.1 only (never on other interfaces) and prints the URL.
+// Every response carries the security headers of scripts/security-headers.mjs (a
+// Content-Security-Policy with frame-ancestors 'none', nosniff, no referrer...).
 // Usage: node scripts/serve.mjs [--port N] [--dir DIR]
 import { createServer } from 'node:http';
+import { SECURITY_HEADERS } from './security-headers.mjs';
 import { readFile, stat } from 'node:fs/promises';
 import { extname, join, normalize, resolve } from 'node:path';
 
@@ -26,13 +29,14 @@ const TYPES = {
 export function serve({ dir = 'dist', port = 8173, host = '127.0.0.1' } = {}) {
   const root = resolve(dir);
   const server = createServer(async (req, res) => {
+    for (const [name, value] of Object.entries(SECURITY_HEADERS)) res.setHeader(name, value);
     try {
       const url = new URL(req.url ?? '/', 'http://localhost');
       let path = decodeURIComponent(url.pathname);
       if (path.endsWith('/')) path += 'index.html';
       const file = normalize(join(root, path));
       if (!file.startsWith(root)) {
-        res.writeHead(403).end('forbidden');
+        res.writeHead(403, { 'content-type': 'text/plain' }).end('forbidden');
         return;
       }
       const info = await stat(file).catch(() => null);
@@ -47,7 +51,10 @@ export function serve({ dir = 'dist', port = 8173, host = '127.0.0.1' } = {}) {
       });
       res.end(body);
     } catch (e) {
-      res.writeHead(500).end(String(e));
+      // the reason goes to the console of whoever runs the server, not to the page
+      console.error(`serve: ${req.url}: ${e instanceof Error ? e.message : String(e)}`);
+      if (!res.headersSent) res.writeHead(500, { 'content-type': 'text/plain' });
+      res.end('the server could not send this file');
     }
   });
   return new Promise((resolvePromise, reject) => {
