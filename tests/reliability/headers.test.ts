@@ -3,6 +3,7 @@ import { readFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, expect, test } from 'vitest';
+// @ts-expect-error plain JavaScript module without types
 import { serve } from '../../scripts/serve.mjs';
 import { CONTENT_SECURITY_POLICY, PAGE_POLICY, SECURITY_HEADERS } from '../../scripts/security-headers.mjs';
 
