@@ -83,11 +83,43 @@ export interface Recipe {
 /** A recipe that is not valid; `path` names the offending key (e.g. `acceptance.periodRangeNm[1]`). */
 export class RecipeError extends Error {
   override name = 'RecipeError';
+  /** The problem alone, without the path. */
+  readonly problem: string;
+  /** The recipe file's name, when the recipe was read from a file (it then starts the message). */
+  readonly fileName: string | null;
   constructor(
     readonly path: string,
     problem: string,
+    fileName: string | null = null,
   ) {
-    super(`recipe ${path || '(top level)'}: ${problem}`);
+    super(`${fileName ? `${fileName}: ` : ''}recipe ${path || '(top level)'}: ${problem}`);
+    this.problem = problem;
+    this.fileName = fileName;
+  }
+}
+
+/** Where JSON.parse stopped, as "line L, column C" of the text, from the position it reports (or null). */
+function jsonPlace(text: string, message: string): string | null {
+  const m = /position (\d+)/.exec(message);
+  if (!m) return /end of (JSON )?input/i.test(message) ? 'the text ends in the middle of a value' : null;
+  const pos = Math.min(Number(m[1]), text.length);
+  const before = text.slice(0, pos);
+  return `line ${before.split('\n').length}, column ${pos - before.lastIndexOf('\n')}`;
+}
+
+/**
+ * Reads a recipe file: parseRecipe with the file's name at the start of every error.
+ * @param text - the file's text.
+ * @param fileName - its name.
+ * @returns the recipe.
+ * @throws RecipeError naming the file and the path of the offending key.
+ */
+export function readRecipeFile(text: string, fileName: string): Recipe {
+  try {
+    return parseRecipe(text);
+  } catch (e) {
+    if (e instanceof RecipeError) throw new RecipeError(e.path, e.problem, fileName);
+    throw e;
   }
 }
 
@@ -338,7 +370,8 @@ export function parseRecipe(json: string | unknown): Recipe {
     try {
       v = JSON.parse(json);
     } catch (e) {
-      throw new RecipeError('', `is not valid JSON (${(e as Error).message})`);
+      const place = jsonPlace(json, (e as Error).message);
+      throw new RecipeError('', `is not valid JSON${place ? ` (${place})` : ''}`);
     }
   }
   const o = objectAt(v, '', ['schemaVersion', 'name', 'version', 'description', 'calibration', 'area', 'measurements', 'acceptance', 'outputs']);

@@ -53,8 +53,8 @@ export function parseState(text: string): BatchState {
   let v: unknown;
   try {
     v = JSON.parse(text);
-  } catch (e) {
-    throw new Error(`batch state is not valid JSON (${(e as Error).message})`);
+  } catch {
+    throw new Error('batch state is not valid JSON (cut short or damaged)');
   }
   const o = v as Partial<BatchState> | null;
   if (!o || typeof o !== 'object' || o.schemaVersion !== STATE_SCHEMA_VERSION) {

@@ -15,7 +15,7 @@ import { pathToFileURL } from 'node:url';
 import { isMainThread, parentPort, Worker, workerData } from 'node:worker_threads';
 import { batchJson, pooledStats, resultsCsv, summaryCsv, zipExports } from '../batch/export';
 import { annotatedFigurePng, histogramPng, histogramSvg } from '../batch/figure';
-import { canonicalRecipeJson, defaultRecipe, parseRecipe, RecipeError, type Recipe } from '../batch/recipe';
+import { canonicalRecipeJson, defaultRecipe, readRecipeFile, RecipeError, type Recipe } from '../batch/recipe';
 import { missingTools, processOne, upgradeFileResult, type BatchDeps, type FileResult } from '../batch/run';
 import { emptyState, isFinished, parseState, recordFileName, stateFromRecords, STATE_FILE_NAME, withEntry, type BatchState, type FoundRecord } from '../batch/state';
 import { DEFAULT_MAX_DECOMPRESSED_BYTES, DEFAULT_MAX_PIXELS } from '../image/decode';
@@ -726,9 +726,9 @@ export const command: CliCommand = {
         throw new UsageError(`cannot read the recipe ${recipePath}: ${e.message}`);
       });
       try {
-        recipe = parseRecipe(text);
+        recipe = readRecipeFile(text, recipePath);
       } catch (e) {
-        if (e instanceof RecipeError) throw new UsageError(`${recipePath}: ${e.message}`);
+        if (e instanceof RecipeError) throw new UsageError(e.message);
         throw e;
       }
     }

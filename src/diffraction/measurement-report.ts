@@ -70,8 +70,10 @@ function jsonPlace(text: string, message: string): string | null {
  *   layouts, a periodicity that is null or not an object, a period or uncertainty that is not a
  *   finite positive (or, for uncertainties, non-negative) number, a relative uncertainty outside
  *   [0, 1), statistics that are not numbers, more than a million entries.
- * Notes: a periodicity without a calibrated period (periodNm null) is left out with a note, as is
- * a sheet without one.
+ * Notes: the period in nm and its standard uncertainty are read from `periodNm` and
+ * `uncertaintyNm`, or (record version 2) from the periodicity's `budget` (`periodNm`,
+ * `uCombinedNm`); a periodicity without a calibrated period is left out with a note, as is a
+ * sheet without one.
  */
 export function readMeasurementReport(text: string, fileName: string): ReportInput {
   const fail = (reason: string): never => {
@@ -112,7 +114,12 @@ export function readMeasurementReport(text: string, fileName: string): ReportInp
     j.periodicities.forEach((p: unknown, i: number) => {
       const where = `periodicities[${i}]`;
       if (!isObj(p)) fail(`${where} is ${shown(p)}, not a periodicity`);
-      const q = p as Obj;
+      let q = p as Obj;
+      // reports of measurement record version 2 give the period in nm in its budget (value and combined standard uncertainty)
+      if (q.periodNm === undefined && isObj(q.budget)) {
+        const b = q.budget as Obj;
+        q = { ...q, periodNm: b.periodNm ?? null, uncertaintyNm: b.uCombinedNm ?? null };
+      }
       if (q.periodNm === null || q.periodNm === undefined || q.uncertaintyNm === null || q.uncertaintyNm === undefined) {
         notes.push(`${name}: periodicity ${i + 1} has no calibrated period and is left out`);
         return;

@@ -41,3 +41,10 @@ describe('measurement reports', () => {
     expect(r.sheets).toEqual({ n: 3, meanNm: 5, sdNm: 1, medianNm: 4.8 });
   });
 });
+
+test('a version-2 measure report gives the period and its combined standard uncertainty from its budget', () => {
+  const text = JSON.stringify({ file: 'a.tif', calibration: { nmPerPx: 0.05, source: 'manual', relUncertainty: 0.02 }, periodicities: [{ periodPx: 25, angleDeg: 10, budget: { periodNm: 1.25, uCombinedNm: 0.03, coverageFactorK: 2, expandedUncertaintyNm: 0.06 } }, { periodPx: 9, angleDeg: 0, budget: { periodPx: 9, uCombinedPx: 0.1 } }] });
+  const r = readMeasurementReport(text, 'v2.json');
+  expect(r.periods).toEqual([{ periodNm: 1.25, uncertaintyNm: 0.03, label: 'v2.json #1 (10°)' }]);
+  expect(r.notes).toEqual(['v2.json: periodicity 2 has no calibrated period and is left out']);
+});
