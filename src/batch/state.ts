@@ -57,13 +57,17 @@ export function parseState(text: string): BatchState {
     throw new Error('batch state is not valid JSON (cut short or damaged)');
   }
   const o = v as Partial<BatchState> | null;
-  if (!o || typeof o !== 'object' || o.schemaVersion !== STATE_SCHEMA_VERSION) {
-    throw new Error(`batch state has schemaVersion ${JSON.stringify(o?.schemaVersion)}, expected ${STATE_SCHEMA_VERSION}`);
+  if (!o || typeof o !== 'object' || Array.isArray(o) || o.schemaVersion !== STATE_SCHEMA_VERSION) {
+    const sv = o && typeof o === 'object' ? o.schemaVersion : undefined;
+    // only a number or a short text is shown: a nested value would overflow the stack when written out
+    const shown = typeof sv === 'number' || (typeof sv === 'string' && sv.length < 40) ? JSON.stringify(sv) : typeof sv === 'object' && sv !== null ? 'a list or an object' : String(sv);
+    throw new Error(`batch state has schemaVersion ${shown}, expected ${STATE_SCHEMA_VERSION}`);
   }
-  if (!o.entries || typeof o.entries !== 'object') throw new Error('batch state has no entries object');
+  if (!o.entries || typeof o.entries !== 'object' || Array.isArray(o.entries)) throw new Error('batch state has no entries object');
+  const isText = (x: unknown): x is string => typeof x === 'string';
   for (const [file, e] of Object.entries(o.entries)) {
-    if (!e || !HEX64.test(e.sha256) || !HEX64.test(e.recipeHash) || (e.status !== 'ok' && e.status !== 'failed') || typeof e.recordFile !== 'string') {
-      throw new Error(`batch state entry ${JSON.stringify(file)} is malformed`);
+    if (!e || typeof e !== 'object' || !isText(e.sha256) || !HEX64.test(e.sha256) || !isText(e.recipeHash) || !HEX64.test(e.recipeHash) || (e.status !== 'ok' && e.status !== 'failed') || !isText(e.recordFile)) {
+      throw new Error(`batch state entry ${JSON.stringify(file.slice(0, 80))} is malformed`);
     }
   }
   return { schemaVersion: STATE_SCHEMA_VERSION, entries: o.entries };

@@ -1,14 +1,16 @@
 import 'fake-indexeddb/auto';
 import { describe, expect, test } from 'vitest';
 import { TARGETS, fuzzTarget, mutateBytes, rng, table } from './harness';
+import { CORRUPT_CLASSES } from '../../testing/corrupt';
 import { importLibrary, ImportError, openLibrary } from '../../src/store';
 import { decodeImage, ImageReadError } from '../../src/image/decode';
 import { encodeTiff } from '../../src/image/encode-tiff';
 
-// A short seeded run of the fuzz suite (the long one is `npm run test:fuzz`): every damaged
-// input gives a result or the reader's own error naming the file or line (common practice for
-// robust file readers: fail early, say where).
-const INPUTS_PER_READER = 150;
+// A short seeded run of the fuzz suite (the long one is `npm run test:fuzz -- --long`): every
+// damaged input gives a result or the reader's own error naming the file or line (common
+// practice for robust file readers: fail early, say where), and every input of a corrupt class
+// (testing/corrupt.ts) is refused, warned about or skipped as its class says.
+const INPUTS_PER_READER = 120;
 
 describe('seeded fuzz run', () => {
   for (const target of TARGETS) {
@@ -17,10 +19,14 @@ describe('seeded fuzz run', () => {
       expect(tally.failures, JSON.stringify(tally.failures, null, 1)).toEqual([]);
       expect(tally.counts.ok + tally.counts.clear).toBe(INPUTS_PER_READER);
       // The damage is noticed: a run where nothing was refused did not test the checks.
-      expect(tally.counts.clear).toBeGreaterThan(INPUTS_PER_READER / 4);
+      expect(tally.counts.clear).toBeGreaterThan(INPUTS_PER_READER / 8);
       console.log(table([tally]));
     });
   }
+  test('every reader has corrupt classes, and every class is drawn', () => {
+    for (const t of TARGETS) expect(CORRUPT_CLASSES.some((c) => c.reader === t.id), t.id).toBe(true);
+    expect(new Set(CORRUPT_CLASSES.map((c) => c.reader))).toEqual(new Set(TARGETS.map((t) => t.id)));
+  });
 });
 
 describe('the harness itself', () => {

@@ -1,257 +1,135 @@
 /**
- * The fuzz harness shared by the seeded run inside `npm test` (fuzz.test.ts) and the long run
+ * The fuzz harness shared by the seeded run inside `npm test` (fuzz.test.ts) and the runner
  * (`npm run test:fuzz`, run.ts).
  *
- * Every reader of outside data (images, diffraction text, recipe JSON, library exports) gets
- * valid files that were then damaged by seeded mutations. For each input the outcome is one of:
- * - `ok`: a result came back, and it passed the target's consistency check;
- * - `clear`: an error of the reader's own class with a message that names the file or the line;
- * - `crash`: any other exception (a TypeError or RangeError from deep inside, a bad result);
- * - `slow`: the input took longer than the per-input limit (a hang, when run.ts's watchdog fires);
- * - `memory`: the heap and array buffers grew more than the per-input bound while reading it.
+ * Every reader of outside data (TIFF, PNG, JPEG and MRC images, diffraction patterns, structure
+ * files, recipes, measurement reports, library exports, the batch state file) gets valid files
+ * damaged by seeded mutations, and inputs of the corrupt classes of testing/corrupt.ts. Each
+ * input ends as one outcome:
+ * - `ok`: a result that passed the reader's consistency check;
+ * - `clear`: the reader's own error, naming the file (and line, tag or chunk), in the user's terms;
+ * - `silent`: a result for an input known to be corrupt, with no error, warning or skip saying so;
+ * - `unnamed`: the reader's own error that does not name the file, or passes an engine's message on;
+ * - `crash`: any other exception, or an inconsistent result;
+ * - `hang`: longer than HANG_MS (the runner's watchdog stops an input that never returns);
+ * - `memory`: heap and array buffers grew by more than MEMORY_LIMIT_BYTES while reading it.
  * Only `ok` and `clear` are acceptable.
  */
 import 'fake-indexeddb/auto';
-import { encode as encodePng } from 'fast-png';
-import { Image, encode as encodeRaster } from 'image-js';
-import { encodeTiff, type TiffCompression } from '../../src/image/encode-tiff';
-import { encodeMrc } from '../../src/image/encode-mrc';
 import { decodeImage, ImageReadError } from '../../src/image/decode';
-import { parsePattern } from '../../src/diffraction/pattern';
-import { parseRecipe, RecipeError, defaultRecipe } from '../../src/batch/recipe';
-import { exportLibrary, importLibrary, ImportError, openLibrary, putImage, putMeasurement, type LibraryDb } from '../../src/store';
-import { makeGreyImage } from '../../src/image/grey-image';
+import { readPatternFile, PatternReadError } from '../../src/diffraction/read-pattern';
+import { CifError, MAX_SYMMETRY_OPERATIONS, parseCif, powderReflections } from '../../src/diffraction/cif';
+import { readMeasurementReport, ReportError } from '../../src/diffraction/measurement-report';
+import { reconcile } from '../../src/diffraction/reconcile';
+import { readRecipeFile, RecipeError } from '../../src/batch/recipe';
+import { parseState } from '../../src/batch/state';
+import { importLibrary, ImportError, openLibrary, type LibraryDb } from '../../src/store';
+import { validateMeasurementShape } from '../../src/store/validate';
 import { rng } from '../../src/synthetic/random';
-export { rng };
+import { classesOf, type CorruptInput, type Expectation } from '../../testing/corrupt';
+import { jpegSeeds, librarySeeds, measurementSeeds, mrcSeeds, patternSeeds, pngSeeds, recipeSeeds, stateSeeds, structureSeeds, tiffSeeds, type Seed } from '../../testing/fuzz-seeds';
+import { mutateBytes, mutateText } from './mutate';
+export { rng, mutateBytes, mutateText };
 
+export type Outcome = 'ok' | 'clear' | 'silent' | 'unnamed' | 'crash' | 'hang' | 'memory';
+export const OUTCOMES: readonly Outcome[] = ['ok', 'clear', 'silent', 'unnamed', 'crash', 'hang', 'memory'];
+/** The outcomes that are failures. */
+export const FAILURES: readonly Outcome[] = ['silent', 'unnamed', 'crash', 'hang', 'memory'];
 
-export type Outcome = 'ok' | 'clear' | 'crash' | 'slow' | 'memory';
-export const OUTCOMES: readonly Outcome[] = ['ok', 'clear', 'crash', 'slow', 'memory'];
-
-/** One damaged input. */
+/** One input. */
 export interface FuzzInput {
-  /** File name given to the reader (also names the seed file it came from). */
+  /** File name given to the reader (the seed's, or the corrupt class's). */
   name: string;
-  /** The mutations applied, for the report of a failure. */
+  /** The mutations applied, or the corrupt class, for the report of a failure. */
   mutation: string;
   bytes: Uint8Array;
+  /** The seed it came from (random mutations), to tell a changed PNG from its original. */
+  seed?: Uint8Array;
+  /** For corrupt-class inputs: what the reader must do. */
+  expect?: Expectation;
+}
+
+/** What a reader gave back, for the silent-acceptance checks. */
+export interface ReadReport {
+  /** Warnings or notes the reader gave with its result. */
+  warnings: string[];
+  /** Records a library import skipped, with the store and id. */
+  skipped?: { kind: string; name: string | null; reason: string }[];
+  /** Ids stored per store by a library import. */
+  stored?: Record<string, string[]>;
+  /** Problems found when the stored records were read back (library) or the result was checked. */
+  unusable?: string[];
 }
 
 /** A reader under test. */
 export interface FuzzTarget {
   id: string;
   /** Valid files this reader must read. */
-  seeds(): Promise<{ name: string; bytes: Uint8Array }[]>;
+  seeds(): Seed[];
   /** Mutates a seed into a damaged input. */
   mutate(seed: Uint8Array, r: () => number): { bytes: Uint8Array; mutation: string };
-  /** Reads the input; throws on failure; returns nothing meaningful. */
-  read(input: FuzzInput): Promise<void> | void;
-  /** True when `e` is the reader's own, clear error for this input. */
-  isClear(e: unknown, input: FuzzInput): boolean;
+  /** Reads the input; throws on failure; throws a plain Error "inconsistent result: ..." for a bad result. */
+  read(input: FuzzInput): Promise<ReadReport> | ReadReport;
+  /** True when `e` is the reader's own error. */
+  own(e: unknown): boolean;
+  /** True when the reader's error names the input's file. */
+  namesFile(e: Error, input: FuzzInput): boolean;
+  /** For a random mutation that was read without error: why it must have been refused, or null. */
+  silent?(input: FuzzInput, report: ReadReport): string | null;
 }
 
-/** The memory budget given to the image reader in the fuzz runs: declared sizes above it must be refused from the header. */
+/** The image budget in the fuzz runs: declared sizes above it must be refused from the header. */
 export const FUZZ_MAX_PIXELS = 1 << 22; // 4 Mpx = 16 MiB as Float32Array
-/** Per-input growth of heap + array buffers counted as unbounded (the seeds are < 100 kB; the budget above is 16 MiB of pixels). */
-export const MEMORY_BOUND_BYTES = 96 * 1024 * 1024;
-/** Per-input time limit. */
-export const TIME_LIMIT_MS = 5000;
+/** An input that takes longer than this hangs. */
+export const HANG_MS = 10_000;
+/** An input that makes the heap and array buffers grow by more than this is a memory bomb. */
+export const MEMORY_LIMIT_BYTES = 2 * 2 ** 30;
+/** Share of inputs drawn from the corrupt classes (the rest are random mutations of the seeds). */
+const CORRUPT_SHARE = 0.15;
 
-const enc = new TextEncoder();
 const dec = new TextDecoder();
 
-// ---- byte mutations ----
+/** An engine's own words (V8, a JSON parser, a decoder library), which must never reach the user alone. */
+const ENGINE_MESSAGES = [
+  /Cannot read propert/, /is not a function/, /is not iterable/, /Maximum call stack size exceeded/, /memory access out of bounds/,
+  /Invalid typed array length/, /Array buffer allocation failed/, /Offset is outside the bounds/, /Unexpected token/, /Unexpected end of JSON input/,
+  /in JSON at position/, /is not defined$/, /Invalid array length/, /Invalid string length/, /^unexpected EOF$/, /^invalid (block type|length\/literal|distance)$/,
+];
 
-function pick<T>(r: () => number, xs: readonly T[]): T {
-  return xs[Math.floor(r() * xs.length)];
+/** True when a message is (or ends in) an engine's own words. */
+export function isEngineMessage(message: string): boolean {
+  return ENGINE_MESSAGES.some((re) => re.test(message));
 }
 
-/** Offsets where a header field is likely: the first 300 bytes, or anywhere. */
-function spot(r: () => number, n: number): number {
-  return Math.floor(r() * (r() < 0.6 ? Math.min(300, n) : n));
-}
+const startsWithName = (e: Error, input: FuzzInput) => e.message.startsWith(`${input.name}: `);
 
-const HUGE = [0xffffffff, 0x7fffffff, 0x80000000, 0x10000, 65535, 1 << 20, 0, 1];
-
-/** Applies 1–4 random byte-level mutations. */
-export function mutateBytes(seed: Uint8Array, r: () => number): { bytes: Uint8Array; mutation: string } {
-  let b = seed.slice();
-  const done: string[] = [];
-  const count = 1 + Math.floor(r() * 4);
-  for (let k = 0; k < count; k++) {
-    const op = Math.floor(r() * 7);
-    if (b.length === 0) break;
-    if (op === 0) {
-      const at = spot(r, b.length);
-      const bit = Math.floor(r() * 8);
-      b[at] ^= 1 << bit;
-      done.push(`flip ${at}.${bit}`);
-    } else if (op === 1) {
-      const at = spot(r, b.length);
-      const n = 1 + Math.floor(r() * 8);
-      const ins = Uint8Array.from({ length: n }, () => Math.floor(r() * 256));
-      const nb = new Uint8Array(b.length + n);
-      nb.set(b.subarray(0, at));
-      nb.set(ins, at);
-      nb.set(b.subarray(at), at + n);
-      b = nb;
-      done.push(`insert ${n}@${at}`);
-    } else if (op === 2) {
-      const at = spot(r, b.length);
-      const n = Math.min(b.length - at, 1 + Math.floor(r() * 8));
-      const nb = new Uint8Array(b.length - n);
-      nb.set(b.subarray(0, at));
-      nb.set(b.subarray(at + n), at);
-      b = nb;
-      done.push(`delete ${n}@${at}`);
-    } else if (op === 3) {
-      const len = Math.floor(r() * b.length);
-      b = b.slice(0, len);
-      done.push(`truncate ${len}`);
-    } else if (op === 4 || op === 5) {
-      // Huge declared size or wrong offset: a 32-bit or 16-bit word in a header set to an extreme.
-      const at = spot(r, Math.max(1, b.length - 4));
-      const v = pick(r, HUGE);
-      const dv = new DataView(b.buffer, b.byteOffset, b.byteLength);
-      if (at + 4 <= b.length && op === 4) dv.setUint32(at, v, r() < 0.5);
-      else if (at + 2 <= b.length) dv.setUint16(at, v & 0xffff, r() < 0.5);
-      done.push(`${op === 4 ? 'u32' : 'u16'} ${v}@${at}`);
-    } else {
-      // A float word set to NaN or ±Infinity (float TIFF / MRC pixels and header fields).
-      const at = Math.floor(r() * Math.max(1, b.length - 4));
-      if (at + 4 <= b.length) new DataView(b.buffer, b.byteOffset).setFloat32(at, pick(r, [NaN, Infinity, -Infinity, 3.4e38]), true);
-      done.push(`float ${at}`);
-    }
-  }
-  return { bytes: b, mutation: done.join(', ') };
-}
-
-// ---- text mutations ----
-
-const TEXT_PIECES = ['NaN', 'Infinity', '-Infinity', '1e309', '-0', '1e-320', '""', 'null', '[]', '{}', '\u0000', '\t', ';', ',', '\n', '\r', '#', 'é', '\uFFFD', '9'.repeat(400), '0x1F', ' '];
-
-/** The first 500 matches of a global pattern (enough to pick from, cheap on long texts). */
-function firstMatches(t: string, re: RegExp): RegExpMatchArray[] {
-  const out: RegExpMatchArray[] = [];
-  for (const m of t.matchAll(re)) {
-    out.push(m);
-    if (out.length >= 500) break;
-  }
-  return out;
-}
-
-/** Applies 1–3 text mutations: tokens inserted, lines repeated/removed, very long lines, cuts. */
-export function mutateText(seed: Uint8Array, r: () => number, json: boolean): { bytes: Uint8Array; mutation: string } {
-  let t = dec.decode(seed);
-  const done: string[] = [];
-  const count = 1 + Math.floor(r() * 3);
-  for (let k = 0; k < count; k++) {
-    const op = Math.floor(r() * (json ? 8 : 7));
-    const at = Math.floor(r() * (t.length + 1));
-    if (op === 0) {
-      const p = pick(r, TEXT_PIECES);
-      t = t.slice(0, at) + p + t.slice(at);
-      done.push(`insert ${JSON.stringify(p.slice(0, 12))}@${at}`);
-    } else if (op === 1) {
-      const n = 1 + Math.floor(r() * 20);
-      t = t.slice(0, at) + t.slice(at + n);
-      done.push(`delete ${n}@${at}`);
-    } else if (op === 2) {
-      t = t.slice(0, at);
-      done.push(`truncate ${at}`);
-    } else if (op === 3) {
-      const n = 10_000 + Math.floor(r() * 200_000);
-      t = t.slice(0, at) + (r() < 0.5 ? 'x' : '7').repeat(n) + t.slice(at);
-      done.push(`long line ${n}@${at}`);
-    } else if (op === 4) {
-      const lines = t.split('\n');
-      const i = Math.floor(r() * lines.length);
-      lines.splice(i, 0, lines[i] ?? '');
-      t = lines.join('\n');
-      done.push(`repeat line ${i}`);
-    } else if (op === 5) {
-      // Replace a number with an extreme one.
-      const m = firstMatches(t, /-?\d+(\.\d+)?(e-?\d+)?/gi);
-      if (m.length) {
-        const hit = m[Math.floor(r() * m.length)];
-        const v = pick(r, ['NaN', 'Infinity', '1e308', '-1e308', '0', '-1', '4294967297', '1e-300']);
-        t = t.slice(0, hit.index) + v + t.slice(hit.index! + hit[0].length);
-        done.push(`number ${hit[0]}→${v}`);
-      }
-    } else if (op === 6) {
-      const c = t.charCodeAt(Math.min(at, t.length - 1)) ^ (1 << Math.floor(r() * 7));
-      t = t.slice(0, at) + String.fromCharCode(c) + t.slice(at + 1);
-      done.push(`flip char ${at}`);
-    } else {
-      // Deep nesting in place of a JSON value.
-      const depth = pick(r, [100, 1000, 5000, 20000]);
-      const m = firstMatches(t, /:\s*("[^"]*"|-?\d[\d.eE+-]*|true|false|null)/g);
-      if (m.length) {
-        const hit = m[Math.floor(r() * m.length)];
-        const open = r() < 0.5 ? '['.repeat(depth) : '{"a":'.repeat(depth);
-        const close = open[0] === '[' ? ']'.repeat(depth) : '}'.repeat(depth);
-        t = t.slice(0, hit.index! + 1) + open + '1' + close + t.slice(hit.index! + hit[0].length);
-        done.push(`nest ${depth}`);
-      }
-    }
-  }
-  return { bytes: enc.encode(t), mutation: done.join(', ') };
-}
-
-// ---- seeds ----
-
-function imageSeeds(): { name: string; bytes: Uint8Array }[] {
-  const r = rng(7);
-  const w = 37;
-  const h = 23;
-  const u16 = Uint16Array.from({ length: w * h }, (_, i) => (30000 + 20000 * Math.cos(i / 3) + 500 * r()) | 0);
-  const u8 = Uint8Array.from(u16, (v) => v >> 8);
-  const f32 = Float32Array.from(u16, (v) => v / 1000 - 3);
-  const out: { name: string; bytes: Uint8Array }[] = [];
-  const comps: TiffCompression[] = ['none', 'lzw', 'deflate'];
-  for (const c of comps) {
-    out.push({ name: `u8-${c}.tif`, bytes: encodeTiff({ width: w, height: h, data: u8, compression: c, rowsPerStrip: 5, resolution: { x: 4e7, unit: 'cm' } }) });
-    out.push({ name: `u16-${c}.tif`, bytes: encodeTiff({ width: w, height: h, data: u16, compression: c, rowsPerStrip: 6 }) });
-    out.push({ name: `f32-${c}.tif`, bytes: encodeTiff({ width: w, height: h, data: f32, compression: c, rowsPerStrip: 7, description: 'clay tactoids' }) });
-  }
-  out.push({ name: 'rgb.tif', bytes: encodeTiff({ width: w, height: h, data: Uint8Array.from({ length: w * h * 3 }, (_, i) => u8[(i / 3) | 0]), samplesPerPixel: 3 }) });
-  out.push({ name: 'grey16.png', bytes: encodePng({ width: w, height: h, data: u16, depth: 16, channels: 1 }) });
-  out.push({ name: 'grey8.png', bytes: encodePng({ width: w, height: h, data: u8, depth: 8, channels: 1 }) });
-  const img = new Image(w, h, { colorModel: 'GREY' });
-  img.getRawImage().data.set(u8);
-  out.push({ name: 'film.jpg', bytes: encodeRaster(img, { format: 'jpeg' }) });
-  out.push({ name: 'i16.mrc', bytes: encodeMrc({ width: w, height: h, mode: 1, data: Int16Array.from(u16, (v) => v - 32768), pixelSpacingAngstrom: 1.5 }) });
-  out.push({ name: 'f32.mrc', bytes: encodeMrc({ width: w, height: h, mode: 2, data: f32, pixelSpacingAngstrom: 2, bigEndian: true }) });
-  out.push({ name: 'u16.mrc', bytes: encodeMrc({ width: w, height: h, mode: 6, data: u16, extendedHeaderBytes: 64 }) });
-  return out;
-}
-
-function patternSeeds(): { name: string; bytes: Uint8Array }[] {
-  const rows: string[] = [];
-  for (let i = 0; i < 60; i++) {
-    const x = 2 + i * 0.05;
-    rows.push(`${x.toFixed(2)} ${(100 + 900 * Math.exp(-(((x - 3.5) / 0.2) ** 2))).toFixed(1)}`);
-  }
-  const semi = rows.map((l) => l.replace('.', ',').replace(' ', ';'));
-  const sigma = rows.map((l) => `${l.replace(' ', '\t')}\t3.0`);
-  return [
-    { name: 'film.xy', bytes: enc.encode(`# clay film, Cu K-alpha\n# 2theta counts\n${rows.join('\n')}\n`) },
-    { name: 'film-semicolon.csv', bytes: enc.encode(`2theta;counts\n${semi.join('\r\n')}`) },
-    { name: 'film-sigma.txt', bytes: enc.encode(`# lambda = 0.15406 nm\n${sigma.join('\n')}`) },
-    { name: 'film-q.dat', bytes: enc.encode(`# q (1/nm) intensity\n${rows.map((l, i) => `${(1 + i * 0.02).toFixed(3)} ${l.split(' ')[1]}`).join('\n')}`) },
-  ];
-}
-
-function recipeSeeds(): { name: string; bytes: Uint8Array }[] {
-  const d = defaultRecipe();
-  return [
-    { name: 'default.json', bytes: enc.encode(JSON.stringify(d, null, 2)) },
-    { name: 'minimal.json', bytes: enc.encode('{"schemaVersion": 1, "name": "tactoid basal spacing"}') },
-    {
-      name: 'full.json',
-      bytes: enc.encode(JSON.stringify({ ...d, name: 'film series', description: 'clay tactoids in a polymer film', acceptance: d.acceptance }, null, 1)),
+function imageTarget(id: string, seeds: () => Seed[]): FuzzTarget {
+  return {
+    id,
+    seeds,
+    mutate: mutateBytes,
+    read(input) {
+      // Corrupt-class inputs are read with the default budgets (the bombs must be refused there); random mutations with the fuzz budget.
+      const img = decodeImage(input.bytes, input.name, input.expect ? { nonFinite: 'reject' } : { maxPixels: FUZZ_MAX_PIXELS, nonFinite: 'reject' });
+      if (img.data.length !== img.width * img.height) throw new Error(`inconsistent result: ${img.data.length} pixels for ${img.width} × ${img.height}`);
+      if (!Number.isFinite(img.min) || !Number.isFinite(img.max)) throw new Error(`inconsistent result: range ${img.min}–${img.max}`);
+      for (let i = 0; i < img.data.length; i++) if (!Number.isFinite(img.data[i])) throw new Error(`inconsistent result: pixel ${i} is ${img.data[i]}`);
+      return { warnings: img.warnings };
     },
-  ];
+    own: (e) => e instanceof ImageReadError,
+    namesFile: (e, input) => startsWithName(e, input) && (e as ImageReadError).reason.length > 0,
+    silent:
+      id === 'png'
+        ? (input, report) => {
+            // Every byte of a PNG up to IEND is covered by a chunk CRC (PNG spec §5.3): a changed byte there is damage.
+            const seed = input.seed;
+            if (!seed || (input.bytes.length === seed.length && input.bytes.every((b, i) => b === seed[i]))) return null;
+            const appended = input.bytes.length > seed.length && seed.every((b, i) => b === input.bytes[i]);
+            if (appended && report.warnings.some((w) => /after the PNG's IEND/.test(w))) return null;
+            return 'a changed PNG was read without an error or a warning';
+          }
+        : undefined,
+  };
 }
 
 let dbCounter = 0;
@@ -260,67 +138,108 @@ async function freshDb(): Promise<LibraryDb> {
   return openLibrary({ name: `fuzz-${process.pid}-${dbCounter}` });
 }
 
-async function librarySeeds(): Promise<{ name: string; bytes: Uint8Array }[]> {
-  const db = await freshDb();
-  const w = 16;
-  const data = Float32Array.from({ length: w * w }, (_, i) => 100 + 50 * Math.cos(i / 2));
-  const image = makeGreyImage(w, w, data, { bitDepth: 16, sampleKind: 'uint', calibration: { nmPerPx: 0.1, source: 'manual', relUncertainty: 0.02, detail: 'typed in' } });
-  const file = Uint8Array.from({ length: 300 }, (_, i) => (i * 37) & 255);
-  const rec = await putImage(db, { bytes: file, fileName: 'film <b>"07"</b>.tif', image, mimeType: 'image/tiff' });
-  await putMeasurement(db, {
-    recordVersion: 2, id: 'm1', imageId: rec.id, fileName: rec.fileName, createdIso: '2026-01-05T10:00:00Z', tool: 'spectrum',
-    region: { kind: 'rect', x: 0, y: 0, width: 16, height: 16 }, calibration: rec.calibration, settings: { window: 'hann' },
-    periodicities: [{ periodPx: 4, angleDeg: 0, geometry: 'normal', u: { statisticalPx: 0.1, localVariationPx: 0, methodPx: 0 }, uAngleDeg: 0, strength: 9, flags: [] }],
-    detail: {}, notes: [],
-  });
-  const text = await exportLibrary(db);
-  db.close();
-  return [{ name: 'library.json', bytes: enc.encode(text) }];
-}
-
-// ---- targets ----
-
-/** A message that names the file or a line/key: what a user needs to find the fault. */
-function namesPlace(msg: string): boolean {
-  return msg.length > 0;
+/** Reads every stored record back and names those that cannot be used. */
+async function readBack(db: LibraryDb): Promise<{ stored: Record<string, string[]>; unusable: string[] }> {
+  const stored: Record<string, string[]> = {};
+  const unusable: string[] = [];
+  for (const store of ['images', 'measurements', 'calibrations', 'diffraction', 'recipes', 'batches', 'batchFiles'] as const) {
+    const all = (await db.getAll(store)) as Record<string, unknown>[];
+    stored[store] = all.map((r) => String(r.id));
+    for (const r of all) {
+      if (store === 'images') {
+        const bytes = new Uint8Array(await (r.file as Blob).arrayBuffer());
+        try {
+          const img = decodeImage(bytes, String(r.fileName), { nonFinite: 'replace' });
+          if (img.width !== r.width || img.height !== r.height) unusable.push(`images ${r.id}: ${r.width} × ${r.height} stored for a ${img.width} × ${img.height} file`);
+        } catch (e) {
+          unusable.push(`images ${r.id}: the stored file does not decode (${(e as Error).message})`);
+        }
+      }
+      if (store === 'measurements') {
+        const why = validateMeasurementShape(r);
+        if (why) unusable.push(`measurements ${r.id}: ${why}`);
+      }
+      if (store === 'calibrations' && !(typeof r.relUncertainty === 'number' && r.relUncertainty >= 0 && r.relUncertainty < 1 && (r.nmPerPx as number) > 0)) unusable.push(`calibrations ${r.id}: pixel size ${r.nmPerPx}, relative uncertainty ${r.relUncertainty}`);
+      if (store === 'recipes') {
+        try {
+          readRecipeFile(String(r.json), 'stored recipe');
+        } catch {
+          unusable.push(`recipes ${r.id}: its recipe text does not read`);
+        }
+      }
+    }
+  }
+  return { stored, unusable };
 }
 
 export const TARGETS: FuzzTarget[] = [
-  {
-    id: 'image',
-    seeds: async () => imageSeeds(),
-    mutate: mutateBytes,
-    read(input) {
-      const img = decodeImage(input.bytes, input.name, { maxPixels: FUZZ_MAX_PIXELS, nonFinite: 'reject' });
-      if (img.data.length !== img.width * img.height) throw new Error(`inconsistent result: ${img.data.length} pixels for ${img.width} × ${img.height}`);
-      if (!Number.isFinite(img.min) || !Number.isFinite(img.max)) throw new Error(`inconsistent result: range ${img.min}–${img.max}`);
-      for (let i = 0; i < img.data.length; i++) if (!Number.isFinite(img.data[i])) throw new Error(`inconsistent result: pixel ${i} is ${img.data[i]}`);
-    },
-    isClear: (e, input) => e instanceof ImageReadError && e.message.startsWith(`${input.name}: `) && e.reason.length > 0,
-  },
+  imageTarget('tiff', tiffSeeds),
+  imageTarget('png', pngSeeds),
+  imageTarget('jpeg', jpegSeeds),
+  imageTarget('mrc', mrcSeeds),
   {
     id: 'pattern',
-    seeds: async () => patternSeeds(),
+    seeds: patternSeeds,
     mutate: (s, r) => mutateText(s, r, false),
     read(input) {
-      const p = parsePattern(dec.decode(input.bytes));
+      const p = readPatternFile(dec.decode(input.bytes), input.name);
       if (p.x.length !== p.y.length || p.x.length < 3) throw new Error('inconsistent result: column lengths');
-      for (let i = 0; i < p.x.length; i++) if (!Number.isFinite(p.x[i]) || !Number.isFinite(p.y[i])) throw new Error(`inconsistent result: row ${i} not finite`);
+      for (let i = 0; i < p.x.length; i++) {
+        if (!Number.isFinite(p.x[i]) || !Number.isFinite(p.y[i])) throw new Error(`inconsistent result: row ${i} not finite`);
+        if (i > 0 && !(p.x[i] > p.x[i - 1])) throw new Error(`inconsistent result: x not increasing at row ${i}`);
+      }
+      return { warnings: p.notes };
     },
-    // parsePattern reports rows as SyntaxError "line N: ..." or "pattern has ...", and a 2θ range outside (0, 180) as a RangeError naming it.
-    isClear: (e) =>
-      (e instanceof SyntaxError && /^(line \d+: |pattern has )/.test(e.message)) ||
-      (e instanceof RangeError && /^2θ range /.test(e.message)) ||
-      (e instanceof Error && /^(wavelength|q range|x range)/i.test(e.message)),
+    own: (e) => e instanceof PatternReadError,
+    namesFile: startsWithName,
+  },
+  {
+    id: 'structure',
+    seeds: structureSeeds,
+    mutate: (s, r) => mutateText(s, r, false),
+    read(input) {
+      const s = parseCif(dec.decode(input.bytes), { fileName: input.name });
+      const c = s.cell;
+      for (const v of [c.aNm.value, c.bNm.value, c.cNm.value]) if (!(v >= 0.05 && v <= 1000)) throw new Error(`inconsistent result: cell length ${v} nm`);
+      if (s.symops.length > MAX_SYMMETRY_OPERATIONS) throw new Error(`inconsistent result: ${s.symops.length} symmetry operations`);
+      for (const a of s.atoms) if (!a.xyz.every(Number.isFinite)) throw new Error(`inconsistent result: atom ${a.label} at ${a.xyz}`);
+      try {
+        // as `match --cif` does: the reflections of the phase, a too-large job refused by name
+        const r = powderReflections(s, { dMinNm: 0.15, wavelengthNm: 0.154 });
+        for (const x of r) if (!Number.isFinite(x.dNm) || !Number.isFinite(x.intensity)) throw new Error(`inconsistent result: reflection ${x.hkl} d ${x.dNm} I ${x.intensity}`);
+      } catch (e) {
+        if (e instanceof RangeError) throw new CifError(input.name, null, e.message);
+        throw e;
+      }
+      return { warnings: s.notes };
+    },
+    own: (e) => e instanceof CifError,
+    namesFile: startsWithName,
   },
   {
     id: 'recipe',
-    seeds: async () => recipeSeeds(),
+    seeds: recipeSeeds,
     mutate: (s, r) => mutateText(s, r, true),
     read(input) {
-      parseRecipe(dec.decode(input.bytes));
+      readRecipeFile(dec.decode(input.bytes), input.name);
+      return { warnings: [] };
     },
-    isClear: (e) => e instanceof RecipeError && namesPlace(e.message),
+    own: (e) => e instanceof RecipeError,
+    namesFile: startsWithName,
+  },
+  {
+    id: 'measurement',
+    seeds: measurementSeeds,
+    mutate: (s, r) => mutateText(s, r, true),
+    read(input) {
+      const rep = readMeasurementReport(dec.decode(input.bytes), input.name);
+      // as `match` does: the periods against a few lines
+      const rec = reconcile({ periods: rep.periods, sheets: rep.sheets ?? undefined, calibrationRelUncertainty: rep.relUncertainty ?? undefined }, { lines: [{ dNm: 0.74, dUncNm: 0.001, label: '001' }, { dNm: 0.443, dUncNm: 0.001, label: '110' }] });
+      if (rec.best.length !== rep.periods.length) throw new Error('inconsistent result: best pairs');
+      return { warnings: rep.notes };
+    },
+    own: (e) => e instanceof ReportError,
+    namesFile: startsWithName,
   },
   {
     id: 'library',
@@ -329,15 +248,40 @@ export const TARGETS: FuzzTarget[] = [
     async read(input) {
       const db = await freshDb();
       try {
-        await importLibrary(db, dec.decode(input.bytes));
+        const summary = await importLibrary(db, dec.decode(input.bytes), { fileName: input.name });
+        const back = await readBack(db);
+        return { warnings: summary.skipped.map((k) => k.reason), skipped: summary.skipped, ...back };
       } finally {
         db.close();
         indexedDB.deleteDatabase(db.name);
       }
     },
-    isClear: (e) => e instanceof ImportError && /Nothing was imported|not usable|is not/.test(e.message),
+    own: (e) => e instanceof ImportError,
+    namesFile: (e, input) => e.message.includes(`The library file ${input.name} `),
+    silent: (_input, report) => (report.unusable && report.unusable.length ? `stored unusable records: ${report.unusable.join('; ')}` : null),
+  },
+  {
+    id: 'state',
+    seeds: stateSeeds,
+    mutate: (s, r) => mutateText(s, r, true),
+    read(input) {
+      parseState(dec.decode(input.bytes));
+      return { warnings: [] };
+    },
+    // the state file has one fixed name, batch-state.json: its errors call it "batch state"
+    own: (e) => e instanceof Error && /^batch state /.test(e.message),
+    namesFile: (e) => /^batch state /.test(e.message),
   },
 ];
+
+/** The corrupt-class inputs are drawn by reader id. */
+export function corruptInput(target: FuzzTarget, r: () => number, i: number): FuzzInput | null {
+  const classes = classesOf(target.id);
+  if (classes.length === 0) return null;
+  const c = classes[i % classes.length];
+  const made: CorruptInput = c.make(r);
+  return { name: made.name, mutation: `class ${c.id}: ${made.cls}`, bytes: made.bytes, expect: made.expect };
+}
 
 function memoryNow(): number {
   const m = process.memoryUsage();
@@ -346,8 +290,19 @@ function memoryNow(): number {
 
 const gc = (globalThis as { gc?: () => void }).gc;
 
+/** Checks a report against what a corrupt-class input expects: the reason it is silent, or null. */
+function expectationMissed(input: FuzzInput, report: ReadReport): string | null {
+  const x = input.expect!;
+  if (x.kind === 'accept') return null;
+  if (x.kind === 'refuse') return 'read without an error';
+  if (x.kind === 'warn') return report.warnings.some((w) => x.warning.test(w)) ? null : `read without the warning ${x.warning}`;
+  if (report.stored?.[x.store]?.includes(x.id)) return `${x.store} ${x.id} was stored`;
+  if (!report.skipped?.some((k) => k.kind === x.store)) return `${x.store} ${x.id} was not reported as skipped`;
+  return null;
+}
+
 /** Runs one input and classifies it. */
-export async function runOne(target: FuzzTarget, input: FuzzInput): Promise<{ outcome: Outcome; detail: string; ms: number }> {
+export async function runOne(target: FuzzTarget, input: FuzzInput): Promise<{ outcome: Outcome; detail: string; ms: number; grownBytes: number }> {
   gc?.();
   const before = memoryNow();
   let peak = before;
@@ -355,26 +310,48 @@ export async function runOne(target: FuzzTarget, input: FuzzInput): Promise<{ ou
   let outcome: Outcome = 'ok';
   let detail = '';
   try {
-    await target.read(input);
+    const report = await target.read(input);
     peak = Math.max(peak, memoryNow());
+    const why = input.expect ? expectationMissed(input, report) : target.silent?.(input, report) ?? null;
+    if (why) {
+      outcome = 'silent';
+      detail = why;
+    } else if (target.id === 'library' && report.unusable?.length) {
+      outcome = 'silent';
+      detail = `stored unusable records: ${report.unusable.join('; ')}`;
+    }
   } catch (e) {
     peak = Math.max(peak, memoryNow());
-    if (target.isClear(e, input)) outcome = 'clear';
-    else {
+    if (target.own(e)) {
+      const err = e as Error;
+      if (!target.namesFile(err, input) || isEngineMessage(err.message)) {
+        outcome = 'unnamed';
+        detail = err.message.slice(0, 240);
+      } else if (input.expect?.kind === 'refuse' && input.expect.message && !input.expect.message.test(err.message)) {
+        // refused, but for another reason than the class: still a clear error, noted in the detail
+        outcome = 'clear';
+        detail = err.message.slice(0, 240);
+      } else outcome = 'clear';
+      if (outcome === 'clear' && input.expect && input.expect.kind !== 'refuse') {
+        outcome = 'silent';
+        detail = `refused where the class expects ${input.expect.kind}: ${err.message.slice(0, 200)}`;
+      }
+    } else {
       outcome = 'crash';
       detail = e instanceof Error ? `${e.name}: ${e.message.slice(0, 200)}\n${(e.stack ?? '').split('\n').slice(1, 4).join('\n')}` : String(e);
     }
   }
   const ms = performance.now() - t0;
-  if (outcome !== 'crash' && ms > TIME_LIMIT_MS) {
-    outcome = 'slow';
+  const grownBytes = peak - before;
+  if (outcome !== 'crash' && ms > HANG_MS) {
+    outcome = 'hang';
     detail = `${ms.toFixed(0)} ms`;
   }
-  if (outcome !== 'crash' && peak - before > MEMORY_BOUND_BYTES) {
+  if (outcome !== 'crash' && grownBytes > MEMORY_LIMIT_BYTES) {
     outcome = 'memory';
-    detail = `${((peak - before) / 1048576).toFixed(0)} MiB`;
+    detail = `${(grownBytes / 2 ** 20).toFixed(0)} MiB`;
   }
-  return { outcome, detail, ms };
+  return { outcome, detail, ms, grownBytes };
 }
 
 /** Tallies of one target's run. */
@@ -383,51 +360,71 @@ export interface TargetTally {
   counts: Record<Outcome, number>;
   failures: { input: string; mutation: string; outcome: Outcome; detail: string }[];
   longestMs: number;
+  /** Largest growth of heap + array buffers for one input, bytes. */
+  peakGrownBytes: number;
+  /** Inputs drawn from the corrupt classes. */
+  corruptInputs: number;
+}
+
+/** An empty tally. */
+export function newTally(id: string): TargetTally {
+  return { id, counts: { ok: 0, clear: 0, silent: 0, unnamed: 0, crash: 0, hang: 0, memory: 0 }, failures: [], longestMs: 0, peakGrownBytes: 0, corruptInputs: 0 };
 }
 
 /** Makes input number `i` of a target from its seeds (deterministic in seed and i). */
-export function makeInput(target: FuzzTarget, seeds: { name: string; bytes: Uint8Array }[], seed: number, i: number): FuzzInput {
+export function makeInput(target: FuzzTarget, seeds: Seed[], seed: number, i: number): FuzzInput {
   const r = rng((seed * 1_000_003 + i * 7919 + target.id.length * 104729) >>> 0);
+  if (r() < CORRUPT_SHARE) {
+    const c = corruptInput(target, r, i);
+    if (c) return c;
+  }
   const s = seeds[Math.floor(r() * seeds.length)];
   const m = target.mutate(s.bytes, r);
-  return { name: s.name, mutation: m.mutation, bytes: m.bytes };
+  return { name: s.name, mutation: m.mutation, bytes: m.bytes, seed: s.bytes };
+}
+
+/** Adds one outcome to a tally. */
+export function count(tally: TargetTally, input: FuzzInput, i: number, res: { outcome: Outcome; detail: string; ms: number; grownBytes?: number }): void {
+  tally.counts[res.outcome]++;
+  tally.longestMs = Math.max(tally.longestMs, res.ms);
+  tally.peakGrownBytes = Math.max(tally.peakGrownBytes, res.grownBytes ?? 0);
+  if (input.expect) tally.corruptInputs++;
+  if (FAILURES.includes(res.outcome)) tally.failures.push({ input: `${input.name} #${i}`, mutation: input.mutation, outcome: res.outcome, detail: res.detail });
 }
 
 /**
- * Runs `count` inputs (or until `deadlineMs` of wall time) of one target.
+ * Runs `count` inputs (or until `deadline` of wall time) of one target.
  *
  * @param target the reader
  * @param seed the run's seed
- * @param count most inputs to try
+ * @param n most inputs to try
  * @param deadline performance.now() value after which no new input is started
+ * @returns the tallies; the valid seeds are read first and must all give ok
  */
-export async function fuzzTarget(target: FuzzTarget, seed: number, count: number, deadline = Infinity): Promise<TargetTally> {
-  const seeds = await target.seeds();
-  const tally: TargetTally = { id: target.id, counts: { ok: 0, clear: 0, crash: 0, slow: 0, memory: 0 }, failures: [], longestMs: 0 };
-  // The undamaged seeds must read.
+export async function fuzzTarget(target: FuzzTarget, seed: number, n: number, deadline = Infinity): Promise<TargetTally> {
+  const seeds = target.seeds();
+  const tally = newTally(target.id);
   for (const s of seeds) {
-    const res = await runOne(target, { name: s.name, mutation: 'none', bytes: s.bytes });
+    const res = await runOne(target, { name: s.name, mutation: 'none', bytes: s.bytes, seed: s.bytes });
     if (res.outcome !== 'ok') tally.failures.push({ input: s.name, mutation: 'none (valid seed)', outcome: res.outcome, detail: res.detail });
   }
-  for (let i = 0; i < count && performance.now() < deadline; i++) {
+  for (let i = 0; i < n && performance.now() < deadline; i++) {
     const input = makeInput(target, seeds, seed, i);
-    const res = await runOne(target, input);
-    tally.counts[res.outcome]++;
-    tally.longestMs = Math.max(tally.longestMs, res.ms);
-    if (res.outcome !== 'ok' && res.outcome !== 'clear') {
-      tally.failures.push({ input: `${input.name} #${i}`, mutation: input.mutation, outcome: res.outcome, detail: res.detail });
-    }
+    count(tally, input, i, await runOne(target, input));
   }
   return tally;
 }
 
 /** The tallies as a Markdown table. */
 export function table(tallies: TargetTally[]): string {
-  const head = `| reader | inputs | ${OUTCOMES.join(' | ')} | longest ms |`;
-  const sep = `|---|---:|${OUTCOMES.map(() => '---:').join('|')}|---:|`;
+  const head = `| reader | inputs | of them corrupt-class | ${OUTCOMES.map((o) => (o === 'hang' ? 'hang (> 10 s)' : o === 'memory' ? 'memory (> 2 GB)' : o)).join(' | ')} | longest ms | largest growth MiB |`;
+  const sep = `|---|---:|---:|${OUTCOMES.map(() => '---:').join('|')}|---:|---:|`;
   const rows = tallies.map((t) => {
     const n = OUTCOMES.reduce((s, o) => s + t.counts[o], 0);
-    return `| ${t.id} | ${n} | ${OUTCOMES.map((o) => t.counts[o]).join(' | ')} | ${t.longestMs.toFixed(0)} |`;
+    return `| ${t.id} | ${n} | ${t.corruptInputs} | ${OUTCOMES.map((o) => t.counts[o]).join(' | ')} | ${t.longestMs.toFixed(0)} | ${(t.peakGrownBytes / 2 ** 20).toFixed(0)} |`;
   });
-  return [head, sep, ...rows].join('\n');
+  const total = tallies.reduce((s, t) => s + OUTCOMES.reduce((a, o) => a + t.counts[o], 0), 0);
+  const sum = (o: Outcome) => tallies.reduce((s, t) => s + t.counts[o], 0);
+  const totals = `| **all** | ${total} | ${tallies.reduce((s, t) => s + t.corruptInputs, 0)} | ${OUTCOMES.map((o) => sum(o)).join(' | ')} | ${Math.max(0, ...tallies.map((t) => t.longestMs)).toFixed(0)} | ${(Math.max(0, ...tallies.map((t) => t.peakGrownBytes)) / 2 ** 20).toFixed(0)} |`;
+  return [head, sep, ...rows, totals].join('\n');
 }
