@@ -350,7 +350,25 @@ export const CORRUPT_CLASSES: CorruptClass[] = [
       return { name: 'library.json', bytes: enc.encode(JSON.stringify(l)), cls: 'library export of format version 0', expect: { kind: 'refuse', message: /formatVersion/ } };
     },
   },
+  {
+    reader: 'library', id: 'deep-nesting',
+    make: (r) => {
+      const l = libraryExport();
+      const depth = pick(r, [5000, 20000]);
+      const text = JSON.stringify(l).replace('"detail":{}', `"detail":${'{"a":'.repeat(depth)}1${'}'.repeat(depth)}`);
+      return { name: 'library.json', bytes: enc.encode(text), cls: 'record nested thousands of levels deep (found by the fuzz runner: stack overflow)', expect: { kind: 'refuse', message: /nested more than/ } };
+    },
+  },
   // ---- batch state ----
+  {
+    reader: 'state', id: 'deep-nesting',
+    make: (r) => {
+      const s = new TextDecoder().decode(stateSeeds()[0].bytes);
+      const depth = pick(r, [1000, 5000]);
+      const text = s.replace(/"sha256": "[0-9a-f]+"/, `"sha256": ${'['.repeat(depth)}1${']'.repeat(depth)}`);
+      return { name: 'batch-state.json', bytes: enc.encode(text), cls: 'state entry nested thousands of levels deep (found by the fuzz runner: stack overflow)', expect: { kind: 'refuse', message: /malformed/ } };
+    },
+  },
   {
     reader: 'state', id: 'half-written',
     make: (r) => {

@@ -58,7 +58,7 @@ export function parseState(text: string): BatchState {
   }
   const o = v as Partial<BatchState> | null;
   if (!o || typeof o !== 'object' || Array.isArray(o) || o.schemaVersion !== STATE_SCHEMA_VERSION) {
-    const sv = o && typeof o === 'object' ? o.schemaVersion : undefined;
+    const sv: unknown = o && typeof o === 'object' ? o.schemaVersion : undefined;
     // only a number or a short text is shown: a nested value would overflow the stack when written out
     const shown = typeof sv === 'number' || (typeof sv === 'string' && sv.length < 40) ? JSON.stringify(sv) : typeof sv === 'object' && sv !== null ? 'a list or an object' : String(sv);
     throw new Error(`batch state has schemaVersion ${shown}, expected ${STATE_SCHEMA_VERSION}`);
