@@ -15,7 +15,15 @@ export const PAGE_POLICY =
  */
 export const CONTENT_SECURITY_POLICY = `${PAGE_POLICY}; frame-ancestors 'none'`;
 
-/** Every header sent with every response (OWASP Secure Headers Project, common practice). */
+/**
+ * The policy of the app's workers (sent with every script: a worker's policy is its script
+ * response's, W3C CSP Level 3 §4.2.2): the page's, with 'unsafe-eval' added, since opencv.js
+ * compiles helpers from text inside its worker and stops without it. The network stays closed to
+ * anything but the app's own origin.
+ */
+export const WORKER_POLICY = PAGE_POLICY.replace("script-src 'self' 'wasm-unsafe-eval'", "script-src 'self' 'wasm-unsafe-eval' 'unsafe-eval'");
+
+/** Every header sent with every response (OWASP Secure Headers Project, common practice); documents get CONTENT_SECURITY_POLICY, scripts WORKER_POLICY. */
 export const SECURITY_HEADERS = Object.freeze({
   'content-security-policy': CONTENT_SECURITY_POLICY,
   // the same for browsers without frame-ancestors (RFC 7034)

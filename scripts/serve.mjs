@@ -3,7 +3,7 @@
 // Content-Security-Policy with frame-ancestors 'none', nosniff, no referrer...).
 // Usage: node scripts/serve.mjs [--port N] [--dir DIR]
 import { createServer } from 'node:http';
-import { SECURITY_HEADERS } from './security-headers.mjs';
+import { SECURITY_HEADERS, WORKER_POLICY } from './security-headers.mjs';
 import { readFile, stat } from 'node:fs/promises';
 import { extname, join, normalize, resolve } from 'node:path';
 
@@ -29,7 +29,7 @@ const TYPES = {
 export function serve({ dir = 'dist', port = 8173, host = '127.0.0.1' } = {}) {
   const root = resolve(dir);
   const server = createServer(async (req, res) => {
-    for (const [name, value] of Object.entries(SECURITY_HEADERS)) res.setHeader(name, value);
+    for (const [name, value] of Object.entries(SECURITY_HEADERS)) if (name !== 'content-security-policy') res.setHeader(name, value);
     try {
       const url = new URL(req.url ?? '/', 'http://localhost');
       let path = decodeURIComponent(url.pathname);
@@ -45,8 +45,13 @@ export function serve({ dir = 'dist', port = 8173, host = '127.0.0.1' } = {}) {
         return;
       }
       const body = await readFile(file);
+      const type = TYPES[extname(file).toLowerCase()] ?? 'application/octet-stream';
+      // A document gets the page's policy (with frame-ancestors); a script gets the workers' policy,
+      // which governs a worker started from it (opencv.js needs 'unsafe-eval' there).
+      if (type.startsWith('text/html')) res.setHeader('content-security-policy', SECURITY_HEADERS['content-security-policy']);
+      else if (type.startsWith('text/javascript')) res.setHeader('content-security-policy', WORKER_POLICY);
       res.writeHead(200, {
-        'content-type': TYPES[extname(file).toLowerCase()] ?? 'application/octet-stream',
+        'content-type': type,
         'cache-control': path === '/sw.js' || path === '/index.html' ? 'no-cache' : 'public, max-age=0',
       });
       res.end(body);

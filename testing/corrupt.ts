@@ -20,7 +20,9 @@ export type Expectation =
   /** (library import) the record with this id skipped, never stored */
   | { kind: 'skip'; store: string; id: string }
   /** a result, within the time and memory bounds (hostile but valid) */
-  | { kind: 'accept' };
+  | { kind: 'accept' }
+  /** a result or a clear error, within the time and memory bounds */
+  | { kind: 'any' };
 
 /** One corrupt input. */
 export interface CorruptInput extends Seed {
@@ -290,6 +292,20 @@ export const CORRUPT_CLASSES: CorruptClass[] = [
     make: (r) => {
       const v = pick(r, ['1e16', '-5.64', '0', '1e-9', '?', '1e400']);
       return { name: 'cell.cif', bytes: enc.encode(syntheticCif().replace('_cell_length_b 5.6402(1)', `_cell_length_b ${v}`)), cls: 'absurd cell (a = 10¹⁵ nm, negative lengths)', expect: { kind: 'refuse', message: /_cell_length_b/ } };
+    },
+  },
+  {
+    reader: 'structure', id: 'long-number',
+    make: (r) => {
+      // a value of 200,000 digits before a number (found by the fuzz runner: the number pattern backtracked quadratically)
+      const digits = pick(r, ['7', '1', '0']).repeat(50_000 + Math.floor(r() * 150_000));
+      const [from, to] = pick(r, [
+        ['Cl1 Cl 0.5 0.5 0.5', `Cl1 Cl ${digits}-0.5 0.5 0.5`],
+        ['_cell_angle_beta 90', `_cell_angle_beta ${digits}x`],
+        ["'x,y,z'", `'${digits}x,y,z'`],
+      ] as const);
+      const text = syntheticCif().replace(from, to);
+      return { name: 'digits.cif', bytes: enc.encode(text), cls: 'a value of 200,000 digits (quadratic number pattern)', expect: { kind: 'any' } };
     },
   },
   // ---- diffraction patterns ----

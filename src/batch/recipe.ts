@@ -209,7 +209,8 @@ const NM_PER_UNIT: Record<string, number> = { nm: 1, 'Å': 0.1, A: 0.1, angstrom
 function lengthNmAt(v: Json, path: string): number {
   if (typeof v === 'number') return numberAt(v, path, { min: 0, minExclusive: true });
   if (typeof v === 'string') {
-    const m = /^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*([^\s\d]+)\s*$/.exec(v);
+    // linear-time pattern: the fraction needs its dot (no nested optional digits to backtrack through)
+    const m = v.length > 64 ? null : /^\s*([-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?)\s*([^\s\d]+)\s*$/.exec(v);
     if (!m) throw new RecipeError(path, `must be a length in nm (a number, or a string like "1.2 nm"), got ${describe(v)}`);
     const unit = m[2];
     if (unit === 'px' || unit === 'pixel' || unit === 'pixels') {

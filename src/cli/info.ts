@@ -17,6 +17,8 @@ Options:
   --json                one JSON object on standard output instead of text
   --replace-nonfinite   set NaN/infinite pixels to the median of the others instead of refusing the file
   --max-pixels N        largest image accepted, in pixels (default 268435456 = 16384²)
+  --max-decompressed-bytes N
+                        most bytes compressed image data may expand to (default 1073741824 = 1 GiB)
 `;
 
 /** The JSON shape printed by `info --json`. */
@@ -90,7 +92,7 @@ export const command: CliCommand = {
   summary: 'size, pixel type, value range and metadata calibration of an image file',
   usage,
   async run(args: string[], io: CliIo): Promise<number> {
-    const { positional, options, flags } = parseArgs(args, { values: ['max-pixels'], booleans: ['json', 'replace-nonfinite'] });
+    const { positional, options, flags } = parseArgs(args, { values: ['max-pixels', 'max-decompressed-bytes'], booleans: ['json', 'replace-nonfinite'] });
     if (positional.length !== 1) throw new UsageError(`expected one IMAGE file, got ${positional.length} arguments\n${usage}`);
     const file = positional[0];
     let maxPixels: number | undefined;
@@ -98,6 +100,12 @@ export const command: CliCommand = {
       const text = options.get('max-pixels') ?? '';
       maxPixels = Number(text);
       if (!Number.isInteger(maxPixels) || maxPixels < 1) throw new UsageError(`--max-pixels must be a positive integer, got '${text}'`);
+    }
+    let maxDecompressedBytes: number | undefined;
+    if (options.has('max-decompressed-bytes')) {
+      const text = options.get('max-decompressed-bytes') ?? '';
+      maxDecompressedBytes = Number(text);
+      if (!Number.isInteger(maxDecompressedBytes) || maxDecompressedBytes < 1) throw new UsageError(`--max-decompressed-bytes must be a positive integer, got '${text}'`);
     }
     let bytes: Uint8Array;
     try {
@@ -107,7 +115,7 @@ export const command: CliCommand = {
       const reason = code === 'ENOENT' ? 'no such file' : code === 'EISDIR' ? 'is a directory' : code === 'EACCES' ? 'permission denied' : (e as Error).message;
       throw new ImageReadError(file, reason);
     }
-    const image = decodeImage(bytes, file, { maxPixels, nonFinite: flags.has('replace-nonfinite') ? 'replace' : 'reject' });
+    const image = decodeImage(bytes, file, { maxPixels, maxDecompressedBytes, nonFinite: flags.has('replace-nonfinite') ? 'replace' : 'reject' });
     const report = infoReport(file, image);
     io.out(flags.has('json') ? JSON.stringify(report, null, 2) + '\n' : formatInfo(report));
     return 0;

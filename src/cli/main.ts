@@ -16,6 +16,9 @@ async function loadCommands(): Promise<CliCommand[]> {
   return modules.map((m) => m.command);
 }
 
+/** Error classes only the JavaScript engine throws for a fault of the program. */
+const ENGINE_ERRORS = new Set(['TypeError', 'ReferenceError', 'InternalError', 'EvalError']);
+
 const nodeIo: CliIo = {
   out: (text) => process.stdout.write(text),
   err: (text) => process.stderr.write(text),
@@ -60,7 +63,10 @@ export async function main(argv: string[], io: CliIo = nodeIo): Promise<number> 
     return await command.run(rest, io);
   } catch (e) {
     const message = e instanceof Error ? e.message : String(e);
-    io.err(`stratameter ${name}: ${message}\n`);
+    // Errors are written for the user (the readers' name the file); a JavaScript engine's own
+    // error is a fault of the program and is said to be one (never the engine's message alone).
+    const own = !(e instanceof Error) || !(ENGINE_ERRORS.has(e.name) || /Maximum call stack|memory access out of bounds|Cannot read propert|is not a function|Array buffer allocation failed/.test(e.message));
+    io.err(own ? `stratameter ${name}: ${message}\n` : `stratameter ${name}: an internal error stopped the command (${e instanceof Error ? e.name : 'error'}: ${message}); please report it with the command line that caused it\n`);
     return e instanceof UsageError ? 2 : 1;
   }
 }

@@ -49,9 +49,16 @@ export interface CifStructure {
   notes: string[];
 }
 
+/** Longest text read as a number (a CIF number with its su is a few dozen characters). */
+const MAX_NUMBER_CHARS = 64;
+/** Longest text read as a symmetry operation. */
+const MAX_SYMOP_CHARS = 256;
+
 /** Reads "5.1963(4)" as { value: 5.1963, su: 0.0004 }; "?" and "." give NaN. */
 export function parseCifNumber(text: string): CifNumber {
-  const m = /^([-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?)(\((\d+)\))?$/.exec(text.trim());
+  // No number of a structure file is this long; the pattern below has no nested optional digits, so it runs in linear time.
+  if (text.length > MAX_NUMBER_CHARS) return { value: NaN, su: 0 };
+  const m = /^([-+]?(\d+(?:\.\d*)?|\.\d+)([eE][-+]?\d+)?)(\((\d+)\))?$/.exec(text.trim());
   if (!m) return { value: NaN, su: 0 };
   const value = Number(m[1]);
   let su = 0;
@@ -201,7 +208,7 @@ function parseComponent(expr: string, op: string): { row: number[]; t: number } 
   const row = [0, 0, 0];
   let t = 0;
   const s = expr.replace(/\s+/g, '').toLowerCase();
-  const re = /([-+]?)(\d*\.?\d*(?:\/\d+)?)\*?([xyz]?)/g;
+  const re = /([-+]?)((?:\d+(?:\.\d*)?|\.\d+)?(?:\/\d+)?)\*?([xyz]?)/g;
   let m: RegExpExecArray | null;
   let consumed = 0;
   while ((m = re.exec(s)) !== null) {
@@ -227,6 +234,7 @@ function parseComponent(expr: string, op: string): { row: number[]; t: number } 
 
 /** Parses a symmetry operation 'x,y,z' style. */
 export function parseSymOp(text: string): SymOp {
+  if (text.length > MAX_SYMOP_CHARS) throw new SyntaxError(`symmetry operation '${text.slice(0, 40)}...' is ${text.length} characters long; an operation is a few dozen`);
   const parts = text.split(',');
   if (parts.length !== 3) throw new SyntaxError(`symmetry operation '${text}' does not have three components`);
   const r: number[] = [];

@@ -293,7 +293,7 @@ const gc = (globalThis as { gc?: () => void }).gc;
 /** Checks a report against what a corrupt-class input expects: the reason it is silent, or null. */
 function expectationMissed(input: FuzzInput, report: ReadReport): string | null {
   const x = input.expect!;
-  if (x.kind === 'accept') return null;
+  if (x.kind === 'accept' || x.kind === 'any') return null;
   if (x.kind === 'refuse') return 'read without an error';
   if (x.kind === 'warn') return report.warnings.some((w) => x.warning.test(w)) ? null : `read without the warning ${x.warning}`;
   if (report.stored?.[x.store]?.includes(x.id)) return `${x.store} ${x.id} was stored`;
@@ -332,7 +332,7 @@ export async function runOne(target: FuzzTarget, input: FuzzInput): Promise<{ ou
         outcome = 'clear';
         detail = err.message.slice(0, 240);
       } else outcome = 'clear';
-      if (outcome === 'clear' && input.expect && input.expect.kind !== 'refuse') {
+      if (outcome === 'clear' && input.expect && input.expect.kind !== 'refuse' && input.expect.kind !== 'any') {
         outcome = 'silent';
         detail = `refused where the class expects ${input.expect.kind}: ${err.message.slice(0, 200)}`;
       }

@@ -5,7 +5,7 @@ import { join } from 'node:path';
 import { afterAll, beforeAll, expect, test } from 'vitest';
 // @ts-expect-error plain JavaScript module without types
 import { serve } from '../../scripts/serve.mjs';
-import { CONTENT_SECURITY_POLICY, PAGE_POLICY, SECURITY_HEADERS } from '../../scripts/security-headers.mjs';
+import { CONTENT_SECURITY_POLICY, PAGE_POLICY, SECURITY_HEADERS, WORKER_POLICY } from '../../scripts/security-headers.mjs';
 
 // The local server's headers (W3C CSP Level 3; OWASP Secure Headers Project, common practice).
 let dir = '';
@@ -14,6 +14,7 @@ let close: () => void = () => {};
 beforeAll(async () => {
   dir = await mkdtemp(join(tmpdir(), 'serve-'));
   await writeFile(join(dir, 'index.html'), readFileSync('public/index.html'));
+  await writeFile(join(dir, 'worker.js'), 'self.onmessage = () => {};\n');
   const s = (await serve({ dir, port: 0 })) as { server: { close(): void }; url: string };
   url = s.url;
   close = () => s.server.close();
@@ -31,10 +32,14 @@ test("the page's meta policy is the one the server sends, which adds frame-ances
   expect(PAGE_POLICY).not.toMatch(/'unsafe-inline'|'unsafe-eval'/);
 });
 
-test('every response, found or not, carries the security headers', async () => {
-  for (const path of ['', 'index.html', 'missing.js', '..%2f..%2fetc%2fpasswd']) {
+test('every response, found or not, carries the hardening headers; the page its policy, a script the workers\' policy', async () => {
+  for (const path of ['', 'index.html', 'worker.js', 'missing.js', '..%2f..%2fetc%2fpasswd']) {
     const res = await fetch(url + path);
-    for (const [name, value] of Object.entries(SECURITY_HEADERS)) expect(res.headers.get(name), `${path} ${name}`).toBe(value);
+    for (const [name, value] of Object.entries(SECURITY_HEADERS)) if (name !== 'content-security-policy') expect(res.headers.get(name), `${path} ${name}`).toBe(value);
   }
+  expect((await fetch(url)).headers.get('content-security-policy')).toBe(CONTENT_SECURITY_POLICY);
+  // a worker's policy is its script response's (CSP 3 §4.2.2): the page's plus 'unsafe-eval' for opencv.js, the network still closed
+  expect((await fetch(`${url}worker.js`)).headers.get('content-security-policy')).toBe(WORKER_POLICY);
+  expect(WORKER_POLICY).toBe(PAGE_POLICY.replace("script-src 'self' 'wasm-unsafe-eval'", "script-src 'self' 'wasm-unsafe-eval' 'unsafe-eval'"));
   expect((await fetch(`${url}missing.js`)).status).toBe(404);
 });
