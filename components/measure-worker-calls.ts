@@ -111,18 +111,20 @@ export async function regionSpectrum(args: SpectrumArgs): Promise<SpectrumResult
   };
 }
 
-/** The spot nearest a clicked frequency, refined like the automatic ones. */
+/** The spot nearest a clicked frequency, refined and budgeted like the automatic ones. */
 export async function addSpotNear(args: SpotNearArgs): Promise<{ spot: Spot | null }> {
   checkImage(args.image);
   const { powerSpectrum } = await import('../src/measure/spectrum');
-  const { refineData, refineSpot } = await import('../src/measure/refine');
+  const { refineData } = await import('../src/measure/refine');
   const { spotNear } = await import('../src/measure/spot-near');
+  const { complexSpectrum } = await import('../src/measure/spot-field');
+  const { budgetSpot } = await import('../src/measure/spot-budget');
   const s = args.settings;
   const sp = await powerSpectrum(args.image, null, { window: s.window, tukeyAlpha: s.tukeyAlpha });
   const spot = spotNear(sp, args.fx, args.fy, { radiusBins: args.radiusBins ?? 3 });
   if (!spot) return { spot: null };
-  const refined = refineSpot(refineData(args.image, sp.area), spot);
-  return { spot: refined ?? spot };
+  const b = await budgetSpot(args.image, refineData(args.image, sp.area), await complexSpectrum(args.image, sp.area), spot);
+  return { spot: b.spot };
 }
 
 /** The region and its Fourier-filtered version (chosen spots and Friedel mates), as pictures. */

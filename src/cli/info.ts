@@ -8,14 +8,15 @@ import { parseArgs, UsageError } from './command';
 import { decodeImage, ImageReadError } from '../image/decode';
 import type { GreyImage } from '../image/grey-image';
 
-const usage = `Usage: stratameter info IMAGE [--json] [--replace-nonfinite] [--max-pixels N]
+const usage = `Usage: stratameter info IMAGE [--json] [--reject-nonfinite] [--max-pixels N]
 
 Reads IMAGE (TIFF, PNG, JPEG or MRC) and prints its size, pixel type, value range, the pixel
 size found in its metadata and any warnings made while reading.
 
 Options:
   --json                one JSON object on standard output instead of text
-  --replace-nonfinite   set NaN/infinite pixels to the median of the others instead of refusing the file
+  --reject-nonfinite    refuse a file with NaN/infinite pixels (by default they are set to the
+                        median of the other pixels, and a warning says how many)
   --max-pixels N        largest image accepted, in pixels (default 268435456 = 16384²)
   --max-decompressed-bytes N
                         most bytes compressed image data may expand to (default 1073741824 = 1 GiB)
@@ -92,7 +93,7 @@ export const command: CliCommand = {
   summary: 'size, pixel type, value range and metadata calibration of an image file',
   usage,
   async run(args: string[], io: CliIo): Promise<number> {
-    const { positional, options, flags } = parseArgs(args, { values: ['max-pixels', 'max-decompressed-bytes'], booleans: ['json', 'replace-nonfinite'] });
+    const { positional, options, flags } = parseArgs(args, { values: ['max-pixels', 'max-decompressed-bytes'], booleans: ['json', 'reject-nonfinite'] });
     if (positional.length !== 1) throw new UsageError(`expected one IMAGE file, got ${positional.length} arguments\n${usage}`);
     const file = positional[0];
     let maxPixels: number | undefined;
@@ -115,7 +116,7 @@ export const command: CliCommand = {
       const reason = code === 'ENOENT' ? 'no such file' : code === 'EISDIR' ? 'is a directory' : code === 'EACCES' ? 'permission denied' : (e as Error).message;
       throw new ImageReadError(file, reason);
     }
-    const image = decodeImage(bytes, file, { maxPixels, maxDecompressedBytes, nonFinite: flags.has('replace-nonfinite') ? 'replace' : 'reject' });
+    const image = decodeImage(bytes, file, { maxPixels, maxDecompressedBytes, nonFinite: flags.has('reject-nonfinite') ? 'reject' : 'replace' });
     const report = infoReport(file, image);
     io.out(flags.has('json') ? JSON.stringify(report, null, 2) + '\n' : formatInfo(report));
     return 0;

@@ -155,7 +155,7 @@ export function handleNonFinite(data: Float32Array, policy: 'reject' | 'replace'
   for (let i = 0; i < data.length; i++) if (!Number.isFinite(data[i])) bad++;
   if (bad === 0) return;
   if (policy === 'reject') {
-    fail(`${bad} of ${data.length} pixels are NaN or infinite (read with nonFinite 'replace' to set them to the median of the finite pixels)`);
+    fail(`${bad} of ${data.length} pixels are NaN or infinite (refused on request; by default they are set to the median of the finite pixels)`);
   }
   const finite = new Float32Array(data.length - bad);
   let n = 0;

@@ -36,8 +36,9 @@ export interface DecodeOptions {
    */
   maxDecompressedBytes?: number;
   /**
-   * NaN or ±Infinity pixels: 'reject' (default) refuses the file, naming how many there are;
-   * 'replace' sets them to the median of the finite pixels and adds a warning with the count.
+   * NaN or ±Infinity pixels: 'replace' (default) sets them to the median of the finite pixels and
+   * adds a warning with the count, so the image is measured; 'reject' refuses the file, naming
+   * how many there are.
    */
   nonFinite?: NonFinitePolicy;
   /**
@@ -112,7 +113,7 @@ export function decodeImage(bytes: Uint8Array, fileName: string, options: Decode
   if (!Number.isInteger(maxPixels) || maxPixels < 1) throw new RangeError(`maxPixels must be a positive integer, got ${maxPixels}`);
   const maxDecompressedBytes = options.maxDecompressedBytes ?? DEFAULT_MAX_DECOMPRESSED_BYTES;
   if (!Number.isInteger(maxDecompressedBytes) || maxDecompressedBytes < 1) throw new RangeError(`maxDecompressedBytes must be a positive integer, got ${maxDecompressedBytes}`);
-  const nonFinite = options.nonFinite ?? 'reject';
+  const nonFinite = options.nonFinite ?? 'replace';
   if (nonFinite !== 'reject' && nonFinite !== 'replace') throw new RangeError(`nonFinite must be 'reject' or 'replace', got '${nonFinite}'`);
   const budget: Budget = { maxPixels, maxDecompressedBytes };
 

@@ -148,6 +148,7 @@ export async function analyseRegion(
   if (periodicities.length === 0) {
     notes.push(`no significant periodicity (false-alarm probability ${search.alpha} over ${search.searchedBins} bins)`);
   }
+  notes.push(...image.warnings.filter((w) => /NaN or infinite pixels were replaced/.test(w)));
   if (!image.calibration) notes.push('image not calibrated: periods in px only');
   const measurement: Measurement = {
     recordVersion: RECORD_VERSION,

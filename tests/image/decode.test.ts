@@ -226,12 +226,12 @@ describe('TIFF', () => {
     data[10] = Infinity;
     data[11] = -Infinity;
     const bytes = encodeTiff({ width: W, height: H, data });
-    expectReadError(() => decodeImage(bytes, 'nan.tif'), /3 of 1536 pixels are NaN or infinite/, 'nan.tif');
+    expectReadError(() => decodeImage(bytes, 'nan.tif', { nonFinite: 'reject' }), /3 of 1536 pixels are NaN or infinite/, 'nan.tif');
   });
 
-  test("nonFinite 'replace' sets them to the median of the finite pixels", () => {
+  test("by default (nonFinite 'replace') they are set to the median of the finite pixels, with a warning", () => {
     const data = Float32Array.from([1, 2, NaN, 4, 100, Infinity]);
-    const img = decodeImage(encodeTiff({ width: 3, height: 2, data }), 'nan.tif', { nonFinite: 'replace' });
+    const img = decodeImage(encodeTiff({ width: 3, height: 2, data }), 'nan.tif');
     expect(Array.from(img.data)).toEqual([1, 2, 3, 4, 100, 3]); // median of 1, 2, 4, 100 is 3
     expect(img.warnings.join()).toMatch(/2 NaN or infinite pixels were replaced by the median/);
   });
@@ -455,10 +455,12 @@ describe('MRC2014', () => {
     expectReadError(() => decodeImage(setMrcWord(bytes, 3, 2), 'a.mrc'), /truncated/, 'a.mrc');
   });
 
-  test('NaN in a float map is rejected', () => {
+  test('NaN in a float map is replaced by default, and rejected on request', () => {
     const d = f.slice();
     d[0] = NaN;
-    expectReadError(() => decodeImage(encodeMrc({ width: 6, height: 4, mode: 2, data: d }), 'n.mrc'), /1 of 24 pixels are NaN/, 'n.mrc');
+    const bytes = encodeMrc({ width: 6, height: 4, mode: 2, data: d });
+    expect(decodeImage(bytes, 'n.mrc').warnings.join()).toMatch(/1 NaN or infinite pixels were replaced/);
+    expectReadError(() => decodeImage(bytes, 'n.mrc', { nonFinite: 'reject' }), /1 of 24 pixels are NaN/, 'n.mrc');
   });
 });
 

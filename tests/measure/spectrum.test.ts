@@ -1,6 +1,7 @@
 import { readFileSync } from 'node:fs';
 import { describe, expect, test } from 'vitest';
 import { decodeImage } from '../../src/image/decode';
+import { encodeTiff } from '../../src/image/encode-tiff';
 import { fourierFilter } from '../../src/measure/fourier-filter';
 import { measureRegion } from '../../src/measure/measure-region';
 import {
@@ -259,4 +260,17 @@ describe('plausibility of spots', () => {
       expect(m.periodicities.indexOf(artefact)).toBeGreaterThan(0);
     }
   });
+});
+
+test('a float image with a few NaN pixels is measured, and the record says how many were replaced', async () => {
+  // 32-bit float TIFF with three dead pixels (issue "Uncertainty you can sign": such an image was refused).
+  const img = fringeImage(128, 128, [{ periodPx: 9.3, angleDeg: 20, amplitude: 5 }], 1, 4);
+  const data = Float32Array.from(img.data);
+  data[100] = NaN;
+  data[2000] = Infinity;
+  data[5000] = NaN;
+  const decoded = decodeImage(encodeTiff({ width: 128, height: 128, data }), 'dead-pixels.tif');
+  const m = await measureRegion(decoded, null);
+  expect(m.periodicities[0].periodPx).toBeCloseTo(9.3, 1);
+  expect(m.notes.join(' ')).toMatch(/3 NaN or infinite pixels were replaced by the median/);
 });
