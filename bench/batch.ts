@@ -15,8 +15,8 @@ import { availableParallelism, loadavg, tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { parseRecipe } from '../src/batch/recipe';
 import { runBatch } from '../src/cli/batch';
-import { encodeTiff } from '../src/image/encode-tiff';
-import { rng } from '../src/synthetic/random';
+import { encodeTiff } from '../testing/encode-tiff';
+import { rng } from '../testing/random';
 
 function option(name: string, fallback: number): number {
   const i = process.argv.indexOf(`--${name}`);

@@ -8,7 +8,7 @@ import { dToTwoTheta } from '../src/diffraction/bragg';
 import { fitPattern } from '../src/diffraction/peaks';
 import { scherrerSize } from '../src/diffraction/scherrer';
 import { indexSeries } from '../src/diffraction/series';
-import { syntheticPattern, type SyntheticOptions, type SyntheticPeak } from '../src/diffraction/synthetic';
+import { syntheticPattern, type SyntheticOptions, type SyntheticPeak } from '../testing/synthetic/diffraction-pattern';
 
 const CU = 0.154059292;
 const SEEDS = [1, 2, 3, 4, 5];

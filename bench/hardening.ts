@@ -18,7 +18,7 @@ import { main as cli } from '../src/cli/main';
 import { ihdr, writePng } from '../testing/png';
 import { CORRUPT_CLASSES } from '../testing/corrupt';
 import { syntheticCif } from '../testing/fuzz-seeds';
-import { rng } from '../src/synthetic/random';
+import { rng } from '../testing/random';
 
 const classBytes = (id: string, seed = 1) => CORRUPT_CLASSES.find((c) => c.id === id)!.make(rng(seed)).bytes;
 /** Time spent in the readers alone (making the hostile input is not counted). */

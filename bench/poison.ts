@@ -16,10 +16,10 @@ import { join } from 'node:path';
 import { zlibSync } from 'fflate';
 import { parseRecipe } from '../src/batch/recipe';
 import { runBatch } from '../src/cli/batch';
-import { encodeTiff } from '../src/image/encode-tiff';
+import { encodeTiff } from '../testing/encode-tiff';
 import { ihdr, writePng } from '../testing/png';
 import { CORRUPT_CLASSES } from '../testing/corrupt';
-import { rng } from '../src/synthetic/random';
+import { rng } from '../testing/random';
 
 function option(name: string, fallback: number): number {
   const i = process.argv.indexOf(`--${name}`);

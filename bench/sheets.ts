@@ -4,9 +4,9 @@
  * Targets: layer count exact for ≥ 95 % of sheets of ≥ 2 layers at moderate noise; thickness
  * within half a period; no sheets in a purely amorphous image.
  */
-import { sheetsAlongProfile } from '../src/measure/sheets';
-import { detectSheets } from '../src/measure/sheets-auto';
-import { axialDifferenceDeg } from '../src/measure/structure-tensor';
+import { sheetsAlongProfile } from '../src/sheets/profile';
+import { detectSheets } from '../src/sheets/detect';
+import { axialDifferenceDeg } from '../src/sheets/structure-tensor';
 import { gauss, rng, syntheticImage, syntheticProfile, type ImageSheet } from '../tests/sheets/synthetic';
 
 function table(head: string[], rows: (string | number)[][]): void {
@@ -183,7 +183,7 @@ for (const [label, noise] of [['amorphous film only', 0], ['film + moderate nois
     const img = syntheticImage(400, 400, [], { noise, amorphous: 0.05, seed: 100 + seed });
     sheets += detectSheets(img).sheets.length;
     // and a drawn line across the middle, 9 px wide
-    const { sheetsAlongLine } = await import('../src/measure/sheets-line');
+    const { sheetsAlongLine } = await import('../src/sheets/line');
     lineSheets += sheetsAlongLine(img, 20, 200, 380, 200, { widthPx: 9 }).sheets.length;
   }
   rowsC.push([label, 6, sheets, lineSheets]);
@@ -194,7 +194,7 @@ table(['image', 'images', 'automatic sheets', 'sheets on a line'], rowsC);
 // ---------- D: time on large images ----------
 if (parts.includes('D')) {
   console.log('## D. Time for a whole image (one run each, single thread): automatic sheets and the domain map\n');
-  const { domainMap } = await import('../src/measure/domains');
+  const { domainMap } = await import('../src/sheets/domains');
   const rowsD: (string | number)[][] = [];
   for (const n of [1024, 2048]) {
     const sheets: ImageSheet[] = [];

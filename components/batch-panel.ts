@@ -6,7 +6,7 @@ import { budgetContents, expressPeriod, formatBudget, formatPlusMinus } from '..
 import { LitElement, css, html, nothing } from 'lit';
 import { unsafeSVG } from 'lit/directives/unsafe-svg.js';
 import { batchJson, pooledStats, resultsCsv, summaryCsv, zipExports } from '../src/batch/export';
-import { histogramSvg } from '../src/batch/figure';
+import { histogramSvg } from '../src/figure/batch-figure';
 import { compareBatchWithDiffraction, comparisonCsv, diffractionOverlaySvg, type BatchComparison } from '../src/batch/compare';
 import { diffractionSideOfSet } from '../src/diffraction/stored-set';
 import { svgToPng } from './svg-png';

@@ -15,7 +15,7 @@ async function run(job: BatchJob): Promise<BatchJobReply> {
     import('../src/batch/run'),
     import('../src/batch/recipe'),
     import('../src/batch/deps'),
-    import('../src/batch/figure'),
+    import('../src/figure/batch-figure'),
   ]);
   deps ??= createBatchDeps();
   const recipe = parseRecipe(job.recipeJson);

@@ -8,7 +8,7 @@ import type { FilterArgs, FilterResult, ProfileArgs, ProfileResult, SpectrumArgs
 import type { Spot } from '../src/measure/spectrum';
 import type { Pattern } from '../src/diffraction/pattern';
 import type { PatternAnalysis } from '../src/diffraction/analyse';
-import type { AutoSheetsResult } from '../src/measure/sheets-auto';
+import type { AutoSheetsResult } from '../src/sheets/detect';
 
 export interface ComputeCalls {
   /** Decodes a file's bytes into a GreyImage. */

@@ -50,7 +50,7 @@ const handlers: Handlers = {
   filterSpots,
   autoSheets: async ({ image, polarity }) => {
     const { findScaleBar } = await import('../src/calibration/scale-bar');
-    const { detectSheets } = await import('../src/measure/sheets-auto');
+    const { detectSheets } = await import('../src/sheets/detect');
     const bar = findScaleBar(image);
     const excludedBox = bar ? bar.stripBox ?? bar.panelBox : null;
     return { sheets: detectSheets(image, { exclude: excludedBox, polarity }), excludedBox };

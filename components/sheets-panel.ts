@@ -3,10 +3,10 @@
 // or reject each sheet, histograms and statistics of the kept ones, and a CSV export.
 import { LitElement, css, html, nothing, svg } from 'lit';
 import type { GreyImage } from '../src/image/grey-image';
-import { sheetsAlongLine, type LineSheetsResult } from '../src/measure/sheets-line';
-import { sheetStatistics, type SheetStatus } from '../src/measure/sheets-auto';
+import { sheetsAlongLine, type LineSheetsResult } from '../src/sheets/line';
+import { sheetStatistics, type SheetStatus } from '../src/sheets/detect';
 import type { ComputeClient } from './compute-client';
-import { sheetSummary, type SheetSummary } from '../src/measure/sheets-measurement';
+import { sheetSummary, type SheetSummary } from '../src/sheets/record';
 import { histogram, type Summary } from '../src/measure/stats';
 import { controlStyles, panelStyles } from './styles';
 import { linePlot, plotStyles } from './plot-line';

@@ -12,9 +12,9 @@ import { writeFileSync } from 'node:fs';
 import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { encode } from 'fast-png';
-import { encodeTiff } from '../src/image/encode-tiff';
-import { drawText, fillRect, measureText, type Raster } from '../src/image/draw-text';
-import { gaussian as gauss, rng } from '../src/synthetic/random';
+import { encodeTiff } from '../testing/encode-tiff';
+import { drawText, fillRect, measureText, type Raster } from '../src/figure/draw-text';
+import { gaussian as gauss, rng } from '../testing/random';
 
 const OUT = dirname(fileURLToPath(import.meta.url));
 

@@ -5,8 +5,8 @@
  * and the regression corpus is made from them.
  */
 import { zlibSync } from 'fflate';
-import { encodeTiff } from '../src/image/encode-tiff';
-import { encodeMrc } from '../src/image/encode-mrc';
+import { encodeTiff } from './encode-tiff';
+import { encodeMrc } from './encode-mrc';
 import { b64, jpegSeeds, libraryExport, measurementSeeds, pngSeeds, sha256, stateSeeds, syntheticCif, type Seed } from './fuzz-seeds';
 import { ihdr, pngFromScanlines, readChunks, writePng } from './png';
 import { buildTiff, entryOffset, firstIfdOffset } from './tiff';

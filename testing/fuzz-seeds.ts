@@ -7,9 +7,9 @@ import { readFileSync } from 'node:fs';
 import { encode as encodePng } from 'fast-png';
 import { Image, encode as encodeRaster } from 'image-js';
 import { defaultRecipe } from '../src/batch/recipe';
-import { encodeMrc } from '../src/image/encode-mrc';
-import { encodeTiff, type TiffCompression } from '../src/image/encode-tiff';
-import { rng } from '../src/synthetic/random';
+import { encodeMrc } from './encode-mrc';
+import { encodeTiff, type TiffCompression } from './encode-tiff';
+import { rng } from './random';
 import { ihdr, readChunks, writePng } from './png';
 import { buildTiff } from './tiff';
 

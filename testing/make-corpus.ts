@@ -5,7 +5,7 @@
  */
 import { mkdirSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
 import { createHash } from 'node:crypto';
-import { rng } from '../src/synthetic/random';
+import { rng } from './random';
 import { CORRUPT_CLASSES, type Expectation } from './corrupt';
 
 const EXT: Record<string, string> = { tiff: 'tif', png: 'png', jpeg: 'jpg', mrc: 'mrc', pattern: 'xy', structure: 'cif', recipe: 'json', measurement: 'json', library: 'json', state: 'json' };

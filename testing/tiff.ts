@@ -6,7 +6,7 @@
  * TIFF Technical Note 3 (predictor 3).
  */
 import { zlibSync } from 'fflate';
-import { compressLzw } from '../src/image/encode-tiff';
+import { compressLzw } from './encode-tiff';
 
 /** A tag written as given (type 3 SHORT, 4 LONG, 5 RATIONAL as [num, den] pairs, 2 ASCII bytes, 13 IFD...). */
 export interface RawTag {

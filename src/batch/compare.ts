@@ -9,7 +9,7 @@ import { budgetCsvCells, budgetCsvHeader, formatBudget } from '../measure/measur
 import { groupAndPoolPeriods, type PeriodGroup, type SourcedPeriod } from '../measure/pool';
 import { quantile, summarize } from '../measure/stats';
 import { csvField } from './export';
-import { escapeXml } from './figure';
+import { escapeXml } from '../figure/batch-figure';
 import type { FileResult } from './run';
 
 /** Options of `batchPeriodGroups`. */

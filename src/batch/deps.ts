@@ -13,9 +13,9 @@ import { createWorkspace, type Workspace } from '../image/workspace';
 import { checkSpectrumRegion } from '../image/size-limits';
 import { measureRegion } from '../measure/measure-region';
 import { RECORD_VERSION, type Measurement, type Region } from '../measure/measurement';
-import { domainMap } from '../measure/domains';
-import { detectSheets } from '../measure/sheets-auto';
-import { autoSheetsMeasurement, domainsMeasurement } from '../measure/sheets-measurement';
+import { domainMap } from '../sheets/domains';
+import { detectSheets } from '../sheets/detect';
+import { autoSheetsMeasurement, domainsMeasurement } from '../sheets/record';
 import { findRings, powerSpectrum, radialProfile, ringPeriodicity, type RectPx } from '../measure/spectrum';
 import type { BatchDeps, SheetsResult } from './run';
 

@@ -6,6 +6,7 @@
  * A recipe is plain JSON with a `schemaVersion`. `parseRecipe` validates a recipe written by
  * hand (or stored by the app), names the path of any offending key, and fills in defaults.
  */
+import { INDICATED_MAGNIFICATION_REL } from '../calibration/calibration';
 
 /** The recipe format this code reads and writes. */
 export const RECIPE_SCHEMA_VERSION = 1;
@@ -252,7 +253,7 @@ function parseCalibration(v: Json, path: string): CalibrationRoute {
         route,
         nmPerPx: numberAt(o.nmPerPx, join(path, 'nmPerPx'), { min: 0, minExclusive: true }),
         // a typed-in value with no stated uncertainty: 5 % is the indicated-magnification tolerance (EMSA abstract)
-        relUncertainty: o.relUncertainty === undefined ? 0.05 : numberAt(o.relUncertainty, join(path, 'relUncertainty'), { min: 0, max: 1 }),
+        relUncertainty: o.relUncertainty === undefined ? INDICATED_MAGNIFICATION_REL : numberAt(o.relUncertainty, join(path, 'relUncertainty'), { min: 0, max: 1 }),
       };
     }
     default:

@@ -7,6 +7,7 @@
  * belong to the caller.
  */
 import type { Calibration, GreyImage } from '../image/grey-image';
+import { makeCalibration } from '../calibration/calibration';
 import { checkCalibration, expressPeriod, type Measurement, type Periodicity, type Region } from '../measure/measurement';
 import { RecordVersionError, upgradeMeasurement, upgradeSummaryPeriod } from '../measure/record-version';
 import type { Acceptance, AnalysisArea, CalibrationRoute, Recipe } from './recipe';
@@ -165,9 +166,9 @@ async function calibrate(image: GreyImage, route: CalibrationRoute, deps: BatchD
       return cal;
     }
     case 'profile':
-      return { nmPerPx: route.nmPerPx, source: 'profile', relUncertainty: route.relUncertainty, detail: `instrument profile ${route.profileId}` };
+      return makeCalibration(route.nmPerPx, 'profile', `instrument profile ${route.profileId}`, [{ name: 'instrument profile', rel: route.relUncertainty, type: 'B' }]);
     case 'fixed':
-      return { nmPerPx: route.nmPerPx, source: 'manual', relUncertainty: route.relUncertainty, detail: 'fixed pixel size from the batch recipe' };
+      return makeCalibration(route.nmPerPx, 'manual', 'fixed pixel size from the batch recipe', [{ name: 'stated in the recipe', rel: route.relUncertainty, type: 'B' }]);
   }
 }
 

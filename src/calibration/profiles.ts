@@ -3,10 +3,37 @@
  * (instrument, nominal magnification, camera, binning), chosen again for later images taken at
  * that setting. Pure functions over the store's CalibrationProfile record.
  */
-import type { Calibration } from '../image/grey-image';
-import type { CalibrationProfile } from '../store/records';
+import type { CalibrationSource, Calibration } from '../image/grey-image';
 
-export type { CalibrationProfile };
+/**
+ * An instrument calibration profile: the pixel size measured once for one microscope setting,
+ * applied later to images taken at the same setting.
+ */
+export interface CalibrationProfile {
+  /** Unique id. */
+  id: string;
+  /** Name the user gave the profile, e.g. "TEM 1, 300 kV, 40 kx, bin 2". */
+  name: string;
+  /** Instrument as the user names it. */
+  instrument: string;
+  /** Nominal magnification (as indicated by the microscope). */
+  magnification: number;
+  /** Camera or detector as the user names it. */
+  camera: string;
+  /** Camera binning factor (1, 2, 4 ...). */
+  binning: number;
+  /** Pixel size in nm per pixel at this setting. */
+  nmPerPx: number;
+  /** Relative standard uncertainty of nmPerPx (k = 1). */
+  relUncertainty: number;
+  /** How the pixel size was found. */
+  method: CalibrationSource;
+  /** ISO 8601 time the profile was made. */
+  createdIso: string;
+  /** Free text: standard used, lattice spacing, operator's remarks. */
+  notes?: string;
+}
+
 
 /** The setting an image was recorded at (from its metadata or typed by the user). */
 export interface ImageSetting {

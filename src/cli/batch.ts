@@ -14,7 +14,7 @@ import { basename, dirname, extname, join, resolve } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import { isMainThread, parentPort, Worker, workerData } from 'node:worker_threads';
 import { batchJson, pooledStats, resultsCsv, summaryCsv, zipExports } from '../batch/export';
-import { annotatedFigurePng, histogramPng, histogramSvg } from '../batch/figure';
+import { annotatedFigurePng, histogramPng, histogramSvg } from '../figure/batch-figure';
 import { canonicalRecipeJson, defaultRecipe, readRecipeFile, RecipeError, type Recipe } from '../batch/recipe';
 import { missingTools, processOne, upgradeFileResult, type BatchDeps, type FileResult } from '../batch/run';
 import { emptyState, isFinished, parseState, recordFileName, stateFromRecords, STATE_FILE_NAME, withEntry, type BatchState, type FoundRecord } from '../batch/state';

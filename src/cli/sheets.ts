@@ -8,13 +8,12 @@ import { parseArgs, UsageError } from './command';
 import { decodeImage, ImageReadError } from '../image/decode';
 import type { Calibration, GreyImage } from '../image/grey-image';
 import { findScaleBar, type Box } from '../calibration/scale-bar';
-import { detectSheets, sheetStatistics } from '../measure/sheets-auto';
-import { sheetsAlongLine } from '../measure/sheets-line';
+import { detectSheets, sheetStatistics } from '../sheets/detect';
+import { sheetsAlongLine } from '../sheets/line';
 import type { Summary } from '../measure/stats';
-import { sheetSummary, type SheetSummary } from '../measure/sheets-measurement';
+import { sheetSummary, type SheetSummary } from '../sheets/record';
+import { INDICATED_MAGNIFICATION_REL, makeCalibration } from '../calibration/calibration';
 
-/** Relative standard uncertainty given to a typed pixel size: 5 %, the reproducibility of an indicated TEM magnification (reference-values §5). */
-const TYPED_REL_UNCERTAINTY = 0.05;
 
 const usage = `Usage: stratameter sheets IMAGE [--nm-per-px X | --scale-bar auto] [--line x0,y0,x1,y1[,width]]
                           [--period-px P] [--bright] [--json]
@@ -197,7 +196,7 @@ export const command: CliCommand = {
     }
     const image = decodeImage(bytes, file);
     if (nmPerPx !== undefined) {
-      image.calibration = { nmPerPx, source: 'manual', relUncertainty: TYPED_REL_UNCERTAINTY, detail: 'typed on the command line' };
+      image.calibration = makeCalibration(nmPerPx, 'manual', 'typed on the command line', [{ name: 'indicated magnification (no uncertainty given)', rel: INDICATED_MAGNIFICATION_REL, type: 'B' }]);
     } else if (scaleBar === 'auto') {
       image.calibration = await scaleBarCalibration(image);
     }

@@ -2,10 +2,35 @@
  * A diffraction set as the library keeps it, and back: the lines (d ± u, label, crystallite
  * size) and the recognised series that the reconciliation with micrograph periods needs.
  */
-import type { DiffractionSet } from '../store/records';
 import { twoThetaToD } from './bragg';
 import type { DiffractionLine, DiffractionSide } from './reconcile';
 import type { IndexedSeries } from './series';
+
+/** One diffraction peak as the user or a peak search gives it. */
+export interface DiffractionPeak {
+  /** Peak position, degrees 2θ. */
+  twoThetaDeg: number;
+  /** Peak height or area in the pattern's own units (may be 0 when unknown). */
+  intensity: number;
+}
+
+/** A stored XRD/SAXS pattern or peak list, with what was worked out from it. */
+export interface DiffractionSet {
+  /** Unique id. */
+  id: string;
+  /** Name the user gave the set. */
+  name: string;
+  /** ISO 8601 time the set was stored. */
+  createdIso: string;
+  /** The pattern as text (two columns, 2θ and counts), or null when only peaks are kept. */
+  patternText: string | null;
+  /** Peaks, or null when only the pattern text is kept. */
+  peaks: DiffractionPeak[] | null;
+  /** Radiation wavelength in nm. */
+  wavelengthNm: number;
+  /** Results (d-spacings, assignments, reconciliation with micrographs), plain JSON. */
+  results: Record<string, unknown> | null;
+}
 
 /** What a stored set keeps in its `results` (plain JSON). */
 export interface StoredSetResults {

@@ -4,6 +4,7 @@
  */
 import type { Calibration, SampleKind } from './grey-image';
 import type { Workspace } from './workspace';
+import { INDICATED_MAGNIFICATION_REL, makeCalibration } from '../calibration/calibration';
 
 /** A file that cannot be read; the message is `"<fileName>: <reason>"`. */
 export class ImageReadError extends Error {
@@ -46,7 +47,7 @@ export interface Budget {
  * the file comes from the indicated magnification, which is reproducible to about ±5 % (EMSA
  * abstract "Magnification determination for high resolution electron microscopy").
  */
-export const METADATA_REL_UNCERTAINTY = 0.05;
+export const METADATA_REL_UNCERTAINTY = INDICATED_MAGNIFICATION_REL;
 
 /**
  * ITU-R BT.709 luma weights, used to turn RGB into grey (ITU-R Recommendation BT.709-6, item 3.2).
@@ -323,14 +324,11 @@ export function resolutionCalibration(
       return null;
     }
   }
-  const cal: Calibration = {
+  return metadataCalibration(
     nmPerPx,
-    source: 'metadata',
-    relUncertainty: METADATA_REL_UNCERTAINTY,
-    detail: `${detail}: ${fmt(pxPerUnitX)}${pxPerUnitY !== pxPerUnitX ? ` × ${fmt(pxPerUnitY)}` : ''} pixels per ${unitName}`,
-  };
-  if (Math.abs(nmPerPxY - nmPerPx) > 1e-9 * nmPerPx) cal.nmPerPxY = nmPerPxY;
-  return cal;
+    `${detail}: ${fmt(pxPerUnitX)}${pxPerUnitY !== pxPerUnitX ? ` × ${fmt(pxPerUnitY)}` : ''} pixels per ${unitName}`,
+    Math.abs(nmPerPxY - nmPerPx) > 1e-9 * nmPerPx ? nmPerPxY : undefined,
+  );
 }
 
 /** A number to six significant digits, without trailing zeros. */
@@ -340,3 +338,12 @@ export function fmt(v: number): string {
 
 /** Byte order of this machine (typed arrays use it). */
 export const HOST_LITTLE_ENDIAN = new Uint8Array(new Uint16Array([1]).buffer)[0] === 1;
+
+/**
+ * A pixel size read from a file's metadata, with its one uncertainty part: the indicated
+ * magnification's reproducibility (type B, INDICATED_MAGNIFICATION_REL).
+ * @param nmPerPx along x; @param detail the tags read; @param nmPerPxY along y when the pixels are not square
+ */
+export function metadataCalibration(nmPerPx: number, detail: string, nmPerPxY?: number): Calibration {
+  return makeCalibration(nmPerPx, 'metadata', detail, [{ name: 'indicated magnification', rel: METADATA_REL_UNCERTAINTY, type: 'B' }], nmPerPxY === undefined ? {} : { nmPerPxY });
+}

@@ -5,7 +5,7 @@
  * Reference: MRC2014, Cheng et al., J. Struct. Biol. 192, 146 (2015), Table 1.
  */
 import type { Alloc, Budget, Decoded, Fail } from './decode-common';
-import { MAX_CALIBRATED_NM_PER_PX, METADATA_REL_UNCERTAINTY, MIN_CALIBRATED_NM_PER_PX, checkSize, fmt } from './decode-common';
+import { MAX_CALIBRATED_NM_PER_PX, MIN_CALIBRATED_NM_PER_PX, checkSize, fmt, metadataCalibration } from './decode-common';
 import type { Calibration, SampleKind } from './grey-image';
 
 // ---------------------------------------------------------------------------------------------
@@ -123,13 +123,11 @@ export function readMrc(bytes: Uint8Array, budget: Budget, fail: Fail, alloc: Al
     if (nmPerPx > MAX_CALIBRATED_NM_PER_PX || nmPerPx < MIN_CALIBRATED_NM_PER_PX) {
       warnings.push(`not a calibration: MRC cell gives ${fmt(nmPerPx)} nm per pixel, outside 1 pm to 10 µm`);
     } else {
-      calibration = {
+      calibration = metadataCalibration(
         nmPerPx,
-        source: 'metadata',
-        relUncertainty: METADATA_REL_UNCERTAINTY,
-        detail: `MRC cell/grid (words 11/8): ${fmt(xlen)} Å / ${mx} = ${fmt(xlen / mx)} Å per pixel`,
-      };
-      if (Math.abs(nmPerPxY - nmPerPx) > 1e-6 * nmPerPx) calibration.nmPerPxY = nmPerPxY;
+        `MRC cell/grid (words 11/8): ${fmt(xlen)} Å / ${mx} = ${fmt(xlen / mx)} Å per pixel`,
+        Math.abs(nmPerPxY - nmPerPx) > 1e-6 * nmPerPx ? nmPerPxY : undefined,
+      );
       if (Math.abs(xlen / mx - 1) < 1e-6) warnings.push('MRC pixel spacing is exactly 1 Å, which some programs write when the size is unknown: check it');
     }
   }

@@ -10,7 +10,7 @@
  * Everything is seeded through the project's one generator (src/synthetic/random.ts).
  */
 import { type GreyImage, makeGreyImage } from '../../src/image/grey-image';
-import { gaussian, rng } from '../../src/synthetic/random';
+import { gaussian, rng } from '../random';
 
 /** A seeded source of uniform [0, 1) and standard normal deviates. */
 export interface Random {

@@ -3,7 +3,7 @@ import { mkdtemp, readdir, readFile, rm, writeFile } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, expect, test } from 'vitest';
-import { encodeTiff } from '../../src/image/encode-tiff';
+import { encodeTiff } from '../../testing/encode-tiff';
 import { main } from '../../src/cli/main';
 import { parseCsv } from './csv';
 

@@ -1,6 +1,6 @@
 import { decode } from 'fast-png';
 import { describe, expect, test } from 'vitest';
-import { annotatedFigure, annotatedFigurePng, histogramPng, histogramSvg, lengthLabel, roundScaleBar } from '../../src/batch/figure';
+import { annotatedFigure, annotatedFigurePng, histogramPng, histogramSvg, lengthLabel, roundScaleBar } from '../../src/figure/batch-figure';
 import type { FileResult } from '../../src/batch/run';
 import { makeGreyImage, type Calibration } from '../../src/image/grey-image';
 

@@ -82,7 +82,7 @@ describe('processOne', () => {
     expect(a.image).toEqual({ widthPx: 128, heightPx: 128, bitDepth: 16 });
     const b = (await processOne(bytes, 'u.tif', recipe({ calibration: { route: 'fixed', nmPerPx: 0.1, relUncertainty: 0.03 } }), fakeDeps())).result;
     expect(b.status).toBe('ok');
-    expect(b.calibration).toEqual({ nmPerPx: 0.1, source: 'manual', relUncertainty: 0.03, detail: 'fixed pixel size from the batch recipe' });
+    expect(b.calibration).toMatchObject({ nmPerPx: 0.1, source: 'manual', relUncertainty: 0.03, detail: 'fixed pixel size from the batch recipe' });
     expect(expressPeriod(b.summary.topPeriods[0], b.calibration).value).toBeCloseTo(2.0, 12);
   });
 

@@ -4,7 +4,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { encode } from 'fast-png';
 import { main } from '../../src/cli/main';
-import { encodeTiff } from '../../src/image/encode-tiff';
+import { encodeTiff } from '../../testing/encode-tiff';
 import { scene, type SceneSpec } from './scenes';
 
 let dir: string;

@@ -1,5 +1,5 @@
 import { expect, test } from 'vitest';
-import { DRAWABLE_CHARACTERS, drawLine, drawText, fillRect, measureText, strokeRectOutside } from '../../src/image/draw-text';
+import { DRAWABLE_CHARACTERS, drawLine, drawText, fillRect, measureText, strokeRectOutside } from '../../src/figure/draw-text';
 
 const blank = (w: number, h: number) => ({ width: w, height: h, data: new Float32Array(w * h) });
 const sum = (a: Float32Array) => a.reduce((s, v) => s + v, 0);

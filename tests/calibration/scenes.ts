@@ -3,8 +3,8 @@
  * Seeded: the same arguments give the same pixels.
  */
 import { makeGreyImage, type GreyImage } from '../../src/image/grey-image';
-import { drawText, fillRect, measureText, strokeRectOutside, type StrokeFontName } from '../../src/image/draw-text';
-import { rng } from '../../src/synthetic/random';
+import { drawText, fillRect, measureText, strokeRectOutside, type StrokeFontName } from '../../src/figure/draw-text';
+import { rng } from '../../testing/random';
 export { rng };
 
 

@@ -2,7 +2,7 @@ import { describe, expect, test } from 'vitest';
 import { analysePattern } from '../../src/diffraction/analyse';
 import { parsePattern } from '../../src/diffraction/pattern';
 import { pseudoVoigt } from '../../src/diffraction/peaks';
-import { seededRandom } from '../../src/diffraction/synthetic';
+import { seededRandom } from '../../testing/synthetic/diffraction-pattern';
 
 /** A SAXS-like pattern in q (nm⁻¹) with a σ column: Gaussian noise of known σ (synthetic truth). */
 function saxs(qs: number[], areas: number[], fwhmInvNm: number, seed: number): string {
@@ -44,7 +44,7 @@ describe('analysePattern on q data (synthetic truth)', () => {
 
 describe('analysePattern withholds sizes it cannot support', () => {
   test('every peak without a size has a FWHM at its bound or uncertain by more than half, and is noted (seeded synthetic clay pattern)', async () => {
-    const { syntheticPattern } = await import('../../src/diffraction/synthetic');
+    const { syntheticPattern } = await import('../../testing/synthetic/diffraction-pattern');
     const { dToTwoTheta } = await import('../../src/diffraction/bragg');
     const cu = 0.154059292;
     const fw = (size: number, tt: number) => ((0.9 * cu) / (size * Math.cos((tt * Math.PI) / 360)) * 180) / Math.PI;

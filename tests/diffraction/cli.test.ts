@@ -98,7 +98,7 @@ describe('stratameter match', () => {
 describe('stratameter xrd --standard and match --cif', () => {
   const toText = (x: Float64Array, y: Float64Array) => ['# radiation: Cu K-alpha1 1.54059292 A, K-alpha2 1.5444274 A', ...Array.from(x, (v, i) => `${v.toFixed(3)} ${y[i]}`)].join('\n');
   test('the instrumental breadth measured on a standard is removed (Gaussian rule; synthetic truth)', { timeout: 60000 }, async () => {
-    const { syntheticPattern } = await import('../../src/diffraction/synthetic');
+    const { syntheticPattern } = await import('../../testing/synthetic/diffraction-pattern');
     const { scherrerSize } = await import('../../src/diffraction/scherrer');
     const dir = mkdtempSync(join(tmpdir(), 'strata-std-'));
     // standard: instrument-only lines 0.08° wide; sample: Gaussian lines √(0.08² + 0.25²) wide

@@ -4,7 +4,7 @@ import { snipBackground } from '../../src/diffraction/background';
 import { parsePattern } from '../../src/diffraction/pattern';
 import { fitPattern } from '../../src/diffraction/peaks';
 import { savitzkyGolay } from '../../src/diffraction/smooth';
-import { syntheticPattern } from '../../src/diffraction/synthetic';
+import { syntheticPattern } from '../../testing/synthetic/diffraction-pattern';
 
 const FIXTURE = 'tests/fixtures/reference-data/xrd-powder_propylammonium-chloride_CuKa12_COD1516218_2theta-counts.xy';
 

@@ -5,7 +5,7 @@ import { mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, expect, test } from 'vitest';
-import { encodeTiff } from '../../src/image/encode-tiff';
+import { encodeTiff } from '../../testing/encode-tiff';
 import { foreignRequests, openSession, type Session, nextFrames } from './browser';
 
 let s: Session;

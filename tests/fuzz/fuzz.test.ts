@@ -4,7 +4,7 @@ import { TARGETS, fuzzTarget, mutateBytes, rng, table } from './harness';
 import { CORRUPT_CLASSES } from '../../testing/corrupt';
 import { importLibrary, ImportError, openLibrary } from '../../src/store';
 import { decodeImage, ImageReadError } from '../../src/image/decode';
-import { encodeTiff } from '../../src/image/encode-tiff';
+import { encodeTiff } from '../../testing/encode-tiff';
 
 // A short seeded run of the fuzz suite (the long one is `npm run test:fuzz -- --long`): every
 // damaged input gives a result or the reader's own error naming the file or line (common

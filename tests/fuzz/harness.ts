@@ -25,7 +25,7 @@ import { readRecipeFile, RecipeError } from '../../src/batch/recipe';
 import { parseState } from '../../src/batch/state';
 import { importLibrary, ImportError, openLibrary, type LibraryDb } from '../../src/store';
 import { validateMeasurementShape } from '../../src/store/validate';
-import { rng } from '../../src/synthetic/random';
+import { rng } from '../../testing/random';
 import { classesOf, type CorruptInput, type Expectation } from '../../testing/corrupt';
 import { jpegSeeds, librarySeeds, measurementSeeds, mrcSeeds, patternSeeds, pngSeeds, recipeSeeds, stateSeeds, structureSeeds, tiffSeeds, type Seed } from '../../testing/fuzz-seeds';
 import { mutateBytes, mutateText } from './mutate';

@@ -1,8 +1,8 @@
 import { describe, expect, test } from 'vitest';
 import { encode as encodePng } from 'fast-png';
 import { Image, encode as encodeRaster } from 'image-js';
-import { encodeTiff } from '../../src/image/encode-tiff';
-import { encodeMrc } from '../../src/image/encode-mrc';
+import { encodeTiff } from '../../testing/encode-tiff';
+import { encodeMrc } from '../../testing/encode-mrc';
 import { decodeImage, ImageReadError } from '../../src/image/decode';
 import { lcg } from './fixtures';
 

@@ -1,5 +1,5 @@
 import { describe, expect, test } from 'vitest';
-import { encodeMrc } from '../../src/image/encode-mrc';
+import { encodeMrc } from '../../testing/encode-mrc';
 
 // Header layout: Cheng et al., "MRC2014", J. Struct. Biol. 192, 146 (2015), Table 1:
 // 1024 bytes of 4-byte words; NX, NY, NZ, MODE = words 1-4; MX, MY, MZ = 8-10; CELLA = 11-13 (Å);

@@ -1,7 +1,7 @@
 import { describe, expect, test } from 'vitest';
 import { decode as decodeTiff } from 'tiff';
 import { decode } from 'image-js';
-import { compressLzw, encodeTiff, encodeTiffPages, toRational } from '../../src/image/encode-tiff';
+import { compressLzw, encodeTiff, encodeTiffPages, toRational } from '../../testing/encode-tiff';
 
 const W = 67;
 const H = 41;

@@ -4,8 +4,8 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, describe, expect, test } from 'vitest';
 import { main } from '../../src/cli/main';
-import { encodeTiff } from '../../src/image/encode-tiff';
-import { encodeMrc } from '../../src/image/encode-mrc';
+import { encodeTiff } from '../../testing/encode-tiff';
+import { encodeMrc } from '../../testing/encode-mrc';
 
 const dir = mkdtempSync(join(tmpdir(), 'stratameter-info-'));
 afterAll(() => rmSync(dir, { recursive: true, force: true }));

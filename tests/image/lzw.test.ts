@@ -1,6 +1,6 @@
 import { describe, expect, test } from 'vitest';
 import { decode as decodeTiff } from 'tiff';
-import { compressLzw, encodeTiff } from '../../src/image/encode-tiff';
+import { compressLzw, encodeTiff } from '../../testing/encode-tiff';
 import { decompressLzw } from '../../src/image/lzw';
 import { lcg } from './fixtures';
 

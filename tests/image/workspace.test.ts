@@ -1,9 +1,9 @@
 import { describe, expect, test } from 'vitest';
 import { decodeImage } from '../../src/image/decode';
-import { encodeTiff } from '../../src/image/encode-tiff';
+import { encodeTiff } from '../../testing/encode-tiff';
 import { createWorkspace } from '../../src/image/workspace';
 import { powerSpectrum } from '../../src/measure/spectrum';
-import { rng } from '../../src/synthetic/random';
+import { rng } from '../../testing/random';
 
 function tiff(seed: number, width = 96, height = 64): Uint8Array {
   const r = rng(seed);

@@ -3,7 +3,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { describe, expect, test } from 'vitest';
 import { main } from '../../src/cli/main';
-import { encodeTiff } from '../../src/image/encode-tiff';
+import { encodeTiff } from '../../testing/encode-tiff';
 import { colouredNoiseImage } from './synth';
 import { parseRegion } from '../../src/cli/measure';
 import { formatPlusMinus } from '../../src/measure/measurement';

@@ -1,7 +1,7 @@
 import { readFileSync } from 'node:fs';
 import { describe, expect, test } from 'vitest';
 import { decodeImage } from '../../src/image/decode';
-import { encodeTiff } from '../../src/image/encode-tiff';
+import { encodeTiff } from '../../testing/encode-tiff';
 import { fourierFilter } from '../../src/measure/fourier-filter';
 import { measureRegion } from '../../src/measure/measure-region';
 import {

@@ -1,11 +1,11 @@
 import { describe, expect, test } from 'vitest';
 import { makeGreyImage, type GreyImage } from '../../src/image/grey-image';
-import { encodeTiff } from '../../src/image/encode-tiff';
+import { encodeTiff } from '../../testing/encode-tiff';
 import { decodeImage } from '../../src/image/decode';
 import { measureRegion } from '../../src/measure/measure-region';
 import { lineProfile } from '../../src/measure/profile';
-import { detectSheets } from '../../src/measure/sheets-auto';
-import { sheetsAlongLine } from '../../src/measure/sheets-line';
+import { detectSheets } from '../../src/sheets/detect';
+import { sheetsAlongLine } from '../../src/sheets/line';
 import { findScaleBar } from '../../src/calibration/scale-bar';
 
 // Extreme but valid images through every measuring function: each gives a result with only

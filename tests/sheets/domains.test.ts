@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { makeGreyImage } from '../../src/image/grey-image';
-import { domainMap } from '../../src/measure/domains';
-import { axialDifferenceDeg } from '../../src/measure/structure-tensor';
+import { domainMap } from '../../src/sheets/domains';
+import { axialDifferenceDeg } from '../../src/sheets/structure-tensor';
 import { gauss, rng } from './synthetic';
 
 // Two lamellar grains with known truth (algorithm test): left half period 8 px, normal 20°;

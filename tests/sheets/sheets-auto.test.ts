@@ -1,8 +1,8 @@
 import { describe, expect, it } from 'vitest';
 import { makeGreyImage } from '../../src/image/grey-image';
-import { detectSheets, sheetStatistics } from '../../src/measure/sheets-auto';
-import { sheetsAlongLine } from '../../src/measure/sheets-line';
-import { axialDifferenceDeg, recursiveGaussian, structureTensor } from '../../src/measure/structure-tensor';
+import { detectSheets, sheetStatistics } from '../../src/sheets/detect';
+import { sheetsAlongLine } from '../../src/sheets/line';
+import { axialDifferenceDeg, recursiveGaussian, structureTensor } from '../../src/sheets/structure-tensor';
 import { syntheticImage } from './synthetic';
 
 // Synthetic clay tactoids in a polymer film with known truth (algorithm tests).

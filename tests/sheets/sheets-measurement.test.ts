@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
-import { detectSheets } from '../../src/measure/sheets-auto';
-import { sheetsAlongLine } from '../../src/measure/sheets-line';
-import { autoSheetsMeasurement, lineSheetsMeasurement } from '../../src/measure/sheets-measurement';
+import { detectSheets } from '../../src/sheets/detect';
+import { sheetsAlongLine } from '../../src/sheets/line';
+import { autoSheetsMeasurement, lineSheetsMeasurement } from '../../src/sheets/record';
 import { syntheticImage } from './synthetic';
 import { expressPeriod } from '../../src/measure/measurement';
 

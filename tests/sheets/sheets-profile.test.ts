@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { profilePeriod, sheetsAlongProfile } from '../../src/measure/sheets';
+import { profilePeriod, sheetsAlongProfile } from '../../src/sheets/profile';
 import { rng, gauss, syntheticProfile } from './synthetic';
 
 // Synthetic stacks with known truth (algorithm tests): dark Gaussian layer lines, period 8 samples.

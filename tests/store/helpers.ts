@@ -1,6 +1,6 @@
 // Shared fixtures for the library tests: a fresh database per test and a small synthetic image.
 import 'fake-indexeddb/auto';
-import { encodeTiff } from '../../src/image/encode-tiff';
+import { encodeTiff } from '../../testing/encode-tiff';
 import { makeGreyImage, type GreyImage } from '../../src/image/grey-image';
 import { openLibrary, type LibraryDb } from '../../src/store';
 

@@ -1,5 +1,5 @@
 import { expect, test } from 'vitest';
-import { gaussian, rng } from '../../src/synthetic/random';
+import { gaussian, rng } from '../../testing/random';
 
 test('rng is reproducible, uniform on [0, 1) and differs between seeds', () => {
   const a = rng(42);

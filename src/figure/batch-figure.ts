@@ -5,11 +5,11 @@
  */
 import { expressPeriod } from '../measure/measurement';
 import { encode } from 'fast-png';
-import { DRAWABLE_CHARACTERS, drawText, fillRect, measureText, strokeRectOutside, type Raster } from '../image/draw-text';
+import { DRAWABLE_CHARACTERS, drawText, fillRect, measureText, strokeRectOutside, type Raster } from './draw-text';
 import type { GreyImage } from '../image/grey-image';
 import type { Region } from '../measure/measurement';
 import { histogram } from '../measure/stats';
-import type { FileResult } from './run';
+import type { FileResult } from '../batch/run';
 
 /** Options for `roundScaleBar`. */
 export interface ScaleBarOptions {

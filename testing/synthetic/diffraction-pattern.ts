@@ -1,10 +1,10 @@
 /**
  * Seeded synthetic powder patterns with known truth, for tests and benchmarks.
  */
-import { ka2Position, KA2_RATIO } from './bragg';
-import type { Pattern } from './pattern';
-import { pseudoVoigt } from './peaks';
-import { rng } from '../synthetic/random';
+import { ka2Position, KA2_RATIO } from '../../src/diffraction/bragg';
+import type { Pattern } from '../../src/diffraction/pattern';
+import { pseudoVoigt } from '../../src/diffraction/peaks';
+import { rng } from '../random';
 
 /** A reflection to draw. */
 export interface SyntheticPeak {

@@ -4,11 +4,11 @@
  * their layers at several places along them, following the local normal of bent sheets.
  */
 import type { GreyImage } from '../image/grey-image';
-import { periodCandidates, profilePeriodogram, sheetsAlongProfile, type SheetProfileOptions } from './sheets';
-import { sheetsAlongLine, type LineSheet } from './sheets-line';
-import { lineProfile } from './profile';
+import { periodCandidates, profilePeriodogram, sheetsAlongProfile, type SheetProfileOptions } from './profile';
+import { sheetsAlongLine, type LineSheet } from './line';
+import { lineProfile } from '../measure/profile';
 import { axialDifferenceDeg, structureTensor, type OrientationField } from './structure-tensor';
-import { summarize, type Summary } from './stats';
+import { summarize, type Summary } from '../measure/stats';
 
 /** Review state of a sheet in the app: automatic, accepted or rejected by the user, or drawn/corrected by hand. */
 export type SheetStatus = 'auto' | 'accepted' | 'rejected' | 'manual' | 'corrected';

@@ -6,8 +6,8 @@
  * the band-passed profile (layers at its extrema), its modulus the envelope of the periodic
  * signal (sheets where it is high).
  */
-import { nextPow2, padReflect, sheetFft } from './sheets-signal';
-import { chiSquareUpperQuantile } from './stats';
+import { nextPow2, padReflect, sheetFft } from './signal';
+import { chiSquareUpperQuantile } from '../measure/stats';
 
 /** Options for `sheetsAlongProfile`. */
 export interface SheetProfileOptions {

@@ -4,7 +4,7 @@
  * mesophases, polycrystalline layered films).
  */
 import type { GreyImage } from '../image/grey-image';
-import { profilePeriod } from './sheets';
+import { profilePeriod } from './profile';
 import { axialDifferenceDeg, structureTensor } from './structure-tensor';
 
 /** R² of a least-squares sinusoid (plus constant and linear trend) of the given period fitted to a profile. */

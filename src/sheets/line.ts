@@ -1,10 +1,10 @@
 /**
  * Sheets along a line drawn on an image: the width-averaged line profile through `sheetsAlongProfile`.
  */
-import { nmPerPxAlong } from './measurement';
+import { nmPerPxAlong } from '../measure/measurement';
 import type { GreyImage } from '../image/grey-image';
-import { lineProfile } from './profile';
-import { sheetsAlongProfile, type ProfileSheet, type ProfileSheetsResult, type SheetProfileOptions } from './sheets';
+import { lineProfile } from '../measure/profile';
+import { sheetsAlongProfile, type ProfileSheet, type ProfileSheetsResult, type SheetProfileOptions } from './profile';
 
 /** Options for `sheetsAlongLine`. */
 export interface SheetLineOptions extends Omit<SheetProfileOptions, 'nmPerSample'> {

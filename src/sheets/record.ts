@@ -3,9 +3,9 @@
  * and the exports). Plain JSON only in `detail`.
  */
 import type { Calibration } from '../image/grey-image';
-import { expressLength, noUncertainty, RECORD_VERSION, type Measurement, type Periodicity } from './measurement';
-import type { AutoSheetsResult } from './sheets-auto';
-import type { LineSheetsResult } from './sheets-line';
+import { expressLength, noUncertainty, RECORD_VERSION, type Measurement, type Periodicity } from '../measure/measurement';
+import type { AutoSheetsResult } from './detect';
+import type { LineSheetsResult } from './line';
 import type { DomainMapResult } from './domains';
 
 /** One sheet as reported everywhere (CLI JSON, the sheets panel, exports). */

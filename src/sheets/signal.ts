@@ -2,7 +2,7 @@
  * Small signal routines for the sheet measurements: forward/inverse FFT on top of the shared
  * radix-2 transform, and reflect padding.
  */
-import { fftRadix2 } from './period-profile';
+import { fftRadix2 } from '../measure/period-profile';
 
 /** In-place radix-2 complex FFT: sign −1 forward, +1 inverse (unscaled, by conjugation of the forward transform). */
 export function sheetFft(re: Float64Array, im: Float64Array, sign: 1 | -1): void {
