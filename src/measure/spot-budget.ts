@@ -7,7 +7,7 @@ import { localSpread } from './pool';
 import { refineData, type RefineData, refineSpot } from './refine';
 import type { RectPx, Spot } from './spectrum';
 import { frequencyAngleDeg, powerSpectrum } from './spectrum';
-import { type ComplexSpectrum, type FrequencyStd, pixelWeights, type SpotField, spotField, spotSupport, weightedFrequencyStd } from './spot-field';
+import { type ComplexSpectrum, fieldGeometry, type FrequencyStd, pixelWeights, type SpotField, spotField, spotSupport, weightedFrequencyStd } from './spot-field';
 
 /** The support is used only when its plateau amplitude exceeds the noise amplitude by this factor. */
 const SUPPORT_MIN_SNR = 8;
@@ -89,6 +89,7 @@ export async function budgetSpot(image: GreyImage, data: RefineData, spec: Compl
   let best = r0;
   let onSupport = false;
   let weightsGrid: Float64Array | null = null;
+  let unsettledPx = 0;
   // A support is only known where the fringes stand well above the noise cell by cell; faint
   // fringes (low dose) are fitted over the whole region, as a noisy mask would cost more than it saves.
   const supportKnown = support.peakAmplitude > SUPPORT_MIN_SNR * field.noiseAmplitude;
@@ -101,7 +102,12 @@ export async function budgetSpot(image: GreyImage, data: RefineData, spec: Compl
       weightsGrid = support.weights;
       field = spotField(spec, r1.fx, r1.fy);
     } else {
-      notes.push(`the spot at ${r0.periodPx.toFixed(2)} px could not be refitted on its ${(100 * support.coverage).toFixed(0)} % of the region`);
+      // no maximum on the support near the whole-region one: the fringes there do not make one
+      // clear spot (bent, or a side lobe); the value stays the whole-region fit, and a bin's worth
+      // of frequency on the support's scale is its method part
+      const extent = Math.sqrt(support.coverage * area.width * area.height);
+      unsettledPx = r0.periodPx * r0.periodPx / extent;
+      notes.push(`the spot at ${r0.periodPx.toFixed(2)} px has no clear maximum on its ${(100 * support.coverage).toFixed(0)} % of the region: a method uncertainty of ${unsettledPx.toPrecision(2)} px is added`);
     }
   }
   const std = weightedFrequencyStd(field, weightsGrid, data.windowX, data.windowY);
@@ -188,6 +194,20 @@ export async function budgetSpot(image: GreyImage, data: RefineData, spec: Compl
   } else if (spread.significant) {
     notes.push(`the period of the spot at ${best.periodPx.toFixed(2)} px varies over the region: local periods ${local.map((l) => l.value.toFixed(2)).join(', ')} px`);
   }
+  // Bent fringes on a support too small for sub-regions (a grain): the phase of the spot's field
+  // shows their directions turning; the local frequency magnitude is then a second estimate, and
+  // its disagreement with the fit is the method part.
+  let bentPx = 0;
+  if (!curved && onSupport && weightsGrid) {
+    const g = fieldGeometry(field, weightsGrid);
+    if (g.cells >= 9 && g.directionSdDeg > MIN_TURN_DEG && Number.isFinite(g.meanMagnitudePerPx)) {
+      // averaging local frequency vectors that turn by a spread θ shortens them by cos θ ≈ 1 − θ²/2:
+      // the period can be off by about d·θ²/2, whichever estimate is nearer
+      const theta = (g.directionSdDeg * Math.PI) / 180;
+      bentPx = Math.max(Math.abs(best.periodPx - 1 / g.meanMagnitudePerPx), (best.periodPx * theta * theta) / 2);
+      if (bentPx > 0) notes.push(`the fringes of the spot at ${best.periodPx.toFixed(2)} px turn by ${g.directionSdDeg.toFixed(1)}° over their grain: their local period ${(1 / g.meanMagnitudePerPx).toFixed(3)} px sets a method uncertainty`);
+    }
+  }
   const fx = best.fx;
   const fy = best.fy;
   const scale = best.periodPx / value; // keep the direction, set |f| = 1/value
@@ -197,7 +217,7 @@ export async function budgetSpot(image: GreyImage, data: RefineData, spec: Compl
     fy: fy * scale,
     periodPx: value,
     angleDeg: frequencyAngleDeg(fx, fy),
-    u: { statisticalPx, localVariationPx, methodPx: curved ? 0 : finiteCrystalPx },
+    u: { statisticalPx, localVariationPx, methodPx: curved ? 0 : Math.hypot(finiteCrystalPx, bentPx, unsettledPx) },
     uAngleDeg: curved ? Math.max(stat.angleDeg, turning.sdDeg) : stat.angleDeg,
   };
   return { spot: out, coverage: support.coverage, onSupport, localPeriodsPx: local.map((l) => l.value), supportWeights: support.weights, notes };
