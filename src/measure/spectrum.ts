@@ -233,14 +233,15 @@ function squaredFrequencies(n: number): Float64Array {
  * rings (default 6).
  * Returns: background per ring (ring of a bin: round(|f| · max(width, height))).
  * Notes: for a featureless (Gaussian-noise-like) region every bin's power is exponentially
- * distributed about the local mean B. Within a ring, the 30th percentile of ln P is
- * ln B + ln(−ln 0.7), so B follows from a low quantile that the spots of the ring do not reach,
- * even when grains of one spacing put arcs all around it (a fingerprint pattern). A running median
+ * distributed about the local mean B. Within a ring, the mean of ln P over the lowest 70 % of its
+ * bins is ln B plus a known constant (the trimmed log-mean of an exponential), so B follows from
+ * bins the spots of the ring do not reach, even when grains of one spacing put arcs all around it
+ * (a fingerprint pattern). A running median
  * over neighbouring rings then removes what a ring of spots still lifts, since a ring is narrow
  * in radius and the background varies slowly. Rings are 1/max(width, height) cycles/px wide in
  * physical frequency, so non-square regions work. Only the half-plane v ≤ height/2 is read: the
  * power of a real image is point-symmetric.
- * Reference: quantiles of the exponential distribution (common practice); running median, Tukey, Exploratory Data Analysis (1977).
+ * Reference: trimmed means of the exponential distribution (common practice); running median, Tukey, Exploratory Data Analysis (1977).
  */
 export function radialBackground(spectrum: PowerSpectrum, smoothRings = 6): RadialBackground {
   const { width: w, height: h, power } = spectrum;
@@ -266,13 +267,16 @@ export function radialBackground(spectrum: PowerSpectrum, smoothRings = 6): Radi
     const p = power[k];
     if (p > 0) logs[fill[ringOf[k]]++] = Math.log(p);
   }
-  const Q = 0.3;
-  const offset = Math.log(-Math.log(1 - Q));
+  // the mean of ln P over the ring's lower KEEP fraction, less its expectation for Exp(1) data
   const raw = new Float64Array(rings).fill(NaN);
   for (let r = 1; r < rings; r++) {
     const n = count[r];
     if (n === 0) continue;
-    raw[r] = quickSelect(logs, start[r], start[r] + n - 1, start[r] + Math.floor(Q * (n - 1))) - offset;
+    const m = Math.max(1, Math.floor(KEEP * n));
+    quickSelect(logs, start[r], start[r] + n - 1, start[r] + m - 1);
+    let sum = 0;
+    for (let i = start[r]; i < start[r] + m; i++) sum += logs[i];
+    raw[r] = sum / m - TRIMMED_LOG_MEAN;
   }
   const background = new Float64Array(rings);
   const win: number[] = [];
@@ -285,6 +289,28 @@ export function radialBackground(spectrum: PowerSpectrum, smoothRings = 6): Radi
   }
   return { background, rings };
 }
+
+/** Fraction of a ring's bins (the lowest) whose log-mean gives the background. */
+const KEEP = 0.7;
+
+/**
+ * E[ln X | X below its KEEP quantile] for X ~ Exp(1): ∫₀^q ln x e^(−x) dx / KEEP with q = −ln(1 − KEEP),
+ * by the midpoint rule on a log-spaced grid (computed once).
+ */
+const TRIMMED_LOG_MEAN = (() => {
+  const q = -Math.log(1 - KEEP);
+  let s = 0;
+  const steps = 20000;
+  const lo = Math.log(1e-12);
+  const hi = Math.log(q);
+  const dt = (hi - lo) / steps;
+  for (let i = 0; i < steps; i++) {
+    const t = lo + (i + 0.5) * dt;
+    const x = Math.exp(t);
+    s += t * Math.exp(-x) * x * dt;
+  }
+  return s / KEEP;
+})();
 
 /** The k-th smallest of a[lo..hi] (inclusive), rearranging that part in place (Hoare's selection). */
 function quickSelect(a: Float64Array, lo: number, hi: number, k: number): number {

@@ -9,6 +9,9 @@ import type { RectPx, Spot } from './spectrum';
 import { frequencyAngleDeg, powerSpectrum } from './spectrum';
 import { type ComplexSpectrum, fieldGeometry, type FrequencyStd, pixelWeights, type SpotField, spotField, spotSupport, weightedFrequencyStd } from './spot-field';
 
+/** Below this many periods across a crystal's support, the few-periods allowance applies (see budgetSpot). */
+const FEW_PERIODS = 40;
+
 /** The support is used only when its plateau amplitude exceeds the noise amplitude by this factor. */
 const SUPPORT_MIN_SNR = 8;
 
@@ -117,7 +120,14 @@ export async function budgetSpot(image: GreyImage, data: RefineData, spec: Compl
   // differs from the first by noise (the part of its larger variance not shared) and by the
   // finite crystal's bias; the difference beyond that noise is the method part.
   let finiteCrystalPx = 0;
+  let fewPeriodsPx = 0;
   if (onSupport && weightsGrid) {
+    // A crystal of few periods along its normal: its mean contrast step and edges put side lobes
+    // 1/(N·d) apart around the spot with relative amplitude ~1/(πN), which pull the maximum by an
+    // amount falling as 1/N² (transform of a finite lattice). Our stated allowance: d/(2N²), N the
+    // number of periods across the support (from its second moment along the normal).
+    const periods = supportExtentAlongPx(weightsGrid, field, best.fx, best.fy) / best.periodPx;
+    if (periods > 0 && periods < FEW_PERIODS) fewPeriodsPx = best.periodPx / (2 * periods * periods);
     const w2grid = weightsGrid.map((v) => v * v);
     const w2 = pixelWeights(w2grid, field.gridSize, area.width, area.height);
     const r2 = refineSpot(data, best, { weights: w2, maxShiftBins: 2 });
@@ -217,7 +227,7 @@ export async function budgetSpot(image: GreyImage, data: RefineData, spec: Compl
     fy: fy * scale,
     periodPx: value,
     angleDeg: frequencyAngleDeg(fx, fy),
-    u: { statisticalPx, localVariationPx, methodPx: curved ? 0 : Math.hypot(finiteCrystalPx, bentPx, unsettledPx) },
+    u: { statisticalPx, localVariationPx, methodPx: curved ? 0 : Math.hypot(finiteCrystalPx, fewPeriodsPx, bentPx, unsettledPx) },
     uAngleDeg: curved ? Math.max(stat.angleDeg, turning.sdDeg) : stat.angleDeg,
   };
   return { spot: out, coverage: support.coverage, onSupport, localPeriodsPx: local.map((l) => l.value), supportWeights: support.weights, notes };
@@ -250,7 +260,8 @@ function blockWeights(grid: Float64Array, n: number, i0: number, i1: number, j0:
 /**
  * The strongest bin of a block's Hann power spectrum near a spot (within ±45° of its direction and
  * ±15 % of its frequency), as a starting spot for the block's refit; null when the block holds no
- * peak there that is significant at 1 % against the sector's own background.
+ * peak there that is significant at 1 % against the sector's own background and at least
+ * BLOCK_MIN_PEAK times it.
  */
 async function blockPeak(image: GreyImage, block: RectPx, spot: Spot): Promise<Spot | null> {
   const ps = await powerSpectrum(image, block, { window: 'hann', detrend: 'plane' });
@@ -286,7 +297,7 @@ async function blockPeak(image: GreyImage, block: RectPx, spot: Spot): Promise<S
   // block is too noisy to say anything about the local period
   sector.sort((a, b) => a - b);
   const meanBg = sector[sector.length >> 1] / Math.LN2;
-  if (!(best > meanBg * Math.log(sector.length / BLOCK_ALPHA))) return null;
+  if (!(best > Math.max(BLOCK_MIN_PEAK, Math.log(sector.length / BLOCK_ALPHA)) * meanBg)) return null;
   return { ...spot, fx: bu, fy: bv, periodPx: 1 / Math.hypot(bu, bv), angleDeg: frequencyAngleDeg(bu, bv) };
 }
 
@@ -313,6 +324,36 @@ function directionSpread(local: readonly { angleDeg: number; uAngleDeg: number }
 
 /** False-alarm probability of a sub-region's own peak (see blockPeak). */
 const BLOCK_ALPHA = 0.01;
+/**
+ * Smallest peak-to-background power ratio of a sub-region's peak: below it a frequency estimate
+ * leaves the Cramér–Rao regime (the threshold effect) and its scatter would pass for local variation.
+ */
+const BLOCK_MIN_PEAK = 40;
 
 /** Local directions must spread by more than this (degrees) to count as bent fringes. */
 const MIN_TURN_DEG = 3;
+
+/**
+ * Extent of a support along a direction: √12 times the weighted standard deviation of the cells'
+ * positions along the unit vector of (fx, fy) (a uniform slab of width L has variance L²/12), px.
+ */
+function supportExtentAlongPx(weights: Float64Array, field: SpotField, fx: number, fy: number): number {
+  const n = field.gridSize;
+  const f = Math.hypot(fx, fy);
+  const ux = fx / f;
+  const uy = fy / f;
+  let sw = 0;
+  let s1 = 0;
+  let s2 = 0;
+  for (let j = 0; j < n; j++) for (let i = 0; i < n; i++) {
+    const w = weights[j * n + i];
+    if (!(w > 0)) continue;
+    const t = i * field.cellWidthPx * ux + j * field.cellHeightPx * uy;
+    sw += w;
+    s1 += w * t;
+    s2 += w * t * t;
+  }
+  if (!(sw > 0)) return 0;
+  const m = s1 / sw;
+  return Math.sqrt(12 * Math.max(0, s2 / sw - m * m));
+}

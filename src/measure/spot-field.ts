@@ -243,7 +243,7 @@ function ifft2(re: Float64Array, im: Float64Array, n: number): void {
 export interface SpotSupport {
   /** Weight per grid cell, row-major (gridSize²): 0 where only noise, rising to 1 at full fringe amplitude. */
   weights: Float64Array;
-  /** Fraction of the area carrying the fringes (Σ weight / cells). */
+  /** Fraction of the area carrying the fringes: cells above half the plateau's weight. */
   coverage: number;
   /** Largest local amplitude (grey values). */
   peakAmplitude: number;
@@ -276,7 +276,7 @@ export function spotSupport(field: SpotField): SpotSupport {
       if (!Number.isFinite(a[k])) continue;
       const v = Math.max(0, Math.min(1, (a[k] - floor) / (peak - floor)));
       weights[k] = v;
-      s += v;
+      if (v > 0.5) s++; // covered: above half the plateau (robust to the noise's scatter about it)
       cells++;
     }
     // edge cells (window too low to estimate): the weight of the nearest cell inside
