@@ -16,7 +16,7 @@ import {
 import type { ImageRecord } from '../src/store/records';
 import type { LibraryDb } from '../src/store/schema';
 import { ComputeClient } from './compute-client';
-import type { Histogram } from './pyramid';
+import type { GreyHistogram } from '../src/image/display';
 import { controlStyles } from './styles';
 import { registerServiceWorker } from './sw-update';
 import { watchErrors, type ErrorLog } from './diagnostics-panel';
@@ -64,8 +64,9 @@ function mimeFor(fileName: string): string {
  *
  * Side panels are the modules `components/*-panel.ts`, found at build time. Each is given the
  * properties `image` (GreyImage | null), `record` (ImageRecord | null), `db` (LibraryDb | null),
- * `compute` (ComputeClient), `viewer` (the StrataViewer), `line` (LineDrawnDetail | null) and
- * `rect` (RectDrawnDetail | null), and may send the events `status-message` {text, kind},
+ * `compute` (ComputeClient), `session` (the id of the image's session in the compute worker, which
+ * holds the image: send it with a region or a line, never pixels), `viewer` (the StrataViewer),
+ * `line` (LineDrawnDetail | null) and `rect` (RectDrawnDetail | null), and may send the events `status-message` {text, kind},
  * `overlay-shapes` {shapes}, `calibration-changed` {calibration} and `library-changed`.
  * The diffraction panel (id `diffraction`) also receives an `open-pattern` event {fileName, text}
  * on its element when the user opens a demo pattern from the start screen.
@@ -75,6 +76,7 @@ export class StrataApp extends LitElement {
     image: { state: true },
     record: { state: true },
     levels: { state: true },
+    session: { state: true },
     histogram: { state: true },
     message: { state: true },
     storage: { state: true },
@@ -91,7 +93,9 @@ export class StrataApp extends LitElement {
   image: GreyImage | null = null;
   record: ImageRecord | null = null;
   levels: GreyImage[] = [];
-  histogram: Histogram | null = null;
+  histogram: GreyHistogram | null = null;
+  /** The id of the open image's session in the compute worker (it holds the pixels panels measure on). */
+  session: string | null = null;
   message: Message | null = null;
   storage: StorageEstimate | null = null;
   demos: DemoEntry[] = [];
@@ -273,7 +277,7 @@ export class StrataApp extends LitElement {
     this.say(`Reading ${fileName} (${formatBytes(bytes.byteLength)})…`, 'busy');
     try {
       const copy = bytes.slice();
-      const { image, levels, histogram } = await this.compute.call('openImage', { bytes: copy, fileName }, [copy.buffer]);
+      const { sessionId, image, levels, histogram } = await this.compute.call('openImage', { bytes: copy, fileName }, [copy.buffer]);
       let record = existing ?? null;
       let notKept = '';
       if (!record && this.db) {
@@ -292,6 +296,8 @@ export class StrataApp extends LitElement {
       if (!this.image && this.activeTab === 'library' && this.tabs.length > 1) this.activeTab = this.tabs[0].id;
       this.levels = levels;
       this.histogram = histogram;
+      this.closeSession();
+      this.session = sessionId;
       this.image = image;
       this.record = record;
       this.shapes = new Map();
@@ -324,9 +330,17 @@ export class StrataApp extends LitElement {
     await this.openBytes(await imageBytes(rec), rec.fileName, rec.mimeType, rec);
   }
 
+  /** Ends the worker's session of the image on screen (its pixels and cached spectra are freed). */
+  private closeSession(): void {
+    if (this.session) void this.compute.call('closeImage', { sessionId: this.session }).catch(() => undefined);
+    this.session = null;
+  }
+
   private async onCalibrationChanged(calibration: Calibration | null): Promise<void> {
     if (!this.image) return;
     this.image = { ...this.image, calibration };
+    // the worker's records take the new calibration too; nothing is measured again
+    if (this.session) void this.compute.call('recalibrate', { sessionId: this.session, calibration }).catch((e) => this.say((e as Error).message, 'error'));
     if (this.db && this.record) {
       try {
         this.record = await setImageCalibration(this.db, this.record.id, calibration);
@@ -370,7 +384,7 @@ export class StrataApp extends LitElement {
     // Panels are plain custom elements of other modules: hand them the current state.
     const viewer = this.viewer();
     for (const el of this.renderRoot.querySelectorAll<HTMLElement>('[data-panel]')) {
-      Object.assign(el, { image: this.image, record: this.record, db: this.db, compute: this.compute, viewer, line: this.line, rect: this.rect });
+      Object.assign(el, { image: this.image, record: this.record, db: this.db, compute: this.compute, session: this.session, viewer, line: this.line, rect: this.rect });
     }
   }
 
@@ -430,7 +444,7 @@ export class StrataApp extends LitElement {
         <button @click=${() => this.renderRoot.querySelector<HTMLInputElement>('input.open')?.click()} title="Open TEM/STEM images (TIFF, PNG, JPEG, MRC)">Open images…</button>
         <input class="open" type="file" multiple accept=${ACCEPT}
           @change=${(e: Event) => { const i = e.target as HTMLInputElement; const files = [...(i.files ?? [])]; i.value = ''; void this.openFiles(files); }}>
-        ${this.image ? html`<button @click=${() => { this.image = null; this.record = null; this.message = null; }} title="Back to the start screen">Close image</button>` : nothing}
+        ${this.image ? html`<button @click=${() => { this.closeSession(); this.image = null; this.record = null; this.message = null; }} title="Back to the start screen">Close image</button>` : nothing}
         <span class="spacer"></span>
         ${this.renderStorage()}
       </header>

@@ -13,7 +13,7 @@ import { makeProfile, matchProfile } from '../src/calibration/profiles';
 import { listCalibrationProfiles, putCalibrationProfile, type LibraryDb } from '../src/store/library';
 import { controlStyles, panelStyles } from './styles';
 import type { ComputeClient } from './compute-client';
-import { cropImage } from './measure-format';
+import { cropImage } from '../src/image/crop';
 
 export const panelLabel = 'Calibration';
 
@@ -205,7 +205,7 @@ export class StrataCalibrationPanel extends LitElement {
     if (!r || !this.image || !this.compute) return;
     this.busy = true;
     try {
-      const crop = cropImage(this.image, Math.round(r.x), Math.round(r.y), Math.round(r.width), Math.round(r.height));
+      const crop = cropImage(this.image, { x: Math.round(r.x), y: Math.round(r.y), width: Math.round(r.width), height: Math.round(r.height) });
       const res = await this.compute.call('regionSpectrum', {
         image: crop, originX: Math.round(r.x), originY: Math.round(r.y),
         settings: { window: 'hann', tukeyAlpha: 0.3, alpha: 0.001 }, displayPx: 64,

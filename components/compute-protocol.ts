@@ -1,40 +1,70 @@
 /**
  * The calls the compute worker answers: name → argument and result types. Adding a call is one
  * line here and one entry in the handler table of compute-worker.ts.
+ *
+ * The image session: `openImage` decodes a file once and keeps the image in the worker under a
+ * session id; every later call on it sends that id and a region or a line, never pixels. Calls
+ * marked "crop" take a copy of the pixels instead; they serve panels not yet moved to the session.
  */
-import type { GreyImage } from '../src/image/grey-image';
-import type { Histogram } from './pyramid';
-import type { FilterArgs, FilterResult, ProfileArgs, ProfileResult, SpectrumArgs, SpectrumResult, SpotNearArgs } from './measure-types';
-import type { Spot } from '../src/measure/spectrum';
+import type { Calibration, GreyImage } from '../src/image/grey-image';
+import type { GreyHistogram } from '../src/image/display';
+import type { Measurement, Region } from '../src/measure/measurement';
+import type { ProfileEstimator, ProfileLine } from '../src/measure/profile-measurement';
+import type { FilterView, ProfileView, SpectrumSettings, SpectrumView } from '../src/measure/session';
+import type { RectPx, Spot } from '../src/measure/spectrum';
 import type { Pattern } from '../src/diffraction/pattern';
 import type { PatternAnalysis } from '../src/diffraction/analyse';
 import type { AutoSheetsResult } from '../src/sheets/detect';
 
+export type { FilterView, ProfileEstimator, ProfileView, SpectrumSettings, SpectrumView };
+
+/** What a region call names: the session and the region of its image. */
+interface InSession {
+  /** The session's id (from openImage). */
+  sessionId: string;
+}
+
 export interface ComputeCalls {
   /** Decodes a file's bytes into a GreyImage. */
   decode: { args: { bytes: Uint8Array; fileName: string }; result: GreyImage };
-  /** Box-mean reduction by a whole factor (src/image/downsample). */
-  downsample: { args: { image: GreyImage; factor: number }; result: GreyImage };
   /** Box-averaged pyramid levels below full resolution, and a histogram for the display. */
-  prepareView: { args: { image: GreyImage; smallestSidePx?: number }; result: { levels: GreyImage[]; histogram: Histogram } };
+  prepareView: { args: { image: GreyImage; smallestSidePx?: number }; result: { levels: GreyImage[]; histogram: GreyHistogram } };
   /** Loads opencv.js in the worker ahead of the first measurement; resolves to its version. */
   warmUp: { args: Record<string, never>; result: { opencvVersion: string } };
-  /** Decodes and prepares in one round trip (what opening a file needs). */
+  /**
+   * Opens an image session: decodes the file, keeps the image in the worker, and returns the
+   * session's id with a copy of the image, the view pyramid and the histogram for the viewer.
+   */
   openImage: {
     args: { bytes: Uint8Array; fileName: string };
-    result: { image: GreyImage; levels: GreyImage[]; histogram: Histogram };
+    result: { sessionId: string; image: GreyImage; levels: GreyImage[]; histogram: GreyHistogram };
   };
-  /** Width-averaged line profile of a crop and its period by both estimators (measuring panel). */
-  profilePeriods: { args: ProfileArgs; result: ProfileResult };
-  /** Power spectrum of a region copy: spots, radial average, rings and a display picture (measuring panel). */
-  regionSpectrum: { args: SpectrumArgs; result: SpectrumResult };
-  /** The spot nearest a clicked frequency of the region's spectrum, refined (measuring panel). */
-  addSpotNear: { args: SpotNearArgs; result: { spot: Spot | null } };
-  /** The region Fourier-filtered to chosen spots and their Friedel mates, as pictures (measuring panel). */
-  filterSpots: { args: FilterArgs; result: FilterResult };
+  /** Ends a session and frees its image and cached spectra. */
+  closeImage: { args: InSession; result: { closed: boolean } };
+  /** Replaces a session's calibration; nothing is measured again (records keep pixels). */
+  recalibrate: { args: InSession & { calibration: Calibration | null }; result: { sessionId: string } };
+  /** Runs a registered measurement tool (src/measure/tools.ts) on the session's image. */
+  runTool: { args: InSession & { tool: string; target: Region | null; settings?: Record<string, unknown> }; result: Measurement };
+  /** A line profile of the session's image and its period by both estimators (Periods panel). */
+  profile: { args: InSession & { line: ProfileLine; estimator: ProfileEstimator }; result: ProfileView };
+  /** A region's power spectrum: spots, radial average, rings and a display picture; cached per region (Periods panel). */
+  spectrum: { args: InSession & { rect: RectPx; settings: SpectrumSettings; displayPx: number }; result: SpectrumView };
+  /** The spot nearest a clicked frequency of a region's cached spectrum: no transform (statistical uncertainty only). */
+  spotNear: { args: InSession & { rect: RectPx; settings: SpectrumSettings; fx: number; fy: number; radiusBins?: number }; result: { spot: Spot | null } };
+  /** A spot refined where its fringes are, with its full budget (after spotNear). */
+  spotBudget: { args: InSession & { rect: RectPx; settings: SpectrumSettings; spot: Spot }; result: { spot: Spot } };
+  /** A region and its Fourier-filtered version (chosen spots and Friedel mates), as pictures. */
+  filter: { args: InSession & { rect: RectPx; spots: { fx: number; fy: number }[]; displayPx: number }; result: FilterView };
+  /** What a session has done: region transforms run and requests answered from its cache. */
+  sessionStats: { args: InSession; result: { regionTransforms: number; cacheHits: number } };
+  /** Crop: the power spectrum of a copy of a region's pixels (Calibration panel). */
+  regionSpectrum: {
+    args: { image: GreyImage; originX: number; originY: number; settings: SpectrumSettings; displayPx: number };
+    result: SpectrumView;
+  };
   /** Reads a diffraction pattern's text and fits its peaks (seconds on a few thousand points). */
   analysePattern: { args: { text: string; wavelength?: string; fileName?: string }; result: { pattern: Pattern; analysis: PatternAnalysis } };
-  /** Automatic sheet detection over an image (a copy is sent), skipping a scale-bar strip or panel. */
+  /** Crop: automatic sheet detection over a copy of an image, skipping a scale-bar strip or panel (Sheets panel). */
   autoSheets: { args: { image: GreyImage; polarity: 'dark' | 'bright' }; result: { sheets: AutoSheetsResult; excludedBox: [number, number, number, number] | null } };
 }
 

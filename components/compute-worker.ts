@@ -1,14 +1,41 @@
 /// <reference lib="webworker" />
 /**
- * The compute worker: heavy work off the page's thread. One handler per call in the table
- * below; results are sent back with their ArrayBuffers transferred, not copied.
+ * The compute worker: heavy work off the page's thread, and the owner of the image sessions. One
+ * handler per call in the table below, each a thin call into the core; results are sent back
+ * with their ArrayBuffers transferred, not copied (a session's own arrays are never in a result).
  */
 import type { CallArgs, CallName, CallResult, ComputeRequest, ComputeResponse } from './compute-protocol';
 import { transferablesOf } from './compute-protocol';
-import { buildPyramid, histogram } from './pyramid';
-import { addSpotNear, filterSpots, profilePeriods, regionSpectrum } from './measure-worker-calls';
+import type { GreyImage } from '../src/image/grey-image';
+import { buildPyramid } from '../src/image/pyramid';
+import { greyHistogram } from '../src/image/display';
+import {
+  createImageSession,
+  filterIn,
+  prepareRegionSpots,
+  profileIn,
+  recalibrateSession,
+  regionAnalysis,
+  spectrumView,
+  spotBudgetIn,
+  spotNearIn,
+  type ImageSession,
+} from '../src/measure/session';
+import { toolOf } from '../src/measure/tools';
 
 type Handlers = { [K in CallName]: (args: CallArgs<K>) => Promise<CallResult<K>> | CallResult<K> };
+
+/** The open sessions by id (this worker's only state). */
+const sessions = new Map<string, ImageSession>();
+
+/** Work to do once the current reply is sent (a prefetch the next request will want). */
+let afterReply: (() => Promise<void>) | null = null;
+
+function sessionOf(id: string): ImageSession {
+  const s = sessions.get(id);
+  if (!s) throw new Error(`the image is no longer open in the compute worker (session ${JSON.stringify(id)}): open it again`);
+  return s;
+}
 
 async function decode(args: CallArgs<'decode'>): Promise<CallResult<'decode'>> {
   const { decodeImage } = await import('../src/image/decode');
@@ -19,7 +46,7 @@ function prepareView(args: CallArgs<'prepareView'>): CallResult<'prepareView'> {
   const levels = buildPyramid(args.image, { smallestSidePx: args.smallestSidePx });
   // The histogram of a level of about a million pixels shows the same distribution at a fraction of the cost.
   const forHistogram = [args.image, ...levels].find((l) => l.width * l.height <= 1 << 20) ?? levels[levels.length - 1] ?? args.image;
-  return { levels, histogram: histogram(forHistogram) };
+  return { levels, histogram: greyHistogram(forHistogram) };
 }
 
 async function warmUp(): Promise<CallResult<'warmUp'>> {
@@ -30,24 +57,62 @@ async function warmUp(): Promise<CallResult<'warmUp'>> {
   return { opencvVersion: version };
 }
 
+/** Refuses a region larger than opencv.js's heap can hold, with the size to draw instead. */
+async function guardRegion(width: number, height: number, origin: { x: number; y: number }): Promise<void> {
+  const { checkSpectrumRegion } = await import('../src/image/size-limits');
+  checkSpectrumRegion(width, height, origin, 'app');
+}
+
 const handlers: Handlers = {
   decode,
-  downsample: async ({ image, factor }) => (await import('../src/image/downsample')).downsample(image, factor),
   prepareView,
   warmUp,
   openImage: async (args) => {
     const image = await decode(args);
-    return { image, ...prepareView({ image }) };
+    const sessionId = globalThis.crypto.randomUUID();
+    sessions.set(sessionId, createImageSession(sessionId, image));
+    // The page gets a copy for its viewer (transferred); the session keeps the original.
+    const copy: GreyImage = { ...image, data: image.data.slice(), warnings: [...image.warnings] };
+    return { sessionId, image: copy, ...prepareView({ image }) };
   },
-  profilePeriods,
+  closeImage: ({ sessionId }) => ({ closed: sessions.delete(sessionId) }),
+  recalibrate: ({ sessionId, calibration }) => {
+    recalibrateSession(sessionOf(sessionId), calibration);
+    return { sessionId };
+  },
+  runTool: async ({ sessionId, tool, target, settings }) => {
+    const s = sessionOf(sessionId);
+    const entry = toolOf(tool);
+    if (target?.kind === 'rect' && (entry.kind === 'spectrum' || entry.kind === 'rings')) await guardRegion(target.width, target.height, target);
+    return entry.run(s.image, target, settings);
+  },
+  profile: ({ sessionId, line, estimator }) => profileIn(sessionOf(sessionId), line, estimator),
+  spectrum: async ({ sessionId, rect, settings, displayPx }) => {
+    const s = sessionOf(sessionId);
+    await guardRegion(rect.width, rect.height, rect);
+    const view = spectrumView(await regionAnalysis(s, rect, settings), displayPx, settings.alpha);
+    // after the reply: what a click on the spectrum will need, so that a click runs no transform
+    afterReply = () => prepareRegionSpots(s, rect, settings);
+    return view;
+  },
+  spotNear: ({ sessionId, rect, settings, fx, fy, radiusBins }) => ({ spot: spotNearIn(sessionOf(sessionId), rect, settings, fx, fy, radiusBins) }),
+  spotBudget: async ({ sessionId, rect, settings, spot }) => ({ spot: await spotBudgetIn(sessionOf(sessionId), rect, settings, spot) }),
+  filter: ({ sessionId, rect, spots, displayPx }) => filterIn(sessionOf(sessionId), rect, spots, displayPx),
+  sessionStats: ({ sessionId }) => ({ ...sessionOf(sessionId).stats }),
   regionSpectrum: async (args) => {
-    // a region larger than opencv.js's heap can hold is refused with the size to draw instead
-    const { checkSpectrumRegion } = await import('../src/image/size-limits');
-    checkSpectrumRegion(args.image.width, args.image.height, { x: args.originX, y: args.originY }, 'app');
-    return regionSpectrum(args);
+    // crop call: the pixels come with the request; a one-off session on them
+    await guardRegion(args.image.width, args.image.height, { x: args.originX, y: args.originY });
+    const s = createImageSession('crop', args.image, { maxRegions: 1 });
+    const view = spectrumView(await regionAnalysis(s, { x: 0, y: 0, width: args.image.width, height: args.image.height }, args.settings), args.displayPx, args.settings.alpha);
+    const m = view.measurement;
+    const area = m.detail?.area as { x: number; y: number; width: number; height: number } | undefined;
+    const moved: typeof m = {
+      ...m,
+      region: { kind: 'rect', x: args.originX, y: args.originY, width: args.image.width, height: args.image.height },
+      ...(m.detail && area ? { detail: { ...m.detail, area: { ...area, x: area.x + args.originX, y: area.y + args.originY } } } : {}),
+    };
+    return { ...view, measurement: moved };
   },
-  addSpotNear,
-  filterSpots,
   autoSheets: async ({ image, polarity }) => {
     const { findScaleBar } = await import('../src/calibration/scale-bar');
     const { detectSheets } = await import('../src/sheets/detect');
@@ -77,4 +142,7 @@ scope.onmessage = async (event: MessageEvent<ComputeRequest>) => {
     reply = { id, ok: false, error: { name: err.name, message: err.message } };
   }
   scope.postMessage(reply, reply.ok ? transferablesOf(reply.result) : []);
+  const next = afterReply;
+  afterReply = null;
+  if (next) await next().catch(() => undefined); // a failed prefetch is redone (and reported) by the request that needs it
 };

@@ -12,7 +12,7 @@ import { dToTwoTheta, parseWavelength, XRAY_LINES } from '../src/diffraction/bra
 import { parsePattern, parsePeakList, type ManualPeak, type Pattern, type PeakListUnit } from '../src/diffraction/pattern';
 import { reconcile, type DiffractionLine, type MicrographPeriod, type Reconciliation } from '../src/diffraction/reconcile';
 import { indexSeries, type IndexedSeries } from '../src/diffraction/series';
-import { niceTicks } from './plot-line';
+import { niceTicks } from '../src/figure/ticks';
 import { controlStyles, panelStyles } from './styles';
 
 export const panelLabel = 'Diffraction';

@@ -1,17 +1,22 @@
 import { LitElement, css, html, nothing, svg, type PropertyValues } from 'lit';
 import { classMap } from 'lit/directives/class-map.js';
-import type { GreyImage } from '../src/image/grey-image';
-import { budgetContents, expressPeriod, formatPlusMinus, nmPerPxAlong, type Measurement, type Periodicity, type UncertaintyBudget } from '../src/measure/measurement';
+import { CALIBRATION_SOURCE_WORDS, type GreyImage } from '../src/image/grey-image';
+import { displayPicture, type Picture } from '../src/image/display';
+import { budgetContents, expressPeriod, formatPlusMinus, nmPerPxAlong, withIdentity, type Measurement, type Periodicity, type UncertaintyBudget } from '../src/measure/measurement';
 import { calibrationPartsText } from '../src/calibration/calibration';
 import { angleBetweenDeg, ringPeriodicity, type Spot } from '../src/measure/spectrum';
+import { spotPeriodicity } from '../src/measure/spot-near';
+import { withTableSpots } from '../src/measure/session';
+import { measurementsCsv, measurementsJson } from '../src/measure/export';
+import { toolOf } from '../src/measure/tools';
+import { periodLabel } from '../src/figure/shapes';
 import type { WindowKind } from '../src/measure/window';
 import { putMeasurement } from '../src/store/library';
 import type { ImageRecord } from '../src/store/records';
 import type { LibraryDb } from '../src/store/schema';
 import type { ComputeClient } from './compute-client';
-import { calibrationSourceText, cropImage, jsonNumbers } from './measure-format';
-import { spotPeriodicity } from '../src/measure/spot-near';
-import type { FilterResult, Picture, ProfileEstimator, ProfileResult, SpectrumResult, SpectrumSettings } from './measure-types';
+import type { FilterView, ProfileEstimator, ProfileView, SpectrumSettings, SpectrumView } from './compute-protocol';
+import { download } from './download';
 import { linePlot, plotStyles, type PlotPoint } from './plot-line';
 import { controlStyles } from './styles';
 import type { LineDrawnDetail, OverlayShape, RectDrawnDetail, StrataViewer } from './viewer';
@@ -32,30 +37,10 @@ const PLOT_WIDTH = 330;
  * part shown at this zoom (the central 1/zoom), so spots near zero frequency stay visible.
  */
 function spectrumPicture(p: { width: number; height: number; logPower: Float32Array }, zoom: number): Picture {
-  const { width: w, height: h, logPower: v } = p;
+  const { width: w, height: h } = p;
   const hw = Math.max(1, Math.floor(w / (2 * zoom)));
   const hh = Math.max(1, Math.floor(h / (2 * zoom)));
-  const sample: number[] = [];
-  const step = Math.max(1, Math.floor((4 * hw * hh) / 40000));
-  let k = 0;
-  for (let y = (h >> 1) - hh; y < (h >> 1) + hh; y++) {
-    if (y < 0 || y >= h) continue;
-    for (let x = (w >> 1) - hw; x < (w >> 1) + hw; x++) {
-      if (x >= 0 && x < w && k++ % step === 0) sample.push(v[y * w + x]);
-    }
-  }
-  sample.sort((a, b) => a - b);
-  const lo = sample[Math.floor(0.02 * (sample.length - 1))] ?? 0;
-  let hi = sample[Math.floor(0.998 * (sample.length - 1))] ?? 1;
-  if (!(hi > lo)) hi = lo + 1;
-  const scale = 255 / (hi - lo);
-  const rgba = new Uint8ClampedArray(w * h * 4);
-  for (let i = 0; i < w * h; i++) {
-    const g = (v[i] - lo) * scale;
-    rgba[4 * i] = rgba[4 * i + 1] = rgba[4 * i + 2] = g;
-    rgba[4 * i + 3] = 255;
-  }
-  return { width: w, height: h, rgba };
+  return displayPicture(p.logPower, w, h, { lowPercent: 2, highPercent: 99.8, limitsFrom: { x: (w >> 1) - hw, y: (h >> 1) - hh, width: 2 * hw, height: 2 * hh } });
 }
 
 /** A spot in the table: found by the search or added by a click. */
@@ -63,6 +48,8 @@ interface TableSpot extends Spot {
   /** Number shown in the table and on the spectrum (stable while the spot exists). */
   n: number;
   added: boolean;
+  /** True while its full budget is being computed (its ± holds the statistical part only). */
+  budgeting?: boolean;
 }
 
 const WINDOW_HELP: Record<WindowKind, string> = {
@@ -85,11 +72,13 @@ const ALPHAS = [0.05, 0.01, 0.001, 1e-4, 1e-6];
  * `<strata-measure-panel>`: periods of lattice fringes and lamellae, from a line profile and from
  * the 2D power spectrum of a region.
  *
- * Properties (given by the app shell): `image`, `record`, `db`, `compute`, `viewer`, `line`, `rect`.
+ * Properties (given by the app shell): `image`, `record`, `db`, `compute`, `session` (the id of
+ * the image's session in the compute worker), `viewer`, `line`, `rect`.
  * Events: `status-message` {text, kind}, `overlay-shapes` {shapes}, `library-changed`.
  * Heavy work (profile periods, spectrum, spot refinement, Fourier filter) runs in the compute
- * worker on copies of the drawn region, so the page stays responsive and the viewer's image is
- * never detached.
+ * worker on the image it holds: requests carry the session id and the line or region, never
+ * pixels. A region's spectrum stays cached there, so clicking a spot runs no transform; a new
+ * calibration re-expresses the numbers shown and measures nothing again.
  */
 export class StrataMeasurePanel extends LitElement {
   static override properties = {
@@ -97,6 +86,7 @@ export class StrataMeasurePanel extends LitElement {
     record: { attribute: false },
     db: { attribute: false },
     compute: { attribute: false },
+    session: { attribute: false },
     viewer: { attribute: false },
     line: { attribute: false },
     rect: { attribute: false },
@@ -130,6 +120,8 @@ export class StrataMeasurePanel extends LitElement {
   record: ImageRecord | null = null;
   db: LibraryDb | null = null;
   compute: ComputeClient | null = null;
+  /** The id of the image's session in the compute worker (null until the image is open there). */
+  session: string | null = null;
   viewer: StrataViewer | null = null;
   line: LineDrawnDetail | null = null;
   rect: RectDrawnDetail | null = null;
@@ -138,17 +130,17 @@ export class StrataMeasurePanel extends LitElement {
   alpha = 0.001;
   estimator: ProfileEstimator = 'hann';
   widthPx = 5;
-  profile: ProfileResult | null = null;
+  profile: ProfileView | null = null;
   profileLine: LineDrawnDetail | null = null;
   profileBusy = false;
   profileError = '';
-  spectrum: SpectrumResult | null = null;
+  spectrum: SpectrumView | null = null;
   spectrumRect: RectDrawnDetail | null = null;
   spots: TableSpot[] = [];
   selected: number[] = [];
   spectrumBusy = false;
   spectrumError = '';
-  filtered: FilterResult | null = null;
+  filtered: FilterView | null = null;
   showFiltered = true;
   /** Whether the Fourier-filtered region is laid over the micrograph in the viewer. */
   filterOverImage = false;
@@ -166,6 +158,8 @@ export class StrataMeasurePanel extends LitElement {
   private spectrumRun = 0;
   private nextSpot = 1;
   private lastData: Float32Array | null = null;
+  /** Set at a click on the spectrum: the next render that shows the new spot marks the time to its numbers. */
+  private numbersMark: string | null = null;
 
   static override styles = [
     controlStyles,
@@ -226,9 +220,11 @@ export class StrataMeasurePanel extends LitElement {
         this.lastData = data;
         this.resetResults();
       } else if (this.image) {
-        // Same pixels, new calibration: measure again so the nm values follow it.
-        if (this.profileLine) void this.runProfile(this.profileLine);
-        if (this.spectrumRect) void this.runSpectrum(this.spectrumRect);
+        // Same pixels, new calibration: the records keep pixels, so every value shown is
+        // re-expressed with it (expressPeriod in render); nothing is measured again.
+        this.savedProfile = '';
+        this.savedSpectrum = '';
+        this.sendShapes();
       }
     }
     if (changed.has('viewer') && this.viewer) {
@@ -274,22 +270,20 @@ export class StrataMeasurePanel extends LitElement {
   private sendShapes(): void {
     const shapes: OverlayShape[] = [];
     const cal = this.image?.calibration ?? null;
-    if (this.spectrumRect) {
-      const top = this.spots[0];
-      const label = top ? `FFT region · d ${this.dText(top.periodPx, cal, top.angleDeg, 'normal')}` : 'FFT region';
-      shapes.push({ kind: 'rect', ...this.spectrumRect, label, tone: 'info' });
+    // each tool's figure from the registry, with the calibration in force
+    if (this.spectrum && this.spectrumRect) {
+      shapes.push(...toolOf('spectrum').figure({ ...this.spectrum.measurement, calibration: cal, periodicities: this.spots.map(spotPeriodicity) }));
+    } else if (this.spectrumRect) {
+      shapes.push({ kind: 'rect', ...this.spectrumRect, label: 'FFT region', tone: 'info' });
     }
-    if (this.profileLine) {
-      const p = this.profile?.spectral;
-      shapes.push({ kind: 'line', ...this.profileLine, label: p ? `profile · d ${this.dText(p.periodPx, cal, this.profile?.angleDeg ?? 0)}` : 'profile', tone: 'accent' });
-    }
+    if (this.profile) shapes.push(...toolOf('profile').figure({ ...this.profile.measurement, calibration: cal }));
+    else if (this.profileLine) shapes.push({ kind: 'line', ...this.profileLine, label: 'profile', tone: 'accent' });
     this.dispatchEvent(new CustomEvent('overlay-shapes', { detail: { shapes }, bubbles: true, composed: true }));
   }
 
-  /** A short d for labels: nm when calibrated, px otherwise. */
+  /** A short d for labels: nm when calibrated, px otherwise (the figures' own label). */
   private dText(periodPx: number, cal: GreyImage['calibration'], angleDeg = 0, geometry: Periodicity['geometry'] = 'line'): string {
-    if (!cal) return `${periodPx.toPrecision(4)} px`;
-    return `${(periodPx * nmPerPxAlong(cal, geometry, angleDeg)).toPrecision(4)} nm`;
+    return periodLabel({ periodPx, angleDeg, geometry }, cal);
   }
 
   /** A periodicity's budget at the chosen coverage factor, in nm when calibrated. */
@@ -354,16 +348,12 @@ export class StrataMeasurePanel extends LitElement {
       this.sendShapes();
       return;
     }
-    const cx0 = Math.max(0, Math.floor(Math.min(...xs)) - 1);
-    const cy0 = Math.max(0, Math.floor(Math.min(...ys)) - 1);
-    const cx1 = Math.min(image.width - 1, Math.ceil(Math.max(...xs)) + 1);
-    const cy1 = Math.min(image.height - 1, Math.ceil(Math.max(...ys)) + 1);
-    const crop = cropImage(image, cx0, cy0, cx1 - cx0 + 1, cy1 - cy0 + 1);
+    if (!this.session) return;
     this.profileBusy = true;
     try {
-      const result = await this.compute.call('profilePeriods', {
-        image: crop, originX: cx0, originY: cy0, x0: line.x0 - cx0, y0: line.y0 - cy0, x1: line.x1 - cx0, y1: line.y1 - cy0, widthPx: across, estimator: this.estimator,
-      }, [crop.data.buffer]);
+      const result = await this.compute.call('profile', {
+        sessionId: this.session, line: { x0: line.x0, y0: line.y0, x1: line.x1, y1: line.y1, widthPx: across }, estimator: this.estimator,
+      });
       if (run !== this.profileRun) return;
       this.profile = result;
     } catch (e) {
@@ -383,16 +373,30 @@ export class StrataMeasurePanel extends LitElement {
       this.say('The local library is not open: the result cannot be kept.', 'error');
       return;
     }
-    const m: Measurement = {
-      ...p.measurement,
-      id: globalThis.crypto.randomUUID(),
-      imageId: this.record?.id ?? null,
-      fileName: this.record?.fileName ?? '',
-      createdIso: new Date().toISOString(),
-      calibration: this.image.calibration,
-      detail: { ...p.measurement.detail, samples: { distancePx: jsonNumbers(p.distancePx), mean: jsonNumbers(p.mean), standardError: jsonNumbers(p.standardError) } },
-    };
-    await this.save(m, (t) => (this.savedProfile = t));
+    await this.save(this.forLibrary(p.measurement), (t) => (this.savedProfile = t));
+  }
+
+  /** A record as the library keeps it: a new id, this image, now, the calibration in force. */
+  private forLibrary(m: Measurement): Measurement {
+    return withIdentity(m, { imageId: this.record?.id ?? null, fileName: this.record?.fileName ?? '', calibration: this.image?.calibration ?? null });
+  }
+
+  /** The records on this tab now: the profile and the region's spectrum with the spots of the table. */
+  private currentRecords(): Measurement[] {
+    const out: Measurement[] = [];
+    if (this.profile && (this.profile.spectral || this.profile.realSpace)) out.push(this.forLibrary(this.profile.measurement));
+    if (this.spectrum) out.push(this.forLibrary(this.spectrumRecord(this.spectrum)));
+    return out;
+  }
+
+  /** Exports the tab's results through the one CSV writer or the one JSON form (src/measure/export.ts). */
+  private exportResults(kind: 'csv' | 'json'): void {
+    const records = this.currentRecords();
+    if (!records.length) return;
+    const base = (this.record?.fileName ?? 'periods').replace(/\.[^.]+$/, '').replace(/[^A-Za-z0-9._-]+/g, '_');
+    if (kind === 'csv') download(`${base}-periods.csv`, measurementsCsv(records, { k: this.coverageK }), 'text/csv');
+    else download(`${base}-periods.json`, `${JSON.stringify(measurementsJson(records, this.coverageK), null, 2)}\n`, 'application/json');
+    this.say(`${records.length} result${records.length === 1 ? '' : 's'} exported as ${kind.toUpperCase()} (± with k = ${this.coverageK}).`);
   }
 
   private async save(m: Measurement, done: (text: string) => void): Promise<void> {
@@ -411,12 +415,6 @@ export class StrataMeasurePanel extends LitElement {
 
   private settings(): SpectrumSettings {
     return { window: this.windowKind, tukeyAlpha: 0.5, alpha: this.alpha };
-  }
-
-  private regionCrop(): GreyImage | null {
-    const r = this.spectrumRect;
-    if (!r || !this.image) return null;
-    return cropImage(this.image, r.x, r.y, r.width, r.height);
   }
 
   private async runSpectrum(rect: RectDrawnDetail): Promise<void> {
@@ -438,12 +436,12 @@ export class StrataMeasurePanel extends LitElement {
       this.spectrumError = `The region is ${rect.width} × ${rect.height} px: draw one of at most 4096 × 4096 px.`;
       return;
     }
-    const crop = cropImage(image, rect.x, rect.y, rect.width, rect.height);
+    if (!this.session) return;
     this.spectrumBusy = true;
     try {
-      const result = await this.compute.call('regionSpectrum', {
-        image: crop, originX: rect.x, originY: rect.y, settings: this.settings(), displayPx: PICTURE_PX,
-      }, [crop.data.buffer]);
+      const result = await this.compute.call('spectrum', {
+        sessionId: this.session, rect: { x: rect.x, y: rect.y, width: rect.width, height: rect.height }, settings: this.settings(), displayPx: PICTURE_PX,
+      });
       if (run !== this.spectrumRun) return;
       this.spectrum = result;
       this.nextSpot = 1;
@@ -464,13 +462,13 @@ export class StrataMeasurePanel extends LitElement {
 
   /** CSS px per picture pixel at zoom 1. */
   private pictureScale(): number {
-    const p = (this.spectrum as SpectrumResult).picture;
+    const p = (this.spectrum as SpectrumView).picture;
     return SPECTRUM_CSS_PX / Math.max(p.width, p.height);
   }
 
   /** The visible frame (CSS px) and the zoomed picture's offset and scale inside it. */
   private frame() {
-    const s = this.spectrum as SpectrumResult;
+    const s = this.spectrum as SpectrumView;
     const base = this.pictureScale();
     const cw = Math.round(s.picture.width * base);
     const ch = Math.round(s.picture.height * base);
@@ -480,7 +478,7 @@ export class StrataMeasurePanel extends LitElement {
 
   /** Transform bin (signed, DC = 0) → CSS px in the visible frame. */
   private binToCss(su: number, sv: number): [number, number] {
-    const s = this.spectrum as SpectrumResult;
+    const s = this.spectrum as SpectrumView;
     const k = s.binsPerPicturePx;
     const f = this.frame();
     return [(((s.width >> 1) + su + 0.5) / k) * f.scale + f.left, (((s.height >> 1) + sv + 0.5) / k) * f.scale + f.top];
@@ -488,7 +486,7 @@ export class StrataMeasurePanel extends LitElement {
 
   /** CSS px in the visible frame → transform bin (signed, DC = 0, fractional). */
   private cssToBin(x: number, y: number): [number, number] {
-    const s = this.spectrum as SpectrumResult;
+    const s = this.spectrum as SpectrumView;
     const k = s.binsPerPicturePx;
     const f = this.frame();
     return [((x - f.left) / f.scale) * k - 0.5 - (s.width >> 1), ((y - f.top) / f.scale) * k - 0.5 - (s.height >> 1)];
@@ -538,13 +536,16 @@ export class StrataMeasurePanel extends LitElement {
   }
 
   private async addSpot(fx: number, fy: number): Promise<void> {
-    const crop = this.regionCrop();
-    if (!crop || !this.compute) return;
+    const r = this.spectrumRect;
+    if (!r || !this.spectrum || !this.compute || !this.session) return;
+    performance.mark('strata-spot-click');
     fx = Math.max(-0.5, Math.min(0.5, fx));
     fy = Math.max(-0.5, Math.min(0.5, fy));
     const run = this.spectrumRun;
+    const at = { sessionId: this.session, rect: { x: r.x, y: r.y, width: r.width, height: r.height }, settings: this.settings() };
     try {
-      const { spot } = await this.compute.call('addSpotNear', { image: crop, settings: this.settings(), fx, fy, radiusBins: 3 }, [crop.data.buffer]);
+      // 1: the spot from the region's cached spectrum (no transform), shown at once
+      const { spot } = await this.compute.call('spotNear', { ...at, fx, fy, radiusBins: 3 });
       if (run !== this.spectrumRun) return;
       if (!spot) {
         this.say('No spot above the background near that point of the power spectrum.', 'error');
@@ -558,12 +559,18 @@ export class StrataMeasurePanel extends LitElement {
         this.say(`Spot #${same.n} is already in the table; it is now selected.`);
         return;
       }
-      const t: TableSpot = { ...spot, n: this.nextSpot++, added: true };
+      const t: TableSpot = { ...spot, n: this.nextSpot++, added: true, budgeting: true };
       this.spots = [...this.spots, t];
       this.selected = [...this.selected, t.n];
       this.savedSpectrum = '';
-      this.say(`Spot #${t.n} added: d ${this.dText(t.periodPx, this.image?.calibration ?? null, t.angleDeg, 'normal')}, ${t.angleDeg.toFixed(1)}°.`);
+      this.numbersMark = 'strata-spot-numbers';
+      // 2: refined where its fringes are, with its full budget, like the automatic spots
+      const { spot: full } = await this.compute.call('spotBudget', { ...at, spot });
+      if (run !== this.spectrumRun || !this.spots.some((x) => x.n === t.n)) return;
+      this.spots = this.spots.map((x) => (x.n === t.n ? { ...full, n: t.n, added: true } : x));
+      this.say(`Spot #${t.n} added: d ${this.dText(full.periodPx, this.image?.calibration ?? null, full.angleDeg, 'normal')}, ${full.angleDeg.toFixed(1)}°.`);
     } catch (e) {
+      this.spots = this.spots.map((x) => (x.budgeting ? { ...x, budgeting: false } : x));
       this.say(`The spot could not be added: ${(e as Error).message}`, 'error');
     }
   }
@@ -595,19 +602,26 @@ export class StrataMeasurePanel extends LitElement {
   }
 
   private async runFilter(): Promise<void> {
-    const crop = this.regionCrop();
-    if (!crop || !this.compute) return;
+    const r = this.spectrumRect;
+    if (!r || !this.compute || !this.session) return;
     const chosen = this.spots.filter((s) => this.selected.includes(s.n));
     if (!chosen.length) return;
     this.filterBusy = true;
     try {
-      this.filtered = await this.compute.call('filterSpots', { image: crop, spots: chosen.map((s) => ({ fx: s.fx, fy: s.fy })), displayPx: PICTURE_PX }, [crop.data.buffer]);
+      this.filtered = await this.compute.call('filter', {
+        sessionId: this.session, rect: { x: r.x, y: r.y, width: r.width, height: r.height }, spots: chosen.map((s) => ({ fx: s.fx, fy: s.fy })), displayPx: PICTURE_PX,
+      });
       this.showFiltered = true;
     } catch (e) {
       this.say(`The Fourier filter failed: ${(e as Error).message}`, 'error');
     } finally {
       this.filterBusy = false;
     }
+  }
+
+  /** The region's record with the spots of the table (some removed, some added by a click). */
+  private spectrumRecord(s: SpectrumView): Measurement {
+    return withTableSpots(s.measurement, this.spots.map((t) => ({ spot: t, number: t.n, addedByHand: t.added })), s.rings, this.selected);
   }
 
   private async saveSpectrum(): Promise<void> {
@@ -617,29 +631,7 @@ export class StrataMeasurePanel extends LitElement {
       this.say('The local library is not open: the result cannot be kept.', 'error');
       return;
     }
-    const cal = this.image.calibration;
-    const base = s.measurement;
-    const ordered = [...this.spots].sort((a, b) => b.normalisedPower - a.normalisedPower);
-    const m: Measurement = {
-      ...base,
-      id: globalThis.crypto.randomUUID(),
-      imageId: this.record?.id ?? null,
-      fileName: this.record?.fileName ?? '',
-      createdIso: new Date().toISOString(),
-      calibration: cal,
-      periodicities: ordered.map(spotPeriodicity),
-      detail: {
-        ...base.detail,
-        spots: ordered.map((t) => ({
-          number: t.n, fxPerPx: t.fx, fyPerPx: t.fy, normalisedPower: t.normalisedPower, snr: t.snr,
-          addedByHand: t.added,
-        })),
-        rings: s.rings.map(ringPeriodicity),
-        selectedSpots: [...this.selected],
-      },
-      notes: [...base.notes, ...(ordered.some((t) => t.added) ? ['spots added by hand are not tested for significance'] : [])],
-    };
-    await this.save(m, (t) => (this.savedSpectrum = t));
+    await this.save(this.forLibrary(this.spectrumRecord(s)), (t) => (this.savedSpectrum = t));
   }
 
   // ---------------------------------------------------------------- rendering
@@ -654,7 +646,7 @@ export class StrataMeasurePanel extends LitElement {
       return html`<p class="cal none" role="note"><b>Uncalibrated</b>: periods are given in px only. Calibrate the pixel size (scale bar, lattice standard or a typed value) to get nm. ${k}</p>`;
     }
     return html`<p class="cal num" title=${`${cal.detail}; ${calibrationPartsText(cal)}`}>Pixel size <b>${cal.nmPerPx.toPrecision(4)} nm/px</b>${cal.nmPerPxY ? html` × ${cal.nmPerPxY.toPrecision(4)} nm/px` : nothing}
-      from ${calibrationSourceText(cal)}, u = ${(cal.relUncertainty * 100).toPrecision(2)} % (k = 1), included in every ± in nm. ${k}</p>`;
+      from ${CALIBRATION_SOURCE_WORDS[cal.source] ?? cal.source}, u = ${(cal.relUncertainty * 100).toPrecision(2)} % (k = 1), included in every ± in nm. ${k}</p>`;
   }
 
   /** What every ± above contains, in words. */
@@ -748,7 +740,7 @@ export class StrataMeasurePanel extends LitElement {
         ${this.periodCard('real space', rs, rs ? pers[sp ? 1 : 0] : undefined, rs ? `extrema and least-squares line; ${rs.extremaPx.length} extrema over ${rs.fringes.toFixed(1)} fringes` : '')}
       </div>`);
       body.push(this.budgetNote(pers));
-      for (const n of p.notes) body.push(html`<p class="note">${n}</p>`);
+      for (const n of p.measurement.notes) body.push(html`<p class="note">${n}</p>`);
       body.push(html`<div class="row">
         <button @click=${() => this.saveProfile()} ?disabled=${!this.db || !(p.spectral || p.realSpace)} title="Keep both estimates in the library with the line, its width, the estimator and the calibration">Save profile periods</button>
         ${this.savedProfile ? html`<span class="note" role="status">${this.savedProfile}</span>` : nothing}</div>`);
@@ -765,7 +757,7 @@ export class StrataMeasurePanel extends LitElement {
     </section>`;
   }
 
-  private renderSpectrumFigure(s: SpectrumResult) {
+  private renderSpectrumFigure(s: SpectrumView) {
     const pic = s.picture;
     const { cw, ch, scale, left, top } = this.frame();
     const cal = this.image?.calibration ?? null;
@@ -809,7 +801,7 @@ export class StrataMeasurePanel extends LitElement {
     </div>`;
   }
 
-  private renderSpotTable(s: SpectrumResult) {
+  private renderSpotTable(s: SpectrumView) {
     const cal = this.image?.calibration ?? null;
     if (!this.spots.length) {
       return html`<p class="note">No spot above the detection threshold (false-alarm probability ${this.alpha} over ${s.searchedBins} FFT bins): no significant lattice fringes in this region. Click the spectrum to measure a spot anyway.</p>`;
@@ -821,7 +813,8 @@ export class StrataMeasurePanel extends LitElement {
         <td>#${t.n}${t.added ? html`<span title="added by hand; not tested for significance">*</span>` : nothing}</td>
         <td class="num">${cal ? html`<div class="dnm">${this.budgetCell(t)}</div>` : nothing}
           <div class=${cal ? 'dpx' : 'dnm'}>${cal ? (() => { const b = expressPeriod(t, null, this.coverageK); return `${formatPlusMinus(b.value, b.expanded)} px`; })() : this.budgetCell(t)}</div>
-          ${t.flags.length ? html`<div class="flag" title="A spot with a doubt is never ranked first">${t.flags.join(', ')}</div>` : nothing}</td>
+          ${t.flags.length ? html`<div class="flag" title="A spot with a doubt is never ranked first">${t.flags.join(', ')}</div>` : nothing}
+          ${t.budgeting ? html`<div class="note busy" role="status" title="Refining the spot where its fringes are; until then its ± holds the statistical part (and the calibration)">budgeting…</div>` : nothing}</td>
         <td class="num">${formatPlusMinus(t.angleDeg, this.coverageK * t.uAngleDeg, 2)}°</td>
         <td class="num">${t.normalisedPower.toPrecision(3)}</td>
         <td><button @click=${() => this.removeSpot(t.n)} aria-label=${`Remove spot ${t.n}`} title="Remove this spot from the table">×</button></td>
@@ -840,7 +833,7 @@ export class StrataMeasurePanel extends LitElement {
         : html`<p class="note">Select two spots to see the angle between their fringe normals.</p>`}`;
   }
 
-  private renderRadial(s: SpectrumResult) {
+  private renderRadial(s: SpectrumView) {
     const cal = this.image?.calibration ?? null;
     const k = cal ? 1 / cal.nmPerPx : 1;
     const rings = s.rings.slice(0, 4);
@@ -909,8 +902,25 @@ export class StrataMeasurePanel extends LitElement {
     return html`<section aria-labelledby="h-spectrum"><h2 id="h-spectrum">Power spectrum of a region</h2>${this.renderSettings()}${body}</section>`;
   }
 
+  /** Export of the tab's results (the profile and the region's spots) through the one CSV writer and JSON form. */
+  private renderExport() {
+    const any = (this.profile && (this.profile.spectral || this.profile.realSpace)) || this.spectrum;
+    if (!any) return nothing;
+    return html`<section aria-labelledby="h-export"><h2 id="h-export">Export</h2>
+      <div class="row">
+        <button class="export-csv" @click=${() => this.exportResults('csv')} title="One row per period: px with its uncertainty parts, nm with every part, combined and expanded (k as chosen above), direction, strength">Export CSV</button>
+        <button class="export-json" @click=${() => this.exportResults('json')} title="The records as the library keeps them (px and parts, calibration, settings), with each period's budget in nm">Export JSON</button>
+      </div></section>`;
+  }
+
   protected override updated(): void {
     this.syncViewerOverlay();
+    if (this.numbersMark) {
+      // the clicked spot's numbers are in the table now: click → numbers on the performance timeline
+      performance.mark(this.numbersMark);
+      performance.measure('strata-spot-click-to-numbers', 'strata-spot-click', this.numbersMark);
+      this.numbersMark = null;
+    }
     // Sizes and offsets go through the CSSOM (allowed by the page's content security policy, unlike style attributes).
     for (const el of this.renderRoot.querySelectorAll<HTMLElement>('[data-w]')) {
       const d = el.dataset;
@@ -947,7 +957,7 @@ export class StrataMeasurePanel extends LitElement {
     if (!this.image) {
       return html`<p class="empty">Open a micrograph to measure lattice-fringe and lamellar periods: a line profile across the fringes, or the power spectrum of a region.</p>`;
     }
-    return html`${this.renderCalibration()}${this.renderTools()}${this.renderProfile()}${this.renderSpectrum()}`;
+    return html`${this.renderCalibration()}${this.renderTools()}${this.renderProfile()}${this.renderSpectrum()}${this.renderExport()}`;
   }
 }
 

@@ -4,24 +4,7 @@
  * page's content security policy (no inline styles) holds.
  */
 import { css, html, svg, nothing, type TemplateResult } from 'lit';
-
-/** Tick positions covering [lo, hi] at a step of 1, 2 or 5 × 10^n, about `count` of them. */
-export function niceTicks(lo: number, hi: number, count = 5): number[] {
-  if (!Number.isFinite(lo) || !Number.isFinite(hi)) throw new RangeError(`tick range must be finite, got ${lo} to ${hi}`);
-  if (!(hi > lo)) return [lo];
-  const raw = (hi - lo) / Math.max(1, count);
-  const p = Math.pow(10, Math.floor(Math.log10(raw)));
-  const step = [1, 2, 5, 10].map((m) => m * p).find((s) => s >= raw) ?? 10 * p;
-  const out: number[] = [];
-  for (let t = Math.ceil(lo / step - 1e-9) * step; t <= hi + step * 1e-9; t += step) out.push(Math.abs(t) < step * 1e-9 ? 0 : t);
-  return out;
-}
-
-/** A tick label: as few digits as the step needs. */
-function tickText(t: number, step: number): string {
-  const digits = Math.max(0, Math.min(6, -Math.floor(Math.log10(step) + 1e-9)));
-  return t.toFixed(digits);
-}
+import { niceTicks, tickText } from '../src/figure/ticks';
 
 /** A point marker on the trace (fringe maximum, minimum or a chosen point). */
 export interface PlotPoint {

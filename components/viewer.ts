@@ -1,7 +1,7 @@
 import { LitElement, css, html, svg, nothing, type PropertyValues } from 'lit';
 import type { GreyImage } from '../src/image/grey-image';
-import { percentileRange } from '../src/image/downsample';
-import { histogram as makeHistogram, type Histogram } from './pyramid';
+import { displayLimits, greyHistogram, stretchToGrey, type GreyHistogram } from '../src/image/display';
+import { lengthLabel, niceLengthAtMost } from '../src/figure/ticks';
 import { controlStyles } from './styles';
 
 /** The drawing tool the pointer is bound to. */
@@ -37,21 +37,6 @@ type Drag =
   | { mode: 'width' };
 
 const ZOOM_STEP = 1.25;
-const NICE = [1, 2, 5];
-
-/** A length near `target` of the form 1, 2 or 5 × 10^n. */
-function niceLength(target: number): number {
-  const p = Math.pow(10, Math.floor(Math.log10(target)));
-  let best = p;
-  for (const n of NICE) if (n * p <= target) best = n * p;
-  return best;
-}
-
-function formatNm(nm: number): string {
-  if (nm >= 1000) return `${+(nm / 1000).toPrecision(3)} µm`;
-  return `${+nm.toPrecision(3)} nm`;
-}
-
 function formatValue(v: number): string {
   if (!Number.isFinite(v)) return String(v);
   if (Number.isInteger(v)) return String(v);
@@ -109,7 +94,7 @@ export class StrataViewer extends LitElement {
 
   image: GreyImage | null = null;
   levels: GreyImage[] = [];
-  histogram: Histogram | null = null;
+  histogram: GreyHistogram | null = null;
   tool: ViewerTool = 'pan';
   shapes: OverlayShape[] = [];
   /**
@@ -141,7 +126,7 @@ export class StrataViewer extends LitElement {
   private viewH = 0;
   private frame = 0;
   private resizer: ResizeObserver | null = null;
-  private shownHistogram: Histogram | null = null;
+  private shownHistogram: GreyHistogram | null = null;
   private imageData: ImageData | null = null;
   private shownData: Float32Array | null = null;
   /** Keyboard drawing: the cross-hair and the start point set with Enter (image px). */
@@ -190,7 +175,7 @@ export class StrataViewer extends LitElement {
 
   protected override willUpdate(changed: PropertyValues<this>): void {
     if (changed.has('image') || changed.has('levels') || changed.has('histogram')) {
-      this.shownHistogram = this.histogram ?? (this.image ? makeHistogram(this.statsLevel()) : null);
+      this.shownHistogram = this.histogram ?? (this.image ? greyHistogram(this.statsLevel()) : null);
       // A new image (new pixels) resets the view; the same pixels with a new calibration do not.
       if (changed.has('image') && this.image?.data !== this.shownData) {
         this.shownData = this.image?.data ?? null;
@@ -240,9 +225,9 @@ export class StrataViewer extends LitElement {
   autoLimits(): void {
     if (!this.image) return;
     this.manual = false;
-    const { low, high } = percentileRange(this.statsLevel().data, this.lowPercent, this.highPercent);
-    this.black = Number.isFinite(low) ? low : 0;
-    this.white = high > this.black ? high : this.black + 1;
+    const { black, white } = displayLimits(this.statsLevel().data, { lowPercent: this.lowPercent, highPercent: this.highPercent, step: 1 });
+    this.black = black;
+    this.white = white;
   }
 
   /** Zooms so the whole image fits the view, centred. */
@@ -313,9 +298,11 @@ export class StrataViewer extends LitElement {
     }
     const out = new Uint32Array(this.imageData.data.buffer);
     const bg = 0xff110e0b; // ABGR of #0b0e11
-    const black = this.black;
-    const scale = 255 / (this.white - this.black);
-    const inv = this.invert;
+    // the app's one display stretch (src/image/display.ts), a screen row at a time
+    const limits = { black: this.black, white: this.white > this.black ? this.white : this.black + 1 };
+    const stretch = { invert: this.invert };
+    const rowValues = new Float32Array(W);
+    const rowGrey = new Uint8ClampedArray(W);
     const data = level.data;
     for (let sy = 0; sy < H; sy++) {
       const iy = this.cy + (sy / dpr + 0.5 / dpr - this.viewH / 2) / this.zoom;
@@ -328,14 +315,12 @@ export class StrataViewer extends LitElement {
       const row = ly * lw;
       for (let sx = 0; sx < W; sx++) {
         const c = cols[sx];
-        if (c < 0) {
-          out[o + sx] = bg;
-          continue;
-        }
-        let g = (data[row + c] - black) * scale;
-        g = g < 0 ? 0 : g > 255 ? 255 : g | 0;
-        if (inv) g = 255 - g;
-        out[o + sx] = 0xff000000 | (g << 16) | (g << 8) | g;
+        rowValues[sx] = c < 0 ? 0 : data[row + c];
+      }
+      stretchToGrey(rowValues, limits, rowGrey, stretch);
+      for (let sx = 0; sx < W; sx++) {
+        const g = rowGrey[sx];
+        out[o + sx] = cols[sx] < 0 ? bg : 0xff000000 | (g << 16) | (g << 8) | g;
       }
     }
     ctx.putImageData(this.imageData, 0, 0);
@@ -664,14 +649,14 @@ export class StrataViewer extends LitElement {
     const cal = this.image?.calibration;
     if (!cal || this.viewW === 0) return nothing;
     const nmPerScreenPx = cal.nmPerPx / this.zoom;
-    const lengthNm = niceLength(nmPerScreenPx * Math.min(160, this.viewW / 4));
+    const lengthNm = niceLengthAtMost(nmPerScreenPx * Math.min(160, this.viewW / 4));
     const barPx = lengthNm / nmPerScreenPx;
     const x = 16;
     const y = this.viewH - 22;
     return svg`<g class="scalebar">
       <rect x=${x - 6} y=${y - 20} width=${barPx + 12} height="32" fill="#000" fill-opacity="0.55" rx="3"></rect>
       <rect x=${x} y=${y} width=${barPx} height="5" fill="#fff"></rect>
-      <text x=${x + barPx / 2} y=${y - 6} fill="#fff" font-size="12" text-anchor="middle">${formatNm(lengthNm)}</text></g>`;
+      <text x=${x + barPx / 2} y=${y - 6} fill="#fff" font-size="12" text-anchor="middle">${lengthLabel(lengthNm)}</text></g>`;
   }
 
   private renderReadout() {

@@ -8,7 +8,7 @@ import { dToQ } from '../diffraction/bragg';
 import { budgetCsvCells, budgetCsvHeader, formatBudget } from '../measure/measurement';
 import { groupAndPoolPeriods, type PeriodGroup, type SourcedPeriod } from '../measure/pool';
 import { quantile, summarize } from '../measure/stats';
-import { csvField } from './export';
+import { csvTable } from '../measure/export';
 import { escapeXml } from '../figure/batch-figure';
 import type { FileResult } from './run';
 
@@ -77,7 +77,7 @@ export function comparisonCsv(c: BatchComparison, setName: string): string {
     const b = c.reconciliation.best[i];
     return [setName, ...budgetCsvCells(g.budget), r4(g.birgeRatio), g.n, g.sources.length, b ? Number(b.dNm.toPrecision(6)) : null, r4(b?.dUncNm), b?.label ?? null, r4(b?.relDiff), r4(b?.z)];
   });
-  return `${[head, ...rows].map((r) => r.map(csvField).join(',')).join('\r\n')}\r\n`; // RFC 4180 line breaks, as the other tables
+  return csvTable(head, rows);
 }
 
 /**

@@ -4,37 +4,14 @@
  */
 import { strToU8, zipSync } from 'fflate';
 import { budgetCsvCells, budgetCsvHeader, DEFAULT_COVERAGE_FACTOR, expressPeriod, type UncertaintyBudget } from '../measure/measurement';
+import { CALIBRATION_COLUMNS, csvTable, periodCells, PERIOD_COLUMNS, RECORD_COLUMNS, recordCells, type CsvCell } from '../measure/export';
 import { poolPeriods } from '../measure/pool';
 import { summarize, type Summary } from '../measure/stats';
 import type { Recipe } from './recipe';
 import type { FileResult } from './run';
 
-/** Columns of the results table, in order; units are in the names. */
-export const RESULT_COLUMNS = [
-  'file',
-  'status',
-  'reason',
-  'calibrationSource',
-  'nmPerPx',
-  'calibrationRelUncertainty',
-  'calibrationDetail',
-  'measurementId',
-  'tool',
-  'regionXPx',
-  'regionYPx',
-  'regionWidthPx',
-  'regionHeightPx',
-  'rank',
-  'periodPx',
-  'uStatisticalPx',
-  'uLocalVariationPx',
-  'uMethodPx',
-  ...budgetCsvHeader('period', 'nm'),
-  'angleDeg',
-  'uAngleDeg',
-  'strength',
-  'flags',
-] as const;
+/** Columns of the results table, in order; units are in the names (the common columns of the one CSV writer, src/measure/export.ts). */
+export const RESULT_COLUMNS = ['file', 'status', 'reason', ...CALIBRATION_COLUMNS, ...RECORD_COLUMNS, ...PERIOD_COLUMNS] as const;
 
 /** Columns of the per-file summary table. */
 export const SUMMARY_COLUMNS = [
@@ -54,34 +31,7 @@ export const SUMMARY_COLUMNS = [
   'sdThicknessNm',
 ] as const;
 
-type Cell = string | number | null | undefined;
-
-/**
- * One CSV field, quoted when it has to be.
- *
- * RFC 4180, "Common Format and MIME Type for CSV Files" (2005), section 2.
- *
- * @param value text, number, or null/undefined for an empty field
- * @returns the field: enclosed in double quotes, inner quotes doubled, when it contains a comma,
- *   a double quote, CR or LF (or leading/trailing spaces); numbers in shortest round-trip form
- * Notes: a text starting with =, +, - or @ is prefixed with an apostrophe so a spreadsheet does
- * not run it as a formula (common practice); numbers are never changed.
- */
-export function csvField(value: Cell): string {
-  if (value === null || value === undefined) return '';
-  if (typeof value === 'number') {
-    if (!Number.isFinite(value)) throw new RangeError(`a CSV number must be finite, got ${value}`);
-    return String(value);
-  }
-  let s = String(value);
-  if (/^[=+\-@]/.test(s)) s = `'${s}`;
-  if (/[",\r\n]/.test(s) || /^\s|\s$/.test(s)) return `"${s.replace(/"/g, '""')}"`;
-  return s;
-}
-
-function csvLine(cells: Cell[]): string {
-  return cells.map(csvField).join(',');
-}
+type Cell = CsvCell;
 
 /**
  * The results table: one row per accepted period of every measurement; a measurement without
@@ -93,57 +43,48 @@ function csvLine(cells: Cell[]): string {
  * the table still says what its nm are worth.
  */
 export function resultsCsv(results: FileResult[], k: number = DEFAULT_COVERAGE_FACTOR): string {
-  const lines = [csvLine([...RESULT_COLUMNS])];
+  const rows: Cell[][] = [];
   for (const r of results) {
     const cal = r.calibration;
     const base: Cell[] = [r.file, r.status, r.reason ?? '', cal?.source, cal?.nmPerPx, cal?.relUncertainty, cal?.detail];
     if (r.status === 'failed' || r.measurements.length === 0) {
-      lines.push(csvLine([...base, ...new Array(RESULT_COLUMNS.length - base.length).fill(null)]));
+      rows.push([...base, ...new Array(RESULT_COLUMNS.length - base.length).fill(null)]);
       continue;
     }
     for (const m of r.measurements) {
-      const reg = m.region?.kind === 'rect' ? m.region : null;
-      const mcells: Cell[] = [m.id, m.tool, reg?.x, reg?.y, reg?.width, reg?.height];
+      const mcells = recordCells(m);
       if (m.periodicities.length === 0) {
-        lines.push(csvLine([...base, ...mcells, ...new Array(RESULT_COLUMNS.length - base.length - mcells.length).fill(null)]));
+        rows.push([...base, ...mcells, ...new Array(RESULT_COLUMNS.length - base.length - mcells.length).fill(null)]);
         continue;
       }
-      m.periodicities.forEach((p, i) => {
-        const nm = cal ? budgetCsvCells(expressPeriod(p, cal, k)) : new Array(budgetCsvHeader('period', 'nm').length).fill(null);
-        const px = [p.periodPx, p.u.statisticalPx, p.u.localVariationPx, p.u.methodPx].map((v) => Number(v.toPrecision(7)));
-        lines.push(csvLine([...base, ...mcells, i + 1, ...px, ...nm, Number(p.angleDeg.toFixed(3)), Number(p.uAngleDeg.toPrecision(3)), Number(p.strength.toPrecision(4)), p.flags.join(' ')]));
-      });
+      m.periodicities.forEach((p, i) => rows.push([...base, ...mcells, ...periodCells(p, i + 1, cal, k)]));
     }
   }
-  return `${lines.join('\r\n')}\r\n`;
+  return csvTable(RESULT_COLUMNS, rows);
 }
 
 /** The per-file summary table: one row per file (RFC 4180, as `resultsCsv`). */
 export function summaryCsv(results: FileResult[], k: number = DEFAULT_COVERAGE_FACTOR): string {
-  const lines = [csvLine([...SUMMARY_COLUMNS])];
-  for (const r of results) {
+  return csvTable(SUMMARY_COLUMNS, results.map((r) => {
     const cal = r.calibration;
     const top = r.summary.topPeriods[0];
-    lines.push(
-      csvLine([
-        r.file,
-        r.status,
-        r.reason ?? '',
-        cal?.source,
-        cal?.nmPerPx,
-        cal?.relUncertainty,
-        r.image?.widthPx,
-        r.image?.heightPx,
-        ...(top && cal ? budgetCsvCells(expressPeriod(top, cal, k)) : new Array(budgetCsvHeader('topPeriod', 'nm').length).fill(null)),
-        top?.angleDeg,
-        r.summary.topPeriods.length,
-        r.summary.sheetCount,
-        r.summary.meanThicknessNm,
-        r.summary.sdThicknessNm,
-      ]),
-    );
-  }
-  return `${lines.join('\r\n')}\r\n`;
+    return [
+      r.file,
+      r.status,
+      r.reason ?? '',
+      cal?.source,
+      cal?.nmPerPx,
+      cal?.relUncertainty,
+      r.image?.widthPx,
+      r.image?.heightPx,
+      ...(top && cal ? budgetCsvCells(expressPeriod(top, cal, k)) : new Array(budgetCsvHeader('topPeriod', 'nm').length).fill(null)),
+      top?.angleDeg,
+      r.summary.topPeriods.length,
+      r.summary.sheetCount,
+      r.summary.meanThicknessNm,
+      r.summary.sdThicknessNm,
+    ];
+  }));
 }
 
 /** Statistics of a whole batch. */

@@ -7,6 +7,7 @@
  * hand (or stored by the app), names the path of any offending key, and fills in defaults.
  */
 import { INDICATED_MAGNIFICATION_REL } from '../calibration/calibration';
+import { RECIPE_STEPS } from '../measure/tools';
 
 /** The recipe format this code reads and writes. */
 export const RECIPE_SCHEMA_VERSION = 1;
@@ -320,7 +321,7 @@ function parseMeasurements(v: Json, path: string): MeasurementStep[] {
         objectAt(step, p, ['tool']);
         return { tool };
       default:
-        throw new RecipeError(join(p, 'tool'), `must be one of spectrum, rings, sheets, domains; got ${describe(tool)}`);
+        throw new RecipeError(join(p, 'tool'), `must be one of ${RECIPE_STEPS.join(', ')}; got ${describe(tool)}`);
     }
   });
 }

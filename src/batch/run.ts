@@ -11,6 +11,7 @@ import { makeCalibration } from '../calibration/calibration';
 import { checkCalibration, expressPeriod, type Measurement, type Periodicity, type Region } from '../measure/measurement';
 import { RecordVersionError, upgradeMeasurement, upgradeSummaryPeriod } from '../measure/record-version';
 import type { Acceptance, AnalysisArea, CalibrationRoute, Recipe } from './recipe';
+import { toolOfRecipeStep } from '../measure/tools';
 
 /** Sheets found by the automatic sheet tool, with the thickness of each sheet. */
 export interface SheetsResult {
@@ -378,7 +379,7 @@ export async function processOne(
     // periods of the first periodic step of the recipe (spectrum, rings or domains): their strength scales differ
     const periodStep = recipe.measurements.find((st) => st.tool !== 'sheets');
     const topK = periodStep?.tool === 'spectrum' ? periodStep.topK : 3;
-    const periodTool = periodStep ? ({ spectrum: 'spectrum', rings: 'rings', domains: 'domains' } as const)[periodStep.tool as 'spectrum' | 'rings' | 'domains'] : null;
+    const periodTool = periodStep ? toolOfRecipeStep(periodStep.tool)?.kind ?? null : null;
     const topPeriods: TopPeriod[] = measurements
       .filter((m) => m.tool === periodTool)
       .flatMap((m) =>

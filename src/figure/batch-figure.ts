@@ -9,6 +9,8 @@ import { DRAWABLE_CHARACTERS, drawText, fillRect, measureText, strokeRectOutside
 import type { GreyImage } from '../image/grey-image';
 import type { Region } from '../measure/measurement';
 import { histogram } from '../measure/stats';
+import { displayLimits, stretchToGrey } from '../image/display';
+import { lengthLabel } from './ticks';
 import type { FileResult } from '../batch/run';
 
 /** Options for `roundScaleBar`. */
@@ -25,13 +27,6 @@ export interface RoundScaleBar {
   lengthPx: number;
   /** The label, e.g. "20 nm", "0.5 nm", "2 µm". */
   label: string;
-}
-
-/** Formats a length in nm for a label: nm below 1000 nm, µm above; no trailing zeros. */
-export function lengthLabel(lengthNm: number): string {
-  if (!(lengthNm > 0 && Number.isFinite(lengthNm))) throw new RangeError(`lengthNm must be a positive number, got ${lengthNm}`);
-  const [value, unit] = lengthNm >= 1000 ? [lengthNm / 1000, 'µm'] : [lengthNm, 'nm'];
-  return `${Number(value.toPrecision(6))} ${unit}`;
 }
 
 /**
@@ -69,36 +64,6 @@ export function roundScaleBar(widthPx: number, nmPerPx: number, options: ScaleBa
   return { lengthNm: best, lengthPx: best / nmPerPx, label: lengthLabel(best) };
 }
 
-/** Grey levels for 8-bit display: the 0.5 % and 99.5 % quantiles of the pixels (common practice). */
-function displayRange(image: GreyImage): [number, number] {
-  const { min, max } = image;
-  if (!(max > min)) return [min, min + 1];
-  const bins = 4096;
-  const counts = new Uint32Array(bins);
-  const scale = (bins - 1) / (max - min);
-  const d = image.data;
-  const step = Math.max(1, Math.floor(d.length / 1_000_000));
-  let n = 0;
-  for (let i = 0; i < d.length; i += step) {
-    const v = d[i];
-    if (Number.isFinite(v)) {
-      counts[Math.round((v - min) * scale)]++;
-      n++;
-    }
-  }
-  const at = (q: number) => {
-    let c = 0;
-    for (let b = 0; b < bins; b++) {
-      c += counts[b];
-      if (c >= q * n) return min + b / scale;
-    }
-    return max;
-  };
-  const lo = at(0.005);
-  const hi = at(0.995);
-  return hi > lo ? [lo, hi] : [min, max];
-}
-
 /** Options for `annotatedFigure`. */
 export interface FigureOptions {
   /** Draw the outline of each analysed region; default true when there is more than one region or it is not the whole image. */
@@ -119,12 +84,8 @@ export interface FigureOptions {
 export function annotatedFigure(image: GreyImage, result: FileResult, regions: Region[], options: FigureOptions = {}): Raster {
   const { width, height } = image;
   const out: Raster = { width, height, data: new Float32Array(width * height) };
-  const [lo, hi] = displayRange(image);
-  const k = 255 / (hi - lo);
-  for (let i = 0; i < out.data.length; i++) {
-    const v = (image.data[i] - lo) * k;
-    out.data[i] = v < 0 ? 0 : v > 255 ? 255 : Number.isFinite(v) ? v : 0;
-  }
+  // the app's one display stretch: black and white at the 0.5 % and 99.5 % percentiles
+  stretchToGrey(image.data, displayLimits(image.data), out.data);
   const unit = Math.max(1, Math.round(Math.min(width, height) / 256));
   const rects = regions.filter((r): r is Extract<Region, { kind: 'rect' }> => r.kind === 'rect');
   const whole = rects.length === 1 && rects[0].x === 0 && rects[0].y === 0 && rects[0].width === width && rects[0].height === height;

@@ -9,6 +9,15 @@
 /** Where a pixel size came from. */
 export type CalibrationSource = 'metadata' | 'manual' | 'scale-bar' | 'standard' | 'profile';
 
+/** Each calibration source in the user's words ("from file metadata", "from a scale bar"...). */
+export const CALIBRATION_SOURCE_WORDS: Readonly<Record<CalibrationSource, string>> = Object.freeze({
+  metadata: 'file metadata',
+  manual: 'typed in',
+  'scale-bar': 'scale bar',
+  standard: 'lattice standard',
+  profile: 'instrument profile',
+});
+
 /** A pixel size with its provenance and its relative standard uncertainty. */
 export interface Calibration {
   /** Pixel size along x, in nanometres per pixel. */

@@ -107,6 +107,40 @@ export interface Measurement {
   notes: string[];
 }
 
+/** Who a record belongs to: what the library and the exports stamp on it. */
+export interface RecordIdentity {
+  /** Id of the stored image, or null for a file outside the library. */
+  imageId: string | null;
+  /** The image's file name. */
+  fileName: string;
+  /** The calibration in force (replaces the record's: its pixel values do not depend on it). */
+  calibration: Calibration | null;
+  /** Record id (default a new random UUID). */
+  id?: string;
+  /** ISO 8601 time (default now). */
+  createdIso?: string;
+}
+
+/**
+ * A record with its identity: a new id and time, the image it belongs to and the calibration in
+ * force. The result itself (pixels, parts, settings, detail) is taken as it is.
+ * @param m the record as a tool made it
+ * @param identity image, file name, calibration (and optionally id and time)
+ * @returns a new record
+ */
+export function withIdentity(m: Measurement, identity: RecordIdentity): Measurement {
+  if (!identity || typeof identity.fileName !== 'string') throw new TypeError(`identity.fileName must be a string, got ${String(identity?.fileName)}`);
+  if (identity.calibration) checkCalibration(identity.calibration, 'identity.calibration');
+  return {
+    ...m,
+    id: identity.id ?? globalThis.crypto.randomUUID(),
+    imageId: identity.imageId,
+    fileName: identity.fileName,
+    createdIso: identity.createdIso ?? new Date().toISOString(),
+    calibration: identity.calibration,
+  };
+}
+
 /** The names of the uncertainty parts, in the order they are listed. */
 export const UNCERTAINTY_PARTS = ['statistical', 'localVariation', 'betweenImages', 'method', 'calibration'] as const;
 export type UncertaintyPart = (typeof UNCERTAINTY_PARTS)[number];

@@ -5,13 +5,15 @@
 import { logParabolaOffset, magnitudeRatioOffset } from './interpolate';
 import type { Periodicity } from './measurement';
 import { frequencyCrbStd } from './period-profile';
-import { frequencyAngleDeg, radialBackground, type PowerSpectrum, type Spot } from './spectrum';
+import { frequencyAngleDeg, radialBackground, type PowerSpectrum, type RadialBackground, type Spot } from './spectrum';
 import { windowVarianceFactor } from './window';
 
 /** Options of {@link spotNear}. */
 export interface SpotNearOptions {
   /** Chebyshev search radius around the clicked bin, in bins (integer ≥ 0, default 3). */
   radiusBins?: number;
+  /** The spectrum's radial background when already computed (a session reuses it from click to click); default computed here. */
+  background?: RadialBackground;
 }
 
 /**
@@ -56,7 +58,7 @@ export function spotNear(spectrum: PowerSpectrum, fx: number, fy: number, option
     }
   }
   if (best < 0) return null;
-  const bg = radialBackground(spectrum).background;
+  const bg = (options.background ?? radialBackground(spectrum)).background;
   const nMax = Math.max(w, h);
   const ring = Math.round(Math.hypot(bu / w, bv / h) * nMax);
   const b = bg[Math.min(ring, bg.length - 1)];

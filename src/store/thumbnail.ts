@@ -2,7 +2,8 @@
  * Small previews of images for the library list.
  */
 import type { GreyImage } from '../image/grey-image';
-import { downsample, percentileRange } from '../image/downsample';
+import { downsample } from '../image/downsample';
+import { displayLimits, stretchToGrey } from '../image/display';
 import type { Thumbnail } from './records';
 
 /** Longer side of a library thumbnail, in pixels. */
@@ -27,7 +28,7 @@ export interface ThumbnailOptions {
  * @returns a Thumbnail no larger than maxSidePx on its longer side (never enlarged)
  * Notes: the block size is the smallest whole factor that brings the longer side within
  * maxSidePx; the percentiles are those of the averaged preview.
- * Reference: box-mean reduction and percentile display window as in src/image/downsample (Hyndman & Fan 1996, definition 7).
+ * Reference: box-mean reduction (src/image/downsample) and the display stretch of src/image/display (Hyndman & Fan 1996, definition 7).
  */
 export function makeThumbnail(image: GreyImage, options: ThumbnailOptions = {}): Thumbnail {
   const maxSidePx = options.maxSidePx ?? THUMBNAIL_SIDE_PX;
@@ -39,14 +40,7 @@ export function makeThumbnail(image: GreyImage, options: ThumbnailOptions = {}):
   }
   const factor = Math.max(1, Math.ceil(Math.max(image.width, image.height) / maxSidePx));
   const small = factor > 1 ? downsample(image, factor) : image;
-  const { low, high } = percentileRange(small.data, lowPercent, highPercent);
-  const grey = new Uint8Array(small.width * small.height);
-  if (high > low) {
-    const k = 255 / (high - low);
-    for (let i = 0; i < grey.length; i++) {
-      const v = (small.data[i] - low) * k;
-      grey[i] = v > 0 ? (v < 255 ? Math.round(v) : 255) : 0; // NaN → 0
-    }
-  }
+  // the app's one display stretch (src/image/display.ts), on the averaged preview
+  const grey = stretchToGrey(small.data, displayLimits(small.data, { lowPercent, highPercent, step: 1 }), new Uint8Array(small.width * small.height));
   return { width: small.width, height: small.height, grey };
 }

@@ -1,5 +1,7 @@
 import { expect, test } from 'vitest';
-import { createBatchDeps, domainsOfRegion, ringsMeasurement, sheetsMeasurement } from '../../src/batch/deps';
+import { createBatchDeps } from '../../src/batch/deps';
+import { toolOf } from '../../src/measure/tools';
+import { sheetsInRegion } from '../../src/sheets/regions';
 import { parseRecipe } from '../../src/batch/recipe';
 import { processOne } from '../../src/batch/run';
 import { encodeTiff } from '../../testing/encode-tiff';
@@ -21,7 +23,7 @@ test('rings: randomly oriented fringes of one period give a ring at that period'
     }
   }
   const cal = { nmPerPx: 0.1, source: 'manual' as const, relUncertainty: 0.02, detail: '' };
-  const m = await ringsMeasurement(makeGreyImage(size, size, data, { calibration: cal }), { kind: 'rect', x: 0, y: 0, width: size, height: size });
+  const m = await toolOf('rings').run(makeGreyImage(size, size, data, { calibration: cal }), { kind: 'rect', x: 0, y: 0, width: size, height: size });
   expect(m.tool).toBe('rings');
   // 12 px × 0.1 nm/px = 1.2 nm (definition of the pixel size); ring bins are 1/256 cycles/px wide
   expect(m.periodicities[0].periodPx).toBeCloseTo(12, 0);
@@ -55,7 +57,7 @@ test('sheets: the automatic sheets of a region, thickness in nm, positions in im
   img.calibration = { nmPerPx: 0.125, source: 'manual', relUncertainty: 0.02, detail: 'test' };
   // the whole image: exactly what the sheet tool finds, with every thickness in nm
   const direct = detectSheets(img);
-  const all = await sheetsMeasurement(img, { kind: 'rect', x: 0, y: 0, width: 420, height: 420 });
+  const all = await sheetsInRegion(img, { x: 0, y: 0, width: 420, height: 420 });
   expect(all.thicknessNm).toEqual(direct.sheets.map((t) => t.thicknessNm));
   expect(all.thicknessNm.length).toBeGreaterThan(0);
   expect(all.measurement.tool).toBe('sheets-auto');
@@ -63,7 +65,7 @@ test('sheets: the automatic sheets of a region, thickness in nm, positions in im
   const crop = makeGreyImage(210, 210, Float32Array.from({ length: 210 * 210 }, (_, i) => img.data[(210 + Math.floor(i / 210)) * 420 + 210 + (i % 210)]), { calibration: img.calibration });
   const inCrop = detectSheets(crop).sheets;
   expect(inCrop.length).toBeGreaterThan(0);
-  const half = await sheetsMeasurement(img, { kind: 'rect', x: 210, y: 210, width: 210, height: 210 });
+  const half = await sheetsInRegion(img, { x: 210, y: 210, width: 210, height: 210 });
   const sheets = half.measurement.detail!.sheets as { layers: number; centerPx: [number, number] }[];
   expect(sheets.map((t) => t.layers)).toEqual(inCrop.map((t) => t.layers));
   sheets.forEach((t, i) => expect(t.centerPx).toEqual([inCrop[i].centerPx[0] + 210, inCrop[i].centerPx[1] + 210]));
@@ -77,7 +79,7 @@ test('domains: two halves of different fringe direction are two domains, centres
   const data = new Float32Array(w * h);
   for (let y = 0; y < h; y++) for (let x = 0; x < w; x++) data[y * w + x] = 100 + 50 * Math.cos((2 * Math.PI * (x < 256 ? x : y)) / 10);
   const img = makeGreyImage(w, h, data, { calibration: { nmPerPx: 0.1, source: 'manual', relUncertainty: 0.02, detail: '' } });
-  const m = await domainsOfRegion(img, { kind: 'rect', x: 0, y: 0, width: w, height: h });
+  const m = await toolOf('domains').run(img, { kind: 'rect', x: 0, y: 0, width: w, height: h });
   expect(m.tool).toBe('domains');
   const big = (m.detail!.domains as { tiles: number; periodPx: number; angleDeg: number; centerPx: [number, number] }[]).filter((d) => d.tiles >= 10);
   expect(big).toHaveLength(2);

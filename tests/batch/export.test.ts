@@ -1,6 +1,7 @@
 import { strFromU8, unzipSync } from 'fflate';
 import { describe, expect, test } from 'vitest';
-import { batchJson, csvField, pooledStats, RESULT_COLUMNS, resultsCsv, summaryCsv, zipExports } from '../../src/batch/export';
+import { batchJson, pooledStats, RESULT_COLUMNS, resultsCsv, summaryCsv, zipExports } from '../../src/batch/export';
+import { csvField } from '../../src/measure/export';
 import { parseRecipe } from '../../src/batch/recipe';
 import { processOne, type FileResult } from '../../src/batch/run';
 import { parseCsv } from './csv';

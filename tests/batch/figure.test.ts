@@ -1,6 +1,7 @@
 import { decode } from 'fast-png';
 import { describe, expect, test } from 'vitest';
-import { annotatedFigure, annotatedFigurePng, histogramPng, histogramSvg, lengthLabel, roundScaleBar } from '../../src/figure/batch-figure';
+import { lengthLabel } from '../../src/figure/ticks';
+import { annotatedFigure, annotatedFigurePng, histogramPng, histogramSvg, roundScaleBar } from '../../src/figure/batch-figure';
 import type { FileResult } from '../../src/batch/run';
 import { makeGreyImage, type Calibration } from '../../src/image/grey-image';
 

@@ -1,6 +1,7 @@
 import { describe, expect, test } from 'vitest';
 import { makeGreyImage } from '../../src/image/grey-image';
-import { downsample, percentileRange } from '../../src/image/downsample';
+import { downsample } from '../../src/image/downsample';
+import { percentileRange } from '../../src/image/display';
 import { lcg } from './fixtures';
 
 /** Type 7 sample quantile by sorting (Hyndman & Fan, Am. Stat. 50, 361, 1996): the reference. */
