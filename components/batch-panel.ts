@@ -21,6 +21,7 @@ import { listCalibrationProfiles, listDiffractionSets, listRecipes, putRecipe, t
 import type { CalibrationProfile, DiffractionSet, RecipeRecord } from '../src/store/records';
 import { BatchPool, poolSize, type PoolFile } from './batch-pool';
 import { controlStyles, panelStyles } from './styles';
+import { download } from './download';
 
 export const panelLabel = 'Batch';
 
@@ -47,16 +48,6 @@ interface Row {
 type Field = 'calibration' | 'area' | 'measurements' | 'acceptance' | 'outputs' | 'import';
 
 const f = (v: number | null | undefined, d = 3) => (v === null || v === undefined || !Number.isFinite(v) ? '—' : v.toFixed(d));
-
-function download(name: string, data: Uint8Array | string, type: string): void {
-  const blob = new Blob([data as BlobPart], { type });
-  const url = URL.createObjectURL(blob);
-  const a = document.createElement('a');
-  a.href = url;
-  a.download = name;
-  a.click();
-  setTimeout(() => URL.revokeObjectURL(url), 60_000);
-}
 
 function fieldOf(e: unknown): Field {
   const path = e instanceof RecipeError ? e.path : '';

@@ -10,6 +10,7 @@ import {
   type NewDiagnostic,
 } from '../src/store/diagnostics';
 import { controlStyles } from './styles';
+import { download } from './download';
 
 export const panelLabel = 'Diagnostics';
 
@@ -132,12 +133,7 @@ export class StrataDiagnosticsPanel extends LitElement {
 
   private exportLog(): void {
     const text = diagnosticsJson([...this.entries].reverse(), { appVersion: APP_VERSION, userAgent: navigator.userAgent });
-    const url = URL.createObjectURL(new Blob([text], { type: 'application/json' }));
-    const a = document.createElement('a');
-    a.href = url;
-    a.download = `stratameter-diagnostics-${new Date().toISOString().slice(0, 19).replace(/:/g, '')}.json`;
-    a.click();
-    setTimeout(() => URL.revokeObjectURL(url), 10_000);
+    download(`stratameter-diagnostics-${new Date().toISOString().slice(0, 19).replace(/:/g, '')}.json`, text, 'application/json');
     this.say(`Diagnostics exported: ${this.entries.length} entries.`);
   }
 

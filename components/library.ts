@@ -1,10 +1,12 @@
 import { expressPeriod, formatPlusMinus } from '../src/measure/measurement';
+import { TOOLS } from '../src/measure/tools';
 import { LitElement, css, html, nothing, type PropertyValues } from 'lit';
 import type { LibraryDb } from '../src/store/schema';
 import { deleteImage, listImages, listMeasurements } from '../src/store/library';
 import { exportLibrary, importLibrary } from '../src/store/exchange';
 import type { ImageRecord, Measurement } from '../src/store/records';
 import { controlStyles } from './styles';
+import { download } from './download';
 
 interface Row {
   record: ImageRecord;
@@ -20,7 +22,7 @@ function formatBytes(n: number): string {
 /** One line for the newest result of an image: the strongest period with its expanded uncertainty (k = 2). */
 export function describeResult(m: Measurement): string {
   const p = m.periodicities[0];
-  const what = m.tool.replace('-', ' ');
+  const what = TOOLS.find((t) => t.kind === m.tool)?.label ?? m.tool;
   if (!p) return `${what}: no significant period`;
   const b = expressPeriod(p, m.calibration);
   return `${what}: d = ${formatPlusMinus(b.value, b.expanded)} ${b.unit} (k = 2)`;
@@ -136,12 +138,7 @@ export class StrataLibrary extends LitElement {
     this.busy = true;
     try {
       const json = await exportLibrary(this.db);
-      const url = URL.createObjectURL(new Blob([json], { type: 'application/json' }));
-      const a = document.createElement('a');
-      a.href = url;
-      a.download = `stratameter-library-${new Date().toISOString().slice(0, 10)}.json`;
-      a.click();
-      setTimeout(() => URL.revokeObjectURL(url), 10_000);
+      download(`stratameter-library-${new Date().toISOString().slice(0, 10)}.json`, json, 'application/json');
       this.say(`Exported ${this.rows.length} image${this.rows.length === 1 ? '' : 's'} with their results (${formatBytes(json.length)}).`);
     } catch (e) {
       this.say(`Export failed: ${(e as Error).message}`, 'error');

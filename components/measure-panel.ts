@@ -158,8 +158,11 @@ export class StrataMeasurePanel extends LitElement {
   private spectrumRun = 0;
   private nextSpot = 1;
   private lastData: Float32Array | null = null;
-  /** Set at a click on the spectrum: the next render that shows the new spot marks the time to its numbers. */
-  private numbersMark: string | null = null;
+  /**
+   * Set at a click on the spectrum: the next render that shows the new spot (then its full budget)
+   * marks the time since the click on the performance timeline ([mark, measure] names).
+   */
+  private timelineMark: [string, string] | null = null;
 
   static override styles = [
     controlStyles,
@@ -563,11 +566,12 @@ export class StrataMeasurePanel extends LitElement {
       this.spots = [...this.spots, t];
       this.selected = [...this.selected, t.n];
       this.savedSpectrum = '';
-      this.numbersMark = 'strata-spot-numbers';
+      this.timelineMark = ['strata-spot-numbers', 'strata-spot-click-to-numbers'];
       // 2: refined where its fringes are, with its full budget, like the automatic spots
       const { spot: full } = await this.compute.call('spotBudget', { ...at, spot });
       if (run !== this.spectrumRun || !this.spots.some((x) => x.n === t.n)) return;
       this.spots = this.spots.map((x) => (x.n === t.n ? { ...full, n: t.n, added: true } : x));
+      this.timelineMark = ['strata-spot-budgeted', 'strata-spot-click-to-budget'];
       this.say(`Spot #${t.n} added: d ${this.dText(full.periodPx, this.image?.calibration ?? null, full.angleDeg, 'normal')}, ${full.angleDeg.toFixed(1)}°.`);
     } catch (e) {
       this.spots = this.spots.map((x) => (x.budgeting ? { ...x, budgeting: false } : x));
@@ -915,11 +919,12 @@ export class StrataMeasurePanel extends LitElement {
 
   protected override updated(): void {
     this.syncViewerOverlay();
-    if (this.numbersMark) {
-      // the clicked spot's numbers are in the table now: click → numbers on the performance timeline
-      performance.mark(this.numbersMark);
-      performance.measure('strata-spot-click-to-numbers', 'strata-spot-click', this.numbersMark);
-      this.numbersMark = null;
+    if (this.timelineMark) {
+      // the clicked spot's numbers (or its full budget) are in the table now: on the performance timeline
+      const [mark, measure] = this.timelineMark;
+      performance.mark(mark);
+      performance.measure(measure, 'strata-spot-click', mark);
+      this.timelineMark = null;
     }
     // Sizes and offsets go through the CSSOM (allowed by the page's content security policy, unlike style attributes).
     for (const el of this.renderRoot.querySelectorAll<HTMLElement>('[data-w]')) {

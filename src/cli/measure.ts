@@ -8,13 +8,14 @@ import { coverageFactorOption, parseArgs, UsageError } from './command';
 import { decodeImage, ImageReadError } from '../image/decode';
 import { checkSpectrumRegion, RegionTooLargeError } from '../image/size-limits';
 import type { Calibration, GreyImage } from '../image/grey-image';
-import { measureRegion } from '../measure/measure-region';
-import { budgetContents, budgetJson, DEFAULT_COVERAGE_FACTOR, expressPeriod, formatPlusMinus, type Measurement, type Periodicity } from '../measure/measurement';
+import { budgetContents, DEFAULT_COVERAGE_FACTOR, expressPeriod, formatPlusMinus, type Measurement, type Periodicity } from '../measure/measurement';
+import { measurementsCsv, measurementsJson } from '../measure/export';
+import { toolOf } from '../measure/tools';
 import { calibrationPartsText, INDICATED_MAGNIFICATION_REL, makeCalibration } from '../calibration/calibration';
 import type { WindowKind } from '../measure/window';
 
 const usage = `Usage: stratameter measure IMAGE [--nm-per-px X] [--rel-uncertainty U] [--region x,y,w,h]
-                           [--alpha A] [--window hann|tukey|none] [--coverage-factor K] [--json]
+                           [--alpha A] [--window hann|tukey|none] [--coverage-factor K] [--json | --csv]
 
 Finds the periodicities of IMAGE (or of a rectangle of it) in its power spectrum: lattice-fringe
 and lamellar periods (d-spacings) with their directions, strongest first. A region with no
@@ -29,6 +30,7 @@ Options:
   --window W            hann (default), tukey or none
   --coverage-factor K   k of the expanded uncertainty U = k·u (default 2, about 95 %)
   --json                one JSON object on standard output instead of a table
+  --csv                 a CSV table instead (one row per period, the columns of every export)
 
 Angles: direction of the fringe normal in degrees, 0 to 180, counter-clockwise from +x as the
 image is shown (x right, y up). Each ± is an expanded uncertainty U = k·u; the line below the
@@ -69,13 +71,15 @@ export function parseRegion(text: string): { x: number; y: number; width: number
 
 /** Builds the JSON report from a measurement. */
 export function measureReport(file: string, image: GreyImage, m: Measurement, k: number = DEFAULT_COVERAGE_FACTOR): MeasureReport {
+  // each period's budget as in the one JSON form of measurements (src/measure/export.ts)
+  const budgets = measurementsJson([m], k).measurements[0].budgets;
   return {
     file,
     widthPx: image.width,
     heightPx: image.height,
     calibration: m.calibration,
     coverageFactorK: k,
-    periodicities: m.periodicities.map((p) => ({ ...p, budget: budgetJson(expressPeriod(p, m.calibration, k), 'period') })),
+    periodicities: m.periodicities.map((p, i) => ({ ...p, budget: budgets[i] })),
     measurement: m,
   };
 }
@@ -123,9 +127,10 @@ export const command: CliCommand = {
   async run(args: string[], io: CliIo): Promise<number> {
     const { positional, options, flags } = parseArgs(args, {
       values: ['nm-per-px', 'rel-uncertainty', 'region', 'alpha', 'window', 'coverage-factor'],
-      booleans: ['json'],
+      booleans: ['json', 'csv'],
     });
     if (positional.length !== 1) throw new UsageError(`expected one IMAGE, got ${positional.length}\n\n${usage}`);
+    if (flags.has('json') && flags.has('csv')) throw new UsageError('choose one of --json and --csv');
     const file = positional[0];
     if (options.has('rel-uncertainty') && !options.has('nm-per-px')) {
       throw new UsageError('--rel-uncertainty needs --nm-per-px');
@@ -178,13 +183,15 @@ export const command: CliCommand = {
     }
     let m: Measurement;
     try {
-      m = await measureRegion(image, region, { alpha, window, fileName: file });
+      // the spectrum tool of the measurement-tool registry (src/measure/tools.ts)
+      m = await toolOf('spectrum').run(image, region ? { kind: 'rect', ...region } : null, { alpha, window }, { fileName: file });
     } catch (e) {
       if (e instanceof RangeError) throw new UsageError(e.message);
       throw e;
     }
     const report = measureReport(file, image, m, k);
     if (flags.has('json')) io.out(`${JSON.stringify(report)}\n`);
+    else if (flags.has('csv')) io.out(measurementsCsv([m], { k }));
     else io.out(formatMeasure(report, m.notes));
     for (const w of image.warnings) io.err(`warning: ${w}\n`);
     return 0;

@@ -4,6 +4,7 @@
  * uncertainty parts, calibration applied late); a version newer than this program is refused.
  */
 import type { Calibration } from '../image/grey-image';
+import { TOOLS } from './tools';
 import { checkCalibration, type LengthGeometry, type Measurement, nmPerPxAlong, type Periodicity, RECORD_VERSION } from './measurement';
 
 /** A record that cannot be read, with the field at fault in the message. */
@@ -11,7 +12,10 @@ export class RecordVersionError extends Error {
   override name = 'RecordVersionError';
 }
 
-const GEOMETRY_OF_TOOL: Record<string, LengthGeometry> = { profile: 'line', 'sheets-line': 'line', rings: 'ring' };
+/** How a tool's periods convert to nm, from the measurement-tool registry ('normal' for a kind it does not know). */
+function geometryOfTool(tool: string): LengthGeometry {
+  return TOOLS.find((t) => t.kind === tool)?.geometry ?? 'normal';
+}
 
 const finite = (v: unknown): v is number => typeof v === 'number' && Number.isFinite(v);
 
@@ -76,7 +80,7 @@ export function upgradeMeasurement(raw: unknown, where = 'measurement'): Measure
     return r as unknown as Measurement;
   }
   const tool = typeof r.tool === 'string' ? r.tool : 'spectrum';
-  const geometry = GEOMETRY_OF_TOOL[tool] ?? 'normal';
+  const geometry = geometryOfTool(tool);
   const periodicities = (r.periodicities as unknown[]).map((p, i) => upgradePeriodicity((p ?? {}) as Record<string, unknown>, geometry, `${where}.periodicities[${i}]`));
   const notes = Array.isArray(r.notes) ? (r.notes as unknown[]).map(String) : [];
   notes.push('upgraded from record version 1: its uncertainty holds the statistical part only');
@@ -119,7 +123,7 @@ export function upgradeSummaryPeriod(t: Record<string, unknown>, calibration: Ca
   if ('periodPx' in t && 'u' in t) return { ...checkPeriodicity(t, where), tool };
   if (!calibration) throw new RecordVersionError(`${where}: a version-1 summary period needs the file's calibration`);
   if (!finite(t.periodNm) || t.periodNm <= 0) throw new RecordVersionError(`${where}.periodNm must be a positive number, got ${String(t.periodNm)}`);
-  const geometry = GEOMETRY_OF_TOOL[tool] ?? 'normal';
+  const geometry = geometryOfTool(tool);
   const angleDeg = finite(t.angleDeg) ? t.angleDeg : 0;
   const scale = nmPerPxAlong(calibration, geometry, angleDeg);
   const uNm = finite(t.uncertaintyNm) ? t.uncertaintyNm : 0;

@@ -198,7 +198,7 @@ test('both results are saved to the library with their region and calibration', 
   await app().locator('[role="tab"]', { hasText: 'Library' }).click();
   const item = s.page.locator('strata-library li', { hasText: 'tactoid-fringes_hr.tif' });
   await expect.poll(() => item.textContent()).toMatch(/2 results/);
-  expect(await item.textContent()).toMatch(/spectrum: d = 1\.2\d* ± 0\.\d+ nm \(k = 2\)/);
+  expect(await item.textContent()).toMatch(/spectrum spots: d = 1\.2\d* ± 0\.\d+ nm \(k = 2\)/);
   await s.page.screenshot({ path: join(dir, 'library.png') });
   expect(errors).toEqual([]);
   expect(foreignRequests(s.requests, s.url)).toEqual([]);

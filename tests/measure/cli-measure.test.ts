@@ -17,6 +17,23 @@ function capture() {
 }
 
 describe('stratameter measure', () => {
+  test('--csv prints the one CSV table of every export; --json and --csv together are refused', async () => {
+    const c = capture();
+    // 0.0743 nm/px: SOURCES.md §1 (d200 = 0.20248 nm, a = 0.40495 nm from memory).
+    expect(await main(['measure', STEM, '--nm-per-px', '0.0743', '--csv'], c.io)).toBe(0);
+    const [head, ...rows] = c.out.join('').trimEnd().split('\r\n');
+    const cols = head.split(',');
+    expect(cols.slice(0, 2)).toEqual(['file', 'calibrationSource']);
+    expect(cols).toEqual(expect.arrayContaining(['periodPx', 'uStatisticalPx', 'periodNm', 'expandedUncertaintyNm', 'fxPerPx']));
+    expect(rows.length).toBeGreaterThan(0);
+    // Al {200} = a/2 = 0.20248 nm (SOURCES.md §1): the strongest row within 1 %
+    const d = Number(rows[0].split(',')[cols.indexOf('periodNm')]);
+    expect(Math.abs(d - 0.20248) / 0.20248).toBeLessThan(0.01);
+    const bad = capture();
+    expect(await main(['measure', STEM, '--json', '--csv'], bad.io)).toBe(2);
+    expect(bad.err.join('')).toMatch(/choose one of --json and --csv/);
+  }, 60_000);
+
   test('--json prints exactly one object with the documented fields, strongest first', async () => {
     const c = capture();
     // 0.0743 nm/px: SOURCES.md §1 (d200 = 0.20248 nm, a = 0.40495 nm from memory).
