@@ -9,18 +9,8 @@ import { transferablesOf } from './compute-protocol';
 import type { GreyImage } from '../src/image/grey-image';
 import { buildPyramid } from '../src/image/pyramid';
 import { greyHistogram } from '../src/image/display';
-import {
-  createImageSession,
-  filterIn,
-  prepareRegionSpots,
-  profileIn,
-  recalibrateSession,
-  regionAnalysis,
-  spectrumView,
-  spotBudgetIn,
-  spotNearIn,
-  type ImageSession,
-} from '../src/measure/session';
+import * as session from '../src/measure/session';
+import type { ImageSession } from '../src/measure/session';
 import { toolOf } from '../src/measure/tools';
 
 type Handlers = { [K in CallName]: (args: CallArgs<K>) => Promise<CallResult<K>> | CallResult<K> };
@@ -70,14 +60,14 @@ const handlers: Handlers = {
   openImage: async (args) => {
     const image = await decode(args);
     const sessionId = globalThis.crypto.randomUUID();
-    sessions.set(sessionId, createImageSession(sessionId, image));
+    sessions.set(sessionId, session.createImageSession(sessionId, image));
     // The page gets a copy for its viewer (transferred); the session keeps the original.
     const copy: GreyImage = { ...image, data: image.data.slice(), warnings: [...image.warnings] };
     return { sessionId, image: copy, ...prepareView({ image }) };
   },
   closeImage: ({ sessionId }) => ({ closed: sessions.delete(sessionId) }),
   recalibrate: ({ sessionId, calibration }) => {
-    recalibrateSession(sessionOf(sessionId), calibration);
+    session.recalibrateSession(sessionOf(sessionId), calibration);
     return { sessionId };
   },
   runTool: async ({ sessionId, tool, target, settings }) => {
@@ -86,24 +76,24 @@ const handlers: Handlers = {
     if (target?.kind === 'rect' && (entry.kind === 'spectrum' || entry.kind === 'rings')) await guardRegion(target.width, target.height, target);
     return entry.run(s.image, target, settings);
   },
-  profile: ({ sessionId, line, estimator }) => profileIn(sessionOf(sessionId), line, estimator),
+  profile: ({ sessionId, line, estimator }) => session.profileIn(sessionOf(sessionId), line, estimator),
   spectrum: async ({ sessionId, rect, settings, displayPx }) => {
     const s = sessionOf(sessionId);
     await guardRegion(rect.width, rect.height, rect);
-    const view = spectrumView(await regionAnalysis(s, rect, settings), displayPx, settings.alpha);
+    const view = session.spectrumView(await session.regionAnalysis(s, rect, settings), displayPx, settings.alpha);
     // after the reply: what a click on the spectrum will need, so that a click runs no transform
-    afterReply = () => prepareRegionSpots(s, rect, settings);
+    afterReply = () => session.prepareRegionSpots(s, rect, settings);
     return view;
   },
-  spotNear: ({ sessionId, rect, settings, fx, fy, radiusBins }) => ({ spot: spotNearIn(sessionOf(sessionId), rect, settings, fx, fy, radiusBins) }),
-  spotBudget: async ({ sessionId, rect, settings, spot }) => ({ spot: await spotBudgetIn(sessionOf(sessionId), rect, settings, spot) }),
-  filter: ({ sessionId, rect, spots, displayPx }) => filterIn(sessionOf(sessionId), rect, spots, displayPx),
+  spotNear: ({ sessionId, rect, settings, fx, fy, radiusBins }) => ({ spot: session.spotNearIn(sessionOf(sessionId), rect, settings, fx, fy, radiusBins) }),
+  spotBudget: async ({ sessionId, rect, settings, spot }) => ({ spot: await session.spotBudgetIn(sessionOf(sessionId), rect, settings, spot) }),
+  filter: ({ sessionId, rect, spots, displayPx }) => session.filterIn(sessionOf(sessionId), rect, spots, displayPx),
   sessionStats: ({ sessionId }) => ({ ...sessionOf(sessionId).stats }),
   regionSpectrum: async (args) => {
     // crop call: the pixels come with the request; a one-off session on them
     await guardRegion(args.image.width, args.image.height, { x: args.originX, y: args.originY });
-    const s = createImageSession('crop', args.image, { maxRegions: 1 });
-    const view = spectrumView(await regionAnalysis(s, { x: 0, y: 0, width: args.image.width, height: args.image.height }, args.settings), args.displayPx, args.settings.alpha);
+    const s = session.createImageSession('crop', args.image, { maxRegions: 1 });
+    const view = session.spectrumView(await session.regionAnalysis(s, { x: 0, y: 0, width: args.image.width, height: args.image.height }, args.settings), args.displayPx, args.settings.alpha);
     const m = view.measurement;
     const area = m.detail?.area as { x: number; y: number; width: number; height: number } | undefined;
     const moved: typeof m = {

@@ -9,7 +9,7 @@ import {
   type DiagnosticEntry,
   type NewDiagnostic,
 } from '../src/store/diagnostics';
-import { controlStyles } from './styles';
+import { controlStyles, listPanelStyles } from './styles';
 import { download } from './download';
 
 export const panelLabel = 'Diagnostics';
@@ -92,10 +92,8 @@ export class StrataDiagnosticsPanel extends LitElement {
 
   static override styles = [
     controlStyles,
+    listPanelStyles,
     css`
-      :host { display: flex; flex-direction: column; min-height: 0; }
-      .actions { display: flex; gap: 6px; padding: 8px; border-bottom: 1px solid var(--line); align-items: center; }
-      .actions .count { margin-left: auto; color: var(--muted); font-size: 12px; }
       ol { list-style: none; margin: 0; padding: 0; overflow-y: auto; }
       li { padding: 6px 8px; border-bottom: 1px solid var(--line); font-size: 12px; }
       .when { color: var(--muted); font-variant-numeric: tabular-nums; }

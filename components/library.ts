@@ -5,7 +5,7 @@ import type { LibraryDb } from '../src/store/schema';
 import { deleteImage, listImages, listMeasurements } from '../src/store/library';
 import { exportLibrary, importLibrary } from '../src/store/exchange';
 import type { ImageRecord, Measurement } from '../src/store/records';
-import { controlStyles } from './styles';
+import { controlStyles, listPanelStyles } from './styles';
 import { download } from './download';
 
 interface Row {
@@ -54,10 +54,8 @@ export class StrataLibrary extends LitElement {
 
   static override styles = [
     controlStyles,
+    listPanelStyles,
     css`
-      :host { display: flex; flex-direction: column; min-height: 0; }
-      .actions { display: flex; gap: 6px; padding: 8px; border-bottom: 1px solid var(--line); align-items: center; }
-      .actions .count { margin-left: auto; color: var(--muted); font-size: 12px; }
       ul { list-style: none; margin: 0; padding: 0; overflow-y: auto; flex: 1; }
       li { display: grid; grid-template-columns: 64px 1fr; gap: 4px 10px; padding: 8px; border-bottom: 1px solid var(--line); }
       li.current { background: #1f2a34; box-shadow: inset 3px 0 0 var(--accent); }

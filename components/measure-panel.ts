@@ -839,7 +839,8 @@ export class StrataMeasurePanel extends LitElement {
 
   private renderRadial(s: SpectrumView) {
     const cal = this.image?.calibration ?? null;
-    const k = cal ? 1 / cal.nmPerPx : 1;
+    // rings have no direction: the mean scale of the two pixel axes (nmPerPxAlong, 'ring')
+    const k = cal ? 1 / nmPerPxAlong(cal, 'ring', 0) : 1;
     const rings = s.rings.slice(0, 4);
     // The same frequency range as the spectrum at its zoom, widened to show the strongest ring.
     const fMax = Math.min(0.5, Math.max(0.5 / this.zoom, 1.2 * (rings[0]?.frequencyPerPx ?? 0)));
@@ -850,8 +851,8 @@ export class StrataMeasurePanel extends LitElement {
       ${linePlot({
         width: PLOT_WIDTH, height: 150, x: f.map((v) => v * k), y,
         xLabel: cal ? 'spatial frequency (nm⁻¹)' : 'spatial frequency (px⁻¹)', yLabel: 'log₁₀ power',
-        description: `Radial average of the power spectrum; ${rings.length ? `rings at ${rings.map((r) => this.dText(r.periodPx, cal)).join(', ')}` : 'no significant ring'}`,
-        rules: rings.map((r) => ({ x: r.frequencyPerPx * k, label: `d ${this.dText(r.periodPx, cal)}` })),
+        description: `Radial average of the power spectrum; ${rings.length ? `rings at ${rings.map((r) => this.dText(r.periodPx, cal, 0, 'ring')).join(', ')}` : 'no significant ring'}`,
+        rules: rings.map((r) => ({ x: r.frequencyPerPx * k, label: `d ${this.dText(r.periodPx, cal, 0, 'ring')}` })),
       })}
       ${s.rings.length
         ? html`<p class="note num">Rings: ${s.rings.slice(0, 6).map((r) => {

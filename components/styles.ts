@@ -29,3 +29,10 @@ export const panelStyles = css`
   h3 { margin: 0 0 6px; font-size: 13px; font-weight: 600; }
   .row { display: flex; flex-wrap: wrap; gap: 6px; align-items: center; margin: 4px 0; }
 `;
+
+/** A panel that is a list under a bar of actions (the library, the diagnostics log). */
+export const listPanelStyles = css`
+  :host { display: flex; flex-direction: column; min-height: 0; }
+  .actions { display: flex; gap: 6px; padding: 8px; border-bottom: 1px solid var(--line); align-items: center; }
+  .actions .count { margin-left: auto; color: var(--muted); font-size: 12px; }
+`;

@@ -107,6 +107,16 @@ export interface Measurement {
   notes: string[];
 }
 
+/**
+ * The fields every new record starts with: layout version, a new id, its image, now, its tool.
+ * @param tool the record kind
+ * @param options file name (default '') and stored image id (default null)
+ * @returns the head of a record, to spread into it
+ */
+export function recordHead(tool: MeasurementTool, options: { fileName?: string; imageId?: string | null } = {}): Pick<Measurement, 'recordVersion' | 'id' | 'imageId' | 'fileName' | 'createdIso' | 'tool'> {
+  return { recordVersion: RECORD_VERSION, id: globalThis.crypto.randomUUID(), imageId: options.imageId ?? null, fileName: options.fileName ?? '', createdIso: new Date().toISOString(), tool };
+}
+
 /** Who a record belongs to: what the library and the exports stamp on it. */
 export interface RecordIdentity {
   /** Id of the stored image, or null for a file outside the library. */

@@ -4,7 +4,7 @@
  */
 import type { GreyImage } from '../image/grey-image';
 import type { Workspace } from '../image/workspace';
-import { RECORD_VERSION, type Measurement } from './measurement';
+import { recordHead, type Measurement } from './measurement';
 import { findRings, powerSpectrum, radialProfile, ringPeriodicity, type RectPx } from './spectrum';
 
 /** Options of {@link ringsMeasurement}. */
@@ -33,12 +33,7 @@ export async function ringsMeasurement(image: GreyImage, region: RectPx | null, 
   const spectrum = await powerSpectrum(image, region, { workspace: options.workspace });
   const rings = findRings(radialProfile(spectrum), { alpha });
   return {
-    recordVersion: RECORD_VERSION,
-    id: globalThis.crypto.randomUUID(),
-    imageId: options.imageId ?? null,
-    fileName: options.fileName ?? '',
-    createdIso: new Date().toISOString(),
-    tool: 'rings',
+    ...recordHead('rings', options),
     region: region ? { kind: 'rect', ...region } : null,
     calibration: image.calibration,
     settings: { window: spectrum.window, area: spectrum.area, alpha },

@@ -71,3 +71,24 @@ export async function imageToPage(page: Page, x: number, y: number): Promise<[nu
   const box = (await viewer.locator('.stage').boundingBox())!;
   return [box.x + box.width / 2 + (x - st.cx) * st.zoom, box.y + box.height / 2 + (y - st.cy) * st.zoom];
 }
+
+/** Drags the mouse from one page point to another (a line or a region drawn in the viewer). */
+export async function drag(page: Page, from: [number, number], to: [number, number], steps = 6): Promise<void> {
+  await page.mouse.move(from[0], from[1]);
+  await page.mouse.down();
+  await page.mouse.move(to[0], to[1], { steps });
+  await page.mouse.up();
+}
+
+/** Opens a demo micrograph from the start screen, waits until the viewer shows it at its width, and shows a tab. */
+export async function openDemoImage(page: Page, title: string, widthPx: number, tab: string): Promise<void> {
+  const app = page.locator('strata-app');
+  await page.waitForSelector('strata-app');
+  await app.locator('button.demo', { hasText: title }).click();
+  await page.waitForFunction((w) => {
+    const v = document.querySelector('strata-app')?.shadowRoot?.querySelector('strata-viewer') as unknown as { image?: { width: number } };
+    return v?.image?.width === w;
+  }, widthPx, { timeout: 60_000 });
+  await app.locator('[role="tab"]', { hasText: tab }).click();
+  await nextFrames(page);
+}

@@ -6,7 +6,7 @@ import { mkdtempSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, expect, test } from 'vitest';
-import { foreignRequests, openSession, type Session, nextFrames, imageToPage } from './browser';
+import { foreignRequests, openSession, type Session, nextFrames, imageToPage, drag as dragOnPage, openDemoImage } from './browser';
 
 let s: Session;
 const dir = mkdtempSync(join(tmpdir(), 'strata-measure-'));
@@ -37,12 +37,7 @@ const settle = () => nextFrames(s.page);
 
 const toPage = (x: number, y: number) => imageToPage(s.page, x, y);
 
-async function drag(from: [number, number], to: [number, number]) {
-  await s.page.mouse.move(from[0], from[1]);
-  await s.page.mouse.down();
-  await s.page.mouse.move(to[0], to[1], { steps: 6 });
-  await s.page.mouse.up();
-}
+const drag = (from: [number, number], to: [number, number]) => dragOnPage(s.page, from, to, 6);
 
 /** A tall viewport so the whole panel shows in one screenshot. */
 async function shootPanel(name: string) {
@@ -57,14 +52,7 @@ beforeAll(async () => {
   s = await openSession();
   s.page.on('pageerror', (e) => errors.push(String(e)));
   await s.page.goto(s.url);
-  await s.page.waitForSelector('strata-app');
-  await app().locator('button.demo', { hasText: 'Tactoid lattice fringes' }).click();
-  await s.page.waitForFunction(() => {
-    const v = document.querySelector('strata-app')?.shadowRoot?.querySelector('strata-viewer') as unknown as { image?: { width: number } };
-    return v?.image?.width === 1024;
-  }, undefined, { timeout: 60_000 });
-  await app().locator('[role="tab"]', { hasText: 'Periods' }).click();
-  await settle();
+  await openDemoImage(s.page, 'Tactoid lattice fringes', 1024, 'Periods');
 });
 afterAll(async () => {
   await s?.close();

@@ -6,7 +6,7 @@
 // CSV and JSON through the one writer.
 import { readFileSync } from 'node:fs';
 import { afterAll, beforeAll, expect, test } from 'vitest';
-import { openSession, type Session, nextFrames, imageToPage } from './browser';
+import { openSession, type Session, nextFrames, imageToPage, drag as dragOnPage, openDemoImage } from './browser';
 
 let s: Session;
 const errors: string[] = [];
@@ -23,25 +23,13 @@ const stats = () => panel().evaluate(async (el) => {
 const spots = () => panel().evaluate((el) => (el as unknown as { spots: { n: number; periodPx: number; fx: number; fy: number; added: boolean; budgeting?: boolean }[] }).spots
   .map((t) => ({ n: t.n, periodPx: t.periodPx, fx: t.fx, fy: t.fy, added: t.added, budgeting: !!t.budgeting })));
 
-async function drag(from: [number, number], to: [number, number]) {
-  await s.page.mouse.move(from[0], from[1]);
-  await s.page.mouse.down();
-  await s.page.mouse.move(to[0], to[1], { steps: 8 });
-  await s.page.mouse.up();
-}
+const drag = (from: [number, number], to: [number, number]) => dragOnPage(s.page, from, to, 8);
 
 beforeAll(async () => {
   s = await openSession();
   s.page.on('pageerror', (e) => errors.push(String(e)));
   await s.page.goto(s.url);
-  await s.page.waitForSelector('strata-app');
-  await app().locator('button.demo', { hasText: 'Tactoid lattice fringes' }).click();
-  await s.page.waitForFunction(() => {
-    const v = document.querySelector('strata-app')?.shadowRoot?.querySelector('strata-viewer') as unknown as { image?: { width: number } };
-    return v?.image?.width === 1024;
-  }, undefined, { timeout: 60_000 });
-  await app().locator('[role="tab"]', { hasText: 'Periods' }).click();
-  await nextFrames(s.page);
+  await openDemoImage(s.page, 'Tactoid lattice fringes', 1024, 'Periods');
 });
 afterAll(async () => {
   await s?.close();
