@@ -222,7 +222,7 @@ function profileTable(): void {
         const e = est === 'spectral' ? spectralPeriod(x) : realSpacePeriod(x);
         if (!e) continue;
         errs.push(e.periodPx - d);
-        us.push(e.uncertaintyPx);
+        us.push(e.uStatisticalPx);
         fr.push(e.fringes);
       }
       const rms = Math.sqrt(errs.reduce((p, e) => p + e * e, 0) / errs.length);

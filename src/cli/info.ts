@@ -25,8 +25,9 @@ Options:
 /** The JSON shape printed by `info --json`. */
 export interface InfoReport {
   file: string;
-  width: number;
-  height: number;
+  /** Image width and height in pixels. */
+  widthPx: number;
+  heightPx: number;
   bitDepth: number;
   sampleKind: string;
   min: number;
@@ -40,8 +41,8 @@ export function infoReport(file: string, image: GreyImage): InfoReport {
   const c = image.calibration;
   return {
     file,
-    width: image.width,
-    height: image.height,
+    widthPx: image.width,
+    heightPx: image.height,
     bitDepth: image.bitDepth,
     sampleKind: image.sampleKind,
     min: image.min,
@@ -69,7 +70,7 @@ function sig(v: number): string {
 export function formatInfo(r: InfoReport): string {
   const lines = [
     `file         ${r.file}`,
-    `size         ${r.width} × ${r.height} pixels`,
+    `size         ${r.widthPx} × ${r.heightPx} pixels`,
     `pixel type   ${r.bitDepth}-bit ${KIND[r.sampleKind] ?? r.sampleKind}`,
     `values       ${sig(r.min)} to ${sig(r.max)}`,
   ];

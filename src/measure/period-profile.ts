@@ -10,7 +10,7 @@ export interface ProfilePeriod {
   /** Period in samples (pixels for a 1 px-step profile). */
   periodPx: number;
   /** Standard uncertainty (k = 1) of periodPx from the data alone. */
-  uncertaintyPx: number;
+  uStatisticalPx: number;
   /** Number of fringe periods the estimate spans. */
   fringes: number;
   /** Which estimator produced it. */
@@ -265,7 +265,7 @@ export function spectralPeriod(values: ArrayLike<number>, options: SpectralPerio
   const sf = frequencyCrbStd(snr, n) * Math.sqrt(windowVarianceFactor(wUsed));
   return {
     periodPx: 1 / f,
-    uncertaintyPx: Number.isFinite(sf) ? sf / (f * f) : Infinity,
+    uStatisticalPx: Number.isFinite(sf) ? sf / (f * f) : Infinity,
     fringes: n * f,
     method,
     snr,
@@ -346,7 +346,7 @@ export function realSpacePeriod(values: ArrayLike<number>, options: RealSpacePer
     const s = spectralPeriod(values, { minPeriodPx: options.minPeriodPx, maxPeriodPx: options.maxPeriodPx });
     if (!s) return null;
     p = s.periodPx;
-    guessU = Number.isFinite(s.uncertaintyPx) ? s.uncertaintyPx : 0;
+    guessU = Number.isFinite(s.uStatisticalPx) ? s.uStatisticalPx : 0;
   }
   if (!(p >= 2 && p < n / 2)) throw new RangeError(`approxPeriodPx must be in [2, ${n / 2}), got ${p}`);
   const result = extremaPeriod(values, p);
@@ -358,7 +358,7 @@ export function realSpacePeriod(values: ArrayLike<number>, options: RealSpacePer
   const shifted = extremaPeriod(values, p + h);
   if (shifted) {
     const slope = (shifted.periodPx - result.periodPx) / h;
-    result.uncertaintyPx = Math.hypot(result.uncertaintyPx, slope * guessU);
+    result.uStatisticalPx = Math.hypot(result.uStatisticalPx, slope * guessU);
   }
   return result;
 }
@@ -450,7 +450,7 @@ function extremaPeriod(values: ArrayLike<number>, p: number): RealSpacePeriod | 
   const fit = sineFit(d, 1 / (2 * beta[2]));
   return {
     periodPx: 2 * beta[2],
-    uncertaintyPx: 2 * slopeSe,
+    uStatisticalPx: 2 * slopeSe,
     fringes: span,
     method: 'real space (extrema, least-squares line)',
     snr: fit.residVar > 0 ? fit.amp2 / (2 * fit.residVar) : Infinity,

@@ -93,9 +93,9 @@ export function analyseProfile(image: GreyImage, line: ProfileLine, options: Pro
       for (let i = 0; i < k; i++) {
         const seg = values.subarray(i * len, (i + 1) * len);
         const e = spec(seg, { minPeriodPx: Math.max(2, 0.7 * p), maxPeriodPx: Math.min(seg.length / 3, 1.4 * p) });
-        if (e && Number.isFinite(e.uncertaintyPx) && e.uncertaintyPx > 0) {
+        if (e && Number.isFinite(e.uStatisticalPx) && e.uStatisticalPx > 0) {
           segmentPeriodsPx.push(e.periodPx);
-          segmentItems.push({ value: e.periodPx, u: e.uncertaintyPx });
+          segmentItems.push({ value: e.periodPx, u: e.uStatisticalPx });
         }
       }
     }
@@ -109,7 +109,7 @@ export function analyseProfile(image: GreyImage, line: ProfileLine, options: Pro
       periodPx: e.periodPx,
       angleDeg: profile.angleDeg,
       geometry: 'line',
-      u: { statisticalPx: Number.isFinite(e.uncertaintyPx) ? e.uncertaintyPx : 0, localVariationPx: spread.spread, methodPx: disagreement },
+      u: { statisticalPx: Number.isFinite(e.uStatisticalPx) ? e.uStatisticalPx : 0, localVariationPx: spread.spread, methodPx: disagreement },
       uAngleDeg: 0,
       strength: Number.isFinite(e.snr) ? e.snr : 0,
       flags: [],
@@ -130,7 +130,7 @@ export function analyseProfile(image: GreyImage, line: ProfileLine, options: Pro
     detail: {
       estimators: [spectral, realSpace]
         .filter((e): e is ProfilePeriod => e !== null)
-        .map((e) => ({ method: e.method, periodPx: e.periodPx, uStatisticalPx: e.uncertaintyPx, fringes: e.fringes, snr: Number.isFinite(e.snr) ? e.snr : null })),
+        .map((e) => ({ method: e.method, periodPx: e.periodPx, uStatisticalPx: e.uStatisticalPx, fringes: e.fringes, snr: Number.isFinite(e.snr) ? e.snr : null })),
       segmentPeriodsPx,
       segmentsDiffer: spread.significant,
       extremaPx: realSpace ? realSpace.extremaPx.map((v) => +v.toPrecision(6)) : [],

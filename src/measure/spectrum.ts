@@ -677,7 +677,7 @@ export interface Ring {
   /** d-spacing of the ring in px. */
   periodPx: number;
   /** Standard uncertainty of periodPx from the ring-mean noise (parabola vertex propagation). */
-  uncertaintyPx: number;
+  uStatisticalPx: number;
   /** Ring frequency, cycles/px. */
   frequencyPerPx: number;
   /** Significance of the ring's excess over the baseline, in standard deviations. */
@@ -749,7 +749,7 @@ export function findRings(profile: RadialProfile, options: RingOptions = {}): Ri
     }
     const fr = (r + delta) * f[1];
     const sf = Math.sqrt(varDelta) * f[1];
-    rings.push({ periodPx: 1 / fr, uncertaintyPx: sf / (fr * fr), frequencyPerPx: fr, strength });
+    rings.push({ periodPx: 1 / fr, uStatisticalPx: sf / (fr * fr), frequencyPerPx: fr, strength });
   }
   rings.sort((a, b) => b.strength - a.strength);
   return rings;
@@ -765,7 +765,7 @@ export function ringPeriodicity(ring: Ring): Periodicity {
     periodPx: ring.periodPx,
     angleDeg: 0,
     geometry: 'ring',
-    u: { statisticalPx: ring.uncertaintyPx, localVariationPx: 0, methodPx: 0 },
+    u: { statisticalPx: ring.uStatisticalPx, localVariationPx: 0, methodPx: 0 },
     uAngleDeg: 0,
     strength: ring.strength,
     flags: [],

@@ -20,7 +20,7 @@ const CENTRE = 330;
 interface PanelState {
   spots: { n: number; periodPx: number; angleDeg: number; fx: number; fy: number; added: boolean }[];
   spectrum: { width: number; height: number; binsPerPicturePx: number; picture: { width: number; height: number } } | null;
-  profile: { spectral: { periodPx: number; uncertaintyPx: number } | null; realSpace: { periodPx: number; uncertaintyPx: number; extremaPx: number[] } | null } | null;
+  profile: { spectral: { periodPx: number; uStatisticalPx: number } | null; realSpace: { periodPx: number; uStatisticalPx: number; extremaPx: number[] } | null } | null;
   spectrumBusy: boolean;
   profileBusy: boolean;
 }
@@ -163,7 +163,7 @@ test('a profile line across the fringes gives 1.25 nm by both estimators', async
   const { profile } = await panelState();
   // Demo truth 25 px (demo-data/index.json); a 190 px line holds under 8 periods, so allow 2 % or 3 standard uncertainties.
   for (const e of [profile!.spectral!, profile!.realSpace!]) {
-    expect(Math.abs(e.periodPx - 25)).toBeLessThan(Math.max(0.5, 3 * e.uncertaintyPx));
+    expect(Math.abs(e.periodPx - 25)).toBeLessThan(Math.max(0.5, 3 * e.uStatisticalPx));
   }
   expect(profile!.realSpace!.extremaPx.length).toBeGreaterThanOrEqual(8);
   const cards = await panel().locator('.card .d').allTextContents();

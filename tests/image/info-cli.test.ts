@@ -37,7 +37,7 @@ describe('stratameter info', () => {
     const c = capture();
     expect(await main(['info', calibrated, '--json'], c.io)).toBe(0);
     const r = JSON.parse(c.out());
-    expect(r).toMatchObject({ file: calibrated, width: 40, height: 30, bitDepth: 16, sampleKind: 'uint', min: 100, max: 1299, warnings: [] });
+    expect(r).toMatchObject({ file: calibrated, widthPx: 40, heightPx: 30, bitDepth: 16, sampleKind: 'uint', min: 100, max: 1299, warnings: [] });
     expect(r.calibration).toMatchObject({ nmPerPx: 0.25, source: 'metadata', relUncertainty: 0.05 });
     expect(Object.keys(r.calibration).sort()).toEqual(['detail', 'nmPerPx', 'relUncertainty', 'source']);
   });
@@ -84,7 +84,7 @@ describe('stratameter info', () => {
     const bin = new URL('../../bin/stratameter.mjs', import.meta.url).pathname;
     const ok = spawnSync(process.execPath, [bin, 'info', calibrated, '--json'], { encoding: 'utf8' });
     expect(ok.status).toBe(0);
-    expect(JSON.parse(ok.stdout).width).toBe(40);
+    expect(JSON.parse(ok.stdout).widthPx).toBe(40);
     const fail = spawnSync(process.execPath, [bin, 'info', join(dir, 'nope.tif')], { encoding: 'utf8' });
     expect(fail.status).toBe(1);
     expect(fail.stderr).toMatch(/no such file/);

@@ -116,7 +116,7 @@ describe('period of a profile', () => {
     const s = spectralPeriod(p.mean)!;
     const r = realSpacePeriod(p.mean)!;
     for (const e of [s, r]) {
-      expect(Math.abs(e.periodPx - truthPx)).toBeLessThan(4 * e.uncertaintyPx);
+      expect(Math.abs(e.periodPx - truthPx)).toBeLessThan(4 * e.uStatisticalPx);
       expect(Math.abs(e.periodPx * nmPerPx - dSi111) / dSi111).toBeLessThan(0.002);
     }
     expect(r.fringes).toBeGreaterThan(45);
@@ -133,7 +133,7 @@ describe('period of a profile', () => {
         const x = Array.from({ length: 300 }, (_, i) => Math.cos((2 * Math.PI * i) / truth + seed) + 0.7 * g());
         const e = est === 'spectral' ? spectralPeriod(x)! : realSpacePeriod(x)!;
         errs.push(e.periodPx - truth);
-        us.push(e.uncertaintyPx);
+        us.push(e.uStatisticalPx);
       }
       const rms = Math.sqrt(errs.reduce((a, b) => a + b * b, 0) / errs.length);
       const meanU = us.reduce((a, b) => a + b, 0) / us.length;
