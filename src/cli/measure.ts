@@ -1,6 +1,7 @@
 /**
  * `stratameter measure IMAGE`: the periodicities (lattice-fringe and lamellar periods) of an image
- * or a rectangular region of it, strongest first, each as d ± u.
+ * or a rectangular region of it, strongest first, each as d ± u; with --tool, any tool of the
+ * measurement-tool registry on a region or a line.
  */
 import { readFile } from 'node:fs/promises';
 import type { CliCommand, CliIo } from './command';
@@ -10,12 +11,14 @@ import { checkSpectrumRegion, RegionTooLargeError } from '../image/size-limits';
 import type { Calibration, GreyImage } from '../image/grey-image';
 import { budgetContents, DEFAULT_COVERAGE_FACTOR, expressPeriod, formatPlusMinus, type Measurement, type Periodicity } from '../measure/measurement';
 import { measurementsCsv, measurementsJson } from '../measure/export';
-import { toolOf } from '../measure/tools';
+import { TOOLS, toolOf, type MeasurementToolEntry } from '../measure/tools';
+import { parseLine } from './sheets';
 import { calibrationPartsText, INDICATED_MAGNIFICATION_REL, makeCalibration } from '../calibration/calibration';
 import type { WindowKind } from '../measure/window';
 
 const usage = `Usage: stratameter measure IMAGE [--nm-per-px X] [--rel-uncertainty U] [--region x,y,w,h]
                            [--alpha A] [--window hann|tukey|none] [--coverage-factor K] [--json | --csv]
+       stratameter measure IMAGE --tool TOOL [--region x,y,w,h | --line x0,y0,x1,y1[,width]] ...
 
 Finds the periodicities of IMAGE (or of a rectangle of it) in its power spectrum: lattice-fringe
 and lamellar periods (d-spacings) with their directions, strongest first. A region with no
@@ -26,6 +29,9 @@ Options:
   --rel-uncertainty U   relative standard uncertainty of that pixel size (default 0.05 = 5 %,
                         the usual reproducibility of an indicated TEM magnification)
   --region x,y,w,h      rectangle in pixels: left, top, width, height (default: the whole image)
+  --tool TOOL           the measurement tool (default spectrum): ${TOOLS.map((t) => t.kind).join(', ')}
+  --line x0,y0,x1,y1[,width]
+                        the line for a tool that measures along a line (width in px, default 9)
   --alpha A             false-alarm probability for the whole spectrum (default 0.001)
   --window W            hann (default), tukey or none
   --coverage-factor K   k of the expanded uncertainty U = k·u (default 2, about 95 %)
@@ -126,7 +132,7 @@ export const command: CliCommand = {
   usage,
   async run(args: string[], io: CliIo): Promise<number> {
     const { positional, options, flags } = parseArgs(args, {
-      values: ['nm-per-px', 'rel-uncertainty', 'region', 'alpha', 'window', 'coverage-factor'],
+      values: ['nm-per-px', 'rel-uncertainty', 'region', 'alpha', 'window', 'coverage-factor', 'tool', 'line'],
       booleans: ['json', 'csv'],
     });
     if (positional.length !== 1) throw new UsageError(`expected one IMAGE, got ${positional.length}\n\n${usage}`);
@@ -147,6 +153,16 @@ export const command: CliCommand = {
       ]);
     }
     const k = coverageFactorOption(options.get('coverage-factor'));
+    let tool: MeasurementToolEntry;
+    try {
+      tool = toolOf(options.get('tool') ?? 'spectrum');
+    } catch (e) {
+      throw new UsageError(`--tool: ${(e as Error).message}`);
+    }
+    if (tool.target === 'line' && !options.has('line')) throw new UsageError(`the ${tool.kind} tool measures along a line: give --line x0,y0,x1,y1[,width]`);
+    if (tool.target === 'rect' && options.has('line')) throw new UsageError(`the ${tool.kind} tool measures a region: give --region, not --line`);
+    if (tool.target === 'line' && options.has('region')) throw new UsageError(`the ${tool.kind} tool measures along a line: give --line, not --region`);
+    const line = options.has('line') ? parseLine(options.get('line')!) : null;
     const region = options.has('region') ? parseRegion(options.get('region')!) : null;
     const alpha = options.has('alpha') ? Number(options.get('alpha')) : undefined;
     if (alpha !== undefined && !(alpha > 0 && alpha < 1)) throw new UsageError(`--alpha must be in (0, 1), got '${options.get('alpha')}'`);
@@ -174,17 +190,24 @@ export const command: CliCommand = {
     if (manual) image = { ...image, calibration: manual };
     const r = region ?? { x: 0, y: 0, width: image.width, height: image.height };
     try {
-      checkSpectrumRegion(Math.min(r.width, image.width - r.x), Math.min(r.height, image.height - r.y), r, 'cli');
+      if (tool.kind === 'spectrum' || tool.kind === 'rings') checkSpectrumRegion(Math.min(r.width, image.width - r.x), Math.min(r.height, image.height - r.y), r, 'cli');
     } catch (e) {
       if (e instanceof RegionTooLargeError) {
         io.err(`stratameter measure: ${file}: ${e.message}\n`);
         return 1;
       }
     }
+    if (line) {
+      for (const [name, v, max] of [['x0', line.x0, image.width], ['x1', line.x1, image.width], ['y0', line.y0, image.height], ['y1', line.y1, image.height]] as const) {
+        if (v < 0 || v > max - 1) throw new UsageError(`--line ${name} = ${v} lies outside the ${image.width} × ${image.height} image`);
+      }
+    }
     let m: Measurement;
     try {
-      // the spectrum tool of the measurement-tool registry (src/measure/tools.ts)
-      m = await toolOf('spectrum').run(image, region ? { kind: 'rect', ...region } : null, { alpha, window }, { fileName: file });
+      // the tool from the measurement-tool registry (src/measure/tools.ts)
+      const target = line ? { kind: 'line' as const, ...line } : region ? { kind: 'rect' as const, ...region } : null;
+      const settings = tool.kind === 'spectrum' ? { alpha, window } : tool.kind === 'rings' ? { alpha } : {};
+      m = await tool.run(image, target, settings, { fileName: file });
     } catch (e) {
       if (e instanceof RangeError) throw new UsageError(e.message);
       throw e;

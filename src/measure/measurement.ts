@@ -9,6 +9,7 @@
  * Budget: GUM, JCGM 100:2008 (§5.1.2 combined standard uncertainty, §6 expanded uncertainty).
  */
 import type { Calibration } from '../image/grey-image';
+import type { ToolKind } from './tools';
 
 /** The record layout this code writes. */
 export const RECORD_VERSION = 2;
@@ -72,15 +73,8 @@ export type Region =
   | { kind: 'rect'; x: number; y: number; width: number; height: number }
   | { kind: 'line'; x0: number; y0: number; x1: number; y1: number; widthPx: number };
 
-/** What produced a measurement. */
-export type MeasurementTool =
-  | 'profile'
-  | 'spectrum'
-  | 'rings'
-  | 'sheets-line'
-  | 'sheets-auto'
-  | 'domains'
-  | 'calibration';
+/** What produced a measurement: a tool of the registry (src/measure/tools.ts), or a calibration. */
+export type MeasurementTool = ToolKind | 'calibration';
 
 export interface Measurement {
   /** Record layout version: {@link RECORD_VERSION}. */

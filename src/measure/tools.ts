@@ -4,16 +4,19 @@
  * the app panel that shows it and the batch recipe step that runs it. The compute worker, the
  * command line, batch recipes, the library and every export look tools up here.
  *
- * Adding a tool: write its core function (returning a `Measurement`), add one entry to `TOOLS`
- * (and its kind to `MeasurementTool` in measurement.ts), show it in one panel, test it. See the
- * developer guide, docs/developers.md.
+ * Adding a tool: write its core function (returning a `Measurement`), add its kind to `ToolKind`
+ * and one entry to `TOOLS`, show it in one panel, test it. See the developer guide,
+ * docs/developers.md.
  */
 import type { GreyImage } from '../image/grey-image';
 import type { Workspace } from '../image/workspace';
 import { periodLabel, type FigureShape } from '../figure/shapes';
-import { expressLength, noUncertainty, type LengthGeometry, type Measurement, type MeasurementTool, type Region } from './measurement';
+import { expressLength, noUncertainty, type LengthGeometry, type Measurement, type Region } from './measurement';
 import type { ProfileEstimator } from './profile-measurement';
 import type { RectPx } from './spectrum';
+
+/** The record kind of every registered tool (add a tool's kind here and its entry to TOOLS below). */
+export type ToolKind = 'profile' | 'spectrum' | 'rings' | 'sheets-line' | 'sheets-auto' | 'domains';
 
 /** One CSV cell: text, a number, or empty (null). */
 export type CsvCell = string | number | null | undefined;
@@ -29,7 +32,7 @@ export interface ToolContext {
 /** One registered measurement tool. */
 export interface MeasurementToolEntry {
   /** The record kind it writes (`Measurement.tool`); also its id. */
-  kind: Exclude<MeasurementTool, 'calibration'>;
+  kind: ToolKind;
   /** Its name in the user's words. */
   label: string;
   /** What it measures: a rectangle (null: the whole image) or a line with a width. */

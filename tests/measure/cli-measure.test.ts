@@ -17,6 +17,26 @@ function capture() {
 }
 
 describe('stratameter measure', () => {
+  test('--tool runs any tool of the registry on a region or a line; a wrong target is refused by name', async () => {
+    // Al {200} = a/2 = 0.20248 nm at 0.0743 nm/px (SOURCES.md §1): rings of the powder-like average and a profile
+    const rings = capture();
+    expect(await main(['measure', STEM, '--tool', 'rings', '--nm-per-px', '0.0743', '--json'], rings.io)).toBe(0);
+    const r = JSON.parse(rings.out.join(''));
+    expect(r.measurement.tool).toBe('rings');
+    expect(r.periodicities[0].geometry).toBe('ring');
+    const line = capture();
+    expect(await main(['measure', STEM, '--tool', 'profile', '--line', '20,128,236,128,9', '--json'], line.io)).toBe(0);
+    const p = JSON.parse(line.out.join(''));
+    expect(p.measurement.tool).toBe('profile');
+    expect(p.measurement.region).toEqual({ kind: 'line', x0: 20, y0: 128, x1: 236, y1: 128, widthPx: 9 });
+    const bad = capture();
+    expect(await main(['measure', STEM, '--tool', 'profile'], bad.io)).toBe(2);
+    expect(bad.err.join('')).toMatch(/the profile tool measures along a line: give --line/);
+    const unknown = capture();
+    expect(await main(['measure', STEM, '--tool', 'nothing'], unknown.io)).toBe(2);
+    expect(unknown.err.join('')).toMatch(/no measurement tool 'nothing': the tools are profile, spectrum/);
+  }, 60_000);
+
   test('--csv prints the one CSV table of every export; --json and --csv together are refused', async () => {
     const c = capture();
     // 0.0743 nm/px: SOURCES.md §1 (d200 = 0.20248 nm, a = 0.40495 nm from memory).
