@@ -208,6 +208,7 @@ export const command: CliCommand = {
       const target = line ? { kind: 'line' as const, ...line } : region ? { kind: 'rect' as const, ...region } : null;
       const settings = tool.kind === 'spectrum' ? { alpha, window } : tool.kind === 'rings' ? { alpha } : {};
       m = await tool.run(image, target, settings, { fileName: file });
+      if (m.fileName !== file) m = { ...m, fileName: file };
     } catch (e) {
       if (e instanceof RangeError) throw new UsageError(e.message);
       throw e;
