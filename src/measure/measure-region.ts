@@ -3,7 +3,7 @@
  * the app and the batch runner.
  */
 import type { GreyImage } from '../image/grey-image';
-import { type Measurement, RECORD_VERSION } from './measurement';
+import { type Measurement, recordHead } from './measurement';
 import { spotPeriodicity } from './spot-near';
 import { refineData } from './refine';
 import { budgetSpot, type BudgetedSpot } from './spot-budget';
@@ -151,12 +151,7 @@ export async function analyseRegion(
   notes.push(...image.warnings.filter((w) => /NaN or infinite pixels were replaced/.test(w)));
   if (!image.calibration) notes.push('image not calibrated: periods in px only');
   const measurement: Measurement = {
-    recordVersion: RECORD_VERSION,
-    id: globalThis.crypto.randomUUID(),
-    imageId: options.imageId ?? null,
-    fileName: options.fileName ?? '',
-    createdIso: new Date().toISOString(),
-    tool: 'spectrum',
+    ...recordHead('spectrum', options),
     region: region ? { kind: 'rect', ...r } : null,
     calibration: image.calibration,
     settings: {

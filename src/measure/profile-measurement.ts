@@ -4,7 +4,7 @@
  */
 import type { GreyImage } from '../image/grey-image';
 import type { ComplexInterpolator } from './interpolate';
-import { type Measurement, type Periodicity, RECORD_VERSION } from './measurement';
+import { type Measurement, type Periodicity, recordHead } from './measurement';
 import { type ProfilePeriod, type RealSpacePeriod, realSpacePeriod, spectralPeriod } from './period-profile';
 import { localSpread } from './pool';
 import { type LineProfile, lineProfile } from './profile';
@@ -117,12 +117,7 @@ export function analyseProfile(image: GreyImage, line: ProfileLine, options: Pro
   if (!image.calibration) notes.push('image not calibrated: periods in px only');
   const widthPx = Math.max(1, Math.round(line.widthPx));
   const measurement: Measurement = {
-    recordVersion: RECORD_VERSION,
-    id: globalThis.crypto.randomUUID(),
-    imageId: options.imageId ?? null,
-    fileName: options.fileName ?? '',
-    createdIso: new Date().toISOString(),
-    tool: 'profile',
+    ...recordHead('profile', options),
     region: { kind: 'line', x0: line.x0, y0: line.y0, x1: line.x1, y1: line.y1, widthPx },
     calibration: image.calibration,
     settings: { widthPx, spectralEstimator: estimator, sampleStepPx: 1 },
