@@ -117,7 +117,6 @@ interface WorkerReply {
   retainedBytes: number;
 }
 
-const DEFAULT_DEPS_MODULE = new URL('../batch/deps.ts', import.meta.url).href;
 
 /** A worker ended by the runner: the file in work passed a per-file limit. */
 class LimitError extends Error {
@@ -161,8 +160,13 @@ export async function listImages(folder: string): Promise<string[]> {
     .sort();
 }
 
-/** The module a worker boots from: registers tsx, then runs `workerMain` of this file. */
+/**
+ * The module a worker thread starts from. In the built command line, the bundle's batch-worker
+ * entry beside this chunk; run from the TypeScript sources (tests, benchmarks), a small module
+ * that registers tsx, then runs `workerMain` of this file.
+ */
 function workerBootUrl(): URL {
+  if (!/\.ts$/.test(new URL(import.meta.url).pathname)) return new URL('./batch-worker.mjs', import.meta.url);
   const tsxDir = dirname(createRequire(import.meta.url).resolve('tsx/package.json'));
   const api = pathToFileURL(join(tsxDir, 'dist/esm/api/index.mjs')).href;
   const self = import.meta.url;
@@ -189,7 +193,7 @@ class BatchWorker {
   current: { file: string; startedMs: number } | null = null;
   private limitTimer: NodeJS.Timeout | null = null;
 
-  constructor(recipe: Recipe, depsModule: string, figures: boolean, measureRetained: boolean, private readonly memoryLimitMb: number) {
+  constructor(recipe: Recipe, depsModule: string | undefined, figures: boolean, measureRetained: boolean, private readonly memoryLimitMb: number) {
     this.worker = new Worker(workerBootUrl(), {
       workerData: { stratameterBatch: true, recipe, depsModule, figures, measureRetained, budgets: budgetsFor(memoryLimitMb) },
       // the JavaScript heap of this worker stops at the per-file limit (V8 ends the worker past it)
@@ -309,7 +313,7 @@ function readInto(path: string, workspace: Workspace): Uint8Array {
 export async function workerMain(): Promise<void> {
   if (isMainThread || !parentPort || !workerData?.stratameterBatch) throw new Error('workerMain runs only inside a batch worker thread');
   const port = parentPort;
-  const { recipe, depsModule, figures, measureRetained, budgets } = workerData as { recipe: Recipe; depsModule: string; figures: boolean; measureRetained: boolean; budgets?: { maxPixels: number; maxDecompressedBytes: number } };
+  const { recipe, depsModule, figures, measureRetained, budgets } = workerData as { recipe: Recipe; depsModule?: string; figures: boolean; measureRetained: boolean; budgets?: { maxPixels: number; maxDecompressedBytes: number } };
   let gc: (() => void) | null = null;
   if (measureRetained) {
     const v8 = await import('node:v8');
@@ -319,7 +323,7 @@ export async function workerMain(): Promise<void> {
   }
   let deps: BatchDeps;
   try {
-    const mod = (await import(depsModule)) as { createBatchDeps(workspace?: Workspace, options?: { maxPixels: number; maxDecompressedBytes: number }): Promise<BatchDeps> };
+    const mod = (depsModule ? await import(depsModule) : await import('../batch/deps')) as { createBatchDeps(workspace?: Workspace, options?: { maxPixels: number; maxDecompressedBytes: number }): Promise<BatchDeps> };
     deps = await mod.createBatchDeps(undefined, budgets);
     await deps.prepare?.(recipe);
   } catch (e) {
@@ -559,7 +563,7 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
     return null;
   };
 
-  const depsModule = options.depsModule ?? DEFAULT_DEPS_MODULE;
+  const depsModule = options.depsModule;
   const workerCount = Math.min(options.jobs, Math.max(1, total));
   let startupMs = 0;
   const peaks: number[] = [];
