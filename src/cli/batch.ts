@@ -10,7 +10,7 @@ import { createHash } from 'node:crypto';
 import { closeSync, fstatSync, openSync, readSync } from 'node:fs';
 import { copyFile, mkdir, readdir, readFile, rename, stat, writeFile } from 'node:fs/promises';
 import { createRequire } from 'node:module';
-import { basename, dirname, extname, join, resolve } from 'node:path';
+import { basename, dirname, extname, join, relative, resolve } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import { isMainThread, parentPort, Worker, workerData } from 'node:worker_threads';
 import { batchJson, pooledStats, resultsCsv, summaryCsv, zipExports } from '../batch/export';
@@ -21,6 +21,8 @@ import { emptyState, isFinished, parseState, recordFileName, stateFromRecords, S
 import { DEFAULT_MAX_DECOMPRESSED_BYTES, DEFAULT_MAX_PIXELS } from '../image/decode';
 import { createWorkspace, type Workspace } from '../image/workspace';
 import { figureNames } from '../batch/names';
+import { parseShardSpec, partialFileName, PARTIAL_FORMAT, PARTIAL_SCHEMA_VERSION, shardShare, ShardError, type PartialResult, type ShardSpec } from '../batch/shard';
+import { PROGRAM_VERSION } from './version';
 import { parseArgs, UsageError, type CliCommand, type CliIo } from './command';
 
 /** File name extensions the batch picks up (lower case, with the dot). */
@@ -58,6 +60,12 @@ export interface RunBatchOptions {
    * is ended and replaced; the file is listed as failed with the reason.
    */
   fileMemoryLimitMb?: number;
+  /**
+   * Process only this shard's share of the folder (`shardShare`: the sorted files dealt out in
+   * turn) and write a partial result for `merge` instead of the exports; the resume state is the
+   * shard's own, so shards may share an output folder.
+   */
+  shard?: ShardSpec;
 }
 
 /** Default per-file time limit of a batch, seconds. */
@@ -87,7 +95,7 @@ export interface BatchOutcome {
   seconds: number;
   /** Seconds from the start until the last worker had loaded its tools (thread start, TypeScript loader, opencv.js). */
   startupSeconds: number;
-  /** Files written (exports). */
+  /** Files written (exports, or the shard's partial result). */
   written: string[];
   /** What the run had to repair or note (a damaged state file recovered...). */
   notes: string[];
@@ -291,6 +299,21 @@ class BatchWorker {
   }
 }
 
+/**
+ * Gives a file's measurements ids made from the file's bytes, the recipe and their place
+ * (a name-based UUID, RFC 9562 version 8), so that re-running a batch, or running it in shards,
+ * gives every measurement the same id; only the times differ between runs.
+ * @param result the file's result (changed in place)
+ * @param sha256 the file's SHA-256
+ * @param recipeHash the recipe's hash
+ */
+export function withStableIds(result: FileResult, sha256: string, recipeHash: string): void {
+  result.measurements.forEach((m, i) => {
+    const h = sha256Hex(`stratameter measurement\n${sha256}\n${recipeHash}\n${i}`);
+    m.id = `${h.slice(0, 8)}-${h.slice(8, 12)}-8${h.slice(13, 16)}-${((parseInt(h[16], 16) & 3) | 8).toString(16)}${h.slice(17, 20)}-${h.slice(20, 32)}`;
+  });
+}
+
 /** Reads a whole file into the workspace's file buffer (valid until the next read). */
 function readInto(path: string, workspace: Workspace): Uint8Array {
   const fd = openSync(path, 'r');
@@ -348,6 +371,7 @@ export async function workerMain(): Promise<void> {
     const m = process.memoryUsage();
     return m.heapUsed + m.external;
   };
+  const recipeHash = sha256Hex(canonicalRecipeJson(recipe));
   let processed = 0;
   // the file's bytes are read into one reused buffer (as the tools reuse theirs: see createWorkspace)
   const workspace = createWorkspace();
@@ -371,6 +395,7 @@ export async function workerMain(): Promise<void> {
       }
       const sha256 = msg.sha256 ?? sha256Hex(bytes);
       const out = await processOne(bytes, msg.file, recipe, deps, { figure: figures, renderFigure: annotatedFigurePng });
+      withStableIds(out.result, sha256, recipeHash);
       sample();
       // A forced collection after every file would itself cost time and skew the speed measured,
       // so retained memory is read after the third file and, through the probe, after the last.
@@ -410,8 +435,8 @@ async function readRecord(path: string): Promise<FileResult | null> {
  * edited), its last good copy; if that is damaged too, a state rebuilt from the result records.
  * A damaged state file is moved aside (never deleted) and the recovery is noted.
  */
-async function loadState(outDir: string, recipeHash: string, notes: string[]): Promise<BatchState> {
-  const statePath = join(outDir, STATE_FILE_NAME);
+async function loadState(outDir: string, recipeHash: string, notes: string[], stateName: string = STATE_FILE_NAME): Promise<BatchState> {
+  const statePath = join(outDir, stateName);
   const text = await readFile(statePath, 'utf8').catch(() => null);
   const backupText = await readFile(statePath + STATE_BACKUP_SUFFIX, 'utf8').catch(() => null);
   if (text === null && backupText === null) return emptyState();
@@ -424,13 +449,13 @@ async function loadState(outDir: string, recipeHash: string, notes: string[]): P
     }
     const aside = `${statePath}.damaged-${new Date().toISOString().replace(/[:.]/g, '-')}`;
     await rename(statePath, aside).catch(() => undefined);
-    notes.push(`${STATE_FILE_NAME} ${problem}; it was moved to ${basename(aside)}`);
+    notes.push(`${stateName} ${problem}; it was moved to ${basename(aside)}`);
   }
   let state: BatchState | null = null;
   if (backupText !== null) {
     try {
       state = parseState(backupText);
-      notes.push(`resumed from the last good copy ${STATE_FILE_NAME}${STATE_BACKUP_SUFFIX} (${Object.keys(state.entries).length} finished files)`);
+      notes.push(`resumed from the last good copy ${stateName}${STATE_BACKUP_SUFFIX} (${Object.keys(state.entries).length} finished files)`);
     } catch {
       state = null;
     }
@@ -445,7 +470,7 @@ async function loadState(outDir: string, recipeHash: string, notes: string[]): P
       if (content && info) found.push({ recordFile: `records/${name}`, result: content, writtenIso: info.mtime.toISOString() });
     }
     state = stateFromRecords(found, recipeHash);
-    notes.push(`no usable copy of ${STATE_FILE_NAME}: rebuilt it from the ${Object.keys(state.entries).length} result records in records/`);
+    notes.push(`no usable copy of ${stateName}: rebuilt it from the ${Object.keys(state.entries).length} result records in records/`);
   }
   await saveState(statePath, state);
   return state;
@@ -486,16 +511,21 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
   const outBase = outCsv.replace(/\.csv$/i, '');
   const jsonOut = options.jsonOut ? resolve(options.jsonOut) : recipe.outputs.json ? `${outBase}.json` : undefined;
   const figuresDir = options.figuresDir ? resolve(options.figuresDir) : recipe.outputs.figures ? join(outDir, 'figures') : undefined;
-  const statePath = join(outDir, STATE_FILE_NAME);
+  const shard = options.shard;
+  // each shard keeps its own resume state, so the shards of a batch may share one output folder
+  const stateName = shard ? STATE_FILE_NAME.replace(/\.json$/, `-shard-${shard.k}-of-${shard.n}.json`) : STATE_FILE_NAME;
+  const statePath = join(outDir, stateName);
   const recipeHash = sha256Hex(canonicalRecipeJson(recipe));
   await mkdir(outDir, { recursive: true });
 
   const notes: string[] = [];
-  let state = await loadState(outDir, recipeHash, notes);
+  let state = await loadState(outDir, recipeHash, notes, stateName);
   for (const n of notes) io.err(`batch: ${n}\n`);
 
-  const files = await listImages(folder);
-  const figureOf = figureNames(files);
+  const folderFiles = await listImages(folder);
+  const files = shard ? shardShare(folderFiles, shard) : folderFiles;
+  // figure names from the whole folder, so a shard names each figure as a single run does
+  const figureOf = figureNames(folderFiles);
   const memoryLimitMb = options.fileMemoryLimitMb ?? DEFAULT_FILE_MEMORY_LIMIT_MB;
   const timeLimitS = options.fileTimeLimitS ?? DEFAULT_FILE_TIME_LIMIT_S;
   if (!(Number.isFinite(timeLimitS) && timeLimitS > 0)) throw new UsageError(`--file-time-limit must be a positive number of seconds, got ${timeLimitS}`);
@@ -658,6 +688,53 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
   if (fatal) throw fatal;
 
   const ordered = files.map((f) => results.get(f)).filter((r): r is FileResult => r !== undefined);
+  let written: string[];
+  if (shard) {
+    const partialPath = join(outDir, partialFileName(basename(outBase), shard));
+    const partial: PartialResult = {
+      format: PARTIAL_FORMAT,
+      schemaVersion: PARTIAL_SCHEMA_VERSION,
+      programVersion: PROGRAM_VERSION,
+      recipe,
+      recipeHash,
+      shard,
+      folderFiles,
+      figuresDir: figuresDir ? relative(outDir, figuresDir) || '.' : null,
+      results: ordered,
+      createdIso: new Date().toISOString(),
+    };
+    await writeAtomic(partialPath, `${JSON.stringify(partial)}\n`);
+    written = [partialPath];
+  } else {
+    written = await writeBatchExports({ recipe, results: ordered, outCsv, writeCsv: options.writeCsv ?? recipe.outputs.csv, jsonOut, figuresDir });
+  }
+  return { total: files.length, processed, skipped, results: ordered, workerPeakBytes: peaks, workerEarlyPeakBytes: earlyPeaks, workerFiles, workerRetainedBytes: retained, seconds: (performance.now() - t0) / 1000, startupSeconds: startupMs / 1000, written, notes };
+}
+
+
+/** What `writeBatchExports` writes. */
+export interface BatchExportOptions {
+  recipe: Recipe;
+  /** Every file's result, in folder order. */
+  results: FileResult[];
+  /** Results CSV path (absolute); the summary CSV and the zip go beside it. */
+  outCsv: string;
+  /** Write the two CSV tables. */
+  writeCsv: boolean;
+  /** JSON export path, or undefined for none. */
+  jsonOut?: string;
+  /** Figures folder holding each file's figure (figureFile), or undefined for none: the histograms go there too. */
+  figuresDir?: string;
+}
+
+/**
+ * Writes a batch's exports: results and summary CSV, JSON, histograms (SVG and PNG) and the zip,
+ * as the recipe and options ask. A single run and `merge` both end here, so their exports agree.
+ * @returns the files written
+ */
+export async function writeBatchExports(options: BatchExportOptions): Promise<string[]> {
+  const { recipe, results: ordered, outCsv, jsonOut, figuresDir } = options;
+  const outBase = outCsv.replace(/\.csv$/i, '');
   const written: string[] = [];
   const exportsZip: Record<string, string | Uint8Array> = {};
   const put = async (path: string, content: string | Uint8Array, zipName: string) => {
@@ -665,7 +742,7 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
     written.push(path);
     exportsZip[zipName] = content;
   };
-  if (options.writeCsv ?? recipe.outputs.csv) {
+  if (options.writeCsv) {
     await put(outCsv, resultsCsv(ordered), basename(outCsv));
     await put(`${outBase}-summary.csv`, summaryCsv(ordered), `${basename(outBase)}-summary.csv`);
   }
@@ -682,9 +759,9 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
     if (sheets.length) await put(join(figuresDir, 'histogram-sheet-thickness-nm.png'), histogramPng(sheets, sheetsHist), 'figures/histogram-sheet-thickness-nm.png');
     if (recipe.outputs.zip) {
       for (const r of ordered) {
-        const name = figureOf.get(r.file)!;
-        const p = join(figuresDir, name);
-        if (r.status === 'ok' && (await exists(p))) exportsZip[`figures/${name}`] = new Uint8Array(await readFile(p));
+        if (r.status !== 'ok' || !r.figureFile) continue;
+        const p = join(figuresDir, r.figureFile);
+        if (await exists(p)) exportsZip[`figures/${r.figureFile}`] = new Uint8Array(await readFile(p));
       }
     }
   }
@@ -693,7 +770,7 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
     await writeAtomic(zipPath, zipExports(exportsZip));
     written.push(zipPath);
   }
-  return { total, processed, skipped, results: ordered, workerPeakBytes: peaks, workerEarlyPeakBytes: earlyPeaks, workerFiles, workerRetainedBytes: retained, seconds: (performance.now() - t0) / 1000, startupSeconds: startupMs / 1000, written, notes };
+  return written;
 }
 
 const usage = `Usage: stratameter batch FOLDER [--recipe FILE.json] [--out results.csv] [--json-out results.json] [--figures DIR] [--jobs N]
@@ -711,6 +788,11 @@ Runs a recipe on every image in FOLDER (${IMAGE_EXTENSIONS.join(' ')}; not recur
   --file-time-limit S     seconds one file may take (default ${DEFAULT_FILE_TIME_LIMIT_S}); past it the file's
                           worker is ended and replaced and the file is listed as failed
   --file-memory-limit MB  memory one file may use, MiB (default ${DEFAULT_FILE_MEMORY_LIMIT_MB}); past it likewise
+  --shard K/N         process only shard K of N (1 ≤ K ≤ N): the folder's files sorted by name
+                      and dealt out in turn, so every machine computes the same share. Writes
+                      the partial result OUT.shard-K-of-N.json (and the share's figures) instead of
+                      the exports; its own resume state, so shards may share an output folder.
+                      Combine the partial results with 'stratameter merge'.
 
 A re-run with the same output folder skips every file already finished with the same bytes and
 the same recipe; a damaged state file is recovered from its last good copy (or from records/).
@@ -718,10 +800,19 @@ The exit code is 1 when any file failed (all other files are still processed).`;
 
 export const command: CliCommand = {
   name: 'batch',
-  summary: 'run a recipe on every image of a folder (resumable, parallel); CSV, JSON, figures',
+  summary: 'run a recipe on every image of a folder (resumable, parallel, sharded); CSV, JSON, figures',
   usage,
   async run(args: string[], io: CliIo): Promise<number> {
-    const { positional, options } = parseArgs(args, { values: ['recipe', 'out', 'json-out', 'figures', 'jobs', 'file-time-limit', 'file-memory-limit'] });
+    const { positional, options } = parseArgs(args, { values: ['recipe', 'out', 'json-out', 'figures', 'jobs', 'file-time-limit', 'file-memory-limit', 'shard'] });
+    let shard: ShardSpec | undefined;
+    if (options.has('shard')) {
+      try {
+        shard = parseShardSpec(options.get('shard')!);
+      } catch (e) {
+        if (e instanceof ShardError) throw new UsageError(e.message);
+        throw e;
+      }
+    }
     if (positional.length !== 1) throw new UsageError(`batch needs exactly one FOLDER, got ${positional.length}`);
     let recipe = defaultRecipe();
     const recipePath = options.get('recipe');
@@ -760,15 +851,17 @@ export const command: CliCommand = {
         figuresDir: options.get('figures'),
         jobs,
         progressBar: !!process.stderr.isTTY,
+        shard,
       },
       io,
     );
     const failed = outcome.results.filter((r) => r.status === 'failed');
     io.out(
-      `${outcome.total} images: ${outcome.processed} processed, ${outcome.skipped} skipped (finished earlier); ${outcome.results.length - failed.length} ok, ${failed.length} failed\n`,
+      `${shard ? `shard ${shard.k} of ${shard.n}: ` : ''}${outcome.total} images: ${outcome.processed} processed, ${outcome.skipped} skipped (finished earlier); ${outcome.results.length - failed.length} ok, ${failed.length} failed\n`,
     );
     for (const r of failed) io.err(`failed: ${r.file}: ${r.reason}\n`);
     for (const p of outcome.written) io.out(`wrote ${p}\n`);
+    if (shard) io.out(`when every shard of ${shard.n} has finished: stratameter merge ${dirname(resolve(options.get('out') ?? 'results.csv'))} (or the partial result files)\n`);
     return failed.length > 0 ? 1 : 0;
   },
 };

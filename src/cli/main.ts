@@ -18,7 +18,8 @@ export interface CommandEntry {
 export const COMMANDS: readonly CommandEntry[] = [
   { name: 'info', summary: 'size, pixel type, value range and metadata calibration of an image file', load: () => import('./info') },
   { name: 'calibrate', summary: 'pixel size from metadata, a burned-in scale bar (read offline) or a lattice standard', load: () => import('./calibrate') },
-  { name: 'batch', summary: 'run a recipe on every image of a folder (resumable, parallel); CSV, JSON, figures', load: () => import('./batch') },
+  { name: 'batch', summary: 'run a recipe on every image of a folder (resumable, parallel, sharded); CSV, JSON, figures', load: () => import('./batch') },
+  { name: 'merge', summary: 'combine the partial results of a sharded batch into the exports of a single run', load: () => import('./merge') },
   { name: 'measure', summary: 'periods (d-spacings) and directions in an image region, from its power spectrum', load: () => import('./measure') },
   { name: 'sheets', summary: 'nanosheet thickness and layer counts, along a line or found automatically', load: () => import('./sheets') },
   { name: 'xrd', summary: 'peaks, d-spacings, crystallite sizes and series of a powder XRD or SAXS pattern', load: () => import('./xrd') },
