@@ -21,6 +21,7 @@ import { emptyState, isFinished, parseState, recordFileName, stateFromRecords, S
 import { DEFAULT_MAX_DECOMPRESSED_BYTES, DEFAULT_MAX_PIXELS } from '../image/decode';
 import { createWorkspace, type Workspace } from '../image/workspace';
 import { figureNames } from '../batch/names';
+import { LimitError, runPool, type PoolWorker } from '../batch/pool';
 import { parseShardSpec, partialFileName, PARTIAL_FORMAT, PARTIAL_SCHEMA_VERSION, shardShare, ShardError, type PartialResult, type ShardSpec } from '../batch/shard';
 import { PROGRAM_VERSION } from './version';
 import { parseArgs, UsageError, type CliCommand, type CliIo } from './command';
@@ -126,10 +127,6 @@ interface WorkerReply {
 }
 
 
-/** A worker ended by the runner: the file in work passed a per-file limit. */
-class LimitError extends Error {
-  override name = 'LimitError';
-}
 
 /** The decoder budgets a worker gets from the per-file memory limit (the pixels as floats and the work on them fit in it). */
 export function budgetsFor(memoryLimitMb: number): { maxPixels: number; maxDecompressedBytes: number } {
@@ -182,8 +179,8 @@ function workerBootUrl(): URL {
   return new URL(`data:text/javascript,${encodeURIComponent(code)}`);
 }
 
-/** One worker thread and its queue of one job at a time. */
-class BatchWorker {
+/** One worker thread and its queue of one job at a time: the Node adapter of the batch pool (src/batch/pool.ts). */
+class BatchWorker implements PoolWorker<Job, WorkerReply> {
   private worker: Worker;
   private pending: { resolve: (r: WorkerReply) => void; reject: (e: Error) => void } | null = null;
   peakBytes = 0;
@@ -199,11 +196,12 @@ class BatchWorker {
 
   /** The file in work and when it started (for the memory watchdog), or null. */
   current: { file: string; startedMs: number } | null = null;
-  private limitTimer: NodeJS.Timeout | null = null;
+  /** True once the thread has exited (crashed or ended). */
+  private exited = false;
 
-  constructor(recipe: Recipe, depsModule: string | undefined, figures: boolean, measureRetained: boolean, private readonly memoryLimitMb: number) {
+  constructor(recipe: Recipe, depsModule: string | undefined, figures: boolean, private readonly measureRetainedOnStop: boolean, private readonly memoryLimitMb: number) {
     this.worker = new Worker(workerBootUrl(), {
-      workerData: { stratameterBatch: true, recipe, depsModule, figures, measureRetained, budgets: budgetsFor(memoryLimitMb) },
+      workerData: { stratameterBatch: true, recipe, depsModule, figures, measureRetained: measureRetainedOnStop, budgets: budgetsFor(memoryLimitMb) },
       // the JavaScript heap of this worker stops at the per-file limit (V8 ends the worker past it)
       resourceLimits: { maxOldGenerationSizeMb: memoryLimitMb },
     });
@@ -239,7 +237,8 @@ class BatchWorker {
       if ((e as NodeJS.ErrnoException).code === 'ERR_WORKER_OUT_OF_MEMORY') {
         e = new LimitError(`it needed more memory than the per-file limit of ${this.memoryLimitMb} MiB; the worker was ended and replaced`);
       }
-      this.clearLimit();
+      this.exited = true;
+      this.current = null;
       readyReject(e);
       this.probe?.();
       this.probe = null;
@@ -261,19 +260,11 @@ class BatchWorker {
     });
   }
 
-  /**
-   * Processes one file; rejects with a LimitError when the file is still in work after
-   * `timeLimitMs` (the worker is then ended).
-   */
-  run(job: Job, timeLimitMs: number): Promise<WorkerReply> {
+  /** Processes one file (the pool sets the time limit and calls `end` past it). */
+  run(job: Job): Promise<WorkerReply> {
     return new Promise((resolve, reject) => {
       this.current = { file: job.file, startedMs: performance.now() };
-      const done = () => {
-        this.current = null;
-        this.clearLimit();
-      };
-      this.pending = { resolve: (r) => (done(), resolve(r)), reject: (e) => (done(), reject(e)) };
-      this.limitTimer = setTimeout(() => this.end(`it was still in work after the per-file time limit of ${timeLimitMs / 1000} s; the worker was ended and replaced`), timeLimitMs);
+      this.pending = { resolve: (r) => ((this.current = null), resolve(r)), reject: (e) => ((this.current = null), reject(e)) };
       const transfer = job.bytes ? [job.bytes.buffer as ArrayBuffer] : [];
       this.worker.postMessage({ file: job.file, path: job.path, sha256: job.sha256, bytes: job.bytes }, transfer);
     });
@@ -283,19 +274,17 @@ class BatchWorker {
   end(reason: string): void {
     const p = this.pending;
     this.pending = null;
-    this.clearLimit();
+    this.current = null;
+    this.exited = true;
     void this.worker.terminate();
     p?.reject(new LimitError(reason));
   }
 
-  private clearLimit(): void {
-    if (this.limitTimer) clearTimeout(this.limitTimer);
-    this.limitTimer = null;
-  }
-
-  stop(): Promise<number> {
-    this.clearLimit();
-    return this.worker.terminate();
+  /** Stops the thread; with `measureRetained`, first reads its retained memory after its last file. */
+  async stop(): Promise<void> {
+    if (this.measureRetainedOnStop && !this.exited && this.files > 0) await this.measureRetained();
+    this.exited = true;
+    await this.worker.terminate();
   }
 }
 
@@ -596,12 +585,8 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
   const depsModule = options.depsModule;
   const workerCount = Math.min(options.jobs, Math.max(1, total));
   let startupMs = 0;
-  const peaks: number[] = [];
-  const earlyPeaks: number[] = [];
-  const workerFiles: number[] = [];
-  const retained: BatchOutcome['workerRetainedBytes'] = [];
-  let fatal: Error | null = null;
-  const loops: Promise<void>[] = [];
+  // statistics per worker loop (a loop whose worker was replaced adds up its workers)
+  const stats = Array.from({ length: workerCount }, () => ({ peak: 0, early: 0, files: 0, third: 0, last: 0 }));
   // Memory backstop: the heap of each worker is capped by V8 and its arrays by the decoder
   // budgets; should the process still grow past every worker's share, the worker longest on its
   // file is ended and the file fails with the reason.
@@ -614,78 +599,49 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
     oldest?.end(`the process ran past its memory limit (${memoryLimitMb} MiB per file) while this file was in work; the worker was ended and replaced`);
   }, 500);
   watchdog.unref();
-  for (let w = 0; w < workerCount; w++) {
-    loops.push(
-      (async () => {
-        let worker: BatchWorker | null = null;
-        let peak = 0;
-        let early = 0;
-        let count = 0;
-        let third = 0;
-        let last = 0;
-        try {
-          let job = await takeJob();
-          for (; job; ) {
-            if (fatal) break;
-            if (!worker) {
-              worker = new BatchWorker(recipe, depsModule, !!figuresDir, !!options.measureRetained, memoryLimitMb);
-              active.add(worker);
-              try {
-                await worker.ready;
-                startupMs = Math.max(startupMs, performance.now() - t0);
-              } catch (e) {
-                fatal ??= e as Error;
-                break;
-              }
-            }
-            // Take the next file (a finished one is read and hashed here to be skipped) while this one is measured.
-            const prefetch = takeJob();
-            let reply: WorkerReply;
-            try {
-              reply = await worker.run(job, timeLimitS * 1000);
-            } catch (e) {
-              // a crashed or ended worker fails its file only; a fresh worker takes the next one
-              active.delete(worker);
-              peak = Math.max(peak, worker.peakBytes);
-              early = Math.max(early, worker.earlyPeakBytes);
-              count += worker.files;
-              third ||= worker.retainedAfterThird;
-              last = worker.retainedAfterLast || last;
-              await worker.stop().catch(() => 0);
-              worker = null;
-              const reason = e instanceof LimitError ? `stopped: ${e.message}` : `processing stopped: ${(e as Error).message.split('\n')[0]}`;
-              await commit(job, job.sha256, { file: job.file, status: 'failed', reason, image: null, calibration: null, measurements: [], summary: { topPeriods: [], sheetCount: null, meanThicknessNm: null, sdThicknessNm: null, sheetThicknessNm: [] }, notes: [] }, undefined, false);
-              job = await prefetch;
-              continue;
-            }
-            await commit(job, reply.sha256, reply.result, reply.figurePng);
-            job = await prefetch;
-          }
-        } finally {
-          if (worker && options.measureRetained && worker.files > 0) await worker.measureRetained().catch(() => undefined);
-          if (worker) {
-            active.delete(worker);
-            peak = Math.max(peak, worker.peakBytes);
-            early = Math.max(early, worker.earlyPeakBytes);
-            count += worker.files;
-            third ||= worker.retainedAfterThird;
-            last = worker.retainedAfterLast || last;
-            await worker.stop().catch(() => 0);
-          }
-          if (peak > 0) {
-            peaks.push(peak);
-            earlyPeaks.push(early);
-            workerFiles.push(count);
-            retained.push({ afterThird: third, afterLast: last });
-          }
-        }
-      })(),
-    );
+  const failedResult = (file: string, reason: string): FileResult => ({ file, status: 'failed', reason, image: null, calibration: null, measurements: [], summary: { topPeriods: [], sheetCount: null, meanThicknessNm: null, sdThicknessNm: null, sheetThicknessNm: [] }, notes: [] });
+  let poolError: { error: unknown } | null = null;
+  try {
+    await runPool<Job, Job, WorkerReply>({
+      workers: workerCount,
+      // the next file is taken (a finished one read and hashed to be skipped) while this one is measured
+      prefetch: true,
+      next: takeJob,
+      job: (j) => j,
+      timeLimitMs: timeLimitS * 1000,
+      spawn: () => {
+        const w = new BatchWorker(recipe, depsModule, !!figuresDir, !!options.measureRetained, memoryLimitMb);
+        active.add(w);
+        w.ready.then(() => (startupMs = Math.max(startupMs, performance.now() - t0)), () => undefined);
+        return w;
+      },
+      onReply: (job, reply) => commit(job, reply.sha256, reply.result, reply.figurePng),
+      // a worker that crashed or passed a limit: reported, but not marked finished (the next run tries the file again)
+      onFailure: (job, e) => commit(job, job.sha256, failedResult(job.file, e instanceof LimitError ? `stopped: ${e.message}` : `processing stopped: ${e.message.split('\n')[0]}`), undefined, false),
+      onWorkerDone: (pw, index) => {
+        const w = pw as BatchWorker;
+        active.delete(w);
+        const st = stats[index];
+        st.peak = Math.max(st.peak, w.peakBytes);
+        st.early = Math.max(st.early, w.earlyPeakBytes);
+        st.files += w.files;
+        st.third ||= w.retainedAfterThird;
+        st.last = w.retainedAfterLast || st.last;
+      },
+    });
+  } catch (error) {
+    poolError = { error };
+  } finally {
+    clearInterval(watchdog);
   }
-  await Promise.all(loops);
-  clearInterval(watchdog);
   await commitChain;
-  if (fatal) throw fatal;
+  if (poolError) throw poolError.error;
+  const used = stats.filter((st) => st.peak > 0);
+  const peaks = used.map((st) => st.peak);
+  const earlyPeaks = used.map((st) => st.early);
+  const workerFiles = used.map((st) => st.files);
+  const retained: BatchOutcome['workerRetainedBytes'] = used.map((st) => ({ afterThird: st.third, afterLast: st.last }));
+  await commitChain;
 
   const ordered = files.map((f) => results.get(f)).filter((r): r is FileResult => r !== undefined);
   let written: string[];
