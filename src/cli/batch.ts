@@ -94,7 +94,7 @@ export interface BatchOutcome {
   workerRetainedBytes: { afterThird: number; afterLast: number }[];
   /** Wall-clock seconds of the run. */
   seconds: number;
-  /** Seconds from the start until the last worker had loaded its tools (thread start, TypeScript loader, opencv.js). */
+  /** Seconds from the start until the last worker had loaded its tools (thread start, its modules, the transform engine). */
   startupSeconds: number;
   /** Files written (exports, or the shard's partial result). */
   written: string[];
