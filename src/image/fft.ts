@@ -176,27 +176,27 @@ export async function realDft2d(width: number, height: number, fill: (input: Flo
           }
         }
       }
-      for (let v = 0; v < h; v++) {
-        const row = v * w;
-        const mirrorRow = ((h - v) % h) * w;
-        for (let b = 0; b < nb; b++) {
-          const u = u0 + b;
-          const d = 2 * (b * h + v);
-          const re = col[d];
-          const im = col[d + 1];
-          // the mirror column w − u lies in the other half when 0 < u and w − u ≥ nc
-          const mirror = u > 0 && w - u >= nc;
-          if (power) {
-            const p = re * re + im * im;
-            out[row + u] = p;
-            if (mirror) out[mirrorRow + w - u] = p;
-          } else {
-            out[2 * (row + u)] = re;
-            out[2 * (row + u) + 1] = im;
-            if (mirror) {
-              out[2 * (mirrorRow + w - u)] = re;
-              out[2 * (mirrorRow + w - u) + 1] = -im;
-            }
+      // columns u0 + b with b in [m0, m1) have their mirror w − u in the other half (0 < u ≤ w − nc)
+      const m0 = u0 === 0 ? 1 : 0;
+      const m1 = Math.max(m0, Math.min(nb, w - nc - u0 + 1));
+      if (power) {
+        for (let v = 0; v < h; v++) {
+          const row = v * w + u0;
+          const mirror = ((h - v) % h) * w + w - u0;
+          for (let b = 0, d = 2 * v; b < nb; b++, d += 2 * h) out[row + b] = col[d] * col[d] + col[d + 1] * col[d + 1];
+          for (let b = m0; b < m1; b++) out[mirror - b] = out[row + b];
+        }
+      } else {
+        for (let v = 0; v < h; v++) {
+          const row = 2 * (v * w + u0);
+          const mirror = 2 * (((h - v) % h) * w + w - u0);
+          for (let b = 0, d = 2 * v; b < nb; b++, d += 2 * h) {
+            out[row + 2 * b] = col[d];
+            out[row + 2 * b + 1] = col[d + 1];
+          }
+          for (let b = m0; b < m1; b++) {
+            out[mirror - 2 * b] = out[row + 2 * b];
+            out[mirror - 2 * b + 1] = -out[row + 2 * b + 1];
           }
         }
       }
@@ -238,7 +238,7 @@ export class ComplexFft {
   /** Imaginary parts. */
   readonly im: Float64Array;
   /** Stockham stages: radix, sub-transform length so far, twiddles e^{−2πi·q·k/(ns·r)} at [k·(r−1) + q − 1]. */
-  private readonly stages: { r: number; ns: number; twr: Float64Array; twi: Float64Array }[] | null;
+  private readonly stages: Stage[] | null;
   private readonly tr: Float64Array;
   private readonly ti: Float64Array;
   private readonly chirp: { m: ComplexFft; wr: Float64Array; wi: Float64Array; br: Float64Array; bi: Float64Array } | null = null;
@@ -308,111 +308,17 @@ export class ComplexFft {
     let xi = this.im;
     let yr = this.tr;
     let yi = this.ti;
-    const C3 = -0.5;
-    const S3 = -Math.sqrt(3) / 2;
-    const c5a = Math.cos((2 * Math.PI) / 5);
-    const c5b = Math.cos((4 * Math.PI) / 5);
-    const s5a = -Math.sin((2 * Math.PI) / 5);
-    const s5b = -Math.sin((4 * Math.PI) / 5);
-    for (const { r, ns, twr, twi } of this.stages!) {
-      const stride = n / r;
-      const groups = stride / ns;
-      for (let g = 0; g < groups; g++) {
-        for (let k = 0; k < ns; k++) {
-          const j = g * ns + k;
-          const base = g * ns * r + k;
-          const t = k * (r - 1);
-          // inputs x[j + q·stride], twiddled for q ≥ 1
-          const a0r = xr[j];
-          const a0i = xi[j];
-          let b = xr[j + stride];
-          let c = xi[j + stride];
-          const a1r = b * twr[t] - c * twi[t];
-          const a1i = b * twi[t] + c * twr[t];
-          if (r === 2) {
-            yr[base] = a0r + a1r;
-            yi[base] = a0i + a1i;
-            yr[base + ns] = a0r - a1r;
-            yi[base + ns] = a0i - a1i;
-            continue;
-          }
-          b = xr[j + 2 * stride];
-          c = xi[j + 2 * stride];
-          const a2r = b * twr[t + 1] - c * twi[t + 1];
-          const a2i = b * twi[t + 1] + c * twr[t + 1];
-          if (r === 3) {
-            const sr = a1r + a2r;
-            const si = a1i + a2i;
-            const dr = a1r - a2r;
-            const di = a1i - a2i;
-            const mr = a0r + C3 * sr;
-            const mi = a0i + C3 * si;
-            yr[base] = a0r + sr;
-            yi[base] = a0i + si;
-            yr[base + ns] = mr - S3 * di;
-            yi[base + ns] = mi + S3 * dr;
-            yr[base + 2 * ns] = mr + S3 * di;
-            yi[base + 2 * ns] = mi - S3 * dr;
-            continue;
-          }
-          b = xr[j + 3 * stride];
-          c = xi[j + 3 * stride];
-          const a3r = b * twr[t + 2] - c * twi[t + 2];
-          const a3i = b * twi[t + 2] + c * twr[t + 2];
-          if (r === 4) {
-            const t0r = a0r + a2r;
-            const t0i = a0i + a2i;
-            const t1r = a0r - a2r;
-            const t1i = a0i - a2i;
-            const t2r = a1r + a3r;
-            const t2i = a1i + a3i;
-            const t3r = a1r - a3r;
-            const t3i = a1i - a3i;
-            yr[base] = t0r + t2r;
-            yi[base] = t0i + t2i;
-            yr[base + 2 * ns] = t0r - t2r;
-            yi[base + 2 * ns] = t0i - t2i;
-            yr[base + ns] = t1r + t3i;
-            yi[base + ns] = t1i - t3r;
-            yr[base + 3 * ns] = t1r - t3i;
-            yi[base + 3 * ns] = t1i + t3r;
-            continue;
-          }
-          b = xr[j + 4 * stride];
-          c = xi[j + 4 * stride];
-          const a4r = b * twr[t + 3] - c * twi[t + 3];
-          const a4i = b * twi[t + 3] + c * twr[t + 3];
-          // radix 5: pairs (1, 4) and (2, 3)
-          const p1r = a1r + a4r;
-          const p1i = a1i + a4i;
-          const m1r = a1r - a4r;
-          const m1i = a1i - a4i;
-          const p2r = a2r + a3r;
-          const p2i = a2i + a3i;
-          const m2r = a2r - a3r;
-          const m2i = a2i - a3i;
-          yr[base] = a0r + p1r + p2r;
-          yi[base] = a0i + p1i + p2i;
-          const q1r = a0r + c5a * p1r + c5b * p2r;
-          const q1i = a0i + c5a * p1i + c5b * p2i;
-          const q2r = a0r + c5b * p1r + c5a * p2r;
-          const q2i = a0i + c5b * p1i + c5a * p2i;
-          const u1r = s5a * m1r + s5b * m2r;
-          const u1i = s5a * m1i + s5b * m2i;
-          const u2r = s5b * m1r - s5a * m2r;
-          const u2i = s5b * m1i - s5a * m2i;
-          yr[base + ns] = q1r - u1i;
-          yi[base + ns] = q1i + u1r;
-          yr[base + 4 * ns] = q1r + u1i;
-          yi[base + 4 * ns] = q1i - u1r;
-          yr[base + 2 * ns] = q2r - u2i;
-          yi[base + 2 * ns] = q2i + u2r;
-          yr[base + 3 * ns] = q2r + u2i;
-          yi[base + 3 * ns] = q2i - u2r;
-        }
-      }
-      [xr, yr] = [yr, xr];
-      [xi, yi] = [yi, xi];
+    for (const stage of this.stages!) {
+      if (stage.r === 4) radix4(n, stage, xr, xi, yr, yi);
+      else if (stage.r === 2) radix2(n, stage, xr, xi, yr, yi);
+      else if (stage.r === 3) radix3(n, stage, xr, xi, yr, yi);
+      else radix5(n, stage, xr, xi, yr, yi);
+      const tr = xr;
+      xr = yr;
+      yr = tr;
+      const ti = xi;
+      xi = yi;
+      yi = ti;
     }
     if (xr !== this.re) {
       this.re.set(xr);
@@ -444,5 +350,165 @@ export class ComplexFft {
       this.re[k] = r * wr[k] - i * wi[k];
       this.im[k] = r * wi[k] + i * wr[k];
     }
+  }
+}
+
+/** A Stockham stage: radix r, sub-transform length ns so far, twiddles at [k·(r−1) + q − 1]. */
+interface Stage {
+  r: number;
+  ns: number;
+  twr: Float64Array;
+  twi: Float64Array;
+}
+
+// One Stockham stage per radix: inputs x[j + q·n/r] (j = g·ns + k), twiddled by e^{−2πi·q·k/(ns·r)},
+// a length-r DFT, outputs y[g·ns·r + k + p·ns] (Govindaraju et al., SC 2008, "High performance
+// discrete Fourier transforms on graphics processors", the Stockham formulation).
+
+function radix2(n: number, { ns, twr, twi }: Stage, xr: Float64Array, xi: Float64Array, yr: Float64Array, yi: Float64Array): void {
+  const stride = n >> 1;
+  for (let j = 0; j < stride; j++) {
+    const k = j % ns;
+    const base = (j - k) * 2 + k;
+    const b = xr[j + stride];
+    const c = xi[j + stride];
+    const a1r = b * twr[k] - c * twi[k];
+    const a1i = b * twi[k] + c * twr[k];
+    yr[base] = xr[j] + a1r;
+    yi[base] = xi[j] + a1i;
+    yr[base + ns] = xr[j] - a1r;
+    yi[base + ns] = xi[j] - a1i;
+  }
+}
+
+function radix4(n: number, { ns, twr, twi }: Stage, xr: Float64Array, xi: Float64Array, yr: Float64Array, yi: Float64Array): void {
+  const stride = n >> 2;
+  for (let j = 0; j < stride; j++) {
+    const k = j % ns;
+    const base = (j - k) * 4 + k;
+    const t = 3 * k;
+    const a0r = xr[j];
+    const a0i = xi[j];
+    let b = xr[j + stride];
+    let c = xi[j + stride];
+    const a1r = b * twr[t] - c * twi[t];
+    const a1i = b * twi[t] + c * twr[t];
+    b = xr[j + 2 * stride];
+    c = xi[j + 2 * stride];
+    const a2r = b * twr[t + 1] - c * twi[t + 1];
+    const a2i = b * twi[t + 1] + c * twr[t + 1];
+    b = xr[j + 3 * stride];
+    c = xi[j + 3 * stride];
+    const a3r = b * twr[t + 2] - c * twi[t + 2];
+    const a3i = b * twi[t + 2] + c * twr[t + 2];
+    const t0r = a0r + a2r;
+    const t0i = a0i + a2i;
+    const t1r = a0r - a2r;
+    const t1i = a0i - a2i;
+    const t2r = a1r + a3r;
+    const t2i = a1i + a3i;
+    const t3r = a1r - a3r;
+    const t3i = a1i - a3i;
+    yr[base] = t0r + t2r;
+    yi[base] = t0i + t2i;
+    yr[base + 2 * ns] = t0r - t2r;
+    yi[base + 2 * ns] = t0i - t2i;
+    yr[base + ns] = t1r + t3i;
+    yi[base + ns] = t1i - t3r;
+    yr[base + 3 * ns] = t1r - t3i;
+    yi[base + 3 * ns] = t1i + t3r;
+  }
+}
+
+const C3 = -0.5;
+const S3 = -Math.sqrt(3) / 2;
+
+function radix3(n: number, { ns, twr, twi }: Stage, xr: Float64Array, xi: Float64Array, yr: Float64Array, yi: Float64Array): void {
+  const stride = n / 3;
+  for (let j = 0; j < stride; j++) {
+    const k = j % ns;
+    const base = (j - k) * 3 + k;
+    const t = 2 * k;
+    const a0r = xr[j];
+    const a0i = xi[j];
+    let b = xr[j + stride];
+    let c = xi[j + stride];
+    const a1r = b * twr[t] - c * twi[t];
+    const a1i = b * twi[t] + c * twr[t];
+    b = xr[j + 2 * stride];
+    c = xi[j + 2 * stride];
+    const a2r = b * twr[t + 1] - c * twi[t + 1];
+    const a2i = b * twi[t + 1] + c * twr[t + 1];
+    const sr = a1r + a2r;
+    const si = a1i + a2i;
+    const dr = a1r - a2r;
+    const di = a1i - a2i;
+    const mr = a0r + C3 * sr;
+    const mi = a0i + C3 * si;
+    yr[base] = a0r + sr;
+    yi[base] = a0i + si;
+    yr[base + ns] = mr - S3 * di;
+    yi[base + ns] = mi + S3 * dr;
+    yr[base + 2 * ns] = mr + S3 * di;
+    yi[base + 2 * ns] = mi - S3 * dr;
+  }
+}
+
+const C5A = Math.cos((2 * Math.PI) / 5);
+const C5B = Math.cos((4 * Math.PI) / 5);
+const S5A = -Math.sin((2 * Math.PI) / 5);
+const S5B = -Math.sin((4 * Math.PI) / 5);
+
+function radix5(n: number, { ns, twr, twi }: Stage, xr: Float64Array, xi: Float64Array, yr: Float64Array, yi: Float64Array): void {
+  const stride = n / 5;
+  for (let j = 0; j < stride; j++) {
+    const k = j % ns;
+    const base = (j - k) * 5 + k;
+    const t = 4 * k;
+    const a0r = xr[j];
+    const a0i = xi[j];
+    let b = xr[j + stride];
+    let c = xi[j + stride];
+    const a1r = b * twr[t] - c * twi[t];
+    const a1i = b * twi[t] + c * twr[t];
+    b = xr[j + 2 * stride];
+    c = xi[j + 2 * stride];
+    const a2r = b * twr[t + 1] - c * twi[t + 1];
+    const a2i = b * twi[t + 1] + c * twr[t + 1];
+    b = xr[j + 3 * stride];
+    c = xi[j + 3 * stride];
+    const a3r = b * twr[t + 2] - c * twi[t + 2];
+    const a3i = b * twi[t + 2] + c * twr[t + 2];
+    b = xr[j + 4 * stride];
+    c = xi[j + 4 * stride];
+    const a4r = b * twr[t + 3] - c * twi[t + 3];
+    const a4i = b * twi[t + 3] + c * twr[t + 3];
+    // pairs (1, 4) and (2, 3)
+    const p1r = a1r + a4r;
+    const p1i = a1i + a4i;
+    const m1r = a1r - a4r;
+    const m1i = a1i - a4i;
+    const p2r = a2r + a3r;
+    const p2i = a2i + a3i;
+    const m2r = a2r - a3r;
+    const m2i = a2i - a3i;
+    yr[base] = a0r + p1r + p2r;
+    yi[base] = a0i + p1i + p2i;
+    const q1r = a0r + C5A * p1r + C5B * p2r;
+    const q1i = a0i + C5A * p1i + C5B * p2i;
+    const q2r = a0r + C5B * p1r + C5A * p2r;
+    const q2i = a0i + C5B * p1i + C5A * p2i;
+    const u1r = S5A * m1r + S5B * m2r;
+    const u1i = S5A * m1i + S5B * m2i;
+    const u2r = S5B * m1r - S5A * m2r;
+    const u2i = S5B * m1i - S5A * m2i;
+    yr[base + ns] = q1r - u1i;
+    yi[base + ns] = q1i + u1r;
+    yr[base + 4 * ns] = q1r + u1i;
+    yi[base + 4 * ns] = q1i - u1r;
+    yr[base + 2 * ns] = q2r - u2i;
+    yi[base + 2 * ns] = q2i + u2r;
+    yr[base + 3 * ns] = q2r + u2i;
+    yi[base + 3 * ns] = q2i - u2r;
   }
 }
