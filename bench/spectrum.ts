@@ -83,11 +83,13 @@ class NumpyTimer {
   /** One timed rfft2, ms, and the output's dtype. */
   time(): Promise<{ ms: number; dtype: string }> {
     return new Promise((resolve, reject) => {
+      const stopped = (code: number | null) => reject(new Error(`python3 stopped (exit ${code})`));
+      this.child.once('exit', stopped);
       this.lines.once('line', (l) => {
+        this.child.off('exit', stopped);
         const [ms, dtype] = l.split(' ');
         resolve({ ms: Number(ms), dtype });
       });
-      this.child.once('exit', (code) => reject(new Error(`python3 stopped (exit ${code})`)));
       this.child.stdin.write('go\n');
     });
   }

@@ -44,6 +44,7 @@ try {
   writeFileSync(tif, image(1024));
   const bin = join(process.cwd(), 'bin', 'stratameter.mjs');
   const cases = [
+    { name: 'node -e 0 (Node alone, for scale)', args: ['-e', '0'], target: NaN, plain: true },
     { name: 'stratameter --help', args: ['--help'], target: 0.3 },
     { name: 'stratameter info (1024² TIFF)', args: ['info', tif], target: 0.5 },
     { name: 'stratameter measure (1024² TIFF)', args: ['measure', tif], target: 1.5 },
@@ -58,7 +59,7 @@ try {
         const env = { ...process.env, STRATAMETER_FROM_SOURCE: mode === 'source' ? '1' : '0' };
         const cpu0 = childCpuS();
         const t0 = performance.now();
-        const r = spawnSync(process.execPath, [bin, ...c.args], { encoding: 'utf8', env });
+        const r = spawnSync(process.execPath, 'plain' in c ? c.args : [bin, ...c.args], { encoding: 'utf8', env });
         const wall = (performance.now() - t0) / 1000;
         const cpu = childCpuS() - cpu0;
         if (r.status !== 0) throw new Error(`${c.name} (${mode}) failed: ${r.stderr}`);
@@ -78,9 +79,13 @@ try {
     const b = times.get(`${c.name}|built`)!;
     const s = times.get(`${c.name}|source`)!;
     const f = (v: number) => (Number.isFinite(v) ? v.toFixed(2) : 'n/a');
+    if ('plain' in c) {
+      console.log(`| ${c.name} | ${f(median(b.wall))} | ${f(median(b.cpu))} | ${f(median(s.wall))} | ${f(median(s.cpu))} | | | |`);
+      continue;
+    }
     console.log(`| ${c.name} | ${f(median(b.wall))} | ${f(median(b.cpu))} | ${f(median(s.wall))} | ${f(median(s.cpu))} | ${(median(b.wall) / median(s.wall)).toFixed(2)} | ${c.target} | ${median(b.wall) <= c.target ? 'yes' : 'no'} |`);
   }
-  console.log('\nBuilt: the plain-JavaScript command line (bin/cli-build.mjs, built once per change of the sources); from sources: the same command line transpiled by tsx at every start. Wall time includes Node\'s own start (node -e 0 takes about 0.05 s on an idle machine). A busy machine lengthens wall times: compare the columns of one run.');
+  console.log('\nBuilt: the plain-JavaScript command line (bin/cli-build.mjs, built once per change of the sources); from sources: the same command line transpiled by tsx at every start. Wall time includes Node\'s own start (the first row, measured in the same rounds). A busy machine lengthens wall times: compare the columns of one run.');
 } finally {
   rmSync(dir, { recursive: true, force: true });
 }

@@ -126,8 +126,6 @@ interface WorkerReply {
   retainedBytes: number;
 }
 
-
-
 /** The decoder budgets a worker gets from the per-file memory limit (the pixels as floats and the work on them fit in it). */
 export function budgetsFor(memoryLimitMb: number): { maxPixels: number; maxDecompressedBytes: number } {
   const bytes = memoryLimitMb * 2 ** 20;
