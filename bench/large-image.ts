@@ -53,7 +53,8 @@ async function child(file: string, regionSide: number): Promise<void> {
     t0 = performance.now();
   };
   const { decodeImage } = await import('../src/image/decode');
-  const { buildPyramid, histogram } = await import('../components/pyramid');
+  const { buildPyramid } = await import('../src/image/pyramid');
+  const { greyHistogram } = await import('../src/image/display');
   const { powerSpectrum, centredLogPower, findSpots } = await import('../src/measure/spectrum');
   const { loadFft } = await import('../src/image/fft');
   await loadFft();
@@ -68,7 +69,7 @@ async function child(file: string, regionSide: number): Promise<void> {
   const afterOpen = residentMiB();
   const levels = buildPyramid(image);
   const forHistogram = [image, ...levels].find((l) => l.width * l.height <= 1 << 20) ?? levels[levels.length - 1];
-  histogram(forHistogram);
+  greyHistogram(forHistogram);
   mark(`pyramid (${levels.length} levels) and histogram`);
   const side = Math.min(regionSide, image.width, image.height);
   const region = { x: (image.width - side) >> 1, y: (image.height - side) >> 1, width: side, height: side };
