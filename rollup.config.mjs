@@ -16,6 +16,10 @@ export const vendorAssets = [
   ['node_modules/tesseract.js-core/tesseract-core-simd-lstm.wasm.js', 'vendor/ocr/core/tesseract-core-simd-lstm.wasm.js'],
   ['node_modules/tesseract.js-core/tesseract-core-relaxedsimd-lstm.wasm.js', 'vendor/ocr/core/tesseract-core-relaxedsimd-lstm.wasm.js'],
   ['node_modules/@tesseract.js-data/eng/4.0.0_best_int/eng.traineddata.gz', 'vendor/ocr/lang/eng.traineddata.gz'],
+  // The spectrum's transform (PFFFT in WebAssembly, ~40 KB): src/image/pffft.ts fetches the SIMD
+  // build where the browser validates SIMD, else the plain one.
+  ['node_modules/@echogarden/pffft-wasm/dist/simd/pffft.wasm', 'vendor/pffft/simd/pffft.wasm'],
+  ['node_modules/@echogarden/pffft-wasm/dist/non-simd/pffft.wasm', 'vendor/pffft/non-simd/pffft.wasm'],
 ];
 
 /** Empties dist/ before a build, so no stale chunk from an earlier build is served or precached. */
@@ -141,7 +145,8 @@ export default {
       return undefined;
     },
   },
-  external: ['node:module'],
+  // the PFFFT module imports Node's 'module' only on its Node path
+  external: ['node:module', 'module'],
   plugins: [
     cleanDist(),
     jsonModules(),

@@ -121,9 +121,9 @@ async function main(): Promise<void> {
       );
     }
     console.log(`\nload average at the end: ${loadavg().map((l) => l.toFixed(1)).join(' ')} (other processes on the machine lower the speed-up)`);
-    console.log('images/s: files over the wall time after the last worker was ready (thread start, TypeScript loader and opencv.js loaded); with start-up: over the whole wall time. Each worker reuses its file, pixel and spectrum buffers from file to file, so the garbage collector has little to do.');
+    console.log('images/s: files over the wall time after the last worker was ready (thread started, its modules and the transform engine loaded); with start-up: over the whole wall time. Each worker reuses its file, pixel and spectrum buffers from file to file, so the garbage collector has little to do.');
     console.log('CPU s per image: user + system time of the whole process (all worker threads, start-up included) per image; equal for 1 and 2 workers means the work parallelises without overhead, so on an otherwise idle 2-core machine the speed-up approaches 2×.');
-    console.log('Peak and retained memory come from one further run per worker count. Peak: V8 heap total + external (incl. the opencv.js wasm heap) of each worker isolate, sampled after every file.');
+    console.log('Peak and retained memory come from one further run per worker count. Peak: V8 heap total + external (incl. the WebAssembly memory of the transform engine) of each worker isolate, sampled after every file.');
     console.log('Retained: heap used + external after a forced full garbage collection; equal after the 3rd and the last file means no growth with the number of files.');
   } finally {
     await rm(dir, { recursive: true, force: true });

@@ -1,12 +1,14 @@
 /**
  * A pool of module Web Workers for a batch: about one per core (`navigator.hardwareConcurrency`,
- * at most 4). Each worker takes the next queued file as soon as it is free; the caller commits
- * each answer before that worker takes another. Pause lets the files in work finish and takes no
+ * at most 4), run by the batch's one pool (`runPool`, src/batch/pool.ts, which the command line's
+ * worker threads share). Each worker takes the next queued file as soon as it is free; the caller
+ * commits each answer before that worker takes another. Pause lets the files in work finish and takes no
  * new one; cancel stops the workers at once (files in work stay queued). A file still in work
  * after the per-file time limit has its worker ended (a fresh one takes the next file) and is
  * answered as failed with the reason.
  */
 import type { FileResult } from '../src/batch/run';
+import { LimitError, runPool, type PoolWorker } from '../src/batch/pool';
 import type { BatchJob, BatchJobReply } from './batch-protocol';
 
 /** A file waiting in the queue. */
@@ -58,9 +60,16 @@ function workerFailure(name: string, reason: string): FileResult {
   };
 }
 
-class PoolWorker {
+/**
+ * One module Web Worker: the page's adapter of the batch pool (src/batch/pool.ts). The worker is
+ * started on its first file and kept between runs (its opencv.js and OCR engine stay loaded);
+ * a worker that crashed or was ended is started afresh on the next file.
+ */
+class WebPoolWorker implements PoolWorker<BatchJob, BatchJobReply> {
   private worker: Worker | null = null;
-  private pending: { id: string; resolve: (r: BatchJobReply) => void } | null = null;
+  private pending: { id: string; resolve: (r: BatchJobReply) => void; reject: (e: Error) => void } | null = null;
+  /** Errors surface per file (a module worker has no separate start-up step). */
+  readonly ready = Promise.resolve();
 
   constructor(private readonly url: string | URL, private readonly name: string) {}
 
@@ -76,34 +85,39 @@ class PoolWorker {
     };
     w.onerror = (e) => {
       e.preventDefault();
-      this.stop(`the worker stopped: ${e.message || 'out of memory or failed to start'}`);
+      this.terminate(new Error(`the worker stopped: ${e.message || 'out of memory or failed to start'}`));
     };
     this.worker = w;
     return w;
   }
 
-  /** Processes one file; past `timeLimitMs` the worker is ended and the file answered as failed. */
-  process(job: BatchJob, timeLimitMs: number): Promise<BatchJobReply> {
+  run(job: BatchJob): Promise<BatchJobReply> {
     const w = this.ensure();
-    return new Promise((resolve) => {
-      const timer = setTimeout(() => this.stop(`stopped: it was still in work after the per-file time limit of ${timeLimitMs / 1000} s; the worker was ended and replaced`), timeLimitMs);
-      this.pending = { id: job.id, resolve: (r) => (clearTimeout(timer), resolve(r)) };
+    return new Promise((resolve, reject) => {
+      this.pending = { id: job.id, resolve, reject };
       w.postMessage(job, [job.bytes.buffer]);
     });
   }
 
-  /** Terminates the worker; a file in work is answered with `reason` as its error. */
-  stop(reason = 'the batch was cancelled'): void {
+  end(reason: string): void {
+    this.terminate(new LimitError(reason));
+  }
+
+  /** Kept for the next file or run: the page's workers end only by a limit, a crash, cancel or dispose. */
+  stop(): void {}
+
+  /** Terminates the worker; a file in work is rejected with `error`. */
+  terminate(error: Error = new Error('the batch was cancelled')): void {
     const p = this.pending;
     this.pending = null;
     this.worker?.terminate();
     this.worker = null;
-    p?.resolve({ id: p.id, ok: false, error: reason });
+    p?.reject(error);
   }
 }
 
 export class BatchPool {
-  private readonly workers: PoolWorker[];
+  private readonly workers: WebPoolWorker[];
   private queue: PoolFile[] = [];
   private stopping = false;
   private generation = 0;
@@ -114,7 +128,7 @@ export class BatchPool {
    */
   constructor(size = poolSize(), url: string | URL = 'batch-worker.js') {
     if (!(Number.isInteger(size) && size >= 1 && size <= 4)) throw new RangeError(`size must be an integer from 1 to 4, got ${size}`);
-    this.workers = Array.from({ length: size }, (_, i) => new PoolWorker(url, `batch-${i + 1}`));
+    this.workers = Array.from({ length: size }, (_, i) => new WebPoolWorker(url, `batch-${i + 1}`));
   }
 
   /** Number of workers. */
@@ -131,36 +145,28 @@ export class BatchPool {
     this.queue = [...files];
     this.stopping = false;
     const gen = ++this.generation;
-    let failure: { error: unknown } | null = null;
-    const loop = async (w: PoolWorker) => {
-      while (!this.stopping && gen === this.generation) {
-        const file = this.queue.shift();
-        if (!file) return;
-        options.onStart?.(file);
-        let reply: BatchJobReply;
-        try {
-          const bytes = await file.bytes();
-          reply = await w.process({ id: file.id, bytes, fileName: file.name, recipeJson: options.recipeJson, figure: options.figures }, options.fileTimeLimitMs ?? DEFAULT_FILE_TIME_LIMIT_MS);
-        } catch (e) {
-          reply = { id: file.id, ok: false, error: (e as Error).message };
-        }
-        if (gen !== this.generation) return; // cancelled while in work: the file stays queued
-        const answer: PoolAnswer = reply.ok
-          ? { file, result: reply.result, figurePng: reply.figurePng }
-          : { file, result: workerFailure(file.name, reply.error), figurePng: null };
-        try {
-          await options.onAnswer(answer);
-        } catch (error) {
-          // the commit failed (e.g. storage full): the file stays queued and no worker takes another
-          failure ??= { error };
-          this.stopping = true;
-          this.queue.unshift(file);
-          return;
-        }
+    const answer = async (a: PoolAnswer) => {
+      try {
+        await options.onAnswer(a);
+      } catch (error) {
+        // the commit failed (e.g. storage full): the file stays queued and no worker takes another
+        this.stopping = true;
+        this.queue.unshift(a.file);
+        throw error;
       }
     };
-    await Promise.all(this.workers.map(loop));
-    if (failure) throw (failure as { error: unknown }).error;
+    await runPool<PoolFile, BatchJob, BatchJobReply>({
+      workers: this.workers.length,
+      next: () => (this.stopping || gen !== this.generation ? null : this.queue.shift() ?? null),
+      job: async (file) => ({ id: file.id, bytes: await file.bytes(), fileName: file.name, recipeJson: options.recipeJson, figure: options.figures }),
+      spawn: (i) => this.workers[i],
+      timeLimitMs: options.fileTimeLimitMs ?? DEFAULT_FILE_TIME_LIMIT_MS,
+      onStart: (file) => options.onStart?.(file),
+      onReply: (file, reply) => answer(reply.ok ? { file, result: reply.result, figurePng: reply.figurePng } : { file, result: workerFailure(file.name, reply.error), figurePng: null }),
+      onFailure: (file, e) => answer({ file, result: workerFailure(file.name, e instanceof LimitError ? `stopped: ${e.message}` : e.message), figurePng: null }),
+      // cancelled while in work: the file is not reported (it stays queued in the batch's records)
+      cancelled: () => gen !== this.generation,
+    });
     return this.queue;
   }
 
@@ -173,7 +179,7 @@ export class BatchPool {
   cancel(): void {
     this.stopping = true;
     this.generation++;
-    for (const w of this.workers) w.stop();
+    for (const w of this.workers) w.terminate();
   }
 
   /** Stops the workers for good. */

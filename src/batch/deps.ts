@@ -8,7 +8,7 @@ import type { TextReader } from '../calibration/ocr';
 import { findScaleBar, type ScaleBar } from '../calibration/scale-bar';
 import { decodeImage } from '../image/decode';
 import type { GreyImage } from '../image/grey-image';
-import { loadCv } from '../image/cv';
+import { loadFft } from '../image/fft';
 import { createWorkspace, type Workspace } from '../image/workspace';
 import { checkSpectrumRegion } from '../image/size-limits';
 import type { Measurement, Region } from '../measure/measurement';
@@ -49,7 +49,7 @@ export async function createBatchDeps(workspace: Workspace = createWorkspace(), 
   let reader: Promise<TextReader> | null = null;
   return {
     async prepare(recipe) {
-      if (recipe.measurements.some((m) => m.tool === 'spectrum' || m.tool === 'rings')) await loadCv();
+      if (recipe.measurements.some((m) => m.tool === 'spectrum' || m.tool === 'rings')) await loadFft();
     },
     decodeImage: (bytes, fileName) => decodeImage(bytes, fileName, { workspace, maxPixels: budgets.maxPixels, maxDecompressedBytes: budgets.maxDecompressedBytes }),
     findInfoStripPx(image) {

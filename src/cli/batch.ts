@@ -10,7 +10,7 @@ import { createHash } from 'node:crypto';
 import { closeSync, fstatSync, openSync, readSync } from 'node:fs';
 import { copyFile, mkdir, readdir, readFile, rename, stat, writeFile } from 'node:fs/promises';
 import { createRequire } from 'node:module';
-import { basename, dirname, extname, join, resolve } from 'node:path';
+import { basename, dirname, extname, join, relative, resolve } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import { isMainThread, parentPort, Worker, workerData } from 'node:worker_threads';
 import { batchJson, pooledStats, resultsCsv, summaryCsv, zipExports } from '../batch/export';
@@ -21,6 +21,9 @@ import { emptyState, isFinished, parseState, recordFileName, stateFromRecords, S
 import { DEFAULT_MAX_DECOMPRESSED_BYTES, DEFAULT_MAX_PIXELS } from '../image/decode';
 import { createWorkspace, type Workspace } from '../image/workspace';
 import { figureNames } from '../batch/names';
+import { LimitError, runPool, type PoolWorker } from '../batch/pool';
+import { parseShardSpec, partialFileName, PARTIAL_FORMAT, PARTIAL_SCHEMA_VERSION, shardShare, ShardError, type PartialResult, type ShardSpec } from '../batch/shard';
+import { PROGRAM_VERSION } from './version';
 import { parseArgs, UsageError, type CliCommand, type CliIo } from './command';
 
 /** File name extensions the batch picks up (lower case, with the dot). */
@@ -58,6 +61,12 @@ export interface RunBatchOptions {
    * is ended and replaced; the file is listed as failed with the reason.
    */
   fileMemoryLimitMb?: number;
+  /**
+   * Process only this shard's share of the folder (`shardShare`: the sorted files dealt out in
+   * turn) and write a partial result for `merge` instead of the exports; the resume state is the
+   * shard's own, so shards may share an output folder.
+   */
+  shard?: ShardSpec;
 }
 
 /** Default per-file time limit of a batch, seconds. */
@@ -85,9 +94,9 @@ export interface BatchOutcome {
   workerRetainedBytes: { afterThird: number; afterLast: number }[];
   /** Wall-clock seconds of the run. */
   seconds: number;
-  /** Seconds from the start until the last worker had loaded its tools (thread start, TypeScript loader, opencv.js). */
+  /** Seconds from the start until the last worker had loaded its tools (thread start, its modules, the transform engine). */
   startupSeconds: number;
-  /** Files written (exports). */
+  /** Files written (exports, or the shard's partial result). */
   written: string[];
   /** What the run had to repair or note (a damaged state file recovered...). */
   notes: string[];
@@ -115,13 +124,6 @@ interface WorkerReply {
   figurePng?: Uint8Array;
   peakBytes: number;
   retainedBytes: number;
-}
-
-const DEFAULT_DEPS_MODULE = new URL('../batch/deps.ts', import.meta.url).href;
-
-/** A worker ended by the runner: the file in work passed a per-file limit. */
-class LimitError extends Error {
-  override name = 'LimitError';
 }
 
 /** The decoder budgets a worker gets from the per-file memory limit (the pixels as floats and the work on them fit in it). */
@@ -161,8 +163,13 @@ export async function listImages(folder: string): Promise<string[]> {
     .sort();
 }
 
-/** The module a worker boots from: registers tsx, then runs `workerMain` of this file. */
+/**
+ * The module a worker thread starts from. In the built command line, the bundle's batch-worker
+ * entry beside this chunk; run from the TypeScript sources (tests, benchmarks), a small module
+ * that registers tsx, then runs `workerMain` of this file.
+ */
 function workerBootUrl(): URL {
+  if (!/\.ts$/.test(new URL(import.meta.url).pathname)) return new URL('./batch-worker.mjs', import.meta.url);
   const tsxDir = dirname(createRequire(import.meta.url).resolve('tsx/package.json'));
   const api = pathToFileURL(join(tsxDir, 'dist/esm/api/index.mjs')).href;
   const self = import.meta.url;
@@ -170,8 +177,8 @@ function workerBootUrl(): URL {
   return new URL(`data:text/javascript,${encodeURIComponent(code)}`);
 }
 
-/** One worker thread and its queue of one job at a time. */
-class BatchWorker {
+/** One worker thread and its queue of one job at a time: the Node adapter of the batch pool (src/batch/pool.ts). */
+class BatchWorker implements PoolWorker<Job, WorkerReply> {
   private worker: Worker;
   private pending: { resolve: (r: WorkerReply) => void; reject: (e: Error) => void } | null = null;
   peakBytes = 0;
@@ -187,11 +194,12 @@ class BatchWorker {
 
   /** The file in work and when it started (for the memory watchdog), or null. */
   current: { file: string; startedMs: number } | null = null;
-  private limitTimer: NodeJS.Timeout | null = null;
+  /** True once the thread has exited (crashed or ended). */
+  private exited = false;
 
-  constructor(recipe: Recipe, depsModule: string, figures: boolean, measureRetained: boolean, private readonly memoryLimitMb: number) {
+  constructor(recipe: Recipe, depsModule: string | undefined, figures: boolean, private readonly measureRetainedOnStop: boolean, private readonly memoryLimitMb: number) {
     this.worker = new Worker(workerBootUrl(), {
-      workerData: { stratameterBatch: true, recipe, depsModule, figures, measureRetained, budgets: budgetsFor(memoryLimitMb) },
+      workerData: { stratameterBatch: true, recipe, depsModule, figures, measureRetained: measureRetainedOnStop, budgets: budgetsFor(memoryLimitMb) },
       // the JavaScript heap of this worker stops at the per-file limit (V8 ends the worker past it)
       resourceLimits: { maxOldGenerationSizeMb: memoryLimitMb },
     });
@@ -227,7 +235,8 @@ class BatchWorker {
       if ((e as NodeJS.ErrnoException).code === 'ERR_WORKER_OUT_OF_MEMORY') {
         e = new LimitError(`it needed more memory than the per-file limit of ${this.memoryLimitMb} MiB; the worker was ended and replaced`);
       }
-      this.clearLimit();
+      this.exited = true;
+      this.current = null;
       readyReject(e);
       this.probe?.();
       this.probe = null;
@@ -249,19 +258,11 @@ class BatchWorker {
     });
   }
 
-  /**
-   * Processes one file; rejects with a LimitError when the file is still in work after
-   * `timeLimitMs` (the worker is then ended).
-   */
-  run(job: Job, timeLimitMs: number): Promise<WorkerReply> {
+  /** Processes one file (the pool sets the time limit and calls `end` past it). */
+  run(job: Job): Promise<WorkerReply> {
     return new Promise((resolve, reject) => {
       this.current = { file: job.file, startedMs: performance.now() };
-      const done = () => {
-        this.current = null;
-        this.clearLimit();
-      };
-      this.pending = { resolve: (r) => (done(), resolve(r)), reject: (e) => (done(), reject(e)) };
-      this.limitTimer = setTimeout(() => this.end(`it was still in work after the per-file time limit of ${timeLimitMs / 1000} s; the worker was ended and replaced`), timeLimitMs);
+      this.pending = { resolve: (r) => ((this.current = null), resolve(r)), reject: (e) => ((this.current = null), reject(e)) };
       const transfer = job.bytes ? [job.bytes.buffer as ArrayBuffer] : [];
       this.worker.postMessage({ file: job.file, path: job.path, sha256: job.sha256, bytes: job.bytes }, transfer);
     });
@@ -271,20 +272,33 @@ class BatchWorker {
   end(reason: string): void {
     const p = this.pending;
     this.pending = null;
-    this.clearLimit();
+    this.current = null;
+    this.exited = true;
     void this.worker.terminate();
     p?.reject(new LimitError(reason));
   }
 
-  private clearLimit(): void {
-    if (this.limitTimer) clearTimeout(this.limitTimer);
-    this.limitTimer = null;
+  /** Stops the thread; with `measureRetained`, first reads its retained memory after its last file. */
+  async stop(): Promise<void> {
+    if (this.measureRetainedOnStop && !this.exited && this.files > 0) await this.measureRetained();
+    this.exited = true;
+    await this.worker.terminate();
   }
+}
 
-  stop(): Promise<number> {
-    this.clearLimit();
-    return this.worker.terminate();
-  }
+/**
+ * Gives a file's measurements ids made from the file's bytes, the recipe and their place
+ * (a name-based UUID, RFC 9562 version 8), so that re-running a batch, or running it in shards,
+ * gives every measurement the same id; only the times differ between runs.
+ * @param result the file's result (changed in place)
+ * @param sha256 the file's SHA-256
+ * @param recipeHash the recipe's hash
+ */
+export function withStableIds(result: FileResult, sha256: string, recipeHash: string): void {
+  result.measurements.forEach((m, i) => {
+    const h = sha256Hex(`stratameter measurement\n${sha256}\n${recipeHash}\n${i}`);
+    m.id = `${h.slice(0, 8)}-${h.slice(8, 12)}-8${h.slice(13, 16)}-${((parseInt(h[16], 16) & 3) | 8).toString(16)}${h.slice(17, 20)}-${h.slice(20, 32)}`;
+  });
 }
 
 /** Reads a whole file into the workspace's file buffer (valid until the next read). */
@@ -309,7 +323,7 @@ function readInto(path: string, workspace: Workspace): Uint8Array {
 export async function workerMain(): Promise<void> {
   if (isMainThread || !parentPort || !workerData?.stratameterBatch) throw new Error('workerMain runs only inside a batch worker thread');
   const port = parentPort;
-  const { recipe, depsModule, figures, measureRetained, budgets } = workerData as { recipe: Recipe; depsModule: string; figures: boolean; measureRetained: boolean; budgets?: { maxPixels: number; maxDecompressedBytes: number } };
+  const { recipe, depsModule, figures, measureRetained, budgets } = workerData as { recipe: Recipe; depsModule?: string; figures: boolean; measureRetained: boolean; budgets?: { maxPixels: number; maxDecompressedBytes: number } };
   let gc: (() => void) | null = null;
   if (measureRetained) {
     const v8 = await import('node:v8');
@@ -319,7 +333,7 @@ export async function workerMain(): Promise<void> {
   }
   let deps: BatchDeps;
   try {
-    const mod = (await import(depsModule)) as { createBatchDeps(workspace?: Workspace, options?: { maxPixels: number; maxDecompressedBytes: number }): Promise<BatchDeps> };
+    const mod = (depsModule ? await import(depsModule) : await import('../batch/deps')) as { createBatchDeps(workspace?: Workspace, options?: { maxPixels: number; maxDecompressedBytes: number }): Promise<BatchDeps> };
     deps = await mod.createBatchDeps(undefined, budgets);
     await deps.prepare?.(recipe);
   } catch (e) {
@@ -344,6 +358,7 @@ export async function workerMain(): Promise<void> {
     const m = process.memoryUsage();
     return m.heapUsed + m.external;
   };
+  const recipeHash = sha256Hex(canonicalRecipeJson(recipe));
   let processed = 0;
   // the file's bytes are read into one reused buffer (as the tools reuse theirs: see createWorkspace)
   const workspace = createWorkspace();
@@ -367,6 +382,7 @@ export async function workerMain(): Promise<void> {
       }
       const sha256 = msg.sha256 ?? sha256Hex(bytes);
       const out = await processOne(bytes, msg.file, recipe, deps, { figure: figures, renderFigure: annotatedFigurePng });
+      withStableIds(out.result, sha256, recipeHash);
       sample();
       // A forced collection after every file would itself cost time and skew the speed measured,
       // so retained memory is read after the third file and, through the probe, after the last.
@@ -406,8 +422,8 @@ async function readRecord(path: string): Promise<FileResult | null> {
  * edited), its last good copy; if that is damaged too, a state rebuilt from the result records.
  * A damaged state file is moved aside (never deleted) and the recovery is noted.
  */
-async function loadState(outDir: string, recipeHash: string, notes: string[]): Promise<BatchState> {
-  const statePath = join(outDir, STATE_FILE_NAME);
+async function loadState(outDir: string, recipeHash: string, notes: string[], stateName: string = STATE_FILE_NAME): Promise<BatchState> {
+  const statePath = join(outDir, stateName);
   const text = await readFile(statePath, 'utf8').catch(() => null);
   const backupText = await readFile(statePath + STATE_BACKUP_SUFFIX, 'utf8').catch(() => null);
   if (text === null && backupText === null) return emptyState();
@@ -420,13 +436,13 @@ async function loadState(outDir: string, recipeHash: string, notes: string[]): P
     }
     const aside = `${statePath}.damaged-${new Date().toISOString().replace(/[:.]/g, '-')}`;
     await rename(statePath, aside).catch(() => undefined);
-    notes.push(`${STATE_FILE_NAME} ${problem}; it was moved to ${basename(aside)}`);
+    notes.push(`${stateName} ${problem}; it was moved to ${basename(aside)}`);
   }
   let state: BatchState | null = null;
   if (backupText !== null) {
     try {
       state = parseState(backupText);
-      notes.push(`resumed from the last good copy ${STATE_FILE_NAME}${STATE_BACKUP_SUFFIX} (${Object.keys(state.entries).length} finished files)`);
+      notes.push(`resumed from the last good copy ${stateName}${STATE_BACKUP_SUFFIX} (${Object.keys(state.entries).length} finished files)`);
     } catch {
       state = null;
     }
@@ -441,7 +457,7 @@ async function loadState(outDir: string, recipeHash: string, notes: string[]): P
       if (content && info) found.push({ recordFile: `records/${name}`, result: content, writtenIso: info.mtime.toISOString() });
     }
     state = stateFromRecords(found, recipeHash);
-    notes.push(`no usable copy of ${STATE_FILE_NAME}: rebuilt it from the ${Object.keys(state.entries).length} result records in records/`);
+    notes.push(`no usable copy of ${stateName}: rebuilt it from the ${Object.keys(state.entries).length} result records in records/`);
   }
   await saveState(statePath, state);
   return state;
@@ -482,16 +498,21 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
   const outBase = outCsv.replace(/\.csv$/i, '');
   const jsonOut = options.jsonOut ? resolve(options.jsonOut) : recipe.outputs.json ? `${outBase}.json` : undefined;
   const figuresDir = options.figuresDir ? resolve(options.figuresDir) : recipe.outputs.figures ? join(outDir, 'figures') : undefined;
-  const statePath = join(outDir, STATE_FILE_NAME);
+  const shard = options.shard;
+  // each shard keeps its own resume state, so the shards of a batch may share one output folder
+  const stateName = shard ? STATE_FILE_NAME.replace(/\.json$/, `-shard-${shard.k}-of-${shard.n}.json`) : STATE_FILE_NAME;
+  const statePath = join(outDir, stateName);
   const recipeHash = sha256Hex(canonicalRecipeJson(recipe));
   await mkdir(outDir, { recursive: true });
 
   const notes: string[] = [];
-  let state = await loadState(outDir, recipeHash, notes);
+  let state = await loadState(outDir, recipeHash, notes, stateName);
   for (const n of notes) io.err(`batch: ${n}\n`);
 
-  const files = await listImages(folder);
-  const figureOf = figureNames(files);
+  const folderFiles = await listImages(folder);
+  const files = shard ? shardShare(folderFiles, shard) : folderFiles;
+  // figure names from the whole folder, so a shard names each figure as a single run does
+  const figureOf = figureNames(folderFiles);
   const memoryLimitMb = options.fileMemoryLimitMb ?? DEFAULT_FILE_MEMORY_LIMIT_MB;
   const timeLimitS = options.fileTimeLimitS ?? DEFAULT_FILE_TIME_LIMIT_S;
   if (!(Number.isFinite(timeLimitS) && timeLimitS > 0)) throw new UsageError(`--file-time-limit must be a positive number of seconds, got ${timeLimitS}`);
@@ -559,15 +580,11 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
     return null;
   };
 
-  const depsModule = options.depsModule ?? DEFAULT_DEPS_MODULE;
+  const depsModule = options.depsModule;
   const workerCount = Math.min(options.jobs, Math.max(1, total));
   let startupMs = 0;
-  const peaks: number[] = [];
-  const earlyPeaks: number[] = [];
-  const workerFiles: number[] = [];
-  const retained: BatchOutcome['workerRetainedBytes'] = [];
-  let fatal: Error | null = null;
-  const loops: Promise<void>[] = [];
+  // statistics per worker loop (a loop whose worker was replaced adds up its workers)
+  const stats = Array.from({ length: workerCount }, () => ({ peak: 0, early: 0, files: 0, third: 0, last: 0 }));
   // Memory backstop: the heap of each worker is capped by V8 and its arrays by the decoder
   // budgets; should the process still grow past every worker's share, the worker longest on its
   // file is ended and the file fails with the reason.
@@ -580,80 +597,98 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
     oldest?.end(`the process ran past its memory limit (${memoryLimitMb} MiB per file) while this file was in work; the worker was ended and replaced`);
   }, 500);
   watchdog.unref();
-  for (let w = 0; w < workerCount; w++) {
-    loops.push(
-      (async () => {
-        let worker: BatchWorker | null = null;
-        let peak = 0;
-        let early = 0;
-        let count = 0;
-        let third = 0;
-        let last = 0;
-        try {
-          let job = await takeJob();
-          for (; job; ) {
-            if (fatal) break;
-            if (!worker) {
-              worker = new BatchWorker(recipe, depsModule, !!figuresDir, !!options.measureRetained, memoryLimitMb);
-              active.add(worker);
-              try {
-                await worker.ready;
-                startupMs = Math.max(startupMs, performance.now() - t0);
-              } catch (e) {
-                fatal ??= e as Error;
-                break;
-              }
-            }
-            // Take the next file (a finished one is read and hashed here to be skipped) while this one is measured.
-            const prefetch = takeJob();
-            let reply: WorkerReply;
-            try {
-              reply = await worker.run(job, timeLimitS * 1000);
-            } catch (e) {
-              // a crashed or ended worker fails its file only; a fresh worker takes the next one
-              active.delete(worker);
-              peak = Math.max(peak, worker.peakBytes);
-              early = Math.max(early, worker.earlyPeakBytes);
-              count += worker.files;
-              third ||= worker.retainedAfterThird;
-              last = worker.retainedAfterLast || last;
-              await worker.stop().catch(() => 0);
-              worker = null;
-              const reason = e instanceof LimitError ? `stopped: ${e.message}` : `processing stopped: ${(e as Error).message.split('\n')[0]}`;
-              await commit(job, job.sha256, { file: job.file, status: 'failed', reason, image: null, calibration: null, measurements: [], summary: { topPeriods: [], sheetCount: null, meanThicknessNm: null, sdThicknessNm: null, sheetThicknessNm: [] }, notes: [] }, undefined, false);
-              job = await prefetch;
-              continue;
-            }
-            await commit(job, reply.sha256, reply.result, reply.figurePng);
-            job = await prefetch;
-          }
-        } finally {
-          if (worker && options.measureRetained && worker.files > 0) await worker.measureRetained().catch(() => undefined);
-          if (worker) {
-            active.delete(worker);
-            peak = Math.max(peak, worker.peakBytes);
-            early = Math.max(early, worker.earlyPeakBytes);
-            count += worker.files;
-            third ||= worker.retainedAfterThird;
-            last = worker.retainedAfterLast || last;
-            await worker.stop().catch(() => 0);
-          }
-          if (peak > 0) {
-            peaks.push(peak);
-            earlyPeaks.push(early);
-            workerFiles.push(count);
-            retained.push({ afterThird: third, afterLast: last });
-          }
-        }
-      })(),
-    );
+  const failedResult = (file: string, reason: string): FileResult => ({ file, status: 'failed', reason, image: null, calibration: null, measurements: [], summary: { topPeriods: [], sheetCount: null, meanThicknessNm: null, sdThicknessNm: null, sheetThicknessNm: [] }, notes: [] });
+  let poolError: { error: unknown } | null = null;
+  try {
+    await runPool<Job, Job, WorkerReply>({
+      workers: workerCount,
+      // the next file is taken (a finished one read and hashed to be skipped) while this one is measured
+      prefetch: true,
+      next: takeJob,
+      job: (j) => j,
+      timeLimitMs: timeLimitS * 1000,
+      spawn: () => {
+        const w = new BatchWorker(recipe, depsModule, !!figuresDir, !!options.measureRetained, memoryLimitMb);
+        active.add(w);
+        w.ready.then(() => (startupMs = Math.max(startupMs, performance.now() - t0)), () => undefined);
+        return w;
+      },
+      onReply: (job, reply) => commit(job, reply.sha256, reply.result, reply.figurePng),
+      // a worker that crashed or passed a limit: reported, but not marked finished (the next run tries the file again)
+      onFailure: (job, e) => commit(job, job.sha256, failedResult(job.file, e instanceof LimitError ? `stopped: ${e.message}` : `processing stopped: ${e.message.split('\n')[0]}`), undefined, false),
+      onWorkerDone: (pw, index) => {
+        const w = pw as BatchWorker;
+        active.delete(w);
+        const st = stats[index];
+        st.peak = Math.max(st.peak, w.peakBytes);
+        st.early = Math.max(st.early, w.earlyPeakBytes);
+        st.files += w.files;
+        st.third ||= w.retainedAfterThird;
+        st.last = w.retainedAfterLast || st.last;
+      },
+    });
+  } catch (error) {
+    poolError = { error };
+  } finally {
+    clearInterval(watchdog);
   }
-  await Promise.all(loops);
-  clearInterval(watchdog);
   await commitChain;
-  if (fatal) throw fatal;
+  if (poolError) throw poolError.error;
+  const used = stats.filter((st) => st.peak > 0);
+  const peaks = used.map((st) => st.peak);
+  const earlyPeaks = used.map((st) => st.early);
+  const workerFiles = used.map((st) => st.files);
+  const retained: BatchOutcome['workerRetainedBytes'] = used.map((st) => ({ afterThird: st.third, afterLast: st.last }));
+  await commitChain;
 
   const ordered = files.map((f) => results.get(f)).filter((r): r is FileResult => r !== undefined);
+  let written: string[];
+  if (shard) {
+    const partialPath = join(outDir, partialFileName(basename(outBase), shard));
+    const partial: PartialResult = {
+      format: PARTIAL_FORMAT,
+      schemaVersion: PARTIAL_SCHEMA_VERSION,
+      programVersion: PROGRAM_VERSION,
+      recipe,
+      recipeHash,
+      shard,
+      folderFiles,
+      figuresDir: figuresDir ? relative(outDir, figuresDir) || '.' : null,
+      results: ordered,
+      createdIso: new Date().toISOString(),
+    };
+    await writeAtomic(partialPath, `${JSON.stringify(partial)}\n`);
+    written = [partialPath];
+  } else {
+    written = await writeBatchExports({ recipe, results: ordered, outCsv, writeCsv: options.writeCsv ?? recipe.outputs.csv, jsonOut, figuresDir });
+  }
+  return { total: files.length, processed, skipped, results: ordered, workerPeakBytes: peaks, workerEarlyPeakBytes: earlyPeaks, workerFiles, workerRetainedBytes: retained, seconds: (performance.now() - t0) / 1000, startupSeconds: startupMs / 1000, written, notes };
+}
+
+
+/** What `writeBatchExports` writes. */
+export interface BatchExportOptions {
+  recipe: Recipe;
+  /** Every file's result, in folder order. */
+  results: FileResult[];
+  /** Results CSV path (absolute); the summary CSV and the zip go beside it. */
+  outCsv: string;
+  /** Write the two CSV tables. */
+  writeCsv: boolean;
+  /** JSON export path, or undefined for none. */
+  jsonOut?: string;
+  /** Figures folder holding each file's figure (figureFile), or undefined for none: the histograms go there too. */
+  figuresDir?: string;
+}
+
+/**
+ * Writes a batch's exports: results and summary CSV, JSON, histograms (SVG and PNG) and the zip,
+ * as the recipe and options ask. A single run and `merge` both end here, so their exports agree.
+ * @returns the files written
+ */
+export async function writeBatchExports(options: BatchExportOptions): Promise<string[]> {
+  const { recipe, results: ordered, outCsv, jsonOut, figuresDir } = options;
+  const outBase = outCsv.replace(/\.csv$/i, '');
   const written: string[] = [];
   const exportsZip: Record<string, string | Uint8Array> = {};
   const put = async (path: string, content: string | Uint8Array, zipName: string) => {
@@ -661,7 +696,7 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
     written.push(path);
     exportsZip[zipName] = content;
   };
-  if (options.writeCsv ?? recipe.outputs.csv) {
+  if (options.writeCsv) {
     await put(outCsv, resultsCsv(ordered), basename(outCsv));
     await put(`${outBase}-summary.csv`, summaryCsv(ordered), `${basename(outBase)}-summary.csv`);
   }
@@ -678,9 +713,9 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
     if (sheets.length) await put(join(figuresDir, 'histogram-sheet-thickness-nm.png'), histogramPng(sheets, sheetsHist), 'figures/histogram-sheet-thickness-nm.png');
     if (recipe.outputs.zip) {
       for (const r of ordered) {
-        const name = figureOf.get(r.file)!;
-        const p = join(figuresDir, name);
-        if (r.status === 'ok' && (await exists(p))) exportsZip[`figures/${name}`] = new Uint8Array(await readFile(p));
+        if (r.status !== 'ok' || !r.figureFile) continue;
+        const p = join(figuresDir, r.figureFile);
+        if (await exists(p)) exportsZip[`figures/${r.figureFile}`] = new Uint8Array(await readFile(p));
       }
     }
   }
@@ -689,7 +724,7 @@ export async function runBatch(options: RunBatchOptions, io: CliIo): Promise<Bat
     await writeAtomic(zipPath, zipExports(exportsZip));
     written.push(zipPath);
   }
-  return { total, processed, skipped, results: ordered, workerPeakBytes: peaks, workerEarlyPeakBytes: earlyPeaks, workerFiles, workerRetainedBytes: retained, seconds: (performance.now() - t0) / 1000, startupSeconds: startupMs / 1000, written, notes };
+  return written;
 }
 
 const usage = `Usage: stratameter batch FOLDER [--recipe FILE.json] [--out results.csv] [--json-out results.json] [--figures DIR] [--jobs N]
@@ -707,6 +742,11 @@ Runs a recipe on every image in FOLDER (${IMAGE_EXTENSIONS.join(' ')}; not recur
   --file-time-limit S     seconds one file may take (default ${DEFAULT_FILE_TIME_LIMIT_S}); past it the file's
                           worker is ended and replaced and the file is listed as failed
   --file-memory-limit MB  memory one file may use, MiB (default ${DEFAULT_FILE_MEMORY_LIMIT_MB}); past it likewise
+  --shard K/N         process only shard K of N (1 ≤ K ≤ N): the folder's files sorted by name
+                      and dealt out in turn, so every machine computes the same share. Writes
+                      the partial result OUT.shard-K-of-N.json (and the share's figures) instead of
+                      the exports; its own resume state, so shards may share an output folder.
+                      Combine the partial results with 'stratameter merge'.
 
 A re-run with the same output folder skips every file already finished with the same bytes and
 the same recipe; a damaged state file is recovered from its last good copy (or from records/).
@@ -714,10 +754,19 @@ The exit code is 1 when any file failed (all other files are still processed).`;
 
 export const command: CliCommand = {
   name: 'batch',
-  summary: 'run a recipe on every image of a folder (resumable, parallel); CSV, JSON, figures',
+  summary: 'run a recipe on every image of a folder (resumable, parallel, sharded); CSV, JSON, figures',
   usage,
   async run(args: string[], io: CliIo): Promise<number> {
-    const { positional, options } = parseArgs(args, { values: ['recipe', 'out', 'json-out', 'figures', 'jobs', 'file-time-limit', 'file-memory-limit'] });
+    const { positional, options } = parseArgs(args, { values: ['recipe', 'out', 'json-out', 'figures', 'jobs', 'file-time-limit', 'file-memory-limit', 'shard'] });
+    let shard: ShardSpec | undefined;
+    if (options.has('shard')) {
+      try {
+        shard = parseShardSpec(options.get('shard')!);
+      } catch (e) {
+        if (e instanceof ShardError) throw new UsageError(e.message);
+        throw e;
+      }
+    }
     if (positional.length !== 1) throw new UsageError(`batch needs exactly one FOLDER, got ${positional.length}`);
     let recipe = defaultRecipe();
     const recipePath = options.get('recipe');
@@ -756,15 +805,17 @@ export const command: CliCommand = {
         figuresDir: options.get('figures'),
         jobs,
         progressBar: !!process.stderr.isTTY,
+        shard,
       },
       io,
     );
     const failed = outcome.results.filter((r) => r.status === 'failed');
     io.out(
-      `${outcome.total} images: ${outcome.processed} processed, ${outcome.skipped} skipped (finished earlier); ${outcome.results.length - failed.length} ok, ${failed.length} failed\n`,
+      `${shard ? `shard ${shard.k} of ${shard.n}: ` : ''}${outcome.total} images: ${outcome.processed} processed, ${outcome.skipped} skipped (finished earlier); ${outcome.results.length - failed.length} ok, ${failed.length} failed\n`,
     );
     for (const r of failed) io.err(`failed: ${r.file}: ${r.reason}\n`);
     for (const p of outcome.written) io.out(`wrote ${p}\n`);
+    if (shard) io.out(`when every shard of ${shard.n} has finished: stratameter merge ${dirname(resolve(options.get('out') ?? 'results.csv'))} (or the partial result files)\n`);
     return failed.length > 0 ? 1 : 0;
   },
 };

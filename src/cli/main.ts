@@ -1,20 +1,30 @@
 import type { CliCommand, CliIo } from './command';
 import { UsageError } from './command';
+import { PROGRAM_VERSION } from './version';
 
-/** Every command, in the order `--help` lists them. Add one import line per command file. */
-async function loadCommands(): Promise<CliCommand[]> {
-  const modules = await Promise.all([
-    // commands: one line each, kept in this order
-    import('./info'),
-    import('./calibrate'),
-    import('./batch'),
-    import('./measure'),
-    import('./sheets'),
-    import('./xrd'),
-    import('./match'),
-  ] as Promise<{ command: CliCommand }>[]);
-  return modules.map((m) => m.command);
+/** One command of the table: its name and summary for `--help`, and how to load it. */
+export interface CommandEntry {
+  name: string;
+  /** One line for `stratameter --help`; the same text as the module's `command.summary` (a test keeps them equal). */
+  summary: string;
+  /** Loads the command's module: only the command that runs is loaded, with only what it imports. */
+  load(): Promise<{ command: CliCommand }>;
 }
+
+/**
+ * Every command, in the order `--help` lists them: one entry per command file. The summaries
+ * live here too, so that `--help` loads no command module at all (start-up stays at Node's own).
+ */
+export const COMMANDS: readonly CommandEntry[] = [
+  { name: 'info', summary: 'size, pixel type, value range and metadata calibration of an image file', load: () => import('./info') },
+  { name: 'calibrate', summary: 'pixel size from metadata, a burned-in scale bar (read offline) or a lattice standard', load: () => import('./calibrate') },
+  { name: 'batch', summary: 'run a recipe on every image of a folder (resumable, parallel, sharded); CSV, JSON, figures', load: () => import('./batch') },
+  { name: 'merge', summary: 'combine the partial results of a sharded batch into the exports of a single run', load: () => import('./merge') },
+  { name: 'measure', summary: 'periods (d-spacings) and directions in an image region, from its power spectrum', load: () => import('./measure') },
+  { name: 'sheets', summary: 'nanosheet thickness and layer counts, along a line or found automatically', load: () => import('./sheets') },
+  { name: 'xrd', summary: 'peaks, d-spacings, crystallite sizes and series of a powder XRD or SAXS pattern', load: () => import('./xrd') },
+  { name: 'match', summary: 'reconcile micrograph periods and sheets with a diffraction pattern', load: () => import('./match') },
+];
 
 /** Error classes only the JavaScript engine throws for a fault of the program. */
 const ENGINE_ERRORS = new Set(['TypeError', 'ReferenceError', 'InternalError', 'EvalError']);
@@ -24,7 +34,7 @@ const nodeIo: CliIo = {
   err: (text) => process.stderr.write(text),
 };
 
-function helpText(commands: CliCommand[]): string {
+function helpText(commands: readonly CommandEntry[]): string {
   const width = Math.max(8, ...commands.map((c) => c.name.length));
   const lines = commands.map((c) => `  ${c.name.padEnd(width)}  ${c.summary}`);
   return [
@@ -40,21 +50,21 @@ function helpText(commands: CliCommand[]): string {
 
 /** Runs the command line on `argv` (without node and the script); resolves to the exit code. */
 export async function main(argv: string[], io: CliIo = nodeIo): Promise<number> {
-  const commands = await loadCommands();
   const [name, ...rest] = argv;
   if (!name || name === '--help' || name === '-h' || name === 'help') {
-    io.out(helpText(commands));
+    io.out(helpText(COMMANDS));
     return name ? 0 : 2;
   }
   if (name === '--version') {
-    io.out('0.1.0\n');
+    io.out(`${PROGRAM_VERSION}\n`);
     return 0;
   }
-  const command = commands.find((c) => c.name === name);
-  if (!command) {
+  const entry = COMMANDS.find((c) => c.name === name);
+  if (!entry) {
     io.err(`stratameter: unknown command '${name}'. Run 'stratameter --help' for the list.\n`);
     return 2;
   }
+  const { command } = await entry.load();
   if (rest.includes('--help') || rest.includes('-h')) {
     io.out(command.usage.endsWith('\n') ? command.usage : `${command.usage}\n`);
     return 0;

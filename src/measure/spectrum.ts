@@ -4,7 +4,7 @@
  */
 import type { GreyImage } from '../image/grey-image';
 import type { Workspace } from '../image/workspace';
-import { loadCv } from '../image/cv';
+import { realDft2d } from '../image/fft';
 import { kernelRatioOffset, magnitudeRatioOffset } from './interpolate';
 import { frequencyCrbStd } from './period-profile';
 import { normalUpperQuantile } from './stats';
@@ -91,7 +91,7 @@ export function checkRegion(image: GreyImage, region: RectPx | null): RectPx {
  * Notes: the region is trimmed, centred, to the largest size with prime factors 2, 3, 5 only (at most
  * a few per cent), so no zero padding changes the bin spacing the interpolators rely on; bins are
  * u/width and v/height cycles per pixel. The mean (or a fitted plane) is removed, then a separable
- * 2D window is applied; the DFT runs in opencv.js.
+ * 2D window is applied; the DFT is realDft2d (PFFFT in WebAssembly).
  * Reference: periodogram with data window, Harris, Proc. IEEE 66(1), 51–83 (1978).
  */
 export async function powerSpectrum(
@@ -143,35 +143,25 @@ export async function powerSpectrum(
     gx = sxv / ((h * w * (w * w - 1)) / 12);
     gy = syv / ((w * h * (h * h - 1)) / 12);
   }
-  const { cv } = await loadCv();
-  const mat = new cv.Mat(h, w, cv.CV_32F);
-  const out = new cv.Mat();
-  let power: Float32Array;
-  try {
-    // Write the detrended, windowed region straight into the opencv matrix.
-    const m = mat.data32F as Float32Array;
-    const wxg = new Float64Array(w);
-    for (let i = 0; i < w; i++) wxg[i] = gx * (i - cx);
-    for (let j = 0; j < h; j++) {
-      const rowBase = mean + gy * (j - cy);
-      const o = (area.y + j) * iw + area.x;
-      const wj = wy[j];
-      const r = j * w;
-      for (let i = 0; i < w; i++) m[r + i] = (d[o + i] - rowBase - wxg[i]) * wx[i] * wj;
-    }
-    cv.dft(mat, out, cv.DFT_COMPLEX_OUTPUT);
-    const c = out.data32F as Float32Array;
-    const n = w * h;
-    power = options.workspace ? options.workspace.float32('spectrum-power', n) : new Float32Array(n);
-    for (let k = 0, q = 0; k < n; k++, q += 2) {
-      const re = c[q];
-      const im = c[q + 1];
-      power[k] = re * re + im * im;
-    }
-  } finally {
-    mat.delete();
-    out.delete();
-  }
+  const n = w * h;
+  const power = options.workspace ? options.workspace.float32('spectrum-power', n) : new Float32Array(n);
+  const wxg = new Float64Array(w);
+  for (let i = 0; i < w; i++) wxg[i] = gx * (i - cx);
+  await realDft2d(
+    w,
+    h,
+    (m, stride) => {
+      // the detrended, windowed region, written straight into the transform's input
+      for (let j = 0; j < h; j++) {
+        const rowBase = mean + gy * (j - cy);
+        const o = (area.y + j) * iw + area.x;
+        const wj = wy[j];
+        const r = j * stride;
+        for (let i = 0; i < w; i++) m[r + i] = (d[o + i] - rowBase - wxg[i]) * wx[i] * wj;
+      }
+    },
+    { kind: 'power', out: power },
+  );
   return { width: w, height: h, area, window, tukeyAlpha, power, windowX: wx, windowY: wy };
 }
 

@@ -4,7 +4,7 @@
  * and the Cramér–Rao bound of a weighted fit on that support.
  */
 import type { GreyImage } from '../image/grey-image';
-import { loadCv } from '../image/cv';
+import { realDft2d } from '../image/fft';
 import { fftRadix2 } from './period-profile';
 import type { RectPx } from './spectrum';
 import { windowSamples } from './window';
@@ -44,21 +44,19 @@ export async function complexSpectrum(image: GreyImage, area: RectPx, tukeyAlpha
     for (let i = 0; i < w; i++) sum += d[o + i];
   }
   const mean = sum / (w * h);
-  const { cv } = await loadCv();
-  const mat = new cv.Mat(h, w, cv.CV_32F);
-  const out = new cv.Mat();
-  try {
-    const m = mat.data32F as Float32Array;
-    for (let j = 0; j < h; j++) {
-      const o = (y + j) * image.width + x;
-      for (let i = 0; i < w; i++) m[j * w + i] = (d[o + i] - mean) * wx[i] * wy[j];
-    }
-    cv.dft(mat, out, cv.DFT_COMPLEX_OUTPUT);
-    return { area: { ...area }, data: Float32Array.from(out.data32F as Float32Array), windowX: wx, windowY: wy };
-  } finally {
-    mat.delete();
-    out.delete();
-  }
+  const data = new Float32Array(2 * w * h);
+  await realDft2d(
+    w,
+    h,
+    (m, stride) => {
+      for (let j = 0; j < h; j++) {
+        const o = (y + j) * image.width + x;
+        for (let i = 0; i < w; i++) m[j * stride + i] = (d[o + i] - mean) * wx[i] * wy[j];
+      }
+    },
+    { kind: 'complex', out: data },
+  );
+  return { area: { ...area }, data, windowX: wx, windowY: wy };
 }
 
 /** Options of {@link spotField}. */
