@@ -343,8 +343,10 @@ export class StrataApp extends LitElement {
     if (this.session) void this.compute.call('recalibrate', { sessionId: this.session, calibration }).catch((e) => this.say((e as Error).message, 'error'));
     if (this.db && this.record) {
       try {
-        this.record = await setImageCalibration(this.db, this.record.id, calibration);
+        const { reexpressed, ...record } = await setImageCalibration(this.db, this.record.id, calibration);
+        this.record = record;
         this.libraryRevision++;
+        if (reexpressed > 0) this.say(`${reexpressed} stored measurement${reexpressed === 1 ? '' : 's'} of this image re-expressed with the new calibration (nothing measured again; each record notes the change)`, 'info');
       } catch (e) {
         this.say((e as Error).message, 'error');
       }

@@ -6,7 +6,7 @@
  * fake-indexeddb in Node. Nothing is cached here; every function takes the open database.
  * Every save is one transaction: it is stored whole or not at all.
  */
-import { RECORD_VERSION } from '../measure/measurement';
+import { checkCalibration, RECORD_VERSION } from '../measure/measurement';
 import { upgradeMeasurement } from '../measure/record-version';
 import { openDB, type StoreNames } from 'idb';
 import type { Calibration, GreyImage } from '../image/grey-image';
@@ -186,22 +186,47 @@ export async function imageBytes(record: ImageRecord): Promise<Uint8Array> {
 }
 
 /**
- * Sets (or clears) the calibration of a stored image.
+ * Sets (or clears) the calibration of a stored image, and re-expresses the image's stored
+ * measurements with it.
+ *
+ * Records keep their lengths in pixels and the calibration beside them, so re-expressing one is
+ * replacing its calibration: every nm value and its calibration part follow from the one place that
+ * applies it. Each re-expressed record gets a note saying from which pixel size to which. Records of
+ * the calibration itself (tool 'calibration') keep theirs: they are what it came from.
  *
  * @param db the open library
  * @param id the image's id
  * @param calibration the new calibration, or null
- * @returns the updated record
+ * @returns the updated record and the number of measurements re-expressed
  */
-export async function setImageCalibration(db: LibraryDb, id: string, calibration: Calibration | null): Promise<ImageRecord> {
-  if (calibration && !(calibration.nmPerPx > 0)) throw new RangeError(`nmPerPx must be positive, got ${calibration.nmPerPx}`);
-  return saveInOneTransaction(db, ['images'], 'the calibration', async (tx) => {
+export async function setImageCalibration(
+  db: LibraryDb,
+  id: string,
+  calibration: Calibration | null,
+): Promise<ImageRecord & { reexpressed: number }> {
+  if (calibration) checkCalibration(calibration, 'calibration');
+  return saveInOneTransaction(db, ['images', 'measurements'], 'the calibration', async (tx) => {
     const store = tx.objectStore('images');
     const rec = await store.get(id);
     if (!rec) throw new LibraryError(`no stored image with id ${id}`);
+
     rec.calibration = calibration;
     await store.put(rec);
-    return rec;
+    let reexpressed = 0;
+    let cursor = await tx.objectStore('measurements').index('byImage').openCursor(id);
+    while (cursor) {
+      const m = cursor.value;
+      if (m.tool !== 'calibration') {
+        const from = m.calibration ? `${m.calibration.nmPerPx.toPrecision(6)} nm/px` : 'no calibration';
+        const to = calibration ? `${calibration.nmPerPx.toPrecision(6)} nm/px (${calibration.source})` : 'no calibration (px only)';
+        m.calibration = calibration;
+        m.notes = [...(m.notes ?? []), `re-expressed on ${new Date().toISOString().slice(0, 10)}: ${from} → ${to}`];
+        await cursor.update(m);
+        reexpressed++;
+      }
+      cursor = await cursor.continue();
+    }
+    return { ...rec, reexpressed };
   });
 }
 

@@ -140,6 +140,25 @@ describe('images', () => {
     expect((await getImage(db, rec.id))!.calibration).toEqual(cal);
     await expect(setImageCalibration(db, 'nope', cal)).rejects.toThrow(/no stored image with id nope/);
     await expect(setImageCalibration(db, rec.id, { ...cal, nmPerPx: -1 })).rejects.toThrow(/got -1/);
+    await expect(setImageCalibration(db, rec.id, { ...cal, relUncertainty: -0.01 })).rejects.toThrow(/relUncertainty/);
+    expect((await getImage(db, rec.id))!.calibration).toEqual(cal); // nothing stored changed
+    db.close();
+  });
+
+  test('recalibrating an image re-expresses its stored measurements, each with a note, and no other image\'s', async () => {
+    const db = await freshLibrary();
+    const a = await putImage(db, { bytes: fileBytes(), fileName: 'a.tif', image: fringeImage() });
+    const b = await putImage(db, { bytes: fileBytes(), fileName: 'b.tif', image: fringeImage() });
+    await putMeasurement(db, measurement('m1', a.id, '2026-01-01T00:00:00Z'));
+    await putMeasurement(db, measurement('m2', b.id, '2026-01-01T00:00:01Z'));
+    const cal = { nmPerPx: 0.04, source: 'manual' as const, relUncertainty: 0.02, detail: 'typed' };
+    const r = await setImageCalibration(db, a.id, cal);
+    expect(r.reexpressed).toBe(1);
+    const m1 = (await listMeasurements(db, a.id))[0];
+    expect(m1.calibration).toEqual(cal);
+    expect(m1.notes.at(-1)).toMatch(/re-expressed on \d{4}-\d{2}-\d{2}: .* → 0\.0400000 nm\/px \(manual\)/);
+    const m2 = (await listMeasurements(db, b.id))[0];
+    expect(m2.calibration).not.toEqual(cal);
     db.close();
   });
 
