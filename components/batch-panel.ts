@@ -443,8 +443,8 @@ export class StrataBatchPanel extends LitElement {
     const withFigure = new Set(this.rows.filter((r) => r.figurePng).map((r) => r.name));
     const results = this.results().map((r) => (withFigure.has(r.file) ? { ...r, figureFile: figureOf.get(r.file) } : r));
     const out: Record<string, string | Uint8Array> = {
-      'results.csv': resultsCsv(results),
-      'summary.csv': summaryCsv(results),
+      'results.csv': resultsCsv(results, recipe.outputs.coverageFactor),
+      'summary.csv': summaryCsv(results, recipe.outputs.coverageFactor),
       'batch.json': batchJson(recipe, results),
       'recipe.json': `${JSON.stringify(recipe, null, 2)}\n`,
     };
@@ -636,19 +636,20 @@ export class StrataBatchPanel extends LitElement {
   private renderSummary() {
     const results = this.results();
     if (!this.batch || !results.length) return nothing;
-    const pooled = pooledStats(results);
+    const k = parseRecipe(this.batch.recipeJson).outputs.coverageFactor;
+    const pooled = pooledStats(results, k);
     const hists = this.histograms(results);
     const calText = (r: FileResult) => (r.calibration ? `${f(r.calibration.nmPerPx, 4)} (${r.calibration.source})` : '—');
     return html`<section aria-label="Summary">
       <h3>4 · Summary</h3>
       <table class="summary">
-        <thead><tr><th>file</th><th>nm/px (source)</th><th>top periods ± U (nm, k = 2)</th><th>sheets</th><th>thickness ± sd (nm)</th></tr></thead>
+        <thead><tr><th>file</th><th>nm/px (source)</th><th>top periods ± U (nm, k = ${k})</th><th>sheets</th><th>thickness ± sd (nm)</th></tr></thead>
         <tbody>${results.map((r) => html`<tr>
           <td>${r.file}</td>
           ${r.status === 'failed'
             ? html`<td class="reason" colspan="4">${r.reason}</td>`
             : html`<td>${calText(r)}</td>
-              <td>${r.summary.topPeriods.length && r.calibration ? r.summary.topPeriods.map((p) => { const b = expressPeriod(p, r.calibration); return html`<div title=${`contains: ${budgetContents(b)}`}>${formatPlusMinus(b.value, b.expanded)}</div>`; }) : '—'}</td>
+              <td>${r.summary.topPeriods.length && r.calibration ? r.summary.topPeriods.map((p) => { const b = expressPeriod(p, r.calibration, k); return html`<div title=${`contains: ${budgetContents(b)}`}>${formatPlusMinus(b.value, b.expanded)}</div>`; }) : '—'}</td>
               <td>${r.summary.sheetCount ?? '—'}</td>
               <td>${r.summary.meanThicknessNm === null ? '—' : `${f(r.summary.meanThicknessNm, 2)} ± ${f(r.summary.sdThicknessNm, 2)}`}</td>`}
         </tr>`)}</tbody>

@@ -146,7 +146,7 @@ export interface BatchJson {
 
 /** The full results of a batch as JSON text (two-space indented). */
 export function batchJson(recipe: Recipe, results: FileResult[], createdIso: string = new Date().toISOString()): string {
-  const doc: BatchJson = { schemaVersion: 1, recipe, createdIso, pooled: pooledStats(results), results };
+  const doc: BatchJson = { schemaVersion: 1, recipe, createdIso, pooled: pooledStats(results, recipe.outputs.coverageFactor ?? DEFAULT_COVERAGE_FACTOR), results };
   return `${JSON.stringify(doc, null, 2)}\n`;
 }
 

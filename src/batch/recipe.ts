@@ -63,6 +63,8 @@ export interface Outputs {
   figures: boolean;
   /** Every export file of the batch in one zip archive as well. */
   zip: boolean;
+  /** Coverage factor k of every expanded uncertainty U = k·u in the exports (default 2, about 95 %). */
+  coverageFactor: number;
 }
 
 /** A complete, validated recipe (every default filled in). */
@@ -136,7 +138,7 @@ export function defaultRecipe(): Recipe {
     area: { kind: 'whole', infoStripPx: 'auto' },
     measurements: [{ tool: 'spectrum', topK: 3 }],
     acceptance: { minStrength: 0, periodRangeNm: null, maxRelUncertainty: null },
-    outputs: { csv: true, json: true, figures: false, zip: false },
+    outputs: { csv: true, json: true, figures: false, zip: false, coverageFactor: 2 },
   };
 }
 
@@ -350,10 +352,11 @@ function parseAcceptance(v: Json, path: string): Acceptance {
 }
 
 function parseOutputs(v: Json, path: string): Outputs {
-  const o = objectAt(v, path, ['csv', 'json', 'figures', 'zip']);
+  const o = objectAt(v, path, ['csv', 'json', 'figures', 'zip', 'coverageFactor']);
   const d = defaultRecipe().outputs;
-  const pick = (key: keyof Outputs) => (o[key] === undefined ? d[key] : booleanAt(o[key], join(path, key)));
-  return { csv: pick('csv'), json: pick('json'), figures: pick('figures'), zip: pick('zip') };
+  const pick = (key: 'csv' | 'json' | 'figures' | 'zip') => (o[key] === undefined ? d[key] : booleanAt(o[key], join(path, key)));
+  const coverageFactor = o.coverageFactor === undefined ? d.coverageFactor : numberAt(o.coverageFactor, join(path, 'coverageFactor'), { min: 0, minExclusive: true, max: 10 });
+  return { csv: pick('csv'), json: pick('json'), figures: pick('figures'), zip: pick('zip'), coverageFactor };
 }
 
 /**

@@ -24,7 +24,7 @@ import { figureNames } from '../batch/names';
 import { LimitError, runPool, type PoolWorker } from '../batch/pool';
 import { parseShardSpec, partialFileName, PARTIAL_FORMAT, PARTIAL_SCHEMA_VERSION, shardShare, ShardError, type PartialResult, type ShardSpec } from '../batch/shard';
 import { PROGRAM_VERSION } from './version';
-import { parseArgs, UsageError, type CliCommand, type CliIo } from './command';
+import { coverageFactorOption, parseArgs, UsageError, type CliCommand, type CliIo } from './command';
 
 /** File name extensions the batch picks up (lower case, with the dot). */
 export const IMAGE_EXTENSIONS = ['.tif', '.tiff', '.png', '.jpg', '.jpeg', '.mrc'];
@@ -697,12 +697,13 @@ export async function writeBatchExports(options: BatchExportOptions): Promise<st
     exportsZip[zipName] = content;
   };
   if (options.writeCsv) {
-    await put(outCsv, resultsCsv(ordered), basename(outCsv));
-    await put(`${outBase}-summary.csv`, summaryCsv(ordered), `${basename(outBase)}-summary.csv`);
+    const k = recipe.outputs.coverageFactor;
+    await put(outCsv, resultsCsv(ordered, k), basename(outCsv));
+    await put(`${outBase}-summary.csv`, summaryCsv(ordered, k), `${basename(outBase)}-summary.csv`);
   }
   if (jsonOut) await put(jsonOut, batchJson(recipe, ordered), basename(jsonOut));
   if (figuresDir) {
-    const pooled = pooledStats(ordered);
+    const pooled = pooledStats(ordered, recipe.outputs.coverageFactor);
     const tops = ordered.flatMap((r) => (r.summary.topPeriods[0] && r.calibration ? [expressPeriod(r.summary.topPeriods[0], r.calibration).value] : []));
     const topsHist = { xLabel: 'strongest period per image (nm)', title: `${tops.length} images` };
     if (tops.length) await put(join(figuresDir, 'histogram-top-period-nm.svg'), histogramSvg(tops, topsHist), 'figures/histogram-top-period-nm.svg');
@@ -727,7 +728,7 @@ export async function writeBatchExports(options: BatchExportOptions): Promise<st
   return written;
 }
 
-const usage = `Usage: stratameter batch FOLDER [--recipe FILE.json] [--out results.csv] [--json-out results.json] [--figures DIR] [--jobs N]
+const usage = `Usage: stratameter batch FOLDER [--recipe FILE.json] [--out results.csv] [--json-out results.json] [--figures DIR] [--jobs N] [--coverage-factor K] [--shard K/N]
 
 Runs a recipe on every image in FOLDER (${IMAGE_EXTENSIONS.join(' ')}; not recursive).
 
@@ -739,6 +740,8 @@ Runs a recipe on every image in FOLDER (${IMAGE_EXTENSIONS.join(' ')}; not recur
   --json-out FILE     full results and pooled statistics as JSON
   --figures DIR       an annotated PNG per image (scale bar, periods) and SVG and PNG histograms
   --jobs N            worker threads (default: the number of cores)
+  --coverage-factor K k of every expanded uncertainty U = k·u in the exports (default: the
+                      recipe's outputs.coverageFactor, 2, about 95 %); becomes part of the recipe
   --file-time-limit S     seconds one file may take (default ${DEFAULT_FILE_TIME_LIMIT_S}); past it the file's
                           worker is ended and replaced and the file is listed as failed
   --file-memory-limit MB  memory one file may use, MiB (default ${DEFAULT_FILE_MEMORY_LIMIT_MB}); past it likewise
@@ -757,7 +760,7 @@ export const command: CliCommand = {
   summary: 'run a recipe on every image of a folder (resumable, parallel, sharded); CSV, JSON, figures',
   usage,
   async run(args: string[], io: CliIo): Promise<number> {
-    const { positional, options } = parseArgs(args, { values: ['recipe', 'out', 'json-out', 'figures', 'jobs', 'file-time-limit', 'file-memory-limit', 'shard'] });
+    const { positional, options } = parseArgs(args, { values: ['recipe', 'out', 'json-out', 'figures', 'jobs', 'file-time-limit', 'file-memory-limit', 'shard', 'coverage-factor'] });
     let shard: ShardSpec | undefined;
     if (options.has('shard')) {
       try {
@@ -781,6 +784,8 @@ export const command: CliCommand = {
         throw e;
       }
     }
+    // k is part of the recipe (so shards of one batch agree and merge checks it): the option sets it
+    if (options.has('coverage-factor')) recipe = { ...recipe, outputs: { ...recipe.outputs, coverageFactor: coverageFactorOption(options.get('coverage-factor')) } };
     const jobsText = options.get('jobs');
     const { availableParallelism } = await import('node:os');
     const jobs = jobsText === undefined ? availableParallelism() : Number(jobsText);

@@ -95,6 +95,20 @@ describe('pooledStats', () => {
 });
 
 describe('batchJson and zipExports', () => {
+  test("the recipe's coverage factor sets k of every expanded uncertainty in the JSON and CSV", async () => {
+    // U = k·u (GUM JCGM 100:2008 §6.2): the same combined u, expanded with k = 3 instead of 2
+    const results = await sampleResults();
+    const recipe = parseRecipe({ schemaVersion: 1, outputs: { coverageFactor: 3 } });
+    const doc = JSON.parse(batchJson(recipe, results, '2026-01-01T00:00:00.000Z'));
+    const b = doc.pooled.pooledTopPeriod.budget;
+    expect(b.k).toBe(3);
+    expect(b.expanded).toBeCloseTo(3 * b.combined, 12);
+    const rows = parseCsv(resultsCsv(results, 3));
+    const col = (name: string) => rows[0].indexOf(name);
+    expect(rows[1][col('coverageFactorK')]).toBe('3');
+    expect(Number(rows[1][col('expandedUncertaintyNm')])).toBeCloseTo(3 * Number(rows[1][col('uCombinedNm')]), 3);
+  });
+
   test('the JSON holds the recipe, pooled statistics and every record', async () => {
     const recipe = parseRecipe({ schemaVersion: 1 });
     const doc = JSON.parse(batchJson(recipe, await sampleResults(), '2026-01-01T00:00:00.000Z'));

@@ -36,7 +36,7 @@ describe('parseRecipe accepts and completes', () => {
     expect(r.area).toEqual({ kind: 'tiles', infoStripPx: 0, rows: 3, columns: 4 });
     expect(r.measurements).toEqual([{ tool: 'spectrum', topK: 5 }, { tool: 'sheets' }]);
     expect(r.acceptance).toEqual({ minStrength: 4, periodRangeNm: [0.9, 2.0], maxRelUncertainty: 0.1 });
-    expect(r.outputs).toEqual({ csv: true, json: true, figures: true, zip: true });
+    expect(r.outputs).toEqual({ csv: true, json: true, figures: true, zip: true, coverageFactor: 2 });
   });
 
   test('lengths written with a unit are converted to nm', () => {
@@ -107,6 +107,7 @@ describe('parseRecipe rejects, naming the path', () => {
     ['a relative uncertainty limit in percent', { schemaVersion: 1, acceptance: { maxRelUncertainty: 10 } }, 'acceptance.maxRelUncertainty', /at most 1/],
     ['an output flag as text', { schemaVersion: 1, outputs: { csv: 'yes' } }, 'outputs.csv', /true or false/],
     ['an unknown output', { schemaVersion: 1, outputs: { pdf: true } }, 'outputs.pdf', /unknown key/],
+    ['a coverage factor of zero', { schemaVersion: 1, outputs: { coverageFactor: 0 } }, 'outputs.coverageFactor', /coverageFactor/],
   ];
   test.each(cases)('%s', (_what, json, path, message) => {
     const e = rejection(json);
