@@ -7,9 +7,10 @@
  * A seeded 16-bit TIFF (lattice fringes and noise) is written to a temporary folder; each case then
  * runs in a fresh process, so its peak resident memory (maxRSS) is its own: read the file, decode
  * it (float32 pixels), drop the file's bytes, build the viewer's pyramid and histogram (as the
- * compute worker's prepareView), and take the spectrum the way the measure panel does: the power
- * spectrum of a region at full resolution, its centred log power for display, and spot finding.
- * Cases: the spectrum of the centred 2048² and 4096² regions and of the whole image. Target:
+ * compute worker's prepareView), and analyse a region the way the worker does for the Periods
+ * panel: analyseRegion (spectrum, spots, each spot's budget), then spectrumView (display picture).
+ * Cases: the analysis of the centred 2048² and 4096² regions and of the whole image (averaged over
+ * tiles beyond 4096 px a side, as the app does). Target:
  * peak ≤ 4 × raw (raw = width · height · 2 bytes), Node's own ~80 MiB (with tsx) included.
  */
 import { spawnSync } from 'node:child_process';
@@ -55,7 +56,8 @@ async function child(file: string, regionSide: number): Promise<void> {
   const { decodeImage } = await import('../src/image/decode');
   const { buildPyramid } = await import('../src/image/pyramid');
   const { greyHistogram } = await import('../src/image/display');
-  const { powerSpectrum, centredLogPower, findSpots } = await import('../src/measure/spectrum');
+  const { analyseRegion } = await import('../src/measure/measure-region');
+  const { spectrumView } = await import('../src/measure/session');
   const { loadFft } = await import('../src/image/fft');
   await loadFft();
   mark('start (Node, modules, transform engine)');
@@ -73,12 +75,14 @@ async function child(file: string, regionSide: number): Promise<void> {
   mark(`pyramid (${levels.length} levels) and histogram`);
   const side = Math.min(regionSide, image.width, image.height);
   const region = { x: (image.width - side) >> 1, y: (image.height - side) >> 1, width: side, height: side };
-  const spectrum = await powerSpectrum(image, region);
-  mark(`power spectrum of ${side}²`);
-  const log = centredLogPower(spectrum);
-  const spots = findSpots(spectrum).spots.length;
-  mark(`log power for display, spot finding (${spots} spots)`);
-  void log;
+  // as the compute worker's spectrum call: the region's analysis (spectrum, spots, each spot's
+  // budget), then the display picture
+  const analysis = await analyseRegion(image, region, { alpha: 0.001 });
+  const tiles = (analysis.spectrum as { tiles?: { count: number; widthPx: number } }).tiles;
+  mark(`analysis of ${side}² (${tiles ? `averaged over ${tiles.count} tiles of ${tiles.widthPx}²` : 'whole'}; ${analysis.measurement.periodicities.length} periods)`);
+  const view = spectrumView(analysis, 1024, 0.001);
+  mark('display picture and rings');
+  void view;
   process.stdout.write(`${JSON.stringify({ stages, width: image.width, height: image.height, afterOpen, atEnd: residentMiB() })}\n`);
 }
 

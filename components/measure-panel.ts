@@ -28,8 +28,6 @@ export const panelLabel = 'Periods';
 const SPECTRUM_CSS_PX = 320;
 /** Longest side of pictures computed in the worker, px. */
 const PICTURE_PX = 1024;
-/** Largest region sent for a spectrum, pixels. */
-const MAX_REGION_PIXELS = 4096 * 4096;
 const PLOT_WIDTH = 330;
 
 /**
@@ -433,10 +431,6 @@ export class StrataMeasurePanel extends LitElement {
       this.spots = [];
       this.spectrumError = `The region is ${rect.width} × ${rect.height} px: a power spectrum needs at least 16 × 16 px (a few periods across is better).`;
       this.sendShapes();
-      return;
-    }
-    if (rect.width * rect.height > MAX_REGION_PIXELS) {
-      this.spectrumError = `The region is ${rect.width} × ${rect.height} px: draw one of at most 4096 × 4096 px.`;
       return;
     }
     if (!this.session) return;

@@ -8,7 +8,8 @@ import { spotPeriodicity } from './spot-near';
 import { refineData } from './refine';
 import { budgetSpot, type BudgetedSpot } from './spot-budget';
 import { complexSpectrum } from './spot-field';
-import { findSpots, powerSpectrum, type PowerSpectrumOptions, type RectPx, type SpotOptions, type Spot, type PowerSpectrum } from './spectrum';
+import { type AveragedPowerSpectrum, LARGEST_WHOLE_TRANSFORM_PX, regionPowerSpectrum } from './averaged-spectrum';
+import { findSpots, type PowerSpectrumOptions, type RectPx, type SpotOptions, type Spot, type PowerSpectrum } from './spectrum';
 
 /** Options of {@link measureRegion}. */
 export interface MeasureRegionOptions extends PowerSpectrumOptions, SpotOptions {
@@ -126,11 +127,11 @@ export async function analyseRegion(
   // at 0.9 α; if it shows nothing, a lightly tapered one at 0.1 α, whose single bins keep about
   // twice the SNR of Hann's (the smaller share costs it a threshold only ln 9 ≈ 2.2 higher).
   const twoLooks = (options.window ?? 'hann') === 'hann' && options.secondLook !== false;
-  let spectrum = await powerSpectrum(image, region, options);
+  let spectrum: PowerSpectrum = await regionPowerSpectrum(image, region, options);
   let search = findSpots(spectrum, { ...options, alpha: twoLooks ? FIRST_LOOK_SHARE * alpha : alpha });
   const lookNotes: string[] = [];
   if (twoLooks && search.spots.length === 0) {
-    const light = await powerSpectrum(image, region, { ...options, window: 'tukey', tukeyAlpha: SECOND_LOOK_TAPER, detrend: 'plane' });
+    const light = await regionPowerSpectrum(image, region, { ...options, window: 'tukey', tukeyAlpha: SECOND_LOOK_TAPER, detrend: 'plane' });
     const second = findSpots(light, { ...options, alpha: (1 - FIRST_LOOK_SHARE) * alpha });
     if (second.spots.length > 0) {
       spectrum = light;
@@ -146,9 +147,19 @@ export async function analyseRegion(
   let refined = 0;
   let onSupport = 0;
   const budgetNotes: string[] = [...lookNotes];
+  const tiles = (spectrum as Partial<AveragedPowerSpectrum>).tiles;
+  // a spectrum averaged over tiles: its spots are refined on the centred tile (the memory of one tile)
+  const refineArea = tiles
+    ? { x: spectrum.area.x + ((spectrum.area.width - tiles.widthPx) >> 1), y: spectrum.area.y + ((spectrum.area.height - tiles.heightPx) >> 1), width: tiles.widthPx, height: tiles.heightPx }
+    : spectrum.area;
+  if (tiles) {
+    budgetNotes.push(
+      `spectrum averaged over ${tiles.count} overlapping tiles of ${tiles.widthPx} × ${tiles.heightPx} px (Welch; the region is larger than ${LARGEST_WHOLE_TRANSFORM_PX} px a side); spots refined on the centred tile`,
+    );
+  }
   if (refineCount > 0 && search.spots.length > 0) {
-    const data = refineData(image, spectrum.area);
-    const spec = await complexSpectrum(image, spectrum.area);
+    const data = refineData(image, refineArea);
+    const spec = await complexSpectrum(image, refineArea);
     const done: BudgetedSpot[] = [];
     const rest: Spot[] = [];
     for (const [i, s] of search.spots.entries()) {
@@ -174,7 +185,7 @@ export async function analyseRegion(
   if (doubted.length) budgetNotes.push(`${doubted.length} spot${doubted.length === 1 ? '' : 's'} with a doubt (${[...new Set(doubted.flatMap((p) => p.flags))].join(', ')}) ranked after the others`);
   const notes: string[] = [...budgetNotes];
   const r = region ?? { x: 0, y: 0, width: image.width, height: image.height };
-  if (spectrum.width !== r.width || spectrum.height !== r.height) {
+  if (!tiles && (spectrum.width !== r.width || spectrum.height !== r.height)) {
     notes.push(
       `region trimmed from ${r.width} × ${r.height} to ${spectrum.width} × ${spectrum.height} px (centred) for a fast transform`,
     );
@@ -201,6 +212,7 @@ export async function analyseRegion(
     periodicities,
     detail: {
       area: spectrum.area,
+      ...(tiles ? { spectrumTiles: tiles, refinedArea: refineArea } : {}),
       threshold: search.threshold,
       searchedBins: search.searchedBins,
       refinedSpots: refined,
