@@ -17,18 +17,12 @@ import { parseRecipe } from '../src/batch/recipe';
 import { runBatch } from '../src/cli/batch';
 import { encodeTiff } from '../testing/encode-tiff';
 import { rng } from '../testing/random';
+import { integerOption } from '../testing/bench-options';
 
-function option(name: string, fallback: number): number {
-  const i = process.argv.indexOf(`--${name}`);
-  if (i < 0) return fallback;
-  const v = Number(process.argv[i + 1]);
-  if (!(Number.isInteger(v) && v > 0)) throw new Error(`--${name} needs a positive integer, got ${process.argv[i + 1]}`);
-  return v;
-}
 
-const files = option('files', 50);
-const size = option('size', 2048);
-const repeats = option('repeat', 2);
+const files = integerOption('files', 50);
+const size = integerOption('size', 2048);
+const repeats = integerOption('repeat', 2);
 const NM_PER_PX = 0.05;
 
 

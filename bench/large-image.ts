@@ -17,16 +17,10 @@ import { spawnSync } from 'node:child_process';
 import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { loadavg, tmpdir } from 'node:os';
 import { join } from 'node:path';
+import { integerOption } from '../testing/bench-options';
 
 const MiB = 2 ** 20;
 
-function option(name: string, fallback: number): number {
-  const i = process.argv.indexOf(`--${name}`);
-  if (i < 0) return fallback;
-  const v = Number(process.argv[i + 1]);
-  if (!(Number.isInteger(v) && v >= 256)) throw new Error(`--${name} needs an integer ≥ 256, got ${process.argv[i + 1]}`);
-  return v;
-}
 
 /**
  * Peak resident memory of this process, MiB: VmHWM from /proc (Linux; the peak of this process's
@@ -89,7 +83,7 @@ async function child(file: string, regionSide: number): Promise<void> {
 async function main(): Promise<void> {
   const childAt = process.argv.indexOf('--child');
   if (childAt >= 0) return child(process.argv[childAt + 1], Number(process.argv[childAt + 2]));
-  const size = option('size', 8192);
+  const size = integerOption('size', 8192, 256);
   const dir = mkdtempSync(join(tmpdir(), 'stratameter-bench-large-'));
   try {
     const { encodeTiff } = await import('../testing/encode-tiff');

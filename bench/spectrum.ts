@@ -25,15 +25,9 @@ import { loadFft, realDft2d } from '../src/image/fft';
 import { measureRegion } from '../src/measure/measure-region';
 import { findSpots, powerSpectrum } from '../src/measure/spectrum';
 import { rng } from '../testing/random';
+import { integerOption } from '../testing/bench-options';
 
-function option(name: string, fallback: number): number {
-  const i = process.argv.indexOf(`--${name}`);
-  if (i < 0) return fallback;
-  const v = Number(process.argv[i + 1]);
-  if (!(Number.isInteger(v) && v > 0)) throw new Error(`--${name} needs a positive integer, got ${process.argv[i + 1]}`);
-  return v;
-}
-const rounds = option('rounds', 15);
+const rounds = integerOption('rounds', 15);
 
 /** Two crossed lattices with noise, float32. */
 function image(n: number): Float32Array {
