@@ -7,7 +7,7 @@
 import { sheetsAlongProfile } from '../src/sheets/profile';
 import { detectSheets } from '../src/sheets/detect';
 import { axialDifferenceDeg } from '../src/sheets/structure-tensor';
-import { gauss, rng, syntheticImage, syntheticProfile, type ImageSheet } from '../tests/sheets/synthetic';
+import { gauss, rng, syntheticImage, syntheticProfile, type ImageSheet } from '../testing/synthetic/stacks';
 
 function table(head: string[], rows: (string | number)[][]): void {
   const cells = rows.map((r) => r.map(String));
