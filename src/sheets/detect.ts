@@ -341,7 +341,7 @@ function polylineCoords(pts: [number, number][], x: number, y: number): { s: num
  * may be met twice. Two pieces are one stack when their periods agree within 6 %, their counts
  * within one layer, and the nearer end of each lies on the other's axis or its straight
  * extension (within a quarter of the thinner one's thickness plus half a period, and 12° in
- * direction), at most 60 px or four thicknesses beyond it. Closest pairs first, repeated until
+ * direction), at most 90 px (a crossing stack may hide that much) or four thicknesses beyond it. Closest pairs first, repeated until
  * none is left.
  */
 function mergePieces(input: Piece[]): Piece[] {
@@ -352,7 +352,7 @@ function mergePieces(input: Piece[]): Piece[] {
   const box = (p: Piece) => {
     let x0 = Infinity, y0 = Infinity, x1 = -Infinity, y1 = -Infinity;
     for (const [x, y] of p.axisPx) { x0 = Math.min(x0, x); y0 = Math.min(y0, y); x1 = Math.max(x1, x); y1 = Math.max(y1, y); }
-    const m = Math.max(60, 4 * pieceThickness(p));
+    const m = Math.max(90, 4 * pieceThickness(p));
     return [x0 - m, y0 - m, x1 + m, y1 + m];
   };
   const boxes = new Map<number, number[]>();
@@ -409,7 +409,7 @@ function mergeGap(a: Piece, b: Piece): number | null {
   const ta = pieceThickness(a);
   const tb = pieceThickness(b);
   const tol = 0.25 * Math.min(ta, tb) + 0.5 * Math.max(a.periodPx, b.periodPx) + 1.5;
-  const maxGap = Math.max(60, 4 * Math.max(ta, tb));
+  const maxGap = Math.max(90, 4 * Math.max(ta, tb));
   const la = polylineLengthOf(a.axisPx);
   const lb = polylineLengthOf(b.axisPx);
   // one lies mostly inside the other's band: the same stack met twice
@@ -491,10 +491,18 @@ function resampleAxis(p: [number, number][]): [number, number][] {
  * median of the two octaves around it ≥ 20), and for a second one unless it is a harmonic of the
  * first, weighted by log(contrast)·√length; votes within 4 % form one period. Periods whose votes
  * weigh at least a sixth of the strongest (and come from two profiles, or half the strongest
- * weight) are kept, at most three. Searches from 2.2 px, below the countable limit, so finer periods are
+ * weight) are kept, at most three. When none stands out so (low dose), peaks ≥ 8 are taken, and a
+ * period then needs the votes of three profiles. Searches from 2.05 px (just above the sampling limit), below the countable limit, so finer periods are
  * seen and rejected rather than mistaken for a coarser one.
  */
 function imagePeriods(surveys: Survey[], maxPeriodPx: number): number[] {
+  const strong = imagePeriodsAt(surveys, maxPeriodPx, 20, 2);
+  if (strong.length) return strong;
+  // low dose: weaker peaks, but then several profiles must agree
+  return imagePeriodsAt(surveys, maxPeriodPx, 8, 3);
+}
+
+function imagePeriodsAt(surveys: Survey[], maxPeriodPx: number, minPeakToMedian: number, minVotes: number): number[] {
   const votes: { d: number; w: number }[] = [];
   for (const sv of surveys.slice(0, 80)) {
     const p = sv.profile;
@@ -512,7 +520,7 @@ function imagePeriods(surveys: Survey[], maxPeriodPx: number): number[] {
     const maxSamples = Math.min(maxPeriodPx / p.binPx, v.length / 1.5);
     if (!(maxSamples > 4.4)) continue;
     const pw = profilePeriodogram(v, size, Math.max(maxSamples / 2, 8));
-    const cands = periodCandidates(pw, size, 2.2 / p.binPx, maxSamples, 3).filter((c) => c.peakToMedian >= 20);
+    const cands = periodCandidates(pw, size, 2.05 / p.binPx, maxSamples, 3).filter((c) => c.peakToMedian >= minPeakToMedian);
     if (cands.length === 0) continue;
     // the strongest peak, and a second one unless it is a harmonic of the first (same profile)
     const d0 = cands[0].periodPx * p.binPx;
@@ -537,7 +545,7 @@ function imagePeriods(surveys: Survey[], maxPeriodPx: number): number[] {
   }
   clusters.sort((x, y) => y.w - x.w);
   const top = clusters[0]?.w ?? 0;
-  return clusters.filter((c) => c.w >= top / 6 && (c.n >= 2 || c.w >= top / 2)).slice(0, 3).map((c) => c.d);
+  return clusters.filter((c) => c.w >= top / 6 && (c.n >= minVotes || (minVotes <= 2 && c.w >= top / 2))).slice(0, 3).map((c) => c.d);
 }
 
 /**
@@ -767,15 +775,37 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
   }
   // after merging, a stack must be at least as long as the shortest stack asked for and as its
   // own thickness (an edge-on platelet is longer than thick; a shorter piece is an end or a crossing)
-  const sheets: AutoSheet[] = [];
+  const kept: Omit<AutoSheet, 'id'>[] = [];
   for (const pc of mergePieces(pieces)) {
     const sh = finishPiece(pc, minPeriodPx);
     if (sh.lengthPx < Math.max(minLengthPx, sh.thicknessPx)) {
       rejected.push({ centerPx: sh.centerPx, angleDeg: sh.angleDeg, layers: sh.layers, periodPx: sh.periodPx, reason: `${sh.lengthPx.toFixed(0)} px long: shorter than ${sh.lengthPx < minLengthPx ? `${minLengthPx} px` : 'its thickness'}` });
       continue;
     }
-    sheets.push({ ...sh, id: `auto-${sheets.length + 1}` });
+    kept.push(sh);
   }
+  // a sheet whose axis lies (almost) wholly on a longer sheet's band is a piece of a crossing, or
+  // that sheet seen at another angle: not a stack of its own (a stack that crosses another
+  // reaches beyond its band). One half on it is a piece too when it runs near the other's
+  // direction, or when its period is off the image's (the other's layers cut obliquely read
+  // d / cos θ) or its positions disagree on its count.
+  const byLength = [...kept].sort((a, b) => b.lengthPx - a.lengthPx);
+  const sheets: AutoSheet[] = [];
+  const accepted: Omit<AutoSheet, 'id'>[] = [];
+  for (const sh of byLength) {
+    const offImage = periodList.length > 0 && Math.min(...periodList.map((d) => Math.abs(sh.periodPx - d) / d)) > 0.04;
+    const host = accepted.find((o) => {
+      const share = shareOnBand(sh.axisPx, o);
+      const offHost = Math.abs(sh.periodPx - o.periodPx) > 0.06 * o.periodPx;
+      return share >= 0.85 || (share >= 0.5 && (axialDiff(sh.angleDeg, o.angleDeg) < 20 || (offImage && offHost) || sh.confidence < 0.6));
+    });
+    if (host) {
+      rejected.push({ centerPx: sh.centerPx, angleDeg: sh.angleDeg, layers: sh.layers, periodPx: sh.periodPx, reason: 'lies on a longer stack (a piece of a crossing)' });
+      continue;
+    }
+    accepted.push(sh);
+  }
+  for (const sh of kept) if (accepted.includes(sh)) sheets.push({ ...sh, id: `auto-${sheets.length + 1}` });
   const periods: ImagePeriod[] = periodList.map((d) => ({
     periodPx: d,
     source: given !== undefined ? 'given' : 'found',
@@ -789,6 +819,17 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
     message: sheets.length === 0 ? 'no stacks found' : null,
     settings,
   };
+}
+
+/** Share of a polyline's points that lie on a sheet's band (inside its length, within half its thickness and a period of its axis). */
+function shareOnBand(points: [number, number][], o: Pick<AutoSheet, 'axisPx' | 'lengthPx' | 'thicknessPx' | 'periodPx'>): number {
+  if (points.length === 0) return 0;
+  let on = 0;
+  for (const p of points) {
+    const c = polylineCoords(o.axisPx, p[0], p[1]);
+    if (c.s >= 0 && c.s <= o.lengthPx && Math.abs(c.u) <= o.thicknessPx / 2 + o.periodPx) on++;
+  }
+  return on / points.length;
 }
 
 function mean(v: number[]): number {

@@ -107,6 +107,24 @@ describe('detectSheets', () => {
       expect(sc.spurious).toBeLessThanOrEqual(1);
     }
   });
+  it('never reports layers finer than the countable 2.5 px, nor passes them to a batch summary', async () => {
+    // stacks of 2.1 px layers: resolvable in principle (above the 2 px sampling limit) but not
+    // countable; the "0.154 nm sheet" came from such fine lattice fringes (common practice:
+    // a period needs more than two samples to be located, Nyquist–Shannon)
+    const fine = syntheticImage(300, 300, [
+      { layers: 8, periodPx: 2.1, cx: 100, cy: 150, angleDeg: 20, lengthPx: 150 },
+      { layers: 12, periodPx: 2.1, cx: 210, cy: 150, angleDeg: 100, lengthPx: 160 },
+    ], { noise: 0.03, seed: 5 });
+    fine.calibration = { nmPerPx: 0.05, source: 'manual', relUncertainty: 0.02, detail: 'test' };
+    const res = detectSheets(fine);
+    expect(res.sheets).toEqual([]);
+    expect(res.message).toBe('no stacks found');
+    expect(res.rejected.some((q) => /below 2\.5 px/.test(q.reason))).toBe(true);
+    const { sheetsInRegion } = await import('../../src/sheets/regions');
+    const inBatch = await sheetsInRegion(fine, null);
+    expect(inBatch.thicknessNm).toEqual([]);
+    expect((inBatch.measurement.detail as { sheets: unknown[] }).sheets).toEqual([]);
+  });
   it('uses a given period and says so', () => {
     const g = detectSheets(img, { periodPx: 8 });
     expect(g.periods).toEqual([{ periodPx: 8, source: 'given', sheets: g.sheets.length }]);
