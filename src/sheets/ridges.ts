@@ -367,7 +367,6 @@ export function ridgeAxes(image: GreyImage, options: RidgeAxesOptions = {}): Rid
     const scales = [minScale * 2 ** octave, minScale * 2 ** octave * Math.SQRT2].filter((s) => s <= maxScale * 1.001);
     if (scales.length === 0 || level.width < 24 || level.height < 24) break;
     const { width: w, height: h, factor } = level;
-    let T = performance.now(); const lap = (m: string) => { if (process.env.RIDGE_DEBUG) console.log(factor, m, (performance.now() - T).toFixed(0)); T = performance.now(); };
     const best = new Float32Array(w * h);
     const bestNormal = new Float32Array(w * h);
     const bestScale = new Float32Array(w * h);
@@ -392,7 +391,6 @@ export function ridgeAxes(image: GreyImage, options: RidgeAxesOptions = {}): Rid
         }
       }
     }
-    lap('scales');
     // average the strength along the ridge (±reach level px in the local direction, counting only
     // samples whose normal agrees within 30°): a line integral that lifts faint but straight
     // lines above the pixel noise, as an oriented filter would (line integral convolution,
@@ -474,7 +472,6 @@ export function ridgeAxes(image: GreyImage, options: RidgeAxesOptions = {}): Rid
       if (!g) groups.set(root, (g = []));
       g.push(i);
     }
-    lap('nms+uf+groups ' + groups.size);
     const pieces: Piece[] = [];
     for (const g of groups.values()) {
       if (g.length * factor < Math.min(minLength / 2, 10)) continue;
@@ -492,9 +489,7 @@ export function ridgeAxes(image: GreyImage, options: RidgeAxesOptions = {}): Rid
       const pts = path.map((i) => [((i % w) + 0.5) * factor - 0.5, (Math.floor(i / w) + 0.5) * factor - 0.5] as [number, number]);
       pieces.push({ points: pts, scalePx: sc / path.length, strengthSum: sum, count: path.length });
     }
-    lap('paths ' + pieces.length);
     const joined = bridge(pieces, (s) => 6 * s + 12);
-    if (process.env.RIDGE_DEBUG) { const sizes = [...groups.values()].map((g) => g.length).sort((a, b) => b - a); console.log('group sizes', sizes.slice(0, 30).join(' ')); console.log('pieces', pieces.map((q) => q.count + '/' + (q.strengthSum / q.count).toFixed(1)).join(' ')); }
     for (const p of joined) {
       // a smooth axis: the pixel path zig-zags by half a pixel, which would smear fine fringes
       const pts = resamplePolyline(resamplePolyline(p.points, 2, Math.max(1, Math.round(factor))), 2, 4);
@@ -508,7 +503,6 @@ export function ridgeAxes(image: GreyImage, options: RidgeAxesOptions = {}): Rid
       }
       out.push({ points: pts, scalePx: p.scalePx, strength, lengthPx: len });
     }
-    lap('bridge');
     level = halve(level);
   }
   out.sort((a, b) => b.strength * Math.sqrt(b.lengthPx) - a.strength * Math.sqrt(a.lengthPx));
