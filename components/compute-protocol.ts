@@ -15,6 +15,7 @@ import type { RectPx, Spot } from '../src/measure/spectrum';
 import type { Pattern } from '../src/diffraction/pattern';
 import type { PatternAnalysis } from '../src/diffraction/analyse';
 import type { AutoSheetsResult } from '../src/sheets/detect';
+import type { LineSheetsResult } from '../src/sheets/line';
 
 export type { FilterView, ProfileEstimator, ProfileView, SpectrumSettings, SpectrumView };
 
@@ -64,8 +65,10 @@ export interface ComputeCalls {
   };
   /** Reads a diffraction pattern's text and fits its peaks (seconds on a few thousand points). */
   analysePattern: { args: { text: string; wavelength?: string; fileName?: string }; result: { pattern: Pattern; analysis: PatternAnalysis } };
-  /** Crop: automatic sheet detection over a copy of an image, skipping a scale-bar strip or panel (Sheets panel). */
-  autoSheets: { args: { image: GreyImage; polarity: 'dark' | 'bright' }; result: { sheets: AutoSheetsResult; excludedBox: [number, number, number, number] | null } };
+  /** Crop: every stack in an image (a copy is sent), skipping a scale-bar strip or panel; the period when known (px). */
+  sheetsFind: { args: { image: GreyImage; polarity: 'dark' | 'bright'; periodPx?: number }; result: { result: AutoSheetsResult; excludedBox: [number, number, number, number] | null } };
+  /** Crop: sheets along a drawn line (a copy of the image is sent); the period when known, or the image's candidates. */
+  sheetsLine: { args: { image: GreyImage; line: { x0: number; y0: number; x1: number; y1: number; widthPx: number }; polarity: 'dark' | 'bright'; periodPx?: number; periods?: number[] }; result: LineSheetsResult };
 }
 
 export type CallName = keyof ComputeCalls;

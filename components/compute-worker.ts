@@ -103,12 +103,16 @@ const handlers: Handlers = {
     };
     return { ...view, measurement: moved };
   },
-  autoSheets: async ({ image, polarity }) => {
+  sheetsFind: async ({ image, polarity, periodPx }) => {
     const { findScaleBar } = await import('../src/calibration/scale-bar');
     const { detectSheets } = await import('../src/sheets/detect');
     const bar = findScaleBar(image);
     const excludedBox = bar ? bar.stripBox ?? bar.panelBox : null;
-    return { sheets: detectSheets(image, { exclude: excludedBox, polarity }), excludedBox };
+    return { result: detectSheets(image, { exclude: excludedBox, polarity, periodPx }), excludedBox };
+  },
+  sheetsLine: async ({ image, line, polarity, periodPx, periods }) => {
+    const { sheetsAlongLine } = await import('../src/sheets/line');
+    return sheetsAlongLine(image, line.x0, line.y0, line.x1, line.y1, { widthPx: line.widthPx, polarity, periodPx, periods });
   },
   analysePattern: async ({ text, wavelength, fileName }) => {
     const { readPatternFile } = await import('../src/diffraction/read-pattern');

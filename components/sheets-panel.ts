@@ -1,52 +1,70 @@
-// The sheets side panel: layer counts and thickness of nanosheets along the drawn line (profile
-// with layer marks and sheet brackets) or found automatically over the image; a list to accept
-// or reject each sheet, histograms and statistics of the kept ones, and a CSV export.
+// The sheets side panel: every stack found in the image (outlines with their counts drawn on it),
+// sheets along a drawn line, the review of each sheet (accept, reject, correct its count), the
+// layer-count and thickness distributions, the comparison with the basal X-ray reflection's
+// Scherrer size, and the review kept in the library as a measurement record.
 import { LitElement, css, html, nothing, svg } from 'lit';
 import type { GreyImage } from '../src/image/grey-image';
-import { sheetsAlongLine, type LineSheetsResult } from '../src/sheets/line';
-import { sheetStatistics, type SheetStatus } from '../src/sheets/detect';
-import type { ComputeClient } from './compute-client';
-import { sheetSummary, type SheetSummary } from '../src/sheets/record';
+import type { ImageRecord } from '../src/store/records';
+import type { LibraryDb } from '../src/store/schema';
+import { listDiffractionSets, listMeasurements, putMeasurement } from '../src/store/library';
+import type { DiffractionSet, StoredSetResults } from '../src/diffraction/stored-set';
+import { MIN_COUNTABLE_PERIOD_PX } from '../src/sheets/limits';
+import type { LineSheetsResult } from '../src/sheets/line';
+import type { ImagePeriod } from '../src/sheets/detect';
+import {
+  correctSheet,
+  expressSheet,
+  sheetFromAuto,
+  sheetFromLine,
+  sheetsMeasurement,
+  sheetsOfMeasurement,
+  sheetStatistics,
+  THICKNESS_CONVENTION,
+  type SheetReport,
+  type SheetsDetail,
+} from '../src/sheets/record';
+import { basalLine, compareWithScherrer, type ScherrerComparison } from '../src/sheets/xrd-compare';
+import { budgetContents, formatPlusMinus, nmPerPxAlong, type UncertaintyBudget } from '../src/measure/measurement';
 import { histogram, type Summary } from '../src/measure/stats';
+import type { ComputeClient } from './compute-client';
+import type { LineDrawnDetail, OverlayShape, ShapeClickDetail, StrataViewer } from './viewer';
 import { controlStyles, panelStyles } from './styles';
 import { linePlot, plotStyles } from './plot-line';
 
 export const panelLabel = 'Sheets';
 
-interface LineDetail {
-  x0: number;
-  y0: number;
-  x1: number;
-  y1: number;
-  widthPx: number;
-}
+/** Below this many sheets the distributions are shown as a table, not as histograms. */
+const MIN_FOR_HISTOGRAM = 5;
 
-/** A sheet in the panel's list (from a line or from the automatic search). */
-interface ListedSheet extends SheetSummary {
-  id: string;
-  source: 'line' | 'auto';
-  status: SheetStatus;
-  /** A segment across the sheet for the overlay (edge to edge on one of its lines). */
-  across: [[number, number], [number, number]];
-}
-
-const f = (v: number | null, d = 2) => (v === null || !Number.isFinite(v) ? '—' : v.toFixed(d));
+const fmt = (b: UncertaintyBudget) => `${formatPlusMinus(b.value, b.expanded)}`;
 
 /**
- * `<strata-sheets-panel>`. Properties: `image` (GreyImage | null, its calibration gives nm),
- * `line` (the last line drawn in the viewer, image px, or null). Events: `overlay-shapes`
- * {shapes}, `status-message` {text, kind}.
+ * `<strata-sheets-panel>`. Properties (given by the app shell): `image`, `record`, `db`,
+ * `compute`, `viewer`, `line`. Events: `overlay-shapes` {shapes}, `status-message` {text, kind},
+ * `library-changed`. The search and the line run in the compute worker on copies of the image.
  */
 export class StrataSheetsPanel extends LitElement {
   static override properties = {
     image: { attribute: false },
+    record: { attribute: false },
+    db: { attribute: false },
     compute: { attribute: false },
+    viewer: { attribute: false },
     line: { attribute: false },
-    lineResult: { state: true },
     sheets: { state: true },
+    periods: { state: true },
+    lineResult: { state: true },
     busy: { state: true },
     acceptedOnly: { state: true },
     bright: { state: true },
+    periodText: { state: true },
+    selectedId: { state: true },
+    savedAt: { state: true },
+    message: { state: true },
+    xrdSets: { state: true },
+    xrdSetId: { state: true },
+    comparison: { state: true },
+    comparisonNote: { state: true },
   };
 
   static override styles = [
@@ -59,47 +77,92 @@ export class StrataSheetsPanel extends LitElement {
       th:first-child, td:first-child { text-align: left; }
       table.stats th[scope='row'] { font-weight: normal; }
       tr.rejected td { opacity: 0.45; text-decoration: line-through; }
-      tr.accepted td:first-child { color: #7fd18b; }
-      .muted { opacity: 0.7; }
+      tr.accepted td:first-child, tr.corrected td:first-child { color: #7fd18b; }
+      tr.selected td { background: #1f2a34; }
+      tr { cursor: pointer; }
+      .muted { opacity: 0.75; }
       svg.hist rect.bar { fill: #5aa0f0; }
       svg.hist text { fill: currentColor; font-size: 10px; }
       svg.hist line { stroke: #5d6b78; }
       .hists { display: flex; flex-wrap: wrap; gap: 8px; }
+      .detail { background: #18212a; border: 1px solid var(--line); border-radius: 3px; padding: 6px 8px; margin: 6px 0; }
+      .detail dl { display: grid; grid-template-columns: auto 1fr; gap: 2px 10px; margin: 4px 0; }
+      .detail dt { color: var(--muted); }
+      .detail dd { margin: 0; font-variant-numeric: tabular-nums; }
       p { margin: 4px 0; }
+      input.period { width: 6em; }
+      input.count { width: 4em; }
     `,
   ];
 
   image: GreyImage | null = null;
-  /** The compute worker client the shell gives every panel. */
+  record: ImageRecord | null = null;
+  db: LibraryDb | null = null;
   compute: ComputeClient | null = null;
-  line: LineDetail | null = null;
+  viewer: StrataViewer | null = null;
+  line: LineDrawnDetail | null = null;
+  /** The sheets under review (automatic and from lines), lengths in px. */
+  sheets: SheetReport[] = [];
+  /** The image's layer periods from the last search (px). */
+  periods: ImagePeriod[] = [];
   lineResult: LineSheetsResult | null = null;
-  sheets: ListedSheet[] = [];
   busy = false;
   acceptedOnly = false;
   bright = false;
+  /** The period typed by the user (nm when the image is calibrated, else px), or ''. */
+  periodText = '';
+  selectedId: string | null = null;
+  savedAt: string | null = null;
+  message: string | null = null;
+  xrdSets: DiffractionSet[] = [];
+  xrdSetId = '';
+  comparison: ScherrerComparison | null = null;
+  comparisonNote: string | null = null;
   private shownImage: GreyImage | null = null;
-  private nextId = 1;
+  private recordId: string | null = null;
+  private nextLineId = 1;
+  private listenedViewer: StrataViewer | null = null;
+  private readonly onShapeClick = (e: Event) => {
+    const d = (e as CustomEvent<ShapeClickDetail>).detail;
+    if (this.sheets.some((s) => s.id === d.id)) this.select(d.id);
+  };
+
+  override disconnectedCallback(): void {
+    super.disconnectedCallback();
+    this.listenedViewer?.removeEventListener('shape-click', this.onShapeClick);
+    this.listenedViewer = null;
+  }
 
   protected override willUpdate(changed: Map<string, unknown>): void {
-    if (changed.has('image') && this.image !== this.shownImage) {
-      // a new image clears the list; a new calibration of the same image rescales it
-      if (!this.image || !this.shownImage || this.image.data !== this.shownImage.data) {
-        this.sheets = [];
-        this.lineResult = null;
-      } else {
-        // same pixels, new calibration: lengths in nm follow the new pixel size
-        const nm = this.image.calibration?.nmPerPx ?? null;
-        this.sheets = this.sheets.map((s) => ({
-          ...s,
-          thicknessNm: nm === null ? null : s.thicknessPx * nm,
-          periodNm: nm === null ? null : s.periodPx * nm,
-          edgeToEdgeNm: nm === null || s.edgeToEdgeNm === null || s.thicknessNm === null ? null : (s.edgeToEdgeNm / s.thicknessNm) * s.thicknessPx * nm,
-        }));
-        this.lineResult = null;
-      }
-      this.shownImage = this.image;
+    if (changed.has('viewer') && this.viewer !== this.listenedViewer) {
+      this.listenedViewer?.removeEventListener('shape-click', this.onShapeClick);
+      this.viewer?.addEventListener('shape-click', this.onShapeClick);
+      this.listenedViewer = this.viewer;
     }
+    if (changed.has('image') && this.image !== this.shownImage) {
+      const samePixels = !!this.image && !!this.shownImage && this.image.data === this.shownImage.data;
+      this.shownImage = this.image;
+      if (!samePixels) {
+        // a new image: its own review, from the library when it was kept there
+        this.sheets = [];
+        this.periods = [];
+        this.lineResult = null;
+        this.selectedId = null;
+        this.recordId = null;
+        this.savedAt = null;
+        this.message = null;
+        this.comparison = null;
+        void this.restore();
+      } else if (this.sheets.length) {
+        // same pixels, new calibration: the px values stand; they are expressed anew and kept with it
+        void this.save();
+      }
+    }
+    if (changed.has('db')) void this.loadXrdSets();
+  }
+
+  protected override updated(changed: Map<string, unknown>): void {
+    if (changed.has('sheets') || changed.has('selectedId') || changed.has('lineResult')) this.pushOverlay();
   }
 
   private emit(type: string, detail: unknown): void {
@@ -110,77 +173,120 @@ export class StrataSheetsPanel extends LitElement {
     this.emit('status-message', { text, kind });
   }
 
+  /** The period the user typed, in px; null when empty. Throws with a plain message when unusable. */
+  private typedPeriodPx(): number | null {
+    const t = this.periodText.trim();
+    if (!t) return null;
+    const v = Number(t);
+    if (!(v > 0 && Number.isFinite(v))) throw new Error(`the period must be a positive number, got '${t}'`);
+    const cal = this.image?.calibration ?? null;
+    const px = cal ? v / nmPerPxAlong(cal, 'ring', 0) : v;
+    if (px < 2) throw new Error(`a period of ${t} ${cal ? 'nm' : 'px'} is ${px.toFixed(2)} px: below the sampling limit of 2 px (Nyquist), no layer of it can be seen in this image`);
+    if (px < MIN_COUNTABLE_PERIOD_PX) throw new Error(`a period of ${t} ${cal ? 'nm' : 'px'} is ${px.toFixed(2)} px: below ${MIN_COUNTABLE_PERIOD_PX} px, where layers can no longer be counted reliably`);
+    return px;
+  }
+
+  private async restore(): Promise<void> {
+    const db = this.db;
+    const rec = this.record;
+    const image = this.image;
+    if (!db || !rec || !image) return;
+    try {
+      const kept = (await listMeasurements(db, rec.id)).filter((m) => m.tool === 'sheets-auto' || m.tool === 'sheets-line');
+      const last = kept[kept.length - 1];
+      if (!last || this.image !== image) return;
+      this.sheets = sheetsOfMeasurement(last);
+      this.periods = ((last.detail as Partial<SheetsDetail> | undefined)?.periods ?? []) as ImagePeriod[];
+      this.recordId = last.id;
+      this.savedAt = last.createdIso;
+      this.nextLineId = 1 + this.sheets.filter((s) => s.source === 'line').length;
+      if (this.sheets.length) this.say(`${this.sheets.length} sheet${this.sheets.length === 1 ? '' : 's'} restored from the library`);
+    } catch (e) {
+      this.say(`the sheets kept for this image could not be read: ${(e as Error).message}`, 'error');
+    }
+  }
+
+  private async loadXrdSets(): Promise<void> {
+    if (!this.db) return;
+    try {
+      this.xrdSets = await listDiffractionSets(this.db);
+    } catch {
+      this.xrdSets = [];
+    }
+  }
+
+  /** Keeps the review in the library: one record per image, replaced on every change. */
+  private async save(): Promise<void> {
+    const db = this.db;
+    const rec = this.record;
+    const image = this.image;
+    if (!image) return;
+    if (!db || !rec) {
+      this.savedAt = null;
+      return;
+    }
+    const id = this.recordId ?? globalThis.crypto.randomUUID();
+    this.recordId = id;
+    const tool = this.sheets.some((s) => s.source === 'auto') || this.periods.length ? 'sheets-auto' : 'sheets-line';
+    const m = sheetsMeasurement(
+      this.sheets,
+      { id, imageId: rec.id, fileName: rec.fileName, calibration: image.calibration, settings: { polarity: this.bright ? 'bright' : 'dark', periodTyped: this.periodText || null } },
+      { tool, periods: this.periods, message: this.message },
+    );
+    try {
+      await putMeasurement(db, m);
+      this.savedAt = m.createdIso;
+      this.emit('library-changed', null);
+    } catch (e) {
+      this.say(`not saved: ${(e as Error).message}`, 'error');
+    }
+  }
+
   private pushOverlay(): void {
-    const tone = (s: ListedSheet) => (s.status === 'rejected' ? 'warn' : s.status === 'accepted' ? 'accent' : 'info');
-    const shapes = this.sheets.map((s) => ({
-      kind: 'line',
-      x0: s.across[0][0],
-      y0: s.across[0][1],
-      x1: s.across[1][0],
-      y1: s.across[1][1],
-      widthPx: 1,
-      label: `${s.layers} L`,
-      tone: tone(s),
-    }));
+    const tone = (s: SheetReport): 'accent' | 'info' | 'warn' => (s.status === 'rejected' ? 'warn' : s.status === 'auto' ? 'info' : 'accent');
+    const shapes: OverlayShape[] = this.sheets.map((s): OverlayShape => {
+      const label = `${s.layers}${s.status === 'corrected' ? '*' : ''}`;
+      if (s.outlinePx.length > 2) return { kind: 'polygon', points: s.outlinePx, id: s.id, label, tone: tone(s), selected: s.id === this.selectedId };
+      const [a, b] = s.outlinePx;
+      return { kind: 'line', x0: a[0], y0: a[1], x1: b[0], y1: b[1], widthPx: 1, label, tone: tone(s) };
+    });
     this.emit('overlay-shapes', { shapes });
   }
 
-  private measureLine(): void {
-    const img = this.image;
-    const l = this.line;
-    if (!img || !l) return;
-    try {
-      this.lineResult = sheetsAlongLine(img, l.x0, l.y0, l.x1, l.y1, { widthPx: Math.max(1, l.widthPx || 9), polarity: this.bright ? 'bright' : 'dark' });
-      const n = this.lineResult.sheets.length;
-      this.say(n ? `${n} sheet${n > 1 ? 's' : ''} along the line` : 'no sheet along the line: draw it across a stack, from background to background');
-    } catch (e) {
-      this.lineResult = null;
-      this.say((e as Error).message, 'error');
+  private select(id: string | null): void {
+    this.selectedId = this.selectedId === id ? null : id;
+    if (this.selectedId) {
+      void this.updateComplete.then(() => this.renderRoot.querySelector(`tr[data-id="${this.selectedId}"]`)?.scrollIntoView({ block: 'nearest' }));
     }
   }
 
-  private addLineSheets(): void {
-    const r = this.lineResult;
-    if (!r) return;
-    for (const s of r.sheets) {
-      this.sheets = [...this.sheets, {
-        id: `line-${this.nextId++}`,
-        source: 'line',
-        status: 'manual',
-        ...sheetSummary(s, s.centerXY),
-        across: s.edgesXY,
-      }];
-    }
-    this.pushOverlay();
-  }
-
-  private async runAutomatic(): Promise<void> {
+  private async findSheets(): Promise<void> {
     const img = this.image;
     if (!img || this.busy) return;
-    this.busy = true;
-    this.say('finding sheets…');
+    let periodPx: number | null;
     try {
-      if (!this.compute) throw new Error('the compute worker is not available');
-      // Runs in the compute worker on a copy of the image: the page stays responsive.
-      const { sheets: r, excludedBox: exclude } = await this.compute.call('autoSheets', { image: img, polarity: this.bright ? 'bright' : 'dark' });
+      periodPx = this.typedPeriodPx();
+    } catch (e) {
+      this.say((e as Error).message, 'error');
+      return;
+    }
+    if (!this.compute) {
+      this.say('the compute worker is not available', 'error');
+      return;
+    }
+    this.busy = true;
+    this.say('finding stacks…');
+    try {
+      const { result, excludedBox } = await this.compute.call('sheetsFind', { image: img, polarity: this.bright ? 'bright' : 'dark', periodPx: periodPx ?? undefined });
+      if (this.image !== img) return;
       const kept = this.sheets.filter((s) => s.source !== 'auto');
-      const found: ListedSheet[] = r.sheets.map((s) => {
-        const mid = s.crossings[Math.floor(s.crossings.length / 2)];
-        const half = s.thicknessPx / 2;
-        const th = (mid.angleDeg * Math.PI) / 180;
-        const ux = Math.cos(th);
-        const uy = -Math.sin(th);
-        return {
-          id: `auto-${this.nextId++}`,
-          source: 'auto',
-          status: 'auto',
-          ...sheetSummary(s, s.centerPx),
-          across: [[mid.centerPx[0] - ux * half, mid.centerPx[1] - uy * half], [mid.centerPx[0] + ux * half, mid.centerPx[1] + uy * half]],
-        };
-      });
-      this.sheets = [...kept, ...found];
-      this.say(`${found.length} sheet${found.length === 1 ? '' : 's'} found${exclude ? ' (scale-bar panel skipped)' : ''}: accept or reject each`);
-      this.pushOverlay();
+      this.sheets = [...kept, ...result.sheets.map(sheetFromAuto)];
+      this.periods = result.periods;
+      this.message = result.message;
+      this.selectedId = null;
+      const n = result.sheets.length;
+      this.say(n ? `${n} stack${n === 1 ? '' : 's'} found${excludedBox ? ' (scale-bar panel skipped)' : ''}: click one to review it` : 'no stacks found in this image');
+      await this.save();
     } catch (e) {
       this.say((e as Error).message, 'error');
     } finally {
@@ -188,18 +294,141 @@ export class StrataSheetsPanel extends LitElement {
     }
   }
 
-  private setStatus(id: string, status: SheetStatus): void {
-    this.sheets = this.sheets.map((s) => (s.id === id ? { ...s, status: s.status === status ? (s.source === 'auto' ? 'auto' : 'manual') : status } : s));
-    this.pushOverlay();
+  private async measureLine(): Promise<void> {
+    const img = this.image;
+    const l = this.line;
+    if (!img || !l || this.busy) return;
+    let periodPx: number | null;
+    try {
+      periodPx = this.typedPeriodPx();
+    } catch (e) {
+      this.say((e as Error).message, 'error');
+      return;
+    }
+    if (!this.compute) return;
+    this.busy = true;
+    try {
+      const r = await this.compute.call('sheetsLine', {
+        image: img,
+        line: { x0: l.x0, y0: l.y0, x1: l.x1, y1: l.y1, widthPx: Math.max(1, l.widthPx || 9) },
+        polarity: this.bright ? 'bright' : 'dark',
+        periodPx: periodPx ?? undefined,
+        periods: periodPx === null ? this.periods.map((p) => p.periodPx) : undefined,
+      });
+      if (this.image !== img) return;
+      this.lineResult = r;
+      const n = r.sheets.length;
+      this.say(n ? `${n} sheet${n > 1 ? 's' : ''} along the line` : (r.message ?? 'no sheet along the line'));
+    } catch (e) {
+      this.lineResult = null;
+      this.say((e as Error).message, 'error');
+    } finally {
+      this.busy = false;
+    }
+  }
+
+  private addLineSheets(): void {
+    const r = this.lineResult;
+    if (!r) return;
+    this.sheets = [...this.sheets, ...r.sheets.map((s) => sheetFromLine(s, `line-${this.nextLineId++}`))];
+    this.lineResult = null;
+    void this.save();
+  }
+
+  private setStatus(id: string, status: 'accepted' | 'rejected'): void {
+    this.sheets = this.sheets.map((s) => {
+      if (s.id !== id) return s;
+      const back = s.correction ? 'corrected' : s.source === 'auto' ? 'auto' : 'manual';
+      return { ...s, status: s.status === status ? back : status };
+    });
+    void this.save();
+  }
+
+  private correct(id: string, text: string): void {
+    const n = Number(text);
+    const s = this.sheets.find((q) => q.id === id);
+    if (!s) return;
+    if (!(Number.isInteger(n) && n >= 1 && n <= 500)) {
+      this.say(`a layer count is a whole number from 1 to 500, got '${text}'`, 'error');
+      return;
+    }
+    if (n === s.layers) return;
+    this.sheets = this.sheets.map((q) => (q.id === id ? correctSheet(q, n, new Date().toISOString()) : q));
+    void this.save();
+  }
+
+  private resetCount(id: string): void {
+    this.sheets = this.sheets.map((q) => {
+      if (q.id !== id || !q.correction) return q;
+      const back = correctSheet(q, q.correction.originalLayers, new Date().toISOString());
+      return { ...back, status: q.source === 'auto' ? 'auto' : 'manual', correction: null };
+    });
+    void this.save();
+  }
+
+  private async compareXrd(): Promise<void> {
+    const set = this.xrdSets.find((s) => s.id === this.xrdSetId);
+    const image = this.image;
+    if (!set || !image) return;
+    this.comparison = null;
+    this.comparisonNote = null;
+    const cal = image.calibration;
+    if (!cal) {
+      this.comparisonNote = 'the comparison needs a calibrated image (nm): calibrate it in the Calibration tab';
+      return;
+    }
+    const kept = this.kept();
+    if (kept.length < 2) {
+      this.comparisonNote = 'the comparison needs at least two sheets';
+      return;
+    }
+    const ex = kept.map((s) => ({ s, e: expressSheet(s, cal) }));
+    const periodNm = ex.reduce((a, q) => a + q.e.period.value, 0) / ex.length;
+    let lines: { dNm: number; crystalliteNm?: number | null; crystalliteUncNm?: number | null; label?: string }[] = [];
+    let source = set.name;
+    try {
+      if (set.patternText && this.compute) {
+        // the pattern again, for the sizes' uncertainties (the stored lines keep the sizes only)
+        const { analysis } = await this.compute.call('analysePattern', { text: set.patternText, wavelength: `${set.wavelengthNm}nm`, fileName: set.name });
+        lines = analysis.peaks.map((p) => ({ dNm: p.dNm, crystalliteNm: p.crystalliteNm, crystalliteUncNm: p.crystalliteUncNm, label: p.twoThetaDeg !== null ? `${p.twoThetaDeg.toFixed(3)}° 2θ` : '' }));
+        source = `${set.name}; ${analysis.sizeMethod}`;
+      } else {
+        const res = set.results as unknown as StoredSetResults | null;
+        lines = (res?.lines ?? []).map((l) => ({ dNm: l.dNm, crystalliteNm: l.crystalliteNm ?? null, crystalliteUncNm: null, label: l.label }));
+      }
+    } catch (e) {
+      this.comparisonNote = `the pattern could not be read: ${(e as Error).message}`;
+      return;
+    }
+    const line = basalLine(lines, periodNm);
+    if (!line) {
+      this.comparisonNote = `no reflection with a Scherrer size near the sheets' period (${periodNm.toFixed(3)} nm) in '${set.name}'`;
+      return;
+    }
+    this.comparison = compareWithScherrer(
+      ex.map(({ s, e }) => ({ thicknessNm: e.thickness.value, layers: s.layers, lengthWeight: e.length?.value ?? 1 })),
+      { sizeNm: line.crystalliteNm!, uSizeNm: line.crystalliteUncNm ?? null, dNm: line.dNm, source: `${source}, peak ${line.label ?? ''} (d = ${line.dNm.toFixed(4)} nm)` },
+    );
+  }
+
+  private kept(): SheetReport[] {
+    return this.sheets.filter((s) => s.status !== 'rejected' && (!this.acceptedOnly || s.status !== 'auto'));
   }
 
   private exportCsv(): void {
-    const head = ['id', 'source', 'status', 'layers', 'thickness_px', 'thickness_nm', 'edge_to_edge_nm', 'period_px', 'period_nm', 'angle_deg', 'center_x_px', 'center_y_px'];
-    const rows = this.sheets.map((s) => [
-      s.id, s.source, s.status, s.layers, s.thicknessPx.toFixed(3), s.thicknessNm?.toFixed(4) ?? '', s.edgeToEdgeNm?.toFixed(4) ?? '',
-      s.periodPx.toFixed(4), s.periodNm?.toFixed(5) ?? '', s.angleDeg.toFixed(2), s.centerPx[0].toFixed(1), s.centerPx[1].toFixed(1),
-    ].join(','));
-    const blob = new Blob([`${head.join(',')}\n${rows.join('\n')}\n`], { type: 'text/csv' });
+    const cal = this.image?.calibration ?? null;
+    const u = cal ? 'nm' : 'px';
+    const head = ['id', 'source', 'status', 'layers', 'automatic_layers', 'corrected_by', `thickness_nd_${u}`, `thickness_U_${u}`, 'thickness_U_contains', `edge_to_edge_${u}`, `period_${u}`, `period_U_${u}`, 'period_source', `length_${u}`, 'agreement', 'angle_deg', 'center_x_px', 'center_y_px', 'coverage_factor_k'];
+    const rows = this.sheets.map((s) => {
+      const e = expressSheet(s, cal);
+      return [
+        s.id, s.source, s.status, s.layers, s.correction?.originalLayers ?? '', s.correction?.by ?? '',
+        e.thickness.value.toPrecision(6), e.thickness.expanded.toPrecision(3), `"${budgetContents(e.thickness)}"`, e.edgeToEdge.value.toPrecision(5),
+        e.period.value.toPrecision(6), e.period.expanded.toPrecision(3), s.periodSource, e.length ? e.length.value.toPrecision(5) : '',
+        s.confidence === null ? '' : s.confidence.toFixed(2), s.angleDeg.toFixed(2), s.centerPx[0].toFixed(1), s.centerPx[1].toFixed(1), e.thickness.k,
+      ].join(',');
+    });
+    const blob = new Blob([`# thickness: ${THICKNESS_CONVENTION}\n${head.join(',')}\n${rows.join('\n')}\n`], { type: 'text/csv' });
     const a = document.createElement('a');
     a.href = URL.createObjectURL(blob);
     a.download = 'sheets.csv';
@@ -210,55 +439,55 @@ export class StrataSheetsPanel extends LitElement {
   private renderProfile() {
     const r = this.lineResult;
     if (!r) return nothing;
-    const step = r.nmPerSample ?? 1;
-    const unit = r.nmPerSample ? 'nm' : 'px';
-    const x = Array.from(r.profile, (_, i) => i * step);
-    const points = r.sheets.flatMap((s) => s.layerPositionsPx.map((p) => ({ x: p * step, y: r.profile[Math.round(p)], kind: (this.bright ? 'max' : 'min') as 'max' | 'min' })));
+    const x = Array.from(r.profile.values, (_, i) => r.profile.startPx + i * r.profile.binPx);
+    const y = Array.from(r.profile.values, (v) => (Number.isFinite(v) ? v : 0));
+    const at = (p: number) => y[Math.max(0, Math.min(y.length - 1, Math.round((p - r.profile.startPx) / r.profile.binPx)))];
+    const points = r.sheets.flatMap((s) => s.layerPositionsPx.map((p) => ({ x: p, y: at(p), kind: (this.bright ? 'max' : 'min') as 'max' | 'min' })));
     const rules = r.sheets.flatMap((s, i) => [
-      { x: s.edgesPx[0] * step, label: `${i + 1}: ${s.layers} L` },
-      { x: s.edgesPx[1] * step, label: '' },
+      { x: s.centerPx - s.thicknessPx / 2, label: `${i + 1}: ${s.layers}` },
+      { x: s.centerPx + s.thicknessPx / 2, label: '' },
     ]);
+    const cal = this.image?.calibration ?? null;
     return html`
-      ${linePlot({ width: 300, height: 150, x, y: r.profile, xLabel: `distance (${unit})`, yLabel: 'grey value', description: 'Line profile with layer marks and sheet edges', points, rules })}
+      ${linePlot({ width: 300, height: 150, x, y, xLabel: 'distance along the line (px)', yLabel: 'grey value', description: 'Profile along the line with the layers found and the n·d extent of each sheet', points, rules })}
+      <p class="muted">Period ${r.periodPx === null ? '—' : `${r.periodPx.toFixed(3)} px`} (${r.periodSource ?? 'none'}).</p>
       ${r.sheets.length
         ? html`<table>
-            <tr><th>#</th><th>layers</th><th>thickness (${unit})</th><th>edge-to-edge (${unit})</th><th>period (${unit})</th></tr>
-            ${r.sheets.map((s, i) => html`<tr><td>${i + 1}${s.truncated ? ' (at end)' : ''}</td><td>${s.layers}</td>
-              <td>${f(s.thicknessNm ?? s.thicknessPx)}</td><td>${f(s.edgeToEdgeNm ?? s.edgeToEdgePx)}</td><td>${f(s.periodNm ?? s.periodPx, 3)}</td></tr>`)}
+            <tr><th>#</th><th>layers</th><th>n·d (${cal ? 'nm' : 'px'})</th><th>period</th></tr>
+            ${r.sheets.map((s, i) => {
+              const e = expressSheet({ ...s, lengthPx: null }, cal);
+              return html`<tr><td>${i + 1}${s.truncated ? ' (at end)' : ''}</td><td>${s.layers}</td><td>${fmt(e.thickness)}</td><td>${fmt(e.period)}</td></tr>`;
+            })}
           </table>
-          <div class="row"><button @click=${() => this.addLineSheets()}>Add to the list</button></div>`
-        : html`<p class="muted">no sheet on this line</p>`}
+          <div class="row"><button @click=${() => this.addLineSheets()}>Add to the sheets</button></div>`
+        : html`<p class="muted">${r.message ?? 'no sheet on this line'}</p>`}
     `;
   }
 
   private renderHistogram(values: number[], title: string, integer: boolean) {
     if (values.length === 0) return nothing;
     const h = histogram(values, integer ? { integer: true, binWidth: 1 } : {});
-    const w = 140;
+    const w = 150;
     const ht = 70;
     const maxC = Math.max(...h.counts);
     const bw = w / h.counts.length;
     const lo = h.edges[0];
     const hi = h.edges[h.edges.length - 1];
     return html`<figure>
-      <svg class="hist" width=${w} height=${ht + 24} role="img" aria-label=${`${title} histogram`}>
+      <svg class="hist" width=${w} height=${ht + 26} role="img" aria-label=${`${title} histogram of ${values.length} sheets`}>
         ${Array.from(h.counts, (c, i) => svg`<rect class="bar" x=${i * bw + 0.5} y=${ht - (ht * c) / maxC} width=${Math.max(1, bw - 1)} height=${(ht * c) / maxC}></rect>`)}
         <line x1="0" x2=${w} y1=${ht} y2=${ht}></line>
         <text x="0" y=${ht + 11}>${integer ? lo + 0.5 : lo.toFixed(2)}</text>
         <text x=${w} y=${ht + 11} text-anchor="end">${integer ? hi - 0.5 : hi.toFixed(2)}</text>
-        <text x=${w / 2} y=${ht + 22} text-anchor="middle">${title}</text>
+        <text x=${w / 2} y=${ht + 24} text-anchor="middle">${title}, n = ${values.length}</text>
       </svg>
     </figure>`;
   }
 
-  /**
-   * The statistics as rows (one per statistic) and columns (thickness, layers): two narrow
-   * columns fit the side panel, where eight statistic columns would not.
-   */
   private renderStats(columns: { label: string; s: Summary | null; d: number }[]) {
     const cols = columns.filter((c) => c.s) as { label: string; s: Summary; d: number }[];
-    const row = (name: string, cell: (s: Summary, d: number) => string) =>
-      html`<tr><th scope="row">${name}</th>${cols.map((c) => html`<td>${cell(c.s, c.d)}</td>`)}</tr>`;
+    const f = (v: number, d: number) => (Number.isFinite(v) ? v.toFixed(d) : '—');
+    const row = (name: string, cell: (s: Summary, d: number) => string) => html`<tr><th scope="row">${name}</th>${cols.map((c) => html`<td>${cell(c.s, c.d)}</td>`)}</tr>`;
     return html`<table class="stats">
       <tr><th></th>${cols.map((c) => html`<th scope="col">${c.label}</th>`)}</tr>
       ${row('n', (s) => String(s.n))}
@@ -271,60 +500,124 @@ export class StrataSheetsPanel extends LitElement {
     </table>`;
   }
 
+  private renderDetail(s: SheetReport) {
+    const e = expressSheet(s, this.image?.calibration ?? null);
+    const unit = e.thickness.unit;
+    return html`<div class="detail" aria-label="Selected sheet">
+      <div class="row">
+        <strong>${s.id}</strong>
+        <label>layers <input class="count" type="number" min="1" step="1" .value=${String(s.layers)} @change=${(ev: Event) => this.correct(s.id, (ev.target as HTMLInputElement).value)} aria-label="Layer count"></label>
+        <button aria-pressed=${s.status === 'accepted'} @click=${() => this.setStatus(s.id, 'accepted')}>Accept</button>
+        <button aria-pressed=${s.status === 'rejected'} @click=${() => this.setStatus(s.id, 'rejected')}>Reject</button>
+        ${s.correction ? html`<button @click=${() => this.resetCount(s.id)}>Back to ${s.correction.originalLayers}</button>` : nothing}
+      </div>
+      <dl>
+        <dt>thickness n·d</dt><dd>${fmt(e.thickness)} ${unit} (k = ${e.thickness.k}; ${budgetContents(e.thickness)})</dd>
+        <dt>edge to edge</dt><dd>${e.edgeToEdge.value.toPrecision(4)} ${unit}</dd>
+        <dt>period</dt><dd>${fmt(e.period)} ${unit} (${s.periodSource}; ${budgetContents(e.period)})</dd>
+        ${e.length ? html`<dt>length</dt><dd>${e.length.value.toFixed(1)} ${unit}</dd>` : nothing}
+        ${s.confidence !== null ? html`<dt>agreement</dt><dd>${Math.round(100 * s.confidence)} % of the positions along it gave ${s.layers}${s.correction ? ` (before the correction: ${s.correction.originalLayers})` : ''}</dd>` : nothing}
+        <dt>normal</dt><dd>${s.angleDeg.toFixed(1)}°, centre ${s.centerPx[0].toFixed(0)}, ${s.centerPx[1].toFixed(0)} px</dd>
+        ${s.correction ? html`<dt>count</dt><dd>corrected by the user from ${s.correction.originalLayers} (automatic)</dd>` : nothing}
+      </dl>
+      ${s.notes.map((n) => html`<p class="muted">${n}</p>`)}
+    </div>`;
+  }
+
+  private renderComparison() {
+    if (!this.db) return nothing;
+    return html`<section>
+      <h3>Against the basal X-ray reflection (Scherrer)</h3>
+      ${this.xrdSets.length
+        ? html`<div class="row">
+            <label>diffraction set <select .value=${this.xrdSetId} @change=${(e: Event) => (this.xrdSetId = (e.target as HTMLSelectElement).value)}>
+              <option value="">choose…</option>
+              ${this.xrdSets.map((s) => html`<option value=${s.id} ?selected=${s.id === this.xrdSetId}>${s.name}</option>`)}
+            </select></label>
+            <button ?disabled=${!this.xrdSetId} @click=${() => void this.compareXrd()}>Compare</button>
+          </div>`
+        : html`<p class="muted">Keep a powder pattern in the library (Diffraction tab, Save set) to compare the stacks' thickness with its basal reflection's Scherrer size.</p>`}
+      ${this.comparison ? html`<p>${this.comparison.statement}</p>
+        <p class="muted">Scherrer sizes are volume-weighted column lengths and ignore strain; the micrographs' thicknesses are weighted alike (t² × length). Results inform research; they do not replace an accredited calibration.</p>` : nothing}
+      ${this.comparisonNote ? html`<p class="muted">${this.comparisonNote}</p>` : nothing}
+    </section>`;
+  }
+
   override render() {
     if (!this.image) return html`<p class="muted">Open an image to count layers.</p>`;
     const cal = this.image.calibration;
-    const stats = sheetStatistics(this.sheets, { acceptedOnly: this.acceptedOnly });
-    const kept = this.sheets.filter((s) => s.status !== 'rejected' && (!this.acceptedOnly || s.status !== 'auto'));
-    const thickVals = kept.map((s) => s.thicknessNm ?? s.thicknessPx);
-    const unit = cal ? 'nm' : 'px';
+    const kept = this.kept();
+    const stats = sheetStatistics(kept.map((sheet) => ({ sheet, calibration: cal })));
+    const unit = stats.unit;
+    const selected = this.sheets.find((s) => s.id === this.selectedId) ?? null;
+    const thick = kept.map((s) => expressSheet(s, cal).thickness.value);
     return html`
       <section>
-        <h3>Along the drawn line</h3>
-        <p class="muted">Draw a line across a stack, along the layer normal, from background to background.</p>
+        <h3>Layer period</h3>
         <div class="row">
-          <button ?disabled=${!this.line} @click=${() => this.measureLine()}>Measure the line</button>
-          <label><input type="checkbox" .checked=${this.bright} @change=${(e: Event) => (this.bright = (e.target as HTMLInputElement).checked)} /> bright layers</label>
+          <label>period <input class="period" type="number" min="0" step="any" placeholder="found" .value=${this.periodText}
+            @change=${(e: Event) => (this.periodText = (e.target as HTMLInputElement).value)} aria-label=${`Layer period in ${cal ? 'nm' : 'px'}`}> ${cal ? 'nm' : 'px'}</label>
+          <label><input type="checkbox" .checked=${this.bright} @change=${(e: Event) => (this.bright = (e.target as HTMLInputElement).checked)}> bright layers</label>
         </div>
-        ${this.renderProfile()}
+        <p class="muted">Leave empty to find the period in the image; type it when known (e.g. from the basal X-ray reflection).
+          ${this.periods.length ? html`Found: ${this.periods.map((p) => `${(cal ? p.periodPx * nmPerPxAlong(cal, 'ring', 0) : p.periodPx).toFixed(3)} ${cal ? 'nm' : 'px'}`).join(', ')}.` : nothing}</p>
       </section>
       <section>
-        <h3>Automatic</h3>
-        <div class="row"><button ?disabled=${this.busy} @click=${() => void this.runAutomatic()}>${this.busy ? 'Finding…' : 'Find sheets in the image'}</button></div>
+        <h3>Stacks in the image</h3>
+        <div class="row"><button ?disabled=${this.busy} @click=${() => void this.findSheets()}>${this.busy ? 'Working…' : 'Find sheets in the image'}</button></div>
+        <p class="muted">Outlines are drawn on the image with their layer counts; click one (pan tool) to review it.</p>
+      </section>
+      <section>
+        <h3>Along a drawn line</h3>
+        <p class="muted">Draw a line across a stack, along the layer normal, from background to background, to add a sheet the search missed.</p>
+        <div class="row"><button ?disabled=${!this.line || this.busy} @click=${() => void this.measureLine()}>Measure the line</button></div>
+        ${this.renderProfile()}
       </section>
       <section>
         <h3>Sheets (${this.sheets.length})</h3>
         ${this.sheets.length
-          ? html`<table>
-              <tr><th>#</th><th>layers</th><th>thickness (${unit})</th><th>period (${unit})</th><th>angle (°)</th><th></th></tr>
-              ${this.sheets.map((s, i) => html`<tr class=${s.status}>
-                <td>${i + 1} ${s.source === 'auto' ? 'auto' : 'line'}</td><td>${s.layers}</td>
-                <td>${f(s.thicknessNm ?? s.thicknessPx)}</td><td>${f(s.periodNm ?? s.periodPx, 3)}</td><td>${s.angleDeg.toFixed(1)}</td>
-                <td><button title="Accept" aria-pressed=${s.status === 'accepted'} @click=${() => this.setStatus(s.id, 'accepted')}>✓</button>
-                    <button title="Reject" aria-pressed=${s.status === 'rejected'} @click=${() => this.setStatus(s.id, 'rejected')}>✗</button></td>
-              </tr>`)}
+          ? html`${selected ? this.renderDetail(selected) : nothing}
+            <table>
+              <tr><th>#</th><th>layers</th><th>n·d (${unit})</th><th>agree</th><th></th></tr>
+              ${this.sheets.map((s, i) => {
+                const e = expressSheet(s, cal);
+                return html`<tr class="${s.status}${s.id === this.selectedId ? ' selected' : ''}" data-id=${s.id} @click=${() => this.select(s.id)}>
+                  <td>${i + 1} ${s.source}</td><td>${s.layers}${s.correction ? html`<span title=${`automatic: ${s.correction.originalLayers}`}>*</span>` : nothing}</td>
+                  <td>${fmt(e.thickness)}</td><td>${s.confidence === null ? '—' : `${Math.round(100 * s.confidence)} %`}</td>
+                  <td><button title="Accept" aria-label=${`Accept sheet ${i + 1}`} aria-pressed=${s.status === 'accepted'} @click=${(ev: Event) => { ev.stopPropagation(); this.setStatus(s.id, 'accepted'); }}>✓</button>
+                      <button title="Reject" aria-label=${`Reject sheet ${i + 1}`} aria-pressed=${s.status === 'rejected'} @click=${(ev: Event) => { ev.stopPropagation(); this.setStatus(s.id, 'rejected'); }}>✗</button></td>
+                </tr>`;
+              })}
             </table>
+            <p class="muted">± is the expanded uncertainty (k = 2) of the thickness n·d (layers × period): the period's fit and the spread along the stack, with the calibration. * a count corrected by you (the automatic one is kept).</p>
             <div class="row">
-              <label><input type="checkbox" .checked=${this.acceptedOnly} @change=${(e: Event) => (this.acceptedOnly = (e.target as HTMLInputElement).checked)} /> count accepted only</label>
+              <label><input type="checkbox" .checked=${this.acceptedOnly} @change=${(e: Event) => (this.acceptedOnly = (e.target as HTMLInputElement).checked)}> count accepted only</label>
               <button @click=${() => this.exportCsv()}>Export CSV</button>
-              <button @click=${() => { this.sheets = []; this.pushOverlay(); }}>Clear</button>
-            </div>`
-          : html`<p class="muted">none yet</p>`}
+            </div>
+            <p class="muted">${this.db && this.record ? (this.savedAt ? `Kept in the library (${new Date(this.savedAt).toLocaleTimeString()}).` : 'Not yet kept in the library.') : 'Not kept: the image is not in the library.'}</p>`
+          : html`<p class="muted">${this.message ?? 'none yet'}</p>`}
       </section>
       ${stats.n
         ? html`<section>
-            <h3>Statistics (${stats.n} sheets)</h3>
-            ${this.renderStats([
-              { label: `thickness (${unit})`, s: cal ? stats.thicknessNm : stats.thicknessPx, d: 2 },
-              { label: 'layers', s: stats.layers, d: 1 },
-            ])}
-            <p class="muted">Quartiles: Hyndman & Fan type 7. CI: Student t. Histogram bins: Freedman–Diaconis.</p>
-            <div class="hists">
-              ${this.renderHistogram(thickVals, `thickness (${unit})`, false)}
-              ${this.renderHistogram(kept.map((s) => s.layers), 'layers', true)}
-            </div>
+            <h3>Distribution (n = ${stats.n})</h3>
+            ${stats.n < MIN_FOR_HISTOGRAM
+              ? html`<table>
+                  <tr><th>#</th><th>layers</th><th>n·d (${unit})</th></tr>
+                  ${kept.map((s, i) => html`<tr><td>${i + 1}</td><td>${s.layers}</td><td>${thick[i].toFixed(2)}</td></tr>`)}
+                </table>
+                <p class="muted">Fewer than ${MIN_FOR_HISTOGRAM} sheets: listed rather than binned.</p>`
+              : html`${this.renderStats([
+                  { label: `n·d (${unit})`, s: stats.thickness, d: 2 },
+                  { label: 'layers', s: stats.layers, d: 1 },
+                ])}
+                <div class="hists">
+                  ${this.renderHistogram(stats.layerCounts.flatMap(([n, m]) => Array(m).fill(n) as number[]), 'layers', true)}
+                  ${this.renderHistogram(thick, `n·d (${unit})`, false)}
+                </div>
+                <p class="muted">Quartiles: Hyndman & Fan type 7. CI: Student t. Thickness bins: Freedman–Diaconis.</p>`}
           </section>`
         : nothing}
+      ${this.renderComparison()}
     `;
   }
 }

@@ -28,7 +28,27 @@ export interface RectDrawnDetail {
 export type OverlayShape =
   | ({ kind: 'line'; label?: string; tone?: 'accent' | 'info' | 'warn' } & LineDrawnDetail)
   | ({ kind: 'rect'; label?: string; tone?: 'accent' | 'info' | 'warn' } & RectDrawnDetail)
-  | { kind: 'point'; x: number; y: number; label?: string; tone?: 'accent' | 'info' | 'warn' };
+  | { kind: 'point'; x: number; y: number; label?: string; tone?: 'accent' | 'info' | 'warn' }
+  /** A closed outline (e.g. a sheet's); `id` makes it clickable: a click in pan mode emits `shape-click` {id}. */
+  | { kind: 'polygon'; points: [number, number][]; id?: string; label?: string; tone?: 'accent' | 'info' | 'warn'; selected?: boolean };
+
+/** Detail of `shape-click`: the id of the clicked polygon and the image point. */
+export interface ShapeClickDetail {
+  id: string;
+  x: number;
+  y: number;
+}
+
+/** Whether an image point lies inside a polygon (even–odd rule). */
+function insidePolygon(points: [number, number][], x: number, y: number): boolean {
+  let inside = false;
+  for (let i = 0, j = points.length - 1; i < points.length; j = i++) {
+    const [xi, yi] = points[i];
+    const [xj, yj] = points[j];
+    if (yi > y !== yj > y && x < ((xj - xi) * (y - yi)) / (yj - yi) + xi) inside = !inside;
+  }
+  return inside;
+}
 
 type Drag =
   | { mode: 'pan'; startX: number; startY: number; cx: number; cy: number }
@@ -58,7 +78,8 @@ function formatLimit(v: number, image: GreyImage | null): string {
  * Properties: `image`, `levels` (box-averaged pyramid below full resolution, optional),
  * `histogram` (optional; computed from the smallest level when absent), `tool`, `shapes`,
  * `lineWidthPx`, `lowPercent`, `highPercent`, `invert`.
- * Events: `line-drawn` (LineDrawnDetail), `rect-drawn` (RectDrawnDetail), `tool-changed`.
+ * Events: `line-drawn` (LineDrawnDetail), `rect-drawn` (RectDrawnDetail), `tool-changed`,
+ * `shape-click` (ShapeClickDetail: a click in pan mode on a polygon shape that has an id).
  */
 /** A picture laid over part of the image (see StrataViewer.overlayPicture). */
 export interface OverlayPicture {
@@ -447,6 +468,15 @@ export class StrataViewer extends LitElement {
     const d = this.drag;
     this.drag = null;
     (e.currentTarget as HTMLElement).releasePointerCapture?.(e.pointerId);
+    if (d?.mode === 'pan') {
+      // a click (no drag) on a clickable outline selects it
+      const [sx, sy] = this.stagePoint(e);
+      if (Math.hypot(sx - d.startX, sy - d.startY) < 4) {
+        const [ix, iy] = this.toImage(sx, sy);
+        const hit = [...this.shapes].reverse().find((q) => q.kind === 'polygon' && q.id && insidePolygon(q.points, ix, iy));
+        if (hit && hit.kind === 'polygon' && hit.id) this.dispatchEvent(new CustomEvent<ShapeClickDetail>('shape-click', { detail: { id: hit.id, x: ix, y: iy }, bubbles: true, composed: true }));
+      }
+    }
     if (!d || !this.draft) return;
     if (d.mode === 'line' || d.mode === 'width') {
       const l = this.draft as Extract<OverlayShape, { kind: 'line' }>;
@@ -626,6 +656,16 @@ export class StrataViewer extends LitElement {
         <circle cx=${ax} cy=${ay} r="3" fill=${tone}></circle><circle cx=${bx} cy=${by} r="3" fill=${tone}></circle>
         ${draft ? svg`<circle class="handle" cx=${mx} cy=${my} r="6" fill="#101418" stroke=${tone} stroke-width="2"><title>Drag to set the averaging width</title></circle>` : nothing}
         ${s.label ? svg`<text x=${bx + 6} y=${by - 6} fill=${tone} font-size="12">${s.label}</text>` : nothing}`;
+    }
+    if (s.kind === 'polygon') {
+      if (s.points.length < 2) return nothing;
+      const pts = s.points.map(([x, y]) => this.toScreen(x, y));
+      let lx = pts[0][0];
+      let ly = pts[0][1];
+      for (const [x, y] of pts) if (y < ly) { lx = x; ly = y; }
+      return svg`
+        <polygon points=${pts.map(([x, y]) => `${x},${y}`).join(' ')} fill=${tone} fill-opacity=${s.selected ? 0.25 : 0.08} stroke=${tone} stroke-width=${s.selected ? 2.5 : 1.2}></polygon>
+        ${s.label ? svg`<text x=${lx + 4} y=${ly - 4} fill=${tone} font-size="12">${s.label}</text>` : nothing}`;
     }
     if (s.kind === 'rect') {
       const [ax, ay] = this.toScreen(s.x, s.y);

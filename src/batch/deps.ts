@@ -13,6 +13,7 @@ import { createWorkspace, type Workspace } from '../image/workspace';
 import { checkSpectrumRegion } from '../image/size-limits';
 import type { Measurement, Region } from '../measure/measurement';
 import { toolOfRecipeStep } from '../measure/tools';
+import { expressSheet, sheetsOfMeasurement } from '../sheets/record';
 import type { BatchDeps } from './run';
 
 /** The registry's tool for a recipe step (every step of a valid recipe has one). */
@@ -74,8 +75,9 @@ export async function createBatchDeps(workspace: Workspace = createWorkspace(), 
     },
     sheets: async (image, region) => {
       const measurement: Measurement = await stepTool('sheets').run(image, region);
-      const sheets = (measurement.detail?.sheets ?? []) as { thicknessNm: number | null }[];
-      return { measurement, thicknessNm: sheets.map((s) => s.thicknessNm).filter((t): t is number => t !== null) };
+      // thickness in nm expressed late from the record's px and calibration (none uncalibrated)
+      const cal = measurement.calibration;
+      return { measurement, thicknessNm: cal ? sheetsOfMeasurement(measurement).map((s) => expressSheet(s, cal).thickness.value) : [] };
     },
     domains: (image, region) => stepTool('domains').run(image, region),
   };

@@ -1,58 +1,86 @@
 /**
- * `stratameter sheets IMAGE`: nanosheet thickness and layer counts, along a drawn line or found
- * automatically over the whole image, with their statistics.
+ * `stratameter sheets IMAGE`: stack thickness and layer counts, along a drawn line or found
+ * automatically over the whole image (or a region), with their statistics and, given a powder
+ * pattern, the comparison with the basal reflection's Scherrer size.
  */
 import { readFile } from 'node:fs/promises';
 import type { CliCommand, CliIo } from './command';
-import { parseArgs, UsageError } from './command';
+import { coverageFactorOption, parseArgs, UsageError } from './command';
 import { decodeImage, ImageReadError } from '../image/decode';
-import type { Calibration, GreyImage } from '../image/grey-image';
+import { makeGreyImage, type Calibration, type GreyImage } from '../image/grey-image';
 import { findScaleBar, type Box } from '../calibration/scale-bar';
-import { detectSheets, sheetStatistics } from '../sheets/detect';
+import { detectSheets, type AutoSheetsResult } from '../sheets/detect';
+import { MIN_COUNTABLE_PERIOD_PX } from '../sheets/limits';
 import { sheetsAlongLine } from '../sheets/line';
+import { budgetJson, formatPlusMinus, nmPerPxAlong } from '../measure/measurement';
 import type { Summary } from '../measure/stats';
-import { sheetSummary, type SheetSummary } from '../sheets/record';
+import { expressSheet, sheetFromAuto, sheetFromLine, sheetStatistics, THICKNESS_CONVENTION, type SheetReport } from '../sheets/record';
+import { basalLine, compareWithScherrer, type ScherrerComparison } from '../sheets/xrd-compare';
 import { INDICATED_MAGNIFICATION_REL, makeCalibration } from '../calibration/calibration';
 
-
 const usage = `Usage: stratameter sheets IMAGE [--nm-per-px X | --scale-bar auto] [--line x0,y0,x1,y1[,width]]
-                          [--period-px P] [--bright] [--json]
+                          [--region x,y,width,height] [--period-px P | --period-nm P] [--bright]
+                          [--xrd PATTERN [--wavelength W]] [--coverage-factor K] [--json]
 
-Counts the layers of nanosheets and measures their thickness. With --line, along that line
-(draw it across the stack, along the layer normal, starting and ending on background); without
-it, every sheet found automatically in the image (an information strip under a scale bar is
-skipped).
+Counts the layers of edge-on stacks (tactoids, few-layer crystals) and measures their thickness.
+With --line, along that line (draw it across the stacks, along the layer normal, starting and
+ending on background); without it, every stack found automatically in the image or the region
+(an information strip under a scale bar is skipped).
 
 Options:
   --nm-per-px X        pixel size in nm (replaces the file's calibration; 5 % uncertainty)
   --scale-bar auto     find the scale bar, read its label and calibrate from it
   --line x0,y0,x1,y1[,width]  line in pixels (y = row, downwards); width in px, default 9
-  --period-px P        expected layer period in px (default: estimated)
-  --bright             layers are bright fringes (default: dark, as in bright-field TEM)
+  --region x,y,w,h     search only this rectangle (pixels)
+  --period-px P        the layer period in px, when known (e.g. from X-ray diffraction)
+  --period-nm P        the layer period in nm (needs a calibration)
+  --bright             layers are bright lines (default: dark, as in bright-field TEM)
+  --xrd PATTERN        a powder pattern: compare the stacks' thickness with the Scherrer size
+                       of its basal reflection (the peak at the stacks' period)
+  --wavelength W       the pattern's wavelength when its header has none (e.g. CuKa1)
+  --coverage-factor K  k of the expanded uncertainty U = k·u (default 2)
   --json               one JSON object on standard output instead of a table
 
-Thickness = (last − first layer centre) + the sheet's mean period, i.e. layers × period.
-Edge-to-edge = distance between the half-maximum crossings of the fringe envelope.
-Angles: direction of the layer normal in degrees, 0 to 180, counter-clockwise from +x as the
-image is shown (x right, y up).
+Thickness = layers × the stack's layer period (n·d); the edge-to-edge width of the band (where
+its darkening falls to half) is given beside it. Every ± is an expanded uncertainty (k = 2
+unless --coverage-factor) and the line under the table says what it contains. Angles: the
+direction of the layer normal, 0 to 180°, counter-clockwise from +x as the image is shown.
+Results inform research; they do not replace an accredited calibration.
 `;
 
-/** One sheet in the JSON report. */
-export type SheetsReportSheet = SheetSummary;
+type StatBlock = Pick<Summary, 'n' | 'mean' | 'sd' | 'median' | 'q1' | 'q3' | 'min' | 'max' | 'ci95'>;
 
-type StatBlock = Pick<Summary, 'mean' | 'sd' | 'median' | 'q1' | 'q3' | 'min' | 'max' | 'ci95'>;
+/** One sheet in the JSON report: its px fields and its lengths with their budgets. */
+export interface SheetsReportSheet extends SheetReport {
+  thickness: Record<string, number | string>;
+  edgeToEdge: Record<string, number | string>;
+  period: Record<string, number | string>;
+  length: Record<string, number | string> | null;
+}
 
 /** The JSON shape printed by `sheets --json`. */
 export interface SheetsReport {
   file: string;
-  calibration: { nmPerPx: number | null; source: string | null; relUncertainty: number | null };
+  calibration: { nmPerPx: number | null; nmPerPxY: number | null; source: string | null; relUncertainty: number | null };
+  thicknessConvention: string;
+  coverageFactorK: number;
+  /** 'auto' over the image or region, or 'line'. */
+  mode: 'auto' | 'line';
+  region: [number, number, number, number] | null;
   sheets: SheetsReportSheet[];
-  stats: { n: number; thicknessNm: StatBlock | null; layers: StatBlock | null };
+  stats: { n: number; unit: 'nm' | 'px'; thickness: StatBlock | null; layers: StatBlock | null; layerCounts: [number, number][] };
+  /** The layer periods used, px. */
+  periodsPx: number[];
+  /** Bands examined and not reported, by reason (automatic search). */
+  rejected: Record<string, number>;
+  /** 'no stacks found' (or why) when there are none, else null. */
+  message: string | null;
+  xrd: ScherrerComparison | null;
 }
 
 function statBlock(s: Summary | null): StatBlock | null {
   if (!s) return null;
-  return { mean: s.mean, sd: s.sd, median: s.median, q1: s.q1, q3: s.q3, min: s.min, max: s.max, ci95: s.ci95 };
+  return { n: s.n, mean: s.mean, sd: s.sd, median: s.median, q1: s.q1, q3: s.q3, min: s.min, max: s.max, ci95: s.ci95 };
 }
 
 /** Parses "x0,y0,x1,y1[,width]". */
@@ -64,6 +92,18 @@ export function parseLine(text: string): { x0: number; y0: number; x1: number; y
   }
   if (parts.length === 5 && !(nums[4] >= 1)) throw new UsageError(`--line width must be ≥ 1 px, got '${parts[4]}'`);
   return { x0: nums[0], y0: nums[1], x1: nums[2], y1: nums[3], widthPx: parts.length === 5 ? nums[4] : 9 };
+}
+
+/** Parses "x,y,width,height" (whole pixels inside the image). */
+export function parseRegion(text: string, image: { width: number; height: number }): [number, number, number, number] {
+  const parts = text.split(',').map((s) => s.trim());
+  const nums = parts.map(Number);
+  if (parts.length !== 4 || nums.some((v, i) => !Number.isInteger(v) || parts[i] === '')) throw new UsageError(`--region must be x,y,width,height in whole pixels, got '${text}'`);
+  const [x, y, w, h] = nums;
+  if (x < 0 || y < 0 || w < 32 || h < 32 || x + w > image.width || y + h > image.height) {
+    throw new UsageError(`--region ${text} must lie inside the ${image.width} × ${image.height} image and be at least 32 × 32 px`);
+  }
+  return [x, y, w, h];
 }
 
 async function scaleBarCalibration(image: GreyImage): Promise<Calibration> {
@@ -80,83 +120,179 @@ async function scaleBarCalibration(image: GreyImage): Promise<Calibration> {
   }
 }
 
+/** A rectangle of an image as an image of its own (same calibration). */
+function crop(image: GreyImage, [x, y, w, h]: [number, number, number, number]): GreyImage {
+  const data = new Float32Array(w * h);
+  for (let r = 0; r < h; r++) data.set(image.data.subarray((y + r) * image.width + x, (y + r) * image.width + x + w), r * w);
+  return makeGreyImage(w, h, data, { bitDepth: image.bitDepth, sampleKind: image.sampleKind, calibration: image.calibration });
+}
+
+/** Automatic sheets over an image or a region of it, positions in the image's pixels. */
+export function sheetsInRegion(image: GreyImage, region: [number, number, number, number] | null, options: { periodPx?: number; polarity: 'dark' | 'bright' }): { result: AutoSheetsResult; excluded: Box | null } {
+  let exclude: Box | null = null;
+  if (!region) {
+    const bar = findScaleBar(image);
+    exclude = bar ? bar.stripBox ?? bar.panelBox : null;
+  }
+  const target = region ? crop(image, region) : image;
+  const r = detectSheets(target, { periodPx: options.periodPx, polarity: options.polarity, exclude });
+  if (!region) return { result: r, excluded: exclude };
+  const [dx, dy] = region;
+  const shift = (p: [number, number]): [number, number] => [p[0] + dx, p[1] + dy];
+  return {
+    result: {
+      ...r,
+      sheets: r.sheets.map((s) => ({ ...s, centerPx: shift(s.centerPx), axisPx: s.axisPx.map(shift), outlinePx: s.outlinePx.map(shift), positions: s.positions.map((q) => ({ ...q, centerPx: shift(q.centerPx) })) })),
+      rejected: r.rejected.map((q) => ({ ...q, centerPx: shift(q.centerPx) })),
+    },
+    excluded: null,
+  };
+}
+
+/** The X-ray comparison from a pattern file. */
+async function xrdComparison(path: string, wavelength: string | undefined, sheets: SheetReport[], calibration: Calibration | null): Promise<{ comparison: ScherrerComparison | null; note: string | null }> {
+  const { readPatternFile } = await import('../diffraction/read-pattern');
+  const { analysePattern } = await import('../diffraction/analyse');
+  let text: string;
+  try {
+    text = await readFile(path, 'utf8');
+  } catch (e) {
+    throw new UsageError(`${path}: ${(e as NodeJS.ErrnoException).code === 'ENOENT' ? 'no such file' : (e as Error).message}`);
+  }
+  const pattern = readPatternFile(text, path, { wavelength });
+  if (pattern.axis === 'twoTheta' && pattern.wavelengthNm === null) throw new UsageError(`${path}: no wavelength in the header; give --wavelength (e.g. CuKa1)`);
+  if (!calibration) return { comparison: null, note: 'the X-ray comparison needs a calibrated image (nm): give --nm-per-px or --scale-bar auto' };
+  const kept = sheets.filter((s) => s.status !== 'rejected');
+  if (kept.length < 2) return { comparison: null, note: 'the X-ray comparison needs at least two stacks' };
+  const expressed = kept.map((s) => ({ s, e: expressSheet(s, calibration) }));
+  const periodNm = expressed.reduce((a, q) => a + q.e.period.value, 0) / expressed.length;
+  const analysis = analysePattern(pattern);
+  const line = basalLine(analysis.peaks.map((p) => ({ dNm: p.dNm, crystalliteNm: p.crystalliteNm, crystalliteUncNm: p.crystalliteUncNm, label: p.twoThetaDeg !== null ? `${p.twoThetaDeg.toFixed(3)}° 2θ` : `q ${p.qInvNm.toFixed(3)} nm⁻¹` })), periodNm);
+  if (!line) return { comparison: null, note: `no reflection with a Scherrer size near the stacks' period (${periodNm.toFixed(3)} nm) in ${path}` };
+  const comparison = compareWithScherrer(
+    expressed.map(({ s, e }) => ({ thicknessNm: e.thickness.value, layers: s.layers, lengthWeight: e.length?.value ?? 1 })),
+    { sizeNm: line.crystalliteNm!, uSizeNm: line.crystalliteUncNm ?? null, dNm: line.dNm, source: `${path}, peak at ${line.label} (d = ${line.dNm.toFixed(4)} nm); ${analysis.sizeMethod}` },
+  );
+  return { comparison, note: null };
+}
+
 /** Runs the measurement and builds the report. */
 export async function sheetsReport(
   file: string,
   image: GreyImage,
-  opts: { line?: ReturnType<typeof parseLine>; periodPx?: number; bright?: boolean },
+  opts: { line?: ReturnType<typeof parseLine>; region?: [number, number, number, number] | null; periodPx?: number; bright?: boolean; k?: number; xrd?: string; wavelength?: string },
 ): Promise<{ report: SheetsReport; notes: string[] }> {
   const notes: string[] = [];
   const cal = image.calibration;
+  const k = opts.k ?? 2;
   const polarity = opts.bright ? ('bright' as const) : ('dark' as const);
-  let sheets: SheetsReportSheet[];
-  let stats: ReturnType<typeof sheetStatistics>;
+  let sheets: SheetReport[];
+  let periodsPx: number[] = [];
+  let rejected: Record<string, number> = {};
+  let message: string | null = null;
   if (opts.line) {
     const { x0, y0, x1, y1, widthPx } = opts.line;
-    const r = sheetsAlongLine(image, x0, y0, x1, y1, { widthPx, periodPx: opts.periodPx, polarity });
-    sheets = r.sheets.map((s) => sheetSummary(s, s.centerXY));
-    if (r.sheets.some((s) => s.truncated)) notes.push('a sheet touches an end of the line: extend the line onto background');
-    stats = sheetStatistics(r.sheets.map((s) => ({ ...s, status: 'manual' as const })));
+    let periods: number[] | undefined;
+    if (opts.periodPx === undefined) {
+      // the image's periods from its stacks, unless the line's own fringes must do
+      const auto = detectSheets(image, { polarity });
+      periods = auto.periods.map((p) => p.periodPx);
+      if (periods.length) notes.push(`period from the image's stacks: ${periods.map((d) => d.toFixed(3)).join(', ')} px`);
+    }
+    const r = sheetsAlongLine(image, x0, y0, x1, y1, { widthPx, periodPx: opts.periodPx, periods, polarity });
+    sheets = r.sheets.map((s, i) => sheetFromLine(s, `line-${i + 1}`));
+    if (r.periodPx !== null) periodsPx = [r.periodPx];
+    message = r.message;
   } else {
-    const bar = findScaleBar(image);
-    const box: Box | null = bar ? bar.stripBox ?? bar.panelBox : null;
-    if (box) notes.push(`skipped the scale-bar panel at x ${box[0]}, y ${box[1]}, ${box[2]} × ${box[3]} px`);
-    const r = detectSheets(image, { periodPx: opts.periodPx, polarity, exclude: box });
-    sheets = r.sheets.map((s) => sheetSummary(s, s.centerPx));
-    stats = sheetStatistics(r.sheets);
+    const { result, excluded } = sheetsInRegion(image, opts.region ?? null, { periodPx: opts.periodPx, polarity });
+    if (excluded) notes.push(`skipped the scale-bar panel at x ${excluded[0]}, y ${excluded[1]}, ${excluded[2]} × ${excluded[3]} px`);
+    sheets = result.sheets.map(sheetFromAuto);
+    periodsPx = result.periods.map((p) => p.periodPx);
+    for (const q of result.rejected) {
+      const key = q.reason.replace(/[0-9.]+/g, '#');
+      rejected[key] = (rejected[key] ?? 0) + 1;
+    }
+    message = result.message;
   }
   if (!cal) notes.push('no calibration: lengths in px only (set one with --nm-per-px or --scale-bar auto)');
+  const stats = sheetStatistics(sheets.map((sheet) => ({ sheet, calibration: cal })));
+  let xrd: ScherrerComparison | null = null;
+  if (opts.xrd) {
+    const x = await xrdComparison(opts.xrd, opts.wavelength, sheets, cal);
+    xrd = x.comparison;
+    if (x.note) notes.push(x.note);
+  }
+  const out: SheetsReportSheet[] = sheets.map((s) => {
+    const e = expressSheet(s, cal, k);
+    return { ...s, thickness: budgetJson(e.thickness, 'thickness'), edgeToEdge: budgetJson(e.edgeToEdge, 'edgeToEdge'), period: budgetJson(e.period, 'period'), length: e.length ? budgetJson(e.length, 'length') : null };
+  });
   return {
     report: {
       file,
-      calibration: { nmPerPx: cal?.nmPerPx ?? null, source: cal?.source ?? null, relUncertainty: cal?.relUncertainty ?? null },
-      sheets,
-      stats: { n: stats.n, thicknessNm: statBlock(stats.thicknessNm), layers: statBlock(stats.layers) },
+      calibration: { nmPerPx: cal?.nmPerPx ?? null, nmPerPxY: cal?.nmPerPxY ?? null, source: cal?.source ?? null, relUncertainty: cal?.relUncertainty ?? null },
+      thicknessConvention: THICKNESS_CONVENTION,
+      coverageFactorK: k,
+      mode: opts.line ? 'line' : 'auto',
+      region: opts.region ?? null,
+      sheets: out,
+      stats: { n: stats.n, unit: stats.unit, thickness: statBlock(stats.thickness), layers: statBlock(stats.layers), layerCounts: stats.layerCounts },
+      periodsPx,
+      rejected,
+      message,
+      xrd,
     },
     notes,
   };
 }
 
-function fmt(v: number | null, digits = 2): string {
-  return v === null ? '—' : v.toFixed(digits);
-}
-
 /** The report as a readable table. */
 export function formatSheets(r: SheetsReport, notes: string[]): string {
   const c = r.calibration;
-  const lines = [`file         ${r.file}`];
+  const lines = [`file         ${r.file}${r.region ? ` (region x ${r.region[0]}, y ${r.region[1]}, ${r.region[2]} × ${r.region[3]} px)` : ''}`];
   lines.push(
     c.nmPerPx !== null
       ? `calibration  ${Number(c.nmPerPx.toPrecision(6))} nm per pixel, ±${Number(((c.relUncertainty ?? 0) * 100).toPrecision(3))} % (source: ${c.source})`
       : 'calibration  none',
   );
+  if (r.periodsPx.length) lines.push(`period       ${r.periodsPx.map((d) => `${d.toFixed(3)} px`).join(', ')} (layer period${r.periodsPx.length > 1 ? 's' : ''} found)`);
   lines.push('');
   if (r.sheets.length === 0) {
-    lines.push('no sheets found');
+    lines.push(`${r.message ?? 'no stacks found'}`);
   } else {
-    const head = ['#', 'layers', 'thickness (px)', 'thickness (nm)', 'edge-to-edge (nm)', 'period (nm)', 'angle (°)', 'centre (px)'];
+    const unit = r.sheets[0].thickness.uncertaintyContains !== undefined && c.nmPerPx !== null ? 'nm' : 'px';
+    const v = (b: Record<string, number | string>, name: string) => formatPlusMinus(b[`${name}${unit === 'nm' ? 'Nm' : 'Px'}`] as number, b[`expandedUncertainty${unit === 'nm' ? 'Nm' : 'Px'}`] as number);
+    const head = ['#', 'layers', `thickness n·d (${unit})`, `edge-to-edge (${unit})`, `period (${unit})`, 'agree', `length (${unit})`, 'angle (°)', 'centre (px)'];
     const rows = r.sheets.map((s, i) => [
       String(i + 1),
-      String(s.layers),
-      s.thicknessPx.toFixed(1),
-      fmt(s.thicknessNm),
-      fmt(s.edgeToEdgeNm),
-      fmt(s.periodNm, 3),
+      String(s.layers) + (s.correction ? ` (was ${s.correction.originalLayers})` : ''),
+      v(s.thickness, 'thickness'),
+      Number((s.edgeToEdge[`edgeToEdge${unit === 'nm' ? 'Nm' : 'Px'}`] as number).toPrecision(4)).toString(),
+      v(s.period, 'period'),
+      s.confidence === null ? '—' : `${Math.round(100 * s.confidence)} %`,
+      s.length ? (s.length[`length${unit === 'nm' ? 'Nm' : 'Px'}`] as number).toFixed(0) : '—',
       s.angleDeg.toFixed(1),
       `${s.centerPx[0].toFixed(0)}, ${s.centerPx[1].toFixed(0)}`,
     ]);
     const widths = head.map((h, k) => Math.max(h.length, ...rows.map((row) => row[k].length)));
     lines.push(head.map((h, k) => h.padStart(widths[k])).join('  '));
-    for (const row of rows) lines.push(row.map((v, k) => v.padStart(widths[k])).join('  '));
+    for (const row of rows) lines.push(row.map((x, k) => x.padStart(widths[k])).join('  '));
+    lines.push(`± is k = ${r.coverageFactorK}: ${r.sheets[0].thickness.uncertaintyContains} (thickness); the period's ± (${r.sheets[0].period.uncertaintyContains}); 'agree' is the share of the positions along a stack that gave its count.`);
+    lines.push(`thickness    ${r.thicknessConvention}`);
     lines.push('');
-    const t = r.stats.thicknessNm;
+    const t = r.stats.thickness;
     const l = r.stats.layers;
     lines.push(`sheets       ${r.stats.n}`);
-    if (l) lines.push(`layers       mean ${l.mean.toFixed(2)}, sd ${l.sd.toFixed(2)}, median ${l.median}, range ${l.min}–${l.max}`);
+    if (l) lines.push(`layers       mean ${l.mean.toFixed(2)}, sd ${l.sd.toFixed(2)}, median ${l.median}, range ${l.min}–${l.max}; by count ${r.stats.layerCounts.map(([n, m]) => `${n}: ${m}`).join(', ')}`);
     if (t) {
       const ci = t.ci95 ? `, 95 % CI of the mean ${t.ci95[0].toFixed(2)}–${t.ci95[1].toFixed(2)}` : '';
-      lines.push(`thickness    mean ${t.mean.toFixed(2)} nm, sd ${t.sd.toFixed(2)}, median ${t.median.toFixed(2)} (quartiles ${t.q1.toFixed(2)}–${t.q3.toFixed(2)})${ci}`);
+      lines.push(`thickness    mean ${t.mean.toFixed(2)} ${r.stats.unit}, sd ${t.sd.toFixed(2)}, median ${t.median.toFixed(2)} (quartiles ${t.q1.toFixed(2)}–${t.q3.toFixed(2)})${ci}`);
     }
+  }
+  const rej = Object.entries(r.rejected);
+  if (rej.length) lines.push(`not reported ${rej.map(([k, n]) => `${n} × ${k}`).join('; ')}`);
+  if (r.xrd) {
+    lines.push('');
+    lines.push(`X-ray        ${r.xrd.statement}`);
   }
   for (const n of notes) lines.push(`note: ${n}`);
   return `${lines.join('\n')}\n`;
@@ -164,26 +300,25 @@ export function formatSheets(r: SheetsReport, notes: string[]): string {
 
 export const command: CliCommand = {
   name: 'sheets',
-  summary: 'nanosheet thickness and layer counts, along a line or found automatically',
+  summary: 'stack thickness and layer counts, along a line or found automatically',
   usage,
   async run(args: string[], io: CliIo): Promise<number> {
     const { positional, options, flags } = parseArgs(args, {
-      values: ['nm-per-px', 'scale-bar', 'line', 'period-px'],
+      values: ['nm-per-px', 'scale-bar', 'line', 'region', 'period-px', 'period-nm', 'xrd', 'wavelength', 'coverage-factor'],
       booleans: ['json', 'bright'],
     });
     if (positional.length !== 1) throw new UsageError(`expected one IMAGE, got ${positional.length}: see 'stratameter sheets --help'`);
     if (options.has('nm-per-px') && options.has('scale-bar')) throw new UsageError('give --nm-per-px or --scale-bar auto, not both');
+    if (options.has('period-px') && options.has('period-nm')) throw new UsageError('give --period-px or --period-nm, not both');
+    if (options.has('line') && options.has('region')) throw new UsageError('give --line or --region, not both');
+    if (options.has('wavelength') && !options.has('xrd')) throw new UsageError('--wavelength belongs to --xrd PATTERN');
+    const k = coverageFactorOption(options.get('coverage-factor'));
     const scaleBar = options.get('scale-bar');
     if (scaleBar !== undefined && scaleBar !== 'auto') throw new UsageError(`--scale-bar takes 'auto', got '${scaleBar}'`);
     let nmPerPx: number | undefined;
     if (options.has('nm-per-px')) {
       nmPerPx = Number(options.get('nm-per-px'));
       if (!(nmPerPx > 0 && Number.isFinite(nmPerPx))) throw new UsageError(`--nm-per-px must be a positive number, got '${options.get('nm-per-px')}'`);
-    }
-    let periodPx: number | undefined;
-    if (options.has('period-px')) {
-      periodPx = Number(options.get('period-px'));
-      if (!(periodPx >= 2 && Number.isFinite(periodPx))) throw new UsageError(`--period-px must be a number ≥ 2, got '${options.get('period-px')}'`);
     }
     const line = options.has('line') ? parseLine(options.get('line')!) : undefined;
     const file = positional[0];
@@ -200,15 +335,38 @@ export const command: CliCommand = {
     } else if (scaleBar === 'auto') {
       image.calibration = await scaleBarCalibration(image);
     }
+    const region = options.has('region') ? parseRegion(options.get('region')!, image) : null;
     if (line) {
-      for (const [k, v, max] of [['x0', line.x0, image.width], ['x1', line.x1, image.width], ['y0', line.y0, image.height], ['y1', line.y1, image.height]] as const) {
-        if (v < 0 || v > max - 1) throw new UsageError(`--line ${k} = ${v} lies outside the ${image.width} × ${image.height} image`);
+      for (const [key, v, max] of [['x0', line.x0, image.width], ['x1', line.x1, image.width], ['y0', line.y0, image.height], ['y1', line.y1, image.height]] as const) {
+        if (v < 0 || v > max - 1) throw new UsageError(`--line ${key} = ${v} lies outside the ${image.width} × ${image.height} image`);
       }
     }
-    const { report, notes } = await sheetsReport(file, image, { line, periodPx, bright: flags.has('bright') });
-    if (flags.has('json')) io.out(`${JSON.stringify(report)}\n`);
-    else io.out(formatSheets(report, notes));
-    if (flags.has('json')) for (const n of notes) io.err(`note: ${n}\n`);
+    const extraNotes: string[] = [];
+    let periodPx: number | undefined;
+    if (options.has('period-px')) {
+      periodPx = Number(options.get('period-px'));
+      if (!Number.isFinite(periodPx)) throw new UsageError(`--period-px must be a number, got '${options.get('period-px')}'`);
+    } else if (options.has('period-nm')) {
+      const nm = Number(options.get('period-nm'));
+      if (!(nm > 0 && Number.isFinite(nm))) throw new UsageError(`--period-nm must be a positive number, got '${options.get('period-nm')}'`);
+      const cal = image.calibration;
+      if (!cal) throw new UsageError('--period-nm needs a calibrated image: give --nm-per-px or --scale-bar auto, or use --period-px');
+      const square = (cal.nmPerPxY ?? cal.nmPerPx) === cal.nmPerPx && !cal.shearDeg;
+      // with unequal pixel axes a spacing in px depends on its direction: the mean scale of the two axes
+      const scale = square ? cal.nmPerPx : nmPerPxAlong(cal, 'ring', 0);
+      periodPx = nm / scale;
+      if (!square) extraNotes.push(`the pixels are not square: --period-nm converted with the mean scale of the two axes (${scale.toPrecision(5)} nm/px); give --period-px for one direction`);
+    }
+    if (periodPx !== undefined) {
+      if (periodPx < 2) throw new UsageError(`the period is ${periodPx.toFixed(3)} px, below the sampling limit of 2 px (Nyquist): no layer of it can be resolved in this image`);
+      if (periodPx < MIN_COUNTABLE_PERIOD_PX) throw new UsageError(`the period is ${periodPx.toFixed(3)} px, below ${MIN_COUNTABLE_PERIOD_PX} px where layers can be counted reliably: use an image of higher magnification`);
+    }
+    const { report, notes } = await sheetsReport(file, image, { line, region, periodPx, bright: flags.has('bright'), k, xrd: options.get('xrd'), wavelength: options.get('wavelength') });
+    notes.push(...extraNotes);
+    if (flags.has('json')) {
+      io.out(`${JSON.stringify(report)}\n`);
+      for (const n of notes) io.err(`note: ${n}\n`);
+    } else io.out(formatSheets(report, notes));
     return 0;
   },
 };

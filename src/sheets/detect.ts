@@ -1,508 +1,843 @@
 /**
- * Automatic sheets over an image: where the image is locally periodic (structure-tensor
- * coherence), connected regions of consistent layer orientation are measured perpendicular to
- * their layers at several places along them, following the local normal of bent sheets.
+ * Every edge-on stack of layers in an image, with its layer count, thickness, period, length,
+ * orientation, outline and the confidence of its count.
+ *
+ * 1. Candidate axes: ridges of the scale-normalised Hessian over scale space (./ridges): a stack
+ *    is a band darker than the film (mass-thickness contrast) or a band of fringes; crossing
+ *    stacks are followed through the crossing, bent ones along their curvature.
+ * 2. Along each axis, profiles across the stack follow its local normal (./stack-profile); the
+ *    band where it lies is found on the profile averaged over its whole length, touching stacks
+ *    being separate bands.
+ * 3. The layer period: given (e.g. from X-ray diffraction), or the peaks of the summed
+ *    periodograms of all the candidates' profiles (one or more phases); each stack takes the
+ *    period whose comb of layer lines fits it best and refines it from its own fringes.
+ * 4. Layers are counted by fitting that comb on width-averaged profiles at several positions
+ *    along the stack; the count is the most frequent one, and the share of positions that agree
+ *    is its confidence. Mono- and bilayers are combs of one or two lines: found by their contrast.
+ * 5. Rejected: a period below the smallest countable one (2.5 px) or outside the user's range, a
+ *    two-dimensional lattice (the band is periodic along its axis as well), a band without
+ *    resolved layers (film texture), a band that does not persist along its axis.
  */
 import type { GreyImage } from '../image/grey-image';
-import { periodCandidates, profilePeriodogram, sheetsAlongProfile, type SheetProfileOptions } from './profile';
-import { sheetsAlongLine, type LineSheet } from './line';
-import { lineProfile } from '../measure/profile';
-import { axialDifferenceDeg, structureTensor, type OrientationField } from './structure-tensor';
-import { summarize, type Summary } from '../measure/stats';
+import type { UncertaintyPx } from '../measure/measurement';
+import { periodCandidates, profilePeriodogram } from './profile';
+import { MIN_COUNTABLE_PERIOD_PX } from './limits';
+import { resamplePolyline, ridgeAxes, type RidgeAxis } from './ridges';
+import { acrossFringePower, bestPeriod, edgeToEdge, fringePowerAt, indexAt, layersResolved, periodicAlongAxis, refinePeriod, splitBand } from './count';
+import { acrossProfile, axisFrame, robustAcrossProfile, fitLayerComb, profileBands, smoothProfile, type AcrossProfile, type AxisFrame, type CombFit, type ProfileBand } from './stack-profile';
 
-/** Review state of a sheet in the app: automatic, accepted or rejected by the user, or drawn/corrected by hand. */
+/** Review state of a sheet: automatic, accepted or rejected by the user, drawn by hand, or its count corrected by the user. */
 export type SheetStatus = 'auto' | 'accepted' | 'rejected' | 'manual' | 'corrected';
 
-/** Options for `detectSheets`. */
-export interface AutoSheetOptions extends Pick<SheetProfileOptions, 'polarity' | 'relBandwidth' | 'snrThreshold' | 'minLayers' | 'spacingTolerance'> {
-  /** Expected layer period, px; default: estimated for each region from its central profile. */
+export { MIN_COUNTABLE_PERIOD_PX };
+
+/** Options for {@link detectSheets}. */
+export interface AutoSheetOptions {
+  /** The layer period, px, when known (e.g. from the basal X-ray reflection); default: found in the image. */
   periodPx?: number;
-  /** Shortest period searched, px (default 2.2). */
+  /** Sheets with a period below this are rejected, px (default 2.5, the least that is countable). */
   minPeriodPx?: number;
-  /** Longest period searched, px (default 40). */
+  /** Sheets with a period above this are rejected, px (default 40). */
   maxPeriodPx?: number;
-  /** Integration scale of the structure tensor, px (default 1.5 × periodPx, or 6). */
-  integrationSigmaPx?: number;
-  /** Coherence above which a pixel counts as locally layered (default 0.45). */
-  coherenceThreshold?: number;
-  /** Neighbouring layered pixels join one region when their normals differ by less than this (default 12°). */
-  angleToleranceDeg?: number;
-  /** Regions smaller than this area are ignored, px² (default 400). */
-  minAreaPx?: number;
-  /** Measurement lines per region along its layers (default 5). */
-  linesPerSheet?: number;
-  /** Width of each measurement line, px (default: 0.6 × the spacing of the lines, within 7–25). */
-  lineWidthPx?: number;
-  /** Standard deviation of the structure tensor's derivative filters, px (default 1; fine fringes still orient a region through the edges of their stack). */
-  gradientSigmaPx?: number;
-  /** A box [x, y, width, height] in px that is skipped (e.g. the information strip under a scale bar). */
+  /** Layers are dark lines ('dark', bright-field, default) or bright ones. */
+  polarity?: 'dark' | 'bright';
+  /** A box [x, y, width, height] in px that is not searched (e.g. the information strip under a scale bar). */
   exclude?: [number, number, number, number] | null;
+  /** Shortest stack reported, px along its axis (default 30). */
+  minLengthPx?: number;
+  /** Profiles along each stack: one per this many px of its length, at least 3 and at most 9 (default 40). */
+  positionSpacingPx?: number;
+  /** Evidence (Δχ² of the comb over the bare background on the length-averaged profile) a stack needs (default 60). */
+  minEvidence?: number;
 }
 
-/** One measurement line of an automatic sheet. */
-export interface SheetCrossing {
-  /** Sheet centre on this line, px [x, y]. */
+/** One position along a stack where its layers were counted. */
+export interface SheetPosition {
+  /** Centre of the stack at this position, image px [x, y] (y = row). */
   centerPx: [number, number];
-  layers: number;
-  thicknessPx: number;
-  periodPx: number;
-  /** Local layer normal, degrees. */
+  /** Direction of the local layer normal, degrees in [0, 180), counter-clockwise from +x as shown. */
   angleDeg: number;
+  /** Layer count here (null: no comb fitted). */
+  layers: number | null;
+  /** Evidence for a stack here (Δχ² over the bare background). */
+  evidence: number;
 }
 
-/** A sheet found automatically (or reviewed by the user). */
+/** A sheet (stack of layers) found automatically, or drawn or reviewed by the user. Lengths in px. */
 export interface AutoSheet {
   /** Identifier unique within one detection run. */
   id: string;
   status: SheetStatus;
-  /** Layer count: the most frequent count over the measurement lines. */
+  /** Number of layers: the most frequent count over the positions. */
   layers: number;
-  /** Median thickness (layers × period) over the lines that agree with the layer count, px and nm. */
+  /** Thickness by the n·d convention (layers × period), px. */
   thicknessPx: number;
-  thicknessNm: number | null;
-  /** Median edge-to-edge distance between half-maximum crossings, px and nm. */
+  /** Its standard uncertainties (k = 1) by part, px: the period's uncertainty times n; the spread of the positions' n·d over √positions. */
+  uThicknessPx: UncertaintyPx;
+  /** Edge-to-edge width of the band (where its darkening falls to half), px: the other convention; mean over the positions. */
   edgeToEdgePx: number;
-  edgeToEdgeNm: number | null;
-  /** Mean layer period over the lines, px and nm. */
+  /** The layer period used, px, and its standard uncertainties. */
   periodPx: number;
-  periodNm: number | null;
-  /** Mean direction of the layer normal, degrees in [0, 180), CCW from +x on screen. */
+  uPeriodPx: UncertaintyPx;
+  /** Where the period came from: given by the user, refined from this stack's own fringes, or the image's period (thin stacks). */
+  periodSource: 'given' | 'stack' | 'image';
+  /** Direction of the layer normal at the centre, degrees in [0, 180), counter-clockwise from +x as shown (x right, y up). */
   angleDeg: number;
-  /** Mean of the line centres, px [x, y] (y = row). */
+  /** Centre of the stack, image px [x, y] (y = row). */
   centerPx: [number, number];
-  /** Outline polygon in px: the edge points on one side of the lines, then the other side back. */
+  /** The stack's axis (middle of its thickness), image px, about 2 px apart. */
+  axisPx: [number, number][];
+  /** Outline polygon, image px: one edge along the axis, then the other back. */
   outlinePx: [number, number][];
-  /** Extent along the layers covered by the measurement lines, px. */
+  /** Length along the axis, px. */
   lengthPx: number;
-  /** The individual measurement lines. */
-  crossings: SheetCrossing[];
+  /** Share of the counted positions that agree with the count (0–1). */
+  confidence: number;
+  /** Evidence for the stack on its length-averaged profile (Δχ² over the bare background). */
+  evidence: number;
+  /** The positions where layers were counted. */
+  positions: SheetPosition[];
+  /** Notes on this sheet (e.g. a period near the sampling limit). */
+  notes: string[];
 }
 
-/** The result of `detectSheets`. */
+/** A stack-like band that was not reported, with why. */
+export interface RejectedBand {
+  centerPx: [number, number];
+  angleDeg: number;
+  /** Its layer count and period where one was fitted. */
+  layers: number | null;
+  periodPx: number | null;
+  reason: string;
+}
+
+/** One layer period of the image. */
+export interface ImagePeriod {
+  periodPx: number;
+  /** 'given' by the user or 'found' in the image. */
+  source: 'given' | 'found';
+  /** Stacks that use it. */
+  sheets: number;
+}
+
+/** The result of {@link detectSheets}. */
 export interface AutoSheetsResult {
   sheets: AutoSheet[];
-  /** Number of layered regions examined. */
-  regions: number;
-  /** The settings used (resolved defaults). */
+  /** Bands examined and not reported, with the reason (amorphous texture, crossed lattice, period out of range...). */
+  rejected: RejectedBand[];
+  /** The layer periods found in (or given for) the image. */
+  periods: ImagePeriod[];
+  /** Number of candidate axes examined. */
+  candidates: number;
+  /** A plain statement when nothing was found ('no stacks found'), else null. */
+  message: string | null;
+  /** The settings used (defaults resolved). */
   settings: Record<string, unknown>;
 }
 
-class UnionFind {
-  parent: Int32Array;
-  constructor(n: number) {
-    this.parent = new Int32Array(n);
-    for (let i = 0; i < n; i++) this.parent[i] = i;
-  }
-  find(i: number): number {
-    const p = this.parent;
-    while (p[i] !== i) {
-      p[i] = p[p[i]];
-      i = p[i];
-    }
-    return i;
-  }
-  union(a: number, b: number): void {
-    const ra = this.find(a);
-    const rb = this.find(b);
-    if (ra !== rb) this.parent[ra] = rb;
-  }
+const DEG = 180 / Math.PI;
+
+function screenAngleDeg(nx: number, ny: number): number {
+  const a = Math.atan2(-ny, nx) * DEG;
+  return ((a % 180) + 180) % 180;
 }
 
-function axialMeanDeg(angles: number[], weights: number[]): number {
-  let c = 0;
-  let s = 0;
-  angles.forEach((a, i) => {
-    c += weights[i] * Math.cos((2 * a * Math.PI) / 180);
-    s += weights[i] * Math.sin((2 * a * Math.PI) / 180);
-  });
-  const deg = ((Math.atan2(s, c) * 180) / Math.PI) / 2;
-  return ((deg % 180) + 180) % 180;
-}
-
-function median(v: number[]): number {
-  const s = [...v].sort((a, b) => a - b);
-  const m = s.length >> 1;
-  return s.length % 2 ? s[m] : 0.5 * (s[m - 1] + s[m]);
-}
-
-/** Most frequent value; ties go to the largest tied value (a dropped edge layer, below the half-maximum, is the commoner error). */
-function modeCount(v: number[]): number {
-  const counts = new Map<number, number>();
-  for (const x of v) counts.set(x, (counts.get(x) ?? 0) + 1);
-  const top = Math.max(...counts.values());
-  const tied = [...counts].filter(([, c]) => c === top).map(([x]) => x).sort((a, b) => a - b);
-  return tied[tied.length - 1];
+function axialDiff(a: number, b: number): number {
+  const d = Math.abs((((a - b) % 180) + 180) % 180);
+  return Math.min(d, 180 - d);
 }
 
 function inBox(x: number, y: number, box: [number, number, number, number] | null | undefined): boolean {
   return !!box && x >= box[0] && x < box[0] + box[2] && y >= box[1] && y < box[1] + box[3];
 }
 
+/** Most frequent value; ties go to `prefer` when it is among them, else to the larger. */
+function modeCount(v: number[], prefer: number): number {
+  const counts = new Map<number, number>();
+  for (const x of v) counts.set(x, (counts.get(x) ?? 0) + 1);
+  const top = Math.max(...counts.values());
+  const tied = [...counts].filter(([, c]) => c === top).map(([x]) => x);
+  if (tied.includes(prefer)) return prefer;
+  return Math.max(...tied);
+}
+
+/** A polyline shifted along its normals by offsets (one per point, or one for all). */
+function shiftAxis(frame: AxisFrame, offset: (i: number) => number): [number, number][] {
+  return frame.points.map((p, i) => [p[0] + offset(i) * frame.normals[i][0], p[1] + offset(i) * frame.normals[i][1]]);
+}
+
+/** A coarse grid of the accepted stacks' bands, to skip candidates that lie on one already measured. */
+class Coverage {
+  private cells = new Map<number, { sheet: number; angleDeg: number }[]>();
+  constructor(private cellPx: number) {}
+  private key(x: number, y: number): number {
+    return Math.floor(y / this.cellPx) * 100003 + Math.floor(x / this.cellPx);
+  }
+  add(sheet: number, frame: AxisFrame, centreOffset: number, halfWidth: number, angleAt: (i: number) => number): void {
+    for (let i = 0; i < frame.points.length; i++) {
+      const [px, py] = frame.points[i];
+      const [nx, ny] = frame.normals[i];
+      for (let u = -halfWidth; u <= halfWidth; u += this.cellPx / 2) {
+        const k = this.key(px + (centreOffset + u) * nx, py + (centreOffset + u) * ny);
+        let list = this.cells.get(k);
+        if (!list) this.cells.set(k, (list = []));
+        if (!list.some((e) => e.sheet === sheet)) list.push({ sheet, angleDeg: angleAt(i) });
+      }
+    }
+  }
+  /** Share of the points that lie on one sheet of similar orientation, and that sheet. */
+  covered(points: [number, number][], angleAt: (i: number) => number, toleranceDeg: number): { share: number; sheet: number } {
+    const hits = new Map<number, number>();
+    points.forEach((p, i) => {
+      const list = this.cells.get(this.key(p[0], p[1]));
+      if (!list) return;
+      for (const e of list) if (axialDiff(e.angleDeg, angleAt(i)) < toleranceDeg) hits.set(e.sheet, (hits.get(e.sheet) ?? 0) + 1);
+    });
+    let best = -1;
+    let bestN = 0;
+    for (const [s, n] of hits) if (n > bestN) { best = s; bestN = n; }
+    return { share: points.length ? bestN / points.length : 0, sheet: best };
+  }
+}
+
+/** The length-averaged profile of a candidate, grown until its band has background on both sides. */
+interface Survey {
+  axis: RidgeAxis;
+  frame: AxisFrame;
+  profile: AcrossProfile;
+  band: ProfileBand | null;
+  others: ProfileBand[];
+}
+
+export function survey(image: GreyImage, axis: RidgeAxis, polarity: 'dark' | 'bright', periodPx: number | null, frame = axisFrame(axis.points)): Survey {
+  const from = 0.1 * frame.lengthPx;
+  const to = 0.9 * frame.lengthPx;
+  const smoothPx = Math.max(1, 0.5 * (periodPx ?? MIN_COUNTABLE_PERIOD_PX));
+  const widthGuess = 2.45 * axis.scalePx;
+  let U = Math.min(150, Math.max(24, 1.5 * widthGuess + 10, periodPx ? 6 * periodPx : 0));
+  for (let round = 0; ; round++) {
+    const profile = robustAcrossProfile(image, frame, { fromPx: from, toPx: to, halfWidthPx: U });
+    const dark = smoothProfile(profile.values, profile.weights, smoothPx / profile.binPx);
+    const sets: ProfileBand[][] = [profileBands(profile, 2 * smoothPx, { polarity, maxBands: 3, minSignificance: 4, signal: dark })];
+    if (periodPx) {
+      // fringe energy: the profile minus its smoothed self (the fringes), squared and smoothed
+      const r2 = new Float64Array(profile.values.length);
+      for (let i = 0; i < r2.length; i++) r2[i] = Number.isFinite(dark[i]) && Number.isFinite(profile.values[i]) ? (profile.values[i] - dark[i]) ** 2 : NaN;
+      const energy = smoothProfile(r2, profile.weights, smoothPx / profile.binPx);
+      sets.push(profileBands(profile, 2 * smoothPx, { polarity: 'bright', maxBands: 3, minSignificance: 4, signal: energy }));
+    }
+    // the band on the axis (or the nearest), from the signal where it stands out more
+    let band: ProfileBand | null = null;
+    let others: ProfileBand[] = [];
+    for (const bands of sets) {
+      let near: ProfileBand | null = null;
+      let bestD = Infinity;
+      for (const b of bands) {
+        const d = b.fromPx <= 0 && b.toPx >= 0 ? 0 : Math.min(Math.abs(b.fromPx), Math.abs(b.toPx));
+        if (d < bestD) { bestD = d; near = b; }
+      }
+      if (near && bestD > Math.max(4, 0.5 * (near.toPx - near.fromPx))) near = null;
+      if (near && (!band || near.significance > band.significance)) {
+        band = near;
+        others = bands.filter((q) => q !== near);
+      }
+    }
+    const touches = band && (band.fromPx < -U + 6 || band.toPx > U - 6);
+    if (!touches || round >= 2 || U >= 150) return { axis, frame, profile, band, others };
+    U = Math.min(150, 2 * U);
+  }
+}
+
+/** A stack measured from one candidate, before pieces of the same stack are merged. */
+interface Piece {
+  /** The stack's axis (middle of its thickness), image px. */
+  axisPx: [number, number][];
+  periodPx: number;
+  uPeriodPx: number;
+  periodSource: AutoSheet['periodSource'];
+  /** Count on the length-averaged profile (breaks ties of the positions). */
+  fitLayers: number;
+  /** Counts at the positions where the stack was seen. */
+  counted: number[];
+  /** Edge-to-edge widths at those positions, px. */
+  edges: number[];
+  positions: SheetPosition[];
+  evidence: number;
+}
+
 /**
- * Finds and measures sheets automatically over a whole image.
+ * A piece's sheet fields: the count is the most frequent over its positions, the confidence
+ * the share that agree; thickness n·d with the period's uncertainty times n and the spread of
+ * the positions' n·d over √positions; the outline is the axis ± half the thickness.
+ */
+function finishPiece(pc: Piece, minPeriodPx: number): Omit<AutoSheet, 'id'> {
+  const frame = axisFrame(pc.axisPx.length >= 2 ? pc.axisPx : [pc.axisPx[0], pc.axisPx[0]]);
+  const layers = modeCount(pc.counted, pc.fitLayers);
+  const agree = pc.counted.filter((c) => c === layers).length;
+  const d = pc.periodPx;
+  const thicknessPx = layers * d;
+  const half = thicknessPx / 2;
+  const nd = pc.counted.map((c) => c * d);
+  const sdNd = nd.length > 1 ? Math.sqrt(nd.reduce((acc, v) => acc + (v - mean(nd)) ** 2, 0) / (nd.length - 1)) : 0;
+  const mid = indexAt(frame, frame.lengthPx / 2);
+  const outlinePx: [number, number][] = [
+    ...frame.points.map((q, i) => [q[0] + half * frame.normals[i][0], q[1] + half * frame.normals[i][1]] as [number, number]),
+    ...frame.points.map((q, i) => [q[0] - half * frame.normals[i][0], q[1] - half * frame.normals[i][1]] as [number, number]).reverse(),
+  ];
+  const notes: string[] = [];
+  if (d < minPeriodPx) notes.push(`period ${d.toFixed(2)} px is at the sampling limit (not significantly below ${minPeriodPx} px)`);
+  if (layers <= 2 && pc.periodSource === 'image') notes.push('period taken from the image (a stack this thin shows none of its own)');
+  if (pc.periodSource === 'given') notes.push("the given period's own uncertainty is not included");
+  return {
+    status: 'auto',
+    layers,
+    thicknessPx,
+    uThicknessPx: { statisticalPx: layers * pc.uPeriodPx, localVariationPx: nd.length ? sdNd / Math.sqrt(nd.length) : 0, methodPx: 0 },
+    edgeToEdgePx: pc.edges.length ? mean(pc.edges) : thicknessPx,
+    periodPx: d,
+    uPeriodPx: { statisticalPx: pc.uPeriodPx, localVariationPx: 0, methodPx: 0 },
+    periodSource: pc.periodSource,
+    angleDeg: screenAngleDeg(frame.normals[mid][0], frame.normals[mid][1]),
+    centerPx: [frame.points[mid][0], frame.points[mid][1]],
+    axisPx: frame.points,
+    outlinePx,
+    lengthPx: frame.lengthPx,
+    confidence: pc.counted.length ? agree / pc.counted.length : 0,
+    evidence: pc.evidence,
+    positions: pc.positions,
+    notes,
+  };
+}
+
+/** Along-axis and signed normal offset of a point from a polyline extended straight beyond its ends. */
+function polylineCoords(pts: [number, number][], x: number, y: number): { s: number; u: number } {
+  let best = { s: 0, u: Infinity };
+  let cum = 0;
+  const n = pts.length;
+  for (let i = 0; i + 1 < n; i++) {
+    const [ax, ay] = pts[i];
+    const [bx, by] = pts[i + 1];
+    const len = Math.hypot(bx - ax, by - ay) || 1e-9;
+    const tx = (bx - ax) / len;
+    const ty = (by - ay) / len;
+    let t = (x - ax) * tx + (y - ay) * ty;
+    if (i > 0) t = Math.max(0, t);
+    if (i + 2 < n) t = Math.min(len, t);
+    const px = ax + t * tx;
+    const py = ay + t * ty;
+    const dist = Math.hypot(x - px, y - py);
+    if (dist < Math.abs(best.u)) {
+      // +90° as shown: (ty, −tx) in image axes
+      const sign = (x - px) * ty + (y - py) * -tx >= 0 ? 1 : -1;
+      best = { s: cum + t, u: sign * dist };
+    }
+    cum += len;
+  }
+  return best;
+}
+
+/**
+ * Joins pieces of one stack: the candidate axes break where another stack crosses, and a stack
+ * may be met twice. Two pieces are one stack when their periods agree within 6 %, their counts
+ * within one layer, and the nearer end of each lies on the other's axis or its straight
+ * extension (within a quarter of the thinner one's thickness plus half a period, and 12° in
+ * direction), at most 90 px (a crossing stack may hide that much) or four thicknesses beyond it. Closest pairs first, repeated until
+ * none is left.
+ */
+function mergePieces(input: Piece[]): Piece[] {
+  // pieces by id; pair gaps computed once, and again only for a newly merged piece
+  const alive = new Map<number, Piece>();
+  input.forEach((p, i) => alive.set(i, p));
+  let nextId = input.length;
+  const box = (p: Piece) => {
+    let x0 = Infinity, y0 = Infinity, x1 = -Infinity, y1 = -Infinity;
+    for (const [x, y] of p.axisPx) { x0 = Math.min(x0, x); y0 = Math.min(y0, y); x1 = Math.max(x1, x); y1 = Math.max(y1, y); }
+    const m = Math.max(90, 4 * pieceThickness(p));
+    return [x0 - m, y0 - m, x1 + m, y1 + m];
+  };
+  const boxes = new Map<number, number[]>();
+  for (const [i, p] of alive) boxes.set(i, box(p));
+  const overlap = (a: number[], b: number[]) => a[0] <= b[2] && b[0] <= a[2] && a[1] <= b[3] && b[1] <= a[3];
+  const gaps: { i: number; j: number; gap: number }[] = [];
+  const pairWith = (i: number) => {
+    const bi = boxes.get(i)!;
+    for (const [j, q] of alive) {
+      if (j === i || !overlap(bi, boxes.get(j)!)) continue;
+      const g = mergeGap(alive.get(i)!, q);
+      if (g !== null) gaps.push({ i: Math.min(i, j), j: Math.max(i, j), gap: g });
+    }
+  };
+  const ids = [...alive.keys()];
+  for (const i of ids) {
+    const bi = boxes.get(i)!;
+    for (const j of ids) {
+      if (j <= i || !overlap(bi, boxes.get(j)!)) continue;
+      const g = mergeGap(alive.get(i)!, alive.get(j)!);
+      if (g !== null) gaps.push({ i, j, gap: g });
+    }
+  }
+  for (;;) {
+    let k = -1;
+    for (let q = 0; q < gaps.length; q++) {
+      const e = gaps[q];
+      if (!alive.has(e.i) || !alive.has(e.j)) continue;
+      if (k < 0 || e.gap < gaps[k].gap) k = q;
+    }
+    if (k < 0) break;
+    const { i, j } = gaps[k];
+    const merged = joinPieces(alive.get(i)!, alive.get(j)!);
+    alive.delete(i);
+    alive.delete(j);
+    const id = nextId++;
+    alive.set(id, merged);
+    boxes.set(id, box(merged));
+    pairWith(id);
+  }
+  return [...alive.values()];
+}
+
+function pieceThickness(p: Piece): number {
+  return modeCount(p.counted, p.fitLayers) * p.periodPx;
+}
+
+/** The gap between two pieces of one stack, or null when they are not one stack. */
+function mergeGap(a: Piece, b: Piece): number | null {
+  if (Math.abs(a.periodPx - b.periodPx) > 0.06 * Math.max(a.periodPx, b.periodPx)) return null;
+  const na = modeCount(a.counted, a.fitLayers);
+  const nb = modeCount(b.counted, b.fitLayers);
+  if (Math.abs(na - nb) > 1) return null;
+  const ta = pieceThickness(a);
+  const tb = pieceThickness(b);
+  const tol = 0.25 * Math.min(ta, tb) + 0.5 * Math.max(a.periodPx, b.periodPx) + 1.5;
+  const maxGap = Math.max(90, 4 * Math.max(ta, tb));
+  const la = polylineLengthOf(a.axisPx);
+  const lb = polylineLengthOf(b.axisPx);
+  // one lies mostly inside the other's band: the same stack met twice
+  for (const [p, q, lp, tp] of [[a, b, la, ta], [b, a, lb, tb]] as const) {
+    let inside = 0;
+    let tried = 0;
+    for (let k = 0; k < q.axisPx.length; k += 4) {
+      const pt = q.axisPx[k];
+      const c = polylineCoords(p.axisPx, pt[0], pt[1]);
+      tried++;
+      if (c.s >= -2 && c.s <= lp + 2 && Math.abs(c.u) <= tp / 2 + 0.5 * p.periodPx) inside++;
+    }
+    if (inside >= 0.6 * tried) return 0;
+  }
+  let gap = Infinity;
+  for (const [p, q, lp] of [[a, b, la], [b, a, lb]] as const) {
+    // q's points near its end closest to p, in p's coordinates
+    const ends = [q.axisPx[0], q.axisPx[q.axisPx.length - 1]];
+    for (let e = 0; e < 2; e++) {
+      const end = ends[e];
+      const c = polylineCoords(p.axisPx, end[0], end[1]);
+      const beyond = c.s < 0 ? -c.s : c.s > lp ? c.s - lp : 0;
+      if (beyond > maxGap || Math.abs(c.u) > tol) continue;
+      // the direction of q near that end against p's at the nearest place
+      const k = e === 0 ? Math.min(q.axisPx.length - 1, 5) : Math.max(0, q.axisPx.length - 6);
+      const inner = q.axisPx[k];
+      const ci = polylineCoords(p.axisPx, inner[0], inner[1]);
+      const dsq = Math.hypot(inner[0] - end[0], inner[1] - end[1]);
+      if (dsq > 1 && Math.abs(ci.u - c.u) / dsq > Math.sin((12 * Math.PI) / 180)) continue;
+      gap = Math.min(gap, beyond);
+    }
+  }
+  return Number.isFinite(gap) ? gap : null;
+}
+
+function polylineLengthOf(p: [number, number][]): number {
+  let s = 0;
+  for (let i = 1; i < p.length; i++) s += Math.hypot(p[i][0] - p[i - 1][0], p[i][1] - p[i - 1][1]);
+  return s;
+}
+
+/** One piece from two of the same stack: the axis ordered along the first's, positions pooled. */
+function joinPieces(a: Piece, b: Piece): Piece {
+  const la = polylineLengthOf(a.axisPx);
+  const pts: { s: number; p: [number, number] }[] = [];
+  let cum = 0;
+  a.axisPx.forEach((p, i) => {
+    if (i > 0) cum += Math.hypot(p[0] - a.axisPx[i - 1][0], p[1] - a.axisPx[i - 1][1]);
+    pts.push({ s: cum, p });
+  });
+  for (const p of b.axisPx) {
+    const c = polylineCoords(a.axisPx, p[0], p[1]);
+    if (c.s < -1 || c.s > la + 1) pts.push({ s: c.s, p });
+  }
+  pts.sort((x, y) => x.s - y.s);
+  const wa = a.counted.length;
+  const wb = b.counted.length;
+  return {
+    axisPx: resampleAxis(pts.map((q) => q.p)),
+    periodPx: (a.periodPx * wa + b.periodPx * wb) / (wa + wb),
+    uPeriodPx: Math.max(a.uPeriodPx, b.uPeriodPx),
+    periodSource: a.periodSource === 'stack' || b.periodSource === 'stack' ? (a.periodSource === 'given' ? 'given' : 'stack') : a.periodSource,
+    fitLayers: a.evidence >= b.evidence ? a.fitLayers : b.fitLayers,
+    counted: [...a.counted, ...b.counted],
+    edges: [...a.edges, ...b.edges],
+    positions: [...a.positions, ...b.positions],
+    evidence: Math.max(a.evidence, b.evidence),
+  };
+}
+
+/** A polyline resampled every 2 px (lightly smoothed). */
+function resampleAxis(p: [number, number][]): [number, number][] {
+  return p.length >= 2 ? resamplePolyline(p, 2, 1) : p;
+}
+
+/**
+ * The layer periods of an image from its candidates: each band's profile (with as much again
+ * either side) votes for the strongest peak of its periodogram that stands out (peak over the
+ * median of the two octaves around it ≥ 20), and for a second one unless it is a harmonic of the
+ * first, weighted by log(contrast)·√length; votes within 4 % form one period. Periods whose votes
+ * weigh at least a sixth of the strongest (and come from two profiles, or half the strongest
+ * weight) are kept, at most three. When none stands out so (low dose), peaks ≥ 8 are taken, and a
+ * period then needs the votes of three profiles. Searches from 2.05 px (just above the sampling limit), below the countable limit, so finer periods are
+ * seen and rejected rather than mistaken for a coarser one.
+ */
+function imagePeriods(surveys: Survey[], maxPeriodPx: number): number[] {
+  const strong = imagePeriodsAt(surveys, maxPeriodPx, 20, 2);
+  if (strong.length) return strong;
+  // low dose: weaker peaks, but then several profiles must agree
+  return imagePeriodsAt(surveys, maxPeriodPx, 8, 3);
+}
+
+function imagePeriodsAt(surveys: Survey[], maxPeriodPx: number, minPeakToMedian: number, minVotes: number): number[] {
+  const votes: { d: number; w: number }[] = [];
+  for (const sv of surveys.slice(0, 80)) {
+    const p = sv.profile;
+    // the band and as much again either side (a fringe ridge's band is one line: its stack is around it)
+    const c0 = sv.band ? 0.5 * (sv.band.fromPx + sv.band.toPx) : 0;
+    const half = sv.band ? Math.max(12, sv.band.toPx - sv.band.fromPx) : Infinity;
+    const v: number[] = [];
+    for (let i = 0; i < p.values.length; i++) {
+      const u = p.startPx + i * p.binPx;
+      if (Math.abs(u - c0) <= half && Number.isFinite(p.values[i])) v.push(p.values[i]);
+    }
+    if (v.length < 16) continue;
+    let size = 1;
+    while (size < 8 * v.length) size <<= 1;
+    const maxSamples = Math.min(maxPeriodPx / p.binPx, v.length / 1.5);
+    if (!(maxSamples > 4.4)) continue;
+    const pw = profilePeriodogram(v, size, Math.max(maxSamples / 2, 8));
+    const cands = periodCandidates(pw, size, 2.05 / p.binPx, maxSamples, 3).filter((c) => c.peakToMedian >= minPeakToMedian);
+    if (cands.length === 0) continue;
+    // the strongest peak, and a second one unless it is a harmonic of the first (same profile)
+    const d0 = cands[0].periodPx * p.binPx;
+    const weight = (c: { peakToMedian: number }) => Math.log(c.peakToMedian) * Math.sqrt(sv.frame.lengthPx);
+    votes.push({ d: d0, w: weight(cands[0]) });
+    for (const c of cands.slice(1)) {
+      const d = c.periodPx * p.binPx;
+      if ([2, 3, 4].some((m) => Math.abs(d * m - d0) < 0.05 * d0) || c.peakToMedian < 0.3 * cands[0].peakToMedian) continue;
+      votes.push({ d, w: weight(c) });
+      break;
+    }
+  }
+  votes.sort((x, y) => y.w - x.w);
+  const clusters: { d: number; w: number; n: number }[] = [];
+  for (const v of votes) {
+    const c = clusters.find((q) => Math.abs(q.d - v.d) < 0.04 * q.d);
+    if (c) {
+      c.d = (c.d * c.w + v.d * v.w) / (c.w + v.w);
+      c.w += v.w;
+      c.n++;
+    } else clusters.push({ d: v.d, w: v.w, n: 1 });
+  }
+  clusters.sort((x, y) => y.w - x.w);
+  const top = clusters[0]?.w ?? 0;
+  return clusters.filter((c) => c.w >= top / 6 && (c.n >= minVotes || (minVotes <= 2 && c.w >= top / 2))).slice(0, 3).map((c) => c.d);
+}
+
+/**
+ * Finds and measures every edge-on stack of layers in an image.
  *
- * Structure-tensor coherence (Bigün & Granlund 1987) for where the image is layered; each region measured by analytic-signal line profiles along its local normal.
+ * Candidate axes from scale-space ridges (Lindeberg 1998); layers counted by least-squares combs of layer lines on width-averaged profiles along the local normal (see ./stack-profile).
  *
- * @param image the image (its calibration gives the nm fields)
- * @param options period, tensor scale, thresholds, lines per sheet, exclusion box
- * @returns the sheets, each with status 'auto', an outline, the measurement lines and medians
- * Notes: unless periodPx is given, one layer period is estimated for the image: of the three
- * best peaks of the summed periodograms of the regions' profiles, the one that finds the most
- * layers on those profiles; regions are connected pixels (on a 2-px grid) of coherence above the threshold whose
- * normals agree within the tolerance; each region gets `linesPerSheet` lines along its layers,
- * spread over the central 70 % of its length, each through the region's local centre along the
- * local normal; sheets on the lines are matched by their offset along the normal, a sheet must be
- * seen on at least half the lines, and its layer count is the most frequent count.
+ * @param image the image (lengths are in px; a calibration is applied late, through the record)
+ * @param options period (given), period range, polarity, excluded box, shortest stack, positions, evidence
+ * @returns the sheets, the bands rejected with their reasons, the image's periods and a message when nothing was found
+ * Notes: see the module comment for the steps. A given period outside the sampling range
+ * (below 2 px, or above a quarter of the image) is refused with a message; one below the
+ * smallest countable period (2.5 px) too. Thickness follows the n·d convention (layers × the
+ * stack's period); the edge-to-edge width of the band is reported beside it.
  */
 export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): AutoSheetsResult {
-  const minPeriodPx = options.minPeriodPx ?? 2.2;
+  const polarity = options.polarity ?? 'dark';
+  if (polarity !== 'dark' && polarity !== 'bright') throw new RangeError(`polarity must be 'dark' or 'bright', got ${String(polarity)}`);
+  const minPeriodPx = options.minPeriodPx ?? MIN_COUNTABLE_PERIOD_PX;
   const maxPeriodPx = options.maxPeriodPx ?? 40;
-  if (options.periodPx !== undefined && !(options.periodPx >= 2)) throw new RangeError(`periodPx must be ≥ 2, got ${options.periodPx}`);
-  if (!(minPeriodPx >= 2)) throw new RangeError(`minPeriodPx must be ≥ 2, got ${minPeriodPx}`);
-  if (!(maxPeriodPx > minPeriodPx)) throw new RangeError(`maxPeriodPx must exceed minPeriodPx, got ${maxPeriodPx}`);
-  const integrationSigmaPx = options.integrationSigmaPx ?? (options.periodPx ? 1.5 * options.periodPx : 6);
-  const coherenceThreshold = options.coherenceThreshold ?? 0.45;
-  const angleToleranceDeg = options.angleToleranceDeg ?? 12;
-  const minAreaPx = options.minAreaPx ?? 400;
-  const linesPerSheet = options.linesPerSheet ?? 5;
-  const fixedWidthPx = options.lineWidthPx;
-  const lineWidthPx = fixedWidthPx ?? 7;
-  const gradientSigmaPx = options.gradientSigmaPx ?? 1;
-  if (!(gradientSigmaPx > 0)) throw new RangeError(`gradientSigmaPx must be > 0, got ${gradientSigmaPx}`);
+  if (!(minPeriodPx >= 2 && Number.isFinite(minPeriodPx))) throw new RangeError(`minPeriodPx must be ≥ 2 px (the sampling limit), got ${minPeriodPx}`);
+  if (!(maxPeriodPx > minPeriodPx && Number.isFinite(maxPeriodPx))) throw new RangeError(`maxPeriodPx must exceed minPeriodPx (${minPeriodPx}), got ${maxPeriodPx}`);
+  const given = options.periodPx;
+  const quarter = Math.min(image.width, image.height) / 4;
+  if (given !== undefined) {
+    if (!Number.isFinite(given) || given < 2) {
+      throw new RangeError(`the period ${given} px is below the sampling limit of 2 px (Nyquist): no layer of it can be seen in this image; check the period and the pixel size`);
+    }
+    if (given < MIN_COUNTABLE_PERIOD_PX) {
+      throw new RangeError(`the period ${given} px is below ${MIN_COUNTABLE_PERIOD_PX} px, where layers can no longer be counted reliably (they sit at the sampling limit); use an image of higher magnification`);
+    }
+    if (given > quarter) throw new RangeError(`the period ${given} px is more than a quarter of the image (${quarter.toFixed(0)} px): no stack of it fits`);
+  }
   const exclude = options.exclude ?? null;
-  if (!(coherenceThreshold > 0 && coherenceThreshold < 1)) throw new RangeError(`coherenceThreshold must be in (0, 1), got ${coherenceThreshold}`);
-  if (!(angleToleranceDeg > 0 && angleToleranceDeg <= 90)) throw new RangeError(`angleToleranceDeg must be in (0, 90], got ${angleToleranceDeg}`);
-  if (!(Number.isInteger(linesPerSheet) && linesPerSheet >= 1)) throw new RangeError(`linesPerSheet must be an integer ≥ 1, got ${linesPerSheet}`);
-  if (!(lineWidthPx >= 1)) throw new RangeError(`lineWidthPx must be ≥ 1, got ${lineWidthPx}`);
   if (exclude && !(exclude.length === 4 && exclude.every(Number.isFinite) && exclude[2] > 0 && exclude[3] > 0)) {
     throw new RangeError(`exclude must be [x, y, width, height] with positive size, got ${JSON.stringify(exclude)}`);
   }
-  const settings = { minPeriodPx, maxPeriodPx, gradientSigmaPx, integrationSigmaPx, coherenceThreshold, angleToleranceDeg, minAreaPx, linesPerSheet, lineWidthPx: fixedWidthPx ?? 'auto', exclude, periodPx: options.periodPx ?? null };
-  const field = structureTensor(image, { gradientSigmaPx, integrationSigmaPx });
-  const regions = layeredRegions(field, { coherenceThreshold, angleToleranceDeg, minAreaPx, exclude, marginPx: Math.ceil(2 * integrationSigmaPx) });
-  const sheets: AutoSheet[] = [];
-  const { width, height } = image;
-  // one layer period for the image unless given: the periodograms of every region's central
-  // profile (over the region's extent) summed, each normalised and weighted by its area
-  let imagePeriodPx = options.periodPx;
-  const geometry = regions.map((reg) => regionLines(reg, linesPerSheet, lineWidthPx, fixedWidthPx, exclude));
-  if (imagePeriodPx === undefined && regions.length > 0) {
-    const size = 4096;
-    const sum = new Float64Array(size / 2 + 1);
-    const profiles: Float64Array[] = [];
-    for (const g of geometry) {
-      const regionHw = (Math.max(1, Math.round(g.widthPx)) - 1) / 2;
-      for (const l of g.lines) {
-        const seg = clipLine(l.px, l.py, l.ux, l.uy, Math.max(16, g.extentB / 2 + 4), width, height, regionHw);
-        if (!seg) continue;
-        const prof = lineProfile(image, seg[0], seg[1], seg[2], seg[3], { widthPx: g.widthPx });
-        if (prof.mean.length < 16 || prof.mean.length > size) continue;
-        profiles.push(prof.mean);
-        const p = profilePeriodogram(prof.mean, size, Math.max(maxPeriodPx / 2, 2 * minPeriodPx));
-        let tot = 0;
-        for (let k = 1; k < p.length; k++) tot += p[k];
-        if (!(tot > 0)) continue;
-        const w = g.area / g.lines.length / tot;
-        for (let k = 0; k < p.length; k++) sum[k] += w * p[k];
-      }
-    }
-    // of the three best spectral candidates, the one that finds the most layers on these
-    // profiles (the body of a stack makes spectral side lobes that find few)
-    const candidates = periodCandidates(sum, size, minPeriodPx, maxPeriodPx, 3);
-    let bestLayers = -1;
-    for (const c of candidates) {
-      let layers = 0;
-      for (const v of profiles) {
-        if (c.periodPx > v.length / 1.6) continue;
-        for (const sh of sheetsAlongProfile(v, { periodPx: c.periodPx, polarity: options.polarity, relBandwidth: options.relBandwidth, snrThreshold: options.snrThreshold }).sheets) layers += sh.layers;
-      }
-      if (layers > bestLayers) {
-        bestLayers = layers;
-        imagePeriodPx = c.periodPx;
-      }
+  const minLengthPx = options.minLengthPx ?? 30;
+  const spacing = options.positionSpacingPx ?? 40;
+  const minEvidence = options.minEvidence ?? 60;
+  if (!(minLengthPx >= 8)) throw new RangeError(`minLengthPx must be ≥ 8, got ${minLengthPx}`);
+  if (!(spacing >= 8)) throw new RangeError(`positionSpacingPx must be ≥ 8, got ${spacing}`);
+  if (!(minEvidence > 0)) throw new RangeError(`minEvidence must be positive, got ${minEvidence}`);
+  const settings = { periodPx: given ?? null, minPeriodPx, maxPeriodPx, polarity, exclude, minLengthPx, positionSpacingPx: spacing, minEvidence, thickness: 'n·d (layers × period)' };
+
+  let mask: Uint8Array | null = null;
+  if (exclude) {
+    mask = new Uint8Array(image.width * image.height);
+    for (let y = Math.max(0, Math.floor(exclude[1])); y < Math.min(image.height, exclude[1] + exclude[3]); y++) {
+      for (let x = Math.max(0, Math.floor(exclude[0])); x < Math.min(image.width, exclude[0] + exclude[2]); x++) mask[y * image.width + x] = 1;
     }
   }
-  for (const g of geometry) {
-    const { widthPx, extentB, lines, k } = g;
-    const regionHw = (Math.max(1, Math.round(widthPx)) - 1) / 2;
-    const periodPx = imagePeriodPx as number;
-    const obs: { line: number; offset: number; s: LineSheet; ux: number; uy: number }[] = [];
-    for (const { j, px, py, ux, uy } of lines) {
-      const half = extentB / 2 + 4 * periodPx;
-      const seg = clipLine(px, py, ux, uy, half, width, height, regionHw);
-      if (!seg) continue;
-      const r = sheetsAlongLine(image, seg[0], seg[1], seg[2], seg[3], {
-        widthPx,
-        periodPx: Math.min(periodPx, Math.hypot(seg[2] - seg[0], seg[3] - seg[1]) / 1.6),
-        polarity: options.polarity,
-        relBandwidth: options.relBandwidth,
-        snrThreshold: options.snrThreshold,
-        minLayers: options.minLayers,
-        spacingTolerance: options.spacingTolerance,
-        // the line crosses a region found coherent (layered): a quiet stretch on it is a gap
-        minBackgroundSamples: 1,
-      });
-      // offset of each sheet from the region's local centre, along the normal
-      const startOffset = (seg[0] - px) * ux + (seg[1] - py) * uy;
-      for (const s of r.sheets) {
-        if (s.truncated) continue;
-        if (inBox(s.centerXY[0], s.centerXY[1], exclude)) continue;
-        obs.push({ line: j, offset: startOffset + s.centerPx, s, ux, uy });
-      }
+  const axes = ridgeAxes(image, { polarity, mask, minLengthPx: Math.min(minLengthPx, 24), maxScalePx: Math.min(60, Math.min(image.width, image.height) / 8) });
+  // the fringes are smoothed away at half a period: before the period is known, at the scale of
+  // the finest countable period
+  // the first (strongest) candidates surveyed for the image's periods
+  const surveys = given !== undefined ? [] : axes.slice(0, 80).map((a) => survey(image, a, polarity, null));
+
+  // ---- the image's layer periods ----
+  const periodList: number[] = [];
+  if (given !== undefined) periodList.push(given);
+  else periodList.push(...imagePeriods(surveys, maxPeriodPx));
+
+  const pieces: Piece[] = [];
+  const rejected: RejectedBand[] = [];
+  const coverage = new Coverage(4);
+  const tryPeriods = periodList.length ? periodList : [];
+  // strongest bands first, so the stack is measured from its best candidate
+  for (const axis of axes) {
+    if (tryPeriods.length === 0) break;
+    const axisFrame0 = axisFrame(axis.points);
+    const angle0 = (i: number) => screenAngleDeg(axisFrame0.normals[i][0], axisFrame0.normals[i][1]);
+    // a candidate on a stack already measured (one of its layers, or the same band) is skipped
+    if (coverage.covered(axis.points, angle0, 20).share > 0.5) continue;
+    // survey at each period: fringes smoothed away at half a period, fringe energy beside it
+    let sv: Survey | null = null;
+    let svScore = -Infinity;
+    const perPeriod = tryPeriods.map((d) => ({ d, q: survey(image, axis, polarity, d, axisFrame0) }));
+    const powers = perPeriod.map(({ d, q }) => (q.band ? fringePowerAt(q.profile, q.band, d) : 0));
+    const topPower = Math.max(...powers);
+    for (let i = 0; i < perPeriod.length; i++) {
+      const { d, q } = perPeriod[i];
+      if (!q.band || (perPeriod.length > 1 && powers[i] < 0.25 * topPower)) continue;
+      const f = fitLayerComb(q.profile, d, q.band, { polarity, countReach: 3 });
+      const score = f ? f.evidence : q.band.significance;
+      if (score > svScore) { svScore = score; sv = q; }
     }
-    // group the sheets seen on different lines by their offset along the normal
-    obs.sort((p, q) => p.offset - q.offset);
-    const clusters: (typeof obs)[] = [];
-    for (const o of obs) {
-      const last = clusters[clusters.length - 1];
-      if (last) {
-        const mean = last.reduce((acc, q) => acc + q.offset, 0) / last.length;
-        const thick = median(last.map((q) => q.s.thicknessPx));
-        if (Math.abs(o.offset - mean) < Math.max(2 * periodPx, 0.35 * thick)) {
-          const dup = last.findIndex((q) => q.line === o.line);
-          if (dup < 0) last.push(o);
-          else if (Math.abs(o.offset - mean) < Math.abs(last[dup].offset - mean)) last[dup] = o;
+    if (!sv || !sv.band) continue;
+    const { frame, profile } = sv;
+    const angleAt = (i: number) => screenAngleDeg(frame.normals[i][0], frame.normals[i][1]);
+    // the band's centre line must not lie on a stack already measured
+    const svBand = sv.band;
+    const mid = 0.5 * (svBand.fromPx + svBand.toPx);
+    const centreLine = shiftAxis(frame, () => mid);
+    if (coverage.covered(centreLine, angleAt, 20).share > 0.5) continue;
+    const parts = splitBand(profile, svBand, tryPeriods[0], polarity);
+    for (const band of parts) {
+      const bmid = 0.5 * (band.fromPx + band.toPx);
+      const line = shiftAxis(frame, () => bmid);
+      if (coverage.covered(line, angleAt, 20).share > 0.5) continue;
+      // fit window: up to the neighbouring bands (touching stacks)
+      const neighbours = [...(sv as Survey).others, ...parts.filter((q) => q !== band)];
+      let lo = profile.startPx;
+      let hi = profile.startPx + (profile.values.length - 1) * profile.binPx;
+      for (const o of neighbours) {
+        if (o.toPx <= band.fromPx) lo = Math.max(lo, 0.5 * (o.toPx + band.fromPx));
+        if (o.fromPx >= band.toPx) hi = Math.min(hi, 0.5 * (o.fromPx + band.toPx));
+      }
+      const limit: [number, number] = [lo, hi];
+      const chosen = bestPeriod(profile, band, tryPeriods, polarity, limit);
+      const centerIdx = Math.floor(frame.points.length / 2);
+      const centerAt = (off: number): [number, number] => [frame.points[centerIdx][0] + off * frame.normals[centerIdx][0], frame.points[centerIdx][1] + off * frame.normals[centerIdx][1]];
+      const reject = (reason: string, fit: CombFit | null, d: number | null) => {
+        rejected.push({ centerPx: centerAt(fit ? fit.centerPx : bmid), angleDeg: angleAt(centerIdx), layers: fit?.layers ?? null, periodPx: d, reason });
+      };
+      if (!chosen) {
+        reject('no comb of layer lines fits the band', null, null);
+        continue;
+      }
+      let { fit, periodPx } = chosen;
+      if (fit.evidence < minEvidence) {
+        reject(`too faint: evidence ${fit.evidence.toFixed(0)} below ${minEvidence}`, fit, periodPx);
+        continue;
+      }
+      let uPeriod = 0;
+      let periodSource: AutoSheet['periodSource'] = given !== undefined ? 'given' : 'image';
+      if (given === undefined && fit.layers >= 4) {
+        const r = refinePeriod(profile, fit, polarity, limit);
+        periodPx = r.periodPx;
+        uPeriod = r.uPx;
+        fit = fitLayerComb(profile, periodPx, { fromPx: fit.centerPx - (fit.layers * periodPx) / 2, toPx: fit.centerPx + (fit.layers * periodPx) / 2 }, { polarity, limitPx: limit, countReach: 2 }) ?? r.fit;
+        periodSource = 'stack';
+      }
+      if (periodPx + 2 * uPeriod < minPeriodPx) {
+        reject(`period ${periodPx.toFixed(2)} px is below ${minPeriodPx} px`, fit, periodPx);
+        continue;
+      }
+      if (periodPx > maxPeriodPx) {
+        reject(`period ${periodPx.toFixed(2)} px is above ${maxPeriodPx} px`, fit, periodPx);
+        continue;
+      }
+      // layers must be resolved for a stack of three or more: the comb explains the band
+      // better than a plain step of the same extent (film texture makes bands without layers)
+      if (fit.layers >= 3) {
+        if (!layersResolved(profile, fit, polarity, limit)) {
+          reject('no resolved layers: a band without fringes (film texture or an unresolved stack)', fit, periodPx);
+          continue;
+        }
+      } else if (fit.layers === 1 && fit.lineSigmaPx > 0.49 * periodPx + 0.5) {
+        reject('a single line wider than a layer', fit, periodPx);
+        continue;
+      }
+      const acrossPower = acrossFringePower(profile, fit);
+      if (fit.layers >= 3 && periodicAlongAxis(image, frame, fit.centerPx, Math.max(1, 0.35 * fit.thicknessPx), periodPx, acrossPower)) {
+        reject('periodic along its axis as well: a two-dimensional lattice, not a stack', fit, periodPx);
+        continue;
+      }
+      // ---- counts at positions along the axis ----
+      const L = frame.lengthPx;
+      const k = Math.max(3, Math.min(9, Math.round((0.9 * L) / spacing)));
+      const seg = (0.9 * L) / k;
+      const positions: SheetPosition[] = [];
+      const offsets: number[] = [];
+      const counted: number[] = [];
+      const thick: number[] = [];
+      const edge: number[] = [];
+      for (let j = 0; j < k; j++) {
+        const from = 0.05 * L + j * seg;
+        const to = from + seg;
+        const half = fit.thicknessPx / 2 + Math.max(3 * periodPx, 8);
+        const pp = robustAcrossProfile(image, frame, { fromPx: from, toPx: to, halfWidthPx: half, offsetPx: fit.centerPx, pieceLengthPx: 8 });
+        const lim: [number, number] = [limit[0] - fit.centerPx, limit[1] - fit.centerPx];
+        const f = fitLayerComb(pp, periodPx, { fromPx: -fit.thicknessPx / 2, toPx: fit.thicknessPx / 2 }, { polarity, limitPx: lim, countReach: 2, lineSigmasPx: [fit.lineSigmaPx], centreReachPx: 0.75 * periodPx + 1 });
+        const ci = indexAt(frame, 0.5 * (from + to));
+        const off = fit.centerPx + (f && f.evidence >= 0.25 * minEvidence ? f.centerPx : 0);
+        const [px, py] = frame.points[ci];
+        const [nx, ny] = frame.normals[ci];
+        positions.push({ centerPx: [px + off * nx, py + off * ny], angleDeg: angleAt(ci), layers: f ? f.layers : null, evidence: f ? f.evidence : 0 });
+        if (f && f.evidence >= 0.25 * minEvidence) {
+          counted.push(f.layers);
+          offsets.push(off);
+          thick.push(f.thicknessPx);
+          // edge to edge: where the band's darkening (fringes smoothed away) falls to half, outermost crossings
+          const e = edgeToEdge(pp, f, polarity);
+          if (e !== null) edge.push(e);
+        }
+      }
+      if (counted.length < Math.max(2, Math.ceil(k / 2))) {
+        reject(`seen at ${counted.length} of ${k} positions along its axis: not a persistent stack`, fit, periodPx);
+        continue;
+      }
+      // the layers run along the axis: the stack's centre must not drift across it from
+      // position to position (an axis oblique to the layers crosses them)
+      {
+        const ss = positions.map((q, j) => ({ s: 0.05 * L + (j + 0.5) * seg, ok: q.layers !== null && q.evidence >= 0.25 * minEvidence })).filter((q) => q.ok).map((q) => q.s);
+        const ms = mean(ss);
+        const mo = mean(offsets);
+        let sxy = 0;
+        let sxx = 0;
+        ss.forEach((sv2, j) => { sxy += (sv2 - ms) * (offsets[j] - mo); sxx += (sv2 - ms) ** 2; });
+        const slope = sxx > 0 ? sxy / sxx : 0;
+        if (Math.abs(slope) > Math.tan((8 * Math.PI) / 180)) {
+          reject(`the band drifts across its axis (${(Math.atan(Math.abs(slope)) * DEG).toFixed(0)}°): the axis crosses the layers`, fit, periodPx);
           continue;
         }
       }
-      clusters.push([o]);
-    }
-    const need = Math.max(1, Math.ceil(k / 2));
-    for (const c of clusters) {
-      if (c.length < need) continue;
-      c.sort((p, q) => p.line - q.line);
-      const cal = c[0].s;
-      const layers = modeCount(c.map((q) => q.s.layers));
-      const agree = c.filter((q) => q.s.layers === layers);
-      const thicknessPx = median(agree.map((q) => q.s.thicknessPx));
-      const edgeToEdgePx = median(agree.map((q) => q.s.edgeToEdgePx));
-      const periodMean = agree.reduce((acc, q) => acc + q.s.periodPx, 0) / agree.length;
-      const nmPerPx = cal.thicknessNm !== null ? cal.thicknessNm / cal.thicknessPx : null;
-      const cx = c.reduce((acc, q) => acc + q.s.centerXY[0], 0) / c.length;
-      const cy = c.reduce((acc, q) => acc + q.s.centerXY[1], 0) / c.length;
-      const angleDeg = axialMeanDeg(c.map((q) => q.s.angleDeg), c.map(() => 1));
-      const outlinePx: [number, number][] = [
-        ...c.map((q) => q.s.edgesXY[0]),
-        ...c.map((q) => q.s.edgesXY[1]).reverse(),
-      ];
-      const first = c[0].s.centerXY;
-      const last = c[c.length - 1].s.centerXY;
-      sheets.push({
-        id: `auto-${sheets.length + 1}`,
-        status: 'auto',
-        layers,
-        thicknessPx,
-        thicknessNm: nmPerPx === null ? null : thicknessPx * nmPerPx,
-        edgeToEdgePx,
-        edgeToEdgeNm: nmPerPx === null ? null : edgeToEdgePx * nmPerPx,
-        periodPx: periodMean,
-        periodNm: nmPerPx === null ? null : periodMean * nmPerPx,
-        angleDeg,
-        centerPx: [cx, cy],
-        outlinePx,
-        lengthPx: Math.hypot(last[0] - first[0], last[1] - first[1]) + (0.7 * g.length) / k,
-        crossings: c.map((q) => ({
-          centerPx: q.s.centerXY,
-          layers: q.s.layers,
-          thicknessPx: q.s.thicknessPx,
-          periodPx: q.s.periodPx,
-          angleDeg: q.s.angleDeg,
-        })),
+      // the stack's own axis: the candidate's shifted to the measured positions' centres
+      const measuredS = positions.map((q, j) => ({ s: 0.05 * L + (j + 0.5) * seg, ok: q.layers !== null && q.evidence >= 0.25 * minEvidence })).filter((q) => q.ok).map((q) => q.s);
+      const offAt = (sAt: number): number => {
+        if (sAt <= measuredS[0]) return offsets[0];
+        if (sAt >= measuredS[measuredS.length - 1]) return offsets[offsets.length - 1];
+        let m = 0;
+        while (m < measuredS.length - 2 && measuredS[m + 1] < sAt) m++;
+        const t = (sAt - measuredS[m]) / (measuredS[m + 1] - measuredS[m] || 1);
+        return offsets[m] + t * (offsets[m + 1] - offsets[m]);
+      };
+      const axisPx = frame.points.map((q, i) => {
+        const o = offAt(frame.cumPx[i]);
+        return [q[0] + o * frame.normals[i][0], q[1] + o * frame.normals[i][1]] as [number, number];
       });
+      const piece: Piece = { axisPx, periodPx, uPeriodPx: uPeriod, periodSource, fitLayers: fit.layers, counted, edges: edge, positions, evidence: fit.evidence };
+      const done = finishPiece(piece, minPeriodPx);
+      if (inBox(done.centerPx[0], done.centerPx[1], exclude)) continue;
+      pieces.push(piece);
+      coverage.add(pieces.length - 1, frame, offAt(frame.cumPx[centerIdx]), done.thicknessPx / 2 + 0.5 * periodPx, angleAt);
     }
   }
-  return { sheets, regions: regions.length, settings };
-}
-
-/** Where a region is measured: k points along its layers (central 70 %), each with the local normal. */
-function regionLines(
-  reg: LayeredRegion,
-  linesPerSheet: number,
-  lineWidthPx: number,
-  fixedWidthPx: number | undefined,
-  exclude: [number, number, number, number] | null,
-): { k: number; widthPx: number; extentB: number; length: number; area: number; lines: { j: number; px: number; py: number; ux: number; uy: number }[] } {
-  const th = (reg.angleDeg * Math.PI) / 180;
-  const n = [Math.cos(th), -Math.sin(th)];
-  const t = [-n[1], n[0]];
-  const a: number[] = [];
-  const b: number[] = [];
-  let aMin = Infinity;
-  let aMax = -Infinity;
-  let bMin = Infinity;
-  let bMax = -Infinity;
-  for (const [x, y] of reg.points) {
-    const aa = (x - reg.cx) * t[0] + (y - reg.cy) * t[1];
-    const bb = (x - reg.cx) * n[0] + (y - reg.cy) * n[1];
-    a.push(aa);
-    b.push(bb);
-    aMin = Math.min(aMin, aa);
-    aMax = Math.max(aMax, aa);
-    bMin = Math.min(bMin, bb);
-    bMax = Math.max(bMax, bb);
-  }
-  const length = aMax - aMin;
-  const k = Math.max(1, Math.min(linesPerSheet, Math.floor(length / Math.max(lineWidthPx, 4))));
-  const widthPx = fixedWidthPx ?? Math.max(7, Math.min(25, Math.round((0.6 * 0.7 * length) / k)));
-  const slab = Math.max(2, (0.7 * length) / (2 * k));
-  const lines: { j: number; px: number; py: number; ux: number; uy: number }[] = [];
-  for (let j = 0; j < k; j++) {
-    // lines spread over the central 70 % of the region (its ends are where layers fade out)
-    const ak = aMin + length * (0.15 + (0.7 * (j + 0.5)) / k);
-    const angles: number[] = [];
-    const weights: number[] = [];
-    let bSum = 0;
-    let cnt = 0;
-    reg.points.forEach((_, i) => {
-      if (Math.abs(a[i] - ak) > slab) return;
-      angles.push(reg.angles[i]);
-      weights.push(reg.weights[i]);
-      bSum += b[i];
-      cnt++;
-    });
-    if (cnt === 0) continue;
-    const bc = bSum / cnt;
-    const px = reg.cx + ak * t[0] + bc * n[0];
-    const py = reg.cy + ak * t[1] + bc * n[1];
-    if (inBox(px, py, exclude)) continue;
-    const thk = (axialMeanDeg(angles, weights) * Math.PI) / 180;
-    lines.push({ j, px, py, ux: Math.cos(thk), uy: -Math.sin(thk) });
-  }
-  return { k, widthPx, extentB: bMax - bMin, length, area: reg.points.length, lines };
-}
-
-/** End points of a line through P along unit vector u, half-length `half`, clipped so a line of half-width hw stays inside; null if under 16 px. */
-function clipLine(
-  px: number,
-  py: number,
-  ux: number,
-  uy: number,
-  half: number,
-  width: number,
-  height: number,
-  hw: number,
-): [number, number, number, number] | null {
-  let lo = -half;
-  let hi = half;
-  for (const [p, u, max] of [[px, ux, width - 1 - hw], [py, uy, height - 1 - hw]] as const) {
-    if (Math.abs(u) < 1e-9) {
-      if (p < hw || p > max) return null;
+  // after merging, a stack must be at least as long as the shortest stack asked for and as its
+  // own thickness (an edge-on platelet is longer than thick; a shorter piece is an end or a crossing)
+  const kept: Omit<AutoSheet, 'id'>[] = [];
+  for (const pc of mergePieces(pieces)) {
+    const sh = finishPiece(pc, minPeriodPx);
+    if (sh.lengthPx < Math.max(minLengthPx, sh.thicknessPx)) {
+      rejected.push({ centerPx: sh.centerPx, angleDeg: sh.angleDeg, layers: sh.layers, periodPx: sh.periodPx, reason: `${sh.lengthPx.toFixed(0)} px long: shorter than ${sh.lengthPx < minLengthPx ? `${minLengthPx} px` : 'its thickness'}` });
       continue;
     }
-    const s1 = (hw - p) / u;
-    const s2 = (max - p) / u;
-    lo = Math.max(lo, Math.min(s1, s2));
-    hi = Math.min(hi, Math.max(s1, s2));
+    kept.push(sh);
   }
-  if (hi - lo < 16) return null;
-  return [px + ux * lo, py + uy * lo, px + ux * hi, py + uy * hi];
-}
-
-/** A connected region of consistently oriented, layered pixels (grid points). */
-interface LayeredRegion {
-  points: [number, number][];
-  angles: number[];
-  weights: number[];
-  cx: number;
-  cy: number;
-  angleDeg: number;
-}
-
-function layeredRegions(
-  field: OrientationField,
-  o: { coherenceThreshold: number; angleToleranceDeg: number; minAreaPx: number; exclude: [number, number, number, number] | null; marginPx: number },
-): LayeredRegion[] {
-  const step = 2;
-  const { width, height } = field;
-  const gw = Math.ceil(width / step);
-  const gh = Math.ceil(height / step);
-  const on = new Uint8Array(gw * gh);
-  const ang = new Float32Array(gw * gh);
-  const coh = new Float32Array(gw * gh);
-  const margin = Math.min(o.marginPx, Math.floor(Math.min(width, height) / 4));
-  for (let gy = 0; gy < gh; gy++) {
-    for (let gx = 0; gx < gw; gx++) {
-      const x = gx * step;
-      const y = gy * step;
-      if (x < margin || y < margin || x >= width - margin || y >= height - margin) continue;
-      if (inBox(x, y, o.exclude)) continue;
-      const i = y * width + x;
-      const g = gy * gw + gx;
-      ang[g] = field.angleDeg[i];
-      coh[g] = field.coherence[i];
-      if (field.coherence[i] > o.coherenceThreshold) on[g] = 1;
+  // a sheet whose axis lies (almost) wholly on a longer sheet's band is a piece of a crossing, or
+  // that sheet seen at another angle: not a stack of its own (a stack that crosses another
+  // reaches beyond its band). One half on it is a piece too when it runs near the other's
+  // direction, or when its period is off the image's (the other's layers cut obliquely read
+  // d / cos θ) or its positions disagree on its count.
+  const byLength = [...kept].sort((a, b) => b.lengthPx - a.lengthPx);
+  const sheets: AutoSheet[] = [];
+  const accepted: Omit<AutoSheet, 'id'>[] = [];
+  for (const sh of byLength) {
+    const offImage = periodList.length > 0 && Math.min(...periodList.map((d) => Math.abs(sh.periodPx - d) / d)) > 0.04;
+    const host = accepted.find((o) => {
+      const share = shareOnBand(sh.axisPx, o);
+      const offHost = Math.abs(sh.periodPx - o.periodPx) > 0.06 * o.periodPx;
+      return share >= 0.85 || (share >= 0.5 && (axialDiff(sh.angleDeg, o.angleDeg) < 20 || (offImage && offHost) || sh.confidence < 0.6));
+    });
+    if (host) {
+      rejected.push({ centerPx: sh.centerPx, angleDeg: sh.angleDeg, layers: sh.layers, periodPx: sh.periodPx, reason: 'lies on a longer stack (a piece of a crossing)' });
+      continue;
     }
+    accepted.push(sh);
   }
-  const uf = new UnionFind(gw * gh);
-  for (let gy = 0; gy < gh; gy++) {
-    for (let gx = 0; gx < gw; gx++) {
-      const g = gy * gw + gx;
-      if (!on[g]) continue;
-      if (gx + 1 < gw && on[g + 1] && axialDifferenceDeg(ang[g], ang[g + 1]) < o.angleToleranceDeg) uf.union(g, g + 1);
-      if (gy + 1 < gh && on[g + gw] && axialDifferenceDeg(ang[g], ang[g + gw]) < o.angleToleranceDeg) uf.union(g, g + gw);
-    }
-  }
-  const groups = new Map<number, number[]>();
-  for (let g = 0; g < gw * gh; g++) {
-    if (!on[g]) continue;
-    const r = uf.find(g);
-    let list = groups.get(r);
-    if (!list) groups.set(r, (list = []));
-    list.push(g);
-  }
-  const out: LayeredRegion[] = [];
-  for (const list of groups.values()) {
-    if (list.length * step * step < o.minAreaPx) continue;
-    const points: [number, number][] = [];
-    const angles: number[] = [];
-    const weights: number[] = [];
-    let sx = 0;
-    let sy = 0;
-    for (const g of list) {
-      const x = (g % gw) * step;
-      const y = Math.floor(g / gw) * step;
-      points.push([x, y]);
-      angles.push(ang[g]);
-      weights.push(coh[g]);
-      sx += x;
-      sy += y;
-    }
-    out.push({ points, angles, weights, cx: sx / list.length, cy: sy / list.length, angleDeg: axialMeanDeg(angles, weights) });
-  }
-  return out;
-}
-
-/** Statistics of a set of sheets (e.g. pooled over images). */
-export interface SheetStatistics {
-  /** Number of sheets counted. */
-  n: number;
-  /** Thickness summary in nm (null when no sheet has a calibrated thickness). */
-  thicknessNm: Summary | null;
-  /** Thickness summary in px. */
-  thicknessPx: Summary | null;
-  /** Layer-count summary. */
-  layers: Summary | null;
-}
-
-/**
- * Statistics of sheets, leaving out rejected ones (and, with `acceptedOnly`, unreviewed automatic ones).
- *
- * Summaries by `summarize` (Hyndman & Fan 1996 type 7 quartiles, Student t CI of the mean).
- *
- * @param sheets sheets from any number of images, each with a status
- * @param options acceptedOnly: count only 'accepted', 'manual' and 'corrected' sheets
- * @returns n and the thickness (nm, px) and layer-count summaries
- */
-export function sheetStatistics(
-  sheets: Pick<AutoSheet, 'status' | 'layers' | 'thicknessPx' | 'thicknessNm'>[],
-  options: { acceptedOnly?: boolean } = {},
-): SheetStatistics {
-  const keep = sheets.filter((s) => s.status !== 'rejected' && (!options.acceptedOnly || s.status !== 'auto'));
-  const nm = keep.map((s) => s.thicknessNm).filter((v): v is number => v !== null);
+  for (const sh of kept) if (accepted.includes(sh)) sheets.push({ ...sh, id: `auto-${sheets.length + 1}` });
+  const periods: ImagePeriod[] = periodList.map((d) => ({
+    periodPx: d,
+    source: given !== undefined ? 'given' : 'found',
+    sheets: sheets.filter((s) => Math.abs(s.periodPx - d) < 0.08 * d).length,
+  }));
   return {
-    n: keep.length,
-    thicknessNm: nm.length === keep.length && nm.length > 0 ? summarize(nm) : null,
-    thicknessPx: summarize(keep.map((s) => s.thicknessPx)),
-    layers: summarize(keep.map((s) => s.layers)),
+    sheets,
+    rejected,
+    periods,
+    candidates: axes.length,
+    message: sheets.length === 0 ? 'no stacks found' : null,
+    settings,
   };
+}
+
+/** Share of a polyline's points that lie on a sheet's band (inside its length, within half its thickness and a period of its axis). */
+function shareOnBand(points: [number, number][], o: Pick<AutoSheet, 'axisPx' | 'lengthPx' | 'thicknessPx' | 'periodPx'>): number {
+  if (points.length === 0) return 0;
+  let on = 0;
+  for (const p of points) {
+    const c = polylineCoords(o.axisPx, p[0], p[1]);
+    if (c.s >= 0 && c.s <= o.lengthPx && Math.abs(c.u) <= o.thicknessPx / 2 + o.periodPx) on++;
+  }
+  return on / points.length;
+}
+
+function mean(v: number[]): number {
+  return v.reduce((a, b) => a + b, 0) / v.length;
+}
+
+function median(v: number[]): number {
+  const s = [...v].sort((a, b) => a - b);
+  const m = s.length >> 1;
+  return s.length % 2 ? s[m] : 0.5 * (s[m - 1] + s[m]);
 }

@@ -8,7 +8,7 @@ import type { Measurement } from '../measure/measurement';
 import type { RectPx } from '../measure/spectrum';
 import { detectSheets } from './detect';
 import { domainMap } from './domains';
-import { autoSheetsMeasurement, domainsMeasurement } from './record';
+import { autoSheetsMeasurement, domainsMeasurement, expressSheet, sheetFromAuto } from './record';
 
 /** The region's pixels (the image itself when the region covers it). */
 function pixelsOf(image: GreyImage, rect: RectPx): GreyImage {
@@ -20,9 +20,10 @@ function pixelsOf(image: GreyImage, rect: RectPx): GreyImage {
  * @param image calibrated or not (uncalibrated sheets have no nm thickness)
  * @param region the region (null: the whole image)
  * @param options file name recorded in the measurement
- * @returns the record of `autoSheetsMeasurement` with positions in image pixels and the region
- *   set, and the thickness in nm of every sheet that has one
- * Reference: as detectSheets (structure-tensor coherence, Bigün & Granlund 1987; analytic-signal profiles).
+ * @returns the version-2 record of `autoSheetsMeasurement` (lengths in px, positions in image
+ *   pixels, region set) and the thickness (n·d) in nm of every sheet, expressed late with the
+ *   image's calibration along each sheet's normal (none when the image is uncalibrated)
+ * Reference: as detectSheets (scale-space ridges, Lindeberg 1998; comb fits of layer lines).
  */
 export async function sheetsInRegion(image: GreyImage, region: RectPx | null, options: { fileName?: string } = {}): Promise<{ measurement: Measurement; thicknessNm: number[] }> {
   const rect = region ?? { x: 0, y: 0, width: image.width, height: image.height };
@@ -31,13 +32,14 @@ export async function sheetsInRegion(image: GreyImage, region: RectPx | null, op
   const sheets = found.sheets.map((s) => ({
     ...s,
     centerPx: shift(s.centerPx),
+    axisPx: s.axisPx.map(shift),
     outlinePx: s.outlinePx.map(shift),
-    crossings: s.crossings.map((c) => ({ ...c, centerPx: shift(c.centerPx) })),
+    positions: s.positions.map((q) => ({ ...q, centerPx: shift(q.centerPx) })),
   }));
   const m = autoSheetsMeasurement({ ...found, sheets }, { id: globalThis.crypto.randomUUID(), imageId: null, fileName: options.fileName ?? '', calibration: image.calibration });
   return {
     measurement: { ...m, region: { kind: 'rect', ...rect } },
-    thicknessNm: sheets.map((s) => s.thicknessNm).filter((t): t is number => t !== null),
+    thicknessNm: image.calibration ? sheets.map((s) => expressSheet(sheetFromAuto(s), image.calibration).thickness.value) : [],
   };
 }
 

@@ -7,8 +7,9 @@ import { processOne } from '../../src/batch/run';
 import { encodeTiff } from '../../testing/encode-tiff';
 import { makeGreyImage } from '../../src/image/grey-image';
 import { detectSheets } from '../../src/sheets/detect';
+import { expressSheet, sheetFromAuto } from '../../src/sheets/record';
 import { scene } from '../calibration/scenes';
-import { syntheticImage } from '../sheets/synthetic';
+import { syntheticImage } from '../../testing/synthetic/stacks';
 import { expressPeriod } from '../../src/measure/measurement';
 
 test('rings: randomly oriented fringes of one period give a ring at that period', async () => {
@@ -58,7 +59,7 @@ test('sheets: the automatic sheets of a region, thickness in nm, positions in im
   // the whole image: exactly what the sheet tool finds, with every thickness in nm
   const direct = detectSheets(img);
   const all = await sheetsInRegion(img, { x: 0, y: 0, width: 420, height: 420 });
-  expect(all.thicknessNm).toEqual(direct.sheets.map((t) => t.thicknessNm));
+  expect(all.thicknessNm).toEqual(direct.sheets.map((t) => expressSheet(sheetFromAuto(t), img.calibration).thickness.value));
   expect(all.thicknessNm.length).toBeGreaterThan(0);
   expect(all.measurement.tool).toBe('sheets-auto');
   // a region: the tool run on that crop, positions moved back into image pixels

@@ -4,7 +4,7 @@ import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { main } from '../../src/cli/main';
 import { encodeTiff } from '../../testing/encode-tiff';
-import { syntheticImage } from './synthetic';
+import { syntheticImage } from '../../testing/synthetic/stacks';
 
 function capture() {
   const out: string[] = [];
@@ -28,15 +28,18 @@ describe('stratameter sheets', () => {
     expect(code).toBe(0);
     const r = JSON.parse(c.out.join(''));
     expect(r.file).toBe(file);
-    expect(r.calibration).toEqual({ nmPerPx: 0.125, source: 'manual', relUncertainty: 0.05 });
+    expect(r.calibration).toMatchObject({ nmPerPx: 0.125, source: 'manual', relUncertainty: 0.05 });
     expect(r.sheets.map((s: { layers: number }) => s.layers)).toEqual([6, 3]);
     const s = r.sheets[0];
-    for (const k of ['layers', 'thicknessPx', 'thicknessNm', 'edgeToEdgeNm', 'periodPx', 'periodNm', 'angleDeg', 'centerPx']) expect(s).toHaveProperty(k);
-    // 6 layers × 8 px × 0.125 nm/px = 6 nm, within half a period (0.5 nm)
-    expect(Math.abs(s.thicknessNm - 6)).toBeLessThan(0.5);
+    for (const k of ['layers', 'thicknessPx', 'uThicknessPx', 'edgeToEdgePx', 'periodPx', 'angleDeg', 'centerPx', 'thickness', 'period']) expect(s).toHaveProperty(k);
+    // 6 layers × 8 px × 0.125 nm/px = 6 nm, within half a period (0.5 nm); nm only in the expressed blocks
+    expect(Math.abs(s.thickness.thicknessNm - 6)).toBeLessThan(0.5);
+    expect(s.thickness.coverageFactorK).toBe(2);
+    expect(s.thickness.uncertaintyContains).toMatch(/calibration/);
     expect(r.stats.n).toBe(2);
     expect(r.stats.layers.mean).toBeCloseTo(4.5, 12);
-    for (const k of ['mean', 'sd', 'median', 'q1', 'q3', 'min', 'max', 'ci95']) expect(r.stats.thicknessNm).toHaveProperty(k);
+    for (const k of ['mean', 'sd', 'median', 'q1', 'q3', 'min', 'max', 'ci95']) expect(r.stats.thickness).toHaveProperty(k);
+    expect(r.stats.unit).toBe('nm');
   });
   it('automatic detection over the image prints a table', async () => {
     const c = capture();

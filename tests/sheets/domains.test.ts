@@ -2,7 +2,7 @@ import { describe, expect, it } from 'vitest';
 import { makeGreyImage } from '../../src/image/grey-image';
 import { domainMap } from '../../src/sheets/domains';
 import { axialDifferenceDeg } from '../../src/sheets/structure-tensor';
-import { gauss, rng } from './synthetic';
+import { gauss, rng } from '../../testing/synthetic/stacks';
 
 // Two lamellar grains with known truth (algorithm test): left half period 8 px, normal 20°;
 // right half period 11 px, normal 110°; white noise.

@@ -2,7 +2,7 @@ import { describe, expect, it } from 'vitest';
 import { detectSheets } from '../../src/sheets/detect';
 import { sheetsAlongLine } from '../../src/sheets/line';
 import { autoSheetsMeasurement, lineSheetsMeasurement } from '../../src/sheets/record';
-import { syntheticImage } from './synthetic';
+import { syntheticImage } from '../../testing/synthetic/stacks';
 import { expressPeriod } from '../../src/measure/measurement';
 
 // Synthetic 4-layer sheet, period 8 px, calibrated at 0.25 nm/px ± 2 % (known truth).
@@ -37,6 +37,6 @@ describe('sheet measurements as records', () => {
     expect(s[0].outlinePx.length).toBeGreaterThan(2);
   });
   it('rejects a context without id', () => {
-    expect(() => autoSheetsMeasurement({ sheets: [], regions: 0, settings: {} }, { id: '', imageId: null, fileName: 'x', calibration: null })).toThrow(/ctx.id/);
+    expect(() => autoSheetsMeasurement({ sheets: [], rejected: [], periods: [], candidates: 0, message: 'no stacks found', settings: {} }, { id: '', imageId: null, fileName: 'x', calibration: null })).toThrow(/ctx.id/);
   });
 });

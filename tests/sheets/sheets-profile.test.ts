@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { profilePeriod, sheetsAlongProfile } from '../../src/sheets/profile';
-import { rng, gauss, syntheticProfile } from './synthetic';
+import { rng, gauss, syntheticProfile } from '../../testing/synthetic/stacks';
 
 // Synthetic stacks with known truth (algorithm tests): dark Gaussian layer lines, period 8 samples.
 const truth = [

@@ -3,7 +3,7 @@
  * Scenario: clay tactoids (stacks of ≈1 nm silicate layers) dispersed in a polymer film.
  */
 import { makeGreyImage, type GreyImage } from '../../src/image/grey-image';
-import { rng } from '../../testing/random';
+import { rng } from '../random';
 
 // The project's seeded uniform generator (Mulberry32), also re-exported for the sheet tests and bench.
 export { rng };

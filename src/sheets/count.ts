@@ -1,0 +1,291 @@
+/**
+ * Counting the layers of a stack on a profile across it: splitting a band at a gap, choosing
+ * the period its fringes support, refining the period on its own fringes, the edge-to-edge
+ * width, and the tests that tell a stack from a lattice or a plain band.
+ */
+import type { GreyImage } from '../image/grey-image';
+import { periodCandidates, profilePeriodogram } from './profile';
+import { fitLayerComb, smoothProfile, type AcrossProfile, type AxisFrame, type CombFit, type ProfileBand } from './stack-profile';
+
+/** Index of the axis point nearest arc length s. */
+export function indexAt(frame: AxisFrame, s: number): number {
+  let lo = 0;
+  let hi = frame.cumPx.length - 1;
+  while (hi - lo > 1) {
+    const m = (lo + hi) >> 1;
+    if (frame.cumPx[m] < s) lo = m;
+    else hi = m;
+  }
+  return Math.abs(frame.cumPx[lo] - s) <= Math.abs(frame.cumPx[hi] - s) ? lo : hi;
+}
+
+function median(v: number[]): number {
+  const s = [...v].sort((a, b) => a - b);
+  const m = s.length >> 1;
+  return s.length % 2 ? s[m] : 0.5 * (s[m - 1] + s[m]);
+}
+
+/**
+ * Whether a fitted stack of three or more layers shows its layers: the comb explains the band
+ * better than a plain step of the same extent by at least `minGain` noise variances (film
+ * texture makes bands without layers).
+ */
+export function layersResolved(p: AcrossProfile, fit: CombFit, polarity: 'dark' | 'bright', limit: [number, number] | undefined, minGain = 12): boolean {
+  const d = fit.periodPx;
+  const stepOnly = fitLayerComb(p, d, { fromPx: fit.firstPx - d / 2, toPx: fit.firstPx + (fit.layers - 0.5) * d }, { polarity, limitPx: limit, layers: fit.layers, lineSigmasPx: [3 * d], centreReachPx: 0.25 * d });
+  return !stepOnly || (stepOnly.rss - fit.rss) / fit.noiseVar >= minGain;
+}
+
+/** Splits a band at stretches of background inside it (two stacks a short gap apart). */
+export function splitBand(p: AcrossProfile, band: ProfileBand, periodPx: number, polarity: 'dark' | 'bright'): ProfileBand[] {
+  const sm = smoothProfile(p.values, p.weights, (0.5 * periodPx) / p.binPx);
+  const sign = polarity === 'dark' ? -1 : 1;
+  const toBin = (u: number) => Math.round((u - p.startPx) / p.binPx);
+  const a = Math.max(0, toBin(band.fromPx));
+  const b = Math.min(p.values.length - 1, toBin(band.toPx));
+  // background level: median of the bins outside the band within 3 periods
+  const outside: number[] = [];
+  const reach = Math.round((3 * periodPx + 4) / p.binPx);
+  for (let i = Math.max(0, a - reach); i < a; i++) if (Number.isFinite(sm[i])) outside.push(sign * sm[i]);
+  for (let i = b + 1; i <= Math.min(p.values.length - 1, b + reach); i++) if (Number.isFinite(sm[i])) outside.push(sign * sm[i]);
+  if (outside.length < 4) return [band];
+  outside.sort((x, y) => x - y);
+  const bg = outside[outside.length >> 1];
+  const inside: number[] = [];
+  for (let i = a; i <= b; i++) if (Number.isFinite(sm[i])) inside.push(bg - sign * sm[i]);
+  inside.sort((x, y) => x - y);
+  const level = inside[Math.floor(0.75 * inside.length)] ?? 0;
+  if (!(level > 0)) return [band];
+  const gapBins = Math.max(2, Math.round(Math.max(1.5 * periodPx, 3) / p.binPx));
+  const parts: ProfileBand[] = [];
+  let start = a;
+  let run = 0;
+  for (let i = a; i <= b + 1; i++) {
+    const low = i <= b && Number.isFinite(sm[i]) && bg - sign * sm[i] < 0.3 * level;
+    if (low) run++;
+    if (!low || i > b) {
+      if (run >= gapBins) {
+        const gapStart = i - run;
+        if (gapStart - start > 1) parts.push({ ...band, fromPx: p.startPx + start * p.binPx, toPx: p.startPx + gapStart * p.binPx });
+        start = i;
+      }
+      run = 0;
+    }
+  }
+  if (parts.length === 0) return [band];
+  if (b - start > 1) parts.push({ ...band, fromPx: p.startPx + start * p.binPx, toPx: p.startPx + b * p.binPx });
+  return parts;
+}
+
+
+/** Comb fit of a band for each candidate period; the best by residual, with its period. */
+export function bestPeriod(p: AcrossProfile, band: ProfileBand, periods: number[], polarity: 'dark' | 'bright', limit: [number, number] | undefined): { fit: CombFit; periodPx: number } | null {
+  const allowed = periodsWithFringes(p, band, periods);
+  let best: { fit: CombFit; periodPx: number } | null = null;
+  for (const d of allowed) {
+    const fit = fitLayerComb(p, d, band, { polarity, limitPx: limit, countReach: 3 });
+    if (!fit) continue;
+    if (!best || fit.rss < best.fit.rss) best = { fit, periodPx: d };
+  }
+  return best;
+}
+
+
+/**
+ * Power of a band's fringes at a period: the band's bins, a straight line removed, Hann
+ * windowed, transformed at frequency 1/period (a single-frequency discrete Fourier transform,
+ * as in Goertzel's algorithm; common practice).
+ */
+export function fringePowerAt(p: AcrossProfile, band: { fromPx: number; toPx: number }, periodPx: number): number {
+  const xs: number[] = [];
+  const ys: number[] = [];
+  for (let i = 0; i < p.values.length; i++) {
+    const u = p.startPx + i * p.binPx;
+    if (u < band.fromPx || u > band.toPx || !Number.isFinite(p.values[i])) continue;
+    xs.push(u);
+    ys.push(p.values[i]);
+  }
+  const n = xs.length;
+  if (n < 4) return 0;
+  const mx = xs.reduce((a, b) => a + b, 0) / n;
+  const my = ys.reduce((a, b) => a + b, 0) / n;
+  let sxy = 0;
+  let sxx = 0;
+  for (let i = 0; i < n; i++) {
+    sxy += (xs[i] - mx) * (ys[i] - my);
+    sxx += (xs[i] - mx) ** 2;
+  }
+  const slope = sxx > 0 ? sxy / sxx : 0;
+  let re = 0;
+  let im = 0;
+  let ww = 0;
+  for (let i = 0; i < n; i++) {
+    const w = 0.5 - 0.5 * Math.cos((2 * Math.PI * (i + 0.5)) / n);
+    const v = (ys[i] - my - slope * (xs[i] - mx)) * w;
+    const ph = (2 * Math.PI * xs[i]) / periodPx;
+    re += v * Math.cos(ph);
+    im -= v * Math.sin(ph);
+    ww += w * w;
+  }
+  return (re * re + im * im) / Math.max(1e-12, ww);
+}
+
+
+/**
+ * The candidate periods a band's fringes support: those whose fringe power in the band is at
+ * least a quarter of the best candidate's. A stack of period d has no power at 2d, so the image's
+ * coarser phase cannot take it as a comb of every other layer.
+ */
+export function periodsWithFringes(p: AcrossProfile, band: { fromPx: number; toPx: number }, periods: number[]): number[] {
+  if (periods.length < 2) return periods;
+  const pw = periods.map((d) => fringePowerAt(p, band, d));
+  const top = Math.max(...pw);
+  return top > 0 ? periods.filter((_, i) => pw[i] >= 0.25 * top) : periods;
+}
+
+
+/**
+ * Refines the period on a stack's own fringes, its count fixed: the comb's residual over
+ * periods ±6 % in 1 % steps, then ±1 % around the best in 0.25 % steps, and a parabola through
+ * the fine minimum. The standard uncertainty is where the residual rises by one noise variance
+ * (Δχ² = 1, the curvature of the parabola).
+ *
+ * @param p the profile
+ * @param fit the comb found at the image's period
+ * @param polarity the layers' polarity
+ * @param limit bins outside are not used
+ * @returns the refined period, its standard uncertainty (at most 5 %) and the comb at it
+ */
+export function refinePeriod(p: AcrossProfile, fit: CombFit, polarity: 'dark' | 'bright', limit: [number, number] | undefined): { periodPx: number; uPx: number; fit: CombFit } {
+  const d0 = fit.periodPx;
+  const at = (d: number) => fitLayerComb(p, d, { fromPx: fit.centerPx - (fit.layers * d) / 2, toPx: fit.centerPx + (fit.layers * d) / 2 }, { polarity, limitPx: limit, layers: fit.layers, lineSigmasPx: [fit.lineSigmaPx], centreReachPx: 0.5 * d });
+  const scan = (centre: number, step: number, half: number): { d: number; f: CombFit }[] => {
+    const rows: { d: number; f: CombFit }[] = [];
+    for (let k = -half; k <= half; k++) {
+      const d = centre * (1 + step * k);
+      const f = at(d);
+      if (f) rows.push({ d, f });
+    }
+    return rows;
+  };
+  const argmin = (rows: { f: CombFit }[]) => rows.reduce((m, r, i) => (r.f.rss < rows[m].f.rss ? i : m), 0);
+  const coarse = scan(d0, 0.01, 6);
+  if (coarse.length < 3) return { periodPx: d0, uPx: 0, fit };
+  const c = coarse[argmin(coarse)];
+  const rows = scan(c.d, 0.0025, 4);
+  if (rows.length < 3) return { periodPx: c.d, uPx: 0.03 * c.d, fit: c.f };
+  const m = argmin(rows);
+  if (m === 0 || m === rows.length - 1) return { periodPx: rows[m].d, uPx: 0.01 * rows[m].d, fit: rows[m].f };
+  const [ra, rb, rc] = [rows[m - 1], rows[m], rows[m + 1]];
+  const h = rb.d - ra.d;
+  const den = ra.f.rss - 2 * rb.f.rss + rc.f.rss;
+  const shift = den > 0 ? (0.5 * h * (ra.f.rss - rc.f.rss)) / den : 0;
+  const d = rb.d + Math.max(-h, Math.min(h, shift));
+  // curvature of rss(d) is den / h²; the residual rises by one noise variance at ±u
+  const curv = den / (h * h);
+  const u = curv > 0 ? Math.sqrt(rb.f.noiseVar / curv) : 0.03 * d;
+  return { periodPx: d, uPx: Math.min(u, 0.05 * d), fit: rb.f };
+}
+
+/**
+ * Whether the band is periodic along its axis too (a two-dimensional lattice of crossed
+ * fringes): the periodogram of the profile along the band's middle has a peak at a period
+ * within 0.5–3 layer periods that stands out from its neighbourhood (peak over the median of
+ * its two octaves at least 12) and carries at least a fifth of the across-fringe power.
+ */
+export function periodicAlongAxis(image: GreyImage, frame: AxisFrame, centre: number, halfWidth: number, periodPx: number, acrossPower: number): boolean {
+  const { width, height, data } = image;
+  const vals: number[] = [];
+  const steps = Math.max(1, Math.round(halfWidth));
+  // samples every 0.5 px along the axis, averaged across ±halfWidth
+  for (let s = 0.05 * frame.lengthPx; s <= 0.95 * frame.lengthPx; s += 0.5) {
+    const i = indexAt(frame, s);
+    const [px, py] = frame.points[i];
+    const [tx, ty] = frame.tangents[i];
+    const [nx, ny] = frame.normals[i];
+    const ds = s - frame.cumPx[i];
+    let sum = 0;
+    let cnt = 0;
+    for (let k = -steps; k <= steps; k++) {
+      const u = centre + (k / steps) * halfWidth;
+      const x = px + ds * tx + u * nx;
+      const y = py + ds * ty + u * ny;
+      const xi = Math.round(x);
+      const yi = Math.round(y);
+      if (xi < 0 || yi < 0 || xi >= width || yi >= height) continue;
+      sum += data[yi * width + xi];
+      cnt++;
+    }
+    vals.push(cnt ? sum / cnt : NaN);
+  }
+  const clean = vals.filter(Number.isFinite);
+  if (clean.length < 32) return false;
+  let size = 1;
+  while (size < 2 * clean.length) size <<= 1;
+  const pw = profilePeriodogram(clean, size, Math.max(2 * periodPx, 6));
+  // period in samples (0.5 px): 2 × px
+  const c = periodCandidates(pw, size, Math.max(2.2, 2 * 0.5 * periodPx), Math.min(clean.length / 3, 2 * 3 * periodPx), 1)[0];
+  if (!c || c.peakToMedian < 12) return false;
+  const k = Math.round(size / c.periodPx);
+  let along = 0;
+  for (let j = Math.max(1, k - 2); j <= Math.min(pw.length - 1, k + 2); j++) along += pw[j];
+  along /= clean.length;
+  return along > 0.2 * acrossPower;
+}
+
+
+/** Power of the fringes across a stack: the periodogram of the band part of its profile at its period, per sample. */
+export function acrossFringePower(p: AcrossProfile, fit: CombFit): number {
+  const d = fit.periodPx;
+  const a = Math.max(0, Math.floor((fit.firstPx - d / 2 - p.startPx) / p.binPx));
+  const b = Math.min(p.values.length - 1, Math.ceil((fit.firstPx + (fit.layers - 0.5) * d - p.startPx) / p.binPx));
+  const v: number[] = [];
+  for (let i = a; i <= b; i++) if (Number.isFinite(p.values[i])) v.push(p.values[i]);
+  if (v.length < 8) return 0;
+  let size = 1;
+  while (size < 2 * v.length) size <<= 1;
+  const pw = profilePeriodogram(v, size, Math.max(2 * d, 4));
+  const k = Math.round((size * p.binPx) / d);
+  let s = 0;
+  for (let j = Math.max(1, k - 2); j <= Math.min(pw.length - 1, k + 2); j++) s += pw[j];
+  return s / v.length;
+}
+
+
+/** Edge-to-edge width of a fitted stack on its profile: where the darkening (fringes smoothed away) falls to half its level inside, px. */
+export function edgeToEdge(p: AcrossProfile, f: CombFit, polarity: 'dark' | 'bright'): number | null {
+  const sign = polarity === 'dark' ? -1 : 1;
+  const sm = smoothProfile(p.values, p.weights, (0.5 * f.periodPx) / p.binPx);
+  const toBin = (u: number) => Math.round((u - p.startPx) / p.binPx);
+  const a = toBin(f.firstPx - f.periodPx / 2);
+  const b = toBin(f.firstPx + (f.layers - 0.5) * f.periodPx);
+  const out: number[] = [];
+  const reach = Math.round((2 * f.periodPx + 3) / p.binPx);
+  for (let i = Math.max(0, a - reach); i < Math.max(0, a - 1); i++) if (Number.isFinite(sm[i])) out.push(sign * sm[i]);
+  for (let i = Math.min(sm.length, b + 2); i < Math.min(sm.length, b + reach); i++) if (Number.isFinite(sm[i])) out.push(sign * sm[i]);
+  if (out.length < 3) return null;
+  const bg = median(out);
+  const c = toBin(f.centerPx);
+  if (!(c >= 0 && c < sm.length)) return null;
+  const ins: number[] = [];
+  for (let i = Math.max(0, a); i <= Math.min(sm.length - 1, b); i++) if (Number.isFinite(sm[i])) ins.push(sign * sm[i]);
+  if (ins.length < 2) return null;
+  const level = median(ins);
+  if (!(bg - level > 0)) return null;
+  const halfLevel = bg - 0.5 * (bg - level);
+  let l = c;
+  while (l > 0 && Number.isFinite(sm[l - 1]) && sign * sm[l - 1] < halfLevel) l--;
+  let r = c;
+  while (r < sm.length - 1 && Number.isFinite(sm[r + 1]) && sign * sm[r + 1] < halfLevel) r++;
+  // linear interpolation of the crossings
+  const at = (i: number, j: number) => {
+    const vi = sign * sm[i];
+    const vj = sign * sm[j];
+    return vj === vi ? 0 : (halfLevel - vi) / (vj - vi);
+  };
+  const left = l > 0 ? l - at(l, l - 1) : l;
+  const right = r < sm.length - 1 ? r + at(r, r + 1) : r;
+  return (right - left) * p.binPx;
+}
+
+
