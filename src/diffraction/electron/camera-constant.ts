@@ -71,8 +71,10 @@ export interface CameraConstantOptions extends RingAnalysisOptions {
  * @returns the indexed rings and the constant's first estimate, or an error saying why none fits
  * Notes: every pairing of one of the three innermost measured rings with one of the five
  * innermost reflections proposes K = g/R; the proposal indexing the most rings (then with the
- * smallest spread) wins; at least three rings must be indexed, each to its own reflection, and no
- * ring half as strong as the strongest may be left unindexed.
+ * smallest spread) wins; at least three rings must be indexed, each to its own reflection, no
+ * ring half as strong as the strongest may be left unindexed, the standard's first ring must be
+ * among them (unless inside the innermost ring found), and at least two thirds of the standard's
+ * rings inside the outermost indexed one must be found.
  * Ratio indexing of ring patterns (common practice; fcc ratios √3 : √4 : √8 : √11 …, reference-values §6).
  */
 export function indexRings(rings: readonly MeasuredRing[], standard: RingStandard, relTolerance = 0.006): { indexed: IndexedRing[]; unindexed: MeasuredRing[]; k: number } | { error: string } {
@@ -99,6 +101,17 @@ export function indexRings(rings: readonly MeasuredRing[], standard: RingStandar
       // fit fcc ratios, but the strong bcc 110 then stays unexplained)
       const strongest = Math.max(...sorted.map((q) => q.height));
       if (sorted.some((q) => q.height >= 0.5 * strongest && !pairs.some((p) => p.ring === q))) continue;
+      // and the standard's rings inside the outermost indexed one must mostly be there, its first
+      // (strongest in fcc metals) always when it falls outside the innermost radius searched:
+      // bcc rings 110, 200, 211, 220, 310 have exactly the ratios of fcc 200, 220, 222, 400, 420
+      if (pairs.length) {
+        const gMax = Math.max(...pairs.map((p) => p.r.gInvNm));
+        const expected = refl.filter((r) => r.gInvNm <= gMax * (1 + relTolerance));
+        const innermost = sorted[0].radiusPx;
+        const first = refl[0];
+        if (first.gInvNm / k > 0.9 * innermost && !pairs.some((p) => p.r === first)) continue;
+        if (pairs.length < (2 / 3) * expected.length) continue;
+      }
       const ks = pairs.map((p) => p.r.gInvNm / p.ring.radiusPx);
       const mean = ks.reduce((s, v) => s + v, 0) / ks.length;
       const spread = Math.sqrt(ks.reduce((s, v) => s + (v / mean - 1) ** 2, 0) / ks.length);
@@ -106,7 +119,7 @@ export function indexRings(rings: readonly MeasuredRing[], standard: RingStandar
     }
   }
   if (!best || best.pairs.length < 3) {
-    return { error: `${sorted.length} rings found (radii ${sorted.map((r) => r.radiusPx.toFixed(1)).join(', ')} px), but no camera constant makes three or more of them fit the ${standard.name} reflections within ${(100 * relTolerance).toFixed(1)} % while explaining every strong ring: check the standard, or that this is a ring pattern of it` };
+    return { error: `${sorted.length} rings found (radii ${sorted.map((r) => r.radiusPx.toFixed(1)).join(', ')} px), but no camera constant makes three or more of them fit the ${standard.name} reflections within ${(100 * relTolerance).toFixed(1)} % while explaining every strong ring and missing none of the standard's main rings: check the standard, or that this is a ring pattern of it` };
   }
   const indexed = best.pairs.map((p) => ({ ring: p.ring, hkl: p.r.hkl, dNm: p.r.dNm, kInvNmPerPx: p.r.gInvNm / p.ring.radiusPx, relResidual: 0 }));
   const unindexed = sorted.filter((r) => !indexed.some((i) => i.ring === r));
