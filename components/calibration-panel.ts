@@ -4,7 +4,8 @@
 import { LitElement, css, html, nothing } from 'lit';
 import type { Calibration, GreyImage } from '../src/image/grey-image';
 import { findScaleBar, type ScaleBar } from '../src/calibration/scale-bar';
-import { checkMicroPrefix, LABEL_CHARACTERS, parseScaleLabel, prepareLabelForOcr, scaleBarCalibration } from '../src/calibration/label';
+import { LABEL_CHARACTERS, labelQuestion, parseScaleLabel, scaleBarCalibration } from '../src/calibration/label';
+import { readLabel } from '../src/calibration/label-read';
 import { manualCalibration, typedCalibration } from '../src/calibration/manual';
 import { calibrateFromStandard, LATTICE_STANDARDS, standardPeriodFromSpots, type StandardPeriod } from '../src/calibration/standards';
 import { compareCalibrations } from '../src/calibration/compare';
@@ -161,17 +162,18 @@ export class StrataCalibrationPanel extends LitElement {
         this.reader = createTextReader({ whitelist: LABEL_CHARACTERS });
       }
       const reader = await this.reader;
-      const raster = prepareLabelForOcr(image, bar.labelBox);
-      const ocr = await reader.read(raster);
-      const text = checkMicroPrefix(raster, ocr.text, ocr.symbols);
-      const parsed = parseScaleLabel(text);
-      if (parsed) {
-        this.labelText = `${parsed.value} ${parsed.unit}`;
-        this.ocrNote = `Read "${text}" (confidence ${ocr.confidence.toFixed(2)}). Check it against the image.`;
-        this.candidate = scaleBarCalibration(bar, parsed.nm);
+      // two readers (OCR over several crops and scales, and the glyph reader) must agree on a
+      // round value; otherwise the user is asked, with what was read and why
+      const reading = await readLabel(image, bar, reader);
+      if (reading.status === 'read' && reading.label) {
+        this.labelText = reading.label.text;
+        const conf = Math.max(0, ...reading.attempts.filter((a) => a.reader === 'ocr' && a.nm === reading.label!.nm).map((a) => a.confidence));
+        this.ocrNote = `Read "${reading.label.text}" by both readers (OCR confidence ${conf.toFixed(2)}). Check it against the image.`;
+        this.candidate = scaleBarCalibration(bar, reading.label.nm);
       } else {
         this.labelText = '';
-        this.ocrNote = `The label could not be read${ocr.text ? ` (OCR gave "${ocr.text}")` : ''}: type it, e.g. 200 nm.`;
+        this.candidate = null;
+        this.ocrNote = labelQuestion(reading);
       }
     } catch (e) {
       this.ocrNote = `Label reading failed: ${(e as Error).message}. Type the label.`;

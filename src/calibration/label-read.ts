@@ -165,7 +165,8 @@ export function decide(attempts: LabelAttempt[], rule: { minOcr: number; minGlyp
   }
   const ocrFor = top.filter((a) => a.reader === 'ocr');
   const glyphFor = top.filter((a) => a.reader === 'glyphs');
-  const ocrAgainst = others.filter((a) => a.reader === 'ocr');
+  // an OCR reading the engine itself rates below 0.4 is no vote against (it is still reported)
+  const ocrAgainst = others.filter((a) => a.reader === 'ocr' && a.confidence >= 0.4);
   const glyphAgainst = others.filter((a) => a.reader === 'glyphs');
   const shown = (g: LabelAttempt[]) => `"${g[0].text}" (${g.map((a) => `${a.reader === 'ocr' ? 'OCR' : 'glyphs'} ${a.confidence.toFixed(2)}`).join(', ')})`;
   if (ocrFor.length < 2) reasons.push(`the OCR engine read "${top[0].text}" in ${ocrFor.length} of its crops and scales, not at least two`);

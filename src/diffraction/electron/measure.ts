@@ -107,7 +107,8 @@ function checkCamera(c: CameraSetting): void {
  * Notes: d = 1/(K·R), R the corrected radius: u(d)/d = √((u_R/R)² + (u_K/K)²) (GUM §5.1.6), the two
  * parts kept apart. Rings: analyseRings with the camera's distortion fixed. Spots: the centre from
  * Friedel pairs; a pair's vector is half the distance between the mates (the centre drops out); an
- * unpaired spot carries the centre's uncertainty. The angle between two spots' vectors in the
+ * unpaired spot carries the centre's uncertainty; position uncertainties are scaled by the Birge
+ * ratio of the pairs' midpoints when above 1 (their scatter shows the real position error). The angle between two spots' vectors in the
  * corrected pattern; its uncertainty from the positions (first order).
  */
 export function measureElectronPattern(image: GreyImage, camera: CameraSetting, options: PatternMeasureOptions = {}): PatternMeasurement {
@@ -150,6 +151,9 @@ export function measureElectronPattern(image: GreyImage, camera: CameraSetting, 
     }
     const geo = geometry;
     const t = correction(geo);
+    // the spots' fitted position uncertainties, scaled when the Friedel pairs' midpoints scatter more than they allow
+    const posScale = Math.max(1, found.birgeRatio);
+    if (found.birgeRatio > 1.5) notes.push(`the Friedel pairs' midpoints scatter ${found.birgeRatio.toFixed(1)}× more than the spots' fitted positions allow: the position uncertainties are scaled by that ratio`);
     const done = new Set<number>();
     found.spots.forEach((s, i) => {
       if (done.has(i)) return;
@@ -162,11 +166,11 @@ export function measureElectronPattern(image: GreyImage, camera: CameraSetting, 
         const dx = (s.x - m.x) / 2;
         const dy = (s.y - m.y) / 2;
         v = [t[0] * dx + t[1] * dy, t[1] * dx + t[2] * dy];
-        uPos = 0.5 * Math.sqrt((s.uX ** 2 + m.uX ** 2 + s.uY ** 2 + m.uY ** 2) / 2);
+        uPos = posScale * 0.5 * Math.sqrt((s.uX ** 2 + m.uX ** 2 + s.uY ** 2 + m.uY ** 2) / 2);
         fromPair = true;
       } else {
         v = correctedVector(geo, s.x, s.y, t);
-        uPos = Math.sqrt((s.uX ** 2 + s.uY ** 2) / 2 + (uCx ** 2 + uCy ** 2) / 2);
+        uPos = Math.sqrt((posScale ** 2 * (s.uX ** 2 + s.uY ** 2)) / 2 + (uCx ** 2 + uCy ** 2) / 2);
       }
       done.add(i);
       const r = Math.hypot(v[0], v[1]);

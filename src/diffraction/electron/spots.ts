@@ -201,9 +201,11 @@ export function findSpots(image: GreyImage, geometry: PatternGeometry, options: 
 /**
  * The centre of a spot pattern refined from its Friedel pairs.
  * @param spots spots with their mates paired
- * @returns the weighted mean of the pairs' midpoints with its standard uncertainty, or null without pairs
+ * @returns the weighted mean of the pairs' midpoints with its standard uncertainty (scaled by the
+ *   Birge ratio of the midpoints when above 1) and that ratio, or null without pairs
+ * Notes: weighted mean; Birge, Phys. Rev. 40, 207 (1932).
  */
-export function centreFromPairs(spots: readonly PatternSpot[]): { cx: number; cy: number; uCx: number; uCy: number; pairs: number } | null {
+export function centreFromPairs(spots: readonly PatternSpot[]): { cx: number; cy: number; uCx: number; uCy: number; pairs: number; birgeRatio: number } | null {
   let sw = 0;
   let sx = 0;
   let sy = 0;
@@ -219,11 +221,24 @@ export function centreFromPairs(spots: readonly PatternSpot[]): { cx: number; cy
     n++;
   });
   if (n === 0) return null;
-  return { cx: sx / sw, cy: sy / sw, uCx: Math.sqrt(1 / sw), uCy: Math.sqrt(1 / sw), pairs: n };
+  const cx = sx / sw;
+  const cy = sy / sw;
+  // Birge ratio of the midpoints about their mean: each pair is an independent estimate of the
+  // centre, so their scatter shows whether the spots' fitted uncertainties are realistic
+  let chi2 = 0;
+  spots.forEach((s, i) => {
+    if (s.mate === null || s.mate < i) return;
+    const m = spots[s.mate];
+    const u2 = (s.uX ** 2 + m.uX ** 2 + s.uY ** 2 + m.uY ** 2) / 8 + 1e-12;
+    chi2 += (((s.x + m.x) / 2 - cx) ** 2 + ((s.y + m.y) / 2 - cy) ** 2) / u2;
+  });
+  const birge = n > 1 ? Math.sqrt(chi2 / (2 * (n - 1))) : 1;
+  const scale = Math.max(1, birge);
+  return { cx, cy, uCx: scale * Math.sqrt(1 / sw), uCy: scale * Math.sqrt(1 / sw), pairs: n, birgeRatio: birge };
 }
 
 /** Finds the centre of a spot pattern: Friedel symmetry first, then the pairs' midpoints. */
-export function spotPatternCentre(image: GreyImage, distortion: { e1: number; e2: number }, options: SpotFindOptions = {}): { geometry: PatternGeometry; spots: PatternSpot[]; uCx: number; uCy: number; pairs: number } {
+export function spotPatternCentre(image: GreyImage, distortion: { e1: number; e2: number }, options: SpotFindOptions = {}): { geometry: PatternGeometry; spots: PatternSpot[]; uCx: number; uCy: number; pairs: number; birgeRatio: number } {
   const mask = options.mask ?? patternMask(image);
   const c0 = findPatternCentre(image, { mask });
   let geo: PatternGeometry = { cx: c0.cx, cy: c0.cy, ...distortion };
@@ -235,7 +250,7 @@ export function spotPatternCentre(image: GreyImage, distortion: { e1: number; e2
     refined = centreFromPairs(spots) ?? refined;
     geo = { ...geo, cx: refined.cx, cy: refined.cy };
   }
-  return { geometry: geo, spots, uCx: refined?.uCx ?? 1, uCy: refined?.uCy ?? 1, pairs: refined?.pairs ?? 0 };
+  return { geometry: geo, spots, uCx: refined?.uCx ?? 1, uCy: refined?.uCy ?? 1, pairs: refined?.pairs ?? 0, birgeRatio: refined?.birgeRatio ?? 1 };
 }
 
 /** Separable Gaussian smoothing of an image, masked pixels counted as 0 and left out of the weights. */
