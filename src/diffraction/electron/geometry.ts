@@ -78,7 +78,7 @@ export function distortionOf(eps: number, majorAxisDeg: number): { e1: number; e
 export interface CentreOptions {
   /** Largest side of the reduced pattern the symmetry is searched on, px (default 512). */
   workingSizePx?: number;
-  /** Pixels to leave out (1 = excluded): a beam stop, dead or saturated pixels. Found automatically when absent. */
+  /** Pixels to leave out (1 = excluded): a beam stop, dead or saturated pixels. Found automatically when absent (about each centre found, until it settles). */
   mask?: Uint8Array;
 }
 
@@ -194,12 +194,29 @@ function fft2(re: Float64Array, im: Float64Array, n: number, inverse: boolean): 
  * Reference: Friedel's law; centring by symmetry (common practice in diffraction data reduction).
  */
 export function findPatternCentre(image: GreyImage, options: CentreOptions = {}): { cx: number; cy: number } {
-  const { width, height, data } = image;
+  const { width, height } = image;
   if (width < 16 || height < 16) throw new RangeError(`a pattern of ${width} × ${height} px is too small to find its centre (at least 16 × 16)`);
   const work = options.workingSizePx ?? 512;
   if (!(work >= 32 && work <= 2048)) throw new RangeError(`workingSizePx must be in [32, 2048], got ${work}`);
-  const mask = options.mask ?? patternMask(image);
-  if (mask.length !== width * height) throw new RangeError(`the mask has ${mask.length} values, not ${width} × ${height}`);
+  if (options.mask) {
+    if (options.mask.length !== width * height) throw new RangeError(`the mask has ${options.mask.length} values, not ${width} × ${height}`);
+    return symmetryCentre(image, options.mask, work);
+  }
+  // the automatic mask depends on the centre (a stop's shadow is dark for its radius): found about
+  // the image centre first, then again about each new centre until it settles (a stop's unmasked
+  // part breaks the symmetry the search relies on)
+  let c = symmetryCentre(image, patternMask(image), work);
+  for (let i = 0; i < 3; i++) {
+    const next = symmetryCentre(image, patternMask(image, c), work);
+    const moved = Math.hypot(next.cx - c.cx, next.cy - c.cy);
+    c = next;
+    if (moved < 0.5) break;
+  }
+  return c;
+}
+
+function symmetryCentre(image: GreyImage, mask: Uint8Array, work: number): { cx: number; cy: number } {
+  const { width, height, data } = image;
   const f = Math.max(1, Math.ceil(Math.max(width, height) / work));
   const w = Math.floor(width / f);
   const h = Math.floor(height / f);

@@ -355,9 +355,8 @@ export function analyseRings(image: GreyImage, options: RingAnalysisOptions = {}
   if (!Number.isInteger(maxRings) || maxRings < 1 || maxRings > 40) throw new RangeError(`maxRings must be an integer from 1 to 40, got ${maxRings}`);
   if (!Number.isInteger(sectors) || sectors < 12 || sectors > 720) throw new RangeError(`sectors must be an integer from 12 to 720, got ${sectors}`);
   const notes: string[] = [];
-  let mask = options.mask ?? patternMask(image);
-  const c0 = options.centre ?? findPatternCentre(image, { mask });
-  if (!options.mask) mask = patternMask(image, c0);
+  const c0 = options.centre ?? findPatternCentre(image, options.mask ? { mask: options.mask } : {});
+  const mask = options.mask ?? patternMask(image, c0);
   let maskedPx = 0;
   for (const v of mask) maskedPx += v;
   let geo: PatternGeometry = { ...roundGeometry(c0.cx, c0.cy), ...(options.distortion ?? {}) };

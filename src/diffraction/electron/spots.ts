@@ -239,8 +239,8 @@ export function centreFromPairs(spots: readonly PatternSpot[]): { cx: number; cy
 
 /** Finds the centre of a spot pattern: Friedel symmetry first, then the pairs' midpoints. */
 export function spotPatternCentre(image: GreyImage, distortion: { e1: number; e2: number }, options: SpotFindOptions = {}): { geometry: PatternGeometry; spots: PatternSpot[]; uCx: number; uCy: number; pairs: number; birgeRatio: number } {
-  const mask = options.mask ?? patternMask(image);
-  const c0 = findPatternCentre(image, { mask });
+  const c0 = findPatternCentre(image, options.mask ? { mask: options.mask } : {});
+  const mask = options.mask ?? patternMask(image, c0);
   let geo: PatternGeometry = { cx: c0.cx, cy: c0.cy, ...distortion };
   let spots = findSpots(image, geo, { ...options, mask });
   let refined = centreFromPairs(spots);
