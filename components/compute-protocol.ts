@@ -6,6 +6,9 @@
  * session id; every later call on it sends that id and a region or a line, never pixels. Calls
  * marked "crop" take a copy of the pixels instead; they serve panels not yet moved to the session.
  */
+import type { CameraConstant } from '../src/diffraction/electron/camera-constant';
+import type { CameraSetting, PatternMeasurement } from '../src/diffraction/electron/measure';
+import type { RingAnalysis } from '../src/diffraction/electron/rings';
 import type { Calibration, GreyImage } from '../src/image/grey-image';
 import type { GreyHistogram } from '../src/image/display';
 import type { Measurement, Region } from '../src/measure/measurement';
@@ -64,9 +67,19 @@ export interface ComputeCalls {
   };
   /** Reads a diffraction pattern's text and fits its peaks (seconds on a few thousand points). */
   analysePattern: { args: { text: string; wavelength?: string; fileName?: string }; result: { pattern: Pattern; analysis: PatternAnalysis } };
+  /** Electron diffraction (issue 14): the camera constant from a copy of a ring standard's pattern (Electron diffraction panel). */
+  cameraConstant: {
+    args: { image: GreyImage; standard: { id: string } | { aNm: number; uANm: number; centring: 'F' | 'I' | 'P' }; voltageKv?: number; detectorPixelUm?: number };
+    result: ElectronCameraResult;
+  };
+  /** Electron diffraction: ring and spot d-spacings of a copy of a sample's pattern with a camera setting (Electron diffraction panel). */
+  electronPattern: { args: { image: GreyImage; camera: CameraSetting; what: 'rings' | 'spots' | 'both' }; result: PatternMeasurement };
   /** Crop: automatic sheet detection over a copy of an image, skipping a scale-bar strip or panel (Sheets panel). */
   autoSheets: { args: { image: GreyImage; polarity: 'dark' | 'bright' }; result: { sheets: AutoSheetsResult; excludedBox: [number, number, number, number] | null } };
 }
+
+/** A camera constant with the ring analysis it rests on (geometry, centre uncertainty, notes). */
+export type ElectronCameraResult = CameraConstant & { analysis: Omit<RingAnalysis, 'rings'> };
 
 export type CallName = keyof ComputeCalls;
 export type CallArgs<K extends CallName> = ComputeCalls[K]['args'];

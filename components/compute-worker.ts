@@ -110,6 +110,16 @@ const handlers: Handlers = {
     const excludedBox = bar ? bar.stripBox ?? bar.panelBox : null;
     return { sheets: detectSheets(image, { exclude: excludedBox, polarity }), excludedBox };
   },
+  cameraConstant: async ({ image, standard, voltageKv, detectorPixelUm }) => {
+    const { calibrateCameraConstant } = await import('../src/diffraction/electron/camera-constant');
+    const { ringStandard, userRingStandard } = await import('../src/diffraction/electron/standards');
+    const s = 'id' in standard ? ringStandard(standard.id) : userRingStandard(standard.aNm, standard.uANm, standard.centring);
+    return calibrateCameraConstant(image, s, { voltageKv, detectorPixelUm });
+  },
+  electronPattern: async ({ image, camera, what }) => {
+    const { measureElectronPattern } = await import('../src/diffraction/electron/measure');
+    return measureElectronPattern(image, camera, { what });
+  },
   analysePattern: async ({ text, wavelength, fileName }) => {
     const { readPatternFile } = await import('../src/diffraction/read-pattern');
     const { analysePattern: analyse } = await import('../src/diffraction/analyse');
