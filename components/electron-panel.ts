@@ -50,6 +50,7 @@ export class StrataElectronPanel extends LitElement {
       th, td { padding: 2px 4px; text-align: right; border-bottom: 1px solid var(--line); }
       th:first-child, td:first-child { text-align: left; }
       input[type='text'] { width: 9em; }
+      select { max-width: 100%; }
       p { margin: 4px 0; }
     `,
   ];
@@ -178,7 +179,7 @@ export class StrataElectronPanel extends LitElement {
       <p class="num">λL = ${sig(c.lambdaLNmPx)} nm·px${c.cameraLengthPx !== null ? html`; L = ${sig(c.cameraLengthPx, 5)} px${c.cameraLengthMm !== null ? ` = ${c.cameraLengthMm.toFixed(1)} mm` : ''} at ${c.voltageKv} kV (λ = ${sig((c.wavelengthNm ?? 0) * 1000, 5)} pm)` : ''}</p>
       <p class="num">ellipticity ${(100 * c.ellipticity).toFixed(2)} ± ${(200 * c.uEllipticity).toFixed(2)} %, major axis ${c.majorAxisDeg.toFixed(1)}°; centre ${c.analysis.geometry.cx.toFixed(2)}, ${c.analysis.geometry.cy.toFixed(2)} px</p>
       <table>
-        <thead><tr><th>hkl</th><th>radius (px)</th><th>d (nm)</th><th>K of ring − K</th></tr></thead>
+        <thead><tr><th>hkl</th><th>radius (px)</th><th>d (nm)</th><th>ring's K − K</th></tr></thead>
         <tbody>${c.rings.map((r) => html`<tr><td>${r.hkl.join('')}</td><td>${r.ring.radiusPx.toFixed(2)}</td><td>${r.dNm.toFixed(5)}</td><td>${(100 * r.relResidual).toFixed(3)} %</td></tr>`)}</tbody>
       </table>
       ${c.unindexedRadiiPx.length ? html`<p class="muted">Not indexed: rings at ${c.unindexedRadiiPx.map((r) => r.toFixed(1)).join(', ')} px.</p>` : nothing}
