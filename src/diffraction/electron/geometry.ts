@@ -90,7 +90,7 @@ export interface CentreOptions {
  * @returns a mask, 1 = leave out
  * Notes: a pixel is left out when it lies below a quarter of the upper quartile of its ring
  * (radius bin of 2 px about the centre; near the centre a stop may cover most of a ring, so not
- * the median) and its 5 × 5 neighbourhood does too (the shadow of an opaque stop
+ * the median, and all of it, so the highest upper quartile within 10 px outside counts too) and its 5 × 5 neighbourhood does too (the shadow of an opaque stop
  * is a region, not a dark pixel), or when it holds the image's maximum and at least 8 pixels do
  * (clipping); the mask is grown by 2 px. Common practice in azimuthal integration.
  */
@@ -109,11 +109,18 @@ export function patternMask(image: GreyImage, centre?: { cx: number; cy: number 
     s.sort((a, b) => a - b);
     return s[Math.floor(0.75 * (s.length - 1))];
   });
+  // a ring the stop covers entirely (near the centre) has no level of its own: take the highest
+  // upper quartile within 10 px outside it too
+  const ref = med.map((_, b) => {
+    let v = NaN;
+    for (let j = b; j < Math.min(med.length, b + 6); j++) if (Number.isFinite(med[j]) && !(med[j] <= v)) v = med[j];
+    return v;
+  });
   const lo = image.min;
   const dark = new Uint8Array(width * height);
   for (let y = 0; y < height; y++) {
     for (let x = 0; x < width; x++) {
-      const m = med[Math.floor(Math.hypot(x - cx, y - cy) / 2)];
+      const m = ref[Math.floor(Math.hypot(x - cx, y - cy) / 2)];
       if (Number.isFinite(m) && data[y * width + x] - lo < 0.25 * (m - lo)) dark[y * width + x] = 1;
     }
   }
