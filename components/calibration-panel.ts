@@ -144,16 +144,24 @@ export class StrataCalibrationPanel extends LitElement {
     this.emit('status-message', { text, kind });
   }
 
-  private async findBar(): Promise<void> {
+  /**
+   * Finds the bar (over the whole image, or only inside the drawn region when `inRegion`, with the
+   * contrast checks relaxed there for a bar drawn on a busy picture) and reads its label.
+   */
+  private async findBar(inRegion = false): Promise<void> {
     const image = this.image;
     if (!image) return;
     this.busy = true;
     try {
-      const bar = findScaleBar(image);
+      const r = this.rect;
+      const box = inRegion && r ? ([Math.max(0, Math.round(r.x)), Math.max(0, Math.round(r.y)), Math.round(r.width), Math.round(r.height)] as [number, number, number, number]) : undefined;
+      const bar = findScaleBar(image, box ? { searchBox: box } : {});
       this.bar = bar;
       this.candidate = null;
       if (!bar) {
-        this.ocrNote = 'No scale bar found. Use two points on a feature of known length or a standard.';
+        this.ocrNote = box
+          ? 'No scale bar in the drawn region: draw it snugly around the bar and its label.'
+          : 'No scale bar found. Draw a region around it with the Region tool and search there, or use two points on a feature of known length or a standard.';
         this.emit('overlay-shapes', { shapes: [] });
         return;
       }
@@ -356,7 +364,8 @@ export class StrataCalibrationPanel extends LitElement {
       </section>
       <section>
         <h3>Scale bar</h3>
-        <div class="row"><button ?disabled=${this.busy} @click=${() => this.findBar()}>Find and read the scale bar</button></div>
+        <div class="row"><button ?disabled=${this.busy} @click=${() => this.findBar()}>Find and read the scale bar</button>
+          <button ?disabled=${this.busy || !this.rect} @click=${() => this.findBar(true)} title="Draw a region around the bar and its label with the Region tool: for a bar drawn on a busy picture">Search the drawn region</button></div>
         ${this.bar
           ? html`<p class="num">Bar ${sig(this.bar.lengthPx)} ± ${sig(this.bar.uncertaintyPx, 2)} px (${this.bar.polarity})</p>
               <div class="row"><label>Label <input type="text" .value=${this.labelText} placeholder="e.g. 200 nm" @input=${this.onLabelInput} /></label></div>`

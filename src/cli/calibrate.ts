@@ -32,6 +32,8 @@ Options:
   --json                 one JSON object on standard output instead of text
   --label TEXT           the scale bar's label as you read it, e.g. "200 nm" (skips OCR)
   --no-ocr               find the bar but do not read its label
+  --bar-box X,Y,W,H      look for the bar only in this rectangle (px), with the contrast checks
+                         relaxed there: for a bar drawn on a busy picture
   --standard ID          calibrate from a lattice standard (see --list-standards; a zone-axis
                          id gives two axes and shear) ...
   --spacing D±U          ... or from a spacing of your own, nm, with its standard uncertainty
@@ -86,10 +88,10 @@ export interface CalibrateReport {
   } | null;
 }
 
-function parseBox(text: string): { x: number; y: number; width: number; height: number } {
+function parseBox(text: string, name = 'region'): { x: number; y: number; width: number; height: number } {
   const v = text.split(',').map((s) => Number(s.trim()));
   if (v.length !== 4 || !v.every((n) => Number.isInteger(n)) || v[2] < 1 || v[3] < 1 || v[0] < 0 || v[1] < 0) {
-    throw new UsageError(`--region must be four non-negative integers X,Y,W,H with W, H ≥ 1, got '${text}'`);
+    throw new UsageError(`--${name} must be four non-negative integers X,Y,W,H with W, H ≥ 1, got '${text}'`);
   }
   return { x: v[0], y: v[1], width: v[2], height: v[3] };
 }
@@ -151,7 +153,7 @@ export const command: CliCommand = {
   usage,
   async run(args: string[], io: CliIo): Promise<number> {
     const { positional, options, flags } = parseArgs(args, {
-      values: ['label', 'standard', 'spacing', 'region', 'period-px', 'period-uncertainty-px'],
+      values: ['label', 'standard', 'spacing', 'region', 'period-px', 'period-uncertainty-px', 'bar-box'],
       booleans: ['json', 'no-ocr', 'list-standards'],
     });
     if (flags.has('list-standards')) {
@@ -195,6 +197,12 @@ export const command: CliCommand = {
     if (image.calibration) candidates.push(image.calibration);
 
     // the scale bar: its label read by two readers that must agree, or given with --label
+    let barOptions = {};
+    if (options.has('bar-box')) {
+      const b = parseBox(options.get('bar-box')!, 'bar-box');
+      if (b.x + b.width > image.width || b.y + b.height > image.height) throw new UsageError(`--bar-box ${options.get('bar-box')} reaches outside the ${image.width} × ${image.height} image`);
+      barOptions = { searchBox: [b.x, b.y, b.width, b.height] };
+    }
     let bar: ScaleBar | null = null;
     let label: NonNullable<CalibrateReport['scaleBar']>['label'] = null;
     let unreadText: string | null = null;
@@ -203,7 +211,7 @@ export const command: CliCommand = {
       const { createTextReader } = await import('../calibration/ocr');
       const reader = await createTextReader({ whitelist: LABEL_CHARACTERS });
       try {
-        const r = await readScaleBar(image, reader);
+        const r = await readScaleBar(image, reader, barOptions);
         bar = r.bar;
         if (r.label && r.calibration) {
           label = { value: r.label.value, unit: r.label.unit, text: r.label.text, confidence: r.label.ocrConfidence };
@@ -216,7 +224,7 @@ export const command: CliCommand = {
         await reader.close();
       }
     } else {
-      bar = findScaleBar(image);
+      bar = findScaleBar(image, barOptions);
       if (bar && typedLabel !== undefined) {
         const p = parseScaleLabel(typedLabel)!;
         label = { value: p.value, unit: p.unit, text: typedLabel, confidence: 1 };

@@ -135,3 +135,23 @@ test('calibrate --standard si-110 --region: both axes and the shear of a distort
   expect(await main(['calibrate', file, '--no-ocr', '--standard', 'si-110', '--period-px', '5'], e.io)).toBe(2);
   expect(e.err.join('')).toMatch(/si-110 \(a zone-axis lattice\) needs --region/);
 }, 60000);
+
+test('calibrate --bar-box: a bar drawn straight onto a lattice image is searched only where the user points', async () => {
+  const { barScene } = await import('../../testing/synthetic/scale-bar-scenes');
+  const { image, truth } = barScene({ width: 640, height: 480, seed: 77, background: 'lattice', holder: 'free', placement: 'above', orientation: 'horizontal', lengthPx: 150.3, thicknessPx: 5, startFraction: 0.3, ink: 'light', label: '20 nm', text: { kind: 'stroke', font: 'sans', capPx: 14, antiAliased: true }, full: 255 });
+  const file = join(dir, 'busy.png');
+  writeFileSync(file, encode({ width: image.width, height: image.height, data: Uint8Array.from(image.data), channels: 1, depth: 8 }));
+  const [lx, ly, lw, lh] = truth.labelBox;
+  const x0 = Math.max(0, Math.floor(Math.min(truth.x0, lx)) - 10);
+  const y0 = Math.max(0, Math.floor(Math.min(truth.y0, ly)) - 10);
+  const x1 = Math.min(639, Math.ceil(Math.max(truth.x1, lx + lw)) + 10);
+  const y1 = Math.min(479, Math.ceil(Math.max(truth.y1, ly + lh)) + 10);
+  const c = capture();
+  expect(await main(['calibrate', file, '--json', '--label', '20 nm', '--bar-box', `${x0},${y0},${x1 - x0},${y1 - y0}`], c.io)).toBe(0);
+  const r = JSON.parse(c.out.join(''));
+  expect(Math.abs(r.scaleBar.lengthPx - truth.lengthPx)).toBeLessThan(0.5);
+  expect(r.nmPerPx).toBeCloseTo(20 / r.scaleBar.lengthPx, 9);
+  const e = capture();
+  expect(await main(['calibrate', file, '--bar-box', '0,0,9000,10'], e.io)).toBe(2);
+  expect(e.err.join('')).toMatch(/--bar-box 0,0,9000,10 reaches outside the 640 × 480 image/);
+});
