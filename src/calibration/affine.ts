@@ -452,7 +452,7 @@ export function fitPixelMetric(
   const calibration = makeCalibration(
     d0.sx,
     'standard',
-    `two-axis calibration on ${scale.name}, ${items.length} spots: ${fmt(d0.sx)} ± ${fmt(uSx)} nm/px along x, ${fmt(d0.sy)} ± ${fmt(uSy)} nm/px along y (stretch ${stretchPct.toFixed(3)} ± ${uStretch.toFixed(3)} %), shear ${d0.gammaDeg.toFixed(3)} ± ${uGamma.toFixed(3)}° (k = 1)`,
+    `two-axis calibration on ${scale.name}, ${items.length} spots: ${fmt(d0.sx)} ± ${Number(uSx.toPrecision(2))} nm/px along x, ${fmt(d0.sy)} ± ${Number(uSy.toPrecision(2))} nm/px along y (stretch ${stretchPct.toFixed(3)} ± ${uStretch.toFixed(3)} %), shear ${d0.gammaDeg.toFixed(3)} ± ${uGamma.toFixed(3)}° (k = 1)`,
     parts,
     { nmPerPxY: d0.sy, shearDeg: Math.abs(d0.gammaDeg) < 1e-9 ? undefined : d0.gammaDeg },
   );
