@@ -4,7 +4,8 @@
 import { LitElement, css, html, nothing } from 'lit';
 import type { Calibration, GreyImage } from '../src/image/grey-image';
 import { findScaleBar, type ScaleBar } from '../src/calibration/scale-bar';
-import { checkMicroPrefix, LABEL_CHARACTERS, parseScaleLabel, prepareLabelForOcr, scaleBarCalibration } from '../src/calibration/label';
+import { LABEL_CHARACTERS, labelQuestion, parseScaleLabel, scaleBarCalibration } from '../src/calibration/label';
+import { readLabel } from '../src/calibration/label-read';
 import { manualCalibration, typedCalibration } from '../src/calibration/manual';
 import { calibrateFromStandard, LATTICE_STANDARDS, standardPeriodFromSpots, type StandardPeriod } from '../src/calibration/standards';
 import { compareCalibrations } from '../src/calibration/compare';
@@ -14,6 +15,7 @@ import { listCalibrationProfiles, putCalibrationProfile, type LibraryDb } from '
 import { controlStyles, panelStyles } from './styles';
 import type { ComputeClient } from './compute-client';
 import { cropImage } from '../src/image/crop';
+import { calibrateTwoAxis, latticeSpotsOf, PROJECTED_LATTICES, userLattice } from '../src/calibration/affine';
 
 export const panelLabel = 'Calibration';
 
@@ -27,6 +29,11 @@ interface LineDetail {
 
 const sig = (v: number, n = 5) => Number(v.toPrecision(n)).toString();
 const pct = (v: number) => `${sig(100 * v, 2)} %`;
+/** The second axis and shear of a two-axis calibration, or nothing. */
+const axes = (c: Calibration) =>
+  c.nmPerPxY !== undefined || c.shearDeg !== undefined
+    ? html`<p class="num">along x ${sig(c.nmPerPx)}, along y ${sig(c.nmPerPxY ?? c.nmPerPx)} nm/px (stretch ${(100 * ((c.nmPerPxY ?? c.nmPerPx) / c.nmPerPx - 1)).toFixed(2)} %), shear ${(c.shearDeg ?? 0).toFixed(2)}°</p>`
+    : nothing;
 
 /**
  * `<strata-calibration-panel>`. Properties: `image` (GreyImage | null), `line` (the last line
@@ -57,6 +64,9 @@ export class StrataCalibrationPanel extends LitElement {
     periodUPx: { state: true },
     typedNmPerPx: { state: true },
     typedRelPct: { state: true },
+    zoneId: { state: true },
+    cellText: { state: true },
+    twoAxis: { state: true },
   };
 
   static override styles = [
@@ -98,6 +108,12 @@ export class StrataCalibrationPanel extends LitElement {
   periodUPx = '';
   typedNmPerPx = '';
   typedRelPct = '5';
+  /** The zone-axis lattice for a two-axis calibration, or 'user' for a cell typed in cellText. */
+  zoneId = PROJECTED_LATTICES[0].id;
+  /** A user cell: "d1±u1, d2±u2, angle" (nm, nm, degrees between the plane normals). */
+  cellText = '';
+  /** The last two-axis fit, shown with its distortion figures. */
+  twoAxis: ReturnType<typeof calibrateTwoAxis> | null = null;
 
   private reader: Promise<TextReader> | null = null;
   private shownImage: GreyImage | null = null;
@@ -128,16 +144,24 @@ export class StrataCalibrationPanel extends LitElement {
     this.emit('status-message', { text, kind });
   }
 
-  private async findBar(): Promise<void> {
+  /**
+   * Finds the bar (over the whole image, or only inside the drawn region when `inRegion`, with the
+   * contrast checks relaxed there for a bar drawn on a busy picture) and reads its label.
+   */
+  private async findBar(inRegion = false): Promise<void> {
     const image = this.image;
     if (!image) return;
     this.busy = true;
     try {
-      const bar = findScaleBar(image);
+      const r = this.rect;
+      const box = inRegion && r ? ([Math.max(0, Math.round(r.x)), Math.max(0, Math.round(r.y)), Math.round(r.width), Math.round(r.height)] as [number, number, number, number]) : undefined;
+      const bar = findScaleBar(image, box ? { searchBox: box } : {});
       this.bar = bar;
       this.candidate = null;
       if (!bar) {
-        this.ocrNote = 'No scale bar found. Use two points on a feature of known length or a standard.';
+        this.ocrNote = box
+          ? 'No scale bar in the drawn region: draw it snugly around the bar and its label.'
+          : 'No scale bar found. Draw a region around it with the Region tool and search there, or use two points on a feature of known length or a standard.';
         this.emit('overlay-shapes', { shapes: [] });
         return;
       }
@@ -161,17 +185,18 @@ export class StrataCalibrationPanel extends LitElement {
         this.reader = createTextReader({ whitelist: LABEL_CHARACTERS });
       }
       const reader = await this.reader;
-      const raster = prepareLabelForOcr(image, bar.labelBox);
-      const ocr = await reader.read(raster);
-      const text = checkMicroPrefix(raster, ocr.text, ocr.symbols);
-      const parsed = parseScaleLabel(text);
-      if (parsed) {
-        this.labelText = `${parsed.value} ${parsed.unit}`;
-        this.ocrNote = `Read "${text}" (confidence ${ocr.confidence.toFixed(2)}). Check it against the image.`;
-        this.candidate = scaleBarCalibration(bar, parsed.nm);
+      // two readers (OCR over several crops and scales, and the glyph reader) must agree on a
+      // round value; otherwise the user is asked, with what was read and why
+      const reading = await readLabel(image, bar, reader);
+      if (reading.status === 'read' && reading.label) {
+        this.labelText = reading.label.text;
+        const conf = Math.max(0, ...reading.attempts.filter((a) => a.reader === 'ocr' && a.nm === reading.label!.nm).map((a) => a.confidence));
+        this.ocrNote = `Read "${reading.label.text}" by both readers (OCR confidence ${conf.toFixed(2)}). Check it against the image.`;
+        this.candidate = scaleBarCalibration(bar, reading.label.nm);
       } else {
         this.labelText = '';
-        this.ocrNote = `The label could not be read${ocr.text ? ` (OCR gave "${ocr.text}")` : ''}: type it, e.g. 200 nm.`;
+        this.candidate = null;
+        this.ocrNote = labelQuestion(reading);
       }
     } catch (e) {
       this.ocrNote = `Label reading failed: ${(e as Error).message}. Type the label.`;
@@ -246,6 +271,37 @@ export class StrataCalibrationPanel extends LitElement {
     }
   }
 
+  /**
+   * Measures the drawn region's spots (power spectrum in the compute worker) and fits the two-axis
+   * pixel metric to the chosen zone-axis lattice.
+   */
+  private async measureTwoAxis(): Promise<void> {
+    const r = this.rect;
+    if (!r || !this.image || !this.compute) return;
+    this.busy = true;
+    try {
+      let lattice: string | ReturnType<typeof userLattice> = this.zoneId;
+      if (this.zoneId === 'user') {
+        const m = /^\s*([\d.]+)\s*(?:±|\+-)\s*([\d.]+)\s*,\s*([\d.]+)\s*(?:±|\+-)\s*([\d.]+)\s*,\s*([\d.]+)\s*$/.exec(this.cellText);
+        if (!m) throw new Error(`type the cell as d1±u1, d2±u2, angle (nm, nm, degrees), e.g. 0.3135±0.0003, 0.3135±0.0003, 70.53; got "${this.cellText}"`);
+        lattice = userLattice(Number(m[1]), Number(m[2]), Number(m[3]), Number(m[4]), Number(m[5]));
+      }
+      const crop = cropImage(this.image, { x: Math.round(r.x), y: Math.round(r.y), width: Math.round(r.width), height: Math.round(r.height) });
+      const res = await this.compute.call('regionSpectrum', {
+        image: crop, originX: Math.round(r.x), originY: Math.round(r.y),
+        settings: { window: 'hann', tukeyAlpha: 0.3, alpha: 0.001 }, displayPx: 64,
+      }, [crop.data.buffer]);
+      const fit = calibrateTwoAxis(latticeSpotsOf(res.measurement.periodicities), lattice);
+      this.twoAxis = fit;
+      this.candidate = fit.calibration;
+    } catch (e) {
+      this.twoAxis = null;
+      this.say((e as Error).message, 'error');
+    } finally {
+      this.busy = false;
+    }
+  }
+
   private fromTyped(): void {
     try {
       this.candidate = typedCalibration(Number(this.typedNmPerPx), Number(this.typedRelPct) / 100);
@@ -302,13 +358,14 @@ export class StrataCalibrationPanel extends LitElement {
       <section>
         <h3>In use</h3>
         ${cur
-          ? html`<p class="num">${sig(cur.nmPerPx)} nm per pixel ± ${pct(cur.relUncertainty)} <span class="muted">(${cur.source})</span></p>
+          ? html`<p class="num">${sig(cur.nmPerPx)} nm per pixel ± ${pct(cur.relUncertainty)} <span class="muted">(${cur.source})</span></p>${axes(cur)}
               <p class="muted">${cur.detail}</p>`
           : html`<p class="muted">None: lengths are in pixels until you set one.</p>`}
       </section>
       <section>
         <h3>Scale bar</h3>
-        <div class="row"><button ?disabled=${this.busy} @click=${() => this.findBar()}>Find and read the scale bar</button></div>
+        <div class="row"><button ?disabled=${this.busy} @click=${() => this.findBar()}>Find and read the scale bar</button>
+          <button ?disabled=${this.busy || !this.rect} @click=${() => this.findBar(true)} title="Draw a region around the bar and its label with the Region tool: for a bar drawn on a busy picture">Search the drawn region</button></div>
         ${this.bar
           ? html`<p class="num">Bar ${sig(this.bar.lengthPx)} ± ${sig(this.bar.uncertaintyPx, 2)} px (${this.bar.polarity})</p>
               <div class="row"><label>Label <input type="text" .value=${this.labelText} placeholder="e.g. 200 nm" @input=${this.onLabelInput} /></label></div>`
@@ -335,6 +392,23 @@ export class StrataCalibrationPanel extends LitElement {
         <p class="muted">${this.standardId === 'custom' ? 'a spacing you know for this specimen, e.g. from its diffraction pattern, with its standard uncertainty' : (() => { const l = LATTICE_STANDARDS.find((s) => s.id === this.standardId); return l ? `${l.source}; uncertainty: ${l.uncertaintyBasis}` : ''; })()}</p>
       </section>
       <section>
+        <h3>Two axes (scan distortion)</h3>
+        <div class="row">
+          <select aria-label="Zone-axis lattice" @change=${(e: Event) => (this.zoneId = (e.target as HTMLSelectElement).value)}>
+            ${PROJECTED_LATTICES.map((l) => html`<option value=${l.id} ?selected=${l.id === this.zoneId}>${l.name}: ${l.label1} ${sig(l.d1Nm)} nm, ${l.label2} ${sig(l.d2Nm)} nm, ${sig(l.angleDeg, 4)}°${l.status === 'from memory' ? ' (from memory)' : ''}</option>`)}
+            <option value="user" ?selected=${this.zoneId === 'user'}>a cell you enter</option>
+          </select>
+          ${this.zoneId === 'user' ? input(this.cellText, (v) => (this.cellText = v), 'd1±u1, d2±u2, angle', 'text') : nothing}
+        </div>
+        <div class="row"><button ?disabled=${!this.rect || !this.compute || this.busy} @click=${() => this.measureTwoAxis()}
+          title="Draw a region on the lattice image with the Region tool: two or more non-parallel spots of the lattice are fitted">Measure the drawn region (two axes)</button></div>
+        ${this.twoAxis
+          ? html`<p class="num">x ${sig(this.twoAxis.nmPerPxX)} ± ${sig(2 * this.twoAxis.uNmPerPxX, 2)} nm/px, y ${sig(this.twoAxis.nmPerPxY)} ± ${sig(2 * this.twoAxis.uNmPerPxY, 2)} nm/px</p>
+              <p class="num">stretch (y/x − 1) ${this.twoAxis.stretchPct.toFixed(3)} ± ${(2 * this.twoAxis.uStretchPct).toFixed(3)} %, shear ${this.twoAxis.shearDeg.toFixed(3)} ± ${(2 * this.twoAxis.uShearDeg).toFixed(3)}°</p>
+              <p class="muted">± is U = 2u (k = 2) from the spots' periods and directions; ${this.twoAxis.indexed.length} spots indexed, Birge ratio ${this.twoAxis.birgeRatio.toFixed(2)}. Published scan distortions: 0.4–3.6 % stretch, up to about 1° shear.</p>`
+          : html`<p class="muted">${(() => { const l = PROJECTED_LATTICES.find((q) => q.id === this.zoneId); return l ? `${l.source}; ${l.derivation}` : 'a zone-axis cell of your own: the two basis spacings with their standard uncertainties and the angle between their plane normals'; })()}</p>`}
+      </section>
+      <section>
         <h3>Typed value</h3>
         <div class="row">${input(this.typedNmPerPx, (s) => (this.typedNmPerPx = s), 'nm/px')}${input(this.typedRelPct, (s) => (this.typedRelPct = s), '± %')}<button @click=${this.fromTyped}>Compute</button></div>
       </section>
@@ -356,7 +430,7 @@ export class StrataCalibrationPanel extends LitElement {
       ${cand
         ? html`<section>
             <h3>New pixel size</h3>
-            <p class="num">${sig(cand.nmPerPx)} nm per pixel ± ${pct(cand.relUncertainty)} <span class="muted">(${cand.source})</span></p>
+            <p class="num">${sig(cand.nmPerPx)} nm per pixel ± ${pct(cand.relUncertainty)} <span class="muted">(${cand.source})</span></p>${axes(cand)}
             <p class="muted">${cand.detail}</p>
             ${cmp?.warning ? html`<p class="warn" role="alert">${cmp.warning}</p>` : nothing}
             <div class="row"><button class="on" @click=${this.apply}>Use for this image</button></div>

@@ -6,6 +6,9 @@
  * session id; every later call on it sends that id and a region or a line, never pixels. Calls
  * marked "crop" take a copy of the pixels instead; they serve panels not yet moved to the session.
  */
+import type { CameraConstant } from '../src/diffraction/electron/camera-constant';
+import type { CameraSetting, PatternMeasurement } from '../src/diffraction/electron/measure';
+import type { RingAnalysis } from '../src/diffraction/electron/rings';
 import type { Calibration, GreyImage } from '../src/image/grey-image';
 import type { GreyHistogram } from '../src/image/display';
 import type { Measurement, Region } from '../src/measure/measurement';
@@ -69,7 +72,17 @@ export interface ComputeCalls {
   sheetsFind: { args: { image: GreyImage; polarity: 'dark' | 'bright'; periodPx?: number }; result: { result: AutoSheetsResult; excludedBox: [number, number, number, number] | null } };
   /** Crop: sheets along a drawn line (a copy of the image is sent); the period when known, or the image's candidates. */
   sheetsLine: { args: { image: GreyImage; line: { x0: number; y0: number; x1: number; y1: number; widthPx: number }; polarity: 'dark' | 'bright'; periodPx?: number; periods?: number[] }; result: LineSheetsResult };
+  /** Electron diffraction (issue 14): the camera constant from a copy of a ring standard's pattern (Electron diffraction panel). */
+  cameraConstant: {
+    args: { image: GreyImage; standard: { id: string } | { aNm: number; uANm: number; centring: 'F' | 'I' | 'P' }; voltageKv?: number; detectorPixelUm?: number };
+    result: ElectronCameraResult;
+  };
+  /** Electron diffraction: ring and spot d-spacings of a copy of a sample's pattern with a camera setting (Electron diffraction panel). */
+  electronPattern: { args: { image: GreyImage; camera: CameraSetting; what: 'rings' | 'spots' | 'both' }; result: PatternMeasurement };
 }
+
+/** A camera constant with the ring analysis it rests on (geometry, centre uncertainty, notes). */
+export type ElectronCameraResult = CameraConstant & { analysis: Omit<RingAnalysis, 'rings'> };
 
 export type CallName = keyof ComputeCalls;
 export type CallArgs<K extends CallName> = ComputeCalls[K]['args'];

@@ -6,9 +6,10 @@ import { makeCalibration, rectangularU, SCALE_BAR_REPRESENTATION_REL } from './c
 import type { Calibration, GreyImage } from '../image/grey-image';
 import type { Box, ScaleBar, ScaleBarOptions } from './scale-bar';
 import { findScaleBar } from './scale-bar';
+import { readLabel, type LabelReading, type LabelReadOptions, type LineReader } from './label-read';
 
 /** Length units a scale-bar label may carry. */
-export type LabelUnit = 'pm' | 'Å' | 'nm' | 'µm';
+export type LabelUnit = 'pm' | 'Å' | 'nm' | 'µm' | 'mm';
 
 /** A parsed scale-bar label. */
 export interface ScaleLabel {
@@ -22,10 +23,10 @@ export interface ScaleLabel {
   confidence: number;
 }
 
-const NM_PER_UNIT: Record<LabelUnit, number> = { pm: 0.001, Å: 0.1, nm: 1, µm: 1000 };
+const NM_PER_UNIT: Record<LabelUnit, number> = { pm: 0.001, Å: 0.1, nm: 1, µm: 1000, mm: 1e6 };
 
 /**
- * Parses a scale-bar label such as "200 nm", "0,5 µm", "5 um", "20 Å" or "500pm".
+ * Parses a scale-bar label such as "200 nm", "0,5 µm", "5 um", "20 Å", "500pm" or "1 mm".
  * @param text the label text (typed or read by OCR)
  * @returns the value, unit, length in nm and a parse confidence, or null when no single
  *   number-and-unit can be read (the caller then asks the user; nothing is guessed)
@@ -37,7 +38,7 @@ export function parseScaleLabel(text: string): ScaleLabel | null {
   if (typeof text !== 'string') throw new TypeError(`text must be a string, got ${typeof text}`);
   const t = text.normalize('NFC').replace(/\u212b/g, 'Å').replace(/\u03bc/g, 'µ').trim();
   if (!t) return null;
-  const re = /(\d+(?:[.,]\d+)?|[.,]\d+)\s*(pm|nm|µm|um|Å|A)(?![A-Za-z])/g;
+  const re = /(\d+(?:[.,]\d+)?|[.,]\d+)\s*(pm|nm|µm|um|mm|Å|A)(?![A-Za-z])/g;
   const matches = [...t.matchAll(re)];
   if (matches.length !== 1) return null;
   const m = matches[0];
@@ -373,46 +374,53 @@ function formatNum(v: number): string {
   return Number(v.toPrecision(6)).toString();
 }
 
-/** Reads one line of text: the shape of the OCR adapter's reader (see ./ocr). */
-export interface LineReader {
-  read(raster: { width: number; height: number; data: Uint8Array }): Promise<{
-    text: string;
-    confidence: number;
-    symbols?: { text: string; x0: number; y0: number; x1: number; y1: number }[];
-  }>;
-}
+export type { LineReader } from './label-read';
 
 /** What reading a scale bar produced. */
 export interface ScaleBarReading {
   bar: ScaleBar | null;
-  /** The label as read, or null when there was no label box or the text could not be parsed. */
+  /** The label as agreed by every reader, or null when it was not (see `reading` for why). */
   label: (ScaleLabel & { text: string; ocrConfidence: number }) | null;
-  /** The raw OCR text even when it could not be parsed (so the user sees what was read). */
+  /** The OCR engine's best reading even when it was not taken (so the user sees what was read), or null. */
   ocrText: string | null;
+  /** The full reading: 'read' or 'ask', the reasons and every attempt; null when there was no label box. */
+  reading: LabelReading | null;
+  /** Why the user must give the label (empty when it was read). */
+  question: string | null;
+  /** The calibration, only when the label was read without doubt. */
   calibration: Calibration | null;
 }
 
 /**
- * Finds the scale bar, reads its label with the given OCR reader and makes the calibration.
+ * Finds the scale bar, reads its label (OCR and the glyph reader, which must agree on a round
+ * value; see readLabel) and makes the calibration.
  * @param image the micrograph
  * @param reader an OCR line reader (createTextReader from ./ocr, or any other)
  * @param options bar-search options and the calibration allowance
- * @returns the bar, the parsed label, the raw OCR text and the calibration (null when any step fails)
- * Notes: label confidence is the smaller of the OCR engine's and the parser's.
+ * @returns the bar, the label when read without doubt, what was read, the question to ask
+ *   otherwise, and the calibration (null unless the label was read without doubt)
  */
 export async function readScaleBar(
   image: GreyImage,
   reader: LineReader,
-  options: ScaleBarOptions & ScaleBarCalibrationOptions & LabelPrepOptions = {},
+  options: ScaleBarOptions & ScaleBarCalibrationOptions & LabelReadOptions = {},
 ): Promise<ScaleBarReading> {
   if (!reader || typeof reader.read !== 'function') throw new TypeError('reader must have a read(raster) method');
   const bar = findScaleBar(image, options);
-  if (!bar || !bar.labelBox) return { bar, label: null, ocrText: null, calibration: null };
-  const raster = prepareLabelForOcr(image, bar.labelBox, options);
-  const ocr = await reader.read(raster);
-  const text = checkMicroPrefix(raster, ocr.text, ocr.symbols);
-  const parsed = parseScaleLabel(text);
-  if (!parsed) return { bar, label: null, ocrText: ocr.text, calibration: null };
-  const label = { ...parsed, text, ocrConfidence: ocr.confidence, confidence: Math.min(parsed.confidence, ocr.confidence) };
-  return { bar, label, ocrText: ocr.text, calibration: scaleBarCalibration(bar, parsed.nm, options) };
+  if (!bar || !bar.labelBox) return { bar, label: null, ocrText: null, reading: null, question: bar ? 'no label found beside the bar: give it' : null, calibration: null };
+  const reading = await readLabel(image, bar, reader, options);
+  const ocrBest = reading.attempts.filter((a) => a.reader === 'ocr' && a.text).sort((a, b) => b.confidence - a.confidence)[0];
+  const ocrText = reading.suggestion ?? ocrBest?.text ?? null;
+  if (reading.status !== 'read' || !reading.label) {
+    return { bar, label: null, ocrText, reading, question: labelQuestion(reading), calibration: null };
+  }
+  const ocrConf = Math.max(0, ...reading.attempts.filter((a) => a.reader === 'ocr' && a.nm === reading.label!.nm).map((a) => a.confidence));
+  const label = { ...reading.label, ocrConfidence: ocrConf, confidence: ocrConf };
+  return { bar, label, ocrText, reading, question: null, calibration: scaleBarCalibration(bar, reading.label.nm, options) };
+}
+
+/** The question put to the user when a label was not read without doubt: what was read and why it is not taken. */
+export function labelQuestion(reading: LabelReading): string {
+  const what = reading.suggestion ? `It reads like "${reading.suggestion}", but ` : '';
+  return `${what}${reading.reasons.join('; ')}. Give the label as written beside the bar (e.g. 200 nm).`;
 }

@@ -3,7 +3,7 @@
  * (instrument, nominal magnification, camera, binning), chosen again for later images taken at
  * that setting. Pure functions over the store's CalibrationProfile record.
  */
-import type { CalibrationSource, Calibration } from '../image/grey-image';
+import type { CalibrationSource, Calibration, CalibrationUncertaintyPart } from '../image/grey-image';
 
 /**
  * An instrument calibration profile: the pixel size measured once for one microscope setting,
@@ -22,8 +22,14 @@ export interface CalibrationProfile {
   camera: string;
   /** Camera binning factor (1, 2, 4 ...). */
   binning: number;
-  /** Pixel size in nm per pixel at this setting. */
+  /** Pixel size in nm per pixel at this setting (along x for a two-axis calibration). */
   nmPerPx: number;
+  /** Pixel size along y, nm per pixel, when the calibration has two axes (scan stretch); absent when square. */
+  nmPerPxY?: number;
+  /** Shear of the pixel grid, degrees, when the calibration has two axes; absent when none. */
+  shearDeg?: number;
+  /** The named parts of relUncertainty, when recorded. */
+  parts?: CalibrationUncertaintyPart[];
   /** Relative standard uncertainty of nmPerPx (k = 1). */
   relUncertainty: number;
   /** How the pixel size was found. */
@@ -82,16 +88,25 @@ export function scaleForBinning(nmPerPx: number, fromBinning: number, toBinning:
   return (nmPerPx * toBinning) / fromBinning;
 }
 
-/** The calibration a profile gives an image at the given binning. */
+/**
+ * The calibration a profile gives an image at the given binning.
+ * Notes: both axes scale with the binning; the shear, an angle, does not. A two-axis profile keeps
+ * its axes and shear, so measurements go on converting every direction through its metric.
+ */
 export function profileCalibration(profile: CalibrationProfile, binning = profile.binning): Calibration {
   const nmPerPx = scaleForBinning(profile.nmPerPx, profile.binning, binning);
   const scaled = binning !== profile.binning ? `, scaled from binning ${profile.binning} to ${binning}` : '';
-  return {
+  const axes = profile.nmPerPxY !== undefined ? `, two axes: y ${Number(profile.nmPerPxY.toPrecision(6))} nm/px at bin ${profile.binning}, shear ${profile.shearDeg ?? 0}°` : '';
+  const c: Calibration = {
     nmPerPx,
     source: 'profile',
     relUncertainty: profile.relUncertainty,
-    detail: `profile "${profile.name}" (${profile.instrument}, ${profile.magnification}×, ${profile.camera || 'any camera'}, bin ${profile.binning}; by ${profile.method}, ${profile.createdIso})${scaled}`,
+    detail: `profile "${profile.name}" (${profile.instrument}, ${profile.magnification}×, ${profile.camera || 'any camera'}, bin ${profile.binning}; by ${profile.method}, ${profile.createdIso}${axes})${scaled}`,
   };
+  if (profile.parts) c.parts = profile.parts.map((p) => ({ ...p }));
+  if (profile.nmPerPxY !== undefined) c.nmPerPxY = scaleForBinning(profile.nmPerPxY, profile.binning, binning);
+  if (profile.shearDeg !== undefined && profile.shearDeg !== 0) c.shearDeg = profile.shearDeg;
+  return c;
 }
 
 /**
@@ -156,7 +171,8 @@ export interface NewProfileInput {
 }
 
 /**
- * Records a calibration as a profile for its setting: when and how it was made.
+ * Records a calibration as a profile for its setting: when and how it was made; a two-axis
+ * calibration keeps its y axis, shear and uncertainty parts.
  * @param input id, setting, calibration, time and notes
  * @returns a CalibrationProfile record for the store
  */
@@ -183,6 +199,9 @@ export function makeProfile(input: NewProfileInput): CalibrationProfile {
     camera,
     binning,
     nmPerPx: calibration.nmPerPx,
+    ...(calibration.nmPerPxY !== undefined ? { nmPerPxY: calibration.nmPerPxY } : {}),
+    ...(calibration.shearDeg !== undefined ? { shearDeg: calibration.shearDeg } : {}),
+    ...(calibration.parts ? { parts: calibration.parts.map((p) => ({ ...p })) } : {}),
     relUncertainty: calibration.relUncertainty,
     method: calibration.source,
     createdIso,

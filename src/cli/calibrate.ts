@@ -9,7 +9,8 @@ import { parseArgs, UsageError } from './command';
 import { decodeImage, ImageReadError } from '../image/decode';
 import type { Calibration } from '../image/grey-image';
 import { findScaleBar, type Box, type ScaleBar } from '../calibration/scale-bar';
-import { checkMicroPrefix, LABEL_CHARACTERS, parseScaleLabel, prepareLabelForOcr, scaleBarCalibration } from '../calibration/label';
+import { LABEL_CHARACTERS, parseScaleLabel, readScaleBar, scaleBarCalibration } from '../calibration/label';
+import { calibrateTwoAxis, fitPixelMetric, latticeSpotsOf, PROJECTED_LATTICES, type AffineCalibration } from '../calibration/affine';
 import { compareCalibrations } from '../calibration/compare';
 import { calibrateFromStandard, type CustomSpacing, LATTICE_STANDARDS, latticeStandard, standardPeriodFromSpots, type StandardPeriod } from '../calibration/standards';
 
@@ -18,16 +19,26 @@ const usage = `Usage: stratameter calibrate IMAGE [options]
 Finds the pixel size of IMAGE: from the file's metadata, from a burned-in scale bar (its length
 measured to a fraction of a pixel and its label read by OCR, offline), or from a lattice
 standard measured in a region. When two sources disagree by more than their combined
-uncertainty (k = 2) a warning shows both. A label that cannot be read is never guessed: give
-it with --label.
+uncertainty (k = 2) a warning shows both. The label is read by two independent readers (the
+OCR engine over several crops and scales, and a glyph reader) that must agree on a round value
+(1, 2, 2.5, 3 or 5 × 10ⁿ); otherwise it is never guessed: what was read and why it was not
+taken are shown, and you give it with --label.
+
+A zone-axis standard (si-110, si-001, au-001, au-110, al-001, graphite-001) measured in a region
+gives a two-axis calibration: nm per px along x and along y and the shear of the pixel grid (scan
+distortion), from two or more non-parallel spots of the lattice.
 
 Options:
   --json                 one JSON object on standard output instead of text
   --label TEXT           the scale bar's label as you read it, e.g. "200 nm" (skips OCR)
   --no-ocr               find the bar but do not read its label
-  --standard ID          calibrate from a lattice standard (see --list-standards) ...
+  --bar-box X,Y,W,H      look for the bar only in this rectangle (px), with the contrast checks
+                         relaxed there: for a bar drawn on a busy picture
+  --standard ID          calibrate from a lattice standard (see --list-standards; a zone-axis
+                         id gives two axes and shear) ...
   --spacing D±U          ... or from a spacing of your own, nm, with its standard uncertainty
-                         (e.g. 1.25±0.01; also written 1.25+-0.01)
+                         (e.g. 1.25±0.01; also written 1.25+-0.01); with --region and three or
+                         more non-parallel spots of that spacing, two axes and shear
   --region X,Y,W,H       ... measured in this rectangle (px) of the image's power spectrum:
                          every spot of the strongest spot's family is used
   --period-px P          ... or with the period you measured yourself, px
@@ -47,8 +58,10 @@ export interface CalibrateReport {
     y1: number;
     polarity: 'bright' | 'dark';
     label: { value: number; unit: string; text: string; confidence: number } | null;
-    /** What OCR read when it could not be parsed (null when OCR was not run or succeeded). */
+    /** What was read when the label was not taken (null when it was read or not tried). */
     unreadText: string | null;
+    /** Why the label was not taken and what to do (null when it was read or not tried). */
+    question: string | null;
     labelBox: Box | null;
     stripBox: Box | null;
   } | null;
@@ -60,12 +73,25 @@ export interface CalibrateReport {
   candidates: { source: string; nmPerPx: number; relUncertainty: number; detail: string }[];
   /** Disagreement between the sources, or null. */
   warning: string | null;
+  /** The two-axis calibration from a zone-axis standard or a spacing with three or more spot directions, or null. */
+  twoAxis: {
+    nmPerPxX: number;
+    uNmPerPxX: number;
+    nmPerPxY: number;
+    uNmPerPxY: number;
+    stretchPct: number;
+    uStretchPct: number;
+    shearDeg: number;
+    uShearDeg: number;
+    birgeRatio: number;
+    spots: { label: string; periodPx: number; angleDeg: number; dNm: number; correctedNm: number; uCorrectedNm: number }[];
+  } | null;
 }
 
-function parseBox(text: string): { x: number; y: number; width: number; height: number } {
+function parseBox(text: string, name = 'region'): { x: number; y: number; width: number; height: number } {
   const v = text.split(',').map((s) => Number(s.trim()));
   if (v.length !== 4 || !v.every((n) => Number.isInteger(n)) || v[2] < 1 || v[3] < 1 || v[0] < 0 || v[1] < 0) {
-    throw new UsageError(`--region must be four non-negative integers X,Y,W,H with W, H ≥ 1, got '${text}'`);
+    throw new UsageError(`--${name} must be four non-negative integers X,Y,W,H with W, H ≥ 1, got '${text}'`);
   }
   return { x: v[0], y: v[1], width: v[2], height: v[3] };
 }
@@ -86,7 +112,8 @@ function formatReport(r: CalibrateReport): string {
   if (b) {
     lines.push(`scale bar      ${sig(b.lengthPx)} ± ${sig(b.uncertaintyPx)} px, ${b.polarity}, from (${sig(b.x0)}, ${sig(b.y0)}) to (${sig(b.x1)}, ${sig(b.y1)})`);
     if (b.label) lines.push(`label          "${b.label.text}" = ${b.label.value} ${b.label.unit} (confidence ${b.label.confidence.toFixed(2)})`);
-    else if (b.unreadText !== null) lines.push(`label          not readable (OCR gave "${b.unreadText}"); give it with --label`);
+    else if (b.question !== null) lines.push(`label          not taken: ${b.question} (--label)`);
+    else if (b.unreadText !== null) lines.push(`label          not readable (read "${b.unreadText}"); give it with --label`);
     else lines.push('label          not read; give it with --label');
     if (b.stripBox) lines.push(`info strip     [${b.stripBox.join(', ')}] (x, y, w, h)`);
   } else {
@@ -100,6 +127,12 @@ function formatReport(r: CalibrateReport): string {
   }
   for (const c of r.candidates) {
     if (c.source !== r.source) lines.push(`also           ${sig(c.nmPerPx)} nm per pixel, ±${sig(100 * c.relUncertainty)} % (source: ${c.source})`);
+  }
+  const t = r.twoAxis;
+  if (t) {
+    lines.push(`two axes       x ${sig(t.nmPerPxX)} ± ${sig(2 * t.uNmPerPxX)} nm/px, y ${sig(t.nmPerPxY)} ± ${sig(2 * t.uNmPerPxY)} nm/px (k = 2, the spots' periods and directions)`);
+    lines.push(`distortion     stretch (y/x − 1) ${t.stretchPct.toFixed(3)} ± ${(2 * t.uStretchPct).toFixed(3)} %, shear ${t.shearDeg.toFixed(3)} ± ${(2 * t.uShearDeg).toFixed(3)}° (k = 2); Birge ratio ${t.birgeRatio.toFixed(2)}`);
+    for (const q of t.spots) lines.push(`  spot ${q.label.padEnd(8)} ${q.periodPx.toFixed(3)} px at ${q.angleDeg.toFixed(2)}°: ${q.correctedNm.toFixed(5)} ± ${(2 * q.uCorrectedNm).toFixed(5)} nm after correction (lattice ${q.dNm.toFixed(5)} nm)`);
   }
   if (r.warning) lines.push(`WARNING        ${r.warning}`);
   return lines.join('\n') + '\n';
@@ -120,7 +153,7 @@ export const command: CliCommand = {
   usage,
   async run(args: string[], io: CliIo): Promise<number> {
     const { positional, options, flags } = parseArgs(args, {
-      values: ['label', 'standard', 'spacing', 'region', 'period-px', 'period-uncertainty-px'],
+      values: ['label', 'standard', 'spacing', 'region', 'period-px', 'period-uncertainty-px', 'bar-box'],
       booleans: ['json', 'no-ocr', 'list-standards'],
     });
     if (flags.has('list-standards')) {
@@ -134,10 +167,11 @@ export const command: CliCommand = {
     const standardId = options.get('standard') ?? (spacing ? 'custom' : undefined);
     if (options.has('standard')) {
       try {
-        latticeStandard(standardId!); // unknown ids fail before any work
+        if (!PROJECTED_LATTICES.some((l) => l.id === standardId)) latticeStandard(standardId!); // unknown ids fail before any work
       } catch (e) {
-        throw new UsageError((e as Error).message);
+        throw new UsageError(`${(e as Error).message}; zone-axis standards for two axes: ${PROJECTED_LATTICES.map((l) => l.id).join(', ')}`);
       }
+      if (PROJECTED_LATTICES.some((l) => l.id === standardId) && !options.has('region')) throw new UsageError(`--standard ${standardId} (a zone-axis lattice) needs --region X,Y,W,H with two or more of its spots`);
     }
     if (standardId === undefined && (options.has('region') || options.has('period-px'))) {
       throw new UsageError('--region and --period-px need --standard ID or --spacing D±U');
@@ -162,34 +196,46 @@ export const command: CliCommand = {
     const candidates: Calibration[] = [];
     if (image.calibration) candidates.push(image.calibration);
 
-    // the scale bar
-    const bar: ScaleBar | null = findScaleBar(image);
+    // the scale bar: its label read by two readers that must agree, or given with --label
+    let barOptions = {};
+    if (options.has('bar-box')) {
+      const b = parseBox(options.get('bar-box')!, 'bar-box');
+      if (b.x + b.width > image.width || b.y + b.height > image.height) throw new UsageError(`--bar-box ${options.get('bar-box')} reaches outside the ${image.width} × ${image.height} image`);
+      barOptions = { searchBox: [b.x, b.y, b.width, b.height] };
+    }
+    let bar: ScaleBar | null = null;
     let label: NonNullable<CalibrateReport['scaleBar']>['label'] = null;
     let unreadText: string | null = null;
-    if (bar) {
-      if (typedLabel !== undefined) {
+    let question: string | null = null;
+    if (typedLabel === undefined && !flags.has('no-ocr')) {
+      const { createTextReader } = await import('../calibration/ocr');
+      const reader = await createTextReader({ whitelist: LABEL_CHARACTERS });
+      try {
+        const r = await readScaleBar(image, reader, barOptions);
+        bar = r.bar;
+        if (r.label && r.calibration) {
+          label = { value: r.label.value, unit: r.label.unit, text: r.label.text, confidence: r.label.ocrConfidence };
+          candidates.push(r.calibration);
+        } else if (bar) {
+          unreadText = r.ocrText;
+          question = r.question;
+        }
+      } finally {
+        await reader.close();
+      }
+    } else {
+      bar = findScaleBar(image, barOptions);
+      if (bar && typedLabel !== undefined) {
         const p = parseScaleLabel(typedLabel)!;
         label = { value: p.value, unit: p.unit, text: typedLabel, confidence: 1 };
-      } else if (!flags.has('no-ocr') && bar.labelBox) {
-        const { createTextReader } = await import('../calibration/ocr');
-        const reader = await createTextReader({ whitelist: LABEL_CHARACTERS });
-        try {
-          const raster = prepareLabelForOcr(image, bar.labelBox);
-          const ocr = await reader.read(raster);
-          const text = checkMicroPrefix(raster, ocr.text, ocr.symbols);
-          const p = parseScaleLabel(text);
-          if (p) label = { value: p.value, unit: p.unit, text, confidence: Math.min(p.confidence, ocr.confidence) };
-          else unreadText = ocr.text;
-        } finally {
-          await reader.close();
-        }
+        candidates.push(scaleBarCalibration(bar, p.nm));
       }
-      if (label) candidates.push(scaleBarCalibration(bar, parseScaleLabel(`${label.value} ${label.unit}`)!.nm));
     }
 
     // a lattice standard
+    let twoAxis: AffineCalibration | null = null;
     if (standardId !== undefined) {
-      let measured: StandardPeriod;
+      let measured: StandardPeriod | undefined;
       if (options.has('period-px')) {
         const periodPx = positive('period-px', options.get('period-px'));
         const uPx = options.has('period-uncertainty-px') ? positive('period-uncertainty-px', options.get('period-uncertainty-px')) : 0.01 * periodPx;
@@ -201,11 +247,29 @@ export const command: CliCommand = {
         }
         const { measureRegion } = await import('../measure/measure-region');
         const m = await measureRegion(image, region, { fileName: file });
-        const family = standardPeriodFromSpots(m.periodicities.filter((p) => p.flags.length === 0));
-        if (!family) throw new Error(`no significant periodicity in region ${options.get('region')}: choose a region with clear fringes of the standard`);
-        measured = family;
+        const spots = latticeSpotsOf(m.periodicities);
+        const zone = PROJECTED_LATTICES.find((l) => l.id === standardId);
+        if (zone) {
+          try {
+            twoAxis = calibrateTwoAxis(spots, zone);
+          } catch (e) {
+            if (e instanceof RangeError) throw new UsageError(`--standard ${zone.id} in region ${options.get('region')}: ${e.message}`);
+            throw e;
+          }
+        } else if (spacing) {
+          // three or more non-parallel spots of the one spacing: two axes as well
+          const family = spots.filter((q) => Math.abs(q.periodPx / spots[0].periodPx - 1) < 0.06);
+          const dirs = family.filter((q, i) => family.findIndex((o) => Math.min(Math.abs(o.angleDeg - q.angleDeg), 180 - Math.abs(o.angleDeg - q.angleDeg)) < 10) === i);
+          if (dirs.length >= 3) twoAxis = fitPixelMetric({ spots: dirs, dNm: spacing.dNm }, { relUncertainty: spacing.uncertaintyNm / spacing.dNm, name: spacing.name ?? `spacing ${spacing.dNm} nm` });
+        }
+        if (!twoAxis) {
+          const family = standardPeriodFromSpots(m.periodicities.filter((p) => p.flags.length === 0));
+          if (!family) throw new Error(`no significant periodicity in region ${options.get('region')}: choose a region with clear fringes of the standard`);
+          measured = family;
+        }
       }
-      candidates.push(calibrateFromStandard(measured, spacing ?? standardId));
+      if (twoAxis) candidates.push(twoAxis.calibration);
+      else candidates.push(calibrateFromStandard(measured!, spacing ?? standardId));
     }
 
     // the choice: a standard measured in the image, else the file's metadata, else the bar
@@ -231,6 +295,7 @@ export const command: CliCommand = {
             polarity: bar.polarity,
             label,
             unreadText,
+            question,
             labelBox: bar.labelBox,
             stripBox: bar.stripBox,
           }
@@ -241,6 +306,9 @@ export const command: CliCommand = {
       detail: chosen?.detail ?? null,
       candidates: candidates.map((c) => ({ source: c.source, nmPerPx: c.nmPerPx, relUncertainty: c.relUncertainty, detail: c.detail })),
       warning: warnings.length ? warnings.join('; ') : null,
+      twoAxis: twoAxis
+        ? { nmPerPxX: twoAxis.nmPerPxX, uNmPerPxX: twoAxis.uNmPerPxX, nmPerPxY: twoAxis.nmPerPxY, uNmPerPxY: twoAxis.uNmPerPxY, stretchPct: twoAxis.stretchPct, uStretchPct: twoAxis.uStretchPct, shearDeg: twoAxis.shearDeg, uShearDeg: twoAxis.uShearDeg, birgeRatio: twoAxis.birgeRatio, spots: twoAxis.residuals }
+        : null,
     };
     io.out(flags.has('json') ? JSON.stringify(report, null, 2) + '\n' : formatReport(report));
     return 0;

@@ -23,6 +23,7 @@ export const COMMANDS: readonly CommandEntry[] = [
   { name: 'measure', summary: 'periods (d-spacings) and directions in an image region, from its power spectrum', load: () => import('./measure') },
   { name: 'sheets', summary: 'nanosheet thickness and layer counts, along a line or found automatically', load: () => import('./sheets') },
   { name: 'xrd', summary: 'peaks, d-spacings, crystallite sizes and series of a powder XRD or SAXS pattern', load: () => import('./xrd') },
+  { name: 'saed', summary: 'electron diffraction: camera constant from a ring standard; ring and spot d-spacings', load: () => import('./saed') },
   { name: 'match', summary: 'reconcile micrograph periods and sheets with a diffraction pattern', load: () => import('./match') },
 ];
 

@@ -96,3 +96,62 @@ test('usage errors name the offending value', async () => {
   expect(await main(['calibrate', '--list-standards'], e.io)).toBe(0);
   expect(e.out.join('')).toMatch(/si-111/);
 });
+
+test('a label the readers do not agree on is refused with what was read and why, never a silent pixel size', async () => {
+  // "18 nm" is legible but not a round scale-bar value (issue 14: 10 nm once read as 18 nm and taken)
+  const img = scene({ ...spec, label: '18 nm', seed: 33 });
+  const file = join(dir, 'eighteen.png');
+  writeFileSync(file, encode({ width: img.width, height: img.height, data: Uint8Array.from(img.data), channels: 1, depth: 8 }));
+  const c = capture();
+  expect(await main(['calibrate', file, '--json'], c.io)).toBe(0);
+  const r = JSON.parse(c.out.join(''));
+  expect(r.nmPerPx).toBeNull();
+  expect(r.scaleBar.label).toBeNull();
+  expect(r.scaleBar.question).toMatch(/not a round scale-bar value.*Give the label as written/);
+  const t = capture();
+  await main(['calibrate', file], t.io);
+  expect(t.out.join('')).toMatch(/label {10}not taken: .*18 nm.*\(--label\)/);
+});
+
+test('calibrate --standard si-110 --region: both axes and the shear of a distorted Si [110] lattice image (stretch 2 %, shear 0.7°)', async () => {
+  const { distortedLattice } = await import('../../testing/synthetic/distorted-lattice');
+  const { projectedLattice } = await import('../../src/calibration/affine');
+  const lat = projectedLattice('si-110');
+  const sx = lat.d1Nm / 7.1;
+  const img = distortedLattice({ width: 320, height: 320, sxNm: sx, stretch: 0.02, shearDeg: 0.7, d1Nm: lat.d1Nm, d2Nm: lat.d2Nm, angleDeg: lat.angleDeg, rotationDeg: 17, reflections: [{ h: 1, k: 0, amplitude: 0.3 }, { h: 0, k: 1, amplitude: 0.3 }, { h: 1, k: 1, amplitude: 0.15 }], noise: 0.2, seed: 9 });
+  const file = join(dir, 'si110.tif');
+  writeFileSync(file, encodeTiff({ width: img.width, height: img.height, data: Uint16Array.from(img.data) }));
+  const c = capture();
+  expect(await main(['calibrate', file, '--no-ocr', '--standard', 'si-110', '--region', '0,0,320,320', '--json'], c.io)).toBe(0);
+  const r = JSON.parse(c.out.join(''));
+  expect(Math.abs(r.twoAxis.stretchPct - 2)).toBeLessThan(0.1);
+  expect(Math.abs(r.twoAxis.shearDeg - 0.7)).toBeLessThan(0.05);
+  expect(Math.abs(r.nmPerPx / sx - 1)).toBeLessThan(0.001);
+  const t = capture();
+  expect(await main(['calibrate', file, '--no-ocr', '--standard', 'si-110', '--region', '0,0,320,320'], t.io)).toBe(0);
+  expect(t.out.join('')).toMatch(/two axes {7}x [\d.]+ ± [\d.]+ nm\/px, y [\d.]+ ± [\d.]+ nm\/px \(k = 2/);
+  expect(t.out.join('')).toMatch(/distortion {5}stretch \(y\/x − 1\) 2\.\d+ ± [\d.]+ %, shear 0\.\d+ ± [\d.]+°/);
+  const e = capture();
+  expect(await main(['calibrate', file, '--no-ocr', '--standard', 'si-110', '--period-px', '5'], e.io)).toBe(2);
+  expect(e.err.join('')).toMatch(/si-110 \(a zone-axis lattice\) needs --region/);
+}, 60000);
+
+test('calibrate --bar-box: a bar drawn straight onto a lattice image is searched only where the user points', async () => {
+  const { barScene } = await import('../../testing/synthetic/scale-bar-scenes');
+  const { image, truth } = barScene({ width: 640, height: 480, seed: 77, background: 'lattice', holder: 'free', placement: 'above', orientation: 'horizontal', lengthPx: 150.3, thicknessPx: 5, startFraction: 0.3, ink: 'light', label: '20 nm', text: { kind: 'stroke', font: 'sans', capPx: 14, antiAliased: true }, full: 255 });
+  const file = join(dir, 'busy.png');
+  writeFileSync(file, encode({ width: image.width, height: image.height, data: Uint8Array.from(image.data), channels: 1, depth: 8 }));
+  const [lx, ly, lw, lh] = truth.labelBox;
+  const x0 = Math.max(0, Math.floor(Math.min(truth.x0, lx)) - 10);
+  const y0 = Math.max(0, Math.floor(Math.min(truth.y0, ly)) - 10);
+  const x1 = Math.min(639, Math.ceil(Math.max(truth.x1, lx + lw)) + 10);
+  const y1 = Math.min(479, Math.ceil(Math.max(truth.y1, ly + lh)) + 10);
+  const c = capture();
+  expect(await main(['calibrate', file, '--json', '--label', '20 nm', '--bar-box', `${x0},${y0},${x1 - x0},${y1 - y0}`], c.io)).toBe(0);
+  const r = JSON.parse(c.out.join(''));
+  expect(Math.abs(r.scaleBar.lengthPx - truth.lengthPx)).toBeLessThan(0.5);
+  expect(r.nmPerPx).toBeCloseTo(20 / r.scaleBar.lengthPx, 9);
+  const e = capture();
+  expect(await main(['calibrate', file, '--bar-box', '0,0,9000,10'], e.io)).toBe(2);
+  expect(e.err.join('')).toMatch(/--bar-box 0,0,9000,10 reaches outside the 640 × 480 image/);
+});

@@ -14,6 +14,7 @@ test.each([
   ['20 \u212b', 20, 'Å', 2], // ANGSTROM SIGN, NFC-normalised to Å
   ['500 pm', 500, 'pm', 0.5],
   ['  2.5   nm ', 2.5, 'nm', 2.5],
+  ['1 mm', 1, 'mm', 1e6],
 ])('parseScaleLabel(%j)', (text, value, unit, nm) => {
   const p = parseScaleLabel(text)!;
   expect(p).not.toBeNull();
@@ -27,7 +28,7 @@ test('a number and unit among other characters is read with lower confidence', (
   expect(parseScaleLabel('| 100 nm |')!.confidence).toBeLessThan(1);
 });
 
-test.each(['', 'nm', '200', '2 mm', '5 pum', '20 nm 50 nm', '0 nm', 'S00 nm', '1O nm'])('unreadable label %j gives null, never a guess', (t) => {
+test.each(['', 'nm', '200', '2 cm', '5 pum', '20 nm 50 nm', '0 nm', 'S00 nm', '1O nm'])('unreadable label %j gives null, never a guess', (t) => {
   expect(parseScaleLabel(t)).toBeNull();
 });
 
