@@ -181,14 +181,22 @@ export function radiationStatements(line: string, where: string): RadiationState
   if (text === '') return out;
   const quoted = text.length > 80 ? `${text.slice(0, 77)}...` : text;
   const ctx = `${where} ('${quoted}')`;
-  // ratios first: their "1" and "2" are not wavelengths
-  const ratio = new RegExp(String.raw`(?:k[\s_-]*)?(?:alpha|α|a)\s*2\s*(?:/|:|to)\s*(?:k[\s_-]*)?(?:alpha|α|a)\s*1[^0-9\n]{0,30}?${NUM}|ratio[^0-9\n]{0,30}?${NUM}`, 'i').exec(text);
+  // ratios first: their "1" and "2" are not wavelengths. The value is the first number after the
+  // ratio's words once the line indices (alpha1, Kα2) are skipped.
   let rest = text;
-  if (ratio && /ratio|\/|:/.test(ratio[0]) && /(alpha|α|a)\s*2|ratio/i.test(ratio[0])) {
-    const v = Number((ratio[1] ?? ratio[2]).replace(',', '.'));
-    if (!(v >= 0 && v <= 1)) throw new RadiationError(`${ctx}: a Kα2/Kα1 ratio of ${v} is not between 0 and 1`);
-    out.push({ kind: 'ratio', value: v, relU: 0, text: ratio[0], where });
-    rest = rest.replace(ratio[0], ' ');
+  const pair = /(?:k[\s_-]*)?(?:alpha|α|a)\s*2\s*(?:\/|:|to)\s*(?:k[\s_-]*)?(?:alpha|α|a)\s*1/i.exec(text);
+  const word = /\bratio\b/i.exec(text);
+  const marker = pair ?? word;
+  if (marker && (pair || /(alpha|α|k\s*a)\s*2|k[\s_-]*(alpha|α|a)\s*2/i.test(text))) {
+    const after = text.slice(marker.index + marker[0].length).replace(/(?:k[\s_-]*)?(?:alpha|α)\s*[12](?![0-9.,])|\bk[\s_-]*a\s*[12](?![0-9.,])/gi, ' ');
+    const num = new RegExp(`^[^0-9\n]{0,30}?${NUM}`).exec(after);
+    if (num) {
+      const v = Number(num[1].replace(',', '.'));
+      if (!(v >= 0 && v <= 1)) throw new RadiationError(`${ctx}: a Kα2/Kα1 ratio of ${v} is not between 0 and 1`);
+      const spanEnd = marker.index + marker[0].length + num.index + num[0].length;
+      out.push({ kind: 'ratio', value: v, relU: 0, text: text.slice(marker.index, Math.min(text.length, spanEnd)).trim(), where });
+      rest = text.slice(0, marker.index) + ' ; ' + text.slice(Math.min(text.length, spanEnd));
+    }
   }
   // indexed or plain wavelengths and energies
   const key = new RegExp(
@@ -200,7 +208,7 @@ export function radiationStatements(line: string, where: string): RadiationState
     const [whole, k, idx, filler, num, paren, pm, unitAfter] = m;
     const kw = k.toLowerCase();
     // "Kα2 stripped; wavelength 1.5406": the number belongs to the later keyword
-    const inner = /k[\s_-]*(?:alpha|α|a)|lambda|λ|wave[\s_-]*length|energy/i.exec(filler);
+    const inner = /k[\s_-]*(?:alpha|α|a)\s*[12]|lambda|λ|energy/i.exec(filler);
     if (inner) {
       key.lastIndex = m.index + k.length + (idx?.length ?? 0);
       continue;

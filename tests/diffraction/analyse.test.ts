@@ -43,20 +43,20 @@ describe('analysePattern on q data (synthetic truth)', () => {
 });
 
 describe('analysePattern withholds sizes it cannot support', () => {
-  test('every peak without a size has a FWHM at its bound or uncertain by more than half, and is noted (seeded synthetic clay pattern)', async () => {
+  test('every peak without a size has a FWHM at its bound or uncertain by more than half, and is noted (seeded synthetic clay pattern, a very weak 004 placed by the user)', async () => {
     const { syntheticPattern } = await import('../../testing/synthetic/diffraction-pattern');
     const { dToTwoTheta } = await import('../../src/diffraction/bragg');
     const cu = 0.154059292;
     const fw = (size: number, tt: number) => ((0.9 * cu) / (size * Math.cos((tt * Math.PI) / 360)) * 180) / Math.PI;
     const peaks = [1, 2, 3, 4].map((l, i) => {
       const tt = dToTwoTheta(1.25 / l, cu);
-      return { twoThetaDeg: tt, area: [600, 80, 120, 40][i], fwhmDeg: fw(8, tt), eta: 0.6 };
+      return { twoThetaDeg: tt, area: [600, 80, 120, 8][i], fwhmDeg: fw(8, tt), eta: 0.6 };
     });
-    const a = analysePattern(syntheticPattern(peaks, { rangeDeg: [3, 40], stepDeg: 0.02, background: { a: 300, b: 3000, c: 3, slope: -2 }, seed: 5 }), { backgroundIterations: 120 });
+    const a = analysePattern(syntheticPattern(peaks, { rangeDeg: [3, 40], stepDeg: 0.02, background: { a: 300, b: 3000, c: 3, slope: -2 }, seed: 5 }), { positions: peaks.map((p) => p.twoThetaDeg) });
     const without = a.peaks.filter((p) => p.crystalliteNm === null);
     for (const p of without) expect(p.atBound.includes('fwhm') || p.fwhmUncInvNm > 0.5 * p.fwhmInvNm).toBe(true);
     for (const p of a.peaks.filter((q) => q.crystalliteNm !== null)) expect(p.fwhmUncInvNm).toBeLessThanOrEqual(0.5 * p.fwhmInvNm);
-    expect(without.length).toBeGreaterThan(0); // this seed gives one (the weak 004)
+    expect(without.length).toBeGreaterThan(0); // the user-placed, very weak 004 (area 8) has no size
     expect(a.notes.join()).toMatch(/too poorly determined/);
     // the strong 001 keeps its size: 8 nm within 10 % (synthetic truth)
     const p001 = a.peaks.find((p) => Math.abs(p.twoThetaDeg! - 7.07) < 0.1)!;
