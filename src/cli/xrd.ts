@@ -89,7 +89,11 @@ export async function loadAndAnalyse(path: string, options: Map<string, string>)
       if (e instanceof PatternReadError) throw new UsageError(e.message);
       throw e;
     }
-    opts.instrumentFwhmDeg = instrumentFromStandard(sp);
+    try {
+      opts.instrument = instrumentFromStandard(sp, std);
+    } catch (e) {
+      throw new UsageError((e as Error).message);
+    }
   }
   try {
     return { pattern, analysis: analysePattern(pattern, opts) };

@@ -63,3 +63,27 @@ describe('analysePattern withholds sizes it cannot support', () => {
     expect(Math.abs(p001.crystalliteNm! - 8) / 8).toBeLessThan(0.1);
   });
 });
+
+describe('analysePattern on the measured propylammonium chloride pattern (SOURCES.md §2)', () => {
+  test('indexed as primitive tetragonal with the published cell (COD 1516218: a = 0.626428 nm, c = 0.740545 nm) within 0.05 %; d within twice its full budget of the published cell', async () => {
+    const { readFileSync } = await import('node:fs');
+    const { qOf } = await import('../../src/diffraction/lattice');
+    const p = parsePattern(readFileSync('tests/fixtures/reference-data/xrd-powder_propylammonium-chloride_CuKa12_COD1516218_2theta-counts.xy', 'utf8'));
+    const a = analysePattern(p);
+    const ph = a.indexing.phases[0];
+    expect(ph.kind).toBe('tetragonal-P');
+    expect(Math.abs(ph.aNm / 0.626428 - 1)).toBeLessThan(5e-4);
+    expect(Math.abs(ph.cNm / 0.740545 - 1)).toBeLessThan(5e-4);
+    expect(ph.lines.length).toBeGreaterThanOrEqual(30);
+    expect(ph.figureOfMerit.fN).toBeGreaterThan(20);
+    // every indexed d against the published cell: within 2u of the budget (fit, profile, zero shift, wavelength)
+    let inside = 0;
+    for (const l of ph.lines) {
+      const q = a.peaks[l.peak];
+      const dPub = 1 / Math.sqrt(qOf('tetragonal-P', 0.626428, 0.740545, ...l.hkl));
+      if (Math.abs(q.dCorrectedNm - dPub) <= 2 * q.budget.combinedNm) inside++;
+    }
+    expect(inside / ph.lines.length).toBeGreaterThan(0.85);
+    expect(a.radiationSource).toMatch(/header line/);
+  });
+});
