@@ -101,6 +101,10 @@ export function analysePattern(pattern: Pattern, options: AnalyseOptions = {}): 
   const warnings = new Set<string>();
   const sizes = fit.peaks.map((p): { size: number | null; unc: number | null; sample: number | null } => {
     if (p.kind === 'band') return { size: null, unc: null, sample: null };
+    if (!p.given && p.fwhmUncInvNm === 0) {
+      warnings.add('weak lines were fitted with their width held at the pattern\'s width trend: no size from them');
+      return { size: null, unc: null, sample: null };
+    }
     if (p.fwhmUncInvNm > 0.5 * p.fwhmInvNm || p.atBound.includes('fwhm')) {
       const where = p.twoThetaDeg !== null ? `${p.twoThetaDeg.toFixed(3)}°` : `q ${p.qInvNm.toFixed(4)} nm⁻¹`;
       warnings.add(`peak at ${where}: FWHM too poorly determined for a size (${p.atBound.includes('fwhm') ? 'at its bound' : 'uncertainty above half its value'})`);

@@ -962,7 +962,12 @@ export function fitPattern(pattern: Pattern, options: FitOptions = {}): PatternF
     for (let i = f.i0; i <= f.i1; i++) model[i] = f.model[i - f.i0];
   }
   const medianVar = [...ctx.noise.variance].sort((a, b) => a - b)[Math.floor(n / 2)];
-  const halos = findHalos(x, background, { minFwhm: 1.5 * ctx.maxFwhm, minHeight: 5 * Math.sqrt(medianVar), minRelative: 0.15, baselineHalfWidth: 4 * ctx.maxFwhm });
+  const halos: Halo[] = [];
+  // one halo per hump: maxima within half a FWHM of a stronger one are the same halo
+  for (const h of [...findHalos(x, background, { minFwhm: 1.5 * ctx.maxFwhm, minHeight: 5 * Math.sqrt(medianVar), minRelative: 0.15, baselineHalfWidth: 4 * ctx.maxFwhm })].sort((a, b) => b.height - a.height)) {
+    if (!halos.some((k) => Math.abs(k.position - h.position) < 0.5 * Math.max(k.fwhm, h.fwhm))) halos.push(h);
+  }
+  halos.sort((a, b) => a.position - b.position);
   const peaks: FittedPeak[] = [];
   fits.forEach((f, gi) => {
     f.members.forEach((m) => {

@@ -355,3 +355,13 @@ export function zoneSpots(phase: ZonePhase, uvw: [number, number, number], rotat
     return { hkl: r.hkl, dNm: r.dNm, angleDeg: ((rotationDeg + ang) % 360 + 360) % 360, intensity: r.intensity };
   });
 }
+
+/** Built-in phases for spot indexing, with the source of each cell. */
+export const BUILT_IN_PHASES: ReadonlyArray<{ name: string; cell: LatticeCell; allows?: (h: number, k: number, l: number) => boolean; source: string }> = [
+  { name: 'Si', cell: { kind: 'cubic-F', aNm: 0.5431020511, cNm: 0.5431020511 }, allows: (h, k, l) => ([h, k, l].every((v) => v % 2 === 0) ? (h + k + l) % 4 === 0 : true), source: 'CODATA 2018 lattice parameter; diamond glide (ITC A, Fd-3m)' },
+  { name: 'LaB6', cell: { kind: 'cubic-P', aNm: 0.4156826, cNm: 0.4156826 }, source: 'NIST SRM 660c certificate' },
+  { name: 'Au', cell: { kind: 'cubic-F', aNm: 0.40782, cNm: 0.40782 }, source: 'fcc, a from memory (handbook value 0.4078 nm)' },
+  { name: 'Al', cell: { kind: 'cubic-F', aNm: 0.40495, cNm: 0.40495 }, source: 'fcc, a from memory (handbook value 0.4050 nm)' },
+  { name: 'Cu', cell: { kind: 'cubic-F', aNm: 0.36149, cNm: 0.36149 }, source: 'fcc, a from memory (handbook value 0.3615 nm)' },
+  { name: 'alpha-Fe', cell: { kind: 'cubic-I', aNm: 0.28665, cNm: 0.28665 }, source: 'bcc, a from memory (handbook value 0.2867 nm)' },
+];

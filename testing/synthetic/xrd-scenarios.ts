@@ -227,6 +227,9 @@ export function diffractionScenarios(seed = 1): Scenario[] {
  * @param seed noise seed
  * @returns the scenario (its text is the standard's file)
  */
-export function standardScenario(seed = 1): Scenario {
-  return draw({ name: 'LaB6 standard', covers: 'instrument profile', phases: [{ name: 'LaB6', cell: { kind: 'cubic-P', aNm: 0.4156826, cNm: 0.4156826 }, sizeNm: 5000, strongestArea: 400, intensities: [0.6, 1, 0.45, 0.25, 0.5, 0.3, 0.15, 0.12, 0.25, 0.2, 0.15, 0.12, 0.1, 0.12, 0.1, 0.1, 0.1, 0.1, 0.1, 0.1] }], rangeDeg: [18, 140], stepDeg: 0.01, radiation: 'doublet', header: 0 }, seed * 7 + 99991);
+export function standardScenario(seed = 1, radiation: 'doublet' | number = 'doublet'): Scenario {
+  const lambda = radiation === 'doublet' ? CU1 : radiation;
+  // the same lines whatever the wavelength: up to sin θ = 0.94
+  const range: [number, number] = [(2 * Math.asin((lambda / 2) * 1.2 * (1 / 0.4156826)) * 180) / Math.PI * 0.8, Math.min(140, (2 * Math.asin(0.94) * 180) / Math.PI)];
+  return draw({ name: 'LaB6 standard', covers: 'instrument profile', phases: [{ name: 'LaB6', cell: { kind: 'cubic-P', aNm: 0.4156826, cNm: 0.4156826 }, sizeNm: 5000, strongestArea: 400, intensities: [0.6, 1, 0.45, 0.25, 0.5, 0.3, 0.15, 0.12, 0.25, 0.2, 0.15, 0.12, 0.1, 0.12, 0.1, 0.1, 0.1, 0.1, 0.1, 0.1] }], rangeDeg: range, stepDeg: 0.01, radiation, header: 0 }, seed * 7 + 99991);
 }
