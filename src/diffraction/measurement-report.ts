@@ -127,7 +127,9 @@ export function readMeasurementReport(text: string, fileName: string): ReportInp
       const periodNm = positive(q.periodNm, `${where}.periodNm`, 'a period');
       const uncertaintyNm = nonNegative(q.uncertaintyNm, `${where}.uncertaintyNm`);
       const angle = typeof q.angleDeg === 'number' && Number.isFinite(q.angleDeg) ? `${q.angleDeg.toFixed(0)}°` : 'no angle';
-      const dir = typeof q.angleDeg === 'number' && Number.isFinite(q.angleDeg) ? { angleDeg: q.angleDeg, angleUncDeg: typeof q.uAngleDeg === 'number' && q.uAngleDeg > 0 ? q.uAngleDeg : undefined } : {};
+      const dir: { angleDeg?: number; angleUncDeg?: number } = {};
+      if (typeof q.angleDeg === 'number' && Number.isFinite(q.angleDeg)) dir.angleDeg = q.angleDeg;
+      if (typeof q.uAngleDeg === 'number' && q.uAngleDeg > 0) dir.angleUncDeg = q.uAngleDeg;
       periods.push({ periodNm, uncertaintyNm, label: `${name} #${i + 1} (${angle})`, ...dir });
     });
   } else if (Array.isArray(j.sheets)) {
