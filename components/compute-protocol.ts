@@ -14,6 +14,7 @@ import type { FilterView, ProfileView, SpectrumSettings, SpectrumView } from '..
 import type { RectPx, Spot } from '../src/measure/spectrum';
 import type { Pattern } from '../src/diffraction/pattern';
 import type { PatternAnalysis } from '../src/diffraction/analyse';
+import type { ZoneAxisResult, ZoneSpot } from '../src/diffraction/zone-axis';
 import type { AutoSheetsResult } from '../src/sheets/detect';
 
 export type { FilterView, ProfileEstimator, ProfileView, SpectrumSettings, SpectrumView };
@@ -64,6 +65,8 @@ export interface ComputeCalls {
   };
   /** Reads a diffraction pattern's text and fits its peaks (seconds on a few thousand points). */
   analysePattern: { args: { text: string; wavelength?: string; fileName?: string }; result: { pattern: Pattern; analysis: PatternAnalysis } };
+  /** Spot indexing: each spot's hkl and the zone axis with a structure file's text or a built-in phase (milliseconds). */
+  indexSpots: { args: { spots: ZoneSpot[]; cifText?: string; cifName?: string; builtIn?: string }; result: ZoneAxisResult & { source: string } };
   /** Crop: automatic sheet detection over a copy of an image, skipping a scale-bar strip or panel (Sheets panel). */
   autoSheets: { args: { image: GreyImage; polarity: 'dark' | 'bright' }; result: { sheets: AutoSheetsResult; excludedBox: [number, number, number, number] | null } };
 }

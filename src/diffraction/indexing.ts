@@ -566,6 +566,21 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
       aU = Math.hypot(aU, (Number.isFinite(s.t.a) ? s.t.a : 0) * relL);
       cU = Math.hypot(cU, s.t.c * relL);
     }
+    if (!isStandard && !s.cov && cellParameters(s.t.kind) === 1 && s.hkls.length > 0) {
+      // too few lines to refine with a zero shift: the cell from each line (cell = d·√(h²+k²+l²)),
+      // weighted by the lines' own d uncertainties, the zero shift's allowance not included (noted)
+      let sw = 0;
+      for (const h of s.hkls) {
+        const m = Math.sqrt(h.hkl[0] ** 2 + h.hkl[1] ** 2 + h.hkl[2] ** 2);
+        const u = Math.max(peaks[h.peak].dUncNm, 1e-9) * m;
+        sw += 1 / (u * u);
+      }
+      const u = Math.hypot(1 / Math.sqrt(sw), s.t.c * relL);
+      cU = u;
+      if (s.t.kind !== 'lamellar') aU = u;
+      notes.push(`${LATTICE_WORDS[s.t.kind]} (${s.hkls.length} lines): too few lines to refine with a zero shift; its cell's uncertainty is that of its lines alone`);
+    }
+
     const zFitted = opts.fitZeroShift && lambda !== null && s.cov !== null && s.cov.length > np0;
     const zU = zFitted ? Math.sqrt(Math.max(0, s.cov![np0][np0] * scale)) : null;
     const lines: IndexedLine[] = s.hkls.map((h) => {
@@ -706,6 +721,16 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
     else if (complete || !(options.mixtures ?? true)) {
       phases.push(phaseOf(firstBest, false));
       if (!complete) notes.push(`${strongScope.length - firstBest.strongExplained} strong line(s) left unexplained by one phase (mixtures not tried)`);
+      // weaker lines the phase leaves may be a second, minor phase
+      const explained = new Set(firstBest.hkls.map((h) => h.peak));
+      const rest = new Set(scope.filter((i) => !explained.has(i)));
+      if (complete && (options.mixtures ?? true) && rest.size >= 2) {
+        const two = search(rest)?.best ?? null;
+        if (two && two.hkls.length >= 2 && two.fom.fN >= 2 * minFom) {
+          phases.push(phaseOf(two, false));
+          notes.push(`a minor second phase (${LATTICE_WORDS[two.t.kind]}) explains ${two.hkls.length} of the weaker lines the first leaves`);
+        }
+      }
     } else {
       // a mixture: each of the leading single-phase solutions with the best phase among the lines it leaves
       const leaders = found.pool.slice(0, 10);
