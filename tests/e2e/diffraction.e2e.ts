@@ -1,4 +1,6 @@
-import { mkdirSync } from 'node:fs';
+import { mkdtempSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
 import { afterAll, beforeAll, expect, test } from 'vitest';
 import { foreignRequests, openSession, type Session } from './browser';
 
@@ -30,9 +32,10 @@ test('the demo pattern: the clay 00l lines indexed with their d budget, the 3.9 
   await xrd.locator('textarea[aria-label^="Spots"]').dispatchEvent('change');
   await xrd.locator('button', { hasText: 'Index spots' }).click();
   await expect.poll(() => xrd.locator('p', { hasText: 'Zone axis' }).textContent(), { timeout: 20_000 }).toMatch(/\[(1 0 -1|1 -1 0|0 1 -1|1 1 0|1 0 1|0 1 1)\]/);
-  mkdirSync('test-results', { recursive: true });
   await xrd.locator('h3', { hasText: 'Index spots' }).scrollIntoViewIfNeeded();
-  await s.page.screenshot({ path: 'test-results/diffraction-panel.png' });
+  const shot = join(mkdtempSync(join(tmpdir(), 'strata-xrd-')), 'diffraction-panel.png');
+  await s.page.screenshot({ path: shot });
+  console.log(`screenshot: ${shot}`);
   expect(errors).toEqual([]);
   expect(foreignRequests(s.requests, s.url)).toEqual([]);
 }, 120_000);
