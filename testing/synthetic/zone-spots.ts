@@ -48,3 +48,18 @@ export function syntheticZoneSpots(phase: ZonePhase, uvw: [number, number, numbe
     return { dNm: d, dUncNm: sd * s.dNm, angleDeg: ((a % 360) + 360) % 360, angleUncDeg: sa, hkl: s.hkl };
   });
 }
+
+/** Zone axes equivalent under the lattice's rotations and inversion (cubic: permutations and signs; tetragonal: u, v swapped and signed; hexagonal: the 6-fold about c). */
+export function equivalentZones(kind: 'cubic' | 'tetragonal' | 'hexagonal', a: number[], b: number[]): boolean {
+  const key = (v: number[]) => v.map(Math.abs);
+  if (kind === 'cubic') return key(a).sort().join() === key(b).sort().join();
+  if (kind === 'tetragonal') return Math.abs(a[2]) === Math.abs(b[2]) && key(a.slice(0, 2)).sort().join() === key(b.slice(0, 2)).sort().join();
+  const orbit: number[][] = [];
+  let v = [a[0], a[1]];
+  for (let i = 0; i < 6; i++) {
+    v = [v[0] - v[1], v[0]];
+    orbit.push(v, [v[1], v[0]]);
+  }
+  return orbit.some((o) => [1, -1].some((s) => o[0] * s === b[0] && o[1] * s === b[1] && Math.abs(a[2]) === Math.abs(b[2])));
+}
+
