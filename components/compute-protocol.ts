@@ -17,6 +17,7 @@ import type { FilterView, ProfileView, SpectrumSettings, SpectrumView } from '..
 import type { RectPx, Spot } from '../src/measure/spectrum';
 import type { Pattern } from '../src/diffraction/pattern';
 import type { PatternAnalysis } from '../src/diffraction/analyse';
+import type { ZoneAxisResult, ZoneSpot } from '../src/diffraction/zone-axis';
 import type { AutoSheetsResult } from '../src/sheets/detect';
 import type { LineSheetsResult } from '../src/sheets/line';
 
@@ -79,6 +80,8 @@ export interface ComputeCalls {
   };
   /** Electron diffraction: ring and spot d-spacings of a copy of a sample's pattern with a camera setting (Electron diffraction panel). */
   electronPattern: { args: { image: GreyImage; camera: CameraSetting; what: 'rings' | 'spots' | 'both' }; result: PatternMeasurement };
+  /** Spot indexing: each spot's hkl and the zone axis with a structure file's text or a built-in phase (milliseconds). */
+  indexSpots: { args: { spots: ZoneSpot[]; cifText?: string; cifName?: string; builtIn?: string }; result: ZoneAxisResult & { source: string } };
 }
 
 /** A camera constant with the ring analysis it rests on (geometry, centre uncertainty, notes). */

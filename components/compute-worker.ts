@@ -131,6 +131,17 @@ const handlers: Handlers = {
     if (pattern.axis === 'twoTheta' && pattern.wavelengthNm === null) throw new Error('no wavelength in the file: choose one');
     return { pattern, analysis: analyse(pattern) };
   },
+  indexSpots: async ({ spots, cifText, cifName, builtIn }) => {
+    const z = await import('../src/diffraction/zone-axis');
+    if (cifText !== undefined) {
+      const { parseCif } = await import('../src/diffraction/cif');
+      const phase = z.zonePhaseFromStructure(parseCif(cifText, { fileName: cifName ?? 'the structure file' }), 0.08);
+      return { ...z.indexSpots(spots, phase), source: cifName ?? 'structure file' };
+    }
+    const b = z.BUILT_IN_PHASES.find((p) => p.name === builtIn);
+    if (!b) throw new Error(`no built-in phase '${builtIn}'`);
+    return { ...z.indexSpots(spots, z.zonePhaseFromLattice(b.name, b.cell, 0.06, b.allows)), source: `built-in ${b.name} (${b.source})` };
+  },
 };
 
 const scope = self as unknown as DedicatedWorkerGlobalScope;

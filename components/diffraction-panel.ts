@@ -13,6 +13,9 @@ import { parsePattern, parsePeakList, type ManualPeak, type Pattern, type PeakLi
 import { reconcile, type DiffractionLine, type MicrographPeriod, type Reconciliation } from '../src/diffraction/reconcile';
 import { indexSeries, type IndexedSeries } from '../src/diffraction/series';
 import { niceTicks } from '../src/figure/ticks';
+import { pm, sig } from '../src/diffraction/format';
+import { expressPeriod } from '../src/measure/measurement';
+import { BUILT_IN_PHASES, type ZoneAxisResult, type ZoneSpot } from '../src/diffraction/zone-axis';
 import { controlStyles, panelStyles } from './styles';
 
 export const panelLabel = 'Diffraction';
@@ -42,6 +45,10 @@ export class StrataDiffractionPanel extends LitElement {
     manualUnit: { state: true },
     error: { state: true },
     busy: { state: true },
+    zonePhase: { state: true },
+    spotsText: { state: true },
+    zoneResult: { state: true },
+    zoneError: { state: true },
   };
 
   static override styles = [
@@ -83,6 +90,13 @@ export class StrataDiffractionPanel extends LitElement {
   manualUnit: PeakListUnit = 'dNm';
   error = '';
   busy = false;
+  /** Spot indexing: a built-in phase's name or 'file'; the typed or taken spots; the result. */
+  zonePhase = 'Si';
+  spotsText = '';
+  zoneResult: (ZoneAxisResult & { source: string }) | null = null;
+  zoneError = '';
+  private cifText: string | null = null;
+  private cifName: string | null = null;
   private pattern: Pattern | null = null;
   private patternText: string | null = null;
   private fileName: string | null = null;
@@ -194,13 +208,107 @@ export class StrataDiffractionPanel extends LitElement {
     }
   }
 
+  /** Spots as typed: 'd,angle' pairs (nm, degrees) separated by ';' or new lines; 'd±u,angle' gives u (else 0.5 % of d). */
+  private typedSpots(): ZoneSpot[] {
+    return this.spotsText.split(/[;\n]/).map((t) => t.trim()).filter(Boolean).map((t, i) => {
+      const m = /^([0-9.eE+-]+)(?:\s*(?:±|\+-)\s*([0-9.eE+-]+))?\s*,\s*([0-9.eE+-]+)$/.exec(t);
+      if (!m) throw new Error(`spot ${i + 1} '${t}' is not 'd,angle' (nm, degrees)`);
+      const d = Number(m[1]);
+      return { dNm: d, dUncNm: m[2] !== undefined ? Number(m[2]) : 0.005 * d, angleDeg: Number(m[3]) };
+    });
+  }
+
+  /** The calibrated periods of the most recent stored measurement with at least two, as spots (d ± u, direction). */
+  private async spotsFromLibrary(): Promise<void> {
+    if (!this.db) return;
+    const all = (await listMeasurements(this.db)).filter((m) => m.calibration && m.periodicities.filter((p) => p.geometry === 'normal').length >= 2);
+    const m = all.sort((a, b) => (b.createdIso ?? '').localeCompare(a.createdIso ?? ''))[0];
+    if (!m) {
+      this.zoneError = 'no stored measurement has two calibrated spots';
+      return;
+    }
+    this.spotsText = m.periodicities.filter((p) => p.geometry === 'normal').map((p) => {
+      const b = expressPeriod(p, m.calibration, 1);
+      return `${sig(b.value, 5)}±${sig(b.combined, 2)},${sig(p.angleDeg, 4)}`;
+    }).join('; ');
+    this.say(`Spots from ${m.fileName || m.id}`);
+  }
+
+  /** Asks for a structure file (an input made on demand, so the panel keeps one file input: the pattern's). */
+  private pickCif(): void {
+    const input = document.createElement('input');
+    input.type = 'file';
+    input.accept = '.cif';
+    input.addEventListener('change', (e) => void this.onCif(e));
+    input.click();
+  }
+
+  private async onCif(e: Event): Promise<void> {
+    const file = (e.target as HTMLInputElement).files?.[0];
+    if (!file) return;
+    this.cifText = await file.text();
+    this.cifName = file.name;
+    this.zonePhase = 'file';
+  }
+
+  /** Indexes the spots in the compute worker. */
+  private async indexSpotsNow(): Promise<void> {
+    this.zoneError = '';
+    this.zoneResult = null;
+    try {
+      if (!this.compute) throw new Error('the compute worker is not available');
+      const spots = this.typedSpots();
+      if (this.zonePhase === 'file' && this.cifText === null) throw new Error('choose a structure file first');
+      this.zoneResult = await this.compute.call('indexSpots', this.zonePhase === 'file' ? { spots, cifText: this.cifText!, cifName: this.cifName ?? undefined } : { spots, builtIn: this.zonePhase });
+    } catch (err) {
+      this.zoneError = (err as Error).message;
+    }
+  }
+
+  private zoneSection(): TemplateResult {
+    const r = this.zoneResult;
+    const spots = (() => {
+      try {
+        return this.typedSpots();
+      } catch {
+        return [];
+      }
+    })();
+    const best = r?.candidates[0];
+    return html`<section>
+      <h3>Index spots with a structure</h3>
+      <div class="row">
+        <label>Phase
+          <select @change=${(e: Event) => { this.zonePhase = (e.target as HTMLSelectElement).value; }}>
+            ${BUILT_IN_PHASES.map((p) => html`<option value=${p.name} ?selected=${this.zonePhase === p.name} title=${p.source}>${p.name}</option>`)}
+            <option value="file" ?selected=${this.zonePhase === 'file'}>structure file${this.cifName ? `: ${this.cifName}` : '…'}</option>
+          </select>
+        </label>
+        <button @click=${() => this.pickCif()} title="A crystallographic information file (CIF) of the phase">Structure file…</button>
+        <button ?disabled=${!this.db} @click=${() => this.spotsFromLibrary()} title="The calibrated spots of the most recent measurement saved in the library">Spots from the library</button>
+      </div>
+      <textarea rows="2" aria-label="Spots as d,angle pairs in nm and degrees, separated by semicolons" placeholder="d,angle; d,angle … e.g. 0.3135,10; 0.3135,80.5; 0.192,45.3" .value=${this.spotsText} @change=${(e: Event) => { this.spotsText = (e.target as HTMLTextAreaElement).value; }}></textarea>
+      <div class="row"><button @click=${() => this.indexSpotsNow()}>Index spots</button></div>
+      ${this.zoneError ? html`<p class="error">${this.zoneError}</p>` : nothing}
+      ${r && !best ? html`<p>No zone axis of ${r.phase} explains the spots.</p>` : nothing}
+      ${best ? html`<p>Zone axis <strong>[${best.uvw.join(' ')}]</strong>${best.mirrored ? ' (image mirrored)' : ''} — ${best.assignments.length} of ${spots.length} spots, χ² ${sig(best.chi2, 3)}; ${r!.source}</p>
+        <table>
+          <tr><th>spot</th><th>d (nm) ± u</th><th>hkl</th><th>d calc (nm)</th><th>Δd (nm)</th><th>Δangle (°)</th></tr>
+          ${best.assignments.map((a) => html`<tr><td>${a.spot + 1}</td><td>${spots[a.spot] ? pm(spots[a.spot].dNm, spots[a.spot].dUncNm) : '—'}</td><td>${a.hkl.join(' ')}</td><td>${sig(a.dCalcNm, 5)}</td><td>${sig(a.dResidualNm, 2)}</td><td>${sig(a.angleResidualDeg, 2)}</td></tr>`)}
+        </table>
+        ${r!.candidates.length > 1 ? html`<p class="muted">Other zone axes: ${r!.candidates.slice(1).map((c) => `[${c.uvw.join(' ')}] (${c.assignments.length} spots, χ² ${sig(c.chi2, 3)})`).join('; ')}</p>` : nothing}` : nothing}
+      ${r?.notes.map((n) => html`<p class="muted">${n}</p>`) ?? nothing}
+    </section>`;
+  }
+
   /** Diffraction lines from the fit or the typed list, with series labels. */
   private lines(): { lines: DiffractionLine[]; series: IndexedSeries[] } {
     if (this.analysis) {
       const label = new Map<number, string>();
       for (const s of this.analysis.series) for (const m of s.members) label.set(m.peak, s.kind === 'lamellar' ? m.index : `${s.kind} ${m.index}`);
+      for (const ph of this.analysis.indexing.phases) for (const l of ph.lines) if (!label.has(l.peak)) label.set(l.peak, l.hkl.join(' '));
       return {
-        lines: this.analysis.peaks.map((p, i) => ({ dNm: p.dNm, dUncNm: p.dUncNm, label: label.get(i) ?? `d ${p.dNm.toFixed(4)}`, crystalliteNm: p.crystalliteNm, intensity: p.intensity })),
+        lines: this.analysis.peaks.map((p, i) => ({ dNm: p.dCorrectedNm, dUncNm: p.budget.combinedNm, label: label.get(i) ?? `d ${sig(p.dNm, 5)}`, crystalliteNm: p.crystalliteNm, intensity: p.intensity })),
         series: this.analysis.series,
       };
     }
@@ -375,12 +483,19 @@ export class StrataDiffractionPanel extends LitElement {
       </section>
       ${a ? html`<section>
         <h3>Peaks (${a.peaks.length})</h3>
+        <p class="muted">Wavelength ${a.radiationLabel} — from ${a.radiationSource}. d ± 2u: fit, profile shape, zero shift (${a.indexing.zeroShiftDeg !== null ? 'measured, removed' : 'allowance'}) and wavelength.</p>
         <table>
-          <tr><th>2θ (°)</th><th>d (nm)</th><th>±</th><th>FWHM (°)</th><th>height</th><th>size (nm)</th></tr>
-          ${a.peaks.map((p) => html`<tr><td>${f(p.twoThetaDeg, 3)}</td><td>${f(p.dNm, 5)}</td><td>${f(p.dUncNm, 5)}</td><td>${f(p.fwhmDeg, 3)}</td><td>${f(p.intensity, 0)}</td><td>${f(p.crystalliteNm, 1)}</td></tr>`)}
+          <tr><th>2θ (°)</th><th>d (nm) ± 2u</th><th>FWHM (°)</th><th>height</th><th>size (nm)</th><th>hkl</th></tr>
+          ${a.peaks.map((p, i) => {
+            const hkl = a.indexing.phases.flatMap((ph, j) => ph.lines.filter((l) => l.peak === i).map((l) => `${a.indexing.phases.length > 1 ? `${j + 1}: ` : ''}${l.hkl.join(' ')}`))[0] ?? '';
+            return html`<tr><td>${p.twoThetaDeg === null ? '—' : pm(p.twoThetaDeg, p.twoThetaUncDeg)}</td><td>${pm(p.dCorrectedNm, 2 * p.budget.combinedNm)}</td><td>${sig(p.fwhmDeg, 3)}</td><td>${sig(p.intensity, 3)}</td><td>${p.kind === 'band' ? '(hk) band' : p.crystalliteNm === null ? '—' : pm(p.crystalliteNm, 2 * (p.crystalliteUncNm ?? 0))}</td><td>${hkl}</td></tr>`;
+          })}
         </table>
-        ${a.series.map((s) => html`<p>${s.kind}: ${s.members.map((m) => m.index).join(', ')} — cell ${f(s.cellNm, 5)} ± ${f(s.cellUncNm, 5)} nm</p>`)}
+        ${a.indexing.phases.map((ph, j) => html`<p>Phase ${j + 1}: ${ph.kind}, ${ph.kind === 'lamellar' ? `period ${pm(ph.cNm, 2 * ph.cUncNm)} nm` : ph.kind.startsWith('cubic') ? `a = ${pm(ph.aNm, 2 * ph.aUncNm)} nm` : `a = ${pm(ph.aNm, 2 * ph.aUncNm)} nm, c = ${pm(ph.cNm, 2 * ph.cUncNm)} nm`} (± 2u); ${ph.lines.length} lines; F${ph.figureOfMerit.n} = ${sig(ph.figureOfMerit.fN, 3)}</p>`)}
+        ${a.indexing.zeroShiftDeg !== null ? html`<p>Zero shift ${pm(a.indexing.zeroShiftDeg, 2 * (a.indexing.zeroShiftUncDeg ?? 0))}° (± 2u), removed from d.</p>` : nothing}
+        ${a.series.map((s) => html`<p>${s.kind}: ${s.members.map((m) => m.index).join(', ')} — cell ${pm(s.cellNm, 2 * s.cellUncNm)} nm (± 2u)</p>`)}
         <p class="muted">${a.sizeMethod}</p>
+        ${a.notes.map((n) => html`<p class="muted">${n}</p>`)}
       </section>` : nothing}
       <section>
         <div class="row">
@@ -394,13 +509,14 @@ export class StrataDiffractionPanel extends LitElement {
           <tr><th>period (nm)</th><th>match</th><th>d (nm)</th><th>diff</th><th>z</th></tr>
           ${rec.best.map((b, i) => {
             const p = valid[i];
-            if (!b) return html`<tr><td>${f(p.periodNm)} ± ${f(p.uncertaintyNm)}</td><td>—</td><td></td><td></td><td></td></tr>`;
-            return html`<tr><td>${f(p.periodNm)} ± ${f(p.uncertaintyNm)}</td><td>${b.label}</td><td>${f(b.dNm, 5)}</td><td>${(100 * b.relDiff).toFixed(2)} %</td><td class=${Math.abs(b.z) <= 2 ? 'good' : 'warn'}>${b.z.toFixed(2)}</td></tr>`;
+            if (!b) return html`<tr><td>${pm(p.periodNm, p.uncertaintyNm)}</td><td>—</td><td></td><td></td><td></td></tr>`;
+            return html`<tr><td>${pm(p.periodNm, p.uncertaintyNm)}</td><td>${b.label}</td><td>${pm(b.dNm, b.dUncNm)}</td><td>${(100 * b.relDiff).toFixed(2)} %</td><td class=${Math.abs(b.z) <= 2 ? 'good' : 'warn'}>${b.z.toFixed(2)}</td></tr>`;
           })}
         </table>
         ${rec.unmatchedLines.length ? html`<p class="muted">Unmatched lines: ${rec.unmatchedLines.join(', ')}</p>` : nothing}
         ${rec.calibration ? html`<p>Proposed (not applied): multiply nm per pixel by ${f(rec.calibration.factor)} ± ${f(rec.calibration.factorUnc)}. ${rec.calibration.reason}</p>` : nothing}
       </section>` : nothing}
+      ${this.zoneSection()}
     `;
   }
 }

@@ -21,11 +21,16 @@ export const COMMANDS: readonly CommandEntry[] = [
   { name: 'batch', summary: 'run a recipe on every image of a folder (resumable, parallel, sharded); CSV, JSON, figures', load: () => import('./batch') },
   { name: 'merge', summary: 'combine the partial results of a sharded batch into the exports of a single run', load: () => import('./merge') },
   { name: 'measure', summary: 'periods (d-spacings) and directions in an image region, from its power spectrum', load: () => import('./measure') },
-  { name: 'sheets', summary: 'nanosheet thickness and layer counts, along a line or found automatically', load: () => import('./sheets') },
+  { name: 'sheets', summary: 'stack thickness and layer counts, along a line or found automatically', load: () => import('./sheets') },
   { name: 'xrd', summary: 'peaks, d-spacings, crystallite sizes and series of a powder XRD or SAXS pattern', load: () => import('./xrd') },
   { name: 'saed', summary: 'electron diffraction: camera constant from a ring standard; ring and spot d-spacings', load: () => import('./saed') },
-  { name: 'match', summary: 'reconcile micrograph periods and sheets with a diffraction pattern', load: () => import('./match') },
+  { name: 'reconcile', summary: 'reconcile micrograph periods and sheets with a diffraction pattern', load: () => import('./reconcile') },
+  { name: 'reflections', summary: "list a structure file's reflections: hkl, d, 2θ at a wavelength, relative intensity", load: () => import('./reflections') },
+  { name: 'zone', summary: 'index spots of a power spectrum or electron diffraction pattern with a structure: hkl and zone axis', load: () => import('./zone') },
 ];
+
+/** Former command names, accepted with a one-line note (not listed by --help). */
+const ALIASES: Record<string, string> = { match: 'reconcile' };
 
 /** Error classes only the JavaScript engine throws for a fault of the program. */
 const ENGINE_ERRORS = new Set(['TypeError', 'ReferenceError', 'InternalError', 'EvalError']);
@@ -60,7 +65,9 @@ export async function main(argv: string[], io: CliIo = nodeIo): Promise<number> 
     io.out(`${PROGRAM_VERSION}\n`);
     return 0;
   }
-  const entry = COMMANDS.find((c) => c.name === name);
+  const alias = ALIASES[name];
+  if (alias) io.err(`stratameter: '${name}' is now '${alias}'; the old name will go away\n`);
+  const entry = COMMANDS.find((c) => c.name === (alias ?? name));
   if (!entry) {
     io.err(`stratameter: unknown command '${name}'. Run 'stratameter --help' for the list.\n`);
     return 2;

@@ -8,30 +8,41 @@ import { parseArgs, UsageError } from './command';
 import { analysePattern, instrumentFromStandard, type AnalyseOptions, type PatternAnalysis } from '../diffraction/analyse';
 import type { AxisUnit, Pattern } from '../diffraction/pattern';
 import { PatternReadError, readPatternFile } from '../diffraction/read-pattern';
+import { pm, sig, tidy, tidyU } from '../diffraction/format';
+import { checkInstrumentProfile } from '../diffraction/instrument';
+import { writeFile } from 'node:fs/promises';
 
 const usage = `Usage: stratameter xrd PATTERN [--wavelength W] [--axis 2theta|q-nm|q-A] [--k K]
-                       [--instrument-fwhm DEG | --standard PATTERN] [--correction gaussian|lorentzian]
-                       [--ka2 doublet|none] [--min-snr S] [--json]
+                       [--standard PATTERN [--save-instrument OUT.json] | --instrument PROFILE.json
+                        | --instrument-fwhm DEG [--correction gaussian|lorentzian]]
+                       [--ka2 doublet|none] [--json]
 
 Finds and fits the peaks of a diffraction pattern (two or three columns: position, intensity,
-optional uncertainty), gives d, q, FWHM, area and height with their fit uncertainties, the
-Scherrer crystallite size of each peak, and the lamellar, 2D-hexagonal or cubic series found.
+optional uncertainty), indexes them (cubic P, I, F; tetragonal P, I; hexagonal P, R; lamellar;
+two-phase mixtures) with a zero-shift term, and gives d with its uncertainty budget, the refined
+cells with figures of merit, crystallite sizes and Williamson–Hall size and strain.
 
 Options:
-  --wavelength W     CuKa1, CuKa, MoKa1, CoKa1, CrKa1, AgKa1, or a value such as 0.15406nm or
-                     1.5406A (default: from the file's header; required for 2θ data without one)
+  --wavelength W     CuKa1, CuKa, MoKa1, CoKa1, CrKa1, FeKa1, AgKa1, a value such as 0.15406nm,
+                     1.5406A, 154.06pm or an energy such as 17.0keV (default: from the file's header;
+                     a header and an option that disagree are refused, quoting both)
   --axis A           first column: 2theta (degrees), q-nm (nm⁻¹) or q-A (Å⁻¹) (default: header, else 2theta)
   --k K              Scherrer shape factor (default 0.9, shape unknown)
-  --instrument-fwhm DEG   instrumental FWHM in degrees 2θ to remove (default 0)
-  --standard PATTERN      measure the instrumental FWHM from a line-broadening standard's pattern
-  --correction R     gaussian (quadratic, default) or lorentzian (linear) subtraction
-  --ka2 M            doublet: fit Kα2 with each peak (default when the wavelength is a Kα1 line); none
-  --min-snr S        peak detection threshold over the noise (default 4)
+  --standard PATTERN       fit the instrument profile (Caglioti widths) from a line-profile
+                           standard (e.g. LaB6, Si) measured on the same instrument
+  --save-instrument FILE   keep that profile as JSON, for --instrument later
+  --instrument FILE        an instrument profile saved before
+  --instrument-fwhm DEG    a constant instrumental FWHM in degrees 2θ instead
+  --correction R     with --instrument-fwhm: gaussian (quadratic, default) or lorentzian (linear)
+  --ka2 M            doublet: fit Kα2 with each peak (default for a tube's Kα1); none
   --json             one JSON object on standard output instead of a table
 
-Background: SNIP (Ryan et al. 1988); search on a Savitzky–Golay smooth; pseudo-Voigt fits by
-Levenberg–Marquardt. Uncertainties are statistical (fit) only. Scherrer sizes ignore strain and
-lose meaning above ~100 nm.
+A peak is kept when its fitted area stands above its counting noise at a 1 % false-alarm rate per
+pattern and it is distinctly narrower than any amorphous halo it sits on (both stated in the
+notes). Every ± printed is 2u; the budget of d contains the fit, the profile shape, the zero shift
+(measured from the indexed lines or an allowance) and the wavelength. Scherrer sizes ignore
+strain and lose meaning above ~100 nm. Results inform research; they do not replace an
+accredited calibration.
 `;
 
 const AXES: Record<string, AxisUnit> = { '2theta': 'twoThetaDeg', 'q-nm': 'qInvNm', 'q-a': 'qInvA' };
@@ -79,7 +90,22 @@ export async function loadAndAnalyse(path: string, options: Map<string, string>)
   if (opts.ka2 === 'doublet' && !pattern.ka2Nm) throw new UsageError('--ka2 doublet needs a Kα1 wavelength with a known Kα2 (a preset such as CuKa1, or a header naming both)');
   const inst = num('instrument-fwhm');
   const std = options.get('standard');
-  if (inst !== undefined && std !== undefined) throw new UsageError('give --instrument-fwhm or --standard, not both');
+  const profilePath = options.get('instrument');
+  if ([inst !== undefined, std !== undefined, profilePath !== undefined].filter(Boolean).length > 1) throw new UsageError('give one of --instrument-fwhm, --standard and --instrument');
+  if (profilePath !== undefined) {
+    let json: unknown;
+    try {
+      json = JSON.parse(await read(profilePath, 'instrument profile'));
+    } catch (e) {
+      if (e instanceof UsageError) throw e;
+      throw new UsageError(`${profilePath}: not JSON (${(e as Error).message})`);
+    }
+    try {
+      opts.instrument = checkInstrumentProfile(json, profilePath);
+    } catch (e) {
+      throw new UsageError((e as Error).message);
+    }
+  }
   if (inst !== undefined) opts.instrumentFwhmDeg = inst;
   if (std !== undefined) {
     let sp: Pattern;
@@ -89,7 +115,16 @@ export async function loadAndAnalyse(path: string, options: Map<string, string>)
       if (e instanceof PatternReadError) throw new UsageError(e.message);
       throw e;
     }
-    opts.instrumentFwhmDeg = instrumentFromStandard(sp);
+    try {
+      opts.instrument = instrumentFromStandard(sp, std);
+    } catch (e) {
+      throw new UsageError((e as Error).message);
+    }
+  }
+  const save = options.get('save-instrument');
+  if (save !== undefined) {
+    if (!opts.instrument) throw new UsageError('--save-instrument needs --standard PATTERN');
+    await writeFile(save, JSON.stringify(opts.instrument, null, 2) + '\n');
   }
   try {
     return { pattern, analysis: analysePattern(pattern, opts) };
@@ -98,41 +133,73 @@ export async function loadAndAnalyse(path: string, options: Map<string, string>)
   }
 }
 
-const r = (v: number | null | undefined, digits: number) => (v === null || v === undefined || !Number.isFinite(v) ? null : Number(v.toPrecision(digits)));
+const K = 2; // coverage factor of the printed ± (the record's default)
 
-/** The JSON shape of `xrd --json`. */
+/** The JSON shape of `xrd --json`: every number to the digits its uncertainty supports. */
 export function xrdReport(path: string, a: PatternAnalysis) {
   return {
     file: path,
-    wavelengthNm: a.wavelengthNm,
-    ka2Nm: a.ka2Nm,
+    wavelengthNm: tidy(a.wavelengthNm),
+    ka2Nm: tidy(a.ka2Nm),
+    radiation: a.radiationLabel,
+    radiationSource: a.radiationSource,
     sizeMethod: a.sizeMethod,
+    dUncertainty: `dUncNm is the fit's standard uncertainty; dBudget holds standard uncertainties (k = 1) by source and dCombinedNm their root sum of squares; dCorrectedNm has the measured zero shift removed`,
     peaks: a.peaks.map((p) => ({
-      twoThetaDeg: r(p.twoThetaDeg, 7),
-      twoThetaUncDeg: r(p.twoThetaUncDeg, 3),
-      dNm: r(p.dNm, 7),
-      dUncNm: r(p.dUncNm, 3),
-      qInvNm: r(p.qInvNm, 7),
-      qUncInvNm: r(p.qUncInvNm, 3),
-      fwhmDeg: r(p.fwhmDeg, 5),
-      fwhmUncDeg: r(p.fwhmUncDeg, 3),
-      fwhmInvNm: r(p.fwhmInvNm, 5),
-      intensity: r(p.intensity, 5),
-      intensityUnc: r(p.intensityUnc, 3),
-      area: r(p.area, 5),
-      areaUnc: r(p.areaUnc, 3),
-      eta: r(p.eta, 3),
-      crystalliteNm: r(p.crystalliteNm, 4),
-      crystalliteUncNm: r(p.crystalliteUncNm, 3),
+      kind: p.kind,
+      twoThetaDeg: tidy(p.twoThetaDeg, p.twoThetaUncDeg),
+      twoThetaUncDeg: tidyU(p.twoThetaUncDeg),
+      dNm: tidy(p.dNm, p.budget.combinedNm),
+      dUncNm: tidyU(p.dUncNm),
+      dCorrectedNm: tidy(p.dCorrectedNm, p.budget.combinedNm),
+      dCombinedNm: tidyU(p.budget.combinedNm),
+      dBudget: { statisticalNm: tidyU(p.budget.statisticalNm), methodNm: tidyU(p.budget.methodNm), calibrationNm: tidyU(p.budget.calibrationNm), contains: p.budget.statement },
+      qInvNm: tidy(p.qInvNm, p.qUncInvNm),
+      qUncInvNm: tidyU(p.qUncInvNm),
+      fwhmDeg: tidy(p.fwhmDeg, p.fwhmUncDeg),
+      fwhmUncDeg: tidyU(p.fwhmUncDeg),
+      fwhmInvNm: tidy(p.fwhmInvNm, p.fwhmUncInvNm),
+      sampleFwhmDeg: tidy(p.sampleFwhmDeg, p.fwhmUncDeg),
+      intensity: tidy(p.intensity, p.intensityUnc),
+      intensityUnc: tidyU(p.intensityUnc),
+      area: tidy(p.area, p.areaUnc),
+      areaUnc: tidyU(p.areaUnc),
+      eta: tidy(p.eta, p.etaUnc),
+      asymmetry: tidy(p.asymmetry, null, 3),
+      significance: tidy(p.significance, null, 3),
+      crystalliteNm: tidy(p.crystalliteNm, p.crystalliteUncNm),
+      crystalliteUncNm: tidyU(p.crystalliteUncNm),
       ka2: p.ka2,
-      reducedChi2: r(p.reducedChi2, 3),
+      onHalo: p.onHalo,
+      reducedChi2: tidy(p.reducedChi2, null, 3),
       atBound: p.atBound,
     })),
+    indexing: {
+      zeroShiftDeg: tidy(a.indexing.zeroShiftDeg, a.indexing.zeroShiftUncDeg),
+      zeroShiftUncDeg: tidyU(a.indexing.zeroShiftUncDeg),
+      phases: a.indexing.phases.map((ph, i) => ({
+        name: ph.name,
+        lattice: ph.kind,
+        aNm: tidy(ph.aNm, ph.aUncNm),
+        aUncNm: tidyU(ph.aUncNm),
+        cNm: tidy(ph.cNm, ph.cUncNm),
+        cUncNm: tidyU(ph.cUncNm),
+        standard: ph.standard,
+        smithSnyderFN: tidy(ph.figureOfMerit.fN, null, 3),
+        fN: ph.figureOfMerit.n,
+        deWolffMN: tidy(ph.figureOfMerit.mN, null, 3),
+        mN: Math.min(20, ph.lines.length),
+        lines: ph.lines.map((l) => ({ peak: l.peak, hkl: l.hkl, dObsNm: tidy(l.dObsNm, a.peaks[l.peak].budget.combinedNm), dCalcNm: tidy(l.dCalcNm, ph.cUncNm || ph.aUncNm), deltaTwoThetaDeg: tidy(l.deltaTwoThetaDeg, null, 2) })),
+        unexplainedStrong: ph.unexplainedStrong,
+        williamsonHall: a.williamsonHall[i] ? { sizeNm: tidy(a.williamsonHall[i]!.sizeNm, a.williamsonHall[i]!.sizeUncNm), sizeUncNm: tidyU(a.williamsonHall[i]!.sizeUncNm), strain: tidy(a.williamsonHall[i]!.strain, a.williamsonHall[i]!.strainUnc), strainUnc: tidyU(a.williamsonHall[i]!.strainUnc), lines: a.williamsonHall[i]!.lines } : null,
+      })),
+      unindexed: a.indexing.unindexed,
+    },
     series: a.series.map((s) => ({
       kind: s.kind,
-      members: s.members.map((m) => ({ index: m.index, dNm: r(m.dNm, 7), residual: r(m.residual, 3) })),
-      cellNm: r(s.cellNm, 7),
-      cellUncNm: r(s.cellUncNm, 3),
+      members: s.members.map((m) => ({ index: m.index, dNm: tidy(m.dNm, s.cellUncNm), residual: tidy(m.residual, null, 3) })),
+      cellNm: tidy(s.cellNm, s.cellUncNm),
+      cellUncNm: tidyU(s.cellUncNm),
       cellMeaning: s.kind === 'lamellar' ? 'lamellar period' : s.kind === 'hexagonal' ? 'a₀ = 2·d₁₀/√3' : 'cubic a',
       missing: s.missing,
     })),
@@ -140,23 +207,38 @@ export function xrdReport(path: string, a: PatternAnalysis) {
   };
 }
 
+const LATTICE_LABEL: Record<string, string> = { 'cubic-P': 'cubic P', 'cubic-I': 'cubic I', 'cubic-F': 'cubic F', 'tetragonal-P': 'tetragonal P', 'tetragonal-I': 'tetragonal I', 'hexagonal-P': 'hexagonal P', 'hexagonal-R': 'hexagonal R', lamellar: 'lamellar' };
+
 function table(path: string, a: PatternAnalysis): string {
   const lines: string[] = [];
-  lines.push(`${path}: ${a.peaks.length} peaks; wavelength ${a.wavelengthNm ?? '—'} nm${a.ka2Nm ? ` (Kα2 ${a.ka2Nm} nm fitted as a doublet)` : ''}`);
+  lines.push(`${path}: ${a.peaks.length} peaks`);
+  lines.push(`wavelength: ${a.radiationLabel} — from ${a.radiationSource}`);
+  lines.push(`d ± U: U = ${K}u, u combining the fit, the profile shape, the zero shift (${a.indexing.zeroShiftDeg !== null ? 'measured and removed' : 'not measured: an allowance'}) and the wavelength`);
   lines.push('');
-  lines.push('   2θ (°)        d (nm)            q (nm⁻¹)   FWHM (°)   height     size (nm)');
-  for (const p of [...a.peaks].sort((x, y) => y.dNm - x.dNm)) {
-    const tt = p.twoThetaDeg === null ? '       —      ' : `${p.twoThetaDeg.toFixed(4).padStart(8)} ±${(p.twoThetaUncDeg ?? 0).toFixed(4)}`;
-    const d = `${p.dNm.toFixed(5).padStart(8)} ±${p.dUncNm.toFixed(5)}`;
-    const fw = p.fwhmDeg === null ? '    —   ' : p.fwhmDeg.toFixed(4).padStart(8);
-    const sz = p.crystalliteNm === null ? '   —' : `${p.crystalliteNm.toFixed(1).padStart(6)} ±${(p.crystalliteUncNm ?? 0).toFixed(1)}`;
-    lines.push(`${tt}  ${d}  ${p.qInvNm.toFixed(4).padStart(9)}  ${fw}  ${p.intensity.toFixed(0).padStart(8)}  ${sz}${p.atBound.length ? '  (at bound: ' + p.atBound.join(', ') + ')' : ''}`);
-  }
+  lines.push('   2θ (°)              d (nm)                 FWHM (°)   height   size (nm)   hkl');
+  const hklOf = new Map<number, string>();
+  a.indexing.phases.forEach((ph, j) => ph.lines.forEach((l) => hklOf.set(l.peak, `${a.indexing.phases.length > 1 ? `${j + 1}:` : ''}${l.hkl.join(' ')}`)));
+  a.peaks.forEach((p, i) => {
+    const tt = p.twoThetaDeg === null ? '—' : pm(p.twoThetaDeg, p.twoThetaUncDeg);
+    const d = pm(p.dCorrectedNm, K * p.budget.combinedNm);
+    const fw = p.fwhmDeg === null ? '—' : sig(p.fwhmDeg, 3);
+    const sz = p.kind === 'band' ? '(hk) band' : p.crystalliteNm === null ? '—' : pm(p.crystalliteNm, K * (p.crystalliteUncNm ?? 0));
+    lines.push(`${tt.padEnd(20)} ${d.padEnd(22)} ${fw.padStart(8)}  ${sig(p.intensity, 3).padStart(7)}   ${sz.padEnd(11)} ${hklOf.get(i) ?? ''}${p.atBound.length ? '  (at bound: ' + p.atBound.join(', ') + ')' : ''}`);
+  });
   lines.push('');
-  if (a.series.length === 0) lines.push('No lamellar, hexagonal or cubic series recognised.');
+  if (a.indexing.phases.length === 0) lines.push('Indexing: no lattice explains the strong lines.');
+  a.indexing.phases.forEach((ph, j) => {
+    const cell = ph.kind === 'lamellar' ? `period ${pm(ph.cNm, K * ph.cUncNm)} nm` : ph.kind.startsWith('cubic') ? `a = ${pm(ph.aNm, K * ph.aUncNm)} nm` : `a = ${pm(ph.aNm, K * ph.aUncNm)} nm, c = ${pm(ph.cNm, K * ph.cUncNm)} nm`;
+    const fom = ph.figureOfMerit;
+    lines.push(`Phase ${j + 1}${ph.standard ? ` (internal standard ${ph.name})` : ''}: ${LATTICE_LABEL[ph.kind]}, ${cell} (± ${K}u); ${ph.lines.length} lines; F${fom.n} = ${sig(fom.fN, 3)} (Smith–Snyder), M${Math.min(20, ph.lines.length)} = ${sig(fom.mN, 3)} (de Wolff)`);
+    const wh = a.williamsonHall[j];
+    if (wh) lines.push(`  Williamson–Hall over ${wh.lines} lines: size ${pm(wh.sizeNm, K * wh.sizeUncNm)} nm, microstrain ${pm(wh.strain, K * wh.strainUnc)}`);
+  });
+  if (a.indexing.zeroShiftDeg !== null) lines.push(`Zero shift: ${pm(a.indexing.zeroShiftDeg, K * (a.indexing.zeroShiftUncDeg ?? 0))}° (± ${K}u), removed from the d-spacings`);
+  if (a.indexing.unindexed.length) lines.push(`Not indexed: ${a.indexing.unindexed.map((i) => `d ${sig(a.peaks[i].dNm, 5)} nm`).join(', ')}`);
   for (const s of a.series) {
     const what = s.kind === 'lamellar' ? 'period' : s.kind === 'hexagonal' ? 'a₀' : 'a';
-    lines.push(`${s.kind} series: ${s.members.map((m) => `${m.index} ${m.dNm.toFixed(5)}`).join(', ')}; ${what} = ${s.cellNm.toFixed(5)} ± ${s.cellUncNm.toFixed(5)} nm${s.missing.length ? `; not seen: ${s.missing.join(', ')}` : ''}`);
+    lines.push(`${s.kind} series: ${s.members.map((m) => `${m.index} ${sig(m.dNm, 5)}`).join(', ')}; ${what} = ${pm(s.cellNm, K * s.cellUncNm)} nm${s.missing.length ? `; not seen: ${s.missing.join(', ')}` : ''}`);
   }
   lines.push(`Sizes: ${a.sizeMethod || '—'}`);
   for (const n of a.notes) lines.push(`note: ${n}`);
@@ -169,7 +251,7 @@ export const command: CliCommand = {
   usage,
   async run(args: string[], io: CliIo): Promise<number> {
     const { positional, options, flags } = parseArgs(args, {
-      values: ['wavelength', 'axis', 'k', 'instrument-fwhm', 'standard', 'correction', 'ka2', 'min-snr'],
+      values: ['wavelength', 'axis', 'k', 'instrument-fwhm', 'standard', 'instrument', 'save-instrument', 'correction', 'ka2', 'min-snr'],
       booleans: ['json'],
     });
     if (positional.length !== 1) throw new UsageError('give exactly one PATTERN file');

@@ -5,6 +5,8 @@
  * with the 2π factor, as used in small-angle scattering).
  */
 
+import { ANODES, optionStatements, resolveRadiation } from './radiation';
+
 /** A named X-ray emission line. */
 export interface XrayLine {
   /** Short key used on the command line, e.g. 'CuKa1'. */
@@ -20,53 +22,32 @@ export interface XrayLine {
 }
 
 /**
- * Wavelength presets, all on the SI ångström scale (not Bearden's Å* scale; for Cu the two differ
- * by 2.01×10⁻⁵, ITC C Table 4.2.2.6).
- * Kα1 values for Cu and Mo: International Tables for Crystallography Vol. C (2006) Table 4.2.2.6.
- * Kα2 and the Co, Cr, Ag lines: Hölzer et al., Phys. Rev. A 56, 4554 (1997) and the NIST X-ray
- * transition energies (Deslattes et al., Rev. Mod. Phys. 75, 35 (2003)), in secondary transcription.
- * Cu Kα weighted = (2·Kα1 + Kα2)/3, computed from the two values above.
+ * Wavelength presets: the Kα1 line of every anode of `ANODES` (radiation.ts, with its sources),
+ * and the Cu Kα weighted mean (2·Kα1 + Kα2)/3 computed from them.
  */
 export const XRAY_LINES: readonly XrayLine[] = [
-  { key: 'CuKa1', label: 'Cu Kα1', wavelengthNm: 0.154059292, ka2Nm: 0.15444274, source: 'ITC C (2006) Table 4.2.2.6; Kα2 Hölzer et al. 1997' },
+  ...ANODES.filter((a) => a.element === 'Cu').map((a) => ({ key: 'CuKa1', label: 'Cu Kα1', wavelengthNm: a.ka1Nm, ka2Nm: a.ka2Nm, source: a.source })),
   { key: 'CuKa', label: 'Cu Kα (weighted 2:1)', wavelengthNm: (2 * 0.154059292 + 0.15444274) / 3, source: '(2·Kα1 + Kα2)/3 from ITC C Table 4.2.2.6 and Hölzer et al. 1997' },
-  { key: 'MoKa1', label: 'Mo Kα1', wavelengthNm: 0.070931713, ka2Nm: 0.0713607, source: 'ITC C (2006) Table 4.2.2.6; Kα2 NIST X-ray transition energies' },
-  { key: 'CoKa1', label: 'Co Kα1', wavelengthNm: 0.1788996, ka2Nm: 0.1792835, source: 'Hölzer et al., Phys. Rev. A 56, 4554 (1997)' },
-  { key: 'CrKa1', label: 'Cr Kα1', wavelengthNm: 0.2289726, ka2Nm: 0.2293651, source: 'Hölzer et al., Phys. Rev. A 56, 4554 (1997)' },
-  { key: 'AgKa1', label: 'Ag Kα1', wavelengthNm: 0.055942178, ka2Nm: 0.05638131, source: 'NIST X-ray transition energies (Deslattes et al. 2003)' },
+  ...ANODES.filter((a) => a.element !== 'Cu').map((a) => ({ key: `${a.element}Ka1`, label: `${a.element} Kα1`, wavelengthNm: a.ka1Nm, ka2Nm: a.ka2Nm, source: a.source })),
 ];
 
 /** Kα2 : Kα1 intensity ratio by convention (Rachinger 1948, noted in ITC C §2.3.3.2). */
 export const KA2_RATIO = 0.5;
 
 /**
- * Parses a wavelength given by a user: a preset key ('CuKa1', case-insensitive, 'Cu' alone means
- * Cu Kα1), or a number with unit ('0.15406nm', '1.5406A', '1.5406 Å'). A bare number is taken as Å
- * when above 0.3 (the X-ray habit) and rejected otherwise to avoid a silent factor of ten.
+ * Parses a wavelength given by a user: a preset key ('CuKa1', case-insensitive; 'Cu' alone means
+ * the Cu Kα1/Kα2 doublet), or a value with unit ('0.15406nm', '1.5406A', '154.06 pm',
+ * '17.479 keV'). A bare number is taken as Å between 0.3 and 5 (the X-ray habit), as nm when it is
+ * a tube line in nm, and refused otherwise to avoid a silent factor of ten.
  *
  * @param text the wavelength as typed
- * @returns the wavelength in nm, the Kα2 companion when known, and a label
+ * @returns the wavelength in nm (Kα1 for a tube), the Kα2 companion when a doublet is implied, and a label
+ * @throws RangeError naming the text (see optionStatements and resolveRadiation in radiation.ts)
  */
 export function parseWavelength(text: string): { wavelengthNm: number; ka2Nm?: number; label: string } {
-  const t = text.trim();
-  const compact = t.replace(/[\s-]/g, '').replace(/α/g, 'a').toLowerCase();
-  for (const line of XRAY_LINES) {
-    if (compact === line.key.toLowerCase()) return { wavelengthNm: line.wavelengthNm, ka2Nm: line.ka2Nm, label: line.label };
-  }
-  const anode: Record<string, string> = { cu: 'CuKa1', mo: 'MoKa1', co: 'CoKa1', cr: 'CrKa1', ag: 'AgKa1' };
-  if (anode[compact]) return parseWavelength(anode[compact]);
-  const m = /^([0-9]*[.,]?[0-9]+(?:e[-+]?[0-9]+)?)\s*(nm|a|å|angstrom|ångström|pm)?$/i.exec(t.replace(/\s+/g, ''));
-  if (!m) throw new RangeError(`wavelength '${text}' is neither a preset (${XRAY_LINES.map((l) => l.key).join(', ')}) nor a number with unit nm or A`);
-  const v = Number(m[1].replace(',', '.'));
-  const unit = (m[2] ?? '').toLowerCase();
-  let nm: number;
-  if (unit === 'nm') nm = v;
-  else if (unit === 'pm') nm = v / 1000;
-  else if (unit !== '') nm = v / 10;
-  else if (v > 0.3) nm = v / 10;
-  else throw new RangeError(`wavelength '${text}' has no unit: write e.g. ${v}nm or ${v}A`);
-  if (!(nm > 0) || nm > 10) throw new RangeError(`wavelength '${text}' is outside (0, 10] nm`);
-  return { wavelengthNm: nm, label: `${(nm * 10).toPrecision(6)} Å` };
+  optionStatements(text);
+  const r = resolveRadiation([], { wavelength: text })!;
+  return { wavelengthNm: r.wavelengthNm, ka2Nm: r.ka2Nm ?? undefined, label: r.label };
 }
 
 function checkLambda(wavelengthNm: number): void {

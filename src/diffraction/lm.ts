@@ -14,10 +14,17 @@ export interface LmOptions {
   maxIterations?: number;
   /** Stop when the relative decrease of χ² falls below this (default 1e-10). */
   tolerance?: number;
+  /** Also stop when the absolute decrease of χ² falls below this (default 0: off); with true 1/σ² weights, 10⁻³ is far below what moves a parameter by a tenth of its uncertainty. */
+  chi2Tolerance?: number;
   /** Relative step of the forward-difference Jacobian (default 1e-6). */
   jacobianStep?: number;
   /** Scale the covariance by the reduced χ² (true when the weights are not true 1/σ²; default true). */
   scaleCovariance?: boolean;
+  /**
+   * Writes the Jacobian ∂f(p)ᵢ/∂pⱼ at p into `out` (row-major, points × parameters), given the
+   * model values `f` at p; default: forward differences of the whole model.
+   */
+  jacobian?: (p: Float64Array, f: Float64Array, out: Float64Array) => void;
 }
 
 /** Result of levenbergMarquardt. */
@@ -126,6 +133,10 @@ export function levenbergMarquardt(
     return s;
   };
   const jacobian = (pp: Float64Array, base: Float64Array) => {
+    if (options.jacobian) {
+      options.jacobian(pp, base, jac);
+      return;
+    }
     for (let j = 0; j < n; j++) {
       const old = pp[j];
       let h = hRel * Math.max(Math.abs(old), 1e-2);
@@ -139,13 +150,21 @@ export function levenbergMarquardt(
   const normal = () => {
     const a = new Float64Array(n * n);
     const g = new Float64Array(n);
+    // only the non-zero entries of each row (a sum of local profiles has a sparse Jacobian)
+    const nz = new Int32Array(n);
     for (let i = 0; i < m; i++) {
       const r = y[i] - f[i];
-      for (let j = 0; j < n; j++) {
-        const jw = jac[i * n + j] * w[i];
-        if (jw === 0) continue;
+      let cnt = 0;
+      const row = i * n;
+      for (let j = 0; j < n; j++) if (jac[row + j] !== 0) nz[cnt++] = j;
+      for (let u = 0; u < cnt; u++) {
+        const j = nz[u];
+        const jw = jac[row + j] * w[i];
         g[j] += jw * r;
-        for (let k = j; k < n; k++) a[j * n + k] += jw * jac[i * n + k];
+        for (let v = u; v < cnt; v++) {
+          const k = nz[v];
+          a[j * n + k] += jw * jac[row + k];
+        }
       }
     }
     for (let j = 0; j < n; j++) for (let k = 0; k < j; k++) a[j * n + k] = a[k * n + j];
@@ -175,12 +194,13 @@ export function levenbergMarquardt(
       const c2 = chi2Of(f2);
       if (Number.isFinite(c2) && c2 <= chi2) {
         const rel = (chi2 - c2) / Math.max(chi2, 1e-300);
+        const drop = chi2 - c2;
         p = trial;
         f.set(f2);
         chi2 = c2;
         lambda = Math.max(lambda / 10, 1e-12);
         improved = true;
-        if (rel < tol) converged = true;
+        if (rel < tol || drop < (options.chi2Tolerance ?? 0)) converged = true;
         break;
       }
       lambda *= 10;
@@ -196,6 +216,15 @@ export function levenbergMarquardt(
   const dof = Math.max(1, m - n);
   const reducedChi2 = chi2 / dof;
   let cov = invert(a, n);
+  if (!cov) {
+    // a parameter without curvature (e.g. the position of a profile whose area went to zero): a
+    // tiny ridge gives it an infinite-like variance and leaves the others their own
+    const ridged = Float64Array.from(a);
+    let top = 0;
+    for (let j = 0; j < n; j++) top = Math.max(top, Math.abs(a[j * n + j]));
+    for (let j = 0; j < n; j++) ridged[j * n + j] += 1e-12 * (a[j * n + j] || top || 1) + 1e-300;
+    cov = invert(ridged, n);
+  }
   if (!cov) cov = new Float64Array(n * n).fill(NaN);
   if (options.scaleCovariance ?? true) for (let i = 0; i < n * n; i++) cov[i] *= reducedChi2;
   const sigmas = new Float64Array(n);

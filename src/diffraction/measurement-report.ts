@@ -127,7 +127,10 @@ export function readMeasurementReport(text: string, fileName: string): ReportInp
       const periodNm = positive(q.periodNm, `${where}.periodNm`, 'a period');
       const uncertaintyNm = nonNegative(q.uncertaintyNm, `${where}.uncertaintyNm`);
       const angle = typeof q.angleDeg === 'number' && Number.isFinite(q.angleDeg) ? `${q.angleDeg.toFixed(0)}°` : 'no angle';
-      periods.push({ periodNm, uncertaintyNm, label: `${name} #${i + 1} (${angle})` });
+      const dir: { angleDeg?: number; angleUncDeg?: number } = {};
+      if (typeof q.angleDeg === 'number' && Number.isFinite(q.angleDeg)) dir.angleDeg = q.angleDeg;
+      if (typeof q.uAngleDeg === 'number' && q.uAngleDeg > 0) dir.angleUncDeg = q.uAngleDeg;
+      periods.push({ periodNm, uncertaintyNm, label: `${name} #${i + 1} (${angle})`, ...dir });
     });
   } else if (Array.isArray(j.sheets)) {
     if (j.sheets.length > MAX_REPORT_ENTRIES) fail(`${j.sheets.length} sheets; at most ${MAX_REPORT_ENTRIES} are read`);

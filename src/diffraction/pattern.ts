@@ -2,7 +2,8 @@
  * Reading a measured diffraction pattern (powder XRD in 2θ, or small-angle data in q) from text,
  * and typed peak lists.
  */
-import { dToQ, parseWavelength, qToD, twoThetaToD } from './bragg';
+import { dToQ, qToD, twoThetaToD } from './bragg';
+import { bareWavelengthStatement, RadiationError, radiationStatements, resolveRadiation, type Radiation, type RadiationStatement } from './radiation';
 
 /** Axis of the first column as the user or the header declares it. */
 export type AxisUnit = 'twoThetaDeg' | 'qInvNm' | 'qInvA';
@@ -23,6 +24,8 @@ export interface Pattern {
   ka2Nm: number | null;
   /** Where the wavelength came from: 'header', 'option' or 'none'. */
   wavelengthFrom: 'header' | 'option' | 'none';
+  /** The radiation in full (doublet, ratio, uncertainty, label and the line it was read from), or null without a wavelength. */
+  radiation?: Radiation | null;
   /** Every rule applied while reading (skipped headers, reversed order...), for the user. */
   notes: string[];
 }
@@ -34,6 +37,10 @@ export interface ParsePatternOptions {
   wavelength?: string;
   /** Kα2 wavelength in nm to use with `wavelength` (a preset Kα1 brings its own). */
   ka2Nm?: number;
+  /** 'none': the beam was Kα1 only; 'doublet': model Kα2 (default: from the header, else a tube's Kα1 implies the doublet). */
+  ka2?: 'doublet' | 'none';
+  /** Relative standard uncertainty of the wavelength (default: the table's, a stated su, or the rounding of the digits). */
+  wavelengthRelU?: number;
 }
 
 /**
@@ -57,26 +64,6 @@ function splitLine(line: string): string[] {
     return ws.map((t) => t.replace(/,$/, '')).filter((t) => t !== '').map((t) => t.replace(',', '.'));
   }
   return s.split(',');
-}
-
-function headerWavelength(lines: string[]): { ka1Nm: number; ka2Nm: number | null } | null {
-  const text = lines.join('\n');
-  const toNm = (v: string, unit: string | undefined) => {
-    const n = Number(v.replace(',', '.'));
-    const u = (unit ?? '').toLowerCase();
-    return u === 'nm' ? n : u === '' ? (n > 0.3 ? n / 10 : n) : n / 10;
-  };
-  const ka1 = /k[-\s_]?(?:alpha|α|a)\s*1\s*[:=]?\s*(\d+[.,]\d+)\s*(nm|å|a|angstrom)?\b/i.exec(text);
-  const ka2 = /k[-\s_]?(?:alpha|α|a)\s*2\s*[:=]?\s*(\d+[.,]\d+)\s*(nm|å|a|angstrom)?\b/i.exec(text);
-  if (ka1) return { ka1Nm: toNm(ka1[1], ka1[2]), ka2Nm: ka2 ? toNm(ka2[1], ka2[2]) : null };
-  const kw = /(?:wavelength|wave length|lambda|λ)\s*[:=]?\s*(\d+[.,]\d+|\d+)\s*(nm|å|a|angstrom)?\b/i.exec(text);
-  if (kw) return { ka1Nm: toNm(kw[1], kw[2]), ka2Nm: null };
-  const anode = /\b(Cu|Mo|Co|Cr|Ag)\b[\s-]*(?:K[-\s]?(?:alpha|α|a)|anode|tube|radiation)/i.exec(text);
-  if (anode) {
-    const w = parseWavelength(anode[1]);
-    return { ka1Nm: w.wavelengthNm, ka2Nm: w.ka2Nm ?? null };
-  }
-  return null;
 }
 
 function headerAxis(lines: string[]): AxisUnit | null {
@@ -105,8 +92,10 @@ function headerAxis(lines: string[]): AxisUnit | null {
  *   beyond 10¹² in magnitude or a position beyond 10⁵ is an error;
  * - x must be strictly monotonic; a file in decreasing order is reversed (noted), repeated or
  *   unsorted x is an error with the line number;
- * - the wavelength comes from the option, else from a header line (`wavelength: 1.5406 A`,
- *   `lambda = 0.15406 nm`, `K-alpha1 1.540598 A`, or an anode name such as `Cu K-alpha`);
+ * - the wavelength comes from the option, else from the header lines by the rules of
+ *   `radiationStatements` and `resolveRadiation` (units Å, nm, pm, energies in keV, anode names,
+ *   synchrotrons; contradicting statements are refused, quoting them); a single number alone on
+ *   the first line before two- or three-column data is read as the wavelength;
  * - q in Å⁻¹ is converted to nm⁻¹ (× 10).
  * Reference: file layout is common practice for two-column powder data.
  */
@@ -114,6 +103,8 @@ export function parsePattern(text: string, options: ParsePatternOptions = {}): P
   if (typeof text !== 'string') throw new TypeError('parsePattern: text must be a string');
   const lines = text.split(/\r\n|\r|\n/);
   const header: string[] = [];
+  const headerAt: number[] = [];
+  let bare: RadiationStatement | null = null;
   const xs: number[] = [];
   const ys: number[] = [];
   const ss: number[] = [];
@@ -126,6 +117,7 @@ export function parsePattern(text: string, options: ParsePatternOptions = {}): P
     if (raw.trim() === '') continue;
     if (COMMENT.test(raw)) {
       header.push(raw);
+      headerAt.push(i + 1);
       continue;
     }
     const tokens = splitLine(raw);
@@ -133,10 +125,24 @@ export function parsePattern(text: string, options: ParsePatternOptions = {}): P
     if (!numeric) {
       if (xs.length === 0) {
         header.push(raw);
+        headerAt.push(i + 1);
         headerCount++;
         continue;
       }
       throw new SyntaxError(`line ${i + 1}: not a data row: '${raw.trim().slice(0, 60)}'`);
+    }
+    if (tokens.length < 2 && xs.length === 0 && bare === null && tokens.length === 1) {
+      // a common three-column export starts with the wavelength alone on its first line
+      const next = lines.slice(i + 1).find((l) => l.trim() !== '' && !COMMENT.test(l));
+      const nextCols = next ? splitLine(next).filter((t) => NUMBER.test(t.trim())).length : 0;
+      if (nextCols >= 2 && nextCols <= 3) {
+        try {
+          bare = bareWavelengthStatement(tokens[0].trim(), `line ${i + 1}`);
+        } catch (e) {
+          if (e instanceof RadiationError && options.wavelength === undefined) throw e;
+        }
+        if (bare) continue;
+      }
     }
     if (tokens.length < 2) throw new SyntaxError(`line ${i + 1}: only one column ('${raw.trim()}'); expected position and intensity`);
     if (tokens.length > 3) throw new SyntaxError(`line ${i + 1}: ${tokens.length} columns; expected 2 (position, intensity) or 3 (with uncertainty)`);
@@ -180,24 +186,22 @@ export function parsePattern(text: string, options: ParsePatternOptions = {}): P
     throw new RangeError(`2θ range ${x[0]}–${x[x.length - 1]}° is outside (0, 180); is the first column q? (set the axis)`);
   }
   if (axisUnit !== 'twoThetaDeg' && x[0] <= 0) notes.push('q ≤ 0 rows present: d is undefined there');
-  let wavelengthNm: number | null = null;
-  let ka2Nm: number | null = null;
-  let wavelengthFrom: Pattern['wavelengthFrom'] = 'none';
-  const fromHeader = headerWavelength(header);
-  if (options.wavelength !== undefined) {
-    const w = parseWavelength(options.wavelength);
-    wavelengthNm = w.wavelengthNm;
-    ka2Nm = options.ka2Nm ?? w.ka2Nm ?? null;
-    wavelengthFrom = 'option';
-    if (fromHeader && Math.abs(fromHeader.ka1Nm - wavelengthNm) > 1e-6) {
-      notes.push(`header wavelength ${fromHeader.ka1Nm} nm overridden by the option ${wavelengthNm} nm`);
+  const statements: RadiationStatement[] = [];
+  header.forEach((h, k) => {
+    try {
+      statements.push(...radiationStatements(h, `header line ${headerAt[k]}`));
+    } catch (e) {
+      // a header the user overrides need not be readable
+      if (!(e instanceof RadiationError) || options.wavelength === undefined) throw e;
+      notes.push(`${e.message} (ignored: the wavelength was given as an option)`);
     }
-  } else if (fromHeader) {
-    wavelengthNm = fromHeader.ka1Nm;
-    ka2Nm = fromHeader.ka2Nm;
-    wavelengthFrom = 'header';
-    notes.push(`wavelength ${wavelengthNm} nm${ka2Nm ? ` (Kα2 ${ka2Nm} nm)` : ''} read from the header`);
-  }
+  });
+  if (bare) statements.push(bare);
+  const radiation = resolveRadiation(statements, { wavelength: options.wavelength, ka2Nm: options.ka2Nm, ka2: options.ka2, relUncertainty: options.wavelengthRelU });
+  const wavelengthNm = radiation?.wavelengthNm ?? null;
+  const ka2Nm = radiation?.ka2Nm ?? null;
+  const wavelengthFrom: Pattern['wavelengthFrom'] = radiation === null ? 'none' : options.wavelength !== undefined ? 'option' : 'header';
+  if (radiation) notes.push(`wavelength ${radiation.label}, from ${radiation.source}`, ...radiation.notes);
   if (wavelengthNm !== null && !(wavelengthNm > 0 && wavelengthNm < 10)) throw new RangeError(`wavelength ${wavelengthNm} nm is not plausible`);
   return {
     axis: axisUnit === 'twoThetaDeg' ? 'twoTheta' : 'q',
@@ -207,6 +211,7 @@ export function parsePattern(text: string, options: ParsePatternOptions = {}): P
     wavelengthNm,
     ka2Nm,
     wavelengthFrom,
+    radiation,
     notes,
   };
 }

@@ -11,6 +11,9 @@ export interface MicrographPeriod {
   uncertaintyNm: number;
   /** Where it came from (file, region, angle...). */
   label?: string;
+  /** Direction of the fringe normal, degrees, when measured (spot indexing uses it), and its standard uncertainty. */
+  angleDeg?: number;
+  angleUncDeg?: number;
 }
 
 /** Sheet-thickness statistics from the micrographs. */

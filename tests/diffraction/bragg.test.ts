@@ -63,21 +63,26 @@ describe('wavelength presets', () => {
     expect(parseWavelength('CuKa1').wavelengthNm).toBe(0.154059292); // 1.54059292(45) Å
     expect(parseWavelength('MoKa1').wavelengthNm).toBe(0.070931713); // 0.70931713(41) Å
   });
-  test('Cu Kα weighted (2Kα1+Kα2)/3 = 1.541871 Å on the Hölzer scale (reference-values §1, computed)', () => {
-    expect(parseWavelength('CuKa').wavelengthNm * 10).toBeCloseTo(1.541871, 5);
+  test('Cu Kα weighted (2Kα1+Kα2)/3 = 1.541871 Å on the Hölzer scale (reference-values §1, computed); typed, it means the doublet', () => {
+    expect(XRAY_LINES.find((l) => l.key === 'CuKa')!.wavelengthNm * 10).toBeCloseTo(1.541871, 5);
+    const w = parseWavelength('CuKa');
+    expect(w.wavelengthNm).toBe(0.154059292);
+    expect(w.ka2Nm).toBe(0.15444274);
   });
   test('Co, Cr, Ag Kα1 from Hölzer et al. 1997 / NIST XRTE (reference-values §1)', () => {
     expect(parseWavelength('CoKa1').wavelengthNm * 10).toBeCloseTo(1.788996, 6);
     expect(parseWavelength('CrKa1').wavelengthNm * 10).toBeCloseTo(2.289726, 6);
     expect(parseWavelength('AgKa1').wavelengthNm * 10).toBeCloseTo(0.55942178, 7);
   });
-  test('numbers with units; a bare small number is refused', () => {
+  test('numbers with units; a bare small number that is no tube line is refused', () => {
     expect(parseWavelength('1.5406A').wavelengthNm).toBeCloseTo(0.15406, 8);
     expect(parseWavelength('0.15406nm').wavelengthNm).toBeCloseTo(0.15406, 8);
     expect(parseWavelength('1.5406').wavelengthNm).toBeCloseTo(0.15406, 8);
-    expect(() => parseWavelength('0.15406')).toThrow(/no unit/);
+    // 0.15406 without unit is Cu Kα1 in nm (reference-values §1): read so, with a note
+    expect(parseWavelength('0.15406').wavelengthNm).toBeCloseTo(0.15406, 8);
+    expect(() => parseWavelength('0.2')).toThrow(/no unit/);
     expect(() => parseWavelength('FeKz')).toThrow(/FeKz/);
-    expect(XRAY_LINES.length).toBe(6);
+    expect(XRAY_LINES.map((l) => l.key)).toEqual(['CuKa1', 'CuKa', 'CrKa1', 'FeKa1', 'CoKa1', 'MoKa1', 'AgKa1']);
   });
 });
 

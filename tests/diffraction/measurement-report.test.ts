@@ -8,7 +8,7 @@ const measure = (periodicities: unknown[], calibration: unknown = { nmPerPx: 0.0
 describe('measurement reports', () => {
   test('calibrated periods are read with their labels; uncalibrated ones are left out with a note', () => {
     const r = readMeasurementReport(measure([{ periodPx: 25, periodNm: 1.25, angleDeg: 28.2, uncertaintyPx: 0.1, uncertaintyNm: 0.06, strength: 9 }, { periodPx: 9, periodNm: null, angleDeg: 3, uncertaintyPx: 0.1, uncertaintyNm: null, strength: 4 }]), 'dir/fringes.json');
-    expect(r.periods).toEqual([{ periodNm: 1.25, uncertaintyNm: 0.06, label: 'fringes.json #1 (28°)' }]);
+    expect(r.periods).toEqual([{ periodNm: 1.25, uncertaintyNm: 0.06, label: 'fringes.json #1 (28°)', angleDeg: 28.2 }]);
     expect(r.relUncertainty).toBe(0.05);
     expect(r.notes).toEqual(['fringes.json: periodicity 2 has no calibrated period and is left out']);
   });
@@ -45,6 +45,6 @@ describe('measurement reports', () => {
 test('a version-2 measure report gives the period and its combined standard uncertainty from its budget', () => {
   const text = JSON.stringify({ file: 'a.tif', calibration: { nmPerPx: 0.05, source: 'manual', relUncertainty: 0.02 }, periodicities: [{ periodPx: 25, angleDeg: 10, budget: { periodNm: 1.25, uCombinedNm: 0.03, coverageFactorK: 2, expandedUncertaintyNm: 0.06 } }, { periodPx: 9, angleDeg: 0, budget: { periodPx: 9, uCombinedPx: 0.1 } }] });
   const r = readMeasurementReport(text, 'v2.json');
-  expect(r.periods).toEqual([{ periodNm: 1.25, uncertaintyNm: 0.03, label: 'v2.json #1 (10°)' }]);
+  expect(r.periods).toEqual([{ periodNm: 1.25, uncertaintyNm: 0.03, label: 'v2.json #1 (10°)', angleDeg: 10 }]);
   expect(r.notes).toEqual(['v2.json: periodicity 2 has no calibrated period and is left out']);
 });

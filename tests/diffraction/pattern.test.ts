@@ -39,7 +39,7 @@ describe('parsePattern', () => {
     expect(mo.wavelengthNm).toBe(0.070931713);
     const opt = parsePattern('# lambda = 0.15406 nm\n10 1\n11 2\n12 3', { wavelength: 'CoKa1' });
     expect(opt.wavelengthNm).toBeCloseTo(0.1788996, 9);
-    expect(opt.notes.join()).toMatch(/overridden/);
+    expect(opt.notes.join()).toMatch(/replaced by the option 'CoKa1'/);
   });
   test('q in Å⁻¹ from the header is converted to nm⁻¹', () => {
     const p = parsePattern('# q (A^-1)  I\n0.10 5\n0.11 6\n0.12 7');

@@ -108,3 +108,48 @@ describe('Scherrer crystallite size', () => {
     expect(inst.fwhmAt(50)).toBeCloseTo(f(50), 8);
   });
 });
+
+describe('fitPattern keeps only real peaks (synthetic truth)', () => {
+  test('a broad amorphous halo is background: no peak on it, the halo is reported (common practice: a polymer halo near 20° 2θ)', () => {
+    const p = syntheticPattern([{ twoThetaDeg: 7.07, area: 1500, fwhmDeg: 0.9, eta: 0.5 }], { rangeDeg: [3, 40], halos: [{ centerDeg: 19.6, fwhmDeg: 8.5, height: 400 }], seed: 11 });
+    const fit = fitPattern(p);
+    expect(fit.peaks.filter((q) => Math.abs(q.twoThetaDeg! - 19.6) < 8).length).toBe(0);
+    expect(fit.halos.length).toBeGreaterThan(0);
+    expect(Math.abs(fit.halos[0].position - 19.6)).toBeLessThan(1.5);
+    expect(fit.peaks.length).toBe(1);
+  });
+  test('pure counting noise gives a false peak in at most a few of 40 patterns (stated rate 1 %; binomial, common practice)', () => {
+    let falsePatterns = 0;
+    for (let seed = 1; seed <= 40; seed++) {
+      const fit = fitPattern(syntheticPattern([], { rangeDeg: [10, 50], seed }));
+      if (fit.peaks.length > 0) falsePatterns++;
+      expect(fit.test.statement).toMatch(/false-alarm probability 1\.0 %/);
+    }
+    // with a true rate of 1 %, P(≥ 3 of 40) ≈ 0.8 %
+    expect(falsePatterns).toBeLessThan(3);
+  });
+  test('a weak line (5 % area) 0.35° beside a strong one is found, fitted in the same group', () => {
+    const truth = [
+      { twoThetaDeg: 38.2, area: 2000, fwhmDeg: 0.2, eta: 0.5 },
+      { twoThetaDeg: 38.55, area: 100, fwhmDeg: 0.2, eta: 0.5 },
+    ];
+    const fit = fitPattern(syntheticPattern(truth, { rangeDeg: [30, 46], ka2Nm: null, background: { a: 100, b: 0, c: 1 }, seed: 3 }));
+    const weak = fit.peaks.find((q) => Math.abs(q.twoThetaDeg! - 38.55) < 0.05);
+    const strong = fit.peaks.find((q) => Math.abs(q.twoThetaDeg! - 38.2) < 0.05);
+    expect(weak).toBeDefined();
+    expect(strong).toBeDefined();
+    expect(weak!.group).toBe(strong!.group);
+    expect(fit.peaks.length).toBe(2);
+  });
+  test('an asymmetric (hk) band of turbostratic layers is a band, not a peak (Warren, Phys. Rev. 59, 693, 1941)', () => {
+    const bandAt = 19.76; // d = 0.449 nm, the (02,11) band of smectites (common practice)
+    const p = syntheticPattern([{ twoThetaDeg: 7.07, area: 600, fwhmDeg: 1, eta: 0.5 }, { twoThetaDeg: bandAt, area: 700, fwhmDeg: 1, eta: 0, kind: 'band', bandLaNm: 8 }], { rangeDeg: [3, 45], seed: 4 });
+    const fit = fitPattern(p);
+    const band = fit.peaks.find((q) => q.kind === 'band');
+    expect(band).toBeDefined();
+    expect(band!.twoThetaDeg!).toBeGreaterThan(bandAt - 1);
+    expect(band!.twoThetaDeg!).toBeLessThan(bandAt + 2);
+    expect(band!.asymmetry).toBeGreaterThanOrEqual(2);
+    expect(fit.peaks.find((q) => Math.abs(q.twoThetaDeg! - 7.07) < 0.2)!.kind).toBe('peak');
+  });
+});

@@ -1,18 +1,19 @@
 /**
- * `stratameter match --pattern PATTERN MEASUREMENT.json...`: reconciles periods and sheets measured
+ * `stratameter reconcile --pattern PATTERN MEASUREMENT.json...` (formerly `match`): reconciles periods and sheets measured
  * in micrographs with the peaks of a diffraction pattern (and optionally a reference phase's CIF).
  */
 import { readFile } from 'node:fs/promises';
 import { basename } from 'node:path';
 import type { CliCommand, CliIo } from './command';
 import { parseArgs, UsageError } from './command';
+import { pm, sig, tidy, tidyU } from '../diffraction/format';
 import { loadAndAnalyse } from './xrd';
 import { CifError, parseCif, powderReflections } from '../diffraction/cif';
 import { ReportError, readMeasurementReport } from '../diffraction/measurement-report';
 import { reconcile, type DiffractionLine, type MicrographPeriod, type SheetStats } from '../diffraction/reconcile';
 
-const usage = `Usage: stratameter match --pattern PATTERN [--cif CIF] MEASUREMENT.json... [--wavelength W]
-                         [--z-max Z] [--json]
+const usage = `Usage: stratameter reconcile --pattern PATTERN [--cif CIF] MEASUREMENT.json... [--wavelength W]
+                             [--z-max Z] [--all-lines] [--json]
 
 Pairs every period measured in the micrographs (the JSON printed by 'stratameter measure --json'
 or 'stratameter sheets --json') with the diffraction d-values it can be: the pattern's fitted
@@ -27,19 +28,26 @@ Options:
                      --wavelength, --axis, --k, --instrument-fwhm, --ka2, --min-snr also apply)
   --cif CIF          add a reference phase's reflections (d ≥ 0.1 nm)
   --z-max Z          largest |z| for a pair (default 3)
+  --all-lines        list every unmatched line (default: the strong ones, ≥ 10 % of the
+                     strongest of their source, each with d and intensity)
   --json             one JSON object on standard output instead of a table
 `;
 
 const f = (v: number, d = 4) => (Number.isFinite(v) ? v.toFixed(d) : '—');
 
+/** A pair for JSON, its numbers to the digits their uncertainty supports. */
+function tidyPair<T extends { dNm: number; dUncNm: number; relDiff: number; z: number }>(p: T): T {
+  return { ...p, dNm: tidy(p.dNm, p.dUncNm)!, dUncNm: tidyU(p.dUncNm)!, relDiff: tidy(p.relDiff, null, 3)!, z: tidy(p.z, null, 3)! };
+}
+
 export const command: CliCommand = {
-  name: 'match',
+  name: 'reconcile',
   summary: 'reconcile micrograph periods and sheets with a diffraction pattern',
   usage,
   async run(args: string[], io: CliIo): Promise<number> {
     const { positional, options, flags } = parseArgs(args, {
-      values: ['pattern', 'cif', 'z-max', 'wavelength', 'axis', 'k', 'instrument-fwhm', 'standard', 'correction', 'ka2', 'min-snr'],
-      booleans: ['json'],
+      values: ['pattern', 'cif', 'z-max', 'wavelength', 'axis', 'k', 'instrument-fwhm', 'standard', 'instrument', 'correction', 'ka2', 'min-snr'],
+      booleans: ['json', 'all-lines'],
     });
     const patternPath = options.get('pattern');
     if (!patternPath) throw new UsageError('--pattern PATTERN is required');
@@ -76,10 +84,12 @@ export const command: CliCommand = {
     }
     const seriesLabel = new Map<number, string>();
     for (const s of analysis.series) for (const m of s.members) seriesLabel.set(m.peak, s.kind === 'lamellar' ? m.index : `${s.kind} ${m.index}`);
+    const hklOf = new Map<number, string>();
+    for (const ph of analysis.indexing.phases) for (const l of ph.lines) hklOf.set(l.peak, l.hkl.join(' '));
     const lines: DiffractionLine[] = analysis.peaks.map((p, i) => ({
-      dNm: p.dNm,
-      dUncNm: p.dUncNm,
-      label: seriesLabel.get(i) ?? (p.twoThetaDeg !== null ? `peak ${p.twoThetaDeg.toFixed(3)}°` : `peak q ${p.qInvNm.toFixed(4)}`),
+      dNm: p.dCorrectedNm,
+      dUncNm: p.budget.combinedNm,
+      label: seriesLabel.get(i) ?? hklOf.get(i) ?? (p.twoThetaDeg !== null ? `peak ${sig(p.twoThetaDeg, 5)}°` : `peak q ${sig(p.qInvNm, 5)}`),
       phase: basename(patternPath),
       crystalliteNm: p.crystalliteNm,
       intensity: p.intensity,
@@ -118,17 +128,26 @@ export const command: CliCommand = {
     const calRel = rels.size === 1 ? [...rels][0] : undefined;
     if (rels.size > 1) notes.push('measurements carry different calibration uncertainties: the calibration proposal uses the full uncertainties');
     const rec = reconcile({ periods, sheets: sheets ?? undefined, calibrationRelUncertainty: calRel }, { lines, series: analysis.series }, { zMax });
+    // unmatched lines: the strong ones (≥ 10 % of the strongest line of their source), or all with --all-lines
+    const unmatchedSet = new Set(rec.unmatchedLines);
+    const unmatched = lines.filter((l) => unmatchedSet.has(l.label));
+    const topOf = new Map<string, number>();
+    for (const l of lines) topOf.set(l.phase ?? '', Math.max(topOf.get(l.phase ?? '') ?? 0, l.intensity ?? 0));
+    const strongUnmatched = flags.has('all-lines') ? unmatched : unmatched.filter((l) => (l.intensity ?? 0) >= 0.1 * (topOf.get(l.phase ?? '') ?? 0));
     if (flags.has('json')) {
       io.out(JSON.stringify({
         pattern: patternPath,
         measurements: positional,
-        wavelengthNm: analysis.wavelengthNm,
-        periods,
-        pairs: rec.pairs,
-        best: rec.best,
-        unmatchedPeriods: rec.unmatchedPeriods.map((i) => periods[i]),
+        wavelengthNm: tidy(analysis.wavelengthNm),
+        radiation: analysis.radiationLabel,
+        radiationSource: analysis.radiationSource,
+        periods: periods.map((p) => ({ ...p, periodNm: tidy(p.periodNm, p.uncertaintyNm), uncertaintyNm: tidyU(p.uncertaintyNm) })),
+        pairs: rec.pairs.map(tidyPair),
+        best: rec.best.map((b) => (b ? tidyPair(b) : null)),
+        unmatchedPeriods: rec.unmatchedPeriods.map((i) => ({ ...periods[i], periodNm: tidy(periods[i].periodNm, periods[i].uncertaintyNm), uncertaintyNm: tidyU(periods[i].uncertaintyNm) })),
         unmatchedLines: rec.unmatchedLines,
-        series: analysis.series.map((s) => ({ kind: s.kind, cellNm: s.cellNm, cellUncNm: s.cellUncNm, members: s.members.map((m) => ({ index: m.index, dNm: m.dNm })) })),
+        unmatchedStrongLines: strongUnmatched.map((l) => ({ label: l.label, dNm: tidy(l.dNm, l.dUncNm), dUncNm: tidyU(l.dUncNm), intensity: tidy(l.intensity ?? null, null, 3), phase: l.phase })),
+        series: analysis.series.map((s) => ({ kind: s.kind, cellNm: tidy(s.cellNm, s.cellUncNm), cellUncNm: tidyU(s.cellUncNm), members: s.members.map((m) => ({ index: m.index, dNm: tidy(m.dNm, s.cellUncNm) })) })),
         thickness: rec.thickness,
         calibration: rec.calibration,
         notes: [...notes, ...rec.notes],
@@ -137,18 +156,21 @@ export const command: CliCommand = {
     }
     const out: string[] = [];
     out.push(`${periods.length} micrograph period(s) against ${lines.length} diffraction line(s) from ${patternPath}${cifPath ? ` and ${cifPath}` : ''}`);
+    out.push(`wavelength: ${analysis.radiationLabel} — from ${analysis.radiationSource}; every ± is the combined standard uncertainty (k = 1) of period and line`);
     out.push('');
     out.push('period (nm)          best match                       d (nm)             diff      z');
     periods.forEach((p, i) => {
       const b = rec.best[i];
-      const left = `${f(p.periodNm)} ±${f(p.uncertaintyNm)}`.padEnd(20);
+      const left = pm(p.periodNm, p.uncertaintyNm).padEnd(20);
       if (!b) out.push(`${left} —  (no line within |z| ≤ ${zMax})   ${p.label ?? ''}`);
-      else out.push(`${left} ${b.label.padEnd(32)} ${`${f(b.dNm, 5)} ±${f(b.dUncNm, 5)}`.padEnd(18)} ${(100 * b.relDiff).toFixed(2).padStart(6)} %  ${b.z.toFixed(2).padStart(5)}   ${p.label ?? ''}`);
+      else out.push(`${left} ${b.label.padEnd(32)} ${pm(b.dNm, b.dUncNm).padEnd(18)} ${(100 * b.relDiff).toFixed(2).padStart(6)} %  ${b.z.toFixed(2).padStart(5)}   ${p.label ?? ''}`);
       const others = rec.pairs.filter((q) => q.period === i && q !== b);
       if (others.length) out.push(`${''.padEnd(20)} also: ${others.slice(0, 4).map((q) => `${q.label} (z ${q.z.toFixed(1)})`).join(', ')}`);
     });
     out.push('');
-    out.push(`Unmatched lines: ${rec.unmatchedLines.length ? rec.unmatchedLines.join(', ') : 'none'}`);
+    const hidden = unmatched.length - strongUnmatched.length;
+    out.push(`Unmatched ${flags.has('all-lines') ? '' : 'strong '}lines: ${strongUnmatched.length ? '' : 'none'}${hidden > 0 ? `(${hidden} weaker not shown; --all-lines lists them)` : ''}`);
+    for (const l of strongUnmatched) out.push(`  ${l.label.padEnd(32)} d ${pm(l.dNm, l.dUncNm).padEnd(22)} intensity ${sig(l.intensity ?? NaN, 3)}`);
     if (rec.thickness) {
       const t = rec.thickness;
       out.push(`Sheets: mean thickness ${f(t.sheetMeanNm, 2)} ± ${f(t.sheetSdNm, 2)} nm (sd); 00l crystallite size ${f(t.crystalliteNm, 1)} nm` +

@@ -1,0 +1,765 @@
+/**
+ * Indexing a powder pattern's peaks: which lattice (cubic P, I, F; tetragonal P, I; hexagonal P,
+ * R; lamellar) explains every strong line, with which cell, zero shift and figures of merit, and
+ * mixtures of two phases.
+ */
+import { cellParameters, centringAllows, latticeLines, LATTICE_KINDS, qOf, type LatticeCell, type LatticeKind } from './lattice';
+import { levenbergMarquardt } from './lm';
+
+/** A peak offered to the indexer. */
+export interface IndexPeak {
+  /** d in nm. */
+  dNm: number;
+  /** Standard uncertainty of d from the fit, nm. */
+  dUncNm: number;
+  /** 2θ in degrees and its standard uncertainty (null for q data without a wavelength). */
+  twoThetaDeg: number | null;
+  twoThetaUncDeg: number | null;
+  /** Height or area; lines are called strong relative to the strongest. */
+  intensity: number;
+  /** FWHM in degrees 2θ, when known: a peak two lines closer than half of it share is matched to the nearer. */
+  fwhmDeg?: number | null;
+}
+
+/** Options of indexPattern. */
+export interface IndexOptions {
+  /** Wavelength in nm (needed for the zero shift and 2θ figures of merit; null for q data). */
+  wavelengthNm: number | null;
+  /** Lattices to try (default all). */
+  kinds?: LatticeKind[];
+  /** A line is strong at this fraction of the strongest line's intensity (default 0.1). */
+  strongFraction?: number;
+  /** Largest |Δ2θ| in degrees accepted while searching, before the zero shift is fitted (default 0.08°). */
+  searchToleranceDeg?: number;
+  /** Refine a zero shift with the cell (2θ data, default true). */
+  fitZeroShift?: boolean;
+  /** A phase of known cell in the sample (internal standard): its cell is held and only the zero shift is fitted from its lines. */
+  standard?: { name: string; cell: LatticeCell };
+  /** Try two-phase mixtures when one phase leaves strong lines unexplained (default true). */
+  mixtures?: boolean;
+  /** Smallest Smith–Snyder F_N for a phase to be reported (default 8). */
+  minFigureOfMerit?: number;
+  /** Relative standard uncertainty of the wavelength, carried into the cell (default 0). */
+  wavelengthRelU?: number;
+}
+
+/** One indexed line. */
+export interface IndexedLine {
+  /** Index into the input peaks. */
+  peak: number;
+  hkl: [number, number, number];
+  /** Observed d (zero shift removed) and calculated d, nm. */
+  dObsNm: number;
+  dCalcNm: number;
+  /** 2θ observed − calculated (zero shift removed), degrees (null for q data). */
+  deltaTwoThetaDeg: number | null;
+}
+
+/** A figure of merit. */
+export interface FigureOfMerit {
+  /** Smith–Snyder F_N = (1/⟨|Δ2θ|⟩)·(N/N_poss), or for q data the same in Q. */
+  fN: number;
+  /** N used (the first N indexed lines, at most 30). */
+  n: number;
+  /** Mean |Δ2θ| (degrees) or |ΔQ| (nm⁻²). */
+  meanDelta: number;
+  /** Possible distinct lines of the lattice up to the Nth line. */
+  nPossible: number;
+  /** de Wolff M_N = Q_N / (2 ⟨|ΔQ|⟩ N_poss) with N = min(20, lines); named M20 when N = 20. */
+  mN: number;
+}
+
+/** A phase found by the indexer. */
+export interface IndexedPhase {
+  kind: LatticeKind;
+  /** Refined cell: a and c in nm (for cubic c = a; for lamellar a is NaN and c is the period). */
+  aNm: number;
+  cNm: number;
+  /** Standard uncertainties of a and c (fit, scaled by the Birge ratio when the lines scatter more than their σ, and the wavelength's share). */
+  aUncNm: number;
+  cUncNm: number;
+  /** Zero shift in degrees (observed 2θ = calculated + zeroShift) and its standard uncertainty; null when not fitted. */
+  zeroShiftDeg: number | null;
+  zeroShiftUncDeg: number | null;
+  /** Indexed lines. */
+  lines: IndexedLine[];
+  /** Strong lines of the pattern this phase does not explain (peak indices). */
+  unexplainedStrong: number[];
+  figureOfMerit: FigureOfMerit;
+  /** True for the internal standard given by the user. */
+  standard: boolean;
+  /** Name: the standard's, or the lattice in words. */
+  name: string;
+}
+
+/** Result of indexPattern. */
+export interface IndexResult {
+  /** One or two phases (none when nothing passes). */
+  phases: IndexedPhase[];
+  /** Peaks no phase explains. */
+  unindexed: number[];
+  /** The zero shift applied to every peak (from the standard, else from the phase with the most lines), or null. */
+  zeroShiftDeg: number | null;
+  zeroShiftUncDeg: number | null;
+  notes: string[];
+}
+
+const DEG = Math.PI / 180;
+/** Shortest cell edge considered, nm (common practice: no crystal has a lattice edge below 0.2 nm). */
+const MIN_EDGE_NM = 0.2;
+const LATTICE_WORDS: Record<LatticeKind, string> = {
+  'cubic-P': 'primitive cubic',
+  'cubic-I': 'body-centred cubic',
+  'cubic-F': 'face-centred cubic',
+  'tetragonal-P': 'primitive tetragonal',
+  'tetragonal-I': 'body-centred tetragonal',
+  'hexagonal-P': 'hexagonal',
+  'hexagonal-R': 'rhombohedral (hexagonal axes)',
+  lamellar: 'lamellar stack',
+};
+
+/** 2θ in degrees of Q = 1/d² (nm⁻²) at a wavelength, NaN beyond 180°. */
+function twoThetaOfQ(q: number, lambda: number): number {
+  const s = (lambda * Math.sqrt(q)) / 2;
+  return s >= 1 ? NaN : (2 * Math.asin(s)) / DEG;
+}
+
+interface Work {
+  peaks: IndexPeak[];
+  lambda: number | null;
+  /** Observed Q, nm⁻². */
+  q: number[];
+  /** σ of Q. */
+  sq: number[];
+  /** 2θ (null without a wavelength). */
+  tt: Array<number | null>;
+  stt: number[];
+  /** FWHM in degrees (0 when unknown). */
+  fw: number[];
+  strong: Set<number>;
+  strongOrder: number[];
+  dMin: number;
+  dMax: number;
+}
+
+interface Trial {
+  kind: LatticeKind;
+  a: number;
+  c: number;
+  zero: number;
+}
+
+/** Lines of a trial cell within the pattern's d range. */
+function linesOf(w: Work, t: Trial) {
+  const cell: LatticeCell = { kind: t.kind, aNm: t.a, cNm: t.c };
+  return latticeLines(cell, w.dMin * 0.995, w.dMax * 1.005);
+}
+
+/**
+ * Assigns each peak to the nearest line within tolerance (2θ data: |Δ2θ| after the zero shift;
+ * q data: |ΔQ| within 3σ + 0.2 %).
+ */
+function assign(w: Work, t: Trial, lines: ReturnType<typeof latticeLines>, tolDeg: number) {
+  const out: Array<{ peak: number; line: number; delta: number; overlap: boolean } | null> = [];
+  const qs = lines.map((l) => l.q);
+  for (let i = 0; i < w.q.length; i++) {
+    let best = -1;
+    let bestD = Infinity;
+    // lines are sorted by Q
+    let lo = 0;
+    let hi = qs.length;
+    while (lo < hi) {
+      const mid = (lo + hi) >>> 1;
+      if (qs[mid] < w.q[i]) lo = mid + 1;
+      else hi = mid;
+    }
+    for (const j of [lo - 2, lo - 1, lo, lo + 1]) {
+      if (j < 0 || j >= qs.length) continue;
+      let d: number;
+      if (w.lambda !== null && w.tt[i] !== null) {
+        const tc = twoThetaOfQ(qs[j], w.lambda);
+        d = Math.abs(w.tt[i]! - t.zero - tc);
+        if (!(d <= Math.max(tolDeg, 3 * w.stt[i]))) continue;
+      } else {
+        d = Math.abs(w.q[i] - qs[j]);
+        if (!(d <= 3 * w.sq[i] + 0.002 * w.q[i])) continue;
+      }
+      if (d < bestD) {
+        bestD = d;
+        best = j;
+      }
+    }
+    let overlap = false;
+    if (best < 0 && w.lambda !== null && w.tt[i] !== null && w.fw[i] > 0) {
+      // a peak that two lines closer than its own width share: unresolved, matched to the nearer,
+      // left out of the refinement (its position is a blend)
+      const near: Array<{ j: number; d: number }> = [];
+      for (let j = Math.max(0, lo - 4); j < Math.min(qs.length, lo + 4); j++) {
+        const d = Math.abs(w.tt[i]! - t.zero - twoThetaOfQ(qs[j], w.lambda));
+        if (d <= 0.6 * w.fw[i]) near.push({ j, d });
+      }
+      if (near.length >= 2) {
+        near.sort((a, b) => a.d - b.d);
+        best = near[0].j;
+        bestD = near[0].d;
+        overlap = true;
+      }
+    }
+    out.push(best >= 0 ? { peak: i, line: best, delta: bestD, overlap } : null);
+  }
+  return out;
+}
+
+/** Smith–Snyder F_N and de Wolff M_N of an assignment. */
+function figureOfMerit(w: Work, t: Trial, lines: ReturnType<typeof latticeLines>, asg: ReturnType<typeof assign>): FigureOfMerit {
+  const idx = asg.filter((a): a is NonNullable<typeof a> => a !== null).sort((a, b) => w.q[a.peak] - w.q[b.peak]);
+  const n = Math.min(30, idx.length);
+  if (n === 0) return { fN: 0, n: 0, meanDelta: NaN, nPossible: 0, mN: 0 };
+  const first = idx.slice(0, n);
+  const qN = w.q[first[n - 1].peak];
+  const nPoss = Math.max(1, lines.filter((l) => l.q <= qN * (1 + 1e-9)).length);
+  let meanDelta: number;
+  if (w.lambda !== null && first.every((a) => w.tt[a.peak] !== null)) meanDelta = first.reduce((s, a) => s + a.delta, 0) / n;
+  else meanDelta = first.reduce((s, a) => s + Math.abs(w.q[a.peak] - lines[a.line].q), 0) / n;
+  const floor = w.lambda !== null ? 0.002 : 1e-6;
+  const fN = (1 / Math.max(meanDelta, floor)) * (n / nPoss);
+  const m = Math.min(20, idx.length);
+  const firstM = idx.slice(0, m);
+  const qM = w.q[firstM[m - 1].peak];
+  const nPossM = Math.max(1, lines.filter((l) => l.q <= qM * (1 + 1e-9)).length);
+  const epsQ = firstM.reduce((s, a) => s + Math.abs(w.q[a.peak] - qOfZeroCorrected(w, t, a.peak, lines[a.line].q)), 0) / m;
+  const mN = qM / (2 * Math.max(epsQ, 1e-9 * qM) * nPossM);
+  return { fN, n, meanDelta, nPossible: nPoss, mN };
+}
+
+/** Observed Q compared with a line's Q: for 2θ data the line's Q is moved by the zero shift. */
+function qOfZeroCorrected(w: Work, t: Trial, peak: number, qLine: number): number {
+  if (w.lambda === null || w.tt[peak] === null || t.zero === 0) return qLine;
+  const tt = twoThetaOfQ(qLine, w.lambda) + t.zero;
+  const s = Math.sin((tt * DEG) / 2);
+  return ((2 * s) / w.lambda) ** 2;
+}
+
+/** Refines a, c and the zero shift by weighted least squares on 2θ (or Q for q data). */
+function refine(w: Work, t: Trial, hkls: Array<{ peak: number; hkl: [number, number, number] }>, fitZero: boolean, holdCell: boolean): { t: Trial; cov: number[][]; chi2: number; dof: number } | null {
+  const np0 = holdCell ? 0 : cellParameters(t.kind);
+  const useZero = fitZero && w.lambda !== null;
+  const np = np0 + (useZero ? 1 : 0);
+  if (np === 0 || hkls.length < np + 1) return null;
+  const twoTheta = w.lambda !== null && hkls.every((h) => w.tt[h.peak] !== null);
+  const obs = hkls.map((h) => (twoTheta ? w.tt[h.peak]! : w.q[h.peak]));
+  // a floor on each line's σ: profile-shape and asymmetry errors (common practice: 0.002° or 0.02 % in Q)
+  const sig = hkls.map((h) => (twoTheta ? Math.hypot(w.stt[h.peak], 0.002) : Math.hypot(w.sq[h.peak], 2e-4 * w.q[h.peak])));
+  const unpack = (p: ArrayLike<number>): Trial => {
+    let a = t.a;
+    let c = t.c;
+    if (!holdCell) {
+      if (t.kind === 'lamellar') c = p[0];
+      else if (t.kind.startsWith('cubic')) {
+        a = p[0];
+        c = p[0];
+      } else {
+        a = p[0];
+        c = p[1];
+      }
+    }
+    return { kind: t.kind, a, c, zero: useZero ? p[np0] : 0 };
+  };
+  const p0: number[] = [];
+  if (!holdCell) {
+    if (t.kind === 'lamellar') p0.push(t.c);
+    else if (t.kind.startsWith('cubic')) p0.push(t.a);
+    else p0.push(t.a, t.c);
+  }
+  if (useZero) p0.push(t.zero);
+  const model = (p: Float64Array, out: Float64Array) => {
+    const tr = unpack(p);
+    hkls.forEach((h, i) => {
+      const q = qOf(tr.kind, tr.a, tr.c, ...h.hkl);
+      out[i] = twoTheta ? twoThetaOfQ(q, w.lambda!) + tr.zero : q;
+    });
+  };
+  let fit;
+  try {
+    fit = levenbergMarquardt(model, obs, p0, { weights: sig.map((s) => 1 / (s * s)), scaleCovariance: false, maxIterations: 100, tolerance: 1e-14 });
+  } catch {
+    return null;
+  }
+  if (!fit.params.every(Number.isFinite)) return null;
+  const tr = unpack(fit.params);
+  if (!(tr.c > 0) || (t.kind !== 'lamellar' && !(tr.a > 0))) return null;
+  const cov: number[][] = [];
+  for (let i = 0; i < np; i++) cov.push(Array.from({ length: np }, (_, j) => fit.covariance[i * np + j]));
+  return { t: tr, cov, chi2: fit.chi2, dof: Math.max(1, hkls.length - np) };
+}
+
+/** Candidate cells of one lattice kind from the strongest low-angle lines. */
+function candidates(w: Work, kind: LatticeKind): Trial[] {
+  const out: Trial[] = [];
+  const base = w.strongOrder.slice(0, 8);
+  const seen = new Set<string>();
+  const qMax = 1 / (w.dMin * w.dMin);
+  const push = (a: number, c: number) => {
+    // no crystal has a lattice edge below 0.2 nm (the shortest, e.g. graphite's a, are ~0.25 nm; common practice)
+    if ((kind !== 'lamellar' && !(a >= MIN_EDGE_NM && a < 20)) || !(c >= MIN_EDGE_NM && c < 50)) return;
+    // cells with hundreds of lines in range index anything: left out (common practice: small cells first)
+    if ((kind !== 'lamellar' && a * Math.sqrt(qMax) > (kind.startsWith('cubic') ? 10 : 14)) || c * Math.sqrt(qMax) > (kind === 'lamellar' ? 60 : 25)) return;
+    const key = `${kind === 'lamellar' ? '' : a.toPrecision(4)}|${c.toPrecision(4)}`;
+    if (seen.has(key)) return;
+    seen.add(key);
+    out.push({ kind, a, c, zero: 0 });
+  };
+  if (kind === 'lamellar') {
+    for (const i of base.slice(0, 6)) for (let l = 1; l <= 4; l++) push(NaN, l / Math.sqrt(w.q[i]));
+    return out.map((t) => ({ ...t, a: NaN }));
+  }
+  if (kind.startsWith('cubic')) {
+    const ns: number[] = [];
+    for (let h = 0; h <= 5; h++) for (let k = 0; k <= h; k++) for (let l = 0; l <= k; l++) {
+      const n = h * h + k * k + l * l;
+      if (n > 0 && n <= 40 && !ns.includes(n) && latticeAllows(kind, h, k, l)) ns.push(n);
+    }
+    for (const i of base.slice(0, 5)) for (const n of ns) {
+      const a = Math.sqrt(n / w.q[i]);
+      push(a, a);
+    }
+    return out;
+  }
+  // two-parameter lattices: Q = A·X + C·l², X = h²+k² (tetragonal) or 4(h²+hk+k²)/3 (hexagonal)
+  const hex = kind.startsWith('hexagonal');
+  const triples: Array<[number, number, number]> = [];
+  for (let h = 0; h <= 2; h++) for (let k = 0; k <= h; k++) for (let l = 0; l <= 4; l++) {
+    if (h === 0 && k === 0 && l === 0) continue;
+    if (!latticeAllows(kind, h, k, l)) continue;
+    triples.push([h, k, l]);
+  }
+  const xOf = (h: number, k: number) => (hex ? (4 * (h * h + h * k + k * k)) / 3 : h * h + k * k);
+  const pairs = base.slice(0, 6);
+  for (let u = 0; u < pairs.length; u++) {
+    for (let v = u + 1; v < pairs.length; v++) {
+      const qi = w.q[pairs[u]];
+      const qj = w.q[pairs[v]];
+      for (const [h1, k1, l1] of triples) {
+        const x1 = xOf(h1, k1);
+        const z1 = l1 * l1;
+        for (const [h2, k2, l2] of triples) {
+          const x2 = xOf(h2, k2);
+          const z2 = l2 * l2;
+          const det = x1 * z2 - x2 * z1;
+          if (Math.abs(det) < 1e-9) continue;
+          const A = (qi * z2 - qj * z1) / det;
+          const C = (x1 * qj - x2 * qi) / det;
+          if (!(A > 0) || !(C > 0)) continue;
+          push(1 / Math.sqrt(A), 1 / Math.sqrt(C));
+        }
+      }
+    }
+  }
+  return out;
+}
+
+/** Centring conditions of the lattice kinds (the rule of latticeLines). */
+const latticeAllows = centringAllows;
+
+/** Sorted distinct Q of a trial cell up to qMax (the lattice's centring applied), for the quick score. */
+function quickQs(t: Trial, qMax: number): Float64Array {
+  const out: number[] = [];
+  const cubic = t.kind.startsWith('cubic');
+  const a = t.a;
+  const c = t.c;
+  const hMax = t.kind === 'lamellar' ? 0 : Math.floor(a * Math.sqrt(qMax)) + 1;
+  const lMax = Math.floor((cubic ? a : c) * Math.sqrt(qMax)) + 1;
+  for (let h = 0; h <= hMax; h++) {
+    for (let k = 0; k <= (t.kind === 'lamellar' ? 0 : h); k++) {
+      for (let l = 0; l <= (cubic ? k : lMax); l++) {
+        if (h === 0 && k === 0 && l === 0) continue;
+        const q = qOf(t.kind, a, c, h, k, l);
+        if (q > qMax) {
+          if (cubic || t.kind === 'lamellar') continue;
+          break;
+        }
+        if (centringAllows(t.kind, h, k, l)) out.push(q);
+      }
+    }
+  }
+  out.sort((x, y) => x - y);
+  const dedup: number[] = [];
+  for (const q of out) if (!dedup.length || q > dedup[dedup.length - 1] * (1 + 1e-9)) dedup.push(q);
+  return Float64Array.from(dedup);
+}
+
+/** Whether a line of the sorted list lies within tolerance of an observed Q (2θ tolerance when a wavelength is known). */
+function nearestQ(qs: Float64Array, q: number, lambda: number | null, tt: number | null, tolDeg: number): boolean {
+  let lo = 0;
+  let hi = qs.length;
+  while (lo < hi) {
+    const mid = (lo + hi) >>> 1;
+    if (qs[mid] < q) lo = mid + 1;
+    else hi = mid;
+  }
+  for (const j of [lo - 1, lo]) {
+    if (j < 0 || j >= qs.length) continue;
+    if (lambda !== null && tt !== null) {
+      if (Math.abs(twoThetaOfQ(qs[j], lambda) - tt) <= tolDeg) return true;
+    } else if (Math.abs(qs[j] - q) <= 0.003 * q) return true;
+  }
+  return false;
+}
+
+interface Solution {
+  t: Trial;
+  hkls: Array<{ peak: number; hkl: [number, number, number] }>;
+  lines: ReturnType<typeof latticeLines>;
+  asg: ReturnType<typeof assign>;
+  fom: FigureOfMerit;
+  cov: number[][] | null;
+  chi2: number;
+  dof: number;
+  strongExplained: number;
+  intensityShare: number;
+  volume: number;
+}
+
+/** Scores a trial cell: assigns, refines (twice, reassigning), and measures what it explains. */
+function evaluate(w: Work, trial: Trial, subset: Set<number> | null, opts: Required<Pick<IndexOptions, 'searchToleranceDeg' | 'fitZeroShift'>>, holdCell = false): Solution | null {
+  let t = trial;
+  let lines = linesOf(w, t);
+  if (lines.length === 0 || lines.length > 4000) return null;
+  let asg = assign(w, t, lines, opts.searchToleranceDeg);
+  let cov: number[][] | null = null;
+  let chi2 = NaN;
+  let dof = 1;
+  let hkls: Solution['hkls'] = [];
+  for (let round = 0; round < 3; round++) {
+    hkls = asg.flatMap((a) => (a && (!subset || subset.has(a.peak)) ? [{ peak: a.peak, hkl: lines[a.line].hkl }] : []));
+    const clean = asg.flatMap((a) => (a && !a.overlap && (!subset || subset.has(a.peak)) ? [{ peak: a.peak, hkl: lines[a.line].hkl }] : []));
+    const r = refine(w, t, clean, opts.fitZeroShift, holdCell);
+    if (!r) break;
+    t = r.t;
+    cov = r.cov;
+    chi2 = r.chi2;
+    dof = r.dof;
+    if (Math.abs(t.zero) > 1) return null; // a zero shift of a degree is a wrong cell
+    lines = linesOf(w, t);
+    if (lines.length === 0 || lines.length > 4000) return null;
+    // after refinement the tolerance tightens to the lines' own uncertainty plus 0.02°
+    asg = assign(w, t, lines, round === 0 ? opts.searchToleranceDeg : 0.03);
+  }
+  hkls = asg.flatMap((a) => (a && (!subset || subset.has(a.peak)) ? [{ peak: a.peak, hkl: lines[a.line].hkl }] : []));
+  if (hkls.length === 0) return null;
+  // a two-parameter cell must be fixed by its lines: some depend on a, some on c, not all alike
+  if (!holdCell && cellParameters(t.kind) === 2) {
+    const hex = t.kind.startsWith('hexagonal');
+    let sxx = 0;
+    let szz = 0;
+    let sxz = 0;
+    for (const h of hkls) {
+      const xh = hex ? (4 * (h.hkl[0] ** 2 + h.hkl[0] * h.hkl[1] + h.hkl[1] ** 2)) / 3 : h.hkl[0] ** 2 + h.hkl[1] ** 2;
+      const zh = h.hkl[2] ** 2;
+      const norm = Math.hypot(xh, zh);
+      sxx += (xh / norm) ** 2;
+      szz += (zh / norm) ** 2;
+      sxz += (xh * zh) / norm ** 2;
+    }
+    if (sxx * szz - sxz * sxz < 0.05 * Math.max(1, hkls.length / 4)) return null;
+    // and by more than one line each way: a single line on the other axis is a coincidence
+    const onA = hkls.filter((h) => h.hkl[0] !== 0 || h.hkl[1] !== 0).length;
+    const onC = hkls.filter((h) => h.hkl[2] !== 0).length;
+    if (onA < 2 || onC < 2) return null;
+  }
+  if (!(t.c >= MIN_EDGE_NM) || (t.kind !== 'lamellar' && !(t.a >= MIN_EDGE_NM))) return null;
+  const used = subset ? asg.map((a) => (a && subset.has(a.peak) ? a : null)) : asg;
+  const fom = figureOfMerit(w, t, lines, used);
+  let strongExplained = 0;
+  let share = 0;
+  let total = 0;
+  w.peaks.forEach((p, i) => {
+    if (subset && !subset.has(i)) return;
+    total += p.intensity;
+    if (used[i]) {
+      share += p.intensity;
+      if (w.strong.has(i)) strongExplained++;
+    }
+  });
+  const volume = t.kind === 'lamellar' ? t.c : t.kind.startsWith('hexagonal') ? ((Math.sqrt(3) / 2) * t.a * t.a * t.c) / (t.kind === 'hexagonal-R' ? 3 : 1) : (t.a * t.a * t.c) / (t.kind.endsWith('-I') ? 2 : t.kind.endsWith('-F') ? 4 : 1);
+  return { t, hkls, lines, asg: used, fom, cov, chi2, dof, strongExplained, intensityShare: total > 0 ? share / total : 0, volume };
+}
+
+/**
+ * Indexes a pattern's peaks.
+ *
+ * @param peaks the fitted peaks (bands of turbostratic layers should be left out: they have no hkl)
+ * @param options wavelength, lattices, tolerances, an internal standard, mixtures
+ * @returns the phases with refined cells, zero shift and figures of merit, and the unindexed peaks
+ *
+ * Notes — the method:
+ * - trial cells come from the strongest low-angle lines: for one-parameter lattices each line as
+ *   each allowed low-index reflection, for two-parameter lattices each pair of lines as each pair
+ *   of allowed reflections (h, k ≤ 3, l ≤ 6); only reflections the lattice's centring allows are
+ *   used (ITC A integral conditions), so a solution never relies on a forbidden line;
+ * - every trial is refined by least squares on 2θ with a zero-shift term (observed = calculated +
+ *   Z), lines reassigned after each refinement;
+ * - a phase must explain its strongest line and be consistent (F_N ≥ minFigureOfMerit); the
+ *   solution preferred is the one that explains every strong line, and among those the one with
+ *   the highest F_N — which favours the lattice with the fewest possible lines, i.e. the simplest
+ *   that explains the pattern — then the smallest cell; when no single phase explains every
+ *   strong line, the best phase is taken and a second one is sought among the lines it leaves;
+ * - the cell's uncertainty is the refinement's (scaled by √χ²ᵣ when the lines scatter more than
+ *   their σ) combined with the wavelength's relative uncertainty.
+ * The lattices are those of centring only: glide and screw absences (e.g. the diamond structure's
+ * 200) only remove lines and do not change the lattice. No space group is named.
+ * Reference: figures of merit: Smith & Snyder, J. Appl. Cryst. 12, 60 (1979); de Wolff, J. Appl.
+ * Cryst. 1, 108 (1968); integral reflection conditions: ITC A Table 2.2.13.1.
+ */
+export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexResult {
+  if (!Array.isArray(peaks)) throw new RangeError('peaks must be a list');
+  peaks.forEach((p, i) => {
+    if (!(p.dNm > 0) || !Number.isFinite(p.dNm)) throw new RangeError(`peak ${i}: dNm must be a positive number, got ${p.dNm}`);
+    if (!(p.intensity >= 0)) throw new RangeError(`peak ${i}: intensity must be ≥ 0, got ${p.intensity}`);
+  });
+  const lambda = options.wavelengthNm;
+  if (lambda !== null && !(lambda > 0 && lambda < 10)) throw new RangeError(`wavelengthNm must be in (0, 10) or null, got ${lambda}`);
+  const strongFraction = options.strongFraction ?? 0.1;
+  if (!(strongFraction > 0 && strongFraction <= 1)) throw new RangeError(`strongFraction must be in (0, 1], got ${strongFraction}`);
+  const minFom = options.minFigureOfMerit ?? 8;
+  const kinds = options.kinds ?? [...LATTICE_KINDS];
+  for (const k of kinds) if (!LATTICE_KINDS.includes(k)) throw new RangeError(`unknown lattice kind '${k}'`);
+  const opts = { searchToleranceDeg: options.searchToleranceDeg ?? 0.08, fitZeroShift: options.fitZeroShift ?? true };
+  const notes: string[] = [];
+  if (peaks.length === 0) return { phases: [], unindexed: [], zeroShiftDeg: null, zeroShiftUncDeg: null, notes: ['no peaks to index'] };
+  const top = Math.max(...peaks.map((p) => p.intensity));
+  const strong = new Set<number>();
+  peaks.forEach((p, i) => {
+    if (p.intensity >= strongFraction * top) strong.add(i);
+  });
+  const w: Work = {
+    peaks,
+    lambda,
+    q: peaks.map((p) => 1 / (p.dNm * p.dNm)),
+    sq: peaks.map((p) => (2 * Math.max(p.dUncNm, 1e-9 * p.dNm)) / p.dNm ** 3),
+    tt: peaks.map((p) => (lambda !== null ? p.twoThetaDeg : null)),
+    stt: peaks.map((p) => Math.max(p.twoThetaUncDeg ?? 0, 1e-6)),
+    fw: peaks.map((p) => p.fwhmDeg ?? 0),
+    strong,
+    strongOrder: [...strong].sort((a, b) => peaks[b].dNm - peaks[a].dNm),
+    dMin: Math.min(...peaks.map((p) => p.dNm)),
+    dMax: Math.max(...peaks.map((p) => p.dNm)),
+  };
+  // enough strong lines to seed two-parameter cells: add the next strongest
+  if (w.strongOrder.length < 6) {
+    const more = peaks.map((_, i) => i).filter((i) => !strong.has(i)).sort((a, b) => peaks[b].intensity - peaks[a].intensity).slice(0, 6 - w.strongOrder.length);
+    w.strongOrder = [...w.strongOrder, ...more].sort((a, b) => peaks[b].dNm - peaks[a].dNm);
+  }
+  const phaseOf = (s: Solution, isStandard: boolean, name?: string): IndexedPhase => {
+    const np0 = isStandard ? 0 : cellParameters(s.t.kind);
+    const scale = Math.max(1, s.chi2 / s.dof);
+    const relL = options.wavelengthRelU ?? 0;
+    let aU = 0;
+    let cU = 0;
+    if (!isStandard && s.cov) {
+      if (s.t.kind === 'lamellar') cU = Math.sqrt(Math.max(0, s.cov[0][0] * scale));
+      else if (s.t.kind.startsWith('cubic')) aU = cU = Math.sqrt(Math.max(0, s.cov[0][0] * scale));
+      else {
+        aU = Math.sqrt(Math.max(0, s.cov[0][0] * scale));
+        cU = Math.sqrt(Math.max(0, s.cov[1][1] * scale));
+      }
+      aU = Math.hypot(aU, (Number.isFinite(s.t.a) ? s.t.a : 0) * relL);
+      cU = Math.hypot(cU, s.t.c * relL);
+    }
+    if (!isStandard && !s.cov && cellParameters(s.t.kind) === 1 && s.hkls.length > 0) {
+      // too few lines to refine with a zero shift: the cell from each line (cell = d·√(h²+k²+l²)),
+      // weighted by the lines' own d uncertainties, the zero shift's allowance not included (noted)
+      let sw = 0;
+      for (const h of s.hkls) {
+        const m = Math.sqrt(h.hkl[0] ** 2 + h.hkl[1] ** 2 + h.hkl[2] ** 2);
+        const u = Math.max(peaks[h.peak].dUncNm, 1e-9) * m;
+        sw += 1 / (u * u);
+      }
+      const u = Math.hypot(1 / Math.sqrt(sw), s.t.c * relL);
+      cU = u;
+      if (s.t.kind !== 'lamellar') aU = u;
+      notes.push(`${LATTICE_WORDS[s.t.kind]} (${s.hkls.length} lines): too few lines to refine with a zero shift; its cell's uncertainty is that of its lines alone`);
+    }
+
+    const zFitted = opts.fitZeroShift && lambda !== null && s.cov !== null && s.cov.length > np0;
+    const zU = zFitted ? Math.sqrt(Math.max(0, s.cov![np0][np0] * scale)) : null;
+    const lines: IndexedLine[] = s.hkls.map((h) => {
+      const dCalc = 1 / Math.sqrt(qOf(s.t.kind, s.t.a, s.t.c, ...h.hkl));
+      const tt = w.tt[h.peak];
+      const corrected = tt !== null && lambda !== null ? tt - s.t.zero : null;
+      const dObs = corrected !== null ? lambda! / (2 * Math.sin((corrected * DEG) / 2)) : peaks[h.peak].dNm;
+      return { peak: h.peak, hkl: h.hkl, dObsNm: dObs, dCalcNm: dCalc, deltaTwoThetaDeg: corrected !== null ? corrected - twoThetaOfQ(1 / (dCalc * dCalc), lambda!) : null };
+    });
+    lines.sort((x, y) => y.dCalcNm - x.dCalcNm);
+    const explained = new Set(s.hkls.map((h) => h.peak));
+    return {
+      kind: s.t.kind,
+      aNm: s.t.kind === 'lamellar' ? NaN : s.t.a,
+      cNm: s.t.c,
+      aUncNm: s.t.kind === 'lamellar' ? NaN : aU,
+      cUncNm: cU,
+      zeroShiftDeg: zFitted ? s.t.zero : null,
+      zeroShiftUncDeg: zU,
+      lines,
+      unexplainedStrong: [...strong].filter((i) => !explained.has(i)),
+      figureOfMerit: s.fom,
+      standard: isStandard,
+      name: name ?? LATTICE_WORDS[s.t.kind],
+    };
+  };
+  const phases: IndexedPhase[] = [];
+  let remaining: Set<number> | null = null;
+  // an internal standard first: its cell held, the zero shift fitted from its lines
+  if (options.standard) {
+    const st = options.standard;
+    const s = evaluate(w, { kind: st.cell.kind, a: st.cell.aNm, c: st.cell.cNm, zero: 0 }, null, { ...opts, fitZeroShift: lambda !== null }, true);
+    if (!s || s.hkls.length < 2) notes.push(`the standard ${st.name} explains fewer than two lines: not used`);
+    else {
+      phases.push(phaseOf(s, true, st.name));
+      remaining = new Set(peaks.map((_, i) => i).filter((i) => !s.hkls.some((h) => h.peak === i)));
+    }
+  }
+  const search = (subset: Set<number> | null): { best: Solution; pool: Solution[] } | null => {
+    const within = subset ? [...w.strongOrder].filter((i) => subset.has(i)) : w.strongOrder;
+    if (within.length === 0) return null;
+    const wSub: Work = subset ? { ...w, strongOrder: within.length >= 3 ? within : [...subset].sort((a, b) => peaks[b].dNm - peaks[a].dNm).slice(0, 7) } : w;
+    const strongHere = [...strong].filter((i) => !subset || subset.has(i));
+    const topHere = strongHere.length ? strongHere.reduce((a, b) => (peaks[a].intensity >= peaks[b].intensity ? a : b)) : -1;
+    const pool: Solution[] = [];
+    for (const kind of kinds) {
+      const trials = candidates(wSub, kind);
+      // a quick score first (no refinement), then the best few refined
+      const quick: Array<{ t: Trial; score: number }> = [];
+      const qMaxAll = 1.01 / (w.dMin * w.dMin);
+      for (const t of trials) {
+        const qs = quickQs(t, qMaxAll);
+        if (qs.length === 0 || qs.length > 3000) continue;
+        let sc = 0;
+        let matched = 0;
+        for (let i = 0; i < w.q.length; i++) {
+          if (subset && !subset.has(i)) continue;
+          if (nearestQ(qs, w.q[i], w.lambda, w.tt[i], opts.searchToleranceDeg)) {
+            sc += (strong.has(i) ? 10 : 1) + peaks[i].intensity / top;
+            matched++;
+          }
+        }
+        quick.push({ t, score: sc * Math.min(1, matched / Math.max(1, qs.length)) });
+      }
+      quick.sort((a, b) => b.score - a.score);
+      for (const q of quick.slice(0, 20)) {
+        const s = evaluate(w, q.t, subset, opts);
+        if (!s) continue;
+        if (topHere >= 0 && !s.hkls.some((h) => h.peak === topHere)) continue; // a phase explains the strongest line it is offered
+        const minLines = s.t.kind === 'lamellar' ? 2 : cellParameters(s.t.kind) + 2;
+        if (s.hkls.length < minLines) continue;
+        if (s.t.kind === 'lamellar' && !s.hkls.some((h) => h.hkl[2] === 1)) continue; // a series starts at its first order
+        if (s.fom.fN < minFom) continue;
+        pool.push(s);
+      }
+    }
+    if (pool.length === 0) return null;
+    const needStrong = strongHere.length;
+    const nHere = subset ? subset.size : peaks.length;
+    const score = (x: Solution) => x.fom.fN * (x.hkls.length / nHere) ** 2;
+    // the order of preference: every strong line explained; then the most strong lines; then the
+    // simplest description: a two-parameter cell must score twice a one-parameter one (it can
+    // index more by chance); then the score; within 10 %, the smaller cell
+    const compare = (a: Solution, b: Solution) => {
+      const ca = a.strongExplained >= needStrong ? 1 : 0;
+      const cb = b.strongExplained >= needStrong ? 1 : 0;
+      if (ca !== cb) return cb - ca;
+      if (!ca && a.strongExplained !== b.strongExplained) return b.strongExplained - a.strongExplained;
+      const pa = cellParameters(a.t.kind);
+      const pb = cellParameters(b.t.kind);
+      const sa = score(a) / pa;
+      const sb = score(b) / pb;
+      if (Math.abs(sa - sb) > 0.1 * Math.max(sa, sb)) return sb - sa;
+      if (pa !== pb) return pa - pb;
+      return a.volume - b.volume;
+    };
+    pool.sort(compare);
+    // one entry per distinct cell
+    const distinct: Solution[] = [];
+    for (const x of pool) {
+      if (!distinct.some((y) => y.t.kind === x.t.kind && Math.abs(y.t.c / x.t.c - 1) < 1e-3 && (x.t.kind === 'lamellar' || Math.abs(y.t.a / x.t.a - 1) < 1e-3))) distinct.push(x);
+    }
+    pool.length = 0;
+    pool.push(...distinct);
+    // another lattice that explains the same lines about as well is named, not hidden
+    const alt = pool.find((x) => x !== pool[0] && x.t.kind !== pool[0].t.kind && cellParameters(x.t.kind) === cellParameters(pool[0].t.kind) && x.strongExplained === pool[0].strongExplained && x.hkls.length >= pool[0].hkls.length && score(x) > 0.9 * score(pool[0]));
+    if (alt) notes.push(`${LATTICE_WORDS[alt.t.kind]} (a ${alt.t.a.toPrecision(6)} nm${cellParameters(alt.t.kind) === 2 ? `, c ${alt.t.c.toPrecision(6)} nm` : ''}) indexes the same lines about as well as the ${LATTICE_WORDS[pool[0].t.kind]} cell chosen (the smaller cell); lines at higher angle would tell them apart`);
+    return { best: pool[0], pool };
+  };
+  const found = search(remaining);
+  if (found) {
+    const firstBest = found.best;
+    const scope = remaining ? [...remaining] : peaks.map((_, i) => i);
+    const strongScope = [...strong].filter((i) => !remaining || remaining.has(i));
+    let complete = firstBest.strongExplained >= strongScope.length;
+    // a two-parameter cell that explains everything may be two simpler phases: compared with the
+    // best one-parameter phase and the best phase among the lines it leaves
+    let mixtureFirst = false;
+    if (complete && cellParameters(firstBest.t.kind) === 2 && (options.mixtures ?? true)) {
+      for (const one of found.pool.filter((x) => cellParameters(x.t.kind) === 1).slice(0, 4)) {
+        const explained = new Set(one.hkls.map((h) => h.peak));
+        const rest = new Set(scope.filter((i) => !explained.has(i)));
+        const two = rest.size >= 2 ? search(rest)?.best ?? null : null;
+        if (!two) continue;
+        const both = new Set([...explained, ...two.hkls.map((h) => h.peak)]);
+        const strongDone = strongScope.filter((i) => both.has(i)).length;
+        const gm = Math.sqrt(one.fom.fN * two.fom.fN);
+        const better = both.size > firstBest.hkls.length ? gm > firstBest.fom.fN : both.size === firstBest.hkls.length && gm > 1.5 * firstBest.fom.fN;
+        if (strongDone >= strongScope.length && one.hkls.length >= 3 && two.hkls.length >= 3 && better) {
+          phases.push(phaseOf(one, false), phaseOf(two, false));
+          notes.push(`two phases (${LATTICE_WORDS[one.t.kind]} and ${LATTICE_WORDS[two.t.kind]}) explain the lines better than one ${LATTICE_WORDS[firstBest.t.kind]} cell (a ${firstBest.t.a.toPrecision(6)} nm, c ${firstBest.t.c.toPrecision(6)} nm)`);
+          mixtureFirst = true;
+          break;
+        }
+      }
+    }
+    if (mixtureFirst) complete = true;
+    else if (complete || !(options.mixtures ?? true)) {
+      phases.push(phaseOf(firstBest, false));
+      if (!complete) notes.push(`${strongScope.length - firstBest.strongExplained} strong line(s) left unexplained by one phase (mixtures not tried)`);
+      // weaker lines the phase leaves may be a second, minor phase
+      const explained = new Set(firstBest.hkls.map((h) => h.peak));
+      const rest = new Set(scope.filter((i) => !explained.has(i)));
+      if (complete && (options.mixtures ?? true) && rest.size >= 2) {
+        const two = search(rest)?.best ?? null;
+        if (two && two.hkls.length >= 2 && two.fom.fN >= 2 * minFom) {
+          phases.push(phaseOf(two, false));
+          notes.push(`a minor second phase (${LATTICE_WORDS[two.t.kind]}) explains ${two.hkls.length} of the weaker lines the first leaves`);
+        }
+      }
+    } else {
+      // a mixture: each of the leading single-phase solutions with the best phase among the lines it leaves
+      const leaders = found.pool.slice(0, 10);
+      let bestPair: { a: Solution; b: Solution | null; key: number[] } | null = null;
+      for (const a of leaders) {
+        const explained = new Set(a.hkls.map((h) => h.peak));
+        const rest = new Set(scope.filter((i) => !explained.has(i)));
+        const b = rest.size >= 2 ? search(rest)?.best ?? null : null;
+        const both = new Set([...explained, ...(b ? b.hkls.map((h) => h.peak) : [])]);
+        const strongDone = strongScope.filter((i) => both.has(i)).length;
+        const gm = b ? Math.sqrt(a.fom.fN * b.fom.fN) : a.fom.fN / 4;
+        const key = [strongDone, both.size, gm];
+        const better = !bestPair || key[0] > bestPair.key[0] || (key[0] === bestPair.key[0] && (key[1] > bestPair.key[1] || (key[1] === bestPair.key[1] && key[2] > bestPair.key[2])));
+        if (better) bestPair = { a, b, key };
+      }
+      phases.push(phaseOf(bestPair!.a, false));
+      if (bestPair!.b) phases.push(phaseOf(bestPair!.b, false));
+      const left = strongScope.length - bestPair!.key[0];
+      if (left > 0) notes.push(`${left} strong line(s) explained by no phase found`);
+    }
+  } else notes.push('no lattice explains the strongest lines with a figure of merit F_N ≥ ' + minFom);
+  const indexed = new Set(phases.flatMap((p) => p.lines.map((l) => l.peak)));
+  // the zero shift of the pattern: the standard's, else that of the phase with the most lines
+  const zSrc = phases.find((p) => p.standard && p.zeroShiftDeg !== null) ?? [...phases].filter((p) => p.zeroShiftDeg !== null).sort((a, b) => b.lines.length - a.lines.length)[0];
+  return {
+    phases,
+    unindexed: peaks.map((_, i) => i).filter((i) => !indexed.has(i)),
+    zeroShiftDeg: zSrc?.zeroShiftDeg ?? null,
+    zeroShiftUncDeg: zSrc?.zeroShiftUncDeg ?? null,
+    notes,
+  };
+}

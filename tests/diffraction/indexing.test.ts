@@ -1,0 +1,86 @@
+import { describe, expect, test } from 'vitest';
+import { dToTwoTheta } from '../../src/diffraction/bragg';
+import { indexPattern, type IndexPeak } from '../../src/diffraction/indexing';
+import { centringAllows, latticeLines } from '../../src/diffraction/lattice';
+
+const CU1 = 0.154059292; // Cu Kα1, ITC C Table 4.2.2.1 (reference-values.md)
+
+/** Peaks at the lines of a cell (2θ rounded to 0.001°, as a fit would give them), optionally shifted. */
+function peaksOf(ds: Array<{ d: number; i: number }>, zeroDeg = 0, sigmaDeg = 0.002): IndexPeak[] {
+  return ds.map(({ d, i }) => {
+    const tt = Number((dToTwoTheta(d, CU1) + zeroDeg).toFixed(3));
+    return { dNm: CU1 / (2 * Math.sin((tt * Math.PI) / 360)), dUncNm: 1e-5 * d, twoThetaDeg: tt, twoThetaUncDeg: sigmaDeg, intensity: i, fwhmDeg: 0.08 };
+  });
+}
+
+describe('lattice extinctions (ITC A Table 2.2.13.1, integral conditions)', () => {
+  test('F: hkl all even or all odd; I: h+k+l even; R obverse: −h+k+l = 3n', () => {
+    expect(centringAllows('cubic-F', 1, 1, 1)).toBe(true);
+    expect(centringAllows('cubic-F', 1, 0, 0)).toBe(false);
+    expect(centringAllows('cubic-F', 2, 1, 0)).toBe(false);
+    expect(centringAllows('cubic-I', 1, 1, 0)).toBe(true);
+    expect(centringAllows('cubic-I', 1, 0, 0)).toBe(false);
+    expect(centringAllows('hexagonal-R', 0, 0, 3)).toBe(true);
+    expect(centringAllows('hexagonal-R', 0, 0, 1)).toBe(false);
+    expect(centringAllows('hexagonal-R', 1, 0, 1)).toBe(true);
+  });
+  test('the first lines of an fcc cell: 111, 200, 220, 311, 222 (common practice)', () => {
+    const l = latticeLines({ kind: 'cubic-F', aNm: 0.40782, cNm: 0.40782 }, 0.11);
+    expect(l.slice(0, 5).map((x) => x.hkl.join(''))).toEqual(['111', '200', '220', '311', '222']);
+  });
+  test('a non-positive or absurd cell is refused, naming the value', () => {
+    expect(() => latticeLines({ kind: 'cubic-P', aNm: -1, cNm: -1 }, 0.1)).toThrow(/-1/);
+    expect(() => latticeLines({ kind: 'cubic-P', aNm: 1e9, cNm: 1e9 }, 0.1)).toThrow(/1000000000/);
+  });
+});
+
+describe('indexPattern on standard reference materials', () => {
+  test('Si (CODATA 2018 a = 0.5431020511 nm): face-centred cubic, 200 and 222 absent (diamond glide) do not mislead; a within 2×10⁻⁵ relative', () => {
+    // Si 111, 220, 311, 400, 331, 422, 511, 440 with SRM-like intensities (no 200, 222)
+    const a = 0.5431020511;
+    const hkl = [[1, 1, 1, 100], [2, 2, 0, 55], [3, 1, 1, 30], [4, 0, 0, 6], [3, 3, 1, 11], [4, 2, 2, 12], [5, 1, 1, 7], [4, 4, 0, 5]];
+    const r = indexPattern(peaksOf(hkl.map(([h, k, l, i]) => ({ d: a / Math.hypot(h, k, l), i }))), { wavelengthNm: CU1 });
+    expect(r.phases.length).toBe(1);
+    const ph = r.phases[0];
+    expect(ph.kind).toBe('cubic-F');
+    expect(Math.abs(ph.aNm / a - 1)).toBeLessThan(2e-5);
+    expect(ph.aUncNm).toBeGreaterThan(0);
+    expect(ph.figureOfMerit.fN).toBeGreaterThan(20);
+    expect(ph.unexplainedStrong).toEqual([]);
+    // no lamellar period offered for a cubic crystal
+    expect(r.phases.some((p) => p.kind === 'lamellar')).toBe(false);
+  });
+  test('LaB6 (SRM 660c certificate a = 0.4156826 nm): primitive cubic, not a body-centred cell of a·√2', () => {
+    const a = 0.4156826;
+    const lines = latticeLines({ kind: 'cubic-P', aNm: a, cNm: a }, 0.085);
+    const r = indexPattern(peaksOf(lines.map((l, j) => ({ d: l.dNm, i: [60, 100, 45, 25, 50, 30][j] ?? 15 }))), { wavelengthNm: CU1 });
+    expect(r.phases[0].kind).toBe('cubic-P');
+    expect(Math.abs(r.phases[0].aNm / a - 1)).toBeLessThan(2e-5);
+    expect(r.phases.length).toBe(1);
+  });
+  test('silver behenate, d001 = 5.838 nm (Blanton et al., Powder Diffr. 10, 91, 1995) with a zero shift of −0.05°: the series is found and the shift measured', () => {
+    const d = 5.838;
+    const r = indexPattern(peaksOf(Array.from({ length: 10 }, (_, j) => ({ d: d / (j + 1), i: 100 / (j + 1) })), -0.05), { wavelengthNm: CU1 });
+    const lam = r.phases.find((p) => p.kind === 'lamellar')!;
+    expect(lam).toBeDefined();
+    expect(lam.lines.length).toBe(10);
+    expect(Math.abs(lam.cNm / d - 1)).toBeLessThan(2e-4);
+    expect(Math.abs(r.zeroShiftDeg! + 0.05)).toBeLessThan(3 * r.zeroShiftUncDeg! + 0.002);
+  });
+  test('an internal standard (Si, CODATA) fixes the zero shift; the sample phase is indexed on the corrected lines', () => {
+    const si = 0.5431020511;
+    const au = 0.40782; // fcc metal, from memory
+    const siLines = [[1, 1, 1, 100], [2, 2, 0, 55], [3, 1, 1, 30], [4, 0, 0, 6], [3, 3, 1, 11]].map(([h, k, l, i]) => ({ d: si / Math.hypot(h, k, l), i }));
+    const auLines = [[1, 1, 1, 90], [2, 0, 0, 45], [2, 2, 0, 25], [3, 1, 1, 28], [2, 2, 2, 8]].map(([h, k, l, i]) => ({ d: au / Math.hypot(h, k, l), i }));
+    const r = indexPattern(peaksOf([...siLines, ...auLines], 0.03), { wavelengthNm: CU1, standard: { name: 'Si', cell: { kind: 'cubic-F', aNm: si, cNm: si } } });
+    expect(r.phases[0].standard).toBe(true);
+    expect(Math.abs(r.zeroShiftDeg! - 0.03)).toBeLessThan(0.003);
+    const sample = r.phases.find((p) => !p.standard)!;
+    expect(sample.kind).toBe('cubic-F');
+    expect(Math.abs(sample.aNm / au - 1)).toBeLessThan(1e-4);
+  });
+  test('bad input is refused with the value named', () => {
+    expect(() => indexPattern([{ dNm: -1, dUncNm: 0, twoThetaDeg: null, twoThetaUncDeg: null, intensity: 1 }], { wavelengthNm: null })).toThrow(/-1/);
+    expect(() => indexPattern([], { wavelengthNm: 100 })).toThrow(/100/);
+  });
+});

@@ -1,0 +1,41 @@
+import { mkdtempSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { afterAll, beforeAll, expect, test } from 'vitest';
+import { foreignRequests, openSession, type Session } from './browser';
+
+let s: Session;
+beforeAll(async () => { s = await openSession(); });
+afterAll(async () => { await s?.close(); });
+
+test('the demo pattern: the clay 00l lines indexed with their d budget, the 3.9 nm lamellar phase, no peak on the halo; spots indexed with a built-in phase', async () => {
+  const errors: string[] = [];
+  s.page.on('pageerror', (e) => errors.push(String(e)));
+  await s.page.setViewportSize({ width: 1366, height: 768 });
+  await s.page.goto(s.url);
+  const app = s.page.locator('strata-app');
+  await app.locator('[role="tab"]', { hasText: 'Diffraction' }).click();
+  const xrd = s.page.locator('strata-diffraction-panel');
+  await xrd.locator('button', { hasText: 'Demo pattern' }).click();
+  await expect.poll(() => xrd.evaluate((el) => ((el as unknown as { analysis: { peaks: unknown[] } | null }).analysis?.peaks.length ?? 0)), { timeout: 60_000 }).toBeGreaterThan(2);
+  // demo truth (demo-data/make-demo.ts): 00l of the 1.25 nm clay and the 3.9 nm lamellar 001, 002; a polymer halo near 19.6° that is no peak
+  const a = await xrd.evaluate((el) => (el as unknown as { analysis: { peaks: Array<{ twoThetaDeg: number }>; indexing: { phases: Array<{ kind: string; cNm: number }> } } }).analysis);
+  const lam = 0.15405929;
+  const truth = [3.9, 1.95, 1.25, 1.25 / 2, 1.25 / 3, 1.25 / 4, 1.25 / 5].map((d) => (360 / Math.PI) * Math.asin(lam / (2 * d)));
+  // no false peak: every fitted peak is one of the drawn lines
+  for (const p of a.peaks) expect(Math.min(...truth.map((t) => Math.abs(t - p.twoThetaDeg)))).toBeLessThan(0.1);
+  expect(a.indexing.phases.some((p) => p.kind === 'lamellar' && Math.abs(p.cNm - 1.25) < 0.01)).toBe(true);
+  await expect.poll(() => xrd.locator('td', { hasText: '0 0 1' }).count()).toBeGreaterThan(0);
+  await expect.poll(() => xrd.locator('p', { hasText: 'from header line' }).count()).toBeGreaterThan(0);
+  // spots of Si seen along ⟨110⟩: 111, 1̄11 and 202 (CODATA a; angles 70.5° and 35.3°, common practice)
+  await xrd.locator('textarea[aria-label^="Spots"]').fill('0.3135,10; 0.3135,80.5; 0.192,45.3');
+  await xrd.locator('textarea[aria-label^="Spots"]').dispatchEvent('change');
+  await xrd.locator('button', { hasText: 'Index spots' }).click();
+  await expect.poll(() => xrd.locator('p', { hasText: 'Zone axis' }).textContent(), { timeout: 20_000 }).toMatch(/\[(1 0 -1|1 -1 0|0 1 -1|1 1 0|1 0 1|0 1 1)\]/);
+  await xrd.locator('h3', { hasText: 'Index spots' }).scrollIntoViewIfNeeded();
+  const shot = join(mkdtempSync(join(tmpdir(), 'strata-xrd-')), 'diffraction-panel.png');
+  await s.page.screenshot({ path: shot });
+  console.log(`screenshot: ${shot}`);
+  expect(errors).toEqual([]);
+  expect(foreignRequests(s.requests, s.url)).toEqual([]);
+}, 120_000);
