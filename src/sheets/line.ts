@@ -56,7 +56,7 @@ export interface LineSheet {
 /** The result of {@link sheetsAlongLine}. */
 export interface LineSheetsResult {
   sheets: LineSheet[];
-  /** The width-averaged profile along the line (0.5 px bins, from the start). */
+  /** The width-averaged profile along the line (0.5 px bins, from the start; bins off the image trimmed, interior gaps filled linearly). */
   profile: { startPx: number; binPx: number; values: Float64Array };
   /** The period the layers were counted with (null when none could be found). */
   periodPx: number | null;
@@ -67,6 +67,29 @@ export interface LineSheetsResult {
   lengthPx: number;
   /** A plain statement when nothing was measured, else null. */
   message: string | null;
+}
+
+/**
+ * The profile as shown and exported: bins without pixels (where the line leaves the image) trimmed
+ * from the ends, and interior empty bins filled linearly from their neighbours, so every value is a
+ * number (an empty profile stays empty).
+ */
+function finiteProfile(startPx: number, binPx: number, values: Float64Array): LineSheetsResult['profile'] {
+  let first = 0;
+  while (first < values.length && !Number.isFinite(values[first])) first++;
+  let last = values.length - 1;
+  while (last >= first && !Number.isFinite(values[last])) last--;
+  const out = values.slice(first, last + 1);
+  for (let i = 0; i < out.length; i++) {
+    if (Number.isFinite(out[i])) continue;
+    let j = i;
+    while (!Number.isFinite(out[j])) j++;
+    const a = out[i - 1];
+    const b = out[j];
+    for (let k = i; k < j; k++) out[k] = a + ((b - a) * (k - i + 1)) / (j - i + 1);
+    i = j;
+  }
+  return { startPx: startPx + first * binPx, binPx, values: out };
 }
 
 /** Periods a profile shows: up to three peaks of its periodogram standing out 8× from their two octaves. */
@@ -141,7 +164,7 @@ export function sheetsAlongLine(image: GreyImage, x0: number, y0: number, x1: nu
   }
   const frame = axisFrame(pts);
   const profile = acrossProfile(image, frame, { halfWidthPx: lengthPx / 2 });
-  const shown = { startPx: profile.startPx + lengthPx / 2, binPx: profile.binPx, values: profile.values };
+  const shown = finiteProfile(profile.startPx + lengthPx / 2, profile.binPx, profile.values);
   let periods: number[];
   let source: LineSheetsResult['periodSource'];
   if (options.periodPx !== undefined) {

@@ -358,7 +358,7 @@ export interface CombFit {
   noiseVar: number;
   /** (rssNull − rss) / noiseVar: the evidence for a stack. */
   evidence: number;
-  /** (min(rssFewer, rssMore) − rss) / noiseVar: the evidence for this count over its neighbours. */
+  /** (min(rssFewer, rssMore, rssNull) − rss) / noiseVar: the evidence for this count over its neighbours (or over no stack, when no neighbour was fitted). */
   countMargin: number;
   /** Centre of the stack (midway between first and last layer), px. */
   centerPx: number;
@@ -631,7 +631,8 @@ export function fitLayerComb(p: AcrossProfile, periodPx: number, band: { fromPx:
     rssMore,
     noiseVar,
     evidence: (rssNull - best.rss) / noiseVar,
-    countMargin: (Math.min(rssFewer, rssMore) - best.rss) / noiseVar,
+    // with no neighbouring count fitted (the profile holds no other), the margin is the evidence over no stack
+    countMargin: (Math.min(rssFewer, rssMore, rssNull) - best.rss) / noiseVar,
     centerPx: best.first + ((best.layers - 1) * d) / 2,
     thicknessPx: best.layers * d,
   };
