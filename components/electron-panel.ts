@@ -199,7 +199,7 @@ export class StrataElectronPanel extends LitElement {
       ${m.spots.length
         ? html`<table>
             <thead><tr><th>spot</th><th>d (nm)</th><th>± U (nm)</th><th>direction (°)</th><th>from</th></tr></thead>
-            <tbody>${m.spots.map((s, i) => html`<tr><td>${i + 1}</td><td>${s.dNm.toFixed(5)}</td><td>${(2 * s.uDNm).toFixed(5)}</td><td>${s.directionDeg.toFixed(2)}</td><td>${s.fromPair ? 'pair' : 'one spot'}</td></tr>`)}</tbody>
+            <tbody>${m.spots.map((s, i) => html`<tr><td>${i + 1}</td><td>${s.dNm.toFixed(5)}</td><td>${(2 * s.uDNm).toFixed(5)}</td><td>${(s.directionDeg >= 359.995 ? 0 : s.directionDeg).toFixed(2)}</td><td>${s.fromPair ? 'pair' : 'one spot'}</td></tr>`)}</tbody>
           </table>
           ${m.angles.length ? html`<p class="num">Angles (k = 2): ${m.angles.slice(0, 12).map((a) => `${a.i + 1}–${a.j + 1} ${a.angleDeg.toFixed(2)} ± ${(2 * a.uAngleDeg).toFixed(2)}°`).join('; ')}</p>` : nothing}`
         : nothing}
