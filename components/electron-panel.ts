@@ -1,4 +1,4 @@
-// The electron-diffraction side panel: the camera constant of a setting from a ring standard's
+// The electron-diffraction (SAED) side panel: the camera constant of a setting from a ring standard's
 // pattern (the image in the viewer), then the ring and spot d-spacings and the angles between
 // spots of a sample's pattern recorded at that setting, stored in the library as a diffraction
 // set (its lines join the diffraction cross-check). The work runs in the compute worker.
@@ -14,7 +14,8 @@ import type { ComputeClient } from './compute-client';
 import type { ElectronCameraResult } from './compute-protocol';
 import { controlStyles, panelStyles } from './styles';
 
-export const panelLabel = 'Electron diffraction';
+// 'SAED' (selected-area electron diffraction): a tab label that does not contain the X-ray tab's 'Diffraction'
+export const panelLabel = 'SAED';
 
 const sig = (v: number, n = 6) => Number(v.toPrecision(n)).toString();
 const pct = (rel: number) => `${sig(100 * rel, 2)} %`;
