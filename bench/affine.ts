@@ -12,6 +12,7 @@ import { measureRegion } from '../src/measure/measure-region';
 import { expressPeriod } from '../src/measure/measurement';
 import { rng } from '../testing/random';
 import { distortedLattice } from '../testing/synthetic/distorted-lattice';
+import { integerOption } from '../testing/bench-options';
 
 function table(head: string[], rows: (string | number)[][]): void {
   const cells = rows.map((r) => r.map(String));
@@ -22,14 +23,10 @@ function table(head: string[], rows: (string | number)[][]): void {
   console.log('');
 }
 
-function arg(name: string, dflt: number): number {
-  const i = process.argv.indexOf(`--${name}`);
-  return i >= 0 ? Number(process.argv[i + 1]) : dflt;
-}
 
 async function main(): Promise<void> {
-  const n = arg('n', 16);
-  const seed = arg('seed', 1);
+  const n = integerOption('n', 16);
+  const seed = integerOption('seed', 1);
   const r = rng(seed);
   const ids = ['si-110', 'si-001', 'au-001', 'graphite-001'];
   const rows: (string | number)[][] = [];

@@ -11,6 +11,7 @@ import { measureElectronPattern, type CameraSetting } from '../src/diffraction/e
 import { ringStandard, standardRings } from '../src/diffraction/electron/standards';
 import { rng } from '../testing/random';
 import { electronPattern, type PatternSpec } from '../testing/synthetic/electron-pattern';
+import { integerOption } from '../testing/bench-options';
 
 function table(head: string[], rows: (string | number)[][]): void {
   const cells = rows.map((r) => r.map(String));
@@ -21,18 +22,14 @@ function table(head: string[], rows: (string | number)[][]): void {
   console.log('');
 }
 
-function arg(name: string, dflt: number): number {
-  const i = process.argv.indexOf(`--${name}`);
-  return i >= 0 ? Number(process.argv[i + 1]) : dflt;
-}
 
 const GOLD_INTENSITY = [1, 0.6, 0.45, 0.45, 0.15, 0.1, 0.2, 0.2, 0.15, 0.1];
 /** In-plane bands of a dioctahedral clay (from memory; the check is against the rendered truth). */
 const SAMPLE_RINGS = [0.449, 0.258, 0.17, 0.1497, 0.129];
 
 function main(): void {
-  const n = arg('n', 10);
-  const seed = arg('seed', 1);
+  const n = integerOption('n', 10);
+  const seed = integerOption('seed', 1);
   const r = rng(seed);
   const rows: (string | number)[][] = [];
   const ringRows: (string | number)[][] = [];

@@ -13,6 +13,7 @@ import { LABEL_CHARACTERS, parseScaleLabel, readScaleBar } from '../src/calibrat
 import { createTextReader } from '../src/calibration/ocr';
 import { ambiguousCases, labelCases } from '../testing/synthetic/label-cases';
 import { barScene, sceneLabel, type BarSceneSpec } from '../testing/synthetic/scale-bar-scenes';
+import { integerOption } from '../testing/bench-options';
 
 function table(head: string[], rows: (string | number)[][]): void {
   const cells = rows.map((r) => r.map(String));
@@ -23,10 +24,6 @@ function table(head: string[], rows: (string | number)[][]): void {
   console.log('');
 }
 
-function arg(name: string, dflt: number): number {
-  const i = process.argv.indexOf(`--${name}`);
-  return i >= 0 ? Number(process.argv[i + 1]) : dflt;
-}
 
 function styleName(s: BarSceneSpec): string {
   const t = s.text;
@@ -64,9 +61,9 @@ async function runCase(s: BarSceneSpec, reader: Awaited<ReturnType<typeof create
 }
 
 async function main(): Promise<void> {
-  const n = arg('n', 48);
-  const seed = arg('seed', 1);
-  const heldOut = arg('held-out', 24);
+  const n = integerOption('n', 48);
+  const seed = integerOption('seed', 1);
+  const heldOut = integerOption('held-out', 24, 0);
   const reader = await createTextReader({ whitelist: LABEL_CHARACTERS });
   const t0 = performance.now();
   try {

@@ -73,12 +73,12 @@ export interface ComputeCalls {
   sheetsFind: { args: { image: GreyImage; polarity: 'dark' | 'bright'; periodPx?: number }; result: { result: AutoSheetsResult; excludedBox: [number, number, number, number] | null } };
   /** Crop: sheets along a drawn line (a copy of the image is sent); the period when known, or the image's candidates. */
   sheetsLine: { args: { image: GreyImage; line: { x0: number; y0: number; x1: number; y1: number; widthPx: number }; polarity: 'dark' | 'bright'; periodPx?: number; periods?: number[] }; result: LineSheetsResult };
-  /** Electron diffraction (issue 14): the camera constant from a copy of a ring standard's pattern (Electron diffraction panel). */
+  /** Electron diffraction (issue 14): the camera constant from a copy of a ring standard's pattern (SAED panel). */
   cameraConstant: {
     args: { image: GreyImage; standard: { id: string } | { aNm: number; uANm: number; centring: 'F' | 'I' | 'P' }; voltageKv?: number; detectorPixelUm?: number };
     result: ElectronCameraResult;
   };
-  /** Electron diffraction: ring and spot d-spacings of a copy of a sample's pattern with a camera setting (Electron diffraction panel). */
+  /** Electron diffraction: ring and spot d-spacings of a copy of a sample's pattern with a camera setting (SAED panel). */
   electronPattern: { args: { image: GreyImage; camera: CameraSetting; what: 'rings' | 'spots' | 'both' }; result: PatternMeasurement };
   /** Spot indexing: each spot's hkl and the zone axis with a structure file's text or a built-in phase (milliseconds). */
   indexSpots: { args: { spots: ZoneSpot[]; cifText?: string; cifName?: string; builtIn?: string }; result: ZoneAxisResult & { source: string } };

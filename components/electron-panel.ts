@@ -1,4 +1,4 @@
-// The electron-diffraction side panel: the camera constant of a setting from a ring standard's
+// The electron-diffraction (SAED) side panel: the camera constant of a setting from a ring standard's
 // pattern (the image in the viewer), then the ring and spot d-spacings and the angles between
 // spots of a sample's pattern recorded at that setting, stored in the library as a diffraction
 // set (its lines join the diffraction cross-check). The work runs in the compute worker.
@@ -14,7 +14,8 @@ import type { ComputeClient } from './compute-client';
 import type { ElectronCameraResult } from './compute-protocol';
 import { controlStyles, panelStyles } from './styles';
 
-export const panelLabel = 'Electron diffraction';
+// 'SAED' (selected-area electron diffraction): a tab label that does not contain the X-ray tab's 'Diffraction'
+export const panelLabel = 'SAED';
 
 const sig = (v: number, n = 6) => Number(v.toPrecision(n)).toString();
 const pct = (rel: number) => `${sig(100 * rel, 2)} %`;
@@ -199,7 +200,7 @@ export class StrataElectronPanel extends LitElement {
       ${m.spots.length
         ? html`<table>
             <thead><tr><th>spot</th><th>d (nm)</th><th>± U (nm)</th><th>direction (°)</th><th>from</th></tr></thead>
-            <tbody>${m.spots.map((s, i) => html`<tr><td>${i + 1}</td><td>${s.dNm.toFixed(5)}</td><td>${(2 * s.uDNm).toFixed(5)}</td><td>${s.directionDeg.toFixed(2)}</td><td>${s.fromPair ? 'pair' : 'one spot'}</td></tr>`)}</tbody>
+            <tbody>${m.spots.map((s, i) => html`<tr><td>${i + 1}</td><td>${s.dNm.toFixed(5)}</td><td>${(2 * s.uDNm).toFixed(5)}</td><td>${(s.directionDeg >= 359.995 ? 0 : s.directionDeg).toFixed(2)}</td><td>${s.fromPair ? 'pair' : 'one spot'}</td></tr>`)}</tbody>
           </table>
           ${m.angles.length ? html`<p class="num">Angles (k = 2): ${m.angles.slice(0, 12).map((a) => `${a.i + 1}–${a.j + 1} ${a.angleDeg.toFixed(2)} ± ${(2 * a.uAngleDeg).toFixed(2)}°`).join('; ')}</p>` : nothing}`
         : nothing}

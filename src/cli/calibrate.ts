@@ -10,7 +10,7 @@ import { decodeImage, ImageReadError } from '../image/decode';
 import type { Calibration } from '../image/grey-image';
 import { findScaleBar, type Box, type ScaleBar } from '../calibration/scale-bar';
 import { LABEL_CHARACTERS, parseScaleLabel, readScaleBar, scaleBarCalibration } from '../calibration/label';
-import { calibrateTwoAxis, fitPixelMetric, latticeSpotsOf, PROJECTED_LATTICES, type AffineCalibration } from '../calibration/affine';
+import { calibrateTwoAxis, fitPixelMetric, latticeSpotsOf, PROJECTED_LATTICES, userLattice, type AffineCalibration, type ProjectedLattice } from '../calibration/affine';
 import { compareCalibrations } from '../calibration/compare';
 import { calibrateFromStandard, type CustomSpacing, LATTICE_STANDARDS, latticeStandard, standardPeriodFromSpots, type StandardPeriod } from '../calibration/standards';
 
@@ -39,6 +39,9 @@ Options:
   --spacing D±U          ... or from a spacing of your own, nm, with its standard uncertainty
                          (e.g. 1.25±0.01; also written 1.25+-0.01); with --region and three or
                          more non-parallel spots of that spacing, two axes and shear
+  --cell D1±U1,D2±U2,ANGLE  ... or from a zone-axis cell of your own (two spacings in nm with
+                         their standard uncertainties, and the angle in degrees between their
+                         plane normals): two axes and shear, with --region
   --region X,Y,W,H       ... measured in this rectangle (px) of the image's power spectrum:
                          every spot of the strongest spot's family is used
   --period-px P          ... or with the period you measured yourself, px
@@ -153,7 +156,7 @@ export const command: CliCommand = {
   usage,
   async run(args: string[], io: CliIo): Promise<number> {
     const { positional, options, flags } = parseArgs(args, {
-      values: ['label', 'standard', 'spacing', 'region', 'period-px', 'period-uncertainty-px', 'bar-box'],
+      values: ['label', 'standard', 'spacing', 'cell', 'region', 'period-px', 'period-uncertainty-px', 'bar-box'],
       booleans: ['json', 'no-ocr', 'list-standards'],
     });
     if (flags.has('list-standards')) {
@@ -162,9 +165,12 @@ export const command: CliCommand = {
     }
     if (positional.length !== 1) throw new UsageError(`expected one IMAGE file, got ${positional.length} arguments\n${usage}`);
     const file = positional[0];
-    if (options.has('standard') && options.has('spacing')) throw new UsageError('give --standard ID or --spacing D±U, not both');
+    const given = ['standard', 'spacing', 'cell'].filter((o) => options.has(o));
+    if (given.length > 1) throw new UsageError(`give one of --standard ID, --spacing D±U or --cell D1±U1,D2±U2,ANGLE, not ${given.map((o) => `--${o}`).join(' and ')}`);
     const spacing = options.has('spacing') ? parseSpacing(options.get('spacing')!) : undefined;
-    const standardId = options.get('standard') ?? (spacing ? 'custom' : undefined);
+    const cell = options.has('cell') ? parseCell(options.get('cell')!) : undefined;
+    if (cell && !options.has('region')) throw new UsageError('--cell needs --region X,Y,W,H with two or more spots of the cell');
+    const standardId = options.get('standard') ?? (spacing ? 'custom' : cell ? 'cell' : undefined);
     if (options.has('standard')) {
       try {
         if (!PROJECTED_LATTICES.some((l) => l.id === standardId)) latticeStandard(standardId!); // unknown ids fail before any work
@@ -248,12 +254,12 @@ export const command: CliCommand = {
         const { measureRegion } = await import('../measure/measure-region');
         const m = await measureRegion(image, region, { fileName: file });
         const spots = latticeSpotsOf(m.periodicities);
-        const zone = PROJECTED_LATTICES.find((l) => l.id === standardId);
+        const zone = cell ?? PROJECTED_LATTICES.find((l) => l.id === standardId);
         if (zone) {
           try {
             twoAxis = calibrateTwoAxis(spots, zone);
           } catch (e) {
-            if (e instanceof RangeError) throw new UsageError(`--standard ${zone.id} in region ${options.get('region')}: ${e.message}`);
+            if (e instanceof RangeError) throw new UsageError(`${cell ? '--cell' : `--standard ${zone.id}`} in region ${options.get('region')}: ${e.message}`);
             throw e;
           }
         } else if (spacing) {
@@ -314,6 +320,22 @@ export const command: CliCommand = {
     return 0;
   },
 };
+
+/**
+ * A zone-axis cell as typed: "D1±U1,D2±U2,ANGLE" (nm, nm, degrees between the plane normals).
+ * @throws UsageError naming the text when it does not parse or the cell is not valid
+ */
+export function parseCell(text: string): ProjectedLattice {
+  const n = '([0-9]*\\.?[0-9]+(?:[eE][-+]?\\d+)?)';
+  const pm = '\\s*(?:±|\\+-|\\+\\/-)\\s*';
+  const m = new RegExp(`^\\s*${n}${pm}${n}\\s*,\\s*${n}${pm}${n}\\s*,\\s*${n}\\s*$`).exec(text);
+  if (!m) throw new UsageError(`--cell must be D1±U1,D2±U2,ANGLE (nm, nm, degrees), e.g. 0.3136±0.0003,0.3136±0.0003,70.53, got '${text}'`);
+  try {
+    return userLattice(Number(m[1]), Number(m[2]), Number(m[3]), Number(m[4]), Number(m[5]));
+  } catch (e) {
+    throw new UsageError(`--cell ${text}: ${(e as Error).message}`);
+  }
+}
 
 /**
  * A spacing with its standard uncertainty as typed: "1.25±0.01" or "1.25+-0.01" (nm).

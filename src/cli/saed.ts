@@ -146,7 +146,7 @@ export function formatPattern(m: PatternMeasurement, file: string): string {
   }
   if (m.spots.length) {
     L.push('', 'spots   x (px)   y (px)       d (nm)      U (nm)   direction (°)   from');
-    m.spots.forEach((s, i) => L.push(`  ${String(i + 1).padStart(3)}  ${s.x.toFixed(2).padStart(7)}  ${s.y.toFixed(2).padStart(7)}  ${s.dNm.toFixed(5).padStart(11)}  ${(2 * s.uDNm).toFixed(5).padStart(10)}  ${s.directionDeg.toFixed(2).padStart(7)} ± ${(2 * s.uDirectionDeg).toFixed(2)}   ${s.fromPair ? 'Friedel pair' : 'one spot'}`));
+    m.spots.forEach((s, i) => L.push(`  ${String(i + 1).padStart(3)}  ${s.x.toFixed(2).padStart(7)}  ${s.y.toFixed(2).padStart(7)}  ${s.dNm.toFixed(5).padStart(11)}  ${(2 * s.uDNm).toFixed(5).padStart(10)}  ${(s.directionDeg >= 359.995 ? 0 : s.directionDeg).toFixed(2).padStart(7)} ± ${(2 * s.uDirectionDeg).toFixed(2)}   ${s.fromPair ? 'Friedel pair' : 'one spot'}`));
     if (m.angles.length) {
       L.push('', 'angles between spots (k = 2)');
       for (const a of m.angles) L.push(`  ${a.i + 1}–${a.j + 1}  ${a.angleDeg.toFixed(2)} ± ${(2 * a.uAngleDeg).toFixed(2)}°`);

@@ -155,3 +155,23 @@ test('calibrate --bar-box: a bar drawn straight onto a lattice image is searched
   expect(await main(['calibrate', file, '--bar-box', '0,0,9000,10'], e.io)).toBe(2);
   expect(e.err.join('')).toMatch(/--bar-box 0,0,9000,10 reaches outside the 640 × 480 image/);
 });
+
+test('calibrate --cell: a zone-axis cell of your own gives the same two axes as the built-in Si [110]', async () => {
+  const file = join(dir, 'si110.tif'); // written by the --standard si-110 test above
+  const a = capture();
+  expect(await main(['calibrate', file, '--no-ocr', '--standard', 'si-110', '--region', '0,0,320,320', '--json'], a.io)).toBe(0);
+  const std = JSON.parse(a.out.join('')).twoAxis;
+  // Si {111}: d = a/√3 with a = 0.5431020511 nm (CODATA 2018), 70.53° between (1-11) and (1-1-1) normals
+  const d = (0.5431020511 / Math.sqrt(3)).toFixed(6);
+  const c = capture();
+  expect(await main(['calibrate', file, '--no-ocr', '--cell', `${d}±0.000001,${d}±0.000001,${((Math.acos(1 / 3) * 180) / Math.PI).toFixed(4)}`, '--region', '0,0,320,320', '--json'], c.io)).toBe(0);
+  const own = JSON.parse(c.out.join('')).twoAxis;
+  expect(own.stretchPct).toBeCloseTo(std.stretchPct, 2);
+  expect(own.shearDeg).toBeCloseTo(std.shearDeg, 2);
+  const e = capture();
+  expect(await main(['calibrate', file, '--cell', '0.3,0.3,60', '--region', '0,0,320,320'], e.io)).toBe(2);
+  expect(e.err.join('')).toMatch(/--cell must be D1±U1,D2±U2,ANGLE/);
+  const f = capture();
+  expect(await main(['calibrate', file, '--cell', '0.3±0.001,0.3±0.001,60', '--spacing', '0.3±0.001', '--region', '0,0,320,320'], f.io)).toBe(2);
+  expect(f.err.join('')).toMatch(/give one of --standard ID, --spacing D±U or --cell/);
+}, 60000);

@@ -14,7 +14,9 @@ let s: Session;
 const errors: string[] = [];
 const app = () => s.page.locator('strata-app');
 const panel = () => s.page.locator('strata-calibration-panel');
-const shot = (name: string) => s.page.screenshot({ path: process.env.SCREENSHOT_DIR ? `${process.env.SCREENSHOT_DIR}/${name}.png` : '/dev/null' });
+const shot = async (name: string) => {
+  if (process.env.SCREENSHOT_DIR) await s.page.screenshot({ path: `${process.env.SCREENSHOT_DIR}/${name}.png` });
+};
 
 async function open(name: string, mimeType: string, buffer: Buffer, width: number): Promise<void> {
   await app().locator('input.open').setInputFiles({ name, mimeType, buffer });

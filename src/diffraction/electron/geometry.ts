@@ -87,6 +87,7 @@ export interface CentreOptions {
  * radius, spread over a region) and saturated pixels (the direct beam's clipped core).
  * @param image the pattern
  * @param centre a centre estimate (the image centre when absent)
+ * @param options clipped: false keeps clipped pixels (a saturated direct beam is still centrosymmetric)
  * @returns a mask, 1 = leave out
  * Notes: a pixel is left out when it lies below a quarter of the upper quartile of its ring
  * (radius bin of 2 px about the centre; near the centre a stop may cover most of a ring, so not
@@ -94,7 +95,7 @@ export interface CentreOptions {
  * is a region, not a dark pixel), or when it holds the image's maximum and at least 8 pixels do
  * (clipping); the mask is grown by 2 px. Common practice in azimuthal integration.
  */
-export function patternMask(image: GreyImage, centre?: { cx: number; cy: number }): Uint8Array {
+export function patternMask(image: GreyImage, centre?: { cx: number; cy: number }, options: { clipped?: boolean } = {}): Uint8Array {
   const { width, height, data } = image;
   const cx = centre?.cx ?? (width - 1) / 2;
   const cy = centre?.cy ?? (height - 1) / 2;
@@ -130,7 +131,7 @@ export function patternMask(image: GreyImage, centre?: { cx: number; cy: number 
   for (let y = 0; y < height; y++) {
     for (let x = 0; x < width; x++) {
       const i = y * width + x;
-      if (atMax >= 8 && data[i] === image.max) mask[i] = 1;
+      if (options.clipped !== false && atMax >= 8 && data[i] === image.max) mask[i] = 1;
       if (!dark[i]) continue;
       let n = 0;
       let tot = 0;
@@ -212,9 +213,11 @@ export function findPatternCentre(image: GreyImage, options: CentreOptions = {})
   // the automatic mask depends on the centre (a stop's shadow is dark for its radius): found about
   // the image centre first, then again about each new centre until it settles (a stop's unmasked
   // part breaks the symmetry the search relies on)
-  let c = symmetryCentre(image, patternMask(image), work);
+  // clipped pixels are kept: a saturated direct beam is still centrosymmetric, and often the
+  // strongest symmetric feature left
+  let c = symmetryCentre(image, patternMask(image, undefined, { clipped: false }), work);
   for (let i = 0; i < 3; i++) {
-    const next = symmetryCentre(image, patternMask(image, c), work);
+    const next = symmetryCentre(image, patternMask(image, c, { clipped: false }), work);
     const moved = Math.hypot(next.cx - c.cx, next.cy - c.cy);
     c = next;
     if (moved < 0.5) break;

@@ -102,3 +102,21 @@ describe('d-spacings of a sample pattern with a calibrated camera', () => {
     expect(() => measureElectronPattern(img, camera, { what: 'lines' as never })).toThrow(/what must be/);
   });
 });
+
+test('spots under a saturated direct beam (clipped at the detector\'s maximum) are still found and paired', async () => {
+  const { makeGreyImage } = await import('../../../src/image/grey-image');
+  const a = 0.48;
+  const spec: PatternSpec = {
+    width: 448, height: 448, cx: 221.6, cy: 230.3, kInvNmPerPx: K, ellipticity: 0, majorAxisDeg: 0,
+    spots: [{ g: [2 / a, 0], intensity: 1 }, { g: [0, 2 / a], intensity: 0.8 }, { g: [2 / a, 2 / a], intensity: 0.4 }],
+    directBeam: 200000, halo: 3000, counts: 400, beamStop: null, seed: 19,
+  };
+  const raw = electronPattern(spec);
+  // a detector that saturates at 16 383 counts: the direct beam's core is flat-topped
+  const clipped = makeGreyImage(raw.width, raw.height, Float32Array.from(raw.data, (v) => Math.min(v, 16383)), { bitDepth: 32, sampleKind: 'float' });
+  const m = measureElectronPattern(clipped, { kInvNmPerPx: K, relUncertainty: 0.001, distortion: { e1: 0, e2: 0 }, detail: 'exact' }, { what: 'spots' });
+  const truths = [a / 2, a / 2, a / Math.sqrt(8)];
+  expect(m.spots.filter((s) => s.fromPair)).toHaveLength(3);
+  for (const t of new Set(truths)) expect(m.spots.filter((s) => Math.abs(s.dNm / t - 1) < 0.002).length).toBe(truths.filter((x) => x === t).length);
+  expect(Math.hypot(m.geometry.cx - spec.cx, m.geometry.cy - spec.cy)).toBeLessThan(0.2);
+});
