@@ -755,8 +755,18 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
         const better = !bestPair || key[0] > bestPair.key[0] || (key[0] === bestPair.key[0] && (key[1] > bestPair.key[1] || (key[1] === bestPair.key[1] && key[2] > bestPair.key[2])));
         if (better) bestPair = { a, b, key };
       }
-      phases.push(phaseOf(bestPair!.a, false));
-      if (bestPair!.b) phases.push(phaseOf(bestPair!.b, false));
+      let first = bestPair!.a;
+      const second = bestPair!.b;
+      if (second) {
+        // lines the second phase explains are taken from the first, which is refined again without them
+        const bAll = evaluate(w, second.t, new Set(scope), opts, true);
+        const claimed = new Set((bAll?.hkls ?? []).map((h) => h.peak));
+        const own = new Set(scope.filter((i) => !claimed.has(i)));
+        const again = own.size >= 2 ? evaluate(w, first.t, own, opts) : null;
+        if (again && again.fom.fN >= first.fom.fN && again.hkls.length >= Math.min(first.hkls.length, 2)) first = again;
+      }
+      phases.push(phaseOf(first, false));
+      if (second) phases.push(phaseOf(second, false));
       const left = strongScope.length - bestPair!.key[0];
       if (left > 0) notes.push(`${left} strong line(s) explained by no phase found`);
     }
