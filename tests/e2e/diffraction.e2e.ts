@@ -14,7 +14,7 @@ test('the demo pattern: the clay 00l lines indexed with their d budget, the 3.9 
   await s.page.setViewportSize({ width: 1366, height: 768 });
   await s.page.goto(s.url);
   const app = s.page.locator('strata-app');
-  await app.locator('[role="tab"]', { hasText: 'Diffraction' }).click();
+  await app.getByRole('tab', { name: 'Diffraction', exact: true }).click();
   const xrd = s.page.locator('strata-diffraction-panel');
   await xrd.locator('button', { hasText: 'Demo pattern' }).click();
   await expect.poll(() => xrd.evaluate((el) => ((el as unknown as { analysis: { peaks: unknown[] } | null }).analysis?.peaks.length ?? 0)), { timeout: 60_000 }).toBeGreaterThan(2);
