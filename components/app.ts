@@ -32,6 +32,12 @@ interface DemoEntry {
   kind: 'micrograph' | 'pattern';
 }
 
+/** A file a multi-file open could not read, and why. */
+interface RefusedFile {
+  fileName: string;
+  reason: string;
+}
+
 interface Message {
   text: string;
   kind: 'info' | 'error' | 'busy';
@@ -42,7 +48,12 @@ interface Tab {
   id: string;
   label: string;
   tag?: string;
+  /** The panel shows its figures in the main area beside the image (module export `panelWide`). */
+  wide?: boolean;
 }
+
+/** Narrowest window, CSS px, in which a wide panel gets the main area beside the image. */
+const WIDE_LAYOUT_MIN_PX = 1100;
 
 const ACCEPT = '.tif,.tiff,.png,.jpg,.jpeg,.mrc,.mrcs,image/tiff,image/png,image/jpeg';
 
@@ -88,6 +99,8 @@ export class StrataApp extends LitElement {
     shapes: { state: true },
     line: { state: true },
     rect: { state: true },
+    roomy: { state: true },
+    refused: { state: true },
   };
 
   image: GreyImage | null = null;
@@ -107,6 +120,12 @@ export class StrataApp extends LitElement {
   shapes: Map<string, OverlayShape[]> = new Map();
   line: LineDrawnDetail | null = null;
   rect: RectDrawnDetail | null = null;
+  /** Files refused by the last open of several files, each with its reason (shown until dismissed). */
+  refused: RefusedFile[] = [];
+  private lastOpenError = '';
+  /** The window is wide enough for a panel's figures beside the image. */
+  roomy = globalThis.innerWidth >= WIDE_LAYOUT_MIN_PX;
+  private readonly onResize = (): void => { this.roomy = globalThis.innerWidth >= WIDE_LAYOUT_MIN_PX; };
 
   private db: LibraryDb | null = null;
   private readonly compute = new ComputeClient();
@@ -121,10 +140,17 @@ export class StrataApp extends LitElement {
       .tagline { color: var(--muted); font-size: 12px; }
       .spacer { flex: 1; }
       .storage { font-size: 12px; color: var(--muted); }
-      .message { margin: 0; padding: 4px 12px; font-size: 13px; border-bottom: 1px solid var(--line); min-height: 20px; background: #141a20; }
+      /* one line, always the same height: a long message never moves the page (the whole text in its title) */
+      .message { margin: 0; padding: 4px 12px; font-size: 13px; line-height: 20px; height: 29px; box-sizing: border-box; border-bottom: 1px solid var(--line); background: #141a20;
+        white-space: nowrap; overflow: hidden; text-overflow: ellipsis; }
+      .refused { display: flex; align-items: flex-start; gap: 10px; padding: 4px 12px; background: #2a1717; color: #ffd0d0; border-bottom: 1px solid var(--line); font-size: 13px; max-height: 30vh; overflow-y: auto; }
+      .refused ul { margin: 0; padding-left: 18px; flex: 1; }
+      .refused li + li { margin-top: 3px; }
       .message.error { color: #ffb4b4; background: #2a1717; }
       .message.busy { color: var(--accent-2); }
       .work { flex: 1; display: grid; grid-template-columns: minmax(0, 1fr) minmax(360px, 28%); min-height: 0; overflow: hidden; }
+      /* a wide panel: its figures and its controls share the room beside the image */
+      .work.wide { grid-template-columns: minmax(0, 1fr) max(960px, 58%); }
       strata-viewer { min-height: 0; }
       .start { overflow-y: auto; padding: 28px 36px; border-right: 1px solid var(--line); }
       .start h2 { font-size: 16px; font-weight: 600; margin: 0 0 6px; }
@@ -150,11 +176,22 @@ export class StrataApp extends LitElement {
   override connectedCallback(): void {
     super.connectedCallback();
     void registerServiceWorker('sw.js');
+    globalThis.addEventListener('resize', this.onResize);
     this.errorLog ??= watchErrors(() => this.db);
     this.addEventListener('dragover', this.onDragOver);
     this.addEventListener('dragleave', this.onDragLeave);
     this.addEventListener('drop', this.onDrop);
     void this.start();
+  }
+
+  override disconnectedCallback(): void {
+    super.disconnectedCallback();
+    globalThis.removeEventListener('resize', this.onResize);
+  }
+
+  /** True when the active panel shows its figures beside the image now. */
+  private wideLayout(): boolean {
+    return this.roomy && !!this.image && !!this.tabs.find((t) => t.id === this.activeTab)?.wide;
   }
 
   private async start(): Promise<void> {
@@ -194,7 +231,7 @@ export class StrataApp extends LitElement {
         }
         if (!tag) continue;
         const label = typeof mod.panelLabel === 'string' ? mod.panelLabel : p.label;
-        loaded.push({ id: p.id, label, tag });
+        loaded.push({ id: p.id, label, tag, wide: mod.panelWide === true });
       } catch (e) {
         console.warn(`panel ${p.id} not loaded`, e);
       }
@@ -235,12 +272,20 @@ export class StrataApp extends LitElement {
 
   private async openFiles(files: File[]): Promise<void> {
     let last: ImageRecord | null = null;
+    const refused: RefusedFile[] = [];
     for (const f of files) {
+      this.lastOpenError = '';
       const bytes = new Uint8Array(await f.arrayBuffer());
       const rec = await this.openBytes(bytes, f.name, f.type || mimeFor(f.name));
       if (rec) last = rec;
+      else if (this.lastOpenError) refused.push({ fileName: f.name, reason: this.lastOpenError });
     }
-    if (files.length > 1 && last) this.say(`Opened ${files.length} files; showing ${last.fileName}. All are in the library.`);
+    this.refused = files.length > 1 ? refused : [];
+    if (files.length > 1) {
+      const opened = files.length - refused.length;
+      const shown = last ? ` showing ${last.fileName}; all opened are in the library.` : '';
+      this.say(`Opened ${opened} of ${files.length} files;${shown}${refused.length ? ` ${refused.length} refused: see the list below.` : ''}`, refused.length ? 'error' : 'info');
+    }
   }
 
   private async openDemo(d: DemoEntry): Promise<void> {
@@ -314,7 +359,8 @@ export class StrataApp extends LitElement {
         notKept ? 'error' : 'info');
       return record;
     } catch (e) {
-      this.say((e as Error).message || `Could not read ${fileName}.`, 'error');
+      this.lastOpenError = (e as Error).message || `Could not read ${fileName}.`;
+      this.say(this.lastOpenError, 'error');
       return null;
     }
   }
@@ -387,6 +433,8 @@ export class StrataApp extends LitElement {
     const viewer = this.viewer();
     for (const el of this.renderRoot.querySelectorAll<HTMLElement>('[data-panel]')) {
       Object.assign(el, { image: this.image, record: this.record, db: this.db, compute: this.compute, session: this.session, viewer, line: this.line, rect: this.rect });
+      // a wide panel lays its figures out beside the image only while the layout gives it the room
+      if (this.tabs.find((t) => t.id === el.dataset.panel)?.wide) el.toggleAttribute('wide', this.wideLayout() && el.dataset.panel === this.activeTab);
     }
   }
 
@@ -450,8 +498,13 @@ export class StrataApp extends LitElement {
         <span class="spacer"></span>
         ${this.renderStorage()}
       </header>
-      <p class="message ${m?.kind ?? ''}" role=${m?.kind === 'error' ? 'alert' : 'status'}>${m?.text ?? ''}</p>
-      <div class="work">
+      <p class="message ${m?.kind ?? ''}" role=${m?.kind === 'error' ? 'alert' : 'status'} title=${m?.text ?? ''}>${m?.text ?? ''}</p>
+      ${this.refused.length
+        ? html`<div class="refused" role="region" aria-label="Files not opened">
+            <ul>${this.refused.map((r) => html`<li><b>${r.fileName}</b>: ${r.reason}</li>`)}</ul>
+            <button @click=${() => (this.refused = [])} aria-label="Dismiss the list of files not opened">Dismiss</button></div>`
+        : nothing}
+      <div class=${this.wideLayout() ? 'work wide' : 'work'}>
         ${this.image
           ? html`<strata-viewer .image=${this.image} .levels=${this.levels} .histogram=${this.histogram} .shapes=${this.shapes.get(this.activeTab) ?? []}
               @line-drawn=${(e: CustomEvent<LineDrawnDetail>) => (this.line = e.detail)}
