@@ -101,6 +101,18 @@ export class StrataDiffractionPanel extends LitElement {
   private patternText: string | null = null;
   private fileName: string | null = null;
 
+  constructor() {
+    super();
+    // the shell hands over a pattern opened from the start screen: {fileName, text}
+    this.addEventListener('open-pattern', (e) => {
+      const d = (e as CustomEvent<{ fileName?: string; text?: string }>).detail;
+      if (typeof d?.text !== 'string') return;
+      this.patternText = d.text;
+      this.fileName = d.fileName ?? null;
+      void this.analyse();
+    });
+  }
+
   private emit(type: string, detail: unknown): void {
     this.dispatchEvent(new CustomEvent(type, { detail, bubbles: true, composed: true }));
   }
