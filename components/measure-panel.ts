@@ -7,7 +7,6 @@ import { calibrationPartsText } from '../src/calibration/calibration';
 import { angleBetweenDeg, ringPeriodicity, type Spot } from '../src/measure/spectrum';
 import { spotPeriodicity } from '../src/measure/spot-near';
 import { withTableSpots } from '../src/measure/session';
-import { measurementsCsv, measurementsJson } from '../src/measure/export';
 import { toolOf } from '../src/measure/tools';
 import { periodLabel } from '../src/figure/shapes';
 import type { WindowKind } from '../src/measure/window';
@@ -16,10 +15,11 @@ import type { ImageRecord } from '../src/store/records';
 import type { LibraryDb } from '../src/store/schema';
 import type { ComputeClient } from './compute-client';
 import type { FilterView, ProfileEstimator, ProfileView, SpectrumSettings, SpectrumView } from './compute-protocol';
-import { download } from './download';
 import { profilePlot, radialPlot } from '../src/figure/period-plots';
 import { placeLabels, textWidthEstimate, type Box } from '../src/figure/labels';
 import './plot';
+import './export-menu';
+import type { PlotData } from '../src/figure/plot';
 import { controlStyles } from './styles';
 import type { LineDrawnDetail, OverlayShape, RectDrawnDetail, StrataViewer } from './viewer';
 
@@ -413,16 +413,6 @@ export class StrataMeasurePanel extends LitElement {
     if (this.profile && (this.profile.spectral || this.profile.realSpace)) out.push(this.forLibrary(this.profile.measurement));
     if (this.spectrum) out.push(this.forLibrary(this.spectrumRecord(this.spectrum)));
     return out;
-  }
-
-  /** Exports the tab's results through the one CSV writer or the one JSON form (src/measure/export.ts). */
-  private exportResults(kind: 'csv' | 'json'): void {
-    const records = this.currentRecords();
-    if (!records.length) return;
-    const base = this.fileStem();
-    if (kind === 'csv') download(`${base}-periods.csv`, measurementsCsv(records, { k: this.coverageK }), 'text/csv');
-    else download(`${base}-periods.json`, `${JSON.stringify(measurementsJson(records, this.coverageK), null, 2)}\n`, 'application/json');
-    this.say(`${records.length} result${records.length === 1 ? '' : 's'} exported as ${kind.toUpperCase()} (± with k = ${this.coverageK}).`);
   }
 
   private async save(m: Measurement, done: (text: string) => void): Promise<void> {
@@ -948,15 +938,22 @@ export class StrataMeasurePanel extends LitElement {
     return (this.record?.fileName ?? 'periods').replace(/\.[^.]+$/, '').replace(/[^A-Za-z0-9._-]+/g, '_');
   }
 
-  /** Export of the tab's results (the profile and the region's spots) through the one CSV writer and JSON form. */
+  /** The plots of the tab's results, as the report draws them. */
+  private currentPlots(): PlotData[] {
+    const cal = this.image?.calibration ?? null;
+    const out: PlotData[] = [];
+    if (this.profile && this.profile.mean.length >= 2) out.push(profilePlot(this.profile, cal, this.profileLine?.widthPx ?? 1));
+    if (this.spectrum && this.spectrum.radialFrequencyPerPx.length > 3) out.push(radialPlot(this.spectrum, cal, 0.5 / this.zoom));
+    return out;
+  }
+
+  /** Export of the tab's results (the profile and the region's spots) through the one export menu. */
   private renderExport() {
     const any = (this.profile && (this.profile.spectral || this.profile.realSpace)) || this.spectrum;
     if (!any) return nothing;
     return html`<section aria-labelledby="h-export"><h2 id="h-export">Export</h2>
-      <div class="row">
-        <button class="export-csv" @click=${() => this.exportResults('csv')} title="One row per period: px with its uncertainty parts, nm with every part, combined and expanded (k as chosen above), direction, strength">Export CSV</button>
-        <button class="export-json" @click=${() => this.exportResults('json')} title="The records as the library keeps them (px and parts, calibration, settings), with each period's budget in nm">Export JSON</button>
-      </div></section>`;
+      <strata-export-menu .records=${this.currentRecords()} .plots=${this.currentPlots()} .k=${this.coverageK}
+        .fileName=${this.record?.fileName ?? ''} .compute=${this.compute} .session=${this.session}></strata-export-menu></section>`;
   }
 
   override disconnectedCallback(): void {
