@@ -14,6 +14,8 @@ import {
   type StorageEstimate,
 } from '../src/store/library';
 import type { ImageRecord } from '../src/store/records';
+import { canRedo, canUndo, currentState, getHistory, newHistory, pushStep, putHistory, redoStep, undoStep, type ImageHistory, type WorkState } from '../src/store/history';
+import './undo-control';
 import type { LibraryDb } from '../src/store/schema';
 import { ComputeClient } from './compute-client';
 import type { GreyHistogram } from '../src/image/display';
@@ -101,6 +103,7 @@ export class StrataApp extends LitElement {
     rect: { state: true },
     roomy: { state: true },
     refused: { state: true },
+    history: { state: true },
   };
 
   image: GreyImage | null = null;
@@ -120,6 +123,10 @@ export class StrataApp extends LitElement {
   shapes: Map<string, OverlayShape[]> = new Map();
   line: LineDrawnDetail | null = null;
   rect: RectDrawnDetail | null = null;
+  /** Undo history of the image on screen (kept in the library with the image). */
+  history: ImageHistory | null = null;
+  /** True while a state from the history is being restored (no new steps are recorded). */
+  private restoring = false;
   /** Files refused by the last open of several files, each with its reason (shown until dismissed). */
   refused: RefusedFile[] = [];
   private lastOpenError = '';
@@ -177,6 +184,7 @@ export class StrataApp extends LitElement {
     super.connectedCallback();
     void registerServiceWorker('sw.js');
     globalThis.addEventListener('resize', this.onResize);
+    document.addEventListener('keydown', this.onKeyDown);
     this.errorLog ??= watchErrors(() => this.db);
     this.addEventListener('dragover', this.onDragOver);
     this.addEventListener('dragleave', this.onDragLeave);
@@ -187,6 +195,7 @@ export class StrataApp extends LitElement {
   override disconnectedCallback(): void {
     super.disconnectedCallback();
     globalThis.removeEventListener('resize', this.onResize);
+    document.removeEventListener('keydown', this.onKeyDown);
   }
 
   /** True when the active panel shows its figures beside the image now. */
@@ -348,6 +357,8 @@ export class StrataApp extends LitElement {
       this.shapes = new Map();
       this.line = null;
       this.rect = null;
+      this.history = null;
+      void this.startHistory(record, image.calibration);
       // The measuring engine (opencv.js, about 11 MB) starts in the worker while the user looks.
       this.warming ??= this.compute.call('warmUp', {}).then(
         (r) => { this.dataset.engine = r.opencvVersion; },
@@ -385,6 +396,9 @@ export class StrataApp extends LitElement {
   private async onCalibrationChanged(calibration: Calibration | null): Promise<void> {
     if (!this.image) return;
     this.image = { ...this.image, calibration };
+    if (!this.restoring) {
+      this.recordStep(calibration ? `calibration ${calibration.nmPerPx.toPrecision(4)} nm/px (${calibration.source})` : 'calibration removed', (st) => ({ ...st, calibration }));
+    }
     // the worker's records take the new calibration too; nothing is measured again
     if (this.session) void this.compute.call('recalibrate', { sessionId: this.session, calibration }).catch((e) => this.say((e as Error).message, 'error'));
     if (this.db && this.record) {
@@ -413,12 +427,98 @@ export class StrataApp extends LitElement {
       case 'calibration-changed': void this.onCalibrationChanged(detail?.calibration ?? null); break;
       case 'library-changed': this.libraryRevision++; void this.refreshStorage(); break;
       case 'open-image': void this.openStored(String(detail?.id)); break;
+      case 'history-step': {
+        const id = (e.target as HTMLElement | null)?.dataset?.panel;
+        if (id && !this.restoring) this.recordStep(String(detail?.label ?? 'change'), (st) => ({ ...st, panels: { ...st.panels, [id]: detail?.state ?? null } }));
+        break;
+      }
     }
+  };
+
+  // ---------------------------------------------------------------- undo and redo
+
+  /** Starts the image's history: the stored one (its current state restored), or a new one. */
+  private async startHistory(record: ImageRecord | null, calibration: Calibration | null): Promise<void> {
+    const fresh = (id: string) => newHistory(id, { calibration, panels: {} });
+    if (!record || !this.db) {
+      this.history = fresh('unsaved');
+      return;
+    }
+    let h: ImageHistory | null = null;
+    try {
+      h = await getHistory(this.db, record.id);
+    } catch {
+      h = null;
+    }
+    if (this.record?.id !== record.id) return; // another image was opened meanwhile
+    if (!h) {
+      this.history = fresh(record.id);
+      this.saveHistory();
+      return;
+    }
+    this.history = h;
+    await this.updateComplete;
+    this.restorePanels(currentState(h));
+  }
+
+  /** Records a step: the state after it is `change` of the current one. */
+  private recordStep(label: string, change: (state: WorkState) => WorkState): void {
+    const h = this.history;
+    if (!h) return;
+    this.history = pushStep(h, label, change(currentState(h)));
+    this.saveHistory();
+  }
+
+  private saveHistory(): void {
+    const h = this.history;
+    if (!h || !this.db || h.imageId === 'unsaved') return;
+    void putHistory(this.db, h).catch((e) => this.say(`The undo history could not be kept: ${(e as Error).message}`, 'error'));
+  }
+
+  /** Hands each panel that keeps a state its state from the history (null: none recorded). */
+  private restorePanels(state: WorkState): void {
+    for (const [id, el] of this.panelElements) {
+      const p = el as HTMLElement & { restoreState?: (s: unknown) => void };
+      if (typeof p.restoreState === 'function') p.restoreState(state.panels[id] ?? null);
+    }
+  }
+
+  /** Undo (-1) or redo (+1): moves along the history and restores the state there. */
+  private async moveInHistory(direction: -1 | 1): Promise<void> {
+    const h = this.history;
+    if (!h) return;
+    const moved = direction < 0 ? undoStep(h) : redoStep(h);
+    if (!moved) return;
+    const label = 'undone' in moved ? `Undone: ${moved.undone}.` : `Redone: ${moved.redone}.`;
+    this.history = moved.history;
+    this.saveHistory();
+    const state = currentState(moved.history);
+    this.restoring = true;
+    try {
+      if (JSON.stringify(state.calibration) !== JSON.stringify(this.image?.calibration ?? null)) await this.onCalibrationChanged(state.calibration);
+      await this.updateComplete;
+      this.restorePanels(state);
+    } finally {
+      this.restoring = false;
+    }
+    this.say(label);
+  }
+
+  private readonly onKeyDown = (e: KeyboardEvent): void => {
+    if (!(e.ctrlKey || e.metaKey) || e.altKey) return;
+    const key = e.key.toLowerCase();
+    if (key !== 'z' && key !== 'y') return;
+    const target = e.composedPath()[0] as HTMLElement | undefined;
+    // text fields keep their own undo
+    if (target && (target.tagName === 'INPUT' || target.tagName === 'TEXTAREA' || target.isContentEditable)) return;
+    if (!this.image) return;
+    e.preventDefault();
+    void this.moveInHistory(key === 'y' || e.shiftKey ? 1 : -1);
   };
 
   protected override firstUpdated(): void {
     const aside = this.renderRoot.querySelector('aside');
-    for (const t of ['status-message', 'overlay-shapes', 'calibration-changed', 'library-changed', 'open-image']) {
+    for (const t of ['status-message', 'overlay-shapes', 'calibration-changed', 'library-changed', 'open-image', 'history-step']) {
       aside?.addEventListener(t, this.onPanelEvent);
       if (t === 'status-message') this.renderRoot.querySelector('.work')?.addEventListener(t, this.onPanelEvent);
     }
@@ -495,6 +595,9 @@ export class StrataApp extends LitElement {
         <input class="open" type="file" multiple accept=${ACCEPT}
           @change=${(e: Event) => { const i = e.target as HTMLInputElement; const files = [...(i.files ?? [])]; i.value = ''; void this.openFiles(files); }}>
         ${this.image ? html`<button @click=${() => { this.closeSession(); this.image = null; this.record = null; this.message = null; }} title="Back to the start screen">Close image</button>` : nothing}
+        ${this.image ? html`<strata-undo-control .undoLabel=${canUndo(this.history) ? this.history!.steps[this.history!.index].label : ''}
+          .redoLabel=${canRedo(this.history) ? this.history!.steps[this.history!.index + 1].label : ''}
+          @undo=${() => void this.moveInHistory(-1)} @redo=${() => void this.moveInHistory(1)}></strata-undo-control>` : nothing}
         <span class="spacer"></span>
         ${this.renderStorage()}
       </header>

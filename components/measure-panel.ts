@@ -53,6 +53,18 @@ interface TableSpot extends Spot {
   budgeting?: boolean;
 }
 
+/** What the panel keeps in the image's undo history: the line, the region, the spot table and the settings. */
+interface PeriodsState {
+  line: LineDrawnDetail | null;
+  rect: RectDrawnDetail | null;
+  spots: TableSpot[];
+  selected: number[];
+  windowKind: WindowKind;
+  alpha: number;
+  estimator: ProfileEstimator;
+  coverageK: number;
+}
+
 const WINDOW_HELP: Record<WindowKind, string> = {
   hann: 'Hann window: strong taper, low leakage from the region edges; the default for finding spots.',
   tukey: 'Tukey window (half the region tapered): narrower spots than Hann, a little more edge leakage.',
@@ -288,6 +300,77 @@ export class StrataMeasurePanel extends LitElement {
     this.savedSpectrum = '';
   }
 
+  /** The panel's state for the undo history (plain JSON). */
+  workState(): PeriodsState {
+    const plain = <T>(v: T): T => (v === null ? v : JSON.parse(JSON.stringify(v)) as T);
+    return {
+      line: plain(this.profileLine), rect: plain(this.spectrumRect),
+      spots: plain(this.spots.filter((t) => !t.budgeting)), selected: [...this.selected],
+      windowKind: this.windowKind, alpha: this.alpha, estimator: this.estimator, coverageK: this.coverageK,
+    };
+  }
+
+  /** Records a step of the image's undo history (the shell keeps it with the image). */
+  private step(label: string): void {
+    if (this.restoring > 0) return;
+    this.dispatchEvent(new CustomEvent('history-step', { detail: { label, state: this.workState() }, bubbles: true, composed: true }));
+  }
+
+  /** Restores in progress (a result that arrives for one of them records no step). */
+  private restoring = 0;
+
+  /**
+   * Shows a state from the undo history again: the settings, the profile along its line and the
+   * region's spectrum with the spot table as it was (the region's transform is cached in the
+   * worker; spots keep their numbers and budgets). Null clears the results.
+   */
+  async restoreState(state: unknown): Promise<void> {
+    await this.updateComplete;
+    const st = state as PeriodsState | null;
+    this.restoring++;
+    try {
+      if (!st) {
+        this.resetResults();
+        this.sendShapes();
+        return;
+      }
+      this.windowKind = st.windowKind;
+      this.alpha = st.alpha;
+      this.estimator = st.estimator;
+      this.coverageK = st.coverageK;
+      const same = (a: unknown, b: unknown) => JSON.stringify(a) === JSON.stringify(b);
+      const jobs: Promise<void>[] = [];
+      if (!st.line) {
+        this.profileRun++;
+        this.profile = null;
+        this.profileLine = null;
+        this.profileError = '';
+      } else if (!same(st.line, this.profileLine) || !this.profile) {
+        if (st.line.widthPx) this.widthPx = Math.round(st.line.widthPx);
+        jobs.push(this.runProfile(st.line));
+      }
+      if (!st.rect) {
+        this.spectrumRun++;
+        this.spectrum = null;
+        this.spectrumRect = null;
+        this.spots = [];
+        this.selected = [];
+        this.filtered = null;
+      } else if (!same(st.rect, this.spectrumRect) || !this.spectrum) {
+        jobs.push(this.runSpectrum(st.rect, st));
+      } else {
+        this.spots = st.spots;
+        this.selected = st.selected;
+        this.nextSpot = Math.max(0, ...st.spots.map((t) => t.n)) + 1;
+        this.filtered = null;
+      }
+      await Promise.all(jobs);
+      this.sendShapes();
+    } finally {
+      this.restoring--;
+    }
+  }
+
   private say(text: string, kind: 'info' | 'error' = 'info'): void {
     this.dispatchEvent(new CustomEvent('status-message', { detail: { text, kind }, bubbles: true, composed: true }));
   }
@@ -382,6 +465,7 @@ export class StrataMeasurePanel extends LitElement {
       });
       if (run !== this.profileRun) return;
       this.profile = result;
+      this.step(`profile line ${result.lengthPx.toFixed(0)} px`);
     } catch (e) {
       if (run !== this.profileRun) return;
       this.profile = null;
@@ -433,7 +517,7 @@ export class StrataMeasurePanel extends LitElement {
     return { window: this.windowKind, tukeyAlpha: 0.5, alpha: this.alpha };
   }
 
-  private async runSpectrum(rect: RectDrawnDetail): Promise<void> {
+  private async runSpectrum(rect: RectDrawnDetail, table: Pick<PeriodsState, 'spots' | 'selected'> | null = null): Promise<void> {
     const image = this.image;
     if (!image || !this.compute) return;
     const run = ++this.spectrumRun;
@@ -458,10 +542,18 @@ export class StrataMeasurePanel extends LitElement {
       if (run !== this.spectrumRun) return;
       this.spectrum = result;
       this.nextSpot = 1;
-      this.spots = result.spots.map((s) => ({ ...s, n: this.nextSpot++, added: false }));
-      this.selected = this.spots.length ? [this.spots[0].n] : [];
+      if (table) {
+        // a state from the undo history: the spot table as it was
+        this.spots = table.spots;
+        this.selected = table.selected;
+        this.nextSpot = Math.max(0, ...table.spots.map((t) => t.n)) + 1;
+      } else {
+        this.spots = result.spots.map((s) => ({ ...s, n: this.nextSpot++, added: false }));
+        this.selected = this.spots.length ? [this.spots[0].n] : [];
+      }
       this.crosshair = null;
       this.zoom = this.autoZoom();
+      this.step(`region ${rect.width} × ${rect.height} px`);
     } catch (e) {
       if (run !== this.spectrumRun) return;
       this.spectrum = null;
@@ -588,6 +680,7 @@ export class StrataMeasurePanel extends LitElement {
       if (run !== this.spectrumRun || !this.spots.some((x) => x.n === t.n)) return;
       this.spots = this.spots.map((x) => (x.n === t.n ? { ...full, n: t.n, added: true } : x));
       this.timelineMark = ['strata-spot-budgeted', 'strata-spot-click-to-budget'];
+      this.step(`spot #${t.n} added`);
       this.say(`Spot #${t.n} added: d ${this.dText(full.periodPx, this.image?.calibration ?? null, full.angleDeg, 'normal')}, ${full.angleDeg.toFixed(1)}°.`);
     } catch (e) {
       this.spots = this.spots.map((x) => (x.budgeting ? { ...x, budgeting: false } : x));
@@ -605,6 +698,7 @@ export class StrataMeasurePanel extends LitElement {
     this.selected = this.selected.filter((k) => k !== n);
     this.filtered = null;
     this.savedSpectrum = '';
+    this.step(`spot #${n} removed`);
   }
 
   /** Lays the Fourier-filtered region over the micrograph (or removes it) in the viewer. */

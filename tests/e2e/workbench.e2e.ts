@@ -141,3 +141,42 @@ test('the report opens offline with its figure and tables and prints to at most 
   await page.close();
   expect(errors).toEqual([]);
 });
+
+test('undo and redo a spot removal; the history is kept with the image and comes back when it is reopened', async () => {
+  const spots = () => panel().evaluate((el) => (el as unknown as { spots: { n: number }[] }).spots.map((t) => t.n));
+  const before = await spots();
+  expect(before).toContain(1);
+  await flow('undo and redo', async () => {
+    await panel().locator('tbody tr', { hasText: '#1' }).first().locator('button', { hasText: '×' }).click();
+    await expect.poll(spots).not.toContain(1);
+    const undo = s.page.locator('strata-undo-control button.undo');
+    expect(await undo.getAttribute('title')).toMatch(/Undo: spot #1 removed/);
+    await undo.click();
+    await expect.poll(spots).toEqual(before);
+    await expect.poll(() => s.page.locator('strata-app .message').textContent()).toMatch(/Undone: spot #1 removed/);
+    // redo from the keyboard
+    await s.page.locator('strata-app h1').click();
+    await s.page.keyboard.press('Control+Shift+Z');
+    await expect.poll(spots).not.toContain(1);
+  });
+  await s.page.screenshot({ path: join(dir, 'after-redo.png') });
+  // reload the app and open the image again from the library: the last state is shown again
+  await s.page.reload();
+  const app = s.page.locator('strata-app');
+  await app.locator('[role="tab"]', { hasText: 'Periods' }).waitFor(); // the panels are loaded
+  await app.locator('[role="tab"]', { hasText: 'Library' }).click();
+  await s.page.screenshot({ path: join(dir, 'library-after-reload.png') });
+  await app.locator('button[aria-label="Open tactoid-fringes_hr.tif"]').click();
+  await app.locator('[role="tab"]', { hasText: 'Periods' }).click();
+  await expect.poll(async () => (await spots()).length, { timeout: 60_000 }).toBe(before.length - 1);
+  expect(await spots()).not.toContain(1);
+  await expect.poll(() => panel().evaluate((el) => !!(el as unknown as { profile: unknown }).profile), { timeout: 60_000 }).toBe(true);
+  await expect.poll(() => panel().evaluate((el) => !!(el as unknown as { spectrum: unknown }).spectrum), { timeout: 60_000 }).toBe(true);
+  // and the removal can still be undone
+  await s.page.locator('strata-undo-control button.undo').click();
+  await expect.poll(spots).toEqual(before);
+  // the undo moved back one step and recorded none
+  expect(await app.evaluate((el) => (el as unknown as { history: { index: number; steps: unknown[] } }).history.index)).toBe(2);
+  await s.page.screenshot({ path: join(dir, 'reopened-undone.png') });
+  expect(errors).toEqual([]);
+});
