@@ -57,7 +57,15 @@ interface Tab {
 /** Narrowest window, CSS px, in which a wide panel gets the main area beside the image. */
 const WIDE_LAYOUT_MIN_PX = 1100;
 
-const ACCEPT = '.tif,.tiff,.png,.jpg,.jpeg,.mrc,.mrcs,image/tiff,image/png,image/jpeg';
+const ACCEPT = '.tif,.tiff,.png,.jpg,.jpeg,.mrc,.mrcs,image/tiff,image/png,image/jpeg,.cif,.xy,.xye,.dat,.asc';
+
+/** Files that go to the diffraction panel rather than the viewer: structure files and powder patterns. */
+function diffractionFileKind(fileName: string): 'structure' | 'pattern' | null {
+  const ext = fileName.toLowerCase().split('.').pop() ?? '';
+  if (ext === 'cif') return 'structure';
+  if (ext === 'xy' || ext === 'xye' || ext === 'dat' || ext === 'asc') return 'pattern';
+  return null;
+}
 
 function formatBytes(n: number): string {
   if (n < 1048576) return `${(n / 1024).toFixed(0)} kB`;
@@ -81,8 +89,12 @@ function mimeFor(fileName: string): string {
  * holds the image: send it with a region or a line, never pixels), `viewer` (the StrataViewer),
  * `line` (LineDrawnDetail | null) and `rect` (RectDrawnDetail | null), and may send the events `status-message` {text, kind},
  * `overlay-shapes` {shapes}, `calibration-changed` {calibration} and `library-changed`.
- * The diffraction panel (id `diffraction`) also receives an `open-pattern` event {fileName, text}
- * on its element when the user opens a demo pattern from the start screen.
+ * The diffraction panel (id `diffraction`) also receives an `open-pattern` event {fileName, text,
+ * accepted} on its element when the user opens a pattern (a demo card, or an .xy/.xye/.dat/.asc
+ * file), and `open-structure` {fileName, text, accepted} for a .cif structure file; it sets
+ * `accepted` to true when it takes the file. A panel with `panelWide` exported gets the main area
+ * beside the image (attribute `wide`); a panel may send `history-step` {label, state} and offer
+ * `restoreState(state)` to take part in undo and redo.
  */
 export class StrataApp extends LitElement {
   static override properties = {
@@ -284,6 +296,12 @@ export class StrataApp extends LitElement {
     const refused: RefusedFile[] = [];
     for (const f of files) {
       this.lastOpenError = '';
+      const kind = diffractionFileKind(f.name);
+      if (kind) {
+        const reason = await this.handToDiffraction(kind, f.name, await f.text());
+        if (reason) refused.push({ fileName: f.name, reason });
+        continue;
+      }
       const bytes = new Uint8Array(await f.arrayBuffer());
       const rec = await this.openBytes(bytes, f.name, f.type || mimeFor(f.name));
       if (rec) last = rec;
@@ -309,6 +327,28 @@ export class StrataApp extends LitElement {
   }
 
   /**
+   * Hands a structure file (`open-structure`) or a powder pattern (`open-pattern`) to the
+   * diffraction panel as an event {fileName, text, accepted: false} on its element and shows that
+   * panel; the panel sets `accepted` to true when it takes the file.
+   * @returns null when taken, else why not (for the list of refused files)
+   */
+  private async handToDiffraction(kind: 'structure' | 'pattern', fileName: string, text: string): Promise<string | null> {
+    const tab = this.tabs.find((t) => t.id === 'diffraction');
+    if (!tab) return 'no diffraction panel in this build';
+    this.activeTab = 'diffraction';
+    await this.updateComplete;
+    const detail = { fileName, text, accepted: false };
+    this.panelElements.get('diffraction')?.dispatchEvent(new CustomEvent(kind === 'structure' ? 'open-structure' : 'open-pattern', { detail }));
+    if (!detail.accepted) {
+      const why = kind === 'structure' ? 'the diffraction panel of this version does not take structure files yet (the command line does)' : 'the diffraction panel did not take the pattern';
+      this.say(`${fileName}: ${why}.`, 'error');
+      return why;
+    }
+    this.say(`${fileName}: handed to the ${tab.label} panel as a ${kind === 'structure' ? 'structure file' : 'powder pattern'}.`);
+    return null;
+  }
+
+  /**
    * Hands a demo pattern to the diffraction panel as an `open-pattern` event {fileName, text}
    * dispatched on the panel's element, and shows that panel.
    */
@@ -316,11 +356,8 @@ export class StrataApp extends LitElement {
     try {
       const res = await fetch(`demo/${d.file}`);
       if (!res.ok) throw new Error(`demo file ${d.file} is missing (${res.status})`);
-      const text = await res.text();
-      this.activeTab = 'diffraction';
-      await this.updateComplete;
-      this.panelElements.get('diffraction')?.dispatchEvent(new CustomEvent('open-pattern', { detail: { fileName: d.file, text } }));
-      this.say(`${d.title}: handed to the ${this.tabs.find((t) => t.id === 'diffraction')?.label ?? 'diffraction'} panel.`);
+      const why = await this.handToDiffraction('pattern', d.file, await res.text());
+      if (why) throw new Error(why);
     } catch (e) {
       this.say(`Could not open the demo ${d.title}: ${(e as Error).message}`, 'error');
     }
@@ -557,6 +594,7 @@ export class StrataApp extends LitElement {
       <h2>Open a micrograph</h2>
       <p>TEM and STEM images as TIFF (8, 16 or 32-bit), PNG, JPEG or MRC. The pixel size is read from the file where it is stored;
         otherwise calibrate from the scale bar, a lattice spacing of a known standard, or an instrument profile.
+        Powder patterns (.xy, .xye, .dat, .asc) and structure files (.cif) open in the diffraction panel.
         Everything stays in this browser and works without a network.</p>
       <div class=${this.dragging ? 'drop on' : 'drop'}>
         Drop image files here, or <button @click=${() => this.renderRoot.querySelector<HTMLInputElement>('input.open')?.click()}>choose files…</button>

@@ -1,0 +1,55 @@
+// Flows of the shell: the start screen's diffraction card opens its pattern in the diffraction
+// panel; opening several files at once lists each refused file with its reason; a structure file
+// is handed to the diffraction panel (or refused by name while that panel cannot take one).
+import { readFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { afterAll, beforeAll, expect, test } from 'vitest';
+import { openSession, type Session, nextFrames, artefactDir } from './browser';
+
+let s: Session;
+const errors: string[] = [];
+const dir = artefactDir('flows');
+const app = () => s.page.locator('strata-app');
+
+beforeAll(async () => {
+  s = await openSession();
+  s.page.on('pageerror', (e) => errors.push(String(e)));
+  await s.page.setViewportSize({ width: 1366, height: 768 });
+  await s.page.goto(s.url);
+  await app().locator('[role="tab"]', { hasText: 'Periods' }).waitFor();
+});
+afterAll(async () => {
+  await s?.close();
+});
+
+test('the diffraction card on the start screen opens its pattern in the diffraction panel', async () => {
+  await app().locator('button.demo', { hasText: 'powder XRD' }).click();
+  const panel = s.page.locator('strata-diffraction-panel');
+  await expect.poll(() => panel.evaluate((el) => !!(el as unknown as { analysis: unknown }).analysis), { timeout: 60_000 }).toBe(true);
+  expect(await app().locator('[role="tab"][aria-selected="true"]').textContent()).toMatch(/Diffraction/);
+  await nextFrames(s.page);
+  await s.page.screenshot({ path: join(dir, 'diffraction-card.png') });
+});
+
+test('opening several files lists each refused file with its reason', async () => {
+  const png = readFileSync(join('dist', 'demo', 'lamellar-mesophase.png'));
+  await app().locator('input.open').setInputFiles([
+    { name: 'notes.tif', mimeType: 'image/tiff', buffer: Buffer.from('this is not a TIFF file at all') },
+    { name: 'mesophase.png', mimeType: 'image/png', buffer: png },
+  ]);
+  const list = app().locator('.refused li');
+  await expect.poll(() => list.count(), { timeout: 30_000 }).toBe(1);
+  expect(await list.first().textContent()).toMatch(/^notes\.tif: .+/);
+  expect(await app().locator('.message').textContent()).toMatch(/Opened 1 of 2 files/);
+  await s.page.screenshot({ path: join(dir, 'refused-files.png') });
+  await app().locator('.refused button', { hasText: 'Dismiss' }).click();
+  expect(await list.count()).toBe(0);
+});
+
+test('a structure file goes to the diffraction panel, which takes it or is named as not taking it', async () => {
+  const cif = 'data_test\n_cell_length_a 5.0\n_cell_length_b 5.0\n_cell_length_c 10.0\n_cell_angle_alpha 90\n_cell_angle_beta 90\n_cell_angle_gamma 90\n';
+  await app().locator('input.open').setInputFiles([{ name: 'layered.cif', mimeType: 'chemical/x-cif', buffer: Buffer.from(cif) }]);
+  await expect.poll(() => app().locator('.message').textContent()).toMatch(/layered\.cif: (handed to the Diffraction panel as a structure file|the diffraction panel of this version does not take structure files yet)/);
+  expect(await app().locator('[role="tab"][aria-selected="true"]').textContent()).toMatch(/Diffraction/);
+  expect(errors).toEqual([]);
+});
