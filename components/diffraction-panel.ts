@@ -103,10 +103,11 @@ export class StrataDiffractionPanel extends LitElement {
 
   constructor() {
     super();
-    // the shell hands over a pattern opened from the start screen: {fileName, text}
+    // the shell hands over a pattern opened from the start screen or a file: {fileName, text, accepted}
     this.addEventListener('open-pattern', (e) => {
-      const d = (e as CustomEvent<{ fileName?: string; text?: string }>).detail;
+      const d = (e as CustomEvent<{ fileName?: string; text?: string; accepted?: boolean }>).detail;
       if (typeof d?.text !== 'string') return;
+      d.accepted = true;
       this.patternText = d.text;
       this.fileName = d.fileName ?? null;
       void this.analyse();
