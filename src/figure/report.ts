@@ -11,7 +11,9 @@ import { displayLimits, reduceForDisplay, stretchToGrey } from '../image/display
 import { calibrationPartsText } from '../calibration/calibration';
 import { budgetContents, checkCoverageFactor, expressPeriod, formatPlusMinus, UNCERTAINTY_PARTS, UNCERTAINTY_PART_WORDS, type Measurement } from '../measure/measurement';
 import { toolOf } from '../measure/tools';
-import { escapeXml, roundScaleBar } from './batch-figure';
+import { escapeXml, histogramSvg, roundScaleBar } from './batch-figure';
+import { pooledStats } from '../batch/export';
+import type { FileResult } from '../batch/run';
 import { plotSvg, type PlotData } from './plot';
 import type { FigureShape } from './shapes';
 
@@ -260,6 +262,98 @@ ${budgetTable(records, k)}
 <h2>Program and recipe</h2>
 <p>${esc(input.software)}. Each result was made with:</p>
 ${recipeSection(records)}
+<p class="caution"><b>Caution.</b> ${esc(REPORT_CAUTION)}</p>
+</body></html>
+`;
+}
+
+/** What a batch report is made of. */
+export interface BatchReportInput {
+  /** The batch's file results, in the order to list them. */
+  results: readonly FileResult[];
+  /** The recipe the batch ran (shown as it was given). */
+  recipe: unknown;
+  /** Program name and version, e.g. "Stratameter 0.1.0". */
+  software: string;
+  /** Coverage factor of every ± (default 2). */
+  k?: number;
+  /** Time the batch started, ISO 8601. */
+  createdIso?: string;
+  /** A name for the batch (default "batch"). */
+  title?: string;
+}
+
+/** Fewest values a mean, a standard deviation or a histogram is given for; fewer are listed. */
+export const MIN_VALUES_FOR_STATISTICS = 3;
+
+/**
+ * The report of a batch as one self-contained HTML document that prints to A4: file counts, the
+ * pooled strongest period (the one pooling rule) and the distributions, with histograms only
+ * from 3 values up (fewer are listed one by one), a row per file with its calibration and
+ * periods, the uncertainty statement, the program and the recipe, and the caution.
+ *
+ * @param input the results, the recipe, the program
+ * @returns the HTML text
+ * @throws RangeError naming a bad coverage factor
+ * Reference: pooling as pooledStats (DerSimonian–Laird random effects); GUM (JCGM 100:2008, §7.2.3).
+ */
+export function batchReportHtml(input: BatchReportInput): string {
+  const k = checkCoverageFactor(input.k ?? 2);
+  const results = input.results;
+  const pooled = pooledStats([...results], k);
+  const ok = results.filter((r) => r.status === 'ok');
+  const tops = ok.flatMap((r) => (r.summary.topPeriods[0] && r.calibration ? [{ file: r.file, b: expressPeriod(r.summary.topPeriods[0], r.calibration, k) }] : []));
+  const sheets = ok.flatMap((r) => r.summary.sheetThicknessNm);
+  const few = (values: number[], unit: string) => `${values.map((v) => Number(v.toPrecision(4))).join(', ')} ${unit} (n = ${values.length}: too few for a mean, a standard deviation or a histogram)`;
+  const stats: string[] = [];
+  if (tops.length) {
+    const t = pooled.topPeriodNm;
+    stats.push(tops.length >= MIN_VALUES_FOR_STATISTICS && t
+      ? `<p>Strongest period per image: mean ${Number(t.mean.toPrecision(4))} nm, sd ${Number(t.sd.toPrecision(2))} nm, median ${Number(t.median.toPrecision(4))} nm (n = ${t.n}).</p>`
+      : `<p>Strongest period per image: ${esc(few(tops.map((x) => x.b.value), 'nm'))}.</p>`);
+    if (pooled.pooledTopPeriod) {
+      const p = pooled.pooledTopPeriod;
+      stats.push(`<p>Pooled over the images: <b>${formatPlusMinus(p.budget.value, p.budget.expanded)} ${p.budget.unit}</b> (k = ${k}; ${esc(budgetContents(p.budget))}; n = ${p.n}${Number.isFinite(p.birgeRatio) ? `, Birge ratio ${p.birgeRatio.toFixed(2)}` : ''}).</p>`);
+    }
+  }
+  if (sheets.length) {
+    const t = pooled.sheetThicknessNm;
+    stats.push(sheets.length >= MIN_VALUES_FOR_STATISTICS && t
+      ? `<p>Sheets: ${pooled.sheetCount ?? sheets.length}, thickness mean ${t.mean.toFixed(2)} nm, sd ${t.sd.toFixed(2)} nm, median ${t.median.toFixed(2)} nm.</p>`
+      : `<p>Sheet thickness: ${esc(few(sheets, 'nm'))}.</p>`);
+  }
+  const hists: string[] = [];
+  if (tops.length >= MIN_VALUES_FOR_STATISTICS) hists.push(histogramSvg(tops.map((x) => x.b.value), { xLabel: 'strongest period (nm)', title: 'Strongest period per image' }));
+  if (sheets.length >= MIN_VALUES_FOR_STATISTICS) hists.push(histogramSvg(sheets, { xLabel: 'sheet thickness (nm)', title: 'Sheet thickness, all images' }));
+  const rows = results.map((r) => {
+    if (r.status === 'failed') return `<tr><td>${esc(r.file)}</td><td colspan="4">not measured: ${esc(r.reason ?? 'failed')}</td></tr>`;
+    const c = r.calibration;
+    const periods = c ? r.summary.topPeriods.map((p) => { const b = expressPeriod(p, c, k); return `${formatPlusMinus(b.value, b.expanded)} nm`; }).join('<br>') : r.summary.topPeriods.map((p) => `${p.periodPx.toPrecision(4)} px`).join('<br>');
+    return `<tr><td>${esc(r.file)}</td><td>${c ? `${c.nmPerPx.toPrecision(4)} (${esc(CALIBRATION_SOURCE_WORDS[c.source] ?? c.source)})` : 'none'}</td><td class="n">${periods || '–'}</td>
+      <td class="n">${r.summary.sheetCount ?? '–'}</td><td class="n">${r.summary.sheetThicknessNm.length ? r.summary.sheetThicknessNm.length >= MIN_VALUES_FOR_STATISTICS ? `${r.summary.meanThicknessNm!.toFixed(2)} (sd ${r.summary.sdThicknessNm!.toFixed(2)})` : r.summary.sheetThicknessNm.map((v) => v.toFixed(2)).join(', ') : '–'}</td></tr>`;
+  });
+  const title = input.title ?? 'batch';
+  const contains = [...new Set(tops.map((x) => budgetContents(x.b)))];
+  return `<!doctype html>
+<html lang="en"><head><meta charset="utf-8"><meta name="viewport" content="width=device-width, initial-scale=1">
+<title>${esc(`Batch report: ${title}`)}</title>
+<style>${PRINT_CSS}
+.hists { display: grid; grid-template-columns: 1fr 1fr; gap: 3mm; } .hists svg { width: 100%; height: auto; }
+pre { font-size: 8pt; white-space: pre-wrap; background: #f4f4f4; padding: 2mm; }</style></head>
+<body>
+<h1>${esc(`Batch report: ${title}`)}</h1>
+<p class="meta">${esc(input.software)} · ${input.createdIso ? `batch of ${esc(input.createdIso)} · ` : ''}${results.length} files: ${pooled.files.ok} measured, ${pooled.files.failed} not measured</p>
+<h2>Summary</h2>
+${stats.join('\n') || '<p>No period or sheet was found in any file.</p>'}
+${hists.length ? `<div class="hists">${hists.join('')}</div>` : ''}
+<h2>Files</h2>
+<table class="results"><thead><tr><th>file</th><th>nm/px (source)</th><th>strongest periods ± U (k = ${k})</th><th>sheets</th><th>thickness (nm)</th></tr></thead>
+<tbody>${rows.join('')}</tbody></table>
+<h2>Uncertainty</h2>
+<p>Every ± is the expanded uncertainty U = k·u with coverage factor k = ${k}, after the GUM (JCGM 100:2008)${contains.length ? `; per image it contains the ${esc(contains.join(' / '))} parts` : ''}. The pooled period is a random-effects mean of the images' own parts, with the method and calibration parts added once (they are shared); a Birge ratio well above 1 says the images disagree beyond their stated uncertainties. Each file's calibration and its source are in the table.</p>
+<h2>Program and recipe</h2>
+<p>${esc(input.software)}. The recipe every file was measured with:</p>
+<pre>${esc(JSON.stringify(input.recipe, null, 2))}</pre>
 <p class="caution"><b>Caution.</b> ${esc(REPORT_CAUTION)}</p>
 </body></html>
 `;
