@@ -928,7 +928,7 @@ export class StrataMeasurePanel extends LitElement {
       <div class="table-wrap"><table>
         <thead><tr><th scope="col" title="Selected spots are used for the angle between two spots and for the Fourier filter">use</th><th scope="col">spot</th>
           <th scope="col">d-spacing</th><th scope="col">angle</th>
-          <th scope="col" title="Spot power over the local background of the power spectrum">strength</th><th scope="col"><span class="visually-hidden">remove</span></th></tr></thead>
+          <th scope="col" title="Spot power over the local background of the power spectrum">power</th><th scope="col"><span class="visually-hidden">remove</span></th></tr></thead>
         <tbody>${rows}</tbody></table></div>
       ${this.budgetNote(this.spots)}
       ${pair.length === 2
