@@ -2,7 +2,8 @@
  * `<strata-plot>`: an interactive plot of a PlotData (src/figure/plot.ts) drawn by uPlot.
  *
  * Zoom: drag across the plot (x), the mouse wheel, or + and − when focused; pan: Shift-drag, or
- * Shift + ←/→; reset: double-click, 0 or the Reset button. The readout under the plot gives the
+ * Shift + ←/→; reset: double-click, 0 or the Reset button; Enlarge shows it large in a modal
+ * dialog (Escape closes it). The readout under the plot gives the
  * values at the cursor in the axes' units (←/→ move the cursor sample by sample when focused).
  * Export: SVG and PNG of the view (the core's plotSvg, the same figure the report and the command
  * line draw) and CSV of the data; the data table below is the plot's text alternative.
@@ -40,6 +41,7 @@ export class StrataPlot extends LitElement {
     fileStem: { type: String, attribute: 'file-stem' },
     readout: { state: true },
     tableOpen: { state: true },
+    enlarged: { state: true },
   };
 
   data: PlotData | null = null;
@@ -47,6 +49,8 @@ export class StrataPlot extends LitElement {
   fileStem = 'plot';
   readout = '';
   tableOpen = false;
+  /** Shown large in a modal dialog over the page (any panel's plot, at a readable size). */
+  enlarged = false;
 
   private chart: uPlot | null = null;
   private resizer: ResizeObserver | null = null;
@@ -63,6 +67,10 @@ export class StrataPlot extends LitElement {
       .chart:focus-visible { box-shadow: 0 0 0 2px var(--focus); }
       .readout { font-size: 12px; color: var(--muted); min-height: 18px; margin: 3px 0 0; font-variant-numeric: tabular-nums; white-space: nowrap; overflow: hidden; text-overflow: ellipsis; }
       .hint { font-size: 11px; color: var(--muted); }
+      dialog.big { width: min(1400px, 94vw); max-width: none; max-height: 94vh; box-sizing: border-box; padding: 12px 16px;
+        background: var(--panel, #161d24); color: var(--text); border: 1px solid var(--line); border-radius: 4px; }
+      dialog.big::backdrop { background: rgba(0, 0, 0, 0.65); }
+      .elsewhere { font-size: 12px; color: var(--muted); border: 1px dashed var(--line); border-radius: 3px; padding: 16px; text-align: center; }
       details { font-size: 12px; margin-top: 2px; }
       details .scroll { max-height: 220px; overflow: auto; }
       table { border-collapse: collapse; font-variant-numeric: tabular-nums; }
@@ -100,7 +108,16 @@ export class StrataPlot extends LitElement {
   }
 
   protected override updated(changed: PropertyValues<this>): void {
-    if (changed.has('data') || changed.has('heightPx')) this.build();
+    if (changed.has('enlarged')) {
+      const d = this.renderRoot.querySelector<HTMLDialogElement>('dialog.big');
+      if (d && !d.open) d.showModal();
+      this.build();
+      this.renderRoot.querySelector<HTMLElement>('.chart')?.focus();
+    } else if (changed.has('data') || changed.has('heightPx')) this.build();
+  }
+
+  private plotHeightPx(): number {
+    return this.enlarged ? Math.max(300, Math.min(820, Math.floor(globalThis.innerHeight * 0.94) - 150)) : this.heightPx;
   }
 
   private host(): HTMLElement | null {
@@ -108,11 +125,12 @@ export class StrataPlot extends LitElement {
   }
 
   private widthPx(): number {
+    if (this.enlarged) return Math.max(300, Math.floor(Math.min(1400, globalThis.innerWidth * 0.94)) - 36);
     return Math.max(200, Math.floor(this.getBoundingClientRect().width) - 2);
   }
 
   private fit(): void {
-    if (this.chart) this.chart.setSize({ width: this.widthPx(), height: this.heightPx });
+    if (this.chart) this.chart.setSize({ width: this.widthPx(), height: this.plotHeightPx() });
   }
 
   /** The data in uPlot's form: x and each trace as plain arrays, NaN as a gap. */
@@ -134,7 +152,7 @@ export class StrataPlot extends LitElement {
     });
     const opts: uPlot.Options = {
       width: this.widthPx(),
-      height: this.heightPx,
+      height: this.plotHeightPx(),
       legend: { show: false },
       cursor: { drag: { x: true, y: false, setScale: true }, points: { size: 6 } },
       scales: { x: { time: false } },
@@ -293,7 +311,8 @@ export class StrataPlot extends LitElement {
     switch (e.key) {
       case '+': case '=': this.zoomAbout(this.cursorIdx >= 0 ? p.x[this.cursorIdx] : mid, 0.8); break;
       case '-': case '_': this.zoomAbout(this.cursorIdx >= 0 ? p.x[this.cursorIdx] : mid, 1.25); break;
-      case '0': case 'Escape': this.resetView(); break;
+      case '0': this.resetView(); break;
+      case 'Escape': if (this.enlarged) return; this.resetView(); break;
       case 'ArrowLeft': case 'ArrowRight': {
         if (e.shiftKey) { this.pan(e.key === 'ArrowLeft' ? -0.1 : 0.1); break; }
         let i = this.cursorIdx < 0 ? Math.floor(n / 2) : this.cursorIdx + (e.key === 'ArrowLeft' ? -1 : 1);
@@ -342,20 +361,28 @@ export class StrataPlot extends LitElement {
   override render() {
     const p = this.data;
     if (!p) return nothing;
-    return html`
-      <div class="bar">
+    const bar = html`<div class="bar">
         <h3>${p.title}</h3>
         <button @click=${() => this.resetView()} title="Show the whole x range (0, Escape, or a double-click on the plot)">Reset view</button>
         <button @click=${() => void this.export('svg')} title="The plot as shown, as an SVG figure">SVG</button>
         <button @click=${() => void this.export('png')} title="The plot as shown, as a PNG picture (2× for print)">PNG</button>
         <button @click=${() => void this.export('csv')} title="The plotted data as CSV, units in the header">CSV</button>
-      </div>
+        ${this.enlarged
+          ? html`<button class="shrink" @click=${() => this.renderRoot.querySelector<HTMLDialogElement>('dialog.big')?.close()} title="Back to the panel (Escape)">Close</button>`
+          : html`<button class="enlarge" @click=${() => (this.enlarged = true)} title="Show the plot large, over the page">Enlarge</button>`}
+      </div>`;
+    const chart = html`
       <div class="chart" tabindex="0" role="img" aria-roledescription="plot"
         aria-label=${`${p.title}. ${p.description} Keys: left and right arrows read the values sample by sample, plus and minus zoom, Shift with an arrow pans, 0 resets. The data table follows the plot.`}
         @keydown=${this.onKey}></div>
-      <p class="readout" aria-live="polite">${this.readout || html`<span class="hint">Drag to zoom · wheel zooms · Shift-drag pans · double-click resets</span>`}</p>
-      <details @toggle=${(e: Event) => (this.tableOpen = (e.target as HTMLDetailsElement).open)}>
+      <p class="readout" aria-live="polite">${this.readout || html`<span class="hint">Drag to zoom · wheel zooms · Shift-drag pans · double-click resets</span>`}</p>`;
+    const table = html`<details @toggle=${(e: Event) => (this.tableOpen = (e.target as HTMLDetailsElement).open)}>
         <summary>Data table (${p.x.length} rows)</summary>${this.renderTable(p)}</details>`;
+    if (this.enlarged) {
+      return html`<div class="bar"><h3>${p.title}</h3></div><p class="elsewhere">Shown enlarged.</p>
+        <dialog class="big" aria-label=${p.title} @close=${() => (this.enlarged = false)}>${bar}${chart}${table}</dialog>`;
+    }
+    return html`${bar}${chart}${table}`;
   }
 
   protected override firstUpdated(): void {

@@ -29,6 +29,14 @@ test('the diffraction card on the start screen opens its pattern in the diffract
   expect(await app().locator('[role="tab"][aria-selected="true"]').textContent()).toMatch(/Diffraction/);
   await nextFrames(s.page);
   await s.page.screenshot({ path: join(dir, 'diffraction-card.png') });
+  // the pattern is in the shared plot element: enlarged over the page it is read at full width
+  const plot = panel.locator('strata-plot');
+  await plot.locator('button.enlarge').click();
+  const big = (await plot.locator('dialog .chart').boundingBox())!;
+  expect(big.width).toBeGreaterThanOrEqual(1000);
+  await s.page.screenshot({ path: join(dir, 'diffraction-enlarged.png') });
+  await s.page.keyboard.press('Escape');
+  await expect.poll(() => plot.locator('dialog').count()).toBe(0);
 });
 
 test('opening several files lists each refused file with its reason', async () => {
