@@ -247,6 +247,9 @@ export class StrataMeasurePanel extends LitElement {
       .between { padding: 4px 6px; border-left: 2px solid var(--accent-2); margin: 4px 0; }
       .toggle { display: inline-flex; gap: 2px; }
       .empty { color: var(--muted); padding: 12px 0; }
+      details.typed { margin: 2px 0 6px; font-size: 12px; }
+      details.typed summary { color: var(--muted); cursor: pointer; }
+      details.typed input { width: 11em; }
     `,
   ];
 
@@ -779,7 +782,48 @@ export class StrataMeasurePanel extends LitElement {
       ${tools.map(([t, label, hint]) => html`<button aria-pressed=${this.activeTool === t ? 'true' : 'false'} title=${hint} ?disabled=${!this.viewer} @click=${() => this.setTool(t)}>${label}</button>`)}
       <label title="Averaging width across the profile line, in pixels. Wider lines lower the noise but blur fringes that are not perpendicular to the line.">width
         <input class="width" type="number" min="1" max="512" step="1" .value=${String(this.widthPx)} @change=${this.setWidth} aria-label="Profile width in pixels"> px</label>
-    </div>`;
+    </div>
+    <details class="typed"><summary>Type a region or a line (image px)</summary>
+      <div class="row"><label>region x, y, width, height
+        <input class="typed-rect" placeholder="250, 250, 160, 160" aria-label="Region: left, top, width and height in image pixels"
+          @keydown=${(e: KeyboardEvent) => { if (e.key === 'Enter') this.measureTyped('rect'); }}></label>
+        <button @click=${() => this.measureTyped('rect')}>Measure region</button></div>
+      <div class="row"><label>line x0, y0, x1, y1
+        <input class="typed-line" placeholder="240, 380, 420, 280" aria-label="Profile line: start x, start y, end x, end y in image pixels (width as set above)"
+          @keydown=${(e: KeyboardEvent) => { if (e.key === 'Enter') this.measureTyped('line'); }}></label>
+        <button @click=${() => this.measureTyped('line')}>Measure line</button></div>
+    </details>`;
+  }
+
+  /**
+   * Measures a region or a line typed in image pixels (the keyboard's way to the two tools, and a
+   * way to repeat a measurement exactly); a value outside the image is refused by name.
+   */
+  private measureTyped(kind: 'rect' | 'line'): void {
+    const image = this.image;
+    const input = this.renderRoot.querySelector<HTMLInputElement>(kind === 'rect' ? 'input.typed-rect' : 'input.typed-line');
+    if (!image || !input) return;
+    const v = input.value.split(/[\s,;]+/).filter(Boolean).map(Number);
+    if (v.length !== 4 || v.some((n) => !Number.isFinite(n))) {
+      this.say(`Type four numbers for the ${kind === 'rect' ? 'region (x, y, width, height)' : 'line (x0, y0, x1, y1)'}, got "${input.value}".`, 'error');
+      return;
+    }
+    if (kind === 'rect') {
+      const [x, y, width, height] = v.map(Math.round);
+      if (x < 0 || y < 0 || width < 1 || height < 1 || x + width > image.width || y + height > image.height) {
+        this.say(`The region ${x}, ${y}, ${width} × ${height} px does not lie inside the ${image.width} × ${image.height} px image.`, 'error');
+        return;
+      }
+      void this.runSpectrum({ x, y, width, height });
+    } else {
+      const [x0, y0, x1, y1] = v;
+      const bad = [['x0', x0, image.width], ['y0', y0, image.height], ['x1', x1, image.width], ['y1', y1, image.height]].find(([, n, max]) => (n as number) < 0 || (n as number) > (max as number) - 1);
+      if (bad) {
+        this.say(`${bad[0]} = ${bad[1]} lies outside the ${image.width} × ${image.height} px image.`, 'error');
+        return;
+      }
+      void this.runProfile({ x0, y0, x1, y1, widthPx: this.widthPx });
+    }
   }
 
   private renderSettings() {

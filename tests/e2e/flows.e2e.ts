@@ -61,3 +61,22 @@ test('a structure file goes to the diffraction panel, which takes it or is named
   expect(await app().locator('[role="tab"][aria-selected="true"]').textContent()).toMatch(/Diffraction/);
   expect(errors).toEqual([]);
 });
+
+test('the keyboard alone measures a region typed in image pixels', async () => {
+  // the mesophase demo opened by the multi-file test above: a lamellar fingerprint pattern of 3.9 nm period
+  await app().locator('[role="tab"]', { hasText: 'Periods' }).click();
+  const panel = s.page.locator('strata-measure-panel');
+  await panel.locator('details.typed summary').focus();
+  await s.page.keyboard.press('Enter'); // opens the details
+  await panel.locator('input.typed-rect').focus();
+  await s.page.keyboard.type('200, 200, 256, 256');
+  await s.page.keyboard.press('Enter');
+  await expect.poll(() => panel.evaluate((el) => (el as unknown as { spots: unknown[] }).spots.length), { timeout: 60_000 }).toBeGreaterThan(0);
+  expect(await panel.evaluate((el) => (el as unknown as { spectrumRect: unknown }).spectrumRect)).toEqual({ x: 200, y: 200, width: 256, height: 256 });
+  // a region outside the image is refused by name
+  await panel.locator('input.typed-rect').fill('700, 700, 256, 256');
+  await s.page.keyboard.press('Enter');
+  await expect.poll(() => app().locator('.message').textContent()).toMatch(/does not lie inside the 768 × 768 px image/);
+  await s.page.screenshot({ path: join(dir, 'typed-region.png') });
+  expect(errors).toEqual([]);
+});
