@@ -199,6 +199,8 @@ export class StrataMeasurePanel extends LitElement {
       :host([wide]) .side { grid-area: side; overflow-y: auto; padding: 4px 12px 24px; min-height: 0; border-left: 1px solid var(--line); }
       :host([wide]) .stage { grid-area: stage; overflow-y: auto; min-height: 0; padding: 8px 8px 16px; background: var(--bg, #0f1419); }
       .stage { display: flex; flex-direction: column; gap: 14px; }
+      /* the last tool's figure and numbers come first: no scroll anchoring, and both columns start at the top */
+      .stage, .side { overflow-anchor: none; }
       .stage h3 { margin: 0 0 4px; color: var(--text); font-size: 13px; }
       .stage-empty { color: var(--muted); max-width: 36em; padding: 24px 8px; line-height: 1.5; }
       .stage-empty p { margin: 0 0 10px; }
@@ -1118,8 +1120,11 @@ export class StrataMeasurePanel extends LitElement {
     this.stageObserver.observe(stage);
   }
 
-  protected override updated(): void {
+  protected override updated(changed: PropertyValues<this>): void {
     this.observeStage();
+    if (changed.has('lastDrawn') && changed.get('lastDrawn') !== undefined) {
+      for (const el of this.renderRoot.querySelectorAll<HTMLElement>('.stage, .side')) el.scrollTop = 0;
+    }
     this.syncViewerOverlay();
     if (this.timelineMark) {
       // the clicked spot's numbers (or its full budget) are in the table now: on the performance timeline

@@ -108,7 +108,8 @@ export class StrataPlot extends LitElement {
   }
 
   protected override updated(changed: PropertyValues<this>): void {
-    if (changed.has('enlarged')) {
+    if (changed.has('enlarged') && changed.get('enlarged') !== undefined) {
+      // a real toggle (not the first render): into or out of the dialog, the chart keeps the focus
       const d = this.renderRoot.querySelector<HTMLDialogElement>('dialog.big');
       if (d && !d.open) d.showModal();
       this.build();

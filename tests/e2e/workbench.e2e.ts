@@ -89,6 +89,9 @@ test('a profile line: its plot is ≥ 600 px wide, reads the value under the cur
   const plot = panel().locator('strata-plot.profile-plot');
   const pb = (await plot.boundingBox())!;
   expect(pb.width).toBeGreaterThanOrEqual(600);
+  // the last tool's figure comes first, its top on screen (nothing scrolled it away)
+  expect(pb.y).toBeGreaterThanOrEqual(60);
+  expect(pb.y + 300).toBeLessThanOrEqual(768);
   // keyboard: focus the plot, step the cursor, read the value in the axis' unit; zoom in and back
   await plot.locator('.chart').focus();
   await s.page.keyboard.press('ArrowRight');
