@@ -196,7 +196,7 @@ export class StrataMeasurePanel extends LitElement {
       /* wide: figures in the main area (left), controls and key numbers in the side column (right) */
       :host([wide]) { display: grid; grid-template-columns: minmax(0, 1fr) 340px; grid-template-rows: minmax(0, 1fr); grid-template-areas: 'stage side';
         padding: 0; flex: 1 1 auto; min-height: 0; overflow: hidden; }
-      :host([wide]) .side { grid-area: side; overflow-y: auto; padding: 4px 12px 24px; min-height: 0; border-left: 1px solid var(--line); }
+      :host([wide]) .side { grid-area: side; overflow-y: auto; padding: 4px 8px 24px 10px; min-height: 0; border-left: 1px solid var(--line); }
       :host([wide]) .stage { grid-area: stage; overflow-y: auto; min-height: 0; padding: 8px 8px 16px; background: var(--bg, #0f1419); }
       .stage { display: flex; flex-direction: column; gap: 14px; }
       /* the last tool's figure and numbers come first: no scroll anchoring, and both columns start at the top */
@@ -237,7 +237,7 @@ export class StrataMeasurePanel extends LitElement {
       svg.marks .cross { stroke: #9fd3e6; stroke-width: 1; }
       svg.marks text { fill: #ffe9a8; font-size: 12px; paint-order: stroke; stroke: #000; stroke-width: 2.5px; }
       .table-wrap { overflow-x: auto; max-width: 100%; }
-      table { border-collapse: collapse; width: 100%; font-size: 12px; margin: 4px 0; }
+      table { border-collapse: collapse; width: 100%; font-size: 11.5px; margin: 4px 0; }
       th, td { padding: 2px 2px; text-align: right; border-bottom: 1px solid var(--line); white-space: nowrap; }
       th { color: var(--muted); font-weight: normal; }
       th:first-child, td:first-child { text-align: center; }
@@ -965,7 +965,7 @@ export class StrataMeasurePanel extends LitElement {
           ${t.flags.length ? html`<div class="flag" title="A spot with a doubt is never ranked first">${t.flags.join(', ')}</div>` : nothing}
           ${t.budgeting ? html`<div class="note busy" role="status" title="Refining the spot where its fringes are; until then its ± holds the statistical part (and the calibration)">budgeting…</div>` : nothing}</td>
         <td class="num">${formatPlusMinus(t.angleDeg, this.coverageK * t.uAngleDeg, 2)}°</td>
-        <td class="num">${t.normalisedPower.toPrecision(3)}</td>
+        <td class="num">${t.normalisedPower >= 100 ? Math.round(t.normalisedPower) : t.normalisedPower.toPrecision(3)}</td>
         <td><button @click=${() => this.removeSpot(t.n)} aria-label=${`Remove spot ${t.n}`} title="Remove this spot from the table">×</button></td>
       </tr>`;
     });
