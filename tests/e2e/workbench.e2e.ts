@@ -183,3 +183,28 @@ test('undo and redo a spot removal; the history is kept with the image and comes
   await s.page.screenshot({ path: join(dir, 'reopened-undone.png') });
   expect(errors).toEqual([]);
 });
+
+test('calibrate: a typed pixel size re-expresses the periods; undo brings back the file\'s calibration', async () => {
+  const app = s.page.locator('strata-app');
+  const d = async () => Number(((await panel().locator('tbody tr').first().locator('.dnm').textContent()) ?? '').split('±')[0]);
+  expect(Math.abs((await d()) - 1.25)).toBeLessThan(0.02);
+  await flow('calibrate', async () => {
+    await app.locator('[role="tab"]', { hasText: 'Calibration' }).click();
+    const cal = s.page.locator('strata-calibration-panel');
+    const typed = cal.locator('section', { has: s.page.locator('label', { hasText: 'nm/px' }) }).last();
+    await typed.locator('label', { hasText: 'nm/px' }).locator('input').fill('0.1');
+    await typed.locator('label', { hasText: '± %' }).locator('input').fill('2');
+    await typed.locator('button', { hasText: 'Compute' }).click();
+    await cal.locator('button', { hasText: 'Use for this image' }).click();
+    await app.locator('[role="tab"]', { hasText: 'Periods' }).click();
+    // 25 px at 0.1 nm/px
+    await expect.poll(d).toBeCloseTo(2.5, 1);
+  });
+  expect(await s.page.locator('strata-undo-control button.undo').getAttribute('title')).toMatch(/Undo: calibration 0\.1000 nm\/px/);
+  await s.page.locator('strata-undo-control button.undo').click();
+  await expect.poll(d).toBeCloseTo(1.25, 1);
+  await s.page.locator('strata-undo-control button.redo').click();
+  await expect.poll(d).toBeCloseTo(2.5, 1);
+  await s.page.screenshot({ path: join(dir, 'calibrated-redone.png') });
+  expect(errors).toEqual([]);
+});
