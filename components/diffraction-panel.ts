@@ -103,6 +103,15 @@ export class StrataDiffractionPanel extends LitElement {
       this.fileName = d.fileName ?? null;
       void this.analyse();
     });
+    // a structure file opened or dropped on the app: {fileName, text, accepted}, used for spot indexing
+    this.addEventListener('open-structure', (e) => {
+      const d = (e as CustomEvent<{ fileName?: string; text?: string; accepted?: boolean }>).detail;
+      if (typeof d?.text !== 'string') return;
+      d.accepted = true;
+      this.cifText = d.text;
+      this.cifName = d.fileName ?? 'structure.cif';
+      this.zonePhase = 'file';
+    });
   }
 
   private emit(type: string, detail: unknown): void {

@@ -54,11 +54,14 @@ test('opening several files lists each refused file with its reason', async () =
   expect(await list.count()).toBe(0);
 });
 
-test('a structure file goes to the diffraction panel, which takes it or is named as not taking it', async () => {
+test('a structure file goes to the diffraction panel, for its spot indexing', async () => {
   const cif = 'data_test\n_cell_length_a 5.0\n_cell_length_b 5.0\n_cell_length_c 10.0\n_cell_angle_alpha 90\n_cell_angle_beta 90\n_cell_angle_gamma 90\n';
   await app().locator('input.open').setInputFiles([{ name: 'layered.cif', mimeType: 'chemical/x-cif', buffer: Buffer.from(cif) }]);
-  await expect.poll(() => app().locator('.message').textContent()).toMatch(/layered\.cif: (handed to the Diffraction panel as a structure file|the diffraction panel of this version does not take structure files yet)/);
+  await expect.poll(() => app().locator('.message').textContent()).toMatch(/layered\.cif: handed to the Diffraction panel as a structure file/);
   expect(await app().locator('[role="tab"][aria-selected="true"]').textContent()).toMatch(/Diffraction/);
+  // the panel's spot indexing now uses it
+  const panel = s.page.locator('strata-diffraction-panel');
+  expect(await panel.evaluate((el) => [(el as unknown as { cifName: string }).cifName, (el as unknown as { zonePhase: string }).zonePhase])).toEqual(['layered.cif', 'file']);
   expect(errors).toEqual([]);
 });
 
