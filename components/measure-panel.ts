@@ -131,6 +131,7 @@ export class StrataMeasurePanel extends LitElement {
     stageWidthPx: { state: true },
     stageHeightPx: { state: true },
     lastDrawn: { state: true },
+    typedOpen: { state: true },
   };
 
   image: GreyImage | null = null;
@@ -176,6 +177,8 @@ export class StrataMeasurePanel extends LitElement {
   stageWidthPx = 330;
   stageHeightPx = 400;
   private stageObserver: ResizeObserver | null = null;
+  /** Whether the fields for a typed region or line are shown (only then are they in the page). */
+  typedOpen = false;
   /** The tool used last: its results and figure come first. */
   lastDrawn: 'profile' | 'spectrum' = 'spectrum';
 
@@ -785,7 +788,8 @@ export class StrataMeasurePanel extends LitElement {
       <label title="Averaging width across the profile line, in pixels. Wider lines lower the noise but blur fringes that are not perpendicular to the line.">width
         <input class="width" type="number" min="1" max="512" step="1" .value=${String(this.widthPx)} @change=${this.setWidth} aria-label="Profile width in pixels"> px</label>
     </div>
-    <details class="typed"><summary>Type a region or a line (image px)</summary>
+    <details class="typed" @toggle=${(e: Event) => (this.typedOpen = (e.target as HTMLDetailsElement).open)}><summary>Type a region or a line (image px)</summary>
+      ${this.typedOpen ? html`
       <div class="row"><label>region x, y, width, height
         <input class="typed-rect" placeholder="250, 250, 160, 160" aria-label="Region: left, top, width and height in image pixels"
           @keydown=${(e: KeyboardEvent) => { if (e.key === 'Enter') this.measureTyped('rect'); }}></label>
@@ -793,7 +797,7 @@ export class StrataMeasurePanel extends LitElement {
       <div class="row"><label>line x0, y0, x1, y1
         <input class="typed-line" placeholder="240, 380, 420, 280" aria-label="Profile line: start x, start y, end x, end y in image pixels (width as set above)"
           @keydown=${(e: KeyboardEvent) => { if (e.key === 'Enter') this.measureTyped('line'); }}></label>
-        <button @click=${() => this.measureTyped('line')}>Measure line</button></div>
+        <button @click=${() => this.measureTyped('line')}>Measure line</button></div>` : nothing}
     </details>`;
   }
 
