@@ -89,6 +89,12 @@ const handlers: Handlers = {
   spotBudget: async ({ sessionId, rect, settings, spot }) => ({ spot: await session.spotBudgetIn(sessionOf(sessionId), rect, settings, spot) }),
   filter: ({ sessionId, rect, spots, displayPx }) => session.filterIn(sessionOf(sessionId), rect, spots, displayPx),
   sessionStats: ({ sessionId }) => ({ ...sessionOf(sessionId).stats }),
+  imageReport: async ({ sessionId, form, fileName, records, plots, k, software }) => {
+    const { imageReportHtml, imageFigureSvg, recordShapes } = await import('../src/figure/report');
+    const { image } = sessionOf(sessionId);
+    if (form === 'svg') return { text: imageFigureSvg(image, recordShapes(records), image.calibration, 2048) };
+    return { text: imageReportHtml({ image, fileName, records, plots, k, software }) };
+  },
   regionSpectrum: async (args) => {
     // crop call: the pixels come with the request; a one-off session on them
     await guardRegion(args.image.width, args.image.height, { x: args.originX, y: args.originY });
