@@ -591,6 +591,10 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
   if (!(minEvidence > 0)) throw new RangeError(`minEvidence must be positive, got ${minEvidence}`);
   const settings = { periodPx: given ?? null, minPeriodPx, maxPeriodPx, polarity, exclude, minLengthPx, positionSpacingPx: spacing, minEvidence, thickness: 'n·d (layers × period)' };
 
+  // too small for any stack of the shortest length asked for: an empty, labelled result
+  if (Math.min(image.width, image.height) < 32) {
+    return { sheets: [], rejected: [], periods: [], candidates: 0, message: `no stacks found: the image (${image.width} × ${image.height} px) is too small to search (at least 32 px on each side)`, settings };
+  }
   let mask: Uint8Array | null = null;
   if (exclude) {
     mask = new Uint8Array(image.width * image.height);
