@@ -286,7 +286,7 @@ function finishPiece(pc: Piece, minPeriodPx: number): Omit<AutoSheet, 'id'> {
   ];
   const notes: string[] = [];
   if (d < minPeriodPx) notes.push(`period ${d.toFixed(2)} px is at the sampling limit (not significantly below ${minPeriodPx} px)`);
-  if (layers <= 2 && pc.periodSource === 'image') notes.push('period taken from the image (a stack this thin shows none of its own)');
+  if (layers <= 2 && pc.periodSource === 'image') notes.push("period taken from the image's thicker stacks (a stack this thin shows none of its own)");
   if (pc.periodSource === 'given') notes.push("the given period's own uncertainty is not included");
   return {
     status: 'auto',
@@ -782,6 +782,25 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
       if (inBox(done.centerPx[0], done.centerPx[1], exclude)) continue;
       pieces.push(piece);
       coverage.add(pieces.length - 1, frame, offAt(frame.cumPx[centerIdx]), done.thicknessPx / 2 + 0.5 * periodPx, angleAt);
+    }
+  }
+  // the image's periods from the stacks that measured their own (four layers or more): the
+  // periodograms of the candidates read a few per cent high near the sampling limit; thinner
+  // stacks then take the median of their phase's refined periods (five stacks at least), with the spread among those
+  // stacks as their period's uncertainty (a thin stack's own period is not measured)
+  if (given === undefined) {
+    for (let k = 0; k < periodList.length; k++) {
+      const d = periodList[k];
+      const own = pieces.filter((q) => q.periodSource === 'stack' && Math.abs(q.periodPx - d) < 0.06 * d).map((q) => q.periodPx);
+      if (own.length < 5) continue;
+      const m = median(own);
+      const sd = Math.sqrt(own.reduce((a, v) => a + (v - mean(own)) ** 2, 0) / (own.length - 1));
+      for (const q of pieces) {
+        if (q.periodSource !== 'image' || Math.abs(q.periodPx - d) > 1e-9) continue;
+        q.periodPx = m;
+        q.uPeriodPx = sd;
+      }
+      periodList[k] = m;
     }
   }
   // after merging, a stack must be at least as long as the shortest stack asked for and as its
