@@ -441,7 +441,9 @@ function mergeGap(a: Piece, b: Piece): number | null {
       const beyond = c.s < 0 ? -c.s : c.s > lp ? c.s - lp : 0;
       if (beyond > maxGap || Math.abs(c.u) > tol) continue;
       // the direction of q near that end against p's at the nearest place
-      const k = e === 0 ? Math.min(q.axisPx.length - 1, 5) : Math.max(0, q.axisPx.length - 6);
+      // (a chord over a third of the piece, 10–30 px: the last few points of an axis may hook)
+      const reach = Math.max(5, Math.min(15, Math.floor(q.axisPx.length / 3)));
+      const k = e === 0 ? Math.min(q.axisPx.length - 1, reach) : Math.max(0, q.axisPx.length - 1 - reach);
       const inner = q.axisPx[k];
       const ci = polylineCoords(p.axisPx, inner[0], inner[1]);
       const dsq = Math.hypot(inner[0] - end[0], inner[1] - end[1]);
