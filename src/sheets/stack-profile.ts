@@ -205,6 +205,12 @@ export interface ProfileBand {
 }
 
 /**
+ * Thickest band {@link profileBands} considers, in periods: a stack of more layers is a continuous
+ * lamellar phase (the domain map's job), and the bound keeps a line across a whole wide image fast.
+ */
+export const MAX_BAND_PERIODS = 128;
+
+/**
  * Bands of a profile: stretches darker than the background beside them (for dark polarity),
  * with the fringes smoothed away, or (with `signal`) stretches where another signal (e.g. the
  * fringe energy) stands above its background.
@@ -245,6 +251,8 @@ export function profileBands(
   const taken = new Uint8Array(n);
   const bands: ProfileBand[] = [];
   const minBins = Math.max(1, Math.round(minW / p.binPx));
+  // a band spans at most MAX_BAND_PERIODS layers: the search over its ends stays linear in the profile's length
+  const maxBins = Math.max(minBins, Math.round((MAX_BAND_PERIODS * periodPx) / p.binPx));
   const corrBins = Math.max(2, periodPx / p.binPx);
   const x = (i: number) => (i - n / 2) / n;
   for (let round = 0; round < maxBands; round++) {
@@ -275,7 +283,8 @@ export function profileBands(
     let bb = -1;
     for (let a = 0; a < n; a++) {
       if (taken[a]) continue;
-      for (let b = a + minBins; b <= n; b++) {
+      const bEnd = Math.min(n, a + maxBins);
+      for (let b = a + minBins; b <= bEnd; b++) {
         if (taken[b - 1]) break;
         const i0 = C0[b] - C0[a];
         const o0 = T0 - i0;
