@@ -52,8 +52,12 @@ export interface ComputeCalls {
   runTool: { args: InSession & { tool: string; target: Region | null; settings?: Record<string, unknown> }; result: Measurement };
   /** A line profile of the session's image and its period by both estimators (Periods panel). */
   profile: { args: InSession & { line: ProfileLine; estimator: ProfileEstimator }; result: ProfileView };
-  /** A region's power spectrum: spots, radial average, rings and a display picture; cached per region (Periods panel). */
-  spectrum: { args: InSession & { rect: RectPx; settings: SpectrumSettings; displayPx: number }; result: SpectrumView };
+  /**
+   * A region's power spectrum: spots, radial average, rings and a display picture; cached per region
+   * (Periods panel; Calibration panel with `prepareSpots: false`, as no spot of it will be clicked:
+   * by default the worker prepares after the reply what a click on a spot needs).
+   */
+  spectrum: { args: InSession & { rect: RectPx; settings: SpectrumSettings; displayPx: number; prepareSpots?: boolean }; result: SpectrumView };
   /** The spot nearest a clicked frequency of a region's cached spectrum: no transform (statistical uncertainty only). */
   spotNear: { args: InSession & { rect: RectPx; settings: SpectrumSettings; fx: number; fy: number; radiusBins?: number }; result: { spot: Spot | null } };
   /** A spot refined where its fringes are, with its full budget (after spotNear). */
@@ -62,11 +66,6 @@ export interface ComputeCalls {
   filter: { args: InSession & { rect: RectPx; spots: { fx: number; fy: number }[]; displayPx: number }; result: FilterView };
   /** What a session has done: region transforms run and requests answered from its cache. */
   sessionStats: { args: InSession; result: { regionTransforms: number; cacheHits: number } };
-  /** Crop: the power spectrum of a copy of a region's pixels (Calibration panel). */
-  regionSpectrum: {
-    args: { image: GreyImage; originX: number; originY: number; settings: SpectrumSettings; displayPx: number };
-    result: SpectrumView;
-  };
   /** Reads a diffraction pattern's text and fits its peaks (seconds on a few thousand points). */
   analysePattern: { args: { text: string; wavelength?: string; fileName?: string }; result: { pattern: Pattern; analysis: PatternAnalysis } };
   /** Crop: every stack in an image (a copy is sent), skipping a scale-bar strip or panel; the period when known (px). */

@@ -77,32 +77,18 @@ const handlers: Handlers = {
     return entry.run(s.image, target, settings);
   },
   profile: ({ sessionId, line, estimator }) => session.profileIn(sessionOf(sessionId), line, estimator),
-  spectrum: async ({ sessionId, rect, settings, displayPx }) => {
+  spectrum: async ({ sessionId, rect, settings, displayPx, prepareSpots }) => {
     const s = sessionOf(sessionId);
     await guardRegion(rect.width, rect.height, rect);
     const view = session.spectrumView(await session.regionAnalysis(s, rect, settings), displayPx, settings.alpha);
     // after the reply: what a click on the spectrum will need, so that a click runs no transform
-    afterReply = () => session.prepareRegionSpots(s, rect, settings);
+    if (prepareSpots !== false) afterReply = () => session.prepareRegionSpots(s, rect, settings);
     return view;
   },
   spotNear: ({ sessionId, rect, settings, fx, fy, radiusBins }) => ({ spot: session.spotNearIn(sessionOf(sessionId), rect, settings, fx, fy, radiusBins) }),
   spotBudget: async ({ sessionId, rect, settings, spot }) => ({ spot: await session.spotBudgetIn(sessionOf(sessionId), rect, settings, spot) }),
   filter: ({ sessionId, rect, spots, displayPx }) => session.filterIn(sessionOf(sessionId), rect, spots, displayPx),
   sessionStats: ({ sessionId }) => ({ ...sessionOf(sessionId).stats }),
-  regionSpectrum: async (args) => {
-    // crop call: the pixels come with the request; a one-off session on them
-    await guardRegion(args.image.width, args.image.height, { x: args.originX, y: args.originY });
-    const s = session.createImageSession('crop', args.image, { maxRegions: 1 });
-    const view = session.spectrumView(await session.regionAnalysis(s, { x: 0, y: 0, width: args.image.width, height: args.image.height }, args.settings), args.displayPx, args.settings.alpha);
-    const m = view.measurement;
-    const area = m.detail?.area as { x: number; y: number; width: number; height: number } | undefined;
-    const moved: typeof m = {
-      ...m,
-      region: { kind: 'rect', x: args.originX, y: args.originY, width: args.image.width, height: args.image.height },
-      ...(m.detail && area ? { detail: { ...m.detail, area: { ...area, x: area.x + args.originX, y: area.y + args.originY } } } : {}),
-    };
-    return { ...view, measurement: moved };
-  },
   sheetsFind: async ({ image, polarity, periodPx }) => {
     const { findScaleBar } = await import('../src/calibration/scale-bar');
     const { detectSheets } = await import('../src/sheets/detect');
