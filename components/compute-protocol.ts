@@ -3,8 +3,10 @@
  * line here and one entry in the handler table of compute-worker.ts.
  *
  * The image session: `openImage` decodes a file once and keeps the image in the worker under a
- * session id; every later call on it sends that id and a region or a line, never pixels. Calls
- * marked "crop" take a copy of the pixels instead; they serve panels not yet moved to the session.
+ * session id; every later call on it sends that id and a region or a line, never pixels (the
+ * Periods, Calibration and SAED panels). The two calls marked "crop", `sheetsFind` and
+ * `sheetsLine`, still take a copy of the pixels; they serve the Sheets panel, not yet moved to the
+ * session. `decode` and `prepareView` take bytes or pixels and belong to no session.
  */
 import type { CameraConstant } from '../src/diffraction/electron/camera-constant';
 import type { CameraSetting, PatternMeasurement } from '../src/diffraction/electron/measure';
@@ -72,13 +74,13 @@ export interface ComputeCalls {
   sheetsFind: { args: { image: GreyImage; polarity: 'dark' | 'bright'; periodPx?: number }; result: { result: AutoSheetsResult; excludedBox: [number, number, number, number] | null } };
   /** Crop: sheets along a drawn line (a copy of the image is sent); the period when known, or the image's candidates. */
   sheetsLine: { args: { image: GreyImage; line: { x0: number; y0: number; x1: number; y1: number; widthPx: number }; polarity: 'dark' | 'bright'; periodPx?: number; periods?: number[] }; result: LineSheetsResult };
-  /** Electron diffraction (issue 14): the camera constant from a copy of a ring standard's pattern (SAED panel). */
+  /** Electron diffraction (issue 14): the camera constant from the session's image, a ring standard's pattern (SAED panel). */
   cameraConstant: {
-    args: { image: GreyImage; standard: { id: string } | { aNm: number; uANm: number; centring: 'F' | 'I' | 'P' }; voltageKv?: number; detectorPixelUm?: number };
+    args: InSession & { standard: { id: string } | { aNm: number; uANm: number; centring: 'F' | 'I' | 'P' }; voltageKv?: number; detectorPixelUm?: number };
     result: ElectronCameraResult;
   };
-  /** Electron diffraction: ring and spot d-spacings of a copy of a sample's pattern with a camera setting (SAED panel). */
-  electronPattern: { args: { image: GreyImage; camera: CameraSetting; what: 'rings' | 'spots' | 'both' }; result: PatternMeasurement };
+  /** Electron diffraction: ring and spot d-spacings of the session's image, a sample's pattern, with a camera setting (SAED panel). */
+  electronPattern: { args: InSession & { camera: CameraSetting; what: 'rings' | 'spots' | 'both' }; result: PatternMeasurement };
   /** Spot indexing: each spot's hkl and the zone axis with a structure file's text or a built-in phase (milliseconds). */
   indexSpots: { args: { spots: ZoneSpot[]; cifText?: string; cifName?: string; builtIn?: string }; result: ZoneAxisResult & { source: string } };
 }

@@ -100,13 +100,15 @@ const handlers: Handlers = {
     const { sheetsAlongLine } = await import('../src/sheets/line');
     return sheetsAlongLine(image, line.x0, line.y0, line.x1, line.y1, { widthPx: line.widthPx, polarity, periodPx, periods });
   },
-  cameraConstant: async ({ image, standard, voltageKv, detectorPixelUm }) => {
+  cameraConstant: async ({ sessionId, standard, voltageKv, detectorPixelUm }) => {
+    const { image } = sessionOf(sessionId);
     const { calibrateCameraConstant } = await import('../src/diffraction/electron/camera-constant');
     const { ringStandard, userRingStandard } = await import('../src/diffraction/electron/standards');
     const s = 'id' in standard ? ringStandard(standard.id) : userRingStandard(standard.aNm, standard.uANm, standard.centring);
     return calibrateCameraConstant(image, s, { voltageKv, detectorPixelUm });
   },
-  electronPattern: async ({ image, camera, what }) => {
+  electronPattern: async ({ sessionId, camera, what }) => {
+    const { image } = sessionOf(sessionId);
     const { measureElectronPattern } = await import('../src/diffraction/electron/measure');
     return measureElectronPattern(image, camera, { what });
   },
