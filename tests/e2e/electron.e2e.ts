@@ -6,7 +6,7 @@ import { afterAll, beforeAll, expect, test } from 'vitest';
 import { ringStandard, standardRings } from '../../src/diffraction/electron/standards';
 import { encodeTiff } from '../../testing/encode-tiff';
 import { electronPattern, type PatternSpec } from '../../testing/synthetic/electron-pattern';
-import { openSession, type Session, nextFrames } from './browser';
+import { callsWithPixelsAfterOpen, computeCalls, openSession, recordComputeCalls, type Session, nextFrames } from './browser';
 
 let s: Session;
 const errors: string[] = [];
@@ -44,6 +44,7 @@ beforeAll(async () => {
   await s.page.setViewportSize({ width: 1366, height: 768 });
   await s.page.goto(s.url);
   await s.page.waitForSelector('strata-app');
+  await recordComputeCalls(s.page);
 }, 60_000);
 afterAll(async () => {
   await s?.close();
@@ -72,5 +73,10 @@ test('calibrate on gold, measure a sample, store it', async () => {
   await panel().locator('button', { hasText: 'Store in the library' }).click();
   await expect.poll(() => app().locator('.status, [role="status"]').first().textContent(), { timeout: 10_000 }).toMatch(/Stored .* 3 d-spacings/);
   if (process.env.SCREENSHOT_DIR) await s.page.screenshot({ path: `${process.env.SCREENSHOT_DIR}/electron-measure.png` });
+  // each pattern's bytes went to the worker once, to open its session; the measurements sent ids
+  const calls = await computeCalls(s.page);
+  expect(calls.filter((c) => c.name === 'openImage')).toHaveLength(2);
+  expect(calls.map((c) => c.name)).toEqual(expect.arrayContaining(['cameraConstant', 'electronPattern']));
+  expect(callsWithPixelsAfterOpen(calls)).toEqual([]);
   expect(errors).toEqual([]);
 }, 240_000);
