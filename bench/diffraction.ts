@@ -36,6 +36,7 @@ interface Row {
   found: number;
   required: number;
   spurious: number;
+  blends: number;
   onHalo: number;
   phasesOk: number;
   phases: number;
@@ -72,7 +73,12 @@ function run(sc: Scenario): Row {
     // Scherrer sizes mean something up to ~100 nm (the sample breadth must clearly exceed the instrument's)
     if (tp.kind !== 'band' && isolated && p.crystalliteNm !== null && p.significance > 20 && sc.phases[tp.phase].sizeNm <= 100) sizeErrs.push(p.crystalliteNm / sc.phases[tp.phase].sizeNm - 1);
   }
-  const spuriousIdx = fitted.map((_, j) => j).filter((j) => !used.has(j));
+  // an unmatched fitted peak whose half-width covers a drawn line is a blend of real lines (two close
+  // lines fitted as one broad peak), counted apart; spurious peaks match no drawn line at all
+  const unmatched = fitted.map((_, j) => j).filter((j) => !used.has(j));
+  const isBlend = (j: number) => sc.peaks.some((tp) => Math.abs(fitted[j].tt - tp.twoThetaDeg) < 0.5 * (fitted[j].p.fwhmDeg ?? 0));
+  const blends = unmatched.filter(isBlend).length;
+  const spuriousIdx = unmatched.filter((j) => !isBlend(j));
   const onHalo = spuriousIdx.filter((j) => sc.halos.some((h) => Math.abs(fitted[j].tt - h.centerDeg) < h.fwhmDeg)).length;
   // phases: each true phase matched by an indexed phase of the same lattice family within 0.05 %
   let phasesOk = 0;
@@ -103,7 +109,7 @@ function run(sc: Scenario): Row {
       sc.name,
       lambdaOk ? 'yes' : `NO (${pattern.wavelengthNm})`,
       `${found}/${required}`,
-      String(spuriousIdx.length),
+      `${spuriousIdx.length}${blends ? ` (+${blends} blend)` : ''}`,
       String(onHalo),
       phaseText.join('; '),
       z === null ? '—' : `${z.toFixed(3)} (true ${sc.zeroShiftDeg})`,
@@ -113,6 +119,7 @@ function run(sc: Scenario): Row {
     found,
     required,
     spurious: spuriousIdx.length,
+    blends,
     onHalo,
     phasesOk,
     phases: sc.phases.length,
@@ -128,7 +135,7 @@ for (const sc of SKIP_PATTERNS ? [] : diffractionScenarios(SEED)) {
   if (ONLY && !sc.name.includes(ONLY)) continue;
   rows.push(run(sc));
 }
-const head = ['pattern', 'λ read', 'found/required', 'spurious', 'on halo', 'phases: lattice, worst cell error', 'zero shift °', 'size err % max (n)', 'ms'];
+const head = ['pattern', 'λ read', 'found/required', 'spurious (+blends)', 'on halo', 'phases: lattice, worst cell error', 'zero shift °', 'size err % max (n)', 'ms'];
 const widths = head.map((h, i) => Math.max(h.length, ...rows.map((r) => r.cells[i].length)));
 const line = (r: string[]) => '| ' + r.map((c, i) => c.padEnd(widths[i])).join(' | ') + ' |';
 console.log(`Diffraction targets, seed ${SEED} (${rows.length} seeded synthetic patterns; instrument profile from a LaB6-like standard per radiation, ${std.peaks.length} lines; sizes of phases up to 100 nm)`);
@@ -139,7 +146,7 @@ const sum = (f: (r: Row) => number) => rows.reduce((s, r) => s + f(r), 0);
 const allSizes = rows.flatMap((r) => r.sizeErrs);
 console.log('');
 console.log(`peaks found: ${sum((r) => r.found)}/${sum((r) => r.required)} (${((100 * sum((r) => r.found)) / Math.max(1, sum((r) => r.required))).toFixed(1)} %; target ≥ 97 %)`);
-console.log(`spurious: ${sum((r) => r.spurious)} in all, at most ${Math.max(...rows.map((r) => r.spurious))} in one pattern (target ≤ 1), ${sum((r) => r.onHalo)} on a halo (target 0)`);
+console.log(`spurious (matching no drawn line): ${sum((r) => r.spurious)} in all, at most ${Math.max(...rows.map((r) => r.spurious))} in one pattern (target ≤ 1), ${sum((r) => r.onHalo)} on a halo (target 0); blends of real lines fitted as one broad peak: ${sum((r) => r.blends)}`);
 console.log(`phases indexed with the right lattice and cell within 0.05 %: ${sum((r) => r.phasesOk)}/${sum((r) => r.phases)}; worst cell error ${(100 * Math.max(...rows.map((r) => (Number.isFinite(r.worstCell) ? r.worstCell : 1)))).toFixed(3)} %`);
 console.log(`wavelength read correctly: ${rows.filter((r) => r.lambdaOk).length}/${rows.length}`);
 console.log(`crystallite size after instrument correction: ${allSizes.length} isolated strong lines, |error| median ${(100 * median(allSizes.map(Math.abs))).toFixed(1)} %, max ${(100 * Math.max(...allSizes.map(Math.abs))).toFixed(1)} % (target ≤ 15 %)`);
@@ -181,7 +188,7 @@ async function spotBench(): Promise<void> {
       let spotsSeen = 0;
       let dRes = 0;
       let aRes = 0;
-      const seeds = [1, 2];
+      const seeds = [2 * SEED - 1, 2 * SEED];
       const got: string[] = [];
       for (const seed of seeds) {
         const zi = zoneImage(c.phase, z as [number, number, number], seed * 101 + z.join('').length);

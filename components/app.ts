@@ -14,6 +14,8 @@ import {
   type StorageEstimate,
 } from '../src/store/library';
 import type { ImageRecord } from '../src/store/records';
+import { canRedo, canUndo, currentState, getHistory, newHistory, pushStep, putHistory, redoStep, undoStep, type ImageHistory, type WorkState } from '../src/store/history';
+import './undo-control';
 import type { LibraryDb } from '../src/store/schema';
 import { ComputeClient } from './compute-client';
 import type { GreyHistogram } from '../src/image/display';
@@ -32,6 +34,12 @@ interface DemoEntry {
   kind: 'micrograph' | 'pattern';
 }
 
+/** A file a multi-file open could not read, and why. */
+interface RefusedFile {
+  fileName: string;
+  reason: string;
+}
+
 interface Message {
   text: string;
   kind: 'info' | 'error' | 'busy';
@@ -42,9 +50,22 @@ interface Tab {
   id: string;
   label: string;
   tag?: string;
+  /** The panel shows its figures in the main area beside the image (module export `panelWide`). */
+  wide?: boolean;
 }
 
-const ACCEPT = '.tif,.tiff,.png,.jpg,.jpeg,.mrc,.mrcs,image/tiff,image/png,image/jpeg';
+/** Narrowest window, CSS px, in which a wide panel gets the main area beside the image. */
+const WIDE_LAYOUT_MIN_PX = 1100;
+
+const ACCEPT = '.tif,.tiff,.png,.jpg,.jpeg,.mrc,.mrcs,image/tiff,image/png,image/jpeg,.cif,.xy,.xye,.dat,.asc';
+
+/** Files that go to the diffraction panel rather than the viewer: structure files and powder patterns. */
+function diffractionFileKind(fileName: string): 'structure' | 'pattern' | null {
+  const ext = fileName.toLowerCase().split('.').pop() ?? '';
+  if (ext === 'cif') return 'structure';
+  if (ext === 'xy' || ext === 'xye' || ext === 'dat' || ext === 'asc') return 'pattern';
+  return null;
+}
 
 function formatBytes(n: number): string {
   if (n < 1048576) return `${(n / 1024).toFixed(0)} kB`;
@@ -68,8 +89,12 @@ function mimeFor(fileName: string): string {
  * holds the image: send it with a region or a line, never pixels), `viewer` (the StrataViewer),
  * `line` (LineDrawnDetail | null) and `rect` (RectDrawnDetail | null), and may send the events `status-message` {text, kind},
  * `overlay-shapes` {shapes}, `calibration-changed` {calibration} and `library-changed`.
- * The diffraction panel (id `diffraction`) also receives an `open-pattern` event {fileName, text}
- * on its element when the user opens a demo pattern from the start screen.
+ * The diffraction panel (id `diffraction`) also receives an `open-pattern` event {fileName, text,
+ * accepted} on its element when the user opens a pattern (a demo card, or an .xy/.xye/.dat/.asc
+ * file), and `open-structure` {fileName, text, accepted} for a .cif structure file; it sets
+ * `accepted` to true when it takes the file. A panel with `panelWide` exported gets the main area
+ * beside the image (attribute `wide`); a panel may send `history-step` {label, state} and offer
+ * `restoreState(state)` to take part in undo and redo.
  */
 export class StrataApp extends LitElement {
   static override properties = {
@@ -88,6 +113,9 @@ export class StrataApp extends LitElement {
     shapes: { state: true },
     line: { state: true },
     rect: { state: true },
+    roomy: { state: true },
+    refused: { state: true },
+    history: { state: true },
   };
 
   image: GreyImage | null = null;
@@ -107,6 +135,16 @@ export class StrataApp extends LitElement {
   shapes: Map<string, OverlayShape[]> = new Map();
   line: LineDrawnDetail | null = null;
   rect: RectDrawnDetail | null = null;
+  /** Undo history of the image on screen (kept in the library with the image). */
+  history: ImageHistory | null = null;
+  /** True while a state from the history is being restored (no new steps are recorded). */
+  private restoring = false;
+  /** Files refused by the last open of several files, each with its reason (shown until dismissed). */
+  refused: RefusedFile[] = [];
+  private lastOpenError = '';
+  /** The window is wide enough for a panel's figures beside the image. */
+  roomy = globalThis.innerWidth >= WIDE_LAYOUT_MIN_PX;
+  private readonly onResize = (): void => { this.roomy = globalThis.innerWidth >= WIDE_LAYOUT_MIN_PX; };
 
   private db: LibraryDb | null = null;
   private readonly compute = new ComputeClient();
@@ -121,10 +159,17 @@ export class StrataApp extends LitElement {
       .tagline { color: var(--muted); font-size: 12px; }
       .spacer { flex: 1; }
       .storage { font-size: 12px; color: var(--muted); }
-      .message { margin: 0; padding: 4px 12px; font-size: 13px; border-bottom: 1px solid var(--line); min-height: 20px; background: #141a20; }
+      /* one line, always the same height: a long message never moves the page (the whole text in its title) */
+      .message { margin: 0; padding: 4px 12px; font-size: 13px; line-height: 20px; height: 29px; box-sizing: border-box; border-bottom: 1px solid var(--line); background: #141a20;
+        white-space: nowrap; overflow: hidden; text-overflow: ellipsis; }
+      .refused { display: flex; align-items: flex-start; gap: 10px; padding: 4px 12px; background: #2a1717; color: #ffd0d0; border-bottom: 1px solid var(--line); font-size: 13px; max-height: 30vh; overflow-y: auto; }
+      .refused ul { margin: 0; padding-left: 18px; flex: 1; }
+      .refused li + li { margin-top: 3px; }
       .message.error { color: #ffb4b4; background: #2a1717; }
       .message.busy { color: var(--accent-2); }
       .work { flex: 1; display: grid; grid-template-columns: minmax(0, 1fr) minmax(360px, 28%); min-height: 0; overflow: hidden; }
+      /* a wide panel: its figures and its controls share the room beside the image */
+      .work.wide { grid-template-columns: minmax(0, 1fr) max(960px, 58%); }
       strata-viewer { min-height: 0; }
       .start { overflow-y: auto; padding: 28px 36px; border-right: 1px solid var(--line); }
       .start h2 { font-size: 16px; font-weight: 600; margin: 0 0 6px; }
@@ -150,11 +195,24 @@ export class StrataApp extends LitElement {
   override connectedCallback(): void {
     super.connectedCallback();
     void registerServiceWorker('sw.js');
+    globalThis.addEventListener('resize', this.onResize);
+    document.addEventListener('keydown', this.onKeyDown);
     this.errorLog ??= watchErrors(() => this.db);
     this.addEventListener('dragover', this.onDragOver);
     this.addEventListener('dragleave', this.onDragLeave);
     this.addEventListener('drop', this.onDrop);
     void this.start();
+  }
+
+  override disconnectedCallback(): void {
+    super.disconnectedCallback();
+    globalThis.removeEventListener('resize', this.onResize);
+    document.removeEventListener('keydown', this.onKeyDown);
+  }
+
+  /** True when the active panel shows its figures beside the image now. */
+  private wideLayout(): boolean {
+    return this.roomy && !!this.image && !!this.tabs.find((t) => t.id === this.activeTab)?.wide;
   }
 
   private async start(): Promise<void> {
@@ -194,7 +252,7 @@ export class StrataApp extends LitElement {
         }
         if (!tag) continue;
         const label = typeof mod.panelLabel === 'string' ? mod.panelLabel : p.label;
-        loaded.push({ id: p.id, label, tag });
+        loaded.push({ id: p.id, label, tag, wide: mod.panelWide === true });
       } catch (e) {
         console.warn(`panel ${p.id} not loaded`, e);
       }
@@ -235,12 +293,26 @@ export class StrataApp extends LitElement {
 
   private async openFiles(files: File[]): Promise<void> {
     let last: ImageRecord | null = null;
+    const refused: RefusedFile[] = [];
     for (const f of files) {
+      this.lastOpenError = '';
+      const kind = diffractionFileKind(f.name);
+      if (kind) {
+        const reason = await this.handToDiffraction(kind, f.name, await f.text());
+        if (reason) refused.push({ fileName: f.name, reason });
+        continue;
+      }
       const bytes = new Uint8Array(await f.arrayBuffer());
       const rec = await this.openBytes(bytes, f.name, f.type || mimeFor(f.name));
       if (rec) last = rec;
+      else if (this.lastOpenError) refused.push({ fileName: f.name, reason: this.lastOpenError });
     }
-    if (files.length > 1 && last) this.say(`Opened ${files.length} files; showing ${last.fileName}. All are in the library.`);
+    this.refused = files.length > 1 ? refused : [];
+    if (files.length > 1) {
+      const opened = files.length - refused.length;
+      const shown = last ? ` showing ${last.fileName}; all opened are in the library.` : '';
+      this.say(`Opened ${opened} of ${files.length} files;${shown}${refused.length ? ` ${refused.length} refused: see the list below.` : ''}`, refused.length ? 'error' : 'info');
+    }
   }
 
   private async openDemo(d: DemoEntry): Promise<void> {
@@ -255,6 +327,28 @@ export class StrataApp extends LitElement {
   }
 
   /**
+   * Hands a structure file (`open-structure`) or a powder pattern (`open-pattern`) to the
+   * diffraction panel as an event {fileName, text, accepted: false} on its element and shows that
+   * panel; the panel sets `accepted` to true when it takes the file.
+   * @returns null when taken, else why not (for the list of refused files)
+   */
+  private async handToDiffraction(kind: 'structure' | 'pattern', fileName: string, text: string): Promise<string | null> {
+    const tab = this.tabs.find((t) => t.id === 'diffraction');
+    if (!tab) return 'no diffraction panel in this build';
+    this.activeTab = 'diffraction';
+    await this.updateComplete;
+    const detail = { fileName, text, accepted: false };
+    this.panelElements.get('diffraction')?.dispatchEvent(new CustomEvent(kind === 'structure' ? 'open-structure' : 'open-pattern', { detail }));
+    if (!detail.accepted) {
+      const why = kind === 'structure' ? 'the diffraction panel of this version does not take structure files yet (the command line does)' : 'the diffraction panel did not take the pattern';
+      this.say(`${fileName}: ${why}.`, 'error');
+      return why;
+    }
+    this.say(`${fileName}: handed to the ${tab.label} panel as a ${kind === 'structure' ? 'structure file' : 'powder pattern'}.`);
+    return null;
+  }
+
+  /**
    * Hands a demo pattern to the diffraction panel as an `open-pattern` event {fileName, text}
    * dispatched on the panel's element, and shows that panel.
    */
@@ -262,11 +356,8 @@ export class StrataApp extends LitElement {
     try {
       const res = await fetch(`demo/${d.file}`);
       if (!res.ok) throw new Error(`demo file ${d.file} is missing (${res.status})`);
-      const text = await res.text();
-      this.activeTab = 'diffraction';
-      await this.updateComplete;
-      this.panelElements.get('diffraction')?.dispatchEvent(new CustomEvent('open-pattern', { detail: { fileName: d.file, text } }));
-      this.say(`${d.title}: handed to the ${this.tabs.find((t) => t.id === 'diffraction')?.label ?? 'diffraction'} panel.`);
+      const why = await this.handToDiffraction('pattern', d.file, await res.text());
+      if (why) throw new Error(why);
     } catch (e) {
       this.say(`Could not open the demo ${d.title}: ${(e as Error).message}`, 'error');
     }
@@ -303,6 +394,8 @@ export class StrataApp extends LitElement {
       this.shapes = new Map();
       this.line = null;
       this.rect = null;
+      this.history = null;
+      void this.startHistory(record, image.calibration);
       // The measuring engine (opencv.js, about 11 MB) starts in the worker while the user looks.
       this.warming ??= this.compute.call('warmUp', {}).then(
         (r) => { this.dataset.engine = r.opencvVersion; },
@@ -314,7 +407,8 @@ export class StrataApp extends LitElement {
         notKept ? 'error' : 'info');
       return record;
     } catch (e) {
-      this.say((e as Error).message || `Could not read ${fileName}.`, 'error');
+      this.lastOpenError = (e as Error).message || `Could not read ${fileName}.`;
+      this.say(this.lastOpenError, 'error');
       return null;
     }
   }
@@ -339,6 +433,9 @@ export class StrataApp extends LitElement {
   private async onCalibrationChanged(calibration: Calibration | null): Promise<void> {
     if (!this.image) return;
     this.image = { ...this.image, calibration };
+    if (!this.restoring) {
+      this.recordStep(calibration ? `calibration ${calibration.nmPerPx.toPrecision(4)} nm/px (${calibration.source})` : 'calibration removed', (st) => ({ ...st, calibration }));
+    }
     // the worker's records take the new calibration too; nothing is measured again
     if (this.session) void this.compute.call('recalibrate', { sessionId: this.session, calibration }).catch((e) => this.say((e as Error).message, 'error'));
     if (this.db && this.record) {
@@ -367,12 +464,98 @@ export class StrataApp extends LitElement {
       case 'calibration-changed': void this.onCalibrationChanged(detail?.calibration ?? null); break;
       case 'library-changed': this.libraryRevision++; void this.refreshStorage(); break;
       case 'open-image': void this.openStored(String(detail?.id)); break;
+      case 'history-step': {
+        const id = (e.target as HTMLElement | null)?.dataset?.panel;
+        if (id && !this.restoring) this.recordStep(String(detail?.label ?? 'change'), (st) => ({ ...st, panels: { ...st.panels, [id]: detail?.state ?? null } }));
+        break;
+      }
     }
+  };
+
+  // ---------------------------------------------------------------- undo and redo
+
+  /** Starts the image's history: the stored one (its current state restored), or a new one. */
+  private async startHistory(record: ImageRecord | null, calibration: Calibration | null): Promise<void> {
+    const fresh = (id: string) => newHistory(id, { calibration, panels: {} });
+    if (!record || !this.db) {
+      this.history = fresh('unsaved');
+      return;
+    }
+    let h: ImageHistory | null = null;
+    try {
+      h = await getHistory(this.db, record.id);
+    } catch {
+      h = null;
+    }
+    if (this.record?.id !== record.id) return; // another image was opened meanwhile
+    if (!h) {
+      this.history = fresh(record.id);
+      this.saveHistory();
+      return;
+    }
+    this.history = h;
+    await this.updateComplete;
+    this.restorePanels(currentState(h));
+  }
+
+  /** Records a step: the state after it is `change` of the current one. */
+  private recordStep(label: string, change: (state: WorkState) => WorkState): void {
+    const h = this.history;
+    if (!h) return;
+    this.history = pushStep(h, label, change(currentState(h)));
+    this.saveHistory();
+  }
+
+  private saveHistory(): void {
+    const h = this.history;
+    if (!h || !this.db || h.imageId === 'unsaved') return;
+    void putHistory(this.db, h).catch((e) => this.say(`The undo history could not be kept: ${(e as Error).message}`, 'error'));
+  }
+
+  /** Hands each panel that keeps a state its state from the history (null: none recorded). */
+  private restorePanels(state: WorkState): void {
+    for (const [id, el] of this.panelElements) {
+      const p = el as HTMLElement & { restoreState?: (s: unknown) => void };
+      if (typeof p.restoreState === 'function') p.restoreState(state.panels[id] ?? null);
+    }
+  }
+
+  /** Undo (-1) or redo (+1): moves along the history and restores the state there. */
+  private async moveInHistory(direction: -1 | 1): Promise<void> {
+    const h = this.history;
+    if (!h) return;
+    const moved = direction < 0 ? undoStep(h) : redoStep(h);
+    if (!moved) return;
+    const label = 'undone' in moved ? `Undone: ${moved.undone}.` : `Redone: ${moved.redone}.`;
+    this.history = moved.history;
+    this.saveHistory();
+    const state = currentState(moved.history);
+    this.restoring = true;
+    try {
+      if (JSON.stringify(state.calibration) !== JSON.stringify(this.image?.calibration ?? null)) await this.onCalibrationChanged(state.calibration);
+      await this.updateComplete;
+      this.restorePanels(state);
+    } finally {
+      this.restoring = false;
+    }
+    this.say(label);
+  }
+
+  private readonly onKeyDown = (e: KeyboardEvent): void => {
+    if (!(e.ctrlKey || e.metaKey) || e.altKey) return;
+    const key = e.key.toLowerCase();
+    if (key !== 'z' && key !== 'y') return;
+    const target = e.composedPath()[0] as HTMLElement | undefined;
+    // text fields keep their own undo
+    if (target && (target.tagName === 'INPUT' || target.tagName === 'TEXTAREA' || target.isContentEditable)) return;
+    if (!this.image) return;
+    e.preventDefault();
+    void this.moveInHistory(key === 'y' || e.shiftKey ? 1 : -1);
   };
 
   protected override firstUpdated(): void {
     const aside = this.renderRoot.querySelector('aside');
-    for (const t of ['status-message', 'overlay-shapes', 'calibration-changed', 'library-changed', 'open-image']) {
+    for (const t of ['status-message', 'overlay-shapes', 'calibration-changed', 'library-changed', 'open-image', 'history-step']) {
       aside?.addEventListener(t, this.onPanelEvent);
       if (t === 'status-message') this.renderRoot.querySelector('.work')?.addEventListener(t, this.onPanelEvent);
     }
@@ -387,6 +570,8 @@ export class StrataApp extends LitElement {
     const viewer = this.viewer();
     for (const el of this.renderRoot.querySelectorAll<HTMLElement>('[data-panel]')) {
       Object.assign(el, { image: this.image, record: this.record, db: this.db, compute: this.compute, session: this.session, viewer, line: this.line, rect: this.rect });
+      // a wide panel lays its figures out beside the image only while the layout gives it the room
+      if (this.tabs.find((t) => t.id === el.dataset.panel)?.wide) el.toggleAttribute('wide', this.wideLayout() && el.dataset.panel === this.activeTab);
     }
   }
 
@@ -409,6 +594,7 @@ export class StrataApp extends LitElement {
       <h2>Open a micrograph</h2>
       <p>TEM and STEM images as TIFF (8, 16 or 32-bit), PNG, JPEG or MRC. The pixel size is read from the file where it is stored;
         otherwise calibrate from the scale bar, a lattice spacing of a known standard, or an instrument profile.
+        Powder patterns (.xy, .xye, .dat, .asc) and structure files (.cif) open in the diffraction panel.
         Everything stays in this browser and works without a network.</p>
       <div class=${this.dragging ? 'drop on' : 'drop'}>
         Drop image files here, or <button @click=${() => this.renderRoot.querySelector<HTMLInputElement>('input.open')?.click()}>choose files…</button>
@@ -447,11 +633,19 @@ export class StrataApp extends LitElement {
         <input class="open" type="file" multiple accept=${ACCEPT}
           @change=${(e: Event) => { const i = e.target as HTMLInputElement; const files = [...(i.files ?? [])]; i.value = ''; void this.openFiles(files); }}>
         ${this.image ? html`<button @click=${() => { this.closeSession(); this.image = null; this.record = null; this.message = null; }} title="Back to the start screen">Close image</button>` : nothing}
+        ${this.image ? html`<strata-undo-control .undoLabel=${canUndo(this.history) ? this.history!.steps[this.history!.index].label : ''}
+          .redoLabel=${canRedo(this.history) ? this.history!.steps[this.history!.index + 1].label : ''}
+          @undo=${() => void this.moveInHistory(-1)} @redo=${() => void this.moveInHistory(1)}></strata-undo-control>` : nothing}
         <span class="spacer"></span>
         ${this.renderStorage()}
       </header>
-      <p class="message ${m?.kind ?? ''}" role=${m?.kind === 'error' ? 'alert' : 'status'}>${m?.text ?? ''}</p>
-      <div class="work">
+      <p class="message ${m?.kind ?? ''}" role=${m?.kind === 'error' ? 'alert' : 'status'} title=${m?.text ?? ''}>${m?.text ?? ''}</p>
+      ${this.refused.length
+        ? html`<div class="refused" role="region" aria-label="Files not opened">
+            <ul>${this.refused.map((r) => html`<li><b>${r.fileName}</b>: ${r.reason}</li>`)}</ul>
+            <button @click=${() => (this.refused = [])} aria-label="Dismiss the list of files not opened">Dismiss</button></div>`
+        : nothing}
+      <div class=${this.wideLayout() ? 'work wide' : 'work'}>
         ${this.image
           ? html`<strata-viewer .image=${this.image} .levels=${this.levels} .histogram=${this.histogram} .shapes=${this.shapes.get(this.activeTab) ?? []}
               @line-drawn=${(e: CustomEvent<LineDrawnDetail>) => (this.line = e.detail)}

@@ -7,6 +7,8 @@ import { LitElement, css, html, nothing } from 'lit';
 import { unsafeSVG } from 'lit/directives/unsafe-svg.js';
 import { batchJson, pooledStats, resultsCsv, summaryCsv, zipExports } from '../src/batch/export';
 import { histogramSvg } from '../src/figure/batch-figure';
+import { batchReportHtml } from '../src/figure/report';
+import { PROGRAM_VERSION } from '../src/cli/version';
 import { compareBatchWithDiffraction, comparisonCsv, diffractionOverlaySvg, type BatchComparison } from '../src/batch/compare';
 import { diffractionSideOfSet } from '../src/diffraction/stored-set';
 import { svgToPng } from './svg-png';
@@ -447,6 +449,8 @@ export class StrataBatchPanel extends LitElement {
       'summary.csv': summaryCsv(results, recipe.outputs.coverageFactor),
       'batch.json': batchJson(recipe, results),
       'recipe.json': `${JSON.stringify(recipe, null, 2)}\n`,
+      // the batch's report: one self-contained HTML file that prints to A4 (src/figure/report.ts)
+      'report.html': batchReportHtml({ results, recipe, software: `Stratameter ${PROGRAM_VERSION}`, createdIso: b.createdIso, title: recipe.name }),
     };
     for (const r of this.rows) if (r.figurePng) out[`figures/${figureOf.get(r.name)}`] = r.figurePng;
     for (const [name, svgText] of Object.entries(this.histograms(results))) out[`histograms/${name}.svg`] = svgText;
@@ -662,7 +666,7 @@ export class StrataBatchPanel extends LitElement {
       ${this.renderComparison(results)}
       <div class="row">
         <button class="export-zip" @click=${() => void this.exportZip()}>Download all exports (zip)</button>
-        <span class="muted">CSV, JSON, recipe${this.rows.some((r) => r.figurePng) ? ', figures' : ''}${Object.keys(hists).length ? ', histograms (SVG and PNG)' : ''}${this.compareSetId ? ', diffraction comparison' : ''}</span>
+        <span class="muted">report (HTML), CSV, JSON, recipe${this.rows.some((r) => r.figurePng) ? ', figures' : ''}${Object.keys(hists).length ? ', histograms (SVG and PNG)' : ''}${this.compareSetId ? ', diffraction comparison' : ''}</span>
       </div>
     </section>`;
   }

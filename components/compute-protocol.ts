@@ -16,6 +16,7 @@ import type { GreyHistogram } from '../src/image/display';
 import type { Measurement, Region } from '../src/measure/measurement';
 import type { ProfileEstimator, ProfileLine } from '../src/measure/profile-measurement';
 import type { FilterView, ProfileView, SpectrumSettings, SpectrumView } from '../src/measure/session';
+import type { PlotData } from '../src/figure/plot';
 import type { RectPx, Spot } from '../src/measure/spectrum';
 import type { Pattern } from '../src/diffraction/pattern';
 import type { PatternAnalysis } from '../src/diffraction/analyse';
@@ -68,6 +69,8 @@ export interface ComputeCalls {
   filter: { args: InSession & { rect: RectPx; spots: { fx: number; fy: number }[]; displayPx: number }; result: FilterView };
   /** What a session has done: region transforms run and requests answered from its cache. */
   sessionStats: { args: InSession; result: { regionTransforms: number; cacheHits: number } };
+  /** The report of the session's image as one self-contained HTML file, or its figure (image, overlays, scale bar) as SVG (src/figure/report.ts). */
+  imageReport: { args: InSession & { form: 'html' | 'svg'; fileName: string; records: Measurement[]; plots: PlotData[]; k: number; software: string }; result: { text: string } };
   /** Reads a diffraction pattern's text and fits its peaks (seconds on a few thousand points). */
   analysePattern: { args: { text: string; wavelength?: string; fileName?: string }; result: { pattern: Pattern; analysis: PatternAnalysis } };
   /** Crop: every stack in an image (a copy is sent), skipping a scale-bar strip or panel; the period when known (px). */

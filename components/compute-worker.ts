@@ -89,6 +89,12 @@ const handlers: Handlers = {
   spotBudget: async ({ sessionId, rect, settings, spot }) => ({ spot: await session.spotBudgetIn(sessionOf(sessionId), rect, settings, spot) }),
   filter: ({ sessionId, rect, spots, displayPx }) => session.filterIn(sessionOf(sessionId), rect, spots, displayPx),
   sessionStats: ({ sessionId }) => ({ ...sessionOf(sessionId).stats }),
+  imageReport: async ({ sessionId, form, fileName, records, plots, k, software }) => {
+    const { imageReportHtml, imageFigureSvg, recordShapes } = await import('../src/figure/report');
+    const { image } = sessionOf(sessionId);
+    if (form === 'svg') return { text: imageFigureSvg(image, recordShapes(records), image.calibration, 2048) };
+    return { text: imageReportHtml({ image, fileName, records, plots, k, software }) };
+  },
   sheetsFind: async ({ image, polarity, periodPx }) => {
     const { findScaleBar } = await import('../src/calibration/scale-bar');
     const { detectSheets } = await import('../src/sheets/detect');

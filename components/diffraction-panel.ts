@@ -2,7 +2,7 @@
 // and fitted peaks on a 2θ, d or q axis, the peak table, and the micrograph periods drawn as
 // markers with uncertainty bands beside the reconciliation table.
 import { groupAndPoolPeriods, type SourcedPeriod } from '../src/measure/pool';
-import { LitElement, css, html, nothing, svg, type TemplateResult } from 'lit';
+import { LitElement, css, html, nothing, type TemplateResult } from 'lit';
 import type { PatternAnalysis } from '../src/diffraction/analyse';
 import type { ComputeClient } from './compute-client';
 import { diffractionSetRecord } from '../src/diffraction/stored-set';
@@ -12,10 +12,11 @@ import { dToTwoTheta, parseWavelength, XRAY_LINES } from '../src/diffraction/bra
 import { parsePattern, parsePeakList, type ManualPeak, type Pattern, type PeakListUnit } from '../src/diffraction/pattern';
 import { reconcile, type DiffractionLine, type MicrographPeriod, type Reconciliation } from '../src/diffraction/reconcile';
 import { indexSeries, type IndexedSeries } from '../src/diffraction/series';
-import { niceTicks } from '../src/figure/ticks';
 import { pm, sig } from '../src/diffraction/format';
 import { expressPeriod } from '../src/measure/measurement';
 import { BUILT_IN_PHASES, type ZoneAxisResult, type ZoneSpot } from '../src/diffraction/zone-axis';
+import type { PlotData } from '../src/figure/plot';
+import './plot';
 import { controlStyles, panelStyles } from './styles';
 
 export const panelLabel = 'Diffraction';
@@ -60,16 +61,6 @@ export class StrataDiffractionPanel extends LitElement {
       th:first-child, td:first-child { text-align: left; }
       textarea { width: 100%; box-sizing: border-box; font: inherit; color: var(--text); background: #212b35; border: 1px solid var(--line); }
       .error { color: #f08a7a; }
-      svg.xrd { display: block; width: 100%; background: #0d1115; border: 1px solid var(--line); border-radius: 3px; }
-      svg.xrd .axis { stroke: #5d6b78; fill: none; }
-      svg.xrd .grid { stroke: #27313b; }
-      svg.xrd text { fill: #a9b6c2; font-size: 10px; }
-      svg.xrd .data { stroke: #9fd3e6; stroke-width: 1; fill: none; }
-      svg.xrd .bg { stroke: #7c8a97; stroke-width: 1; stroke-dasharray: 4 3; fill: none; }
-      svg.xrd .model { stroke: #f0c05a; stroke-width: 2.5; stroke-opacity: 0.6; fill: none; }
-      svg.xrd .peak { stroke: #f0c05a; stroke-width: 1; }
-      svg.xrd .band { fill: #7fd18b; fill-opacity: 0.18; }
-      svg.xrd .period { stroke: #7fd18b; stroke-width: 1.5; }
       td.good { color: #7fd18b; }
       td.warn { color: #f0c05a; }
     `,
@@ -100,6 +91,28 @@ export class StrataDiffractionPanel extends LitElement {
   private pattern: Pattern | null = null;
   private patternText: string | null = null;
   private fileName: string | null = null;
+
+  constructor() {
+    super();
+    // the shell hands over a pattern opened from the start screen or a file: {fileName, text, accepted}
+    this.addEventListener('open-pattern', (e) => {
+      const d = (e as CustomEvent<{ fileName?: string; text?: string; accepted?: boolean }>).detail;
+      if (typeof d?.text !== 'string') return;
+      d.accepted = true;
+      this.patternText = d.text;
+      this.fileName = d.fileName ?? null;
+      void this.analyse();
+    });
+    // a structure file opened or dropped on the app: {fileName, text, accepted}, used for spot indexing
+    this.addEventListener('open-structure', (e) => {
+      const d = (e as CustomEvent<{ fileName?: string; text?: string; accepted?: boolean }>).detail;
+      if (typeof d?.text !== 'string') return;
+      d.accepted = true;
+      this.cifText = d.text;
+      this.cifName = d.fileName ?? 'structure.cif';
+      this.zonePhase = 'file';
+    });
+  }
 
   private emit(type: string, detail: unknown): void {
     this.dispatchEvent(new CustomEvent(type, { detail, bubbles: true, composed: true }));
@@ -370,77 +383,57 @@ export class StrataDiffractionPanel extends LitElement {
     return dToTwoTheta(dNm, lambda);
   }
 
+  /** The pattern as a plot for the shared plot element (x ascending in the axis chosen). */
   private plot(): TemplateResult | typeof nothing {
     const p = this.pattern;
     const a = this.analysis;
-    const W = 640;
-    const H = 260;
-    const L = 52;
-    const R = 10;
-    const T = 10;
-    const B = 30;
-    const xsD: number[] = [];
-    let curves: Array<{ cls: string; ys: ArrayLike<number> }> = [];
+    const tY = (y: number) => (this.logY ? Math.log10(Math.max(y, 1)) : y);
+    const rows: { x: number; y: number; bg: number; model: number }[] = [];
     if (p && a) {
-      for (let i = 0; i < p.x.length; i++) xsD.push(p.axis === 'q' ? (2 * Math.PI) / p.x[i] : p.wavelengthNm! / (2 * Math.sin((p.x[i] * Math.PI) / 360)));
-      // the fit underneath, wide and translucent, the data on top
-      curves = [{ cls: 'bg', ys: a.background }, { cls: 'model', ys: a.model }, { cls: 'data', ys: p.y }];
+      for (let i = 0; i < p.x.length; i++) {
+        const d = p.axis === 'q' ? (2 * Math.PI) / p.x[i] : p.wavelengthNm! / (2 * Math.sin((p.x[i] * Math.PI) / 360));
+        const x = this.xOfD(d);
+        if (x !== null && Number.isFinite(x)) rows.push({ x, y: tY(p.y[i]), bg: tY(a.background[i]), model: tY(a.model[i]) });
+      }
     }
     const peakDs = a ? a.peaks.map((q) => q.dNm) : this.manual.map((m) => m.dNm);
-    const periodXs = (this.periods ?? []).map((q) => ({ c: this.xOfD(q.periodNm), lo: this.xOfD(q.periodNm + q.uncertaintyNm), hi: this.xOfD(Math.max(1e-6, q.periodNm - q.uncertaintyNm)) }));
-    const xs = xsD.map((d) => this.xOfD(d)).filter((v): v is number => v !== null && Number.isFinite(v));
-    const all = [...xs, ...peakDs.map((d) => this.xOfD(d)).filter((v): v is number => v !== null), ...periodXs.map((q) => q.c).filter((v): v is number => v !== null)];
-    if (all.length === 0) return nothing;
-    let x0 = Math.min(...all);
-    let x1 = Math.max(...all);
-    if (this.axisView === 'd' && xs.length) {
+    if (this.axisView === 'd' && rows.length) {
       // d explodes at low angle: show down to the pattern's largest d that a peak or period needs
-      x1 = Math.min(x1, 2 * Math.max(...peakDs, ...(this.periods ?? []).map((q) => q.periodNm)));
+      const dMax = 2 * Math.max(...peakDs, ...(this.periods ?? []).map((q) => q.periodNm));
+      for (let i = rows.length - 1; i >= 0; i--) if (rows[i].x > dMax) rows.splice(i, 1);
     }
-    if (!(x1 > x0)) {
-      x0 -= 1;
-      x1 += 1;
-    }
-    const pw = W - L - R;
-    const ph = H - T - B;
-    const sx = (x: number) => L + ((x - x0) / (x1 - x0)) * pw;
-    const tY = (y: number) => (this.logY ? Math.log10(Math.max(y, 1)) : y);
-    let y0 = Infinity;
-    let y1 = -Infinity;
-    for (const c of curves) for (let i = 0; i < c.ys.length; i++) {
-      const v = tY(c.ys[i]);
-      if (v < y0) y0 = v;
-      if (v > y1) y1 = v;
-    }
-    if (!Number.isFinite(y0)) {
-      y0 = 0;
-      y1 = 1;
-    }
-    if (!(y1 > y0)) y1 = y0 + 1;
-    const sy = (y: number) => T + ph - ((tY(y) - y0) / (y1 - y0)) * ph;
-    const path = (ys: ArrayLike<number>) => {
-      const pts: string[] = [];
-      for (let i = 0; i < xsD.length; i++) {
-        const x = this.xOfD(xsD[i]);
-        if (x === null || x < x0 || x > x1) continue;
-        pts.push(`${sx(x).toFixed(1)},${sy(ys[i]).toFixed(1)}`);
-      }
-      return pts.join(' ');
+    rows.sort((u, v) => u.x - v.x);
+    if (rows.length < 2) return nothing;
+    const x = rows.map((r) => r.x);
+    const yAt = (v: number) => {
+      let i = x.findIndex((xi) => xi >= v);
+      if (i < 0) i = x.length - 1;
+      return rows[i].y;
     };
-    const ticks = niceTicks(x0, x1, 6);
     const unit = this.axisView === '2theta' ? '2θ (°)' : this.axisView === 'd' ? 'd (nm)' : 'q (nm⁻¹)';
-    return html`<svg class="xrd" viewBox="0 0 ${W} ${H}" role="img" aria-label="diffraction pattern">
-      ${ticks.map((t) => svg`<line class="grid" x1=${sx(t)} x2=${sx(t)} y1=${T} y2=${T + ph}></line><text x=${sx(t)} y=${H - 16} text-anchor="middle">${+t.toPrecision(4)}</text>`)}
-      <text x=${L + pw / 2} y=${H - 3} text-anchor="middle">${unit}</text>
-      <text x="4" y=${T + 8}>${this.logY ? 'log I' : 'I'}</text>
-      ${periodXs.map((q) => (q.c === null ? nothing : svg`<rect class="band" x=${sx(Math.min(q.lo ?? q.c, q.hi ?? q.c))} y=${T} width=${Math.max(1, Math.abs(sx(q.hi ?? q.c) - sx(q.lo ?? q.c)))} height=${ph}></rect><line class="period" x1=${sx(q.c)} x2=${sx(q.c)} y1=${T} y2=${T + ph}></line>`))}
-      ${curves.map((c) => svg`<polyline class=${c.cls} points=${path(c.ys)}></polyline>`)}
-      ${peakDs.map((d) => {
-        const x = this.xOfD(d);
-        return x === null || x < x0 || x > x1 ? nothing : svg`<line class="peak" x1=${sx(x)} x2=${sx(x)} y1=${T + ph} y2=${T + ph - 12}></line>`;
-      })}
-      <rect class="axis" x=${L} y=${T} width=${pw} height=${ph}></rect>
-    </svg>`;
+    const yLabel = this.logY ? 'log₁₀ intensity (counts)' : 'intensity (counts)';
+    const periods = (this.periods ?? []).flatMap((q) => {
+      const c = this.xOfD(q.periodNm);
+      const lo = this.xOfD(q.periodNm + q.uncertaintyNm);
+      const hi = this.xOfD(Math.max(1e-6, q.periodNm - q.uncertaintyNm));
+      return c === null ? [] : [{ x: c, lo: lo ?? c, hi: hi ?? c, label: `${q.periodNm.toPrecision(4)} nm (micrograph)` }];
+    });
+    const data: PlotData = {
+      id: 'diffraction-pattern',
+      title: `Diffraction pattern${this.fileName ? `: ${this.fileName}` : ''}`,
+      xLabel: unit,
+      yLabel,
+      x,
+      traces: [
+        { label: 'background', y: rows.map((r) => r.bg), style: 'background' },
+        { label: 'fitted model', y: rows.map((r) => r.model), style: 'fit' },
+        { label: yLabel, y: rows.map((r) => r.y), style: 'data' },
+      ],
+      marks: peakDs.flatMap((d) => { const v = this.xOfD(d); return v === null ? [] : [{ x: v, y: yAt(v), kind: 'max' as const }]; }),
+      rules: periods,
+      description: `Diffraction pattern against ${unit} with its fitted model and background; ${peakDs.length} peaks marked${periods.length ? `; ${periods.length} micrograph periods as bands (± their uncertainty)` : ''}.`,
+    };
+    return html`<strata-plot .data=${data} height-px="300" file-stem=${(this.fileName ?? 'pattern').replace(/\.[^.]+$/, '')}></strata-plot>`;
   }
 
   override render(): TemplateResult {

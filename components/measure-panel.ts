@@ -7,7 +7,6 @@ import { calibrationPartsText } from '../src/calibration/calibration';
 import { angleBetweenDeg, ringPeriodicity, type Spot } from '../src/measure/spectrum';
 import { spotPeriodicity } from '../src/measure/spot-near';
 import { withTableSpots } from '../src/measure/session';
-import { measurementsCsv, measurementsJson } from '../src/measure/export';
 import { toolOf } from '../src/measure/tools';
 import { periodLabel } from '../src/figure/shapes';
 import type { WindowKind } from '../src/measure/window';
@@ -16,19 +15,23 @@ import type { ImageRecord } from '../src/store/records';
 import type { LibraryDb } from '../src/store/schema';
 import type { ComputeClient } from './compute-client';
 import type { FilterView, ProfileEstimator, ProfileView, SpectrumSettings, SpectrumView } from './compute-protocol';
-import { download } from './download';
-import { linePlot, plotStyles, type PlotPoint } from './plot-line';
+import { profilePlot, radialPlot } from '../src/figure/period-plots';
+import { placeLabels, textWidthEstimate, type Box } from '../src/figure/labels';
+import './plot';
+import './export-menu';
+import type { PlotData } from '../src/figure/plot';
 import { controlStyles } from './styles';
 import type { LineDrawnDetail, OverlayShape, RectDrawnDetail, StrataViewer } from './viewer';
 
 /** The tab's label. */
 export const panelLabel = 'Periods';
+/** The panel lays its figures out in the main area beside the image (the shell gives it the room). */
+export const panelWide = true;
 
-/** Side of the spectrum picture on screen, CSS px. */
+/** Side of the spectrum picture on screen when the panel is narrow, CSS px. */
 const SPECTRUM_CSS_PX = 320;
 /** Longest side of pictures computed in the worker, px. */
 const PICTURE_PX = 1024;
-const PLOT_WIDTH = 330;
 
 /**
  * Grey picture of a centred log power, black and white at the 2nd and 99.8th percentiles of the
@@ -48,6 +51,18 @@ interface TableSpot extends Spot {
   added: boolean;
   /** True while its full budget is being computed (its ± holds the statistical part only). */
   budgeting?: boolean;
+}
+
+/** What the panel keeps in the image's undo history: the line, the region, the spot table and the settings. */
+interface PeriodsState {
+  line: LineDrawnDetail | null;
+  rect: RectDrawnDetail | null;
+  spots: TableSpot[];
+  selected: number[];
+  windowKind: WindowKind;
+  alpha: number;
+  estimator: ProfileEstimator;
+  coverageK: number;
 }
 
 const WINDOW_HELP: Record<WindowKind, string> = {
@@ -112,6 +127,11 @@ export class StrataMeasurePanel extends LitElement {
     activeTool: { state: true },
     zoom: { state: true },
     coverageK: { state: true },
+    wide: { type: Boolean, reflect: true },
+    stageWidthPx: { state: true },
+    stageHeightPx: { state: true },
+    lastDrawn: { state: true },
+    typedOpen: { state: true },
   };
 
   image: GreyImage | null = null;
@@ -151,6 +171,16 @@ export class StrataMeasurePanel extends LitElement {
   zoom = 1;
   /** Coverage factor k of every ± shown (U = k·u). */
   coverageK = 2;
+  /** Set by the shell when the panel has the main area beside the image: figures left, controls right. */
+  wide = false;
+  /** Inner size of the figures column, CSS px (measured). */
+  stageWidthPx = 330;
+  stageHeightPx = 400;
+  private stageObserver: ResizeObserver | null = null;
+  /** Whether the fields for a typed region or line are shown (only then are they in the page). */
+  typedOpen = false;
+  /** The tool used last: its results and figure come first. */
+  lastDrawn: 'profile' | 'spectrum' = 'spectrum';
 
   private profileRun = 0;
   private spectrumRun = 0;
@@ -164,12 +194,23 @@ export class StrataMeasurePanel extends LitElement {
 
   static override styles = [
     controlStyles,
-    plotStyles,
     css`
       :host { display: block; padding: 8px 12px 24px; font-size: 13px; overflow-x: hidden; }
+      /* wide: figures in the main area (left), controls and key numbers in the side column (right) */
+      :host([wide]) { display: grid; grid-template-columns: minmax(0, 1fr) 340px; grid-template-rows: minmax(0, 1fr); grid-template-areas: 'stage side';
+        padding: 0; flex: 1 1 auto; min-height: 0; overflow: hidden; }
+      :host([wide]) .side { grid-area: side; overflow-y: auto; padding: 4px 8px 24px 10px; min-height: 0; border-left: 1px solid var(--line); }
+      :host([wide]) .stage { grid-area: stage; overflow-y: auto; min-height: 0; padding: 8px 8px 16px; background: var(--bg, #0f1419); }
+      .stage { display: flex; flex-direction: column; gap: 14px; }
+      /* the last tool's figure and numbers come first: no scroll anchoring, and both columns start at the top */
+      .stage, .side { overflow-anchor: none; }
+      .stage h3 { margin: 0 0 4px; color: var(--text); font-size: 13px; }
+      .stage-empty { color: var(--muted); max-width: 36em; padding: 24px 8px; line-height: 1.5; }
+      .stage-empty p { margin: 0 0 10px; }
+      .figure-block { min-width: 0; }
       h2 { font-size: 13px; font-weight: 600; margin: 16px 0 6px; letter-spacing: 0.02em; }
       h3 { font-size: 12px; font-weight: 600; margin: 12px 0 4px; color: var(--muted); }
-      p { margin: 4px 0; line-height: 1.45; }
+      p { margin: 6px 0; line-height: 1.45; }
       .row { display: flex; flex-wrap: wrap; align-items: center; gap: 6px; margin: 6px 0; }
       .cal { padding: 6px 8px; border: 1px solid var(--line); border-radius: 3px; background: #161d24; }
       .cal.none { border-color: #6b5a34; background: #221d12; color: #f0d9a0; }
@@ -197,10 +238,10 @@ export class StrataMeasurePanel extends LitElement {
       svg.marks .mate { fill: none; stroke: #ffd84d; stroke-width: 1.5; stroke-dasharray: 3 2; }
       svg.marks .halo { fill: none; stroke: #000; stroke-width: 3; stroke-opacity: 0.6; }
       svg.marks .cross { stroke: #9fd3e6; stroke-width: 1; }
-      svg.marks text { fill: #ffe9a8; font-size: 10px; paint-order: stroke; stroke: #000; stroke-width: 2.5px; }
+      svg.marks text { fill: #ffe9a8; font-size: 12px; paint-order: stroke; stroke: #000; stroke-width: 2.5px; }
       .table-wrap { overflow-x: auto; max-width: 100%; }
-      table { border-collapse: collapse; width: 100%; font-size: 12px; margin: 4px 0; }
-      th, td { padding: 2px 3px; text-align: right; border-bottom: 1px solid var(--line); white-space: nowrap; }
+      table { border-collapse: collapse; width: 100%; font-size: 11.5px; margin: 4px 0; }
+      th, td { padding: 2px 2px; text-align: right; border-bottom: 1px solid var(--line); white-space: nowrap; }
       th { color: var(--muted); font-weight: normal; }
       th:first-child, td:first-child { text-align: center; }
       tr.sel td { background: #23303c; }
@@ -211,6 +252,9 @@ export class StrataMeasurePanel extends LitElement {
       .between { padding: 4px 6px; border-left: 2px solid var(--accent-2); margin: 4px 0; }
       .toggle { display: inline-flex; gap: 2px; }
       .empty { color: var(--muted); padding: 12px 0; }
+      details.typed { margin: 2px 0 6px; font-size: 12px; }
+      details.typed summary { color: var(--muted); cursor: pointer; }
+      details.typed input { width: 11em; }
     `,
   ];
 
@@ -262,6 +306,77 @@ export class StrataMeasurePanel extends LitElement {
     this.crosshair = null;
     this.savedProfile = '';
     this.savedSpectrum = '';
+  }
+
+  /** The panel's state for the undo history (plain JSON). */
+  workState(): PeriodsState {
+    const plain = <T>(v: T): T => (v === null ? v : JSON.parse(JSON.stringify(v)) as T);
+    return {
+      line: plain(this.profileLine), rect: plain(this.spectrumRect),
+      spots: plain(this.spots.filter((t) => !t.budgeting)), selected: [...this.selected],
+      windowKind: this.windowKind, alpha: this.alpha, estimator: this.estimator, coverageK: this.coverageK,
+    };
+  }
+
+  /** Records a step of the image's undo history (the shell keeps it with the image). */
+  private step(label: string): void {
+    if (this.restoring > 0) return;
+    this.dispatchEvent(new CustomEvent('history-step', { detail: { label, state: this.workState() }, bubbles: true, composed: true }));
+  }
+
+  /** Restores in progress (a result that arrives for one of them records no step). */
+  private restoring = 0;
+
+  /**
+   * Shows a state from the undo history again: the settings, the profile along its line and the
+   * region's spectrum with the spot table as it was (the region's transform is cached in the
+   * worker; spots keep their numbers and budgets). Null clears the results.
+   */
+  async restoreState(state: unknown): Promise<void> {
+    await this.updateComplete;
+    const st = state as PeriodsState | null;
+    this.restoring++;
+    try {
+      if (!st) {
+        this.resetResults();
+        this.sendShapes();
+        return;
+      }
+      this.windowKind = st.windowKind;
+      this.alpha = st.alpha;
+      this.estimator = st.estimator;
+      this.coverageK = st.coverageK;
+      const same = (a: unknown, b: unknown) => JSON.stringify(a) === JSON.stringify(b);
+      const jobs: Promise<void>[] = [];
+      if (!st.line) {
+        this.profileRun++;
+        this.profile = null;
+        this.profileLine = null;
+        this.profileError = '';
+      } else if (!same(st.line, this.profileLine) || !this.profile) {
+        if (st.line.widthPx) this.widthPx = Math.round(st.line.widthPx);
+        jobs.push(this.runProfile(st.line));
+      }
+      if (!st.rect) {
+        this.spectrumRun++;
+        this.spectrum = null;
+        this.spectrumRect = null;
+        this.spots = [];
+        this.selected = [];
+        this.filtered = null;
+      } else if (!same(st.rect, this.spectrumRect) || !this.spectrum) {
+        jobs.push(this.runSpectrum(st.rect, st));
+      } else {
+        this.spots = st.spots;
+        this.selected = st.selected;
+        this.nextSpot = Math.max(0, ...st.spots.map((t) => t.n)) + 1;
+        this.filtered = null;
+      }
+      await Promise.all(jobs);
+      this.sendShapes();
+    } finally {
+      this.restoring--;
+    }
   }
 
   private say(text: string, kind: 'info' | 'error' = 'info'): void {
@@ -323,6 +438,7 @@ export class StrataMeasurePanel extends LitElement {
     if (!image || !this.compute) return;
     const run = ++this.profileRun;
     this.profileLine = line;
+    this.lastDrawn = 'profile';
     this.profileError = '';
     this.savedProfile = '';
     const across = Math.max(1, Math.round(line.widthPx));
@@ -357,6 +473,7 @@ export class StrataMeasurePanel extends LitElement {
       });
       if (run !== this.profileRun) return;
       this.profile = result;
+      this.step(`profile line ${result.lengthPx.toFixed(0)} px`);
     } catch (e) {
       if (run !== this.profileRun) return;
       this.profile = null;
@@ -390,16 +507,6 @@ export class StrataMeasurePanel extends LitElement {
     return out;
   }
 
-  /** Exports the tab's results through the one CSV writer or the one JSON form (src/measure/export.ts). */
-  private exportResults(kind: 'csv' | 'json'): void {
-    const records = this.currentRecords();
-    if (!records.length) return;
-    const base = (this.record?.fileName ?? 'periods').replace(/\.[^.]+$/, '').replace(/[^A-Za-z0-9._-]+/g, '_');
-    if (kind === 'csv') download(`${base}-periods.csv`, measurementsCsv(records, { k: this.coverageK }), 'text/csv');
-    else download(`${base}-periods.json`, `${JSON.stringify(measurementsJson(records, this.coverageK), null, 2)}\n`, 'application/json');
-    this.say(`${records.length} result${records.length === 1 ? '' : 's'} exported as ${kind.toUpperCase()} (± with k = ${this.coverageK}).`);
-  }
-
   private async save(m: Measurement, done: (text: string) => void): Promise<void> {
     try {
       await putMeasurement(this.db as LibraryDb, m);
@@ -418,11 +525,12 @@ export class StrataMeasurePanel extends LitElement {
     return { window: this.windowKind, tukeyAlpha: 0.5, alpha: this.alpha };
   }
 
-  private async runSpectrum(rect: RectDrawnDetail): Promise<void> {
+  private async runSpectrum(rect: RectDrawnDetail, table: Pick<PeriodsState, 'spots' | 'selected'> | null = null): Promise<void> {
     const image = this.image;
     if (!image || !this.compute) return;
     const run = ++this.spectrumRun;
     this.spectrumRect = rect;
+    this.lastDrawn = 'spectrum';
     this.spectrumError = '';
     this.savedSpectrum = '';
     this.filtered = null;
@@ -442,10 +550,18 @@ export class StrataMeasurePanel extends LitElement {
       if (run !== this.spectrumRun) return;
       this.spectrum = result;
       this.nextSpot = 1;
-      this.spots = result.spots.map((s) => ({ ...s, n: this.nextSpot++, added: false }));
-      this.selected = this.spots.length ? [this.spots[0].n] : [];
+      if (table) {
+        // a state from the undo history: the spot table as it was
+        this.spots = table.spots;
+        this.selected = table.selected;
+        this.nextSpot = Math.max(0, ...table.spots.map((t) => t.n)) + 1;
+      } else {
+        this.spots = result.spots.map((s) => ({ ...s, n: this.nextSpot++, added: false }));
+        this.selected = this.spots.length ? [this.spots[0].n] : [];
+      }
       this.crosshair = null;
       this.zoom = this.autoZoom();
+      this.step(`region ${rect.width} × ${rect.height} px`);
     } catch (e) {
       if (run !== this.spectrumRun) return;
       this.spectrum = null;
@@ -457,10 +573,16 @@ export class StrataMeasurePanel extends LitElement {
     this.sendShapes();
   }
 
+  /** Side of the spectrum figure, CSS px: as much of the figures column as fits (the whole figure without scrolling), at least 320. */
+  private spectrumSidePx(): number {
+    if (!this.wide) return SPECTRUM_CSS_PX;
+    return Math.max(SPECTRUM_CSS_PX, Math.min(1024, Math.floor(this.stageWidthPx) - 4, Math.floor(this.stageHeightPx) - 64));
+  }
+
   /** CSS px per picture pixel at zoom 1. */
   private pictureScale(): number {
     const p = (this.spectrum as SpectrumView).picture;
-    return SPECTRUM_CSS_PX / Math.max(p.width, p.height);
+    return this.spectrumSidePx() / Math.max(p.width, p.height);
   }
 
   /** The visible frame (CSS px) and the zoomed picture's offset and scale inside it. */
@@ -566,6 +688,7 @@ export class StrataMeasurePanel extends LitElement {
       if (run !== this.spectrumRun || !this.spots.some((x) => x.n === t.n)) return;
       this.spots = this.spots.map((x) => (x.n === t.n ? { ...full, n: t.n, added: true } : x));
       this.timelineMark = ['strata-spot-budgeted', 'strata-spot-click-to-budget'];
+      this.step(`spot #${t.n} added`);
       this.say(`Spot #${t.n} added: d ${this.dText(full.periodPx, this.image?.calibration ?? null, full.angleDeg, 'normal')}, ${full.angleDeg.toFixed(1)}°.`);
     } catch (e) {
       this.spots = this.spots.map((x) => (x.budgeting ? { ...x, budgeting: false } : x));
@@ -583,6 +706,7 @@ export class StrataMeasurePanel extends LitElement {
     this.selected = this.selected.filter((k) => k !== n);
     this.filtered = null;
     this.savedSpectrum = '';
+    this.step(`spot #${n} removed`);
   }
 
   /** Lays the Fourier-filtered region over the micrograph (or removes it) in the viewer. */
@@ -663,7 +787,49 @@ export class StrataMeasurePanel extends LitElement {
       ${tools.map(([t, label, hint]) => html`<button aria-pressed=${this.activeTool === t ? 'true' : 'false'} title=${hint} ?disabled=${!this.viewer} @click=${() => this.setTool(t)}>${label}</button>`)}
       <label title="Averaging width across the profile line, in pixels. Wider lines lower the noise but blur fringes that are not perpendicular to the line.">width
         <input class="width" type="number" min="1" max="512" step="1" .value=${String(this.widthPx)} @change=${this.setWidth} aria-label="Profile width in pixels"> px</label>
-    </div>`;
+    </div>
+    <details class="typed" @toggle=${(e: Event) => (this.typedOpen = (e.target as HTMLDetailsElement).open)}><summary>Type a region or a line (image px)</summary>
+      ${this.typedOpen ? html`
+      <div class="row"><label>region x, y, width, height
+        <input class="typed-rect" placeholder="250, 250, 160, 160" aria-label="Region: left, top, width and height in image pixels"
+          @keydown=${(e: KeyboardEvent) => { if (e.key === 'Enter') this.measureTyped('rect'); }}></label>
+        <button @click=${() => this.measureTyped('rect')}>Measure region</button></div>
+      <div class="row"><label>line x0, y0, x1, y1
+        <input class="typed-line" placeholder="240, 380, 420, 280" aria-label="Profile line: start x, start y, end x, end y in image pixels (width as set above)"
+          @keydown=${(e: KeyboardEvent) => { if (e.key === 'Enter') this.measureTyped('line'); }}></label>
+        <button @click=${() => this.measureTyped('line')}>Measure line</button></div>` : nothing}
+    </details>`;
+  }
+
+  /**
+   * Measures a region or a line typed in image pixels (the keyboard's way to the two tools, and a
+   * way to repeat a measurement exactly); a value outside the image is refused by name.
+   */
+  private measureTyped(kind: 'rect' | 'line'): void {
+    const image = this.image;
+    const input = this.renderRoot.querySelector<HTMLInputElement>(kind === 'rect' ? 'input.typed-rect' : 'input.typed-line');
+    if (!image || !input) return;
+    const v = input.value.split(/[\s,;]+/).filter(Boolean).map(Number);
+    if (v.length !== 4 || v.some((n) => !Number.isFinite(n))) {
+      this.say(`Type four numbers for the ${kind === 'rect' ? 'region (x, y, width, height)' : 'line (x0, y0, x1, y1)'}, got "${input.value}".`, 'error');
+      return;
+    }
+    if (kind === 'rect') {
+      const [x, y, width, height] = v.map(Math.round);
+      if (x < 0 || y < 0 || width < 1 || height < 1 || x + width > image.width || y + height > image.height) {
+        this.say(`The region ${x}, ${y}, ${width} × ${height} px does not lie inside the ${image.width} × ${image.height} px image.`, 'error');
+        return;
+      }
+      void this.runSpectrum({ x, y, width, height });
+    } else {
+      const [x0, y0, x1, y1] = v;
+      const bad = [['x0', x0, image.width], ['y0', y0, image.height], ['x1', x1, image.width], ['y1', y1, image.height]].find(([, n, max]) => (n as number) < 0 || (n as number) > (max as number) - 1);
+      if (bad) {
+        this.say(`${bad[0]} = ${bad[1]} lies outside the ${image.width} × ${image.height} px image.`, 'error');
+        return;
+      }
+      void this.runProfile({ x0, y0, x1, y1, widthPx: this.widthPx });
+    }
   }
 
   private renderSettings() {
@@ -693,7 +859,6 @@ export class StrataMeasurePanel extends LitElement {
 
   private renderProfile() {
     const p = this.profile;
-    const cal = this.image?.calibration ?? null;
     const body = [];
     if (this.profileBusy) body.push(html`<p class="busy" role="status">Measuring the profile…</p>`);
     if (this.profileError) body.push(html`<p class="error" role="alert">${this.profileError}</p>`);
@@ -701,35 +866,9 @@ export class StrataMeasurePanel extends LitElement {
       body.push(html`<p class="empty">Draw a profile line across the fringes (perpendicular to them) to measure their period.</p>`);
     }
     if (p) {
-      const nmStep = cal ? nmPerPxAlong(cal, 'line', p.angleDeg) : 1;
-      const x = cal ? p.distancePx.map((d) => d * nmStep) : p.distancePx;
-      const se = p.standardError;
-      const hasBand = se.length > 0 && Number.isFinite(se[0]);
-      const lo = hasBand ? p.mean.map((m, i) => m - se[i]) : null;
-      const hi = hasBand ? p.mean.map((m, i) => m + se[i]) : null;
-      const points: PlotPoint[] = [];
-      const rs = p.realSpace;
-      if (rs) {
-        const P = rs.periodPx;
-        for (const xe of rs.extremaPx) {
-          const i = Math.max(0, Math.min(p.mean.length - 2, Math.floor(xe)));
-          const f = xe - i;
-          const y = p.mean[i] * (1 - f) + p.mean[i + 1] * f;
-          let s = 0;
-          let c = 0;
-          for (let j = Math.max(0, Math.round(xe - P / 2)); j <= Math.min(p.mean.length - 1, Math.round(xe + P / 2)); j++) { s += p.mean[j]; c++; }
-          const scale = x.length > 1 ? x[1] - x[0] : 1;
-          points.push({ x: xe * scale, y, kind: y > s / c ? 'max' : 'min' });
-        }
-      }
       const width = Math.max(1, Math.round(this.profileLine?.widthPx ?? 1));
-      body.push(linePlot({
-        width: PLOT_WIDTH, height: 170, x, y: p.mean, lo, hi,
-        xLabel: cal ? 'distance along the line (nm)' : 'distance along the line (px)',
-        yLabel: 'mean grey value',
-        description: `Line profile, ${p.lengthPx.toFixed(0)} px long, averaged over ${width} px${hasBand ? ', band: ± standard error of the mean' : ''}; ${rs ? `${rs.extremaPx.length} fringe extrema marked` : 'no fringe extrema found'}`,
-        points,
-      }));
+      const hasBand = p.standardError.length > 0 && Number.isFinite(p.standardError[0]);
+      const rs = p.realSpace;
       body.push(html`<p class="note">${p.lengthPx.toFixed(1)} px at ${p.angleDeg.toFixed(1)}°, averaged over ${width} px${hasBand ? '; band ± standard error' : ''}. ● maxima, ○ minima used by the real-space estimate.</p>`);
       const sp = p.spectral;
       const pers = p.measurement.periodicities;
@@ -759,21 +898,37 @@ export class StrataMeasurePanel extends LitElement {
     const pic = s.picture;
     const { cw, ch, scale, left, top } = this.frame();
     const cal = this.image?.calibration ?? null;
-    const marks = this.spots.map((t) => {
-      // Show each spot in the upper half (y up), where its angle reads as drawn; its Friedel mate opposite.
+    // Each spot in the upper half (y up), where its angle reads as drawn; its Friedel mate opposite.
+    const at = this.spots.map((t) => {
       const flip = t.fy > 0 || (t.fy === 0 && t.fx < 0) ? -1 : 1;
       const su = flip * t.fx * s.width;
       const sv = flip * t.fy * s.height;
       const [x, y] = this.binToCss(su, sv);
       const [mx, my] = this.binToCss(-su, -sv);
+      const visible = x >= -8 && y >= -8 && x <= cw + 8 && y <= ch + 8;
+      return { t, x, y, mx, my, visible };
+    });
+    // Labels that never overlap each other or a spot: the selected and the strongest spot first,
+    // with their d-spacing and angle; the others with their number; a label with no room is left out.
+    const R = 7;
+    const obstacles: Box[] = at.filter((a) => a.visible).flatMap((a) => [
+      { x: a.x - R, y: a.y - R, width: 2 * R, height: 2 * R }, { x: a.mx - R, y: a.my - R, width: 2 * R, height: 2 * R }]);
+    const order = [...at.filter((a) => a.visible)].sort((p, q) => Number(this.selected.includes(q.t.n)) - Number(this.selected.includes(p.t.n)) || (p.t === this.spots[0] ? -1 : q.t === this.spots[0] ? 1 : 0));
+    const texts = order.map((a) => {
+      const full = this.selected.includes(a.t.n) || a.t === this.spots[0];
+      return `#${a.t.n}${full ? ` ${this.dText(a.t.periodPx, cal, a.t.angleDeg, 'normal')} ${a.t.angleDeg.toFixed(0)}°` : ''}`;
+    });
+    const LABEL_PX = 12;
+    const placed = placeLabels(order.map((a, i) => ({ x: a.x, y: a.y, width: textWidthEstimate(texts[i], LABEL_PX), height: LABEL_PX + 3 })),
+      { bounds: { x: 0, y: 0, width: cw, height: ch }, obstacles, gap: R + 1 });
+    const labels = order.map((a, i) => (placed[i].placed
+      ? svg`<text x=${placed[i].box.x + 1} y=${placed[i].box.y + LABEL_PX}>${texts[i]}</text>`
+      : nothing));
+    const marks = at.map(({ t, x, y, mx, my, visible }) => {
+      if (!visible) return nothing;
       const sel = this.selected.includes(t.n);
-      if (x < -8 || y < -8 || x > cw + 8 || y > ch + 8) return nothing;
-      const right = x < cw - 100;
-      // Full labels for the strongest and the selected spots; the others carry their number only.
-      const full = sel || t === this.spots[0];
       return svg`<circle class="halo" cx=${x} cy=${y} r="6"></circle><circle class=${classMap({ spot: true, sel, added: t.added })} cx=${x} cy=${y} r="6"></circle>
-        <circle class="halo" cx=${mx} cy=${my} r="6"></circle><circle class="mate" cx=${mx} cy=${my} r="6"></circle>
-        <text x=${right ? x + 9 : x - 9} y=${y - 7} text-anchor=${right ? 'start' : 'end'}>#${t.n}${full ? ` ${this.dText(t.periodPx, cal, t.angleDeg, 'normal')} ${t.angleDeg.toFixed(0)}°` : ''}</text>`;
+        <circle class="halo" cx=${mx} cy=${my} r="6"></circle><circle class="mate" cx=${mx} cy=${my} r="6"></circle>`;
     });
     const c = this.crosshair;
     const cross = c ? (() => {
@@ -795,7 +950,7 @@ export class StrataMeasurePanel extends LitElement {
       <div class="clip" data-w=${cw} data-h=${ch}>
         <canvas class="spectrum" width=${pic.width} height=${pic.height}
           data-w=${pic.width * scale} data-h=${pic.height * scale} data-l=${left} data-t=${top}></canvas></div>
-      <svg class="marks" width=${cw + 2} height=${ch + 2} viewBox="-1 -1 ${cw + 2} ${ch + 2}" @click=${this.onSpectrumClick}>${marks}${cross}</svg>
+      <svg class="marks" width=${cw + 2} height=${ch + 2} viewBox="-1 -1 ${cw + 2} ${ch + 2}" @click=${this.onSpectrumClick}>${marks}${labels}${cross}</svg>
     </div>`;
   }
 
@@ -814,7 +969,7 @@ export class StrataMeasurePanel extends LitElement {
           ${t.flags.length ? html`<div class="flag" title="A spot with a doubt is never ranked first">${t.flags.join(', ')}</div>` : nothing}
           ${t.budgeting ? html`<div class="note busy" role="status" title="Refining the spot where its fringes are; until then its ± holds the statistical part (and the calibration)">budgeting…</div>` : nothing}</td>
         <td class="num">${formatPlusMinus(t.angleDeg, this.coverageK * t.uAngleDeg, 2)}°</td>
-        <td class="num">${t.normalisedPower.toPrecision(3)}</td>
+        <td class="num">${t.normalisedPower >= 100 ? Math.round(t.normalisedPower) : t.normalisedPower.toPrecision(3)}</td>
         <td><button @click=${() => this.removeSpot(t.n)} aria-label=${`Remove spot ${t.n}`} title="Remove this spot from the table">×</button></td>
       </tr>`;
     });
@@ -823,7 +978,7 @@ export class StrataMeasurePanel extends LitElement {
       <div class="table-wrap"><table>
         <thead><tr><th scope="col" title="Selected spots are used for the angle between two spots and for the Fourier filter">use</th><th scope="col">spot</th>
           <th scope="col">d-spacing</th><th scope="col">angle</th>
-          <th scope="col" title="Spot power over the local background of the power spectrum">strength</th><th scope="col"><span class="visually-hidden">remove</span></th></tr></thead>
+          <th scope="col" title="Spot power over the local background of the power spectrum">power</th><th scope="col"><span class="visually-hidden">remove</span></th></tr></thead>
         <tbody>${rows}</tbody></table></div>
       ${this.budgetNote(this.spots)}
       ${pair.length === 2
@@ -831,53 +986,41 @@ export class StrataMeasurePanel extends LitElement {
         : html`<p class="note">Select two spots to see the angle between their fringe normals.</p>`}`;
   }
 
-  private renderRadial(s: SpectrumView) {
-    const cal = this.image?.calibration ?? null;
-    // rings have no direction: the mean scale of the two pixel axes (nmPerPxAlong, 'ring')
-    const k = cal ? 1 / nmPerPxAlong(cal, 'ring', 0) : 1;
-    const rings = s.rings.slice(0, 4);
-    // The same frequency range as the spectrum at its zoom, widened to show the strongest ring.
-    const fMax = Math.min(0.5, Math.max(0.5 / this.zoom, 1.2 * (rings[0]?.frequencyPerPx ?? 0)));
-    const keep = Array.from(s.radialFrequencyPerPx).map((v, i) => i >= 2 && v <= fMax);
-    const f = Array.from(s.radialFrequencyPerPx).filter((_, i) => keep[i]);
-    const y = Array.from(s.radialPower).filter((_, i) => keep[i]).map((v) => (v > 0 ? Math.log10(v) : NaN));
-    return html`<h3>Radial average</h3>
-      ${linePlot({
-        width: PLOT_WIDTH, height: 150, x: f.map((v) => v * k), y,
-        xLabel: cal ? 'spatial frequency (nm⁻¹)' : 'spatial frequency (px⁻¹)', yLabel: 'log₁₀ power',
-        description: `Radial average of the power spectrum; ${rings.length ? `rings at ${rings.map((r) => this.dText(r.periodPx, cal, 0, 'ring')).join(', ')}` : 'no significant ring'}`,
-        rules: rings.map((r) => ({ x: r.frequencyPerPx * k, label: `d ${this.dText(r.periodPx, cal, 0, 'ring')}` })),
-      })}
-      ${s.rings.length
-        ? html`<p class="note num">Rings: ${s.rings.slice(0, 6).map((r) => {
-          const b = this.budget(ringPeriodicity(r));
-          return `${formatPlusMinus(b.value, b.expanded)} ${b.unit}`;
-        }).join(' · ')}</p>`
-        : html`<p class="note">No significant ring in the radial average.</p>`}`;
+  /** The rings of the radial average, with their ± (side column). */
+  private renderRings(s: SpectrumView) {
+    return s.rings.length
+      ? html`<p class="note num">Rings in the radial average: ${s.rings.slice(0, 6).map((r) => {
+        const b = this.budget(ringPeriodicity(r));
+        return `${formatPlusMinus(b.value, b.expanded)} ${b.unit}`;
+      }).join(' · ')}</p>`
+      : html`<p class="note">No significant ring in the radial average.</p>`;
   }
 
-  private renderFilter() {
+  /** The Fourier filter's button (side column). */
+  private renderFilterControls() {
     const chosen = this.spots.filter((t) => this.selected.includes(t.n));
-    const f = this.filtered;
-    const pic: Picture | null = f ? (this.showFiltered ? f.filtered : f.original) : null;
-    let view = nothing as unknown;
-    if (pic) {
-      const scale = SPECTRUM_CSS_PX / Math.max(pic.width, pic.height);
-      view = html`<div class="row toggle" role="group" aria-label="Shown image">
-          <button aria-pressed=${this.showFiltered ? 'false' : 'true'} @click=${() => (this.showFiltered = false)}>Original region</button>
-          <button aria-pressed=${this.showFiltered ? 'true' : 'false'} @click=${() => (this.showFiltered = true)}>Fourier-filtered</button>
-          <label title="Lay the filtered region over the micrograph in the viewer, at 70 % opacity"><input type="checkbox" .checked=${this.filterOverImage}
-            @change=${(e: Event) => { this.filterOverImage = (e.target as HTMLInputElement).checked; }} /> over the micrograph</label>
-        </div>
-        <div class="figure"><canvas class="filtered" width=${pic.width} height=${pic.height} role="img"
-          aria-label=${this.showFiltered ? 'The region Fourier-filtered to the selected spots' : 'The region as recorded'}
-          data-w=${Math.round(pic.width * scale)} data-h=${Math.round(pic.height * scale)}></canvas></div>`;
-    }
     return html`<h3>Fourier filter</h3>
       <div class="row"><button ?disabled=${!chosen.length || this.filterBusy} @click=${() => this.runFilter()}
         title="Keep only the selected spots and their Friedel mates (soft Gaussian masks) and transform back: shows where in the region these fringes are">
-        ${this.filterBusy ? 'Filtering…' : `Filter to ${chosen.length ? chosen.map((t) => `#${t.n}`).join(', ') : 'selected spots'}`}</button></div>
-      ${view}`;
+        ${this.filterBusy ? 'Filtering…' : `Filter to ${chosen.length ? chosen.map((t) => `#${t.n}`).join(', ') : 'selected spots'}`}</button></div>`;
+  }
+
+  /** The Fourier-filtered region (stage). */
+  private renderFilterView() {
+    const f = this.filtered;
+    const pic: Picture | null = f ? (this.showFiltered ? f.filtered : f.original) : null;
+    if (!pic) return nothing;
+    const side = this.wide ? Math.min(this.spectrumSidePx(), 512) : SPECTRUM_CSS_PX;
+    const scale = side / Math.max(pic.width, pic.height);
+    return html`<div class="figure-block"><h3>Fourier-filtered region</h3><div class="row toggle" role="group" aria-label="Shown image">
+        <button aria-pressed=${this.showFiltered ? 'false' : 'true'} @click=${() => (this.showFiltered = false)}>Original region</button>
+        <button aria-pressed=${this.showFiltered ? 'true' : 'false'} @click=${() => (this.showFiltered = true)}>Fourier-filtered</button>
+        <label title="Lay the filtered region over the micrograph in the viewer, at 70 % opacity"><input type="checkbox" .checked=${this.filterOverImage}
+          @change=${(e: Event) => { this.filterOverImage = (e.target as HTMLInputElement).checked; }} /> over the micrograph</label>
+      </div>
+      <div class="figure"><canvas class="filtered" width=${pic.width} height=${pic.height} role="img"
+        aria-label=${this.showFiltered ? 'The region Fourier-filtered to the selected spots' : 'The region as recorded'}
+        data-w=${Math.round(pic.width * scale)} data-h=${Math.round(pic.height * scale)}></canvas></div></div>`;
   }
 
   private renderSpectrum() {
@@ -888,12 +1031,10 @@ export class StrataMeasurePanel extends LitElement {
     if (!s && !this.spectrumBusy && !this.spectrumError) body.push(html`<p class="empty">Draw a region over the fringes to see its power spectrum and the d-spacing of each spot.</p>`);
     if (s) {
       const trimmed = s.width !== this.spectrumRect?.width || s.height !== this.spectrumRect?.height;
-      body.push(html`<p class="note num">${s.width} × ${s.height} px transformed${trimmed ? ' (trimmed, centred, to a fast FFT size)' : ''}, ${this.windowKind === 'none' ? 'no window' : `${this.windowKind === 'hann' ? 'Hann' : 'Tukey'} window`}.</p>`);
-      body.push(this.renderSpectrumFigure(s));
-      body.push(html`<p class="note">Solid circles: spots; dashed: their Friedel mates. Click the spectrum (or focus it and use the arrow keys and Enter) to add a spot.</p>`);
       body.push(this.renderSpotTable(s));
-      body.push(this.renderFilter());
-      body.push(this.renderRadial(s));
+      body.push(html`<p class="note num">${s.width} × ${s.height} px transformed${trimmed ? ' (trimmed, centred, to a fast FFT size)' : ''}, ${this.windowKind === 'none' ? 'no window' : `${this.windowKind === 'hann' ? 'Hann' : 'Tukey'} window`}.</p>`);
+      body.push(this.renderRings(s));
+      body.push(this.renderFilterControls());
       body.push(html`<div class="row">
         <button @click=${() => this.saveSpectrum()} ?disabled=${!this.db} title="Keep the spots, rings, region, window, significance and calibration in the library">Save spectrum spots</button>
         ${this.savedSpectrum ? html`<span class="note" role="status">${this.savedSpectrum}</span>` : nothing}</div>`);
@@ -901,18 +1042,93 @@ export class StrataMeasurePanel extends LitElement {
     return html`<section aria-labelledby="h-spectrum"><h2 id="h-spectrum">Power spectrum of a region</h2>${this.renderSettings()}${body}</section>`;
   }
 
-  /** Export of the tab's results (the profile and the region's spots) through the one CSV writer and JSON form. */
+  /**
+   * The figures (the main area when the panel is wide, below the controls otherwise): the power
+   * spectrum, the Fourier-filtered region, the line profile and the radial average.
+   */
+  private renderStage() {
+    const s = this.spectrum;
+    const p = this.profile;
+    const cal = this.image?.calibration ?? null;
+    const spectrumParts = [];
+    const profileParts = [];
+    const parts = [];
+    if (s) {
+      spectrumParts.push(html`<div class="figure-block"><h3>Power spectrum of the region</h3>${this.renderSpectrumFigure(s)}
+        <p class="note">Solid circles: spots; dashed: their Friedel mates. Click the spectrum (or focus it and use the arrow keys and Enter) to add a spot.</p></div>`);
+      spectrumParts.push(this.renderFilterView());
+    } else if (this.spectrumBusy) {
+      spectrumParts.push(html`<p class="busy stage-wait" role="status">Computing the power spectrum…</p>`);
+    }
+    if (p && p.mean.length >= 2) {
+      profileParts.push(html`<strata-plot class="profile-plot" .data=${profilePlot(p, cal, this.profileLine?.widthPx ?? 1)}
+        height-px=${this.wide ? 260 : 190} file-stem=${this.fileStem()}></strata-plot>`);
+    }
+    if (s && s.radialFrequencyPerPx.length > 3) {
+      spectrumParts.push(html`<strata-plot class="radial-plot" .data=${radialPlot(s, cal, 0.5 / this.zoom)}
+        height-px=${this.wide ? 240 : 170} file-stem=${this.fileStem()}></strata-plot>`);
+    }
+    parts.push(...(this.lastDrawn === 'profile' ? [...profileParts, ...spectrumParts] : [...spectrumParts, ...profileParts]));
+    if (!parts.length) {
+      parts.push(html`<div class="stage-empty"><p>The figures of a measurement appear here at full size.</p>
+        <p><b>Draw region</b>: the power spectrum of a region over the fringes, with its spots and the radial average.</p>
+        <p><b>Draw profile line</b>: the grey values along a line across the fringes, with the fringe extrema.</p></div>`);
+    }
+    return html`<div class="stage" aria-label="Figures">${parts}</div>`;
+  }
+
+  /** File-name stem of exports: the image's name without its extension. */
+  private fileStem(): string {
+    return (this.record?.fileName ?? 'periods').replace(/\.[^.]+$/, '').replace(/[^A-Za-z0-9._-]+/g, '_');
+  }
+
+  /** The plots of the tab's results, as the report draws them. */
+  private currentPlots(): PlotData[] {
+    const cal = this.image?.calibration ?? null;
+    const out: PlotData[] = [];
+    if (this.profile && this.profile.mean.length >= 2) out.push(profilePlot(this.profile, cal, this.profileLine?.widthPx ?? 1));
+    if (this.spectrum && this.spectrum.radialFrequencyPerPx.length > 3) out.push(radialPlot(this.spectrum, cal, 0.5 / this.zoom));
+    return out;
+  }
+
+  /** Export of the tab's results (the profile and the region's spots) through the one export menu. */
   private renderExport() {
     const any = (this.profile && (this.profile.spectral || this.profile.realSpace)) || this.spectrum;
     if (!any) return nothing;
     return html`<section aria-labelledby="h-export"><h2 id="h-export">Export</h2>
-      <div class="row">
-        <button class="export-csv" @click=${() => this.exportResults('csv')} title="One row per period: px with its uncertainty parts, nm with every part, combined and expanded (k as chosen above), direction, strength">Export CSV</button>
-        <button class="export-json" @click=${() => this.exportResults('json')} title="The records as the library keeps them (px and parts, calibration, settings), with each period's budget in nm">Export JSON</button>
-      </div></section>`;
+      <strata-export-menu .records=${this.currentRecords()} .plots=${this.currentPlots()} .k=${this.coverageK}
+        .fileName=${this.record?.fileName ?? ''} .compute=${this.compute} .session=${this.session}></strata-export-menu></section>`;
   }
 
-  protected override updated(): void {
+  override disconnectedCallback(): void {
+    super.disconnectedCallback();
+    this.stageObserver?.disconnect();
+    this.stageObserver = null;
+  }
+
+  /** Watches the figures column so the spectrum and the plots take its width. */
+  private observeStage(): void {
+    const stage = this.renderRoot.querySelector<HTMLElement>('.stage');
+    if (!stage || (stage as unknown as { observed?: boolean }).observed) return;
+    (stage as unknown as { observed?: boolean }).observed = true;
+    this.stageObserver ??= new ResizeObserver((entries) => {
+      for (const e of entries) {
+        const w = Math.round(e.contentRect.width);
+        const h = Math.round(e.contentRect.height);
+        if (w > 0 && (Math.abs(w - this.stageWidthPx) > 1 || Math.abs(h - this.stageHeightPx) > 1)) {
+          this.stageWidthPx = w;
+          this.stageHeightPx = h;
+        }
+      }
+    });
+    this.stageObserver.observe(stage);
+  }
+
+  protected override updated(changed: PropertyValues<this>): void {
+    this.observeStage();
+    if (changed.has('lastDrawn') && changed.get('lastDrawn') !== undefined) {
+      for (const el of this.renderRoot.querySelectorAll<HTMLElement>('.stage, .side')) el.scrollTop = 0;
+    }
     this.syncViewerOverlay();
     if (this.timelineMark) {
       // the clicked spot's numbers (or its full budget) are in the table now: on the performance timeline
@@ -957,7 +1173,7 @@ export class StrataMeasurePanel extends LitElement {
     if (!this.image) {
       return html`<p class="empty">Open a micrograph to measure lattice-fringe and lamellar periods: a line profile across the fringes, or the power spectrum of a region.</p>`;
     }
-    return html`${this.renderCalibration()}${this.renderTools()}${this.renderProfile()}${this.renderSpectrum()}${this.renderExport()}`;
+    return html`<div class="side">${this.renderCalibration()}${this.renderTools()}${this.lastDrawn === 'profile' ? [this.renderProfile(), this.renderSpectrum()] : [this.renderSpectrum(), this.renderProfile()]}${this.renderExport()}</div>${this.renderStage()}`;
   }
 }
 

@@ -29,7 +29,9 @@ import { histogram, type Summary } from '../src/measure/stats';
 import type { ComputeClient } from './compute-client';
 import type { LineDrawnDetail, OverlayShape, ShapeClickDetail, StrataViewer } from './viewer';
 import { controlStyles, panelStyles } from './styles';
-import { linePlot, plotStyles } from './plot-line';
+import { plotStyles } from './plot-line';
+import type { PlotData } from '../src/figure/plot';
+import './plot';
 
 export const panelLabel = 'Sheets';
 
@@ -449,7 +451,11 @@ export class StrataSheetsPanel extends LitElement {
     ]);
     const cal = this.image?.calibration ?? null;
     return html`
-      ${linePlot({ width: 300, height: 150, x, y, xLabel: 'distance along the line (px)', yLabel: 'grey value', description: 'Profile along the line with the layers found and the n·d extent of each sheet', points, rules })}
+      <strata-plot height-px="220" file-stem="sheets-line" .data=${{
+        id: 'sheets-line-profile', title: 'Profile across the sheets', xLabel: 'distance along the line (px)', yLabel: 'grey value', x,
+        traces: [{ label: 'grey value', y, style: 'data' }], marks: points, rules,
+        description: 'Profile along the line with the layers found and the n·d extent of each sheet.',
+      } satisfies PlotData}></strata-plot>
       <p class="muted">Period ${r.periodPx === null ? '—' : `${r.periodPx.toFixed(3)} px`} (${r.periodSource ?? 'none'}).</p>
       ${r.sheets.length
         ? html`<table>

@@ -3,7 +3,9 @@
  * or a rectangular region of it, strongest first, each as d ± u; with --tool, any tool of the
  * measurement-tool registry on a region or a line.
  */
-import { readFile } from 'node:fs/promises';
+import { readFile, writeFile } from 'node:fs/promises';
+import { basename } from 'node:path';
+import { PROGRAM_VERSION } from './version';
 import type { CliCommand, CliIo } from './command';
 import { coverageFactorOption, parseArgs, UsageError } from './command';
 import { decodeImage, ImageReadError } from '../image/decode';
@@ -18,6 +20,7 @@ import type { WindowKind } from '../measure/window';
 
 const usage = `Usage: stratameter measure IMAGE [--nm-per-px X] [--rel-uncertainty U] [--region x,y,w,h]
                            [--alpha A] [--window hann|tukey|none] [--coverage-factor K] [--json | --csv]
+                           [--report FILE.html]
        stratameter measure IMAGE --tool TOOL [--region x,y,w,h | --line x0,y0,x1,y1[,width]] ...
 
 Finds the periodicities of IMAGE (or of a rectangle of it) in its power spectrum: lattice-fringe
@@ -37,6 +40,9 @@ Options:
   --coverage-factor K   k of the expanded uncertainty U = k·u (default 2, about 95 %)
   --json                one JSON object on standard output instead of a table
   --csv                 a CSV table instead (one row per period, the columns of every export)
+  --report FILE.html    also write the report of the image: one self-contained HTML file (the
+                        image with the measurement and a scale bar, results, calibration and its
+                        source, uncertainty statement, version and recipe) that prints to A4
 
 Angles: direction of the fringe normal in degrees, 0 to 180, counter-clockwise from +x as the
 image is shown (x right, y up). Each ± is an expanded uncertainty U = k·u; the line below the
@@ -132,7 +138,7 @@ export const command: CliCommand = {
   usage,
   async run(args: string[], io: CliIo): Promise<number> {
     const { positional, options, flags } = parseArgs(args, {
-      values: ['nm-per-px', 'rel-uncertainty', 'region', 'alpha', 'window', 'coverage-factor', 'tool', 'line'],
+      values: ['nm-per-px', 'rel-uncertainty', 'region', 'alpha', 'window', 'coverage-factor', 'tool', 'line', 'report'],
       booleans: ['json', 'csv'],
     });
     if (positional.length !== 1) throw new UsageError(`expected one IMAGE, got ${positional.length}\n\n${usage}`);
@@ -214,6 +220,29 @@ export const command: CliCommand = {
       throw e;
     }
     const report = measureReport(file, image, m, k);
+    const reportFile = options.get('report');
+    if (reportFile !== undefined) {
+      if (!/\.html?$/i.test(reportFile)) throw new UsageError(`--report names an HTML file (.html), got '${reportFile}'`);
+      const { imageReportHtml } = await import('../figure/report');
+      const plots = [];
+      // a profile record carries its samples: the report shows the profile plot
+      const samples = m.detail?.samples as { distancePx?: (number | null)[]; mean?: (number | null)[]; standardError?: (number | null)[] } | undefined;
+      if (m.region?.kind === 'line' && samples?.distancePx && samples.mean && samples.mean.length >= 2) {
+        const { profilePlot } = await import('../figure/period-plots');
+        const num = (a: (number | null)[] | undefined) => Float64Array.from(a ?? [], (v) => (v === null ? NaN : v));
+        const r = m.region;
+        plots.push(profilePlot({ distancePx: num(samples.distancePx), mean: num(samples.mean), standardError: num(samples.standardError),
+          lengthPx: Math.hypot(r.x1 - r.x0, r.y1 - r.y0), angleDeg: Number(m.detail?.lineAngleDeg ?? 0), realSpace: null }, m.calibration, r.widthPx));
+      }
+      const html = imageReportHtml({ image, fileName: basename(file), records: [m], plots, k, software: `Stratameter ${PROGRAM_VERSION}` });
+      try {
+        await writeFile(reportFile, html);
+      } catch (e) {
+        io.err(`stratameter measure: cannot write ${reportFile}: ${(e as NodeJS.ErrnoException).code ?? (e as Error).message}\n`);
+        return 1;
+      }
+      io.err(`report written to ${reportFile}\n`);
+    }
     if (flags.has('json')) io.out(`${JSON.stringify(report)}\n`);
     else if (flags.has('csv')) io.out(measurementsCsv([m], { k }));
     else io.out(formatMeasure(report, m.notes));

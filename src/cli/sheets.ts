@@ -56,6 +56,10 @@ export interface SheetsReportSheet extends SheetReport {
   edgeToEdge: Record<string, number | string>;
   period: Record<string, number | string>;
   length: Record<string, number | string> | null;
+  /** The same values as plain numbers in nm (null without a calibration), as \`match\` reads them. */
+  thicknessNm: number | null;
+  edgeToEdgeNm: number | null;
+  periodNm: number | null;
 }
 
 /** The JSON shape printed by `sheets --json`. */
@@ -68,7 +72,8 @@ export interface SheetsReport {
   mode: 'auto' | 'line';
   region: [number, number, number, number] | null;
   sheets: SheetsReportSheet[];
-  stats: { n: number; unit: 'nm' | 'px'; thickness: StatBlock | null; layers: StatBlock | null; layerCounts: [number, number][] };
+  /** thickness in `unit`; thicknessNm the same block when that unit is nm (as \`match\` reads it), else null. */
+  stats: { n: number; unit: 'nm' | 'px'; thickness: StatBlock | null; thicknessNm: StatBlock | null; layers: StatBlock | null; layerCounts: [number, number][] };
   /** The layer periods used, px. */
   periodsPx: number[];
   /** Bands examined and not reported, by reason (automatic search). */
@@ -224,7 +229,12 @@ export async function sheetsReport(
   }
   const out: SheetsReportSheet[] = sheets.map((s) => {
     const e = expressSheet(s, cal, k);
-    return { ...s, thickness: budgetJson(e.thickness, 'thickness'), edgeToEdge: budgetJson(e.edgeToEdge, 'edgeToEdge'), period: budgetJson(e.period, 'period'), length: e.length ? budgetJson(e.length, 'length') : null };
+    const nm = e.thickness.unit === 'nm';
+    return {
+      ...s,
+      thickness: budgetJson(e.thickness, 'thickness'), edgeToEdge: budgetJson(e.edgeToEdge, 'edgeToEdge'), period: budgetJson(e.period, 'period'), length: e.length ? budgetJson(e.length, 'length') : null,
+      thicknessNm: nm ? e.thickness.value : null, edgeToEdgeNm: nm ? e.edgeToEdge.value : null, periodNm: nm ? e.period.value : null,
+    };
   });
   return {
     report: {
@@ -235,7 +245,7 @@ export async function sheetsReport(
       mode: opts.line ? 'line' : 'auto',
       region: opts.region ?? null,
       sheets: out,
-      stats: { n: stats.n, unit: stats.unit, thickness: statBlock(stats.thickness), layers: statBlock(stats.layers), layerCounts: stats.layerCounts },
+      stats: { n: stats.n, unit: stats.unit, thickness: statBlock(stats.thickness), thicknessNm: stats.unit === 'nm' ? statBlock(stats.thickness) : null, layers: statBlock(stats.layers), layerCounts: stats.layerCounts },
       periodsPx,
       rejected,
       message,

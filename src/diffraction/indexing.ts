@@ -205,6 +205,12 @@ function assign(w: Work, t: Trial, lines: ReturnType<typeof latticeLines>, tolDe
         overlap = true;
       }
     }
+    if (best >= 0 && !overlap && w.lambda !== null && w.tt[i] !== null && w.fw[i] > 0) {
+      // another line within half the peak's width: the position is a blend of both, kept out of the refinement
+      for (let j = Math.max(0, lo - 4); j < Math.min(qs.length, lo + 4); j++) {
+        if (j !== best && Math.abs(w.tt[i]! - t.zero - twoThetaOfQ(qs[j], w.lambda)) <= 0.5 * w.fw[i]) overlap = true;
+      }
+    }
     out.push(best >= 0 ? { peak: i, line: best, delta: bestD, overlap } : null);
   }
   return out;
@@ -708,8 +714,11 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
         const both = new Set([...explained, ...two.hkls.map((h) => h.peak)]);
         const strongDone = strongScope.filter((i) => both.has(i)).length;
         const gm = Math.sqrt(one.fom.fN * two.fom.fN);
-        const better = both.size > firstBest.hkls.length ? gm > firstBest.fom.fN : both.size === firstBest.hkls.length && gm > 1.5 * firstBest.fom.fN;
-        if (strongDone >= strongScope.length && one.hkls.length >= 3 && two.hkls.length >= 3 && better) {
+        // the simplest description wins: two phases must explain at least two more lines than the one cell
+        const better = both.size >= firstBest.hkls.length + 2 && gm > firstBest.fom.fN;
+        // each phase of the pair must be convincing on its own (F_N ≥ 20 and at least half the single cell's): a cell of high indices fits a few lines by chance
+        const convincing = Math.min(one.fom.fN, two.fom.fN) >= Math.max(20, 0.5 * firstBest.fom.fN);
+        if (strongDone >= strongScope.length && one.hkls.length >= 3 && two.hkls.length >= 3 && better && convincing) {
           phases.push(phaseOf(one, false), phaseOf(two, false));
           notes.push(`two phases (${LATTICE_WORDS[one.t.kind]} and ${LATTICE_WORDS[two.t.kind]}) explain the lines better than one ${LATTICE_WORDS[firstBest.t.kind]} cell (a ${firstBest.t.a.toPrecision(6)} nm, c ${firstBest.t.c.toPrecision(6)} nm)`);
           mixtureFirst = true;
@@ -746,8 +755,18 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
         const better = !bestPair || key[0] > bestPair.key[0] || (key[0] === bestPair.key[0] && (key[1] > bestPair.key[1] || (key[1] === bestPair.key[1] && key[2] > bestPair.key[2])));
         if (better) bestPair = { a, b, key };
       }
-      phases.push(phaseOf(bestPair!.a, false));
-      if (bestPair!.b) phases.push(phaseOf(bestPair!.b, false));
+      let first = bestPair!.a;
+      const second = bestPair!.b;
+      if (second) {
+        // lines the second phase explains are taken from the first, which is refined again without them
+        const bAll = evaluate(w, second.t, new Set(scope), opts, true);
+        const claimed = new Set((bAll?.hkls ?? []).map((h) => h.peak));
+        const own = new Set(scope.filter((i) => !claimed.has(i)));
+        const again = own.size >= 2 ? evaluate(w, first.t, own, opts) : null;
+        if (again && again.fom.fN >= first.fom.fN && again.hkls.length >= Math.min(first.hkls.length, 2)) first = again;
+      }
+      phases.push(phaseOf(first, false));
+      if (second) phases.push(phaseOf(second, false));
       const left = strongScope.length - bestPair!.key[0];
       if (left > 0) notes.push(`${left} strong line(s) explained by no phase found`);
     }

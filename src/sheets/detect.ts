@@ -286,7 +286,7 @@ function finishPiece(pc: Piece, minPeriodPx: number): Omit<AutoSheet, 'id'> {
   ];
   const notes: string[] = [];
   if (d < minPeriodPx) notes.push(`period ${d.toFixed(2)} px is at the sampling limit (not significantly below ${minPeriodPx} px)`);
-  if (layers <= 2 && pc.periodSource === 'image') notes.push('period taken from the image (a stack this thin shows none of its own)');
+  if (layers <= 2 && pc.periodSource === 'image') notes.push("period taken from the image's thicker stacks (a stack this thin shows none of its own)");
   if (pc.periodSource === 'given') notes.push("the given period's own uncertainty is not included");
   return {
     status: 'auto',
@@ -311,29 +311,36 @@ function finishPiece(pc: Piece, minPeriodPx: number): Omit<AutoSheet, 'id'> {
 
 /** Along-axis and signed normal offset of a point from a polyline extended straight beyond its ends. */
 function polylineCoords(pts: [number, number][], x: number, y: number): { s: number; u: number } {
-  let best = { s: 0, u: Infinity };
+  let bestS = 0;
+  let bestD2 = Infinity;
+  let bestSign = 1;
   let cum = 0;
   const n = pts.length;
   for (let i = 0; i + 1 < n; i++) {
-    const [ax, ay] = pts[i];
-    const [bx, by] = pts[i + 1];
-    const len = Math.hypot(bx - ax, by - ay) || 1e-9;
-    const tx = (bx - ax) / len;
-    const ty = (by - ay) / len;
+    const a = pts[i];
+    const b = pts[i + 1];
+    const ax = a[0];
+    const ay = a[1];
+    const dx = b[0] - ax;
+    const dy = b[1] - ay;
+    const len = Math.sqrt(dx * dx + dy * dy) || 1e-9;
+    const tx = dx / len;
+    const ty = dy / len;
     let t = (x - ax) * tx + (y - ay) * ty;
-    if (i > 0) t = Math.max(0, t);
-    if (i + 2 < n) t = Math.min(len, t);
-    const px = ax + t * tx;
-    const py = ay + t * ty;
-    const dist = Math.hypot(x - px, y - py);
-    if (dist < Math.abs(best.u)) {
+    if (i > 0 && t < 0) t = 0;
+    if (i + 2 < n && t > len) t = len;
+    const ex = x - (ax + t * tx);
+    const ey = y - (ay + t * ty);
+    const d2 = ex * ex + ey * ey;
+    if (d2 < bestD2) {
+      bestD2 = d2;
+      bestS = cum + t;
       // +90° as shown: (ty, −tx) in image axes
-      const sign = (x - px) * ty + (y - py) * -tx >= 0 ? 1 : -1;
-      best = { s: cum + t, u: sign * dist };
+      bestSign = ex * ty - ey * tx >= 0 ? 1 : -1;
     }
     cum += len;
   }
-  return best;
+  return { s: bestS, u: bestSign * Math.sqrt(bestD2) };
 }
 
 /**
@@ -434,7 +441,9 @@ function mergeGap(a: Piece, b: Piece): number | null {
       const beyond = c.s < 0 ? -c.s : c.s > lp ? c.s - lp : 0;
       if (beyond > maxGap || Math.abs(c.u) > tol) continue;
       // the direction of q near that end against p's at the nearest place
-      const k = e === 0 ? Math.min(q.axisPx.length - 1, 5) : Math.max(0, q.axisPx.length - 6);
+      // (a chord over a third of the piece, 10–30 px: the last few points of an axis may hook)
+      const reach = Math.max(5, Math.min(15, Math.floor(q.axisPx.length / 3)));
+      const k = e === 0 ? Math.min(q.axisPx.length - 1, reach) : Math.max(0, q.axisPx.length - 1 - reach);
       const inner = q.axisPx[k];
       const ci = polylineCoords(p.axisPx, inner[0], inner[1]);
       const dsq = Math.hypot(inner[0] - end[0], inner[1] - end[1]);
@@ -591,6 +600,10 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
   if (!(minEvidence > 0)) throw new RangeError(`minEvidence must be positive, got ${minEvidence}`);
   const settings = { periodPx: given ?? null, minPeriodPx, maxPeriodPx, polarity, exclude, minLengthPx, positionSpacingPx: spacing, minEvidence, thickness: 'n·d (layers × period)' };
 
+  // too small for any stack of the shortest length asked for: an empty, labelled result
+  if (Math.min(image.width, image.height) < 32) {
+    return { sheets: [], rejected: [], periods: [], candidates: 0, message: `no stacks found: the image (${image.width} × ${image.height} px) is too small to search (at least 32 px on each side)`, settings };
+  }
   let mask: Uint8Array | null = null;
   if (exclude) {
     mask = new Uint8Array(image.width * image.height);
@@ -773,6 +786,25 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
       coverage.add(pieces.length - 1, frame, offAt(frame.cumPx[centerIdx]), done.thicknessPx / 2 + 0.5 * periodPx, angleAt);
     }
   }
+  // the image's periods from the stacks that measured their own (four layers or more): the
+  // periodograms of the candidates read a few per cent high near the sampling limit; thinner
+  // stacks then take the median of their phase's refined periods (five stacks at least), with the spread among those
+  // stacks as their period's uncertainty (a thin stack's own period is not measured)
+  if (given === undefined) {
+    for (let k = 0; k < periodList.length; k++) {
+      const d = periodList[k];
+      const own = pieces.filter((q) => q.periodSource === 'stack' && Math.abs(q.periodPx - d) < 0.06 * d).map((q) => q.periodPx);
+      if (own.length < 5) continue;
+      const m = median(own);
+      const sd = Math.sqrt(own.reduce((a, v) => a + (v - mean(own)) ** 2, 0) / (own.length - 1));
+      for (const q of pieces) {
+        if (q.periodSource !== 'image' || Math.abs(q.periodPx - d) > 1e-9) continue;
+        q.periodPx = m;
+        q.uPeriodPx = sd;
+      }
+      periodList[k] = m;
+    }
+  }
   // after merging, a stack must be at least as long as the shortest stack asked for and as its
   // own thickness (an edge-on platelet is longer than thick; a shorter piece is an end or a crossing)
   const kept: Omit<AutoSheet, 'id'>[] = [];
@@ -824,12 +856,15 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
 /** Share of a polyline's points that lie on a sheet's band (inside its length, within half its thickness and a period of its axis). */
 function shareOnBand(points: [number, number][], o: Pick<AutoSheet, 'axisPx' | 'lengthPx' | 'thicknessPx' | 'periodPx'>): number {
   if (points.length === 0) return 0;
+  // every third point (about 6 px apart) is enough for a share
   let on = 0;
-  for (const p of points) {
-    const c = polylineCoords(o.axisPx, p[0], p[1]);
+  let tried = 0;
+  for (let k = 0; k < points.length; k += 3) {
+    const c = polylineCoords(o.axisPx, points[k][0], points[k][1]);
+    tried++;
     if (c.s >= 0 && c.s <= o.lengthPx && Math.abs(c.u) <= o.thicknessPx / 2 + o.periodPx) on++;
   }
-  return on / points.length;
+  return on / tried;
 }
 
 function mean(v: number[]): number {

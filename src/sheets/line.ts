@@ -19,7 +19,7 @@ export interface SheetLineOptions {
   periods?: number[];
   /** Layers are 'dark' (default) or 'bright' lines. */
   polarity?: 'dark' | 'bright';
-  /** Evidence a sheet needs (Δχ² of the comb over the bare background, default 25). */
+  /** Evidence a sheet needs (Δχ² of the comb over the bare background; default 40, or 100 when the period is read off the line's own profile). */
   minEvidence?: number;
 }
 
@@ -138,7 +138,7 @@ export function sheetsAlongLine(image: GreyImage, x0: number, y0: number, x1: nu
   if (!(widthPx >= 1 && Number.isFinite(widthPx))) throw new RangeError(`widthPx must be ≥ 1, got ${widthPx}`);
   const polarity = options.polarity ?? 'dark';
   if (polarity !== 'dark' && polarity !== 'bright') throw new RangeError(`polarity must be 'dark' or 'bright', got ${String(polarity)}`);
-  const minEvidence = options.minEvidence ?? 25;
+  if (options.minEvidence !== undefined && !(options.minEvidence > 0)) throw new RangeError(`minEvidence must be positive, got ${options.minEvidence}`);
   const lengthPx = Math.hypot(x1 - x0, y1 - y0);
   if (!(lengthPx >= 8)) throw new RangeError(`the line must be at least 8 px long, got ${lengthPx.toFixed(1)} px`);
   if (options.periodPx !== undefined) {
@@ -177,6 +177,8 @@ export function sheetsAlongLine(image: GreyImage, x0: number, y0: number, x1: nu
     periods = linePeriods(profile).filter((d) => d >= MIN_COUNTABLE_PERIOD_PX * 0.96);
     source = 'line';
   }
+  // a period read off this same profile was chosen to fit it (noise included): more evidence is asked
+  const minEvidence = options.minEvidence ?? (source === 'line' ? 100 : 40);
   const result = (sheets: LineSheet[], d: number | null, message: string | null): LineSheetsResult => ({
     sheets, profile: shown, periodPx: d, periodSource: d === null ? null : source, angleDeg, lengthPx, message,
   });
@@ -214,6 +216,8 @@ export function sheetsAlongLine(image: GreyImage, x0: number, y0: number, x1: nu
     if (fit.evidence < minEvidence) return;
     if (fit.layers >= 3 && !layersResolved(profile, fit, polarity, limit)) return;
     if (fit.layers === 1 && fit.lineSigmaPx > 0.49 * periodPx + 0.5) return;
+    // one dark line is a monolayer only at a period known from elsewhere (else any dark speck is one)
+    if (fit.layers === 1 && source === 'line') return;
     sheets.push(lineSheet(fit, periodPx, uPeriod, sheetSource, profile, polarity, end, at, angleDeg));
   });
   // the period reported: the one the sheets used (the first candidate when there are none)

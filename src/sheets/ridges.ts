@@ -399,6 +399,15 @@ export function ridgeAxes(image: GreyImage, options: RidgeAxesOptions = {}): Rid
       const reach = Math.max(3, Math.round(2.5 * (scales[0] / factor) + 2));
       const avg = new Float32Array(w * h);
       const cosTol = Math.cos((30 * Math.PI) / 180);
+      const minCos2 = 2 * cosTol * cosTol - 1;
+      // cos and sin of twice each normal, once per pixel (the inner loop compares them)
+      const c2a = new Float32Array(w * h);
+      const s2a = new Float32Array(w * h);
+      for (let i = 0; i < w * h; i++) {
+        if (best[i] <= 0) continue;
+        c2a[i] = Math.cos(2 * bestNormal[i]);
+        s2a[i] = Math.sin(2 * bestNormal[i]);
+      }
       for (let y = 0; y < h; y++) {
         for (let x = 0; x < w; x++) {
           const i = y * w + x;
@@ -406,18 +415,18 @@ export function ridgeAxes(image: GreyImage, options: RidgeAxesOptions = {}): Rid
           const a = bestNormal[i];
           const ux = -Math.sin(a);
           const uy = Math.cos(a);
-          const c2 = Math.cos(2 * a);
-          const s2 = Math.sin(2 * a);
+          const c2 = c2a[i];
+          const s2 = s2a[i];
           let sum = best[i];
           for (let t = 1; t <= reach; t++) {
-            for (const sg of [-1, 1]) {
+            // both directions along the ridge
+            for (let sg = -1; sg <= 1; sg += 2) {
               const xx = Math.round(x + sg * t * ux);
               const yy = Math.round(y + sg * t * uy);
               if (xx < 0 || yy < 0 || xx >= w || yy >= h) continue;
               const j = yy * w + xx;
-              const b = bestNormal[j];
               // cos of twice the angle difference ≥ cos 60° ⇔ the normals agree within 30°
-              if (best[j] > 0 && Math.cos(2 * b) * c2 + Math.sin(2 * b) * s2 >= 2 * cosTol * cosTol - 1) sum += best[j];
+              if (best[j] > 0 && c2a[j] * c2 + s2a[j] * s2 >= minCos2) sum += best[j];
             }
           }
           avg[i] = sum / (2 * reach + 1);

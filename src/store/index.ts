@@ -5,3 +5,4 @@ export * from './library';
 export * from './exchange';
 export * from './bytes';
 export * from './thumbnail';
+export * from './history';

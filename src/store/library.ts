@@ -231,13 +231,14 @@ export async function setImageCalibration(
 }
 
 /**
- * Deletes an image and every measurement made on it, in one transaction.
+ * Deletes an image, every measurement made on it and its undo history, in one transaction.
  *
  * @returns the number of measurements deleted with it
  */
 export async function deleteImage(db: LibraryDb, id: string): Promise<number> {
-  return saveInOneTransaction(db, ['images', 'measurements'], 'the deletion', async (tx) => {
+  return saveInOneTransaction(db, ['images', 'measurements', 'history'], 'the deletion', async (tx) => {
     await tx.objectStore('images').delete(id);
+    await tx.objectStore('history').delete(id);
     const index = tx.objectStore('measurements').index('byImage');
     let n = 0;
     let cursor = await index.openCursor(id);

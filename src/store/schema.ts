@@ -16,6 +16,7 @@ import type {
 } from './records';
 import type { BatchFileRecord } from './batches';
 import type { DiagnosticEntry } from './diagnostics';
+import type { ImageHistory } from './history';
 import { upgradeMeasurement } from '../measure/record-version';
 import { upgradeFileResult } from '../batch/run';
 
@@ -32,6 +33,7 @@ export interface LibrarySchema extends DBSchema {
   batches: { key: string; value: BatchRecord };
   batchFiles: { key: string; value: BatchFileRecord; indexes: { byBatch: string } };
   diagnostics: { key: string; value: DiagnosticEntry; indexes: { byTime: string } };
+  history: { key: string; value: ImageHistory };
 }
 
 export type LibraryDb = IDBPDatabase<LibrarySchema>;
@@ -72,6 +74,10 @@ export const UPGRADE_STEPS: readonly UpgradeStep[] = [
   // every stored measurement and every batch file's result is upgraded in place.
   (_db, tx) => {
     upgradeRecordsInPlace(tx);
+  },
+  // 5 → 6: undo and redo of the work on an image (its history of work states), one entry per image.
+  (db) => {
+    db.createObjectStore('history', { keyPath: 'imageId' });
   },
 ];
 

@@ -242,7 +242,7 @@ test('the scale-bar route reads each bar in the workers; spectrum periods and sh
 test('the batch against a stored diffraction set: matched periods, comparison CSV and every figure as SVG and PNG', async () => {
   // Demo truth (demo-data/index.json): the pattern holds the lamellar 001 at 3.9 nm and the clay
   // 001 at 1.25 nm, the periods of the mesophase and of the tactoids in the batch above.
-  await app().locator('[role="tab"]', { hasText: 'Diffraction' }).click();
+  await app().getByRole('tab', { name: 'Diffraction', exact: true }).click();
   const xrd = s.page.locator('strata-diffraction-panel');
   await xrd.locator('input[type="file"]').setInputFiles({ name: 'tactoid-film_CuKa.xy', mimeType: 'text/plain', buffer: readFileSync('demo-data/tactoid-film_CuKa.xy') });
   await expect.poll(() => xrd.evaluate((el) => ((el as unknown as { analysis: { peaks: unknown[] } | null }).analysis?.peaks.length ?? 0)), { timeout: 60_000 }).toBeGreaterThan(2);

@@ -1,6 +1,6 @@
 // Shared set-up for the browser tests: serve dist/ on 127.0.0.1, launch the system Chromium,
 // and record every request so a test can assert that nothing leaves the machine.
-import { existsSync, mkdtempSync } from 'node:fs';
+import { existsSync, mkdirSync, mkdtempSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { chromium, type BrowserContext, type Page } from 'playwright-core';
@@ -91,6 +91,38 @@ export async function openDemoImage(page: Page, title: string, widthPx: number, 
   }, widthPx, { timeout: 60_000 });
   await app.locator('[role="tab"]', { hasText: tab }).click();
   await nextFrames(page);
+}
+
+/** A folder for a test's screenshots and files, under the git-ignored test-artefacts/e2e/. */
+export function artefactDir(name: string): string {
+  const dir = join('test-artefacts', 'e2e', name);
+  mkdirSync(dir, { recursive: true });
+  return dir;
+}
+
+/**
+ * Records the page's long tasks (main-thread tasks over 50 ms, from the browser's long-task
+ * observer) from the next navigation on; read them with {@link longestTaskSince}.
+ */
+export async function watchLongTasks(page: Page): Promise<void> {
+  await page.addInitScript(() => {
+    const w = window as unknown as { __longTasks: { start: number; duration: number }[] };
+    w.__longTasks = [];
+    new PerformanceObserver((list) => {
+      for (const e of list.getEntries()) w.__longTasks.push({ start: e.startTime, duration: e.duration });
+    }).observe({ type: 'longtask', buffered: true });
+  });
+}
+
+/** The page's time now (performance.now()), to pass to {@link longestTaskSince}. */
+export async function pageNow(page: Page): Promise<number> {
+  return page.evaluate(() => performance.now());
+}
+
+/** The longest main-thread task (ms) that started at or after `since`; 0 when none exceeded 50 ms. */
+export async function longestTaskSince(page: Page, since: number): Promise<number> {
+  return page.evaluate((t) => Math.max(0, ...((window as unknown as { __longTasks?: { start: number; duration: number }[] }).__longTasks ?? [])
+    .filter((e) => e.start >= t).map((e) => e.duration)), since);
 }
 
 /** One call the page sent to the compute worker: its name and where its arguments held arrays. */

@@ -1,6 +1,3 @@
-import { mkdtempSync } from 'node:fs';
-import { tmpdir } from 'node:os';
-import { join } from 'node:path';
 import { afterAll, beforeAll, expect, test } from 'vitest';
 import { foreignRequests, openSession, type Session } from './browser';
 
@@ -14,7 +11,7 @@ test('the demo pattern: the clay 00l lines indexed with their d budget, the 3.9 
   await s.page.setViewportSize({ width: 1366, height: 768 });
   await s.page.goto(s.url);
   const app = s.page.locator('strata-app');
-  await app.locator('[role="tab"]', { hasText: 'Diffraction' }).click();
+  await app.getByRole('tab', { name: 'Diffraction', exact: true }).click();
   const xrd = s.page.locator('strata-diffraction-panel');
   await xrd.locator('button', { hasText: 'Demo pattern' }).click();
   await expect.poll(() => xrd.evaluate((el) => ((el as unknown as { analysis: { peaks: unknown[] } | null }).analysis?.peaks.length ?? 0)), { timeout: 60_000 }).toBeGreaterThan(2);
@@ -33,9 +30,7 @@ test('the demo pattern: the clay 00l lines indexed with their d budget, the 3.9 
   await xrd.locator('button', { hasText: 'Index spots' }).click();
   await expect.poll(() => xrd.locator('p', { hasText: 'Zone axis' }).textContent(), { timeout: 20_000 }).toMatch(/\[(1 0 -1|1 -1 0|0 1 -1|1 1 0|1 0 1|0 1 1)\]/);
   await xrd.locator('h3', { hasText: 'Index spots' }).scrollIntoViewIfNeeded();
-  const shot = join(mkdtempSync(join(tmpdir(), 'strata-xrd-')), 'diffraction-panel.png');
-  await s.page.screenshot({ path: shot });
-  console.log(`screenshot: ${shot}`);
+  if (process.env.SCREENSHOT_DIR) await s.page.screenshot({ path: `${process.env.SCREENSHOT_DIR}/diffraction-panel.png` });
   expect(errors).toEqual([]);
   expect(foreignRequests(s.requests, s.url)).toEqual([]);
 }, 120_000);

@@ -172,8 +172,12 @@ test('a profile line across the fringes gives 1.25 nm by both estimators', async
     const [d, u] = t.replace('nm', '').split('±').map(Number);
     expect(Math.abs(d - PERIOD_NM)).toBeLessThanOrEqual(u); // u includes the calibration's 5 % (TIFF tags, relUncertainty 0.05)
   }
-  expect(await panel().locator('svg.plot circle.max').count()).toBeGreaterThanOrEqual(4);
-  expect(await panel().locator('svg.plot circle.min').count()).toBeGreaterThanOrEqual(4);
+  // the plot element beside the image holds the profile with its extrema marked, and is at least 600 px wide at this window size
+  const plot = panel().locator('strata-plot.profile-plot');
+  const marks = await plot.evaluate((el) => ((el as unknown as { data: { marks: { kind: string }[] } }).data.marks ?? []).map((m) => m.kind));
+  expect(marks.filter((k) => k === 'max').length).toBeGreaterThanOrEqual(4);
+  expect(marks.filter((k) => k === 'min').length).toBeGreaterThanOrEqual(4);
+  expect((await plot.boundingBox())!.width).toBeGreaterThanOrEqual(600);
   await s.page.screenshot({ path: join(dir, 'profile.png') });
   await shootPanel('panel-full.png');
 });

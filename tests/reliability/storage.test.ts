@@ -154,8 +154,10 @@ describe('schema upgrades from every earlier version', () => {
             periodicities: [{ periodPx: 25 + i, periodNm: (25 + i) * 0.05, angleDeg: 10, uncertaintyPx: 0.01, uncertaintyNm: 0.03, strength: 9 }], notes: [],
           } : {}),
         }));
-        for (const r of records) await old.put(store as never, r as never);
-        written[store] = records;
+        // from version 5 on (the record-version-2 step) the library holds version 2 records only
+        const stored = store === 'measurements' && v >= 5 ? records.map((r) => upgradeMeasurement(r)) : records;
+        for (const r of stored) await old.put(store as never, r as never);
+        written[store] = stored;
       }
       old.close();
 

@@ -86,6 +86,12 @@ describe('detectSheets', () => {
       expect(res.message).toBe('no stacks found');
     }
   });
+  it('gives an empty, labelled result on an image too small to search, not an error', () => {
+    const strip = syntheticImage(200, 20, [], { noise: 0.05, seed: 1 });
+    const res = detectSheets(strip);
+    expect(res.sheets).toEqual([]);
+    expect(res.message).toMatch(/no stacks found: the image \(200 × 20 px\) is too small/);
+  });
   it('reports nothing on a crossed lattice or an amorphous overview (not stacks)', () => {
     for (const family of ['crossed-lattice', 'amorphous'] as const) {
       for (const seed of [1, 2]) {
