@@ -4,7 +4,8 @@
  *
  * The image session: `openImage` decodes a file once and keeps the image in the worker under a
  * session id; every later call on it sends that id and a region or a line, never pixels (the
- * Periods, Calibration and SAED panels). The two calls marked "crop", `sheetsFind` and
+ * Periods, Calibration and SAED panels, the export menu's `imageReport`; checked by
+ * tests/architecture/compute-protocol.test.ts). The two calls marked "crop", `sheetsFind` and
  * `sheetsLine`, still take a copy of the pixels; they serve the Sheets panel, not yet moved to the
  * session. `decode` and `prepareView` take bytes or pixels and belong to no session.
  */
