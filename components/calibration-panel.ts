@@ -14,7 +14,7 @@ import { makeProfile, matchProfile } from '../src/calibration/profiles';
 import { listCalibrationProfiles, putCalibrationProfile, type LibraryDb } from '../src/store/library';
 import { controlStyles, panelStyles } from './styles';
 import type { ComputeClient } from './compute-client';
-import { cropImage } from '../src/image/crop';
+import type { SpectrumView } from './compute-protocol';
 import { calibrateTwoAxis, latticeSpotsOf, PROJECTED_LATTICES, userLattice } from '../src/calibration/affine';
 
 export const panelLabel = 'Calibration';
@@ -37,7 +37,10 @@ const axes = (c: Calibration) =>
 
 /**
  * `<strata-calibration-panel>`. Properties: `image` (GreyImage | null), `line` (the last line
- * drawn in the viewer, image px, or null), `db` (the local library, for instrument profiles). Events: `calibration-changed` {calibration},
+ * drawn in the viewer, image px, or null), `rect` (the last region drawn), `compute` and `session`
+ * (the compute worker and the id of the image's session there: a drawn region's spectrum is
+ * computed on the image the worker holds, from the region alone, never a copy of pixels), `db`
+ * (the local library, for instrument profiles). Events: `calibration-changed` {calibration},
  * `overlay-shapes` {shapes}, `status-message` {text, kind}.
  */
 export class StrataCalibrationPanel extends LitElement {
@@ -46,6 +49,7 @@ export class StrataCalibrationPanel extends LitElement {
     line: { attribute: false },
     rect: { attribute: false },
     compute: { attribute: false },
+    session: { attribute: false },
     db: { attribute: false },
     instrument: { state: true },
     magnification: { state: true },
@@ -86,6 +90,8 @@ export class StrataCalibrationPanel extends LitElement {
   rect: { x: number; y: number; width: number; height: number } | null = null;
   /** The compute worker client the shell gives every panel. */
   compute: ComputeClient | null = null;
+  /** The id of the image's session in the compute worker (null until the image is open there). */
+  session: string | null = null;
   db: LibraryDb | null = null;
   instrument = '';
   magnification = '';
@@ -222,19 +228,30 @@ export class StrataCalibrationPanel extends LitElement {
   }
 
   /**
+   * The power spectrum of a drawn region (rounded to whole pixels) of the session's image, in the
+   * compute worker: the request carries the session id and the region, never pixels.
+   */
+  private regionSpectrum(r: { x: number; y: number; width: number; height: number }): Promise<SpectrumView> {
+    if (!this.compute || !this.session) throw new Error('the image is not open in the compute worker yet');
+    return this.compute.call('spectrum', {
+      sessionId: this.session,
+      rect: { x: Math.round(r.x), y: Math.round(r.y), width: Math.round(r.width), height: Math.round(r.height) },
+      settings: { window: 'hann', tukeyAlpha: 0.3, alpha: 0.001 },
+      displayPx: 64,
+      prepareSpots: false,
+    });
+  }
+
+  /**
    * Measures the strongest periodicity in the drawn region (power spectrum in the compute worker)
    * and fills in the standard's period in px with its uncertainty.
    */
   private async measureStandardRegion(): Promise<void> {
     const r = this.rect;
-    if (!r || !this.image || !this.compute) return;
+    if (!r || !this.image || !this.compute || !this.session) return;
     this.busy = true;
     try {
-      const crop = cropImage(this.image, { x: Math.round(r.x), y: Math.round(r.y), width: Math.round(r.width), height: Math.round(r.height) });
-      const res = await this.compute.call('regionSpectrum', {
-        image: crop, originX: Math.round(r.x), originY: Math.round(r.y),
-        settings: { window: 'hann', tukeyAlpha: 0.3, alpha: 0.001 }, displayPx: 64,
-      }, [crop.data.buffer]);
+      const res = await this.regionSpectrum(r);
       const family = standardPeriodFromSpots(res.spots.filter((t) => t.flags.length === 0));
       if (!family) {
         this.say('No significant periodicity in the drawn region: choose a region on the standard\'s fringes.', 'error');
@@ -277,7 +294,7 @@ export class StrataCalibrationPanel extends LitElement {
    */
   private async measureTwoAxis(): Promise<void> {
     const r = this.rect;
-    if (!r || !this.image || !this.compute) return;
+    if (!r || !this.image || !this.compute || !this.session) return;
     this.busy = true;
     try {
       let lattice: string | ReturnType<typeof userLattice> = this.zoneId;
@@ -286,11 +303,7 @@ export class StrataCalibrationPanel extends LitElement {
         if (!m) throw new Error(`type the cell as d1±u1, d2±u2, angle (nm, nm, degrees), e.g. 0.3135±0.0003, 0.3135±0.0003, 70.53; got "${this.cellText}"`);
         lattice = userLattice(Number(m[1]), Number(m[2]), Number(m[3]), Number(m[4]), Number(m[5]));
       }
-      const crop = cropImage(this.image, { x: Math.round(r.x), y: Math.round(r.y), width: Math.round(r.width), height: Math.round(r.height) });
-      const res = await this.compute.call('regionSpectrum', {
-        image: crop, originX: Math.round(r.x), originY: Math.round(r.y),
-        settings: { window: 'hann', tukeyAlpha: 0.3, alpha: 0.001 }, displayPx: 64,
-      }, [crop.data.buffer]);
+      const res = await this.regionSpectrum(r);
       const fit = calibrateTwoAxis(latticeSpotsOf(res.measurement.periodicities), lattice);
       this.twoAxis = fit;
       this.candidate = fit.calibration;
@@ -387,7 +400,7 @@ export class StrataCalibrationPanel extends LitElement {
           ${this.standardId === 'custom' ? html`${input(this.customNm, (v) => (this.customNm = v), 'Known spacing (nm)')}${input(this.customUNm, (v) => (this.customUNm = v), '± (nm, k = 1)')}` : nothing}
         </div>
         <div class="row">${input(this.periodPx, (s) => (this.periodPx = s), 'Period (px)')}${input(this.periodUPx, (s) => (this.periodUPx = s), '± (px)')}<button @click=${this.fromStandard}>Compute</button></div>
-        <div class="row"><button ?disabled=${!this.rect || !this.compute || this.busy} @click=${() => this.measureStandardRegion()}
+        <div class="row"><button ?disabled=${!this.rect || !this.compute || !this.session || this.busy} @click=${() => this.measureStandardRegion()}
           title="Draw a region on the standard's fringes with the Region tool, then measure its strongest period here">Measure the drawn region</button></div>
         <p class="muted">${this.standardId === 'custom' ? 'a spacing you know for this specimen, e.g. from its diffraction pattern, with its standard uncertainty' : (() => { const l = LATTICE_STANDARDS.find((s) => s.id === this.standardId); return l ? `${l.source}; uncertainty: ${l.uncertaintyBasis}` : ''; })()}</p>
       </section>
@@ -400,7 +413,7 @@ export class StrataCalibrationPanel extends LitElement {
           </select>
           ${this.zoneId === 'user' ? input(this.cellText, (v) => (this.cellText = v), 'd1±u1, d2±u2, angle', 'text') : nothing}
         </div>
-        <div class="row"><button ?disabled=${!this.rect || !this.compute || this.busy} @click=${() => this.measureTwoAxis()}
+        <div class="row"><button ?disabled=${!this.rect || !this.compute || !this.session || this.busy} @click=${() => this.measureTwoAxis()}
           title="Draw a region on the lattice image with the Region tool: two or more non-parallel spots of the lattice are fitted">Measure the drawn region (two axes)</button></div>
         ${this.twoAxis
           ? html`<p class="num">x ${sig(this.twoAxis.nmPerPxX)} ± ${sig(2 * this.twoAxis.uNmPerPxX, 2)} nm/px, y ${sig(this.twoAxis.nmPerPxY)} ± ${sig(2 * this.twoAxis.uNmPerPxY, 2)} nm/px</p>

@@ -3,8 +3,11 @@
  * line here and one entry in the handler table of compute-worker.ts.
  *
  * The image session: `openImage` decodes a file once and keeps the image in the worker under a
- * session id; every later call on it sends that id and a region or a line, never pixels. Calls
- * marked "crop" take a copy of the pixels instead; they serve panels not yet moved to the session.
+ * session id; every later call on it sends that id and a region or a line, never pixels (the
+ * Periods, Calibration and SAED panels, the export menu's `imageReport`; checked by
+ * tests/architecture/compute-protocol.test.ts). The two calls marked "crop", `sheetsFind` and
+ * `sheetsLine`, still take a copy of the pixels; they serve the Sheets panel, not yet moved to the
+ * session. `decode` and `prepareView` take bytes or pixels and belong to no session.
  */
 import type { CameraConstant } from '../src/diffraction/electron/camera-constant';
 import type { CameraSetting, PatternMeasurement } from '../src/diffraction/electron/measure';
@@ -53,8 +56,12 @@ export interface ComputeCalls {
   runTool: { args: InSession & { tool: string; target: Region | null; settings?: Record<string, unknown> }; result: Measurement };
   /** A line profile of the session's image and its period by both estimators (Periods panel). */
   profile: { args: InSession & { line: ProfileLine; estimator: ProfileEstimator }; result: ProfileView };
-  /** A region's power spectrum: spots, radial average, rings and a display picture; cached per region (Periods panel). */
-  spectrum: { args: InSession & { rect: RectPx; settings: SpectrumSettings; displayPx: number }; result: SpectrumView };
+  /**
+   * A region's power spectrum: spots, radial average, rings and a display picture; cached per region
+   * (Periods panel; Calibration panel with `prepareSpots: false`, as no spot of it will be clicked:
+   * by default the worker prepares after the reply what a click on a spot needs).
+   */
+  spectrum: { args: InSession & { rect: RectPx; settings: SpectrumSettings; displayPx: number; prepareSpots?: boolean }; result: SpectrumView };
   /** The spot nearest a clicked frequency of a region's cached spectrum: no transform (statistical uncertainty only). */
   spotNear: { args: InSession & { rect: RectPx; settings: SpectrumSettings; fx: number; fy: number; radiusBins?: number }; result: { spot: Spot | null } };
   /** A spot refined where its fringes are, with its full budget (after spotNear). */
@@ -65,24 +72,19 @@ export interface ComputeCalls {
   sessionStats: { args: InSession; result: { regionTransforms: number; cacheHits: number } };
   /** The report of the session's image as one self-contained HTML file, or its figure (image, overlays, scale bar) as SVG (src/figure/report.ts). */
   imageReport: { args: InSession & { form: 'html' | 'svg'; fileName: string; records: Measurement[]; plots: PlotData[]; k: number; software: string }; result: { text: string } };
-  /** Crop: the power spectrum of a copy of a region's pixels (Calibration panel). */
-  regionSpectrum: {
-    args: { image: GreyImage; originX: number; originY: number; settings: SpectrumSettings; displayPx: number };
-    result: SpectrumView;
-  };
   /** Reads a diffraction pattern's text and fits its peaks (seconds on a few thousand points). */
   analysePattern: { args: { text: string; wavelength?: string; fileName?: string }; result: { pattern: Pattern; analysis: PatternAnalysis } };
   /** Crop: every stack in an image (a copy is sent), skipping a scale-bar strip or panel; the period when known (px). */
   sheetsFind: { args: { image: GreyImage; polarity: 'dark' | 'bright'; periodPx?: number }; result: { result: AutoSheetsResult; excludedBox: [number, number, number, number] | null } };
   /** Crop: sheets along a drawn line (a copy of the image is sent); the period when known, or the image's candidates. */
   sheetsLine: { args: { image: GreyImage; line: { x0: number; y0: number; x1: number; y1: number; widthPx: number }; polarity: 'dark' | 'bright'; periodPx?: number; periods?: number[] }; result: LineSheetsResult };
-  /** Electron diffraction (issue 14): the camera constant from a copy of a ring standard's pattern (SAED panel). */
+  /** Electron diffraction (issue 14): the camera constant from the session's image, a ring standard's pattern (SAED panel). */
   cameraConstant: {
-    args: { image: GreyImage; standard: { id: string } | { aNm: number; uANm: number; centring: 'F' | 'I' | 'P' }; voltageKv?: number; detectorPixelUm?: number };
+    args: InSession & { standard: { id: string } | { aNm: number; uANm: number; centring: 'F' | 'I' | 'P' }; voltageKv?: number; detectorPixelUm?: number };
     result: ElectronCameraResult;
   };
-  /** Electron diffraction: ring and spot d-spacings of a copy of a sample's pattern with a camera setting (SAED panel). */
-  electronPattern: { args: { image: GreyImage; camera: CameraSetting; what: 'rings' | 'spots' | 'both' }; result: PatternMeasurement };
+  /** Electron diffraction: ring and spot d-spacings of the session's image, a sample's pattern, with a camera setting (SAED panel). */
+  electronPattern: { args: InSession & { camera: CameraSetting; what: 'rings' | 'spots' | 'both' }; result: PatternMeasurement };
   /** Spot indexing: each spot's hkl and the zone axis with a structure file's text or a built-in phase (milliseconds). */
   indexSpots: { args: { spots: ZoneSpot[]; cifText?: string; cifName?: string; builtIn?: string }; result: ZoneAxisResult & { source: string } };
 }

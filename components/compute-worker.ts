@@ -77,12 +77,12 @@ const handlers: Handlers = {
     return entry.run(s.image, target, settings);
   },
   profile: ({ sessionId, line, estimator }) => session.profileIn(sessionOf(sessionId), line, estimator),
-  spectrum: async ({ sessionId, rect, settings, displayPx }) => {
+  spectrum: async ({ sessionId, rect, settings, displayPx, prepareSpots }) => {
     const s = sessionOf(sessionId);
     await guardRegion(rect.width, rect.height, rect);
     const view = session.spectrumView(await session.regionAnalysis(s, rect, settings), displayPx, settings.alpha);
     // after the reply: what a click on the spectrum will need, so that a click runs no transform
-    afterReply = () => session.prepareRegionSpots(s, rect, settings);
+    if (prepareSpots !== false) afterReply = () => session.prepareRegionSpots(s, rect, settings);
     return view;
   },
   spotNear: ({ sessionId, rect, settings, fx, fy, radiusBins }) => ({ spot: session.spotNearIn(sessionOf(sessionId), rect, settings, fx, fy, radiusBins) }),
@@ -95,20 +95,6 @@ const handlers: Handlers = {
     if (form === 'svg') return { text: imageFigureSvg(image, recordShapes(records), image.calibration, 2048) };
     return { text: imageReportHtml({ image, fileName, records, plots, k, software }) };
   },
-  regionSpectrum: async (args) => {
-    // crop call: the pixels come with the request; a one-off session on them
-    await guardRegion(args.image.width, args.image.height, { x: args.originX, y: args.originY });
-    const s = session.createImageSession('crop', args.image, { maxRegions: 1 });
-    const view = session.spectrumView(await session.regionAnalysis(s, { x: 0, y: 0, width: args.image.width, height: args.image.height }, args.settings), args.displayPx, args.settings.alpha);
-    const m = view.measurement;
-    const area = m.detail?.area as { x: number; y: number; width: number; height: number } | undefined;
-    const moved: typeof m = {
-      ...m,
-      region: { kind: 'rect', x: args.originX, y: args.originY, width: args.image.width, height: args.image.height },
-      ...(m.detail && area ? { detail: { ...m.detail, area: { ...area, x: area.x + args.originX, y: area.y + args.originY } } } : {}),
-    };
-    return { ...view, measurement: moved };
-  },
   sheetsFind: async ({ image, polarity, periodPx }) => {
     const { findScaleBar } = await import('../src/calibration/scale-bar');
     const { detectSheets } = await import('../src/sheets/detect');
@@ -120,13 +106,15 @@ const handlers: Handlers = {
     const { sheetsAlongLine } = await import('../src/sheets/line');
     return sheetsAlongLine(image, line.x0, line.y0, line.x1, line.y1, { widthPx: line.widthPx, polarity, periodPx, periods });
   },
-  cameraConstant: async ({ image, standard, voltageKv, detectorPixelUm }) => {
+  cameraConstant: async ({ sessionId, standard, voltageKv, detectorPixelUm }) => {
+    const { image } = sessionOf(sessionId);
     const { calibrateCameraConstant } = await import('../src/diffraction/electron/camera-constant');
     const { ringStandard, userRingStandard } = await import('../src/diffraction/electron/standards');
     const s = 'id' in standard ? ringStandard(standard.id) : userRingStandard(standard.aNm, standard.uANm, standard.centring);
     return calibrateCameraConstant(image, s, { voltageKv, detectorPixelUm });
   },
-  electronPattern: async ({ image, camera, what }) => {
+  electronPattern: async ({ sessionId, camera, what }) => {
+    const { image } = sessionOf(sessionId);
     const { measureElectronPattern } = await import('../src/diffraction/electron/measure');
     return measureElectronPattern(image, camera, { what });
   },

@@ -1,10 +1,10 @@
 // The electron-diffraction (SAED) side panel: the camera constant of a setting from a ring standard's
 // pattern (the image in the viewer), then the ring and spot d-spacings and the angles between
 // spots of a sample's pattern recorded at that setting, stored in the library as a diffraction
-// set (its lines join the diffraction cross-check). The work runs in the compute worker.
+// set (its lines join the diffraction cross-check). The work runs in the compute worker, on the
+// image its session holds: the requests carry the session id, never pixels.
 import { LitElement, css, html, nothing } from 'lit';
 import type { GreyImage } from '../src/image/grey-image';
-import { cropImage } from '../src/image/crop';
 import { RING_STANDARDS } from '../src/diffraction/electron/standards';
 import { electronDiffractionSet, type CameraSetting } from '../src/diffraction/electron/measure';
 import type { PatternMeasurement } from '../src/diffraction/electron/measure';
@@ -22,7 +22,8 @@ const pct = (rel: number) => `${sig(100 * rel, 2)} %`;
 
 /**
  * `<strata-electron-panel>`. Properties: `image` (the pattern shown in the viewer), `record` (its library record), `compute`
- * (the compute worker client), `db` (the local library). Events: `overlay-shapes` {shapes},
+ * (the compute worker client), `session` (the id of the pattern's session in the compute worker, which
+ * holds its pixels), `db` (the local library). Events: `overlay-shapes` {shapes},
  * `status-message` {text, kind}, `library-changed`.
  */
 export class StrataElectronPanel extends LitElement {
@@ -30,6 +31,7 @@ export class StrataElectronPanel extends LitElement {
     image: { attribute: false },
     record: { attribute: false },
     compute: { attribute: false },
+    session: { attribute: false },
     db: { attribute: false },
     standardId: { state: true },
     cellText: { state: true },
@@ -60,6 +62,8 @@ export class StrataElectronPanel extends LitElement {
   /** The image's library record (its file name names the stored set). */
   record: ImageRecord | null = null;
   compute: ComputeClient | null = null;
+  /** The id of the pattern's session in the compute worker (null until the image is open there). */
+  session: string | null = null;
   db: LibraryDb | null = null;
   standardId = RING_STANDARDS[0].id;
   /** A cubic cell of the user's: "a±u" nm, with the centring chosen in `cellCentring`. */
@@ -92,10 +96,10 @@ export class StrataElectronPanel extends LitElement {
     return v;
   }
 
-  private copyOfImage(): GreyImage {
-    const img = this.image;
-    if (!img) throw new Error('open the diffraction pattern in the viewer first');
-    return cropImage(img, { x: 0, y: 0, width: img.width, height: img.height });
+  /** The session of the pattern in the viewer; throws when none is open. */
+  private sessionId(): string {
+    if (!this.image || !this.session) throw new Error('open the diffraction pattern in the viewer first');
+    return this.session;
   }
 
   private async calibrate(): Promise<void> {
@@ -110,8 +114,7 @@ export class StrataElectronPanel extends LitElement {
       }
       const pixel = this.pixelUmText.trim() === '' ? undefined : Number(this.pixelUmText);
       if (pixel !== undefined && !(pixel > 0)) throw new Error(`the detector pixel size must be a positive number of µm, got "${this.pixelUmText}"`);
-      const image = this.copyOfImage();
-      const c = await this.compute.call('cameraConstant', { image, standard, voltageKv: this.voltage(), detectorPixelUm: pixel }, [image.data.buffer]);
+      const c = await this.compute.call('cameraConstant', { sessionId: this.sessionId(), standard, voltageKv: this.voltage(), detectorPixelUm: pixel });
       this.calibration = c;
       this.camera = { kInvNmPerPx: c.kInvNmPerPx, relUncertainty: c.relUncertainty, distortion: c.distortion, detail: c.detail };
       this.emit('overlay-shapes', { shapes: [{ kind: 'point', x: c.analysis.geometry.cx, y: c.analysis.geometry.cy, label: 'centre', tone: 'accent' }] });
@@ -140,8 +143,7 @@ export class StrataElectronPanel extends LitElement {
     if (!this.compute || !this.camera) return;
     this.busy = true;
     try {
-      const image = this.copyOfImage();
-      const m = await this.compute.call('electronPattern', { image, camera: this.camera, what: this.what }, [image.data.buffer]);
+      const m = await this.compute.call('electronPattern', { sessionId: this.sessionId(), camera: this.camera, what: this.what });
       this.measurement = m;
       this.emit('overlay-shapes', {
         shapes: [
@@ -223,7 +225,7 @@ export class StrataElectronPanel extends LitElement {
           ${this.standardId.startsWith('cubic-') ? text(this.cellText, (v) => (this.cellText = v), 'a ± u (nm)') : nothing}
         </div>
         <div class="row">${text(this.voltageText, (v) => (this.voltageText = v), 'Voltage (kV)')}${text(this.pixelUmText, (v) => (this.pixelUmText = v), 'Detector pixel (µm)')}</div>
-        <div class="row"><button ?disabled=${this.busy || !this.compute} @click=${() => this.calibrate()}>Calibrate on this pattern</button></div>
+        <div class="row"><button ?disabled=${this.busy || !this.compute || !this.session} @click=${() => this.calibrate()}>Calibrate on this pattern</button></div>
         ${this.calibration ? this.renderCalibration(this.calibration) : html`<p class="muted">${(() => { const s = RING_STANDARDS.find((q) => q.id === this.standardId); return s ? `${s.source}; ${s.uncertaintyBasis}` : 'rings indexed by the extinction rule of the centring'; })()}</p>`}
         <div class="row">${text(this.typedK, (v) => (this.typedK = v), 'or K ± u (nm⁻¹/px)')}<button @click=${this.useTyped}>Use</button></div>
       </section>
@@ -236,7 +238,7 @@ export class StrataElectronPanel extends LitElement {
             <option value="rings" ?selected=${this.what === 'rings'}>rings</option>
             <option value="spots" ?selected=${this.what === 'spots'}>spots</option>
           </select>
-          <button ?disabled=${this.busy || !this.camera || !this.compute} @click=${() => this.measure()}>Measure this pattern</button>
+          <button ?disabled=${this.busy || !this.camera || !this.compute || !this.session} @click=${() => this.measure()}>Measure this pattern</button>
         </div>
         ${this.measurement ? this.renderMeasurement(this.measurement) : nothing}
       </section>

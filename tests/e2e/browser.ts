@@ -124,3 +124,52 @@ export async function longestTaskSince(page: Page, since: number): Promise<numbe
   return page.evaluate((t) => Math.max(0, ...((window as unknown as { __longTasks?: { start: number; duration: number }[] }).__longTasks ?? [])
     .filter((e) => e.start >= t).map((e) => e.duration)), since);
 }
+
+/** One call the page sent to the compute worker: its name and where its arguments held arrays. */
+export interface ComputeCallSeen {
+  name: string;
+  /** Paths in the arguments of every ArrayBuffer or typed array (pixels or a file's bytes), e.g. 'image.data (Float32Array)'. */
+  arrays: string[];
+}
+
+/**
+ * From now on, records every call the page sends to the compute worker (the shell's client, which
+ * it hands to every panel): the call's name and where its arguments hold arrays. Read them with
+ * {@link computeCalls}; the app must be on the page.
+ */
+export async function recordComputeCalls(page: Page): Promise<void> {
+  await page.waitForSelector('strata-app');
+  await page.evaluate(() => {
+    const app = document.querySelector('strata-app') as unknown as { compute: { call(name: string, args: unknown, transfer?: unknown[]): unknown } };
+    const client = app.compute;
+    const seen: { name: string; arrays: string[] }[] = [];
+    (window as unknown as { strataComputeCalls: typeof seen }).strataComputeCalls = seen;
+    const arraysIn = (v: unknown, path: string, out: string[], visited: Set<unknown>): string[] => {
+      if (!v || typeof v !== 'object' || visited.has(v)) return out;
+      visited.add(v);
+      if (v instanceof ArrayBuffer || ArrayBuffer.isView(v)) out.push(`${path || '(the arguments)'} (${v.constructor.name})`);
+      else for (const [k, x] of Object.entries(v)) arraysIn(x, path ? `${path}.${k}` : k, out, visited);
+      return out;
+    };
+    const call = client.call.bind(client);
+    client.call = (name, args, transfer) => {
+      seen.push({ name, arrays: arraysIn(args, '', [], new Set()) });
+      return call(name, args, transfer);
+    };
+  });
+}
+
+/** The calls recorded since {@link recordComputeCalls}, in the order sent. */
+export async function computeCalls(page: Page): Promise<ComputeCallSeen[]> {
+  return page.evaluate(() => (window as unknown as { strataComputeCalls?: ComputeCallSeen[] }).strataComputeCalls ?? []);
+}
+
+/**
+ * The calls after the first `openImage` that carried pixels or bytes, other than `openImage`
+ * itself (a file's bytes, sent once to open its session): none is allowed, as the compute worker
+ * owns the image session and requests carry ids and regions (docs/developers.md).
+ */
+export function callsWithPixelsAfterOpen(calls: ComputeCallSeen[]): ComputeCallSeen[] {
+  const first = calls.findIndex((c) => c.name === 'openImage');
+  return first < 0 ? [] : calls.slice(first + 1).filter((c) => c.name !== 'openImage' && c.arrays.length > 0);
+}

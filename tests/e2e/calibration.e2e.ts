@@ -8,7 +8,7 @@ import { projectedLattice } from '../../src/calibration/affine';
 import { encodeTiff } from '../../testing/encode-tiff';
 import { distortedLattice } from '../../testing/synthetic/distorted-lattice';
 import { barScene } from '../../testing/synthetic/scale-bar-scenes';
-import { drag, imageToPage, nextFrames, openSession, type Session } from './browser';
+import { callsWithPixelsAfterOpen, computeCalls, drag, imageToPage, nextFrames, openSession, recordComputeCalls, type Session } from './browser';
 
 let s: Session;
 const errors: string[] = [];
@@ -41,6 +41,7 @@ beforeAll(async () => {
   await s.page.setViewportSize({ width: 1366, height: 768 });
   await s.page.goto(s.url);
   await s.page.waitForSelector('strata-app');
+  await recordComputeCalls(s.page);
 }, 60_000);
 afterAll(async () => {
   await s?.close();
@@ -77,5 +78,9 @@ test('two axes from a drawn region of a distorted Si [110] image: stretch within
   await panel().locator('button', { hasText: 'Use for this image' }).click();
   await nextFrames(s.page);
   await shot('calibration-two-axes');
+  // the drawn region went to the worker as a region of the session's image, never as pixels
+  const calls = await computeCalls(s.page);
+  expect(calls.map((c) => c.name)).toEqual(expect.arrayContaining(['openImage', 'spectrum']));
+  expect(callsWithPixelsAfterOpen(calls)).toEqual([]);
   expect(errors).toEqual([]);
 }, 120_000);

@@ -2,11 +2,16 @@
 // calibrate the camera constant on it, open a sample's ring pattern, measure its d-spacings and
 // store them in the library. Truth: the rendered camera constant and spacings
 // (testing/synthetic/electron-pattern.ts; targets of issue 14: K within 0.1 %, d within 0.2 %).
+// The worker measures the pattern its session holds: the panel's numbers are the core's on the
+// file decoded here, and each file's bytes are sent once, to open it, never pixels afterwards.
 import { afterAll, beforeAll, expect, test } from 'vitest';
+import { calibrateCameraConstant } from '../../src/diffraction/electron/camera-constant';
+import { measureElectronPattern } from '../../src/diffraction/electron/measure';
 import { ringStandard, standardRings } from '../../src/diffraction/electron/standards';
+import { decodeImage } from '../../src/image/decode';
 import { encodeTiff } from '../../testing/encode-tiff';
 import { electronPattern, type PatternSpec } from '../../testing/synthetic/electron-pattern';
-import { openSession, type Session, nextFrames } from './browser';
+import { callsWithPixelsAfterOpen, computeCalls, openSession, recordComputeCalls, type Session, nextFrames } from './browser';
 
 let s: Session;
 const errors: string[] = [];
@@ -22,12 +27,17 @@ function tiff(spec: Partial<PatternSpec>): Buffer {
 const app = () => s.page.locator('strata-app');
 const panel = () => s.page.locator('strata-electron-panel');
 
+/** Opens a file and waits until its session is the one the viewer and the SAED panel have (both patterns are 480 px wide). */
 async function open(name: string, buffer: Buffer, width: number): Promise<void> {
+  const before = await app().evaluate((el) => (el as unknown as { session: string | null }).session);
   await app().locator('input.open').setInputFiles({ name, mimeType: 'image/tiff', buffer });
-  await s.page.waitForFunction((w) => {
-    const v = document.querySelector('strata-app')?.shadowRoot?.querySelector('strata-viewer') as unknown as { image?: { width: number; data: Float32Array } };
-    return v?.image?.width === w;
-  }, width, { timeout: 60_000 });
+  await s.page.waitForFunction(([w, old]) => {
+    const a = document.querySelector('strata-app') as unknown as { session: string | null; shadowRoot: ShadowRoot } | null;
+    const v = a?.shadowRoot?.querySelector('strata-viewer') as unknown as { image?: { width: number } } | null;
+    const p = a?.shadowRoot?.querySelector('strata-electron-panel') as unknown as { session: string | null } | null;
+    return !!a && a.session !== null && a.session !== old && v?.image?.width === w && (!p || p.session === a.session);
+  }, [width, before] as const, { timeout: 60_000 });
+  await nextFrames(s.page);
 }
 
 async function idle(): Promise<void> {
@@ -44,6 +54,7 @@ beforeAll(async () => {
   await s.page.setViewportSize({ width: 1366, height: 768 });
   await s.page.goto(s.url);
   await s.page.waitForSelector('strata-app');
+  await recordComputeCalls(s.page);
 }, 60_000);
 afterAll(async () => {
   await s?.close();
@@ -51,7 +62,8 @@ afterAll(async () => {
 
 test('calibrate on gold, measure a sample, store it', async () => {
   const intens = [1, 0.6, 0.45, 0.45, 0.15, 0.1, 0.2, 0.2];
-  await open('gold-rings.tif', tiff({ rings: standardRings(ringStandard('au'), 8).map((r, i) => ({ gInvNm: r.gInvNm, intensity: intens[i] })) }), 480);
+  const gold = tiff({ rings: standardRings(ringStandard('au'), 8).map((r, i) => ({ gInvNm: r.gInvNm, intensity: intens[i] })) });
+  await open('gold-rings.tif', gold, 480);
   await app().locator('[role="tab"]', { hasText: 'SAED' }).click();
   await nextFrames(s.page);
   await panel().locator('button', { hasText: 'Calibrate on this pattern' }).click();
@@ -60,17 +72,31 @@ test('calibrate on gold, measure a sample, store it', async () => {
   expect(k).not.toBeNull();
   expect(Math.abs(k! / K - 1)).toBeLessThan(0.001);
   await expect.poll(() => panel().locator('p.num').first().textContent()).toMatch(/K = 0\.05\d+ nm⁻¹ per px ± [\d.]+ %/);
+  // the worker measured the file's own pixels: the numbers of the core on the file decoded here (200 kV
+  // as typed), up to the last digits where the browser's and Node's floating-point functions differ
+  const here = calibrateCameraConstant(decodeImage(new Uint8Array(gold), 'gold-rings.tif'), ringStandard('au'), { voltageKv: 200 });
+  expect(Math.abs(k! / here.kInvNmPerPx - 1)).toBeLessThan(1e-12);
   if (process.env.SCREENSHOT_DIR) await s.page.screenshot({ path: `${process.env.SCREENSHOT_DIR}/electron-calibrate.png` });
 
-  await open('sample-rings.tif', tiff({ rings: SAMPLE.map((d, i) => ({ gInvNm: 1 / d, intensity: [1, 0.7, 0.5][i] })), cx: 236.1, cy: 246.9, seed: 62 }), 480);
+  const sample = tiff({ rings: SAMPLE.map((d, i) => ({ gInvNm: 1 / d, intensity: [1, 0.7, 0.5][i] })), cx: 236.1, cy: 246.9, seed: 62 });
+  await open('sample-rings.tif', sample, 480);
   await panel().locator('select[aria-label="What to measure"]').selectOption('rings');
   await panel().locator('button', { hasText: 'Measure this pattern' }).click();
   await idle();
   const ds = await panel().evaluate((el) => (el as unknown as { measurement: { rings: { dNm: number }[] } | null }).measurement?.rings.map((r) => r.dNm) ?? []);
   expect(ds).toHaveLength(3);
   ds.forEach((d, i) => expect(Math.abs(d / SAMPLE[i] - 1)).toBeLessThan(0.002));
+  const camera = { kInvNmPerPx: here.kInvNmPerPx, relUncertainty: here.relUncertainty, distortion: here.distortion, detail: here.detail };
+  const dsHere = measureElectronPattern(decodeImage(new Uint8Array(sample), 'sample-rings.tif'), camera, { what: 'rings' }).rings.map((r) => r.dNm);
+  expect(dsHere).toHaveLength(3);
+  ds.forEach((d, i) => expect(Math.abs(d / dsHere[i] - 1)).toBeLessThan(1e-12));
   await panel().locator('button', { hasText: 'Store in the library' }).click();
   await expect.poll(() => app().locator('.status, [role="status"]').first().textContent(), { timeout: 10_000 }).toMatch(/Stored .* 3 d-spacings/);
   if (process.env.SCREENSHOT_DIR) await s.page.screenshot({ path: `${process.env.SCREENSHOT_DIR}/electron-measure.png` });
+  // each pattern's bytes went to the worker once, to open its session; the measurements sent ids
+  const calls = await computeCalls(s.page);
+  expect(calls.filter((c) => c.name === 'openImage')).toHaveLength(2);
+  expect(calls.map((c) => c.name)).toEqual(expect.arrayContaining(['cameraConstant', 'electronPattern']));
+  expect(callsWithPixelsAfterOpen(calls)).toEqual([]);
   expect(errors).toEqual([]);
 }, 240_000);

@@ -3,10 +3,10 @@
 // spectrum is computed once, clicking spots on it runs no transform of the region (counted by the
 // session) and the time from click to numbers is read from the browser's performance timeline;
 // a new calibration re-expresses the numbers and measures nothing again; the results export as
-// CSV and JSON through the one writer.
+// CSV and JSON through the one writer; the file's bytes go to the worker once and no later call carries pixels.
 import { readFileSync } from 'node:fs';
 import { afterAll, beforeAll, expect, test } from 'vitest';
-import { openSession, type Session, nextFrames, imageToPage, drag as dragOnPage, openDemoImage } from './browser';
+import { openSession, type Session, nextFrames, imageToPage, drag as dragOnPage, openDemoImage, recordComputeCalls, computeCalls, callsWithPixelsAfterOpen } from './browser';
 
 let s: Session;
 const errors: string[] = [];
@@ -29,6 +29,7 @@ beforeAll(async () => {
   s = await openSession();
   s.page.on('pageerror', (e) => errors.push(String(e)));
   await s.page.goto(s.url);
+  await recordComputeCalls(s.page);
   await openDemoImage(s.page, 'Tactoid lattice fringes', 1024, 'Periods');
 });
 afterAll(async () => {
@@ -113,5 +114,10 @@ test('the results export as CSV and JSON through the one writer', async () => {
   expect(doc.measurements[0].tool).toBe('spectrum');
   expect(doc.measurements[0].periodicities.length).toBe(rows.length);
   expect(doc.measurements[0].budgets[0].periodNm).toBeCloseTo(Number(first[cols.indexOf('periodNm')]), 3);
+  // the file's bytes went to the worker once, to open the session; every later call sent its id
+  const calls = await computeCalls(s.page);
+  expect(calls.filter((c) => c.name === 'openImage')).toHaveLength(1);
+  expect(calls.map((c) => c.name)).toEqual(expect.arrayContaining(['spectrum', 'spotNear', 'spotBudget', 'recalibrate']));
+  expect(callsWithPixelsAfterOpen(calls)).toEqual([]);
   expect(errors).toEqual([]);
 });

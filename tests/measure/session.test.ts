@@ -4,6 +4,7 @@
 // Synthetic fringes with known truth (tests/measure/synth.ts): a plane wave of a non-integer
 // period is a spectrum spot at 1/period cycles/px (DFT definition, reference-values §4).
 import { describe, expect, test } from 'vitest';
+import { cropImage } from '../../src/image/crop';
 import { analyseProfile } from '../../src/measure/profile-measurement';
 import { measureRegion } from '../../src/measure/measure-region';
 import { expressPeriod } from '../../src/measure/measurement';
@@ -110,6 +111,23 @@ describe('image session', () => {
     expect(m.periodicities.length).toBe(a.spots.length);
     expect((m.detail!.selectedSpots as number[])).toEqual([1]);
     expect(() => withTableSpots({ ...a.measurement, tool: 'profile' }, [], [], [])).toThrow(/spectrum record, got tool 'profile'/);
+  }, 60_000);
+
+  test('a region of the session\'s image gives the numbers of a copy of that region alone (the Calibration panel\'s former crop call)', async () => {
+    // The Calibration panel once sent a crop of the region; it now names the region of the
+    // session's image. Spots, periods and picture must be the same numbers (area offsets aside).
+    const settings = { window: 'hann' as const, tukeyAlpha: 0.3, alpha: 0.001 };
+    const s = createImageSession('s9', image);
+    for (const r of [rect, { x: 33, y: 41, width: 201, height: 77 }]) {
+      const copy = createImageSession('copy', cropImage(image, r));
+      const fromCopy = spectrumView(await regionAnalysis(copy, { x: 0, y: 0, width: r.width, height: r.height }, settings), 64, settings.alpha);
+      const inSession = spectrumView(await regionAnalysis(s, r, settings), 64, settings.alpha);
+      expect(inSession.spots.length).toBeGreaterThan(0);
+      expect(inSession.spots).toEqual(fromCopy.spots);
+      expect(inSession.measurement.periodicities).toEqual(fromCopy.measurement.periodicities);
+      expect(inSession.picture).toEqual(fromCopy.picture);
+      expect(inSession.measurement.region).toEqual({ kind: 'rect', ...r });
+    }
   }, 60_000);
 
   test('a profile in the session is the core\'s profile, with its samples in the record', () => {
