@@ -382,13 +382,18 @@ export class StrataApp extends LitElement {
         }
         void this.refreshStorage();
       }
-      if (record?.calibration && !image.calibration) image.calibration = record.calibration;
+      // the library keeps the calibration last set for this image (the file's own, or one set since):
+      // the page's copy and the worker's session both take it
+      const stored = record?.calibration ?? null;
+      const takeStored = stored !== null && JSON.stringify(stored) !== JSON.stringify(image.calibration);
+      if (takeStored) image.calibration = stored;
       // From the start screen, go straight to measuring: the first panel after the library.
       if (!this.image && this.activeTab === 'library' && this.tabs.length > 1) this.activeTab = this.tabs[0].id;
       this.levels = levels;
       this.histogram = histogram;
       this.closeSession();
       this.session = sessionId;
+      if (takeStored) await this.compute.call('recalibrate', { sessionId, calibration: stored });
       this.image = image;
       this.record = record;
       this.shapes = new Map();

@@ -105,7 +105,7 @@ test('a profile line: its plot is ≥ 600 px wide, reads the value under the cur
   expect(await range()).toBeCloseTo(full, 6);
   // the plot's text alternative: its data table
   await plot.locator('summary').click();
-  expect(await plot.locator('tbody tr').count()).toBeGreaterThan(100);
+  await expect.poll(() => plot.locator('tbody tr').count()).toBeGreaterThan(100);
   // tick labels of the exported figure are at least 11 px
   const svg = await plot.evaluate((el) => (el as unknown as { svgText(): string }).svgText());
   expect(Number(/font-size="(\d+)"/.exec(svg)![1])).toBeGreaterThanOrEqual(11);
@@ -206,5 +206,14 @@ test('calibrate: a typed pixel size re-expresses the periods; undo brings back t
   await s.page.locator('strata-undo-control button.redo').click();
   await expect.poll(d).toBeCloseTo(2.5, 1);
   await s.page.screenshot({ path: join(dir, 'calibrated-redone.png') });
+  // reopened from the library, the image keeps the calibration set for it, in the page and in the
+  // worker's session (whose records the Periods panel shows)
+  await s.page.reload();
+  await app.locator('[role="tab"]', { hasText: 'Periods' }).waitFor();
+  await app.locator('[role="tab"]', { hasText: 'Library' }).click();
+  await app.locator('button[aria-label="Open tactoid-fringes_hr.tif"]').click();
+  await app.locator('[role="tab"]', { hasText: 'Periods' }).click();
+  await expect.poll(d, { timeout: 60_000 }).toBeCloseTo(2.5, 1);
+  expect(await app.evaluate((el) => (el as unknown as { image: { calibration: { nmPerPx: number } } }).image.calibration.nmPerPx)).toBeCloseTo(0.1, 12);
   expect(errors).toEqual([]);
 });
