@@ -8,7 +8,7 @@
  */
 import { drawText, measureText } from '../figure/draw-text';
 import { textSlant, unslant, type InkMask } from './label-raster';
-import { connectedComponents, type Component } from '../image/components';
+import { connectedComponents, holeCount, type Component } from '../image/components';
 
 /** What the glyph reader made of a label. */
 export interface GlyphReading {
@@ -38,40 +38,6 @@ function compMask(m: InkMask, c: Comp): InkMask {
     data[(y - c.y0) * w + (x - c.x0)] = 1;
   }
   return { width: w, height: h, data };
-}
-
-/** Enclosed background regions of a glyph (4-connected background, at least minArea px). */
-export function holeCount(g: InkMask, minArea = 1): number {
-  const w = g.width + 2;
-  const h = g.height + 2;
-  const ink = new Uint8Array(w * h);
-  for (let y = 0; y < g.height; y++) for (let x = 0; x < g.width; x++) ink[(y + 1) * w + x + 1] = g.data[y * g.width + x];
-  const lab = new Int32Array(w * h);
-  let regions = 0;
-  let holes = 0;
-  for (let i = 0; i < w * h; i++) {
-    if (ink[i] || lab[i]) continue;
-    regions++;
-    let size = 0;
-    const stack = [i];
-    lab[i] = regions;
-    while (stack.length) {
-      const k = stack.pop()!;
-      size++;
-      const x = k % w;
-      const y = (k - x) / w;
-      for (const [nx, ny] of [[x - 1, y], [x + 1, y], [x, y - 1], [x, y + 1]]) {
-        if (nx < 0 || ny < 0 || nx >= w || ny >= h) continue;
-        const nk = ny * w + nx;
-        if (!ink[nk] && !lab[nk]) {
-          lab[nk] = regions;
-          stack.push(nk);
-        }
-      }
-    }
-    if (regions > 1 && size >= minArea) holes++;
-  }
-  return holes;
 }
 
 const GW = 10;

@@ -5,7 +5,7 @@
 import { makeCalibration, rectangularU, SCALE_BAR_REPRESENTATION_REL } from './calibration';
 import type { Calibration, GreyImage } from '../image/grey-image';
 import { otsuThreshold } from '../image/otsu';
-import { connectedComponents, type Component } from '../image/components';
+import { connectedComponents, holeCount, type Component } from '../image/components';
 import type { Box, ScaleBar, ScaleBarOptions } from './scale-bar';
 import { findScaleBar } from './scale-bar';
 import { readLabel, type LabelReading, type LabelReadOptions, type LineReader } from './label-read';
@@ -139,42 +139,14 @@ function textBlobs(r: { width: number; height: number; data: Uint8Array }): Blob
 }
 
 /** Number of enclosed background regions (holes) of a blob, by flood fill from its box's rim. */
-function holeCount(b: Blob, width: number): number {
-  const w = b.x1 - b.x0 + 3;
-  const h = b.y1 - b.y0 + 3;
-  const ink = new Uint8Array(w * h);
+function blobHoles(b: Blob, width: number): number {
+  const w = b.x1 - b.x0 + 1;
+  const data = new Uint8Array(w * (b.y1 - b.y0 + 1));
   for (const k of b.pixels) {
     const x = k % width;
-    const y = (k - x) / width;
-    ink[(y - b.y0 + 1) * w + (x - b.x0 + 1)] = 1;
+    data[((k - x) / width - b.y0) * w + (x - b.x0)] = 1;
   }
-  const label = new Int32Array(w * h);
-  let regions = 0;
-  let holes = 0;
-  const minHole = Math.max(2, Math.round(0.002 * b.pixels.length));
-  for (let i = 0; i < w * h; i++) {
-    if (ink[i] || label[i]) continue;
-    regions++;
-    const stack = [i];
-    label[i] = regions;
-    let size = 0;
-    while (stack.length) {
-      const k = stack.pop()!;
-      size++;
-      const x = k % w;
-      const y = (k - x) / w;
-      for (const [nx, ny] of [[x - 1, y], [x + 1, y], [x, y - 1], [x, y + 1]]) {
-        if (nx < 0 || ny < 0 || nx >= w || ny >= h) continue;
-        const nk = ny * w + nx;
-        if (!ink[nk] && !label[nk]) {
-          label[nk] = regions;
-          stack.push(nk);
-        }
-      }
-    }
-    if (regions > 1 && size >= minHole) holes++; // region 1 holds the rim: the outside
-  }
-  return holes;
+  return holeCount({ width: w, height: b.y1 - b.y0 + 1, data }, Math.max(2, Math.round(0.002 * b.pixels.length)));
 }
 
 /** Background regions inside the box that do not reach its rim (4-connected). */
@@ -249,7 +221,7 @@ export function checkMicroPrefix(
   // glyphs that touch cannot be told apart: the prefix stays unread ('?') and the caller asks the user
   if (blobs.length !== letters.length || blobs.length < 2) return text.slice(0, m.index) + '?' + text.slice(m.index + 1);
   const prefix = blobs[blobs.length - 2];
-  const holes = holeCount(prefix, raster.width);
+  const holes = blobHoles(prefix, raster.width);
   const want = holes >= 1 ? 'p' : 'µ';
   return text.slice(0, m.index) + want + text.slice(m.index + 1);
 }

@@ -58,3 +58,46 @@ export function connectedComponents(width: number, height: number, data: Uint8Ar
   }
   return out;
 }
+
+/**
+ * Holes of a binary shape: background regions (4-connected) that do not reach the picture's rim.
+ *
+ * @param g the shape: non-zero pixels are ink
+ * @param minArea smallest hole counted (px; default 1)
+ * @returns the number of holes (0 for "1", 1 for "0", 2 for "8")
+ * Notes: the picture is padded by one background pixel, so the first region labelled is the
+ * outside; every later region is enclosed by ink.
+ * Reference: Euler number of a binary image, Gray, IEEE Trans. Comput. C-20(5), 551–561 (1971).
+ */
+export function holeCount(g: { width: number; height: number; data: Uint8Array }, minArea = 1): number {
+  const w = g.width + 2;
+  const h = g.height + 2;
+  const ink = new Uint8Array(w * h);
+  for (let y = 0; y < g.height; y++) for (let x = 0; x < g.width; x++) ink[(y + 1) * w + x + 1] = g.data[y * g.width + x];
+  const lab = new Int32Array(w * h);
+  let regions = 0;
+  let holes = 0;
+  for (let i = 0; i < w * h; i++) {
+    if (ink[i] || lab[i]) continue;
+    regions++;
+    let size = 0;
+    const stack = [i];
+    lab[i] = regions;
+    while (stack.length) {
+      const k = stack.pop()!;
+      size++;
+      const x = k % w;
+      const y = (k - x) / w;
+      for (const [nx, ny] of [[x - 1, y], [x + 1, y], [x, y - 1], [x, y + 1]]) {
+        if (nx < 0 || ny < 0 || nx >= w || ny >= h) continue;
+        const nk = ny * w + nx;
+        if (!ink[nk] && !lab[nk]) {
+          lab[nk] = regions;
+          stack.push(nk);
+        }
+      }
+    }
+    if (regions > 1 && size >= minArea) holes++;
+  }
+  return holes;
+}
