@@ -9,7 +9,7 @@ import { batchJson, pooledStats, resultsCsv, summaryCsv, zipExports } from '../s
 import { histogramSvg } from '../src/figure/batch-figure';
 import { batchReportHtml } from '../src/figure/report';
 import { PROGRAM_VERSION } from '../src/cli/version';
-import { compareBatchWithDiffraction, comparisonCsv, diffractionOverlaySvg, type BatchComparison } from '../src/batch/compare';
+import { compareBatchWithDiffraction, comparisonCsv, diffractionOverlaySvg, type BatchComparison } from '../src/diffraction/cross-check';
 import { diffractionSideOfSet } from '../src/diffraction/stored-set';
 import { svgToPng } from './svg-png';
 import { figureNames } from '../src/batch/names';

@@ -4,10 +4,9 @@
  *
  * The image session: `openImage` decodes a file once and keeps the image in the worker under a
  * session id; every later call on it sends that id and a region or a line, never pixels (the
- * Periods, Calibration and SAED panels, the export menu's `imageReport`; checked by
- * tests/architecture/compute-protocol.test.ts). The two calls marked "crop", `sheetsFind` and
- * `sheetsLine`, still take a copy of the pixels; they serve the Sheets panel, not yet moved to the
- * session. `decode` and `prepareView` take bytes or pixels and belong to no session.
+ * Periods, Calibration, Sheets and SAED panels, the export menu's `imageReport`; checked by
+ * tests/architecture/compute-protocol.test.ts). `decode` and `prepareView` take bytes or pixels
+ * and belong to no session.
  */
 import type { CameraConstant } from '../src/diffraction/electron/camera-constant';
 import type { CameraSetting, PatternMeasurement } from '../src/diffraction/electron/measure';
@@ -74,10 +73,10 @@ export interface ComputeCalls {
   imageReport: { args: InSession & { form: 'html' | 'svg'; fileName: string; records: Measurement[]; plots: PlotData[]; k: number; software: string }; result: { text: string } };
   /** Reads a diffraction pattern's text and fits its peaks (seconds on a few thousand points). */
   analysePattern: { args: { text: string; wavelength?: string; fileName?: string }; result: { pattern: Pattern; analysis: PatternAnalysis } };
-  /** Crop: every stack in an image (a copy is sent), skipping a scale-bar strip or panel; the period when known (px). */
-  sheetsFind: { args: { image: GreyImage; polarity: 'dark' | 'bright'; periodPx?: number }; result: { result: AutoSheetsResult; excludedBox: [number, number, number, number] | null } };
-  /** Crop: sheets along a drawn line (a copy of the image is sent); the period when known, or the image's candidates. */
-  sheetsLine: { args: { image: GreyImage; line: { x0: number; y0: number; x1: number; y1: number; widthPx: number }; polarity: 'dark' | 'bright'; periodPx?: number; periods?: number[] }; result: LineSheetsResult };
+  /** Every stack in the session's image, skipping a scale-bar strip or panel; the period when known (px). */
+  sheetsFind: { args: InSession & { polarity: 'dark' | 'bright'; periodPx?: number }; result: { result: AutoSheetsResult; excludedBox: [number, number, number, number] | null } };
+  /** Sheets along a drawn line in the session's image; the period when known, or the image's candidates. */
+  sheetsLine: { args: InSession & { line: { x0: number; y0: number; x1: number; y1: number; widthPx: number }; polarity: 'dark' | 'bright'; periodPx?: number; periods?: number[] }; result: LineSheetsResult };
   /** Electron diffraction (issue 14): the camera constant from the session's image, a ring standard's pattern (SAED panel). */
   cameraConstant: {
     args: InSession & { standard: { id: string } | { aNm: number; uANm: number; centring: 'F' | 'I' | 'P' }; voltageKv?: number; detectorPixelUm?: number };

@@ -95,14 +95,16 @@ const handlers: Handlers = {
     if (form === 'svg') return { text: imageFigureSvg(image, recordShapes(records), image.calibration, 2048) };
     return { text: imageReportHtml({ image, fileName, records, plots, k, software }) };
   },
-  sheetsFind: async ({ image, polarity, periodPx }) => {
+  sheetsFind: async ({ sessionId, polarity, periodPx }) => {
+    const { image } = sessionOf(sessionId);
     const { findScaleBar } = await import('../src/calibration/scale-bar');
     const { detectSheets } = await import('../src/sheets/detect');
     const bar = findScaleBar(image);
     const excludedBox = bar ? bar.stripBox ?? bar.panelBox : null;
     return { result: detectSheets(image, { exclude: excludedBox, polarity, periodPx }), excludedBox };
   },
-  sheetsLine: async ({ image, line, polarity, periodPx, periods }) => {
+  sheetsLine: async ({ sessionId, line, polarity, periodPx, periods }) => {
+    const { image } = sessionOf(sessionId);
     const { sheetsAlongLine } = await import('../src/sheets/line');
     return sheetsAlongLine(image, line.x0, line.y0, line.x1, line.y1, { widthPx: line.widthPx, polarity, periodPx, periods });
   },

@@ -43,7 +43,8 @@ const fmt = (b: UncertaintyBudget) => `${formatPlusMinus(b.value, b.expanded)}`;
 /**
  * `<strata-sheets-panel>`. Properties (given by the app shell): `image`, `record`, `db`,
  * `compute`, `viewer`, `line`. Events: `overlay-shapes` {shapes}, `status-message` {text, kind},
- * `library-changed`. The search and the line run in the compute worker on copies of the image.
+ * `library-changed`. The search and the line run in the compute worker on the image its session
+ * holds (`session`): the requests carry the session id, never pixels.
  */
 export class StrataSheetsPanel extends LitElement {
   static override properties = {
@@ -51,6 +52,7 @@ export class StrataSheetsPanel extends LitElement {
     record: { attribute: false },
     db: { attribute: false },
     compute: { attribute: false },
+    session: { attribute: false },
     viewer: { attribute: false },
     line: { attribute: false },
     sheets: { state: true },
@@ -101,6 +103,8 @@ export class StrataSheetsPanel extends LitElement {
   record: ImageRecord | null = null;
   db: LibraryDb | null = null;
   compute: ComputeClient | null = null;
+  /** The id of the open image's session in the compute worker (null until it is open there). */
+  session: string | null = null;
   viewer: StrataViewer | null = null;
   line: LineDrawnDetail | null = null;
   /** The sheets under review (automatic and from lines), lengths in px. */
@@ -272,14 +276,15 @@ export class StrataSheetsPanel extends LitElement {
       this.say((e as Error).message, 'error');
       return;
     }
-    if (!this.compute) {
+    const session = this.session;
+    if (!this.compute || !session) {
       this.say('the compute worker is not available', 'error');
       return;
     }
     this.busy = true;
     this.say('finding stacks…');
     try {
-      const { result, excludedBox } = await this.compute.call('sheetsFind', { image: img, polarity: this.bright ? 'bright' : 'dark', periodPx: periodPx ?? undefined });
+      const { result, excludedBox } = await this.compute.call('sheetsFind', { sessionId: session, polarity: this.bright ? 'bright' : 'dark', periodPx: periodPx ?? undefined });
       if (this.image !== img) return;
       const kept = this.sheets.filter((s) => s.source !== 'auto');
       this.sheets = [...kept, ...result.sheets.map(sheetFromAuto)];
@@ -307,11 +312,12 @@ export class StrataSheetsPanel extends LitElement {
       this.say((e as Error).message, 'error');
       return;
     }
-    if (!this.compute) return;
+    const session = this.session;
+    if (!this.compute || !session) return;
     this.busy = true;
     try {
       const r = await this.compute.call('sheetsLine', {
-        image: img,
+        sessionId: session,
         line: { x0: l.x0, y0: l.y0, x1: l.x1, y1: l.y1, widthPx: Math.max(1, l.widthPx || 9) },
         polarity: this.bright ? 'bright' : 'dark',
         periodPx: periodPx ?? undefined,

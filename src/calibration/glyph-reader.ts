@@ -8,6 +8,7 @@
  */
 import { drawText, measureText } from '../figure/draw-text';
 import { textSlant, unslant, type InkMask } from './label-raster';
+import { connectedComponents, holeCount, type Component } from '../image/components';
 
 /** What the glyph reader made of a label. */
 export interface GlyphReading {
@@ -19,50 +20,11 @@ export interface GlyphReading {
   notes: string[];
 }
 
-interface Comp {
-  x0: number;
-  y0: number;
-  x1: number;
-  y1: number;
-  /** Pixel indices into the mask. */
-  px: number[];
-}
+type Comp = Component;
 
 /** 8-connected components of ink. */
 function components(m: InkMask): Comp[] {
-  const { width, height, data } = m;
-  const seen = new Uint8Array(width * height);
-  const out: Comp[] = [];
-  for (let i = 0; i < data.length; i++) {
-    if (!data[i] || seen[i]) continue;
-    const c: Comp = { x0: width, y0: height, x1: -1, y1: -1, px: [] };
-    const stack = [i];
-    seen[i] = 1;
-    while (stack.length) {
-      const k = stack.pop()!;
-      const x = k % width;
-      const y = (k - x) / width;
-      c.px.push(k);
-      if (x < c.x0) c.x0 = x;
-      if (x > c.x1) c.x1 = x;
-      if (y < c.y0) c.y0 = y;
-      if (y > c.y1) c.y1 = y;
-      for (let dy = -1; dy <= 1; dy++) {
-        for (let dx = -1; dx <= 1; dx++) {
-          const nx = x + dx;
-          const ny = y + dy;
-          if (nx < 0 || ny < 0 || nx >= width || ny >= height) continue;
-          const nk = ny * width + nx;
-          if (data[nk] && !seen[nk]) {
-            seen[nk] = 1;
-            stack.push(nk);
-          }
-        }
-      }
-    }
-    out.push(c);
-  }
-  return out;
+  return connectedComponents(m.width, m.height, m.data);
 }
 
 /** A component's pixels as its own mask, cropped to its box. */
@@ -70,46 +32,12 @@ function compMask(m: InkMask, c: Comp): InkMask {
   const w = c.x1 - c.x0 + 1;
   const h = c.y1 - c.y0 + 1;
   const data = new Uint8Array(w * h);
-  for (const k of c.px) {
+  for (const k of c.pixels) {
     const x = k % m.width;
     const y = (k - x) / m.width;
     data[(y - c.y0) * w + (x - c.x0)] = 1;
   }
   return { width: w, height: h, data };
-}
-
-/** Enclosed background regions of a glyph (4-connected background, at least minArea px). */
-export function holeCount(g: InkMask, minArea = 1): number {
-  const w = g.width + 2;
-  const h = g.height + 2;
-  const ink = new Uint8Array(w * h);
-  for (let y = 0; y < g.height; y++) for (let x = 0; x < g.width; x++) ink[(y + 1) * w + x + 1] = g.data[y * g.width + x];
-  const lab = new Int32Array(w * h);
-  let regions = 0;
-  let holes = 0;
-  for (let i = 0; i < w * h; i++) {
-    if (ink[i] || lab[i]) continue;
-    regions++;
-    let size = 0;
-    const stack = [i];
-    lab[i] = regions;
-    while (stack.length) {
-      const k = stack.pop()!;
-      size++;
-      const x = k % w;
-      const y = (k - x) / w;
-      for (const [nx, ny] of [[x - 1, y], [x + 1, y], [x, y - 1], [x, y + 1]]) {
-        if (nx < 0 || ny < 0 || nx >= w || ny >= h) continue;
-        const nk = ny * w + nx;
-        if (!ink[nk] && !lab[nk]) {
-          lab[nk] = regions;
-          stack.push(nk);
-        }
-      }
-    }
-    if (regions > 1 && size >= minArea) holes++;
-  }
-  return holes;
 }
 
 const GW = 10;
@@ -200,13 +128,13 @@ function templates(): Template[] {
         const r = { width: w, height: h, data: new Float32Array(w * h) };
         drawText(r, ch, 4, 4 + Math.ceil(m.ascentPx), { sizePx: cap, value: 1, font, weight });
         const mask: InkMask = { width: w, height: h, data: Uint8Array.from(r.data, (v) => (v >= 0.5 ? 1 : 0)) };
-        const c = components(mask).reduce((a, b) => (b.px.length > a.px.length ? b : a));
+        const c = components(mask).reduce((a, b) => (b.pixels.length > a.pixels.length ? b : a));
         const all = components(mask);
         const x0 = Math.min(...all.map((q) => q.x0));
         const x1 = Math.max(...all.map((q) => q.x1));
         const y0 = Math.min(...all.map((q) => q.y0));
         const y1 = Math.max(...all.map((q) => q.y1));
-        const merged: Comp = { x0, y0, x1, y1, px: all.flatMap((q) => q.px) };
+        const merged: Comp = { x0, y0, x1, y1, pixels: all.flatMap((q) => q.pixels) };
         void c;
         out.push({ ch, f: features(compMask(mask, merged)) });
       }
@@ -329,7 +257,7 @@ export function readGlyphs(ink: InkMask): GlyphReading {
         const b = comps[j];
         const ov = Math.min(a.x1, b.x1) - Math.max(a.x0, b.x0) + 1;
         if (ov >= 0.6 * Math.min(a.x1 - a.x0 + 1, b.x1 - b.x0 + 1)) {
-          comps[i] = { x0: Math.min(a.x0, b.x0), y0: Math.min(a.y0, b.y0), x1: Math.max(a.x1, b.x1), y1: Math.max(a.y1, b.y1), px: a.px.concat(b.px) };
+          comps[i] = { x0: Math.min(a.x0, b.x0), y0: Math.min(a.y0, b.y0), x1: Math.max(a.x1, b.x1), y1: Math.max(a.y1, b.y1), pixels: a.pixels.concat(b.pixels) };
           comps.splice(j, 1);
           joined = true;
         }
@@ -371,7 +299,7 @@ export function readGlyphs(ink: InkMask): GlyphReading {
     const xTop = medianOf(letters.map((c) => c.y0));
     const xh = baseline - xTop + 1;
     if (xh < 3) return fail('unit letters too small');
-    const u: Comp = { x0: Math.min(...letters.map((c) => c.x0)), x1: Math.max(...letters.map((c) => c.x1)), y0: Math.min(...letters.map((c) => c.y0)), y1: Math.max(...letters.map((c) => c.y1)), px: letters.flatMap((c) => c.px) };
+    const u: Comp = { x0: Math.min(...letters.map((c) => c.x0)), x1: Math.max(...letters.map((c) => c.x1)), y0: Math.min(...letters.map((c) => c.y0)), y1: Math.max(...letters.map((c) => c.y1)), pixels: letters.flatMap((c) => c.pixels) };
     const um = compMask(m, u);
     // stems across the unit, counted below the arches and above the bowls
     const rowAt = (f: number) => Math.min(um.height - 1, Math.max(0, xTop - u.y0 + Math.round(f * xh)));

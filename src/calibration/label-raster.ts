@@ -4,6 +4,7 @@
  * bilinear for anti-aliased text). Pure: typed arrays only.
  */
 import type { GreyImage } from '../image/grey-image';
+import { otsuThreshold } from '../image/otsu';
 import type { Box } from './scale-bar';
 
 /** A binary raster: 1 = ink (text), 0 = ground. */
@@ -37,39 +38,6 @@ function checkBox(image: GreyImage, box: Box): void {
   if (![bx, by, bw, bh].every(Number.isInteger) || bw < 1 || bh < 1 || bx < 0 || by < 0 || bx + bw > image.width || by + bh > image.height) {
     throw new RangeError(`label box [${box.join(', ')}] is not an integer box inside the ${image.width} × ${image.height} image`);
   }
-}
-
-/**
- * Otsu's threshold of 8-bit grey values: the level maximising the between-class variance.
- * @param data grey values 0–255
- * @returns the threshold t; pixels > t are the bright class
- * Notes: Otsu, IEEE Trans. Syst. Man Cybern. 9(1), 62–66 (1979).
- */
-export function otsuLevel(data: Uint8Array): number {
-  if (!(data instanceof Uint8Array) || data.length === 0) throw new TypeError('data must be a non-empty Uint8Array');
-  const hist = new Float64Array(256);
-  for (let i = 0; i < data.length; i++) hist[data[i]]++;
-  let sumAll = 0;
-  for (let i = 0; i < 256; i++) sumAll += i * hist[i];
-  let w0 = 0;
-  let sum0 = 0;
-  let best = 0;
-  let bestVar = -1;
-  for (let t = 0; t < 256; t++) {
-    w0 += hist[t];
-    if (w0 === 0) continue;
-    const w1 = data.length - w0;
-    if (w1 === 0) break;
-    sum0 += t * hist[t];
-    const m0 = sum0 / w0;
-    const m1 = (sumAll - sum0) / w1;
-    const between = w0 * w1 * (m0 - m1) ** 2;
-    if (between > bestVar) {
-      bestVar = between;
-      best = t;
-    }
-  }
-  return best;
 }
 
 /**
@@ -119,7 +87,7 @@ export function cropLabel(image: GreyImage, box: Box, inkBright: boolean, exactI
       }
     }
   } else {
-    const t = otsuLevel(grey);
+    const t = otsuThreshold(grey);
     for (let i = 0; i < grey.length; i++) ink[i] = grey[i] <= t ? 1 : 0;
   }
   return { box: [bx, by, bw, bh], grey: { width: bw, height: bh, data: grey }, ink: { width: bw, height: bh, data: ink }, twoLevel: !!exactInk || nearEnds >= 0.98 * grey.length };
@@ -245,7 +213,7 @@ export function ocrRaster(crop: LabelCrop, options: OcrRasterOptions = {}): Grey
         up[j * W + i] = Math.round((1 - fy) * ((1 - fx) * px(x0, y0) + fx * px(x0 + 1, y0)) + fy * ((1 - fx) * px(x0, y0 + 1) + fx * px(x0 + 1, y0 + 1)));
       }
     }
-    const t = otsuLevel(up);
+    const t = otsuThreshold(up);
     value = (i, j) => (up[j * W + i] <= t ? 0 : 255);
   }
   const OW = W + 2 * margin;

@@ -4,6 +4,8 @@
  */
 import { makeCalibration, rectangularU, SCALE_BAR_REPRESENTATION_REL } from './calibration';
 import type { Calibration, GreyImage } from '../image/grey-image';
+import { otsuThreshold } from '../image/otsu';
+import { connectedComponents, holeCount, type Component } from '../image/components';
 import type { Box, ScaleBar, ScaleBarOptions } from './scale-bar';
 import { findScaleBar } from './scale-bar';
 import { readLabel, type LabelReading, type LabelReadOptions, type LineReader } from './label-read';
@@ -51,40 +53,6 @@ export function parseScaleLabel(text: string): ScaleLabel | null {
   const rest = t.slice(0, m.index) + t.slice((m.index ?? 0) + m[0].length);
   if (/\d/.test(rest)) return null;
   return { value, unit, nm: value * NM_PER_UNIT[unit], confidence: exact ? 1 : 0.7 };
-}
-
-/**
- * Otsu's threshold of 8-bit grey values: the level maximising the between-class variance.
- * @param data grey values 0–255
- * @returns the threshold t; pixels > t are the bright class
- * Notes: Otsu, IEEE Trans. Syst. Man Cybern. 9(1), 62–66 (1979).
- */
-export function otsuThreshold(data: Uint8Array): number {
-  if (!(data instanceof Uint8Array) || data.length === 0) throw new TypeError('data must be a non-empty Uint8Array');
-  const hist = new Float64Array(256);
-  for (let i = 0; i < data.length; i++) hist[data[i]]++;
-  const total = data.length;
-  let sumAll = 0;
-  for (let i = 0; i < 256; i++) sumAll += i * hist[i];
-  let w0 = 0;
-  let sum0 = 0;
-  let best = 0;
-  let bestVar = -1;
-  for (let t = 0; t < 256; t++) {
-    w0 += hist[t];
-    if (w0 === 0) continue;
-    const w1 = total - w0;
-    if (w1 === 0) break;
-    sum0 += t * hist[t];
-    const m0 = sum0 / w0;
-    const m1 = (sumAll - sum0) / w1;
-    const between = w0 * w1 * (m0 - m1) ** 2;
-    if (between > bestVar) {
-      bestVar = between;
-      best = t;
-    }
-  }
-  return best;
 }
 
 export interface LabelPrepOptions {
@@ -161,87 +129,24 @@ export function prepareLabelForOcr(
 }
 
 /** One 8-connected blob of text pixels in a binarised label. */
-interface Blob {
-  x0: number;
-  y0: number;
-  x1: number;
-  y1: number;
-  pixels: number[];
-}
+type Blob = Component;
 
+/** The text's blobs (8-connected dark pixels, value 0), at least 4 px, left to right. */
 function textBlobs(r: { width: number; height: number; data: Uint8Array }): Blob[] {
-  const { width, height, data } = r;
-  const seen = new Uint8Array(width * height);
-  const blobs: Blob[] = [];
-  for (let i = 0; i < data.length; i++) {
-    if (seen[i] || data[i] !== 0) continue;
-    const b: Blob = { x0: width, y0: height, x1: -1, y1: -1, pixels: [] };
-    const stack = [i];
-    seen[i] = 1;
-    while (stack.length) {
-      const k = stack.pop()!;
-      const x = k % width;
-      const y = (k - x) / width;
-      b.pixels.push(k);
-      if (x < b.x0) b.x0 = x;
-      if (x > b.x1) b.x1 = x;
-      if (y < b.y0) b.y0 = y;
-      if (y > b.y1) b.y1 = y;
-      for (let dy = -1; dy <= 1; dy++) {
-        for (let dx = -1; dx <= 1; dx++) {
-          const nx = x + dx;
-          const ny = y + dy;
-          if (nx < 0 || ny < 0 || nx >= width || ny >= height) continue;
-          const nk = ny * width + nx;
-          if (!seen[nk] && data[nk] === 0) {
-            seen[nk] = 1;
-            stack.push(nk);
-          }
-        }
-      }
-    }
-    if (b.pixels.length >= 4) blobs.push(b);
-  }
-  return blobs.sort((a, c) => a.x0 - c.x0);
+  return connectedComponents(r.width, r.height, r.data, 0)
+    .filter((b) => b.pixels.length >= 4)
+    .sort((a, c) => a.x0 - c.x0);
 }
 
 /** Number of enclosed background regions (holes) of a blob, by flood fill from its box's rim. */
-function holeCount(b: Blob, width: number): number {
-  const w = b.x1 - b.x0 + 3;
-  const h = b.y1 - b.y0 + 3;
-  const ink = new Uint8Array(w * h);
+function blobHoles(b: Blob, width: number): number {
+  const w = b.x1 - b.x0 + 1;
+  const data = new Uint8Array(w * (b.y1 - b.y0 + 1));
   for (const k of b.pixels) {
     const x = k % width;
-    const y = (k - x) / width;
-    ink[(y - b.y0 + 1) * w + (x - b.x0 + 1)] = 1;
+    data[((k - x) / width - b.y0) * w + (x - b.x0)] = 1;
   }
-  const label = new Int32Array(w * h);
-  let regions = 0;
-  let holes = 0;
-  const minHole = Math.max(2, Math.round(0.002 * b.pixels.length));
-  for (let i = 0; i < w * h; i++) {
-    if (ink[i] || label[i]) continue;
-    regions++;
-    const stack = [i];
-    label[i] = regions;
-    let size = 0;
-    while (stack.length) {
-      const k = stack.pop()!;
-      size++;
-      const x = k % w;
-      const y = (k - x) / w;
-      for (const [nx, ny] of [[x - 1, y], [x + 1, y], [x, y - 1], [x, y + 1]]) {
-        if (nx < 0 || ny < 0 || nx >= w || ny >= h) continue;
-        const nk = ny * w + nx;
-        if (!ink[nk] && !label[nk]) {
-          label[nk] = regions;
-          stack.push(nk);
-        }
-      }
-    }
-    if (regions > 1 && size >= minHole) holes++; // region 1 holds the rim: the outside
-  }
-  return holes;
+  return holeCount({ width: w, height: b.y1 - b.y0 + 1, data }, Math.max(2, Math.round(0.002 * b.pixels.length)));
 }
 
 /** Background regions inside the box that do not reach its rim (4-connected). */
@@ -316,7 +221,7 @@ export function checkMicroPrefix(
   // glyphs that touch cannot be told apart: the prefix stays unread ('?') and the caller asks the user
   if (blobs.length !== letters.length || blobs.length < 2) return text.slice(0, m.index) + '?' + text.slice(m.index + 1);
   const prefix = blobs[blobs.length - 2];
-  const holes = holeCount(prefix, raster.width);
+  const holes = blobHoles(prefix, raster.width);
   const want = holes >= 1 ? 'p' : 'µ';
   return text.slice(0, m.index) + want + text.slice(m.index + 1);
 }

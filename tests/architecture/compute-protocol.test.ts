@@ -19,11 +19,9 @@ type HoldsArrays<T, Depth extends unknown[] = []> = Depth['length'] extends 8
 /** The calls whose arguments can carry pixels or bytes. */
 type CallsWithArrays = { [K in CallName]: true extends HoldsArrays<CallArgs<K>> ? K : never }[CallName];
 
-test('only opening a file, the two session-less calls and the Sheets panel\'s crop calls carry pixels or bytes', () => {
+test('only opening a file and the two session-less calls carry pixels or bytes', () => {
   // openImage: a file's bytes, sent once to open its session. decode, prepareView: no session.
-  // sheetsFind, sheetsLine: the Sheets panel's crop calls, until that panel moves to the session
-  // (take them out of this list then).
-  expectTypeOf<CallsWithArrays>().toEqualTypeOf<'openImage' | 'decode' | 'prepareView' | 'sheetsFind' | 'sheetsLine'>();
+  expectTypeOf<CallsWithArrays>().toEqualTypeOf<'openImage' | 'decode' | 'prepareView'>();
 });
 
 test('the check sees pixels wherever they are in the arguments', () => {

@@ -1,5 +1,6 @@
 import { expect, test } from 'vitest';
-import { checkMicroPrefix, otsuThreshold, parseScaleLabel, scaleBarCalibration } from '../../src/calibration/label';
+import { checkMicroPrefix, parseScaleLabel, scaleBarCalibration } from '../../src/calibration/label';
+import { otsuThreshold } from '../../src/image/otsu';
 import { drawText } from '../../src/figure/draw-text';
 
 // Unit factors: SI brochure (BIPM, 9th ed., 2019): 1 pm = 1e-3 nm, 1 µm = 1e3 nm; 1 Å = 0.1 nm (ibid., Table 8, non-SI).

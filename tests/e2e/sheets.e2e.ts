@@ -5,7 +5,7 @@ import { mkdtempSync, readFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, expect, test } from 'vitest';
-import { openSession, type Session, nextFrames, imageToPage } from './browser';
+import { callsWithPixelsAfterOpen, computeCalls, openSession, recordComputeCalls, type Session, nextFrames, imageToPage } from './browser';
 
 let s: Session;
 const dir = mkdtempSync(join(tmpdir(), 'strata-sheets-'));
@@ -48,6 +48,7 @@ beforeAll(async () => {
   s.page.on('pageerror', (e) => errors.push(String(e)));
   await s.page.goto(s.url);
   await s.page.waitForSelector('strata-app');
+  await recordComputeCalls(s.page);
   await app().locator('button.demo', { hasText: 'Tactoid film, overview' }).click();
   await s.page.waitForFunction(() => {
     const v = document.querySelector('strata-app')?.shadowRoot?.querySelector('strata-viewer') as unknown as { image?: { width: number } };
@@ -134,5 +135,9 @@ test('a 25 px line across a tactoid counts its layers', async () => {
   const again = await panel().evaluate((el) => (el as unknown as { lineResult: { sheets: { layers: number }[] } }).lineResult.sheets.map((q) => q.layers));
   expect(again).toEqual([8]);
   await s.page.screenshot({ path: join(dir, 'line.png') });
+  // the search and the lines went to the worker as the session's id and a line, never as pixels
+  const calls = await computeCalls(s.page);
+  expect(calls.map((c) => c.name)).toEqual(expect.arrayContaining(['openImage', 'sheetsFind', 'sheetsLine']));
+  expect(callsWithPixelsAfterOpen(calls)).toEqual([]);
   expect(errors).toEqual([]);
 });

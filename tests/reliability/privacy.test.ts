@@ -4,7 +4,7 @@
 import { readFileSync, readdirSync } from 'node:fs';
 import { join } from 'node:path';
 import { describe, expect, test } from 'vitest';
-import { compareBatchWithDiffraction, diffractionOverlaySvg } from '../../src/batch/compare';
+import { compareBatchWithDiffraction, diffractionOverlaySvg } from '../../src/diffraction/cross-check';
 import { histogramSvg } from '../../src/figure/batch-figure';
 
 /** The CSP of an HTML page's meta tag, as directive → sources. */

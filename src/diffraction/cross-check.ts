@@ -3,14 +3,26 @@
  * distinct periods, each with its combined uncertainty, reconciled with the diffraction lines;
  * the comparison as CSV and as an SVG overlay on a q axis.
  */
-import { reconcile, type DiffractionSide, type MicrographSide, type Reconciliation } from '../diffraction/reconcile';
-import { dToQ } from '../diffraction/bragg';
+import { reconcile, type DiffractionSide, type MicrographSide, type Reconciliation } from './reconcile';
+import { dToQ } from './bragg';
 import { budgetCsvCells, budgetCsvHeader, formatBudget } from '../measure/measurement';
 import { groupAndPoolPeriods, type PeriodGroup, type SourcedPeriod } from '../measure/pool';
 import { quantile, summarize } from '../measure/stats';
 import { csvTable } from '../measure/export';
 import { escapeXml } from '../figure/batch-figure';
-import type { FileResult } from './run';
+import type { Calibration } from '../image/grey-image';
+import type { Periodicity } from '../measure/measurement';
+
+/**
+ * What the cross-check needs of one image's result (a batch's FileResult has it): its name, whether
+ * it was measured, its pixel size, its strongest periods and its sheets' thicknesses.
+ */
+export interface ImageResult {
+  file: string;
+  status: string;
+  calibration: Calibration | null;
+  summary: { topPeriods: Periodicity[]; sheetThicknessNm: number[] };
+}
 
 /** Options of `batchPeriodGroups`. */
 export interface BatchPeriodGroupOptions {
@@ -28,7 +40,7 @@ export interface BatchPeriodGroupOptions {
  * @param options the relative gap that separates two groups, the coverage factor
  * @returns groups by increasing period (nm); `sources` are the files
  */
-export function batchPeriodGroups(results: FileResult[], options: BatchPeriodGroupOptions = {}): PeriodGroup[] {
+export function batchPeriodGroups(results: ImageResult[], options: BatchPeriodGroupOptions = {}): PeriodGroup[] {
   const items: SourcedPeriod[] = [];
   for (const r of results) {
     if (r.status !== 'ok' || !r.calibration) continue;
@@ -38,7 +50,7 @@ export function batchPeriodGroups(results: FileResult[], options: BatchPeriodGro
 }
 
 /** The micrograph side of a reconciliation from a batch: its period groups and pooled sheets. */
-export function batchMicrographSide(results: FileResult[], groups: PeriodGroup[] = batchPeriodGroups(results)): MicrographSide {
+export function batchMicrographSide(results: ImageResult[], groups: PeriodGroup[] = batchPeriodGroups(results)): MicrographSide {
   const ok = results.filter((r) => r.status === 'ok');
   const thickness = summarize(ok.flatMap((r) => r.summary.sheetThicknessNm));
   const rels = ok.flatMap((r) => (r.calibration ? [r.calibration.relUncertainty] : []));
@@ -61,7 +73,7 @@ export interface BatchComparison {
  * @param diffraction the set's lines and series (`diffractionSideOfSet`)
  * @returns the period groups and the reconciliation (`reconcile`: pairs with z, thickness against crystallite size, a calibration proposal never applied)
  */
-export function compareBatchWithDiffraction(results: FileResult[], diffraction: DiffractionSide): BatchComparison {
+export function compareBatchWithDiffraction(results: ImageResult[], diffraction: DiffractionSide): BatchComparison {
   const groups = batchPeriodGroups(results);
   return { groups, reconciliation: reconcile(batchMicrographSide(results, groups), diffraction) };
 }

@@ -1,9 +1,9 @@
 import { describe, expect, test } from 'vitest';
-import { batchPeriodGroups, compareBatchWithDiffraction, comparisonCsv, diffractionOverlaySvg } from '../../src/batch/compare';
+import { batchPeriodGroups, compareBatchWithDiffraction, comparisonCsv, diffractionOverlaySvg } from '../../src/diffraction/cross-check';
 import type { FileResult } from '../../src/batch/run';
 import { diffractionSetRecord, diffractionSideOfSet } from '../../src/diffraction/stored-set';
 import type { DiffractionSide } from '../../src/diffraction/reconcile';
-import { parseCsv } from './csv';
+import { parseCsv } from '../batch/csv';
 
 /** A finished file with the given periods (nm, combined u nm), pixel size known to relCal. */
 function file(name: string, periods: [number, number][], relCal = 0.02, sheetsNm: number[] = []): FileResult {
