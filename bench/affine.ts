@@ -12,17 +12,7 @@ import { measureRegion } from '../src/measure/measure-region';
 import { expressPeriod } from '../src/measure/measurement';
 import { rng } from '../testing/random';
 import { distortedLattice } from '../testing/synthetic/distorted-lattice';
-import { integerOption } from '../testing/bench-options';
-
-function table(head: string[], rows: (string | number)[][]): void {
-  const cells = rows.map((r) => r.map(String));
-  const w = head.map((h, k) => Math.max(h.length, ...cells.map((r) => r[k].length)));
-  console.log(`| ${head.map((h, k) => h.padEnd(w[k])).join(' | ')} |`);
-  console.log(`|${w.map((x, k) => (k === 0 ? '-'.repeat(x + 2) : `${'-'.repeat(x + 1)}:`)).join('|')}|`);
-  for (const r of cells) console.log(`| ${r.map((c, k) => (k === 0 ? c.padEnd(w[k]) : c.padStart(w[k]))).join(' | ')} |`);
-  console.log('');
-}
-
+import { integerOption, printTable } from '../testing/bench-options';
 
 async function main(): Promise<void> {
   const n = integerOption('n', 16);
@@ -69,9 +59,9 @@ async function main(): Promise<void> {
     }
   }
   console.log('## two-axis calibration of distorted lattice images (errors: fitted − true)');
-  table(['#', 'lattice', 'stretch (%)', 'shear (°)', 'rotation (°)', 'noise (%)', 'd1 period (px)', 'stretch error (%)', 'U stretch (%)', 'shear error (°)', 'U shear (°)', 'equivalent spots'], rows);
+  printTable(['#', 'lattice', 'stretch (%)', 'shear (°)', 'rotation (°)', 'noise (%)', 'd1 period (px)', 'stretch error (%)', 'U stretch (%)', 'shear error (°)', 'U shear (°)', 'equivalent spots'], rows);
   console.log('## summary');
-  table(
+  printTable(
     ['quantity', 'worst |error|', 'target', 'notes'],
     [
       ['stretch', `${worstStretch.toFixed(3)} %`, '0.1 %', `${failed} of ${n} fits failed`],

@@ -11,17 +11,7 @@ import { measureElectronPattern, type CameraSetting } from '../src/diffraction/e
 import { ringStandard, standardRings } from '../src/diffraction/electron/standards';
 import { rng } from '../testing/random';
 import { electronPattern, type PatternSpec } from '../testing/synthetic/electron-pattern';
-import { integerOption } from '../testing/bench-options';
-
-function table(head: string[], rows: (string | number)[][]): void {
-  const cells = rows.map((r) => r.map(String));
-  const w = head.map((h, k) => Math.max(h.length, ...cells.map((r) => r[k].length)));
-  console.log(`| ${head.map((h, k) => h.padEnd(w[k])).join(' | ')} |`);
-  console.log(`|${w.map((x, k) => (k === 0 ? '-'.repeat(x + 2) : `${'-'.repeat(x + 1)}:`)).join('|')}|`);
-  for (const r of cells) console.log(`| ${r.map((c, k) => (k === 0 ? c.padEnd(w[k]) : c.padStart(w[k]))).join(' | ')} |`);
-  console.log('');
-}
-
+import { integerOption, printTable } from '../testing/bench-options';
 
 const GOLD_INTENSITY = [1, 0.6, 0.45, 0.45, 0.15, 0.1, 0.2, 0.2, 0.15, 0.1];
 /** In-plane bands of a dioctahedral clay (from memory; the check is against the rendered truth). */
@@ -107,13 +97,13 @@ function main(): void {
     spotRows.push([i + 1, a.toFixed(3), rot.toFixed(0), `${spotErrs.length}/${hk.length}`, pairsFound, spotErrs.length ? (100 * Math.max(...spotErrs.map(Math.abs))).toFixed(3) : '—', worstZ.toFixed(1), (spots.counts! * 0.25).toFixed(0), ms.spots.length - spotErrs.length]);
   }
   console.log('## camera constant from gold rings (Au from memory; target |error| ≤ 0.1 %)');
-  table(['#', 'size (px)', 'ellipticity (%)', 'major axis (°)', 'beam stop', 'ring counts', 'K error (%)', 'U radii part, k = 2 (%)', 'ellipticity error (%)', 'centre error (px)', 'rings indexed'], rows);
+  printTable(['#', 'size (px)', 'ellipticity (%)', 'major axis (°)', 'beam stop', 'ring counts', 'K error (%)', 'U radii part, k = 2 (%)', 'ellipticity error (%)', 'centre error (px)', 'rings indexed'], rows);
   console.log('## ring d-spacings of a sample with the calibrated setting (error %, target ≤ 0.2 %)');
-  table(['#', ...SAMPLE_RINGS.map((d) => `${d} nm`)], ringRows);
+  printTable(['#', ...SAMPLE_RINGS.map((d) => `${d} nm`)], ringRows);
   console.log('## spot d-spacings of a cubic [001] zone, direct beam peak 100–700× the strongest spot\'s (target ≤ 0.2 %)');
-  table(['#', 'a (nm)', 'rotation (°)', 'spots found', 'from Friedel pairs', 'worst |error| (%)', 'worst |error|/u (combined, k = 1)', 'weakest spot peak (counts)', 'extra spots'], spotRows);
+  printTable(['#', 'a (nm)', 'rotation (°)', 'spots found', 'from Friedel pairs', 'worst |error| (%)', 'worst |error|/u (combined, k = 1)', 'weakest spot peak (counts)', 'extra spots'], spotRows);
   console.log('## summary');
-  table(
+  printTable(
     ['quantity', 'worst |error|', 'target', 'notes'],
     [
       ['camera constant', `${(100 * worstK).toFixed(4)} %`, '0.1 %', `error within the radii part (k = 2) in ${kCovered}/${n}`],

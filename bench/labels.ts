@@ -13,17 +13,7 @@ import { LABEL_CHARACTERS, parseScaleLabel, readScaleBar } from '../src/calibrat
 import { createTextReader } from '../src/calibration/ocr';
 import { ambiguousCases, labelCases } from '../testing/synthetic/label-cases';
 import { barScene, sceneLabel, type BarSceneSpec } from '../testing/synthetic/scale-bar-scenes';
-import { integerOption } from '../testing/bench-options';
-
-function table(head: string[], rows: (string | number)[][]): void {
-  const cells = rows.map((r) => r.map(String));
-  const w = head.map((h, k) => Math.max(h.length, ...cells.map((r) => r[k].length)));
-  console.log(`| ${head.map((h, k) => h.padEnd(w[k])).join(' | ')} |`);
-  console.log(`|${w.map((x, k) => (k === 0 ? '-'.repeat(x + 2) : `${'-'.repeat(x + 1)}:`)).join('|')}|`);
-  for (const r of cells) console.log(`| ${r.map((c, k) => (k === 0 ? c.padEnd(w[k]) : c.padStart(w[k]))).join(' | ')} |`);
-  console.log('');
-}
-
+import { integerOption, printTable } from '../testing/bench-options';
 
 function styleName(s: BarSceneSpec): string {
   const t = s.text;
@@ -78,13 +68,13 @@ async function main(): Promise<void> {
       for (const s of specs) outs.push(await runCase(s, reader));
       const ambiguous = name.startsWith('ambiguous');
       console.log(`## ${name}: ${specs.length} scenes`);
-      table(
+      printTable(
         ['#', 'style', 'holder', 'label at', 'bar', 'ink', 'label', 'end error (px)', 'outcome', 'read'],
         outs.map((o, i) => [i + 1, o.style, o.holder, o.placement, o.orientation, o.ink, o.label, o.barFound ? o.endErrPx.toFixed(2) : '—', o.status, o.read.trim()]),
       );
       // by style kind
       const kinds = [...new Set(outs.map((o) => o.style.replace(/ ×\d+$/, '')))].sort();
-      table(
+      printTable(
         ['style', 'scenes', 'bar ends ≤ 0.5 px', 'correct', 'asked', 'wrong, silent'],
         kinds.map((k) => {
           const g = outs.filter((o) => o.style.replace(/ ×\d+$/, '') === k);
@@ -103,7 +93,7 @@ async function main(): Promise<void> {
       ]);
     }
     console.log('## summary (targets: every round label correct, zero wrong pixel sizes without a question, ends within 0.5 px)');
-    table(['set', 'scenes', 'bar ends ≤ 0.5 px', 'worst end (px)', 'labels correct', 'asked', 'wrong, silent'], summary);
+    printTable(['set', 'scenes', 'bar ends ≤ 0.5 px', 'worst end (px)', 'labels correct', 'asked', 'wrong, silent'], summary);
     console.log(`time ${((performance.now() - t0) / 1000).toFixed(0)} s (OCR engine offline, one worker)`);
   } finally {
     await reader.close();

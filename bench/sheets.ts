@@ -15,15 +15,7 @@ import { decodeImage } from '../src/image/decode';
 import { findScaleBar } from '../src/calibration/scale-bar';
 import { gauss, rng, syntheticImage, syntheticProfile } from '../testing/synthetic/stacks';
 import { generateOverview, OVERVIEW_FAMILIES, scoreOverview, type TrueStack } from '../testing/synthetic/overviews';
-
-function table(head: string[], rows: (string | number)[][]): void {
-  const cells = rows.map((r) => r.map(String));
-  const w = head.map((h, k) => Math.max(h.length, ...cells.map((r) => r[k].length)));
-  console.log(`| ${head.map((h, k) => h.padEnd(w[k])).join(' | ')} |`);
-  console.log(`|${w.map((x, k) => (k === 0 ? '-'.repeat(x + 2) : `${'-'.repeat(x + 1)}:`)).join('|')}|`);
-  for (const r of cells) console.log(`| ${r.map((c, k) => (k === 0 ? c.padEnd(w[k]) : c.padStart(w[k]))).join(' | ')} |`);
-  console.log('');
-}
+import { printTable } from '../testing/bench-options';
 
 const pct = (a: number, b: number) => (b === 0 ? '—' : `${((100 * a) / b).toFixed(1)} %`);
 
@@ -120,9 +112,9 @@ for (const [label, noise] of noiseLevels) {
     }
   }
 }
-table(['noise', 'layers', 'sheets', 'found', 'count exact', 'thickness < p/2', 'mean |Δt| / p'], rowsA);
+printTable(['noise', 'layers', 'sheets', 'found', 'count exact', 'thickness < p/2', 'mean |Δt| / p'], rowsA);
 console.log('Summary, sheets of ≥ 2 layers:\n');
-table(['noise', 'sheets', 'found', 'count exact', 'thickness < p/2'],
+printTable(['noise', 'sheets', 'found', 'count exact', 'thickness < p/2'],
   [...summaryA].map(([k, s]) => [k, s.n, pct(s.found, s.n), pct(s.exact, s.n), pct(s.thick, s.n)]));
 
 }
@@ -166,7 +158,7 @@ if (parts.includes('B')) {
     tot.maxSpurious = Math.max(tot.maxSpurious, f.maxSpurious);
   }
   rowsB.push(['all', tot.images, tot.n, pct(tot.found, tot.n), `${tot.monoFound}/${tot.mono}`, pct(tot.exact, tot.n2), pct(tot.thick, tot.found), tot.spurious, tot.maxSpurious, (tot.ms / tot.images).toFixed(0)]);
-  table(['family', 'images', 'true stacks', 'found', 'monolayers found', 'count exact (≥ 2 layers, found)', 'thickness < p/2 (found)', 'spurious', 'most spurious in one image', 'ms / image'], rowsB);
+  printTable(['family', 'images', 'true stacks', 'found', 'monolayers found', 'count exact (≥ 2 layers, found)', 'thickness < p/2 (found)', 'spurious', 'most spurious in one image', 'ms / image'], rowsB);
   console.log('Targets: found ≥ 90 %, monolayers ≥ 80 %, count exact ≥ 95 %, thickness within half a period ≥ 95 %, at most one spurious sheet per image, none on the amorphous and crossed-lattice families.\n');
 
   // the demo overview, against the truth recorded with it
@@ -197,7 +189,7 @@ if (parts.includes('B')) {
       counts.push(`${t.layers}→${m >= 0 ? res.sheets[m].layers : '–'}`);
     });
     console.log('## B2. The demo overview (tactoid-film_overview.tif, 26 tactoids in its recorded truth)\n');
-    table(['image', 'tactoids', 'found', 'count exact', 'spurious', 'ms'], [['demo overview', stacks.length, found, exact, sc.spurious, ms.toFixed(0)]]);
+    printTable(['image', 'tactoids', 'found', 'count exact', 'spurious', 'ms'], [['demo overview', stacks.length, found, exact, sc.spurious, ms.toFixed(0)]]);
     console.log(`Counts (truth→found): ${counts.join(', ')}\n`);
   }
 }
@@ -218,7 +210,7 @@ for (const [label, noise] of [['amorphous film only', 0], ['film + moderate nois
   }
   rowsC.push([label, 6, sheets, lineSheets]);
 }
-table(['image', 'images', 'automatic sheets', 'sheets on a line'], rowsC);
+printTable(['image', 'images', 'automatic sheets', 'sheets on a line'], rowsC);
 }
 
 // ---------- D: time on large images ----------
@@ -237,6 +229,6 @@ if (parts.includes('D')) {
     const td = performance.now() - t;
     rowsD.push([`${n} × ${n}`, o.truth.stacks.length, sc.matchOf.filter((m) => m >= 0).length, sc.spurious, (ta / 1000).toFixed(1), d.columns * d.rows, (td / 1000).toFixed(1)]);
   }
-  table(['image', 'true stacks', 'found', 'spurious', 'automatic (s)', 'tiles', 'domain map (s)'], rowsD);
+  printTable(['image', 'true stacks', 'found', 'spurious', 'automatic (s)', 'tiles', 'domain map (s)'], rowsD);
   console.log('Target: a 2048 × 2048 overview in at most 10 s on one core (the machine may be shared: see the time of the domain map beside it).');
 }
