@@ -5,6 +5,7 @@
  */
 import type { GreyImage } from '../image/grey-image';
 import { otsuThreshold } from '../image/otsu';
+import { boxRange } from '../image/crop';
 import type { Box } from './scale-bar';
 
 /** A binary raster: 1 = ink (text), 0 = ground. */
@@ -56,15 +57,7 @@ export function cropLabel(image: GreyImage, box: Box, inkBright: boolean, exactI
   checkBox(image, box);
   if (exactInk && !(Number.isFinite(exactInk.value) && exactInk.tolerance >= 0)) throw new RangeError(`exactInk must have a finite value and a non-negative tolerance, got ${JSON.stringify(exactInk)}`);
   const [bx, by, bw, bh] = box;
-  let lo = Infinity;
-  let hi = -Infinity;
-  for (let y = by; y < by + bh; y++) {
-    for (let x = bx; x < bx + bw; x++) {
-      const v = image.data[y * image.width + x];
-      if (v < lo) lo = v;
-      if (v > hi) hi = v;
-    }
-  }
+  const [lo, hi] = boxRange(image, box);
   const span = hi > lo ? hi - lo : 1;
   const grey = new Uint8Array(bw * bh);
   let nearEnds = 0;

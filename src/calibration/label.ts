@@ -5,6 +5,7 @@
 import { makeCalibration, rectangularU, SCALE_BAR_REPRESENTATION_REL } from './calibration';
 import type { Calibration, GreyImage } from '../image/grey-image';
 import { otsuThreshold } from '../image/otsu';
+import { boxRange } from '../image/crop';
 import { connectedComponents, holeCount, type Component } from '../image/components';
 import type { Box, ScaleBar, ScaleBarOptions } from './scale-bar';
 import { findScaleBar } from './scale-bar';
@@ -87,15 +88,7 @@ export function prepareLabelForOcr(
   const scale = Math.max(1, Math.min(12, target / bh));
   const w = Math.max(1, Math.round(bw * scale));
   const h = Math.max(1, Math.round(bh * scale));
-  let lo = Infinity;
-  let hi = -Infinity;
-  for (let y = by; y < by + bh; y++) {
-    for (let x = bx; x < bx + bw; x++) {
-      const v = image.data[y * image.width + x];
-      if (v < lo) lo = v;
-      if (v > hi) hi = v;
-    }
-  }
+  const [lo, hi] = boxRange(image, box);
   const span = hi > lo ? hi - lo : 1;
   const grey = new Uint8Array(w * h);
   const px = (x: number, y: number) => image.data[(by + Math.min(bh - 1, Math.max(0, y))) * image.width + bx + Math.min(bw - 1, Math.max(0, x))];

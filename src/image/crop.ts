@@ -37,3 +37,24 @@ export function cropImage(image: GreyImage, rect: PixelRect): GreyImage {
   for (let j = 0; j < height; j++) data.set(image.data.subarray((y + j) * image.width + x, (y + j) * image.width + x + width), j * width);
   return makeGreyImage(width, height, data, { calibration: image.calibration, bitDepth: image.bitDepth, sampleKind: image.sampleKind });
 }
+
+/**
+ * The smallest and largest pixel value in a box of an image.
+ * @param image the image
+ * @param box [x, y, width, height] in whole px, inside the image
+ * @returns [lo, hi] ([Infinity, −Infinity] for an empty box)
+ */
+export function boxRange(image: GreyImage, box: readonly [number, number, number, number]): [number, number] {
+  const [bx, by, bw, bh] = box;
+  if (bx < 0 || by < 0 || bx + bw > image.width || by + bh > image.height) throw new RangeError(`box ${box.join(', ')} lies outside the ${image.width} × ${image.height} image`);
+  let lo = Infinity;
+  let hi = -Infinity;
+  for (let y = by; y < by + bh; y++) {
+    for (let x = bx; x < bx + bw; x++) {
+      const v = image.data[y * image.width + x];
+      if (v < lo) lo = v;
+      if (v > hi) hi = v;
+    }
+  }
+  return [lo, hi];
+}
