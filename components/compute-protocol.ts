@@ -5,8 +5,7 @@
  * The image session: `openImage` decodes a file once and keeps the image in the worker under a
  * session id; every later call on it sends that id and a region or a line, never pixels (the
  * Periods, Calibration, Sheets and SAED panels, the export menu's `imageReport`; checked by
- * tests/architecture/compute-protocol.test.ts). `decode` and `prepareView` take bytes or pixels
- * and belong to no session.
+ * tests/architecture/compute-protocol.test.ts).
  */
 import type { CameraConstant } from '../src/diffraction/electron/camera-constant';
 import type { CameraSetting, PatternMeasurement } from '../src/diffraction/electron/measure';
@@ -33,10 +32,6 @@ interface InSession {
 }
 
 export interface ComputeCalls {
-  /** Decodes a file's bytes into a GreyImage. */
-  decode: { args: { bytes: Uint8Array; fileName: string }; result: GreyImage };
-  /** Box-averaged pyramid levels below full resolution, and a histogram for the display. */
-  prepareView: { args: { image: GreyImage; smallestSidePx?: number }; result: { levels: GreyImage[]; histogram: GreyHistogram } };
   /** Loads opencv.js in the worker ahead of the first measurement; resolves to its version. */
   warmUp: { args: Record<string, never>; result: { opencvVersion: string } };
   /**

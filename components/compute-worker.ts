@@ -8,7 +8,7 @@ import type { CallArgs, CallName, CallResult, ComputeRequest, ComputeResponse } 
 import { transferablesOf } from './compute-protocol';
 import type { GreyImage } from '../src/image/grey-image';
 import { buildPyramid } from '../src/image/pyramid';
-import { greyHistogram } from '../src/image/display';
+import { greyHistogram, type GreyHistogram } from '../src/image/display';
 import * as session from '../src/measure/session';
 import type { ImageSession } from '../src/measure/session';
 import { toolOf } from '../src/measure/tools';
@@ -27,12 +27,14 @@ function sessionOf(id: string): ImageSession {
   return s;
 }
 
-async function decode(args: CallArgs<'decode'>): Promise<CallResult<'decode'>> {
+/** Decodes a file's bytes (openImage's first step). */
+async function decode(args: { bytes: Uint8Array; fileName: string }): Promise<GreyImage> {
   const { decodeImage } = await import('../src/image/decode');
   return decodeImage(args.bytes, args.fileName);
 }
 
-function prepareView(args: CallArgs<'prepareView'>): CallResult<'prepareView'> {
+/** The viewer's pyramid and the image's histogram (openImage's second step). */
+function prepareView(args: { image: GreyImage; smallestSidePx?: number }): { levels: GreyImage[]; histogram: GreyHistogram } {
   const levels = buildPyramid(args.image, { smallestSidePx: args.smallestSidePx });
   // The histogram of a level of about a million pixels shows the same distribution at a fraction of the cost.
   const forHistogram = [args.image, ...levels].find((l) => l.width * l.height <= 1 << 20) ?? levels[levels.length - 1] ?? args.image;
@@ -54,8 +56,6 @@ async function guardRegion(width: number, height: number, origin: { x: number; y
 }
 
 const handlers: Handlers = {
-  decode,
-  prepareView,
   warmUp,
   openImage: async (args) => {
     const image = await decode(args);
