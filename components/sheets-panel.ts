@@ -266,25 +266,35 @@ export class StrataSheetsPanel extends LitElement {
     }
   }
 
-  private async findSheets(): Promise<void> {
-    const img = this.image;
-    if (!img || this.busy) return;
+  /**
+   * The typed period (px, or null) and the worker session a search or a line needs; null, with
+   * the reason said, when the period is not valid or the worker is not ready.
+   */
+  private readyToCompute(): { periodPx: number | null; session: string; compute: ComputeClient } | null {
     let periodPx: number | null;
     try {
       periodPx = this.typedPeriodPx();
     } catch (e) {
       this.say((e as Error).message, 'error');
-      return;
+      return null;
     }
-    const session = this.session;
-    if (!this.compute || !session) {
+    if (!this.compute || !this.session) {
       this.say('the compute worker is not available', 'error');
-      return;
+      return null;
     }
+    return { periodPx, session: this.session, compute: this.compute };
+  }
+
+  private async findSheets(): Promise<void> {
+    const img = this.image;
+    if (!img || this.busy) return;
+    const ready = this.readyToCompute();
+    if (!ready) return;
+    const { periodPx, session, compute } = ready;
     this.busy = true;
     this.say('finding stacks…');
     try {
-      const { result, excludedBox } = await this.compute.call('sheetsFind', { sessionId: session, polarity: this.bright ? 'bright' : 'dark', periodPx: periodPx ?? undefined });
+      const { result, excludedBox } = await compute.call('sheetsFind', { sessionId: session, polarity: this.bright ? 'bright' : 'dark', periodPx: periodPx ?? undefined });
       if (this.image !== img) return;
       const kept = this.sheets.filter((s) => s.source !== 'auto');
       this.sheets = [...kept, ...result.sheets.map(sheetFromAuto)];
@@ -305,18 +315,12 @@ export class StrataSheetsPanel extends LitElement {
     const img = this.image;
     const l = this.line;
     if (!img || !l || this.busy) return;
-    let periodPx: number | null;
-    try {
-      periodPx = this.typedPeriodPx();
-    } catch (e) {
-      this.say((e as Error).message, 'error');
-      return;
-    }
-    const session = this.session;
-    if (!this.compute || !session) return;
+    const ready = this.readyToCompute();
+    if (!ready) return;
+    const { periodPx, session, compute } = ready;
     this.busy = true;
     try {
-      const r = await this.compute.call('sheetsLine', {
+      const r = await compute.call('sheetsLine', {
         sessionId: session,
         line: { x0: l.x0, y0: l.y0, x1: l.x1, y1: l.y1, widthPx: Math.max(1, l.widthPx || 9) },
         polarity: this.bright ? 'bright' : 'dark',
