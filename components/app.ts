@@ -18,13 +18,14 @@ import { canRedo, canUndo, currentState, getHistory, newHistory, pushStep, putHi
 import './undo-control';
 import type { LibraryDb } from '../src/store/schema';
 import { ComputeClient } from './compute-client';
-import type { GreyHistogram } from '../src/image/display';
+import type { DisplayLimits, GreyHistogram } from '../src/image/display';
+import { VIEW_PICTURE_MAX_PX } from './compute-protocol';
 import { controlStyles } from './styles';
 import { registerServiceWorker } from './sw-update';
 import { watchErrors, type ErrorLog } from './diagnostics-panel';
 import './library';
 import './viewer';
-import type { LineDrawnDetail, OverlayShape, RectDrawnDetail, StrataViewer } from './viewer';
+import type { LineDrawnDetail, OverlayShape, RectDrawnDetail, StrataViewer, ViewPicture, ViewPictureKey } from './viewer';
 
 /** One demo file as listed in demo/index.json. */
 interface DemoEntry {
@@ -103,6 +104,8 @@ export class StrataApp extends LitElement {
     levels: { state: true },
     session: { state: true },
     histogram: { state: true },
+    viewLimits: { state: true },
+    viewPicture: { state: true },
     message: { state: true },
     storage: { state: true },
     demos: { state: true },
@@ -122,6 +125,12 @@ export class StrataApp extends LitElement {
   record: ImageRecord | null = null;
   levels: GreyImage[] = [];
   histogram: GreyHistogram | null = null;
+  /** The viewer's default display limits, computed in the worker with the pyramid. */
+  viewLimits: DisplayLimits | null = null;
+  /** The viewer's latest display-ready picture from the worker (so the page stretches no pixels). */
+  viewPicture: ViewPicture | null = null;
+  /** False once the worker could not make a picture: the viewer then draws itself. */
+  private workerPictures = true;
   /** The id of the open image's session in the compute worker (it holds the pixels panels measure on). */
   session: string | null = null;
   message: Message | null = null;
@@ -368,7 +377,7 @@ export class StrataApp extends LitElement {
     this.say(`Reading ${fileName} (${formatBytes(bytes.byteLength)})…`, 'busy');
     try {
       const copy = bytes.slice();
-      const { sessionId, image, levels, histogram } = await this.compute.call('openImage', { bytes: copy, fileName }, [copy.buffer]);
+      const { sessionId, image, levels, histogram, limits } = await this.compute.call('openImage', { bytes: copy, fileName }, [copy.buffer]);
       let record = existing ?? null;
       let notKept = '';
       if (!record && this.db) {
@@ -391,6 +400,8 @@ export class StrataApp extends LitElement {
       if (!this.image && this.activeTab === 'library' && this.tabs.length > 1) this.activeTab = this.tabs[0].id;
       this.levels = levels;
       this.histogram = histogram;
+      this.viewLimits = limits;
+      this.dropViewPicture(null);
       this.closeSession();
       this.session = sessionId;
       if (takeStored) await this.compute.call('recalibrate', { sessionId, calibration: stored });
@@ -430,6 +441,30 @@ export class StrataApp extends LitElement {
   }
 
   /** Ends the worker's session of the image on screen (its pixels and cached spectra are freed). */
+  /** Answers the viewer's `picture-needed`: the level stretched in the worker, as an ImageBitmap. */
+  private async onPictureNeeded(key: ViewPictureKey): Promise<void> {
+    const sessionId = this.session;
+    if (!sessionId) return;
+    try {
+      const picture = await this.compute.call('viewPicture', { sessionId, ...key });
+      if (this.session !== sessionId) picture.bitmap.close();
+      else this.dropViewPicture(picture);
+    } catch (e) {
+      if (this.session !== sessionId) return;
+      // the viewer draws the image itself from now on (slower, but it shows)
+      this.workerPictures = false;
+      this.requestUpdate();
+      console.warn('the compute worker made no view picture', e);
+    }
+  }
+
+  /** Replaces the viewer's picture, closing the previous bitmap once the viewer no longer holds it. */
+  private dropViewPicture(next: ViewPicture | null): void {
+    const old = this.viewPicture;
+    this.viewPicture = next;
+    if (old) void this.updateComplete.then(() => old.bitmap.close());
+  }
+
   private closeSession(): void {
     if (this.session) void this.compute.call('closeImage', { sessionId: this.session }).catch(() => undefined);
     this.session = null;
@@ -652,7 +687,9 @@ export class StrataApp extends LitElement {
         : nothing}
       <div class=${this.wideLayout() ? 'work wide' : 'work'}>
         ${this.image
-          ? html`<strata-viewer .image=${this.image} .levels=${this.levels} .histogram=${this.histogram} .shapes=${this.shapes.get(this.activeTab) ?? []}
+          ? html`<strata-viewer .image=${this.image} .levels=${this.levels} .histogram=${this.histogram} .limits=${this.viewLimits}
+              .picture=${this.viewPicture} .maxPicturePx=${this.workerPictures ? VIEW_PICTURE_MAX_PX : 0} .shapes=${this.shapes.get(this.activeTab) ?? []}
+              @picture-needed=${(e: CustomEvent<ViewPictureKey>) => void this.onPictureNeeded(e.detail)}
               @line-drawn=${(e: CustomEvent<LineDrawnDetail>) => (this.line = e.detail)}
               @rect-drawn=${(e: CustomEvent<RectDrawnDetail>) => (this.rect = e.detail)}></strata-viewer>`
           : this.renderStart()}

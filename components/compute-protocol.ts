@@ -11,7 +11,7 @@ import type { CameraConstant } from '../src/diffraction/electron/camera-constant
 import type { CameraSetting, PatternMeasurement } from '../src/diffraction/electron/measure';
 import type { RingAnalysis } from '../src/diffraction/electron/rings';
 import type { Calibration, GreyImage } from '../src/image/grey-image';
-import type { GreyHistogram } from '../src/image/display';
+import type { DisplayLimits, GreyHistogram } from '../src/image/display';
 import type { Measurement, Region } from '../src/measure/measurement';
 import type { ProfileEstimator, ProfileLine } from '../src/measure/profile-measurement';
 import type { FilterView, ProfileView, SpectrumSettings, SpectrumView } from '../src/measure/session';
@@ -36,12 +36,19 @@ export interface ComputeCalls {
   warmUp: { args: Record<string, never>; result: { opencvVersion: string } };
   /**
    * Opens an image session: decodes the file, keeps the image in the worker, and returns the
-   * session's id with a copy of the image, the view pyramid and the histogram for the viewer.
+   * session's id with a copy of the image, the view pyramid, the histogram and the display limits
+   * at the given percentiles (default 0.5 and 99.5 %) for the viewer.
    */
   openImage: {
-    args: { bytes: Uint8Array; fileName: string };
-    result: { sessionId: string; image: GreyImage; levels: GreyImage[]; histogram: GreyHistogram };
+    args: { bytes: Uint8Array; fileName: string; lowPercent?: number; highPercent?: number };
+    result: { sessionId: string; image: GreyImage; levels: GreyImage[]; histogram: GreyHistogram; limits: DisplayLimits };
   };
+  /**
+   * A pyramid level of the session's image (0 = full resolution) stretched between black and
+   * white to display-ready 8-bit grey, as an ImageBitmap the viewer draws with one drawImage
+   * (so that no redraw of the page stretches pixels); refused above VIEW_PICTURE_MAX_PX pixels.
+   */
+  viewPicture: { args: InSession & ViewPictureKey; result: ViewPictureKey & { bitmap: ImageBitmap } };
   /** Ends a session and frees its image and cached spectra. */
   closeImage: { args: InSession; result: { closed: boolean } };
   /** Replaces a session's calibration; nothing is measured again (records keep pixels). */
@@ -83,6 +90,21 @@ export interface ComputeCalls {
   indexSpots: { args: { spots: ZoneSpot[]; cifText?: string; cifName?: string; builtIn?: string }; result: ZoneAxisResult & { source: string } };
 }
 
+/** Largest level (pixels) the worker stretches into a view picture (64 MB of RGBA); larger levels are drawn by the viewer itself. */
+export const VIEW_PICTURE_MAX_PX = 4096 * 4096;
+
+/** What a view picture shows: a pyramid level and the display stretch applied to it. */
+export interface ViewPictureKey {
+  /** Pyramid level, 0 = full resolution. */
+  level: number;
+  /** Grey value shown black. */
+  black: number;
+  /** Grey value shown white (above black). */
+  white: number;
+  /** Black and white swapped. */
+  invert: boolean;
+}
+
 /** A camera constant with the ring analysis it rests on (geometry, centre uncertainty, notes). */
 export type ElectronCameraResult = CameraConstant & { analysis: Omit<RingAnalysis, 'rings'> };
 
@@ -102,13 +124,15 @@ export type ComputeResponse =
   | { id: number; ok: true; result: unknown }
   | { id: number; ok: false; error: { name: string; message: string } };
 
-/** Every ArrayBuffer inside a value (typed arrays included), once each, for a transfer list. */
-export function transferablesOf(value: unknown, found = new Set<ArrayBuffer>(), seen = new Set<unknown>()): ArrayBuffer[] {
+/** Every ArrayBuffer (typed arrays included) and ImageBitmap inside a value, once each, for a transfer list. */
+export function transferablesOf(value: unknown, found = new Set<Transferable>(), seen = new Set<unknown>()): Transferable[] {
   if (value && typeof value === 'object' && !seen.has(value)) {
     seen.add(value);
     if (value instanceof ArrayBuffer) found.add(value);
     else if (ArrayBuffer.isView(value)) {
       if (value.buffer instanceof ArrayBuffer) found.add(value.buffer);
+    } else if (typeof ImageBitmap !== 'undefined' && value instanceof ImageBitmap) {
+      found.add(value); // transferred, not copied
     } else if (!(typeof Blob !== 'undefined' && value instanceof Blob)) {
       for (const v of Object.values(value)) transferablesOf(v, found, seen);
     }

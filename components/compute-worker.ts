@@ -5,18 +5,20 @@
  * with their ArrayBuffers transferred, not copied (a session's own arrays are never in a result).
  */
 import type { CallArgs, CallName, CallResult, ComputeRequest, ComputeResponse } from './compute-protocol';
-import { transferablesOf } from './compute-protocol';
+import { transferablesOf, VIEW_PICTURE_MAX_PX } from './compute-protocol';
 import type { GreyImage } from '../src/image/grey-image';
 import { buildPyramid } from '../src/image/pyramid';
-import { greyHistogram, type GreyHistogram } from '../src/image/display';
+import { displayLimits, greyHistogram, stretchToGrey, type DisplayLimits, type GreyHistogram } from '../src/image/display';
 import * as session from '../src/measure/session';
 import type { ImageSession } from '../src/measure/session';
 import { toolOf } from '../src/measure/tools';
 
 type Handlers = { [K in CallName]: (args: CallArgs<K>) => Promise<CallResult<K>> | CallResult<K> };
 
-/** The open sessions by id (this worker's only state). */
+/** The open sessions by id (this worker's only state, with their view pyramids). */
 const sessions = new Map<string, ImageSession>();
+/** Each session's view pyramid, level 0 (the image itself) first, for viewPicture. */
+const pyramids = new Map<string, GreyImage[]>();
 
 /** Work to do once the current reply is sent (a prefetch the next request will want). */
 let afterReply: (() => Promise<void>) | null = null;
@@ -33,12 +35,40 @@ async function decode(args: { bytes: Uint8Array; fileName: string }): Promise<Gr
   return decodeImage(args.bytes, args.fileName);
 }
 
-/** The viewer's pyramid and the image's histogram (openImage's second step). */
-function prepareView(args: { image: GreyImage; smallestSidePx?: number }): { levels: GreyImage[]; histogram: GreyHistogram } {
-  const levels = buildPyramid(args.image, { smallestSidePx: args.smallestSidePx });
-  // The histogram of a level of about a million pixels shows the same distribution at a fraction of the cost.
-  const forHistogram = [args.image, ...levels].find((l) => l.width * l.height <= 1 << 20) ?? levels[levels.length - 1] ?? args.image;
-  return { levels, histogram: greyHistogram(forHistogram) };
+/**
+ * The viewer's pyramid, the image's histogram and its display limits at two percentiles
+ * (openImage's second step): all the pixel work the viewer needs before it shows the image.
+ */
+function prepareView(args: { image: GreyImage; lowPercent?: number; highPercent?: number }): { levels: GreyImage[]; histogram: GreyHistogram; limits: DisplayLimits } {
+  const levels = buildPyramid(args.image);
+  // The histogram and percentiles of a level of about a million pixels show the same distribution
+  // at a fraction of the cost (the viewer takes them from the same level).
+  const forStats = [args.image, ...levels].find((l) => l.width * l.height <= 1 << 20) ?? levels[levels.length - 1] ?? args.image;
+  const limits = displayLimits(forStats.data, { lowPercent: args.lowPercent ?? 0.5, highPercent: args.highPercent ?? 99.5, step: 1 });
+  return { levels, histogram: greyHistogram(forStats), limits };
+}
+
+/**
+ * A pyramid level stretched between black and white to opaque grey RGBA, as an ImageBitmap.
+ *
+ * @param level the level's image
+ * @param black grey value shown black
+ * @param white grey value shown white (a white at or below black is taken as black + 1)
+ * @param invert swap black and white
+ * @returns the bitmap, level.width × level.height
+ * Notes: the app's one display stretch (src/image/display.ts), so the page's fallback draw and this picture agree.
+ * Reference: linear display stretch between two limits (common practice).
+ */
+async function levelBitmap(level: GreyImage, black: number, white: number, invert: boolean): Promise<ImageBitmap> {
+  const n = level.width * level.height;
+  const grey = stretchToGrey(level.data, { black, white: white > black ? white : black + 1 }, new Uint8ClampedArray(n), { invert });
+  const rgba = new Uint8ClampedArray(n * 4);
+  const out = new Uint32Array(rgba.buffer);
+  for (let i = 0; i < n; i++) {
+    const g = grey[i];
+    out[i] = 0xff000000 | (g << 16) | (g << 8) | g;
+  }
+  return createImageBitmap(new ImageData(rgba, level.width, level.height));
 }
 
 async function warmUp(): Promise<CallResult<'warmUp'>> {
@@ -61,11 +91,25 @@ const handlers: Handlers = {
     const image = await decode(args);
     const sessionId = globalThis.crypto.randomUUID();
     sessions.set(sessionId, session.createImageSession(sessionId, image));
-    // The page gets a copy for its viewer (transferred); the session keeps the original.
-    const copy: GreyImage = { ...image, data: image.data.slice(), warnings: [...image.warnings] };
-    return { sessionId, image: copy, ...prepareView({ image }) };
+    const view = prepareView({ image, lowPercent: args.lowPercent, highPercent: args.highPercent });
+    pyramids.set(sessionId, [image, ...view.levels]);
+    // The page gets copies for its viewer (transferred); the session keeps the originals.
+    const copy = (g: GreyImage): GreyImage => ({ ...g, data: g.data.slice(), warnings: [...g.warnings] });
+    return { sessionId, image: copy(image), levels: view.levels.map(copy), histogram: view.histogram, limits: view.limits };
   },
-  closeImage: ({ sessionId }) => ({ closed: sessions.delete(sessionId) }),
+  closeImage: ({ sessionId }) => {
+    pyramids.delete(sessionId);
+    return { closed: sessions.delete(sessionId) };
+  },
+  viewPicture: async ({ sessionId, level, black, white, invert }) => {
+    sessionOf(sessionId);
+    const levels = pyramids.get(sessionId) ?? [];
+    const l = levels[level];
+    if (!l) throw new RangeError(`viewPicture: level ${level} does not exist (the image has levels 0 to ${levels.length - 1})`);
+    if (l.width * l.height > VIEW_PICTURE_MAX_PX) throw new RangeError(`viewPicture: level ${level} has ${l.width} × ${l.height} px, more than ${VIEW_PICTURE_MAX_PX} px`);
+    if (!Number.isFinite(black) || !Number.isFinite(white)) throw new RangeError(`viewPicture: black ${black} and white ${white} must be finite`);
+    return { level, black, white, invert, bitmap: await levelBitmap(l, black, white, invert) };
+  },
   recalibrate: ({ sessionId, calibration }) => {
     session.recalibrateSession(sessionOf(sessionId), calibration);
     return { sessionId };

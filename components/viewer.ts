@@ -1,6 +1,6 @@
 import { LitElement, css, html, svg, nothing, type PropertyValues } from 'lit';
 import type { GreyImage } from '../src/image/grey-image';
-import { displayLimits, greyHistogram, stretchToGrey, type GreyHistogram } from '../src/image/display';
+import { displayLimits, greyHistogram, stretchToGrey, type DisplayLimits, type GreyHistogram } from '../src/image/display';
 import { lengthLabel, niceLengthAtMost } from '../src/figure/ticks';
 import { controlStyles } from './styles';
 
@@ -76,11 +76,32 @@ function formatLimit(v: number, image: GreyImage | null): string {
  * readout, scale bar and an overlay for measurement shapes.
  *
  * Properties: `image`, `levels` (box-averaged pyramid below full resolution, optional),
- * `histogram` (optional; computed from the smallest level when absent), `tool`, `shapes`,
- * `lineWidthPx`, `lowPercent`, `highPercent`, `invert`.
+ * `histogram` (optional; computed from the smallest level when absent), `limits` (optional: the
+ * display limits at the default percentiles, computed off the page), `tool`, `shapes`,
+ * `lineWidthPx`, `lowPercent`, `highPercent`, `invert`, `maxPicturePx` and `picture` (display-ready
+ * pictures of the levels made elsewhere, e.g. by the compute worker: see below).
  * Events: `line-drawn` (LineDrawnDetail), `rect-drawn` (RectDrawnDetail), `tool-changed`,
- * `shape-click` (ShapeClickDetail: a click in pan mode on a polygon shape that has an id).
+ * `shape-click` (ShapeClickDetail: a click in pan mode on a polygon shape that has an id),
+ * `picture-needed` (ViewPictureKey: the level and stretch the view needs; answer by setting `picture`).
+ *
+ * Drawing: with `maxPicturePx` > 0, a level of at most that many pixels is drawn from `picture`
+ * with one drawImage (the page stretches no pixels; until the right picture comes, the last one is
+ * drawn scaled); otherwise, and for larger levels, the viewer stretches the visible screen pixels
+ * itself. `data-level` names the level drawn once the view shows the one it asked for.
  */
+/** What a display-ready picture of the image shows: a pyramid level and its stretch. */
+export interface ViewPictureKey {
+  /** Pyramid level, 0 = full resolution. */
+  level: number;
+  black: number;
+  white: number;
+  invert: boolean;
+}
+
+/** A display-ready picture of a pyramid level (see StrataViewer.picture). */
+export interface ViewPicture extends ViewPictureKey {
+  bitmap: ImageBitmap;
+}
 /** A picture laid over part of the image (see StrataViewer.overlayPicture). */
 export interface OverlayPicture {
   picture: { width: number; height: number; rgba: Uint8ClampedArray };
@@ -95,6 +116,9 @@ export class StrataViewer extends LitElement {
     image: { attribute: false },
     levels: { attribute: false },
     histogram: { attribute: false },
+    limits: { attribute: false },
+    picture: { attribute: false },
+    maxPicturePx: { type: Number, attribute: false },
     tool: { type: String },
     shapes: { attribute: false },
     overlayPicture: { attribute: false },
@@ -116,6 +140,14 @@ export class StrataViewer extends LitElement {
   image: GreyImage | null = null;
   levels: GreyImage[] = [];
   histogram: GreyHistogram | null = null;
+  /** Display limits at the default percentiles (0.5 and 99.5 %) of this image, when computed elsewhere. */
+  limits: DisplayLimits | null = null;
+  /** The latest display-ready picture of a level (answer to `picture-needed`); null for none. */
+  picture: ViewPicture | null = null;
+  /** Largest level (pixels) drawn from `picture`; 0: the viewer draws every level itself. */
+  maxPicturePx = 0;
+  /** The picture last asked for (so each is asked for once). */
+  private askedPicture = '';
   tool: ViewerTool = 'pan';
   shapes: OverlayShape[] = [];
   /**
@@ -148,6 +180,8 @@ export class StrataViewer extends LitElement {
   private frame = 0;
   private resizer: ResizeObserver | null = null;
   private shownHistogram: GreyHistogram | null = null;
+  /** What the histogram canvas last showed. */
+  private histogramDrawn: { canvas: HTMLCanvasElement | null; h: GreyHistogram | null; black: number; white: number } = { canvas: null, h: null, black: NaN, white: NaN };
   private imageData: ImageData | null = null;
   private shownData: Float32Array | null = null;
   /** Keyboard drawing: the cross-hair and the start point set with Enter (image px). */
@@ -195,12 +229,14 @@ export class StrataViewer extends LitElement {
   }
 
   protected override willUpdate(changed: PropertyValues<this>): void {
-    if (changed.has('image') || changed.has('levels') || changed.has('histogram')) {
+    if (changed.has('image') || changed.has('levels') || changed.has('histogram') || changed.has('limits')) {
       this.shownHistogram = this.histogram ?? (this.image ? greyHistogram(this.statsLevel()) : null);
       // A new image (new pixels) resets the view; the same pixels with a new calibration do not.
       if (changed.has('image') && this.image?.data !== this.shownData) {
         this.shownData = this.image?.data ?? null;
         this.overlayPicture = null;
+        this.picture = null;
+        this.askedPicture = '';
         this.manual = false;
         this.draft = null;
         this.cursor = null;
@@ -246,7 +282,9 @@ export class StrataViewer extends LitElement {
   autoLimits(): void {
     if (!this.image) return;
     this.manual = false;
-    const { black, white } = displayLimits(this.statsLevel().data, { lowPercent: this.lowPercent, highPercent: this.highPercent, step: 1 });
+    const { black, white } = this.limits && this.lowPercent === 0.5 && this.highPercent === 99.5
+      ? this.limits
+      : displayLimits(this.statsLevel().data, { lowPercent: this.lowPercent, highPercent: this.highPercent, step: 1 });
     this.black = black;
     this.white = white;
   }
@@ -303,6 +341,7 @@ export class StrataViewer extends LitElement {
     }
     const ctx = canvas.getContext('2d');
     if (!ctx) return;
+    if (this.drawPicture(canvas, ctx, dpr)) return;
     if (!this.imageData || this.imageData.width !== W || this.imageData.height !== H) this.imageData = ctx.createImageData(W, H);
     const devicePerImagePx = this.zoom * dpr;
     let k = Math.floor(Math.log2(1 / devicePerImagePx));
@@ -349,6 +388,47 @@ export class StrataViewer extends LitElement {
     this.dataset.level = String(k);
   }
 
+  /** The pyramid level (0 = full resolution) that matches the zoom. */
+  private levelForZoom(dpr: number): number {
+    const k = Math.floor(Math.log2(1 / (this.zoom * dpr)));
+    return Math.max(0, Math.min(this.levels.length, k));
+  }
+
+  /**
+   * Draws the view from display-ready pictures (one drawImage), asking for the one it needs.
+   *
+   * @returns false when the level is to be drawn here instead (no pictures, or a level above maxPicturePx)
+   */
+  private drawPicture(canvas: HTMLCanvasElement, ctx: CanvasRenderingContext2D, dpr: number): boolean {
+    const image = this.image as GreyImage;
+    const k = this.levelForZoom(dpr);
+    const level = k === 0 ? image : this.levels[k - 1];
+    if (!(this.maxPicturePx > 0) || level.width * level.height > this.maxPicturePx) return false;
+    const want: ViewPictureKey = { level: k, black: this.black, white: this.white > this.black ? this.white : this.black + 1, invert: this.invert };
+    const p = this.picture;
+    const exact = !!p && p.level === want.level && p.black === want.black && p.white === want.white && p.invert === want.invert;
+    const key = JSON.stringify(want);
+    if (!exact && key !== this.askedPicture) {
+      this.askedPicture = key;
+      this.dispatchEvent(new CustomEvent<ViewPictureKey>('picture-needed', { detail: want, bubbles: true, composed: true }));
+    }
+    ctx.fillStyle = '#0b0e11';
+    ctx.fillRect(0, 0, canvas.width, canvas.height);
+    const shown = p ? (p.level === 0 ? image : this.levels[p.level - 1]) : undefined;
+    if (p && shown && p.bitmap.width === shown.width && p.bitmap.height === shown.height) {
+      const f = image.width / shown.width;
+      ctx.save();
+      ctx.imageSmoothingEnabled = false;
+      ctx.drawImage(p.bitmap, ((0 - this.cx) * this.zoom + this.viewW / 2) * dpr, ((0 - this.cy) * this.zoom + this.viewH / 2) * dpr,
+        shown.width * f * this.zoom * dpr, shown.height * f * this.zoom * dpr);
+      ctx.restore();
+      this.drawOverlayPicture(ctx, dpr);
+    }
+    if (exact) this.dataset.level = String(k);
+    else delete this.dataset.level;
+    return true;
+  }
+
   /** Draws `overlayPicture` stretched over its image rectangle, at its opacity. */
   private drawOverlayPicture(ctx: CanvasRenderingContext2D, dpr: number): void {
     const o = this.overlayPicture;
@@ -375,6 +455,9 @@ export class StrataViewer extends LitElement {
     const canvas = this.renderRoot.querySelector<HTMLCanvasElement>('canvas.hist');
     const h = this.shownHistogram;
     if (!canvas || !h) return;
+    // redrawn only when what it shows changed (not on every cursor move)
+    if (this.histogramDrawn.canvas === canvas && this.histogramDrawn.h === h && this.histogramDrawn.black === this.black && this.histogramDrawn.white === this.white) return;
+    this.histogramDrawn = { canvas, h, black: this.black, white: this.white };
     const W = 260;
     const H = 56;
     canvas.width = W;
