@@ -6,7 +6,7 @@ import { budgetContents, expressPeriod, formatBudget, formatPlusMinus } from '..
 import { LitElement, css, html, nothing } from 'lit';
 import { unsafeSVG } from 'lit/directives/unsafe-svg.js';
 import { batchJson, pooledStats, resultsCsv, summaryCsv, zipExports } from '../src/batch/export';
-import { histogramSvg } from '../src/figure/batch-figure';
+import { histogramSvg, MIN_VALUES_FOR_STATISTICS } from '../src/figure/batch-figure';
 import { batchReportHtml } from '../src/figure/report';
 import { PROGRAM_VERSION } from '../src/cli/version';
 import { compareBatchWithDiffraction, comparisonCsv, diffractionOverlaySvg, type BatchComparison } from '../src/diffraction/cross-check';
@@ -462,13 +462,35 @@ export class StrataBatchPanel extends LitElement {
     return out;
   }
 
+  /** The values too few for statistics (fewer than 3), as a table instead of a mean or a histogram. */
+  private fewValues(results: FileResult[], k: number) {
+    const ok = results.filter((r) => r.status === 'ok');
+    const rows: { what: string; file: string; value: string; contains?: string }[] = [];
+    const tops = ok.filter((r) => r.summary.topPeriods[0] && r.calibration);
+    if (tops.length > 0 && tops.length < MIN_VALUES_FOR_STATISTICS) {
+      for (const r of tops) {
+        const b = expressPeriod(r.summary.topPeriods[0], r.calibration!, k);
+        rows.push({ what: `strongest period ± U (nm, k = ${k})`, file: r.file, value: formatPlusMinus(b.value, b.expanded), contains: `contains: ${budgetContents(b)}` });
+      }
+    }
+    const sheets = ok.flatMap((r) => r.summary.sheetThicknessNm.map((v) => ({ file: r.file, v })));
+    if (sheets.length > 0 && sheets.length < MIN_VALUES_FOR_STATISTICS) for (const s of sheets) rows.push({ what: 'sheet thickness (nm)', file: s.file, value: f(s.v, 2) });
+    if (!rows.length) return nothing;
+    return html`<table class="few-values" aria-label="Values too few for statistics">
+      <caption>Fewer than ${MIN_VALUES_FOR_STATISTICS} values: listed, with no mean, standard deviation or histogram</caption>
+      <thead><tr><th>quantity</th><th>file</th><th>value</th></tr></thead>
+      <tbody>${rows.map((r) => html`<tr><td>${r.what}</td><td>${r.file}</td><td class="num" title=${r.contains ?? ''}>${r.value}</td></tr>`)}</tbody>
+    </table>`;
+  }
+
   private histograms(results: FileResult[]): Record<string, string> {
     const ok = results.filter((r) => r.status === 'ok');
     const tops = ok.flatMap((r) => (r.summary.topPeriods[0] && r.calibration ? [expressPeriod(r.summary.topPeriods[0], r.calibration).value] : []));
     const sheets = ok.flatMap((r) => r.summary.sheetThicknessNm);
     const out: Record<string, string> = {};
-    if (tops.length) out['top-period'] = histogramSvg(tops, { xLabel: 'strongest period (nm)', title: 'Strongest period per image' });
-    if (sheets.length) out['sheet-thickness'] = histogramSvg(sheets, { xLabel: 'sheet thickness (nm)', title: 'Sheet thickness, all images' });
+    // no histogram of fewer than 3 values: the summary lists them
+    if (tops.length >= MIN_VALUES_FOR_STATISTICS) out['top-period'] = histogramSvg(tops, { xLabel: 'strongest period (nm)', title: 'Strongest period per image' });
+    if (sheets.length >= MIN_VALUES_FOR_STATISTICS) out['sheet-thickness'] = histogramSvg(sheets, { xLabel: 'sheet thickness (nm)', title: 'Sheet thickness, all images' });
     return out;
   }
 
@@ -655,13 +677,16 @@ export class StrataBatchPanel extends LitElement {
             : html`<td>${calText(r)}</td>
               <td>${r.summary.topPeriods.length && r.calibration ? r.summary.topPeriods.map((p) => { const b = expressPeriod(p, r.calibration, k); return html`<div title=${`contains: ${budgetContents(b)}`}>${formatPlusMinus(b.value, b.expanded)}</div>`; }) : '—'}</td>
               <td>${r.summary.sheetCount ?? '—'}</td>
-              <td>${r.summary.meanThicknessNm === null ? '—' : `${f(r.summary.meanThicknessNm, 2)} ± ${f(r.summary.sdThicknessNm, 2)}`}</td>`}
+              <td>${r.summary.sheetThicknessNm.length < MIN_VALUES_FOR_STATISTICS || r.summary.meanThicknessNm === null
+                ? (r.summary.sheetThicknessNm.length ? r.summary.sheetThicknessNm.map((v) => f(v, 2)).join(', ') : '—')
+                : `${f(r.summary.meanThicknessNm, 2)} ± ${f(r.summary.sdThicknessNm, 2)}`}</td>`}
         </tr>`)}</tbody>
       </table>
       <p class="pooled num">${pooled.files.ok} measured, ${pooled.files.failed} failed.
-        ${pooled.topPeriodNm ? html`Strongest period: mean ${f(pooled.topPeriodNm.mean)} nm, sd ${f(pooled.topPeriodNm.sd)} nm (n = ${pooled.topPeriodNm.n}).` : nothing}
+        ${pooled.topPeriodNm && pooled.topPeriodNm.n >= MIN_VALUES_FOR_STATISTICS ? html`Strongest period: mean ${f(pooled.topPeriodNm.mean)} nm, sd ${f(pooled.topPeriodNm.sd)} nm (n = ${pooled.topPeriodNm.n}).` : nothing}
         ${pooled.pooledTopPeriod ? html`Pooled: <span class="pooled-period">${formatBudget(pooled.pooledTopPeriod.budget)}</span>${Number.isFinite(pooled.pooledTopPeriod.birgeRatio) ? `, Birge ratio ${f(pooled.pooledTopPeriod.birgeRatio, 2)}` : ''}.` : nothing}
-        ${pooled.sheetThicknessNm ? html`Sheets: ${pooled.sheetCount}, thickness ${f(pooled.sheetThicknessNm.mean, 2)} ± ${f(pooled.sheetThicknessNm.sd, 2)} nm (sd).` : nothing}</p>
+        ${pooled.sheetThicknessNm && pooled.sheetThicknessNm.n >= MIN_VALUES_FOR_STATISTICS ? html`Sheets: ${pooled.sheetCount}, thickness ${f(pooled.sheetThicknessNm.mean, 2)} ± ${f(pooled.sheetThicknessNm.sd, 2)} nm (sd).` : nothing}</p>
+      ${this.fewValues(results, k)}
       <div class="hists">${Object.values(hists).map((s) => unsafeSVG(s))}</div>
       ${this.renderComparison(results)}
       <div class="row">

@@ -14,7 +14,7 @@ import { basename, dirname, extname, join, relative, resolve } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import { isMainThread, parentPort, Worker, workerData } from 'node:worker_threads';
 import { batchJson, pooledStats, resultsCsv, summaryCsv, zipExports } from '../batch/export';
-import { annotatedFigurePng, histogramPng, histogramSvg } from '../figure/batch-figure';
+import { annotatedFigurePng, histogramPng, histogramSvg, MIN_VALUES_FOR_STATISTICS } from '../figure/batch-figure';
 import { canonicalRecipeJson, defaultRecipe, readRecipeFile, RecipeError, type Recipe } from '../batch/recipe';
 import { missingTools, processOne, upgradeFileResult, type BatchDeps, type FileResult } from '../batch/run';
 import { emptyState, isFinished, parseState, recordFileName, stateFromRecords, STATE_FILE_NAME, withEntry, type BatchState, type FoundRecord } from '../batch/state';
@@ -706,12 +706,13 @@ export async function writeBatchExports(options: BatchExportOptions): Promise<st
     const pooled = pooledStats(ordered, recipe.outputs.coverageFactor);
     const tops = ordered.flatMap((r) => (r.summary.topPeriods[0] && r.calibration ? [expressPeriod(r.summary.topPeriods[0], r.calibration).value] : []));
     const topsHist = { xLabel: 'strongest period per image (nm)', title: `${tops.length} images` };
-    if (tops.length) await put(join(figuresDir, 'histogram-top-period-nm.svg'), histogramSvg(tops, topsHist), 'figures/histogram-top-period-nm.svg');
-    if (tops.length) await put(join(figuresDir, 'histogram-top-period-nm.png'), histogramPng(tops, topsHist), 'figures/histogram-top-period-nm.png');
+    // no histogram of fewer than 3 values (they are listed in the summary CSV)
+    if (tops.length >= MIN_VALUES_FOR_STATISTICS) await put(join(figuresDir, 'histogram-top-period-nm.svg'), histogramSvg(tops, topsHist), 'figures/histogram-top-period-nm.svg');
+    if (tops.length >= MIN_VALUES_FOR_STATISTICS) await put(join(figuresDir, 'histogram-top-period-nm.png'), histogramPng(tops, topsHist), 'figures/histogram-top-period-nm.png');
     const sheets = ordered.flatMap((r) => r.summary.sheetThicknessNm);
     const sheetsHist = { xLabel: 'sheet thickness (nm)', title: `${pooled.sheetCount} sheets` };
-    if (sheets.length) await put(join(figuresDir, 'histogram-sheet-thickness-nm.svg'), histogramSvg(sheets, sheetsHist), 'figures/histogram-sheet-thickness-nm.svg');
-    if (sheets.length) await put(join(figuresDir, 'histogram-sheet-thickness-nm.png'), histogramPng(sheets, sheetsHist), 'figures/histogram-sheet-thickness-nm.png');
+    if (sheets.length >= MIN_VALUES_FOR_STATISTICS) await put(join(figuresDir, 'histogram-sheet-thickness-nm.svg'), histogramSvg(sheets, sheetsHist), 'figures/histogram-sheet-thickness-nm.svg');
+    if (sheets.length >= MIN_VALUES_FOR_STATISTICS) await put(join(figuresDir, 'histogram-sheet-thickness-nm.png'), histogramPng(sheets, sheetsHist), 'figures/histogram-sheet-thickness-nm.png');
     if (recipe.outputs.zip) {
       for (const r of ordered) {
         if (r.status !== 'ok' || !r.figureFile) continue;

@@ -152,6 +152,12 @@ function tick(v: number): string {
   return String(Number(v.toPrecision(4)));
 }
 
+/**
+ * Fewest values a mean, a standard deviation or a histogram is given for; fewer are listed one by
+ * one (common practice: a spread needs at least three values to say anything).
+ */
+export const MIN_VALUES_FOR_STATISTICS = 3;
+
 /** Options for `histogramSvg`. */
 export interface HistogramSvgOptions {
   /** Axis label under the bars, with the unit, e.g. "period (nm)". */

@@ -11,7 +11,7 @@ import { displayLimits, reduceForDisplay, stretchToGrey } from '../image/display
 import { calibrationPartsText } from '../calibration/calibration';
 import { budgetContents, checkCoverageFactor, expressPeriod, formatPlusMinus, UNCERTAINTY_PARTS, UNCERTAINTY_PART_WORDS, type Measurement } from '../measure/measurement';
 import { toolOf } from '../measure/tools';
-import { escapeXml, histogramSvg, roundScaleBar } from './batch-figure';
+import { escapeXml, histogramSvg, MIN_VALUES_FOR_STATISTICS, roundScaleBar } from './batch-figure';
 import { pooledStats } from '../batch/export';
 import type { FileResult } from '../batch/run';
 import { plotSvg, type PlotData } from './plot';
@@ -283,8 +283,7 @@ export interface BatchReportInput {
   title?: string;
 }
 
-/** Fewest values a mean, a standard deviation or a histogram is given for; fewer are listed. */
-export const MIN_VALUES_FOR_STATISTICS = 3;
+export { MIN_VALUES_FOR_STATISTICS };
 
 /**
  * The report of a batch as one self-contained HTML document that prints to A4: file counts, the

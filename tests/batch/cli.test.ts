@@ -73,12 +73,10 @@ test('batch: counts, CSV rows in nm, figures, exit code 1 for the bad files; a s
   const json = JSON.parse(await readFile(join(dir, 'out', 'all.json'), 'utf8'));
   expect(json.pooled.files).toEqual({ total: 4, ok: 2, failed: 2 });
   const figs = (await readdir(join(dir, 'out', 'fig'))).sort();
-  expect(figs).toEqual(['film-01.tif.png', 'film-02.tif.png', 'histogram-top-period-nm.png', 'histogram-top-period-nm.svg']);
-  // the PNG histogram beside the SVG: PNG signature (ISO/IEC 15948:2004 §5.2), 960 × 600 8-bit grey
-  const histBytes = new Uint8Array(await readFile(join(dir, 'out', 'fig', 'histogram-top-period-nm.png')));
-  expect([...histBytes.subarray(0, 8)]).toEqual([137, 80, 78, 71, 13, 10, 26, 10]);
-  const hist = decodePng(histBytes);
-  expect([hist.width, hist.height, hist.channels, hist.depth]).toEqual([960, 600, 1, 8]);
+  // two measured images: their figures, and no histogram of 2 values (common practice: no
+  // distribution from fewer than 3; the values are in the summary CSV); the histogram PNG itself
+  // is checked in tests/batch/figure.test.ts
+  expect(figs).toEqual(['film-01.tif.png', 'film-02.tif.png']);
   const png = decodePng(await readFile(join(dir, 'out', 'fig', 'film-01.tif.png')));
   expect([png.width, png.height]).toEqual([256, 256]);
 
