@@ -179,6 +179,11 @@ export class StrataApp extends LitElement {
       .work { flex: 1; display: grid; grid-template-columns: minmax(0, 1fr) minmax(360px, 28%); min-height: 0; overflow: hidden; }
       /* a wide panel: its figures and its controls share the room beside the image */
       .work.wide { grid-template-columns: minmax(0, 1fr) max(960px, 58%); }
+      /* a narrow window (a phone, a split screen): the image above, the panels under it, each the full width */
+      @media (max-width: 760px) {
+        .work, .work.wide { grid-template-columns: minmax(0, 1fr); grid-template-rows: minmax(320px, 55%) minmax(0, 1fr); }
+        aside { border-left: 0; border-top: 1px solid var(--line); }
+      }
       strata-viewer { min-height: 0; }
       .start { overflow-y: auto; padding: 28px 36px; border-right: 1px solid var(--line); }
       .start h2 { font-size: 16px; font-weight: 600; margin: 0 0 6px; }

@@ -3,6 +3,7 @@
 // value; shows a warning when the new value disagrees with the one in use.
 import { LitElement, css, html, nothing } from 'lit';
 import type { Calibration, GreyImage } from '../src/image/grey-image';
+import type { ImageRecord } from '../src/store/records';
 import { findScaleBar, type ScaleBar } from '../src/calibration/scale-bar';
 import { LABEL_CHARACTERS, labelQuestion, parseScaleLabel, scaleBarCalibration } from '../src/calibration/label';
 import { readLabel } from '../src/calibration/label-read';
@@ -13,6 +14,8 @@ import type { TextReader } from '../src/calibration/ocr';
 import { makeProfile, matchProfile } from '../src/calibration/profiles';
 import { listCalibrationProfiles, putCalibrationProfile, type LibraryDb } from '../src/store/library';
 import { controlStyles, panelStyles } from './styles';
+import './export-menu';
+import type { ExportTable } from './export-menu';
 import type { ComputeClient } from './compute-client';
 import type { SpectrumView } from './compute-protocol';
 import { calibrateTwoAxis, latticeSpotsOf, PROJECTED_LATTICES, userLattice } from '../src/calibration/affine';
@@ -60,6 +63,7 @@ export class StrataCalibrationPanel extends LitElement {
     ocrNote: { state: true },
     busy: { state: true },
     candidate: { state: true },
+    record: { attribute: false },
     knownNm: { state: true },
     standardId: { state: true },
     customNm: { state: true },
@@ -102,6 +106,8 @@ export class StrataCalibrationPanel extends LitElement {
   ocrNote = '';
   busy = false;
   candidate: Calibration | null = null;
+  /** The image's library record (for the export's file name). */
+  record: ImageRecord | null = null;
   knownNm = '';
   standardId = LATTICE_STANDARDS[0].id;
   /** The spacing typed for the 'custom' standard, nm. */
@@ -353,6 +359,20 @@ export class StrataCalibrationPanel extends LitElement {
     }
   }
 
+  /** The calibration in use for the export menu: the pixel size (and second axis, shear) and each uncertainty part. */
+  private calibrationTable(c: Calibration): ExportTable {
+    const header = ['quantity', 'value', 'unit', 'relativeStandardUncertaintyK1', 'type', 'source'];
+    const rows: (string | number | null)[][] = [['nmPerPx', c.nmPerPx, 'nm/px', c.relUncertainty, null, c.source]];
+    if (c.nmPerPxY !== undefined) rows.push(['nmPerPxY', c.nmPerPxY, 'nm/px', null, null, c.source]);
+    if (c.shearDeg !== undefined) rows.push(['shearDeg', c.shearDeg, 'deg', null, null, c.source]);
+    for (const part of c.parts ?? []) rows.push([`part: ${part.name}`, null, null, part.rel, part.type, c.source]);
+    return {
+      noun: 'row', name: 'calibration', header, rows,
+      notes: [`${c.detail}`, 'relative standard uncertainties (k = 1); the pixel size\'s is the root-sum-square of its parts. Results inform research; they do not replace an accredited calibration.'],
+      json: { calibration: c, uncertaintyNote: 'relUncertainty and parts[].rel are relative standard uncertainties (k = 1)' },
+    };
+  }
+
   private apply(): void {
     if (!this.candidate) return;
     this.emit('calibration-changed', { calibration: this.candidate });
@@ -372,7 +392,8 @@ export class StrataCalibrationPanel extends LitElement {
         <h3>In use</h3>
         ${cur
           ? html`<p class="num">${sig(cur.nmPerPx)} nm per pixel ± ${pct(cur.relUncertainty)} <span class="muted">(${cur.source})</span></p>${axes(cur)}
-              <p class="muted">${cur.detail}</p>`
+              <p class="muted">${cur.detail}</p>
+              <strata-export-menu .table=${this.calibrationTable(cur)} .report=${false} .fileName=${this.record?.fileName ?? ''}></strata-export-menu>`
           : html`<p class="muted">None: lengths are in pixels until you set one.</p>`}
       </section>
       <section>

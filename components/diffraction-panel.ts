@@ -17,6 +17,9 @@ import { expressPeriod } from '../src/measure/measurement';
 import { BUILT_IN_PHASES, type ZoneAxisResult, type ZoneSpot } from '../src/diffraction/zone-axis';
 import type { PlotData } from '../src/figure/plot';
 import './plot';
+import './export-menu';
+import type { ExportFigure, ExportTable } from './export-menu';
+import { plotSvg } from '../src/figure/plot';
 import { controlStyles, panelStyles } from './styles';
 
 export const panelLabel = 'Diffraction';
@@ -384,7 +387,8 @@ export class StrataDiffractionPanel extends LitElement {
   }
 
   /** The pattern as a plot for the shared plot element (x ascending in the axis chosen). */
-  private plot(): TemplateResult | typeof nothing {
+  /** The pattern's plot (null with fewer than 2 points to draw). */
+  private plotData(): PlotData | null {
     const p = this.pattern;
     const a = this.analysis;
     const tY = (y: number) => (this.logY ? Math.log10(Math.max(y, 1)) : y);
@@ -403,7 +407,7 @@ export class StrataDiffractionPanel extends LitElement {
       for (let i = rows.length - 1; i >= 0; i--) if (rows[i].x > dMax) rows.splice(i, 1);
     }
     rows.sort((u, v) => u.x - v.x);
-    if (rows.length < 2) return nothing;
+    if (rows.length < 2) return null;
     const x = rows.map((r) => r.x);
     const yAt = (v: number) => {
       let i = x.findIndex((xi) => xi >= v);
@@ -433,13 +437,41 @@ export class StrataDiffractionPanel extends LitElement {
       rules: periods,
       description: `Diffraction pattern against ${unit} with its fitted model and background; ${peakDs.length} peaks marked${periods.length ? `; ${periods.length} micrograph periods as bands (± their uncertainty)` : ''}.`,
     };
+    return data;
+  }
+
+  private plot(data: PlotData | null): TemplateResult | typeof nothing {
+    if (!data) return nothing;
     return html`<strata-plot .data=${data} height-px="300" file-stem=${(this.fileName ?? 'pattern').replace(/\.[^.]+$/, '')}></strata-plot>`;
+  }
+
+  /** The lines for the export menu: fitted peaks with their d budget (k = 2), or the typed peaks. */
+  private linesTable(): ExportTable {
+    const a = this.analysis;
+    const k = 2;
+    if (!a) {
+      return {
+        noun: 'typed peak', name: 'peaks', header: ['peak', 'dNm'], rows: this.manual.map((m, i) => [i + 1, m.dNm]),
+        notes: ['typed peaks: no uncertainty given'], json: { source: 'typed', unit: 'nm', peaks: this.manual },
+      };
+    }
+    const hklOf = (i: number) => a.indexing.phases.flatMap((ph) => ph.lines.filter((l) => l.peak === i).map((l) => l.hkl.join(' ')))[0] ?? null;
+    const header = ['peak', 'kind', 'twoThetaDeg', 'uTwoThetaDeg', 'dNm', 'uStatisticalDNm', 'uMethodDNm', 'uCalibrationDNm', 'uCombinedDNm', 'expandedDNm', 'coverageFactorK',
+      'fwhmDeg', 'height', 'crystalliteNm', 'uCrystalliteNm', 'hkl', 'wavelength', 'dContains'];
+    const rows = a.peaks.map((p, i) => [i + 1, p.kind, p.twoThetaDeg, p.twoThetaUncDeg, p.dCorrectedNm, p.budget.statisticalNm, p.budget.methodNm, p.budget.calibrationNm,
+      p.budget.combinedNm, k * p.budget.combinedNm, k, p.fwhmDeg, p.intensity, p.crystalliteNm, p.crystalliteUncNm, hklOf(i), `${a.radiationLabel} (${a.radiationSource})`, p.budget.statement]);
+    return {
+      noun: 'peak', name: 'peaks', header, rows,
+      notes: [`${this.fileName ?? 'pattern'}; wavelength ${a.radiationLabel}, from ${a.radiationSource}; u are standard uncertainties, the expanded uncertainty has k = ${k}`],
+      json: { file: this.fileName, radiation: { label: a.radiationLabel, source: a.radiationSource }, coverageFactorK: k, peaks: a.peaks, indexing: a.indexing, series: a.series, reconciliation: this.reconciliation() },
+    };
   }
 
   override render(): TemplateResult {
     const a = this.analysis;
     const rec = this.reconciliation();
     const valid = this.validPeriods();
+    const plotData = this.plotData();
     return html`
       <section>
         <h3>Pattern</h3>
@@ -472,7 +504,10 @@ export class StrataDiffractionPanel extends LitElement {
           <label><input type="checkbox" .checked=${this.logY} @change=${(e: Event) => { this.logY = (e.target as HTMLInputElement).checked; }} /> log intensity</label>
           <button ?disabled=${!a && this.manual.length === 0} @click=${() => void this.save()} title="Keep the pattern, its lines and series in the library (for the batch comparison and the library export)">Save set</button>
         </div>
-        ${this.plot()}
+        ${this.plot(plotData)}
+        <strata-export-menu .table=${a || this.manual.length ? this.linesTable() : null}
+          .figure=${plotData ? ({ name: 'pattern', svg: () => plotSvg(plotData) } satisfies ExportFigure) : null} .report=${false}
+          .fileName=${this.fileName ?? 'pattern'}></strata-export-menu>
       </section>
       ${a ? html`<section>
         <h3>Peaks (${a.peaks.length})</h3>

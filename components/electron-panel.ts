@@ -13,6 +13,8 @@ import type { ImageRecord } from '../src/store/records';
 import type { ComputeClient } from './compute-client';
 import type { ElectronCameraResult } from './compute-protocol';
 import { controlStyles, panelStyles } from './styles';
+import './export-menu';
+import type { ExportTable } from './export-menu';
 
 // 'SAED' (selected-area electron diffraction): a tab label that does not contain the X-ray tab's 'Diffraction'
 export const panelLabel = 'SAED';
@@ -175,6 +177,34 @@ export class StrataElectronPanel extends LitElement {
     }
   }
 
+  /** The camera constant's rings for the export menu (K and its parts in the notes and the JSON). */
+  private cameraTable(c: ElectronCameraResult): ExportTable {
+    return {
+      noun: 'ring', name: 'camera-constant',
+      header: ['hkl', 'radiusPx', 'standardDNm', 'ringKInvNmPerPx', 'relResidualFromK'],
+      rows: c.rings.map((r) => [r.hkl.join(' '), r.ring.radiusPx, r.dNm, r.kInvNmPerPx, r.relResidual]),
+      notes: [`K = ${sig(c.kInvNmPerPx)} nm^-1 per px, relative standard uncertainty ${sig(c.relUncertainty, 3)} (k = 1): ${c.parts.map((p) => `${p.name} ${sig(p.rel, 3)}`).join(', ')}`,
+        `standard: ${c.standard.name} (${c.standard.source})`],
+      json: { cameraConstant: c, uncertaintyNote: 'relUncertainty and parts are relative standard uncertainties (k = 1)' },
+    };
+  }
+
+  /** The pattern's ring and spot d-spacings for the export menu, with U = 2u. */
+  private spacingsTable(m: PatternMeasurement): ExportTable {
+    const k = 2;
+    const rows = [
+      ...m.rings.map((r, i) => ['ring', i + 1, r.radiusPx, r.dNm, r.uDNm, k * r.uDNm, k, null, null]),
+      ...m.spots.map((sp, i) => ['spot', i + 1, null, sp.dNm, sp.uDNm, k * sp.uDNm, k, sp.directionDeg >= 359.995 ? 0 : sp.directionDeg, sp.fromPair ? 'pair' : 'one spot']),
+    ];
+    return {
+      noun: 'd-spacing', name: 'd-spacings',
+      header: ['kind', 'number', 'radiusPx', 'dNm', 'uDNm', 'expandedDNm', 'coverageFactorK', 'directionDeg', 'from'],
+      rows,
+      notes: [`camera: ${this.camera?.detail ?? 'unknown'}`, `u: standard uncertainty of d (radius or spot positions and the camera constant); expanded with k = ${k}`],
+      json: { camera: this.camera, coverageFactorK: k, measurement: m },
+    };
+  }
+
   private renderCalibration(c: ElectronCameraResult) {
     return html`
       <p class="num">K = ${sig(c.kInvNmPerPx)} nm⁻¹ per px ± ${pct(2 * c.relUncertainty)}</p>
@@ -187,6 +217,7 @@ export class StrataElectronPanel extends LitElement {
       </table>
       ${c.unindexedRadiiPx.length ? html`<p class="muted">Not indexed: rings at ${c.unindexedRadiiPx.map((r) => r.toFixed(1)).join(', ')} px.</p>` : nothing}
       ${c.standard.source.includes('from memory') ? html`<p class="muted">The standard's lattice parameter is a value from memory; its allowance is in the uncertainty.</p>` : nothing}
+      <strata-export-menu class="camera-export" .table=${this.cameraTable(c)} .report=${false} .fileName=${this.record?.fileName ?? 'pattern'}></strata-export-menu>
     `;
   }
 
@@ -208,6 +239,7 @@ export class StrataElectronPanel extends LitElement {
         : nothing}
       ${m.notes.map((n) => html`<p class="muted">${n}</p>`)}
       <div class="row"><button ?disabled=${!this.db} @click=${this.store}>Store in the library</button></div>
+      <strata-export-menu class="spacings-export" .table=${this.spacingsTable(m)} .report=${false} .fileName=${this.record?.fileName ?? 'pattern'}></strata-export-menu>
     `;
   }
 

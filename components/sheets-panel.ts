@@ -32,6 +32,9 @@ import { controlStyles, panelStyles } from './styles';
 import { plotStyles } from './plot-line';
 import type { PlotData } from '../src/figure/plot';
 import './plot';
+import './export-menu';
+import type { ExportFigure, ExportTable } from './export-menu';
+import { histogramSvg, MIN_VALUES_FOR_STATISTICS } from '../src/figure/batch-figure';
 
 export const panelLabel = 'Sheets';
 
@@ -427,25 +430,32 @@ export class StrataSheetsPanel extends LitElement {
     return this.sheets.filter((s) => s.status !== 'rejected' && (!this.acceptedOnly || s.status !== 'auto'));
   }
 
-  private exportCsv(): void {
+  /** The sheets for the export menu: one row each, units in the header (nm when calibrated, else px). */
+  private sheetsTable(): ExportTable {
     const cal = this.image?.calibration ?? null;
-    const u = cal ? 'nm' : 'px';
-    const head = ['id', 'source', 'status', 'layers', 'automatic_layers', 'corrected_by', `thickness_nd_${u}`, `thickness_U_${u}`, 'thickness_U_contains', `edge_to_edge_${u}`, `period_${u}`, `period_U_${u}`, 'period_source', `length_${u}`, 'agreement', 'angle_deg', 'center_x_px', 'center_y_px', 'coverage_factor_k'];
-    const rows = this.sheets.map((s) => {
-      const e = expressSheet(s, cal);
-      return [
-        s.id, s.source, s.status, s.layers, s.correction?.originalLayers ?? '', s.correction?.by ?? '',
-        e.thickness.value.toPrecision(6), e.thickness.expanded.toPrecision(3), `"${budgetContents(e.thickness)}"`, e.edgeToEdge.value.toPrecision(5),
-        e.period.value.toPrecision(6), e.period.expanded.toPrecision(3), s.periodSource, e.length ? e.length.value.toPrecision(5) : '',
-        s.confidence === null ? '' : s.confidence.toFixed(2), s.angleDeg.toFixed(2), s.centerPx[0].toFixed(1), s.centerPx[1].toFixed(1), e.thickness.k,
-      ].join(',');
-    });
-    const blob = new Blob([`# thickness: ${THICKNESS_CONVENTION}\n${head.join(',')}\n${rows.join('\n')}\n`], { type: 'text/csv' });
-    const a = document.createElement('a');
-    a.href = URL.createObjectURL(blob);
-    a.download = 'sheets.csv';
-    a.click();
-    setTimeout(() => URL.revokeObjectURL(a.href), 1000);
+    const u = cal ? 'Nm' : 'Px';
+    const header = ['id', 'source', 'status', 'layers', 'automaticLayers', 'correctedBy', `thickness${u}`, `thicknessExpanded${u}`, 'thicknessContains',
+      `edgeToEdge${u}`, `period${u}`, `periodExpanded${u}`, 'periodSource', `length${u}`, 'agreement', 'angleDeg', 'centreXPx', 'centreYPx', 'coverageFactorK'];
+    const expressed = this.sheets.map((s) => ({ s, e: expressSheet(s, cal) }));
+    const rows = expressed.map(({ s, e }) => [
+      s.id, s.source, s.status, s.layers, s.correction?.originalLayers ?? null, s.correction?.by ?? null,
+      e.thickness.value, e.thickness.expanded, budgetContents(e.thickness), e.edgeToEdge.value,
+      e.period.value, e.period.expanded, s.periodSource, e.length ? e.length.value : null,
+      s.confidence, s.angleDeg, s.centerPx[0], s.centerPx[1], e.thickness.k,
+    ]);
+    return {
+      noun: 'sheet', name: 'sheets', header, rows,
+      notes: [`thickness: ${THICKNESS_CONVENTION}`, `lengths in ${cal ? 'nm' : 'px (no calibration)'}; expanded uncertainties with the coverage factor k of each row`],
+      json: { thicknessConvention: THICKNESS_CONVENTION, unit: cal ? 'nm' : 'px', calibration: cal, sheets: expressed.map(({ s, e }) => ({ ...s, expressed: e })) },
+    };
+  }
+
+  /** The thickness histogram as an SVG figure for the export menu; null below 3 kept sheets. */
+  private sheetsFigure(): ExportFigure | null {
+    const cal = this.image?.calibration ?? null;
+    const thick = this.kept().map((s) => expressSheet(s, cal).thickness.value);
+    if (thick.length < MIN_VALUES_FOR_STATISTICS) return null;
+    return { name: 'sheet-thickness', svg: () => histogramSvg(thick, { xLabel: `sheet thickness n·d (${cal ? 'nm' : 'px'})`, title: `Sheet thickness, ${thick.length} sheets` }) };
   }
 
   private renderProfile() {
@@ -608,8 +618,9 @@ export class StrataSheetsPanel extends LitElement {
             <p class="muted">± is the expanded uncertainty (k = 2) of the thickness n·d (layers × period): the period's fit and the spread along the stack, with the calibration. * a count corrected by you (the automatic one is kept).</p>
             <div class="row">
               <label><input type="checkbox" .checked=${this.acceptedOnly} @change=${(e: Event) => (this.acceptedOnly = (e.target as HTMLInputElement).checked)}> count accepted only</label>
-              <button @click=${() => this.exportCsv()}>Export CSV</button>
             </div>
+            <strata-export-menu .table=${this.sheetsTable()} .figure=${this.sheetsFigure()} .report=${false}
+              .fileName=${this.record?.fileName ?? ''}></strata-export-menu>
             <p class="muted">${this.db && this.record ? (this.savedAt ? `Kept in the library (${new Date(this.savedAt).toLocaleTimeString()}).` : 'Not yet kept in the library.') : 'Not kept: the image is not in the library.'}</p>`
           : html`<p class="muted">${this.message ?? 'none yet'}</p>`}
       </section>

@@ -203,10 +203,13 @@ export class StrataViewer extends LitElement {
       svg .handle { pointer-events: all; cursor: ew-resize; }
       svg text { paint-order: stroke; stroke: #000; stroke-width: 3px; stroke-opacity: 0.8; stroke-linejoin: round; }
       .empty { position: absolute; inset: 0; display: grid; place-items: center; color: var(--muted); }
-      .foot { display: flex; align-items: center; gap: 12px; padding: 3px 8px; background: var(--panel); border-top: 1px solid var(--line); font-size: 12px; min-height: 66px; }
-      .readout { flex: 1; display: grid; grid-template-columns: repeat(3, max-content); gap: 2px 16px; }
+      /* the status row wraps on a narrow window (the histogram goes under the readout) rather than being cut off */
+      .foot { display: flex; flex-wrap: wrap; align-items: center; gap: 4px 12px; padding: 3px 8px; background: var(--panel); border-top: 1px solid var(--line); font-size: 12px; min-height: 66px; }
+      .readout { flex: 1 1 240px; min-width: 0; display: flex; flex-wrap: wrap; gap: 2px 14px; }
+      .readout span { white-space: nowrap; min-width: 6.5em; }
+      .readout .wide { flex-basis: 100%; white-space: normal; }
       .readout b { color: var(--muted); font-weight: normal; margin-right: 4px; }
-      canvas.hist { width: 260px; height: 56px; background: #0b0e11; border: 1px solid var(--line); }
+      canvas.hist { flex: 0 1 260px; width: 260px; max-width: 100%; height: 56px; background: #0b0e11; border: 1px solid var(--line); }
     `,
   ];
 
@@ -792,8 +795,7 @@ export class StrataViewer extends LitElement {
       <span><b>x</b>${c ? c.x : '–'}</span><span><b>y</b>${c ? c.y : '–'}</span><span><b>value</b>${c ? formatValue(c.value) : '–'}</span>
       <span><b>x nm</b>${c && cal ? (c.x * cal.nmPerPx).toFixed(2) : '–'}</span><span><b>y nm</b>${c && cal ? (c.y * (cal.nmPerPxY ?? cal.nmPerPx)).toFixed(2) : '–'}</span>
       <span><b>zoom</b>${pct}</span>
-      <span class="muted">${im.width} × ${im.height} px, ${im.bitDepth}-bit</span>
-      <span class="muted">${cal ? `${cal.nmPerPx.toPrecision(4)} nm/px (${cal.source}, ±${(cal.relUncertainty * 100).toFixed(1)} %)` : 'uncalibrated: lengths in px'}</span>
+      <span class="muted wide">${im.width} × ${im.height} px, ${im.bitDepth}-bit · ${cal ? `${cal.nmPerPx.toPrecision(4)} nm/px (${cal.source}, ±${(cal.relUncertainty * 100).toFixed(1)} %)` : 'uncalibrated: lengths in px'}</span>
     </div>`;
   }
 

@@ -173,3 +173,18 @@ export function callsWithPixelsAfterOpen(calls: ComputeCallSeen[]): ComputeCallS
   const first = calls.findIndex((c) => c.name === 'openImage');
   return first < 0 ? [] : calls.slice(first + 1).filter((c) => c.name !== 'openImage' && c.arrays.length > 0);
 }
+
+/** Runs `click` (a control that saves a file) and returns the file's offered name and its text. */
+export async function downloadedText(page: Page, click: () => Promise<void>): Promise<{ name: string; text: string }> {
+  const [download] = await Promise.all([page.waitForEvent('download', { timeout: 60_000 }), click()]);
+  const path = await download.path();
+  const { readFileSync } = await import('node:fs');
+  return { name: download.suggestedFilename(), text: readFileSync(path!, 'utf8') };
+}
+
+/** A CSV export's header and data rows (its '# ' note lines skipped; no quoted commas expected in the checked columns). */
+export function csvRows(text: string): { header: string[]; rows: string[][] } {
+  const lines = text.split(/\r?\n/).filter((l) => l && !l.startsWith('#'));
+  const split = (l: string) => l.split(',');
+  return { header: split(lines[0]), rows: lines.slice(1).map(split) };
+}

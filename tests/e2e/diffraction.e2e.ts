@@ -1,5 +1,5 @@
 import { afterAll, beforeAll, expect, test } from 'vitest';
-import { foreignRequests, openSession, type Session } from './browser';
+import { csvRows, downloadedText, foreignRequests, openSession, type Session } from './browser';
 
 let s: Session;
 beforeAll(async () => { s = await openSession(); });
@@ -24,6 +24,15 @@ test('the demo pattern: the clay 00l lines indexed with their d budget, the 3.9 
   expect(a.indexing.phases.some((p) => p.kind === 'lamellar' && Math.abs(p.cNm - 1.25) < 0.01)).toBe(true);
   await expect.poll(() => xrd.locator('td', { hasText: '0 0 1' }).count()).toBeGreaterThan(0);
   await expect.poll(() => xrd.locator('p', { hasText: 'from header line' }).count()).toBeGreaterThan(0);
+  // the one export menu: the peaks as CSV (units and k in the header, d as the panel fitted it) and the pattern's figure
+  const csv = await downloadedText(s.page, () => xrd.locator('strata-export-menu button.export-csv').click());
+  const { header, rows } = csvRows(csv.text);
+  expect(header).toEqual(expect.arrayContaining(['twoThetaDeg', 'dNm', 'uCombinedDNm', 'expandedDNm', 'coverageFactorK']));
+  expect(rows).toHaveLength(a.peaks.length);
+  rows.forEach((r, i) => expect(Number(r[header.indexOf('twoThetaDeg')])).toBeCloseTo(a.peaks[i].twoThetaDeg, 9));
+  const fig = await downloadedText(s.page, () => xrd.locator('strata-export-menu button.export-figure').click());
+  expect(fig.name).toMatch(/-pattern\.svg$/);
+  expect(fig.text).toContain('<svg');
   // spots of Si seen along ⟨110⟩: 111, 1̄11 and 202 (CODATA a; angles 70.5° and 35.3°, common practice)
   await xrd.locator('textarea[aria-label^="Spots"]').fill('0.3135,10; 0.3135,80.5; 0.192,45.3');
   await xrd.locator('textarea[aria-label^="Spots"]').dispatchEvent('change');

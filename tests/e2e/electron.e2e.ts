@@ -11,7 +11,7 @@ import { ringStandard, standardRings } from '../../src/diffraction/electron/stan
 import { decodeImage } from '../../src/image/decode';
 import { encodeTiff } from '../../testing/encode-tiff';
 import { electronPattern, type PatternSpec } from '../../testing/synthetic/electron-pattern';
-import { callsWithPixelsAfterOpen, computeCalls, openSession, recordComputeCalls, type Session, nextFrames } from './browser';
+import { csvRows, downloadedText, callsWithPixelsAfterOpen, computeCalls, openSession, recordComputeCalls, type Session, nextFrames } from './browser';
 
 let s: Session;
 const errors: string[] = [];
@@ -90,6 +90,12 @@ test('calibrate on gold, measure a sample, store it', async () => {
   const dsHere = measureElectronPattern(decodeImage(new Uint8Array(sample), 'sample-rings.tif'), camera, { what: 'rings' }).rings.map((r) => r.dNm);
   expect(dsHere).toHaveLength(3);
   ds.forEach((d, i) => expect(Math.abs(d / dsHere[i] - 1)).toBeLessThan(1e-12));
+  // the one export menu: the d-spacings as CSV, units and k in the header, the panel's values
+  const csv = await downloadedText(s.page, () => panel().locator('strata-export-menu.spacings-export button.export-csv').click());
+  const { header, rows } = csvRows(csv.text);
+  expect(header).toEqual(['kind', 'number', 'radiusPx', 'dNm', 'uDNm', 'expandedDNm', 'coverageFactorK', 'directionDeg', 'from']);
+  expect(rows.map((r) => Number(r[3]))).toEqual(ds);
+  for (const r of rows) expect(Number(r[5])).toBeCloseTo(2 * Number(r[4]), 12);
   await panel().locator('button', { hasText: 'Store in the library' }).click();
   await expect.poll(() => app().locator('.status, [role="status"]').first().textContent(), { timeout: 10_000 }).toMatch(/Stored .* 3 d-spacings/);
   if (process.env.SCREENSHOT_DIR) await s.page.screenshot({ path: `${process.env.SCREENSHOT_DIR}/electron-measure.png` });

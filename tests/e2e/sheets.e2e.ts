@@ -5,7 +5,7 @@ import { mkdtempSync, readFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, expect, test } from 'vitest';
-import { callsWithPixelsAfterOpen, computeCalls, openSession, recordComputeCalls, type Session, nextFrames, imageToPage } from './browser';
+import { csvRows, downloadedText, callsWithPixelsAfterOpen, computeCalls, openSession, recordComputeCalls, type Session, nextFrames, imageToPage } from './browser';
 
 let s: Session;
 const dir = mkdtempSync(join(tmpdir(), 'strata-sheets-'));
@@ -99,6 +99,16 @@ test('automatic sheets: every tactoid found with its count, outlines drawn, revi
   expect((await panelSheets())[1].layers).toBe(before + 1);
   // kept in the library: the panel says so
   await expect.poll(async () => panel().evaluate((el) => (el as unknown as { savedAt: string | null }).savedAt)).not.toBeNull();
+  // the one export menu: CSV with units in the header, a row per sheet, the thickness n·d at 0.5 nm/px
+  const csv = await downloadedText(s.page, () => panel().locator('strata-export-menu button.export-csv').click());
+  expect(csv.name).toMatch(/-sheets\.csv$/);
+  const { header, rows } = csvRows(csv.text);
+  expect(header).toEqual(expect.arrayContaining(['layers', 'thicknessNm', 'thicknessExpandedNm', 'periodNm', 'coverageFactorK']));
+  expect(rows).toHaveLength(sheets.length);
+  const now = await panelSheets();
+  rows.forEach((r, i) => expect(Number(r[header.indexOf('thicknessNm')])).toBeCloseTo(now[i].thicknessPx * NM_PER_PX, 6));
+  const fig = await downloadedText(s.page, () => panel().locator('strata-export-menu button.export-figure').click());
+  expect(fig.text).toContain('<svg xmlns="http://www.w3.org/2000/svg"');
   await s.page.screenshot({ path: join(dir, 'automatic.png') });
   expect(errors).toEqual([]);
 });

@@ -8,7 +8,7 @@
 import { readFileSync, writeFileSync } from 'node:fs';
 import { join, resolve } from 'node:path';
 import { afterAll, beforeAll, expect, test } from 'vitest';
-import { openSession, type Session, nextFrames, imageToPage, drag, openDemoImage, artefactDir, watchLongTasks, pageNow, longestTaskSince } from './browser';
+import { csvRows, downloadedText, openSession, type Session, nextFrames, imageToPage, drag, openDemoImage, artefactDir, watchLongTasks, pageNow, longestTaskSince } from './browser';
 
 let s: Session;
 const errors: string[] = [];
@@ -201,6 +201,13 @@ test('calibrate: a typed pixel size re-expresses the periods; undo brings back t
     await expect.poll(d).toBeCloseTo(2.5, 1);
   });
   expect(await s.page.locator('strata-undo-control button.undo').getAttribute('title')).toMatch(/Undo: calibration 0\.1000 nm\/px/);
+  // the Calibration panel's export: the pixel size in use with its relative standard uncertainty (k = 1)
+  await app.locator('[role="tab"]', { hasText: 'Calibration' }).click();
+  const csv = await downloadedText(s.page, () => s.page.locator('strata-calibration-panel strata-export-menu button.export-csv').click());
+  const { header, rows } = csvRows(csv.text);
+  expect(header).toEqual(['quantity', 'value', 'unit', 'relativeStandardUncertaintyK1', 'type', 'source']);
+  expect(rows[0].slice(0, 4).map((c, i) => (i === 0 || i === 2 ? c : Number(c)))).toEqual(['nmPerPx', 0.1, 'nm/px', 0.02]);
+  await app.locator('[role="tab"]', { hasText: 'Periods' }).click();
   await s.page.locator('strata-undo-control button.undo').click();
   await expect.poll(d).toBeCloseTo(1.25, 1);
   await s.page.locator('strata-undo-control button.redo').click();
@@ -215,5 +222,23 @@ test('calibrate: a typed pixel size re-expresses the periods; undo brings back t
   await app.locator('[role="tab"]', { hasText: 'Periods' }).click();
   await expect.poll(d, { timeout: 60_000 }).toBeCloseTo(2.5, 1);
   expect(await app.evaluate((el) => (el as unknown as { image: { calibration: { nmPerPx: number } } }).image.calibration.nmPerPx)).toBeCloseTo(0.1, 12);
+  expect(errors).toEqual([]);
+});
+
+test('on a 406 px wide window the viewer\'s status row wraps: every readout and the histogram are inside the viewer', async () => {
+  await s.page.setViewportSize({ width: 406, height: 768 });
+  await nextFrames(s.page);
+  const viewer = s.page.locator('strata-viewer');
+  const vb = (await viewer.boundingBox())!;
+  expect(vb.x + vb.width).toBeLessThanOrEqual(406);
+  const parts = await viewer.locator('.foot .readout span, .foot canvas.hist').evaluateAll((els) => els.map((e) => { const r = e.getBoundingClientRect(); return { text: e.textContent ?? 'histogram', left: r.left, right: r.right, width: r.width }; }));
+  expect(parts.length).toBeGreaterThanOrEqual(8);
+  for (const p of parts) {
+    expect(p.width, p.text).toBeGreaterThan(0);
+    expect(p.left, p.text).toBeGreaterThanOrEqual(vb.x - 0.5);
+    expect(p.right, p.text).toBeLessThanOrEqual(vb.x + vb.width + 0.5);
+  }
+  await viewer.screenshot({ path: join(dir, 'viewer-406px.png') });
+  await s.page.setViewportSize({ width: 1366, height: 768 });
   expect(errors).toEqual([]);
 });
