@@ -147,10 +147,10 @@ test('demo images and a corrupt file run as a batch, survive a reload, and expor
   const doc = JSON.parse(strFromU8(zip['batch.json'])) as { results: { file: string; status: string; calibration: unknown; summary?: { topPeriods: unknown[] } }[]; pooled: { files: { total: number; ok: number; failed: number } } };
   expect(doc.results.map((r) => r.file).sort()).toEqual([...DEMOS, CORRUPT].sort());
   expect(doc.pooled.files).toEqual({ total: 5, ok: 3, failed: 2 });
-  // Two strongest periods (the amorphous film has none, demo-data/index.json): too few for a
-  // histogram, a mean or an sd (common practice: at least 3), so the summary lists them instead.
+  // One strongest period (the fringes image's; the amorphous film has none, demo-data/index.json):
+  // too few for a histogram, a mean or an sd (common practice: at least 3), so the summary lists it.
   const withPeriod = doc.results.filter((r) => r.status === 'ok' && r.calibration && r.summary?.topPeriods.length).map((r) => r.file).sort();
-  expect(withPeriod).toEqual(['tactoid-film_overview.tif', 'tactoid-fringes_hr.tif']);
+  expect(withPeriod).toEqual(['tactoid-fringes_hr.tif']);
   expect(names.filter((n) => n.startsWith('histograms/top-period'))).toEqual([]);
   const few = panel().locator('table.few-values tbody tr', { hasText: 'strongest period' });
   expect((await few.locator('td:nth-child(2)').allTextContents()).sort()).toEqual(withPeriod);
