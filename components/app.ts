@@ -382,13 +382,13 @@ export class StrataApp extends LitElement {
     this.say(`Reading ${fileName} (${formatBytes(bytes.byteLength)})…`, 'busy');
     try {
       const copy = bytes.slice();
-      const { sessionId, image, levels, histogram, limits } = await this.compute.call('openImage', { bytes: copy, fileName }, [copy.buffer]);
+      const { sessionId, image, levels, histogram, limits, thumbnail } = await this.compute.call('openImage', { bytes: copy, fileName }, [copy.buffer]);
       let record = existing ?? null;
       let notKept = '';
       if (!record && this.db) {
         try {
           const [same] = await findImagesBySha256(this.db, await sha256Hex(bytes));
-          record = same ?? (await putImage(this.db, { bytes, fileName, image, mimeType, thumbnailFrom: levels[levels.length - 1] }));
+          record = same ?? (await putImage(this.db, { bytes, fileName, image, mimeType, thumbnail }));
           this.libraryRevision++;
         } catch (e) {
           // The image is still shown; only keeping it failed (e.g. StorageFullError).

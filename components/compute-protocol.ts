@@ -11,6 +11,7 @@ import type { CameraConstant } from '../src/diffraction/electron/camera-constant
 import type { CameraSetting, PatternMeasurement } from '../src/diffraction/electron/measure';
 import type { RingAnalysis } from '../src/diffraction/electron/rings';
 import type { Calibration, GreyImage } from '../src/image/grey-image';
+import type { Thumbnail } from '../src/store/records';
 import type { DisplayLimits, GreyHistogram } from '../src/image/display';
 import type { Measurement, Region } from '../src/measure/measurement';
 import type { ProfileEstimator, ProfileLine } from '../src/measure/profile-measurement';
@@ -37,11 +38,11 @@ export interface ComputeCalls {
   /**
    * Opens an image session: decodes the file, keeps the image in the worker, and returns the
    * session's id with a copy of the image, the view pyramid, the histogram and the display limits
-   * at the given percentiles (default 0.5 and 99.5 %) for the viewer.
+   * at the given percentiles (default 0.5 and 99.5 %) for the viewer, and the library's thumbnail.
    */
   openImage: {
     args: { bytes: Uint8Array; fileName: string; lowPercent?: number; highPercent?: number };
-    result: { sessionId: string; image: GreyImage; levels: GreyImage[]; histogram: GreyHistogram; limits: DisplayLimits };
+    result: { sessionId: string; image: GreyImage; levels: GreyImage[]; histogram: GreyHistogram; limits: DisplayLimits; thumbnail: Thumbnail };
   };
   /**
    * A pyramid level of the session's image (0 = full resolution) stretched between black and

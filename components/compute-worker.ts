@@ -12,6 +12,7 @@ import { displayLimits, greyHistogram, stretchToGrey, type DisplayLimits, type G
 import * as session from '../src/measure/session';
 import type { ImageSession } from '../src/measure/session';
 import { toolOf } from '../src/measure/tools';
+import { makeThumbnail } from '../src/store/thumbnail';
 
 type Handlers = { [K in CallName]: (args: CallArgs<K>) => Promise<CallResult<K>> | CallResult<K> };
 
@@ -95,7 +96,9 @@ const handlers: Handlers = {
     pyramids.set(sessionId, [image, ...view.levels]);
     // The page gets copies for its viewer (transferred); the session keeps the originals.
     const copy = (g: GreyImage): GreyImage => ({ ...g, data: g.data.slice(), warnings: [...g.warnings] });
-    return { sessionId, image: copy(image), levels: view.levels.map(copy), histogram: view.histogram, limits: view.limits };
+    // the library's thumbnail, from the smallest level (the page only stores it)
+    const thumbnail = makeThumbnail(view.levels[view.levels.length - 1] ?? image);
+    return { sessionId, image: copy(image), levels: view.levels.map(copy), histogram: view.histogram, limits: view.limits, thumbnail };
   },
   closeImage: ({ sessionId }) => {
     pyramids.delete(sessionId);

@@ -11,7 +11,7 @@ import { upgradeMeasurement } from '../measure/record-version';
 import { openDB, type StoreNames } from 'idb';
 import type { Calibration, GreyImage } from '../image/grey-image';
 import { sha256Hex } from './bytes';
-import type { CalibrationProfile, DiffractionSet, ImageRecord, Measurement, RecipeRecord } from './records';
+import type { CalibrationProfile, DiffractionSet, ImageRecord, Measurement, RecipeRecord, Thumbnail } from './records';
 import { DB_NAME, SCHEMA_VERSION, UPGRADE_STEPS, runUpgrade, type LibraryDb, type LibrarySchema, type UpgradeStep } from './schema';
 import { makeThumbnail } from './thumbnail';
 
@@ -126,6 +126,8 @@ export interface NewImage {
   mimeType?: string;
   /** A smaller version of the image to make the thumbnail from (e.g. a pyramid level); default the image. */
   thumbnailFrom?: GreyImage;
+  /** The thumbnail itself, made elsewhere (e.g. by the app's compute worker); when given, thumbnailFrom is not used. */
+  thumbnail?: Thumbnail;
   /** Id to use (default a new random UUID). */
   id?: string;
   /** Time added (default now). */
@@ -157,7 +159,7 @@ export async function putImage(db: LibraryDb, input: NewImage): Promise<ImageRec
     bitDepth: image.bitDepth,
     sampleKind: image.sampleKind,
     calibration: image.calibration,
-    thumbnail: makeThumbnail(input.thumbnailFrom ?? image),
+    thumbnail: input.thumbnail ?? makeThumbnail(input.thumbnailFrom ?? image),
   };
   await saveInOneTransaction(db, ['images'], `the image ${record.fileName} (${formatBytes(record.byteSize)})`, async (tx) => {
     await tx.objectStore('images').put(record);

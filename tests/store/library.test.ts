@@ -121,6 +121,15 @@ describe('images', () => {
     db.close();
   });
 
+  test('putImage keeps a thumbnail made elsewhere (the app\'s compute worker) as given', async () => {
+    const db = await freshLibrary();
+    const grey = Uint8Array.from({ length: 6 }, (_, i) => 40 * i);
+    const rec = await putImage(db, { bytes: fileBytes(100), fileName: 'tactoid-02.tif', image: fringeImage(), thumbnail: { width: 3, height: 2, grey } });
+    const back = await getImage(db, rec.id);
+    expect([back!.thumbnail.width, back!.thumbnail.height, [...back!.thumbnail.grey]]).toEqual([3, 2, [0, 40, 80, 120, 160, 200]]);
+    db.close();
+  });
+
   test('listImages returns images oldest first; the same file is found by its hash', async () => {
     const db = await freshLibrary();
     const b = fileBytes(100, 7);
