@@ -41,6 +41,13 @@ export const panelLabel = 'Sheets';
 /** Below this many sheets the distributions are shown as a table, not as histograms. */
 const MIN_FOR_HISTOGRAM = 5;
 
+/** The Sheets panel's state in the image's undo history. */
+interface SheetsState {
+  sheets: SheetReport[];
+  periods: ImagePeriod[];
+  nextLineId: number;
+}
+
 const fmt = (b: UncertaintyBudget) => `${formatPlusMinus(b.value, b.expanded)}`;
 
 /**
@@ -130,6 +137,10 @@ export class StrataSheetsPanel extends LitElement {
   private shownImage: GreyImage | null = null;
   private recordId: string | null = null;
   private nextLineId = 1;
+  /** Restores from the undo history in progress (they record no step). */
+  private restoring = 0;
+  /** True once this image's review is in the undo history (a step recorded or a state restored). */
+  private inHistory = false;
   private listenedViewer: StrataViewer | null = null;
   private readonly onShapeClick = (e: Event) => {
     const d = (e as CustomEvent<ShapeClickDetail>).detail;
@@ -161,6 +172,7 @@ export class StrataSheetsPanel extends LitElement {
         this.savedAt = null;
         this.message = null;
         this.comparison = null;
+        this.inHistory = false;
         void this.restore();
       } else if (this.sheets.length) {
         // same pixels, new calibration: the px values stand; they are expressed anew and kept with it
@@ -305,6 +317,7 @@ export class StrataSheetsPanel extends LitElement {
       this.message = result.message;
       this.selectedId = null;
       const n = result.sheets.length;
+      this.step(`${n} stack${n === 1 ? '' : 's'} found`);
       this.say(n ? `${n} stack${n === 1 ? '' : 's'} found${excludedBox ? ' (scale-bar panel skipped)' : ''}: click one to review it` : 'no stacks found in this image');
       await this.save();
     } catch (e) {
@@ -342,20 +355,64 @@ export class StrataSheetsPanel extends LitElement {
     }
   }
 
+  /** The review's state for the undo history (plain JSON: the sheets, the image's periods, the line counter). */
+  workState(): SheetsState {
+    return JSON.parse(JSON.stringify({ sheets: this.sheets, periods: this.periods, nextLineId: this.nextLineId })) as SheetsState;
+  }
+
+  /** Records a step of the image's undo history (the shell keeps it with the image in the library). */
+  private step(label: string): void {
+    if (this.restoring > 0) return;
+    this.inHistory = true;
+    this.emit('history-step', { label, state: this.workState() });
+  }
+
+  /**
+   * Shows a review from the undo history again and keeps it in the library. Null (no sheets step
+   * before this point) clears the review once it is in the history; before that, the review
+   * restored from the library stands.
+   */
+  async restoreState(state: unknown): Promise<void> {
+    await this.updateComplete;
+    const st = state as SheetsState | null;
+    if (!st && !this.inHistory) return;
+    this.restoring++;
+    try {
+      this.inHistory = true;
+      this.sheets = st?.sheets ?? [];
+      this.periods = st?.periods ?? [];
+      this.nextLineId = st?.nextLineId ?? 1;
+      if (this.selectedId && !this.sheets.some((q) => q.id === this.selectedId)) this.selectedId = null;
+      this.lineResult = null;
+      this.comparison = null;
+      await this.save();
+    } finally {
+      this.restoring--;
+    }
+  }
+
+  /** "sheet 3" as the table numbers it. */
+  private sheetName(id: string): string {
+    return `sheet ${this.sheets.findIndex((q) => q.id === id) + 1}`;
+  }
+
   private addLineSheets(): void {
     const r = this.lineResult;
     if (!r) return;
     this.sheets = [...this.sheets, ...r.sheets.map((s) => sheetFromLine(s, `line-${this.nextLineId++}`))];
     this.lineResult = null;
+    this.step(r.sheets.length === 1 ? 'a sheet added along a line' : `${r.sheets.length} sheets added along a line`);
     void this.save();
   }
 
   private setStatus(id: string, status: 'accepted' | 'rejected'): void {
+    const was = this.sheets.find((q) => q.id === id)?.status;
     this.sheets = this.sheets.map((s) => {
       if (s.id !== id) return s;
       const back = s.correction ? 'corrected' : s.source === 'auto' ? 'auto' : 'manual';
       return { ...s, status: s.status === status ? back : status };
     });
+    this.step(`${this.sheetName(id)} ${was === status ? `no longer ${status}` : status}`);
     void this.save();
   }
 
@@ -369,6 +426,7 @@ export class StrataSheetsPanel extends LitElement {
     }
     if (n === s.layers) return;
     this.sheets = this.sheets.map((q) => (q.id === id ? correctSheet(q, n, new Date().toISOString()) : q));
+    this.step(`${this.sheetName(id)} count ${s.layers} → ${n}`);
     void this.save();
   }
 
@@ -378,6 +436,7 @@ export class StrataSheetsPanel extends LitElement {
       const back = correctSheet(q, q.correction.originalLayers, new Date().toISOString());
       return { ...back, status: q.source === 'auto' ? 'auto' : 'manual', correction: null };
     });
+    this.step(`${this.sheetName(id)} automatic count back`);
     void this.save();
   }
 

@@ -97,6 +97,20 @@ test('automatic sheets: every tactoid found with its count, outlines drawn, revi
   await input.dispatchEvent('change');
   await expect.poll(async () => (await panelSheets())[1].correction).toEqual({ originalLayers: before, by: 'user', atIso: expect.any(String) });
   expect((await panelSheets())[1].layers).toBe(before + 1);
+  // the review's edits are steps of the image's undo history: undo the correction, then the rejection; redo both
+  const undo = s.page.locator('strata-undo-control button.undo');
+  const redo = s.page.locator('strata-undo-control button.redo');
+  await expect.poll(() => undo.getAttribute('title')).toMatch(new RegExp(`Undo: sheet 2 count ${before} → ${before + 1}`));
+  await undo.click();
+  await expect.poll(async () => (await panelSheets())[1].layers).toBe(before);
+  expect((await panelSheets())[1].correction).toBeNull();
+  expect(await undo.getAttribute('title')).toMatch(/Undo: sheet 1 rejected/);
+  await undo.click();
+  await expect.poll(async () => (await panelSheets())[0].status).toBe('auto');
+  await redo.click();
+  await expect.poll(async () => (await panelSheets())[0].status).toBe('rejected');
+  await redo.click();
+  await expect.poll(async () => (await panelSheets())[1].layers).toBe(before + 1);
   // kept in the library: the panel says so
   await expect.poll(async () => panel().evaluate((el) => (el as unknown as { savedAt: string | null }).savedAt)).not.toBeNull();
   // the one export menu: CSV with units in the header, a row per sheet, the thickness n·d at 0.5 nm/px
@@ -144,6 +158,15 @@ test('a 25 px line across a tactoid counts its layers', async () => {
   await expect.poll(async () => panel().evaluate((el) => (el as unknown as { lineResult: { periodSource: string | null } | null }).lineResult?.periodSource ?? null)).toBe('given');
   const again = await panel().evaluate((el) => (el as unknown as { lineResult: { sheets: { layers: number }[] } }).lineResult.sheets.map((q) => q.layers));
   expect(again).toEqual([8]);
+  // add it to the sheets, then undo that: the sheet leaves the table (and the library's review) again
+  const count = (await panelSheets()).length;
+  await panel().locator('button', { hasText: 'Add to the sheets' }).click();
+  await expect.poll(async () => (await panelSheets()).length).toBe(count + 1);
+  await expect.poll(() => s.page.locator('strata-undo-control button.undo').getAttribute('title')).toMatch(/Undo: a sheet added along a line/);
+  await s.page.locator('strata-undo-control button.undo').click();
+  await expect.poll(async () => (await panelSheets()).length).toBe(count);
+  await s.page.locator('strata-undo-control button.redo').click();
+  await expect.poll(async () => (await panelSheets()).length).toBe(count + 1);
   await s.page.screenshot({ path: join(dir, 'line.png') });
   // the search and the lines went to the worker as the session's id and a line, never as pixels
   const calls = await computeCalls(s.page);
