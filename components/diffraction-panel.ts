@@ -20,9 +20,11 @@ import './plot';
 import './export-menu';
 import type { ExportFigure, ExportTable } from './export-menu';
 import { plotSvg } from '../src/figure/plot';
-import { controlStyles, panelStyles } from './styles';
+import { controlStyles, panelStyles, wideStyles } from './styles';
 
 export const panelLabel = 'Diffraction';
+/** The pattern's plot and its peaks get the main area beside the image; controls the side column. */
+export const panelWide = true;
 
 type AxisView = '2theta' | 'd' | 'q';
 
@@ -37,6 +39,7 @@ const f = (v: number | null | undefined, d = 4) => (v === null || v === undefine
 export class StrataDiffractionPanel extends LitElement {
   static override properties = {
     periods: { attribute: false },
+    wide: { type: Boolean, reflect: true },
     compute: { attribute: false },
     db: { attribute: false },
     calibrationRelUncertainty: { attribute: false },
@@ -58,6 +61,7 @@ export class StrataDiffractionPanel extends LitElement {
   static override styles = [
     controlStyles,
     panelStyles,
+    wideStyles,
     css`
       table { border-collapse: collapse; width: 100%; font-variant-numeric: tabular-nums; }
       th, td { padding: 2px 4px; text-align: right; border-bottom: 1px solid var(--line); }
@@ -70,6 +74,8 @@ export class StrataDiffractionPanel extends LitElement {
   ];
 
   periods: MicrographPeriod[] = [];
+  /** Set by the shell: the figures in the main area beside the image, the controls in a side column. */
+  wide = false;
   /** The compute worker client the shell gives every panel. */
   compute: ComputeClient | null = null;
   /** The local library, for the periods measured in stored micrographs. */
@@ -291,7 +297,7 @@ export class StrataDiffractionPanel extends LitElement {
       }
     })();
     const best = r?.candidates[0];
-    return html`<section>
+    return html`<section class="o6">
       <h3>Index spots with a structure</h3>
       <div class="row">
         <label>Phase
@@ -472,8 +478,8 @@ export class StrataDiffractionPanel extends LitElement {
     const rec = this.reconciliation();
     const valid = this.validPeriods();
     const plotData = this.plotData();
-    return html`
-      <section>
+    return html`<div class="side">
+      <section class="o1">
         <h3>Pattern</h3>
         <div class="row">
           <label>File <input type="file" accept=".xy,.txt,.dat,.csv,.asc" @change=${(e: Event) => this.onFile(e)} /></label>
@@ -498,7 +504,17 @@ export class StrataDiffractionPanel extends LitElement {
         ${this.busy ? html`<p class="muted">Fitting…</p>` : nothing}
         ${this.error ? html`<p class="error">${this.error}</p>` : nothing}
       </section>
-      <section>
+      <section class="o4">
+        <div class="row">
+          <button ?disabled=${!this.db} @click=${() => this.loadLibraryPeriods()} title="Use every calibrated period of the library (saved in the Periods panel, or from a batch) as the real-space side">Take periods from the library</button>
+          <span class="muted">${this.periods.length} micrograph period${this.periods.length === 1 ? '' : 's'}</span>
+        </div>
+      </section>
+      ${this.reconciliationSection(rec, valid)}
+      ${this.zoneSection()}
+      </div>
+      <div class="stage">
+      <section class="o2">
         <div class="row">
           ${(['2theta', 'd', 'q'] as AxisView[]).map((v) => html`<button aria-pressed=${this.axisView === v ? 'true' : 'false'} @click=${() => { this.axisView = v; }}>${v === '2theta' ? '2θ' : v}</button>`)}
           <label><input type="checkbox" .checked=${this.logY} @change=${(e: Event) => { this.logY = (e.target as HTMLInputElement).checked; }} /> log intensity</label>
@@ -509,7 +525,7 @@ export class StrataDiffractionPanel extends LitElement {
           .figure=${plotData ? ({ name: 'pattern', svg: () => plotSvg(plotData) } satisfies ExportFigure) : null} .report=${false}
           .fileName=${this.fileName ?? 'pattern'}></strata-export-menu>
       </section>
-      ${a ? html`<section>
+      ${a ? html`<section class="o3">
         <h3>Peaks (${a.peaks.length})</h3>
         <p class="muted">Wavelength ${a.radiationLabel} — from ${a.radiationSource}. d ± 2u: fit, profile shape, zero shift (${a.indexing.zeroShiftDeg !== null ? 'measured, removed' : 'allowance'}) and wavelength.</p>
         <table>
@@ -525,13 +541,13 @@ export class StrataDiffractionPanel extends LitElement {
         <p class="muted">${a.sizeMethod}</p>
         ${a.notes.map((n) => html`<p class="muted">${n}</p>`)}
       </section>` : nothing}
-      <section>
-        <div class="row">
-          <button ?disabled=${!this.db} @click=${() => this.loadLibraryPeriods()} title="Use every calibrated period of the library (saved in the Periods panel, or from a batch) as the real-space side">Take periods from the library</button>
-          <span class="muted">${this.periods.length} micrograph period${this.periods.length === 1 ? '' : 's'}</span>
-        </div>
-      </section>
-      ${rec ? html`<section>
+      </div>
+    `;
+  }
+
+  /** The micrograph periods against the diffraction lines (side column). */
+  private reconciliationSection(rec: Reconciliation | null, valid: MicrographPeriod[]): TemplateResult | typeof nothing {
+    return html`      ${rec ? html`<section class="o5">
         <h3>Micrograph periods against diffraction</h3>
         <table>
           <tr><th>period (nm)</th><th>match</th><th>d (nm)</th><th>diff</th><th>z</th></tr>
@@ -543,9 +559,7 @@ export class StrataDiffractionPanel extends LitElement {
         </table>
         ${rec.unmatchedLines.length ? html`<p class="muted">Unmatched lines: ${rec.unmatchedLines.join(', ')}</p>` : nothing}
         ${rec.calibration ? html`<p>Proposed (not applied): multiply nm per pixel by ${f(rec.calibration.factor)} ± ${f(rec.calibration.factorUnc)}. ${rec.calibration.reason}</p>` : nothing}
-      </section>` : nothing}
-      ${this.zoneSection()}
-    `;
+      </section>` : nothing}`;
   }
 }
 

@@ -28,7 +28,7 @@ import { budgetContents, formatPlusMinus, nmPerPxAlong, type UncertaintyBudget }
 import { histogram, type Summary } from '../src/measure/stats';
 import type { ComputeClient } from './compute-client';
 import type { LineDrawnDetail, OverlayShape, ShapeClickDetail, StrataViewer } from './viewer';
-import { controlStyles, panelStyles } from './styles';
+import { controlStyles, panelStyles, wideStyles } from './styles';
 import { plotStyles } from './plot-line';
 import type { PlotData } from '../src/figure/plot';
 import './plot';
@@ -37,6 +37,8 @@ import type { ExportFigure, ExportTable } from './export-menu';
 import { histogramSvg, MIN_VALUES_FOR_STATISTICS } from '../src/figure/batch-figure';
 
 export const panelLabel = 'Sheets';
+/** The line profile and the distributions get the main area beside the image; controls and the sheet table the side column. */
+export const panelWide = true;
 
 /** Below this many sheets the distributions are shown as a table, not as histograms. */
 const MIN_FOR_HISTOGRAM = 5;
@@ -59,6 +61,7 @@ const fmt = (b: UncertaintyBudget) => `${formatPlusMinus(b.value, b.expanded)}`;
 export class StrataSheetsPanel extends LitElement {
   static override properties = {
     image: { attribute: false },
+    wide: { type: Boolean, reflect: true },
     record: { attribute: false },
     db: { attribute: false },
     compute: { attribute: false },
@@ -85,6 +88,7 @@ export class StrataSheetsPanel extends LitElement {
     controlStyles,
     panelStyles,
     plotStyles,
+    wideStyles,
     css`
       table { border-collapse: collapse; width: 100%; font-variant-numeric: tabular-nums; }
       th, td { padding: 2px 4px; text-align: right; border-bottom: 1px solid var(--line); }
@@ -123,6 +127,8 @@ export class StrataSheetsPanel extends LitElement {
   periods: ImagePeriod[] = [];
   lineResult: LineSheetsResult | null = null;
   busy = false;
+  /** Set by the shell: the figures in the main area beside the image, the controls in a side column. */
+  wide = false;
   acceptedOnly = false;
   bright = false;
   /** The period typed by the user (nm when the image is calibrated, else px), or ''. */
@@ -552,8 +558,8 @@ export class StrataSheetsPanel extends LitElement {
   private renderHistogram(values: number[], title: string, integer: boolean) {
     if (values.length === 0) return nothing;
     const h = histogram(values, integer ? { integer: true, binWidth: 1 } : {});
-    const w = 150;
-    const ht = 70;
+    const w = this.wide ? 280 : 150;
+    const ht = this.wide ? 120 : 70;
     const maxC = Math.max(...h.counts);
     const bw = w / h.counts.length;
     const lo = h.edges[0];
@@ -611,7 +617,7 @@ export class StrataSheetsPanel extends LitElement {
 
   private renderComparison() {
     if (!this.db) return nothing;
-    return html`<section>
+    return html`<section class="o7">
       <h3>Against the basal X-ray reflection (Scherrer)</h3>
       ${this.xrdSets.length
         ? html`<div class="row">
@@ -636,8 +642,8 @@ export class StrataSheetsPanel extends LitElement {
     const unit = stats.unit;
     const selected = this.sheets.find((s) => s.id === this.selectedId) ?? null;
     const thick = kept.map((s) => expressSheet(s, cal).thickness.value);
-    return html`
-      <section>
+    return html`<div class="side">
+      <section class="o1">
         <h3>Layer period</h3>
         <div class="row">
           <label>period <input class="period" type="number" min="0" step="any" placeholder="found" .value=${this.periodText}
@@ -647,18 +653,17 @@ export class StrataSheetsPanel extends LitElement {
         <p class="muted">Leave empty to find the period in the image; type it when known (e.g. from the basal X-ray reflection).
           ${this.periods.length ? html`Found: ${this.periods.map((p) => `${(cal ? p.periodPx * nmPerPxAlong(cal, 'ring', 0) : p.periodPx).toFixed(3)} ${cal ? 'nm' : 'px'}`).join(', ')}.` : nothing}</p>
       </section>
-      <section>
+      <section class="o2">
         <h3>Stacks in the image</h3>
         <div class="row"><button ?disabled=${this.busy} @click=${() => void this.findSheets()}>${this.busy ? 'Working…' : 'Find sheets in the image'}</button></div>
         <p class="muted">Outlines are drawn on the image with their layer counts; click one (pan tool) to review it.</p>
       </section>
-      <section>
+      <section class="o3">
         <h3>Along a drawn line</h3>
         <p class="muted">Draw a line across a stack, along the layer normal, from background to background, to add a sheet the search missed.</p>
         <div class="row"><button ?disabled=${!this.line || this.busy} @click=${() => void this.measureLine()}>Measure the line</button></div>
-        ${this.renderProfile()}
       </section>
-      <section>
+      <section class="o5">
         <h3>Sheets (${this.sheets.length})</h3>
         ${this.sheets.length
           ? html`${selected ? this.renderDetail(selected) : nothing}
@@ -683,8 +688,12 @@ export class StrataSheetsPanel extends LitElement {
             <p class="muted">${this.db && this.record ? (this.savedAt ? `Kept in the library (${new Date(this.savedAt).toLocaleTimeString()}).` : 'Not yet kept in the library.') : 'Not kept: the image is not in the library.'}</p>`
           : html`<p class="muted">${this.message ?? 'none yet'}</p>`}
       </section>
+      ${this.renderComparison()}
+      </div>
+      <div class="stage">
+      ${this.lineResult ? html`<section class="o4">${this.renderProfile()}</section>` : nothing}
       ${stats.n
-        ? html`<section>
+        ? html`<section class="o6">
             <h3>Distribution (n = ${stats.n})</h3>
             ${stats.n < MIN_FOR_HISTOGRAM
               ? html`<table>
@@ -703,7 +712,7 @@ export class StrataSheetsPanel extends LitElement {
                 <p class="muted">Quartiles: Hyndman & Fan type 7. CI: Student t. Thickness bins: Freedman–Diaconis.</p>`}
           </section>`
         : nothing}
-      ${this.renderComparison()}
+      </div>
     `;
   }
 }

@@ -36,3 +36,19 @@ export const listPanelStyles = css`
   .actions { display: flex; gap: 6px; padding: 8px; border-bottom: 1px solid var(--line); align-items: center; }
   .actions .count { margin-left: auto; color: var(--muted); font-size: 12px; }
 `;
+
+/**
+ * The wide layout of a panel with figures (attribute `wide`, set by the shell when the panel's
+ * module exports `panelWide`): `.stage` (the figures, in the main area beside the image) and
+ * `.side` (controls and key numbers, a 340 px column), each scrolling on its own. When not wide,
+ * both wrappers dissolve and the sections stack in the order their classes `o1`…`o8` give.
+ */
+export const wideStyles = css`
+  :host([wide]) { display: grid; grid-template-columns: minmax(0, 1fr) 340px; grid-template-rows: minmax(0, 1fr);
+    padding: 0; flex: 1 1 auto; min-height: 0; overflow: hidden; }
+  :host([wide]) .stage { grid-column: 1; grid-row: 1; overflow-y: auto; min-height: 0; padding: 8px 8px 16px; overflow-anchor: none; }
+  :host([wide]) .side { grid-column: 2; grid-row: 1; overflow-y: auto; min-height: 0; padding: 4px 8px 24px 10px; border-left: 1px solid var(--line); overflow-anchor: none; }
+  :host(:not([wide])) { display: flex; flex-direction: column; }
+  :host(:not([wide])) .stage, :host(:not([wide])) .side { display: contents; }
+  .o1 { order: 1; } .o2 { order: 2; } .o3 { order: 3; } .o4 { order: 4; } .o5 { order: 5; } .o6 { order: 6; } .o7 { order: 7; } .o8 { order: 8; }
+`;

@@ -1,5 +1,6 @@
 import { afterAll, beforeAll, expect, test } from 'vitest';
-import { csvRows, downloadedText, foreignRequests, openSession, type Session } from './browser';
+import { csvRows, downloadedText, foreignRequests, openDemoImage, openSession, type Session, artefactDir } from './browser';
+import { join } from 'node:path';
 
 let s: Session;
 beforeAll(async () => { s = await openSession(); });
@@ -42,4 +43,21 @@ test('the demo pattern: the clay 00l lines indexed with their d budget, the 3.9 
   if (process.env.SCREENSHOT_DIR) await s.page.screenshot({ path: `${process.env.SCREENSHOT_DIR}/diffraction-panel.png` });
   expect(errors).toEqual([]);
   expect(foreignRequests(s.requests, s.url)).toEqual([]);
+}, 120_000);
+
+test('with an image open at 1366 × 768, the pattern plot has the main area beside the image (≥ 600 px wide, on screen), the controls the side column', async () => {
+  await s.page.setViewportSize({ width: 1366, height: 768 });
+  await s.page.goto(s.url);
+  await openDemoImage(s.page, 'Tactoid lattice fringes', 1024, 'Diffraction');
+  const xrd = s.page.locator('strata-diffraction-panel');
+  await xrd.locator('button', { hasText: 'Demo pattern' }).click();
+  const plot = xrd.locator('strata-plot');
+  await expect.poll(() => plot.count(), { timeout: 60_000 }).toBe(1);
+  const pb = (await plot.boundingBox())!;
+  expect(pb.width).toBeGreaterThanOrEqual(600);
+  expect(pb.y + pb.height).toBeLessThanOrEqual(768);
+  const demo = (await xrd.locator('button', { hasText: 'Demo pattern' }).boundingBox())!;
+  expect(demo.x).toBeGreaterThan(pb.x + pb.width);
+  expect(demo.y + demo.height).toBeLessThanOrEqual(768);
+  await s.page.screenshot({ path: join(artefactDir('diffraction'), 'wide-1366x768.png') });
 }, 120_000);

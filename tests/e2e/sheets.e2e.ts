@@ -158,6 +158,13 @@ test('a 25 px line across a tactoid counts its layers', async () => {
   await expect.poll(async () => panel().evaluate((el) => (el as unknown as { lineResult: { periodSource: string | null } | null }).lineResult?.periodSource ?? null)).toBe('given');
   const again = await panel().evaluate((el) => (el as unknown as { lineResult: { sheets: { layers: number }[] } }).lineResult.sheets.map((q) => q.layers));
   expect(again).toEqual([8]);
+  // the wide layout at 1366 × 768: the line's profile plot in the main area beside the image, ≥ 600 px wide, on screen
+  await s.page.setViewportSize({ width: 1366, height: 768 });
+  await settle();
+  const plotBox = (await panel().locator('strata-plot').boundingBox())!;
+  expect(plotBox.width).toBeGreaterThanOrEqual(600);
+  expect(plotBox.y + plotBox.height).toBeLessThanOrEqual(768);
+  expect((await panel().locator('button', { hasText: 'Measure the line' }).boundingBox())!.x).toBeGreaterThan(plotBox.x + plotBox.width);
   // add it to the sheets, then undo that: the sheet leaves the table (and the library's review) again
   const count = (await panelSheets()).length;
   await panel().locator('button', { hasText: 'Add to the sheets' }).click();
