@@ -1,14 +1,13 @@
 // The sheets panel in the browser, on the demo overview (truth in demo-data/index.json: 26
 // tactoids of 2 to 10 layers, layer period 1.25 nm at 0.5 nm/px). Automatic detection with
 // review, the statistics table, and a line drawn across one tactoid.
-import { mkdtempSync, readFileSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { afterAll, beforeAll, expect, test } from 'vitest';
-import { csvRows, downloadedText, callsWithPixelsAfterOpen, computeCalls, openSession, recordComputeCalls, type Session, nextFrames, imageToPage } from './browser';
+import { artefactDir, csvRows, downloadedText, callsWithPixelsAfterOpen, computeCalls, openSession, recordComputeCalls, type Session, nextFrames, imageToPage } from './browser';
 
 let s: Session;
-const dir = mkdtempSync(join(tmpdir(), 'strata-sheets-'));
+const dir = artefactDir('sheets');
 const errors: string[] = [];
 
 interface Tactoid { centreXPx: number; centreYPx: number; sheetDirectionDeg: number; layers: number; lengthNm: number }
