@@ -138,6 +138,7 @@ export function refineSpot(data: RefineData, spot: Spot, options: RefineSpotOpti
   const oy0 = oy;
   const er = new Float64Array(w);
   const ei = new Float64Array(w);
+  const moments = new Float64Array(12);
   for (let it = 0; it < iterations; it++) {
     // the x window is folded into the row kernel, the y window into each row's sums
     for (let i = 0; i < w; i++) {
@@ -145,49 +146,9 @@ export function refineSpot(data: RefineData, spot: Spot, options: RefineSpotOpti
       ei[i] = -wx[i] * Math.sin(ox * (i - cx));
     }
     // Y = Σ_y e_y R0, Y_x = −i Σ e_y R1, Y_xx = −Σ e_y R2, Y_y = −i Σ y e_y R0, Y_yy = −Σ y² e_y R0, Y_xy = −Σ y e_y R1.
-    let yr = 0, yi = 0, xr = 0, xi = 0, xxr = 0, xxi = 0, gyr = 0, gyi = 0, yyr = 0, yyi = 0, xyr = 0, xyi = 0;
-    for (let j = 0; j < h; j++) {
-      const wj = wy[j];
-      if (wj === 0) continue;
-      let r0r = 0, r0i = 0, r1r = 0, r1i = 0, r2r = 0, r2i = 0;
-      const o = (y0 + j) * strideX + x0;
-      const wo = j * w;
-      const base = mean + slopeY * (j - cyp);
-      for (let i = 0; i < w; i++) {
-        const d = weights ? (pixels[o + i] - base - planeX[i]) * weights[wo + i] : pixels[o + i] - base - planeX[i];
-        const ar = d * er[i];
-        const ai = d * ei[i];
-        const t = i - cx;
-        r0r += ar;
-        r0i += ai;
-        r1r += t * ar;
-        r1i += t * ai;
-        r2r += t * t * ar;
-        r2i += t * t * ai;
-      }
-      const s = j - cy;
-      // the row's phase e^(−i ω_y s) times its window weight
-      const c = wj * Math.cos(oy * s);
-      const sn = -wj * Math.sin(oy * s);
-      const a0r = r0r * c - r0i * sn;
-      const a0i = r0r * sn + r0i * c;
-      const a1r = r1r * c - r1i * sn;
-      const a1i = r1r * sn + r1i * c;
-      const a2r = r2r * c - r2i * sn;
-      const a2i = r2r * sn + r2i * c;
-      yr += a0r;
-      yi += a0i;
-      xr += a1i; // −i·(a + ib) = b − ia
-      xi += -a1r;
-      xxr += -a2r;
-      xxi += -a2i;
-      gyr += s * a0i;
-      gyi += -s * a0r;
-      yyr += -s * s * a0r;
-      yyi += -s * s * a0i;
-      xyr += -s * a1r;
-      xyi += -s * a1i;
-    }
+    periodogramMoments(pixels, strideX, x0, y0, w, h, mean, slopeY, planeX, weights ?? null, er, ei, wy, oy, moments);
+    const yr = moments[0], yi = moments[1], xr = moments[2], xi = moments[3], xxr = moments[4], xxi = moments[5];
+    const gyr = moments[6], gyi = moments[7], yyr = moments[8], yyi = moments[9], xyr = moments[10], xyi = moments[11];
     // J = |Y|²; ∂J = 2 Re(Y* ∂Y); ∂²J = 2 Re(∂aY* ∂bY + Y* ∂a∂bY).
     const re = (ar: number, ai: number, br: number, bi: number) => ar * br + ai * bi; // Re(a* b)
     const gx = 2 * re(yr, yi, xr, xi);
@@ -220,4 +181,85 @@ export function refineSpot(data: RefineData, spot: Spot, options: RefineSpotOpti
     angleDeg: frequencyAngleDeg(fx, fy),
     uAngleDeg: ((sTan / f) * 180) / Math.PI,
   };
+}
+
+/**
+ * The windowed periodogram's value and its first and second derivatives at (ωx, ωy) as complex
+ * moments, summed row by row: the inner loop of refineSpot, kept in a function of typed arrays and
+ * numbers only, so that the engine compiles it once for every call (the options and spots around
+ * it vary in shape) and its running sums never become heap objects.
+ *
+ * Parameters: the area's pixels (row length strideX, top-left x0, y0, size w × h), the mean and
+ * y slope removed per row and the x plane per column, optional per-pixel weights (w · h), the
+ * row kernel er + i·ei (x window and phase folded in), the y window wy and frequency oy; out gets
+ * Y, Y_x, Y_xx, Y_y, Y_yy, Y_xy as (re, im) pairs, 12 numbers.
+ * Reference: Rife & Boorstyn (1974), as refineSpot.
+ */
+function periodogramMoments(
+  pixels: Float32Array, strideX: number, x0: number, y0: number, w: number, h: number, mean: number, slopeY: number,
+  planeX: Float64Array, weights: Float32Array | null, er: Float64Array, ei: Float64Array, wy: Float64Array, oy: number, out: Float64Array,
+): void {
+  const cx = (w - 1) / 2;
+  const cy = (h - 1) / 2;
+  const cyp = cy;
+  let yr = 0, yi = 0, xr = 0, xi = 0, xxr = 0, xxi = 0, gyr = 0, gyi = 0, yyr = 0, yyi = 0, xyr = 0, xyi = 0;
+  for (let j = 0; j < h; j++) {
+    const wj = wy[j];
+    if (wj === 0) continue;
+    let r0r = 0, r0i = 0, r1r = 0, r1i = 0, r2r = 0, r2i = 0;
+    const o = (y0 + j) * strideX + x0;
+    const wo = j * w;
+    const base = mean + slopeY * (j - cyp);
+    if (weights) {
+      for (let i = 0; i < w; i++) {
+        const d = (pixels[o + i] - base - planeX[i]) * weights[wo + i];
+        const ar = d * er[i];
+        const ai = d * ei[i];
+        const t = i - cx;
+        r0r += ar;
+        r0i += ai;
+        r1r += t * ar;
+        r1i += t * ai;
+        r2r += t * t * ar;
+        r2i += t * t * ai;
+      }
+    } else {
+      for (let i = 0; i < w; i++) {
+        const d = pixels[o + i] - base - planeX[i];
+        const ar = d * er[i];
+        const ai = d * ei[i];
+        const t = i - cx;
+        r0r += ar;
+        r0i += ai;
+        r1r += t * ar;
+        r1i += t * ai;
+        r2r += t * t * ar;
+        r2i += t * t * ai;
+      }
+    }
+    const s = j - cy;
+    // the row's phase e^(−i ω_y s) times its window weight
+    const c = wj * Math.cos(oy * s);
+    const sn = -wj * Math.sin(oy * s);
+    const a0r = r0r * c - r0i * sn;
+    const a0i = r0r * sn + r0i * c;
+    const a1r = r1r * c - r1i * sn;
+    const a1i = r1r * sn + r1i * c;
+    const a2r = r2r * c - r2i * sn;
+    const a2i = r2r * sn + r2i * c;
+    yr += a0r;
+    yi += a0i;
+    xr += a1i; // −i·(a + ib) = b − ia
+    xi += -a1r;
+    xxr += -a2r;
+    xxi += -a2i;
+    gyr += s * a0i;
+    gyi += -s * a0r;
+    yyr += -s * s * a0r;
+    yyi += -s * s * a0i;
+    xyr += -s * a1r;
+    xyi += -s * a1i;
+  }
+  out[0] = yr; out[1] = yi; out[2] = xr; out[3] = xi; out[4] = xxr; out[5] = xxi;
+  out[6] = gyr; out[7] = gyi; out[8] = yyr; out[9] = yyi; out[10] = xyr; out[11] = xyi;
 }
