@@ -11,13 +11,30 @@
  * element). One workspace serves one sequence of work, never two at once.
  */
 
-/** The purposes a workspace lends buffers for (one buffer each). */
-export type WorkspacePurpose = 'file-bytes' | 'decode-raw' | 'decode-grey' | 'spectrum-power';
+/**
+ * The purposes a workspace lends buffers for (one buffer each). Besides the file, pixel and
+ * spectrum buffers, the analysis of a region borrows scratch arrays that live only inside one call:
+ * the complex spectrum of the spots' budgets, the ring index and log-powers of the radial
+ * background, the per-pixel support weights of a spot's refit.
+ */
+export type WorkspacePurpose =
+  | 'file-bytes'
+  | 'decode-raw'
+  | 'decode-grey'
+  | 'spectrum-power'
+  | 'spectrum-complex'
+  | 'radial-rings'
+  | 'radial-logs'
+  | 'spot-weights';
 
 /** Buffers lent by purpose; see the module notes for the contract. */
 export interface Workspace {
   /** A Float32Array of exactly `length` elements for `purpose`. */
   float32(purpose: WorkspacePurpose, length: number): Float32Array;
+  /** A Float64Array of exactly `length` elements for `purpose`. */
+  float64(purpose: WorkspacePurpose, length: number): Float64Array;
+  /** An Int32Array of exactly `length` elements for `purpose`. */
+  int32(purpose: WorkspacePurpose, length: number): Int32Array;
   /** A Uint8Array of exactly `length` bytes for `purpose`; its byteOffset is 0. */
   bytes(purpose: WorkspacePurpose, length: number): Uint8Array;
   /** Bytes held now, over all purposes. */
@@ -46,6 +63,8 @@ export function createWorkspace(): Workspace {
   };
   return {
     float32: (purpose, length) => new Float32Array(take(purpose, length * 4), 0, length),
+    float64: (purpose, length) => new Float64Array(take(purpose, length * 8), 0, length),
+    int32: (purpose, length) => new Int32Array(take(purpose, length * 4), 0, length),
     bytes: (purpose, length) => new Uint8Array(take(purpose, length), 0, length),
     heldBytes: () => [...buffers.values()].reduce((s, b) => s + b.byteLength, 0),
   };

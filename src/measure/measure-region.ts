@@ -159,7 +159,7 @@ export async function analyseRegion(
   }
   if (refineCount > 0 && search.spots.length > 0) {
     const data = refineData(image, refineArea);
-    const spec = await complexSpectrum(image, refineArea);
+    const spec = await complexSpectrum(image, refineArea, 0.3, options.workspace);
     const done: BudgetedSpot[] = [];
     const rest: Spot[] = [];
     for (const [i, s] of search.spots.entries()) {
@@ -167,7 +167,7 @@ export async function analyseRegion(
         rest.push(s);
         continue;
       }
-      const b = await budgetSpot(image, data, spec, s);
+      const b = await budgetSpot(image, data, spec, s, { workspace: options.workspace });
       refined++;
       if (b.onSupport) onSupport++;
       budgetNotes.push(...b.notes);

@@ -220,7 +220,8 @@ function squaredFrequencies(n: number): Float64Array {
  * Background power as a function of spatial frequency, robust to spots and to rings of spots.
  *
  * Parameters: a power spectrum; smoothRings, rings either side of the running median across
- * rings (default 6).
+ * rings (default 6); workspace, to borrow the ring index and log-power scratch arrays from (their
+ * contents on arrival do not matter; default fresh arrays).
  * Returns: background per ring (ring of a bin: round(|f| · max(width, height))).
  * Notes: for a featureless (Gaussian-noise-like) region every bin's power is exponentially
  * distributed about the local mean B. Within a ring, the mean of ln P over the lowest 70 % of its
@@ -233,7 +234,7 @@ function squaredFrequencies(n: number): Float64Array {
  * power of a real image is point-symmetric.
  * Reference: trimmed means of the exponential distribution (common practice); running median, Tukey, Exploratory Data Analysis (1977).
  */
-export function radialBackground(spectrum: PowerSpectrum, smoothRings = 6): RadialBackground {
+export function radialBackground(spectrum: PowerSpectrum, smoothRings = 6, workspace?: Workspace): RadialBackground {
   const { width: w, height: h, power } = spectrum;
   if (!(Number.isInteger(smoothRings) && smoothRings >= 0)) throw new RangeError(`smoothRings must be a non-negative integer, got ${smoothRings}`);
   const nMax = Math.max(w, h);
@@ -241,7 +242,8 @@ export function radialBackground(spectrum: PowerSpectrum, smoothRings = 6): Radi
   const count = new Int32Array(rings);
   const fx2 = squaredFrequencies(w);
   const fy2 = squaredFrequencies(h);
-  const ringOf = new Int32Array(((h >> 1) + 1) * w);
+  // every element of ringOf and logs is written before it is read, so borrowed arrays serve alike
+  const ringOf = workspace ? workspace.int32('radial-rings', ((h >> 1) + 1) * w) : new Int32Array(((h >> 1) + 1) * w);
   for (let v = 0; v <= h >> 1; v++) {
     for (let u = 0; u < w; u++) {
       const r = (Math.sqrt(fx2[u] + fy2[v]) * nMax + 0.5) | 0;
@@ -251,7 +253,7 @@ export function radialBackground(spectrum: PowerSpectrum, smoothRings = 6): Radi
   }
   const start = new Int32Array(rings + 1);
   for (let r = 0; r < rings; r++) start[r + 1] = start[r] + count[r];
-  const logs = new Float64Array(start[rings]);
+  const logs = workspace ? workspace.float64('radial-logs', start[rings]) : new Float64Array(start[rings]);
   const fill = start.slice(0, rings);
   for (let k = 0; k < ringOf.length; k++) {
     const p = power[k];
@@ -336,6 +338,11 @@ export interface SpotOptions {
   maxPeriodPx?: number;
   /** At most this many spots, strongest first (default 12). */
   maxSpots?: number;
+  /**
+   * Borrow the radial background's scratch arrays from this workspace (see createWorkspace)
+   * instead of allocating them per search; the results do not depend on it. Default: fresh arrays.
+   */
+  workspace?: Workspace;
 }
 
 /**
@@ -428,7 +435,7 @@ export function findSpots(spectrum: PowerSpectrum, options: SpotOptions = {}): S
   if (!(Number.isInteger(maxSpots) && maxSpots >= 1)) throw new RangeError(`maxSpots must be a positive integer, got ${maxSpots}`);
   const fMin = 1 / maxP;
   const fMax = minP > 0 ? 1 / minP : Infinity;
-  const bg = radialBackground(spectrum);
+  const bg = radialBackground(spectrum, 6, options.workspace);
   const B = bg.background;
   const nMax = Math.max(w, h);
   const fx2 = squaredFrequencies(w);

@@ -3,6 +3,7 @@
  * where its fringes are, with the scatter of its local periods over sub-regions.
  */
 import type { GreyImage } from '../image/grey-image';
+import type { Workspace } from '../image/workspace';
 import { localSpread } from './pool';
 import { refineData, type RefineData, refineSpot } from './refine';
 import type { RectPx, Spot } from './spectrum';
@@ -24,6 +25,11 @@ export interface SpotBudgetOptions {
   supportCoverage?: number;
   /** Significance level of the local-variation test over sub-regions (default 0.01). */
   spreadLevel?: number;
+  /**
+   * Borrow the per-pixel support weights from this workspace's 'spot-weights' buffer instead of
+   * allocating them per spot (see createWorkspace); the results do not depend on it. Default: fresh arrays.
+   */
+  workspace?: Workspace;
 }
 
 /** A spot with its budget and where it lives. */
@@ -97,7 +103,7 @@ export async function budgetSpot(image: GreyImage, data: RefineData, spec: Compl
   // fringes (low dose) are fitted over the whole region, as a noisy mask would cost more than it saves.
   const supportKnown = support.peakAmplitude > SUPPORT_MIN_SNR * field.noiseAmplitude;
   if (supportKnown && support.coverage > 0 && support.coverage < coverMax) {
-    const w = pixelWeights(support.weights, field.gridSize, area.width, area.height);
+    const w = pixelWeights(support.weights, field.gridSize, area.width, area.height, options.workspace?.float32('spot-weights', area.width * area.height));
     const r1 = refineSpot(data, r0, { weights: w, maxShiftBins: 4 });
     if (r1) {
       best = r1;
@@ -129,7 +135,8 @@ export async function budgetSpot(image: GreyImage, data: RefineData, spec: Compl
     const periods = supportExtentAlongPx(weightsGrid, field, best.fx, best.fy) / best.periodPx;
     if (periods > 0 && periods < FEW_PERIODS) fewPeriodsPx = best.periodPx / (2 * periods * periods);
     const w2grid = weightsGrid.map((v) => v * v);
-    const w2 = pixelWeights(w2grid, field.gridSize, area.width, area.height);
+    // the first weights (w) are no longer used: the second may take the same borrowed buffer
+    const w2 = pixelWeights(w2grid, field.gridSize, area.width, area.height, options.workspace?.float32('spot-weights', area.width * area.height));
     const r2 = refineSpot(data, best, { weights: w2, maxShiftBins: 2 });
     if (r2) {
       const s2 = weightedFrequencyStd(field, w2grid, data.windowX, data.windowY);
@@ -268,6 +275,8 @@ async function blockPeak(image: GreyImage, block: RectPx, spot: Spot): Promise<S
   const { width: w, height: h, power } = ps;
   const f0 = Math.hypot(spot.fx, spot.fy);
   const a0 = Math.atan2(spot.fy, spot.fx);
+  const ringIn2 = (0.85 * f0) ** 2 * (1 - 1e-9);
+  const ringOut2 = (1.15 * f0) ** 2 * (1 + 1e-9);
   let best = -1;
   let bu = 0;
   let bv = 0;
@@ -276,6 +285,10 @@ async function blockPeak(image: GreyImage, block: RectPx, spot: Spot): Promise<S
     const fy = (v < h / 2 ? v : v - h) / h;
     for (let u = 0; u < w; u++) {
       const fx = (u < w / 2 ? u : u - w) / w;
+      // a cheap test on |f|² first (with a margin far above rounding), so that only bins near the
+      // ring pay for the exact test below, which decides as before
+      const f2 = fx * fx + fy * fy;
+      if (f2 < ringIn2 || f2 > ringOut2) continue;
       const f = Math.hypot(fx, fy);
       if (f < 0.85 * f0 || f > 1.15 * f0) continue;
       let da = Math.atan2(fy, fx) - a0;

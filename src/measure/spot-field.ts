@@ -5,6 +5,7 @@
  */
 import type { GreyImage } from '../image/grey-image';
 import { realDft2d } from '../image/fft';
+import type { Workspace } from '../image/workspace';
 import { fftRadix2 } from './period-profile';
 import type { RectPx } from './spectrum';
 import { windowSamples } from './window';
@@ -26,11 +27,13 @@ export interface ComplexSpectrum {
 /**
  * Complex DFT of an area after removing its mean and applying a separable Tukey window.
  *
- * Parameters: image; area (inside the image, any size ≥ 16 × 16); tukeyAlpha (default 0.3).
+ * Parameters: image; area (inside the image, any size ≥ 16 × 16); tukeyAlpha (default 0.3);
+ * workspace, to hold the spectrum in its 'spectrum-complex' buffer (valid until the next complex
+ * spectrum taken with that workspace; default a fresh array).
  * Returns: the complex spectrum in DFT order.
  * Reference: periodogram with data window, Harris, Proc. IEEE 66(1), 51–83 (1978).
  */
-export async function complexSpectrum(image: GreyImage, area: RectPx, tukeyAlpha = 0.3): Promise<ComplexSpectrum> {
+export async function complexSpectrum(image: GreyImage, area: RectPx, tukeyAlpha = 0.3, workspace?: Workspace): Promise<ComplexSpectrum> {
   const { x, y, width: w, height: h } = area;
   if (x < 0 || y < 0 || x + w > image.width || y + h > image.height || w < 16 || h < 16) {
     throw new RangeError(`area x ${x}, y ${y}, ${w} × ${h} must lie inside the ${image.width} × ${image.height} image and be at least 16 × 16`);
@@ -44,7 +47,8 @@ export async function complexSpectrum(image: GreyImage, area: RectPx, tukeyAlpha
     for (let i = 0; i < w; i++) sum += d[o + i];
   }
   const mean = sum / (w * h);
-  const data = new Float32Array(2 * w * h);
+  // the transform writes every element of its output, so a borrowed array serves as a fresh one
+  const data = workspace ? workspace.float32('spectrum-complex', 2 * w * h) : new Float32Array(2 * w * h);
   await realDft2d(
     w,
     h,
@@ -192,7 +196,16 @@ export function spotField(spec: ComplexSpectrum, fx: number, fy: number, options
   ring.sort((a, b) => a - b);
   const medianPower = ring.length ? ring[ring.length >> 1] : 0;
   let sw2 = 0;
-  for (const a of spec.windowX) for (const b of spec.windowY) sw2 += a * a * b * b;
+  const winX = spec.windowX;
+  const winY = spec.windowY;
+  // indexed loops (not for…of): the same sums in the same order, without an iterator per element
+  for (let i = 0; i < winX.length; i++) {
+    const a = winX[i];
+    for (let j = 0; j < winY.length; j++) {
+      const b = winY[j];
+      sw2 += a * a * b * b;
+    }
+  }
   const noiseVariance = sw2 > 0 ? medianPower / Math.LN2 / sw2 : 0;
   // |B| noise: var(B) = (1/(WH))² Σ G² E|X|², amplitude units ×2 (a = 2|B|)
   const noiseAmplitude = 2 * Math.sqrt(gSum2 * (medianPower / Math.LN2)) * scale;
@@ -307,11 +320,12 @@ export function spotSupport(field: SpotField): SpotSupport {
 /**
  * Weights per image pixel of an area from a grid of weights over it (bilinear).
  *
- * Parameters: grid weights (n × n) over an area of width × height px.
- * Returns: Float32Array of width · height weights.
+ * Parameters: grid weights (n × n) over an area of width × height px; out, an array of
+ * width · height values to write them into (every element is written; default a fresh array).
+ * Returns: Float32Array of width · height weights (`out` when given).
  */
-export function pixelWeights(grid: Float64Array, n: number, width: number, height: number): Float32Array {
-  const out = new Float32Array(width * height);
+export function pixelWeights(grid: Float64Array, n: number, width: number, height: number, out: Float32Array = new Float32Array(width * height)): Float32Array {
+  if (out.length !== width * height) throw new RangeError(`out must hold ${width} × ${height} = ${width * height} weights, got ${out.length}`);
   const cw = width / n;
   const ch = height / n;
   for (let y = 0; y < height; y++) {
