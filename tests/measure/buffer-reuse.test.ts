@@ -39,7 +39,7 @@ function tactoid(size: number, seed: number, bend = 0): GreyImage {
     const ph = 2 * Math.PI * (fx * x + fy * y) + (bend * (x - cx) ** 2) / size;
     data[y * size + x] = 28000 + 6000 * env * Math.cos(ph) + (r() + r() + r() - 1.5) * 5000;
   }
-  return makeGreyImage(size, size, data, 16);
+  return makeGreyImage(size, size, data, { bitDepth: 16 });
 }
 
 /** The record without what differs from run to run by design (its id and time). */
