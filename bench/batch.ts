@@ -6,7 +6,7 @@
  *   npm run bench:batch                 50 files
  *   npm run bench:batch -- --files 10   fewer files
  *   npm run bench:batch -- --size 1024  smaller images
- *   npm run bench:batch -- --repeat 3   runs per worker count (alternating; the best counts)
+ *   npm run bench:batch -- --repeat 5   rounds of one run per worker count (1, 2, 1, 2 …; medians count)
  *
  * The files are written to a temporary folder and deleted afterwards.
  */
@@ -22,7 +22,7 @@ import { integerOption } from '../testing/bench-options';
 
 const files = integerOption('files', 50);
 const size = integerOption('size', 2048);
-const repeats = integerOption('repeat', 2);
+const repeats = integerOption('repeat', 3);
 const NM_PER_PX = 0.05;
 
 
@@ -71,12 +71,14 @@ async function main(): Promise<void> {
     });
     console.log(`batch benchmark: ${files} files of ${size} × ${size} px, 16-bit TIFF (${((size * size * 2) / 2 ** 20).toFixed(0)} MiB each), generated in ${genS.toFixed(1)} s; ${availableParallelism()} cores`);
     console.log('recipe: metadata calibration, whole image, spectrum top 3, period range 0.5–3 nm; no figures\n');
-    // Timed runs alternate 1, 2, 1, 2 … workers; the best rate of each counts, so that other work
-    // on a shared machine disturbs the comparison less. Retained memory needs a forced full
+    // Timed runs alternate 1, 2, 1, 2 … workers; medians of the rounds count, and each round's own
+    // ratio (two runs minutes apart at most) is shown too, so that other work on a shared machine
+    // disturbs the comparison less. Retained memory needs a forced full
     // collection in each worker, which would itself cost time, so it is measured in one extra,
     // untimed run per worker count.
     interface Best { rate: number; cpuPerImage: number; out: Awaited<ReturnType<typeof runBatch>> }
     const best = new Map<number, Best>();
+    const load0 = loadavg();
     const allRates = new Map<number, number[]>();
     const cpuAll = new Map<number, number[]>();
     for (let rep = 0; rep < repeats; rep++) {
@@ -100,6 +102,19 @@ async function main(): Promise<void> {
     for (const jobs of [1, 2]) {
       memory.set(jobs, await runBatch({ folder: dir, recipe, outCsv: join(dir, `out-${jobs}-memory`, 'results.csv'), jobs, measureRetained: true }, { out: () => {}, err: () => {} }));
     }
+    const median = (xs: number[]) => {
+      const s = [...xs].sort((a, b) => a - b);
+      return s.length % 2 ? s[s.length >> 1] : (s[s.length / 2 - 1] + s[s.length / 2]) / 2;
+    };
+    const roundRatios = allRates.get(2)!.map((r, i) => r / allRates.get(1)![i]);
+    console.log(`| workers | rounds | images/s, median | speed-up of the medians | speed-up in each round (2 workers / 1 worker, same round) | median of the rounds' speed-ups | CPU s per image, median |`);
+    console.log('|---:|---:|---:|---:|---:|---:|---:|');
+    for (const jobs of [1, 2]) {
+      const m = median(allRates.get(jobs)!);
+      const m1 = median(allRates.get(1)!);
+      console.log(`| ${jobs} | ${repeats} | ${m.toFixed(2)} | ${(m / m1).toFixed(2)}× | ${jobs === 2 ? roundRatios.map((r) => r.toFixed(2)).join(', ') : ''} | ${jobs === 2 ? `${median(roundRatios).toFixed(2)}×` : ''} | ${median(cpuAll.get(jobs)!).toFixed(2)} |`);
+    }
+    console.log('');
     const base = best.get(1)!.rate;
     const withStartup = (jobs: number) => best.get(jobs)!.out.processed / best.get(jobs)!.out.seconds;
     console.log('| workers | files | ok | with a period | wall s (best run) | start-up s | images/s, each run | images/s, best | speed-up (best) | images/s with start-up (best run) | speed-up with start-up | CPU s per image, each run | peak MiB per worker | retained MiB after 3rd file → after last | files per worker |');
@@ -114,7 +129,7 @@ async function main(): Promise<void> {
         `| ${jobs} | ${out.processed} | ${ok} | ${found} | ${out.seconds.toFixed(1)} | ${out.startupSeconds.toFixed(1)} | ${allRates.get(jobs)!.map((r) => r.toFixed(2)).join(', ')} | ${rate.toFixed(2)} | ${(rate / base).toFixed(2)}× | ${withStartup(jobs).toFixed(2)} | ${(withStartup(jobs) / withStartup(1)).toFixed(2)}× | ${cpuAll.get(jobs)!.map((c) => c.toFixed(2)).join(', ')} | ${mem.workerPeakBytes.map(mib).join(' / ')} | ${retained} | ${out.workerFiles.join(' / ')} |`,
       );
     }
-    console.log(`\nload average at the end: ${loadavg().map((l) => l.toFixed(1)).join(' ')} (other processes on the machine lower the speed-up)`);
+    console.log(`\nload average (1, 5, 15 min) at the start: ${load0.map((l) => l.toFixed(1)).join(' ')}; at the end: ${loadavg().map((l) => l.toFixed(1)).join(' ')} (other processes on the machine lower the speed-up; re-measure on an idle machine)`);
     console.log('images/s: files over the wall time after the last worker was ready (thread started, its modules and the transform engine loaded); with start-up: over the whole wall time. Each worker reuses its file, pixel and spectrum buffers from file to file, so the garbage collector has little to do.');
     console.log('CPU s per image: user + system time of the whole process (all worker threads, start-up included) per image; equal for 1 and 2 workers means the work parallelises without overhead, so on an otherwise idle 2-core machine the speed-up approaches 2×.');
     console.log('Peak and retained memory come from one further run per worker count. Peak: V8 heap total + external (incl. the WebAssembly memory of the transform engine) of each worker isolate, sampled after every file.');
