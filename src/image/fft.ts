@@ -1,7 +1,7 @@
 /**
  * The two-dimensional discrete Fourier transform of a real image region, as the spectrum tools
  * use it: a power spectrum or the complex spectrum in DFT order (the layout of a full complex
- * transform, index v · width + u).
+ * transform, index v · width + u), or only its half u ≤ width/2 (the rest is its mirror).
  *
  * The one-dimensional transforms run in PFFFT compiled to WebAssembly with SIMD (about 40 KB,
  * compiled in milliseconds; the plain build where the engine has no SIMD) for lengths
@@ -13,8 +13,12 @@
 import type { PffftModule } from './pffft';
 import { loadPffft } from './pffft';
 
-/** What the 2D transform writes: |X|² (width · height values) or X (interleaved re, im, 2 · width · height values). */
-export type Dft2dOutput = { kind: 'power'; out: Float32Array } | { kind: 'complex'; out: Float32Array };
+/**
+ * What the 2D transform writes: |X|² (width · height values), X (interleaved re, im, 2 · width ·
+ * height values), or the half of X with u = 0 … ⌊width/2⌋ ('half-complex': interleaved, 2 · (⌊width/2⌋ + 1)
+ * · height values, index 2 · (v · (⌊width/2⌋ + 1) + u); the other half is X(u, v) = X(width − u, (height − v) mod height)*).
+ */
+export type Dft2dOutput = { kind: 'power'; out: Float32Array } | { kind: 'complex'; out: Float32Array } | { kind: 'half-complex'; out: Float32Array };
 
 /** A one-dimensional transform plan: a PFFFT set-up (pointer) or the JavaScript fallback. */
 interface Plan1d {
@@ -80,7 +84,7 @@ function plan(m: PffftModule, n: number, kind: 'real' | 'complex'): Plan1d {
 export async function realDft2d(width: number, height: number, fill: (input: Float32Array, rowStride: number) => void, output: Dft2dOutput): Promise<void> {
   if (!(Number.isInteger(width) && width >= 1)) throw new RangeError(`width must be a positive integer, got ${width}`);
   if (!(Number.isInteger(height) && height >= 1)) throw new RangeError(`height must be a positive integer, got ${height}`);
-  const need = output.kind === 'power' ? width * height : 2 * width * height;
+  const need = output.kind === 'power' ? width * height : output.kind === 'complex' ? 2 * width * height : 2 * ((width >> 1) + 1) * height;
   if (!(output.out instanceof Float32Array) || output.out.length !== need) {
     throw new RangeError(`output.out must be a Float32Array of ${need} values for a ${width} × ${height} ${output.kind} spectrum, got ${output.out?.length}`);
   }
@@ -179,7 +183,15 @@ export async function realDft2d(width: number, height: number, fill: (input: Flo
       // columns u0 + b with b in [m0, m1) have their mirror w − u in the other half (0 < u ≤ w − nc)
       const m0 = u0 === 0 ? 1 : 0;
       const m1 = Math.max(m0, Math.min(nb, w - nc - u0 + 1));
-      if (power) {
+      if (output.kind === 'half-complex') {
+        for (let v = 0; v < h; v++) {
+          const row = 2 * (v * nc + u0);
+          for (let b = 0, d = 2 * v; b < nb; b++, d += 2 * h) {
+            out[row + 2 * b] = col[d];
+            out[row + 2 * b + 1] = col[d + 1];
+          }
+        }
+      } else if (power) {
         for (let v = 0; v < h; v++) {
           const row = v * w + u0;
           const mirror = ((h - v) % h) * w + w - u0;

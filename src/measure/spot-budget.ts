@@ -98,12 +98,15 @@ export async function budgetSpot(image: GreyImage, data: RefineData, spec: Compl
   let best = r0;
   let onSupport = false;
   let weightsGrid: Float64Array | null = null;
+  // the per-pixel support weights of the first refit; the second refit (below) writes its own into the same array
+  let weightsPx: Float32Array | null = null;
   let unsettledPx = 0;
   // A support is only known where the fringes stand well above the noise cell by cell; faint
   // fringes (low dose) are fitted over the whole region, as a noisy mask would cost more than it saves.
   const supportKnown = support.peakAmplitude > SUPPORT_MIN_SNR * field.noiseAmplitude;
   if (supportKnown && support.coverage > 0 && support.coverage < coverMax) {
     const w = pixelWeights(support.weights, field.gridSize, area.width, area.height, options.workspace?.float32('spot-weights', area.width * area.height));
+    weightsPx = w;
     const r1 = refineSpot(data, r0, { weights: w, maxShiftBins: 4 });
     if (r1) {
       best = r1;
@@ -135,8 +138,8 @@ export async function budgetSpot(image: GreyImage, data: RefineData, spec: Compl
     const periods = supportExtentAlongPx(weightsGrid, field, best.fx, best.fy) / best.periodPx;
     if (periods > 0 && periods < FEW_PERIODS) fewPeriodsPx = best.periodPx / (2 * periods * periods);
     const w2grid = weightsGrid.map((v) => v * v);
-    // the first weights (w) are no longer used: the second may take the same borrowed buffer
-    const w2 = pixelWeights(w2grid, field.gridSize, area.width, area.height, options.workspace?.float32('spot-weights', area.width * area.height));
+    // the first weights are no longer used: the second take their array (pixelWeights writes every element)
+    const w2 = pixelWeights(w2grid, field.gridSize, area.width, area.height, weightsPx ?? undefined);
     const r2 = refineSpot(data, best, { weights: w2, maxShiftBins: 2 });
     if (r2) {
       const s2 = weightedFrequencyStd(field, w2grid, data.windowX, data.windowY);

@@ -13,11 +13,15 @@ import { windowSamples } from './window';
 /** Below this window value (the region's tapered edges) a cell's amplitude is not estimated. */
 export const MIN_WINDOW = 0.5;
 
-/** The complex DFT of a lightly tapered region (DFT order, interleaved re, im). */
+/** The complex DFT of a lightly tapered region (DFT order, interleaved re, im), its half u ≤ width/2 kept. */
 export interface ComplexSpectrum {
   /** The area transformed (image pixels). */
   area: RectPx;
-  /** Interleaved re, im; index 2·(v·width + u). */
+  /**
+   * Interleaved re, im of the bins u = 0 … ⌊width/2⌋: index 2·(v·(⌊width/2⌋ + 1) + u). The other
+   * bins are the mirrors, X(u, v) = X(width − u, (height − v) mod height)* (a real region's
+   * spectrum): read any bin with {@link spectrumBinIndex}.
+   */
   data: Float32Array;
   /** The windows applied along x and y. */
   windowX: Float64Array;
@@ -30,7 +34,8 @@ export interface ComplexSpectrum {
  * Parameters: image; area (inside the image, any size ≥ 16 × 16); tukeyAlpha (default 0.3);
  * workspace, to hold the spectrum in its 'spectrum-complex' buffer (valid until the next complex
  * spectrum taken with that workspace; default a fresh array).
- * Returns: the complex spectrum in DFT order.
+ * Returns: the complex spectrum in DFT order, its half u ≤ width/2 stored (half the memory of the
+ * full spectrum; the other half is the mirror, given exactly by {@link spectrumBinIndex}).
  * Reference: periodogram with data window, Harris, Proc. IEEE 66(1), 51–83 (1978).
  */
 export async function complexSpectrum(image: GreyImage, area: RectPx, tukeyAlpha = 0.3, workspace?: Workspace): Promise<ComplexSpectrum> {
@@ -48,7 +53,8 @@ export async function complexSpectrum(image: GreyImage, area: RectPx, tukeyAlpha
   }
   const mean = sum / (w * h);
   // the transform writes every element of its output, so a borrowed array serves as a fresh one
-  const data = workspace ? workspace.float32('spectrum-complex', 2 * w * h) : new Float32Array(2 * w * h);
+  const halfLength = 2 * ((w >> 1) + 1) * h;
+  const data = workspace ? workspace.float32('spectrum-complex', halfLength) : new Float32Array(halfLength);
   await realDft2d(
     w,
     h,
@@ -58,9 +64,24 @@ export async function complexSpectrum(image: GreyImage, area: RectPx, tukeyAlpha
         for (let i = 0; i < w; i++) m[j * stride + i] = (d[o + i] - mean) * wx[i] * wy[j];
       }
     },
-    { kind: 'complex', out: data },
+    { kind: 'half-complex', out: data },
   );
   return { area: { ...area }, data, windowX: wx, windowY: wy };
+}
+
+/**
+ * Where bin (u, v) of a complex spectrum lies in its stored half: the index of its real part in
+ * `data`, negated (−index − 1) when the bin is the mirror of a stored one, whose imaginary part
+ * then changes sign (X(u, v) = X(width − u, (height − v) mod height)*).
+ *
+ * Parameters: u, v, bin indices in 0 … width − 1 and 0 … height − 1; width, height of the area.
+ * Returns: 2·(v·(⌊width/2⌋ + 1) + u) for u ≤ width/2, else −(that index of the mirror bin) − 1.
+ * Reference: Hermitian symmetry of the DFT of real data (Bracewell, The Fourier Transform and Its Applications, from memory).
+ */
+export function spectrumBinIndex(u: number, v: number, width: number, height: number): number {
+  const nc = (width >> 1) + 1;
+  if (u < nc) return 2 * (v * nc + u);
+  return -(2 * (((height - v) % height) * nc + (width - u))) - 1;
 }
 
 /** Options of {@link spotField}. */
@@ -140,12 +161,13 @@ export function spotField(spec: ComplexSpectrum, fx: number, fy: number, options
       const g = Math.exp(-0.5 * (ex * ex + ey * ey));
       if (g < 1e-4) continue;
       const ui = ((uu % w) + w) % w;
-      const k = 2 * (vi * w + ui);
+      const at = spectrumBinIndex(ui, vi, w, h);
+      const k = at >= 0 ? at : -at - 1;
       // shift to baseband: bin offset (uu − cu, vv − cv); the residual sub-bin offset is applied as a phase ramp below
       const gi = ((dv % n) + n) % n;
       const gu = ((du % n) + n) % n;
       re[gi * n + gu] += g * d[k];
-      im[gi * n + gu] += g * d[k + 1];
+      im[gi * n + gu] += g * (at >= 0 ? d[k + 1] : -d[k + 1]);
       gSum2 += g * g;
     }
   }
@@ -189,7 +211,8 @@ export function spotField(spec: ComplexSpectrum, fx: number, fy: number, options
       const ui = (((u0 + du) % w) + w) % w;
       const vi = (((v0 + dv) % h) + h) % h;
       if (ui === 0 && vi === 0) continue;
-      const k = 2 * (vi * w + ui);
+      const at = spectrumBinIndex(ui, vi, w, h);
+      const k = at >= 0 ? at : -at - 1;
       ring.push(d[k] * d[k] + d[k + 1] * d[k + 1]);
     }
   }

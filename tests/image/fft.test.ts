@@ -5,6 +5,7 @@ import { createRequire } from 'node:module';
 import { expect, test } from 'vitest';
 import { ComplexFft, realDft2d } from '../../src/image/fft';
 import { wrapCv } from '../../src/image/cv';
+import { spectrumBinIndex } from '../../src/measure/spot-field';
 import { rng } from '../../testing/random';
 
 /** Direct DFT of a real w × h array in double precision: X(u, v) = Σ x e^{−2πi(ui/w + vj/h)}. */
@@ -73,6 +74,34 @@ test.each([
   expect(perr / scale ** 2).toBeLessThan(4e-6);
 });
 
+test.each([
+  [64, 32],
+  [32, 18],
+  [15, 32],
+  [40, 24],
+  [13, 7],
+  [1, 16],
+])('the half spectrum %i × %i holds every bin of the full one exactly (Hermitian symmetry of a real input)', async (w, h) => {
+  // Bracewell, The Fourier Transform and Its Applications (from memory): for real x,
+  // X(−u, −v) = X(u, v)*; the half u ≤ w/2 is stored and every other bin is read as its mirror.
+  const x = randomImage(w, h, 3 * w + h);
+  const { complex } = await transform(x, w, h);
+  const half = new Float32Array(2 * ((w >> 1) + 1) * h);
+  const fill = (m: Float32Array, stride: number) => {
+    for (let j = 0; j < h; j++) for (let i = 0; i < w; i++) m[j * stride + i] = x[j * w + i];
+  };
+  await realDft2d(w, h, fill, { kind: 'half-complex', out: half });
+  for (let v = 0; v < h; v++) {
+    for (let u = 0; u < w; u++) {
+      const at = spectrumBinIndex(u, v, w, h);
+      const k = at >= 0 ? at : -at - 1;
+      const k2 = 2 * (v * w + u);
+      expect(half[k], `re (${u}, ${v})`).toBe(complex[k2]);
+      expect(at >= 0 ? half[k + 1] : -half[k + 1], `im (${u}, ${v})`).toBe(complex[k2 + 1]);
+    }
+  }
+});
+
 test('the one-dimensional fallback equals the direct DFT for 5-smooth and prime lengths', () => {
   for (const n of [1, 2, 3, 4, 5, 6, 8, 12, 30, 45, 64, 7, 11, 97]) {
     const f = new ComplexFft(n);
@@ -125,4 +154,5 @@ test('realDft2d gives opencv.js dft\'s numbers (the transform it replaced) at 25
 test('bad sizes and output arrays are refused by name', async () => {
   await expect(realDft2d(0, 4, () => {}, { kind: 'power', out: new Float32Array(0) })).rejects.toThrow(/width must be a positive integer, got 0/);
   await expect(realDft2d(4, 4, () => {}, { kind: 'complex', out: new Float32Array(16) })).rejects.toThrow(/output.out must be a Float32Array of 32 values/);
+  await expect(realDft2d(5, 4, () => {}, { kind: 'half-complex', out: new Float32Array(40) })).rejects.toThrow(/output.out must be a Float32Array of 24 values/);
 });
