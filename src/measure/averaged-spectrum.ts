@@ -29,7 +29,8 @@ export interface AveragedPowerSpectrum extends PowerSpectrum {
  * Parameters: image; region (null: the whole image), at least 16 × 16; options (window, detrend,
  * tile side, overlap). A side shorter than the tile gets tiles of its own length.
  * Returns: the averaged power in DFT order at the tile's size (frequency u / tileSide cycles/px),
- * with `area` the region covered and `tiles` the count and side.
+ * with `area` the region covered and `tiles` the count and side; with `options.workspace`, the power
+ * lies in its spectrum buffer (valid until the next spectrum taken with it, as for powerSpectrum).
  * Notes: tiles are spread evenly over the region with at least the requested overlap, each
  * detrended and windowed on its own; only one tile's transform and one sum are held at a time, so
  * the memory does not grow with the region. The frequency resolution is that of a tile
@@ -74,8 +75,11 @@ export async function averagedPowerSpectrum(
     }
   }
   const count = xs.length * ys.length;
-  const power = Float32Array.from(sum, (v) => v / count);
   const t = last!;
+  // the mean goes into the last tile's power array (no longer needed; with the caller's workspace
+  // it is that workspace's spectrum buffer, valid until its next spectrum, as for powerSpectrum)
+  const power = t.power;
+  for (let k = 0; k < n; k++) power[k] = sum[k] / count;
   const area = { x: xs[0], y: ys[0], width: xs[xs.length - 1] + sideX - xs[0], height: ys[ys.length - 1] + sideY - ys[0] };
   return { width: sideX, height: sideY, area, window: t.window, tukeyAlpha: t.tukeyAlpha, power, windowX: t.windowX, windowY: t.windowY, tiles: { count, widthPx: sideX, heightPx: sideY } };
 }
