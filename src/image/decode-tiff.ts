@@ -53,33 +53,79 @@ interface Entry {
   at: number;
 }
 
+/**
+ * A file read by position: its length and the bytes of a range. The whole file in memory is one
+ * (bytesSource); a file handle read piece by piece is another (fileSource in decode-file.ts), so a
+ * large TIFF is decoded strip by strip without the whole file being held.
+ */
+export interface ByteSource {
+  /** The file's length in bytes. */
+  readonly length: number;
+  /** The bytes offset … offset + length − 1 (inside the file): a fresh array or a view of the file held in memory. */
+  read(offset: number, length: number): Uint8Array;
+}
+
+/**
+ * The source of a file already in memory (reads are views, no copies).
+ * @param bytes - the whole file
+ * @returns a ByteSource over it
+ */
+export function bytesSource(bytes: Uint8Array): ByteSource {
+  return { length: bytes.length, read: (offset, length) => bytes.subarray(offset, offset + length) };
+}
+
+/** Bytes per page of the directory reader's cache (directories and tag values are read a page at a time). */
+const PAGE_BYTES = 1 << 16;
+
 /** The file with bounds-checked reads; every failure names the byte or the tag. */
 class TiffFile {
-  readonly view: DataView;
   readonly le: boolean;
-  constructor(readonly bytes: Uint8Array, readonly fail: Fail) {
-    this.view = new DataView(bytes.buffer, bytes.byteOffset, bytes.byteLength);
-    this.le = bytes[0] === 0x49;
+  readonly length: number;
+  /** Pages of the file read so far (directories and tag values only: strips and tiles are read apart). */
+  private readonly pages = new Map<number, DataView>();
+  constructor(readonly src: ByteSource, readonly fail: Fail) {
+    this.length = src.length;
+    this.le = src.read(0, 1)[0] === 0x49;
+  }
+  private page(p: number): DataView {
+    let v = this.pages.get(p);
+    if (!v) {
+      const start = p * PAGE_BYTES;
+      const b = this.src.read(start, Math.min(PAGE_BYTES, this.length - start));
+      v = new DataView(b.buffer, b.byteOffset, b.byteLength);
+      this.pages.set(p, v);
+    }
+    return v;
+  }
+  /** A view holding bytes at … at + n − 1 (inside the file) and where they start in it. */
+  view(at: number, n: number): { v: DataView; o: number } {
+    const p = Math.floor(at / PAGE_BYTES);
+    if (Math.floor((at + n - 1) / PAGE_BYTES) === p) return { v: this.page(p), o: at - p * PAGE_BYTES };
+    // a range across pages (a long tag value, e.g. the offsets of thousands of strips): read whole
+    const b = this.src.read(at, n);
+    return { v: new DataView(b.buffer, b.byteOffset, n), o: 0 };
   }
   u16(at: number): number {
-    if (at + 2 > this.bytes.length) this.fail(`truncated: the TIFF header points to byte ${at}, past the end (${this.bytes.length} bytes)`);
-    return this.view.getUint16(at, this.le);
+    if (at + 2 > this.length) this.fail(`truncated: the TIFF header points to byte ${at}, past the end (${this.length} bytes)`);
+    const { v, o } = this.view(at, 2);
+    return v.getUint16(o, this.le);
   }
   u32(at: number): number {
-    if (at + 4 > this.bytes.length) this.fail(`truncated: the TIFF header points to byte ${at}, past the end (${this.bytes.length} bytes)`);
-    return this.view.getUint32(at, this.le);
+    if (at + 4 > this.length) this.fail(`truncated: the TIFF header points to byte ${at}, past the end (${this.length} bytes)`);
+    const { v, o } = this.view(at, 4);
+    return v.getUint32(o, this.le);
   }
   /** True when a directory of at least its entry count fits at `offset`. */
   directoryFits(offset: number): boolean {
-    if (offset < 8 || offset + 2 > this.bytes.length) return false;
-    const n = this.view.getUint16(offset, this.le);
-    return offset + 2 + n * 12 + 4 <= this.bytes.length;
+    if (offset < 8 || offset + 2 > this.length) return false;
+    const n = this.u16(offset);
+    return offset + 2 + n * 12 + 4 <= this.length;
   }
   /** Reads one directory's entries (TIFF 6.0 §2); every value must lie inside the file. */
   ifd(offset: number, what: string): { entries: Map<number, Entry>; next: number } {
     const n = this.u16(offset);
     if (n === 0) this.fail(`invalid TIFF: ${what} at byte ${offset} has no entries (TIFF 6.0 §2)`);
-    if (offset + 2 + n * 12 + 4 > this.bytes.length) this.fail(`truncated: the TIFF ${what} at byte ${offset} (${n} entries) runs past the end of the file`);
+    if (offset + 2 + n * 12 + 4 > this.length) this.fail(`truncated: the TIFF ${what} at byte ${offset} (${n} entries) runs past the end of the file`);
     const entries = new Map<number, Entry>();
     for (let i = 0; i < n; i++) {
       const e = offset + 2 + i * 12;
@@ -90,7 +136,7 @@ class TiffFile {
       if (size === undefined) continue; // unknown type: skip the entry (TIFF 6.0 §2)
       const total = size * count;
       const at = total <= 4 ? e + 8 : this.u32(e + 8);
-      if (at + total > this.bytes.length) this.fail(`truncated: TIFF tag ${tagName(tag)} points to bytes ${at}–${at + total}, past the end (${this.bytes.length} bytes)`);
+      if (at + total > this.length) this.fail(`truncated: TIFF tag ${tagName(tag)} points to bytes ${at}–${at + total}, past the end (${this.length} bytes)`);
       if (!entries.has(tag)) entries.set(tag, { tag, type, count, at });
     }
     return { entries, next: this.u32(offset + 2 + n * 12) };
@@ -98,28 +144,28 @@ class TiffFile {
   /** The values of an entry as numbers. */
   numbers(e: Entry): number[] {
     const out: number[] = new Array(e.count);
-    const v = this.view;
+    const { v, o } = this.view(e.at, TYPE_SIZE[e.type] * e.count);
     const le = this.le;
     for (let i = 0; i < e.count; i++) {
       switch (e.type) {
-        case 1: case 2: case 7: out[i] = this.bytes[e.at + i]; break;
-        case 3: out[i] = v.getUint16(e.at + 2 * i, le); break;
-        case 4: case 13: out[i] = v.getUint32(e.at + 4 * i, le); break;
+        case 1: case 2: case 7: out[i] = v.getUint8(o + i); break;
+        case 3: out[i] = v.getUint16(o + 2 * i, le); break;
+        case 4: case 13: out[i] = v.getUint32(o + 4 * i, le); break;
         case 5: {
-          const den = v.getUint32(e.at + 8 * i + 4, le);
-          out[i] = den === 0 ? NaN : v.getUint32(e.at + 8 * i, le) / den;
+          const den = v.getUint32(o + 8 * i + 4, le);
+          out[i] = den === 0 ? NaN : v.getUint32(o + 8 * i, le) / den;
           break;
         }
-        case 6: out[i] = v.getInt8(e.at + i); break;
-        case 8: out[i] = v.getInt16(e.at + 2 * i, le); break;
-        case 9: out[i] = v.getInt32(e.at + 4 * i, le); break;
+        case 6: out[i] = v.getInt8(o + i); break;
+        case 8: out[i] = v.getInt16(o + 2 * i, le); break;
+        case 9: out[i] = v.getInt32(o + 4 * i, le); break;
         case 10: {
-          const den = v.getInt32(e.at + 8 * i + 4, le);
-          out[i] = den === 0 ? NaN : v.getInt32(e.at + 8 * i, le) / den;
+          const den = v.getInt32(o + 8 * i + 4, le);
+          out[i] = den === 0 ? NaN : v.getInt32(o + 8 * i, le) / den;
           break;
         }
-        case 11: out[i] = v.getFloat32(e.at + 4 * i, le); break;
-        default: out[i] = v.getFloat64(e.at + 8 * i, le); break;
+        case 11: out[i] = v.getFloat32(o + 4 * i, le); break;
+        default: out[i] = v.getFloat64(o + 8 * i, le); break;
       }
     }
     return out;
@@ -189,7 +235,8 @@ interface Segment {
 /**
  * Reads the first page of a TIFF file into grey pixels.
  *
- * @param bytes - the whole file (signature already recognised).
+ * @param src - the file (signature already recognised): in memory (bytesSource) or read by
+ *   position, in which case only the directories and one strip or tile at a time are held.
  * @param budget - pixel and decompressed-byte limits.
  * @param fail - stops reading with a reason.
  * @param alloc - where the pixel and working arrays come from.
@@ -199,11 +246,12 @@ interface Segment {
  * max − v for unsigned, −1 − v for signed, −v for float) or RGB; orientation 1 only. Metadata
  * sub-directories are only checked for loops, never read.
  */
-export function readTiff(bytes: Uint8Array, budget: Budget, fail: Fail, alloc: Alloc): Decoded {
-  if (bytes.length < 8) fail(`truncated: ${bytes.length} bytes is shorter than the 8-byte TIFF header`);
-  const f = new TiffFile(bytes, fail);
+export function readTiff(src: ByteSource, budget: Budget, fail: Fail, alloc: Alloc): Decoded {
+  const fileLength = src.length;
+  if (fileLength < 8) fail(`truncated: ${fileLength} bytes is shorter than the 8-byte TIFF header`);
+  const f = new TiffFile(src, fail);
   const first = f.u32(4);
-  if (first < 8 || first >= bytes.length) fail(`invalid TIFF: the first directory offset ${first} is outside the file (8 to ${bytes.length - 1}; TIFF 6.0 §2)`);
+  if (first < 8 || first >= fileLength) fail(`invalid TIFF: the first directory offset ${first} is outside the file (8 to ${fileLength - 1}; TIFF 6.0 §2)`);
   const { entries, next } = f.ifd(first, 'first directory');
   const t = new Fields(f, entries);
   const warnings: string[] = [];
@@ -297,7 +345,7 @@ export function readTiff(bytes: Uint8Array, budget: Budget, fail: Fail, alloc: A
   let compressedTotal = 0;
   let decompressedTotal = 0;
   for (const s of segments) {
-    if (s.offset + s.count > bytes.length) fail(`truncated: ${s.what} needs bytes ${s.offset}–${s.offset + s.count} but the file has ${bytes.length}`);
+    if (s.offset + s.count > fileLength) fail(`truncated: ${s.what} needs bytes ${s.offset}–${s.offset + s.count} but the file has ${fileLength}`);
     const need = s.rows * s.cols * spp * bps;
     if (compression === 1 && s.count < need) fail(`truncated: ${s.what} holds ${s.count} bytes, its ${s.rows} rows of ${s.cols} pixels need ${need}`);
     compressedTotal += s.count;
@@ -365,19 +413,19 @@ export function readTiff(bytes: Uint8Array, budget: Budget, fail: Fail, alloc: A
         fill = piece.length - i;
       }
     };
-    const src = bytes.subarray(s.offset, s.offset + s.count);
+    const data = src.read(s.offset, s.count);
     const need = s.rows * segRowBytes;
     const method = COMPRESSION_NAME[compression];
     let produced: number;
     try {
       if (compression === 1) {
-        sink(src.subarray(0, need));
+        sink(data.subarray(0, need));
         produced = need;
       } else if (compression === 5) {
-        produced = lzwDecode(src, need, sink);
+        produced = lzwDecode(data, need, sink);
       } else {
         // a last strip may be stored padded to full height: the padding rows are counted, not used
-        produced = inflateZlib([src], { maxBytes: s.maxBytes, sink });
+        produced = inflateZlib([data], { maxBytes: s.maxBytes, sink });
       }
     } catch (e) {
       if (e instanceof LzwDataError || e instanceof ZlibDataError) fail(`damaged TIFF data in ${s.what} (bytes ${s.offset}–${s.offset + s.count}, ${method}): ${e.message}`);
@@ -445,7 +493,7 @@ function checkSubDirectories(f: TiffFile, root: Map<number, Entry>, seen: Set<nu
       const size = TYPE_SIZE[type];
       if (size === undefined || count === 0) continue;
       const at = size * count <= 4 ? e + 8 : f.u32(e + 8);
-      if (at + size * count > f.bytes.length) {
+      if (at + size * count > f.length) {
         warnings.push(`the TIFF's ${name} (tag ${from}) holds tag ${tagName(tag)} pointing past the end of the file; it was ignored`);
         continue;
       }

@@ -12,13 +12,14 @@ import { DEFAULT_MAX_DECOMPRESSED_BYTES, DEFAULT_MAX_PIXELS, ImageReadError, all
 import { ImageDataError, readJpeg } from './decode-jpeg';
 import { looksLikeMrcHeader, readMrc } from './decode-mrc';
 import { readPng } from './decode-png';
-import { readTiff } from './decode-tiff';
+import { type ByteSource, bytesSource, readTiff } from './decode-tiff';
 import type { GreyImage } from './grey-image';
 import { makeGreyImage } from './grey-image';
 import type { Workspace } from './workspace';
 
 export { DEFAULT_MAX_DECOMPRESSED_BYTES, DEFAULT_MAX_PIXELS, ImageReadError, LUMA_BT709, METADATA_REL_UNCERTAINTY } from './decode-common';
 export type { ImageFormat } from './decode-common';
+export { bytesSource, type ByteSource } from './decode-tiff';
 
 /** What to do with NaN and infinite pixels (float TIFF, MRC modes 2 and 12). */
 export type NonFinitePolicy = 'reject' | 'replace';
@@ -104,10 +105,39 @@ function isBigTiff(b: Uint8Array): boolean {
  * et al., J. Struct. Biol. 192, 146, 2015).
  */
 export function decodeImage(bytes: Uint8Array, fileName: string, options: DecodeOptions = {}): GreyImage {
+  if (!(bytes instanceof Uint8Array)) throw new TypeError(`bytes must be a Uint8Array, got ${Object.prototype.toString.call(bytes)}`);
+  return decodeFrom(bytes, bytesSource(bytes), fileName, options);
+}
+
+/**
+ * Reads an image file by position (a file handle, a Blob read slice by slice) into a GreyImage:
+ * a TIFF is decoded strip by strip (or tile by tile), so only its directories and one strip are
+ * held besides the pixels, never the whole file; other formats are read whole and decoded as by
+ * {@link decodeImage}.
+ *
+ * @param source - the file's length and a positional read (see ByteSource).
+ * @param fileName - as for decodeImage.
+ * @param options - as for decodeImage.
+ * @returns the same image, warnings and calibration as decodeImage on the file's bytes.
+ * @throws as decodeImage.
+ * Reference: as decodeImage (TIFF 6.0 §2: directories and strips are located by offsets, so they
+ * can be read where they lie).
+ */
+export function decodeImageSource(source: ByteSource, fileName: string, options: DecodeOptions = {}): GreyImage {
+  if (!(source && Number.isInteger(source.length) && source.length >= 0 && typeof source.read === 'function')) {
+    throw new TypeError(`source must have a non-negative integer length and a read(offset, length) function, got ${Object.prototype.toString.call(source)}`);
+  }
+  const head = source.read(0, Math.min(source.length, 8));
+  if (detectFormat(head) === 'tiff') return decodeFrom(head, source, fileName, options);
+  const all = source.read(0, source.length);
+  return decodeFrom(all, bytesSource(all), fileName, options);
+}
+
+/** decodeImage's work: `bytes` tell the format (the whole file, or its first bytes when it is a TIFF read from `source`). */
+function decodeFrom(bytes: Uint8Array, source: ByteSource, fileName: string, options: DecodeOptions): GreyImage {
   const fail: Fail = (reason) => {
     throw new ImageReadError(fileName, reason);
   };
-  if (!(bytes instanceof Uint8Array)) throw new TypeError(`bytes must be a Uint8Array, got ${Object.prototype.toString.call(bytes)}`);
   if (typeof fileName !== 'string') throw new TypeError(`fileName must be a string, got ${typeof fileName}`);
   const maxPixels = options.maxPixels ?? DEFAULT_MAX_PIXELS;
   if (!Number.isInteger(maxPixels) || maxPixels < 1) throw new RangeError(`maxPixels must be a positive integer, got ${maxPixels}`);
@@ -117,7 +147,7 @@ export function decodeImage(bytes: Uint8Array, fileName: string, options: Decode
   if (nonFinite !== 'reject' && nonFinite !== 'replace') throw new RangeError(`nonFinite must be 'reject' or 'replace', got '${nonFinite}'`);
   const budget: Budget = { maxPixels, maxDecompressedBytes };
 
-  if (bytes.length === 0) fail('the file is empty');
+  if (source.length === 0) fail('the file is empty');
   const byExtension = formatFromExtension(fileName);
   let format = detectFormat(bytes);
   const warnings: string[] = [];
@@ -142,7 +172,7 @@ export function decodeImage(bytes: Uint8Array, fileName: string, options: Decode
   let decoded: Decoded;
   try {
     const alloc = allocFrom(options.workspace);
-    if (format === 'tiff') decoded = readTiff(bytes, budget, fail, alloc);
+    if (format === 'tiff') decoded = readTiff(source, budget, fail, alloc);
     else if (format === 'png') decoded = readPng(bytes, budget, fail, alloc);
     else if (format === 'jpeg') decoded = readJpeg(bytes, budget, fail, alloc);
     else decoded = readMrc(bytes, budget, fail, alloc);
