@@ -5,10 +5,11 @@
  *   npm run bench:large-image -- --size 4096
  *
  * A seeded 16-bit TIFF (lattice fringes and noise) is written to a temporary folder; each case then
- * runs in a fresh process, so its peak resident memory (maxRSS) is its own: read the file, decode
- * it (float32 pixels), drop the file's bytes, build the viewer's pyramid and histogram (as the
- * compute worker's prepareView), and analyse a region the way the worker does for the Periods
- * panel: analyseRegion (spectrum, spots, each spot's budget), then spectrumView (display picture).
+ * runs in a fresh process, so its peak resident memory (maxRSS) is its own: open the file, either
+ * read whole and decoded (as the app's compute worker does today) or decoded strip by strip from
+ * a file handle (decodeImageSource: the file is never held whole), build the viewer's pyramid and
+ * histogram (as the worker's prepareView), and analyse a region the way the worker does for the
+ * Periods panel: analyseRegion (spectrum, spots, each spot's budget), then spectrumView (display picture).
  * Cases: the analysis of the centred 2048² and 4096² regions and of the whole image (averaged over
  * tiles beyond 4096 px a side, as the app does). Target:
  * peak ≤ 4 × raw (raw = width · height · 2 bytes), Node's own ~80 MiB (with tsx) included.
@@ -38,7 +39,7 @@ function peakMiB(): number {
 }
 
 /** The stages of one case, measured in this (child) process. */
-async function child(file: string, regionSide: number): Promise<void> {
+async function child(file: string, regionSide: number, opening: 'whole' | 'strips'): Promise<void> {
   const stages: { stage: string; peakMiB: number; heapMiB: number; seconds: number }[] = [];
   const gc = (globalThis as { gc?: () => void }).gc ?? (() => {});
   let t0 = performance.now();
@@ -47,7 +48,8 @@ async function child(file: string, regionSide: number): Promise<void> {
     stages.push({ stage, peakMiB: peakMiB(), heapMiB: (m.heapUsed + m.external) / MiB, seconds: (performance.now() - t0) / 1000 });
     t0 = performance.now();
   };
-  const { decodeImage } = await import('../src/image/decode');
+  const { decodeImage, decodeImageSource } = await import('../src/image/decode');
+  const { closeSync, fstatSync, openSync, readSync } = await import('node:fs');
   const { buildPyramid } = await import('../src/image/pyramid');
   const { greyHistogram } = await import('../src/image/display');
   const { analyseRegion } = await import('../src/measure/measure-region');
@@ -55,11 +57,33 @@ async function child(file: string, regionSide: number): Promise<void> {
   const { loadFft } = await import('../src/image/fft');
   await loadFft();
   mark('start (Node, modules, transform engine)');
-  let bytes: Uint8Array | null = new Uint8Array(readFileSync(file).buffer);
-  mark('file read');
-  const image = decodeImage(bytes, 'large.tif');
-  mark('decoded (float32 pixels)');
-  bytes = null;
+  let image;
+  if (opening === 'whole') {
+    let bytes: Uint8Array | null = new Uint8Array(readFileSync(file).buffer);
+    mark('file read whole');
+    image = decodeImage(bytes, 'large.tif');
+    mark('decoded (float32 pixels)');
+    bytes = null;
+  } else {
+    // positional reads from a file handle: the directories a page at a time, then each strip
+    const fd = openSync(file, 'r');
+    try {
+      const length = fstatSync(fd).size;
+      const read = (offset: number, n: number): Uint8Array => {
+        const b = new Uint8Array(n);
+        for (let at = 0; at < n;) {
+          const k = readSync(fd, b, at, n - at, offset + at);
+          if (k === 0) throw new Error(`the file ended at byte ${offset + at} of ${length}`);
+          at += k;
+        }
+        return b;
+      };
+      image = decodeImageSource({ length, read }, 'large.tif');
+    } finally {
+      closeSync(fd);
+    }
+    mark('decoded strip by strip (float32 pixels)');
+  }
   gc();
   const residentMiB = () => process.memoryUsage.rss() / MiB;
   const afterOpen = residentMiB();
@@ -82,7 +106,7 @@ async function child(file: string, regionSide: number): Promise<void> {
 
 async function main(): Promise<void> {
   const childAt = process.argv.indexOf('--child');
-  if (childAt >= 0) return child(process.argv[childAt + 1], Number(process.argv[childAt + 2]));
+  if (childAt >= 0) return child(process.argv[childAt + 1], Number(process.argv[childAt + 2]), process.argv[childAt + 3] === 'whole' ? 'whole' : 'strips');
   const size = integerOption('size', 8192, 256);
   const dir = mkdtempSync(join(tmpdir(), 'stratameter-bench-large-'));
   try {
@@ -95,20 +119,26 @@ async function main(): Promise<void> {
     writeFileSync(file, encodeTiff({ width: size, height: size, data, resolution: { x: 1e7 / 0.02, unit: 'cm' } }));
     const rawMiB = (size * size * 2) / MiB;
     console.log(`large-image benchmark: ${size} × ${size} px, 16-bit (raw ${rawMiB.toFixed(0)} MiB, file ${(readFileSync(file).length / MiB).toFixed(0)} MiB); load average ${loadavg()[0].toFixed(1)}\n`);
-    console.log('| spectrum region | stage | peak resident MiB (so far) | peak / raw | JS heap + external MiB | stage s |');
-    console.log('|---|---|---:|---:|---:|---:|');
+    console.log('| opening | spectrum region | stage | peak resident MiB (so far) | peak / raw | JS heap + external MiB | stage s |');
+    console.log('|---|---|---|---:|---:|---:|---:|');
     const verdicts: string[] = [];
-    for (const side of [2048, 4096, size]) {
-      const run = spawnSync(process.execPath, ['--expose-gc', '--import', 'tsx', new URL(import.meta.url).pathname, '--child', file, String(side)], { encoding: 'utf8', maxBuffer: 1 << 20 });
+    const cases: { opening: 'whole' | 'strips'; side: number }[] = [
+      { opening: 'whole', side: 2048 },
+      { opening: 'strips', side: 2048 },
+      { opening: 'strips', side: 4096 },
+      { opening: 'strips', side: size },
+    ];
+    for (const { opening, side } of cases) {
+      const run = spawnSync(process.execPath, ['--expose-gc', '--import', 'tsx', new URL(import.meta.url).pathname, '--child', file, String(side), opening], { encoding: 'utf8', maxBuffer: 1 << 20 });
       if (run.status !== 0) {
-        console.log(`| ${side}² | failed: ${run.stderr.split('\n').find((l) => l.trim()) ?? run.status} | | | | |`);
+        console.log(`| ${opening} | ${side}² | failed: ${run.stderr.split('\n').find((l) => l.trim()) ?? run.status} | | | | |`);
         continue;
       }
       const out = JSON.parse(run.stdout.trim().split('\n').pop()!) as { stages: { stage: string; peakMiB: number; heapMiB: number; seconds: number }[] };
-      for (const s of out.stages) console.log(`| ${side}² | ${s.stage} | ${s.peakMiB.toFixed(0)} | ${(s.peakMiB / rawMiB).toFixed(2)}× | ${s.heapMiB.toFixed(0)} | ${s.seconds.toFixed(2)} |`);
+      for (const s of out.stages) console.log(`| ${opening} | ${side}² | ${s.stage} | ${s.peakMiB.toFixed(0)} | ${(s.peakMiB / rawMiB).toFixed(2)}× | ${s.heapMiB.toFixed(0)} | ${s.seconds.toFixed(2)} |`);
       const peak = Math.max(...out.stages.map((s) => s.peakMiB));
       const o = out as unknown as { afterOpen: number; atEnd: number };
-      verdicts.push(`spectrum of ${side}²: peak ${peak.toFixed(0)} MiB = ${(peak / rawMiB).toFixed(2)} × raw (target ≤ 4 ×: ${peak <= 4 * rawMiB ? 'met' : 'not met'}); resident after opening (file bytes released) ${o.afterOpen.toFixed(0)} MiB, at the end ${o.atEnd.toFixed(0)} MiB`);
+      verdicts.push(`opened ${opening === 'whole' ? 'whole' : 'strip by strip'}, spectrum of ${side}²: peak ${peak.toFixed(0)} MiB = ${(peak / rawMiB).toFixed(2)} × raw (target ≤ 4 ×: ${peak <= 4 * rawMiB ? 'met' : 'not met'}); resident after opening (file bytes, if read whole, released) ${o.afterOpen.toFixed(0)} MiB, at the end ${o.atEnd.toFixed(0)} MiB`);
     }
     console.log(`\n${verdicts.join('\n')}`);
     console.log('Peak resident memory is the process\'s own peak (VmHWM: all memory it touched: Node itself, the file\'s bytes, the float32 pixels, the pyramid, the transform engine\'s WebAssembly memory, the spectrum). Each spectrum case runs in a fresh process.');
