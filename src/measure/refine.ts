@@ -131,7 +131,6 @@ export function refineSpot(data: RefineData, spot: Spot, options: RefineSpotOpti
     mean = data.mean + swd / sw;
   }
   const cx = (w - 1) / 2;
-  const cy = (h - 1) / 2;
   let ox = 2 * Math.PI * spot.fx;
   let oy = 2 * Math.PI * spot.fy;
   const ox0 = ox;
