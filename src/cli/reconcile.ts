@@ -25,7 +25,8 @@ proposed (never applied).
 
 Options:
   --pattern PATTERN  the diffraction pattern (see 'stratameter xrd --help' for its options:
-                     --wavelength, --axis, --k, --instrument-fwhm, --ka2, --min-snr also apply)
+                     --wavelength, --axis, --k, --instrument-fwhm, --ka2, --min-snr,
+                     --internal-standard also apply)
   --cif CIF          add a reference phase's reflections (d ≥ 0.1 nm)
   --z-max Z          largest |z| for a pair (default 3)
   --all-lines        list every unmatched line (default: the strong ones, ≥ 10 % of the
@@ -46,7 +47,7 @@ export const command: CliCommand = {
   usage,
   async run(args: string[], io: CliIo): Promise<number> {
     const { positional, options, flags } = parseArgs(args, {
-      values: ['pattern', 'cif', 'z-max', 'wavelength', 'axis', 'k', 'instrument-fwhm', 'standard', 'instrument', 'correction', 'ka2', 'min-snr'],
+      values: ['pattern', 'cif', 'z-max', 'wavelength', 'axis', 'k', 'instrument-fwhm', 'standard', 'instrument', 'correction', 'ka2', 'min-snr', 'internal-standard'],
       booleans: ['json', 'all-lines'],
     });
     const patternPath = options.get('pattern');

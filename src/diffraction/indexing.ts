@@ -5,6 +5,7 @@
  */
 import { cellParameters, centringAllows, latticeLines, LATTICE_KINDS, qOf, type LatticeCell, type LatticeKind } from './lattice';
 import { levenbergMarquardt } from './lm';
+import { zeroShiftCellPartDeg, type InternalStandard } from './internal-standard';
 
 /** A peak offered to the indexer. */
 export interface IndexPeak {
@@ -34,7 +35,7 @@ export interface IndexOptions {
   /** Refine a zero shift with the cell (2θ data, default true). */
   fitZeroShift?: boolean;
   /** A phase of known cell in the sample (internal standard): its cell is held and only the zero shift is fitted from its lines. */
-  standard?: { name: string; cell: LatticeCell };
+  standard?: InternalStandard;
   /** Try two-phase mixtures when one phase leaves strong lines unexplained (default true). */
   mixtures?: boolean;
   /** Smallest Smith–Snyder F_N for a phase to be reported (default 8). */
@@ -147,12 +148,15 @@ interface Trial {
   a: number;
   c: number;
   zero: number;
+  /** Further reflection conditions of a known structure (an internal standard's space group). */
+  allows?: (h: number, k: number, l: number) => boolean;
 }
 
 /** Lines of a trial cell within the pattern's d range. */
 function linesOf(w: Work, t: Trial) {
   const cell: LatticeCell = { kind: t.kind, aNm: t.a, cNm: t.c };
-  return latticeLines(cell, w.dMin * 0.995, w.dMax * 1.005);
+  const all = latticeLines(cell, w.dMin * 0.995, w.dMax * 1.005);
+  return t.allows ? all.filter((l) => t.allows!(...l.hkl)) : all;
 }
 
 /**
@@ -269,7 +273,7 @@ function refine(w: Work, t: Trial, hkls: Array<{ peak: number; hkl: [number, num
         c = p[1];
       }
     }
-    return { kind: t.kind, a, c, zero: useZero ? p[np0] : 0 };
+    return { kind: t.kind, a, c, zero: useZero ? p[np0] : 0, allows: t.allows };
   };
   const p0: number[] = [];
   if (!holdCell) {
@@ -618,10 +622,18 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
   // an internal standard first: its cell held, the zero shift fitted from its lines
   if (options.standard) {
     const st = options.standard;
-    const s = evaluate(w, { kind: st.cell.kind, a: st.cell.aNm, c: st.cell.cNm, zero: 0 }, null, { ...opts, fitZeroShift: lambda !== null }, true);
+    const s = evaluate(w, { kind: st.cell.kind, a: st.cell.aNm, c: st.cell.cNm, zero: 0, allows: st.allows }, null, { ...opts, fitZeroShift: lambda !== null }, true);
     if (!s || s.hkls.length < 2) notes.push(`the standard ${st.name} explains fewer than two lines: not used`);
     else {
-      phases.push(phaseOf(s, true, st.name));
+      const ph = phaseOf(s, true, st.name);
+      // the certified cell's own uncertainty moves the zero shift too
+      const rel = st.relUncertainty ?? 0;
+      if (ph.zeroShiftUncDeg !== null && rel > 0) {
+        const used = s.hkls.filter((h) => w.tt[h.peak] !== null);
+        const cellPart = zeroShiftCellPartDeg(used.map((h) => w.tt[h.peak]!), used.map((h) => 1 / (w.stt[h.peak] ** 2 + 0.002 ** 2)), rel);
+        ph.zeroShiftUncDeg = Math.hypot(ph.zeroShiftUncDeg, cellPart);
+      }
+      phases.push(ph);
       remaining = new Set(peaks.map((_, i) => i).filter((i) => !s.hkls.some((h) => h.peak === i)));
     }
   }
