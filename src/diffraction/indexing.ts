@@ -226,7 +226,9 @@ function figureOfMerit(w: Work, t: Trial, lines: ReturnType<typeof latticeLines>
   const n = Math.min(30, idx.length);
   if (n === 0) return { fN: 0, n: 0, meanDelta: NaN, nPossible: 0, mN: 0 };
   const first = idx.slice(0, n);
-  const qN = w.q[first[n - 1].peak];
+  // possible lines up to the N-th observed one, that line's own calculated position included (an
+  // observed line a little below its calculated Q must not leave its own line uncounted)
+  const qN = Math.max(...first.map((a) => Math.max(w.q[a.peak], lines[a.line].q)));
   const nPoss = Math.max(1, lines.filter((l) => l.q <= qN * (1 + 1e-9)).length);
   let meanDelta: number;
   if (w.lambda !== null && first.every((a) => w.tt[a.peak] !== null)) meanDelta = first.reduce((s, a) => s + a.delta, 0) / n;
@@ -235,7 +237,7 @@ function figureOfMerit(w: Work, t: Trial, lines: ReturnType<typeof latticeLines>
   const fN = (1 / Math.max(meanDelta, floor)) * (n / nPoss);
   const m = Math.min(20, idx.length);
   const firstM = idx.slice(0, m);
-  const qM = w.q[firstM[m - 1].peak];
+  const qM = Math.max(...firstM.map((a) => Math.max(w.q[a.peak], lines[a.line].q)));
   const nPossM = Math.max(1, lines.filter((l) => l.q <= qM * (1 + 1e-9)).length);
   const epsQ = firstM.reduce((s, a) => s + Math.abs(w.q[a.peak] - qOfZeroCorrected(w, t, a.peak, lines[a.line].q)), 0) / m;
   const mN = qM / (2 * Math.max(epsQ, 1e-9 * qM) * nPossM);
@@ -689,6 +691,13 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
       if (!ca && a.strongExplained !== b.strongExplained) return b.strongExplained - a.strongExplained;
       const pa = cellParameters(a.t.kind);
       const pb = cellParameters(b.t.kind);
+      // once both figures of merit are convincing (F_N ≥ 20, common practice), a larger F_N is no
+      // further evidence (a few lines fit closely by chance) while lines explained are: between
+      // cells of as many parameters, one explaining half as many lines again wins
+      if (pa === pb && a.fom.fN >= 20 && b.fom.fN >= 20) {
+        if (a.hkls.length >= 1.5 * b.hkls.length) return -1;
+        if (b.hkls.length >= 1.5 * a.hkls.length) return 1;
+      }
       const sa = score(a) / pa;
       const sb = score(b) / pb;
       if (Math.abs(sa - sb) > 0.1 * Math.max(sa, sb)) return sb - sa;
@@ -708,7 +717,24 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
     if (alt) notes.push(`${LATTICE_WORDS[alt.t.kind]} (a ${alt.t.a.toPrecision(6)} nm${cellParameters(alt.t.kind) === 2 ? `, c ${alt.t.c.toPrecision(6)} nm` : ''}) indexes the same lines about as well as the ${LATTICE_WORDS[pool[0].t.kind]} cell chosen (the smaller cell); lines at higher angle would tell them apart`);
     return { best: pool[0], pool };
   };
-  const found = search(remaining);
+  const firstNotesAt = notes.length;
+  let found = search(remaining);
+  const firstNotesEnd = notes.length;
+  if (!found) {
+    // no lattice explains the strongest line: a lone line (the one order of a series in range, or
+    // the only line of a phase) must not hide the phases the other lines make; it is left unindexed
+    const scope0 = remaining ?? new Set(peaks.map((_, i) => i));
+    const strongIn = [...strong].filter((i) => scope0.has(i));
+    const lone = strongIn.length ? strongIn.reduce((a, b) => (peaks[a].intensity >= peaks[b].intensity ? a : b)) : -1;
+    if (lone >= 0 && scope0.size >= 4) {
+      const without = new Set([...scope0].filter((i) => i !== lone));
+      found = search(without);
+      if (found) {
+        remaining = without;
+        notes.push(`no lattice explains the strongest line (d ${peaks[lone].dNm.toPrecision(5)} nm) with the others: it is left unindexed and the phases are sought among the rest`);
+      }
+    }
+  }
   if (found) {
     const firstBest = found.best;
     const scope = remaining ? [...remaining] : peaks.map((_, i) => i);
@@ -726,14 +752,21 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
         const both = new Set([...explained, ...two.hkls.map((h) => h.peak)]);
         const strongDone = strongScope.filter((i) => both.has(i)).length;
         const gm = Math.sqrt(one.fom.fN * two.fom.fN);
-        // the simplest description wins: two phases must explain at least two more lines than the one cell
-        const better = both.size >= firstBest.hkls.length + 2 && gm > firstBest.fom.fN;
+        // the simplest description wins: two phases with more free cell parameters than the one
+        // cell must explain at least two more lines; two one-parameter phases (as many parameters
+        // as one two-parameter cell) need only explain as many, with the better figure of merit
+        const extra = cellParameters(one.t.kind) + cellParameters(two.t.kind) > cellParameters(firstBest.t.kind) ? 2 : 0;
+        // a single cell that is not convincing itself (F_N < 20) gives way to two convincing phases
+        // explaining every strong line, even with up to two weak lines fewer (left unindexed)
+        const better = (both.size >= firstBest.hkls.length + extra && gm > firstBest.fom.fN) || (firstBest.fom.fN < 20 && both.size >= firstBest.hkls.length - 2);
         // each phase of the pair must be convincing on its own (F_N ≥ 20 and at least half the single cell's): a cell of high indices fits a few lines by chance
         const convincing = Math.min(one.fom.fN, two.fom.fN) >= Math.max(20, 0.5 * firstBest.fom.fN);
         if (strongDone >= strongScope.length && one.hkls.length >= 3 && two.hkls.length >= 3 && better && convincing) {
           phases.push(phaseOf(one, false), phaseOf(two, false));
           notes.push(`two phases (${LATTICE_WORDS[one.t.kind]} and ${LATTICE_WORDS[two.t.kind]}) explain the lines better than one ${LATTICE_WORDS[firstBest.t.kind]} cell (a ${firstBest.t.a.toPrecision(6)} nm, c ${firstBest.t.c.toPrecision(6)} nm)`);
           mixtureFirst = true;
+          // what the search said of the single cell (another lattice as good) no longer applies
+          notes.splice(firstNotesAt, firstNotesEnd - firstNotesAt);
           break;
         }
       }
@@ -794,3 +827,4 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
     notes,
   };
 }
+

@@ -79,6 +79,36 @@ describe('indexPattern on standard reference materials', () => {
     expect(sample.kind).toBe('cubic-F');
     expect(Math.abs(sample.aNm / au - 1)).toBeLessThan(1e-4);
   });
+  test('a lone strongest line (the only order of a clay in range) does not hide a hexagonal phase: quartz-like a 0.4913, c 0.5405 nm (from memory)', () => {
+    const a = 0.4913;
+    const c = 0.5405;
+    const hex = latticeLines({ kind: 'hexagonal-P', aNm: a, cNm: c }, 0.136).slice(0, 14);
+    const rel = [35, 20, 15, 40, 100, 15, 5, 45, 25, 8, 40, 30, 12, 20];
+    // the basal 001 of a smectite at d = 1.50 nm, three times the strongest quartz-like line; its other orders lost under a halo
+    const r = indexPattern(peaksOf([{ d: 1.5, i: 300 }, ...hex.map((l, j) => ({ d: l.dNm, i: rel[j] }))]), { wavelengthNm: CU1 });
+    const ph = r.phases.find((p) => p.kind === 'hexagonal-P')!;
+    expect(ph).toBeDefined();
+    expect(Math.abs(ph.aNm / a - 1)).toBeLessThan(5e-4);
+    expect(Math.abs(ph.cNm / c - 1)).toBeLessThan(5e-4);
+    expect(r.unindexed).toContain(0);
+    expect(r.notes.join(' ')).toMatch(/strongest line \(d 1\.(5|49)\d* nm\).*left unindexed/);
+  });
+  test('clay (lamellar 1.42 nm) + fcc metal (a 0.40495 nm, from memory): two convincing phases, not one unconvincing tetragonal cell (synthetic benchmark case, seed 1, its fitted peaks)', () => {
+    // 2θ, u(2θ), area, FWHM as fitted on the drawn pattern (Cu Kα1); drawn truth: lamellar 001, 002,
+    // 003, 007 (blended with fcc 200), 008, 0 0 11 and fcc 111, 200, 220, 311, 222
+    const fitted = [
+      [6.2176, 0.0025, 796, 0.674], [12.438, 0.013, 62.2, 0.645], [18.7336, 0.012, 106, 0.693], [38.4729, 0.0015, 303, 0.242], [44.7012, 0.0046, 95.7, 0.323],
+      [51.4454, 0.014, 13.5, 0.167], [65.1495, 0.013, 7.74, 0.121], [73.2864, 0.025, 48.3, 0.948], [78.2937, 0.025, 11.1, 0.24], [82.4362, 0.0025, 245, 0.309],
+    ];
+    const peaks: IndexPeak[] = fitted.map(([tt, u, area, fwhm]) => ({ dNm: CU1 / (2 * Math.sin((tt * Math.PI) / 360)), dUncNm: 1e-5, twoThetaDeg: tt, twoThetaUncDeg: u, intensity: area, fwhmDeg: fwhm }));
+    const r = indexPattern(peaks, { wavelengthNm: CU1 });
+    expect(r.phases.map((p) => p.kind).sort()).toEqual(['cubic-F', 'lamellar']);
+    const fcc = r.phases.find((p) => p.kind === 'cubic-F')!;
+    expect(Math.abs(fcc.aNm / 0.40495 - 1)).toBeLessThan(5e-4);
+    expect(Math.abs(r.phases.find((p) => p.kind === 'lamellar')!.cNm / 1.42 - 1)).toBeLessThan(3e-3);
+    expect(r.notes.join(' ')).toMatch(/two phases \(lamellar stack and face-centred cubic\)/);
+    expect(r.notes.join(' ')).not.toMatch(/cell chosen/);
+  });
   test('bad input is refused with the value named', () => {
     expect(() => indexPattern([{ dNm: -1, dUncNm: 0, twoThetaDeg: null, twoThetaUncDeg: null, intensity: 1 }], { wavelengthNm: null })).toThrow(/-1/);
     expect(() => indexPattern([], { wavelengthNm: 100 })).toThrow(/100/);
