@@ -457,6 +457,22 @@ function evaluate(w: Work, trial: Trial, subset: Set<number> | null, opts: Requi
     // after refinement the tolerance tightens to the lines' own uncertainty plus 0.02°
     asg = assign(w, t, lines, round === 0 ? opts.searchToleranceDeg : 0.03);
   }
+  // the zero shift is a parameter like any other: kept only when it lowers χ² beyond chance
+  // (likelihood ratio, 1 degree of freedom, 5 %: 3.84); otherwise it is not measured (the d budget
+  // then carries its allowance) and the cell is not bent by a shift fitted to noise
+  if (opts.fitZeroShift && !holdCell && w.lambda !== null && cov !== null && cov.length > cellParameters(t.kind)) {
+    const clean = asg.flatMap((a) => (a && !a.overlap && (!subset || subset.has(a.peak)) ? [{ peak: a.peak, hkl: lines[a.line].hkl }] : []));
+    const r0 = refine(w, { ...t, zero: 0 }, clean, false, false);
+    if (r0 && r0.chi2 - chi2 < 3.84 * Math.max(1, chi2 / dof)) {
+      t = r0.t;
+      cov = r0.cov;
+      chi2 = r0.chi2;
+      dof = r0.dof;
+      lines = linesOf(w, t);
+      if (lines.length === 0 || lines.length > 4000) return null;
+      asg = assign(w, t, lines, 0.03);
+    }
+  }
   hkls = asg.flatMap((a) => (a && (!subset || subset.has(a.peak)) ? [{ peak: a.peak, hkl: lines[a.line].hkl }] : []));
   if (hkls.length === 0) return null;
   // a two-parameter cell must be fixed by its lines: some depend on a, some on c, not all alike
@@ -474,9 +490,11 @@ function evaluate(w: Work, trial: Trial, subset: Set<number> | null, opts: Requi
       sxz += (xh * zh) / norm ** 2;
     }
     if (sxx * szz - sxz * sxz < 0.05 * Math.max(1, hkls.length / 4)) return null;
-    // and by more than one line each way: a single line on the other axis is a coincidence
-    const onA = hkls.filter((h) => h.hkl[0] !== 0 || h.hkl[1] !== 0).length;
-    const onC = hkls.filter((h) => h.hkl[2] !== 0).length;
+    // and by more than one line each way: a single line on the other axis is a coincidence; a
+    // line another calculated line shares (a blend, e.g. 103 on top of 005) is evidence for neither
+    const blended = new Set(asg.flatMap((a) => (a && a.overlap ? [a.peak] : [])));
+    const onA = hkls.filter((h) => !blended.has(h.peak) && (h.hkl[0] !== 0 || h.hkl[1] !== 0)).length;
+    const onC = hkls.filter((h) => !blended.has(h.peak) && h.hkl[2] !== 0).length;
     if (onA < 2 || onC < 2) return null;
   }
   if (!(t.c >= MIN_EDGE_NM) || (t.kind !== 'lamellar' && !(t.a >= MIN_EDGE_NM))) return null;
@@ -550,7 +568,10 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
     q: peaks.map((p) => 1 / (p.dNm * p.dNm)),
     sq: peaks.map((p) => (2 * Math.max(p.dUncNm, 1e-9 * p.dNm)) / p.dNm ** 3),
     tt: peaks.map((p) => (lambda !== null ? p.twoThetaDeg : null)),
-    stt: peaks.map((p) => Math.max(p.twoThetaUncDeg ?? 0, 1e-6)),
+    // a line's position also carries its profile and background misfit, which grows with its
+    // breadth: an allowance of 3 % of the FWHM beside the fit's own uncertainty (a broad line on a
+    // halo's flank moves by a few hundredths of a degree)
+    stt: peaks.map((p) => Math.max(Math.hypot(p.twoThetaUncDeg ?? 0, 0.03 * (p.fwhmDeg ?? 0)), 1e-6)),
     fw: peaks.map((p) => p.fwhmDeg ?? 0),
     strong,
     strongOrder: [...strong].sort((a, b) => peaks[b].dNm - peaks[a].dNm),
@@ -747,28 +768,35 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
       for (const one of found.pool.filter((x) => cellParameters(x.t.kind) === 1).slice(0, 4)) {
         const explained = new Set(one.hkls.map((h) => h.peak));
         const rest = new Set(scope.filter((i) => !explained.has(i)));
-        const two = rest.size >= 2 ? search(rest)?.best ?? null : null;
-        if (!two) continue;
-        const both = new Set([...explained, ...two.hkls.map((h) => h.peak)]);
-        const strongDone = strongScope.filter((i) => both.has(i)).length;
-        const gm = Math.sqrt(one.fom.fN * two.fom.fN);
-        // the simplest description wins: two phases with more free cell parameters than the one
-        // cell must explain at least two more lines; two one-parameter phases (as many parameters
-        // as one two-parameter cell) need only explain as many, with the better figure of merit
-        const extra = cellParameters(one.t.kind) + cellParameters(two.t.kind) > cellParameters(firstBest.t.kind) ? 2 : 0;
-        // a single cell that is not convincing itself (F_N < 20) gives way to two convincing phases
-        // explaining every strong line, even with up to two weak lines fewer (left unindexed)
-        const better = (both.size >= firstBest.hkls.length + extra && gm > firstBest.fom.fN) || (firstBest.fom.fN < 20 && both.size >= firstBest.hkls.length - 2);
-        // each phase of the pair must be convincing on its own (F_N ≥ 20 and at least half the single cell's): a cell of high indices fits a few lines by chance
-        const convincing = Math.min(one.fom.fN, two.fom.fN) >= Math.max(20, 0.5 * firstBest.fom.fN);
-        if (strongDone >= strongScope.length && one.hkls.length >= 3 && two.hkls.length >= 3 && better && convincing) {
-          phases.push(phaseOf(one, false), phaseOf(two, false));
-          notes.push(`two phases (${LATTICE_WORDS[one.t.kind]} and ${LATTICE_WORDS[two.t.kind]}) explain the lines better than one ${LATTICE_WORDS[firstBest.t.kind]} cell (a ${firstBest.t.a.toPrecision(6)} nm, c ${firstBest.t.c.toPrecision(6)} nm)`);
-          mixtureFirst = true;
-          // what the search said of the single cell (another lattice as good) no longer applies
-          notes.splice(firstNotesAt, firstNotesEnd - firstNotesAt);
-          break;
+        const restFound = rest.size >= 2 ? search(rest) : null;
+        if (!restFound) continue;
+        // the best phase among the rest, and the best one-parameter phase there (the pair of as many parameters as the one cell)
+        const options2 = [restFound.best, restFound.pool.find((x) => cellParameters(x.t.kind) === 1 && x.hkls.length >= 3 && x.fom.fN >= 20)].filter((x, k, all): x is Solution => !!x && all.indexOf(x) === k);
+        let pairFound = false;
+        for (const two of options2) {
+          const both = new Set([...explained, ...two.hkls.map((h) => h.peak)]);
+          const strongDone = strongScope.filter((i) => both.has(i)).length;
+          const gm = Math.sqrt(one.fom.fN * two.fom.fN);
+          // the simplest description wins: two phases with more free cell parameters than the one
+          // cell must explain at least two more lines; two one-parameter phases (as many parameters
+          // as one two-parameter cell) need only explain as many, with the better figure of merit
+          const extra = cellParameters(one.t.kind) + cellParameters(two.t.kind) > cellParameters(firstBest.t.kind) ? 2 : 0;
+          // a single cell that is not convincing itself (F_N < 20) gives way to two convincing phases
+          // explaining every strong line, even with up to two weak lines fewer (left unindexed)
+          const better = (both.size >= firstBest.hkls.length + extra && gm > firstBest.fom.fN) || (firstBest.fom.fN < 20 && extra === 0 && both.size >= firstBest.hkls.length - 2);
+          // each phase of the pair must be convincing on its own (F_N ≥ 20 and at least half the single cell's): a cell of high indices fits a few lines by chance
+          const convincing = Math.min(one.fom.fN, two.fom.fN) >= Math.max(20, 0.5 * firstBest.fom.fN);
+          if (strongDone >= strongScope.length && one.hkls.length >= 3 && two.hkls.length >= 3 && better && convincing) {
+            phases.push(phaseOf(one, false), phaseOf(two, false));
+            notes.push(`two phases (${LATTICE_WORDS[one.t.kind]} and ${LATTICE_WORDS[two.t.kind]}) explain the lines better than one ${LATTICE_WORDS[firstBest.t.kind]} cell (a ${firstBest.t.a.toPrecision(6)} nm, c ${firstBest.t.c.toPrecision(6)} nm)`);
+            mixtureFirst = true;
+            // what the search said of the single cell (another lattice as good) no longer applies
+            notes.splice(firstNotesAt, firstNotesEnd - firstNotesAt);
+            pairFound = true;
+            break;
+          }
         }
+        if (pairFound) break;
       }
     }
     if (mixtureFirst) complete = true;

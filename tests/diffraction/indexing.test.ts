@@ -67,6 +67,31 @@ describe('indexPattern on standard reference materials', () => {
     expect(Math.abs(lam.cNm / d - 1)).toBeLessThan(2e-4);
     expect(Math.abs(r.zeroShiftDeg! + 0.05)).toBeLessThan(3 * r.zeroShiftUncDeg! + 0.002);
   });
+  test('a zero shift no better than noise is not fitted (likelihood ratio, 1 degree of freedom, 5 %): the lamellar cell is not bent by it', () => {
+    // a clay's 001–005 at d001 = 1.25 nm (one water layer, reference-values §3), broad lines placed with errors of ≈ their 0.01° uncertainty
+    const c = 1.25;
+    const errs = [0.008, -0.006, 0.004, -0.009, 0.005];
+    const peaks: IndexPeak[] = errs.map((e, j) => {
+      const tt = dToTwoTheta(c / (j + 1), CU1) + e;
+      return { dNm: CU1 / (2 * Math.sin((tt * Math.PI) / 360)), dUncNm: 1e-4, twoThetaDeg: tt, twoThetaUncDeg: 0.01, intensity: [100, 12, 18, 6, 7][j], fwhmDeg: 0.9 };
+    });
+    const r = indexPattern(peaks, { wavelengthNm: CU1 });
+    const lam = r.phases.find((p) => p.kind === 'lamellar')!;
+    expect(lam.zeroShiftDeg).toBeNull();
+    expect(r.zeroShiftDeg).toBeNull();
+    expect(Math.abs(lam.cNm / c - 1)).toBeLessThan(3e-4);
+    expect(Math.abs(lam.cNm / c - 1)).toBeLessThan(3 * lam.cUncNm / c);
+  });
+  test('a clay film (d001 = 1.25 nm, reference-values §3) is a lamellar stack, not a tetragonal cell whose only hk lines are a biased 004 and a 103 on top of 005 (synthetic benchmark case, seed 2, its fitted peaks)', () => {
+    // 2θ, u(2θ), area, FWHM as fitted on the drawn pattern (Cu Kα1 + Kα2, polymer halo at 19.6°); drawn truth: 001–005 of 1.25 nm
+    const fitted = [[7.0611, 0.0018, 1470, 0.797], [21.297, 0.014, 155, 0.842], [28.5937, 0.015, 42, 0.774], [35.9134, 0.024, 34.7, 0.913]];
+    const peaks: IndexPeak[] = fitted.map(([tt, u, area, fwhm]) => ({ dNm: CU1 / (2 * Math.sin((tt * Math.PI) / 360)), dUncNm: 1e-4, twoThetaDeg: tt, twoThetaUncDeg: u, intensity: area, fwhmDeg: fwhm }));
+    const r = indexPattern(peaks, { wavelengthNm: CU1 });
+    expect(r.phases.map((p) => p.kind)).toEqual(['lamellar']);
+    const lam = r.phases[0];
+    expect(lam.lines.map((l) => l.hkl[2])).toEqual([1, 3, 4, 5]);
+    expect(Math.abs(lam.cNm / 1.25 - 1)).toBeLessThan(2e-3);
+  });
   test('an internal standard (Si, CODATA) fixes the zero shift; the sample phase is indexed on the corrected lines', () => {
     const si = 0.5431020511;
     const au = 0.40782; // fcc metal, from memory
