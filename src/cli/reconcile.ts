@@ -1,6 +1,7 @@
 /**
  * `stratameter reconcile --pattern PATTERN MEASUREMENT.json...` (formerly `match`): reconciles periods and sheets measured
- * in micrographs with the peaks of a diffraction pattern (and optionally a reference phase's CIF).
+ * in micrographs with the peaks of a diffraction pattern, the ring and spot d-spacings of an
+ * electron-diffraction measurement (`saed --json`) and optionally a reference phase's CIF.
  */
 import { readFile } from 'node:fs/promises';
 import { basename } from 'node:path';
@@ -12,20 +13,25 @@ import { CifError, parseCif, powderReflections } from '../diffraction/cif';
 import { ReportError, readMeasurementReport } from '../diffraction/measurement-report';
 import { reconcile, type DiffractionLine, type MicrographPeriod, type SheetStats } from '../diffraction/reconcile';
 
-const usage = `Usage: stratameter reconcile --pattern PATTERN [--cif CIF] MEASUREMENT.json... [--wavelength W]
-                             [--z-max Z] [--all-lines] [--json]
+const usage = `Usage: stratameter reconcile --pattern PATTERN | --saed SAED.json [--cif CIF] MEASUREMENT.json...
+                             [--wavelength W] [--z-max Z] [--all-lines] [--json]
 
 Pairs every period measured in the micrographs (the JSON printed by 'stratameter measure --json'
 or 'stratameter sheets --json') with the diffraction d-values it can be: the pattern's fitted
 peaks, every member of a lamellar, hexagonal or cubic series recognised in it, and, with --cif,
-the reflections of a reference phase. Each pair gets its relative difference and its z =
+the reflections of a reference phase, and, with --saed, the ring and spot d-spacings of an
+electron-diffraction pattern (the JSON printed by 'stratameter saed --camera … --json'). Each pair gets its relative difference and its z =
 (period − d)/√(u_period² + u_d²). Sheet thickness is compared with the Scherrer size of the 00l
 peaks. When the best pairs agree on one significant common factor, a pixel-size correction is
 proposed (never applied).
 
 Options:
   --pattern PATTERN  the diffraction pattern (see 'stratameter xrd --help' for its options:
-                     --wavelength, --axis, --k, --instrument-fwhm, --ka2, --min-snr also apply)
+                     --wavelength, --axis, --k, --instrument-fwhm, --ka2, --min-snr,
+                     --internal-standard also apply)
+  --saed FILE        add the electron-diffraction d-spacings of 'stratameter saed --json' (each
+                     with its standard uncertainty, camera constant included); --pattern may
+                     then be left out
   --cif CIF          add a reference phase's reflections (d ≥ 0.1 nm)
   --z-max Z          largest |z| for a pair (default 3)
   --all-lines        list every unmatched line (default: the strong ones, ≥ 10 % of the
@@ -34,6 +40,40 @@ Options:
 `;
 
 const f = (v: number, d = 4) => (Number.isFinite(v) ? v.toFixed(d) : '—');
+
+/**
+ * The d-spacings of an electron-diffraction measurement, as written by `stratameter saed --json`:
+ * its `lines` (d and standard uncertainty, nm), with the rings' heights and the spots' intensities.
+ * @param text the file's text
+ * @param file its name, for the labels and the errors
+ * @returns one line per ring and spot, labelled with the file's name
+ * @throws UsageError naming the file and what is wrong with it
+ */
+export function readElectronLines(text: string, file: string): DiffractionLine[] {
+  let v: unknown;
+  try {
+    v = JSON.parse(text);
+  } catch {
+    throw new UsageError(`--saed ${file}: not JSON (expected the output of 'stratameter saed --camera … --json')`);
+  }
+  const o = v as { lines?: unknown; rings?: Array<{ height?: unknown }>; spots?: Array<{ intensity?: unknown }>; uncertainties?: unknown; camera?: unknown };
+  if (!o || typeof o !== 'object' || !Array.isArray(o.lines)) {
+    const why = o && typeof o === 'object' && 'calibration' in o ? 'a camera-constant calibration, not a measurement of a sample' : 'no lines';
+    throw new UsageError(`--saed ${file}: ${why} (expected the output of 'stratameter saed --camera … --json')`);
+  }
+  if (typeof o.uncertainties !== 'string' || !o.uncertainties.startsWith('standard (k = 1)')) throw new UsageError(`--saed ${file}: the uncertainties are not stated as standard (k = 1); not read`);
+  const list = o.lines as unknown[];
+  if (list.length === 0) throw new UsageError(`--saed ${file}: the measurement has no ring or spot`);
+  const base = basename(file);
+  const heights = [...(o.rings ?? []).map((r) => r.height), ...(o.spots ?? []).map((s) => s.intensity)];
+  return list.map((l, i) => {
+    const x = l as { dNm?: unknown; dUncNm?: unknown; label?: unknown };
+    if (!(typeof x.dNm === 'number' && x.dNm > 0 && Number.isFinite(x.dNm))) throw new UsageError(`--saed ${file}: line ${i + 1} has d = ${String(x.dNm)}, not a positive number of nm`);
+    if (!(typeof x.dUncNm === 'number' && x.dUncNm >= 0 && Number.isFinite(x.dUncNm))) throw new UsageError(`--saed ${file}: line ${i + 1} has an uncertainty of ${String(x.dUncNm)}, not a number ≥ 0`);
+    const h = heights.length === list.length ? heights[i] : undefined;
+    return { dNm: x.dNm, dUncNm: x.dUncNm, label: `${base} ${typeof x.label === 'string' ? x.label : `line ${i + 1}`}`, phase: base, intensity: typeof h === 'number' && Number.isFinite(h) ? h : undefined };
+  });
+}
 
 /** A pair for JSON, its numbers to the digits their uncertainty supports. */
 function tidyPair<T extends { dNm: number; dUncNm: number; relDiff: number; z: number }>(p: T): T {
@@ -46,16 +86,21 @@ export const command: CliCommand = {
   usage,
   async run(args: string[], io: CliIo): Promise<number> {
     const { positional, options, flags } = parseArgs(args, {
-      values: ['pattern', 'cif', 'z-max', 'wavelength', 'axis', 'k', 'instrument-fwhm', 'standard', 'instrument', 'correction', 'ka2', 'min-snr'],
+      values: ['pattern', 'saed', 'cif', 'z-max', 'wavelength', 'axis', 'k', 'instrument-fwhm', 'standard', 'instrument', 'correction', 'ka2', 'min-snr', 'internal-standard'],
       booleans: ['json', 'all-lines'],
     });
     const patternPath = options.get('pattern');
-    if (!patternPath) throw new UsageError('--pattern PATTERN is required');
+    const saedPath = options.get('saed');
+    if (!patternPath && !saedPath) throw new UsageError('--pattern PATTERN or --saed SAED.json is required (the diffraction side)');
     if (positional.length === 0) throw new UsageError('give at least one MEASUREMENT.json');
     const zMaxText = options.get('z-max');
     const zMax = zMaxText === undefined ? 3 : Number(zMaxText);
     if (!(zMax > 0)) throw new UsageError(`--z-max must be a positive number, got '${zMaxText}'`);
-    const { analysis } = await loadAndAnalyse(patternPath, options);
+    const analysis = patternPath ? (await loadAndAnalyse(patternPath, options)).analysis : null;
+    if (!patternPath) {
+      const only = ['wavelength', 'axis', 'k', 'instrument-fwhm', 'standard', 'instrument', 'correction', 'ka2', 'min-snr', 'internal-standard'].filter((o) => options.has(o));
+      if (only.length) throw new UsageError(`${only.map((o) => `--${o}`).join(', ')} go${only.length === 1 ? 'es' : ''} with --pattern`);
+    }
     const notes: string[] = [];
     const periods: MicrographPeriod[] = [];
     let sheets: SheetStats | null = null;
@@ -83,17 +128,27 @@ export const command: CliCommand = {
       }
     }
     const seriesLabel = new Map<number, string>();
-    for (const s of analysis.series) for (const m of s.members) seriesLabel.set(m.peak, s.kind === 'lamellar' ? m.index : `${s.kind} ${m.index}`);
+    const series = analysis?.series ?? [];
+    for (const s of series) for (const m of s.members) seriesLabel.set(m.peak, s.kind === 'lamellar' ? m.index : `${s.kind} ${m.index}`);
     const hklOf = new Map<number, string>();
-    for (const ph of analysis.indexing.phases) for (const l of ph.lines) hklOf.set(l.peak, l.hkl.join(' '));
-    const lines: DiffractionLine[] = analysis.peaks.map((p, i) => ({
+    for (const ph of analysis?.indexing.phases ?? []) for (const l of ph.lines) hklOf.set(l.peak, l.hkl.join(' '));
+    const lines: DiffractionLine[] = (analysis?.peaks ?? []).map((p, i) => ({
       dNm: p.dCorrectedNm,
       dUncNm: p.budget.combinedNm,
       label: seriesLabel.get(i) ?? hklOf.get(i) ?? (p.twoThetaDeg !== null ? `peak ${sig(p.twoThetaDeg, 5)}°` : `peak q ${sig(p.qInvNm, 5)}`),
-      phase: basename(patternPath),
+      phase: basename(patternPath!),
       crystalliteNm: p.crystalliteNm,
       intensity: p.intensity,
     }));
+    if (saedPath) {
+      let text: string;
+      try {
+        text = await readFile(saedPath, 'utf8');
+      } catch (e) {
+        throw new UsageError(`cannot read --saed '${saedPath}': ${(e as NodeJS.ErrnoException).code ?? 'the file cannot be opened'}`);
+      }
+      lines.push(...readElectronLines(text, saedPath));
+    }
     const cifPath = options.get('cif');
     if (cifPath) {
       let text: string;
@@ -114,7 +169,7 @@ export const command: CliCommand = {
       const phase = st.name || basename(cifPath);
       let reflections;
       try {
-        reflections = powderReflections(st, { dMinNm: 0.1, wavelengthNm: analysis.wavelengthNm ?? undefined });
+        reflections = powderReflections(st, { dMinNm: 0.1, wavelengthNm: analysis?.wavelengthNm ?? undefined });
       } catch (e) {
         if (e instanceof RangeError) throw new UsageError(`${cifPath}: ${e.message}`);
         throw e;
@@ -127,7 +182,7 @@ export const command: CliCommand = {
     }
     const calRel = rels.size === 1 ? [...rels][0] : undefined;
     if (rels.size > 1) notes.push('measurements carry different calibration uncertainties: the calibration proposal uses the full uncertainties');
-    const rec = reconcile({ periods, sheets: sheets ?? undefined, calibrationRelUncertainty: calRel }, { lines, series: analysis.series }, { zMax });
+    const rec = reconcile({ periods, sheets: sheets ?? undefined, calibrationRelUncertainty: calRel }, { lines, series }, { zMax });
     // unmatched lines: the strong ones (≥ 10 % of the strongest line of their source), or all with --all-lines
     const unmatchedSet = new Set(rec.unmatchedLines);
     const unmatched = lines.filter((l) => unmatchedSet.has(l.label));
@@ -136,18 +191,19 @@ export const command: CliCommand = {
     const strongUnmatched = flags.has('all-lines') ? unmatched : unmatched.filter((l) => (l.intensity ?? 0) >= 0.1 * (topOf.get(l.phase ?? '') ?? 0));
     if (flags.has('json')) {
       io.out(JSON.stringify({
-        pattern: patternPath,
+        pattern: patternPath ?? null,
+        saed: saedPath ?? null,
         measurements: positional,
-        wavelengthNm: tidy(analysis.wavelengthNm),
-        radiation: analysis.radiationLabel,
-        radiationSource: analysis.radiationSource,
+        wavelengthNm: tidy(analysis?.wavelengthNm ?? null),
+        radiation: analysis?.radiationLabel ?? null,
+        radiationSource: analysis?.radiationSource ?? null,
         periods: periods.map((p) => ({ ...p, periodNm: tidy(p.periodNm, p.uncertaintyNm), uncertaintyNm: tidyU(p.uncertaintyNm) })),
         pairs: rec.pairs.map(tidyPair),
         best: rec.best.map((b) => (b ? tidyPair(b) : null)),
         unmatchedPeriods: rec.unmatchedPeriods.map((i) => ({ ...periods[i], periodNm: tidy(periods[i].periodNm, periods[i].uncertaintyNm), uncertaintyNm: tidyU(periods[i].uncertaintyNm) })),
         unmatchedLines: rec.unmatchedLines,
         unmatchedStrongLines: strongUnmatched.map((l) => ({ label: l.label, dNm: tidy(l.dNm, l.dUncNm), dUncNm: tidyU(l.dUncNm), intensity: tidy(l.intensity ?? null, null, 3), phase: l.phase })),
-        series: analysis.series.map((s) => ({ kind: s.kind, cellNm: tidy(s.cellNm, s.cellUncNm), cellUncNm: tidyU(s.cellUncNm), members: s.members.map((m) => ({ index: m.index, dNm: tidy(m.dNm, s.cellUncNm) })) })),
+        series: series.map((s) => ({ kind: s.kind, cellNm: tidy(s.cellNm, s.cellUncNm), cellUncNm: tidyU(s.cellUncNm), members: s.members.map((m) => ({ index: m.index, dNm: tidy(m.dNm, s.cellUncNm) })) })),
         thickness: rec.thickness,
         calibration: rec.calibration,
         notes: [...notes, ...rec.notes],
@@ -155,8 +211,9 @@ export const command: CliCommand = {
       return 0;
     }
     const out: string[] = [];
-    out.push(`${periods.length} micrograph period(s) against ${lines.length} diffraction line(s) from ${patternPath}${cifPath ? ` and ${cifPath}` : ''}`);
-    out.push(`wavelength: ${analysis.radiationLabel} — from ${analysis.radiationSource}; every ± is the combined standard uncertainty (k = 1) of period and line`);
+    out.push(`${periods.length} micrograph period(s) against ${lines.length} diffraction line(s) from ${[patternPath, saedPath, cifPath].filter(Boolean).join(' and ')}`);
+    if (analysis) out.push(`wavelength: ${analysis.radiationLabel} — from ${analysis.radiationSource}`);
+    out.push('every ± is the combined standard uncertainty (k = 1) of period and line');
     out.push('');
     out.push('period (nm)          best match                       d (nm)             diff      z');
     periods.forEach((p, i) => {

@@ -10,12 +10,13 @@ import type { AxisUnit, Pattern } from '../diffraction/pattern';
 import { PatternReadError, readPatternFile } from '../diffraction/read-pattern';
 import { pm, sig, tidy, tidyU } from '../diffraction/format';
 import { checkInstrumentProfile } from '../diffraction/instrument';
+import { internalStandardFrom } from '../diffraction/internal-standard';
 import { writeFile } from 'node:fs/promises';
 
 const usage = `Usage: stratameter xrd PATTERN [--wavelength W] [--axis 2theta|q-nm|q-A] [--k K]
                        [--standard PATTERN [--save-instrument OUT.json] | --instrument PROFILE.json
                         | --instrument-fwhm DEG [--correction gaussian|lorentzian]]
-                       [--ka2 doublet|none] [--json]
+                       [--ka2 doublet|none] [--internal-standard si|lab6|cubic:A±U[:F|I|P]] [--json]
 
 Finds and fits the peaks of a diffraction pattern (two or three columns: position, intensity,
 optional uncertainty), indexes them (cubic P, I, F; tetragonal P, I; hexagonal P, R; lamellar;
@@ -35,6 +36,11 @@ Options:
   --instrument-fwhm DEG    a constant instrumental FWHM in degrees 2θ instead
   --correction R     with --instrument-fwhm: gaussian (quadratic, default) or lorentzian (linear)
   --ka2 M            doublet: fit Kα2 with each peak (default for a tube's Kα1); none
+  --internal-standard S    a standard mixed into the sample: its certified cell is held and the
+                     zero shift (with specimen displacement) is fitted from its lines, its
+                     uncertainty containing the fit and the certified cell: si (NIST SRM 640f),
+                     lab6 (SRM 660c), or cubic:A±U[:F|I|P] a cubic cell of your own (nm, standard
+                     uncertainty). Certified at 22.5 °C: measure near that temperature
   --json             one JSON object on standard output instead of a table
 
 A peak is kept when its fitted area stands above its counting noise at a 1 % false-alarm rate per
@@ -87,6 +93,15 @@ export async function loadAndAnalyse(path: string, options: Map<string, string>)
     ka2: ka2 as 'doublet' | 'none' | undefined,
     correction: correction as 'gaussian' | 'lorentzian' | undefined,
   };
+  const stdText = options.get('internal-standard');
+  if (stdText !== undefined) {
+    if (pattern.axis !== 'twoTheta') throw new UsageError(`--internal-standard measures a zero shift in 2θ: ${path} is on a q axis`);
+    try {
+      opts.internalStandard = internalStandardFrom(stdText);
+    } catch (e) {
+      throw new UsageError(`--internal-standard: ${(e as Error).message}`);
+    }
+  }
   if (opts.ka2 === 'doublet' && !pattern.ka2Nm) throw new UsageError('--ka2 doublet needs a Kα1 wavelength with a known Kα2 (a preset such as CuKa1, or a header naming both)');
   const inst = num('instrument-fwhm');
   const std = options.get('standard');
@@ -234,7 +249,11 @@ function table(path: string, a: PatternAnalysis): string {
     const wh = a.williamsonHall[j];
     if (wh) lines.push(`  Williamson–Hall over ${wh.lines} lines: size ${pm(wh.sizeNm, K * wh.sizeUncNm)} nm, microstrain ${pm(wh.strain, K * wh.strainUnc)}`);
   });
-  if (a.indexing.zeroShiftDeg !== null) lines.push(`Zero shift: ${pm(a.indexing.zeroShiftDeg, K * (a.indexing.zeroShiftUncDeg ?? 0))}° (± ${K}u), removed from the d-spacings`);
+  if (a.indexing.zeroShiftDeg !== null) {
+    const st = a.indexing.phases.find((p) => p.standard);
+    const contains = st ? `contains the fit of the standard's ${st.lines.length} lines and its certified cell` : 'contains the fit of the indexed lines';
+    lines.push(`Zero shift: ${pm(a.indexing.zeroShiftDeg, K * (a.indexing.zeroShiftUncDeg ?? 0))}° (± ${K}u; ${contains}), removed from the d-spacings`);
+  }
   if (a.indexing.unindexed.length) lines.push(`Not indexed: ${a.indexing.unindexed.map((i) => `d ${sig(a.peaks[i].dNm, 5)} nm`).join(', ')}`);
   for (const s of a.series) {
     const what = s.kind === 'lamellar' ? 'period' : s.kind === 'hexagonal' ? 'a₀' : 'a';
@@ -251,7 +270,7 @@ export const command: CliCommand = {
   usage,
   async run(args: string[], io: CliIo): Promise<number> {
     const { positional, options, flags } = parseArgs(args, {
-      values: ['wavelength', 'axis', 'k', 'instrument-fwhm', 'standard', 'instrument', 'save-instrument', 'correction', 'ka2', 'min-snr'],
+      values: ['wavelength', 'axis', 'k', 'instrument-fwhm', 'standard', 'instrument', 'save-instrument', 'correction', 'ka2', 'min-snr', 'internal-standard'],
       booleans: ['json'],
     });
     if (positional.length !== 1) throw new UsageError('give exactly one PATTERN file');

@@ -4,7 +4,7 @@
  */
 import { fitInstrumentProfile, instrumentWidth, sampleBreadth, williamsonHall, type InstrumentProfile, type WilliamsonHall } from './instrument';
 import { indexPattern, type IndexOptions, type IndexResult } from './indexing';
-import type { LatticeCell } from './lattice';
+import type { InternalStandard } from './internal-standard';
 import type { Pattern } from './pattern';
 import { fitPattern, type FitOptions, type FittedPeak } from './peaks';
 import { scherrerSize, type BroadeningCorrection } from './scherrer';
@@ -23,7 +23,7 @@ export interface AnalyseOptions extends FitOptions {
   /** Index the peaks (default true for patterns with a wavelength). */
   index?: boolean;
   /** An internal standard mixed into the sample: its cell is held and the zero shift fitted from its lines. */
-  internalStandard?: { name: string; cell: LatticeCell };
+  internalStandard?: InternalStandard;
   /** Allowance for the zero shift and specimen displacement when neither a standard nor an indexed phase measures them, degrees 2θ, half-width of a uniform distribution (default 0.05°, common practice for a laboratory instrument without a standard). */
   zeroAllowanceDeg?: number;
 }
@@ -195,6 +195,9 @@ export function analysePattern(pattern: Pattern, options: AnalyseOptions = {}): 
     });
   }
   const notes = [...pattern.notes, ...fit.notes, ...warnings, ...indexing.notes];
+  const std = options.internalStandard;
+  const stdPhase = indexing.phases.find((p) => p.standard);
+  if (std && stdPhase) notes.push(`internal standard ${std.name}${std.source ? ` (${std.source})` : ''}: its cell held, the zero shift fitted from its ${stdPhase.lines.length} lines; its ± contains the fit and the cell's uncertainty`);
   if (z !== null && Math.abs(z) > 2 * zU && Math.abs(z) > 0.005) notes.push(`zero shift ${z.toFixed(4)}° ± ${zU.toPrecision(2)}° found and removed from the d-spacings (dCorrectedNm)`);
   return {
     wavelengthNm: lambda,

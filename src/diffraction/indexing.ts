@@ -5,6 +5,7 @@
  */
 import { cellParameters, centringAllows, latticeLines, LATTICE_KINDS, qOf, type LatticeCell, type LatticeKind } from './lattice';
 import { levenbergMarquardt } from './lm';
+import { zeroShiftCellPartDeg, type InternalStandard } from './internal-standard';
 
 /** A peak offered to the indexer. */
 export interface IndexPeak {
@@ -34,7 +35,7 @@ export interface IndexOptions {
   /** Refine a zero shift with the cell (2θ data, default true). */
   fitZeroShift?: boolean;
   /** A phase of known cell in the sample (internal standard): its cell is held and only the zero shift is fitted from its lines. */
-  standard?: { name: string; cell: LatticeCell };
+  standard?: InternalStandard;
   /** Try two-phase mixtures when one phase leaves strong lines unexplained (default true). */
   mixtures?: boolean;
   /** Smallest Smith–Snyder F_N for a phase to be reported (default 8). */
@@ -147,12 +148,15 @@ interface Trial {
   a: number;
   c: number;
   zero: number;
+  /** Further reflection conditions of a known structure (an internal standard's space group). */
+  allows?: (h: number, k: number, l: number) => boolean;
 }
 
 /** Lines of a trial cell within the pattern's d range. */
 function linesOf(w: Work, t: Trial) {
   const cell: LatticeCell = { kind: t.kind, aNm: t.a, cNm: t.c };
-  return latticeLines(cell, w.dMin * 0.995, w.dMax * 1.005);
+  const all = latticeLines(cell, w.dMin * 0.995, w.dMax * 1.005);
+  return t.allows ? all.filter((l) => t.allows!(...l.hkl)) : all;
 }
 
 /**
@@ -222,7 +226,9 @@ function figureOfMerit(w: Work, t: Trial, lines: ReturnType<typeof latticeLines>
   const n = Math.min(30, idx.length);
   if (n === 0) return { fN: 0, n: 0, meanDelta: NaN, nPossible: 0, mN: 0 };
   const first = idx.slice(0, n);
-  const qN = w.q[first[n - 1].peak];
+  // possible lines up to the N-th observed one, that line's own calculated position included (an
+  // observed line a little below its calculated Q must not leave its own line uncounted)
+  const qN = Math.max(...first.map((a) => Math.max(w.q[a.peak], lines[a.line].q)));
   const nPoss = Math.max(1, lines.filter((l) => l.q <= qN * (1 + 1e-9)).length);
   let meanDelta: number;
   if (w.lambda !== null && first.every((a) => w.tt[a.peak] !== null)) meanDelta = first.reduce((s, a) => s + a.delta, 0) / n;
@@ -231,7 +237,7 @@ function figureOfMerit(w: Work, t: Trial, lines: ReturnType<typeof latticeLines>
   const fN = (1 / Math.max(meanDelta, floor)) * (n / nPoss);
   const m = Math.min(20, idx.length);
   const firstM = idx.slice(0, m);
-  const qM = w.q[firstM[m - 1].peak];
+  const qM = Math.max(...firstM.map((a) => Math.max(w.q[a.peak], lines[a.line].q)));
   const nPossM = Math.max(1, lines.filter((l) => l.q <= qM * (1 + 1e-9)).length);
   const epsQ = firstM.reduce((s, a) => s + Math.abs(w.q[a.peak] - qOfZeroCorrected(w, t, a.peak, lines[a.line].q)), 0) / m;
   const mN = qM / (2 * Math.max(epsQ, 1e-9 * qM) * nPossM);
@@ -269,7 +275,7 @@ function refine(w: Work, t: Trial, hkls: Array<{ peak: number; hkl: [number, num
         c = p[1];
       }
     }
-    return { kind: t.kind, a, c, zero: useZero ? p[np0] : 0 };
+    return { kind: t.kind, a, c, zero: useZero ? p[np0] : 0, allows: t.allows };
   };
   const p0: number[] = [];
   if (!holdCell) {
@@ -451,6 +457,22 @@ function evaluate(w: Work, trial: Trial, subset: Set<number> | null, opts: Requi
     // after refinement the tolerance tightens to the lines' own uncertainty plus 0.02°
     asg = assign(w, t, lines, round === 0 ? opts.searchToleranceDeg : 0.03);
   }
+  // the zero shift is a parameter like any other: kept only when it lowers χ² beyond chance
+  // (likelihood ratio, 1 degree of freedom, 5 %: 3.84); otherwise it is not measured (the d budget
+  // then carries its allowance) and the cell is not bent by a shift fitted to noise
+  if (opts.fitZeroShift && !holdCell && w.lambda !== null && cov !== null && cov.length > cellParameters(t.kind)) {
+    const clean = asg.flatMap((a) => (a && !a.overlap && (!subset || subset.has(a.peak)) ? [{ peak: a.peak, hkl: lines[a.line].hkl }] : []));
+    const r0 = refine(w, { ...t, zero: 0 }, clean, false, false);
+    if (r0 && r0.chi2 - chi2 < 3.84 * Math.max(1, chi2 / dof)) {
+      t = r0.t;
+      cov = r0.cov;
+      chi2 = r0.chi2;
+      dof = r0.dof;
+      lines = linesOf(w, t);
+      if (lines.length === 0 || lines.length > 4000) return null;
+      asg = assign(w, t, lines, 0.03);
+    }
+  }
   hkls = asg.flatMap((a) => (a && (!subset || subset.has(a.peak)) ? [{ peak: a.peak, hkl: lines[a.line].hkl }] : []));
   if (hkls.length === 0) return null;
   // a two-parameter cell must be fixed by its lines: some depend on a, some on c, not all alike
@@ -468,9 +490,11 @@ function evaluate(w: Work, trial: Trial, subset: Set<number> | null, opts: Requi
       sxz += (xh * zh) / norm ** 2;
     }
     if (sxx * szz - sxz * sxz < 0.05 * Math.max(1, hkls.length / 4)) return null;
-    // and by more than one line each way: a single line on the other axis is a coincidence
-    const onA = hkls.filter((h) => h.hkl[0] !== 0 || h.hkl[1] !== 0).length;
-    const onC = hkls.filter((h) => h.hkl[2] !== 0).length;
+    // and by more than one line each way: a single line on the other axis is a coincidence; a
+    // line another calculated line shares (a blend, e.g. 103 on top of 005) is evidence for neither
+    const blended = new Set(asg.flatMap((a) => (a && a.overlap ? [a.peak] : [])));
+    const onA = hkls.filter((h) => !blended.has(h.peak) && (h.hkl[0] !== 0 || h.hkl[1] !== 0)).length;
+    const onC = hkls.filter((h) => !blended.has(h.peak) && h.hkl[2] !== 0).length;
     if (onA < 2 || onC < 2) return null;
   }
   if (!(t.c >= MIN_EDGE_NM) || (t.kind !== 'lamellar' && !(t.a >= MIN_EDGE_NM))) return null;
@@ -544,7 +568,10 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
     q: peaks.map((p) => 1 / (p.dNm * p.dNm)),
     sq: peaks.map((p) => (2 * Math.max(p.dUncNm, 1e-9 * p.dNm)) / p.dNm ** 3),
     tt: peaks.map((p) => (lambda !== null ? p.twoThetaDeg : null)),
-    stt: peaks.map((p) => Math.max(p.twoThetaUncDeg ?? 0, 1e-6)),
+    // a line's position also carries its profile and background misfit, which grows with its
+    // breadth: an allowance of 3 % of the FWHM beside the fit's own uncertainty (a broad line on a
+    // halo's flank moves by a few hundredths of a degree)
+    stt: peaks.map((p) => Math.max(Math.hypot(p.twoThetaUncDeg ?? 0, 0.03 * (p.fwhmDeg ?? 0)), 1e-6)),
     fw: peaks.map((p) => p.fwhmDeg ?? 0),
     strong,
     strongOrder: [...strong].sort((a, b) => peaks[b].dNm - peaks[a].dNm),
@@ -618,10 +645,18 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
   // an internal standard first: its cell held, the zero shift fitted from its lines
   if (options.standard) {
     const st = options.standard;
-    const s = evaluate(w, { kind: st.cell.kind, a: st.cell.aNm, c: st.cell.cNm, zero: 0 }, null, { ...opts, fitZeroShift: lambda !== null }, true);
+    const s = evaluate(w, { kind: st.cell.kind, a: st.cell.aNm, c: st.cell.cNm, zero: 0, allows: st.allows }, null, { ...opts, fitZeroShift: lambda !== null }, true);
     if (!s || s.hkls.length < 2) notes.push(`the standard ${st.name} explains fewer than two lines: not used`);
     else {
-      phases.push(phaseOf(s, true, st.name));
+      const ph = phaseOf(s, true, st.name);
+      // the certified cell's own uncertainty moves the zero shift too
+      const rel = st.relUncertainty ?? 0;
+      if (ph.zeroShiftUncDeg !== null && rel > 0) {
+        const used = s.hkls.filter((h) => w.tt[h.peak] !== null);
+        const cellPart = zeroShiftCellPartDeg(used.map((h) => w.tt[h.peak]!), used.map((h) => 1 / (w.stt[h.peak] ** 2 + 0.002 ** 2)), rel);
+        ph.zeroShiftUncDeg = Math.hypot(ph.zeroShiftUncDeg, cellPart);
+      }
+      phases.push(ph);
       remaining = new Set(peaks.map((_, i) => i).filter((i) => !s.hkls.some((h) => h.peak === i)));
     }
   }
@@ -677,6 +712,13 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
       if (!ca && a.strongExplained !== b.strongExplained) return b.strongExplained - a.strongExplained;
       const pa = cellParameters(a.t.kind);
       const pb = cellParameters(b.t.kind);
+      // once both figures of merit are convincing (F_N ≥ 20, common practice), a larger F_N is no
+      // further evidence (a few lines fit closely by chance) while lines explained are: between
+      // cells of as many parameters, one explaining half as many lines again wins
+      if (pa === pb && a.fom.fN >= 20 && b.fom.fN >= 20) {
+        if (a.hkls.length >= 1.5 * b.hkls.length) return -1;
+        if (b.hkls.length >= 1.5 * a.hkls.length) return 1;
+      }
       const sa = score(a) / pa;
       const sb = score(b) / pb;
       if (Math.abs(sa - sb) > 0.1 * Math.max(sa, sb)) return sb - sa;
@@ -696,7 +738,24 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
     if (alt) notes.push(`${LATTICE_WORDS[alt.t.kind]} (a ${alt.t.a.toPrecision(6)} nm${cellParameters(alt.t.kind) === 2 ? `, c ${alt.t.c.toPrecision(6)} nm` : ''}) indexes the same lines about as well as the ${LATTICE_WORDS[pool[0].t.kind]} cell chosen (the smaller cell); lines at higher angle would tell them apart`);
     return { best: pool[0], pool };
   };
-  const found = search(remaining);
+  const firstNotesAt = notes.length;
+  let found = search(remaining);
+  const firstNotesEnd = notes.length;
+  if (!found) {
+    // no lattice explains the strongest line: a lone line (the one order of a series in range, or
+    // the only line of a phase) must not hide the phases the other lines make; it is left unindexed
+    const scope0 = remaining ?? new Set(peaks.map((_, i) => i));
+    const strongIn = [...strong].filter((i) => scope0.has(i));
+    const lone = strongIn.length ? strongIn.reduce((a, b) => (peaks[a].intensity >= peaks[b].intensity ? a : b)) : -1;
+    if (lone >= 0 && scope0.size >= 4) {
+      const without = new Set([...scope0].filter((i) => i !== lone));
+      found = search(without);
+      if (found) {
+        remaining = without;
+        notes.push(`no lattice explains the strongest line (d ${peaks[lone].dNm.toPrecision(5)} nm) with the others: it is left unindexed and the phases are sought among the rest`);
+      }
+    }
+  }
   if (found) {
     const firstBest = found.best;
     const scope = remaining ? [...remaining] : peaks.map((_, i) => i);
@@ -709,21 +768,35 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
       for (const one of found.pool.filter((x) => cellParameters(x.t.kind) === 1).slice(0, 4)) {
         const explained = new Set(one.hkls.map((h) => h.peak));
         const rest = new Set(scope.filter((i) => !explained.has(i)));
-        const two = rest.size >= 2 ? search(rest)?.best ?? null : null;
-        if (!two) continue;
-        const both = new Set([...explained, ...two.hkls.map((h) => h.peak)]);
-        const strongDone = strongScope.filter((i) => both.has(i)).length;
-        const gm = Math.sqrt(one.fom.fN * two.fom.fN);
-        // the simplest description wins: two phases must explain at least two more lines than the one cell
-        const better = both.size >= firstBest.hkls.length + 2 && gm > firstBest.fom.fN;
-        // each phase of the pair must be convincing on its own (F_N ≥ 20 and at least half the single cell's): a cell of high indices fits a few lines by chance
-        const convincing = Math.min(one.fom.fN, two.fom.fN) >= Math.max(20, 0.5 * firstBest.fom.fN);
-        if (strongDone >= strongScope.length && one.hkls.length >= 3 && two.hkls.length >= 3 && better && convincing) {
-          phases.push(phaseOf(one, false), phaseOf(two, false));
-          notes.push(`two phases (${LATTICE_WORDS[one.t.kind]} and ${LATTICE_WORDS[two.t.kind]}) explain the lines better than one ${LATTICE_WORDS[firstBest.t.kind]} cell (a ${firstBest.t.a.toPrecision(6)} nm, c ${firstBest.t.c.toPrecision(6)} nm)`);
-          mixtureFirst = true;
-          break;
+        const restFound = rest.size >= 2 ? search(rest) : null;
+        if (!restFound) continue;
+        // the best phase among the rest, and the best one-parameter phase there (the pair of as many parameters as the one cell)
+        const options2 = [restFound.best, restFound.pool.find((x) => cellParameters(x.t.kind) === 1 && x.hkls.length >= 3 && x.fom.fN >= 20)].filter((x, k, all): x is Solution => !!x && all.indexOf(x) === k);
+        let pairFound = false;
+        for (const two of options2) {
+          const both = new Set([...explained, ...two.hkls.map((h) => h.peak)]);
+          const strongDone = strongScope.filter((i) => both.has(i)).length;
+          const gm = Math.sqrt(one.fom.fN * two.fom.fN);
+          // the simplest description wins: two phases with more free cell parameters than the one
+          // cell must explain at least two more lines; two one-parameter phases (as many parameters
+          // as one two-parameter cell) need only explain as many, with the better figure of merit
+          const extra = cellParameters(one.t.kind) + cellParameters(two.t.kind) > cellParameters(firstBest.t.kind) ? 2 : 0;
+          // a single cell that is not convincing itself (F_N < 20) gives way to two convincing phases
+          // explaining every strong line, even with up to two weak lines fewer (left unindexed)
+          const better = (both.size >= firstBest.hkls.length + extra && gm > firstBest.fom.fN) || (firstBest.fom.fN < 20 && extra === 0 && both.size >= firstBest.hkls.length - 2);
+          // each phase of the pair must be convincing on its own (F_N ≥ 20 and at least half the single cell's): a cell of high indices fits a few lines by chance
+          const convincing = Math.min(one.fom.fN, two.fom.fN) >= Math.max(20, 0.5 * firstBest.fom.fN);
+          if (strongDone >= strongScope.length && one.hkls.length >= 3 && two.hkls.length >= 3 && better && convincing) {
+            phases.push(phaseOf(one, false), phaseOf(two, false));
+            notes.push(`two phases (${LATTICE_WORDS[one.t.kind]} and ${LATTICE_WORDS[two.t.kind]}) explain the lines better than one ${LATTICE_WORDS[firstBest.t.kind]} cell (a ${firstBest.t.a.toPrecision(6)} nm, c ${firstBest.t.c.toPrecision(6)} nm)`);
+            mixtureFirst = true;
+            // what the search said of the single cell (another lattice as good) no longer applies
+            notes.splice(firstNotesAt, firstNotesEnd - firstNotesAt);
+            pairFound = true;
+            break;
+          }
         }
+        if (pairFound) break;
       }
     }
     if (mixtureFirst) complete = true;
@@ -782,3 +855,4 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
     notes,
   };
 }
+

@@ -67,6 +67,31 @@ describe('indexPattern on standard reference materials', () => {
     expect(Math.abs(lam.cNm / d - 1)).toBeLessThan(2e-4);
     expect(Math.abs(r.zeroShiftDeg! + 0.05)).toBeLessThan(3 * r.zeroShiftUncDeg! + 0.002);
   });
+  test('a zero shift no better than noise is not fitted (likelihood ratio, 1 degree of freedom, 5 %): the lamellar cell is not bent by it', () => {
+    // a clay's 001–005 at d001 = 1.25 nm (one water layer, reference-values §3), broad lines placed with errors of ≈ their 0.01° uncertainty
+    const c = 1.25;
+    const errs = [0.008, -0.006, 0.004, -0.009, 0.005];
+    const peaks: IndexPeak[] = errs.map((e, j) => {
+      const tt = dToTwoTheta(c / (j + 1), CU1) + e;
+      return { dNm: CU1 / (2 * Math.sin((tt * Math.PI) / 360)), dUncNm: 1e-4, twoThetaDeg: tt, twoThetaUncDeg: 0.01, intensity: [100, 12, 18, 6, 7][j], fwhmDeg: 0.9 };
+    });
+    const r = indexPattern(peaks, { wavelengthNm: CU1 });
+    const lam = r.phases.find((p) => p.kind === 'lamellar')!;
+    expect(lam.zeroShiftDeg).toBeNull();
+    expect(r.zeroShiftDeg).toBeNull();
+    expect(Math.abs(lam.cNm / c - 1)).toBeLessThan(3e-4);
+    expect(Math.abs(lam.cNm / c - 1)).toBeLessThan(3 * lam.cUncNm / c);
+  });
+  test('a clay film (d001 = 1.25 nm, reference-values §3) is a lamellar stack, not a tetragonal cell whose only hk lines are a biased 004 and a 103 on top of 005 (synthetic benchmark case, seed 2, its fitted peaks)', () => {
+    // 2θ, u(2θ), area, FWHM as fitted on the drawn pattern (Cu Kα1 + Kα2, polymer halo at 19.6°); drawn truth: 001–005 of 1.25 nm
+    const fitted = [[7.0611, 0.0018, 1470, 0.797], [21.297, 0.014, 155, 0.842], [28.5937, 0.015, 42, 0.774], [35.9134, 0.024, 34.7, 0.913]];
+    const peaks: IndexPeak[] = fitted.map(([tt, u, area, fwhm]) => ({ dNm: CU1 / (2 * Math.sin((tt * Math.PI) / 360)), dUncNm: 1e-4, twoThetaDeg: tt, twoThetaUncDeg: u, intensity: area, fwhmDeg: fwhm }));
+    const r = indexPattern(peaks, { wavelengthNm: CU1 });
+    expect(r.phases.map((p) => p.kind)).toEqual(['lamellar']);
+    const lam = r.phases[0];
+    expect(lam.lines.map((l) => l.hkl[2])).toEqual([1, 3, 4, 5]);
+    expect(Math.abs(lam.cNm / 1.25 - 1)).toBeLessThan(2e-3);
+  });
   test('an internal standard (Si, CODATA) fixes the zero shift; the sample phase is indexed on the corrected lines', () => {
     const si = 0.5431020511;
     const au = 0.40782; // fcc metal, from memory
@@ -78,6 +103,36 @@ describe('indexPattern on standard reference materials', () => {
     const sample = r.phases.find((p) => !p.standard)!;
     expect(sample.kind).toBe('cubic-F');
     expect(Math.abs(sample.aNm / au - 1)).toBeLessThan(1e-4);
+  });
+  test('a lone strongest line (the only order of a clay in range) does not hide a hexagonal phase: quartz-like a 0.4913, c 0.5405 nm (from memory)', () => {
+    const a = 0.4913;
+    const c = 0.5405;
+    const hex = latticeLines({ kind: 'hexagonal-P', aNm: a, cNm: c }, 0.136).slice(0, 14);
+    const rel = [35, 20, 15, 40, 100, 15, 5, 45, 25, 8, 40, 30, 12, 20];
+    // the basal 001 of a smectite at d = 1.50 nm, three times the strongest quartz-like line; its other orders lost under a halo
+    const r = indexPattern(peaksOf([{ d: 1.5, i: 300 }, ...hex.map((l, j) => ({ d: l.dNm, i: rel[j] }))]), { wavelengthNm: CU1 });
+    const ph = r.phases.find((p) => p.kind === 'hexagonal-P')!;
+    expect(ph).toBeDefined();
+    expect(Math.abs(ph.aNm / a - 1)).toBeLessThan(5e-4);
+    expect(Math.abs(ph.cNm / c - 1)).toBeLessThan(5e-4);
+    expect(r.unindexed).toContain(0);
+    expect(r.notes.join(' ')).toMatch(/strongest line \(d 1\.(5|49)\d* nm\).*left unindexed/);
+  });
+  test('clay (lamellar 1.42 nm) + fcc metal (a 0.40495 nm, from memory): two convincing phases, not one unconvincing tetragonal cell (synthetic benchmark case, seed 1, its fitted peaks)', () => {
+    // 2θ, u(2θ), area, FWHM as fitted on the drawn pattern (Cu Kα1); drawn truth: lamellar 001, 002,
+    // 003, 007 (blended with fcc 200), 008, 0 0 11 and fcc 111, 200, 220, 311, 222
+    const fitted = [
+      [6.2176, 0.0025, 796, 0.674], [12.438, 0.013, 62.2, 0.645], [18.7336, 0.012, 106, 0.693], [38.4729, 0.0015, 303, 0.242], [44.7012, 0.0046, 95.7, 0.323],
+      [51.4454, 0.014, 13.5, 0.167], [65.1495, 0.013, 7.74, 0.121], [73.2864, 0.025, 48.3, 0.948], [78.2937, 0.025, 11.1, 0.24], [82.4362, 0.0025, 245, 0.309],
+    ];
+    const peaks: IndexPeak[] = fitted.map(([tt, u, area, fwhm]) => ({ dNm: CU1 / (2 * Math.sin((tt * Math.PI) / 360)), dUncNm: 1e-5, twoThetaDeg: tt, twoThetaUncDeg: u, intensity: area, fwhmDeg: fwhm }));
+    const r = indexPattern(peaks, { wavelengthNm: CU1 });
+    expect(r.phases.map((p) => p.kind).sort()).toEqual(['cubic-F', 'lamellar']);
+    const fcc = r.phases.find((p) => p.kind === 'cubic-F')!;
+    expect(Math.abs(fcc.aNm / 0.40495 - 1)).toBeLessThan(5e-4);
+    expect(Math.abs(r.phases.find((p) => p.kind === 'lamellar')!.cNm / 1.42 - 1)).toBeLessThan(3e-3);
+    expect(r.notes.join(' ')).toMatch(/two phases \(lamellar stack and face-centred cubic\)/);
+    expect(r.notes.join(' ')).not.toMatch(/cell chosen/);
   });
   test('bad input is refused with the value named', () => {
     expect(() => indexPattern([{ dNm: -1, dUncNm: 0, twoThetaDeg: null, twoThetaUncDeg: null, intensity: 1 }], { wavelengthNm: null })).toThrow(/-1/);

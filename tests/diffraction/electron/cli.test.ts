@@ -80,3 +80,41 @@ test('bad input: each gets a message saying what is missing', async () => {
   expect(r.code).not.toBe(0);
   expect(r.err).toMatch(/no camera constant makes three or more of them fit the gold \(fcc\) reflections/);
 }, 60000);
+
+test('reconcile --saed: the rings measured by saed --json are a diffraction set of their own; a fringe pairs with its ring', async () => {
+  // rings at the (02,11), (13,20) and (06,33) band spacings of a smectite (common practice), drawn with K known (synthetic truth)
+  const sample = write('smectite-rings.tif', { rings: [0.449, 0.258, 0.1497].map((d, i) => ({ gInvNm: 1 / d, intensity: [1, 0.7, 0.5][i] })), cx: 240.2, cy: 231.7, seed: 23 });
+  const m = capture();
+  expect(await main(['saed', sample, '--camera-constant', `${K}±0.00003`, '--kv', '200', '--rings', '--json'], m.io)).toBe(0);
+  const saedJson = join(dir, 'smectite-rings.json');
+  writeFileSync(saedJson, m.out.join(''));
+  const ring1 = JSON.parse(m.out.join('')).lines[0];
+  // a lattice fringe at 0.4475 ± 0.004 nm (k = 1) and a lamellar period of 1.25 nm that no ring explains
+  const measure = join(dir, 'fringes.json');
+  writeFileSync(measure, JSON.stringify({ file: 'tactoid.tif', width: 512, height: 512, calibration: { nmPerPx: 0.02, source: 'manual', relUncertainty: 0.01 },
+    periodicities: [
+      { periodPx: 22.375, periodNm: 0.4475, angleDeg: 10, uncertaintyPx: 0.2, uncertaintyNm: 0.004, strength: 12 },
+      { periodPx: 62.5, periodNm: 1.25, angleDeg: 100, uncertaintyPx: 0.3, uncertaintyNm: 0.013, strength: 20 },
+    ] }));
+  const c = capture();
+  expect(await main(['reconcile', '--saed', saedJson, measure, '--json'], c.io)).toBe(0);
+  const j = JSON.parse(c.out.join(''));
+  expect(j.pattern).toBeNull();
+  expect(j.saed).toBe(saedJson);
+  expect(j.best[0].label).toBe('smectite-rings.json ring 1');
+  expect(j.best[0].dNm).toBeCloseTo(ring1.dNm, 4);
+  expect(Math.abs(ring1.dNm / 0.449 - 1)).toBeLessThan(0.002);
+  expect(j.best[1]).toBeNull();
+  const t = capture();
+  expect(await main(['reconcile', '--saed', saedJson, measure], t.io)).toBe(0);
+  expect(t.out.join('')).toMatch(/against 3 diffraction line\(s\) from .*smectite-rings\.json/);
+  // a camera file is not a measurement; a pattern option without a pattern is refused
+  const cam = join(dir, 'cam.json');
+  writeFileSync(cam, JSON.stringify({ file: 'gold.tif', uncertainties: 'standard (k = 1)', camera: {}, calibration: {} }));
+  const e = capture();
+  expect(await main(['reconcile', '--saed', cam, measure], e.io)).toBe(2);
+  expect(e.err.join('')).toMatch(/a camera-constant calibration, not a measurement of a sample/);
+  const w = capture();
+  expect(await main(['reconcile', '--saed', saedJson, '--wavelength', 'CuKa1', measure], w.io)).toBe(2);
+  expect(w.err.join('')).toMatch(/--wavelength goes with --pattern/);
+}, 60000);
