@@ -39,9 +39,10 @@ function blur1d(v: Float64Array, sigma: number): Float64Array {
 }
 
 // ---------- A: along a line (profiles of 2 stacks with a gap) ----------
-// usage: npm run bench:sheets -- [parts, e.g. AB] [--seed N] [--images N]; --seed shifts every
-// seed by N (default 0), for checking a change on a second, independent set of stacks; --images
-// sets the overviews per family in B (default 2)
+// usage: npm run bench:sheets -- [parts, e.g. AB] [--seed N] [--images N] [--family a,b]; --seed
+// shifts every seed by N (default 0), for checking a change on a second, independent set of
+// stacks; --images sets the overviews per family in B (default 2); --family runs only those
+// families in B (and skips the demo overview)
 const argv = process.argv.slice(2);
 const seedAt = argv.indexOf('--seed');
 const seedBase = seedAt >= 0 ? Number(argv[seedAt + 1]) : 0;
@@ -49,7 +50,11 @@ if (!Number.isInteger(seedBase) || seedBase < 0) throw new RangeError(`--seed mu
 const imagesAt = argv.indexOf('--images');
 const imagesArg = imagesAt >= 0 ? Number(argv[imagesAt + 1]) : null;
 if (imagesArg !== null && !(Number.isInteger(imagesArg) && imagesArg >= 1)) throw new RangeError(`--images must be a positive integer, got ${argv[imagesAt + 1]}`);
-const parts = argv.find((a, i) => !a.startsWith('--') && (seedAt < 0 || i !== seedAt + 1) && (imagesAt < 0 || i !== imagesAt + 1)) ?? 'ABCD';
+const familyAt = argv.indexOf('--family');
+const familyArg = familyAt >= 0 ? argv[familyAt + 1].split(',') : null;
+for (const f of familyArg ?? []) if (!(OVERVIEW_FAMILIES as readonly string[]).includes(f)) throw new RangeError(`--family must be among ${OVERVIEW_FAMILIES.join(', ')}, got ${f}`);
+const valueAt = new Set([seedAt, imagesAt, familyAt].filter((i) => i >= 0).map((i) => i + 1));
+const parts = argv.find((a, i) => !a.startsWith('--') && !valueAt.has(i)) ?? 'ABCD';
 console.log(`seed offset ${seedBase}\n`);
 const noiseLevels: [string, number][] = [
   ['low', 0.015],
@@ -127,7 +132,7 @@ if (parts.includes('B')) {
   console.log('columns are over the stacks found; "spurious" counts sheets on no stack (duplicates included).\n');
   const rowsB: (string | number)[][] = [];
   const tot = { images: 0, n: 0, found: 0, mono: 0, monoFound: 0, n2: 0, exact: 0, thick: 0, spurious: 0, maxSpurious: 0, ms: 0 };
-  for (const family of OVERVIEW_FAMILIES) {
+  for (const family of OVERVIEW_FAMILIES.filter((f) => !familyArg || familyArg.includes(f))) {
     const f = { n: 0, found: 0, mono: 0, monoFound: 0, n2: 0, exact: 0, thick: 0, spurious: 0, maxSpurious: 0, ms: 0 };
     for (let k = 1; k <= per; k++) {
       const o = generateOverview(family, k + per * seedBase);
@@ -163,7 +168,7 @@ if (parts.includes('B')) {
 
   // the demo overview, against the truth recorded with it
   const file = 'demo-data/tactoid-film_overview.tif';
-  if (existsSync(file)) {
+  if (existsSync(file) && !familyArg) {
     const img = decodeImage(new Uint8Array(readFileSync(file)), file);
     const entry = (JSON.parse(readFileSync('demo-data/index.json', 'utf8')) as { file: string; truth: { nmPerPx: number; layerPeriodNm: number; tactoids: { centreXPx: number; centreYPx: number; sheetDirectionDeg: number; layers: number; lengthNm: number; bendRadiusNm?: number }[] } }[]).find((e) => file.endsWith(e.file))!;
     const nm = entry.truth.nmPerPx;
