@@ -720,70 +720,61 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
       const L = frame.lengthPx;
       const k = Math.max(3, Math.min(9, Math.round((0.9 * L) / spacing)));
       const seg = (0.9 * L) / k;
-      const positions: SheetPosition[] = [];
-      const offsets: number[] = [];
-      const counted: number[] = [];
-      const thick: number[] = [];
-      const edge: number[] = [];
-      for (let j = 0; j < k; j++) {
-        const from = 0.05 * L + j * seg;
-        const to = from + seg;
-        const half = fit.thicknessPx / 2 + Math.max(3 * periodPx, 8);
-        const pp = robustAcrossProfile(image, frame, { fromPx: from, toPx: to, halfWidthPx: half, offsetPx: fit.centerPx, pieceLengthPx: 8 });
-        const lim: [number, number] = [limit[0] - fit.centerPx, limit[1] - fit.centerPx];
-        const f = fitLayerComb(pp, periodPx, { fromPx: -fit.thicknessPx / 2, toPx: fit.thicknessPx / 2 }, { polarity, limitPx: lim, countReach: 2, lineSigmasPx: [fit.lineSigmaPx], centreReachPx: 0.75 * periodPx + 1 });
-        const ci = indexAt(frame, 0.5 * (from + to));
-        const off = fit.centerPx + (f && f.evidence >= 0.25 * minEvidence ? f.centerPx : 0);
-        const [px, py] = frame.points[ci];
-        const [nx, ny] = frame.normals[ci];
-        positions.push({ centerPx: [px + off * nx, py + off * ny], angleDeg: angleAt(ci), layers: f ? f.layers : null, evidence: f ? f.evidence : 0 });
-        if (f && f.evidence >= 0.25 * minEvidence) {
-          counted.push(f.layers);
-          offsets.push(off);
-          thick.push(f.thicknessPx);
-          // edge to edge: where the band's darkening (fringes smoothed away) falls to half, outermost crossings
-          const e = edgeToEdge(pp, f, polarity);
-          if (e !== null) edge.push(e);
-        }
-      }
-      if (counted.length < Math.max(2, Math.ceil(k / 2))) {
-        reject(`seen at ${counted.length} of ${k} positions along its axis: not a persistent stack`, fit, periodPx);
+      let counts = countAlong(image, frame, fit, periodPx, limit, k, polarity, minEvidence);
+      if (counts.counted.length < Math.max(2, Math.ceil(k / 2))) {
+        reject(`seen at ${counts.counted.length} of ${k} positions along its axis: not a persistent stack`, fit, periodPx);
         continue;
       }
       // the layers run along the axis: the stack's centre must not drift across it from
       // position to position (an axis oblique to the layers crosses them)
       {
-        const ss = positions.map((q, j) => ({ s: 0.05 * L + (j + 0.5) * seg, ok: q.layers !== null && q.evidence >= 0.25 * minEvidence })).filter((q) => q.ok).map((q) => q.s);
-        const ms = mean(ss);
-        const mo = mean(offsets);
-        let sxy = 0;
-        let sxx = 0;
-        ss.forEach((sv2, j) => { sxy += (sv2 - ms) * (offsets[j] - mo); sxx += (sv2 - ms) ** 2; });
-        const slope = sxx > 0 ? sxy / sxx : 0;
+        const slope = driftSlope(counts, L, seg, minEvidence);
         if (Math.abs(slope) > Math.tan((8 * Math.PI) / 180)) {
           reject(`the band drifts across its axis (${(Math.atan(Math.abs(slope)) * DEG).toFixed(0)}°): the axis crosses the layers`, fit, periodPx);
           continue;
         }
       }
       // the stack's own axis: the candidate's shifted to the measured positions' centres
-      const measuredS = positions.map((q, j) => ({ s: 0.05 * L + (j + 0.5) * seg, ok: q.layers !== null && q.evidence >= 0.25 * minEvidence })).filter((q) => q.ok).map((q) => q.s);
-      const offAt = (sAt: number): number => {
-        if (sAt <= measuredS[0]) return offsets[0];
-        if (sAt >= measuredS[measuredS.length - 1]) return offsets[offsets.length - 1];
-        let m = 0;
-        while (m < measuredS.length - 2 && measuredS[m + 1] < sAt) m++;
-        const t = (sAt - measuredS[m]) / (measuredS[m + 1] - measuredS[m] || 1);
-        return offsets[m] + t * (offsets[m + 1] - offsets[m]);
-      };
-      const axisPx = frame.points.map((q, i) => {
+      let offAt = offsetAlong(counts, L, seg, minEvidence);
+      let pieceFrame = frame;
+      let axisPx = frame.points.map((q, i) => {
         const o = offAt(frame.cumPx[i]);
         return [q[0] + o * frame.normals[i][0], q[1] + o * frame.normals[i][1]] as [number, number];
       });
+      // a comb of every other layer: on a candidate axis a little oblique to the layers, the
+      // fine fringes wash out and a comb at twice the period fits the band; on the stack's own
+      // axis the fundamental is tested against it
+      if (given === undefined && fit.layers >= 2 && periodPx / 2 >= minPeriodPx) {
+        const sub = fundamentalOnOwnAxis(image, axisPx, fit, periodPx, polarity);
+        if (sub) {
+          // recounted along the stack's own axis (the fine fringes wash out along the candidate's)
+          const own = axisFrame(axisPx);
+          const shift = mean(counts.offsets);
+          const fit2: CombFit = { ...fit, layers: sub.fit.layers, periodPx: sub.periodPx, lineSigmaPx: sub.fit.lineSigmaPx, thicknessPx: sub.fit.layers * sub.periodPx, centerPx: 0, firstPx: -((sub.fit.layers - 1) * sub.periodPx) / 2 };
+          const k2 = Math.max(3, Math.min(9, Math.round((0.9 * own.lengthPx) / spacing)));
+          const seg2 = (0.9 * own.lengthPx) / k2;
+          const c2 = countAlong(image, own, fit2, sub.periodPx, [limit[0] - shift, limit[1] - shift], k2, polarity, minEvidence);
+          if (c2.counted.length >= Math.max(2, Math.ceil(k2 / 2))) {
+            fit = fit2;
+            periodPx = sub.periodPx;
+            uPeriod = sub.uPx;
+            periodSource = 'stack';
+            counts = c2;
+            pieceFrame = own;
+            offAt = offsetAlong(counts, own.lengthPx, seg2, minEvidence);
+            axisPx = own.points.map((q, i) => {
+              const o = offAt(own.cumPx[i]);
+              return [q[0] + o * own.normals[i][0], q[1] + o * own.normals[i][1]] as [number, number];
+            });
+          }
+        }
+      }
+      const { positions, counted, edge } = counts;
       const piece: Piece = { axisPx, periodPx, uPeriodPx: uPeriod, periodSource, fitLayers: fit.layers, counted, edges: edge, positions, evidence: fit.evidence };
       const done = finishPiece(piece, minPeriodPx);
       if (inBox(done.centerPx[0], done.centerPx[1], exclude)) continue;
       pieces.push(piece);
-      coverage.add(pieces.length - 1, frame, offAt(frame.cumPx[centerIdx]), done.thicknessPx / 2 + 0.5 * periodPx, angleAt);
+      coverage.add(pieces.length - 1, pieceFrame, offAt(pieceFrame.cumPx[Math.floor(pieceFrame.points.length / 2)]), done.thicknessPx / 2 + 0.5 * periodPx, (i) => screenAngleDeg(pieceFrame.normals[i][0], pieceFrame.normals[i][1]));
     }
   }
   // the image's periods from the stacks that measured their own (four layers or more): the
@@ -851,6 +842,99 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
     message: sheets.length === 0 ? 'no stacks found' : null,
     settings,
   };
+}
+
+/** Counts of a stack at k positions along its candidate axis: width-averaged profiles of equal stretches, each fitted with the comb at the stack's period. */
+interface AlongCounts {
+  positions: SheetPosition[];
+  /** Offsets of the stack's centre from the axis at the positions where it was seen, px. */
+  offsets: number[];
+  counted: number[];
+  edge: number[];
+}
+
+function countAlong(image: GreyImage, frame: AxisFrame, fit: CombFit, periodPx: number, limit: [number, number], k: number, polarity: 'dark' | 'bright', minEvidence: number): AlongCounts {
+  const L = frame.lengthPx;
+  const seg = (0.9 * L) / k;
+  const out: AlongCounts = { positions: [], offsets: [], counted: [], edge: [] };
+  for (let j = 0; j < k; j++) {
+    const from = 0.05 * L + j * seg;
+    const to = from + seg;
+    const half = fit.thicknessPx / 2 + Math.max(3 * periodPx, 8);
+    const pp = robustAcrossProfile(image, frame, { fromPx: from, toPx: to, halfWidthPx: half, offsetPx: fit.centerPx, pieceLengthPx: 8 });
+    const lim: [number, number] = [limit[0] - fit.centerPx, limit[1] - fit.centerPx];
+    const f = fitLayerComb(pp, periodPx, { fromPx: -fit.thicknessPx / 2, toPx: fit.thicknessPx / 2 }, { polarity, limitPx: lim, countReach: 2, lineSigmasPx: [fit.lineSigmaPx], centreReachPx: 0.75 * periodPx + 1 });
+    const ci = indexAt(frame, 0.5 * (from + to));
+    const seen = !!f && f.evidence >= 0.25 * minEvidence;
+    const off = fit.centerPx + (f && seen ? f.centerPx : 0);
+    const [px, py] = frame.points[ci];
+    const [nx, ny] = frame.normals[ci];
+    out.positions.push({ centerPx: [px + off * nx, py + off * ny], angleDeg: screenAngleDeg(frame.normals[ci][0], frame.normals[ci][1]), layers: f ? f.layers : null, evidence: f ? f.evidence : 0 });
+    if (f && seen) {
+      out.counted.push(f.layers);
+      out.offsets.push(off);
+      // edge to edge: where the band's darkening (fringes smoothed away) falls to half, outermost crossings
+      const e = edgeToEdge(pp, f, polarity);
+      if (e !== null) out.edge.push(e);
+    }
+  }
+  return out;
+}
+
+/** Arc lengths of the positions where the stack was seen. */
+function seenAt(c: AlongCounts, L: number, seg: number, minEvidence: number): number[] {
+  return c.positions.map((q, j) => ({ s: 0.05 * L + (j + 0.5) * seg, ok: q.layers !== null && q.evidence >= 0.25 * minEvidence })).filter((q) => q.ok).map((q) => q.s);
+}
+
+/** Least-squares slope of the stack's centre offset against arc length (its drift across the axis). */
+function driftSlope(c: AlongCounts, L: number, seg: number, minEvidence: number): number {
+  const ss = seenAt(c, L, seg, minEvidence);
+  const ms = mean(ss);
+  const mo = mean(c.offsets);
+  let sxy = 0;
+  let sxx = 0;
+  ss.forEach((sv2, j) => { sxy += (sv2 - ms) * (c.offsets[j] - mo); sxx += (sv2 - ms) ** 2; });
+  return sxx > 0 ? sxy / sxx : 0;
+}
+
+/** The stack's centre offset at any arc length: linear between the positions where it was seen, constant beyond. */
+function offsetAlong(c: AlongCounts, L: number, seg: number, minEvidence: number): (s: number) => number {
+  const measuredS = seenAt(c, L, seg, minEvidence);
+  const offsets = c.offsets;
+  return (sAt: number): number => {
+    if (sAt <= measuredS[0]) return offsets[0];
+    if (sAt >= measuredS[measuredS.length - 1]) return offsets[offsets.length - 1];
+    let m = 0;
+    while (m < measuredS.length - 2 && measuredS[m + 1] < sAt) m++;
+    const t = (sAt - measuredS[m]) / (measuredS[m + 1] - measuredS[m] || 1);
+    return offsets[m] + t * (offsets[m + 1] - offsets[m]);
+  };
+}
+
+/** Δχ² by which a comb at half the period must beat the comb at the period to replace it (likelihood ratio e⁶ ≈ 400 between two models of as many parameters). */
+export const FUNDAMENTAL_MIN_GAIN = 12;
+
+/**
+ * Whether a stack counted at period p is a stack of twice as many layers at p/2 (the comb at p
+ * then takes every other layer): on the profile along the stack's own axis, combs at p and at
+ * p/2 (counts free, each period refined on the profile's fringes) are compared, and p/2 is
+ * preferred when its residual is lower by at least {@link FUNDAMENTAL_MIN_GAIN} noise variances.
+ *
+ * @returns the comb at the fundamental with its refined period and uncertainty, or null to keep p
+ */
+function fundamentalOnOwnAxis(image: GreyImage, axisPx: [number, number][], fit: CombFit, periodPx: number, polarity: 'dark' | 'bright'): { fit: CombFit; periodPx: number; uPx: number } | null {
+  const own = axisFrame(axisPx);
+  const L = own.lengthPx;
+  const hw = fit.thicknessPx / 2 + Math.max(3 * periodPx, 8);
+  const op = robustAcrossProfile(image, own, { fromPx: 0.05 * L, toPx: 0.95 * L, halfWidthPx: hw });
+  const band = { fromPx: -fit.thicknessPx / 2, toPx: fit.thicknessPx / 2 };
+  const atP = fitLayerComb(op, periodPx, band, { polarity, countReach: 2 });
+  const atHalf0 = fitLayerComb(op, periodPx / 2, band, { polarity, countReach: 3 });
+  if (!atP || !atHalf0) return null;
+  const refined = (f: CombFit) => (f.layers >= 4 ? refinePeriod(op, f, polarity, undefined) : { periodPx: f.periodPx, uPx: 0, fit: f });
+  const p = refined(atP);
+  const h = refined(atHalf0);
+  return (p.fit.rss - h.fit.rss) / h.fit.noiseVar >= FUNDAMENTAL_MIN_GAIN ? h : null;
 }
 
 /** Share of a polyline's points that lie on a sheet's band (inside its length, within half its thickness and a period of its axis). */

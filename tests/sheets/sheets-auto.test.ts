@@ -113,6 +113,20 @@ describe('detectSheets', () => {
       expect(sc.spurious).toBeLessThanOrEqual(1);
     }
   });
+  it('counts a fine-period stack at its own period, not as every other layer at the coarse phase (two periods)', () => {
+    // two phases at 3.18 and 6.23 px (ratio ≈ 2): before the test of the fundamental on the
+    // stack's own axis, the 10-layer stack at 3.18 px read 5 at 6.36 px and the 6-layer one 3 at
+    // 6.25 px (synthetic truth, testing/synthetic/overviews.ts); the coarse stacks keep their counts
+    const o = generateOverview('two-periods', 1);
+    const res = detectSheets(o.image);
+    const sc = scoreOverview(o.truth.stacks, res.sheets);
+    o.truth.stacks.forEach((t, i) => {
+      expect(sc.matchOf[i], `stack ${i} found`).toBeGreaterThanOrEqual(0);
+      const s = res.sheets[sc.matchOf[i]];
+      expect(s.layers, `stack ${i} (${t.layers} layers at ${t.periodPx.toFixed(2)} px)`).toBe(t.layers);
+      expect(Math.abs(s.periodPx - t.periodPx) / t.periodPx, `stack ${i} period`).toBeLessThan(0.03);
+    });
+  });
   it('never reports layers finer than the countable 2.5 px, nor passes them to a batch summary', async () => {
     // stacks of 2.1 px layers: resolvable in principle (above the 2 px sampling limit) but not
     // countable; the issue's "0.154 nm sheet" came from such fine lattice fringes (common practice:
