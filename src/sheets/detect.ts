@@ -744,8 +744,9 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
       // a comb of every other layer: on a candidate axis a little oblique to the layers, the
       // fine fringes wash out and a comb at twice the period fits the band; on the stack's own
       // axis the fundamental is tested against it
-      if (given === undefined && fit.layers >= 2 && periodPx / 2 >= minPeriodPx) {
-        const sub = fundamentalOnOwnAxis(image, axisPx, fit, periodPx, polarity);
+      const finer = given === undefined && fit.layers >= 2 ? tryPeriods.find((q) => q >= minPeriodPx && Math.abs(q - periodPx / 2) <= 0.15 * (periodPx / 2)) : undefined;
+      if (finer !== undefined) {
+        const sub = fundamentalOnOwnAxis(image, axisPx, fit, periodPx, finer, polarity);
         if (sub) {
           // recounted along the stack's own axis (the fine fringes wash out along the candidate's)
           const own = axisFrame(axisPx);
@@ -915,21 +916,31 @@ function offsetAlong(c: AlongCounts, L: number, seg: number, minEvidence: number
 export const FUNDAMENTAL_MIN_GAIN = 12;
 
 /**
- * Whether a stack counted at period p is a stack of twice as many layers at p/2 (the comb at p
- * then takes every other layer): on the profile along the stack's own axis, combs at p and at
- * p/2 (counts free, each period refined on the profile's fringes) are compared, and p/2 is
- * preferred when its residual is lower by at least {@link FUNDAMENTAL_MIN_GAIN} noise variances.
+ * Whether a stack counted at period p is a stack of about twice as many layers of the image's
+ * finer phase q (q within 15 % of p/2; the comb at p then takes every other layer): on the
+ * profile along the stack's own axis, combs at p and at q (counts free, each period refined on
+ * the profile's fringes when it has four lines or more) are compared, and q is preferred when its
+ * residual is lower by at least {@link FUNDAMENTAL_MIN_GAIN} noise variances.
+ * Model choice by the likelihood ratio of two least-squares fits with as many parameters (Δχ², common practice).
  *
+ * @param image the image
+ * @param axisPx the stack's own axis (the candidate's shifted to the measured centres), px
+ * @param fit the comb at p (its thickness sets the band)
+ * @param periodPx p, px
+ * @param finerPx q, px
+ * @param polarity the layers' polarity
  * @returns the comb at the fundamental with its refined period and uncertainty, or null to keep p
+ * Notes: only a phase the image's periodograms found is tried, so a lone stack is not halved by
+ * noise at low dose.
  */
-function fundamentalOnOwnAxis(image: GreyImage, axisPx: [number, number][], fit: CombFit, periodPx: number, polarity: 'dark' | 'bright'): { fit: CombFit; periodPx: number; uPx: number } | null {
+function fundamentalOnOwnAxis(image: GreyImage, axisPx: [number, number][], fit: CombFit, periodPx: number, finerPx: number, polarity: 'dark' | 'bright'): { fit: CombFit; periodPx: number; uPx: number } | null {
   const own = axisFrame(axisPx);
   const L = own.lengthPx;
   const hw = fit.thicknessPx / 2 + Math.max(3 * periodPx, 8);
   const op = robustAcrossProfile(image, own, { fromPx: 0.05 * L, toPx: 0.95 * L, halfWidthPx: hw });
   const band = { fromPx: -fit.thicknessPx / 2, toPx: fit.thicknessPx / 2 };
   const atP = fitLayerComb(op, periodPx, band, { polarity, countReach: 2 });
-  const atHalf0 = fitLayerComb(op, periodPx / 2, band, { polarity, countReach: 3 });
+  const atHalf0 = fitLayerComb(op, finerPx, band, { polarity, countReach: 3 });
   if (!atP || !atHalf0) return null;
   const refined = (f: CombFit) => (f.layers >= 4 ? refinePeriod(op, f, polarity, undefined) : { periodPx: f.periodPx, uPx: 0, fit: f });
   const p = refined(atP);
