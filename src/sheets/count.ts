@@ -91,6 +91,52 @@ export function bestPeriod(p: AcrossProfile, band: ProfileBand, periods: number[
 }
 
 
+/** Options for {@link combNearPeriod}. */
+export interface CombNearPeriodOptions {
+  /** Layers are dark lines (default) or bright ones. */
+  polarity?: 'dark' | 'bright';
+  /** Bins outside [from, to] (profile coordinates) are not used (other stacks). */
+  limitPx?: [number, number];
+  /** Evidence (Δχ² over the bare background) the comb must reach (default 60). */
+  minEvidence?: number;
+  /** Periods below this are not tried, px (default 2.5). */
+  minPeriodPx?: number;
+  /** Relative steps tried either side of the period (default 1 %, 2 %, 3 % and 4 %). */
+  stepsRel?: number[];
+}
+
+/**
+ * The comb of a band at a period a few per cent from an estimated one: an image's period is
+ * found from its periodograms, which read a few per cent high near the sampling limit, and over
+ * n layers an error δ puts the comb's last line n·δ periods out of phase, so a thick stack fits
+ * no comb at the estimate. Combs at the period × (1 ± each step) are fitted; the best by residual
+ * among those with the evidence asked for is returned.
+ * Grid search of a nonlinear parameter with linear least squares inside (common practice; as {@link fitLayerComb}).
+ *
+ * @param p the profile across the band
+ * @param band the band
+ * @param periodPx the estimated period, px
+ * @param options polarity, limits, evidence, smallest period, steps
+ * @returns the best comb with its period, or null when none reaches the evidence
+ */
+export function combNearPeriod(p: AcrossProfile, band: { fromPx: number; toPx: number }, periodPx: number, options: CombNearPeriodOptions = {}): { fit: CombFit; periodPx: number } | null {
+  if (!(periodPx >= 1 && Number.isFinite(periodPx))) throw new RangeError(`periodPx must be a number ≥ 1, got ${periodPx}`);
+  const minEvidence = options.minEvidence ?? 60;
+  const minPeriodPx = options.minPeriodPx ?? 2.5;
+  const steps = options.stepsRel ?? [0.01, 0.02, 0.03, 0.04];
+  if (!steps.every((s) => s > 0 && s < 0.5)) throw new RangeError(`stepsRel must lie in (0, 0.5), got ${JSON.stringify(steps)}`);
+  let best: { fit: CombFit; periodPx: number } | null = null;
+  for (const s of steps) {
+    for (const sign of [-1, 1]) {
+      const d = periodPx * (1 + sign * s);
+      if (d < minPeriodPx) continue;
+      const f = fitLayerComb(p, d, band, { polarity: options.polarity, limitPx: options.limitPx, countReach: 3 });
+      if (f && f.evidence >= minEvidence && (!best || f.rss < best.fit.rss)) best = { fit: f, periodPx: d };
+    }
+  }
+  return best;
+}
+
 /**
  * Power of a band's fringes at a period: the band's bins, a straight line removed, Hann
  * windowed, transformed at frequency 1/period (a single-frequency discrete Fourier transform,

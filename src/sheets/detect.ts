@@ -23,7 +23,7 @@ import type { UncertaintyPx } from '../measure/measurement';
 import { periodCandidates, profilePeriodogram } from './profile';
 import { MIN_COUNTABLE_PERIOD_PX } from './limits';
 import { resamplePolyline, ridgeAxes, type RidgeAxis } from './ridges';
-import { acrossFringePower, bestPeriod, edgeToEdge, fringePowerAt, indexAt, layersResolved, periodicAlongAxis, refinePeriod, splitBand } from './count';
+import { acrossFringePower, bestPeriod, combNearPeriod, edgeToEdge, fringePowerAt, indexAt, layersResolved, periodicAlongAxis, refinePeriod, splitBand } from './count';
 import { acrossProfile, axisFrame, robustAcrossProfile, fitLayerComb, profileBands, smoothProfile, type AcrossProfile, type AxisFrame, type CombFit, type ProfileBand } from './stack-profile';
 
 /** Review state of a sheet: automatic, accepted or rejected by the user, drawn by hand, or its count corrected by the user. */
@@ -679,6 +679,13 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
         continue;
       }
       let { fit, periodPx } = chosen;
+      if (fit.evidence < minEvidence && given === undefined) {
+        // the image's period is an estimate (its periodograms read a few per cent high near the
+        // sampling limit); over many layers a small error puts the comb out of phase with the
+        // stack, so the band's own best period within ±4 % is tried before it is called faint
+        const retry = combNearPeriod(profile, band, periodPx, { polarity, limitPx: limit, minEvidence, minPeriodPx });
+        if (retry && retry.fit.layers >= 4 && retry.fit.thicknessPx <= sv.frame.lengthPx) ({ fit, periodPx } = retry);
+      }
       if (fit.evidence < minEvidence) {
         reject(`too faint: evidence ${fit.evidence.toFixed(0)} below ${minEvidence}`, fit, periodPx);
         continue;
