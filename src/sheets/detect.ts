@@ -10,7 +10,10 @@
  *    being separate bands.
  * 3. The layer period: given (e.g. from X-ray diffraction), or the peaks of the summed
  *    periodograms of all the candidates' profiles (one or more phases); each stack takes the
- *    period whose comb of layer lines fits it best and refines it from its own fringes.
+ *    period whose comb of layer lines fits it best and refines it from its own fringes; a band
+ *    too faint at the image's period is tried within ±4 % of it, and a stack counted at a
+ *    period p is tested against the image's finer phase near p/2 on its own axis (a comb of
+ *    every other layer).
  * 4. Layers are counted by fitting that comb on width-averaged profiles at several positions
  *    along the stack; the count is the most frequent one, and the share of positions that agree
  *    is its confidence. Mono- and bilayers are combs of one or two lines: found by their contrast.
