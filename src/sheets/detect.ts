@@ -682,12 +682,18 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
         continue;
       }
       let { fit, periodPx } = chosen;
-      if (fit.evidence < minEvidence && given === undefined) {
+      const imagePeriodPx = periodPx;
+      let retried = false;
+      if (fit.evidence < minEvidence && given === undefined && band.toPx - band.fromPx >= 3.5 * periodPx) {
         // the image's period is an estimate (its periodograms read a few per cent high near the
         // sampling limit); over many layers a small error puts the comb out of phase with the
         // stack, so the band's own best period within ±4 % is tried before it is called faint
+        // (a band of four periods or more: a thinner one hardly goes out of phase)
         const retry = combNearPeriod(profile, band, periodPx, { polarity, limitPx: limit, minEvidence, minPeriodPx });
-        if (retry && retry.fit.layers >= 4 && retry.fit.thicknessPx <= sv.frame.lengthPx) ({ fit, periodPx } = retry);
+        if (retry && retry.fit.layers >= 4 && retry.fit.thicknessPx <= sv.frame.lengthPx) {
+          ({ fit, periodPx } = retry);
+          retried = true;
+        }
       }
       if (fit.evidence < minEvidence) {
         reject(`too faint: evidence ${fit.evidence.toFixed(0)} below ${minEvidence}`, fit, periodPx);
@@ -701,6 +707,12 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
         uPeriod = r.uPx;
         fit = fitLayerComb(profile, periodPx, { fromPx: fit.centerPx - (fit.layers * periodPx) / 2, toPx: fit.centerPx + (fit.layers * periodPx) / 2 }, { polarity, limitPx: limit, countReach: 2 }) ?? r.fit;
         periodSource = 'stack';
+        // a comb found only off the image's period must stay near it once refined (a refinement
+        // that walks further has fitted another count, not a period read a few per cent high)
+        if (retried && Math.abs(periodPx - imagePeriodPx) > 0.05 * imagePeriodPx) {
+          reject(`too faint at the image's period ${imagePeriodPx.toFixed(2)} px, and its own comb moves to ${periodPx.toFixed(2)} px`, fit, periodPx);
+          continue;
+        }
       }
       if (periodPx + 2 * uPeriod < minPeriodPx) {
         reject(`period ${periodPx.toFixed(2)} px is below ${minPeriodPx} px`, fit, periodPx);
