@@ -13,7 +13,7 @@ import { parsePattern, parsePeakList, type ManualPeak, type Pattern, type PeakLi
 import { reconcile, type DiffractionLine, type MicrographPeriod, type Reconciliation } from '../src/diffraction/reconcile';
 import { indexSeries, type IndexedSeries } from '../src/diffraction/series';
 import { pm, sig } from '../src/diffraction/format';
-import { expressPeriod } from '../src/measure/measurement';
+import { budgetContents, DEFAULT_COVERAGE_FACTOR, expressPeriod, formatPlusMinus, type UncertaintyBudget } from '../src/measure/measurement';
 import { BUILT_IN_PHASES, type ZoneAxisResult, type ZoneSpot } from '../src/diffraction/zone-axis';
 import type { PlotData } from '../src/figure/plot';
 import './plot';
@@ -73,7 +73,7 @@ export class StrataDiffractionPanel extends LitElement {
     `,
   ];
 
-  periods: MicrographPeriod[] = [];
+  periods: (MicrographPeriod & { budget?: UncertaintyBudget })[] = [];
   /** Set by the shell: the figures in the main area beside the image, the controls in a side column. */
   wide = false;
   /** The compute worker client the shell gives every panel. */
@@ -211,6 +211,7 @@ export class StrataDiffractionPanel extends LitElement {
     this.periods = groups.map((g) => ({
       periodNm: g.budget.value,
       uncertaintyNm: g.budget.combined,
+      budget: g.budget,
       label: `${g.n} period${g.n === 1 ? '' : 's'} from ${g.sources.slice(0, 3).join(', ')}${g.sources.length > 3 ? ` and ${g.sources.length - 3} more` : ''}${Number.isFinite(g.birgeRatio) ? `; Birge ratio ${g.birgeRatio.toFixed(2)}` : ''}`,
     }));
     this.emit('status-message', { text: `${this.periods.length} distinct periods pooled from the library (${saved} saved, ${batched} from batches; uncalibrated ones left out)`, kind: 'info' });
@@ -545,21 +546,32 @@ export class StrataDiffractionPanel extends LitElement {
     `;
   }
 
-  /** The micrograph periods against the diffraction lines (side column). */
+  /** The micrograph periods against the diffraction lines (side column): every ± is U = k·u, what it contains said under the table. */
   private reconciliationSection(rec: Reconciliation | null, valid: MicrographPeriod[]): TemplateResult | typeof nothing {
-    return html`      ${rec ? html`<section class="o5">
+    if (!rec) return nothing;
+    const k = DEFAULT_COVERAGE_FACTOR;
+    const u = (value: number, unc: number) => formatPlusMinus(value, k * unc);
+    // what each period's ± contains: its pooled budget's parts, or the combined value it was given
+    const contents = valid.map((p) => {
+      const b = (p as MicrographPeriod & { budget?: UncertaintyBudget }).budget;
+      return b ? budgetContents(b) : 'combined uncertainty as given';
+    });
+    const same = contents.every((c) => c === contents[0]);
+    const dWords = this.analysis ? 'fit, profile shape, zero shift and wavelength (as in the peak table)' : 'none stated (typed lines)';
+    return html`<section class="o5">
         <h3>Micrograph periods against diffraction</h3>
-        <table>
-          <tr><th>period (nm)</th><th>match</th><th>d (nm)</th><th>diff</th><th>z</th></tr>
+        <table class="cross-check">
+          <tr><th>period (nm) ± U</th><th>match</th><th>d (nm) ± U</th><th>diff</th><th>z</th></tr>
           ${rec.best.map((b, i) => {
             const p = valid[i];
-            if (!b) return html`<tr><td>${pm(p.periodNm, p.uncertaintyNm)}</td><td>—</td><td></td><td></td><td></td></tr>`;
-            return html`<tr><td>${pm(p.periodNm, p.uncertaintyNm)}</td><td>${b.label}</td><td>${pm(b.dNm, b.dUncNm)}</td><td>${(100 * b.relDiff).toFixed(2)} %</td><td class=${Math.abs(b.z) <= 2 ? 'good' : 'warn'}>${b.z.toFixed(2)}</td></tr>`;
+            if (!b) return html`<tr><td>${u(p.periodNm, p.uncertaintyNm)}</td><td>—</td><td></td><td></td><td></td></tr>`;
+            return html`<tr><td>${u(p.periodNm, p.uncertaintyNm)}</td><td>${b.label}</td><td>${u(b.dNm, b.dUncNm)}</td><td>${(100 * b.relDiff).toFixed(2)} %</td><td class=${Math.abs(b.z) <= 2 ? 'good' : 'warn'}>${b.z.toFixed(2)}</td></tr>`;
           })}
         </table>
+        <p class="muted budget-note">± is U = k·u with k = ${k}. Period: ${same ? contents[0] : contents.map((c, i) => `row ${i + 1} ${c}`).join('; ')}. d: ${dWords}. z = (period − d) / √(u²period + u²d), standard uncertainties (k = 1).</p>
         ${rec.unmatchedLines.length ? html`<p class="muted">Unmatched lines: ${rec.unmatchedLines.join(', ')}</p>` : nothing}
-        ${rec.calibration ? html`<p>Proposed (not applied): multiply nm per pixel by ${f(rec.calibration.factor)} ± ${f(rec.calibration.factorUnc)}. ${rec.calibration.reason}</p>` : nothing}
-      </section>` : nothing}`;
+        ${rec.calibration ? html`<p>Proposed (not applied): multiply nm per pixel by ${f(rec.calibration.factor)} ± ${f(rec.calibration.factorUnc)} (k = 1). ${rec.calibration.reason}</p>` : nothing}
+      </section>`;
   }
 }
 

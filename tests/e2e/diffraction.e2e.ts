@@ -73,5 +73,11 @@ test('cross-check: the fringes measured in a micrograph against the pattern; at 
   const cells = await row.locator('td').allTextContents();
   expect(cells[1]).toMatch(/0 0 1|001/);
   expect(Math.abs(Number(cells[4]))).toBeLessThanOrEqual(2);
+  // every ± of the cross-check says what it contains: U = k·u with k, the period's parts (the
+  // pooled budget of the saved spots: statistical and calibration at least) and the d's parts
+  const note = (await xrd.locator('table.cross-check + p.budget-note').textContent()) ?? '';
+  expect(note).toMatch(/U = k·u with k = 2/);
+  expect(note).toMatch(/Period: [^.]*statistical[^.]*calibration/);
+  expect(note).toMatch(/d: fit, profile shape, zero shift and wavelength/);
   await s.page.screenshot({ path: join(artefactDir('diffraction'), 'wide-1366x768.png') });
 }, 120_000);
