@@ -610,14 +610,38 @@ export class StrataApp extends LitElement {
     return this.renderRoot.querySelector('strata-viewer');
   }
 
+  /** Hidden panels still waiting for the current state (handed over one per task, after the visible one). */
+  private readonly staleHidden = new Set<HTMLElement>();
+  private handoffTimer: ReturnType<typeof setTimeout> | null = null;
+
+  /** Hands one panel the app's current state. */
+  private handOver(el: HTMLElement): void {
+    Object.assign(el, { image: this.image, record: this.record, db: this.db, compute: this.compute, session: this.session, viewer: this.viewer(), line: this.line, rect: this.rect });
+    // a wide panel lays its figures out beside the image only while the layout gives it the room
+    if (this.tabs.find((t) => t.id === el.dataset.panel)?.wide) el.toggleAttribute('wide', this.wideLayout() && el.dataset.panel === this.activeTab);
+  }
+
+  /** Hands the next hidden panel the current state, each in a task of its own, until none is left. */
+  private readonly handOverNextHidden = (): void => {
+    this.handoffTimer = null;
+    const el = this.staleHidden.values().next().value;
+    if (!el) return;
+    this.staleHidden.delete(el);
+    this.handOver(el);
+    if (this.staleHidden.size) this.handoffTimer = setTimeout(this.handOverNextHidden, 0);
+  };
+
   protected override updated(): void {
-    // Panels are plain custom elements of other modules: hand them the current state.
-    const viewer = this.viewer();
+    // Panels are plain custom elements of other modules: hand them the current state. The visible
+    // panel gets it now; each hidden panel re-renders later in a task of its own, so opening an
+    // image does not render every panel in one long task (a panel shown gets the state at once).
     for (const el of this.renderRoot.querySelectorAll<HTMLElement>('[data-panel]')) {
-      Object.assign(el, { image: this.image, record: this.record, db: this.db, compute: this.compute, session: this.session, viewer, line: this.line, rect: this.rect });
-      // a wide panel lays its figures out beside the image only while the layout gives it the room
-      if (this.tabs.find((t) => t.id === el.dataset.panel)?.wide) el.toggleAttribute('wide', this.wideLayout() && el.dataset.panel === this.activeTab);
+      if (el.dataset.panel === this.activeTab) {
+        this.staleHidden.delete(el);
+        this.handOver(el);
+      } else this.staleHidden.add(el);
     }
+    if (this.staleHidden.size && this.handoffTimer === null) this.handoffTimer = setTimeout(this.handOverNextHidden, 0);
   }
 
   private onTabKey(e: KeyboardEvent): void {

@@ -63,7 +63,12 @@ export interface ComputeCalls {
    * (Periods panel; Calibration panel with `prepareSpots: false`, as no spot of it will be clicked:
    * by default the worker prepares after the reply what a click on a spot needs).
    */
-  spectrum: { args: InSession & { rect: RectPx; settings: SpectrumSettings; displayPx: number; prepareSpots?: boolean }; result: SpectrumView };
+  spectrum: { args: InSession & { rect: RectPx; settings: SpectrumSettings; displayPx: number; prepareSpots?: boolean }; result: SpectrumView & { pictureId: number } };
+  /**
+   * The display picture of the session's last spectrum (its `pictureId`) at a zoom, stretched in
+   * the worker (src/figure/spectrum-picture.ts) as an ImageBitmap the panel draws in one step.
+   */
+  spectrumPicture: { args: InSession & { pictureId: number; zoom: number }; result: { pictureId: number; zoom: number; bitmap: ImageBitmap } };
   /** The spot nearest a clicked frequency of a region's cached spectrum: no transform (statistical uncertainty only). */
   spotNear: { args: InSession & { rect: RectPx; settings: SpectrumSettings; fx: number; fy: number; radiusBins?: number }; result: { spot: Spot | null } };
   /** A spot refined where its fringes are, with its full budget (after spotNear). */

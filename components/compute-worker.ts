@@ -13,6 +13,7 @@ import * as session from '../src/measure/session';
 import type { ImageSession } from '../src/measure/session';
 import { toolOf } from '../src/measure/tools';
 import { makeThumbnail } from '../src/store/thumbnail';
+import { spectrumPicture } from '../src/figure/spectrum-picture';
 
 type Handlers = { [K in CallName]: (args: CallArgs<K>) => Promise<CallResult<K>> | CallResult<K> };
 
@@ -20,6 +21,10 @@ type Handlers = { [K in CallName]: (args: CallArgs<K>) => Promise<CallResult<K>>
 const sessions = new Map<string, ImageSession>();
 /** Each session's view pyramid, level 0 (the image itself) first, for viewPicture. */
 const pyramids = new Map<string, GreyImage[]>();
+
+/** Each session's last spectrum picture (a copy: the reply's arrays are transferred), for spectrumPicture. */
+const spectrumPictures = new Map<string, { pictureId: number; picture: { width: number; height: number; logPower: Float32Array } }>();
+let lastPictureId = 0;
 
 /** Work to do once the current reply is sent (a prefetch the next request will want). */
 let afterReply: (() => Promise<void>) | null = null;
@@ -102,6 +107,7 @@ const handlers: Handlers = {
   },
   closeImage: ({ sessionId }) => {
     pyramids.delete(sessionId);
+    spectrumPictures.delete(sessionId);
     return { closed: sessions.delete(sessionId) };
   },
   viewPicture: async ({ sessionId, level, black, white, invert }) => {
@@ -130,7 +136,16 @@ const handlers: Handlers = {
     const view = session.spectrumView(await session.regionAnalysis(s, rect, settings), displayPx, settings.alpha);
     // after the reply: what a click on the spectrum will need, so that a click runs no transform
     if (prepareSpots !== false) afterReply = () => session.prepareRegionSpots(s, rect, settings);
-    return view;
+    const pictureId = ++lastPictureId;
+    spectrumPictures.set(sessionId, { pictureId, picture: { ...view.picture, logPower: view.picture.logPower.slice() } });
+    return { ...view, pictureId };
+  },
+  spectrumPicture: async ({ sessionId, pictureId, zoom }) => {
+    sessionOf(sessionId);
+    const kept = spectrumPictures.get(sessionId);
+    if (!kept || kept.pictureId !== pictureId) throw new Error(`spectrumPicture: spectrum ${pictureId} is no longer kept (the last is ${kept?.pictureId ?? 'none'}): compute the spectrum again`);
+    const pic = spectrumPicture(kept.picture, zoom);
+    return { pictureId, zoom, bitmap: await createImageBitmap(new ImageData(new Uint8ClampedArray(pic.rgba.buffer as ArrayBuffer, pic.rgba.byteOffset, pic.rgba.byteLength), pic.width, pic.height)) };
   },
   spotNear: ({ sessionId, rect, settings, fx, fy, radiusBins }) => ({ spot: session.spotNearIn(sessionOf(sessionId), rect, settings, fx, fy, radiusBins) }),
   spotBudget: async ({ sessionId, rect, settings, spot }) => ({ spot: await session.spotBudgetIn(sessionOf(sessionId), rect, settings, spot) }),

@@ -1,7 +1,8 @@
 import { LitElement, css, html, nothing, svg, type PropertyValues } from 'lit';
 import { classMap } from 'lit/directives/class-map.js';
 import { CALIBRATION_SOURCE_WORDS, type GreyImage } from '../src/image/grey-image';
-import { displayPicture, type Picture } from '../src/image/display';
+import type { Picture } from '../src/image/display';
+import { spectrumPicture } from '../src/figure/spectrum-picture';
 import { budgetContents, expressPeriod, formatPlusMinus, nmPerPxAlong, withIdentity, type Measurement, type Periodicity, type UncertaintyBudget } from '../src/measure/measurement';
 import { calibrationPartsText } from '../src/calibration/calibration';
 import { angleBetweenDeg, ringPeriodicity, type Spot } from '../src/measure/spectrum';
@@ -32,17 +33,6 @@ export const panelWide = true;
 const SPECTRUM_CSS_PX = 320;
 /** Longest side of pictures computed in the worker, px. */
 const PICTURE_PX = 1024;
-
-/**
- * Grey picture of a centred log power, black and white at the 2nd and 99.8th percentiles of the
- * part shown at this zoom (the central 1/zoom), so spots near zero frequency stay visible.
- */
-function spectrumPicture(p: { width: number; height: number; logPower: Float32Array }, zoom: number): Picture {
-  const { width: w, height: h } = p;
-  const hw = Math.max(1, Math.floor(w / (2 * zoom)));
-  const hh = Math.max(1, Math.floor(h / (2 * zoom)));
-  return displayPicture(p.logPower, w, h, { lowPercent: 2, highPercent: 99.8, limitsFrom: { x: (w >> 1) - hw, y: (h >> 1) - hh, width: 2 * hw, height: 2 * hh } });
-}
 
 /** A spot in the table: found by the search or added by a click. */
 interface TableSpot extends Spot {
@@ -152,7 +142,11 @@ export class StrataMeasurePanel extends LitElement {
   profileLine: LineDrawnDetail | null = null;
   profileBusy = false;
   profileError = '';
-  spectrum: SpectrumView | null = null;
+  spectrum: (SpectrumView & { pictureId?: number }) | null = null;
+  /** The spectrum's display picture at a zoom, made in the compute worker (drawn in one step). */
+  private spectrumBitmap: { pictureId: number; zoom: number; bitmap: ImageBitmap } | null = null;
+  /** False once the worker could not make a spectrum picture: the panel then makes it itself. */
+  private workerSpectrumPictures = true;
   spectrumRect: RectDrawnDetail | null = null;
   spots: TableSpot[] = [];
   selected: number[] = [];
@@ -282,6 +276,32 @@ export class StrataMeasurePanel extends LitElement {
       void this.runProfile(this.line);
     }
     if (changed.has('rect') && this.rect && this.image && this.rect !== this.spectrumRect) void this.runSpectrum(this.rect);
+    if (changed.has('zoom')) void this.requestSpectrumPicture();
+  }
+
+  /**
+   * Asks the compute worker for the spectrum's picture at the current zoom (the page stretches no
+   * pixels); painted when it arrives if the spectrum and zoom are still those shown.
+   */
+  private async requestSpectrumPicture(): Promise<void> {
+    const sp = this.spectrum;
+    const zoom = this.zoom;
+    if (!sp || sp.pictureId === undefined || !this.compute || !this.session || !this.workerSpectrumPictures) return;
+    const have = this.spectrumBitmap;
+    if (have && have.pictureId === sp.pictureId && have.zoom === zoom) return;
+    try {
+      const got = await this.compute.call('spectrumPicture', { sessionId: this.session, pictureId: sp.pictureId, zoom });
+      if (this.spectrum?.pictureId !== got.pictureId || this.zoom !== got.zoom) {
+        got.bitmap.close();
+        return;
+      }
+      this.spectrumBitmap?.bitmap.close();
+      this.spectrumBitmap = got;
+    } catch {
+      // the page makes the picture itself from now on
+      this.workerSpectrumPictures = false;
+    }
+    this.requestUpdate();
   }
 
   private onToolChanged = (e: Event): void => {
@@ -561,6 +581,7 @@ export class StrataMeasurePanel extends LitElement {
       }
       this.crosshair = null;
       this.zoom = this.autoZoom();
+      void this.requestSpectrumPicture();
       this.step(`region ${rect.width} × ${rect.height} px`);
     } catch (e) {
       if (run !== this.spectrumRun) return;
@@ -1159,11 +1180,19 @@ export class StrataMeasurePanel extends LitElement {
     if (sp && canvas) {
       const key = `${this.zoom}`;
       const c = canvas as unknown as { painted?: Float32Array; paintedKey?: string };
+      const b = this.spectrumBitmap;
       if (c.painted !== sp.picture.logPower || c.paintedKey !== key) {
-        const pic = spectrumPicture(sp.picture, this.zoom);
-        canvas.getContext('2d')?.putImageData(new ImageData(new Uint8ClampedArray(pic.rgba), pic.width, pic.height), 0, 0);
-        c.painted = sp.picture.logPower;
-        c.paintedKey = key;
+        if (b && b.pictureId === sp.pictureId && b.zoom === this.zoom) {
+          // the worker's picture: one draw, no pixel work on the page
+          canvas.getContext('2d')?.drawImage(b.bitmap, 0, 0);
+          c.painted = sp.picture.logPower;
+          c.paintedKey = key;
+        } else if (!this.workerSpectrumPictures || sp.pictureId === undefined) {
+          const pic = spectrumPicture(sp.picture, this.zoom);
+          canvas.getContext('2d')?.putImageData(new ImageData(new Uint8ClampedArray(pic.rgba), pic.width, pic.height), 0, 0);
+          c.painted = sp.picture.logPower;
+          c.paintedKey = key;
+        }
       }
     }
     paint('canvas.filtered', this.filtered ? (this.showFiltered ? this.filtered.filtered : this.filtered.original) : null);

@@ -54,6 +54,10 @@ export class StrataPlot extends LitElement {
 
   private chart: uPlot | null = null;
   private resizer: ResizeObserver | null = null;
+  /** The element's width as the resize observer last reported it (CSS px; 0 before the first report). */
+  private observedWidthPx = 0;
+  /** A build waiting for its own task (the chart is not made inside the render that placed it). */
+  private buildTimer: ReturnType<typeof setTimeout> | null = null;
   private cursorIdx = -1;
 
   static override styles = [
@@ -96,13 +100,22 @@ export class StrataPlot extends LitElement {
 
   override connectedCallback(): void {
     super.connectedCallback();
-    this.resizer = new ResizeObserver(() => this.fit());
+    // The observer reports the width after the browser's own layout, so sizing the chart never
+    // forces a layout of the page in the middle of a render.
+    this.resizer = new ResizeObserver((entries) => {
+      const w = entries[entries.length - 1]?.contentRect.width ?? 0;
+      if (w > 0) this.observedWidthPx = w;
+      if (this.chart) this.fit();
+      else if (this.data && !this.enlarged) this.scheduleBuild();
+    });
     this.resizer.observe(this);
   }
 
   override disconnectedCallback(): void {
     super.disconnectedCallback();
     this.resizer?.disconnect();
+    if (this.buildTimer !== null) clearTimeout(this.buildTimer);
+    this.buildTimer = null;
     this.chart?.destroy();
     this.chart = null;
   }
@@ -114,7 +127,20 @@ export class StrataPlot extends LitElement {
       if (d && !d.open) d.showModal();
       this.build();
       this.renderRoot.querySelector<HTMLElement>('.chart')?.focus();
-    } else if (changed.has('data') || changed.has('heightPx')) this.build();
+    } else if (changed.has('data') || changed.has('heightPx')) this.scheduleBuild();
+  }
+
+  /**
+   * Builds the chart in a task of its own once the element's width is known: the render that
+   * placed the plot ends first, and the plot library's first chart is not part of it.
+   */
+  private scheduleBuild(): void {
+    if (this.buildTimer !== null) return;
+    this.buildTimer = setTimeout(() => {
+      this.buildTimer = null;
+      if (this.observedWidthPx > 0 || this.enlarged) this.build();
+      // else: the resize observer's first report builds it
+    }, 0);
   }
 
   private plotHeightPx(): number {
@@ -127,7 +153,7 @@ export class StrataPlot extends LitElement {
 
   private widthPx(): number {
     if (this.enlarged) return Math.max(300, Math.floor(Math.min(1400, globalThis.innerWidth * 0.94)) - 36);
-    return Math.max(200, Math.floor(this.getBoundingClientRect().width) - 2);
+    return Math.max(200, Math.floor(this.observedWidthPx) - 2);
   }
 
   private fit(): void {
@@ -387,7 +413,7 @@ export class StrataPlot extends LitElement {
   }
 
   protected override firstUpdated(): void {
-    this.build();
+    this.scheduleBuild();
   }
 }
 
