@@ -18,7 +18,7 @@ const NORMAL_DEG = 28;
 const CENTRE = 330;
 
 interface PanelState {
-  spots: { n: number; periodPx: number; angleDeg: number; fx: number; fy: number; added: boolean }[];
+  spots: { n: number; periodPx: number; angleDeg: number; fx: number; fy: number; added: boolean; budgeting?: boolean; u: { statisticalPx: number } }[];
   spectrum: { width: number; height: number; binsPerPicturePx: number; picture: { width: number; height: number } } | null;
   profile: { spectral: { periodPx: number; uStatisticalPx: number } | null; realSpace: { periodPx: number; uStatisticalPx: number; extremaPx: number[] } | null } | null;
   spectrumBusy: boolean;
@@ -34,6 +34,23 @@ const panelState = () => panel().evaluate((el) => {
 });
 
 const settle = () => nextFrames(s.page);
+
+/**
+ * How far two refinements of the same spot of the same region may differ. They start from
+ * different bins (the search's maximum; a clicked or keyed bin, rounded to the bin grid), so the
+ * spot's band-pass field, and the support where its fringes are, differ by whole pixels at the
+ * support's edge, which rounds to the pixel grid of the drawn region: the two weighted fits use
+ * slightly different pixels of the same fringes. That difference is a draw of the fit's own
+ * statistical scatter, so the tolerance is the expanded (k = 2) statistical uncertainty of the
+ * difference, √(u₁² + u₂²); it must stay below 0.5 px (2 % of the 25 px period) to mean anything.
+ * On the demo it is 0.17 px; a fixed 0.05 px was about a third of it (a keyed spot 0.0503 px away failed by chance).
+ */
+function sameSpotTolerancePx(a: { u: { statisticalPx: number } }, b: { u: { statisticalPx: number } }): number {
+  const t = 2 * Math.hypot(a.u.statisticalPx, b.u.statisticalPx);
+  expect(t).toBeGreaterThan(0);
+  expect(t).toBeLessThan(0.5);
+  return t;
+}
 
 const toPage = (x: number, y: number) => imageToPage(s.page, x, y);
 
@@ -91,9 +108,11 @@ test('a region over the fringes gives a strongest spot at 1.25 nm, and a click o
   const [mx, my] = await panel().evaluate((el, b) => (el as unknown as { binToCss(u: number, v: number): [number, number] }).binToCss(b[0], b[1]),
     [-top.fx * sp.width + 1, -top.fy * sp.height]);
   await s.page.mouse.click(box.x + 1 + mx, box.y + 1 + my);
-  await expect.poll(async () => (await panelState()).spots.some((t) => t.added)).toBe(true);
+  // an added spot is refined where its fringes are once its full budget is in (until then it is the
+  // periodogram's maximum of the whole region): compare the refined spot only
+  await expect.poll(async () => (await panelState()).spots.some((t) => t.added && !t.budgeting), { timeout: 60_000 }).toBe(true);
   const added = (await panelState()).spots.find((t) => t.added)!;
-  expect(Math.abs(added.periodPx - top.periodPx)).toBeLessThan(0.05);
+  expect(Math.abs(added.periodPx - top.periodPx)).toBeLessThan(sameSpotTolerancePx(top, added));
   expect(Math.abs(added.angleDeg - top.angleDeg)).toBeLessThan(0.5);
 
   // Keyboard: remove it again, then walk the crosshair from zero frequency to the spot and press Enter.
@@ -105,9 +124,9 @@ test('a region over the fringes gives a strongest spot at 1.25 nm, and a click o
   for (let i = 0; i < Math.abs(du); i++) await s.page.keyboard.press(du < 0 ? 'ArrowLeft' : 'ArrowRight');
   for (let i = 0; i < Math.abs(dv); i++) await s.page.keyboard.press(dv < 0 ? 'ArrowUp' : 'ArrowDown');
   await s.page.keyboard.press('Enter');
-  await expect.poll(async () => (await panelState()).spots.filter((t) => t.added).length).toBe(1);
+  await expect.poll(async () => (await panelState()).spots.filter((t) => t.added && !t.budgeting).length, { timeout: 60_000 }).toBe(1);
   const keyed = (await panelState()).spots.find((t) => t.added)!;
-  expect(Math.abs(keyed.periodPx - top.periodPx)).toBeLessThan(0.05);
+  expect(Math.abs(keyed.periodPx - top.periodPx)).toBeLessThan(sameSpotTolerancePx(top, keyed));
 });
 
 test('two selected spots show the angle between them, and the Fourier filter shows the region', async () => {
