@@ -179,6 +179,8 @@ export class StrataViewer extends LitElement {
   private viewH = 0;
   private frame = 0;
   private resizer: ResizeObserver | null = null;
+  /** True while the view is as Fit left it (the user has not zoomed or panned since): a resize fits again. */
+  private fitted = true;
   private shownHistogram: GreyHistogram | null = null;
   /** What the histogram canvas last showed. */
   private histogramDrawn: { canvas: HTMLCanvasElement | null; h: GreyHistogram | null; black: number; white: number } = { canvas: null, h: null, black: NaN, white: NaN };
@@ -270,9 +272,12 @@ export class StrataViewer extends LitElement {
     const w = stage.clientWidth;
     const h = stage.clientHeight;
     const first = this.viewW === 0;
+    const resized = w !== this.viewW || h !== this.viewH;
     this.viewW = w;
     this.viewH = h;
-    if (first && this.image) this.fitToWindow();
+    // the first size, or a new window size while the user has not zoomed or panned: fit again
+    // (a zoom or pan the user chose is kept)
+    if (this.image && (first || (resized && this.fitted))) this.fitToWindow();
     this.requestUpdate();
   }
 
@@ -295,6 +300,7 @@ export class StrataViewer extends LitElement {
   /** Zooms so the whole image fits the view, centred. */
   fitToWindow(): void {
     if (!this.image) return;
+    this.fitted = true;
     this.cx = this.image.width / 2;
     this.cy = this.image.height / 2;
     if (this.viewW > 0 && this.viewH > 0) this.zoom = Math.min(this.viewW / this.image.width, this.viewH / this.image.height) * 0.98;
@@ -302,6 +308,7 @@ export class StrataViewer extends LitElement {
 
   /** One image pixel per screen pixel. */
   actualSize(): void {
+    this.fitted = false;
     this.zoom = 1 / (globalThis.devicePixelRatio || 1);
   }
 
@@ -310,6 +317,7 @@ export class StrataViewer extends LitElement {
     if (!this.image) return;
     const next = Math.min(64, Math.max(1 / 256, this.zoom * factor));
     const [ix, iy] = this.toImage(sx, sy);
+    this.fitted = false;
     this.zoom = next;
     this.cx = ix - (sx - this.viewW / 2) / next;
     this.cy = iy - (sy - this.viewH / 2) / next;
@@ -535,6 +543,7 @@ export class StrataViewer extends LitElement {
     const d = this.drag;
     if (!d) return;
     if (d.mode === 'pan') {
+      this.fitted = false;
       this.cx = d.cx - (sx - d.startX) / this.zoom;
       this.cy = d.cy - (sy - d.startY) / this.zoom;
     } else if (d.mode === 'line') {
@@ -609,10 +618,10 @@ export class StrataViewer extends LitElement {
     switch (e.key) {
       case '+': case '=': this.zoomBy(ZOOM_STEP); break;
       case '-': case '_': this.zoomBy(1 / ZOOM_STEP); break;
-      case 'ArrowLeft': this.cx -= panStep; break;
-      case 'ArrowRight': this.cx += panStep; break;
-      case 'ArrowUp': this.cy -= panStep; break;
-      case 'ArrowDown': this.cy += panStep; break;
+      case 'ArrowLeft': this.cx -= panStep; this.fitted = false; break;
+      case 'ArrowRight': this.cx += panStep; this.fitted = false; break;
+      case 'ArrowUp': this.cy -= panStep; this.fitted = false; break;
+      case 'ArrowDown': this.cy += panStep; this.fitted = false; break;
       case 'f': case '0': this.fitToWindow(); break;
       case '1': this.actualSize(); break;
       case 'i': this.invert = !this.invert; break;
@@ -647,8 +656,8 @@ export class StrataViewer extends LitElement {
       this.cursor = { x: k.x, y: k.y, value: v };
       // Keep the cross-hair in view.
       const [sx, sy] = this.toScreen(k.x, k.y);
-      if (sx < 0 || sx > this.viewW) this.cx = k.x;
-      if (sy < 0 || sy > this.viewH) this.cy = k.y;
+      if (sx < 0 || sx > this.viewW) { this.cx = k.x; this.fitted = false; }
+      if (sy < 0 || sy > this.viewH) { this.cy = k.y; this.fitted = false; }
       if (this.keyStart) this.draft = this.shapeBetween(this.keyStart, k);
       return true;
     }

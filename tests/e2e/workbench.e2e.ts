@@ -242,3 +242,49 @@ test('on a 406 px wide window the viewer\'s status row wraps: every readout and 
   await s.page.setViewportSize({ width: 1366, height: 768 });
   expect(errors).toEqual([]);
 });
+
+test('after the window is resized the viewer fits the image again, unless the user zoomed', async () => {
+  const viewer = s.page.locator('strata-viewer');
+  const state = () => viewer.evaluate((el) => {
+    const v = el as unknown as { zoom: number; cx: number; cy: number; image: { width: number; height: number } };
+    const stage = (el as HTMLElement).shadowRoot!.querySelector('.stage')!;
+    return { zoom: v.zoom, cx: v.cx, cy: v.cy, fit: Math.min(stage.clientWidth / v.image.width, stage.clientHeight / v.image.height) * 0.98 };
+  });
+  await viewer.locator('button', { hasText: 'Fit' }).click();
+  await s.page.setViewportSize({ width: 1920, height: 1080 });
+  // the viewer's resize observer reports the new size after a layout
+  await expect.poll(async () => { const v = await state(); return v.zoom / v.fit; }).toBeCloseTo(1, 6);
+  const big = await state();
+  await s.page.setViewportSize({ width: 1366, height: 768 });
+  await expect.poll(async () => { const v = await state(); return v.zoom / v.fit; }).toBeCloseTo(1, 6);
+  expect((await state()).zoom).toBeLessThan(big.zoom);
+  // a zoom the user chose is kept through a resize
+  await viewer.locator('.stage').focus();
+  await s.page.keyboard.press('+');
+  const zoomed = await state();
+  await s.page.setViewportSize({ width: 1920, height: 1080 });
+  await nextFrames(s.page);
+  await nextFrames(s.page);
+  const after = await state();
+  expect(after.zoom).toBe(zoomed.zoom);
+  expect([after.cx, after.cy]).toEqual([zoomed.cx, zoomed.cy]);
+  await viewer.locator('button', { hasText: 'Fit' }).click();
+  expect(errors).toEqual([]);
+});
+
+test('screenshots of every panel at 1366 × 768 and 1920 × 1080, for looking at', async () => {
+  const app = s.page.locator('strata-app');
+  const tabs = await app.locator('[role="tab"]').allTextContents();
+  expect(tabs.length).toBeGreaterThanOrEqual(8);
+  for (const [w, h] of [[1366, 768], [1920, 1080]]) {
+    await s.page.setViewportSize({ width: w, height: h });
+    for (const t of tabs) {
+      await app.locator('[role="tab"]', { hasText: t }).click();
+      await nextFrames(s.page);
+      await s.page.screenshot({ path: join(dir, `panel-${t.trim().toLowerCase()}-${w}x${h}.png`) });
+    }
+  }
+  await s.page.setViewportSize({ width: 1366, height: 768 });
+  await app.locator('[role="tab"]', { hasText: 'Periods' }).click();
+  expect(errors).toEqual([]);
+});
