@@ -17,6 +17,7 @@ import { budgetContents, DEFAULT_COVERAGE_FACTOR, expressPeriod, formatPlusMinus
 import { BUILT_IN_PHASES, type ZoneAxisResult, type ZoneSpot } from '../src/diffraction/zone-axis';
 import type { PlotData } from '../src/figure/plot';
 import './plot';
+import type { StrataPlot } from './plot';
 import './export-menu';
 import type { ExportFigure, ExportTable } from './export-menu';
 import { plotSvg } from '../src/figure/plot';
@@ -449,7 +450,7 @@ export class StrataDiffractionPanel extends LitElement {
 
   private plot(data: PlotData | null): TemplateResult | typeof nothing {
     if (!data) return nothing;
-    return html`<strata-plot .data=${data} height-px="300" file-stem=${(this.fileName ?? 'pattern').replace(/\.[^.]+$/, '')}></strata-plot>`;
+    return html`<strata-plot panel-exports .data=${data} height-px="300" file-stem=${(this.fileName ?? 'pattern').replace(/\.[^.]+$/, '')}></strata-plot>`;
   }
 
   /** The lines for the export menu: fitted peaks with their d budget (k = 2), or the typed peaks. */
@@ -523,7 +524,7 @@ export class StrataDiffractionPanel extends LitElement {
         </div>
         ${this.plot(plotData)}
         <strata-export-menu .table=${a || this.manual.length ? this.linesTable() : null}
-          .figure=${plotData ? ({ name: 'pattern', svg: () => plotSvg(plotData) } satisfies ExportFigure) : null} .report=${false}
+          .figure=${plotData ? ({ name: 'pattern', svg: () => this.renderRoot.querySelector<StrataPlot>('strata-plot')?.svgText() ?? plotSvg(plotData) } satisfies ExportFigure) : null} .report=${false}
           .fileName=${this.fileName ?? 'pattern'}></strata-export-menu>
       </section>
       ${a ? html`<section class="o3">

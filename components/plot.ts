@@ -6,10 +6,13 @@
  * dialog (Escape closes it). The readout under the plot gives the
  * values at the cursor in the axes' units (←/→ move the cursor sample by sample when focused).
  * Export: SVG and PNG of the view (the core's plotSvg, the same figure the report and the command
- * line draw) and CSV of the data; the data table below is the plot's text alternative.
+ * line draw) and CSV of the data; the data table below is the plot's text alternative. Where the
+ * panel's export menu exports the plot as its figure (`panel-exports`), the SVG and PNG buttons are
+ * the menu's (through `svgText()`) and the plot keeps only its data's CSV.
  * Sizes are set through the CSSOM only (the page's policy allows no style attributes).
  *
- * Properties: `data` (PlotData | null), `heightPx` (default 300), `fileStem` (export names).
+ * Properties: `data` (PlotData | null), `heightPx` (default 300), `fileStem` (export names),
+ * `panelExports` (the panel's export menu exports the figure).
  */
 import { LitElement, css, html, nothing, type PropertyValues } from 'lit';
 import uPlot from 'uplot';
@@ -42,6 +45,7 @@ export class StrataPlot extends LitElement {
     readout: { state: true },
     tableOpen: { state: true },
     enlarged: { state: true },
+    panelExports: { type: Boolean, attribute: 'panel-exports' },
   };
 
   data: PlotData | null = null;
@@ -51,6 +55,12 @@ export class StrataPlot extends LitElement {
   tableOpen = false;
   /** Shown large in a modal dialog over the page (any panel's plot, at a readable size). */
   enlarged = false;
+  /**
+   * True where the panel's export menu exports this plot as its figure (SVG and PNG, through
+   * `svgText()`, as shown): the plot then shows no SVG and PNG buttons of its own, so each figure
+   * has one way out. Its data stay exported by its CSV button.
+   */
+  panelExports = false;
 
   private chart: uPlot | null = null;
   private resizer: ResizeObserver | null = null;
@@ -251,12 +261,16 @@ export class StrataPlot extends LitElement {
     const xMax = u.scales.x.max ?? Infinity;
     const shown = rules.filter((r) => r.label && r.x >= xMin && r.x <= xMax);
     const css = (v: number) => v / dpr;
+    // the plot library leaves its own text settings on the context (its y ticks are drawn
+    // right-aligned): set them, and measure the labels in the font they are drawn with
+    ctx.font = `${12 * dpr}px system-ui, sans-serif`;
+    ctx.textAlign = 'left';
+    ctx.textBaseline = 'alphabetic';
     const placed = placeLabels(shown.map((r) => {
-      const w = textWidthEstimate(r.label, 12);
+      const w = Math.max(textWidthEstimate(r.label, 12), Math.ceil(ctx.measureText(r.label).width / dpr) + 2);
       const x = css(X(r.x));
       return { x, y: css(top), width: w, height: 15, candidates: ruleLabelCandidates(x, css(top), w, 15) };
     }), { bounds: { x: css(left), y: css(top), width: css(width), height: css(height) } });
-    ctx.font = `${12 * dpr}px system-ui, sans-serif`;
     shown.forEach((r, i) => {
       const b = placed[i];
       if (!b.placed) return;
@@ -391,9 +405,9 @@ export class StrataPlot extends LitElement {
     const bar = html`<div class="bar">
         <h3>${p.title}</h3>
         <button @click=${() => this.resetView()} title="Show the whole x range (0, Escape, or a double-click on the plot)">Reset view</button>
-        <button @click=${() => void this.export('svg')} title="The plot as shown, as an SVG figure">SVG</button>
-        <button @click=${() => void this.export('png')} title="The plot as shown, as a PNG picture (2× for print)">PNG</button>
-        <button @click=${() => void this.export('csv')} title="The plotted data as CSV, units in the header">CSV</button>
+        ${this.panelExports ? nothing : html`<button class="plot-svg" @click=${() => void this.export('svg')} title="The plot as shown, as an SVG figure">SVG</button>
+        <button class="plot-png" @click=${() => void this.export('png')} title="The plot as shown, as a PNG picture (2× for print)">PNG</button>`}
+        <button class="plot-csv" @click=${() => void this.export('csv')} title="The plotted data as CSV, units in the header">${this.panelExports ? 'Data (CSV)' : 'CSV'}</button>
         ${this.enlarged
           ? html`<button class="shrink" @click=${() => this.renderRoot.querySelector<HTMLDialogElement>('dialog.big')?.close()} title="Back to the panel (Escape)">Close</button>`
           : html`<button class="enlarge" @click=${() => (this.enlarged = true)} title="Show the plot large, over the page">Enlarge</button>`}

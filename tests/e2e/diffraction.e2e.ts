@@ -1,5 +1,5 @@
 import { afterAll, beforeAll, expect, test } from 'vitest';
-import { csvRows, downloadedText, drag, foreignRequests, imageToPage, openDemoImage, openSession, type Session, artefactDir } from './browser';
+import { csvRows, downloadedText, drag, foreignRequests, imageToPage, openDemoImage, openSession, type Session, artefactDir, nextFrames } from './browser';
 import { join } from 'node:path';
 
 let s: Session;
@@ -79,5 +79,25 @@ test('cross-check: the fringes measured in a micrograph against the pattern; at 
   expect(note).toMatch(/U = k·u with k = 2/);
   expect(note).toMatch(/Period: [^.]*statistical[^.]*calibration/);
   expect(note).toMatch(/d: fit, profile shape, zero shift and wavelength/);
+  // the micrograph period's label stays in the plot area: none of its green is drawn over the tick
+  // labels left of or below the plot (it once was, right-aligned by the plot library's text settings)
+  await nextFrames(s.page);
+  const green = await plot.evaluate((el) => {
+    const u = (el as unknown as { chart: { ctx: CanvasRenderingContext2D; bbox: { left: number; top: number; width: number; height: number } } }).chart;
+    const { width, height } = u.ctx.canvas;
+    const px = u.ctx.getImageData(0, 0, width, height).data;
+    let outside = 0;
+    let inside = 0;
+    for (let y = 0; y < height; y++) for (let x = 0; x < width; x++) {
+      const i = 4 * (y * width + x);
+      if (Math.abs(px[i] - 0x7f) > 24 || Math.abs(px[i + 1] - 0xd1) > 24 || Math.abs(px[i + 2] - 0x8b) > 24) continue;
+      const b = u.bbox;
+      if (x >= b.left && x < b.left + b.width && y >= b.top && y < b.top + b.height) inside++;
+      else outside++;
+    }
+    return { inside, outside };
+  });
+  expect(green.inside).toBeGreaterThan(50);
+  expect(green.outside).toBe(0);
   await s.page.screenshot({ path: join(artefactDir('diffraction'), 'wide-1366x768.png') });
 }, 120_000);
