@@ -449,7 +449,7 @@ export class StrataDiffractionPanel extends LitElement {
   }
 
   private plot(data: PlotData | null): TemplateResult | typeof nothing {
-    if (!data) return nothing;
+    if (!data) return html`<p class="muted placeholder">Open a pattern (File, or Demo pattern) or type peaks: the pattern plot and its fitted peaks appear here.</p>`;
     return html`<strata-plot panel-exports .data=${data} height-px="300" file-stem=${(this.fileName ?? 'pattern').replace(/\.[^.]+$/, '')}></strata-plot>`;
   }
 

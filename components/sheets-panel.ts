@@ -691,6 +691,7 @@ export class StrataSheetsPanel extends LitElement {
       ${this.renderComparison()}
       </div>
       <div class="stage">
+      ${!this.lineResult && !stats.n ? html`<p class="muted placeholder">The profile across a measured line and the distributions of the sheets found appear here.</p>` : nothing}
       ${this.lineResult ? html`<section class="o4">${this.renderProfile()}</section>` : nothing}
       ${stats.n
         ? html`<section class="o6">
