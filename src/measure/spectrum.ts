@@ -150,15 +150,12 @@ export async function powerSpectrum(
   await realDft2d(
     w,
     h,
-    (m, stride) => {
-      // the detrended, windowed region, written straight into the transform's input
-      for (let j = 0; j < h; j++) {
-        const rowBase = mean + gy * (j - cy);
-        const o = (area.y + j) * iw + area.x;
-        const wj = wy[j];
-        const r = j * stride;
-        for (let i = 0; i < w; i++) m[r + i] = (d[o + i] - rowBase - wxg[i]) * wx[i] * wj;
-      }
+    (m, j) => {
+      // the detrended, windowed region, written straight into the transform's input a row at a time
+      const rowBase = mean + gy * (j - cy);
+      const o = (area.y + j) * iw + area.x;
+      const wj = wy[j];
+      for (let i = 0; i < w; i++) m[i] = (d[o + i] - rowBase - wxg[i]) * wx[i] * wj;
     },
     { kind: 'power', out: power },
   );
@@ -188,6 +185,53 @@ export function centredLogPower(spectrum: PowerSpectrum): Float32Array {
     for (let u = 0; u < w; u++) out[tv * w + ((u + hx) % w)] = Math.log10(1 + power[v * w + u] / med);
   }
   return out;
+}
+
+/**
+ * The centred log-power image reduced by a whole factor for display, keeping each block's maximum:
+ * the values of `reduceForDisplay(centredLogPower(spectrum), width, height, factor, 'max')`,
+ * without the full-size picture in between.
+ *
+ * Parameters: a power spectrum; factor, a whole number ≥ 1.
+ * Returns: floor(width / factor) × floor(height / factor) values of log10(1 + P / median P), each
+ * the largest of its block (blocks cut by the border are dropped), with its width and height.
+ * Notes: each bin's value is rounded to float32 before the blocks' maxima are taken, as the full
+ * picture stores it, so the two routes agree bit for bit.
+ * Reference: FFT shift of a periodogram for display and max pooling (common practice).
+ */
+export function centredLogPowerReduced(spectrum: PowerSpectrum, factor: number): { data: Float32Array; width: number; height: number } {
+  if (!Number.isInteger(factor) || factor < 1) throw new RangeError(`factor must be a whole number ≥ 1, got ${factor}`);
+  const { width: w, height: h, power } = spectrum;
+  const sample: number[] = [];
+  const step = Math.max(1, Math.floor(power.length / 20000));
+  for (let k = 1; k < power.length; k += step) sample.push(power[k]);
+  sample.sort((a, b) => a - b);
+  const med = sample[sample.length >> 1] || 1;
+  const ow = Math.floor(w / factor);
+  const oh = Math.floor(h / factor);
+  const data = new Float32Array(ow * oh);
+  const best = new Float64Array(ow);
+  const hx = w >> 1;
+  const hy = h >> 1;
+  const fround = Math.fround;
+  for (let j = 0; j < oh; j++) {
+    best.fill(-Infinity);
+    for (let b = 0; b < factor; b++) {
+      const v = (j * factor + b + h - hy) % h; // the spectrum's row shown at picture row j · factor + b
+      const o = v * w;
+      for (let i = 0; i < ow; i++) {
+        let m = best[i];
+        for (let a = 0; a < factor; a++) {
+          const u = (i * factor + a + w - hx) % w;
+          const x = fround(Math.log10(1 + power[o + u] / med));
+          m = x > m ? x : m;
+        }
+        best[i] = m;
+      }
+    }
+    for (let i = 0; i < ow; i++) data[j * ow + i] = best[i];
+  }
+  return { data, width: ow, height: oh };
 }
 
 /** Signed frequency index of DFT bin k of an n-point transform. */
