@@ -3,10 +3,9 @@
  * burned-in scale bar (found and read automatically, offline) or an internal lattice standard,
  * with a warning when two of them disagree.
  */
-import { readFile } from 'node:fs/promises';
 import type { CliCommand, CliIo } from './command';
 import { parseArgs, UsageError } from './command';
-import { decodeImage, ImageReadError } from '../image/decode';
+import { openImageFile } from './open-image';
 import type { Calibration } from '../image/grey-image';
 import { findScaleBar, type Box, type ScaleBar } from '../calibration/scale-bar';
 import { LABEL_CHARACTERS, parseScaleLabel, readScaleBar, scaleBarCalibration } from '../calibration/label';
@@ -190,15 +189,7 @@ export const command: CliCommand = {
       throw new UsageError(`--label '${typedLabel}' is not a number with a unit (pm, Å, nm or µm), e.g. "200 nm"`);
     }
 
-    let bytes: Uint8Array;
-    try {
-      bytes = new Uint8Array(await readFile(file));
-    } catch (e) {
-      const code = (e as NodeJS.ErrnoException).code;
-      const reason = code === 'ENOENT' ? 'no such file' : code === 'EISDIR' ? 'is a directory' : (e as Error).message;
-      throw new ImageReadError(file, reason);
-    }
-    const image = decodeImage(bytes, file);
+    const image = openImageFile(file);
     const candidates: Calibration[] = [];
     if (image.calibration) candidates.push(image.calibration);
 

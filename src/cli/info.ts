@@ -2,10 +2,9 @@
  * `stratameter info IMAGE [--json]`: what the reader makes of an image file — size, pixel type,
  * value range, the pixel size found in its metadata (with source and detail) and any warnings.
  */
-import { readFile } from 'node:fs/promises';
 import type { CliCommand, CliIo } from './command';
 import { parseArgs, UsageError } from './command';
-import { decodeImage, ImageReadError } from '../image/decode';
+import { openImageFile } from './open-image';
 import type { GreyImage } from '../image/grey-image';
 
 const usage = `Usage: stratameter info IMAGE [--json] [--reject-nonfinite] [--max-pixels N]
@@ -109,15 +108,7 @@ export const command: CliCommand = {
       maxDecompressedBytes = Number(text);
       if (!Number.isInteger(maxDecompressedBytes) || maxDecompressedBytes < 1) throw new UsageError(`--max-decompressed-bytes must be a positive integer, got '${text}'`);
     }
-    let bytes: Uint8Array;
-    try {
-      bytes = new Uint8Array(await readFile(file));
-    } catch (e) {
-      const code = (e as NodeJS.ErrnoException).code;
-      const reason = code === 'ENOENT' ? 'no such file' : code === 'EISDIR' ? 'is a directory' : code === 'EACCES' ? 'permission denied' : (e as Error).message;
-      throw new ImageReadError(file, reason);
-    }
-    const image = decodeImage(bytes, file, { maxPixels, maxDecompressedBytes, nonFinite: flags.has('reject-nonfinite') ? 'reject' : 'replace' });
+    const image = openImageFile(file, { maxPixels, maxDecompressedBytes, nonFinite: flags.has('reject-nonfinite') ? 'reject' : 'replace' });
     const report = infoReport(file, image);
     io.out(flags.has('json') ? JSON.stringify(report, null, 2) + '\n' : formatInfo(report));
     return 0;

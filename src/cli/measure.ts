@@ -3,12 +3,13 @@
  * or a rectangular region of it, strongest first, each as d ± u; with --tool, any tool of the
  * measurement-tool registry on a region or a line.
  */
-import { readFile, writeFile } from 'node:fs/promises';
+import { writeFile } from 'node:fs/promises';
 import { basename } from 'node:path';
 import { PROGRAM_VERSION } from './version';
 import type { CliCommand, CliIo } from './command';
 import { coverageFactorOption, parseArgs, UsageError } from './command';
-import { decodeImage, ImageReadError } from '../image/decode';
+import { ImageReadError } from '../image/decode';
+import { ImageFileError, openImageFile } from './open-image';
 import { checkSpectrumRegion, RegionTooLargeError } from '../image/size-limits';
 import type { Calibration, GreyImage } from '../image/grey-image';
 import { budgetContents, DEFAULT_COVERAGE_FACTOR, expressPeriod, formatPlusMinus, type Measurement, type Periodicity } from '../measure/measurement';
@@ -176,17 +177,14 @@ export const command: CliCommand = {
     if (window !== undefined && !['hann', 'tukey', 'none'].includes(window)) {
       throw new UsageError(`--window must be hann, tukey or none, got '${window}'`);
     }
-    let bytes: Uint8Array;
-    try {
-      bytes = new Uint8Array(await readFile(file));
-    } catch (e) {
-      io.err(`stratameter measure: cannot read ${file}: ${(e as NodeJS.ErrnoException).code ?? (e as Error).message}\n`);
-      return 1;
-    }
     let image: GreyImage;
     try {
-      image = decodeImage(bytes, file);
+      image = openImageFile(file);
     } catch (e) {
+      if (e instanceof ImageFileError) {
+        io.err(`stratameter measure: cannot read ${file}: ${e.code || e.reason}\n`);
+        return 1;
+      }
       if (e instanceof ImageReadError) {
         io.err(`stratameter measure: ${e.message}\n`);
         return 1;

@@ -6,7 +6,7 @@
 import { readFile, writeFile } from 'node:fs/promises';
 import type { CliCommand, CliIo } from './command';
 import { parseArgs, UsageError } from './command';
-import { decodeImage, ImageReadError } from '../image/decode';
+import { openImageFile } from './open-image';
 import { calibrateCameraConstant, type CameraConstant } from '../diffraction/electron/camera-constant';
 import type { RingAnalysis } from '../diffraction/electron/rings';
 import { electronDiffractionSet, measureElectronPattern, type CameraSetting, type PatternMeasurement } from '../diffraction/electron/measure';
@@ -207,14 +207,7 @@ export const command: CliCommand = {
       camera = parseCameraConstant(options.get('camera-constant')!);
     }
     const file = positional[0];
-    let bytes: Uint8Array;
-    try {
-      bytes = new Uint8Array(await readFile(file));
-    } catch (e) {
-      const code = (e as NodeJS.ErrnoException).code;
-      throw new ImageReadError(file, code === 'ENOENT' ? 'no such file' : code === 'EISDIR' ? 'is a directory' : (e as Error).message);
-    }
-    const image = decodeImage(bytes, file);
+    const image = openImageFile(file);
     if (standard) {
       let c: ReturnType<typeof calibrateCameraConstant>;
       try {

@@ -6,7 +6,7 @@
 import { readFile } from 'node:fs/promises';
 import type { CliCommand, CliIo } from './command';
 import { coverageFactorOption, parseArgs, UsageError } from './command';
-import { decodeImage, ImageReadError } from '../image/decode';
+import { openImageFile } from './open-image';
 import { makeGreyImage, type Calibration, type GreyImage } from '../image/grey-image';
 import { findScaleBar, type Box } from '../calibration/scale-bar';
 import { detectSheets, type AutoSheetsResult } from '../sheets/detect';
@@ -332,14 +332,7 @@ export const command: CliCommand = {
     }
     const line = options.has('line') ? parseLine(options.get('line')!) : undefined;
     const file = positional[0];
-    let bytes: Uint8Array;
-    try {
-      bytes = new Uint8Array(await readFile(file));
-    } catch (e) {
-      const code = (e as NodeJS.ErrnoException).code;
-      throw new ImageReadError(file, code === 'ENOENT' ? 'no such file' : code === 'EISDIR' ? 'is a directory' : (e as Error).message);
-    }
-    const image = decodeImage(bytes, file);
+    const image = openImageFile(file);
     if (nmPerPx !== undefined) {
       image.calibration = makeCalibration(nmPerPx, 'manual', 'typed on the command line', [{ name: 'indicated magnification (no uncertainty given)', rel: INDICATED_MAGNIFICATION_REL, type: 'B' }]);
     } else if (scaleBar === 'auto') {

@@ -71,17 +71,21 @@ function plan(m: PffftModule, n: number, kind: 'real' | 'complex'): Plan1d {
  *
  * @param width columns (≥ 1)
  * @param height rows (≥ 1)
- * @param fill writes the input: `fill(input, rowStride)` must set input[j · rowStride + i] for
- *   every i < width, j < height (the array lives in the engine's memory and is valid only
- *   during the call; do not keep it)
+ * @param fillRow writes one row of the input: `fillRow(row, j)` must set row[i] for every
+ *   i < width to x(i, j); it is called once for each j in turn (the array is reused from row to
+ *   row and may live in the engine's memory: do not keep it)
  * @param output where the result goes: power |X|² (width · height values) or the complex X
- *   (2 · width · height values, interleaved), both in DFT order, index v · width + u
+ *   (2 · width · height values, interleaved), both in DFT order, index v · width + u, or the half
+ *   u ≤ width/2 of X ('half-complex')
  * Notes: single precision in PFFFT, double precision in the fallback; results agree with a
- * double-precision DFT to a few units of float32 rounding relative to the largest value.
+ * double-precision DFT to a few units of float32 rounding relative to the largest value. The rows'
+ * transforms are kept in the output array itself and the columns transformed there a block at a
+ * time, so the transform needs no memory of the image's size besides its output (the engine holds
+ * one row and one block of columns).
  * Reference: row–column decomposition of the 2D DFT with real-input symmetry (Cooley & Tukey,
  * Math. Comput. 19, 297 (1965); PFFFT after FFTPACK, Swarztrauber 1982).
  */
-export async function realDft2d(width: number, height: number, fill: (input: Float32Array, rowStride: number) => void, output: Dft2dOutput): Promise<void> {
+export async function realDft2d(width: number, height: number, fillRow: (row: Float32Array, j: number) => void, output: Dft2dOutput): Promise<void> {
   if (!(Number.isInteger(width) && width >= 1)) throw new RangeError(`width must be a positive integer, got ${width}`);
   if (!(Number.isInteger(height) && height >= 1)) throw new RangeError(`height must be a positive integer, got ${height}`);
   const need = output.kind === 'power' ? width * height : output.kind === 'complex' ? 2 * width * height : 2 * ((width >> 1) + 1) * height;
@@ -93,45 +97,87 @@ export async function realDft2d(width: number, height: number, fill: (input: Flo
   const w = width;
   const h = height;
   const nc = (w >> 1) + 1; // columns of the half spectrum (u = 0 … ⌊w/2⌋)
-  const stride = (2 * nc + 3) & ~3; // floats per row: nc complex values, rounded up so every row starts 16-byte aligned (PFFFT asserts it)
+  const nyquist = (w & 1) === 0 && w > 1 ? nc - 1 : -1; // the real Nyquist column, when w is even
   const rowPlan = plan(m, w, 'real');
   const colPlan = plan(m, h, 'complex');
   const block = Math.min(COLUMN_BLOCK, nc);
-  const pA = m._pffft_aligned_malloc(4 * stride * h);
+  const pRow = m._pffft_aligned_malloc(4 * Math.max(w, 4));
   const pCol = m._pffft_aligned_malloc(8 * block * h);
   const pWork = m._pffft_aligned_malloc(4 * Math.max(w, 2 * h));
-  if (!pA || !pCol || !pWork) {
-    for (const p of [pA, pCol, pWork]) if (p) m._pffft_aligned_free(p);
-    throw new RangeError(`a ${w} × ${h} transform needs ${Math.round((4 * stride * h) / 2 ** 20)} MiB that the transform engine could not get`);
+  if (!pRow || !pCol || !pWork) {
+    for (const p of [pRow, pCol, pWork]) if (p) m._pffft_aligned_free(p);
+    throw new RangeError(`a ${w} × ${h} transform needs ${Math.round((8 * block * h) / 2 ** 20)} MiB that the transform engine could not get`);
   }
+  const out = output.out;
+  const kind = output.kind;
+  // Where row j's transform is kept until its columns are transformed, in the output itself:
+  // 'complex' and 'half-complex' keep X(u, j) where X(u, v) goes (row stride 2w or 2nc), so each
+  // column is transformed in place. 'power' has only w values per row: the row is kept packed,
+  // x(0) at 0, the complex X(u) for 0 < u < w/2 at 2u − 1 (re) and 2u (im), the real Nyquist
+  // value at w − 1; a column block's powers overwrite only the places of columns already
+  // gathered (p ≤ u0 + nb − 1 holds column ⌈p/2⌉), and the mirrored half is written at the end.
+  // The DC and Nyquist values of a real row's transform are real (their imaginary parts are 0).
+  const rowStride = kind === 'complex' ? 2 * w : kind === 'half-complex' ? 2 * nc : w;
   try {
     // views are taken after every allocation (the memory may have grown, which replaces its buffer)
     const heap = new Float32Array(m.HEAPF32.buffer);
-    const A = heap.subarray(pA >> 2, (pA >> 2) + stride * h);
+    const row = heap.subarray(pRow >> 2, (pRow >> 2) + w);
     const col = heap.subarray(pCol >> 2, (pCol >> 2) + 2 * block * h);
-    fill(A, stride);
 
-    // 1. Rows: real transform, stored as nc complex values (DC … Nyquist) per row.
+    // 1. Rows: real transform, nc complex values (DC … Nyquist) per row, kept in the output.
+    const keepRow = (j: number, re: (u: number) => number, im: (u: number) => number) => {
+      const o = j * rowStride;
+      if (kind === 'power') {
+        out[o] = re(0);
+        for (let u = 1; u < nc; u++) {
+          if (u === nyquist) {
+            out[o + w - 1] = re(u);
+          } else {
+            out[o + 2 * u - 1] = re(u);
+            out[o + 2 * u] = im(u);
+          }
+        }
+      } else {
+        for (let u = 0; u < nc; u++) {
+          out[o + 2 * u] = re(u);
+          out[o + 2 * u + 1] = im(u);
+        }
+      }
+    };
     if (rowPlan.setup) {
       for (let j = 0; j < h; j++) {
-        const p = pA + 4 * j * stride;
-        m._pffft_transform_ordered(rowPlan.setup, p, p, pWork, 0);
+        fillRow(row, j);
+        m._pffft_transform_ordered(rowPlan.setup, pRow, pRow, pWork, 0);
         // PFFFT packs the real Nyquist value into the DC value's imaginary slot
-        const o = j * stride;
-        A[o + w] = A[o + 1];
-        A[o + w + 1] = 0;
-        A[o + 1] = 0;
+        const o = j * rowStride;
+        if (kind === 'power') {
+          out[o] = row[0];
+          out.set(row.subarray(2, w), o + 1);
+          out[o + w - 1] = row[1];
+        } else {
+          out.set(row.subarray(2, w), o + 2);
+          out[o] = row[0];
+          out[o + 1] = 0;
+          out[o + w] = row[1];
+          out[o + w + 1] = 0;
+        }
       }
     } else {
       // two real rows a, b at once as z = a + i·b: A(u) = (Z(u) + Z(−u)*)/2, B(u) = (Z(u) − Z(−u)*)/(2i)
       const js = rowPlan.js!;
       const { re, im } = js;
+      const a = new Float32Array(nc);
+      const ai = new Float32Array(nc);
+      const b = new Float32Array(nc);
+      const bi = new Float32Array(nc);
       for (let j = 0; j < h; j += 2) {
-        const oa = j * stride;
-        const ob = j + 1 < h ? oa + stride : -1;
-        for (let i = 0; i < w; i++) {
-          re[i] = A[oa + i];
-          im[i] = ob >= 0 ? A[ob + i] : 0;
+        fillRow(row, j);
+        for (let i = 0; i < w; i++) re[i] = row[i];
+        if (j + 1 < h) {
+          fillRow(row, j + 1);
+          for (let i = 0; i < w; i++) im[i] = row[i];
+        } else {
+          im.fill(0, 0, w);
         }
         js.forward();
         for (let u = 0; u < nc; u++) {
@@ -140,35 +186,53 @@ export async function realDft2d(width: number, height: number, fill: (input: Flo
           const zi = im[u];
           const cr = re[k];
           const ci = -im[k];
-          A[oa + 2 * u] = 0.5 * (zr + cr);
-          A[oa + 2 * u + 1] = 0.5 * (zi + ci);
-          if (ob >= 0) {
-            A[ob + 2 * u] = 0.5 * (zi - ci);
-            A[ob + 2 * u + 1] = -0.5 * (zr - cr);
-          }
+          a[u] = 0.5 * (zr + cr);
+          ai[u] = 0.5 * (zi + ci);
+          b[u] = 0.5 * (zi - ci);
+          bi[u] = -0.5 * (zr - cr);
         }
+        keepRow(j, (u) => a[u], (u) => ai[u]);
+        if (j + 1 < h) keepRow(j + 1, (u) => b[u], (u) => bi[u]);
       }
     }
 
-    // 2. Columns of the half spectrum, a block at a time; each result written with its mirror.
-    const out = output.out;
-    const power = output.kind === 'power';
+    // 2. Columns of the half spectrum, a block at a time, transformed where they are kept.
     for (let u0 = 0; u0 < nc; u0 += block) {
       const nb = Math.min(block, nc - u0);
-      for (let j = 0; j < h; j++) {
-        const s = j * stride + 2 * u0;
-        for (let b = 0; b < nb; b++) {
-          const d = 2 * (b * h + j);
-          col[d] = A[s + 2 * b];
-          col[d + 1] = A[s + 2 * b + 1];
+      if (kind === 'power') {
+        for (let j = 0; j < h; j++) {
+          const o = j * w;
+          for (let bb = 0; bb < nb; bb++) {
+            const u = u0 + bb;
+            const d = 2 * (bb * h + j);
+            if (u === 0) {
+              col[d] = out[o];
+              col[d + 1] = 0;
+            } else if (u === nyquist) {
+              col[d] = out[o + w - 1];
+              col[d + 1] = 0;
+            } else {
+              col[d] = out[o + 2 * u - 1];
+              col[d + 1] = out[o + 2 * u];
+            }
+          }
+        }
+      } else {
+        for (let j = 0; j < h; j++) {
+          const s = j * rowStride + 2 * u0;
+          for (let bb = 0; bb < nb; bb++) {
+            const d = 2 * (bb * h + j);
+            col[d] = out[s + 2 * bb];
+            col[d + 1] = out[s + 2 * bb + 1];
+          }
         }
       }
       if (colPlan.setup) {
-        for (let b = 0; b < nb; b++) m._pffft_transform_ordered(colPlan.setup, pCol + 8 * b * h, pCol + 8 * b * h, pWork, 0);
+        for (let bb = 0; bb < nb; bb++) m._pffft_transform_ordered(colPlan.setup, pCol + 8 * bb * h, pCol + 8 * bb * h, pWork, 0);
       } else {
         const js = colPlan.js!;
-        for (let b = 0; b < nb; b++) {
-          const o = 2 * b * h;
+        for (let bb = 0; bb < nb; bb++) {
+          const o = 2 * bb * h;
           for (let v = 0; v < h; v++) {
             js.re[v] = col[o + 2 * v];
             js.im[v] = col[o + 2 * v + 1];
@@ -183,38 +247,45 @@ export async function realDft2d(width: number, height: number, fill: (input: Flo
       // columns u0 + b with b in [m0, m1) have their mirror w − u in the other half (0 < u ≤ w − nc)
       const m0 = u0 === 0 ? 1 : 0;
       const m1 = Math.max(m0, Math.min(nb, w - nc - u0 + 1));
-      if (output.kind === 'half-complex') {
+      if (kind === 'half-complex') {
         for (let v = 0; v < h; v++) {
-          const row = 2 * (v * nc + u0);
-          for (let b = 0, d = 2 * v; b < nb; b++, d += 2 * h) {
-            out[row + 2 * b] = col[d];
-            out[row + 2 * b + 1] = col[d + 1];
+          const r = 2 * (v * nc + u0);
+          for (let bb = 0, d = 2 * v; bb < nb; bb++, d += 2 * h) {
+            out[r + 2 * bb] = col[d];
+            out[r + 2 * bb + 1] = col[d + 1];
           }
         }
-      } else if (power) {
+      } else if (kind === 'power') {
+        // the mirrored half is written once every column is done (its places still hold rows' values)
         for (let v = 0; v < h; v++) {
-          const row = v * w + u0;
-          const mirror = ((h - v) % h) * w + w - u0;
-          for (let b = 0, d = 2 * v; b < nb; b++, d += 2 * h) out[row + b] = col[d] * col[d] + col[d + 1] * col[d + 1];
-          for (let b = m0; b < m1; b++) out[mirror - b] = out[row + b];
+          const r = v * w + u0;
+          for (let bb = 0, d = 2 * v; bb < nb; bb++, d += 2 * h) out[r + bb] = col[d] * col[d] + col[d + 1] * col[d + 1];
         }
       } else {
         for (let v = 0; v < h; v++) {
-          const row = 2 * (v * w + u0);
+          const r = 2 * (v * w + u0);
           const mirror = 2 * (((h - v) % h) * w + w - u0);
-          for (let b = 0, d = 2 * v; b < nb; b++, d += 2 * h) {
-            out[row + 2 * b] = col[d];
-            out[row + 2 * b + 1] = col[d + 1];
+          for (let bb = 0, d = 2 * v; bb < nb; bb++, d += 2 * h) {
+            out[r + 2 * bb] = col[d];
+            out[r + 2 * bb + 1] = col[d + 1];
           }
-          for (let b = m0; b < m1; b++) {
-            out[mirror - 2 * b] = out[row + 2 * b];
-            out[mirror - 2 * b + 1] = -out[row + 2 * b + 1];
+          for (let bb = m0; bb < m1; bb++) {
+            out[mirror - 2 * bb] = out[r + 2 * bb];
+            out[mirror - 2 * bb + 1] = -out[r + 2 * bb + 1];
           }
         }
       }
     }
+    if (kind === 'power') {
+      // the other half, P(w − u, −v) = P(u, v) for 0 < u ≤ w − nc (places u ≥ nc, free now)
+      for (let v = 0; v < h; v++) {
+        const r = v * w;
+        const mirror = ((h - v) % h) * w + w;
+        for (let u = 1; u <= w - nc; u++) out[mirror - u] = out[r + u];
+      }
+    }
   } finally {
-    m._pffft_aligned_free(pA);
+    m._pffft_aligned_free(pRow);
     m._pffft_aligned_free(pCol);
     m._pffft_aligned_free(pWork);
   }

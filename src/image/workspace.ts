@@ -14,7 +14,7 @@
 /**
  * The purposes a workspace lends buffers for (one buffer each). Besides the file, pixel and
  * spectrum buffers, the analysis of a region borrows scratch arrays that live only inside one call:
- * the complex spectrum of the spots' budgets, the ring index and log-powers of the radial
+ * the complex spectrum of the spots' budgets, the log-powers of the radial
  * background, the per-pixel support weights of a spot's refit.
  */
 export type WorkspacePurpose =
@@ -23,7 +23,6 @@ export type WorkspacePurpose =
   | 'decode-grey'
   | 'spectrum-power'
   | 'spectrum-complex'
-  | 'radial-rings'
   | 'radial-logs'
   | 'spot-weights';
 

@@ -18,7 +18,7 @@ import { refineData, type RefineData } from './refine';
 import { budgetSpot } from './spot-budget';
 import { complexSpectrum, type ComplexSpectrum } from './spot-field';
 import { spotNear, spotPeriodicity } from './spot-near';
-import { centredLogPower, findRings, radialBackground, radialProfile, ringPeriodicity, type RadialBackground, type RectPx, type Ring, type Spot } from './spectrum';
+import { centredLogPowerReduced, findRings, radialBackground, radialProfile, ringPeriodicity, type RadialBackground, type RectPx, type Ring, type Spot } from './spectrum';
 import type { WindowKind } from './window';
 
 /** Settings of a region's spectrum. */
@@ -238,7 +238,7 @@ export function spectrumView(analysis: RegionAnalysis, displayPx: number, alpha:
   const sp = analysis.spectrum;
   const m = analysis.measurement;
   const factor = Math.max(1, Math.ceil(Math.max(sp.width, sp.height) / Math.max(64, displayPx)));
-  const small = reduceForDisplay(centredLogPower(sp), sp.width, sp.height, factor, 'max');
+  const small = centredLogPowerReduced(sp, factor);
   const radial = radialProfile(sp);
   const nyquist = Math.floor(Math.max(sp.width, sp.height) / 2);
   return {

@@ -150,15 +150,12 @@ export async function powerSpectrum(
   await realDft2d(
     w,
     h,
-    (m, stride) => {
-      // the detrended, windowed region, written straight into the transform's input
-      for (let j = 0; j < h; j++) {
-        const rowBase = mean + gy * (j - cy);
-        const o = (area.y + j) * iw + area.x;
-        const wj = wy[j];
-        const r = j * stride;
-        for (let i = 0; i < w; i++) m[r + i] = (d[o + i] - rowBase - wxg[i]) * wx[i] * wj;
-      }
+    (m, j) => {
+      // the detrended, windowed region, written straight into the transform's input a row at a time
+      const rowBase = mean + gy * (j - cy);
+      const o = (area.y + j) * iw + area.x;
+      const wj = wy[j];
+      for (let i = 0; i < w; i++) m[i] = (d[o + i] - rowBase - wxg[i]) * wx[i] * wj;
     },
     { kind: 'power', out: power },
   );
@@ -188,6 +185,53 @@ export function centredLogPower(spectrum: PowerSpectrum): Float32Array {
     for (let u = 0; u < w; u++) out[tv * w + ((u + hx) % w)] = Math.log10(1 + power[v * w + u] / med);
   }
   return out;
+}
+
+/**
+ * The centred log-power image reduced by a whole factor for display, keeping each block's maximum:
+ * the values of `reduceForDisplay(centredLogPower(spectrum), width, height, factor, 'max')`,
+ * without the full-size picture in between.
+ *
+ * Parameters: a power spectrum; factor, a whole number ≥ 1.
+ * Returns: floor(width / factor) × floor(height / factor) values of log10(1 + P / median P), each
+ * the largest of its block (blocks cut by the border are dropped), with its width and height.
+ * Notes: each bin's value is rounded to float32 before the blocks' maxima are taken, as the full
+ * picture stores it, so the two routes agree bit for bit.
+ * Reference: FFT shift of a periodogram for display and max pooling (common practice).
+ */
+export function centredLogPowerReduced(spectrum: PowerSpectrum, factor: number): { data: Float32Array; width: number; height: number } {
+  if (!Number.isInteger(factor) || factor < 1) throw new RangeError(`factor must be a whole number ≥ 1, got ${factor}`);
+  const { width: w, height: h, power } = spectrum;
+  const sample: number[] = [];
+  const step = Math.max(1, Math.floor(power.length / 20000));
+  for (let k = 1; k < power.length; k += step) sample.push(power[k]);
+  sample.sort((a, b) => a - b);
+  const med = sample[sample.length >> 1] || 1;
+  const ow = Math.floor(w / factor);
+  const oh = Math.floor(h / factor);
+  const data = new Float32Array(ow * oh);
+  const best = new Float64Array(ow);
+  const hx = w >> 1;
+  const hy = h >> 1;
+  const fround = Math.fround;
+  for (let j = 0; j < oh; j++) {
+    best.fill(-Infinity);
+    for (let b = 0; b < factor; b++) {
+      const v = (j * factor + b + h - hy) % h; // the spectrum's row shown at picture row j · factor + b
+      const o = v * w;
+      for (let i = 0; i < ow; i++) {
+        let m = best[i];
+        for (let a = 0; a < factor; a++) {
+          const u = (i * factor + a + w - hx) % w;
+          const x = fround(Math.log10(1 + power[o + u] / med));
+          m = x > m ? x : m;
+        }
+        best[i] = m;
+      }
+    }
+    for (let i = 0; i < ow; i++) data[j * ow + i] = best[i];
+  }
+  return { data, width: ow, height: oh };
 }
 
 /** Signed frequency index of DFT bin k of an n-point transform. */
@@ -220,8 +264,8 @@ function squaredFrequencies(n: number): Float64Array {
  * Background power as a function of spatial frequency, robust to spots and to rings of spots.
  *
  * Parameters: a power spectrum; smoothRings, rings either side of the running median across
- * rings (default 6); workspace, to borrow the ring index and log-power scratch arrays from (their
- * contents on arrival do not matter; default fresh arrays).
+ * rings (default 6); workspace, to borrow the log-power scratch array from (its contents on
+ * arrival do not matter; default a fresh array).
  * Returns: background per ring (ring of a bin: round(|f| · max(width, height))).
  * Notes: for a featureless (Gaussian-noise-like) region every bin's power is exponentially
  * distributed about the local mean B. Within a ring, the mean of ln P over the lowest 70 % of its
@@ -242,33 +286,53 @@ export function radialBackground(spectrum: PowerSpectrum, smoothRings = 6, works
   const count = new Int32Array(rings);
   const fx2 = squaredFrequencies(w);
   const fy2 = squaredFrequencies(h);
-  // every element of ringOf and logs is written before it is read, so borrowed arrays serve alike
-  const ringOf = workspace ? workspace.int32('radial-rings', ((h >> 1) + 1) * w) : new Int32Array(((h >> 1) + 1) * w);
+  const ringAt = (u: number, v: number) => (Math.sqrt(fx2[u] + fy2[v]) * nMax + 0.5) | 0;
   for (let v = 0; v <= h >> 1; v++) {
-    for (let u = 0; u < w; u++) {
-      const r = (Math.sqrt(fx2[u] + fy2[v]) * nMax + 0.5) | 0;
-      ringOf[v * w + u] = r;
-      if (power[v * w + u] > 0) count[r]++;
-    }
+    for (let u = 0; u < w; u++) if (power[v * w + u] > 0) count[ringAt(u, v)]++;
   }
+  // The rings' ln P are gathered a group of rings at a time (one pass over the half-plane each, in
+  // the same order), into one scratch array of at most RADIAL_GROUP_VALUES values (or the largest
+  // ring): the memory of a few rings instead of the whole half-plane's, and the same numbers.
+  let largest = 0;
+  let total = 0;
+  for (let r = 1; r < rings; r++) {
+    largest = Math.max(largest, count[r]);
+    total += count[r];
+  }
+  const cap = Math.max(largest, Math.min(total, RADIAL_GROUP_VALUES), 1);
+  // every element of logs is written before it is read, so a borrowed array serves alike
+  const logs = workspace ? workspace.float64('radial-logs', cap) : new Float64Array(cap);
   const start = new Int32Array(rings + 1);
-  for (let r = 0; r < rings; r++) start[r + 1] = start[r] + count[r];
-  const logs = workspace ? workspace.float64('radial-logs', start[rings]) : new Float64Array(start[rings]);
-  const fill = start.slice(0, rings);
-  for (let k = 0; k < ringOf.length; k++) {
-    const p = power[k];
-    if (p > 0) logs[fill[ringOf[k]]++] = Math.log(p);
-  }
+  const fill = new Int32Array(rings);
   // the mean of ln P over the ring's lower KEEP fraction, less its expectation for Exp(1) data
   const raw = new Float64Array(rings).fill(NaN);
-  for (let r = 1; r < rings; r++) {
-    const n = count[r];
-    if (n === 0) continue;
-    const m = Math.max(1, Math.floor(KEEP * n));
-    quickSelect(logs, start[r], start[r] + n - 1, start[r] + m - 1);
-    let sum = 0;
-    for (let i = start[r]; i < start[r] + m; i++) sum += logs[i];
-    raw[r] = sum / m - TRIMMED_LOG_MEAN;
+  for (let r0 = 1; r0 < rings;) {
+    let r1 = r0;
+    let n = 0;
+    while (r1 < rings && n + count[r1] <= cap) n += count[r1++];
+    start[r0] = 0;
+    for (let r = r0; r < r1; r++) {
+      start[r + 1] = start[r] + count[r];
+      fill[r] = start[r];
+    }
+    for (let v = 0; v <= h >> 1; v++) {
+      for (let u = 0; u < w; u++) {
+        const p = power[v * w + u];
+        if (!(p > 0)) continue;
+        const r = ringAt(u, v);
+        if (r >= r0 && r < r1) logs[fill[r]++] = Math.log(p);
+      }
+    }
+    for (let r = r0; r < r1; r++) {
+      const nr = count[r];
+      if (nr === 0) continue;
+      const m = Math.max(1, Math.floor(KEEP * nr));
+      quickSelect(logs, start[r], start[r] + nr - 1, start[r] + m - 1);
+      let sum = 0;
+      for (let i = start[r]; i < start[r] + m; i++) sum += logs[i];
+      raw[r] = sum / m - TRIMMED_LOG_MEAN;
+    }
+    r0 = r1;
   }
   const background = new Float64Array(rings);
   const win: number[] = [];
@@ -281,6 +345,9 @@ export function radialBackground(spectrum: PowerSpectrum, smoothRings = 6, works
   }
   return { background, rings };
 }
+
+/** Most ln P values radialBackground gathers at once (16 MiB of float64). */
+const RADIAL_GROUP_VALUES = 1 << 21;
 
 /** Fraction of a ring's bins (the lowest) whose log-mean gives the background. */
 const KEEP = 0.7;

@@ -58,11 +58,9 @@ export async function complexSpectrum(image: GreyImage, area: RectPx, tukeyAlpha
   await realDft2d(
     w,
     h,
-    (m, stride) => {
-      for (let j = 0; j < h; j++) {
-        const o = (y + j) * image.width + x;
-        for (let i = 0; i < w; i++) m[j * stride + i] = (d[o + i] - mean) * wx[i] * wy[j];
-      }
+    (m, j) => {
+      const o = (y + j) * image.width + x;
+      for (let i = 0; i < w; i++) m[i] = (d[o + i] - mean) * wx[i] * wy[j];
     },
     { kind: 'half-complex', out: data },
   );

@@ -7,6 +7,7 @@ import { measureRegion } from '../../src/measure/measure-region';
 import {
   angleBetweenDeg,
   centredLogPower,
+  centredLogPowerReduced,
   fastSizeAtMost,
   findRings,
   findSpots,
@@ -15,6 +16,7 @@ import {
 } from '../../src/measure/spectrum';
 import { colouredNoiseImage, fringeImage, gaussian, manualCalibration, rng } from './synth';
 import { makeGreyImage } from '../../src/image/grey-image';
+import { reduceForDisplay } from '../../src/image/display';
 import { combinedPx, expressPeriod } from '../../src/measure/measurement';
 import { generateCase } from '../../testing/synthetic/lattice-images';
 
@@ -191,6 +193,22 @@ describe('spectrum display, rings and filtering', () => {
     for (let k = 0; k < disp.length; k++) if (disp[k] > disp[best]) best = k;
     expect([best % 64, Math.floor(best / 64)]).toEqual(expect.arrayContaining([32]));
     expect([24, 40]).toContain(best % 64);
+  });
+
+  test('the reduced display picture equals the full centred picture max-pooled, bit for bit', async () => {
+    // Same numbers by two routes (a memory saving must change no value): odd and even sides,
+    // factors that divide the sides and factors that leave a border.
+    for (const [w, h] of [[64, 64], [75, 48], [49, 81]]) {
+      const img = fringeImage(w, h, [{ periodPx: 7.3, angleDeg: 31, amplitude: 3 }], 1, 5);
+      const s = await powerSpectrum(img);
+      for (const factor of [1, 2, 3, 5, 8]) {
+        const full = reduceForDisplay(centredLogPower(s), s.width, s.height, factor, 'max');
+        const reduced = centredLogPowerReduced(s, factor);
+        expect([reduced.width, reduced.height]).toEqual([full.width, full.height]);
+        expect(Buffer.from(reduced.data.buffer).equals(Buffer.from(full.data.buffer))).toBe(true);
+      }
+    }
+    expect(() => centredLogPowerReduced({ width: 4, height: 4, power: new Float32Array(16) } as never, 0)).toThrow(/factor must be a whole number ≥ 1, got 0/);
   });
 
   test('a fingerprint-like lamellar region gives a ring at its d-spacing', async () => {
