@@ -5,7 +5,6 @@ import { sha256Hex } from '../src/store/bytes';
 import {
   findImagesBySha256,
   getImage,
-  imageBytes,
   openLibrary,
   putImage,
   requestPersistence,
@@ -316,8 +315,8 @@ export class StrataApp extends LitElement {
         if (reason) refused.push({ fileName: f.name, reason });
         continue;
       }
-      const bytes = new Uint8Array(await f.arrayBuffer());
-      const rec = await this.openBytes(bytes, f.name, f.type || mimeFor(f.name));
+      // the File itself goes to the worker (structured-cloned, not read here)
+      const rec = await this.openFile(f, f.name, f.type || mimeFor(f.name));
       if (rec) last = rec;
       else if (this.lastOpenError) refused.push({ fileName: f.name, reason: this.lastOpenError });
     }
@@ -334,7 +333,7 @@ export class StrataApp extends LitElement {
       this.say(`Reading ${d.title}…`, 'busy');
       const res = await fetch(`demo/${d.file}`);
       if (!res.ok) throw new Error(`demo file ${d.file} is missing (${res.status})`);
-      await this.openBytes(new Uint8Array(await res.arrayBuffer()), d.file, mimeFor(d.file));
+      await this.openFile(await res.blob(), d.file, mimeFor(d.file));
     } catch (e) {
       this.say(`Could not open the demo ${d.title}: ${(e as Error).message}`, 'error');
     }
@@ -377,16 +376,29 @@ export class StrataApp extends LitElement {
     }
   }
 
-  /** Decodes in the worker, shows the image and keeps it in the library (once per file content). */
-  private async openBytes(bytes: Uint8Array, fileName: string, mimeType: string, existing?: ImageRecord): Promise<ImageRecord | null> {
-    this.say(`Reading ${fileName} (${formatBytes(bytes.byteLength)})…`, 'busy');
+  /**
+   * Decodes in the worker, shows the image and keeps it in the library (once per file content).
+   * A Blob (a File, the library's stored copy, a fetched demo) goes to the worker as it is, which
+   * reads a TIFF from it a strip at a time; the page reads the file's bytes only to keep a new
+   * image in the library (its SHA-256 and stored copy), after the worker has decoded it.
+   */
+  private async openFile(file: Blob | Uint8Array, fileName: string, mimeType: string, existing?: ImageRecord): Promise<ImageRecord | null> {
+    const size = file instanceof Blob ? file.size : file.byteLength;
+    this.say(`Reading ${fileName} (${formatBytes(size)})…`, 'busy');
     try {
-      const copy = bytes.slice();
-      const { sessionId, image, levels, histogram, limits, thumbnail } = await this.compute.call('openImage', { bytes: copy, fileName }, [copy.buffer]);
+      let sent: Blob | Uint8Array = file;
+      let transfer: Transferable[] = [];
+      if (file instanceof Uint8Array) {
+        const copy = file.slice();
+        sent = copy;
+        transfer = [copy.buffer];
+      }
+      const { sessionId, image, levels, histogram, limits, thumbnail } = await this.compute.call('openImage', { file: sent, fileName }, transfer);
       let record = existing ?? null;
       let notKept = '';
       if (!record && this.db) {
         try {
+          const bytes = file instanceof Blob ? new Uint8Array(await file.arrayBuffer()) : file;
           const [same] = await findImagesBySha256(this.db, await sha256Hex(bytes));
           record = same ?? (await putImage(this.db, { bytes, fileName, image, mimeType, thumbnail }));
           this.libraryRevision++;
@@ -442,7 +454,8 @@ export class StrataApp extends LitElement {
       this.libraryRevision++;
       return;
     }
-    await this.openBytes(await imageBytes(rec), rec.fileName, rec.mimeType, rec);
+    // the library keeps the original file as a Blob: the worker reads it where it lies
+    await this.openFile(rec.file, rec.fileName, rec.mimeType, rec);
   }
 
   /** Ends the worker's session of the image on screen (its pixels and cached spectra are freed). */

@@ -1,5 +1,5 @@
 /**
- * The page's side of the compute worker: `await client.call('openImage', { bytes, fileName })`.
+ * The page's side of the compute worker: `await client.call('openImage', { file, fileName })`.
  * Requests are matched to replies by id; a failed call rejects with an Error carrying the
  * worker's error name and message.
  */

@@ -41,7 +41,11 @@ export interface ComputeCalls {
    * at the given percentiles (default 0.5 and 99.5 %) for the viewer, and the library's thumbnail.
    */
   openImage: {
-    args: { bytes: Uint8Array; fileName: string; lowPercent?: number; highPercent?: number };
+    /**
+     * The file: a Blob or File (structured-cloned, not copied; the worker reads a TIFF from it
+     * strip by strip with decodeImageSource), or its bytes where the page only has bytes.
+     */
+    args: { file: Blob | Uint8Array; fileName: string; lowPercent?: number; highPercent?: number };
     result: { sessionId: string; image: GreyImage; levels: GreyImage[]; histogram: GreyHistogram; limits: DisplayLimits; thumbnail: Thumbnail };
   };
   /**

@@ -35,10 +35,18 @@ function sessionOf(id: string): ImageSession {
   return s;
 }
 
-/** Decodes a file's bytes (openImage's first step). */
-async function decode(args: { bytes: Uint8Array; fileName: string }): Promise<GreyImage> {
-  const { decodeImage } = await import('../src/image/decode');
-  return decodeImage(args.bytes, args.fileName);
+/**
+ * Decodes a file (openImage's first step). A Blob is read where its parts lie (decodeImageSource:
+ * a TIFF a strip or tile at a time, other formats whole), so the worker never holds the whole
+ * file beside its pixels; bytes are decoded as they are.
+ */
+async function decode(args: { file: Blob | Uint8Array; fileName: string }): Promise<GreyImage> {
+  const { decodeImage, decodeImageSource } = await import('../src/image/decode');
+  const { file, fileName } = args;
+  if (file instanceof Uint8Array) return decodeImage(file, fileName);
+  if (!(file instanceof Blob)) throw new TypeError(`openImage: file must be a Blob or a Uint8Array, got ${Object.prototype.toString.call(file)}`);
+  const reader = new FileReaderSync();
+  return decodeImageSource({ length: file.size, read: (offset, n) => new Uint8Array(reader.readAsArrayBuffer(file.slice(offset, offset + n))) }, fileName);
 }
 
 /**

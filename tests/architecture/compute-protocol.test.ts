@@ -20,7 +20,7 @@ type HoldsArrays<T, Depth extends unknown[] = []> = Depth['length'] extends 8
 type CallsWithArrays = { [K in CallName]: true extends HoldsArrays<CallArgs<K>> ? K : never }[CallName];
 
 test('only opening a file carries bytes', () => {
-  // openImage: a file's bytes, sent once to open its session
+  // openImage: the file (a Blob, read by the worker where it lies) or its bytes, sent once to open its session
   expectTypeOf<CallsWithArrays>().toEqualTypeOf<'openImage'>();
 });
 
@@ -28,4 +28,6 @@ test('the check sees pixels wherever they are in the arguments', () => {
   expectTypeOf<true extends HoldsArrays<{ sessionId: string; image: { data: Float32Array } }> ? 1 : 0>().toEqualTypeOf<1>();
   expectTypeOf<true extends HoldsArrays<{ a?: { b: Uint8Array[] } | null }> ? 1 : 0>().toEqualTypeOf<1>();
   expectTypeOf<true extends HoldsArrays<{ sessionId: string; rect: { x: number }; settings?: Record<string, unknown> }> ? 1 : 0>().toEqualTypeOf<0>();
+  // a Blob is the file, read where it lies: it holds no array until read
+  expectTypeOf<true extends HoldsArrays<{ file: Blob; fileName: string }> ? 1 : 0>().toEqualTypeOf<0>();
 });

@@ -166,7 +166,7 @@ export async function computeCalls(page: Page): Promise<ComputeCallSeen[]> {
 
 /**
  * The calls after the first `openImage` that carried pixels or bytes, other than `openImage`
- * itself (a file's bytes, sent once to open its session): none is allowed, as the compute worker
+ * itself (the file, a Blob or its bytes, sent once to open its session): none is allowed, as the compute worker
  * owns the image session and requests carry ids and regions (docs/developers.md).
  */
 export function callsWithPixelsAfterOpen(calls: ComputeCallSeen[]): ComputeCallSeen[] {
