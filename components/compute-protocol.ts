@@ -84,7 +84,14 @@ export interface ComputeCalls {
   /** The report of the session's image as one self-contained HTML file, or its figure (image, overlays, scale bar) as SVG (src/figure/report.ts). */
   imageReport: { args: InSession & { form: 'html' | 'svg'; fileName: string; records: Measurement[]; plots: PlotData[]; k: number; software: string }; result: { text: string } };
   /** Reads a diffraction pattern's text and fits its peaks (seconds on a few thousand points). */
-  analysePattern: { args: { text: string; wavelength?: string; fileName?: string }; result: { pattern: Pattern; analysis: PatternAnalysis } };
+  /**
+   * A powder pattern's peaks, budgets and indexing; with an internal standard (a built-in one by id,
+   * or a cubic cell a ± u, standard uncertainty, nm) its cell is held and the zero shift fitted from its lines.
+   */
+  analysePattern: {
+    args: { text: string; wavelength?: string; fileName?: string; internalStandard?: { id: string } | { aNm: number; uANm: number; centring: 'F' | 'I' | 'P' } };
+    result: { pattern: Pattern; analysis: PatternAnalysis };
+  };
   /** Every stack in the session's image, skipping a scale-bar strip or panel; the period when known (px). */
   sheetsFind: { args: InSession & { polarity: 'dark' | 'bright'; periodPx?: number }; result: { result: AutoSheetsResult; excludedBox: [number, number, number, number] | null } };
   /** Sheets along a drawn line in the session's image; the period when known, or the image's candidates. */

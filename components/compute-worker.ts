@@ -190,12 +190,16 @@ const handlers: Handlers = {
     const { measureElectronPattern } = await import('../src/diffraction/electron/measure');
     return measureElectronPattern(image, camera, { what });
   },
-  analysePattern: async ({ text, wavelength, fileName }) => {
+  analysePattern: async ({ text, wavelength, fileName, internalStandard }) => {
     const { readPatternFile } = await import('../src/diffraction/read-pattern');
     const { analysePattern: analyse } = await import('../src/diffraction/analyse');
+    const { internalStandardFrom } = await import('../src/diffraction/internal-standard');
     const pattern = readPatternFile(text, fileName ?? 'the pattern', { wavelength });
     if (pattern.axis === 'twoTheta' && pattern.wavelengthNm === null) throw new Error('no wavelength in the file: choose one');
-    return { pattern, analysis: analyse(pattern) };
+    const standard = internalStandard === undefined ? undefined
+      : 'id' in internalStandard ? internalStandardFrom(internalStandard.id)
+        : internalStandardFrom(`cubic:${internalStandard.aNm}±${internalStandard.uANm}:${internalStandard.centring}`);
+    return { pattern, analysis: analyse(pattern, { internalStandard: standard }) };
   },
   indexSpots: async ({ spots, cifText, cifName, builtIn }) => {
     const z = await import('../src/diffraction/zone-axis');

@@ -14,6 +14,7 @@ import { reconcile, type DiffractionLine, type MicrographPeriod, type Reconcilia
 import { indexSeries, type IndexedSeries } from '../src/diffraction/series';
 import { pm, sig } from '../src/diffraction/format';
 import { budgetContents, DEFAULT_COVERAGE_FACTOR, expressPeriod, formatPlusMinus, type UncertaintyBudget } from '../src/measure/measurement';
+import { INTERNAL_STANDARDS } from '../src/diffraction/internal-standard';
 import { BUILT_IN_PHASES, type ZoneAxisResult, type ZoneSpot } from '../src/diffraction/zone-axis';
 import type { PlotData } from '../src/figure/plot';
 import './plot';
@@ -46,6 +47,8 @@ export class StrataDiffractionPanel extends LitElement {
     calibrationRelUncertainty: { attribute: false },
     wavelengthKey: { state: true },
     customWavelength: { state: true },
+    standardKey: { state: true },
+    standardCell: { state: true },
     axisView: { state: true },
     logY: { state: true },
     analysis: { state: true },
@@ -84,6 +87,9 @@ export class StrataDiffractionPanel extends LitElement {
   calibrationRelUncertainty: number | undefined = undefined;
   wavelengthKey = 'header';
   customWavelength = '';
+  /** The internal standard mixed into the sample: 'none', a built-in id ('si', 'lab6') or 'cubic-F' / 'cubic-I' / 'cubic-P' (a cell typed in standardCell as a ± u, nm). */
+  standardKey = 'none';
+  standardCell = '';
   axisView: AxisView = '2theta';
   logY = false;
   analysis: PatternAnalysis | null = null;
@@ -132,6 +138,26 @@ export class StrataDiffractionPanel extends LitElement {
     this.emit('status-message', { text, kind });
   }
 
+  /** The internal standard for analysePattern, or undefined for none; throws naming the text when a typed cell is not a ± u. */
+  private standardOption(): { id: string } | { aNm: number; uANm: number; centring: 'F' | 'I' | 'P' } | undefined {
+    if (this.standardKey === 'none') return undefined;
+    if (!this.standardKey.startsWith('cubic-')) return { id: this.standardKey };
+    const m = /^\s*([\d.]+)\s*(?:±|\+-|\+\/-)\s*([\d.]+)\s*$/.exec(this.standardCell);
+    if (!m) throw new Error(`type the internal standard's lattice parameter as a ± u in nm (u: standard uncertainty), e.g. 0.40782 ± 0.00002, got "${this.standardCell}"`);
+    return { aNm: Number(m[1]), uANm: Number(m[2]), centring: this.standardKey.slice(6) as 'F' | 'I' | 'P' };
+  }
+
+  /** The zero-shift line under the peaks: its value, ± at k = 2 and what the ± contains. */
+  private zeroShiftLine(a: PatternAnalysis): string {
+    const z = a.indexing.zeroShiftDeg;
+    if (z === null) return '';
+    const u2 = pm(z, 2 * (a.indexing.zeroShiftUncDeg ?? 0));
+    const std = a.indexing.phases.find((p) => p.standard);
+    if (!std) return `Zero shift ${u2}° (± 2u, k = 2: the fit of the indexed lines), removed from d.`;
+    const cell = this.standardKey.startsWith('cubic-') ? 'the standard uncertainty of its cell as typed' : "the certified cell's uncertainty";
+    return `Zero shift ${u2}° (± 2u, k = 2), measured on the internal standard ${std.name} (${std.lines.length} lines, its cell held) and removed from d; the ± contains the fit of the standard's lines and ${cell}.`;
+  }
+
   private wavelengthOption(): string | undefined {
     if (this.wavelengthKey === 'header') return undefined;
     if (this.wavelengthKey === 'custom') return this.customWavelength.trim() || undefined;
@@ -170,7 +196,7 @@ export class StrataDiffractionPanel extends LitElement {
     this.busy = true;
     try {
       if (!this.compute) throw new Error('the compute worker is not available');
-      const { pattern, analysis } = await this.compute.call('analysePattern', { text: this.patternText, wavelength: this.wavelengthOption(), fileName: this.fileName || undefined });
+      const { pattern, analysis } = await this.compute.call('analysePattern', { text: this.patternText, wavelength: this.wavelengthOption(), fileName: this.fileName || undefined, internalStandard: this.standardOption() });
       this.pattern = pattern;
       this.analysis = analysis;
       this.manual = [];
@@ -496,6 +522,16 @@ export class StrataDiffractionPanel extends LitElement {
           ${this.wavelengthKey === 'custom' ? html`<input type="text" placeholder="1.5406A or 0.15406nm" .value=${this.customWavelength} @change=${(e: Event) => { this.customWavelength = (e.target as HTMLInputElement).value; this.analyse(); }} />` : nothing}
         </div>
         <div class="row">
+          <label>Internal standard
+            <select class="internal-standard" @change=${(e: Event) => { this.standardKey = (e.target as HTMLSelectElement).value; if (!this.standardKey.startsWith('cubic-') || this.standardCell.trim()) void this.analyse(); }}>
+              <option value="none" ?selected=${this.standardKey === 'none'}>none</option>
+              ${INTERNAL_STANDARDS.map((st) => html`<option value=${st.id} ?selected=${this.standardKey === st.id}>${st.name}: a = ${st.aNm} ± ${st.expandedUNm} nm (k = 2)</option>`)}
+              ${(['F', 'I', 'P'] as const).map((c) => html`<option value=${`cubic-${c}`} ?selected=${this.standardKey === `cubic-${c}`}>a cubic ${c} cell you enter</option>`)}
+            </select>
+          </label>
+          ${this.standardKey.startsWith('cubic-') ? html`<label>a ± u (nm) <input type="text" class="standard-cell" placeholder="0.40782 ± 0.00002" .value=${this.standardCell} @change=${(e: Event) => { this.standardCell = (e.target as HTMLInputElement).value; void this.analyse(); }} /></label>` : nothing}
+        </div>
+        <div class="row">
           <label>Typed peaks
             <select @change=${(e: Event) => { this.manualUnit = (e.target as HTMLSelectElement).value as PeakListUnit; }}>
               <option value="dNm">d (nm)</option><option value="dA">d (Å)</option><option value="twoThetaDeg">2θ (°)</option><option value="qInvNm">q (nm⁻¹)</option><option value="qInvA">q (Å⁻¹)</option>
@@ -537,8 +573,8 @@ export class StrataDiffractionPanel extends LitElement {
             return html`<tr><td>${p.twoThetaDeg === null ? '—' : pm(p.twoThetaDeg, p.twoThetaUncDeg)}</td><td>${pm(p.dCorrectedNm, 2 * p.budget.combinedNm)}</td><td>${sig(p.fwhmDeg, 3)}</td><td>${sig(p.intensity, 3)}</td><td>${p.kind === 'band' ? '(hk) band' : p.crystalliteNm === null ? '—' : pm(p.crystalliteNm, 2 * (p.crystalliteUncNm ?? 0))}</td><td>${hkl}</td></tr>`;
           })}
         </table>
-        ${a.indexing.phases.map((ph, j) => html`<p>Phase ${j + 1}: ${ph.kind}, ${ph.kind === 'lamellar' ? `period ${pm(ph.cNm, 2 * ph.cUncNm)} nm` : ph.kind.startsWith('cubic') ? `a = ${pm(ph.aNm, 2 * ph.aUncNm)} nm` : `a = ${pm(ph.aNm, 2 * ph.aUncNm)} nm, c = ${pm(ph.cNm, 2 * ph.cUncNm)} nm`} (± 2u); ${ph.lines.length} lines; F${ph.figureOfMerit.n} = ${sig(ph.figureOfMerit.fN, 3)}</p>`)}
-        ${a.indexing.zeroShiftDeg !== null ? html`<p>Zero shift ${pm(a.indexing.zeroShiftDeg, 2 * (a.indexing.zeroShiftUncDeg ?? 0))}° (± 2u), removed from d.</p>` : nothing}
+        ${a.indexing.phases.map((ph, j) => html`<p>Phase ${j + 1}: ${ph.kind}, ${ph.kind === 'lamellar' ? `period ${pm(ph.cNm, 2 * ph.cUncNm)} nm` : ph.kind.startsWith('cubic') ? `a = ${pm(ph.aNm, 2 * ph.aUncNm)} nm` : `a = ${pm(ph.aNm, 2 * ph.aUncNm)} nm, c = ${pm(ph.cNm, 2 * ph.cUncNm)} nm`} (± 2u); ${ph.lines.length} lines; F${ph.figureOfMerit.n} = ${sig(ph.figureOfMerit.fN, 3)}${ph.standard ? ` — internal standard ${ph.name}, cell held` : ''}</p>`)}
+        ${a.indexing.zeroShiftDeg !== null ? html`<p class="zero-shift">${this.zeroShiftLine(a)}</p>` : nothing}
         ${a.series.map((s) => html`<p>${s.kind}: ${s.members.map((m) => m.index).join(', ')} — cell ${pm(s.cellNm, 2 * s.cellUncNm)} nm (± 2u)</p>`)}
         <p class="muted">${a.sizeMethod}</p>
         ${a.notes.map((n) => html`<p class="muted">${n}</p>`)}

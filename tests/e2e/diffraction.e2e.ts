@@ -1,6 +1,9 @@
 import { afterAll, beforeAll, expect, test } from 'vitest';
 import { csvRows, downloadedText, drag, foreignRequests, imageToPage, openDemoImage, openSession, type Session, artefactDir, nextFrames } from './browser';
 import { join } from 'node:path';
+import { dToTwoTheta } from '../../src/diffraction/bragg';
+import { latticeLines } from '../../src/diffraction/lattice';
+import { reflectionWidth, syntheticPattern, type SyntheticPeak } from '../../testing/synthetic/diffraction-pattern';
 
 let s: Session;
 beforeAll(async () => { s = await openSession(); });
@@ -100,4 +103,49 @@ test('cross-check: the fringes measured in a micrograph against the pattern; at 
   expect(green.inside).toBeGreaterThan(50);
   expect(green.outside).toBe(0);
   await s.page.screenshot({ path: join(artefactDir('diffraction'), 'wide-1366x768.png') });
+}, 120_000);
+
+test('an internal standard: Si (SRM 640f) picked in the panel measures the zero shift of a Si + fcc-metal pattern; the line says what its ± contains', async () => {
+  // Si at the SRM 640f cell (a = 0.5431144 ± 0.000008 nm, k = 2; Black et al., Powder Diffr. 35 (2020),
+  // reference-values.md §2) with its d-glide (ITC A, Fd-3m), an fcc metal (a = 0.40782 nm, from memory)
+  // and a +0.06° zero shift, Cu Kα1 (ITC C, reference-values.md); seeded Poisson noise (seed 16)
+  const CU1 = 0.154059292;
+  const diamond = (h: number, k: number, l: number) => ([h, k, l].every((v) => v % 2 === 0) ? (h + k + l) % 4 === 0 : true);
+  const peaks: SyntheticPeak[] = [];
+  const add = (aNm: number, allows: ((h: number, k: number, l: number) => boolean) | null, sizeNm: number, top: number, rel: number[]) => {
+    latticeLines({ kind: 'cubic-F', aNm, cNm: aNm }, CU1 / (2 * Math.sin((118 * Math.PI) / 360))).filter((l) => !allows || allows(...l.hkl)).forEach((l, i) => {
+      const tt = dToTwoTheta(l.dNm, CU1);
+      const w = reflectionWidth(tt, sizeNm, CU1);
+      peaks.push({ twoThetaDeg: tt, area: top * (rel[i] ?? 0.1), fwhmDeg: w.fwhmDeg, eta: w.eta });
+    });
+  };
+  add(0.5431144, diamond, 300, 250, [1, 0.55, 0.3, 0.06, 0.11, 0.12, 0.07, 0.05]);
+  add(0.40782, null, 30, 400, [1, 0.5, 0.3, 0.35, 0.1, 0.05, 0.12, 0.1]);
+  const pattern = syntheticPattern(peaks, { rangeDeg: [20, 120], stepDeg: 0.02, wavelengthNm: CU1, ka2Nm: null, zeroShiftDeg: 0.06, seed: 16 });
+  const text = `# Cu Ka1 1.540593 A, primary monochromator\n${Array.from(pattern.x, (x, i) => `${x.toFixed(4)} ${pattern.y[i]}`).join('\n')}\n`;
+  const errors: string[] = [];
+  s.page.on('pageerror', (e) => errors.push(String(e)));
+  await s.page.setViewportSize({ width: 1366, height: 768 });
+  await s.page.goto(s.url);
+  await s.page.locator('strata-app').getByRole('tab', { name: 'Diffraction', exact: true }).click();
+  const xrd = s.page.locator('strata-diffraction-panel');
+  type Seen = { indexing: { zeroShiftDeg: number | null; zeroShiftUncDeg: number | null; phases: Array<{ standard: boolean; name: string }> } } | null;
+  const analysis = () => xrd.evaluate((el) => (el as unknown as { analysis: Seen }).analysis);
+  await xrd.locator('select.internal-standard').selectOption('si');
+  await xrd.locator('input[type="file"]').setInputFiles({ name: 'si-metal.xy', mimeType: 'text/plain', buffer: Buffer.from(text) });
+  await expect.poll(async () => (await analysis())?.indexing.phases.some((p) => p.standard) ?? false, { timeout: 60_000 }).toBe(true);
+  const a = (await analysis())!;
+  expect(a.indexing.phases.find((p) => p.standard)!.name).toBe('Si (SRM 640f)');
+  const z = a.indexing.zeroShiftDeg!;
+  const zU = a.indexing.zeroShiftUncDeg!;
+  // the drawn shift, within 3u and the 0.002° the fit of a noisy pattern leaves (as the command line's test)
+  expect(Math.abs(z - 0.06)).toBeLessThan(3 * zU + 0.002);
+  const line = (await xrd.locator('p.zero-shift').textContent()) ?? '';
+  expect(line).toMatch(/Zero shift 0\.0[5-7]\d* ± [0-9.]+° \(± 2u, k = 2\), measured on the internal standard Si \(SRM 640f\)/);
+  expect(line).toMatch(/the ± contains the fit of the standard's lines and the certified cell's uncertainty/);
+  // none: the same pattern without a standard says its zero shift comes from the indexed lines
+  await xrd.locator('select.internal-standard').selectOption('none');
+  await expect.poll(async () => (await analysis())?.indexing.phases.some((p) => p.standard) ?? true, { timeout: 60_000 }).toBe(false);
+  await expect.poll(() => xrd.locator('p.zero-shift', { hasText: 'internal standard' }).count()).toBe(0);
+  expect(errors).toEqual([]);
 }, 120_000);
