@@ -10,6 +10,7 @@ import { spotPeriodicity } from '../src/measure/spot-near';
 import { withTableSpots } from '../src/measure/session';
 import { toolOf } from '../src/measure/tools';
 import { periodLabel } from '../src/figure/shapes';
+import { periodBudgetLabel, withBudgetLabels } from '../src/figure/budget-labels';
 import type { WindowKind } from '../src/measure/window';
 import { putMeasurement } from '../src/store/library';
 import type { ImageRecord } from '../src/store/records';
@@ -266,6 +267,8 @@ export class StrataMeasurePanel extends LitElement {
         this.sendShapes();
       }
     }
+    // the labels on the image carry their ± at this k
+    if (changed.has('coverageK') && changed.get('coverageK') !== undefined) this.sendShapes();
     if (changed.has('viewer') && this.viewer) {
       this.widthPx = this.viewer.lineWidthPx;
       this.activeTool = this.viewer.tool;
@@ -407,12 +410,17 @@ export class StrataMeasurePanel extends LitElement {
     const shapes: OverlayShape[] = [];
     const cal = this.image?.calibration ?? null;
     // each tool's figure from the registry, with the calibration in force
+    // each period in a label with its ± at the panel's k (withBudgetLabels)
     if (this.spectrum && this.spectrumRect) {
-      shapes.push(...toolOf('spectrum').figure({ ...this.spectrum.measurement, calibration: cal, periodicities: this.spots.map(spotPeriodicity) }));
+      const m = { ...this.spectrum.measurement, calibration: cal, periodicities: this.spots.map(spotPeriodicity) };
+      shapes.push(...withBudgetLabels(m, toolOf('spectrum').figure(m), this.coverageK));
     } else if (this.spectrumRect) {
       shapes.push({ kind: 'rect', ...this.spectrumRect, label: 'FFT region', tone: 'info' });
     }
-    if (this.profile) shapes.push(...toolOf('profile').figure({ ...this.profile.measurement, calibration: cal }));
+    if (this.profile) {
+      const m = { ...this.profile.measurement, calibration: cal };
+      shapes.push(...withBudgetLabels(m, toolOf('profile').figure(m), this.coverageK));
+    }
     else if (this.profileLine) shapes.push({ kind: 'line', ...this.profileLine, label: 'profile', tone: 'accent' });
     this.dispatchEvent(new CustomEvent('overlay-shapes', { detail: { shapes }, bubbles: true, composed: true }));
   }
@@ -710,7 +718,7 @@ export class StrataMeasurePanel extends LitElement {
       this.spots = this.spots.map((x) => (x.n === t.n ? { ...full, n: t.n, added: true } : x));
       this.timelineMark = ['strata-spot-budgeted', 'strata-spot-click-to-budget'];
       this.step(`spot #${t.n} added`);
-      this.say(`Spot #${t.n} added: d ${this.dText(full.periodPx, this.image?.calibration ?? null, full.angleDeg, 'normal')}, ${full.angleDeg.toFixed(1)}°.`);
+      this.say(`Spot #${t.n} added: ${periodBudgetLabel(spotPeriodicity(full), this.image?.calibration ?? null, this.coverageK)}, ${full.angleDeg.toFixed(1)}°.`);
     } catch (e) {
       this.spots = this.spots.map((x) => (x.budgeting ? { ...x, budgeting: false } : x));
       this.say(`The spot could not be added: ${(e as Error).message}`, 'error');
