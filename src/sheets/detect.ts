@@ -628,8 +628,9 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
   const pieces: Piece[] = [];
   const rejected: RejectedBand[] = [];
   const coverage = new Coverage(4);
-  const tryPeriods = periodList.length ? periodList : [];
+  // candidates measured at the periods given (a function: run again after the periods are refined)
   // strongest bands first, so the stack is measured from its best candidate
+  const measureCandidates = (tryPeriods: number[], earlier: Omit<AutoSheet, 'id'>[]): void => {
   for (const axis of axes) {
     if (tryPeriods.length === 0) break;
     const axisFrame0 = axisFrame(axis.points);
@@ -796,15 +797,21 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
       const piece: Piece = { axisPx, periodPx, uPeriodPx: uPeriod, periodSource, fitLayers: fit.layers, counted, edges: edge, positions, evidence: fit.evidence };
       const done = finishPiece(piece, minPeriodPx);
       if (inBox(done.centerPx[0], done.centerPx[1], exclude)) continue;
+      // a second look adds stacks; it does not touch the ones measured before
+      if (earlier.some((o) => shareOnBand(done.axisPx, o) > 0.2 || shareOnBand(o.axisPx, done) > 0.2)) continue;
       pieces.push(piece);
       coverage.add(pieces.length - 1, pieceFrame, offAt(pieceFrame.cumPx[Math.floor(pieceFrame.points.length / 2)]), done.thicknessPx / 2 + 0.5 * periodPx, (i) => screenAngleDeg(pieceFrame.normals[i][0], pieceFrame.normals[i][1]));
     }
   }
+  };
+  measureCandidates(periodList.length ? [...periodList] : [], []);
   // the image's periods from the stacks that measured their own (four layers or more): the
   // periodograms of the candidates read a few per cent high near the sampling limit; thinner
   // stacks then take the median of their phase's refined periods (five stacks at least), with the spread among those
   // stacks as their period's uncertainty (a thin stack's own period is not measured)
   if (given === undefined) {
+    const refined: { m: number; sd: number }[] = [];
+    let moved = false;
     for (let k = 0; k < periodList.length; k++) {
       const d = periodList[k];
       const own = pieces.filter((q) => q.periodSource === 'stack' && Math.abs(q.periodPx - d) < 0.06 * d).map((q) => q.periodPx);
@@ -816,7 +823,22 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
         q.periodPx = m;
         q.uPeriodPx = sd;
       }
+      if (Math.abs(m - d) > 0.015 * d) moved = true;
       periodList[k] = m;
+      refined.push({ m, sd });
+    }
+    // two periodogram peaks of one phase refine to the same period: kept once
+    const unique = periodList.filter((d, k) => periodList.findIndex((e) => Math.abs(e - d) < 1e-9) === k);
+    periodList.splice(0, periodList.length, ...unique);
+    if (moved) {
+      // a period read more than 1.5 % off puts the comb of a thick stack out of phase (its
+      // band is then too faint): the candidates not yet on a stack are measured again at the
+      // refined periods, and their first rejections are superseded
+      rejected.length = 0;
+      measureCandidates([...periodList], pieces.map((q) => finishPiece(q, minPeriodPx)));
+      for (const { m, sd } of refined) {
+        for (const q of pieces) if (q.periodSource === 'image' && Math.abs(q.periodPx - m) < 1e-9) q.uPeriodPx = sd;
+      }
     }
   }
   // after merging, a stack must be at least as long as the shortest stack asked for and as its

@@ -113,6 +113,20 @@ describe('detectSheets', () => {
       expect(sc.spurious).toBeLessThanOrEqual(1);
     }
   });
+  it('measures again at the refined period the stacks missed at the periodograms\' (3 % high) one', () => {
+    // touching pair at 4.82 px (synthetic truth, testing/synthetic/overviews.ts): the candidates'
+    // periodograms read 4.98 px, and the 4-layer stack's comb at that period was too faint; the
+    // stacks' own refined periods give 4.8 px, and the second look finds it with its count
+    const o = generateOverview('touching', 1);
+    const res = detectSheets(o.image);
+    const sc = scoreOverview(o.truth.stacks, res.sheets);
+    const i = o.truth.stacks.findIndex((t) => t.layers === 4 && Math.abs(t.cx - 418) < 2 && Math.abs(t.cy - 332) < 2);
+    expect(i).toBeGreaterThanOrEqual(0);
+    expect(sc.matchOf[i], 'the 4-layer stack is found').toBeGreaterThanOrEqual(0);
+    expect(res.sheets[sc.matchOf[i]].layers).toBe(4);
+    expect(Math.abs(res.periods[0].periodPx - o.truth.stacks[i].periodPx) / o.truth.stacks[i].periodPx).toBeLessThan(0.02);
+    expect(sc.spurious).toBeLessThanOrEqual(1);
+  });
   it('counts a fine-period stack at its own period, not as every other layer at the coarse phase (two periods)', () => {
     // two phases at 3.18 and 6.23 px (ratio ≈ 2): before the test of the fundamental on the
     // stack's own axis, the 10-layer stack at 3.18 px read 5 at 6.36 px and the 6-layer one 3 at
