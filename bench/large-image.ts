@@ -6,7 +6,7 @@
  *
  * A seeded 16-bit TIFF (lattice fringes and noise) is written to a temporary folder; each case then
  * runs in a fresh process, so its peak resident memory (maxRSS) is its own: open the file, either
- * read whole and decoded (as the app's compute worker does today) or decoded strip by strip from
+ * read whole and decoded (as the app's compute worker does when handed bytes) or decoded strip by strip from
  * a file handle (decodeImageSource: the file is never held whole), build the viewer's pyramid and
  * histogram (as the worker's prepareView), and analyse a region the way the worker does for the
  * Periods panel: analyseRegion (spectrum, spots, each spot's budget), then spectrumView (display picture).
