@@ -9,7 +9,8 @@
  * Usage: npm run bench:labels [-- --n 48 --seed 1 --held-out 24]
  */
 import { findScaleBar } from '../src/calibration/scale-bar';
-import { LABEL_CHARACTERS, parseScaleLabel, readScaleBar } from '../src/calibration/label';
+import { LABEL_CHARACTERS, parseScaleLabel } from '../src/calibration/label';
+import { readScaleBar } from '../src/calibration/label-read';
 import { createTextReader } from '../src/calibration/ocr';
 import { ambiguousCases, labelCases } from '../testing/synthetic/label-cases';
 import { barScene, sceneLabel, type BarSceneSpec } from '../testing/synthetic/scale-bar-scenes';

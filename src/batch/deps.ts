@@ -3,7 +3,8 @@
  * batch runner calls (`BatchDeps`). Pure core modules only, so the same wiring serves a Node
  * worker thread and a module Web Worker.
  */
-import { LABEL_CHARACTERS, readScaleBar } from '../calibration/label';
+import { LABEL_CHARACTERS } from '../calibration/label';
+import { readScaleBar } from '../calibration/label-read';
 import type { TextReader } from '../calibration/ocr';
 import { findScaleBar, type ScaleBar } from '../calibration/scale-bar';
 import { decodeImage } from '../image/decode';

@@ -5,11 +5,11 @@
  * confidence or an unusual value ends in a question (app) or a refusal naming what was read
  * (command line), never in a guess. Pure apart from the OCR engine, which is passed in.
  */
-import type { GreyImage } from '../image/grey-image';
+import type { Calibration, GreyImage } from '../image/grey-image';
 import { readGlyphs } from './glyph-reader';
 import { cropLabel, ocrRaster, widenedBox, type GreyRaster, type LabelCrop } from './label-raster';
-import { checkMicroPrefix, parseScaleLabel, type ScaleLabel } from './label';
-import type { Box, ScaleBar } from './scale-bar';
+import { checkMicroPrefix, parseScaleLabel, scaleBarCalibration, type ScaleBarCalibrationOptions, type ScaleLabel } from './label';
+import { findScaleBar, type Box, type ScaleBar, type ScaleBarOptions } from './scale-bar';
 
 /** Reads one line of text: the shape of the OCR adapter's reader (see ./ocr). */
 export interface LineReader {
@@ -190,4 +190,53 @@ export function decide(attempts: LabelAttempt[], rule: { minOcr: number; minGlyp
 
 function formatValue(v: number): string {
   return Number(v.toPrecision(6)).toString();
+}
+
+/** What reading a scale bar produced. */
+export interface ScaleBarReading {
+  bar: ScaleBar | null;
+  /** The label as agreed by every reader, or null when it was not (see `reading` for why). */
+  label: (ScaleLabel & { text: string; ocrConfidence: number }) | null;
+  /** The OCR engine's best reading even when it was not taken (so the user sees what was read), or null. */
+  ocrText: string | null;
+  /** The full reading: 'read' or 'ask', the reasons and every attempt; null when there was no label box. */
+  reading: LabelReading | null;
+  /** Why the user must give the label (empty when it was read). */
+  question: string | null;
+  /** The calibration, only when the label was read without doubt. */
+  calibration: Calibration | null;
+}
+
+/**
+ * Finds the scale bar, reads its label (OCR and the glyph reader, which must agree on a round
+ * value; see readLabel) and makes the calibration.
+ * @param image the micrograph
+ * @param reader an OCR line reader (createTextReader from ./ocr, or any other)
+ * @param options bar-search options and the calibration allowance
+ * @returns the bar, the label when read without doubt, what was read, the question to ask
+ *   otherwise, and the calibration (null unless the label was read without doubt)
+ */
+export async function readScaleBar(
+  image: GreyImage,
+  reader: LineReader,
+  options: ScaleBarOptions & ScaleBarCalibrationOptions & LabelReadOptions = {},
+): Promise<ScaleBarReading> {
+  if (!reader || typeof reader.read !== 'function') throw new TypeError('reader must have a read(raster) method');
+  const bar = findScaleBar(image, options);
+  if (!bar || !bar.labelBox) return { bar, label: null, ocrText: null, reading: null, question: bar ? 'no label found beside the bar: give it' : null, calibration: null };
+  const reading = await readLabel(image, bar, reader, options);
+  const ocrBest = reading.attempts.filter((a) => a.reader === 'ocr' && a.text).sort((a, b) => b.confidence - a.confidence)[0];
+  const ocrText = reading.suggestion ?? ocrBest?.text ?? null;
+  if (reading.status !== 'read' || !reading.label) {
+    return { bar, label: null, ocrText, reading, question: labelQuestion(reading), calibration: null };
+  }
+  const ocrConf = Math.max(0, ...reading.attempts.filter((a) => a.reader === 'ocr' && a.nm === reading.label!.nm).map((a) => a.confidence));
+  const label = { ...reading.label, ocrConfidence: ocrConf, confidence: ocrConf };
+  return { bar, label, ocrText, reading, question: null, calibration: scaleBarCalibration(bar, reading.label.nm, options) };
+}
+
+/** The question put to the user when a label was not read without doubt: what was read and why it is not taken. */
+export function labelQuestion(reading: LabelReading): string {
+  const what = reading.suggestion ? `It reads like "${reading.suggestion}", but ` : '';
+  return `${what}${reading.reasons.join('; ')}. Give the label as written beside the bar (e.g. 200 nm).`;
 }

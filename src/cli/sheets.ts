@@ -112,7 +112,8 @@ export function parseRegion(text: string, image: { width: number; height: number
 }
 
 async function scaleBarCalibration(image: GreyImage): Promise<Calibration> {
-  const { readScaleBar, LABEL_CHARACTERS } = await import('../calibration/label');
+  const { LABEL_CHARACTERS } = await import('../calibration/label');
+  const { readScaleBar } = await import('../calibration/label-read');
   const { createTextReader } = await import('../calibration/ocr');
   const reader = await createTextReader({ whitelist: LABEL_CHARACTERS });
   try {

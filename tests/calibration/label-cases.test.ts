@@ -1,5 +1,6 @@
 import { afterAll, beforeAll, expect, test } from 'vitest';
-import { LABEL_CHARACTERS, parseScaleLabel, readScaleBar } from '../../src/calibration/label';
+import { LABEL_CHARACTERS, parseScaleLabel } from '../../src/calibration/label';
+import { readScaleBar } from '../../src/calibration/label-read';
 import { createTextReader, type TextReader } from '../../src/calibration/ocr';
 import { findScaleBar } from '../../src/calibration/scale-bar';
 import { ambiguousCases, labelCases } from '../../testing/synthetic/label-cases';

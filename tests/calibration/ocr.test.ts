@@ -1,5 +1,6 @@
 import { afterAll, beforeAll, expect, test } from 'vitest';
-import { readScaleBar, LABEL_CHARACTERS } from '../../src/calibration/label';
+import { LABEL_CHARACTERS } from '../../src/calibration/label';
+import { readScaleBar } from '../../src/calibration/label-read';
 import { createTextReader, type TextReader } from '../../src/calibration/ocr';
 import { parseScaleLabel } from '../../src/calibration/label';
 import { scene, type SceneSpec } from './scenes';
