@@ -71,6 +71,8 @@ export class StrataDiffractionPanel extends LitElement {
       th, td { padding: 2px 4px; text-align: right; border-bottom: 1px solid var(--line); }
       th:first-child, td:first-child { text-align: left; }
       textarea { width: 100%; box-sizing: border-box; font: inherit; color: var(--text); background: #212b35; border: 1px solid var(--line); }
+      /* a long option (a standard with its certified cell) must not push the column wider than the screen */
+      select.internal-standard { max-width: 15em; }
       .error { color: #f08a7a; }
       td.good { color: #7fd18b; }
       td.warn { color: #f0c05a; }
