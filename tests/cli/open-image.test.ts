@@ -8,38 +8,18 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, describe, expect, test } from 'vitest';
 import { decodeImage } from '../../src/image/decode';
-import type { GreyImage } from '../../src/image/grey-image';
 import { ImageFileError, openImageFile } from '../../src/cli/open-image';
 import { classesOf } from '../../testing/corrupt';
 import { encodeTiff } from '../../testing/encode-tiff';
 import { rng } from '../../testing/random';
+import { expectSameImage, outcome } from '../image/same-image';
 
 const dir = mkdtempSync(join(tmpdir(), 'stratameter-open-'));
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
-type Outcome = { image: GreyImage } | { error: string };
-function outcome(run: () => GreyImage): Outcome {
-  try {
-    return { image: run() };
-  } catch (e) {
-    return { error: `${(e as Error).name}: ${(e as Error).message}` };
-  }
-}
-
 /** Opened from the file by position, against decodeImage of its bytes read whole (file name as given). */
 function expectSameAsWhole(path: string, what: string): void {
-  const a = outcome(() => decodeImage(new Uint8Array(readFileSync(path)), path));
-  const b = outcome(() => openImageFile(path));
-  if ('error' in a || 'error' in b) {
-    expect(b, what).toEqual(a);
-    return;
-  }
-  const x = a.image;
-  const y = b.image;
-  expect([y.width, y.height, y.bitDepth, y.sampleKind], what).toEqual([x.width, x.height, x.bitDepth, x.sampleKind]);
-  expect(y.calibration, what).toEqual(x.calibration);
-  expect(y.warnings, what).toEqual(x.warnings);
-  expect(Buffer.from(y.data.buffer, y.data.byteOffset, y.data.byteLength).equals(Buffer.from(x.data.buffer, x.data.byteOffset, x.data.byteLength)), `${what}: pixels`).toBe(true);
+  expectSameImage(outcome(() => decodeImage(new Uint8Array(readFileSync(path)), path)), outcome(() => openImageFile(path)), what);
 }
 
 describe('openImageFile', () => {

@@ -4,10 +4,10 @@
 // never held whole (TIFF 6.0 §2: directories and strips are found by their offsets).
 import { describe, expect, test } from 'vitest';
 import { decodeImage, decodeImageSource, type ByteSource } from '../../src/image/decode';
-import type { GreyImage } from '../../src/image/grey-image';
 import { classesOf } from '../../testing/corrupt';
 import { encodeTiff } from '../../testing/encode-tiff';
 import { rng } from '../../testing/random';
+import { expectSameImage, outcome } from './same-image';
 
 /** A source that copies each read (as a file handle does) and records the reads. */
 function fileLike(bytes: Uint8Array): ByteSource & { reads: number[] } {
@@ -21,28 +21,6 @@ function fileLike(bytes: Uint8Array): ByteSource & { reads: number[] } {
       return bytes.slice(offset, offset + length);
     },
   };
-}
-
-type Outcome = { image: GreyImage } | { error: string };
-function outcome(run: () => GreyImage): Outcome {
-  try {
-    return { image: run() };
-  } catch (e) {
-    return { error: `${(e as Error).name}: ${(e as Error).message}` };
-  }
-}
-
-function expectSame(a: Outcome, b: Outcome, what: string): void {
-  if ('error' in a || 'error' in b) {
-    expect(b, what).toEqual(a);
-    return;
-  }
-  const x = a.image;
-  const y = b.image;
-  expect([y.width, y.height, y.bitDepth, y.sampleKind], what).toEqual([x.width, x.height, x.bitDepth, x.sampleKind]);
-  expect(y.calibration, what).toEqual(x.calibration);
-  expect(y.warnings, what).toEqual(x.warnings);
-  expect(Buffer.from(y.data.buffer, y.data.byteOffset, y.data.byteLength).equals(Buffer.from(x.data.buffer, x.data.byteOffset, x.data.byteLength)), `${what}: pixels`).toBe(true);
 }
 
 describe('a TIFF decoded by position equals the TIFF decoded whole', () => {
@@ -63,7 +41,7 @@ describe('a TIFF decoded by position equals the TIFF decoded whole', () => {
 
   test.each(cases)('$name', ({ name, bytes, stripBytes }) => {
     const source = fileLike(bytes);
-    expectSame(outcome(() => decodeImage(bytes, 'a.tif')), outcome(() => decodeImageSource(source, 'a.tif')), name);
+    expectSameImage(outcome(() => decodeImage(bytes, 'a.tif')), outcome(() => decodeImageSource(source, 'a.tif')), name);
     // never the whole file at once: directory pages (64 KiB) or one strip at a time
     expect(Math.max(...source.reads)).toBeLessThanOrEqual(Math.max(65536, stripBytes));
     if (bytes.length > 65536) expect(Math.max(...source.reads)).toBeLessThan(bytes.length);
@@ -76,15 +54,15 @@ describe('a TIFF decoded by position equals the TIFF decoded whole', () => {
     for (const c of classes) {
       for (let k = 0; k < 3; k++) {
         const input = c.make(rr);
-        expectSame(outcome(() => decodeImage(input.bytes, input.name)), outcome(() => decodeImageSource(fileLike(input.bytes), input.name)), `${c.id} #${k}`);
+        expectSameImage(outcome(() => decodeImage(input.bytes, input.name)), outcome(() => decodeImageSource(fileLike(input.bytes), input.name)), `${c.id} #${k}`);
       }
     }
   });
 
   test('other formats are read whole and decoded alike; a bad source is refused by name', () => {
     const png = new Uint8Array([0x89, 0x50, 0x4e, 0x47, 0x0d, 0x0a, 0x1a, 0x0a, 0, 0, 0, 0]);
-    expectSame(outcome(() => decodeImage(png, 'b.png')), outcome(() => decodeImageSource(fileLike(png), 'b.png')), 'truncated PNG');
-    expectSame(outcome(() => decodeImage(new Uint8Array(0), 'c.tif')), outcome(() => decodeImageSource(fileLike(new Uint8Array(0)), 'c.tif')), 'empty file');
+    expectSameImage(outcome(() => decodeImage(png, 'b.png')), outcome(() => decodeImageSource(fileLike(png), 'b.png')), 'truncated PNG');
+    expectSameImage(outcome(() => decodeImage(new Uint8Array(0), 'c.tif')), outcome(() => decodeImageSource(fileLike(new Uint8Array(0)), 'c.tif')), 'empty file');
     expect(() => decodeImageSource({ length: -1, read: () => new Uint8Array(0) }, 'd.tif')).toThrow(/source must have a non-negative integer length/);
   });
 });
