@@ -29,7 +29,6 @@ import { histogram, type Summary } from '../src/measure/stats';
 import type { ComputeClient } from './compute-client';
 import type { LineDrawnDetail, OverlayShape, ShapeClickDetail, StrataViewer } from './viewer';
 import { controlStyles, panelStyles, wideStyles } from './styles';
-import { plotStyles } from './plot-line';
 import type { PlotData } from '../src/figure/plot';
 import './plot';
 import './export-menu';
@@ -87,7 +86,6 @@ export class StrataSheetsPanel extends LitElement {
   static override styles = [
     controlStyles,
     panelStyles,
-    plotStyles,
     wideStyles,
     css`
       table { border-collapse: collapse; width: 100%; font-variant-numeric: tabular-nums; }
