@@ -209,6 +209,7 @@ function periodogramMoments(
     const o = (y0 + j) * strideX + x0;
     const wo = j * w;
     const base = mean + slopeY * (j - cyp);
+    // two copies of the row loop on purpose: the unweighted fit (most spots) does no weight load per pixel
     if (weights) {
       for (let i = 0; i < w; i++) {
         const d = (pixels[o + i] - base - planeX[i]) * weights[wo + i];
