@@ -62,7 +62,7 @@ async function child(file: string, regionSide: number, opening: 'whole' | 'strip
     let bytes: Uint8Array | null = new Uint8Array(readFileSync(file).buffer);
     mark('file read whole');
     image = decodeImage(bytes, 'large.tif');
-    mark('decoded (float32 pixels)');
+    mark('decoded (pixels in the file\'s own type)');
     bytes = null;
   } else {
     // positional reads from a file handle: the directories a page at a time, then each strip
@@ -82,7 +82,7 @@ async function child(file: string, regionSide: number, opening: 'whole' | 'strip
     } finally {
       closeSync(fd);
     }
-    mark('decoded strip by strip (float32 pixels)');
+    mark('decoded strip by strip (pixels in the file\'s own type)');
   }
   gc();
   const residentMiB = () => process.memoryUsage.rss() / MiB;
@@ -141,7 +141,7 @@ async function main(): Promise<void> {
       verdicts.push(`opened ${opening === 'whole' ? 'whole' : 'strip by strip'}, spectrum of ${side}²: peak ${peak.toFixed(0)} MiB = ${(peak / rawMiB).toFixed(2)} × raw (target ≤ 4 ×: ${peak <= 4 * rawMiB ? 'met' : 'not met'}); resident after opening (file bytes, if read whole, released) ${o.afterOpen.toFixed(0)} MiB, at the end ${o.atEnd.toFixed(0)} MiB`);
     }
     console.log(`\n${verdicts.join('\n')}`);
-    console.log('Peak resident memory is the process\'s own peak (VmHWM: all memory it touched: Node itself, the file\'s bytes, the float32 pixels, the pyramid, the transform engine\'s WebAssembly memory, the spectrum). Each spectrum case runs in a fresh process.');
+    console.log('Peak resident memory is the process\'s own peak (VmHWM: all memory it touched: Node itself, the file\'s bytes, the pixels in the file\'s own type, the pyramid, the transform engine\'s WebAssembly memory, the spectrum). Each spectrum case runs in a fresh process.');
   } finally {
     rmSync(dir, { recursive: true, force: true });
   }

@@ -180,7 +180,7 @@ export class StrataMeasurePanel extends LitElement {
   private profileRun = 0;
   private spectrumRun = 0;
   private nextSpot = 1;
-  private lastData: Float32Array | null = null;
+  private lastData: GreyImage['data'] | null = null;
   /**
    * Set at a click on the spectrum: the next render that shows the new spot (then its full budget)
    * marks the time since the click on the performance timeline ([mark, measure] names).

@@ -185,7 +185,7 @@ export class StrataViewer extends LitElement {
   /** What the histogram canvas last showed. */
   private histogramDrawn: { canvas: HTMLCanvasElement | null; h: GreyHistogram | null; black: number; white: number } = { canvas: null, h: null, black: NaN, white: NaN };
   private imageData: ImageData | null = null;
-  private shownData: Float32Array | null = null;
+  private shownData: GreyImage['data'] | null = null;
   /** Keyboard drawing: the cross-hair and the start point set with Enter (image px). */
   private keyCursor: { x: number; y: number } | null = null;
   private keyStart: { x: number; y: number } | null = null;

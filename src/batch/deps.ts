@@ -8,7 +8,7 @@ import { readScaleBar } from '../calibration/label-read';
 import type { TextReader } from '../calibration/ocr';
 import { findScaleBar, type ScaleBar } from '../calibration/scale-bar';
 import { decodeImage } from '../image/decode';
-import type { GreyImage } from '../image/grey-image';
+import type { GreyImage, PixelArray } from '../image/grey-image';
 import { loadFft } from '../image/fft';
 import { createWorkspace, type Workspace } from '../image/workspace';
 import { checkSpectrumRegion } from '../image/size-limits';
@@ -43,7 +43,7 @@ function guardSpectrum(image: GreyImage, region: Region): void {
  * tools serve one file at a time (as processOne uses them).
  */
 export async function createBatchDeps(workspace: Workspace = createWorkspace(), budgets: { maxPixels?: number; maxDecompressedBytes?: number } = {}): Promise<BatchDeps> {
-  const bars = new WeakMap<Float32Array, ScaleBar | null>();
+  const bars = new WeakMap<PixelArray, ScaleBar | null>();
   const barOf = (image: GreyImage): ScaleBar | null => {
     if (!bars.has(image.data)) bars.set(image.data, findScaleBar(image));
     return bars.get(image.data) ?? null;

@@ -4,7 +4,7 @@
  * filled or bordered box or directly on the image, with or without end ticks; and the box of its
  * label. Pure: typed arrays only.
  */
-import type { GreyImage } from '../image/grey-image';
+import { isPixelArray, type GreyImage } from '../image/grey-image';
 
 /** [x, y, width, height] in pixels. */
 export type Box = [number, number, number, number];
@@ -122,7 +122,7 @@ function uniformRuns(img: GreyImage, tol: number, minLen: number): Run[] {
  * of the bar's length instead of 70 % and the two sides need not look alike (a busy background).
  */
 export function findScaleBar(image: GreyImage, options: ScaleBarOptions = {}): ScaleBar | null {
-  if (!image || !(image.data instanceof Float32Array) || image.data.length !== image.width * image.height) {
+  if (!image || !isPixelArray(image.data) || image.data.length !== image.width * image.height) {
     throw new TypeError('image must be a GreyImage with width × height values');
   }
   const orientation = options.orientation ?? 'any';

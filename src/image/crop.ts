@@ -1,7 +1,7 @@
 /**
  * A rectangle of an image as an image of its own.
  */
-import { makeGreyImage, type GreyImage } from './grey-image';
+import { makeGreyImage, newPixels, storageOf, type GreyImage } from './grey-image';
 
 /** A rectangle in whole image pixels. */
 export interface PixelRect {
@@ -33,7 +33,7 @@ export function cropImage(image: GreyImage, rect: PixelRect): GreyImage {
   if (x < 0 || y < 0 || width < 1 || height < 1 || x + width > image.width || y + height > image.height) {
     throw new RangeError(`crop x ${x}, y ${y}, ${width} × ${height} lies outside the ${image.width} × ${image.height} image`);
   }
-  const data = new Float32Array(width * height);
+  const data = newPixels(storageOf(image.data), width * height);
   for (let j = 0; j < height; j++) data.set(image.data.subarray((y + j) * image.width + x, (y + j) * image.width + x + width), j * width);
   return makeGreyImage(width, height, data, { calibration: image.calibration, bitDepth: image.bitDepth, sampleKind: image.sampleKind });
 }

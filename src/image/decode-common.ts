@@ -2,7 +2,7 @@
  * What the per-format image readers share: the error type, the budgets, the grey writer that
  * turns rows of samples into the one grey image, and calibration from resolution metadata.
  */
-import type { Calibration, SampleKind } from './grey-image';
+import { newPixels, type Calibration, type PixelArray, type PixelStorage, type SampleKind } from './grey-image';
 import type { Workspace } from './workspace';
 import { INDICATED_MAGNIFICATION_REL, makeCalibration } from '../calibration/calibration';
 
@@ -80,7 +80,7 @@ export const NM_PER_M = 1e9;
 export interface Decoded {
   width: number;
   height: number;
-  data: Float32Array;
+  data: PixelArray;
   bitDepth: number;
   sampleKind: SampleKind;
   calibration: Calibration | null;
@@ -89,10 +89,25 @@ export interface Decoded {
   mayBeNonFinite: boolean;
 }
 
+/**
+ * The storage that holds every grey value of a file exactly.
+ * @param bits - bits per sample in the file.
+ * @param kind - the file's sample type.
+ * @param colour - true when the grey values may be a weighted sum of colour samples (luma).
+ * @returns 'uint8' or 'uint16' for unsigned 8- or 16-bit grey, 'int16' for signed 8- or 16-bit
+ * grey, else 'float32'.
+ */
+export function pixelStorage(bits: number, kind: SampleKind, colour: boolean): PixelStorage {
+  if (colour || kind === 'float') return 'float32';
+  if (bits === 8) return kind === 'uint' ? 'uint8' : 'int16';
+  if (bits === 16) return kind === 'uint' ? 'uint16' : 'int16';
+  return 'float32';
+}
+
 /** Where a reader takes its large arrays from: fresh ones, or a workspace's. */
 export interface Alloc {
-  /** The grey pixels (every element is written). */
-  grey(pixels: number): Float32Array;
+  /** The grey pixels in the given storage (every element is written). */
+  grey(pixels: number, storage: PixelStorage): PixelArray;
   /** Working bytes (a strip, a tile, a row); byteOffset 0; contents unspecified. */
   raw(byteLength: number): Uint8Array;
 }
@@ -103,8 +118,8 @@ export interface Alloc {
  * @returns the allocator the readers use.
  */
 export function allocFrom(workspace: Workspace | undefined): Alloc {
-  if (!workspace) return { grey: (n) => new Float32Array(n), raw: (n) => new Uint8Array(n) };
-  return { grey: (n) => workspace.float32('decode-grey', n), raw: (n) => workspace.bytes('decode-raw', n) };
+  if (!workspace) return { grey: (n, storage) => newPixels(storage, n), raw: (n) => new Uint8Array(n) };
+  return { grey: (n, storage) => workspace.pixels('decode-grey', storage, n), raw: (n) => workspace.bytes('decode-raw', n) };
 }
 
 /** A byte count for messages: exact bytes, with MiB or GiB beside large ones. */
@@ -151,7 +166,7 @@ export function checkDecompressed(bytes: number, budget: Budget, fail: Fail, wha
  * @param warnings - receives a note of what was replaced.
  * @param fail - stops reading with a reason.
  */
-export function handleNonFinite(data: Float32Array, policy: 'reject' | 'replace', warnings: string[], fail: Fail): void {
+export function handleNonFinite(data: PixelArray, policy: 'reject' | 'replace', warnings: string[], fail: Fail): void {
   let bad = 0;
   for (let i = 0; i < data.length; i++) if (!Number.isFinite(data[i])) bad++;
   if (bad === 0) return;
@@ -178,6 +193,8 @@ export interface GreyWriterOptions {
   hasAlpha: boolean;
   /** The opaque alpha value (NaN: do not count transparent pixels). */
   alphaMax: number;
+  /** How the grey values are stored (default float32; colour files are always float32, for luma). */
+  storage?: PixelStorage;
 }
 
 /**
@@ -189,7 +206,7 @@ export interface GreyWriterOptions {
  * if luma had been taken from the start). Alpha is counted for a warning and otherwise ignored.
  */
 export class GreyWriter {
-  readonly data: Float32Array;
+  readonly data: PixelArray;
   private readonly spp: number;
   private readonly colour: boolean;
   private readonly alphaIndex: number;
@@ -205,7 +222,7 @@ export class GreyWriter {
    * @param alloc - where the pixel array comes from.
    */
   constructor(pixels: number, options: GreyWriterOptions, alloc: Alloc) {
-    this.data = alloc.grey(pixels);
+    this.data = alloc.grey(pixels, options.colour && options.spp >= 3 ? 'float32' : options.storage ?? 'float32');
     this.spp = options.spp;
     this.colour = options.colour && options.spp >= 3;
     this.alphaIndex = options.hasAlpha && options.spp > 1 && !Number.isNaN(options.alphaMax) ? options.spp - 1 : -1;
@@ -271,7 +288,7 @@ export class GreyWriter {
    * @param warnings - receives the notes.
    * @returns the pixel array.
    */
-  finish(warnings: string[]): Float32Array {
+  finish(warnings: string[]): PixelArray {
     if (this.colour) {
       if (this.coloured) warnings.push('colour image converted to grey with the ITU-R BT.709 luma weights 0.2126 R + 0.7152 G + 0.0722 B');
       else warnings.push('colour image with R = G = B in every pixel: read the grey values as they are');

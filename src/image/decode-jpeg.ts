@@ -206,7 +206,7 @@ export function readJpeg(bytes: Uint8Array, budget: Budget, fail: Fail, alloc: A
   const warnings: string[] = [];
   if (trailing > 0) warnings.push(`${trailing} bytes after the JPEG's end-of-image marker were ignored`);
   const pixels = frame.width * frame.height;
-  const writer = new GreyWriter(pixels, { spp: 3, colour: nc === 3, hasAlpha: false, alphaMax: NaN }, alloc);
+  const writer = new GreyWriter(pixels, { spp: 3, colour: nc === 3, hasAlpha: false, alphaMax: NaN, storage: 'uint8' }, alloc);
   writer.write(rgb, 0, pixels, 0, 1);
   const data = writer.finish(warnings);
   warnings.push('JPEG is lossy: compression artefacts (8 × 8 blocks) add a spurious 8-pixel periodicity');

@@ -5,7 +5,7 @@
  * Reference: MRC2014, Cheng et al., J. Struct. Biol. 192, 146 (2015), Table 1.
  */
 import type { Alloc, Budget, Decoded, Fail } from './decode-common';
-import { MAX_CALIBRATED_NM_PER_PX, MIN_CALIBRATED_NM_PER_PX, checkSize, fmt, metadataCalibration } from './decode-common';
+import { MAX_CALIBRATED_NM_PER_PX, MIN_CALIBRATED_NM_PER_PX, checkSize, fmt, metadataCalibration, pixelStorage } from './decode-common';
 import type { Calibration, SampleKind } from './grey-image';
 
 // ---------------------------------------------------------------------------------------------
@@ -93,7 +93,7 @@ export function readMrc(bytes: Uint8Array, budget: Budget, fail: Fail, alloc: Al
   // Data rows are stored with y increasing upwards (first row at the bottom of the displayed
   // image, common practice in EM display, from memory); flip so that row 0 is the top.
   const pixels = nx * ny;
-  const data = alloc.grey(pixels);
+  const data = alloc.grey(pixels, pixelStorage(m.bits, m.kind, false));
   for (let y = 0; y < ny; y++) {
     const src = start + (ny - 1 - y) * nx * m.bytes;
     const dst = y * nx;

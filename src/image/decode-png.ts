@@ -7,7 +7,7 @@
  * structure, §7–9 scanlines, filtering and interlacing, §10 compression, §11 chunk specifications.
  */
 import type { Alloc, Budget, Decoded, Fail } from './decode-common';
-import { DEFLATE_MAX_RATIO, GreyWriter, NM_PER_M, bytesText, checkDecompressed, checkSize, resolutionCalibration } from './decode-common';
+import { DEFLATE_MAX_RATIO, GreyWriter, pixelStorage, NM_PER_M, bytesText, checkDecompressed, checkSize, resolutionCalibration } from './decode-common';
 import type { Calibration } from './grey-image';
 import { ZlibDataError, crc32, inflateZlib } from './zlib';
 
@@ -175,7 +175,7 @@ export function readPng(bytes: Uint8Array, budget: Budget, fail: Fail, alloc: Al
   if (idatBytes * DEFLATE_MAX_RATIO < rawBytes) fail(`truncated or corrupt: ${idatBytes} bytes of image data cannot hold ${width} × ${height} pixels`);
 
   const spp = colourType === 3 ? 3 : channels;
-  const writer = new GreyWriter(width * height, { spp, colour: spp >= 3, hasAlpha: spp === 2 || spp === 4, alphaMax: colourType === 3 ? 255 : 2 ** depth - 1 }, alloc);
+  const writer = new GreyWriter(width * height, { spp, colour: spp >= 3, hasAlpha: spp === 2 || spp === 4, alphaMax: colourType === 3 ? 255 : 2 ** depth - 1, storage: pixelStorage(depth > 8 ? 16 : 8, 'uint', spp >= 3) }, alloc);
   // Row buffers: the row being filled and the previous (unfiltered) row of the same pass.
   const maxRow = Math.max(...passes.map((p) => p.w * bytesPerPixel));
   let cur = new Uint8Array(maxRow + 1);

@@ -9,7 +9,7 @@
  * (Deflate, compression 8); Adobe Photoshop TIFF Technical Note 3 (floating-point predictor 3).
  */
 import type { Alloc, Budget, Decoded, Fail } from './decode-common';
-import { DEFLATE_MAX_RATIO, GreyWriter, HOST_LITTLE_ENDIAN, NM_PER_CM, NM_PER_INCH, bytesText, checkDecompressed, checkSize, resolutionCalibration } from './decode-common';
+import { DEFLATE_MAX_RATIO, GreyWriter, pixelStorage, HOST_LITTLE_ENDIAN, NM_PER_CM, NM_PER_INCH, bytesText, checkDecompressed, checkSize, resolutionCalibration } from './decode-common';
 import type { Calibration, SampleKind } from './grey-image';
 import { LzwDataError, lzwDecode } from './lzw';
 import { ZlibDataError, inflateZlib } from './zlib';
@@ -379,7 +379,7 @@ export function readTiff(src: ByteSource, budget: Budget, fail: Fail, alloc: All
   const extra = t.list(T.extraSamples);
   // ExtraSamples (tag 338) 1 or 2 = associated or unassociated alpha; a 4th RGB or 2nd grey sample without the tag is taken as alpha too.
   const hasAlpha = (photometric === 2 && spp === 4) || (photometric < 2 && spp === 2) || extra.some((x) => x === 1 || x === 2);
-  const writer = new GreyWriter(width * height, { spp, colour: photometric === 2, hasAlpha, alphaMax: sampleKind === 'uint' ? 2 ** bits - 1 : NaN }, alloc);
+  const writer = new GreyWriter(width * height, { spp, colour: photometric === 2, hasAlpha, alphaMax: sampleKind === 'uint' ? 2 ** bits - 1 : NaN, storage: pixelStorage(bits, sampleKind, photometric === 2) }, alloc);
   const rows = new RowConverter(bits, sampleKind, f.le, predictor, photometric === 0, spp, Math.max(...segments.map((s) => s.cols)));
   const largestSegment = Math.max(...segments.map((s) => s.cols * spp * bps));
   const rowBuffer = alloc.raw(largestSegment);

@@ -4,7 +4,7 @@
  * histogram the viewer shows and the reduction of large arrays to a picture. For the eye only:
  * nothing here feeds a measurement.
  */
-import type { GreyImage } from './grey-image';
+import { isPixelArray, type GreyImage, type PixelArray } from './grey-image';
 
 /** Default lower percentile mapped to black (0.5 %). */
 export const DISPLAY_LOW_PERCENT = 0.5;
@@ -36,12 +36,12 @@ export interface PercentileRangeOptions {
  * Reference: Hyndman & Fan, "Sample quantiles in statistical packages", Am. Stat. 50, 361 (1996), definition 7.
  */
 export function percentileRange(
-  data: Float32Array,
+  data: PixelArray,
   lowPercent: number,
   highPercent: number,
   options: PercentileRangeOptions = {},
 ): { low: number; high: number } {
-  if (!(data instanceof Float32Array)) throw new TypeError('data must be a Float32Array');
+  if (!isPixelArray(data)) throw new TypeError('data must be a Float32Array, Uint16Array, Int16Array or Uint8Array');
   if (!(lowPercent >= 0 && lowPercent <= 100)) throw new RangeError(`lowPercent must be in [0, 100], got ${lowPercent}`);
   if (!(highPercent >= lowPercent && highPercent <= 100)) throw new RangeError(`highPercent must be in [lowPercent, 100], got ${highPercent}`);
   const bins = options.bins ?? 65536;
@@ -141,7 +141,7 @@ export interface DisplayLimitsOptions {
  * Reference: percentiles as in {@link percentileRange} (Hyndman & Fan 1996, definition 7); a
  * percentile window of 0.5–99.5 % is common practice for micrographs.
  */
-export function displayLimits(data: Float32Array, options: DisplayLimitsOptions = {}): DisplayLimits {
+export function displayLimits(data: PixelArray, options: DisplayLimitsOptions = {}): DisplayLimits {
   const low = options.lowPercent ?? DISPLAY_LOW_PERCENT;
   const high = options.highPercent ?? DISPLAY_HIGH_PERCENT;
   const step = options.step ?? Math.max(1, Math.floor(data.length / 1_000_000));
@@ -214,11 +214,11 @@ export interface DisplayPictureOptions extends DisplayLimitsOptions {
  * @returns the picture
  * Reference: as {@link displayLimits} and {@link stretchToGrey}.
  */
-export function displayPicture(values: Float32Array, width: number, height: number, options: DisplayPictureOptions = {}): Picture {
+export function displayPicture(values: PixelArray, width: number, height: number, options: DisplayPictureOptions = {}): Picture {
   if (!Number.isInteger(width) || !Number.isInteger(height) || width < 1 || height < 1 || values.length !== width * height) {
     throw new RangeError(`a picture of ${width} × ${height} needs ${width * height} values, got ${values.length}`);
   }
-  let sample = values;
+  let sample: PixelArray = values;
   const r = options.limitsFrom;
   if (r) {
     const x0 = Math.max(0, Math.floor(r.x));

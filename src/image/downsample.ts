@@ -3,7 +3,7 @@
  * display stretch itself is in display.ts).
  */
 import type { GreyImage } from './grey-image';
-import { makeGreyImage } from './grey-image';
+import { isPixelArray, makeGreyImage } from './grey-image';
 
 /**
  * Shrinks an image by an integer factor, each output pixel the mean of a factor × factor block.
@@ -20,7 +20,7 @@ import { makeGreyImage } from './grey-image';
  * Reference: box filter / area averaging (Gonzalez & Woods, Digital Image Processing, spatial averaging; from memory).
  */
 export function downsample(image: GreyImage, factor: number): GreyImage {
-  if (!image || !(image.data instanceof Float32Array)) throw new TypeError('image must be a GreyImage');
+  if (!image || !isPixelArray(image.data)) throw new TypeError('image must be a GreyImage');
   if (!Number.isInteger(factor) || factor < 1) throw new RangeError(`factor must be an integer ≥ 1, got ${factor}`);
   const { width, height, data } = image;
   const outW = Math.ceil(width / factor);

@@ -52,13 +52,56 @@ export interface CalibrationUncertaintyPart {
 /** Sample type of the file the image came from. */
 export type SampleKind = 'uint' | 'int' | 'float';
 
+/**
+ * Grey pixels as stored: in the file's own integer type where every value fits exactly (8- and
+ * 16-bit grey files), else float32. A 16-bit image takes half the memory of float32 pixels, and
+ * its grey values are the same numbers. Read them as numbers; write only into float32 arrays you made.
+ */
+export type PixelArray = Float32Array | Uint16Array | Int16Array | Uint8Array;
+
+/** The storage of a {@link PixelArray}, by name. */
+export type PixelStorage = 'uint8' | 'uint16' | 'int16' | 'float32';
+
+/**
+ * A new pixel array of the given storage, filled with zeros.
+ * @param storage - the element type.
+ * @param length - number of pixels.
+ * @returns the array.
+ */
+export function newPixels(storage: PixelStorage, length: number): PixelArray {
+  switch (storage) {
+    case 'uint8': return new Uint8Array(length);
+    case 'uint16': return new Uint16Array(length);
+    case 'int16': return new Int16Array(length);
+    case 'float32': return new Float32Array(length);
+    default: throw new RangeError(`pixel storage must be uint8, uint16, int16 or float32, got ${String(storage)}`);
+  }
+}
+
+/**
+ * The storage of a pixel array.
+ * @param data - the pixels.
+ * @returns its storage's name.
+ */
+export function storageOf(data: PixelArray): PixelStorage {
+  if (data instanceof Uint8Array) return 'uint8';
+  if (data instanceof Uint16Array) return 'uint16';
+  if (data instanceof Int16Array) return 'int16';
+  return 'float32';
+}
+
+/** True when value is a pixel array of a storage the core reads. */
+export function isPixelArray(value: unknown): value is PixelArray {
+  return value instanceof Float32Array || value instanceof Uint16Array || value instanceof Int16Array || value instanceof Uint8Array;
+}
+
 export interface GreyImage {
   /** Width in pixels (columns). */
   width: number;
   /** Height in pixels (rows). */
   height: number;
   /** Grey values, row-major, length width * height. */
-  data: Float32Array;
+  data: PixelArray;
   /** Bits per sample in the original file (8, 16 or 32). */
   bitDepth: number;
   /** Sample type in the original file. */
@@ -77,7 +120,7 @@ export interface GreyImage {
 export function makeGreyImage(
   width: number,
   height: number,
-  data: Float32Array,
+  data: PixelArray,
   fields: Partial<Omit<GreyImage, 'width' | 'height' | 'data' | 'min' | 'max'>> = {},
 ): GreyImage {
   if (!Number.isInteger(width) || width < 1) throw new RangeError(`width must be a positive integer, got ${width}`);

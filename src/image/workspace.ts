@@ -10,6 +10,7 @@
  * from the same workspace; its contents on arrival are unspecified (callers overwrite every
  * element). One workspace serves one sequence of work, never two at once.
  */
+import type { PixelArray, PixelStorage } from './grey-image';
 
 /**
  * The purposes a workspace lends buffers for (one buffer each). Besides the file, pixel and
@@ -34,6 +35,8 @@ export interface Workspace {
   float64(purpose: WorkspacePurpose, length: number): Float64Array;
   /** An Int32Array of exactly `length` elements for `purpose`. */
   int32(purpose: WorkspacePurpose, length: number): Int32Array;
+  /** A pixel array of the given storage and exactly `length` elements for `purpose`. */
+  pixels(purpose: WorkspacePurpose, storage: PixelStorage, length: number): PixelArray;
   /** A Uint8Array of exactly `length` bytes for `purpose`; its byteOffset is 0. */
   bytes(purpose: WorkspacePurpose, length: number): Uint8Array;
   /** Bytes held now, over all purposes. */
@@ -65,6 +68,15 @@ export function createWorkspace(): Workspace {
     float64: (purpose, length) => new Float64Array(take(purpose, length * 8), 0, length),
     int32: (purpose, length) => new Int32Array(take(purpose, length * 4), 0, length),
     bytes: (purpose, length) => new Uint8Array(take(purpose, length), 0, length),
+    pixels: (purpose, storage, length) => {
+      switch (storage) {
+        case 'uint8': return new Uint8Array(take(purpose, length), 0, length);
+        case 'uint16': return new Uint16Array(take(purpose, length * 2), 0, length);
+        case 'int16': return new Int16Array(take(purpose, length * 2), 0, length);
+        case 'float32': return new Float32Array(take(purpose, length * 4), 0, length);
+        default: throw new RangeError(`pixel storage must be uint8, uint16, int16 or float32, got ${String(storage)}`);
+      }
+    },
     heldBytes: () => [...buffers.values()].reduce((s, b) => s + b.byteLength, 0),
   };
 }

@@ -2,7 +2,7 @@
  * Final refinement of a spectrum spot by maximising a lightly tapered periodogram, which wastes
  * fewer samples than the Hann window used for detection and so comes closer to the Cramér–Rao bound.
  */
-import type { GreyImage } from '../image/grey-image';
+import type { GreyImage, PixelArray } from '../image/grey-image';
 import { frequencyCrbStd, solve } from './period-profile';
 import { frequencyAngleDeg, type RectPx, type Spot } from './spectrum';
 import { windowSamples, windowVarianceFactor } from './window';
@@ -31,7 +31,7 @@ export interface RefineData {
   /** The area (image pixels). */
   area: RectPx;
   /** The image's pixels, row-major (the image's own array). */
-  pixels: Float32Array;
+  pixels: PixelArray;
   /** Row length of `pixels` (the image width). */
   strideX: number;
   /** Mean of the area's pixels, removed before windowing. */
@@ -195,7 +195,7 @@ export function refineSpot(data: RefineData, spot: Spot, options: RefineSpotOpti
  * Reference: Rife & Boorstyn (1974), as refineSpot.
  */
 function periodogramMoments(
-  pixels: Float32Array, strideX: number, x0: number, y0: number, w: number, h: number, mean: number, slopeY: number,
+  pixels: PixelArray, strideX: number, x0: number, y0: number, w: number, h: number, mean: number, slopeY: number,
   planeX: Float64Array, weights: Float32Array | null, er: Float64Array, ei: Float64Array, wy: Float64Array, oy: number, out: Float64Array,
 ): void {
   const cx = (w - 1) / 2;

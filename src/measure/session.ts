@@ -7,7 +7,7 @@
  *
  * State lives in the session object the caller holds (no module state).
  */
-import type { Calibration, GreyImage } from '../image/grey-image';
+import { isPixelArray, type Calibration, type GreyImage } from '../image/grey-image';
 import { reduceForDisplay, displayPicture, type Picture } from '../image/display';
 import { fourierFilter } from './fourier-filter';
 import { analyseRegion, type RegionAnalysis } from './measure-region';
@@ -70,7 +70,7 @@ export interface ImageSession {
  */
 export function createImageSession(id: string, image: GreyImage, options: { maxRegions?: number } = {}): ImageSession {
   if (typeof id !== 'string' || id === '') throw new TypeError(`a session id must be a non-empty string, got ${JSON.stringify(id)}`);
-  if (!image || !(image.data instanceof Float32Array) || image.data.length !== image.width * image.height) {
+  if (!image || !isPixelArray(image.data) || image.data.length !== image.width * image.height) {
     throw new TypeError('a session needs a GreyImage (pixels missing or of the wrong length)');
   }
   const maxRegions = options.maxRegions ?? 4;

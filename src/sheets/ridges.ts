@@ -3,7 +3,7 @@
  * scale-normalised Hessian over scale space, thinned to centre lines and linked into curves
  * that follow a bent stack and bridge the gap where another stack crosses it.
  */
-import type { GreyImage } from '../image/grey-image';
+import type { GreyImage, PixelArray } from '../image/grey-image';
 import { recursiveGaussian } from './structure-tensor';
 
 /** Options for {@link ridgeAxes}. */
@@ -41,7 +41,7 @@ interface Level {
   factor: number;
   width: number;
   height: number;
-  data: Float32Array;
+  data: PixelArray;
 }
 
 function halve(l: Level): Level {

@@ -1,7 +1,7 @@
 /**
  * The structure tensor of an image: local orientation of the layers and how well defined it is.
  */
-import type { GreyImage } from '../image/grey-image';
+import type { GreyImage, PixelArray } from '../image/grey-image';
 
 /** Options for `structureTensor`. */
 export interface StructureTensorOptions {
@@ -44,7 +44,7 @@ function gaussianKernel(sigma: number, derivative: boolean): Float64Array {
 
 /** Separable convolution with clamped borders: kx along rows, then ky along columns. */
 export function separableFilter(
-  src: Float32Array,
+  src: PixelArray,
   width: number,
   height: number,
   kx: Float64Array,
@@ -148,7 +148,7 @@ function recursiveGaussianCoefficients(sigma: number): { B: number; b1: number; 
  * the response's standard deviation exactly σ. The shape is close to, not exactly, a Gaussian,
  * which is ample for averaging the structure tensor.
  */
-export function recursiveGaussian(src: Float32Array, width: number, height: number, sigma: number): Float32Array {
+export function recursiveGaussian(src: PixelArray, width: number, height: number, sigma: number): Float32Array {
   if (!(sigma >= 0.5 && Number.isFinite(sigma))) throw new RangeError(`sigma must be ≥ 0.5, got ${sigma}`);
   if (src.length !== width * height) throw new RangeError(`src length ${src.length} ≠ ${width} × ${height}`);
   const { B, b1, b2, b3 } = recursiveGaussianCoefficients(sigma);

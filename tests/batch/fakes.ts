@@ -16,7 +16,7 @@ export function fakeFile(widthPx: number, heightPx: number, nmPerPx: number | nu
 }
 
 // the runner hands the tools a copy of the image with its calibration set: the pixel array is shared
-const periodOfData = new WeakMap<Float32Array, number>();
+const periodOfData = new WeakMap<GreyImage['data'], number>();
 const periodOf = (image: GreyImage): number => {
   const p = periodOfData.get(image.data);
   if (p === undefined) throw new Error('unknown image');

@@ -29,7 +29,7 @@ describe('downsample', () => {
     const r = lcg(3);
     const img = makeGreyImage(60, 36, Float32Array.from({ length: 60 * 36 }, () => r() * 1000));
     const d = downsample(img, 6);
-    const mean = (a: Float32Array) => a.reduce((s, v) => s + v, 0) / a.length;
+    const mean = (a: ArrayLike<number>) => Array.from(a).reduce((s, v) => s + v, 0) / a.length;
     expect(mean(d.data)).toBeCloseTo(mean(img.data), 3);
   });
   test('scales the calibration by the factor and keeps the warnings', () => {

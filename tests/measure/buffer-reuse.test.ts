@@ -18,6 +18,7 @@ function poisonedWorkspace(): { workspace: Workspace; purposes: Set<WorkspacePur
     float64: (p, n) => (purposes.add(p), inner.float64(p, n).fill(Number.NaN)),
     int32: (p, n) => (purposes.add(p), inner.int32(p, n).fill(-0x40000000)),
     bytes: (p, n) => (purposes.add(p), inner.bytes(p, n).fill(0xa5)),
+    pixels: (p, storage, n) => (purposes.add(p), storage === 'float32' ? inner.pixels(p, storage, n).fill(Number.NaN) : inner.pixels(p, storage, n).fill(0x5a5a)),
     heldBytes: () => inner.heldBytes(),
   };
   return { workspace, purposes };

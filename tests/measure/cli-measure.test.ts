@@ -97,7 +97,7 @@ describe('stratameter measure', () => {
     try {
       const img = colouredNoiseImage(256, 256, 5);
       const file = join(dir, 'amorphous.tif');
-      writeFileSync(file, encodeTiff({ width: 256, height: 256, data: img.data }));
+      writeFileSync(file, encodeTiff({ width: 256, height: 256, data: img.data as Float32Array }));
       const c = capture();
       expect(await main(['measure', file, '--json'], c.io)).toBe(0);
       const r = JSON.parse(c.out.join(''));

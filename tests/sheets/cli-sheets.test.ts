@@ -19,7 +19,7 @@ const img = syntheticImage(256, 256, [
   { layers: 6, periodPx: 8, cx: 80, cy: 128, angleDeg: 0, lengthPx: 120 },
   { layers: 3, periodPx: 8, cx: 190, cy: 128, angleDeg: 0, lengthPx: 120 },
 ], { noise: 0.03, seed: 7 });
-writeFileSync(file, encodeTiff({ width: 256, height: 256, data: img.data }));
+writeFileSync(file, encodeTiff({ width: 256, height: 256, data: img.data as Float32Array }));
 
 describe('stratameter sheets', () => {
   it('--line --json gives the documented shape with nm values', async () => {
