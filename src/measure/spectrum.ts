@@ -163,6 +163,21 @@ export async function powerSpectrum(
 }
 
 /**
+ * The median power the display pictures are normalised by, from about 20 000 bins spread evenly
+ * over the spectrum (the DC bin left out); 1 when that median is 0.
+ * @param power - the power spectrum's bins.
+ * @returns the sampled median.
+ * Reference: sample median (common practice).
+ */
+function displayMedianPower(power: Float32Array): number {
+  const sample: number[] = [];
+  const step = Math.max(1, Math.floor(power.length / 20000));
+  for (let k = 1; k < power.length; k += step) sample.push(power[k]);
+  sample.sort((a, b) => a - b);
+  return sample[sample.length >> 1] || 1;
+}
+
+/**
  * Centred log-power image for display (DC in the middle, row index increasing downwards as in the image).
  *
  * Parameters: a power spectrum.
@@ -172,11 +187,7 @@ export async function powerSpectrum(
  */
 export function centredLogPower(spectrum: PowerSpectrum): Float32Array {
   const { width: w, height: h, power } = spectrum;
-  const sample: number[] = [];
-  const step = Math.max(1, Math.floor(power.length / 20000));
-  for (let k = 1; k < power.length; k += step) sample.push(power[k]);
-  sample.sort((a, b) => a - b);
-  const med = sample[sample.length >> 1] || 1;
+  const med = displayMedianPower(power);
   const out = new Float32Array(w * h);
   const hx = w >> 1;
   const hy = h >> 1;
@@ -202,11 +213,7 @@ export function centredLogPower(spectrum: PowerSpectrum): Float32Array {
 export function centredLogPowerReduced(spectrum: PowerSpectrum, factor: number): { data: Float32Array; width: number; height: number } {
   if (!Number.isInteger(factor) || factor < 1) throw new RangeError(`factor must be a whole number ≥ 1, got ${factor}`);
   const { width: w, height: h, power } = spectrum;
-  const sample: number[] = [];
-  const step = Math.max(1, Math.floor(power.length / 20000));
-  for (let k = 1; k < power.length; k += step) sample.push(power[k]);
-  sample.sort((a, b) => a - b);
-  const med = sample[sample.length >> 1] || 1;
+  const med = displayMedianPower(power);
   const ow = Math.floor(w / factor);
   const oh = Math.floor(h / factor);
   const data = new Float32Array(ow * oh);
