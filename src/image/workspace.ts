@@ -15,7 +15,7 @@ import type { PixelArray, PixelStorage } from './grey-image';
 /**
  * The purposes a workspace lends buffers for (one buffer each). Besides the file, pixel and
  * spectrum buffers, the analysis of a region borrows scratch arrays that live only inside one call:
- * the complex spectrum of the spots' budgets, the log-powers of the radial
+ * the complex spectrum of the spots' budgets, the ring powers of the radial
  * background, the per-pixel support weights of a spot's refit.
  */
 export type WorkspacePurpose =
@@ -24,7 +24,7 @@ export type WorkspacePurpose =
   | 'decode-grey'
   | 'spectrum-power'
   | 'spectrum-complex'
-  | 'radial-logs'
+  | 'radial-powers'
   | 'spot-weights';
 
 /** Buffers lent by purpose; see the module notes for the contract. */

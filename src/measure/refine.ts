@@ -114,18 +114,31 @@ export function refineSpot(data: RefineData, spot: Spot, options: RefineSpotOpti
   const planeX = new Float64Array(w);
   for (let i = 0; i < w; i++) planeX[i] = slopeX * (i - cxp);
   let mean = data.mean;
+  // each row's span of non-zero weights [spans[2j], spans[2j + 1]): the sums skip the zeros
+  // outside a crystal's support, whose terms are exactly 0 (the pixels are finite)
+  let spans: Int32Array | null = null;
   if (weights) {
+    spans = new Int32Array(2 * h);
     // the weighted mean of what the plane leaves
     let sw = 0;
     let swd = 0;
     for (let j = 0; j < h; j++) {
       const o = (y0 + j) * strideX + x0;
       const py = data.mean + slopeY * (j - cyp);
+      let first = w;
+      let last = -1;
       for (let i = 0; i < w; i++) {
-        const q = weights[j * w + i] * wx[i] * wy[j];
+        const wi = weights[j * w + i];
+        if (wi !== 0) {
+          if (first === w) first = i;
+          last = i;
+        }
+        const q = wi * wx[i] * wy[j];
         sw += q;
         swd += q * (pixels[o + i] - py - planeX[i]);
       }
+      spans[2 * j] = first;
+      spans[2 * j + 1] = last + 1;
     }
     if (!(sw > 0)) return null;
     mean = data.mean + swd / sw;
@@ -145,7 +158,7 @@ export function refineSpot(data: RefineData, spot: Spot, options: RefineSpotOpti
       ei[i] = -wx[i] * Math.sin(ox * (i - cx));
     }
     // Y = Σ_y e_y R0, Y_x = −i Σ e_y R1, Y_xx = −Σ e_y R2, Y_y = −i Σ y e_y R0, Y_yy = −Σ y² e_y R0, Y_xy = −Σ y e_y R1.
-    periodogramMoments(pixels, strideX, x0, y0, w, h, mean, slopeY, planeX, weights ?? null, er, ei, wy, oy, moments);
+    periodogramMoments(pixels, strideX, x0, y0, w, h, mean, slopeY, planeX, weights ?? null, spans, er, ei, wy, oy, moments);
     const yr = moments[0], yi = moments[1], xr = moments[2], xi = moments[3], xxr = moments[4], xxi = moments[5];
     const gyr = moments[6], gyi = moments[7], yyr = moments[8], yyi = moments[9], xyr = moments[10], xyi = moments[11];
     // J = |Y|²; ∂J = 2 Re(Y* ∂Y); ∂²J = 2 Re(∂aY* ∂bY + Y* ∂a∂bY).
@@ -189,14 +202,14 @@ export function refineSpot(data: RefineData, spot: Spot, options: RefineSpotOpti
  * it vary in shape) and its running sums never become heap objects.
  *
  * Parameters: the area's pixels (row length strideX, top-left x0, y0, size w × h), the mean and
- * y slope removed per row and the x plane per column, optional per-pixel weights (w · h), the
+ * y slope removed per row and the x plane per column, optional per-pixel weights (w · h) with each row's span of non-zero weights (spans[2j] to spans[2j + 1], end excluded), the
  * row kernel er + i·ei (x window and phase folded in), the y window wy and frequency oy; out gets
  * Y, Y_x, Y_xx, Y_y, Y_yy, Y_xy as (re, im) pairs, 12 numbers.
  * Reference: Rife & Boorstyn (1974), as refineSpot.
  */
 function periodogramMoments(
   pixels: PixelArray, strideX: number, x0: number, y0: number, w: number, h: number, mean: number, slopeY: number,
-  planeX: Float64Array, weights: Float32Array | null, er: Float64Array, ei: Float64Array, wy: Float64Array, oy: number, out: Float64Array,
+  planeX: Float64Array, weights: Float32Array | null, spans: Int32Array | null, er: Float64Array, ei: Float64Array, wy: Float64Array, oy: number, out: Float64Array,
 ): void {
   const cx = (w - 1) / 2;
   const cy = (h - 1) / 2;
@@ -210,8 +223,9 @@ function periodogramMoments(
     const wo = j * w;
     const base = mean + slopeY * (j - cyp);
     // two copies of the row loop on purpose: the unweighted fit (most spots) does no weight load per pixel
-    if (weights) {
-      for (let i = 0; i < w; i++) {
+    if (weights && spans) {
+      const iEnd = spans[2 * j + 1];
+      for (let i = spans[2 * j]; i < iEnd; i++) {
         const d = (pixels[o + i] - base - planeX[i]) * weights[wo + i];
         const ar = d * er[i];
         const ai = d * ei[i];

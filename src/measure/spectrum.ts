@@ -271,7 +271,7 @@ function squaredFrequencies(n: number): Float64Array {
  * Background power as a function of spatial frequency, robust to spots and to rings of spots.
  *
  * Parameters: a power spectrum; smoothRings, rings either side of the running median across
- * rings (default 6); workspace, to borrow the log-power scratch array from (its contents on
+ * rings (default 6); workspace, to borrow the ring-power scratch array from (its contents on
  * arrival do not matter; default a fresh array).
  * Returns: background per ring (ring of a bin: round(|f| · max(width, height))).
  * Notes: for a featureless (Gaussian-noise-like) region every bin's power is exponentially
@@ -297,7 +297,7 @@ export function radialBackground(spectrum: PowerSpectrum, smoothRings = 6, works
   for (let v = 0; v <= h >> 1; v++) {
     for (let u = 0; u < w; u++) if (power[v * w + u] > 0) count[ringAt(u, v)]++;
   }
-  // The rings' ln P are gathered a group of rings at a time (one pass over the half-plane each, in
+  // The rings' powers are gathered a group of rings at a time (one pass over the half-plane each, in
   // the same order), into one scratch array of at most RADIAL_GROUP_VALUES values (or the largest
   // ring): the memory of a few rings instead of the whole half-plane's, and the same numbers.
   let largest = 0;
@@ -307,8 +307,11 @@ export function radialBackground(spectrum: PowerSpectrum, smoothRings = 6, works
     total += count[r];
   }
   const cap = Math.max(largest, Math.min(total, RADIAL_GROUP_VALUES), 1);
-  // every element of logs is written before it is read, so a borrowed array serves alike
-  const logs = workspace ? workspace.float64('radial-logs', cap) : new Float64Array(cap);
+  // The powers themselves are gathered (float32, as stored) and the lower KEEP of each ring chosen
+  // among them; ln is increasing, so the same bins are chosen, in the same order, as among their
+  // logs, and only those are taken the log of. Every element is written before it is read, so a
+  // borrowed array serves alike.
+  const gathered = workspace ? workspace.float32('radial-powers', cap) : new Float32Array(cap);
   const start = new Int32Array(rings + 1);
   const fill = new Int32Array(rings);
   // the mean of ln P over the ring's lower KEEP fraction, less its expectation for Exp(1) data
@@ -327,16 +330,16 @@ export function radialBackground(spectrum: PowerSpectrum, smoothRings = 6, works
         const p = power[v * w + u];
         if (!(p > 0)) continue;
         const r = ringAt(u, v);
-        if (r >= r0 && r < r1) logs[fill[r]++] = Math.log(p);
+        if (r >= r0 && r < r1) gathered[fill[r]++] = p;
       }
     }
     for (let r = r0; r < r1; r++) {
       const nr = count[r];
       if (nr === 0) continue;
       const m = Math.max(1, Math.floor(KEEP * nr));
-      quickSelect(logs, start[r], start[r] + nr - 1, start[r] + m - 1);
+      quickSelect(gathered, start[r], start[r] + nr - 1, start[r] + m - 1);
       let sum = 0;
-      for (let i = start[r]; i < start[r] + m; i++) sum += logs[i];
+      for (let i = start[r]; i < start[r] + m; i++) sum += Math.log(gathered[i]);
       raw[r] = sum / m - TRIMMED_LOG_MEAN;
     }
     r0 = r1;
@@ -353,8 +356,8 @@ export function radialBackground(spectrum: PowerSpectrum, smoothRings = 6, works
   return { background, rings };
 }
 
-/** Most ln P values radialBackground gathers at once (16 MiB of float64). */
-const RADIAL_GROUP_VALUES = 1 << 21;
+/** Most powers radialBackground gathers at once (16 MiB of float32: a 2048² region's half-plane in one pass). */
+const RADIAL_GROUP_VALUES = 1 << 22;
 
 /** Fraction of a ring's bins (the lowest) whose log-mean gives the background. */
 const KEEP = 0.7;
@@ -379,7 +382,7 @@ const TRIMMED_LOG_MEAN = (() => {
 })();
 
 /** The k-th smallest of a[lo..hi] (inclusive), rearranging that part in place (Hoare's selection). */
-function quickSelect(a: Float64Array, lo: number, hi: number, k: number): number {
+function quickSelect(a: Float32Array, lo: number, hi: number, k: number): number {
   while (hi > lo) {
     const pivot = a[(lo + hi) >> 1];
     let i = lo;

@@ -349,18 +349,30 @@ export function pixelWeights(grid: Float64Array, n: number, width: number, heigh
   if (out.length !== width * height) throw new RangeError(`out must hold ${width} × ${height} = ${width * height} weights, got ${out.length}`);
   const cw = width / n;
   const ch = height / n;
+  // each column's cells and fraction, computed once for all rows
+  const c0 = new Int32Array(width);
+  const c1 = new Int32Array(width);
+  const fxs = new Float64Array(width);
+  for (let x = 0; x < width; x++) {
+    const gx = Math.min(n - 1.000001, Math.max(0, x / cw));
+    const i0 = Math.floor(gx);
+    c0[x] = i0;
+    c1[x] = Math.min(n - 1, i0 + 1);
+    fxs[x] = gx - i0;
+  }
   for (let y = 0; y < height; y++) {
     const gy = Math.min(n - 1.000001, Math.max(0, y / ch));
     const j0 = Math.floor(gy);
     const fy = gy - j0;
     const j1 = Math.min(n - 1, j0 + 1);
+    const r0 = j0 * n;
+    const r1 = j1 * n;
+    const o = y * width;
     for (let x = 0; x < width; x++) {
-      const gx = Math.min(n - 1.000001, Math.max(0, x / cw));
-      const i0 = Math.floor(gx);
-      const fx = gx - i0;
-      const i1 = Math.min(n - 1, i0 + 1);
-      out[y * width + x] =
-        (grid[j0 * n + i0] * (1 - fx) + grid[j0 * n + i1] * fx) * (1 - fy) + (grid[j1 * n + i0] * (1 - fx) + grid[j1 * n + i1] * fx) * fy;
+      const fx = fxs[x];
+      const i0 = c0[x];
+      const i1 = c1[x];
+      out[o + x] = (grid[r0 + i0] * (1 - fx) + grid[r0 + i1] * fx) * (1 - fy) + (grid[r1 + i0] * (1 - fx) + grid[r1 + i1] * fx) * fy;
     }
   }
   return out;

@@ -66,7 +66,7 @@ describe('buffers borrowed from a workspace give the same numbers as fresh ones'
       }
     }
     // the test means something only if the analysis borrowed every scratch array it can
-    for (const p of ['spectrum-power', 'spectrum-complex', 'radial-logs', 'spot-weights'] as const) expect(purposes.has(p), p).toBe(true);
+    for (const p of ['spectrum-power', 'spectrum-complex', 'radial-powers', 'spot-weights'] as const) expect(purposes.has(p), p).toBe(true);
     // and found spots to budget
     expect(fresh.every((f) => JSON.parse(f).periodicities.length > 0)).toBe(true);
   });
