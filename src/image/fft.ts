@@ -200,21 +200,23 @@ export async function realDft2d(width: number, height: number, fillRow: (row: Fl
     for (let u0 = 0; u0 < nc; u0 += block) {
       const nb = Math.min(block, nc - u0);
       if (kind === 'power') {
+        // the DC and Nyquist columns (real) apart, so the loop over the others has no branch
+        const bFirst = u0 === 0 ? 1 : 0;
+        const bEnd = nyquist >= u0 && nyquist < u0 + nb ? nyquist - u0 : nb;
         for (let j = 0; j < h; j++) {
           const o = j * w;
-          for (let bb = 0; bb < nb; bb++) {
-            const u = u0 + bb;
-            const d = 2 * (bb * h + j);
-            if (u === 0) {
-              col[d] = out[o];
-              col[d + 1] = 0;
-            } else if (u === nyquist) {
-              col[d] = out[o + w - 1];
-              col[d + 1] = 0;
-            } else {
-              col[d] = out[o + 2 * u - 1];
-              col[d + 1] = out[o + 2 * u];
-            }
+          if (bFirst === 1) {
+            col[2 * j] = out[o];
+            col[2 * j + 1] = 0;
+          }
+          for (let bb = bFirst, d = 2 * (bFirst * h + j), q = o + 2 * (u0 + bFirst) - 1; bb < bEnd; bb++, d += 2 * h, q += 2) {
+            col[d] = out[q];
+            col[d + 1] = out[q + 1];
+          }
+          if (bEnd < nb) {
+            const d = 2 * (bEnd * h + j);
+            col[d] = out[o + w - 1];
+            col[d + 1] = 0;
           }
         }
       } else {
