@@ -57,6 +57,17 @@ interface Tab {
 /** Narrowest window, CSS px, in which a wide panel gets the main area beside the image. */
 const WIDE_LAYOUT_MIN_PX = 1100;
 
+/**
+ * The text sizes (CSS px) and weights the shell and its panels draw with: in boxes, in SVG text
+ * (the viewer's labels, the power spectrum's spot labels) and on a plot's canvas. Keep it in step
+ * with the styles when a size is added.
+ */
+const TEXT_STRIKES: readonly { px: number; weight: 400 | 600; kind: 'box' | 'svg' | 'canvas' }[] = [
+  ...[10, 11, 11.5, 12, 13].map((px) => ({ px, weight: 400 as const, kind: 'box' as const })),
+  ...[11, 11.5, 12, 13, 14, 15, 16].map((px) => ({ px, weight: 600 as const, kind: 'box' as const })),
+  { px: 12, weight: 400, kind: 'svg' }, { px: 12, weight: 400, kind: 'canvas' },
+];
+
 const ACCEPT = '.tif,.tiff,.png,.jpg,.jpeg,.mrc,.mrcs,image/tiff,image/png,image/jpeg,.cif,.xy,.xye,.dat,.asc';
 
 /** Files that go to the diffraction panel rather than the viewer: structure files and powder patterns. */
@@ -202,6 +213,7 @@ export class StrataApp extends LitElement {
       [role='tabpanel'] { flex: 1; min-height: 0; display: flex; flex-direction: column; overflow-y: auto; }
       [role='tabpanel'][hidden] { display: none; }
       input[type='file'] { display: none; }
+      .text-warmup { position: absolute; left: -10000px; top: 0; width: 1px; height: 1px; overflow: hidden; visibility: hidden; white-space: nowrap; contain: strict; }
     `,
   ];
 
@@ -238,6 +250,55 @@ export class StrataApp extends LitElement {
     void requestPersistence().then(() => this.refreshStorage()).catch(() => undefined);
     void this.loadDemos();
     void this.loadPanels();
+    this.warmTextStrikes();
+  }
+
+  /**
+   * Lays out a word at each text size and weight the panels use, one size per idle period, while
+   * nobody is waiting. The first use of a font size costs Chromium a synchronous round trip to its
+   * browser process for the size's rendering settings (2–26 ms each, measured in a performance
+   * trace on Linux); paid in the first layout of a panel, a dozen of them made one task of 40–60 ms
+   * when an image was opened or a spectrum first shown.
+   */
+  private warmTextStrikes(): void {
+    const idle = (f: () => void) => ('requestIdleCallback' in globalThis ? requestIdleCallback(() => f(), { timeout: 2000 }) : setTimeout(f, 50));
+    const probe = document.createElement('div');
+    probe.className = 'text-warmup';
+    probe.setAttribute('aria-hidden', 'true');
+    let i = 0;
+    const next = (): void => {
+      const strike = TEXT_STRIKES[i++];
+      if (!strike) {
+        probe.remove();
+        return;
+      }
+      if (!probe.isConnected) this.renderRoot.appendChild(probe);
+      const word = 'd 0.1234 ± 5678 nm · 2θ°';
+      if (strike.kind === 'canvas') {
+        const ctx = document.createElement('canvas').getContext('2d');
+        if (ctx) {
+          ctx.font = `${strike.px}px system-ui, sans-serif`;
+          ctx.fillText(word, 0, 10);
+        }
+      } else {
+        const el = strike.kind === 'svg' ? document.createElementNS('http://www.w3.org/2000/svg', 'svg') : document.createElement('span');
+        if (strike.kind === 'svg') {
+          const text = document.createElementNS('http://www.w3.org/2000/svg', 'text');
+          text.setAttribute('font-size', String(strike.px));
+          text.setAttribute('y', '12');
+          text.textContent = word;
+          el.appendChild(text);
+        } else {
+          el.textContent = word;
+          (el as HTMLElement).style.fontSize = `${strike.px}px`;
+          (el as HTMLElement).style.fontWeight = String(strike.weight);
+        }
+        probe.appendChild(el);
+        void probe.offsetWidth; // lay it out now, inside this idle period
+      }
+      idle(next);
+    };
+    idle(next);
   }
 
   private async loadDemos(): Promise<void> {

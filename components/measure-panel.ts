@@ -176,6 +176,13 @@ export class StrataMeasurePanel extends LitElement {
   typedOpen = false;
   /** The tool used last: its results and figure come first. */
   lastDrawn: 'profile' | 'spectrum' = 'spectrum';
+  /**
+   * The spectrum whose radial-average plot and export row are in the page. A new spectrum's
+   * numbers and picture are drawn first; these follow one frame later, in a task of their own, so
+   * that no single task builds them all.
+   */
+  private secondaryFor: SpectrumView | null = null;
+  private secondaryPending = false;
 
   private profileRun = 0;
   private spectrumRun = 0;
@@ -196,6 +203,8 @@ export class StrataMeasurePanel extends LitElement {
         padding: 0; flex: 1 1 auto; min-height: 0; overflow: hidden; }
       :host([wide]) .side { grid-area: side; overflow-y: auto; padding: 4px 8px 24px 10px; min-height: 0; border-left: 1px solid var(--line); }
       :host([wide]) .stage { grid-area: stage; overflow-y: auto; min-height: 0; padding: 8px 8px 16px; background: var(--bg, #0f1419); }
+      /* each column's size comes from the grid, never from its content: a change inside one lays out only that column */
+      :host([wide]) .side, :host([wide]) .stage { contain: strict; }
       .stage { display: flex; flex-direction: column; gap: 14px; }
       /* the last tool's figure and numbers come first: no scroll anchoring, and both columns start at the top */
       .stage, .side { overflow-anchor: none; }
@@ -1093,7 +1102,7 @@ export class StrataMeasurePanel extends LitElement {
       profileParts.push(html`<strata-plot class="profile-plot" .data=${profilePlot(p, cal, this.profileLine?.widthPx ?? 1)}
         height-px=${this.wide ? 260 : 190} file-stem=${this.fileStem()}></strata-plot>`);
     }
-    if (s && s.radialFrequencyPerPx.length > 3) {
+    if (s && s.radialFrequencyPerPx.length > 3 && this.secondaryFor === s) {
       spectrumParts.push(html`<strata-plot class="radial-plot" .data=${radialPlot(s, cal, 0.5 / this.zoom)}
         height-px=${this.wide ? 240 : 170} file-stem=${this.fileStem()}></strata-plot>`);
     }
@@ -1123,7 +1132,7 @@ export class StrataMeasurePanel extends LitElement {
   /** Export of the tab's results (the profile and the region's spots) through the one export menu. */
   private renderExport() {
     const any = (this.profile && (this.profile.spectral || this.profile.realSpace)) || this.spectrum;
-    if (!any) return nothing;
+    if (!any || (this.spectrum && this.secondaryFor !== this.spectrum)) return nothing;
     return html`<section aria-labelledby="h-export"><h2 id="h-export">Export</h2>
       <strata-export-menu .records=${this.currentRecords()} .plots=${this.currentPlots()} .k=${this.coverageK}
         .fileName=${this.record?.fileName ?? ''} .compute=${this.compute} .session=${this.session}></strata-export-menu></section>`;
@@ -1155,6 +1164,15 @@ export class StrataMeasurePanel extends LitElement {
 
   protected override updated(changed: PropertyValues<this>): void {
     this.observeStage();
+    if (this.spectrum && this.secondaryFor !== this.spectrum && !this.secondaryPending) {
+      // after the frame that shows the new spectrum's numbers, in a task of its own
+      this.secondaryPending = true;
+      requestAnimationFrame(() => setTimeout(() => {
+        this.secondaryPending = false;
+        this.secondaryFor = this.spectrum;
+        this.requestUpdate();
+      }, 0));
+    }
     if (changed.has('lastDrawn') && changed.get('lastDrawn') !== undefined) {
       for (const el of this.renderRoot.querySelectorAll<HTMLElement>('.stage, .side')) el.scrollTop = 0;
     }
