@@ -162,7 +162,7 @@ const handlers: Handlers = {
   imageReport: async ({ sessionId, form, fileName, records, plots, k, software }) => {
     const { imageReportHtml, imageFigureSvg, recordShapes } = await import('../src/figure/report');
     const { image } = sessionOf(sessionId);
-    if (form === 'svg') return { text: imageFigureSvg(image, recordShapes(records), image.calibration, 2048) };
+    if (form === 'svg') return { text: imageFigureSvg(image, recordShapes(records, k), image.calibration, 2048) };
     return { text: imageReportHtml({ image, fileName, records, plots, k, software }) };
   },
   sheetsFind: async ({ sessionId, polarity, periodPx }) => {

@@ -9,7 +9,6 @@ import { angleBetweenDeg, ringPeriodicity, type Spot } from '../src/measure/spec
 import { spotPeriodicity } from '../src/measure/spot-near';
 import { withTableSpots } from '../src/measure/session';
 import { toolOf } from '../src/measure/tools';
-import { periodLabel } from '../src/figure/shapes';
 import { periodBudgetLabel, withBudgetLabels } from '../src/figure/budget-labels';
 import type { WindowKind } from '../src/measure/window';
 import { putMeasurement } from '../src/store/library';
@@ -432,11 +431,6 @@ export class StrataMeasurePanel extends LitElement {
     }
     else if (this.profileLine) shapes.push({ kind: 'line', ...this.profileLine, label: 'profile', tone: 'accent' });
     this.dispatchEvent(new CustomEvent('overlay-shapes', { detail: { shapes }, bubbles: true, composed: true }));
-  }
-
-  /** A short d for labels: nm when calibrated, px otherwise (the figures' own label). */
-  private dText(periodPx: number, cal: GreyImage['calibration'], angleDeg = 0, geometry: Periodicity['geometry'] = 'line'): string {
-    return periodLabel({ periodPx, angleDeg, geometry }, cal);
   }
 
   /** A periodicity's budget at the chosen coverage factor, in nm when calibrated. */
@@ -952,13 +946,28 @@ export class StrataMeasurePanel extends LitElement {
     const obstacles: Box[] = at.filter((a) => a.visible).flatMap((a) => [
       { x: a.x - R, y: a.y - R, width: 2 * R, height: 2 * R }, { x: a.mx - R, y: a.my - R, width: 2 * R, height: 2 * R }]);
     const order = [...at.filter((a) => a.visible)].sort((p, q) => Number(this.selected.includes(q.t.n)) - Number(this.selected.includes(p.t.n)) || (p.t === this.spots[0] ? -1 : q.t === this.spots[0] ? 1 : 0));
-    const texts = order.map((a) => {
-      const full = this.selected.includes(a.t.n) || a.t === this.spots[0];
-      return `#${a.t.n}${full ? ` ${this.dText(a.t.periodPx, cal, a.t.angleDeg, 'normal')} ${a.t.angleDeg.toFixed(0)}°` : ''}`;
-    });
+    // the selected and the strongest spot: d with its ± (the table's budget, k stated) and the angle;
+    // where that has no room, the number alone (the table beside it has the d)
+    const short = order.map((a) => `#${a.t.n}`);
+    const texts = order.map((a, i) => (this.selected.includes(a.t.n) || a.t === this.spots[0]
+      ? `${short[i]} ${periodBudgetLabel(spotPeriodicity(a.t), cal, this.coverageK)} · ${a.t.angleDeg.toFixed(0)}°`
+      : short[i]));
     const LABEL_PX = 12;
-    const placed = placeLabels(order.map((a, i) => ({ x: a.x, y: a.y, width: textWidthEstimate(texts[i], LABEL_PX), height: LABEL_PX + 3 })),
-      { bounds: { x: 0, y: 0, width: cw, height: ch }, obstacles, gap: R + 1 });
+    const bounds = { x: 0, y: 0, width: cw, height: ch };
+    const request = (list: string[]) => order.map((a, i) => ({ x: a.x, y: a.y, width: textWidthEstimate(list[i], LABEL_PX), height: LABEL_PX + 3 }));
+    const placed = placeLabels(request(texts), { bounds, obstacles, gap: R + 1 });
+    if (placed.some((p, i) => !p.placed && texts[i] !== short[i])) {
+      // the long labels that found a place keep it; the others try the short form, clear of them
+      const kept = placed.filter((p) => p.placed).map((p) => p.box);
+      const left = placed.map((p, i) => i).filter((i) => !placed[i].placed);
+      const again = placeLabels(left.map((i) => request(short)[i]), { bounds, obstacles: [...obstacles, ...kept], gap: R + 1 });
+      left.forEach((i, j) => {
+        if (again[j].placed) {
+          placed[i] = again[j];
+          texts[i] = short[i];
+        }
+      });
+    }
     const labels = order.map((a, i) => (placed[i].placed
       ? svg`<text x=${placed[i].box.x + 1} y=${placed[i].box.y + LABEL_PX}>${texts[i]}</text>`
       : nothing));
@@ -1103,7 +1112,7 @@ export class StrataMeasurePanel extends LitElement {
         height-px=${this.wide ? 260 : 190} file-stem=${this.fileStem()}></strata-plot>`);
     }
     if (s && s.radialFrequencyPerPx.length > 3 && this.secondaryFor === s) {
-      spectrumParts.push(html`<strata-plot class="radial-plot" .data=${radialPlot(s, cal, 0.5 / this.zoom)}
+      spectrumParts.push(html`<strata-plot class="radial-plot" .data=${radialPlot(s, cal, 0.5 / this.zoom, this.coverageK)}
         height-px=${this.wide ? 240 : 170} file-stem=${this.fileStem()}></strata-plot>`);
     }
     parts.push(...(this.lastDrawn === 'profile' ? [...profileParts, ...spectrumParts] : [...spectrumParts, ...profileParts]));
@@ -1125,7 +1134,7 @@ export class StrataMeasurePanel extends LitElement {
     const cal = this.image?.calibration ?? null;
     const out: PlotData[] = [];
     if (this.profile && this.profile.mean.length >= 2) out.push(profilePlot(this.profile, cal, this.profileLine?.widthPx ?? 1));
-    if (this.spectrum && this.spectrum.radialFrequencyPerPx.length > 3) out.push(radialPlot(this.spectrum, cal, 0.5 / this.zoom));
+    if (this.spectrum && this.spectrum.radialFrequencyPerPx.length > 3) out.push(radialPlot(this.spectrum, cal, 0.5 / this.zoom, this.coverageK));
     return out;
   }
 

@@ -4,10 +4,11 @@
  * exported figures and the report all draw these same plots.
  */
 import type { Calibration } from '../image/grey-image';
-import { nmPerPxAlong } from '../measure/measurement';
+import { DEFAULT_COVERAGE_FACTOR, nmPerPxAlong } from '../measure/measurement';
+import { ringPeriodicity } from '../measure/spectrum';
+import { periodBudgetLabel } from './budget-labels';
 import type { ProfileView, SpectrumView } from '../measure/session';
 import type { PlotData, PlotMark } from './plot';
-import { periodLabel } from './shapes';
 
 /**
  * The line profile as a plot: width-averaged grey value against distance along the line (nm when
@@ -64,12 +65,14 @@ export function profilePlot(p: Pick<ProfileView, 'distancePx' | 'mean' | 'standa
  * @param s the spectrum as the worker returns it
  * @param calibration the pixel size in force, or null
  * @param maxFrequencyPerPx the highest frequency shown, cycles/px (default: Nyquist, 0.5); widened to show the strongest ring
- * @returns the plot
- * @throws RangeError naming a maximum frequency that is not positive
+ * @param k coverage factor of the ± in the rings' labels (default 2)
+ * @returns the plot; each ring's rule is labelled "d 1.25 ± 0.03 nm (k = 2)" (periodBudgetLabel:
+ *   the ring's statistical part and, in nm, the calibration's), and the description lists them
+ * @throws RangeError naming a maximum frequency that is not positive, or a bad k
  */
-export function radialPlot(s: Pick<SpectrumView, 'radialFrequencyPerPx' | 'radialPower' | 'rings'>, calibration: Calibration | null, maxFrequencyPerPx = 0.5): PlotData {
+export function radialPlot(s: Pick<SpectrumView, 'radialFrequencyPerPx' | 'radialPower' | 'rings'>, calibration: Calibration | null, maxFrequencyPerPx = 0.5, k = DEFAULT_COVERAGE_FACTOR): PlotData {
   if (!(maxFrequencyPerPx > 0)) throw new RangeError(`the highest frequency shown must be positive, got ${maxFrequencyPerPx}`);
-  const k = calibration ? 1 / nmPerPxAlong(calibration, 'ring', 0) : 1;
+  const perPx = calibration ? 1 / nmPerPxAlong(calibration, 'ring', 0) : 1;
   const rings = s.rings.slice(0, 4);
   const fMax = Math.min(0.5, Math.max(maxFrequencyPerPx, 1.2 * (rings[0]?.frequencyPerPx ?? 0)));
   const x: number[] = [];
@@ -77,11 +80,11 @@ export function radialPlot(s: Pick<SpectrumView, 'radialFrequencyPerPx' | 'radia
   for (let i = 2; i < s.radialFrequencyPerPx.length; i++) {
     const f = s.radialFrequencyPerPx[i];
     if (f > fMax) break;
-    x.push(f * k);
+    x.push(f * perPx);
     y.push(s.radialPower[i] > 0 ? Math.log10(s.radialPower[i]) : NaN);
   }
   const unit = calibration ? 'nm⁻¹' : 'px⁻¹';
-  const d = (periodPx: number) => periodLabel({ periodPx, angleDeg: 0, geometry: 'ring' }, calibration);
+  const d = (r: (typeof rings)[number]) => periodBudgetLabel(ringPeriodicity(r), calibration, k);
   return {
     id: 'radial-average',
     title: 'Radial average of the power spectrum',
@@ -89,7 +92,7 @@ export function radialPlot(s: Pick<SpectrumView, 'radialFrequencyPerPx' | 'radia
     yLabel: 'log₁₀ mean power',
     x,
     traces: [{ label: 'log₁₀ mean power', y, style: 'data' }],
-    rules: rings.map((r) => ({ x: r.frequencyPerPx * k, label: `d ${d(r.periodPx)}` })),
-    description: `Radial average of the power spectrum of the region; ${rings.length ? `rings at ${rings.map((r) => d(r.periodPx)).join(', ')}` : 'no significant ring'}.`,
+    rules: rings.map((r) => ({ x: r.frequencyPerPx * perPx, label: d(r) })),
+    description: `Radial average of the power spectrum of the region; ${rings.length ? `rings at ${rings.map(d).join(', ')}` : 'no significant ring'}.`,
   };
 }

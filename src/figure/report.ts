@@ -16,6 +16,7 @@ import { pooledStats } from '../batch/export';
 import type { FileResult } from '../batch/run';
 import { plotSvg, type PlotData } from './plot';
 import type { FigureShape } from './shapes';
+import { withBudgetLabels } from './budget-labels';
 
 /** The caution every report carries. */
 export const REPORT_CAUTION =
@@ -77,15 +78,21 @@ export function reportPicturePng(image: GreyImage, maxPx = 900): { png: Uint8Arr
  * The figures of records over their image (each tool's figure from the registry); a record of a
  * kind with no figure adds nothing.
  * @param records the records
+ * @param k coverage factor: when given, every period in a label carries its ± at this k
+ *   ("d 1.250 ± 0.063 nm (k = 2)", withBudgetLabels); without it the labels give the value only
  * @returns the shapes, in image pixels
+ * @throws RangeError naming a bad k
  */
-export function recordShapes(records: readonly Measurement[]): FigureShape[] {
+export function recordShapes(records: readonly Measurement[], k?: number): FigureShape[] {
+  if (k !== undefined) checkCoverageFactor(k);
   return records.flatMap((m) => {
+    let shapes: FigureShape[];
     try {
-      return toolOf(m.tool).figure(m);
+      shapes = toolOf(m.tool).figure(m);
     } catch {
       return [];
     }
+    return k === undefined ? shapes : withBudgetLabels(m, shapes, k);
   });
 }
 
@@ -235,7 +242,7 @@ export function imageReportHtml(input: ImageReportInput): string {
   const { image, records } = input;
   const cal = image.calibration;
   const created = input.createdIso ?? new Date().toISOString();
-  const shapes = recordShapes(records);
+  const shapes = recordShapes(records, k);
   const plots = input.plots ?? [];
   const notes = [...new Set(records.flatMap((m) => m.notes))];
   const contains = [...new Set(records.flatMap((m) => m.periodicities.map((p) => budgetContents(expressPeriod(p, m.calibration, k)))))];
@@ -248,7 +255,7 @@ export function imageReportHtml(input: ImageReportInput): string {
 <h1>${esc(title)}</h1>
 <p class="meta">${esc(input.software)} · report made ${esc(created)} · ${image.width} × ${image.height} px, ${image.bitDepth}-bit ${esc(image.sampleKind)}</p>
 <figure>${imageFigureSvg(image, shapes, cal, input.pictureMaxPx ?? 900)}
-<figcaption>The image (display stretch 0.5–99.5 %) with the measured line and regions and their d-spacings${cal ? '; the scale bar from the pixel size below' : ''}.</figcaption></figure>
+<figcaption>The image (display stretch 0.5–99.5 %) with the measured line and regions and their d-spacings (± at k = ${k})${cal ? '; the scale bar from the pixel size below' : ''}.</figcaption></figure>
 <h2>Results</h2>
 ${records.length ? resultsTable(records, k) : '<p>No measurement was kept for this image.</p>'}
 ${notes.length ? `<ul class="notes">${notes.map((n) => `<li>${esc(n)}</li>`).join('')}</ul>` : ''}

@@ -96,9 +96,10 @@ test('a region over the fringes gives a strongest spot at 1.25 nm, and a click o
   expect(Math.abs(d - PERIOD_NM)).toBeLessThanOrEqual(u);
   expect(Math.abs(d - PERIOD_NM) / PERIOD_NM).toBeLessThan(0.01);
   expect(await panel().locator('canvas.spectrum').count()).toBe(1);
-  expect(await panel().locator('svg.marks text').first().textContent()).toMatch(/#1 1\.2\d* nm 28°/);
-  // the region's label over the image gives the period with the table's ± and k (the one budget formatter)
+  // the strongest spot's label on the spectrum gives d with the table's ± and k (the one budget formatter), and the angle
   const dnm = ((await firstRow.locator('.dnm').textContent()) ?? '').trim();
+  expect(await panel().locator('svg.marks text').first().textContent()).toBe(`#1 d ${dnm} (k = 2) · 28°`);
+  // the region's label over the image gives the period with the table's ± and k
   await expect.poll(() => viewer().evaluate((el) => (el as unknown as { shapes: Array<{ label?: string }> }).shapes.map((q) => q.label ?? '')))
     .toContain(`FFT region · d ${dnm} (k = 2)`);
   await s.page.screenshot({ path: join(dir, 'spectrum.png') });

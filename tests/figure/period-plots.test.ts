@@ -34,16 +34,23 @@ test('a profile of one sample is refused by name', () => {
   expect(() => profilePlot({ ...profile, mean: new Float64Array(1), distancePx: new Float64Array(1) }, null)).toThrow(/at least 2 samples/);
 });
 
-test('the radial plot puts each ring at its frequency in nm⁻¹, labelled with its d-spacing', () => {
+test('the radial plot puts each ring at its frequency in nm⁻¹, labelled with its d-spacing and ±', () => {
   const f = Float64Array.from({ length: 65 }, (_, i) => i / 128);
   const power = Float64Array.from(f, (v) => 1 / (1 + v * v) + (Math.abs(v - 0.08) < 0.004 ? 5 : 0));
   const cal = makeCalibration(0.1, 'metadata', 'test', [{ name: 'pixel size', rel: 0.01, type: 'B' }]);
-  const ring = { frequencyPerPx: 0.08, periodPx: 12.5 } as never;
+  const ring = { frequencyPerPx: 0.08, periodPx: 12.5, uStatisticalPx: 0.1, strength: 5 } as never;
   const p = radialPlot({ radialFrequencyPerPx: f, radialPower: power, rings: [ring] }, cal);
   expect(p.xLabel).toBe('spatial frequency (nm⁻¹)');
   // 0.08 cycles/px at 0.1 nm/px is 0.8 nm⁻¹: d = 1.25 nm
   expect(p.rules?.[0].x).toBeCloseTo(0.8, 10);
-  expect(p.rules?.[0].label).toBe('d 1.250 nm');
+  // worked by hand (GUM: parts in quadrature, U = k·u_c): u_stat = 0.1 px × 0.1 nm/px = 0.010 nm,
+  // u_cal = 1 % of 1.25 nm = 0.0125 nm, u_c = 0.01601 nm, U = 2 u_c = 0.0320 nm
+  expect(p.rules?.[0].label).toBe('d 1.250 ± 0.032 nm (k = 2)');
+  expect(p.description).toContain('rings at d 1.250 ± 0.032 nm (k = 2)');
+  // k = 3: U = 0.0480 nm
+  expect(radialPlot({ radialFrequencyPerPx: f, radialPower: power, rings: [ring] }, cal, 0.5, 3).rules?.[0].label).toBe('d 1.250 ± 0.048 nm (k = 3)');
+  // uncalibrated: px, the statistical part alone (U = 0.20 px)
+  expect(radialPlot({ radialFrequencyPerPx: f, radialPower: power, rings: [ring] }, null).rules?.[0].label).toBe('d 12.50 ± 0.20 px (k = 2)');
   expect(p.x[0]).toBeCloseTo((2 / 128) / 0.1, 10);
   expect(() => radialPlot({ radialFrequencyPerPx: f, radialPower: power, rings: [] }, null, 0)).toThrow(/must be positive/);
 });

@@ -42,6 +42,12 @@ test('the report holds the image, the results with their ±, calibration, statem
   expect(html).toMatch(/<svg class="plot"/);
   // the scale bar: a round length of about a fifth of the width
   expect(html).toMatch(/>[0-9.]+ nm<\/text><\/svg>/);
+  // the labels over the image carry the same d and ± as the results table, and say k
+  const figure = /<figure><svg[\s\S]*?<\/svg>/.exec(html)![0];
+  const labels = [...figure.matchAll(/d (1\.2\d*) ± (0\.\d+) nm \(k = 2\)/g)];
+  expect(labels.length).toBeGreaterThanOrEqual(2);
+  for (const [, d, u] of labels) expect(html).toContain(`<td class="n">${d} ± ${u}</td>`);
+  expect(figure).not.toMatch(/d 1\.2\d* nm/);
 });
 
 test('the embedded picture is a grey PNG no larger than asked, reduced by a whole factor', () => {
