@@ -1,4 +1,4 @@
-import { LitElement, css, html, nothing } from 'lit';
+import { LitElement, css, html, nothing, type PropertyValues } from 'lit';
 import { panels, type PanelEntry } from 'virtual:strata-panels';
 import type { Calibration, GreyImage } from '../src/image/grey-image';
 import { sha256Hex } from '../src/store/bytes';
@@ -163,7 +163,10 @@ export class StrataApp extends LitElement {
   private lastOpenError = '';
   /** The window is wide enough for a panel's figures beside the image. */
   roomy = globalThis.innerWidth >= WIDE_LAYOUT_MIN_PX;
-  private readonly onResize = (): void => { this.roomy = globalThis.innerWidth >= WIDE_LAYOUT_MIN_PX; };
+  private readonly onResize = (): void => {
+    this.roomy = globalThis.innerWidth >= WIDE_LAYOUT_MIN_PX;
+    requestAnimationFrame(this.markTabOverflow);
+  };
 
   private db: LibraryDb | null = null;
   private readonly compute = new ComputeClient();
@@ -207,8 +210,13 @@ export class StrataApp extends LitElement {
       .demo span { color: var(--muted); font-size: 12px; line-height: 1.4; }
       .demo .kind { color: var(--accent-2); font-size: 11px; text-transform: uppercase; letter-spacing: 0.06em; }
       aside { display: flex; flex-direction: column; min-height: 0; min-width: 0; background: var(--panel); border-left: 1px solid var(--line); }
-      [role='tablist'] { display: flex; flex-wrap: wrap; border-bottom: 1px solid var(--line); }
-      [role='tab'] { border: 0; border-radius: 0; background: transparent; padding: 6px 10px; border-bottom: 2px solid transparent; color: var(--muted); }
+      /* one row at any width: in the narrow column the tabs scroll sideways (the selected one is kept in view) */
+      [role='tablist'] { display: flex; flex-wrap: nowrap; overflow-x: auto; overflow-y: hidden; scrollbar-width: thin; border-bottom: 1px solid var(--line); flex: none; }
+      /* more tabs past an edge: that edge fades out */
+      [role='tablist'].more-right { mask-image: linear-gradient(to right, #000 calc(100% - 28px), transparent); }
+      [role='tablist'].more-left { mask-image: linear-gradient(to left, #000 calc(100% - 28px), transparent); }
+      [role='tablist'].more-left.more-right { mask-image: linear-gradient(to right, transparent, #000 28px, #000 calc(100% - 28px), transparent); }
+      [role='tab'] { flex: none; white-space: nowrap; border: 0; border-radius: 0; background: transparent; padding: 6px 9px; border-bottom: 2px solid transparent; color: var(--muted); }
       [role='tab'][aria-selected='true'] { color: var(--text); border-bottom-color: var(--accent); }
       [role='tabpanel'] { flex: 1; min-height: 0; display: flex; flex-direction: column; overflow-y: auto; }
       [role='tabpanel'][hidden] { display: none; }
@@ -705,7 +713,8 @@ export class StrataApp extends LitElement {
     if (this.staleHidden.size) this.handoffTimer = setTimeout(this.handOverNextHidden, 0);
   };
 
-  protected override updated(): void {
+  protected override updated(changed: PropertyValues<this>): void {
+    if (changed.has('activeTab') || changed.has('tabs') || changed.has('image') || changed.has('roomy')) this.keepSelectedTabInView();
     // Panels are plain custom elements of other modules: hand them the current state. The visible
     // panel gets it now; each hidden panel re-renders later in a task of its own, so opening an
     // image does not render every panel in one long task (a panel shown gets the state at once).
@@ -717,6 +726,27 @@ export class StrataApp extends LitElement {
     }
     if (this.staleHidden.size && this.handoffTimer === null) this.handoffTimer = setTimeout(this.handOverNextHidden, 0);
   }
+
+  /** Scrolls the tab row (one row; it scrolls sideways in the narrow column) so the selected tab is whole on screen. */
+  private keepSelectedTabInView(): void {
+    const list = this.renderRoot.querySelector<HTMLElement>("[role='tablist']");
+    const tab = list?.querySelector<HTMLElement>("[role='tab'][aria-selected='true']");
+    if (!list || !tab) return;
+    if (list.scrollWidth > list.clientWidth) {
+      const left = tab.offsetLeft - list.offsetLeft;
+      if (left < list.scrollLeft + 28) list.scrollLeft = left - 28;
+      else if (left + tab.offsetWidth > list.scrollLeft + list.clientWidth - 28) list.scrollLeft = left + tab.offsetWidth - list.clientWidth + 28;
+    }
+    this.markTabOverflow();
+  }
+
+  /** Marks the edges of the tab row past which more tabs lie (they fade out there). */
+  private readonly markTabOverflow = (): void => {
+    const list = this.renderRoot.querySelector<HTMLElement>("[role='tablist']");
+    if (!list) return;
+    list.classList.toggle('more-left', list.scrollLeft > 1);
+    list.classList.toggle('more-right', list.scrollLeft + list.clientWidth < list.scrollWidth - 1);
+  };
 
   private onTabKey(e: KeyboardEvent): void {
     const i = this.tabs.findIndex((t) => t.id === this.activeTab);
@@ -797,7 +827,7 @@ export class StrataApp extends LitElement {
               @rect-drawn=${(e: CustomEvent<RectDrawnDetail>) => (this.rect = e.detail)}></strata-viewer>`
           : this.renderStart()}
         <aside>
-          <div role="tablist" aria-label="Panels" @keydown=${this.onTabKey}>
+          <div role="tablist" aria-label="Panels" @keydown=${this.onTabKey} @scroll=${this.markTabOverflow}>
             ${this.tabs.map((t) => html`<button role="tab" id=${`tab-${t.id}`} aria-controls=${`panel-${t.id}`}
               aria-selected=${t.id === this.activeTab ? 'true' : 'false'} tabindex=${t.id === this.activeTab ? '0' : '-1'}
               @click=${() => (this.activeTab = t.id)}>${t.label}</button>`)}

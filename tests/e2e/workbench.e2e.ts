@@ -287,6 +287,16 @@ test('screenshots of every panel at 1366 × 768 and 1920 × 1080, for looking at
     for (const t of tabs) {
       await app.locator('[role="tab"]', { hasText: t }).click();
       await nextFrames(s.page);
+      // the tab row stays one row in the narrow column too, and the selected tab is whole on screen
+      const row = await app.evaluate((el) => {
+        const list = el.shadowRoot!.querySelector('[role="tablist"]')!.getBoundingClientRect();
+        const boxes = [...el.shadowRoot!.querySelectorAll('[role="tab"]')].map((b) => b.getBoundingClientRect());
+        const sel = el.shadowRoot!.querySelector('[role="tab"][aria-selected="true"]')!.getBoundingClientRect();
+        return { tops: [...new Set(boxes.map((b) => Math.round(b.top)))], sel: [sel.left, sel.right], list: [list.left, list.right] };
+      });
+      expect(row.tops, `tab rows with ${t} selected at ${w} px`).toHaveLength(1);
+      expect(row.sel[0]).toBeGreaterThanOrEqual(row.list[0] - 1);
+      expect(row.sel[1]).toBeLessThanOrEqual(row.list[1] + 1);
       await s.page.screenshot({ path: join(dir, `panel-${t.trim().toLowerCase()}-${w}x${h}.png`) });
     }
   }
