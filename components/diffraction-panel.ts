@@ -17,6 +17,7 @@ import { budgetContents, DEFAULT_COVERAGE_FACTOR, expressPeriod, formatPlusMinus
 import { INTERNAL_STANDARDS } from '../src/diffraction/internal-standard';
 import { BUILT_IN_PHASES, type ZoneAxisResult, type ZoneSpot } from '../src/diffraction/zone-axis';
 import type { PlotData } from '../src/figure/plot';
+import { spacedIndex } from '../src/figure/reflection-index';
 import './plot';
 import type { StrataPlot } from './plot';
 import './export-menu';
@@ -357,8 +358,10 @@ export class StrataDiffractionPanel extends LitElement {
   private lines(): { lines: DiffractionLine[]; series: IndexedSeries[] } {
     if (this.analysis) {
       const label = new Map<number, string>();
-      for (const s of this.analysis.series) for (const m of s.members) label.set(m.peak, s.kind === 'lamellar' ? m.index : `${s.kind} ${m.index}`);
-      for (const ph of this.analysis.indexing.phases) for (const l of ph.lines) if (!label.has(l.peak)) label.set(l.peak, l.hkl.join(' '));
+      for (const s of this.analysis.series) for (const m of s.members) label.set(m.peak, s.kind === 'lamellar' ? spacedIndex(m.index) : `${s.kind} ${spacedIndex(m.index)}`);
+      // as the peak table writes them: "0 0 1", or "2: 0 0 1" (phase 2) when several phases are indexed
+      const phases = this.analysis.indexing.phases;
+      phases.forEach((ph, j) => { for (const l of ph.lines) if (!label.has(l.peak)) label.set(l.peak, `${phases.length > 1 ? `${j + 1}: ` : ''}${l.hkl.join(' ')}`); });
       return {
         lines: this.analysis.peaks.map((p, i) => ({ dNm: p.dCorrectedNm, dUncNm: p.budget.combinedNm, label: label.get(i) ?? `d ${sig(p.dNm, 5)}`, crystalliteNm: p.crystalliteNm, intensity: p.intensity })),
         series: this.analysis.series,
@@ -577,12 +580,20 @@ export class StrataDiffractionPanel extends LitElement {
         </table>
         ${a.indexing.phases.map((ph, j) => html`<p>Phase ${j + 1}: ${ph.kind}, ${ph.kind === 'lamellar' ? `period ${pm(ph.cNm, 2 * ph.cUncNm)} nm` : ph.kind.startsWith('cubic') ? `a = ${pm(ph.aNm, 2 * ph.aUncNm)} nm` : `a = ${pm(ph.aNm, 2 * ph.aUncNm)} nm, c = ${pm(ph.cNm, 2 * ph.cUncNm)} nm`} (± 2u); ${ph.lines.length} lines; F${ph.figureOfMerit.n} = ${sig(ph.figureOfMerit.fN, 3)}${ph.standard ? ` — internal standard ${ph.name}, cell held` : ''}</p>`)}
         ${a.indexing.zeroShiftDeg !== null ? html`<p class="zero-shift">${this.zeroShiftLine(a)}</p>` : nothing}
-        ${a.series.map((s) => html`<p>${s.kind}: ${s.members.map((m) => m.index).join(', ')} — cell ${pm(s.cellNm, 2 * s.cellUncNm)} nm (± 2u)</p>`)}
+        ${a.series.map((s) => html`<p>${s.kind}: ${s.members.map((m) => spacedIndex(m.index)).join(', ')} — cell ${pm(s.cellNm, 2 * s.cellUncNm)} nm (± 2u)</p>`)}
         <p class="muted">${a.sizeMethod}</p>
         ${a.notes.map((n) => html`<p class="muted">${n}</p>`)}
       </section>` : nothing}
       </div>
     `;
+  }
+
+  /** The lines no period matched, each with its d and ± (U = k·u, as in the table above). */
+  private unmatchedLines(rec: Reconciliation, u: (value: number, unc: number) => string): TemplateResult | typeof nothing {
+    if (!rec.unmatchedLines.length) return nothing;
+    const unmatched = new Set(rec.unmatchedLines);
+    const lines = this.lines().lines.filter((l) => unmatched.has(l.label));
+    return html`<p class="muted unmatched">Unmatched lines (d ± U, nm): ${lines.map((l, i) => html`${i ? '; ' : ''}<span class="num">${l.label}: d ${u(l.dNm, l.dUncNm)}</span>`)}</p>`;
   }
 
   /** The micrograph periods against the diffraction lines (side column): every ± is U = k·u, what it contains said under the table. */
@@ -608,7 +619,7 @@ export class StrataDiffractionPanel extends LitElement {
           })}
         </table>
         <p class="muted budget-note">± is U = k·u with k = ${k}. Period: ${same ? contents[0] : contents.map((c, i) => `row ${i + 1} ${c}`).join('; ')}. d: ${dWords}. z = (period − d) / √(u²period + u²d), standard uncertainties (k = 1).</p>
-        ${rec.unmatchedLines.length ? html`<p class="muted">Unmatched lines: ${rec.unmatchedLines.join(', ')}</p>` : nothing}
+        ${this.unmatchedLines(rec, u)}
         ${rec.calibration ? html`<p>Proposed (not applied): multiply nm per pixel by ${f(rec.calibration.factor)} ± ${f(rec.calibration.factorUnc)} (k = 1). ${rec.calibration.reason}</p>` : nothing}
       </section>`;
   }

@@ -12,6 +12,7 @@ import { loadAndAnalyse } from './xrd';
 import { CifError, parseCif, powderReflections } from '../diffraction/cif';
 import { ReportError, readMeasurementReport } from '../diffraction/measurement-report';
 import { reconcile, type DiffractionLine, type MicrographPeriod, type SheetStats } from '../diffraction/reconcile';
+import { spacedIndex } from '../figure/reflection-index';
 
 const usage = `Usage: stratameter reconcile --pattern PATTERN | --saed SAED.json [--cif CIF] MEASUREMENT.json...
                              [--wavelength W] [--z-max Z] [--all-lines] [--json]
@@ -129,7 +130,7 @@ export const command: CliCommand = {
     }
     const seriesLabel = new Map<number, string>();
     const series = analysis?.series ?? [];
-    for (const s of series) for (const m of s.members) seriesLabel.set(m.peak, s.kind === 'lamellar' ? m.index : `${s.kind} ${m.index}`);
+    for (const s of series) for (const m of s.members) seriesLabel.set(m.peak, s.kind === 'lamellar' ? spacedIndex(m.index) : `${s.kind} ${spacedIndex(m.index)}`);
     const hklOf = new Map<number, string>();
     for (const ph of analysis?.indexing.phases ?? []) for (const l of ph.lines) hklOf.set(l.peak, l.hkl.join(' '));
     const lines: DiffractionLine[] = (analysis?.peaks ?? []).map((p, i) => ({

@@ -12,6 +12,7 @@ import { pm, sig, tidy, tidyU } from '../diffraction/format';
 import { checkInstrumentProfile } from '../diffraction/instrument';
 import { internalStandardFrom } from '../diffraction/internal-standard';
 import { writeFile } from 'node:fs/promises';
+import { spacedIndex } from '../figure/reflection-index';
 
 const usage = `Usage: stratameter xrd PATTERN [--wavelength W] [--axis 2theta|q-nm|q-A] [--k K]
                        [--standard PATTERN [--save-instrument OUT.json] | --instrument PROFILE.json
@@ -257,7 +258,7 @@ function table(path: string, a: PatternAnalysis): string {
   if (a.indexing.unindexed.length) lines.push(`Not indexed: ${a.indexing.unindexed.map((i) => `d ${sig(a.peaks[i].dNm, 5)} nm`).join(', ')}`);
   for (const s of a.series) {
     const what = s.kind === 'lamellar' ? 'period' : s.kind === 'hexagonal' ? 'a₀' : 'a';
-    lines.push(`${s.kind} series: ${s.members.map((m) => `${m.index} ${sig(m.dNm, 5)}`).join(', ')}; ${what} = ${pm(s.cellNm, K * s.cellUncNm)} nm${s.missing.length ? `; not seen: ${s.missing.join(', ')}` : ''}`);
+    lines.push(`${s.kind} series: ${s.members.map((m) => `${spacedIndex(m.index)} ${sig(m.dNm, 5)}`).join(', ')}; ${what} = ${pm(s.cellNm, K * s.cellUncNm)} nm${s.missing.length ? `; not seen: ${s.missing.map(spacedIndex).join(', ')}` : ''}`);
   }
   lines.push(`Sizes: ${a.sizeMethod || '—'}`);
   for (const n of a.notes) lines.push(`note: ${n}`);

@@ -1,0 +1,18 @@
+// One index style for every line: spaced Miller indices ("0 0 1"), as an indexed line's hkl.join(' ')
+// writes them. Cases: a lamellar series' 001–0012, cubic 211, 2D hexagonal 10 (the series search's
+// own index lists, src/diffraction/series.ts).
+import { expect, test } from 'vitest';
+import { spacedIndex } from '../../src/figure/reflection-index';
+
+test('series indices are written spaced, an index of ten or more stays whole', () => {
+  expect(spacedIndex('001')).toBe('0 0 1');
+  expect(spacedIndex('003')).toBe('0 0 3');
+  expect(spacedIndex('0010')).toBe('0 0 10');
+  expect(spacedIndex('0012')).toBe('0 0 12');
+  expect(spacedIndex('211')).toBe('2 1 1');
+  expect(spacedIndex('10')).toBe('1 0');
+  // already spaced, or not an index: as it is
+  expect(spacedIndex('0 0 1')).toBe('0 0 1');
+  expect(spacedIndex('typed 1')).toBe('typed 1');
+  expect(() => spacedIndex(1 as never)).toThrow(/must be a string/);
+});
