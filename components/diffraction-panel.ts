@@ -17,7 +17,7 @@ import { budgetContents, DEFAULT_COVERAGE_FACTOR, expressPeriod, formatPlusMinus
 import { INTERNAL_STANDARDS } from '../src/diffraction/internal-standard';
 import { BUILT_IN_PHASES, type ZoneAxisResult, type ZoneSpot } from '../src/diffraction/zone-axis';
 import type { PlotData } from '../src/figure/plot';
-import { spacedIndex } from '../src/figure/reflection-index';
+import { spacedIndex, spacedLineLabel } from '../src/figure/reflection-index';
 import './plot';
 import type { StrataPlot } from './plot';
 import './export-menu';
@@ -358,7 +358,7 @@ export class StrataDiffractionPanel extends LitElement {
   private lines(): { lines: DiffractionLine[]; series: IndexedSeries[] } {
     if (this.analysis) {
       const label = new Map<number, string>();
-      for (const s of this.analysis.series) for (const m of s.members) label.set(m.peak, s.kind === 'lamellar' ? spacedIndex(m.index) : `${s.kind} ${spacedIndex(m.index)}`);
+      for (const s of this.analysis.series) for (const m of s.members) label.set(m.peak, s.kind === 'lamellar' ? m.index : `${s.kind} ${m.index}`);
       // as the peak table writes them: "0 0 1", or "2: 0 0 1" (phase 2) when several phases are indexed
       const phases = this.analysis.indexing.phases;
       phases.forEach((ph, j) => { for (const l of ph.lines) if (!label.has(l.peak)) label.set(l.peak, `${phases.length > 1 ? `${j + 1}: ` : ''}${l.hkl.join(' ')}`); });
@@ -593,7 +593,7 @@ export class StrataDiffractionPanel extends LitElement {
     if (!rec.unmatchedLines.length) return nothing;
     const unmatched = new Set(rec.unmatchedLines);
     const lines = this.lines().lines.filter((l) => unmatched.has(l.label));
-    return html`<p class="muted unmatched">Unmatched lines (d ± U, nm): ${lines.map((l, i) => html`${i ? '; ' : ''}<span class="num">${l.label}: d ${u(l.dNm, l.dUncNm)}</span>`)}</p>`;
+    return html`<p class="muted unmatched">Unmatched lines (d ± U, nm): ${lines.map((l, i) => html`${i ? '; ' : ''}<span class="num">${spacedLineLabel(l.label)} (d ${u(l.dNm, l.dUncNm)})</span>`)}</p>`;
   }
 
   /** The micrograph periods against the diffraction lines (side column): every ± is U = k·u, what it contains said under the table. */
@@ -615,7 +615,7 @@ export class StrataDiffractionPanel extends LitElement {
           ${rec.best.map((b, i) => {
             const p = valid[i];
             if (!b) return html`<tr><td>${u(p.periodNm, p.uncertaintyNm)}</td><td>—</td><td></td><td></td><td></td></tr>`;
-            return html`<tr><td>${u(p.periodNm, p.uncertaintyNm)}</td><td>${b.label}</td><td>${u(b.dNm, b.dUncNm)}</td><td>${(100 * b.relDiff).toFixed(2)} %</td><td class=${Math.abs(b.z) <= 2 ? 'good' : 'warn'}>${b.z.toFixed(2)}</td></tr>`;
+            return html`<tr><td>${u(p.periodNm, p.uncertaintyNm)}</td><td>${spacedLineLabel(b.label)}</td><td>${u(b.dNm, b.dUncNm)}</td><td>${(100 * b.relDiff).toFixed(2)} %</td><td class=${Math.abs(b.z) <= 2 ? 'good' : 'warn'}>${b.z.toFixed(2)}</td></tr>`;
           })}
         </table>
         <p class="muted budget-note">± is U = k·u with k = ${k}. Period: ${same ? contents[0] : contents.map((c, i) => `row ${i + 1} ${c}`).join('; ')}. d: ${dWords}. z = (period − d) / √(u²period + u²d), standard uncertainties (k = 1).</p>

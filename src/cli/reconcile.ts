@@ -12,7 +12,7 @@ import { loadAndAnalyse } from './xrd';
 import { CifError, parseCif, powderReflections } from '../diffraction/cif';
 import { ReportError, readMeasurementReport } from '../diffraction/measurement-report';
 import { reconcile, type DiffractionLine, type MicrographPeriod, type SheetStats } from '../diffraction/reconcile';
-import { spacedIndex } from '../figure/reflection-index';
+import { spacedLineLabel } from '../figure/reflection-index';
 
 const usage = `Usage: stratameter reconcile --pattern PATTERN | --saed SAED.json [--cif CIF] MEASUREMENT.json...
                              [--wavelength W] [--z-max Z] [--all-lines] [--json]
@@ -130,7 +130,7 @@ export const command: CliCommand = {
     }
     const seriesLabel = new Map<number, string>();
     const series = analysis?.series ?? [];
-    for (const s of series) for (const m of s.members) seriesLabel.set(m.peak, s.kind === 'lamellar' ? spacedIndex(m.index) : `${s.kind} ${spacedIndex(m.index)}`);
+    for (const s of series) for (const m of s.members) seriesLabel.set(m.peak, s.kind === 'lamellar' ? m.index : `${s.kind} ${m.index}`);
     const hklOf = new Map<number, string>();
     for (const ph of analysis?.indexing.phases ?? []) for (const l of ph.lines) hklOf.set(l.peak, l.hkl.join(' '));
     const lines: DiffractionLine[] = (analysis?.peaks ?? []).map((p, i) => ({
@@ -221,14 +221,14 @@ export const command: CliCommand = {
       const b = rec.best[i];
       const left = pm(p.periodNm, p.uncertaintyNm).padEnd(20);
       if (!b) out.push(`${left} —  (no line within |z| ≤ ${zMax})   ${p.label ?? ''}`);
-      else out.push(`${left} ${b.label.padEnd(32)} ${pm(b.dNm, b.dUncNm).padEnd(18)} ${(100 * b.relDiff).toFixed(2).padStart(6)} %  ${b.z.toFixed(2).padStart(5)}   ${p.label ?? ''}`);
+      else out.push(`${left} ${spacedLineLabel(b.label).padEnd(32)} ${pm(b.dNm, b.dUncNm).padEnd(18)} ${(100 * b.relDiff).toFixed(2).padStart(6)} %  ${b.z.toFixed(2).padStart(5)}   ${p.label ?? ''}`);
       const others = rec.pairs.filter((q) => q.period === i && q !== b);
-      if (others.length) out.push(`${''.padEnd(20)} also: ${others.slice(0, 4).map((q) => `${q.label} (z ${q.z.toFixed(1)})`).join(', ')}`);
+      if (others.length) out.push(`${''.padEnd(20)} also: ${others.slice(0, 4).map((q) => `${spacedLineLabel(q.label)} (z ${q.z.toFixed(1)})`).join(', ')}`);
     });
     out.push('');
     const hidden = unmatched.length - strongUnmatched.length;
     out.push(`Unmatched ${flags.has('all-lines') ? '' : 'strong '}lines: ${strongUnmatched.length ? '' : 'none'}${hidden > 0 ? `(${hidden} weaker not shown; --all-lines lists them)` : ''}`);
-    for (const l of strongUnmatched) out.push(`  ${l.label.padEnd(32)} d ${pm(l.dNm, l.dUncNm).padEnd(22)} intensity ${sig(l.intensity ?? NaN, 3)}`);
+    for (const l of strongUnmatched) out.push(`  ${spacedLineLabel(l.label).padEnd(32)} d ${pm(l.dNm, l.dUncNm).padEnd(22)} intensity ${sig(l.intensity ?? NaN, 3)}`);
     if (rec.thickness) {
       const t = rec.thickness;
       out.push(`Sheets: mean thickness ${f(t.sheetMeanNm, 2)} ± ${f(t.sheetSdNm, 2)} nm (sd); 00l crystallite size ${f(t.crystalliteNm, 1)} nm` +

@@ -4,6 +4,7 @@
  * an indexed line. Written closed up ("001"), an index of ten or more or a negative one is
  * ambiguous ("0010"); spaced, it never is.
  */
+import type { SeriesKind } from '../diffraction/series';
 
 /**
  * A series member's index as the app and the command line print it: "001" → "0 0 1", "0012" →
@@ -21,4 +22,23 @@ export function spacedIndex(index: string): string {
   if (lamellar) return `0 0 ${lamellar[1]}`;
   if (/^[0-9]{2,3}$/.test(index)) return index.split('').join(' ');
   return index;
+}
+
+/** The series kinds whose members a line's label may name ("hexagonal 10"); a lamellar member is named by its index alone. */
+const SERIES_KINDS: Record<SeriesKind, true> = { lamellar: true, hexagonal: true, Ia3d: true, Pn3m: true, Im3m: true, Fm3m: true };
+
+/**
+ * A diffraction line's label as shown: a series member's index spaced ("001" → "0 0 1",
+ * "hexagonal 10" → "hexagonal 1 0"); any other label (an indexed line's "1 1 0", "2: 0 0 1", a
+ * typed line's "typed 12", "peak 7.07°") as it is. The lines handed to the cross-check keep the
+ * series' own form, which it reads (a lamellar 00l line is a basal line).
+ * @param label the line's label
+ * @returns the label to show
+ * @throws TypeError naming a value that is not a string
+ */
+export function spacedLineLabel(label: string): string {
+  if (typeof label !== 'string') throw new TypeError(`spacedLineLabel: the label must be a string, got ${Object.prototype.toString.call(label)}`);
+  const m = /^(?:([A-Za-z0-9]+) )?([0-9]{2,4})$/.exec(label);
+  if (!m || (m[1] !== undefined && !(m[1] in SERIES_KINDS))) return label;
+  return `${m[1] ? `${m[1]} ` : ''}${spacedIndex(m[2])}`;
 }

@@ -2,7 +2,7 @@
 // writes them. Cases: a lamellar series' 001–0012, cubic 211, 2D hexagonal 10 (the series search's
 // own index lists, src/diffraction/series.ts).
 import { expect, test } from 'vitest';
-import { spacedIndex } from '../../src/figure/reflection-index';
+import { spacedIndex, spacedLineLabel } from '../../src/figure/reflection-index';
 
 test('series indices are written spaced, an index of ten or more stays whole', () => {
   expect(spacedIndex('001')).toBe('0 0 1');
@@ -15,4 +15,16 @@ test('series indices are written spaced, an index of ten or more stays whole', (
   expect(spacedIndex('0 0 1')).toBe('0 0 1');
   expect(spacedIndex('typed 1')).toBe('typed 1');
   expect(() => spacedIndex(1 as never)).toThrow(/must be a string/);
+});
+
+test('a line label shows a series member spaced and leaves every other label as it is', () => {
+  expect(spacedLineLabel('001')).toBe('0 0 1');
+  expect(spacedLineLabel('0012')).toBe('0 0 12');
+  expect(spacedLineLabel('hexagonal 10')).toBe('hexagonal 1 0');
+  expect(spacedLineLabel('Ia3d 211')).toBe('Ia3d 2 1 1');
+  expect(spacedLineLabel('1 1 0')).toBe('1 1 0');
+  expect(spacedLineLabel('2: 0 0 1')).toBe('2: 0 0 1');
+  expect(spacedLineLabel('typed 12')).toBe('typed 12');
+  expect(spacedLineLabel('peak 7.0659°')).toBe('peak 7.0659°');
+  expect(() => spacedLineLabel(null as never)).toThrow(/must be a string/);
 });
