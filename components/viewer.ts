@@ -215,6 +215,23 @@ export class StrataViewer extends LitElement {
     `,
   ];
 
+  /** Set once the first update has been given a task of its own. */
+  private firstUpdateScheduled = false;
+
+  /**
+   * The viewer's first render (its stage, canvases and controls, and the first measurement of its
+   * size) waits for a task of its own instead of running in the one where the shell renders the
+   * newly opened image (together about 45 ms on an idle machine); later updates are lit's usual
+   * microtask. This is lit's hook for scheduling updates differently.
+   */
+  protected override async scheduleUpdate(): Promise<void> {
+    if (!this.firstUpdateScheduled) {
+      this.firstUpdateScheduled = true;
+      await new Promise((r) => setTimeout(r, 0));
+    }
+    super.scheduleUpdate();
+  }
+
   override connectedCallback(): void {
     super.connectedCallback();
     this.resizer = new ResizeObserver(() => this.measure());
