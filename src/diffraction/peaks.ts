@@ -37,7 +37,7 @@ export interface FitOptions extends PeakSearchOptions {
   ka2?: 'doublet' | 'none';
   /** Half width of each fit window in FWHMs (default 4). */
   windowFwhm?: number;
-  /** Most peaks fitted together in one overlap group (default 8). */
+  /** Most peaks fitted together in one overlap group; a longer stretch is fitted in windows of at most this many, the other windows held fixed (default 8). */
   maxGroup?: number;
   /** Peaks given by the user (pattern axis units) instead of the automatic search (each is kept whatever its significance). */
   positions?: number[];
@@ -89,6 +89,8 @@ export interface FittedPeak {
   /** Pseudo-Voigt Lorentzian fraction η in [0, 1] and its uncertainty. */
   eta: number;
   etaUnc: number;
+  /** Correlation coefficient of the fitted FWHM and η (0 when either was held); a size's ± needs it, as the two trade off. */
+  fwhmEtaCorrelation: number;
   /** Right/left half-width ratio (1: symmetric profile fitted). */
   asymmetry: number;
   /** 'peak', or 'band': an asymmetric two-dimensional (hk) band of turbostratic layers (no Scherrer size). */
@@ -150,6 +152,12 @@ export interface PatternFit {
 const LN2 = Math.LN2;
 /** Profiles are evaluated within this many FWHMs of their centre: a Lorentzian has fallen to 0.1 % of its height there. */
 const REACH_FWHM = 16;
+/** Standard uncertainty of the restraint that pulls a free η towards the pattern's η trend (a judgement: loose enough for a phase of another shape to show). */
+const ETA_RESTRAINT_SIGMA = 0.3;
+/** A broad line split into two at the trend width must keep at least this share of its area (and at most its inverse) in the pair. */
+const SPLIT_AREA_KEPT = 0.7;
+/** Widths of the residual search's matched filters, in units of the group's typical FWHM. */
+const RESIDUAL_WIDTHS = [1, 2.5, 6];
 
 /** Area-normalised pseudo-Voigt at offset dx for FWHM g and Lorentzian fraction eta. */
 export function pseudoVoigt(dx: number, g: number, eta: number): number {
@@ -361,9 +369,29 @@ function fitGroup(ctx: Context, members: Member[], bg: Float64Array, own?: { y: 
       ? { c: src[o], a: src[o + 1], w: m.w, e: m.eta, rho: m.rho }
       : { c: src[o], a: src[o + 1], w: src[o + 2], e: src[o + 3], rho: m.split ? src[o + 4] : 1 };
   };
-  const weights = new Float64Array(xs.length);
-  for (let i = 0; i < xs.length; i++) weights[i] = 1 / ctx.noise.variance[i0 + i];
   const len = xs.length;
+  // a free η is restrained towards the pattern's η trend (a pseudo-observation η = η_trend ± ETA_RESTRAINT_SIGMA;
+  // restrained least squares: Waser, Acta Cryst. 16, 1091, 1963):
+  // a weak line's η is barely determined by its points, and one that wanders to a pure Gaussian
+  // takes width and area with it; a strong line's own points outweigh the restraint
+  const restrained: number[] = [];
+  const etaTarget: number[] = [];
+  if (ctx.trend) {
+    members.forEach((m, k) => {
+      if (m.fixed) return;
+      restrained.push(offsets[k] + 3);
+      etaTarget.push(ctx.trend!(m.c).eta);
+    });
+  }
+  const rows = len + restrained.length;
+  const weights = new Float64Array(rows);
+  for (let i = 0; i < len; i++) weights[i] = 1 / ctx.noise.variance[i0 + i];
+  const target = new Float64Array(rows);
+  target.set(ys);
+  restrained.forEach((_, r) => {
+    target[len + r] = etaTarget[r];
+    weights[len + r] = 1 / (ETA_RESTRAINT_SIGMA * ETA_RESTRAINT_SIGMA);
+  });
   const addProfile = (r: { c: number; a: number; w: number; e: number; rho: number }, out: Float64Array, ja: number, jb: number, assign: boolean) => {
     const c2 = ctx.ka2Of(r.c);
     for (let i = ja; i < jb; i++) {
@@ -380,6 +408,7 @@ function fitGroup(ctx: Context, members: Member[], bg: Float64Array, own?: { y: 
   };
   const evalModel = (p: Float64Array, out: Float64Array) => {
     for (let i = 0; i < len; i++) out[i] = bgs[i] + p[0] + (p[1] * (xs[i] - xc)) / half;
+    if (out.length > len) restrained.forEach((j, r) => (out[len + r] = p[j]));
     members.forEach((_, k) => {
       const r = read(p, k);
       const [ja, jb] = reachOf(r);
@@ -396,6 +425,7 @@ function fitGroup(ctx: Context, members: Member[], bg: Float64Array, own?: { y: 
       out[i * np] = 1;
       out[i * np + 1] = (xs[i] - xc) / half;
     }
+    restrained.forEach((j, r) => (out[(len + r) * np + j] = 1));
     const q = Float64Array.from(p);
     members.forEach((m, k) => {
       const o = offsets[k];
@@ -416,7 +446,7 @@ function fitGroup(ctx: Context, members: Member[], bg: Float64Array, own?: { y: 
   };
   let fit;
   try {
-    fit = levenbergMarquardt(evalModel, ys, p0, { lower, upper, weights, scaleCovariance: false, maxIterations: 80, tolerance: 1e-9, chi2Tolerance: 1e-3, jacobian });
+    fit = levenbergMarquardt(evalModel, target, p0, { lower, upper, weights, scaleCovariance: false, maxIterations: 80, tolerance: 1e-9, chi2Tolerance: 1e-3, jacobian });
   } catch {
     return null;
   }
@@ -577,23 +607,61 @@ function context(pattern: Pattern, options: FitOptions, extra: { useKa2?: boolea
   };
 }
 
-/** Groups members whose fit windows overlap. */
-function groupsOf(ctx: Context, members: Member[]): Member[][] {
+/**
+ * Chains of members whose fit windows overlap, a chain longer than maxGroup cut into windows of at
+ * most maxGroup members (as few as that allows) at its weakest valleys (where the members' summed
+ * starting profiles are lowest between two neighbours), so a crowded stretch is fitted a window at a time.
+ */
+function chainsOf(ctx: Context, members: Member[]): Member[][][] {
   const sorted = [...members].sort((a, b) => a.c - b.c);
-  const groups: Member[][] = [];
+  const chains: Member[][] = [];
   let end = -Infinity;
   for (const m of sorted) {
     const [a, b] = extent(ctx, m, ctx.windowFwhm);
-    const g = groups[groups.length - 1];
-    if (g && a < end && g.length < ctx.maxGroup) {
+    const g = chains[chains.length - 1];
+    if (g && a < end) {
       g.push(m);
       end = Math.max(end, b);
     } else {
-      groups.push([m]);
+      chains.push([m]);
       end = b;
     }
   }
-  return groups;
+  const level = (chain: Member[], v: number) => chain.reduce((s, m) => s + m.a * splitPseudoVoigt(v - m.c, m.w, m.eta, m.rho), 0);
+  const cut = (chain: Member[]): Member[][] => {
+    if (chain.length <= ctx.maxGroup) return [chain];
+    // as few windows as the cap allows: a cut may not raise the number of windows needed
+    const need = (len: number) => Math.ceil(len / ctx.maxGroup);
+    let best = 1;
+    let bestLevel = Infinity;
+    for (let k = 1; k < chain.length; k++) {
+      if (need(k) + need(chain.length - k) > need(chain.length)) continue;
+      const v = level(chain, 0.5 * (chain[k - 1].c + chain[k].c));
+      if (v < bestLevel) {
+        bestLevel = v;
+        best = k;
+      }
+    }
+    return [...cut(chain.slice(0, best)), ...cut(chain.slice(best))];
+  };
+  return chains.map(cut);
+}
+
+/** The background plus the profiles (with Kα2 companions) of members held fixed. */
+function withHeld(ctx: Context, bg: Float64Array, held: Member[]): Float64Array {
+  const out = Float64Array.from(bg);
+  const { x } = ctx;
+  for (const m of held) {
+    const c2 = ctx.ka2Of(m.c);
+    const reach = REACH_FWHM * m.w * Math.max(m.rho, 1 / m.rho) + 2 * m.w;
+    const j1 = Math.min(ctx.n, lowerIndex(x, (Number.isNaN(c2) ? m.c : c2) + reach));
+    for (let i = lowerIndex(x, m.c - reach); i < j1; i++) {
+      let v = m.a * splitPseudoVoigt(x[i] - m.c, m.w, m.eta, m.rho);
+      if (!Number.isNaN(c2)) v += ctx.ratio * m.a * splitPseudoVoigt(x[i] - c2, m.w, m.eta, m.rho);
+      out[i] += v;
+    }
+  }
+  return out;
 }
 
 /** Plain copy of a fitted member as a member to fit again. */
@@ -696,7 +764,10 @@ function settleGroup(ctx: Context, start: Member[], bg: Float64Array, residualSe
         const tf = fitGroup(ctx, [...others, ...pair], bg);
         if (!tf) continue;
         const two = tf.members.slice(-2);
-        if (tf.chi2 < fit.chi2 && two.every((q) => zOf(q) >= ctx.zCrit) && Math.abs(two[0].c - two[1].c) > 0.5 * t.w) {
+        // two lines that make up the broad one carry its intensity between them: a pair holding much
+        // less left the rest to the background, and is a broad line cut into narrow pieces
+        const kept = (two[0].a + two[1].a) / m.a;
+        if (tf.chi2 < fit.chi2 && two.every((q) => zOf(q) >= ctx.zCrit) && Math.abs(two[0].c - two[1].c) > 0.5 * t.w && kept > SPLIT_AREA_KEPT && kept < 1 / SPLIT_AREA_KEPT) {
           members = [...others, ...two.map(again)];
           splitDone = true;
         }
@@ -705,7 +776,16 @@ function settleGroup(ctx: Context, start: Member[], bg: Float64Array, residualSe
     }
     const widths = fit.members.map((m) => m.w).sort((a, b) => a - b);
     const wTyp = widths[Math.floor(widths.length / 2)];
-    const rp = residualPeak(ctx, fit, wTyp);
+    // the residual's own width: a matched filter at the group's typical width and at broader ones;
+    // a broad residual (a broad line of another phase that was lost) comes back free at its width,
+    // not held at the trend, so it is not cut into narrow pieces
+    let rp: { c: number; z: number; amp: number; w: number } | null = null;
+    for (const f of RESIDUAL_WIDTHS) {
+      const wf = Math.min(f * wTyp, ctx.maxFwhm);
+      const r = residualPeak(ctx, fit, wf);
+      if (r && (!rp || r.z > rp.z)) rp = { ...r, w: wf };
+      if (wf >= ctx.maxFwhm) break;
+    }
     // the threshold grows with the group's misfit, so profile-shape errors of strong peaks are not taken for peaks
     if (!rp || rp.z < ctx.zCrit * Math.sqrt(Math.max(1, fit.reducedChi2))) break;
     const key = Math.round(rp.c / ctx.step);
@@ -714,8 +794,10 @@ function settleGroup(ctx: Context, start: Member[], bg: Float64Array, residualSe
     if (fit.members.some((m) => Math.abs(m.c - rp.c) < 0.3 * Math.min(m.w, wTyp))) break;
     members = fit.members.map(again);
     const t = trend ? trend(rp.c) : { w: wTyp, eta: 0.5 };
-    const a0 = Math.max(rp.amp * t.w * 1.06, 1e-6);
-    members.push({ c: rp.c, a: a0, w: t.w, eta: t.eta, rho: 1, split: false, given: false, fixed: !!trend, init: { c: rp.c, a: a0, w: t.w } });
+    const broad = rp.w > 1.6 * Math.max(t.w, wTyp);
+    const wNew = broad ? rp.w : t.w;
+    const a0 = Math.max(rp.amp * wNew * 1.06, 1e-6);
+    members.push({ c: rp.c, a: a0, w: wNew, eta: broad ? 0.5 : t.eta, rho: 1, split: false, given: false, fixed: !!trend && !broad, init: { c: rp.c, a: a0, w: wNew } });
   }
   return fit;
 }
@@ -817,7 +899,14 @@ function backgroundWithout(ctx: Context, fits: GroupFit[], members: Member[], ha
  *   at most a third of the halo's FWHM;
  * - candidates come from the smoothed net pattern; each overlap group is refitted after adding the
  *   strongest significant residual maximum (a weak peak beside a strong one) and dropping members
- *   that fail the test;
+ *   that fail the test; a stretch of more than maxGroup overlapping peaks is cut at its weakest
+ *   valleys into windows fitted in turn with the other windows' peaks held fixed; the residual is
+ *   searched at the group's typical width and broader (a lost broad line of another phase comes
+ *   back free at its own width, not cut into narrow pieces); a broad line is only taken for two
+ *   narrow ones when the pair keeps its area;
+ * - a free η is restrained towards the pattern's η trend (± 0.3), so a weak line's shape does not
+ *   wander to a pure Gaussian and take its width and area with it (a restraint in the sense of
+ *   Waser, Acta Cryst. 16, 1091, 1963);
  * - a strong peak (area above 15σ) is refitted with different left and right widths; when that
  *   improves χ² beyond chance (p < 0.001) and the high-angle side is at least twice as wide, it is
  *   a two-dimensional (hk) band of turbostratic layers (Warren 1941), reported without a size.
@@ -901,14 +990,33 @@ export function fitPattern(pattern: Pattern, options: FitOptions = {}): PatternF
     }
     fits = [];
     members = [];
-    for (const g of groupsOf(ctx, cands)) {
-      const f = settleGroup(ctx, g, background, residualSearch, rejected);
-      if (!f) {
-        if (g.some((m) => m.given)) notes.push(`peak near ${g[0].c.toPrecision(5)} could not be fitted (too few points in its window)`);
-        continue;
+    for (const windows of chainsOf(ctx, cands)) {
+      // a crowded chain: each window fitted with the other windows' peaks held fixed (at their
+      // fitted values once fitted, else at their starting values), twice over, with the residual
+      // search inside each window (a weak line on a strong one's flank is found there too)
+      const now: Member[][] = windows.map((w) => w.map((m) => ({ ...m })));
+      const got: (GroupFit | null)[] = windows.map(() => null);
+      const sweeps = windows.length > 1 ? 2 : 1;
+      const early: PatternFit['rejected'] = [];
+      for (let sweep = 0; sweep < sweeps; sweep++) {
+        for (let k = 0; k < windows.length; k++) {
+          if (now[k].length === 0) continue;
+          const bgK = windows.length > 1 ? withHeld(ctx, background, now.filter((_, j) => j !== k).flat()) : background;
+          const f = settleGroup(ctx, now[k], bgK, residualSearch, sweep === sweeps - 1 ? rejected : early);
+          if (f) {
+            got[k] = f;
+            now[k] = f.members.map(again);
+          } else if (sweep === sweeps - 1 && now[k].some((m) => m.given)) notes.push(`peak near ${now[k][0].c.toPrecision(5)} could not be fitted (too few points in its window)`);
+        }
       }
-      fits.push(f);
-      members.push(...f.members.map((m) => ({ c: m.c, a: m.a, w: m.w, eta: m.eta, rho: m.rho, split: m.split, given: m.given, init: { c: m.c, a: m.a, w: m.w } })));
+      // what the first sweep rejected stays rejected unless the second found a line there
+      const kept = now.flat();
+      for (const r of early) if (!kept.some((m) => Math.abs(m.c - r.position) < 0.5 * m.w) && !rejected.some((q) => Math.abs(q.position - r.position) < ctx.step)) rejected.push(r);
+      for (const f of got) {
+        if (!f) continue;
+        fits.push(f);
+        members.push(...f.members.map((m) => ({ c: m.c, a: m.a, w: m.w, eta: m.eta, rho: m.rho, split: m.split, given: m.given, init: { c: m.c, a: m.a, w: m.w } })));
+      }
     }
     if (pass === 2) break;
     ctx.trend = widthTrend(ctx, fits) ?? ctx.trend;
@@ -1069,6 +1177,7 @@ function describe(ctx: Context, m: FitMember, f: GroupFit, group: number, onHalo
     intensityUnc: Math.sqrt(Math.max(0, vh)),
     eta: m.eta,
     etaUnc: m.se,
+    fwhmEtaCorrelation: m.sw > 0 && m.se > 0 ? Math.max(-1, Math.min(1, m.covWE / (m.sw * m.se))) : 0,
     asymmetry: m.rho,
     kind: m.split && m.rho >= 2 ? 'band' : 'peak',
     significance: m.sa > 0 ? m.a / m.sa : Infinity,

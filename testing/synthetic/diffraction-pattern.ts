@@ -197,3 +197,30 @@ export function reflectionWidth(twoThetaDeg: number, sizeNm: number, wavelengthN
 
 /** 2θ of d at a wavelength (re-exported for the generators' callers). */
 export const twoThetaOf = dToTwoTheta;
+
+/**
+ * A crowded stretch for the overlap-group tests: `count` lines (Kα1 only) a fixed spacing apart,
+ * each overlapping its neighbours, areas drawn between 0.6 and 1.4 × `area`, and one weak line
+ * (`weakFraction` × `area`) placed between two of them, at a seeded place away from the ends.
+ * @param options start, count, spacing, width, η, area, weak fraction and seed
+ * @returns the lines (sorted by position) and the weak line's position
+ * Reference: synthetic data with known truth (common practice for testing profile fits).
+ */
+export function crowdedStretch(options: { startDeg?: number; count?: number; spacingDeg?: number; fwhmDeg?: number; eta?: number; area?: number; weakFraction?: number; seed?: number } = {}): { peaks: SyntheticPeak[]; weakDeg: number } {
+  const start = options.startDeg ?? 30;
+  const count = options.count ?? 12;
+  const spacing = options.spacingDeg ?? 0.4;
+  const fwhm = options.fwhmDeg ?? 0.12;
+  const eta = options.eta ?? 0.4;
+  const area = options.area ?? 60;
+  const weak = options.weakFraction ?? 0.3;
+  if (!(count >= 3) || !(spacing > 0) || !(fwhm > 0) || !(area > 0) || !(weak > 0)) throw new RangeError(`bad crowded stretch: count ${count}, spacing ${spacing}, FWHM ${fwhm}, area ${area}, weak fraction ${weak}`);
+  const rnd = seededRandom(options.seed ?? 1);
+  const peaks: SyntheticPeak[] = [];
+  for (let k = 0; k < count; k++) peaks.push({ twoThetaDeg: start + k * spacing, area: area * (0.6 + 0.8 * rnd()), fwhmDeg: fwhm, eta });
+  const at = 1 + Math.floor(rnd() * (count - 2));
+  const weakDeg = start + (at + 0.5) * spacing;
+  peaks.push({ twoThetaDeg: weakDeg, area: weak * area, fwhmDeg: fwhm, eta });
+  peaks.sort((a, b) => a.twoThetaDeg - b.twoThetaDeg);
+  return { peaks, weakDeg };
+}
