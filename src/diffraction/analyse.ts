@@ -120,7 +120,7 @@ export function analysePattern(pattern: Pattern, options: AnalyseOptions = {}): 
           return { size: null, unc: null, sample: sb.fwhmDeg };
         }
         const r = scherrerSize(sb.fwhmDeg, p.twoThetaDeg, lambda!, { k });
-        const unc = r.sizeNm! * ((p.fwhmUncDeg ?? 0) * (p.fwhmDeg / sb.fwhmDeg)) / sb.fwhmDeg;
+        const unc = r.sizeNm! * sampleBreadthUnc(p, profile, sb.fwhmDeg) / sb.fwhmDeg;
         if (r.sizeNm! > 100) warnings.add('some sizes exceed ~100 nm, where the Scherrer estimate loses meaning');
         return { size: r.sizeNm, unc, sample: sb.fwhmDeg };
       }
@@ -231,4 +231,25 @@ export function instrumentFromStandard(standard: Pattern, source = 'standard', o
   const peaks = fit.peaks.filter((p) => p.kind === 'peak' && p.twoThetaDeg !== null && p.fwhmDeg !== null && p.atBound.length === 0 && p.significance > 3 * fit.test.zCritical);
   if (peaks.length === 0) throw new RangeError(`${source}: no usable peak in the standard pattern`);
   return fitInstrumentProfile(peaks.map((p) => ({ twoThetaDeg: p.twoThetaDeg!, fwhmDeg: p.fwhmDeg!, eta: p.eta, weight: 1 })), standard.wavelengthNm, source);
+}
+
+/**
+ * Standard uncertainty of a line's sample breadth (degrees) from its fitted FWHM and η and their
+ * correlation: the breadth's derivatives in both by central differences, u² = JᵀCJ (GUM §5.2).
+ * η matters as much as the FWHM: it decides how much of the width is Lorentzian, which the
+ * instrument's Lorentzian is taken from linearly, and the two trade off in the fit.
+ * Reference: JCGM 100:2008 (GUM), law of propagation of uncertainty.
+ */
+function sampleBreadthUnc(p: { fwhmDeg: number | null; fwhmUncDeg: number | null; eta: number; etaUnc: number; fwhmEtaCorrelation: number; twoThetaDeg: number | null }, profile: InstrumentProfile, sample: number): number {
+  const w = p.fwhmDeg!;
+  const tt = p.twoThetaDeg!;
+  const sw = p.fwhmUncDeg ?? 0;
+  const se = p.etaUnc;
+  const hw = 1e-4 * w;
+  const dW = (sampleBreadth(w + hw, p.eta, tt, profile).fwhmDeg - sampleBreadth(w - hw, p.eta, tt, profile).fwhmDeg) / (2 * hw);
+  const e0 = Math.max(0, Math.min(1, p.eta - 1e-3));
+  const e1 = Math.max(0, Math.min(1, p.eta + 1e-3));
+  const dE = e1 > e0 ? (sampleBreadth(w, e1, tt, profile).fwhmDeg - sampleBreadth(w, e0, tt, profile).fwhmDeg) / (e1 - e0) : 0;
+  const v = dW * dW * sw * sw + dE * dE * se * se + 2 * dW * dE * p.fwhmEtaCorrelation * sw * se;
+  return Number.isFinite(v) && v > 0 ? Math.sqrt(v) : sw * (w / Math.max(sample, 1e-12));
 }

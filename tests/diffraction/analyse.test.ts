@@ -87,3 +87,31 @@ describe('analysePattern on the measured propylammonium chloride pattern (SOURCE
     expect(a.radiationSource).toMatch(/header line/);
   });
 });
+
+describe('a Scherrer size\'s ± carries the uncertainty of η as well as of the FWHM', () => {
+  test('u(size) is the propagation of the fitted FWHM and η with their correlation (GUM §5.2) through the instrument correction (seeded synthetic fcc, LaB6-like standard)', async () => {
+    const { instrumentFromStandard } = await import('../../src/diffraction/analyse');
+    const { sampleBreadth } = await import('../../src/diffraction/instrument');
+    const { diffractionScenarios, standardScenario } = await import('../../testing/synthetic/xrd-scenarios');
+    const profile = instrumentFromStandard(parsePattern(standardScenario(3).text), 'LaB6-like (synthetic)');
+    const sc = diffractionScenarios(3).find((s) => s.name === 'Au-like fcc')!;
+    const a = analysePattern(parsePattern(sc.text), { instrument: profile });
+    const sized = a.peaks.filter((p) => p.crystalliteNm !== null);
+    expect(sized.length).toBeGreaterThanOrEqual(3);
+    let etaMatters = 0;
+    for (const p of sized) {
+      const sb = (w: number, e: number) => sampleBreadth(w, Math.min(1, Math.max(0, e)), p.twoThetaDeg!, profile).fwhmDeg;
+      const b = sb(p.fwhmDeg!, p.eta);
+      const dW = (sb(p.fwhmDeg! * 1.001, p.eta) - sb(p.fwhmDeg! * 0.999, p.eta)) / (0.002 * p.fwhmDeg!);
+      const e0 = Math.max(0, p.eta - 0.002);
+      const e1 = Math.min(1, p.eta + 0.002);
+      const dE = (sb(p.fwhmDeg!, e1) - sb(p.fwhmDeg!, e0)) / (e1 - e0);
+      const sw = p.fwhmUncDeg!;
+      const uB = Math.sqrt(dW * dW * sw * sw + dE * dE * p.etaUnc * p.etaUnc + 2 * dW * dE * p.fwhmEtaCorrelation * sw * p.etaUnc);
+      // D = Kλ/(β cos θ): u(D)/D = u(β)/β
+      expect(Math.abs(p.crystalliteUncNm! / p.crystalliteNm! / (uB / b) - 1)).toBeLessThan(0.02);
+      if (Math.abs(dE * p.etaUnc) > 0.3 * Math.abs(dW * sw)) etaMatters++;
+    }
+    expect(etaMatters).toBeGreaterThan(0);
+  }, 60000);
+});
