@@ -433,6 +433,37 @@ interface Solution {
 }
 
 /** Scores a trial cell: assigns, refines (twice, reassigning), and measures what it explains. */
+/**
+ * Two phases of a mixture whose cells both explain a line: the line goes to the phase whose lines
+ * it matches in breadth (a sharp line of a large-crystallite phase is not an order of a clay of
+ * broad lines that happens to fall beside it), when the two phases' typical FWHMs differ by more
+ * than half; each phase is refined again with its lines.
+ * @returns the two phases, refined again when a line moved (else as given)
+ * Reference: the lines of one phase share its breadth (size and strain; Scherrer 1918, Williamson &
+ * Hall 1953), so breadth tells the phases of a mixture apart (common practice).
+ */
+function shareByWidth(w: Work, a: Solution, b: Solution, scope: number[], opts: Required<Pick<IndexOptions, 'searchToleranceDeg' | 'fitZeroShift'>>): [Solution, Solution] {
+  const typical = (s: Solution) => {
+    const v = s.hkls.map((h) => w.fw[h.peak]).filter((x) => x > 0).sort((x, y) => x - y);
+    return v.length ? v[Math.floor(v.length / 2)] : 0;
+  };
+  const wa = typical(a);
+  const wb = typical(b);
+  if (!(wa > 0 && wb > 0) || Math.max(wa, wb) / Math.min(wa, wb) < 1.5) return [a, b];
+  const closer = (i: number, to: number, from: number) => w.fw[i] > 0 && Math.abs(Math.log(w.fw[i] / to)) < Math.abs(Math.log(w.fw[i] / from));
+  const byB = new Set((evaluate(w, b.t, new Set(scope), opts, true)?.hkls ?? []).map((h) => h.peak));
+  const byA = new Set((evaluate(w, a.t, new Set(scope), opts, true)?.hkls ?? []).map((h) => h.peak));
+  const toB = a.hkls.map((h) => h.peak).filter((i) => byB.has(i) && closer(i, wb, wa));
+  const toA = b.hkls.map((h) => h.peak).filter((i) => byA.has(i) && closer(i, wa, wb));
+  if (toB.length === 0 && toA.length === 0) return [a, b];
+  const aSet = new Set([...a.hkls.map((h) => h.peak).filter((i) => !toB.includes(i)), ...toA]);
+  const bSet = new Set([...b.hkls.map((h) => h.peak).filter((i) => !toA.includes(i)), ...toB]);
+  const a2 = evaluate(w, a.t, aSet, opts);
+  const b2 = evaluate(w, b.t, bSet, opts);
+  if (!a2 || !b2 || a2.hkls.length < Math.min(a.hkls.length - toB.length, 2) || b2.hkls.length < Math.min(b.hkls.length, 2)) return [a, b];
+  return [a2, b2];
+}
+
 function evaluate(w: Work, trial: Trial, subset: Set<number> | null, opts: Required<Pick<IndexOptions, 'searchToleranceDeg' | 'fitZeroShift'>>, holdCell = false): Solution | null {
   let t = trial;
   let lines = linesOf(w, t);
@@ -787,7 +818,8 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
           // each phase of the pair must be convincing on its own (F_N ≥ 20 and at least half the single cell's): a cell of high indices fits a few lines by chance
           const convincing = Math.min(one.fom.fN, two.fom.fN) >= Math.max(20, 0.5 * firstBest.fom.fN);
           if (strongDone >= strongScope.length && one.hkls.length >= 3 && two.hkls.length >= 3 && better && convincing) {
-            phases.push(phaseOf(one, false), phaseOf(two, false));
+            const [oneW, twoW] = shareByWidth(w, one, two, scope, opts);
+            phases.push(phaseOf(oneW, false), phaseOf(twoW, false));
             notes.push(`two phases (${LATTICE_WORDS[one.t.kind]} and ${LATTICE_WORDS[two.t.kind]}) explain the lines better than one ${LATTICE_WORDS[firstBest.t.kind]} cell (a ${firstBest.t.a.toPrecision(6)} nm, c ${firstBest.t.c.toPrecision(6)} nm)`);
             mixtureFirst = true;
             // what the search said of the single cell (another lattice as good) no longer applies

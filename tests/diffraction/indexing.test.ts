@@ -139,3 +139,30 @@ describe('indexPattern on standard reference materials', () => {
     expect(() => indexPattern([], { wavelengthNm: 100 })).toThrow(/100/);
   });
 });
+
+describe('a mixture of a broad-lined clay and a sharp-lined cubic phase (seeded synthetic fit)', () => {
+  // the lines as fitted from the benchmark's clay + fcc pattern (seed 1; drawn: lamellar c = 1.42 nm,
+  // crystallites 12 nm; fcc a = 0.40495 nm, 40 nm): the fcc 200 (FWHM 0.32°) lies 0.07° from the
+  // clay's 007 (FWHM 0.74°), which both cells explain
+  const peaks: IndexPeak[] = [
+    { dNm: 1.420368, dUncNm: 0.00057, twoThetaDeg: 6.2176, twoThetaUncDeg: 0.0025, intensity: 795.8, fwhmDeg: 0.674 },
+    { dNm: 0.7110404, dUncNm: 0.000716, twoThetaDeg: 12.4385, twoThetaUncDeg: 0.0126, intensity: 65.08, fwhmDeg: 0.635 },
+    { dNm: 0.4732845, dUncNm: 0.000288, twoThetaDeg: 18.7337, twoThetaUncDeg: 0.0115, intensity: 110.4, fwhmDeg: 0.688 },
+    { dNm: 0.2338006, dUncNm: 0.00000865, twoThetaDeg: 38.4729, twoThetaUncDeg: 0.00148, intensity: 302.9, fwhmDeg: 0.242 },
+    { dNm: 0.2025644, dUncNm: 0.0000197, twoThetaDeg: 44.7011, twoThetaUncDeg: 0.00458, intensity: 95.8, fwhmDeg: 0.323 },
+    { dNm: 0.1773192, dUncNm: 0.0000612, twoThetaDeg: 51.4958, twoThetaUncDeg: 0.0191, intensity: 45.27, fwhmDeg: 0.653 },
+    { dNm: 0.1430283, dUncNm: 0.0000573, twoThetaDeg: 65.1717, twoThetaUncDeg: 0.0293, intensity: 30.84, fwhmDeg: 0.63 },
+    { dNm: 0.1290615, dUncNm: 0.0000381, twoThetaDeg: 73.2885, twoThetaUncDeg: 0.0252, intensity: 52.49, fwhmDeg: 0.934 },
+    { dNm: 0.1220272, dUncNm: 0.0000363, twoThetaDeg: 78.2848, twoThetaUncDeg: 0.0278, intensity: 11.14, fwhmDeg: 0.264 },
+    { dNm: 0.1169016, dUncNm: 0.00000296, twoThetaDeg: 82.4362, twoThetaUncDeg: 0.00254, intensity: 245.3, fwhmDeg: 0.308 },
+  ];
+  test('the sharp line shared by both cells goes to the sharp phase; the clay cell stays within 0.05 % of the drawn one', () => {
+    const r = indexPattern(peaks, { wavelengthNm: 0.1540593 });
+    const lam = r.phases.find((p) => p.kind === 'lamellar')!;
+    const fcc = r.phases.find((p) => p.kind === 'cubic-F')!;
+    expect(fcc.lines.find((l) => l.peak === 4)?.hkl).toEqual([2, 0, 0]);
+    expect(lam.lines.some((l) => l.peak === 4)).toBe(false);
+    expect(Math.abs(lam.cNm / 1.42 - 1)).toBeLessThan(5e-4);
+    expect(Math.abs(fcc.aNm / 0.40495 - 1)).toBeLessThan(5e-4);
+  });
+});
