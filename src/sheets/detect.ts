@@ -169,14 +169,22 @@ function shiftAxis(frame: AxisFrame, offset: (i: number) => number): [number, nu
   return frame.points.map((p, i) => [p[0] + offset(i) * frame.normals[i][0], p[1] + offset(i) * frame.normals[i][1]]);
 }
 
-/** A coarse grid of the accepted stacks' bands, to skip candidates that lie on one already measured. */
+/**
+ * A coarse grid of the measured stacks' bands, to skip candidates that lie on one already
+ * measured. A piece too short to be a stack by itself (shorter than 30 px or than its thickness)
+ * covers its band only softly: a candidate on it is still measured (it may be the real, longer
+ * stack), and kept only if it is long enough by itself.
+ */
 class Coverage {
   private cells = new Map<number, { sheet: number; angleDeg: number }[]>();
+  /** Pieces whose coverage is soft. */
+  private soft = new Set<number>();
   constructor(private cellPx: number) {}
   private key(x: number, y: number): number {
     return Math.floor(y / this.cellPx) * 100003 + Math.floor(x / this.cellPx);
   }
-  add(sheet: number, frame: AxisFrame, centreOffset: number, halfWidth: number, angleAt: (i: number) => number): void {
+  add(sheet: number, frame: AxisFrame, centreOffset: number, halfWidth: number, angleAt: (i: number) => number, soft: boolean): void {
+    if (soft) this.soft.add(sheet);
     for (let i = 0; i < frame.points.length; i++) {
       const [px, py] = frame.points[i];
       const [nx, ny] = frame.normals[i];
@@ -188,13 +196,13 @@ class Coverage {
       }
     }
   }
-  /** Share of the points that lie on one sheet of similar orientation, and that sheet. */
-  covered(points: [number, number][], angleAt: (i: number) => number, toleranceDeg: number): { share: number; sheet: number } {
+  /** Share of the points that lie on one sheet of similar orientation (only pieces that cover firmly, when `firmOnly`), and that sheet. */
+  covered(points: [number, number][], angleAt: (i: number) => number, toleranceDeg: number, firmOnly: boolean): { share: number; sheet: number } {
     const hits = new Map<number, number>();
     points.forEach((p, i) => {
       const list = this.cells.get(this.key(p[0], p[1]));
       if (!list) return;
-      for (const e of list) if (axialDiff(e.angleDeg, angleAt(i)) < toleranceDeg) hits.set(e.sheet, (hits.get(e.sheet) ?? 0) + 1);
+      for (const e of list) if ((!firmOnly || !this.soft.has(e.sheet)) && axialDiff(e.angleDeg, angleAt(i)) < toleranceDeg) hits.set(e.sheet, (hits.get(e.sheet) ?? 0) + 1);
     });
     let best = -1;
     let bestN = 0;
@@ -635,8 +643,10 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
     if (tryPeriods.length === 0) break;
     const axisFrame0 = axisFrame(axis.points);
     const angle0 = (i: number) => screenAngleDeg(axisFrame0.normals[i][0], axisFrame0.normals[i][1]);
-    // a candidate on a stack already measured (one of its layers, or the same band) is skipped
-    if (coverage.covered(axis.points, angle0, 20).share > 0.5) continue;
+    // a candidate on a stack already measured (one of its layers, or the same band) is skipped;
+    // one that lies only on a piece too short to be a stack is measured, and kept if long enough
+    if (coverage.covered(axis.points, angle0, 20, true).share > 0.5) continue;
+    let onShort = coverage.covered(axis.points, angle0, 20, false).share > 0.5;
     // survey at each period: fringes smoothed away at half a period, fringe energy beside it
     let sv: Survey | null = null;
     let svScore = -Infinity;
@@ -657,12 +667,14 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
     const svBand = sv.band;
     const mid = 0.5 * (svBand.fromPx + svBand.toPx);
     const centreLine = shiftAxis(frame, () => mid);
-    if (coverage.covered(centreLine, angleAt, 20).share > 0.5) continue;
+    if (coverage.covered(centreLine, angleAt, 20, true).share > 0.5) continue;
+    if (coverage.covered(centreLine, angleAt, 20, false).share > 0.5) onShort = true;
     const parts = splitBand(profile, svBand, tryPeriods[0], polarity);
     for (const band of parts) {
       const bmid = 0.5 * (band.fromPx + band.toPx);
       const line = shiftAxis(frame, () => bmid);
-      if (coverage.covered(line, angleAt, 20).share > 0.5) continue;
+      if (coverage.covered(line, angleAt, 20, true).share > 0.5) continue;
+      const bandOnShort = onShort || coverage.covered(line, angleAt, 20, false).share > 0.5;
       // fit window: up to the neighbouring bands (touching stacks)
       const neighbours = [...(sv as Survey).others, ...parts.filter((q) => q !== band)];
       let lo = profile.startPx;
@@ -799,8 +811,14 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
       if (inBox(done.centerPx[0], done.centerPx[1], exclude)) continue;
       // a second look adds stacks; it does not touch the ones measured before
       if (earlier.some((o) => shareOnBand(done.axisPx, o) > 0.2 || shareOnBand(o.axisPx, done) > 0.2)) continue;
+      // a piece too short to be a stack by itself may yet join another piece of its stack, but
+      // covers its band only softly (a short wrong piece must not hide the real stack); one
+      // measured on such a piece's band must be long enough by itself (else the same band would
+      // be tried, and kept, again)
+      const short = done.lengthPx < Math.max(minLengthPx, done.thicknessPx);
+      if (bandOnShort && short) continue;
       pieces.push(piece);
-      coverage.add(pieces.length - 1, pieceFrame, offAt(pieceFrame.cumPx[Math.floor(pieceFrame.points.length / 2)]), done.thicknessPx / 2 + 0.5 * periodPx, (i) => screenAngleDeg(pieceFrame.normals[i][0], pieceFrame.normals[i][1]));
+      coverage.add(pieces.length - 1, pieceFrame, offAt(pieceFrame.cumPx[Math.floor(pieceFrame.points.length / 2)]), done.thicknessPx / 2 + 0.5 * periodPx, (i) => screenAngleDeg(pieceFrame.normals[i][0], pieceFrame.normals[i][1]), short);
     }
   }
   };

@@ -127,6 +127,20 @@ describe('detectSheets', () => {
     expect(Math.abs(res.periods[0].periodPx - o.truth.stacks[i].periodPx) / o.truth.stacks[i].periodPx).toBeLessThan(0.02);
     expect(sc.spurious).toBeLessThanOrEqual(1);
   });
+  it('a short piece of a thick stack does not hide the stack: the stack is measured from another candidate', () => {
+    // 11 layers at 7.51 px, 120 px long, 83 px thick (synthetic truth, testing/synthetic/overviews.ts):
+    // its first candidate gave a piece 78 px long, shorter than the stack's thickness, so rejected;
+    // while that piece covered the band, every longer candidate on it was skipped and the stack was
+    // missed, and a 3-layer piece cut across it was reported as a sheet
+    const o = generateOverview('sparse', 15);
+    const res = detectSheets(o.image);
+    const sc = scoreOverview(o.truth.stacks, res.sheets);
+    const i = o.truth.stacks.findIndex((t) => t.layers === 11 && Math.abs(t.cx - 283) < 2 && Math.abs(t.cy - 224) < 2);
+    expect(i).toBeGreaterThanOrEqual(0);
+    expect(sc.matchOf[i], 'the 11-layer stack is found').toBeGreaterThanOrEqual(0);
+    expect(res.sheets[sc.matchOf[i]].layers).toBe(11);
+    expect(sc.spurious).toBeLessThanOrEqual(1);
+  });
   it('counts a fine-period stack at its own period, not as every other layer at the coarse phase (two periods)', () => {
     // two phases at 3.18 and 6.23 px (ratio ≈ 2): before the test of the fundamental on the
     // stack's own axis, the 10-layer stack at 3.18 px read 5 at 6.36 px and the 6-layer one 3 at
