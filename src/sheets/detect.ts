@@ -805,6 +805,16 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
           }
         }
       }
+      // the candidate ridge of a thick band (40 px or more) may end well short of the stack's
+      // ends: a piece of one, shorter than 30 px or than its thickness, follows its own axis
+      // beyond its ends while its comb, with the same count, is still seen there nearly as
+      // strongly as along the piece (two fifths of its evidence per px); kept if it is then long enough
+      if (fit.layers >= 3 && fit.layers * periodPx >= 40 && polylineLengthOf(axisPx) < Math.max(minLengthPx, fit.layers * periodPx)) {
+        const seenEv = counts.positions.filter((q) => q.layers !== null && q.evidence >= 0.25 * minEvidence).map((q) => q.evidence);
+        const perPx = median(seenEv) / ((0.9 * pieceFrame.lengthPx) / counts.positions.length);
+        const longer = extendAxis(image, axisPx, fit.layers, fit.lineSigmaPx, periodPx, [limit[0] - mean(counts.offsets), limit[1] - mean(counts.offsets)], polarity, Math.max(0.25 * minEvidence, 0.4 * perPx * EXTEND_STEP_PX), mask);
+        if (polylineLengthOf(longer) >= Math.max(minLengthPx, fit.layers * periodPx)) axisPx = longer;
+      }
       const { positions, counted, edge } = counts;
       const piece: Piece = { axisPx, periodPx, uPeriodPx: uPeriod, periodSource, fitLayers: fit.layers, counted, edges: edge, positions, evidence: fit.evidence };
       const done = finishPiece(piece, minPeriodPx);
@@ -1008,6 +1018,63 @@ function fundamentalOnOwnAxis(image: GreyImage, axisPx: [number, number][], fit:
   const p = refined(atP);
   const h = refined(atHalf0);
   return (p.fit.rss - h.fit.rss) / h.fit.noiseVar >= FUNDAMENTAL_MIN_GAIN ? h : null;
+}
+
+/** Stretch of axis tried at a time beyond an end, px. */
+const EXTEND_STEP_PX = 16;
+
+/**
+ * A stack's axis followed beyond its ends: the straight continuation of each end (its direction
+ * over its last 20–40 px) is taken a stretch of {@link EXTEND_STEP_PX} at a time, and kept while
+ * the width-averaged profile of that stretch still fits the stack's comb with the same count,
+ * its centre within a period of the axis and at least the evidence asked for, at most as far as
+ * the stack is thick on each side.
+ * Region growing along a curvilinear axis (common practice).
+ *
+ * @param image the image
+ * @param axisPx the stack's own axis, px (middle of its thickness)
+ * @param layers the stack's layer count
+ * @param lineSigmaPx its layer line's width, px
+ * @param periodPx its period, px
+ * @param limitPx bins across the axis outside which lie other stacks, px
+ * @param polarity the layers' polarity
+ * @param minStretchEvidence the evidence a stretch needs
+ * @param mask pixels not searched (a scale bar's panel), or null
+ * @returns the axis with what was found beyond its ends (resampled every 2 px), or the axis itself
+ */
+function extendAxis(image: GreyImage, axisPx: [number, number][], layers: number, lineSigmaPx: number, periodPx: number, limitPx: [number, number], polarity: 'dark' | 'bright', minStretchEvidence: number, mask: Uint8Array | null): [number, number][] {
+  if (axisPx.length < 4) return axisPx;
+  const thickness = layers * periodPx;
+  const maxPx = Math.max(EXTEND_STEP_PX, thickness);
+  const half = thickness / 2 + Math.max(3 * periodPx, 8);
+  const inside = (x: number, y: number) => {
+    if (!(x >= 0 && y >= 0 && x <= image.width - 1 && y <= image.height - 1)) return false;
+    return !mask || mask[Math.round(y) * image.width + Math.round(x)] === 0;
+  };
+  const added: [number, number][][] = [[], []];
+  for (let e = 0; e < 2; e++) {
+    const n = axisPx.length;
+    const end = e === 0 ? axisPx[0] : axisPx[n - 1];
+    const reach = Math.max(10, Math.min(20, Math.floor(n / 3)));
+    const back = axisPx[e === 0 ? Math.min(n - 1, reach) : Math.max(0, n - 1 - reach)];
+    const dl = Math.hypot(end[0] - back[0], end[1] - back[1]);
+    if (dl < 4) continue;
+    const tx = (end[0] - back[0]) / dl;
+    const ty = (end[1] - back[1]) / dl;
+    for (let done = 0; done + EXTEND_STEP_PX <= maxPx + 1e-9; done += EXTEND_STEP_PX) {
+      const a: [number, number] = [end[0] + done * tx, end[1] + done * ty];
+      const b: [number, number] = [end[0] + (done + EXTEND_STEP_PX) * tx, end[1] + (done + EXTEND_STEP_PX) * ty];
+      if (![a, b].every((q) => inside(q[0] + half * ty, q[1] - half * tx) && inside(q[0] - half * ty, q[1] + half * tx))) break;
+      // the stretch, ordered as the axis is (so its normals point the same way)
+      const stretch = axisFrame(e === 0 ? [b, a] : [a, b]);
+      const pp = acrossProfile(image, stretch, { halfWidthPx: half });
+      const f = fitLayerComb(pp, periodPx, { fromPx: -thickness / 2, toPx: thickness / 2 }, { polarity, limitPx, countReach: 2, lineSigmasPx: [lineSigmaPx], centreReachPx: 0.75 * periodPx + 1 });
+      if (!f || f.evidence < minStretchEvidence || f.layers !== layers || Math.abs(f.centerPx) > periodPx) break;
+      added[e].push(b);
+    }
+  }
+  if (added[0].length === 0 && added[1].length === 0) return axisPx;
+  return resampleAxis([...added[0].reverse(), ...axisPx, ...added[1]]);
 }
 
 /** Share of a polyline's points that lie on a sheet's band (inside its length, within half its thickness and a period of its axis). */

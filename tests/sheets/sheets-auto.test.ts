@@ -141,6 +141,22 @@ describe('detectSheets', () => {
     expect(res.sheets[sc.matchOf[i]].layers).toBe(11);
     expect(sc.spurious).toBeLessThanOrEqual(1);
   });
+  it('follows a thick stack beyond the ends of a short candidate', () => {
+    // 9 layers at 8.34 px, 75 px thick and 153 px long, touching its neighbours (synthetic truth,
+    // testing/synthetic/overviews.ts): its candidate ridges are at most 47 px long, so its piece was
+    // shorter than its thickness and rejected; followed along its own axis it is 75 px long or more
+    const o = generateOverview('touching', 16);
+    const res = detectSheets(o.image);
+    const sc = scoreOverview(o.truth.stacks, res.sheets);
+    const i = o.truth.stacks.findIndex((t) => t.layers === 9 && Math.abs(t.cx - 306) < 2 && Math.abs(t.cy - 349) < 2);
+    expect(i).toBeGreaterThanOrEqual(0);
+    expect(sc.matchOf[i], 'the 9-layer stack is found').toBeGreaterThanOrEqual(0);
+    const s = res.sheets[sc.matchOf[i]];
+    expect(s.layers).toBe(9);
+    expect(s.lengthPx).toBeGreaterThanOrEqual(s.thicknessPx);
+    expect(s.lengthPx).toBeLessThanOrEqual(o.truth.stacks[i].lengthPx + 2 * o.truth.stacks[i].periodPx);
+    expect(sc.spurious).toBeLessThanOrEqual(1);
+  });
   it('counts a fine-period stack at its own period, not as every other layer at the coarse phase (two periods)', () => {
     // two phases at 3.18 and 6.23 px (ratio ≈ 2): before the test of the fundamental on the
     // stack's own axis, the 10-layer stack at 3.18 px read 5 at 6.36 px and the 6-layer one 3 at
