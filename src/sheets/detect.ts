@@ -720,6 +720,12 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
         uPeriod = r.uPx;
         fit = fitLayerComb(profile, periodPx, { fromPx: fit.centerPx - (fit.layers * periodPx) / 2, toPx: fit.centerPx + (fit.layers * periodPx) / 2 }, { polarity, limitPx: limit, countReach: 2 }) ?? r.fit;
         periodSource = 'stack';
+        // the comb reported must itself have the evidence asked for (its refit at the refined
+        // period may have less; a crossed lattice gave such a comb)
+        if (fit.evidence < minEvidence) {
+          reject(`too faint at its own period ${periodPx.toFixed(2)} px: evidence ${fit.evidence.toFixed(0)} below ${minEvidence}`, fit, periodPx);
+          continue;
+        }
         // a comb found only off the image's period must stay near it once refined (a refinement
         // that walks further has fitted another count, not a period read a few per cent high)
         if (retried && Math.abs(periodPx - imagePeriodPx) > 0.05 * imagePeriodPx) {
@@ -876,6 +882,12 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
     const sh = finishPiece(pc, minPeriodPx);
     if (sh.lengthPx < Math.max(minLengthPx, sh.thicknessPx)) {
       rejected.push({ centerPx: sh.centerPx, angleDeg: sh.angleDeg, layers: sh.layers, periodPx: sh.periodPx, reason: `${sh.lengthPx.toFixed(0)} px long: shorter than ${sh.lengthPx < minLengthPx ? `${minLengthPx} px` : 'its thickness'}` });
+      continue;
+    }
+    // a mono- or bilayer whose positions mostly disagree on its count (1, 2, 3 along it) is noise
+    // or crossed fringes, not a thin stack (the contrast of one or two lines is all it has)
+    if (sh.layers <= 2 && sh.confidence < 0.5) {
+      rejected.push({ centerPx: sh.centerPx, angleDeg: sh.angleDeg, layers: sh.layers, periodPx: sh.periodPx, reason: `${sh.layers === 1 ? 'a single line' : 'two lines'} counted alike at only ${Math.round(100 * sh.confidence)} % of its positions: not a thin stack` });
       continue;
     }
     kept.push(sh);

@@ -127,6 +127,16 @@ describe('detectSheets', () => {
     expect(Math.abs(res.periods[0].periodPx - o.truth.stacks[i].periodPx) / o.truth.stacks[i].periodPx).toBeLessThan(0.02);
     expect(sc.spurious).toBeLessThanOrEqual(1);
   });
+  it('reports no comb whose refit lacks the evidence, nor a thin stack whose positions disagree (crossed lattice)', () => {
+    // a crossed lattice (synthetic, testing/synthetic/overviews.ts: two fringe sets at 10.1 px, no
+    // stacks) gave a 6-layer sheet whose comb refitted at its own period had evidence 52 (below the
+    // 60 asked for) and a bilayer counted 3, 1 and 2 at its three positions
+    const o = generateOverview('crossed-lattice', 24);
+    const res = detectSheets(o.image);
+    expect(res.sheets).toEqual([]);
+    expect(res.rejected.some((r) => r.reason.startsWith('too faint at its own period'))).toBe(true);
+    expect(res.rejected.some((r) => r.reason.includes('not a thin stack'))).toBe(true);
+  });
   it('a short piece of a thick stack does not hide the stack: the stack is measured from another candidate', () => {
     // 11 layers at 7.51 px, 120 px long, 83 px thick (synthetic truth, testing/synthetic/overviews.ts):
     // its first candidate gave a piece 78 px long, shorter than the stack's thickness, so rejected;
