@@ -83,7 +83,11 @@ function copyDemo() {
 
 /**
  * The module `virtual:strata-panels`: one lazily loaded entry per components/*-panel.ts, in a
- * fixed order (measuring first, the rest by name), so a panel appears once its file exists.
+ * fixed order (measuring first, the rest by name), so a panel appears once its file exists. Each
+ * entry also carries what the tab row needs before the module is loaded, read from the source:
+ * the element's tag (`customElements.define('…'`), the tab label (`export const panelLabel = '…'`)
+ * and whether the panel is wide (`export const panelWide = true`). The shell can thus show every
+ * tab at start and load each panel's module (a chunk of its own) only when it is needed or idle.
  */
 function sidePanels() {
   const ID = 'virtual:strata-panels';
@@ -105,7 +109,15 @@ function sidePanels() {
           return ia - ib || a.localeCompare(b);
         });
       const label = (s) => s.split('-').map((w, i) => (i ? w : w[0].toUpperCase() + w.slice(1))).join(' ');
-      const lines = ids.map((p) => `  { id: ${JSON.stringify(p)}, label: ${JSON.stringify(label(p))}, load: () => import(${JSON.stringify(resolvePath('components', `${p}-panel.ts`))}) },`);
+      const lines = ids.map((p) => {
+        const file = resolvePath('components', `${p}-panel.ts`);
+        const source = readFileSync(file, 'utf8');
+        const tag = /customElements\.define\(\s*['"]([a-z][\w-]*-[\w-]*)['"]/.exec(source)?.[1];
+        if (!tag) throw new Error(`components/${p}-panel.ts defines no custom element (customElements.define('…', …)), so it cannot be a panel`);
+        const named = /^export const panelLabel\s*=\s*['"]([^'"]+)['"]/m.exec(source)?.[1];
+        const wide = /^export const panelWide\s*=\s*true\b/m.test(source);
+        return `  { id: ${JSON.stringify(p)}, label: ${JSON.stringify(named ?? label(p))}, tag: ${JSON.stringify(tag)}, wide: ${wide}, load: () => import(${JSON.stringify(file)}) },`;
+      });
       return `export const panels = [\n${lines.join('\n')}\n];\n`;
     },
   };

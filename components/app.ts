@@ -49,6 +49,7 @@ interface Message {
 interface Tab {
   id: string;
   label: string;
+  /** The panel's custom element (defined once its module is loaded); none for the library. */
   tag?: string;
   /** The panel shows its figures in the main area beside the image (module export `panelWide`). */
   wide?: boolean;
@@ -146,7 +147,8 @@ export class StrataApp extends LitElement {
   message: Message | null = null;
   storage: StorageEstimate | null = null;
   demos: DemoEntry[] = [];
-  tabs: Tab[] = [{ id: 'library', label: 'Library' }];
+  /** Every panel's tab is known from the build (virtual:strata-panels), before its module is loaded. */
+  tabs: Tab[] = [...(panels as PanelEntry[]).map((p) => ({ id: p.id, label: p.label, tag: p.tag, wide: p.wide })), { id: 'library', label: 'Library' }];
   activeTab = 'library';
   libraryRevision = 0;
   dragging = false;
@@ -273,7 +275,7 @@ export class StrataApp extends LitElement {
     }
     void requestPersistence().then(() => this.refreshStorage()).catch(() => undefined);
     void this.loadDemos();
-    void this.loadPanels();
+    this.preloadPanels();
     this.warmTextStrikes();
   }
 
@@ -336,27 +338,62 @@ export class StrataApp extends LitElement {
     }
   }
 
-  private async loadPanels(): Promise<void> {
-    const loaded: Tab[] = [];
-    for (const p of panels as PanelEntry[]) {
-      try {
-        const mod = (await p.load()) as Record<string, unknown>;
-        let tag: string | undefined;
-        for (const v of Object.values(mod)) {
-          if (typeof v === 'function' && v.prototype instanceof HTMLElement) {
-            tag = customElements.getName(v as CustomElementConstructor) ?? undefined;
-            if (tag) break;
+  /** Panels whose module is loaded (their element is made when first rendered). */
+  private readonly loadedPanels = new Set<string>();
+  private readonly panelLoads = new Map<string, Promise<boolean>>();
+
+  /**
+   * Loads a panel's module (a chunk of its own) once; its element is then made and handed the
+   * current state and, with an image open, its state from the undo history.
+   * @returns false when the module could not be loaded (its tab is then removed)
+   */
+  private ensurePanel(id: string): Promise<boolean> {
+    const entry = (panels as PanelEntry[]).find((p) => p.id === id);
+    if (!entry) return Promise.resolve(id === 'library');
+    let loading = this.panelLoads.get(id);
+    if (!loading) {
+      loading = entry.load().then(
+        async () => {
+          this.loadedPanels.add(id);
+          this.requestUpdate();
+          await this.updateComplete;
+          const el = this.panelElements.get(id) as (HTMLElement & { restoreState?: (s: unknown) => void }) | undefined;
+          if (this.history && typeof el?.restoreState === 'function') el.restoreState(currentState(this.history).panels[id] ?? null);
+          return true;
+        },
+        (e: unknown) => {
+          console.warn(`panel ${id} not loaded`, e);
+          this.tabs = this.tabs.filter((t) => t.id !== id);
+          if (this.activeTab === id) {
+            this.activeTab = 'library';
+            this.say(`The ${entry.label} panel could not be loaded (${(e as Error).message}).`, 'error');
           }
-        }
-        if (!tag) continue;
-        const label = typeof mod.panelLabel === 'string' ? mod.panelLabel : p.label;
-        loaded.push({ id: p.id, label, tag, wide: mod.panelWide === true });
-      } catch (e) {
-        console.warn(`panel ${p.id} not loaded`, e);
-      }
+          return false;
+        },
+      );
+      this.panelLoads.set(id, loading);
     }
-    this.tabs = [...loaded, { id: 'library', label: 'Library' }];
-    if (loaded.length && !this.image) this.activeTab = 'library';
+    return loading;
+  }
+
+  /**
+   * Loads the panels' modules after start-up, one per idle period (the shared plot module first,
+   * as a step of its own), so that starting the app evaluates only the shell, the viewer and the
+   * library, and no module graph of a panel adds to that task; a tab opened before its turn loads
+   * its panel at once. Sets the attribute `data-panels-loaded` on the shell when all are loaded.
+   */
+  private preloadPanels(): void {
+    const idle = (f: () => void) => ('requestIdleCallback' in globalThis ? requestIdleCallback(() => f(), { timeout: 1000 }) : setTimeout(f, 50));
+    const steps: (() => Promise<unknown>)[] = [() => import('./plot'), ...(panels as PanelEntry[]).map((p) => () => this.ensurePanel(p.id))];
+    const next = (): void => {
+      const step = steps.shift();
+      if (!step) {
+        this.dataset.panelsLoaded = '';
+        return;
+      }
+      void step().catch(() => undefined).then(() => idle(next));
+    };
+    idle(next);
   }
 
   private async refreshStorage(): Promise<void> {
@@ -434,6 +471,7 @@ export class StrataApp extends LitElement {
     const tab = this.tabs.find((t) => t.id === 'diffraction');
     if (!tab) return 'no diffraction panel in this build';
     this.activeTab = 'diffraction';
+    if (!(await this.ensurePanel('diffraction'))) return 'the diffraction panel could not be loaded';
     await this.updateComplete;
     const detail = { fileName, text, accepted: false };
     this.panelElements.get('diffraction')?.dispatchEvent(new CustomEvent(kind === 'structure' ? 'open-structure' : 'open-pattern', { detail }));
@@ -731,6 +769,8 @@ export class StrataApp extends LitElement {
 
   protected override updated(changed: PropertyValues<this>): void {
     if (changed.has('activeTab') || changed.has('tabs') || changed.has('image') || changed.has('roomy')) this.keepSelectedTabInView();
+    // a tab opened before its panel's turn to load while idle loads it now
+    if (changed.has('activeTab')) void this.ensurePanel(this.activeTab);
     // Panels are plain custom elements of other modules: hand them the current state. The visible
     // panel gets it now; each hidden panel re-renders later in a task of its own, so opening an
     // image does not render every panel in one long task (a panel shown gets the state at once).
@@ -862,7 +902,7 @@ export class StrataApp extends LitElement {
 
   private renderPanel(t: Tab) {
     let el = this.panelElements.get(t.id);
-    if (!el && t.tag) {
+    if (!el && t.tag && this.loadedPanels.has(t.id)) {
       el = document.createElement(t.tag);
       el.dataset.panel = t.id;
       this.panelElements.set(t.id, el);

@@ -3,10 +3,13 @@ import { TOOLS } from '../src/measure/tools';
 import { LitElement, css, html, nothing, type PropertyValues } from 'lit';
 import type { LibraryDb } from '../src/store/schema';
 import { deleteImage, listImages, listMeasurements } from '../src/store/library';
-import { exportLibrary, importLibrary } from '../src/store/exchange';
 import type { ImageRecord, Measurement } from '../src/store/records';
 import { controlStyles, listPanelStyles } from './styles';
 import { download } from './download';
+
+// The library's export and import (and the decoders and checks they bring) load when first used,
+// not with the shell at start-up.
+const exchange = () => import('../src/store/exchange');
 
 interface Row {
   record: ImageRecord;
@@ -135,7 +138,7 @@ export class StrataLibrary extends LitElement {
     if (!this.db) return;
     this.busy = true;
     try {
-      const json = await exportLibrary(this.db);
+      const json = await (await exchange()).exportLibrary(this.db);
       download(`stratameter-library-${new Date().toISOString().slice(0, 10)}.json`, json, 'application/json');
       this.say(`Exported ${this.rows.length} image${this.rows.length === 1 ? '' : 's'} with their results (${formatBytes(json.length)}).`);
     } catch (e) {
@@ -152,7 +155,7 @@ export class StrataLibrary extends LitElement {
     if (!file || !this.db) return;
     this.busy = true;
     try {
-      const s = await importLibrary(this.db, await file.text(), { fileName: file.name });
+      const s = await (await exchange()).importLibrary(this.db, await file.text(), { fileName: file.name });
       const n = (k: number, one: string, many = `${one}s`) => `${k} ${k === 1 ? one : many}`;
       const took = `Imported ${file.name}: ${n(s.images, 'image')}, ${n(s.measurements, 'result')}, ${n(s.calibrations, 'calibration profile')}, ${n(s.diffraction, 'diffraction set')}, ${n(s.recipes, 'recipe')}, ${n(s.batches, 'batch', 'batches')}.`;
       if (s.skipped.length === 0) this.say(took);

@@ -11,6 +11,7 @@ import type { Region } from '../measure/measurement';
 import { histogram } from '../measure/stats';
 import { displayLimits, stretchToGrey } from '../image/display';
 import { lengthLabel } from './ticks';
+import { escapeXml } from './xml';
 import type { FileResult } from '../batch/run';
 
 /** Options for `roundScaleBar`. */
@@ -143,10 +144,8 @@ export function annotatedFigurePng(image: GreyImage, result: FileResult, regions
   return encode({ width: r.width, height: r.height, data: bytes, channels: 1, depth: 8 });
 }
 
-/** Text for an SVG or XML document: & < > " escaped (XML 1.0 §2.4). */
-export function escapeXml(s: string): string {
-  return s.replace(/&/g, '&amp;').replace(/</g, '&lt;').replace(/>/g, '&gt;').replace(/"/g, '&quot;');
-}
+/** Text for an SVG or XML document (kept here for the modules that import it from here). */
+export { escapeXml };
 
 function tick(v: number): string {
   return String(Number(v.toPrecision(4)));

@@ -4,7 +4,7 @@
  * bands. `plotSvg` draws it as a stand-alone SVG document (the exported figure, the report's plot),
  * `plotTable` gives its data as a table (the text alternative and the CSV of a plot).
  */
-import { escapeXml } from './batch-figure';
+import { escapeXml } from './xml';
 import { placeLabels, ruleLabelCandidates, textWidthEstimate } from './labels';
 import { niceTicks, tickText } from './ticks';
 import type { CsvCell } from '../measure/tools';

@@ -114,6 +114,23 @@ export async function watchLongTasks(page: Page): Promise<void> {
   });
 }
 
+/**
+ * Waits until the shell shows the start screen and has loaded every panel's module (the attribute
+ * `data-panels-loaded`), polling inside the page: no Playwright locator, whose selector engine is
+ * evaluated in the page in a long task of its own that a timed start-up would then include.
+ */
+export async function waitForPanelsLoaded(page: Page): Promise<void> {
+  await page.waitForLoadState('domcontentloaded');
+  await page.evaluate(() => new Promise<void>((done) => {
+    const check = (): void => {
+      const app = document.querySelector('strata-app');
+      if (app?.hasAttribute('data-panels-loaded') && app.shadowRoot?.querySelector('button.demo')) done();
+      else setTimeout(check, 50);
+    };
+    check();
+  }));
+}
+
 /** The page's time now (performance.now()), to pass to {@link longestTaskSince}. */
 export async function pageNow(page: Page): Promise<number> {
   return page.evaluate(() => performance.now());

@@ -1,11 +1,11 @@
 // The installed app offline: the service worker precaches everything (opencv.js included), a
 // demo micrograph opens and is drawn with no network, it is kept in the library across reloads,
 // and no request ever leaves 127.0.0.1.
-import { mkdtempSync } from 'node:fs';
+import { mkdtempSync, readdirSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, expect, test } from 'vitest';
-import { foreignRequests, openSession, type Session } from './browser';
+import { foreignRequests, openSession, waitForPanelsLoaded, type Session } from './browser';
 
 let s: Session;
 const shots = mkdtempSync(join(tmpdir(), 'strata-shots-'));
@@ -64,6 +64,11 @@ test('first visit: the service worker installs, precaches opencv.js and takes co
   for (const p of ['/index.html', '/app.js', '/compute-worker.js', '/app.css', '/manifest.webmanifest', '/demo/index.json']) {
     expect(paths).toContain(p);
   }
+  // every chunk of the build, each panel's own chunk among them (they load after start-up, when
+  // idle or when their tab is opened, so a chunk missing from the precache breaks that tab offline)
+  const chunks = readdirSync('dist/chunks').filter((f) => f.endsWith('.js')).map((f) => `/chunks/${f}`);
+  expect(chunks.filter((c) => /-panel-[\w-]+\.js$/.test(c)).length).toBeGreaterThanOrEqual(6);
+  expect(chunks.filter((c) => !paths.includes(c))).toEqual([]);
 });
 
 test('the web app manifest makes the app installable: standalone, with its icons served', async () => {
@@ -102,6 +107,21 @@ test('offline: a demo micrograph opens, is drawn, is stored, and the measuring e
   expect(await s.page.locator('strata-app').getAttribute('data-engine')).toMatch(/^4\./);
   await s.page.screenshot({ path: join(shots, '2-demo-open.png') });
   expect(title.length).toBeGreaterThan(0);
+});
+
+test('offline, on a fresh page: every panel loads from the precache and each tab shows its panel', async () => {
+  await s.page.reload();
+  await waitForPanelsLoaded(s.page);
+  const tabs = s.page.locator('strata-app [role="tab"]');
+  const labels = (await tabs.allTextContents()).map((t) => t.trim());
+  expect(labels.length).toBeGreaterThanOrEqual(7);
+  for (const label of labels.filter((l) => l !== 'Library')) {
+    await tabs.filter({ hasText: label }).click();
+    const panel = s.page.locator('strata-app [role="tabpanel"]:not([hidden]) > *');
+    // the panel's element is defined (its module ran) and has drawn its controls
+    expect(await panel.evaluate((el) => !!customElements.get(el.localName) && (el.shadowRoot?.childElementCount ?? 0) > 0), label).toBe(true);
+  }
+  await s.page.locator('strata-app [role="tab"]', { hasText: 'Library' }).click();
 });
 
 test('offline again after a reload: the image is in the library, and opens from it', async () => {
