@@ -15,6 +15,7 @@ import type { ElectronCameraResult } from './compute-protocol';
 import { controlStyles, panelStyles } from './styles';
 import './export-menu';
 import type { ExportTable } from './export-menu';
+import { spacedHkl } from '../src/figure/reflection-index';
 
 // 'SAED' (selected-area electron diffraction): a tab label that does not contain the X-ray tab's 'Diffraction'
 export const panelLabel = 'SAED';
@@ -182,7 +183,7 @@ export class StrataElectronPanel extends LitElement {
     return {
       noun: 'ring', name: 'camera-constant',
       header: ['hkl', 'radiusPx', 'standardDNm', 'ringKInvNmPerPx', 'relResidualFromK'],
-      rows: c.rings.map((r) => [r.hkl.join(' '), r.ring.radiusPx, r.dNm, r.kInvNmPerPx, r.relResidual]),
+      rows: c.rings.map((r) => [spacedHkl(r.hkl), r.ring.radiusPx, r.dNm, r.kInvNmPerPx, r.relResidual]),
       notes: [`K = ${sig(c.kInvNmPerPx)} nm^-1 per px, relative standard uncertainty ${sig(c.relUncertainty, 3)} (k = 1): ${c.parts.map((p) => `${p.name} ${sig(p.rel, 3)}`).join(', ')}`,
         `standard: ${c.standard.name} (${c.standard.source})`],
       json: { cameraConstant: c, uncertaintyNote: 'relUncertainty and parts are relative standard uncertainties (k = 1)' },
@@ -213,7 +214,7 @@ export class StrataElectronPanel extends LitElement {
       <p class="num">ellipticity ${(100 * c.ellipticity).toFixed(2)} ± ${(200 * c.uEllipticity).toFixed(2)} %, major axis ${c.majorAxisDeg.toFixed(1)}°; centre ${c.analysis.geometry.cx.toFixed(2)}, ${c.analysis.geometry.cy.toFixed(2)} px</p>
       <table>
         <thead><tr><th>hkl</th><th>radius (px)</th><th>d (nm)</th><th>ring's K − K</th></tr></thead>
-        <tbody>${c.rings.map((r) => html`<tr><td>${r.hkl.join('')}</td><td>${r.ring.radiusPx.toFixed(2)}</td><td>${r.dNm.toFixed(5)}</td><td>${(100 * r.relResidual).toFixed(3)} %</td></tr>`)}</tbody>
+        <tbody>${c.rings.map((r) => html`<tr><td>${spacedHkl(r.hkl)}</td><td>${r.ring.radiusPx.toFixed(2)}</td><td>${r.dNm.toFixed(5)}</td><td>${(100 * r.relResidual).toFixed(3)} %</td></tr>`)}</tbody>
       </table>
       ${c.unindexedRadiiPx.length ? html`<p class="muted">Not indexed: rings at ${c.unindexedRadiiPx.map((r) => r.toFixed(1)).join(', ')} px.</p>` : nothing}
       ${c.standard.source.includes('from memory') ? html`<p class="muted">The standard's lattice parameter is a value from memory; its allowance is in the uncertainty.</p>` : nothing}

@@ -12,7 +12,7 @@ import { loadAndAnalyse } from './xrd';
 import { CifError, parseCif, powderReflections } from '../diffraction/cif';
 import { ReportError, readMeasurementReport } from '../diffraction/measurement-report';
 import { reconcile, type DiffractionLine, type MicrographPeriod, type SheetStats } from '../diffraction/reconcile';
-import { spacedLineLabel } from '../figure/reflection-index';
+import { spacedHkl, spacedLineLabel } from '../figure/reflection-index';
 
 const usage = `Usage: stratameter reconcile --pattern PATTERN | --saed SAED.json [--cif CIF] MEASUREMENT.json...
                              [--wavelength W] [--z-max Z] [--all-lines] [--json]
@@ -132,7 +132,9 @@ export const command: CliCommand = {
     const series = analysis?.series ?? [];
     for (const s of series) for (const m of s.members) seriesLabel.set(m.peak, s.kind === 'lamellar' ? m.index : `${s.kind} ${m.index}`);
     const hklOf = new Map<number, string>();
-    for (const ph of analysis?.indexing.phases ?? []) for (const l of ph.lines) hklOf.set(l.peak, l.hkl.join(' '));
+    // an indexed line names its phase when several are indexed ('2: 0 0 1'), as xrd's peak table and the app do
+    const phases = analysis?.indexing.phases ?? [];
+    phases.forEach((ph, j) => { for (const l of ph.lines) if (!hklOf.has(l.peak)) hklOf.set(l.peak, `${phases.length > 1 ? `${j + 1}: ` : ''}${spacedHkl(l.hkl)}`); });
     const lines: DiffractionLine[] = (analysis?.peaks ?? []).map((p, i) => ({
       dNm: p.dCorrectedNm,
       dUncNm: p.budget.combinedNm,
@@ -177,7 +179,7 @@ export const command: CliCommand = {
       }
       for (const r of reflections) {
         if (r.intensity < 0.5) continue;
-        lines.push({ dNm: r.dNm, dUncNm: r.dNm * relSu, label: `${phase} ${r.hkl.join(' ')}`, phase, intensity: r.intensity });
+        lines.push({ dNm: r.dNm, dUncNm: r.dNm * relSu, label: `${phase} ${spacedHkl(r.hkl)}`, phase, intensity: r.intensity });
       }
       notes.push(...st.notes.map((n) => `${basename(cifPath)}: ${n}`));
     }

@@ -12,6 +12,7 @@ import type { RingAnalysis } from '../diffraction/electron/rings';
 import { electronDiffractionSet, measureElectronPattern, type CameraSetting, type PatternMeasurement } from '../diffraction/electron/measure';
 import { RING_STANDARDS, ringStandard, userRingStandard, type RingStandard } from '../diffraction/electron/standards';
 import { electronWavelengthForKv, VOLTAGE_RANGE_KV } from '../diffraction/electron/wavelength';
+import { spacedHkl } from '../figure/reflection-index';
 
 const usage = `Usage: stratameter saed PATTERN --standard ID|cubic:A±U[:F|I|P] [--kv V] [--detector-pixel-um P]
                           [--save-camera FILE] [--json]
@@ -126,8 +127,8 @@ export function formatCamera(c: CameraConstant & { analysis: RingAnalysis }, fil
   const g = c.analysis.geometry;
   L.push(`centre         x ${g.cx.toFixed(2)} ± ${(2 * c.analysis.uCx).toFixed(2)}, y ${g.cy.toFixed(2)} ± ${(2 * c.analysis.uCy).toFixed(2)} px (k = 2)${c.analysis.maskedPx ? `; ${c.analysis.maskedPx} px masked (beam stop, clipping)` : ''}`);
   L.push('');
-  L.push('  hkl   radius (px)   d standard (nm)   K of ring − K');
-  for (const r of c.rings) L.push(`  ${r.hkl.join('').padEnd(4)}  ${r.ring.radiusPx.toFixed(3).padStart(11)}   ${r.dNm.toFixed(5).padStart(15)}   ${(100 * r.relResidual).toFixed(3).padStart(8)} %`);
+  L.push('  hkl     radius (px)   d standard (nm)   K of ring − K');
+  for (const r of c.rings) L.push(`  ${spacedHkl(r.hkl).padEnd(6)}  ${r.ring.radiusPx.toFixed(3).padStart(11)}   ${r.dNm.toFixed(5).padStart(15)}   ${(100 * r.relResidual).toFixed(3).padStart(8)} %`);
   if (c.unindexedRadiiPx.length) L.push(`not indexed: rings at ${c.unindexedRadiiPx.map((r) => r.toFixed(1)).join(', ')} px`);
   L.push(`Birge ratio ${c.birgeRatio.toFixed(2)} over ${c.rings.length} rings`);
   for (const n of c.analysis.notes) L.push(`note: ${n}`);

@@ -12,7 +12,7 @@ import { pm, sig, tidy, tidyU } from '../diffraction/format';
 import { checkInstrumentProfile } from '../diffraction/instrument';
 import { internalStandardFrom } from '../diffraction/internal-standard';
 import { writeFile } from 'node:fs/promises';
-import { spacedIndex } from '../figure/reflection-index';
+import { spacedHkl, spacedIndex } from '../figure/reflection-index';
 
 const usage = `Usage: stratameter xrd PATTERN [--wavelength W] [--axis 2theta|q-nm|q-A] [--k K]
                        [--standard PATTERN [--save-instrument OUT.json] | --instrument PROFILE.json
@@ -233,7 +233,7 @@ function table(path: string, a: PatternAnalysis): string {
   lines.push('');
   lines.push('   2θ (°)              d (nm)                 FWHM (°)   height   size (nm)   hkl');
   const hklOf = new Map<number, string>();
-  a.indexing.phases.forEach((ph, j) => ph.lines.forEach((l) => hklOf.set(l.peak, `${a.indexing.phases.length > 1 ? `${j + 1}:` : ''}${l.hkl.join(' ')}`)));
+  a.indexing.phases.forEach((ph, j) => ph.lines.forEach((l) => { if (!hklOf.has(l.peak)) hklOf.set(l.peak, `${a.indexing.phases.length > 1 ? `${j + 1}: ` : ''}${spacedHkl(l.hkl)}`); }));
   a.peaks.forEach((p, i) => {
     const tt = p.twoThetaDeg === null ? '—' : pm(p.twoThetaDeg, p.twoThetaUncDeg);
     const d = pm(p.dCorrectedNm, K * p.budget.combinedNm);

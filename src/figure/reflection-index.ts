@@ -24,6 +24,20 @@ export function spacedIndex(index: string): string {
   return index;
 }
 
+/**
+ * An indexed reflection's Miller indices as shown: "1 1 1", "2 2 0", "1 0 10", "-1 1 0" (the same
+ * form as {@link spacedIndex} gives a series member, and as the tables' hkl columns have).
+ * @param hkl the indices (h k l, or h k for a 2D lattice, or h k i l)
+ * @returns the indices separated by single spaces
+ * @throws TypeError naming a value that is not a list of two to four integers
+ */
+export function spacedHkl(hkl: readonly number[]): string {
+  if (!Array.isArray(hkl) || hkl.length < 2 || hkl.length > 4 || !hkl.every((v) => Number.isInteger(v))) {
+    throw new TypeError(`spacedHkl: hkl must be a list of two to four integers, got ${JSON.stringify(hkl) ?? String(hkl)}`);
+  }
+  return hkl.join(' ');
+}
+
 /** The series kinds whose members a line's label may name ("hexagonal 10"); a lamellar member is named by its index alone. */
 const SERIES_KINDS: Record<SeriesKind, true> = { lamellar: true, hexagonal: true, Ia3d: true, Pn3m: true, Im3m: true, Fm3m: true };
 

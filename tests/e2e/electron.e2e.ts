@@ -4,6 +4,7 @@
 // (testing/synthetic/electron-pattern.ts; targets of issue 14: K within 0.1 %, d within 0.2 %).
 // The worker measures the pattern its session holds: the panel's numbers are the core's on the
 // file decoded here, and each file's bytes are sent once, to open it, never pixels afterwards.
+import { join } from 'node:path';
 import { afterAll, beforeAll, expect, test } from 'vitest';
 import { calibrateCameraConstant } from '../../src/diffraction/electron/camera-constant';
 import { measureElectronPattern } from '../../src/diffraction/electron/measure';
@@ -11,7 +12,7 @@ import { ringStandard, standardRings } from '../../src/diffraction/electron/stan
 import { decodeImage } from '../../src/image/decode';
 import { encodeTiff } from '../../testing/encode-tiff';
 import { electronPattern, type PatternSpec } from '../../testing/synthetic/electron-pattern';
-import { csvRows, downloadedText, callsWithPixelsAfterOpen, computeCalls, openSession, recordComputeCalls, type Session, nextFrames } from './browser';
+import { csvRows, downloadedText, callsWithPixelsAfterOpen, computeCalls, openSession, recordComputeCalls, type Session, nextFrames, artefactDir } from './browser';
 
 let s: Session;
 const errors: string[] = [];
@@ -77,6 +78,13 @@ test('calibrate on gold, measure a sample, store it', async () => {
   const here = calibrateCameraConstant(decodeImage(new Uint8Array(gold), 'gold-rings.tif'), ringStandard('au'), { voltageKv: 200 });
   expect(Math.abs(k! / here.kInvNmPerPx - 1)).toBeLessThan(1e-12);
   if (process.env.SCREENSHOT_DIR) await s.page.screenshot({ path: `${process.env.SCREENSHOT_DIR}/electron-calibrate.png` });
+  // one index style everywhere: the ring table's hkl spaced, as the other panels' (Au fcc: 111, 200, 220, …)
+  const hkl = (await panel().locator('table').first().locator('tbody tr td:first-child').allTextContents()).map((t) => t.trim());
+  expect(hkl.slice(0, 3)).toEqual(['1 1 1', '2 0 0', '2 2 0']);
+  await s.page.setViewportSize({ width: 1366, height: 768 });
+  await nextFrames(s.page);
+  await s.page.screenshot({ path: join(artefactDir('electron'), 'saed-rings-1366.png') });
+  await s.page.setViewportSize({ width: 1400, height: 900 });
 
   const sample = tiff({ rings: SAMPLE.map((d, i) => ({ gInvNm: 1 / d, intensity: [1, 0.7, 0.5][i] })), cx: 236.1, cy: 246.9, seed: 62 });
   await open('sample-rings.tif', sample, 480);

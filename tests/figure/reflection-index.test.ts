@@ -2,7 +2,7 @@
 // writes them. Cases: a lamellar series' 001–0012, cubic 211, 2D hexagonal 10 (the series search's
 // own index lists, src/diffraction/series.ts).
 import { expect, test } from 'vitest';
-import { spacedIndex, spacedLineLabel } from '../../src/figure/reflection-index';
+import { spacedHkl, spacedIndex, spacedLineLabel } from '../../src/figure/reflection-index';
 
 test('series indices are written spaced, an index of ten or more stays whole', () => {
   expect(spacedIndex('001')).toBe('0 0 1');
@@ -27,4 +27,15 @@ test('a line label shows a series member spaced and leaves every other label as 
   expect(spacedLineLabel('typed 12')).toBe('typed 12');
   expect(spacedLineLabel('peak 7.0659°')).toBe('peak 7.0659°');
   expect(() => spacedLineLabel(null as never)).toThrow(/must be a string/);
+});
+
+test('an indexed reflection is written as a series member is: spaced, whole past nine, with its sign', () => {
+  // Au rings 111, 200, 220 (fcc, reference-values.md); 1 0 10 and -1 1 0 would be ambiguous closed up
+  expect([[1, 1, 1], [2, 0, 0], [2, 2, 0]].map(spacedHkl)).toEqual(['1 1 1', '2 0 0', '2 2 0']);
+  expect(spacedHkl([1, 0, 10])).toBe('1 0 10');
+  expect(spacedHkl([-1, 1, 0])).toBe('-1 1 0');
+  expect(spacedHkl([1, 0])).toBe(spacedIndex('10'));
+  expect(spacedHkl([0, 0, 12])).toBe(spacedIndex('0012'));
+  expect(() => spacedHkl([1.5, 0, 0])).toThrow(/two to four integers, got \[1.5,0,0\]/);
+  expect(() => spacedHkl([1] as never)).toThrow(/two to four integers/);
 });

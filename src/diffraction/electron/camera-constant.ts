@@ -187,7 +187,7 @@ export function calibrateCameraConstant(image: GreyImage, standard: RingStandard
     rings,
     unindexedRadiiPx: ix.unindexed.map((r) => r.radiusPx),
     birgeRatio: birge,
-    detail: `${standard.name} rings ${rings.map((r) => r.hkl.join('')).join(', ')}: K = ${sig(k)} nm⁻¹/px ± ${pct(relU)} (k = 1; radii ${pct(relRadii)}, lattice parameter ${pct(relStd)}), λL = ${sig(lambdaL)} nm·px; ellipticity ${(100 * analysis.ellipticity).toFixed(2)} ± ${(100 * analysis.uEllipticity).toFixed(2)} %, major axis ${analysis.majorAxisDeg.toFixed(1)}°`,
+    detail: `${standard.name} rings ${rings.map((r) => r.hkl.join(' ')).join(', ')}: K = ${sig(k)} nm⁻¹/px ± ${pct(relU)} (k = 1; radii ${pct(relRadii)}, lattice parameter ${pct(relStd)}), λL = ${sig(lambdaL)} nm·px; ellipticity ${(100 * analysis.ellipticity).toFixed(2)} ± ${(100 * analysis.uEllipticity).toFixed(2)} %, major axis ${analysis.majorAxisDeg.toFixed(1)}°`,
     analysis,
   };
 }

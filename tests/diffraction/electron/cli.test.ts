@@ -40,7 +40,10 @@ test('calibrate on gold, save the camera, measure a sample: text, JSON and the s
   expect(text).toMatch(/camera const\.\s+K = 0\.05\d+ nm⁻¹ per px ± [\d.]+ % \(k = 2; contains ring radii/);
   expect(text).toMatch(/wavelength\s+2\.5079 pm at 200 kV/); // reference-values §4
   expect(text).toMatch(/ellipticity\s+1\.\d\d ± /);
-  expect(text).toMatch(/^ {2}111 /m);
+  // one index style everywhere (src/figure/reflection-index.ts): the ring table's hkl spaced, never closed up
+  expect(text).toMatch(/^ {2}1 1 1 {3}/m);
+  expect(text).toMatch(/^ {2}2 2 0 {3}/m);
+  expect(text).not.toMatch(/^ {2}\d{3} /m);
   const saved = JSON.parse(readFileSync(camFile, 'utf8'));
   expect(saved.kind).toBe('stratameter-camera-constant');
   expect(Math.abs(saved.kInvNmPerPx / K - 1)).toBeLessThan(0.001);
@@ -56,6 +59,8 @@ test('calibrate on gold, save the camera, measure a sample: text, JSON and the s
   const t = capture();
   expect(await main(['saed', sample, '--camera', camFile, '--rings'], t.io)).toBe(0);
   expect(t.out.join('')).toMatch(/d ± U: k = 2, contains the radius/);
+  // the saved camera constant's detail names its rings the same way (Au fcc: 111, 200, 220, …)
+  expect(t.out.join('')).toMatch(/^camera\s+.*rings 1 1 1, 2 0 0, 2 2 0,/m);
 }, 60000);
 
 test('bad input: each gets a message saying what is missing', async () => {
