@@ -744,6 +744,7 @@ export class StrataApp extends LitElement {
     setTimeout(() => {
       this.sideReady = true;
       this.requestUpdate();
+      void this.updateComplete.then(() => this.keepSelectedTabInView());
     }, 0);
     const aside = this.renderRoot.querySelector('aside');
     for (const t of ['status-message', 'overlay-shapes', 'calibration-changed', 'library-changed', 'open-image', 'history-step']) {
