@@ -903,7 +903,9 @@ function backgroundWithout(ctx: Context, fits: GroupFit[], members: Member[], ha
  *   valleys into windows fitted in turn with the other windows' peaks held fixed; the residual is
  *   searched at the group's typical width and broader (a lost broad line of another phase comes
  *   back free at its own width, not cut into narrow pieces); a broad line is only taken for two
- *   narrow ones when the pair keeps its area;
+ *   narrow ones when the pair keeps its area; a window whose lines all lose their significance at
+ *   once on a new background estimate (one taken under a long stretch of peak cores, such as a
+ *   band with lines on its tail) is fitted on the previous pass's background, shown under it too;
  * - a free η is restrained towards the pattern's η trend (± 0.3), so a weak line's shape does not
  *   wander to a pure Gaussian and take its width and area with it (a restraint in the sense of
  *   Waser, Acta Cryst. 16, 1091, 1963);
@@ -945,7 +947,12 @@ export function fitPattern(pattern: Pattern, options: FitOptions = {}): PatternF
   }
   const residualSearch = options.residualSearch ?? !given;
   let fits: GroupFit[] = [];
+  // the background of the pass before (null in the first) and where this pass kept it
+  let previousBackground: Float64Array | null = null;
+  let spliced = background;
   for (let pass = 0; pass < 3; pass++) {
+    spliced = Float64Array.from(background);
+    const fromLastPass = new Set(given ? [] : members.map((m) => m.c));
     // candidates of this pass: the peaks kept so far, and new maxima of the net pattern
     let cands: Member[];
     if (given) {
@@ -996,12 +1003,22 @@ export function fitPattern(pattern: Pattern, options: FitOptions = {}): PatternF
       // search inside each window (a weak line on a strong one's flank is found there too)
       const now: Member[][] = windows.map((w) => w.map((m) => ({ ...m })));
       const got: (GroupFit | null)[] = windows.map(() => null);
+      const lastBackground: boolean[] = windows.map(() => false);
       const sweeps = windows.length > 1 ? 2 : 1;
       const early: PatternFit['rejected'] = [];
       for (let sweep = 0; sweep < sweeps; sweep++) {
         for (let k = 0; k < windows.length; k++) {
           if (now[k].length === 0) continue;
-          const bgK = windows.length > 1 ? withHeld(ctx, background, now.filter((_, j) => j !== k).flat()) : background;
+          // a window of lines the last pass found whose fit on this pass's background loses every
+          // line's significance at once is fitted on the last pass's background instead: a new
+          // background that went wrong under a broad band (a long stretch masked by peak cores)
+          // must not make the window give up its lines one by one and let narrow pieces take their place
+          if (sweep === 0 && previousBackground && now[k].some((m) => fromLastPass.has(m.c))) {
+            const trial = fitGroup(ctx, now[k], windows.length > 1 ? withHeld(ctx, background, now.filter((_, j) => j !== k).flat()) : background);
+            lastBackground[k] = trial !== null && trial.members.every((m) => m.given || zOf(m) < ctx.zCrit);
+          }
+          const bgUsed = lastBackground[k] ? previousBackground! : background;
+          const bgK = windows.length > 1 ? withHeld(ctx, bgUsed, now.filter((_, j) => j !== k).flat()) : bgUsed;
           const f = settleGroup(ctx, now[k], bgK, residualSearch, sweep === sweeps - 1 ? rejected : early);
           if (f) {
             got[k] = f;
@@ -1012,13 +1029,19 @@ export function fitPattern(pattern: Pattern, options: FitOptions = {}): PatternF
       // what the first sweep rejected stays rejected unless the second found a line there
       const kept = now.flat();
       for (const r of early) if (!kept.some((m) => Math.abs(m.c - r.position) < 0.5 * m.w) && !rejected.some((q) => Math.abs(q.position - r.position) < ctx.step)) rejected.push(r);
-      for (const f of got) {
-        if (!f) continue;
+      got.forEach((f, k) => {
+        if (!f) return;
+        // the background shown under such a window is the one its lines were fitted on
+        if (lastBackground[k]) {
+          for (let i = f.i0; i <= f.i1; i++) spliced[i] = previousBackground![i];
+          notes.push(`lines at ${f.members[0].c.toPrecision(4)}–${f.members[f.members.length - 1].c.toPrecision(4)} fitted on the previous background estimate: on the last one every line of their window lost its significance`);
+        }
         fits.push(f);
         members.push(...f.members.map((m) => ({ c: m.c, a: m.a, w: m.w, eta: m.eta, rho: m.rho, split: m.split, given: m.given, init: { c: m.c, a: m.a, w: m.w } })));
-      }
+      });
     }
     if (pass === 2) break;
+    previousBackground = background;
     ctx.trend = widthTrend(ctx, fits) ?? ctx.trend;
     // background again, from the pattern less every fitted profile (tails included); the cores,
     // where a profile error would matter most, are left out
@@ -1026,6 +1049,7 @@ export function fitPattern(pattern: Pattern, options: FitOptions = {}): PatternF
     background = backgroundWithout(ctx, fits, members, halfWidth, 1);
     if (pass === 0) rejected.length = 0; // what the first background suggested is decided again on the better one
   }
+  background = spliced;
   // asymmetric profiles: the band test on strong, broad peaks, each fitted alone (the others
   // subtracted) over a window reaching far to high angle, on a background taken with a window three
   // times wider, so that a long tail is not mistaken for background
