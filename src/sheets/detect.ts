@@ -785,9 +785,12 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
       // a comb of every other layer: on a candidate axis a little oblique to the layers, the
       // fine fringes wash out and a comb at twice the period fits the band; on the stack's own
       // axis the fundamental is tested against it
+      // (the image's finer phase when its periodograms found one; otherwise the stack's own
+      // strongest fringes near p/2: a phase a harmonic of another outvoted in the periodograms)
       const finer = given === undefined && fit.layers >= 2 ? tryPeriods.find((q) => q >= minPeriodPx && Math.abs(q - periodPx / 2) <= 0.15 * (periodPx / 2)) : undefined;
-      if (finer !== undefined) {
-        const sub = fundamentalOnOwnAxis(image, axisPx, fit, periodPx, finer, polarity);
+      const unvoted = given === undefined && fit.layers >= 2 && finer === undefined && periodPx / 2 >= minPeriodPx / 0.85;
+      if (finer !== undefined || unvoted) {
+        const sub = fundamentalOnOwnAxis(image, axisPx, fit, periodPx, finer ?? null, polarity, minPeriodPx);
         if (sub) {
           // recounted along the stack's own axis (the fine fringes wash out along the candidate's)
           const own = axisFrame(axisPx);
@@ -1017,12 +1020,16 @@ export const FUNDAMENTAL_MIN_GAIN = 12;
  * Notes: only a phase the image's periodograms found is tried, so a lone stack is not halved by
  * noise at low dose.
  */
-function fundamentalOnOwnAxis(image: GreyImage, axisPx: [number, number][], fit: CombFit, periodPx: number, finerPx: number, polarity: 'dark' | 'bright'): { fit: CombFit; periodPx: number; uPx: number } | null {
+function fundamentalOnOwnAxis(image: GreyImage, axisPx: [number, number][], fit: CombFit, periodPx: number, finerPx: number | null, polarity: 'dark' | 'bright', minPeriodPx: number): { fit: CombFit; periodPx: number; uPx: number } | null {
   const own = axisFrame(axisPx);
   const L = own.lengthPx;
   const hw = fit.thicknessPx / 2 + Math.max(3 * periodPx, 8);
   const op = robustAcrossProfile(image, own, { fromPx: 0.05 * L, toPx: 0.95 * L, halfWidthPx: hw });
   const band = { fromPx: -fit.thicknessPx / 2, toPx: fit.thicknessPx / 2 };
+  if (finerPx === null) {
+    finerPx = ownFundamental(op, band, periodPx, minPeriodPx);
+    if (finerPx === null) return null;
+  }
   const atP = fitLayerComb(op, periodPx, band, { polarity, countReach: 2 });
   const atHalf0 = fitLayerComb(op, finerPx, band, { polarity, countReach: 3 });
   if (!atP || !atHalf0) return null;
@@ -1030,6 +1037,33 @@ function fundamentalOnOwnAxis(image: GreyImage, axisPx: [number, number][], fit:
   const p = refined(atP);
   const h = refined(atHalf0);
   return (p.fit.rss - h.fit.rss) / h.fit.noiseVar >= FUNDAMENTAL_MIN_GAIN ? h : null;
+}
+
+/**
+ * The period of a stack's own strongest fringes near half its period p, when the image's
+ * periodograms found no phase there: the band's fringe power on the stack's own axis at periods
+ * p/2·(0.85 … 1.15) in 1 % steps; its maximum, when it lies inside the range (not at an end), is
+ * the finer period tried, and only when it carries at least a quarter of the fringe power at p
+ * (a comb at p/2 whose odd lines, between p's, carry no contrast is p's harmonic, not a phase).
+ * Single-frequency discrete Fourier transform (Goertzel's algorithm, common practice).
+ *
+ * @param op the profile across the stack along its own axis
+ * @param band the band the comb at p covers, px
+ * @param periodPx p, px
+ * @param minPeriodPx the smallest period counted, px
+ * @returns the finer period to test, px, or null when there is none
+ */
+function ownFundamental(op: AcrossProfile, band: { fromPx: number; toPx: number }, periodPx: number, minPeriodPx: number): number | null {
+  const rows: { q: number; pw: number }[] = [];
+  for (let k = -15; k <= 15; k++) {
+    const q = (periodPx / 2) * (1 + 0.01 * k);
+    if (q < minPeriodPx) continue;
+    rows.push({ q, pw: fringePowerAt(op, band, q) });
+  }
+  if (rows.length < 3) return null;
+  const m = rows.reduce((b, r, i) => (r.pw > rows[b].pw ? i : b), 0);
+  if (m === 0 || m === rows.length - 1) return null;
+  return rows[m].pw >= 0.25 * fringePowerAt(op, band, periodPx) ? rows[m].q : null;
 }
 
 /** Stretch of axis tried at a time beyond an end, px. */

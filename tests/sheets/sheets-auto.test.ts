@@ -181,6 +181,29 @@ describe('detectSheets', () => {
       expect(Math.abs(s.periodPx - t.periodPx) / t.periodPx, `stack ${i} period`).toBeLessThan(0.03);
     });
   });
+  it('counts a fine-period stack at its own period when the coarse phase outvoted it in the periodograms (two periods)', () => {
+    // phases at 2.92 and 6.38 px (synthetic truth, testing/synthetic/overviews.ts): the
+    // candidates' periodograms vote 6.50 and 6.83 px (the coarse phase) and give the fine phase
+    // one vote, so it is not among the image's periods; its 6- and 7-layer stacks read 3 at about
+    // 6.5 px until each stack's own fringes near p/2 are tested on its own axis
+    const o = generateOverview('two-periods', 24);
+    const res = detectSheets(o.image);
+    const sc = scoreOverview(o.truth.stacks, res.sheets);
+    expect(res.periods.some((p) => Math.abs(p.periodPx - 2.92) < 0.3), 'the fine phase is not among the image\'s periods').toBe(false);
+    const fine = o.truth.stacks.map((t, i) => ({ t, i })).filter(({ t }) => t.periodPx < 3 && t.layers >= 6);
+    expect(fine.length).toBe(3);
+    for (const { t, i } of fine) {
+      expect(sc.matchOf[i], `stack ${i} found`).toBeGreaterThanOrEqual(0);
+      const s = res.sheets[sc.matchOf[i]];
+      expect(s.layers, `stack ${i} (${t.layers} layers at ${t.periodPx.toFixed(2)} px)`).toBe(t.layers);
+      expect(Math.abs(s.periodPx - t.periodPx) / t.periodPx, `stack ${i} period`).toBeLessThan(0.04);
+    }
+    // the coarse stacks keep their counts
+    o.truth.stacks.forEach((t, i) => {
+      if (t.periodPx > 6 && sc.matchOf[i] >= 0) expect(res.sheets[sc.matchOf[i]].layers, `stack ${i}`).toBe(t.layers);
+    });
+    expect(sc.spurious).toBeLessThanOrEqual(1);
+  });
   it('never reports layers finer than the countable 2.5 px, nor passes them to a batch summary', async () => {
     // stacks of 2.1 px layers: resolvable in principle (above the 2 px sampling limit) but not
     // countable; the issue's "0.154 nm sheet" came from such fine lattice fringes (common practice:
