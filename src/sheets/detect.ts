@@ -13,7 +13,7 @@
  *    period whose comb of layer lines fits it best and refines it from its own fringes; a band
  *    too faint at the image's period is tried within ±4 % of it, and a stack counted at a
  *    period p is tested against the image's finer phase near p/2 on its own axis (a comb of
- *    every other layer).
+ *    every other layer), or, when the image has none there, against its own fringes near p/2.
  * 4. Layers are counted by fitting that comb on width-averaged profiles at several positions
  *    along the stack; the count is the most frequent one, and the share of positions that agree
  *    is its confidence. Mono- and bilayers are combs of one or two lines: found by their contrast.
@@ -1014,11 +1014,13 @@ export const FUNDAMENTAL_MIN_GAIN = 12;
  * @param axisPx the stack's own axis (the candidate's shifted to the measured centres), px
  * @param fit the comb at p (its thickness sets the band)
  * @param periodPx p, px
- * @param finerPx q, px
+ * @param finerPx q, px, or null to look for it on the stack's own profile
  * @param polarity the layers' polarity
+ * @param minPeriodPx the smallest period counted, px
  * @returns the comb at the fundamental with its refined period and uncertainty, or null to keep p
- * Notes: only a phase the image's periodograms found is tried, so a lone stack is not halved by
- * noise at low dose.
+ * Notes: q is a phase the image's periodograms found, or, given null, the stack's own fringes
+ * near p/2 ({@link ownFundamental}); with the Δχ² test this keeps a lone stack at low dose from
+ * being halved on its noise.
  */
 function fundamentalOnOwnAxis(image: GreyImage, axisPx: [number, number][], fit: CombFit, periodPx: number, finerPx: number | null, polarity: 'dark' | 'bright', minPeriodPx: number): { fit: CombFit; periodPx: number; uPx: number } | null {
   const own = axisFrame(axisPx);
