@@ -23,6 +23,7 @@ export type WorkspacePurpose =
   | 'decode-raw'
   | 'decode-grey'
   | 'spectrum-power'
+  | 'block-power'
   | 'spectrum-complex'
   | 'radial-powers'
   | 'spot-weights';

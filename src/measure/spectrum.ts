@@ -3,7 +3,7 @@
  * probability, spot geometry, and the radial (azimuthal) average with ring detection.
  */
 import type { GreyImage } from '../image/grey-image';
-import type { Workspace } from '../image/workspace';
+import type { Workspace, WorkspacePurpose } from '../image/workspace';
 import { realDft2d } from '../image/fft';
 import { kernelRatioOffset, magnitudeRatioOffset } from './interpolate';
 import { frequencyCrbStd } from './period-profile';
@@ -36,6 +36,11 @@ export interface PowerSpectrumOptions {
    * valid only until the next spectrum taken with the same workspace. Default: a fresh array.
    */
   workspace?: Workspace;
+  /**
+   * The workspace purpose the power array is borrowed for (default 'spectrum-power'); a spectrum
+   * taken while another is still in use needs a purpose of its own (e.g. 'block-power').
+   */
+  workspacePurpose?: WorkspacePurpose;
 }
 
 /** A power spectrum and what is needed to interpret it. */
@@ -144,7 +149,7 @@ export async function powerSpectrum(
     gy = syv / ((w * h * (h * h - 1)) / 12);
   }
   const n = w * h;
-  const power = options.workspace ? options.workspace.float32('spectrum-power', n) : new Float32Array(n);
+  const power = options.workspace ? options.workspace.float32(options.workspacePurpose ?? 'spectrum-power', n) : new Float32Array(n);
   const wxg = new Float64Array(w);
   for (let i = 0; i < w; i++) wxg[i] = gx * (i - cx);
   await realDft2d(

@@ -177,7 +177,7 @@ export async function budgetSpot(image: GreyImage, data: RefineData, spec: Compl
         const bw = onSupport ? blockWeights(support.weights, n, i0, i1, j0, j1, width, height) : undefined;
         // Bent fringes change direction from block to block: start from the block's own maximum
         // near the spot (within ±45° and ±15 % of its frequency).
-        const start = await blockPeak(image, block, best);
+        const start = await blockPeak(image, block, best, options.workspace);
         if (!start) continue;
         const rb = refineSpot(bData, start, { weights: bw, maxShiftBins: 1, iterations: 4 });
         if (!rb) continue;
@@ -271,10 +271,11 @@ function blockWeights(grid: Float64Array, n: number, i0: number, i1: number, j0:
  * The strongest bin of a block's Hann power spectrum near a spot (within ±45° of its direction and
  * ±15 % of its frequency), as a starting spot for the block's refit; null when the block holds no
  * peak there that is significant at 1 % against the sector's own background and at least
- * BLOCK_MIN_PEAK times it.
+ * BLOCK_MIN_PEAK times it. The block's spectrum is borrowed from the workspace ('block-power') when one is given.
  */
-async function blockPeak(image: GreyImage, block: RectPx, spot: Spot): Promise<Spot | null> {
-  const ps = await powerSpectrum(image, block, { window: 'hann', detrend: 'plane' });
+async function blockPeak(image: GreyImage, block: RectPx, spot: Spot, workspace?: Workspace): Promise<Spot | null> {
+  // the region's own spectrum may still be held in the workspace's 'spectrum-power': a purpose of its own
+  const ps = await powerSpectrum(image, block, { window: 'hann', detrend: 'plane', workspace, workspacePurpose: 'block-power' });
   const { width: w, height: h, power } = ps;
   const f0 = Math.hypot(spot.fx, spot.fy);
   const a0 = Math.atan2(spot.fy, spot.fx);
