@@ -108,7 +108,6 @@ export function refineSpot(data: RefineData, spot: Spot, options: RefineSpotOpti
   if (!(maxShift > 0)) throw new RangeError(`maxShiftBins must be positive, got ${maxShift}`);
   if (weights && weights.length !== w * h) throw new RangeError(`weights must have ${w} × ${h} = ${w * h} values, got ${weights.length}`);
   const cxp = (w - 1) / 2;
-  const cyp = (h - 1) / 2;
   const slopeX = data.slopeX;
   const slopeY = data.slopeY;
   const planeX = new Float64Array(w);
@@ -119,27 +118,9 @@ export function refineSpot(data: RefineData, spot: Spot, options: RefineSpotOpti
   let spans: Int32Array | null = null;
   if (weights) {
     spans = new Int32Array(2 * h);
-    // the weighted mean of what the plane leaves
-    let sw = 0;
-    let swd = 0;
-    for (let j = 0; j < h; j++) {
-      const o = (y0 + j) * strideX + x0;
-      const py = data.mean + slopeY * (j - cyp);
-      let first = w;
-      let last = -1;
-      for (let i = 0; i < w; i++) {
-        const wi = weights[j * w + i];
-        if (wi !== 0) {
-          if (first === w) first = i;
-          last = i;
-        }
-        const q = wi * wx[i] * wy[j];
-        sw += q;
-        swd += q * (pixels[o + i] - py - planeX[i]);
-      }
-      spans[2 * j] = first;
-      spans[2 * j + 1] = last + 1;
-    }
+    const sums = new Float64Array(2);
+    weightedPlaneResidual(pixels, strideX, x0, y0, w, h, data.mean, slopeY, planeX, weights, wx, wy, spans, sums);
+    const [sw, swd] = sums;
     if (!(sw > 0)) return null;
     mean = data.mean + swd / sw;
   }
@@ -193,6 +174,47 @@ export function refineSpot(data: RefineData, spot: Spot, options: RefineSpotOpti
     angleDeg: frequencyAngleDeg(fx, fy),
     uAngleDeg: ((sTan / f) * 180) / Math.PI,
   };
+}
+
+/**
+ * The weighted sums of what the plane leaves, Σ q and Σ q·(d − plane) with q = weight · wx · wy,
+ * and each row's span of non-zero weights: the weighted mean's loop of refineSpot, kept in a
+ * function of typed arrays and numbers only (as periodogramMoments), so the engine compiles it once
+ * and its running sums never become heap objects.
+ *
+ * Parameters: the area's pixels (row length strideX, top-left x0, y0, size w × h), the plane's
+ * mean, y slope and x plane per column, the weights (w · h), the windows wx and wy; spans gets
+ * [first, last + 1) of each row's non-zero weights (first = w when there are none), sums gets
+ * [Σ q, Σ q·(d − plane)].
+ * Reference: weighted mean (common practice).
+ */
+function weightedPlaneResidual(
+  pixels: PixelArray, strideX: number, x0: number, y0: number, w: number, h: number, mean: number, slopeY: number,
+  planeX: Float64Array, weights: Float32Array, wx: Float64Array, wy: Float64Array, spans: Int32Array, sums: Float64Array,
+): void {
+  const cyp = (h - 1) / 2;
+  let sw = 0;
+  let swd = 0;
+  for (let j = 0; j < h; j++) {
+    const o = (y0 + j) * strideX + x0;
+    const py = mean + slopeY * (j - cyp);
+    let first = w;
+    let last = -1;
+    for (let i = 0; i < w; i++) {
+      const wi = weights[j * w + i];
+      if (wi !== 0) {
+        if (first === w) first = i;
+        last = i;
+      }
+      const q = wi * wx[i] * wy[j];
+      sw += q;
+      swd += q * (pixels[o + i] - py - planeX[i]);
+    }
+    spans[2 * j] = first;
+    spans[2 * j + 1] = last + 1;
+  }
+  sums[0] = sw;
+  sums[1] = swd;
 }
 
 /**

@@ -2,7 +2,7 @@
  * Two-dimensional power spectrum of an image region, spot finding with a controlled false-alarm
  * probability, spot geometry, and the radial (azimuthal) average with ring detection.
  */
-import type { GreyImage } from '../image/grey-image';
+import type { GreyImage, PixelArray } from '../image/grey-image';
 import type { Workspace, WorkspacePurpose } from '../image/workspace';
 import { realDft2d } from '../image/fft';
 import { kernelRatioOffset, magnitudeRatioOffset } from './interpolate';
@@ -117,11 +117,7 @@ export async function powerSpectrum(
   const wy = windowSamples(window, h, tukeyAlpha);
   const d = image.data;
   const iw = image.width;
-  let sum = 0;
-  for (let j = 0; j < h; j++) {
-    const o = (area.y + j) * iw + area.x;
-    for (let i = 0; i < w; i++) sum += d[o + i];
-  }
+  const sum = areaSum(d, iw, area.x, area.y, w, h);
   if (!Number.isFinite(sum)) {
     for (let j = 0; j < h; j++) for (let i = 0; i < w; i++) {
       const v = d[(area.y + j) * iw + area.x + i];
@@ -135,18 +131,10 @@ export async function powerSpectrum(
   let gy = 0;
   if (detrend === 'plane') {
     // Least-squares plane on centred coordinates: the slopes decouple from the mean.
-    let sxv = 0;
-    let syv = 0;
-    for (let j = 0; j < h; j++) {
-      const o = (area.y + j) * iw + area.x;
-      for (let i = 0; i < w; i++) {
-        const v = d[o + i] - mean;
-        sxv += (i - cx) * v;
-        syv += (j - cy) * v;
-      }
-    }
-    gx = sxv / ((h * w * (w * w - 1)) / 12);
-    gy = syv / ((w * h * (h * h - 1)) / 12);
+    const moments = new Float64Array(2);
+    centredMoments(d, iw, area.x, area.y, w, h, mean, moments);
+    gx = moments[0] / ((h * w * (w * w - 1)) / 12);
+    gy = moments[1] / ((w * h * (h * h - 1)) / 12);
   }
   const n = w * h;
   const power = options.workspace ? options.workspace.float32(options.workspacePurpose ?? 'spectrum-power', n) : new Float32Array(n);
@@ -165,6 +153,87 @@ export async function powerSpectrum(
     { kind: 'power', out: power },
   );
   return { width: w, height: h, area, window, tukeyAlpha, power, windowX: wx, windowY: wy };
+}
+
+/**
+ * The bins of the half-plane (v > 0, or v = 0 and u > 0) within the frequency range whose power
+ * exceeds `screen` times the radial background and is a strict local maximum of its 3 × 3
+ * neighbourhood (ties go to the later bin): findSpots' candidate loop, kept in a function of
+ * typed arrays and numbers only so that the engine compiles it once.
+ * @returns the candidates' bin indices v · w + u, in scan order.
+ */
+function screenedMaxima(
+  power: Float32Array, w: number, h: number, fx2: Float64Array, fy2: Float64Array, fMin2: number, fMax2: number,
+  B: Float64Array, nMax: number, screen: number,
+): number[] {
+  const out: number[] = [];
+  for (let v = 0; v <= h >> 1; v++) {
+    if (signedIndex(v, h) < 0) continue;
+    const o = v * w;
+    for (let u = 0; u < w; u++) {
+      if (v === 0 && signedIndex(u, w) <= 0) continue;
+      const f2 = fx2[u] + fy2[v];
+      if (f2 < fMin2 || f2 > fMax2) continue;
+      const k = o + u;
+      const p = power[k];
+      const b = B[(Math.sqrt(f2) * nMax + 0.5) | 0];
+      if (!(b > 0) || p <= screen * b) continue;
+      let isMax = true;
+      for (let dv = -1; dv <= 1 && isMax; dv++) {
+        const vv = (v + dv + h) % h;
+        for (let du = -1; du <= 1; du++) {
+          if (du === 0 && dv === 0) continue;
+          const q = power[vv * w + ((u + du + w) % w)];
+          if (q > p || (q === p && (dv < 0 || (dv === 0 && du < 0)))) {
+            isMax = false;
+            break;
+          }
+        }
+      }
+      if (isMax) out.push(k);
+    }
+  }
+  return out;
+}
+
+/**
+ * The sum of an area's pixels (a loop of its own, so the engine compiles it once for every caller).
+ * @param d - the image's pixels; iw its width.
+ * @param x0 - the area's left column; y0 its top row; w, h its size.
+ * @returns Σ d over the area, row by row.
+ */
+function areaSum(d: PixelArray, iw: number, x0: number, y0: number, w: number, h: number): number {
+  let sum = 0;
+  for (let j = 0; j < h; j++) {
+    const o = (y0 + j) * iw + x0;
+    for (let i = 0; i < w; i++) sum += d[o + i];
+  }
+  return sum;
+}
+
+/**
+ * The first moments of an area's pixels about its centre, Σ (i − cx)(d − mean) and
+ * Σ (j − cy)(d − mean), for the least-squares plane (a loop of its own, as areaSum).
+ * @param d - the image's pixels; iw its width.
+ * @param x0 - the area's left column; y0 its top row; w, h its size.
+ * @param mean - the area's mean.
+ * @param out - receives the two sums.
+ */
+function centredMoments(d: PixelArray, iw: number, x0: number, y0: number, w: number, h: number, mean: number, out: Float64Array): void {
+  const cx = (w - 1) / 2;
+  const cy = (h - 1) / 2;
+  let sxv = 0;
+  let syv = 0;
+  for (let j = 0; j < h; j++) {
+    const o = (y0 + j) * iw + x0;
+    for (let i = 0; i < w; i++) {
+      const v = d[o + i] - mean;
+      sxv += (i - cx) * v;
+      syv += (j - cy) * v;
+    }
+  }
+  out[0] = sxv;
+  out[1] = syv;
 }
 
 /**
@@ -569,35 +638,13 @@ export function findSpots(spectrum: PowerSpectrum, options: SpotOptions = {}): S
     return c > 0 ? Math.exp(s / c + EULER_GAMMA) : 1;
   };
   const screen = threshold / 2;
-  const peaks: { k: number; p: number; z: number }[] = [];
-  for (let v = 0; v <= h >> 1; v++) {
-    if (signedIndex(v, h) < 0) continue;
-    const o = v * w;
-    for (let u = 0; u < w; u++) {
-      if (v === 0 && signedIndex(u, w) <= 0) continue;
-      const f2 = fx2[u] + fy2[v];
-      if (f2 < fMin2 || f2 > fMax2) continue;
-      const k = o + u;
-      const p = power[k];
-      const b = B[(Math.sqrt(f2) * nMax + 0.5) | 0];
-      // Screen on the radial background at half the threshold, confirm on the local one below.
-      if (!(b > 0) || p <= screen * b) continue;
-      const zRadial = p / b;
-      let isMax = true;
-      for (let dv = -1; dv <= 1 && isMax; dv++) {
-        const vv = (v + dv + h) % h;
-        for (let du = -1; du <= 1; du++) {
-          if (du === 0 && dv === 0) continue;
-          const q = power[vv * w + ((u + du + w) % w)];
-          if (q > p || (q === p && (dv < 0 || (dv === 0 && du < 0)))) {
-            isMax = false;
-            break;
-          }
-        }
-      }
-      if (isMax) peaks.push({ k, p, z: zRadial });
-    }
-  }
+  // Screen on the radial background at half the threshold, confirm on the local one below.
+  const peaks = screenedMaxima(power, w, h, fx2, fy2, fMin2, fMax2, B, nMax, screen).map((k) => {
+    const p = power[k];
+    const u = k % w;
+    const v = (k - u) / w;
+    return { k, p, z: p / B[(Math.sqrt(fx2[u] + fy2[v]) * nMax + 0.5) | 0] };
+  });
   peaks.sort((a, b) => b.p - a.p);
   const mainLobe = window === 'none' ? 1.5 : 2.5;
   const accepted: { su: number; sv: number; p: number; z: number; k: number }[] = [];
