@@ -1,7 +1,6 @@
 import { LitElement, css, html, nothing, type PropertyValues } from 'lit';
 import { panels, type PanelEntry } from 'virtual:strata-panels';
 import type { Calibration, GreyImage } from '../src/image/grey-image';
-import { sha256Hex } from '../src/store/bytes';
 import {
   findImagesBySha256,
   getImage,
@@ -522,14 +521,15 @@ export class StrataApp extends LitElement {
         sent = copy;
         transfer = [copy.buffer];
       }
-      const { sessionId, image, levels, histogram, limits, thumbnail } = await this.compute.call('openImage', { file: sent, fileName }, transfer);
+      const { sessionId, image, levels, histogram, limits, thumbnail, sha256Hex } = await this.compute.call('openImage', { file: sent, fileName }, transfer);
       let record = existing ?? null;
       let notKept = '';
       if (!record && this.db) {
         try {
-          const bytes = file instanceof Blob ? new Uint8Array(await file.arrayBuffer()) : file;
-          const [same] = await findImagesBySha256(this.db, await sha256Hex(bytes));
-          record = same ?? (await putImage(this.db, { bytes, fileName, image, mimeType, thumbnail }));
+          // the worker hashed the file; a Blob is stored as it is, never read on the page
+          const [same] = await findImagesBySha256(this.db, sha256Hex);
+          const kept = file instanceof Blob ? { file, sha256Hex } : { bytes: file, sha256Hex };
+          record = same ?? (await putImage(this.db, { ...kept, fileName, image, mimeType, thumbnail }));
           this.libraryRevision++;
         } catch (e) {
           // The image is still shown; only keeping it failed (e.g. StorageFullError).

@@ -46,7 +46,11 @@ export interface ComputeCalls {
      * strip by strip with decodeImageSource), or its bytes where the page only has bytes.
      */
     args: { file: Blob | Uint8Array; fileName: string; lowPercent?: number; highPercent?: number };
-    result: { sessionId: string; image: GreyImage; levels: GreyImage[]; histogram: GreyHistogram; limits: DisplayLimits; thumbnail: Thumbnail };
+    result: {
+      sessionId: string; image: GreyImage; levels: GreyImage[]; histogram: GreyHistogram; limits: DisplayLimits; thumbnail: Thumbnail;
+      /** The file's SHA-256 (lower-case hex), hashed here so the page never reads or hashes a large file. */
+      sha256Hex: string;
+    };
   };
   /**
    * A pyramid level of the session's image (0 = full resolution) stretched between black and

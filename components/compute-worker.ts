@@ -14,6 +14,7 @@ import type { ImageSession } from '../src/measure/session';
 import { toolOf } from '../src/measure/tools';
 import { makeThumbnail } from '../src/store/thumbnail';
 import { spectrumPicture } from '../src/figure/spectrum-picture';
+import { sha256Hex } from '../src/store/bytes';
 
 type Handlers = { [K in CallName]: (args: CallArgs<K>) => Promise<CallResult<K>> | CallResult<K> };
 
@@ -111,7 +112,10 @@ const handlers: Handlers = {
     const copy = (g: GreyImage): GreyImage => ({ ...g, data: g.data.slice(), warnings: [...g.warnings] });
     // the library's thumbnail, from the smallest level (the page only stores it)
     const thumbnail = makeThumbnail(view.levels[view.levels.length - 1] ?? image);
-    return { sessionId, image: copy(image), levels: view.levels.map(copy), histogram: view.histogram, limits: view.limits, thumbnail };
+    // the library's content hash, here rather than on the page (a 128 MB file hashed there stalled it for most of a second)
+    const bytes = args.file instanceof Uint8Array ? args.file : new Uint8Array(new FileReaderSync().readAsArrayBuffer(args.file));
+    const sha = await sha256Hex(bytes);
+    return { sessionId, image: copy(image), levels: view.levels.map(copy), histogram: view.histogram, limits: view.limits, thumbnail, sha256Hex: sha };
   },
   closeImage: ({ sessionId }) => {
     pyramids.delete(sessionId);

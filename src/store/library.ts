@@ -116,8 +116,15 @@ export async function saveInOneTransaction<S extends StoreNames<LibrarySchema>, 
 
 /** What putImage needs to store an image. */
 export interface NewImage {
-  /** The original file as read from disk. */
-  bytes: Uint8Array;
+  /** The original file as read from disk (give this or `file`). */
+  bytes?: Uint8Array;
+  /**
+   * The original file as a Blob or File (give this or `bytes`): stored as it is, never read here,
+   * so a large file is not copied on the caller's thread. Give its `sha256Hex` with it.
+   */
+  file?: Blob;
+  /** The file's SHA-256 as lower-case hex, when already known (required with `file`; checked for form only). */
+  sha256Hex?: string;
   /** Its name. */
   fileName: string;
   /** The decoded image (for size, bit depth, calibration and the thumbnail). */
@@ -142,7 +149,13 @@ export interface NewImage {
  * @returns the stored record
  */
 export async function putImage(db: LibraryDb, input: NewImage): Promise<ImageRecord> {
-  if (!(input.bytes instanceof Uint8Array)) throw new TypeError('putImage: bytes must be a Uint8Array');
+  const hasBytes = input.bytes !== undefined;
+  const hasFile = input.file !== undefined;
+  if (hasBytes === hasFile) throw new TypeError(`putImage: give the file's bytes or the file as a Blob, exactly one of them (got ${hasBytes ? 'both' : 'neither'})`);
+  if (hasBytes && !(input.bytes instanceof Uint8Array)) throw new TypeError('putImage: bytes must be a Uint8Array');
+  if (hasFile && !(input.file instanceof Blob)) throw new TypeError('putImage: file must be a Blob');
+  if (input.sha256Hex !== undefined && !/^[0-9a-f]{64}$/.test(input.sha256Hex)) throw new TypeError(`putImage: sha256Hex must be 64 lower-case hex digits, got ${JSON.stringify(input.sha256Hex)}`);
+  if (hasFile && input.sha256Hex === undefined) throw new TypeError('putImage: a file given as a Blob needs its sha256Hex (hash it where it is read, e.g. in the compute worker)');
   if (typeof input.fileName !== 'string' || !input.fileName) throw new TypeError(`putImage: fileName must be a non-empty string, got ${JSON.stringify(input.fileName)}`);
   const { image } = input;
   if (!image || !(image.width >= 1) || !(image.height >= 1)) throw new TypeError(`putImage: image for ${input.fileName} has no pixels`);
@@ -150,10 +163,10 @@ export async function putImage(db: LibraryDb, input: NewImage): Promise<ImageRec
     id: input.id ?? crypto.randomUUID(),
     fileName: input.fileName,
     addedIso: input.addedIso ?? new Date().toISOString(),
-    file: new Blob([input.bytes as Uint8Array<ArrayBuffer>], { type: input.mimeType ?? '' }),
+    file: input.file ?? new Blob([input.bytes as Uint8Array<ArrayBuffer>], { type: input.mimeType ?? '' }),
     mimeType: input.mimeType ?? '',
-    byteSize: input.bytes.byteLength,
-    sha256Hex: await sha256Hex(input.bytes),
+    byteSize: input.file ? input.file.size : (input.bytes as Uint8Array).byteLength,
+    sha256Hex: input.sha256Hex ?? (await sha256Hex(input.bytes as Uint8Array)),
     width: image.width,
     height: image.height,
     bitDepth: image.bitDepth,

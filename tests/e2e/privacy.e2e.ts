@@ -6,6 +6,7 @@
 import { mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
+import { createHash } from 'node:crypto';
 import { afterAll, beforeAll, expect, test } from 'vitest';
 import { encodeTiff } from '../../testing/encode-tiff';
 import { foreignRequests, openSession, type Session, nextFrames } from './browser';
@@ -137,23 +138,35 @@ test('errors of the page are logged locally; the Diagnostics panel lists them an
   errors.length = 0; // the probes were thrown on purpose
 });
 
-test('opening an 8192 × 8192 image and measuring keep the page responsive (longest task reported, at most 1 s)', async () => {
+// The longest task is printed, not asserted: speed is measured by benchmarks and tables
+// (docs/speed.md), never by a timed test, whose bound a loaded machine breaks by chance.
+test('an 8192 × 8192 image opens through its pyramid and is kept in the library under the SHA-256 of its file (hashed in the worker; longest page task printed)', async () => {
   const w = 8192;
   const data = new Uint8Array(w * w);
   for (let y = 0; y < w; y++) for (let x = 0; x < w; x++) data[y * w + x] = 128 + Math.round(90 * Math.cos((2 * Math.PI * x) / 20));
   const path = join(mkdtempSync(join(tmpdir(), 'strata-8k-')), 'film-8k.tif');
-  writeFileSync(path, encodeTiff({ width: w, height: w, data, rowsPerStrip: 64 }));
+  const file = encodeTiff({ width: w, height: w, data, rowsPerStrip: 64 });
+  writeFileSync(path, file);
   await s.page.evaluate(() => { (window as unknown as { __longTasks: number[] }).__longTasks.length = 0; });
   await app().locator('input.open').setInputFiles(path);
-  await s.page.waitForFunction(() => {
+  const shown = await s.page.waitForFunction(() => {
     const v = document.querySelector('strata-app')?.shadowRoot?.querySelector('strata-viewer') as unknown as { image?: { width: number }; dataset: DOMStringMap };
-    return v?.image?.width === 8192 && !!v.dataset.level;
+    return v?.image?.width === 8192 && v.dataset.level ? Number(v.dataset.level) : 0;
   }, undefined, { timeout: 300_000 });
+  // fitted to the window, the viewer draws a reduced level of its pyramid, never the 64 MP original
+  expect(await shown.jsonValue()).toBeGreaterThanOrEqual(2);
   await settle();
   const tasks = await s.page.evaluate(() => (window as unknown as { __longTasks: number[] }).__longTasks);
   const longest = Math.max(0, ...tasks);
   console.log(`8192² open: ${tasks.length} long tasks, longest ${longest.toFixed(0)} ms`);
-  expect(longest).toBeLessThanOrEqual(1000);
+  // the library's record carries the standard SHA-256 of the file (FIPS 180-4; Node's implementation as the reference)
+  const sha = createHash('sha256').update(file).digest('hex');
+  await expect.poll(() => s.page.evaluate(async (want) => {
+    const db = await new Promise<IDBDatabase>((res, rej) => { const r = indexedDB.open('stratameter'); r.onsuccess = () => res(r.result); r.onerror = () => rej(r.error); });
+    const all = await new Promise<{ fileName: string; sha256Hex: string; byteSize: number }[]>((res, rej) => { const r = db.transaction('images').objectStore('images').getAll(); r.onsuccess = () => res(r.result); r.onerror = () => rej(r.error); });
+    db.close();
+    return all.filter((x) => x.sha256Hex === want).map((x) => [x.fileName, x.byteSize]);
+  }, sha), { timeout: 60_000 }).toEqual([['film-8k.tif', file.byteLength]]);
 });
 
 interface Reached { tag: string; name: string; outline: boolean; id: string }

@@ -76,6 +76,21 @@ test('after a region is drawn, the period and its ± are visible without scrolli
     const [a, b] = [boxes[i], boxes[j]];
     expect(a[0] < b[0] + b[2] && b[0] < a[0] + a[2] && a[1] < b[1] + b[3] && b[1] < a[1] + a[3]).toBe(false);
   }
+  // the spectrum's picture itself is drawn (made in the worker, or on the page as a fallback), not only its marks
+  await expect.poll(() => panel().locator('canvas.spectrum').evaluate((c) => {
+    const cv = c as HTMLCanvasElement;
+    const px = cv.getContext('2d')!.getImageData(0, 0, cv.width, cv.height).data;
+    // an undrawn canvas is transparent black; a drawn picture is opaque with a range of greys
+    let opaque = 0;
+    let lo = 255;
+    let hi = 0;
+    for (let i = 0; i < px.length; i += 4) {
+      if (px[i + 3] === 255) opaque++;
+      lo = Math.min(lo, px[i]);
+      hi = Math.max(hi, px[i]);
+    }
+    return opaque === px.length / 4 && hi - lo >= 100;
+  }), { timeout: 20_000 }).toBe(true);
   await s.page.screenshot({ path: join(dir, 'spectrum-1366x768.png') });
 });
 

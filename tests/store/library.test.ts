@@ -121,6 +121,23 @@ describe('images', () => {
     db.close();
   });
 
+  test('putImage stores a file given as a Blob as it is, with the hash computed where it was read; one of bytes or file, never both', async () => {
+    const db = await freshLibrary();
+    const bytes = fileBytes(3000, 5) as Uint8Array<ArrayBuffer>;
+    const { createHash } = await import('node:crypto');
+    const sha = createHash('sha256').update(bytes).digest('hex');
+    const rec = await putImage(db, { file: new Blob([bytes], { type: 'image/tiff' }), sha256Hex: sha, fileName: 'tactoid-03.tif', image: fringeImage(), mimeType: 'image/tiff' });
+    const back = await getImage(db, rec.id);
+    expect(back!.byteSize).toBe(3000);
+    expect(back!.sha256Hex).toBe(sha);
+    expect(Buffer.from(await imageBytes(back!)).equals(Buffer.from(bytes))).toBe(true);
+    await expect(putImage(db, { bytes, file: new Blob([bytes]), sha256Hex: sha, fileName: 'x.tif', image: fringeImage() })).rejects.toThrow(/exactly one of them \(got both\)/);
+    await expect(putImage(db, { fileName: 'x.tif', image: fringeImage() })).rejects.toThrow(/got neither/);
+    await expect(putImage(db, { file: new Blob([bytes]), fileName: 'x.tif', image: fringeImage() })).rejects.toThrow(/needs its sha256Hex/);
+    await expect(putImage(db, { file: new Blob([bytes]), sha256Hex: 'ABC', fileName: 'x.tif', image: fringeImage() })).rejects.toThrow(/64 lower-case hex digits, got "ABC"/);
+    db.close();
+  });
+
   test('putImage keeps a thumbnail made elsewhere (the app\'s compute worker) as given', async () => {
     const db = await freshLibrary();
     const grey = Uint8Array.from({ length: 6 }, (_, i) => 40 * i);
