@@ -203,7 +203,7 @@ export class StrataDiffractionPanel extends LitElement {
       this.pattern = pattern;
       this.analysis = analysis;
       this.manual = [];
-      this.emit('status-message', { text: `${this.fileName}: ${analysis.peaks.length} peaks fitted`, kind: 'info' });
+      this.emit('status-message', { text: `${this.fileName}: ${analysis.peaks.length} ${analysis.peaks.length === 1 ? 'peak' : 'peaks'} fitted`, kind: 'info' });
     } catch (err) {
       this.analysis = null;
       this.error = (err as Error).message;
@@ -244,7 +244,7 @@ export class StrataDiffractionPanel extends LitElement {
       budget: g.budget,
       label: `${g.n} period${g.n === 1 ? '' : 's'} from ${g.sources.slice(0, 3).join(', ')}${g.sources.length > 3 ? ` and ${g.sources.length - 3} more` : ''}${Number.isFinite(g.birgeRatio) ? `; Birge ratio ${g.birgeRatio.toFixed(2)}` : ''}`,
     }));
-    this.emit('status-message', { text: `${this.periods.length} distinct periods pooled from the library (${saved} saved, ${batched} from batches; uncalibrated ones left out)`, kind: 'info' });
+    this.emit('status-message', { text: `${this.periods.length} distinct ${this.periods.length === 1 ? 'period' : 'periods'} pooled from the library (${saved} saved, ${batched} from batches; uncalibrated ones left out)`, kind: 'info' });
   }
 
   private onManual(text: string): void {

@@ -186,7 +186,7 @@ export class StrataLibrary extends LitElement {
       </div>
       <div class="buttons">
         ${this.confirming === r.id
-          ? html`<span class="confirm" role="alert">Delete this image${row.results.length ? ` and its ${row.results.length} results` : ''}?</span>
+          ? html`<span class="confirm" role="alert">Delete this image${row.results.length ? ` and its ${row.results.length === 1 ? 'result' : `${row.results.length} results`}` : ''}?</span>
               <button class="danger" @click=${() => this.removeRow(row)}>Delete</button>
               <button @click=${() => (this.confirming = null)}>Keep</button>`
           : html`<button @click=${() => this.dispatchEvent(new CustomEvent('open-image', { detail: { id: r.id }, bubbles: true, composed: true }))}
