@@ -164,9 +164,10 @@ function toNm(numText: string, unitRaw: string | undefined, context: string): { 
  * @throws RadiationError for a wavelength without a usable unit
  *
  * Notes — what is recognised:
- * - indexed lines: `lambda1 = 1.540593 A, lambda2 = 1.544414 A`, `K-alpha1 1.540598 A`,
+ * - indexed lines: `lambda1 = 1.540593 A, lambda2 = 1.544414 A`, `lambda_1`, `Alpha1: 1.54060`, `K-alpha1 1.540598 A`,
  *   `Kα2 wavelength (Å): 1.544390`, `WL1 1.5406`; a unit may stand in brackets before the value;
- * - a wavelength without index: `wavelength: 0.72932(2) Å`, `λ = 0.15406 nm`, `lambda 154.06 pm`;
+ * - a wavelength without index: `wavelength: 0.72932(2) Å`, `λ = 0.15406 nm`, `lambda 154.06 pm`,
+ *   `lam = 0.41328`; a number glued to a word (`K-alpha1`, `Cu2O`) is never a value;
  * - an energy: `energy = 17.479 keV`, `E: 12398 eV` (λ = hc/E, CODATA 2018 hc);
  * - a Kα2/Kα1 intensity ratio (`Ka2/Ka1 ratio 0.5`);
  * - an anode: `Anode: Cu`, `target = Mo`, `Cu K-alpha radiation`, `CuKa1`, `tube Co`;
@@ -200,7 +201,8 @@ export function radiationStatements(line: string, where: string): RadiationState
   }
   // indexed or plain wavelengths and energies
   const key = new RegExp(
-    String.raw`(k[\s_-]*(?:alpha|α|a)|lambda|λ|wave[\s_-]*length|\bwl|energy|\bE)\s*([12])?(?![0-9.,])([^0-9\n;,]{0,30}?)${NUM}${SU}\s*${UNIT}`,
+    // a keyword ends where a letter does not follow: the 'a' of 'Kα' is not the start of 'alpha'
+    String.raw`(k[\s_-]*(?:alpha|α|a)(?![a-zα])|\balpha(?=[\s_-]*[12](?![0-9.,]))|lambda|λ|\blam(?![a-z])|wave[\s_-]*length|\bwl|energy|\bE)[\s_-]*([12])?(?![0-9.,])([^0-9\n;,]{0,30}?)${NUM}${SU}\s*${UNIT}`,
     'gi',
   );
   let m: RegExpExecArray | null;
@@ -210,6 +212,11 @@ export function radiationStatements(line: string, where: string): RadiationState
     // "Kα2 stripped; wavelength 1.5406": the number belongs to the later keyword
     const inner = /k[\s_-]*(?:alpha|α|a)\s*[12]|lambda|λ|energy/i.exec(filler);
     if (inner) {
+      key.lastIndex = m.index + k.length + (idx?.length ?? 0);
+      continue;
+    }
+    // a number glued to a word is part of it ('alpha1', 'Cu2O'), never a value
+    if (/[a-zα_]$/i.test(filler)) {
       key.lastIndex = m.index + k.length + (idx?.length ?? 0);
       continue;
     }

@@ -14,6 +14,24 @@ describe('wavelength from every common header style', () => {
     expect(p.ka2Nm).toBeCloseTo(0.1544414, 10);
     expect(p.radiation!.source).toMatch(/header line 1: 'lambda1 = 1.540593 A'/);
   });
+  // Cu Kα1/Kα2 as above. A digit glued to a word is an index, never the value (the misread, in other spellings)
+  test.each([
+    ['# Cu K-alpha1', 0.154059292, 0.15444274],
+    ['# lambda_1 = 1.5406, lambda_2 = 1.5444', 0.15406, 0.15444],
+    ['# Alpha1: 1.54060\n# Alpha2: 1.54443', 0.15406, 0.154443],
+    ['# Anode material: Cu\n# K-Alpha1 [Å]: 1.540598\n# K-Alpha2 [Å]: 1.544426', 0.1540598, 0.1544426],
+  ])('%s: Kα1 %f nm and Kα2 %f nm, no index read as a wavelength', (h, ka1, ka2) => {
+    const p = read(h);
+    expect(p.wavelengthNm).toBeCloseTo(ka1, 10);
+    expect(p.ka2Nm).toBeCloseTo(ka2, 10);
+  });
+  test("a cell's 'alpha=90' and a sample's 'Cu2O' are not radiation statements; 'lam = 0.41328' is a wavelength in Å", () => {
+    expect(read('# cell a=5.43 alpha=90 beta=90 gamma=90\n# wavelength 1.5406 A').wavelengthNm).toBeCloseTo(0.15406, 10);
+    expect(read('# sample: Cu2O powder\n# wavelength 0.7093 A').wavelengthNm).toBeCloseTo(0.07093, 10);
+    const p = read('# synchrotron; lam = 0.41328');
+    expect(p.wavelengthNm).toBeCloseTo(0.041328, 10);
+    expect(p.ka2Nm).toBeNull();
+  });
   test.each([
     ['# wavelength: 1.5406 A', 0.15406, 'Å'],
     ['# Wavelength [nm]: 0.154059', 0.154059, 'unit in brackets before the value'],
