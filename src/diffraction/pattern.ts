@@ -129,7 +129,16 @@ export function parsePattern(text: string, options: ParsePatternOptions = {}): P
         headerCount++;
         continue;
       }
-      throw new SyntaxError(`line ${i + 1}: not a data row: '${raw.trim().slice(0, 60)}'`);
+      // text after the last data row ('End of data', a checksum line) is a footer, said in a note;
+      // a damaged row (it starts with a number), or text with rows after it, is an error: a row in
+      // the middle of the data would otherwise be lost
+      const after = lines.slice(i + 1).filter((l) => l.trim() !== '' && !COMMENT.test(l));
+      const looksLikeRow = (l: string) => NUMBER.test((splitLine(l)[0] ?? '').trim());
+      if (looksLikeRow(raw) || after.some(looksLikeRow)) {
+        throw new SyntaxError(`line ${i + 1}: not a data row: '${raw.trim().slice(0, 60)}'`);
+      }
+      notes.push(`${after.length + 1} line(s) of text after the data left out, from line ${i + 1}: '${raw.trim().slice(0, 60)}'`);
+      break;
     }
     if (tokens.length < 2 && xs.length === 0 && bare === null && tokens.length === 1) {
       // a common three-column export starts with the wavelength alone on its first line

@@ -58,6 +58,12 @@ describe('parsePattern', () => {
     expect(() => parsePattern('10 1\n11 2\n11 3\n13 4')).toThrow(/line 3: .*strictly monotonic/);
     expect(() => parsePattern('10 1\n11 2\nNaN 3\n13 4')).toThrow(/line 3/);
     expect(() => parsePattern('10 1\n11 2\n12 x\n13 4')).toThrow(/line 3: not a data row/);
+    // text after the last row is a footer, left out with a note (common practice of instrument exports);
+    // text between rows is not
+    const footer = parsePattern('10 1\n11 2\n12 3\nEnd of data\nchecksum ok\n');
+    expect(Array.from(footer.x)).toEqual([10, 11, 12]);
+    expect(footer.notes.join()).toMatch(/2 line\(s\) of text after the data left out, from line 4: 'End of data'/);
+    expect(() => parsePattern('10 1\n11 2\nEnd of scan 1\n13 4\n14 5')).toThrow(/line 3: not a data row/);
     expect(() => parsePattern('10 1 1\n11 2 0\n12 3 1')).toThrow(/line 2: uncertainty 0/);
     expect(() => parsePattern('10 1\n11 2 5\n12 3')).toThrow(/line 2: 3 columns/);
     expect(() => parsePattern('10 1\n')).toThrow(/at least 3/);
