@@ -57,6 +57,9 @@ const fmt = (b: UncertaintyBudget) => `${formatPlusMinus(b.value, b.expanded)}`;
  * `library-changed`. The search and the line run in the compute worker on the image its session
  * holds (`session`): the requests carry the session id, never pixels.
  */
+/** Resolves in a later task of the event loop (after the browser has drawn what changed). */
+const nextTask = (): Promise<void> => new Promise((done) => setTimeout(done, 0));
+
 export class StrataSheetsPanel extends LitElement {
   static override properties = {
     image: { attribute: false },
@@ -321,8 +324,14 @@ export class StrataSheetsPanel extends LitElement {
       this.message = result.message;
       this.selectedId = null;
       const n = result.sheets.length;
-      this.step(`${n} stack${n === 1 ? '' : 's'} found`);
       this.say(n ? `${n} stack${n === 1 ? '' : 's'} found${excludedBox ? ' (scale-bar panel skipped)' : ''}: click one to review it` : 'no stacks found in this image');
+      // the sheets are drawn first; the undo step and the library's copy (each a clone of every
+      // sheet on this thread) follow in tasks of their own
+      await this.updateComplete;
+      await nextTask();
+      if (this.image !== img) return;
+      this.step(`${n} stack${n === 1 ? '' : 's'} found`);
+      await nextTask();
       await this.save();
     } catch (e) {
       this.say((e as Error).message, 'error');

@@ -248,6 +248,49 @@ test('calibrate: a typed pixel size re-expresses the periods; undo brings back t
   expect(errors).toEqual([]);
 });
 
+test('the sheets and diffraction flows: find sheets on the overview and correct one; load a pattern and cross-check it with the saved periods', async () => {
+  const sheets = s.page.locator('strata-sheets-panel');
+  const count = () => sheets.evaluate((el) => (el as unknown as { sheets: unknown[] }).sheets.length);
+  const closeImage = () => s.page.locator('strata-app').locator('button', { hasText: 'Close image' }).click();
+  await closeImage();
+  await flow('open the overview demo', () => openDemoImage(s.page, 'Tactoid film, overview', 1024, 'Sheets'));
+  await flow('find sheets in the image', async () => {
+    await sheets.locator('button', { hasText: 'Find sheets in the image' }).click();
+    await expect.poll(count, { timeout: 120_000 }).toBeGreaterThan(0);
+  });
+  // demo truth (demo-data/index.json): 26 tactoids
+  expect(await count()).toBeGreaterThanOrEqual(24);
+  const layersOf = (i: number) => sheets.evaluate((el, k) => {
+    const q = (el as unknown as { sheets: { layers: number; correction: { originalLayers: number } | null }[] }).sheets[k];
+    return [q.layers, q.correction?.originalLayers ?? null];
+  }, i);
+  const [before] = await layersOf(1);
+  await flow('correct a sheet\'s count', async () => {
+    await sheets.locator('tr[data-id]').nth(1).click();
+    const input = sheets.locator('input.count');
+    await input.fill(String((before as number) + 1));
+    await input.dispatchEvent('change');
+    await expect.poll(() => layersOf(1)).toEqual([(before as number) + 1, before]);
+  });
+  const xrd = s.page.locator('strata-diffraction-panel');
+  await flow('load a pattern and cross-check', async () => {
+    await s.page.locator('strata-app [role="tab"]', { hasText: 'Diffraction' }).first().click();
+    await xrd.locator('button', { hasText: 'Demo pattern' }).click();
+    await expect.poll(() => xrd.locator('strata-plot').count(), { timeout: 60_000 }).toBe(1);
+    await xrd.locator('button', { hasText: 'Take periods from the library' }).click();
+    const message = () => s.page.locator('strata-app').evaluate((el) => (el as unknown as { message: { text: string } | null }).message?.text ?? '');
+    await expect.poll(message, { timeout: 20_000 }).toMatch(/distinct periods? pooled from the library/);
+  });
+  // every pooled period has its row in the cross-check table
+  const pooled = Number(/^(\d+) distinct/.exec(await s.page.locator('strata-app').evaluate((el) => (el as unknown as { message: { text: string } }).message.text))![1]);
+  const rows = xrd.locator('h3', { hasText: 'Micrograph periods against diffraction' }).locator('xpath=..').locator('tr:has(td)');
+  expect(await rows.count()).toBe(pooled);
+  await s.page.screenshot({ path: join(dir, 'cross-check-1366x768.png') });
+  // back to the lattice-fringe demo for the tests that follow
+  await closeImage();
+  await openDemoImage(s.page, 'Tactoid lattice fringes', 1024, 'Periods');
+});
+
 test('on a 406 px wide window the viewer\'s status row wraps: every readout and the histogram are inside the viewer', async () => {
   await s.page.setViewportSize({ width: 406, height: 768 });
   await nextFrames(s.page);
