@@ -3,6 +3,7 @@
  * their uncertainty parts; nanometres only through `expressLength` / `expressPeriod`), for the
  * store, the batch runner, the command line and the exports. Plain JSON only in `detail`.
  */
+import { simplifyPolyline } from './polyline';
 import type { Calibration } from '../image/grey-image';
 import {
   combinedPx,
@@ -70,10 +71,14 @@ export interface SheetReport {
   notes: string[];
 }
 
+/** How far, px, a report's outline may stray from the search's pixel-by-pixel outline (a quarter pixel: below what any view shows). */
+export const OUTLINE_TOLERANCE_PX = 0.25;
+
 /**
  * The report of an automatic sheet.
  * @param s the sheet from `detectSheets`
- * @returns its SheetReport (status and id kept)
+ * @returns its SheetReport (status and id kept); its outline keeps the vertices its shape needs
+ *   (within OUTLINE_TOLERANCE_PX of the search's outline, which has a point per pixel of length)
  */
 export function sheetFromAuto(s: AutoSheet): SheetReport {
   return {
@@ -91,7 +96,7 @@ export function sheetFromAuto(s: AutoSheet): SheetReport {
     angleDeg: s.angleDeg,
     centerPx: [s.centerPx[0], s.centerPx[1]],
     lengthPx: s.lengthPx,
-    outlinePx: s.outlinePx.map((p) => [p[0], p[1]] as [number, number]),
+    outlinePx: simplifyPolyline(s.outlinePx, OUTLINE_TOLERANCE_PX),
     confidence: s.confidence,
     evidence: s.evidence,
     notes: [...s.notes],
