@@ -806,7 +806,7 @@ export class StrataViewer extends LitElement {
     const x = 16;
     const y = this.viewH - 22;
     return svg`<g class="scalebar">
-      <rect x=${x - 6} y=${y - 20} width=${barPx + 12} height="32" fill="#000" fill-opacity="0.55" rx="3"></rect>
+      <rect x=${x - 6} y=${y - 20} width=${barPx + 12} height="32" fill="#000" fill-opacity="0.85" rx="3"></rect>
       <rect x=${x} y=${y} width=${barPx} height="5" fill="#fff"></rect>
       <text x=${x + barPx / 2} y=${y - 6} fill="#fff" font-size="12" text-anchor="middle">${lengthLabel(lengthNm)}</text></g>`;
   }
