@@ -572,7 +572,7 @@ export class StrataDiffractionPanel extends LitElement {
         <h3>Peaks (${a.peaks.length})</h3>
         <p class="muted">Wavelength ${a.radiationLabel} — from ${a.radiationSource}. d ± 2u: fit, profile shape, zero shift (${a.indexing.zeroShiftDeg !== null ? 'measured, removed' : 'allowance'}) and wavelength.</p>
         <table>
-          <tr><th>2θ (°)</th><th>d (nm) ± 2u</th><th>FWHM (°)</th><th>height</th><th>size (nm)</th><th>hkl</th></tr>
+          <tr><th>2θ (°)</th><th>d (nm) ± 2u</th><th>FWHM (°)</th><th>height</th><th>size (nm) ± 2u</th><th>hkl</th></tr>
           ${a.peaks.map((p, i) => {
             const hkl = a.indexing.phases.flatMap((ph, j) => ph.lines.filter((l) => l.peak === i).map((l) => `${a.indexing.phases.length > 1 ? `${j + 1}: ` : ''}${l.hkl.join(' ')}`))[0] ?? '';
             return html`<tr><td>${p.twoThetaDeg === null ? '—' : pm(p.twoThetaDeg, p.twoThetaUncDeg)}</td><td>${pm(p.dCorrectedNm, 2 * p.budget.combinedNm)}</td><td>${sig(p.fwhmDeg, 3)}</td><td>${sig(p.intensity, 3)}</td><td>${p.kind === 'band' ? '(hk) band' : p.crystalliteNm === null ? '—' : pm(p.crystalliteNm, 2 * (p.crystalliteUncNm ?? 0))}</td><td>${hkl}</td></tr>`;
@@ -581,7 +581,7 @@ export class StrataDiffractionPanel extends LitElement {
         ${a.indexing.phases.map((ph, j) => html`<p>Phase ${j + 1}: ${ph.kind}, ${ph.kind === 'lamellar' ? `period ${pm(ph.cNm, 2 * ph.cUncNm)} nm` : ph.kind.startsWith('cubic') ? `a = ${pm(ph.aNm, 2 * ph.aUncNm)} nm` : `a = ${pm(ph.aNm, 2 * ph.aUncNm)} nm, c = ${pm(ph.cNm, 2 * ph.cUncNm)} nm`} (± 2u); ${ph.lines.length} lines; F${ph.figureOfMerit.n} = ${sig(ph.figureOfMerit.fN, 3)}${ph.standard ? ` — internal standard ${ph.name}, cell held` : ''}</p>`)}
         ${a.indexing.zeroShiftDeg !== null ? html`<p class="zero-shift">${this.zeroShiftLine(a)}</p>` : nothing}
         ${a.series.map((s) => html`<p>${s.kind}: ${s.members.map((m) => spacedIndex(m.index)).join(', ')} — cell ${pm(s.cellNm, 2 * s.cellUncNm)} nm (± 2u)</p>`)}
-        <p class="muted">${a.sizeMethod}</p>
+        <p class="muted">${a.sizeMethod}. Size ± 2u: the fitted breadth (FWHM and η); the shape factor K is a convention whose own uncertainty (about 10 %, with the crystallites' shape) is not included.</p>
         ${a.notes.map((n) => html`<p class="muted">${n}</p>`)}
       </section>` : nothing}
       </div>
