@@ -581,7 +581,7 @@ export class StrataDiffractionPanel extends LitElement {
         ${a.indexing.phases.map((ph, j) => html`<p>Phase ${j + 1}: ${ph.kind}, ${ph.kind === 'lamellar' ? `period ${pm(ph.cNm, 2 * ph.cUncNm)} nm` : ph.kind.startsWith('cubic') ? `a = ${pm(ph.aNm, 2 * ph.aUncNm)} nm` : `a = ${pm(ph.aNm, 2 * ph.aUncNm)} nm, c = ${pm(ph.cNm, 2 * ph.cUncNm)} nm`} (± 2u); ${ph.lines.length} lines; F${ph.figureOfMerit.n} = ${sig(ph.figureOfMerit.fN, 3)}${ph.standard ? ` — internal standard ${ph.name}, cell held` : ''}</p>`)}
         ${a.indexing.zeroShiftDeg !== null ? html`<p class="zero-shift">${this.zeroShiftLine(a)}</p>` : nothing}
         ${a.series.map((s) => html`<p>${s.kind}: ${s.members.map((m) => spacedIndex(m.index)).join(', ')} — cell ${pm(s.cellNm, 2 * s.cellUncNm)} nm (± 2u)</p>`)}
-        <p class="muted">${a.sizeMethod}. Size ± 2u: the fitted breadth (FWHM and η); the shape factor K is a convention whose own uncertainty (about 10 %, with the crystallites' shape) is not included.</p>
+        <p class="muted">${a.sizeMethod}. Size ± 2u: the fitted breadth (FWHM and η); the shape factor K, whose value depends on the crystallites' shape (Langford &amp; Wilson, J. Appl. Cryst. 1978), is taken as exact.</p>
         ${a.notes.map((n) => html`<p class="muted">${n}</p>`)}
       </section>` : nothing}
       </div>
