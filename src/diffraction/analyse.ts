@@ -230,7 +230,7 @@ export function instrumentFromStandard(standard: Pattern, source = 'standard', o
   const fit = fitPattern(standard, options);
   const peaks = fit.peaks.filter((p) => p.kind === 'peak' && p.twoThetaDeg !== null && p.fwhmDeg !== null && p.atBound.length === 0 && p.significance > 3 * fit.test.zCritical);
   if (peaks.length === 0) throw new RangeError(`${source}: no usable peak in the standard pattern`);
-  return fitInstrumentProfile(peaks.map((p) => ({ twoThetaDeg: p.twoThetaDeg!, fwhmDeg: p.fwhmDeg!, eta: p.eta, weight: 1 })), standard.wavelengthNm, source);
+  return fitInstrumentProfile(peaks.map((p) => ({ twoThetaDeg: p.twoThetaDeg!, fwhmDeg: p.fwhmDeg!, eta: p.eta, fwhmUncDeg: p.fwhmUncDeg ?? undefined, etaUnc: p.etaUnc, fwhmEtaCorrelation: p.fwhmEtaCorrelation })), standard.wavelengthNm, source);
 }
 
 /**
