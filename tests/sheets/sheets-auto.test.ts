@@ -151,6 +151,22 @@ describe('detectSheets', () => {
     expect(res.sheets[sc.matchOf[i]].layers).toBe(11);
     expect(sc.spurious).toBeLessThanOrEqual(1);
   });
+  it('measures a stack touching one already measured from the part of its band beyond that stack', () => {
+    // touching stacks at 4.95 px (synthetic truth, testing/synthetic/overviews.ts): a 4-layer stack
+    // 25 px from a 5-layer one, and a 7-layer stack next to a 3-layer one; every candidate of the
+    // 4-layer stack gave a band holding both stacks, whose comb was too faint (evidence 2–10), and
+    // the 7-layer stack was counted 6 beside an 11-layer sheet over the pair
+    const o = generateOverview('touching', 27);
+    const res = detectSheets(o.image);
+    const sc = scoreOverview(o.truth.stacks, res.sheets);
+    for (const [cx, cy, layers] of [[323, 205, 4], [464, 491, 7]]) {
+      const i = o.truth.stacks.findIndex((t) => t.layers === layers && Math.abs(t.cx - cx) < 2 && Math.abs(t.cy - cy) < 2);
+      expect(i).toBeGreaterThanOrEqual(0);
+      expect(sc.matchOf[i], `the ${layers}-layer stack is found`).toBeGreaterThanOrEqual(0);
+      expect(res.sheets[sc.matchOf[i]].layers).toBe(layers);
+    }
+    expect(sc.spurious).toBe(0);
+  });
   it('follows a thick stack beyond the ends of a short candidate', () => {
     // 9 layers at 8.34 px, 75 px thick and 153 px long, touching its neighbours (synthetic truth,
     // testing/synthetic/overviews.ts): its candidate ridges are at most 47 px long, so its piece was
