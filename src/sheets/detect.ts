@@ -7,13 +7,16 @@
  *    stacks are followed through the crossing, bent ones along their curvature.
  * 2. Along each axis, profiles across the stack follow its local normal (./stack-profile); the
  *    band where it lies is found on the profile averaged over its whole length, touching stacks
- *    being separate bands.
+ *    being separate bands; a band holding a stack already measured and its touching neighbour,
+ *    when it yields no stack, is measured again beyond the measured stack's band.
  * 3. The layer period: given (e.g. from X-ray diffraction), or the peaks of the summed
  *    periodograms of all the candidates' profiles (one or more phases); each stack takes the
  *    period whose comb of layer lines fits it best and refines it from its own fringes; a band
  *    too faint at the image's period is tried within ±4 % of it, and a stack counted at a
  *    period p is tested against the image's finer phase near p/2 on its own axis (a comb of
- *    every other layer), or, when the image has none there, against its own fringes near p/2.
+ *    every other layer), or, when the image has none there, against its own fringes near p/2
+ *    (searched down to the countable limit; a fundamental found so must clear that limit and
+ *    pass the lattice test).
  * 4. Layers are counted by fitting that comb on width-averaged profiles at several positions
  *    along the stack; the count is the most frequent one, and the share of positions that agree
  *    is its confidence. Mono- and bilayers are combs of one or two lines: found by their contrast.
@@ -820,7 +823,7 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
         // (the image's finer phase when its periodograms found one; otherwise the stack's own
         // strongest fringes near p/2: a phase a harmonic of another outvoted in the periodograms)
         const finer = given === undefined && fit.layers >= 2 ? tryPeriods.find((q) => q >= minPeriodPx && Math.abs(q - periodPx / 2) <= 0.15 * (periodPx / 2)) : undefined;
-        const unvoted = given === undefined && fit.layers >= 2 && finer === undefined && periodPx / 2 >= minPeriodPx / 0.85;
+        const unvoted = given === undefined && fit.layers >= 2 && finer === undefined && 1.15 * (periodPx / 2) >= minPeriodPx;
         if (finer !== undefined || unvoted) {
           const sub = fundamentalOnOwnAxis(image, axisPx, fit, periodPx, finer ?? null, polarity, minPeriodPx);
           if (sub) {
@@ -831,6 +834,16 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
             const k2 = Math.max(3, Math.min(9, Math.round((0.9 * own.lengthPx) / spacing)));
             const seg2 = (0.9 * own.lengthPx) / k2;
             const c2 = countAlong(image, own, fit2, sub.periodPx, [limit[0] - shift, limit[1] - shift], k2, polarity, minEvidence);
+            // the fundamental must itself be countable (found near the limit by this second look, it
+            // must clear it outright), and a comb of it no lattice
+            if (sub.periodPx < minPeriodPx) {
+              reject(`its own fundamental ${sub.periodPx.toFixed(2)} px is below ${minPeriodPx} px`, fit2, sub.periodPx);
+              continue;
+            }
+            if (fit2.layers >= 3 && periodicAlongAxis(image, own, sub.fit.centerPx, Math.max(1, 0.35 * fit2.thicknessPx), sub.periodPx, acrossFringePower(sub.profile, sub.fit))) {
+              reject('periodic along its axis as well at its own fundamental: a two-dimensional lattice, not a stack', fit2, sub.periodPx);
+              continue;
+            }
             if (c2.counted.length >= Math.max(2, Math.ceil(k2 / 2))) {
               fit = fit2;
               periodPx = sub.periodPx;
@@ -1051,12 +1064,12 @@ export const FUNDAMENTAL_MIN_GAIN = 12;
  * @param finerPx q, px, or null to look for it on the stack's own profile
  * @param polarity the layers' polarity
  * @param minPeriodPx the smallest period counted, px
- * @returns the comb at the fundamental with its refined period and uncertainty, or null to keep p
+ * @returns the comb at the fundamental with its refined period and uncertainty and the profile it was fitted on, or null to keep p
  * Notes: q is a phase the image's periodograms found, or, given null, the stack's own fringes
  * near p/2 ({@link ownFundamental}); with the Δχ² test this keeps a lone stack at low dose from
  * being halved on its noise.
  */
-function fundamentalOnOwnAxis(image: GreyImage, axisPx: [number, number][], fit: CombFit, periodPx: number, finerPx: number | null, polarity: 'dark' | 'bright', minPeriodPx: number): { fit: CombFit; periodPx: number; uPx: number } | null {
+function fundamentalOnOwnAxis(image: GreyImage, axisPx: [number, number][], fit: CombFit, periodPx: number, finerPx: number | null, polarity: 'dark' | 'bright', minPeriodPx: number): { fit: CombFit; periodPx: number; uPx: number; profile: AcrossProfile } | null {
   const own = axisFrame(axisPx);
   const L = own.lengthPx;
   const hw = fit.thicknessPx / 2 + Math.max(3 * periodPx, 8);
@@ -1072,7 +1085,7 @@ function fundamentalOnOwnAxis(image: GreyImage, axisPx: [number, number][], fit:
   const refined = (f: CombFit) => (f.layers >= 4 ? refinePeriod(op, f, polarity, undefined) : { periodPx: f.periodPx, uPx: 0, fit: f });
   const p = refined(atP);
   const h = refined(atHalf0);
-  return (p.fit.rss - h.fit.rss) / h.fit.noiseVar >= FUNDAMENTAL_MIN_GAIN ? h : null;
+  return (p.fit.rss - h.fit.rss) / h.fit.noiseVar >= FUNDAMENTAL_MIN_GAIN ? { ...h, profile: op } : null;
 }
 
 /**
