@@ -7,13 +7,16 @@
  *    stacks are followed through the crossing, bent ones along their curvature.
  * 2. Along each axis, profiles across the stack follow its local normal (./stack-profile); the
  *    band where it lies is found on the profile averaged over its whole length, touching stacks
- *    being separate bands.
+ *    being separate bands; a band holding a stack already measured and its touching neighbour,
+ *    when it yields no stack, is measured again beyond the measured stack's band.
  * 3. The layer period: given (e.g. from X-ray diffraction), or the peaks of the summed
  *    periodograms of all the candidates' profiles (one or more phases); each stack takes the
  *    period whose comb of layer lines fits it best and refines it from its own fringes; a band
  *    too faint at the image's period is tried within ±4 % of it, and a stack counted at a
  *    period p is tested against the image's finer phase near p/2 on its own axis (a comb of
- *    every other layer), or, when the image has none there, against its own fringes near p/2.
+ *    every other layer), or, when the image has none there, against its own fringes near p/2
+ *    (searched down to the countable limit; a fundamental found so must clear that limit and
+ *    pass the lattice test).
  * 4. Layers are counted by fitting that comb on width-averaged profiles at several positions
  *    along the stack; the count is the most frequent one, and the share of positions that agree
  *    is its confidence. Mono- and bilayers are combs of one or two lines: found by their contrast.
@@ -257,6 +260,27 @@ export function survey(image: GreyImage, axis: RidgeAxis, polarity: 'dark' | 'br
     if (!touches || round >= 2 || U >= 150) return { axis, frame, profile, band, others };
     U = Math.min(150, 2 * U);
   }
+}
+
+/**
+ * The longest stretch of a band (offsets across the axis, px, in 1 px steps) whose lines along
+ * the axis do not lie on a stack already measured; the band itself when none of it does.
+ */
+function uncoveredRun(band: { fromPx: number; toPx: number }, onMeasured: (u: number) => boolean): { fromPx: number; toPx: number } | null {
+  let best: { fromPx: number; toPx: number } | null = null;
+  let start: number | null = null;
+  const n = Math.max(1, Math.ceil(band.toPx - band.fromPx));
+  for (let k = 0; k <= n; k++) {
+    const u = band.fromPx + ((band.toPx - band.fromPx) * k) / n;
+    const free = !onMeasured(u);
+    if (free && start === null) start = u;
+    if ((!free || k === n) && start !== null) {
+      const end = free ? u : band.fromPx + ((band.toPx - band.fromPx) * (k - 1)) / n;
+      if (!best || end - start > best.toPx - best.fromPx) best = { fromPx: start, toPx: end };
+      start = null;
+    }
+  }
+  return best;
 }
 
 /** A stack measured from one candidate, before pieces of the same stack are merged. */
@@ -670,174 +694,197 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
     if (coverage.covered(centreLine, angleAt, 20, true).share > 0.5) continue;
     if (coverage.covered(centreLine, angleAt, 20, false).share > 0.5) onShort = true;
     const parts = splitBand(profile, svBand, tryPeriods[0], polarity);
-    for (const band of parts) {
-      const bmid = 0.5 * (band.fromPx + band.toPx);
-      const line = shiftAxis(frame, () => bmid);
-      if (coverage.covered(line, angleAt, 20, true).share > 0.5) continue;
-      const bandOnShort = onShort || coverage.covered(line, angleAt, 20, false).share > 0.5;
-      // fit window: up to the neighbouring bands (touching stacks)
-      const neighbours = [...(sv as Survey).others, ...parts.filter((q) => q !== band)];
-      let lo = profile.startPx;
-      let hi = profile.startPx + (profile.values.length - 1) * profile.binPx;
-      for (const o of neighbours) {
-        if (o.toPx <= band.fromPx) lo = Math.max(lo, 0.5 * (o.toPx + band.fromPx));
-        if (o.fromPx >= band.toPx) hi = Math.min(hi, 0.5 * (o.fromPx + band.toPx));
-      }
-      const limit: [number, number] = [lo, hi];
-      const chosen = bestPeriod(profile, band, tryPeriods, polarity, limit);
-      const centerIdx = Math.floor(frame.points.length / 2);
-      const centerAt = (off: number): [number, number] => [frame.points[centerIdx][0] + off * frame.normals[centerIdx][0], frame.points[centerIdx][1] + off * frame.normals[centerIdx][1]];
-      const reject = (reason: string, fit: CombFit | null, d: number | null) => {
-        rejected.push({ centerPx: centerAt(fit ? fit.centerPx : bmid), angleDeg: angleAt(centerIdx), layers: fit?.layers ?? null, periodPx: d, reason });
-      };
-      if (!chosen) {
-        reject('no comb of layer lines fits the band', null, null);
-        continue;
-      }
-      let { fit, periodPx } = chosen;
-      const imagePeriodPx = periodPx;
-      let retried = false;
-      if (fit.evidence < minEvidence && given === undefined && band.toPx - band.fromPx >= 3.5 * periodPx) {
-        // the image's period is an estimate (its periodograms read a few per cent high near the
-        // sampling limit); over many layers a small error puts the comb out of phase with the
-        // stack, so the band's own best period within ±4 % is tried before it is called faint
-        // (a band of four periods or more: a thinner one hardly goes out of phase)
-        const retry = combNearPeriod(profile, band, periodPx, { polarity, limitPx: limit, minEvidence, minPeriodPx });
-        if (retry && retry.fit.layers >= 4 && retry.fit.thicknessPx <= sv.frame.lengthPx) {
-          ({ fit, periodPx } = retry);
-          retried = true;
+    for (const part of parts) {
+      const pmid = 0.5 * (part.fromPx + part.toPx);
+      if (coverage.covered(shiftAxis(frame, () => pmid), angleAt, 20, true).share > 0.5) continue;
+      // a band that holds a stack already measured and its touching neighbour fits no comb: it
+      // is tried again as the part beyond the measured stack's band, its window ending there
+      const free = uncoveredRun(part, (u) => coverage.covered(shiftAxis(frame, () => u), angleAt, 20, true).share > 0.5);
+      const bands = [part];
+      if (free && (free.fromPx > part.fromPx + 0.5 || free.toPx < part.toPx - 0.5) && free.toPx - free.fromPx >= 1.5 * tryPeriods[0]) bands.push({ ...part, fromPx: free.fromPx, toPx: free.toPx });
+      let measured = false;
+      for (const band of bands) {
+        if (measured) break;
+        const bmid = 0.5 * (band.fromPx + band.toPx);
+        const line = shiftAxis(frame, () => bmid);
+        const bandOnShort = onShort || coverage.covered(line, angleAt, 20, false).share > 0.5;
+        // fit window: up to the neighbouring bands (touching stacks), and the measured stack's band
+        const neighbours = [...(sv as Survey).others, ...parts.filter((q) => q !== part)];
+        let lo = profile.startPx;
+        let hi = profile.startPx + (profile.values.length - 1) * profile.binPx;
+        for (const o of neighbours) {
+          if (o.toPx <= band.fromPx) lo = Math.max(lo, 0.5 * (o.toPx + band.fromPx));
+          if (o.fromPx >= band.toPx) hi = Math.min(hi, 0.5 * (o.fromPx + band.toPx));
         }
-      }
-      if (fit.evidence < minEvidence) {
-        reject(`too faint: evidence ${fit.evidence.toFixed(0)} below ${minEvidence}`, fit, periodPx);
-        continue;
-      }
-      let uPeriod = 0;
-      let periodSource: AutoSheet['periodSource'] = given !== undefined ? 'given' : 'image';
-      if (given === undefined && fit.layers >= 4) {
-        const r = refinePeriod(profile, fit, polarity, limit);
-        periodPx = r.periodPx;
-        uPeriod = r.uPx;
-        fit = fitLayerComb(profile, periodPx, { fromPx: fit.centerPx - (fit.layers * periodPx) / 2, toPx: fit.centerPx + (fit.layers * periodPx) / 2 }, { polarity, limitPx: limit, countReach: 2 }) ?? r.fit;
-        periodSource = 'stack';
-        // the comb reported must itself have the evidence asked for (its refit at the refined
-        // period may have less; a crossed lattice gave such a comb)
-        if (fit.evidence < minEvidence) {
-          reject(`too faint at its own period ${periodPx.toFixed(2)} px: evidence ${fit.evidence.toFixed(0)} below ${minEvidence}`, fit, periodPx);
+        if (band.fromPx > part.fromPx) lo = Math.max(lo, band.fromPx - 0.5 * tryPeriods[0]);
+        if (band.toPx < part.toPx) hi = Math.min(hi, band.toPx + 0.5 * tryPeriods[0]);
+        const limit: [number, number] = [lo, hi];
+        const chosen = bestPeriod(profile, band, tryPeriods, polarity, limit);
+        const centerIdx = Math.floor(frame.points.length / 2);
+        const centerAt = (off: number): [number, number] => [frame.points[centerIdx][0] + off * frame.normals[centerIdx][0], frame.points[centerIdx][1] + off * frame.normals[centerIdx][1]];
+        const reject = (reason: string, fit: CombFit | null, d: number | null) => {
+          rejected.push({ centerPx: centerAt(fit ? fit.centerPx : bmid), angleDeg: angleAt(centerIdx), layers: fit?.layers ?? null, periodPx: d, reason });
+        };
+        if (!chosen) {
+          reject('no comb of layer lines fits the band', null, null);
           continue;
         }
-        // a comb found only off the image's period must stay near it once refined (a refinement
-        // that walks further has fitted another count, not a period read a few per cent high)
-        if (retried && Math.abs(periodPx - imagePeriodPx) > 0.05 * imagePeriodPx) {
-          reject(`too faint at the image's period ${imagePeriodPx.toFixed(2)} px, and its own comb moves to ${periodPx.toFixed(2)} px`, fit, periodPx);
-          continue;
-        }
-      }
-      if (periodPx + 2 * uPeriod < minPeriodPx) {
-        reject(`period ${periodPx.toFixed(2)} px is below ${minPeriodPx} px`, fit, periodPx);
-        continue;
-      }
-      if (periodPx > maxPeriodPx) {
-        reject(`period ${periodPx.toFixed(2)} px is above ${maxPeriodPx} px`, fit, periodPx);
-        continue;
-      }
-      // layers must be resolved for a stack of three or more: the comb explains the band
-      // better than a plain step of the same extent (film texture makes bands without layers)
-      if (fit.layers >= 3) {
-        if (!layersResolved(profile, fit, polarity, limit)) {
-          reject('no resolved layers: a band without fringes (film texture or an unresolved stack)', fit, periodPx);
-          continue;
-        }
-      } else if (fit.layers === 1 && fit.lineSigmaPx > 0.49 * periodPx + 0.5) {
-        reject('a single line wider than a layer', fit, periodPx);
-        continue;
-      }
-      const acrossPower = acrossFringePower(profile, fit);
-      if (fit.layers >= 3 && periodicAlongAxis(image, frame, fit.centerPx, Math.max(1, 0.35 * fit.thicknessPx), periodPx, acrossPower)) {
-        reject('periodic along its axis as well: a two-dimensional lattice, not a stack', fit, periodPx);
-        continue;
-      }
-      // ---- counts at positions along the axis ----
-      const L = frame.lengthPx;
-      const k = Math.max(3, Math.min(9, Math.round((0.9 * L) / spacing)));
-      const seg = (0.9 * L) / k;
-      let counts = countAlong(image, frame, fit, periodPx, limit, k, polarity, minEvidence);
-      if (counts.counted.length < Math.max(2, Math.ceil(k / 2))) {
-        reject(`seen at ${counts.counted.length} of ${k} positions along its axis: not a persistent stack`, fit, periodPx);
-        continue;
-      }
-      // the layers run along the axis: the stack's centre must not drift across it from
-      // position to position (an axis oblique to the layers crosses them)
-      {
-        const slope = driftSlope(counts, L, seg, minEvidence);
-        if (Math.abs(slope) > Math.tan((8 * Math.PI) / 180)) {
-          reject(`the band drifts across its axis (${(Math.atan(Math.abs(slope)) * DEG).toFixed(0)}°): the axis crosses the layers`, fit, periodPx);
-          continue;
-        }
-      }
-      // the stack's own axis: the candidate's shifted to the measured positions' centres
-      let offAt = offsetAlong(counts, L, seg, minEvidence);
-      let pieceFrame = frame;
-      let axisPx = frame.points.map((q, i) => {
-        const o = offAt(frame.cumPx[i]);
-        return [q[0] + o * frame.normals[i][0], q[1] + o * frame.normals[i][1]] as [number, number];
-      });
-      // a comb of every other layer: on a candidate axis a little oblique to the layers, the
-      // fine fringes wash out and a comb at twice the period fits the band; on the stack's own
-      // axis the fundamental is tested against it
-      // (the image's finer phase when its periodograms found one; otherwise the stack's own
-      // strongest fringes near p/2: a phase a harmonic of another outvoted in the periodograms)
-      const finer = given === undefined && fit.layers >= 2 ? tryPeriods.find((q) => q >= minPeriodPx && Math.abs(q - periodPx / 2) <= 0.15 * (periodPx / 2)) : undefined;
-      const unvoted = given === undefined && fit.layers >= 2 && finer === undefined && periodPx / 2 >= minPeriodPx / 0.85;
-      if (finer !== undefined || unvoted) {
-        const sub = fundamentalOnOwnAxis(image, axisPx, fit, periodPx, finer ?? null, polarity, minPeriodPx);
-        if (sub) {
-          // recounted along the stack's own axis (the fine fringes wash out along the candidate's)
-          const own = axisFrame(axisPx);
-          const shift = mean(counts.offsets);
-          const fit2: CombFit = { ...fit, layers: sub.fit.layers, periodPx: sub.periodPx, lineSigmaPx: sub.fit.lineSigmaPx, thicknessPx: sub.fit.layers * sub.periodPx, centerPx: 0, firstPx: -((sub.fit.layers - 1) * sub.periodPx) / 2 };
-          const k2 = Math.max(3, Math.min(9, Math.round((0.9 * own.lengthPx) / spacing)));
-          const seg2 = (0.9 * own.lengthPx) / k2;
-          const c2 = countAlong(image, own, fit2, sub.periodPx, [limit[0] - shift, limit[1] - shift], k2, polarity, minEvidence);
-          if (c2.counted.length >= Math.max(2, Math.ceil(k2 / 2))) {
-            fit = fit2;
-            periodPx = sub.periodPx;
-            uPeriod = sub.uPx;
-            periodSource = 'stack';
-            counts = c2;
-            pieceFrame = own;
-            offAt = offsetAlong(counts, own.lengthPx, seg2, minEvidence);
-            axisPx = own.points.map((q, i) => {
-              const o = offAt(own.cumPx[i]);
-              return [q[0] + o * own.normals[i][0], q[1] + o * own.normals[i][1]] as [number, number];
-            });
+        let { fit, periodPx } = chosen;
+        const imagePeriodPx = periodPx;
+        let retried = false;
+        if (fit.evidence < minEvidence && given === undefined && band.toPx - band.fromPx >= 3.5 * periodPx) {
+          // the image's period is an estimate (its periodograms read a few per cent high near the
+          // sampling limit); over many layers a small error puts the comb out of phase with the
+          // stack, so the band's own best period within ±4 % is tried before it is called faint
+          // (a band of four periods or more: a thinner one hardly goes out of phase)
+          const retry = combNearPeriod(profile, band, periodPx, { polarity, limitPx: limit, minEvidence, minPeriodPx });
+          if (retry && retry.fit.layers >= 4 && retry.fit.thicknessPx <= sv.frame.lengthPx) {
+            ({ fit, periodPx } = retry);
+            retried = true;
           }
         }
+        if (fit.evidence < minEvidence) {
+          reject(`too faint: evidence ${fit.evidence.toFixed(0)} below ${minEvidence}`, fit, periodPx);
+          continue;
+        }
+        let uPeriod = 0;
+        let periodSource: AutoSheet['periodSource'] = given !== undefined ? 'given' : 'image';
+        if (given === undefined && fit.layers >= 4) {
+          const r = refinePeriod(profile, fit, polarity, limit);
+          periodPx = r.periodPx;
+          uPeriod = r.uPx;
+          fit = fitLayerComb(profile, periodPx, { fromPx: fit.centerPx - (fit.layers * periodPx) / 2, toPx: fit.centerPx + (fit.layers * periodPx) / 2 }, { polarity, limitPx: limit, countReach: 2 }) ?? r.fit;
+          periodSource = 'stack';
+          // the comb reported must itself have the evidence asked for (its refit at the refined
+          // period may have less; a crossed lattice gave such a comb)
+          if (fit.evidence < minEvidence) {
+            reject(`too faint at its own period ${periodPx.toFixed(2)} px: evidence ${fit.evidence.toFixed(0)} below ${minEvidence}`, fit, periodPx);
+            continue;
+          }
+          // a comb found only off the image's period must stay near it once refined (a refinement
+          // that walks further has fitted another count, not a period read a few per cent high)
+          if (retried && Math.abs(periodPx - imagePeriodPx) > 0.05 * imagePeriodPx) {
+            reject(`too faint at the image's period ${imagePeriodPx.toFixed(2)} px, and its own comb moves to ${periodPx.toFixed(2)} px`, fit, periodPx);
+            continue;
+          }
+        }
+        if (periodPx + 2 * uPeriod < minPeriodPx) {
+          reject(`period ${periodPx.toFixed(2)} px is below ${minPeriodPx} px`, fit, periodPx);
+          continue;
+        }
+        if (periodPx > maxPeriodPx) {
+          reject(`period ${periodPx.toFixed(2)} px is above ${maxPeriodPx} px`, fit, periodPx);
+          continue;
+        }
+        // layers must be resolved for a stack of three or more: the comb explains the band
+        // better than a plain step of the same extent (film texture makes bands without layers)
+        if (fit.layers >= 3) {
+          if (!layersResolved(profile, fit, polarity, limit)) {
+            reject('no resolved layers: a band without fringes (film texture or an unresolved stack)', fit, periodPx);
+            continue;
+          }
+        } else if (fit.layers === 1 && fit.lineSigmaPx > 0.49 * periodPx + 0.5) {
+          reject('a single line wider than a layer', fit, periodPx);
+          continue;
+        }
+        const acrossPower = acrossFringePower(profile, fit);
+        if (fit.layers >= 3 && periodicAlongAxis(image, frame, fit.centerPx, Math.max(1, 0.35 * fit.thicknessPx), periodPx, acrossPower)) {
+          reject('periodic along its axis as well: a two-dimensional lattice, not a stack', fit, periodPx);
+          continue;
+        }
+        // ---- counts at positions along the axis ----
+        const L = frame.lengthPx;
+        const k = Math.max(3, Math.min(9, Math.round((0.9 * L) / spacing)));
+        const seg = (0.9 * L) / k;
+        let counts = countAlong(image, frame, fit, periodPx, limit, k, polarity, minEvidence);
+        if (counts.counted.length < Math.max(2, Math.ceil(k / 2))) {
+          reject(`seen at ${counts.counted.length} of ${k} positions along its axis: not a persistent stack`, fit, periodPx);
+          continue;
+        }
+        // the layers run along the axis: the stack's centre must not drift across it from
+        // position to position (an axis oblique to the layers crosses them)
+        {
+          const slope = driftSlope(counts, L, seg, minEvidence);
+          if (Math.abs(slope) > Math.tan((8 * Math.PI) / 180)) {
+            reject(`the band drifts across its axis (${(Math.atan(Math.abs(slope)) * DEG).toFixed(0)}°): the axis crosses the layers`, fit, periodPx);
+            continue;
+          }
+        }
+        // the stack's own axis: the candidate's shifted to the measured positions' centres
+        let offAt = offsetAlong(counts, L, seg, minEvidence);
+        let pieceFrame = frame;
+        let axisPx = frame.points.map((q, i) => {
+          const o = offAt(frame.cumPx[i]);
+          return [q[0] + o * frame.normals[i][0], q[1] + o * frame.normals[i][1]] as [number, number];
+        });
+        // a comb of every other layer: on a candidate axis a little oblique to the layers, the
+        // fine fringes wash out and a comb at twice the period fits the band; on the stack's own
+        // axis the fundamental is tested against it
+        // (the image's finer phase when its periodograms found one; otherwise the stack's own
+        // strongest fringes near p/2: a phase a harmonic of another outvoted in the periodograms)
+        const finer = given === undefined && fit.layers >= 2 ? tryPeriods.find((q) => q >= minPeriodPx && Math.abs(q - periodPx / 2) <= 0.15 * (periodPx / 2)) : undefined;
+        const unvoted = given === undefined && fit.layers >= 2 && finer === undefined && 1.15 * (periodPx / 2) >= minPeriodPx;
+        if (finer !== undefined || unvoted) {
+          const sub = fundamentalOnOwnAxis(image, axisPx, fit, periodPx, finer ?? null, polarity, minPeriodPx);
+          if (sub) {
+            // recounted along the stack's own axis (the fine fringes wash out along the candidate's)
+            const own = axisFrame(axisPx);
+            const shift = mean(counts.offsets);
+            const fit2: CombFit = { ...fit, layers: sub.fit.layers, periodPx: sub.periodPx, lineSigmaPx: sub.fit.lineSigmaPx, thicknessPx: sub.fit.layers * sub.periodPx, centerPx: 0, firstPx: -((sub.fit.layers - 1) * sub.periodPx) / 2 };
+            const k2 = Math.max(3, Math.min(9, Math.round((0.9 * own.lengthPx) / spacing)));
+            const seg2 = (0.9 * own.lengthPx) / k2;
+            const c2 = countAlong(image, own, fit2, sub.periodPx, [limit[0] - shift, limit[1] - shift], k2, polarity, minEvidence);
+            // the fundamental must itself be countable (found near the limit by this second look, it
+            // must clear it outright), and a comb of it no lattice
+            if (sub.periodPx < minPeriodPx) {
+              reject(`its own fundamental ${sub.periodPx.toFixed(2)} px is below ${minPeriodPx} px`, fit2, sub.periodPx);
+              continue;
+            }
+            if (fit2.layers >= 3 && periodicAlongAxis(image, own, sub.fit.centerPx, Math.max(1, 0.35 * fit2.thicknessPx), sub.periodPx, acrossFringePower(sub.profile, sub.fit))) {
+              reject('periodic along its axis as well at its own fundamental: a two-dimensional lattice, not a stack', fit2, sub.periodPx);
+              continue;
+            }
+            if (c2.counted.length >= Math.max(2, Math.ceil(k2 / 2))) {
+              fit = fit2;
+              periodPx = sub.periodPx;
+              uPeriod = sub.uPx;
+              periodSource = 'stack';
+              counts = c2;
+              pieceFrame = own;
+              offAt = offsetAlong(counts, own.lengthPx, seg2, minEvidence);
+              axisPx = own.points.map((q, i) => {
+                const o = offAt(own.cumPx[i]);
+                return [q[0] + o * own.normals[i][0], q[1] + o * own.normals[i][1]] as [number, number];
+              });
+            }
+          }
+        }
+        // the candidate ridge of a thick band (40 px or more) may end well short of the stack's
+        // ends: a piece of one, shorter than 30 px or than its thickness, follows its own axis
+        // beyond its ends while its comb, with the same count, is still seen there nearly as
+        // strongly as along the piece (two fifths of its evidence per px); kept if it is then long enough
+        if (fit.layers >= 3 && fit.layers * periodPx >= 40 && polylineLengthOf(axisPx) < Math.max(minLengthPx, fit.layers * periodPx)) {
+          const seenEv = counts.positions.filter((q) => q.layers !== null && q.evidence >= 0.25 * minEvidence).map((q) => q.evidence);
+          const perPx = median(seenEv) / ((0.9 * pieceFrame.lengthPx) / counts.positions.length);
+          const longer = extendAxis(image, axisPx, fit.layers, fit.lineSigmaPx, periodPx, [limit[0] - mean(counts.offsets), limit[1] - mean(counts.offsets)], polarity, Math.max(0.25 * minEvidence, 0.4 * perPx * EXTEND_STEP_PX), mask);
+          if (polylineLengthOf(longer) >= Math.max(minLengthPx, fit.layers * periodPx)) axisPx = longer;
+        }
+        const { positions, counted, edge } = counts;
+        const piece: Piece = { axisPx, periodPx, uPeriodPx: uPeriod, periodSource, fitLayers: fit.layers, counted, edges: edge, positions, evidence: fit.evidence };
+        const done = finishPiece(piece, minPeriodPx);
+        if (inBox(done.centerPx[0], done.centerPx[1], exclude)) continue;
+        // a second look adds stacks; it does not touch the ones measured before
+        if (earlier.some((o) => shareOnBand(done.axisPx, o) > 0.2 || shareOnBand(o.axisPx, done) > 0.2)) continue;
+        // a piece too short to be a stack by itself may yet join another piece of its stack, but
+        // covers its band only softly (a short wrong piece must not hide the real stack); one
+        // measured on such a piece's band must be long enough by itself (else the same band would
+        // be tried, and kept, again)
+        const short = done.lengthPx < Math.max(minLengthPx, done.thicknessPx);
+        if (bandOnShort && short) continue;
+        pieces.push(piece);
+        measured = true;
+        coverage.add(pieces.length - 1, pieceFrame, offAt(pieceFrame.cumPx[Math.floor(pieceFrame.points.length / 2)]), done.thicknessPx / 2 + 0.5 * periodPx, (i) => screenAngleDeg(pieceFrame.normals[i][0], pieceFrame.normals[i][1]), short);
       }
-      // the candidate ridge of a thick band (40 px or more) may end well short of the stack's
-      // ends: a piece of one, shorter than 30 px or than its thickness, follows its own axis
-      // beyond its ends while its comb, with the same count, is still seen there nearly as
-      // strongly as along the piece (two fifths of its evidence per px); kept if it is then long enough
-      if (fit.layers >= 3 && fit.layers * periodPx >= 40 && polylineLengthOf(axisPx) < Math.max(minLengthPx, fit.layers * periodPx)) {
-        const seenEv = counts.positions.filter((q) => q.layers !== null && q.evidence >= 0.25 * minEvidence).map((q) => q.evidence);
-        const perPx = median(seenEv) / ((0.9 * pieceFrame.lengthPx) / counts.positions.length);
-        const longer = extendAxis(image, axisPx, fit.layers, fit.lineSigmaPx, periodPx, [limit[0] - mean(counts.offsets), limit[1] - mean(counts.offsets)], polarity, Math.max(0.25 * minEvidence, 0.4 * perPx * EXTEND_STEP_PX), mask);
-        if (polylineLengthOf(longer) >= Math.max(minLengthPx, fit.layers * periodPx)) axisPx = longer;
-      }
-      const { positions, counted, edge } = counts;
-      const piece: Piece = { axisPx, periodPx, uPeriodPx: uPeriod, periodSource, fitLayers: fit.layers, counted, edges: edge, positions, evidence: fit.evidence };
-      const done = finishPiece(piece, minPeriodPx);
-      if (inBox(done.centerPx[0], done.centerPx[1], exclude)) continue;
-      // a second look adds stacks; it does not touch the ones measured before
-      if (earlier.some((o) => shareOnBand(done.axisPx, o) > 0.2 || shareOnBand(o.axisPx, done) > 0.2)) continue;
-      // a piece too short to be a stack by itself may yet join another piece of its stack, but
-      // covers its band only softly (a short wrong piece must not hide the real stack); one
-      // measured on such a piece's band must be long enough by itself (else the same band would
-      // be tried, and kept, again)
-      const short = done.lengthPx < Math.max(minLengthPx, done.thicknessPx);
-      if (bandOnShort && short) continue;
-      pieces.push(piece);
-      coverage.add(pieces.length - 1, pieceFrame, offAt(pieceFrame.cumPx[Math.floor(pieceFrame.points.length / 2)]), done.thicknessPx / 2 + 0.5 * periodPx, (i) => screenAngleDeg(pieceFrame.normals[i][0], pieceFrame.normals[i][1]), short);
     }
   }
   };
@@ -1017,12 +1064,12 @@ export const FUNDAMENTAL_MIN_GAIN = 12;
  * @param finerPx q, px, or null to look for it on the stack's own profile
  * @param polarity the layers' polarity
  * @param minPeriodPx the smallest period counted, px
- * @returns the comb at the fundamental with its refined period and uncertainty, or null to keep p
+ * @returns the comb at the fundamental with its refined period and uncertainty and the profile it was fitted on, or null to keep p
  * Notes: q is a phase the image's periodograms found, or, given null, the stack's own fringes
  * near p/2 ({@link ownFundamental}); with the Δχ² test this keeps a lone stack at low dose from
  * being halved on its noise.
  */
-function fundamentalOnOwnAxis(image: GreyImage, axisPx: [number, number][], fit: CombFit, periodPx: number, finerPx: number | null, polarity: 'dark' | 'bright', minPeriodPx: number): { fit: CombFit; periodPx: number; uPx: number } | null {
+function fundamentalOnOwnAxis(image: GreyImage, axisPx: [number, number][], fit: CombFit, periodPx: number, finerPx: number | null, polarity: 'dark' | 'bright', minPeriodPx: number): { fit: CombFit; periodPx: number; uPx: number; profile: AcrossProfile } | null {
   const own = axisFrame(axisPx);
   const L = own.lengthPx;
   const hw = fit.thicknessPx / 2 + Math.max(3 * periodPx, 8);
@@ -1038,7 +1085,7 @@ function fundamentalOnOwnAxis(image: GreyImage, axisPx: [number, number][], fit:
   const refined = (f: CombFit) => (f.layers >= 4 ? refinePeriod(op, f, polarity, undefined) : { periodPx: f.periodPx, uPx: 0, fit: f });
   const p = refined(atP);
   const h = refined(atHalf0);
-  return (p.fit.rss - h.fit.rss) / h.fit.noiseVar >= FUNDAMENTAL_MIN_GAIN ? h : null;
+  return (p.fit.rss - h.fit.rss) / h.fit.noiseVar >= FUNDAMENTAL_MIN_GAIN ? { ...h, profile: op } : null;
 }
 
 /**

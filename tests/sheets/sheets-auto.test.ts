@@ -130,12 +130,14 @@ describe('detectSheets', () => {
   it('reports no comb whose refit lacks the evidence, nor a thin stack whose positions disagree (crossed lattice)', () => {
     // a crossed lattice (synthetic, testing/synthetic/overviews.ts: two fringe sets at 10.1 px, no
     // stacks) gave a 6-layer sheet whose comb refitted at its own period had evidence 52 (below the
-    // 60 asked for) and a bilayer counted 3, 1 and 2 at its three positions
+    // 60 asked for) and a bilayer counted 3, 1 and 2 at its three positions (not a thin stack);
+    // since the stack's own fundamental is searched down to 2.5 px, that band is refused earlier:
+    // its comb at half the period lies at 2.49 px, below the countable limit
     const o = generateOverview('crossed-lattice', 24);
     const res = detectSheets(o.image);
     expect(res.sheets).toEqual([]);
     expect(res.rejected.some((r) => r.reason.startsWith('too faint at its own period'))).toBe(true);
-    expect(res.rejected.some((r) => r.reason.includes('not a thin stack'))).toBe(true);
+    expect(res.rejected.some((r) => r.reason.includes('not a thin stack') || r.reason.startsWith('its own fundamental'))).toBe(true);
   });
   it('a short piece of a thick stack does not hide the stack: the stack is measured from another candidate', () => {
     // 11 layers at 7.51 px, 120 px long, 83 px thick (synthetic truth, testing/synthetic/overviews.ts):
@@ -150,6 +152,22 @@ describe('detectSheets', () => {
     expect(sc.matchOf[i], 'the 11-layer stack is found').toBeGreaterThanOrEqual(0);
     expect(res.sheets[sc.matchOf[i]].layers).toBe(11);
     expect(sc.spurious).toBeLessThanOrEqual(1);
+  });
+  it('measures a stack touching one already measured from the part of its band beyond that stack', () => {
+    // touching stacks at 4.95 px (synthetic truth, testing/synthetic/overviews.ts): a 4-layer stack
+    // 25 px from a 5-layer one, and a 7-layer stack next to a 3-layer one; every candidate of the
+    // 4-layer stack gave a band holding both stacks, whose comb was too faint (evidence 2–10), and
+    // the 7-layer stack was counted 6 beside an 11-layer sheet over the pair
+    const o = generateOverview('touching', 27);
+    const res = detectSheets(o.image);
+    const sc = scoreOverview(o.truth.stacks, res.sheets);
+    for (const [cx, cy, layers] of [[323, 205, 4], [464, 491, 7]]) {
+      const i = o.truth.stacks.findIndex((t) => t.layers === layers && Math.abs(t.cx - cx) < 2 && Math.abs(t.cy - cy) < 2);
+      expect(i).toBeGreaterThanOrEqual(0);
+      expect(sc.matchOf[i], `the ${layers}-layer stack is found`).toBeGreaterThanOrEqual(0);
+      expect(res.sheets[sc.matchOf[i]].layers).toBe(layers);
+    }
+    expect(sc.spurious).toBe(0);
   });
   it('follows a thick stack beyond the ends of a short candidate', () => {
     // 9 layers at 8.34 px, 75 px thick and 153 px long, touching its neighbours (synthetic truth,
@@ -203,6 +221,23 @@ describe('detectSheets', () => {
       if (t.periodPx > 6 && sc.matchOf[i] >= 0) expect(res.sheets[sc.matchOf[i]].layers, `stack ${i}`).toBe(t.layers);
     });
     expect(sc.spurious).toBeLessThanOrEqual(1);
+  });
+  it('looks for a stack\'s own fundamental near the countable limit when the image\'s period is twice it (dense, 2.79 px)', () => {
+    // dense field at 2.79 px, blurred, 166 e/px (synthetic truth, testing/synthetic/overviews.ts):
+    // the candidates' periodograms gave 5.67 px only, and its half (2.84 px) was not searched because
+    // part of the range around it lies below 2.5 px, so the stacks were counted at twice their
+    // period with half their layers (7 read 4, 10 read 5, 4 read 2)
+    const o = generateOverview('dense', 36);
+    const res = detectSheets(o.image);
+    const sc = scoreOverview(o.truth.stacks, res.sheets);
+    for (const [cx, cy, layers] of [[306, 550, 7], [561, 531, 10], [383, 299, 4]]) {
+      const i = o.truth.stacks.findIndex((t) => t.layers === layers && Math.abs(t.cx - cx) < 2 && Math.abs(t.cy - cy) < 2);
+      expect(i).toBeGreaterThanOrEqual(0);
+      expect(sc.matchOf[i], `the ${layers}-layer stack is found`).toBeGreaterThanOrEqual(0);
+      const s = res.sheets[sc.matchOf[i]];
+      expect(s.layers, `the ${layers}-layer stack`).toBe(layers);
+      expect(s.periodPx).toBeGreaterThanOrEqual(MIN_COUNTABLE_PERIOD_PX);
+    }
   });
   it('never reports layers finer than the countable 2.5 px, nor passes them to a batch summary', async () => {
     // stacks of 2.1 px layers: resolvable in principle (above the 2 px sampling limit) but not
