@@ -6,6 +6,21 @@ import { syntheticImage } from '../../testing/synthetic/stacks';
 import { generateOverview, scoreOverview } from '../../testing/synthetic/overviews';
 
 // Synthetic clay tactoids in a polymer film with known truth (testing/synthetic/stacks.ts).
+/**
+ * The sheet the search reported for the true stack of `layers` layers centred within 2 px of
+ * (cx, cy) in an overview's truth, after checking that the stack exists, was found and was counted
+ * `layers`; with the stack's index in the truth.
+ */
+function foundStack(o: ReturnType<typeof generateOverview>, res: ReturnType<typeof detectSheets>, cx: number, cy: number, layers: number) {
+  const sc = scoreOverview(o.truth.stacks, res.sheets);
+  const i = o.truth.stacks.findIndex((t) => t.layers === layers && Math.abs(t.cx - cx) < 2 && Math.abs(t.cy - cy) < 2);
+  expect(i, `a true ${layers}-layer stack at (${cx}, ${cy})`).toBeGreaterThanOrEqual(0);
+  expect(sc.matchOf[i], `the ${layers}-layer stack is found`).toBeGreaterThanOrEqual(0);
+  const sheet = res.sheets[sc.matchOf[i]];
+  expect(sheet.layers, `the ${layers}-layer stack's count`).toBe(layers);
+  return { sheet, i, spurious: sc.spurious };
+}
+
 const truth = [
   { layers: 5, periodPx: 8, cx: 100, cy: 100, angleDeg: 90, lengthPx: 120 },
   { layers: 2, periodPx: 8, cx: 300, cy: 120, angleDeg: 30, lengthPx: 100 },
@@ -119,13 +134,9 @@ describe('detectSheets', () => {
     // stacks' own refined periods give 4.8 px, and the second look finds it with its count
     const o = generateOverview('touching', 1);
     const res = detectSheets(o.image);
-    const sc = scoreOverview(o.truth.stacks, res.sheets);
-    const i = o.truth.stacks.findIndex((t) => t.layers === 4 && Math.abs(t.cx - 418) < 2 && Math.abs(t.cy - 332) < 2);
-    expect(i).toBeGreaterThanOrEqual(0);
-    expect(sc.matchOf[i], 'the 4-layer stack is found').toBeGreaterThanOrEqual(0);
-    expect(res.sheets[sc.matchOf[i]].layers).toBe(4);
+    const { i, spurious } = foundStack(o, res, 418, 332, 4);
     expect(Math.abs(res.periods[0].periodPx - o.truth.stacks[i].periodPx) / o.truth.stacks[i].periodPx).toBeLessThan(0.02);
-    expect(sc.spurious).toBeLessThanOrEqual(1);
+    expect(spurious).toBeLessThanOrEqual(1);
   });
   it('reports no comb whose refit lacks the evidence, nor a thin stack whose positions disagree (crossed lattice)', () => {
     // a crossed lattice (synthetic, testing/synthetic/overviews.ts: two fringe sets at 10.1 px, no
@@ -146,12 +157,7 @@ describe('detectSheets', () => {
     // missed, and a 3-layer piece cut across it was reported as a sheet
     const o = generateOverview('sparse', 15);
     const res = detectSheets(o.image);
-    const sc = scoreOverview(o.truth.stacks, res.sheets);
-    const i = o.truth.stacks.findIndex((t) => t.layers === 11 && Math.abs(t.cx - 283) < 2 && Math.abs(t.cy - 224) < 2);
-    expect(i).toBeGreaterThanOrEqual(0);
-    expect(sc.matchOf[i], 'the 11-layer stack is found').toBeGreaterThanOrEqual(0);
-    expect(res.sheets[sc.matchOf[i]].layers).toBe(11);
-    expect(sc.spurious).toBeLessThanOrEqual(1);
+    expect(foundStack(o, res, 283, 224, 11).spurious).toBeLessThanOrEqual(1);
   });
   it('measures a stack touching one already measured from the part of its band beyond that stack', () => {
     // touching stacks at 4.95 px (synthetic truth, testing/synthetic/overviews.ts): a 4-layer stack
@@ -160,14 +166,8 @@ describe('detectSheets', () => {
     // the 7-layer stack was counted 6 beside an 11-layer sheet over the pair
     const o = generateOverview('touching', 27);
     const res = detectSheets(o.image);
-    const sc = scoreOverview(o.truth.stacks, res.sheets);
-    for (const [cx, cy, layers] of [[323, 205, 4], [464, 491, 7]]) {
-      const i = o.truth.stacks.findIndex((t) => t.layers === layers && Math.abs(t.cx - cx) < 2 && Math.abs(t.cy - cy) < 2);
-      expect(i).toBeGreaterThanOrEqual(0);
-      expect(sc.matchOf[i], `the ${layers}-layer stack is found`).toBeGreaterThanOrEqual(0);
-      expect(res.sheets[sc.matchOf[i]].layers).toBe(layers);
-    }
-    expect(sc.spurious).toBe(0);
+    for (const [cx, cy, layers] of [[323, 205, 4], [464, 491, 7]]) foundStack(o, res, cx, cy, layers);
+    expect(scoreOverview(o.truth.stacks, res.sheets).spurious).toBe(0);
   });
   it('follows a thick stack beyond the ends of a short candidate', () => {
     // 9 layers at 8.34 px, 75 px thick and 153 px long, touching its neighbours (synthetic truth,
@@ -175,15 +175,10 @@ describe('detectSheets', () => {
     // shorter than its thickness and rejected; followed along its own axis it is 75 px long or more
     const o = generateOverview('touching', 16);
     const res = detectSheets(o.image);
-    const sc = scoreOverview(o.truth.stacks, res.sheets);
-    const i = o.truth.stacks.findIndex((t) => t.layers === 9 && Math.abs(t.cx - 306) < 2 && Math.abs(t.cy - 349) < 2);
-    expect(i).toBeGreaterThanOrEqual(0);
-    expect(sc.matchOf[i], 'the 9-layer stack is found').toBeGreaterThanOrEqual(0);
-    const s = res.sheets[sc.matchOf[i]];
-    expect(s.layers).toBe(9);
+    const { sheet: s, i, spurious } = foundStack(o, res, 306, 349, 9);
     expect(s.lengthPx).toBeGreaterThanOrEqual(s.thicknessPx);
     expect(s.lengthPx).toBeLessThanOrEqual(o.truth.stacks[i].lengthPx + 2 * o.truth.stacks[i].periodPx);
-    expect(sc.spurious).toBeLessThanOrEqual(1);
+    expect(spurious).toBeLessThanOrEqual(1);
   });
   it('counts a fine-period stack at its own period, not as every other layer at the coarse phase (two periods)', () => {
     // two phases at 3.18 and 6.23 px (ratio ≈ 2): before the test of the fundamental on the
@@ -229,14 +224,8 @@ describe('detectSheets', () => {
     // period with half their layers (7 read 4, 10 read 5, 4 read 2)
     const o = generateOverview('dense', 36);
     const res = detectSheets(o.image);
-    const sc = scoreOverview(o.truth.stacks, res.sheets);
     for (const [cx, cy, layers] of [[306, 550, 7], [561, 531, 10], [383, 299, 4]]) {
-      const i = o.truth.stacks.findIndex((t) => t.layers === layers && Math.abs(t.cx - cx) < 2 && Math.abs(t.cy - cy) < 2);
-      expect(i).toBeGreaterThanOrEqual(0);
-      expect(sc.matchOf[i], `the ${layers}-layer stack is found`).toBeGreaterThanOrEqual(0);
-      const s = res.sheets[sc.matchOf[i]];
-      expect(s.layers, `the ${layers}-layer stack`).toBe(layers);
-      expect(s.periodPx).toBeGreaterThanOrEqual(MIN_COUNTABLE_PERIOD_PX);
+      expect(foundStack(o, res, cx, cy, layers).sheet.periodPx).toBeGreaterThanOrEqual(MIN_COUNTABLE_PERIOD_PX);
     }
   });
   it('never reports layers finer than the countable 2.5 px, nor passes them to a batch summary', async () => {
