@@ -9,7 +9,6 @@
  * Budget: GUM, JCGM 100:2008 (§5.1.2 combined standard uncertainty, §6 expanded uncertainty).
  */
 import type { Calibration } from '../image/grey-image';
-import type { ToolKind } from './tools';
 
 /** The record layout this code writes. */
 export const RECORD_VERSION = 2;
@@ -72,6 +71,12 @@ export interface Periodicity {
 export type Region =
   | { kind: 'rect'; x: number; y: number; width: number; height: number }
   | { kind: 'line'; x0: number; y0: number; x1: number; y1: number; widthPx: number };
+
+/**
+ * The record kind of every measuring tool. Each has one entry in the tool registry
+ * (src/measure/tools.ts); add a kind here and its entry there.
+ */
+export type ToolKind = 'profile' | 'spectrum' | 'rings' | 'sheets-line' | 'sheets-auto' | 'domains';
 
 /** What produced a measurement: a tool of the registry (src/measure/tools.ts), or a calibration. */
 export type MeasurementTool = ToolKind | 'calibration';

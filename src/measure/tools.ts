@@ -5,18 +5,18 @@
  * command line, batch recipes, the library and every export look tools up here.
  *
  * Adding a tool: write its core function (returning a `Measurement`), add its kind to `ToolKind`
- * and one entry to `TOOLS`, show it in one panel, test it. See the developer guide,
+ * (src/measure/measurement.ts) and one entry to `TOOLS`, show it in one panel, test it. See the developer guide,
  * docs/developers.md.
  */
 import type { GreyImage } from '../image/grey-image';
 import type { Workspace } from '../image/workspace';
 import { periodLabel, type FigureShape } from '../figure/shapes';
-import { expressLength, noUncertainty, type LengthGeometry, type Measurement, type Region } from './measurement';
+import { expressLength, noUncertainty, type LengthGeometry, type Measurement, type Region, type ToolKind } from './measurement';
 import type { ProfileEstimator } from './profile-measurement';
 import type { RectPx } from './spectrum';
 
-/** The record kind of every registered tool (add a tool's kind here and its entry to TOOLS below). */
-export type ToolKind = 'profile' | 'spectrum' | 'rings' | 'sheets-line' | 'sheets-auto' | 'domains';
+/** The record kind of every registered tool: defined with the record (add a kind there and its entry to TOOLS below). */
+export type { ToolKind };
 
 /** One CSV cell: text, a number, or empty (null). */
 export type CsvCell = string | number | null | undefined;
