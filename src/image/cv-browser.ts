@@ -1,6 +1,6 @@
-// Browser and worker entry for opencv.js: exports only a promise of the wrapper, so the
-// thenable module object is never awaited itself. Bundled into its own chunk.
+// Browser and worker entry for opencv.js, bundled into a chunk of its own. The module object
+// carries its own `then`, so it is handed on inside a plain object, never as a promise's value
+// (src/image/cv.ts wraps it).
 import cvModule from '@techstark/opencv-js';
-import { wrapCv } from './cv';
 
-export const cvReady = wrapCv(cvModule);
+export const opencvHolder = { module: cvModule };

@@ -37,6 +37,6 @@ export function loadCv(): Promise<CvHandle> {
   const isNode = typeof process !== 'undefined' && !!process.versions?.node;
   pending = isNode
     ? import('node:module').then((m) => wrapCv(m.createRequire(import.meta.url)('@techstark/opencv-js')))
-    : import('./cv-browser').then((m) => m.cvReady);
+    : import('./cv-browser').then((m) => wrapCv(m.opencvHolder.module));
   return pending;
 }
