@@ -14,6 +14,9 @@ import type { FileResult } from '../batch/run';
 import { sha256Hex } from './bytes';
 import { LibraryError, saveInOneTransaction } from './library';
 import type { LibraryDb } from './schema';
+import type { BatchFileRecord, BatchFileStatus } from './records';
+
+export type { BatchFileRecord, BatchFileStatus };
 
 /** Where a batch stands. */
 export type BatchRunState = 'running' | 'paused' | 'cancelled' | 'finished';
@@ -42,33 +45,6 @@ export type BatchRun = {
   /** ISO 8601 time of the last change. */
   updatedIso: string;
 };
-
-/** Where one file of a batch stands. */
-export type BatchFileStatus = 'queued' | 'ok' | 'failed';
-
-/** One file of a batch (store `batchFiles`). */
-export interface BatchFileRecord {
-  /** `${batchId}/${index}`, index zero-padded so keys sort in queue order. */
-  id: string;
-  batchId: string;
-  /** Position in the queue, from 0. */
-  index: number;
-  /** File name (relative to the chosen folder). */
-  name: string;
-  /** Size of the original file in bytes. */
-  byteSize: number;
-  /** SHA-256 of the original file, lower-case hex. */
-  sha256Hex: string;
-  /** The original file, byte for byte. */
-  file: Blob;
-  status: BatchFileStatus;
-  /** The result record with its measurements, once finished. */
-  result: FileResult | null;
-  /** The annotated figure (PNG), when the batch draws figures and the file succeeded. */
-  figurePng: Uint8Array | null;
-  /** ISO 8601 time it finished, or null. */
-  finishedIso: string | null;
-}
 
 /** A file to put in a batch. */
 export interface BatchInputFile {

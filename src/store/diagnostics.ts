@@ -5,25 +5,9 @@
  * it as a file. It is not part of the library export.
  */
 import type { LibraryDb } from './schema';
+import type { DiagnosticEntry, DiagnosticKind } from './records';
 
-/** Where an entry came from. */
-export type DiagnosticKind = 'error' | 'unhandledrejection' | 'worker' | 'status';
-
-/** One logged problem. */
-export interface DiagnosticEntry {
-  /** Unique id (the time, then random characters). */
-  id: string;
-  /** ISO 8601 time it happened. */
-  timeIso: string;
-  /** Where it came from: window error, unhandled rejection, a Web Worker, or an error message shown. */
-  kind: DiagnosticKind;
-  /** The error message (at most MAX_MESSAGE_CHARS characters). */
-  message: string;
-  /** What the app was doing (panel, file, action), '' when unknown. */
-  context: string;
-  /** Stack trace when there was one (at most MAX_STACK_CHARS characters), else null. */
-  stack: string | null;
-}
+export type { DiagnosticEntry, DiagnosticKind };
 
 /** What logDiagnostic needs; the id and, by default, the time are made here. */
 export interface NewDiagnostic {

@@ -19,7 +19,7 @@ import { SCHEMA_VERSION, type LibraryDb } from './schema';
 import { RecordVersionError, upgradeMeasurement } from '../measure/record-version';
 import { upgradeFileResult } from '../batch/run';
 
-import type { BatchFileRecord } from './batches';
+import type { BatchFileRecord } from './records';
 import { checkBatchFileRecord, checkBatchRecord, checkCalibrationProfile, checkDiffractionSet, checkImageRecord, checkRecipeRecord, isObj, shown, validateMeasurementShape } from './validate';
 
 /** The `format` field of an exported library. */

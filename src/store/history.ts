@@ -4,35 +4,10 @@
  * own state, as plain JSON), not a difference: undo and redo move along the list and restore a
  * state; a new step after an undo drops the steps that were undone.
  */
-import type { Calibration } from '../image/grey-image';
 import type { LibraryDb } from './schema';
+import type { HistoryStep, ImageHistory, WorkState } from './records';
 
-/** What the user has set up on an image: the calibration and each panel's state (its own plain JSON). */
-export interface WorkState {
-  calibration: Calibration | null;
-  /** By panel id (`periods`, `sheets`...): whatever the panel needs to show its results again. */
-  panels: Record<string, unknown>;
-}
-
-/** One step of the history. */
-export interface HistoryStep {
-  /** What the step did, in the user's words ("spot #3 added", "calibration from scale bar"). */
-  label: string;
-  /** ISO 8601 time of the step. */
-  timeIso: string;
-  /** The work state after the step. */
-  state: WorkState;
-}
-
-/** The history of one image. */
-export interface ImageHistory {
-  /** The stored image it belongs to (the key of the store). */
-  imageId: string;
-  /** Oldest first; steps[0] is the state when the image was first opened. */
-  steps: HistoryStep[];
-  /** The step shown now. */
-  index: number;
-}
+export type { HistoryStep, ImageHistory, WorkState };
 
 /** Steps kept per image (older ones are dropped first). */
 export const HISTORY_LIMIT = 100;

@@ -8,6 +8,7 @@ import type { Calibration, SampleKind } from '../image/grey-image';
 import type { Measurement } from '../measure/measurement';
 import type { CalibrationProfile } from '../calibration/profiles';
 import type { DiffractionPeak, DiffractionSet } from '../diffraction/stored-set';
+import type { FileResult } from '../batch/run';
 
 export type { CalibrationProfile, DiffractionPeak, DiffractionSet };
 
@@ -75,4 +76,77 @@ export interface BatchRecord {
   /** ISO 8601 time the batch was started. */
   createdIso: string;
   [field: string]: unknown;
+}
+
+/** Where one file of a batch stands. */
+export type BatchFileStatus = 'queued' | 'ok' | 'failed';
+
+/** One file of a batch (store `batchFiles`). */
+export interface BatchFileRecord {
+  /** `${batchId}/${index}`, index zero-padded so keys sort in queue order. */
+  id: string;
+  batchId: string;
+  /** Position in the queue, from 0. */
+  index: number;
+  /** File name (relative to the chosen folder). */
+  name: string;
+  /** Size of the original file in bytes. */
+  byteSize: number;
+  /** SHA-256 of the original file, lower-case hex. */
+  sha256Hex: string;
+  /** The original file, byte for byte. */
+  file: Blob;
+  status: BatchFileStatus;
+  /** The result record with its measurements, once finished. */
+  result: FileResult | null;
+  /** The annotated figure (PNG), when the batch draws figures and the file succeeded. */
+  figurePng: Uint8Array | null;
+  /** ISO 8601 time it finished, or null. */
+  finishedIso: string | null;
+}
+
+/** Where an entry came from. */
+export type DiagnosticKind = 'error' | 'unhandledrejection' | 'worker' | 'status';
+
+/** One logged problem. */
+export interface DiagnosticEntry {
+  /** Unique id (the time, then random characters). */
+  id: string;
+  /** ISO 8601 time it happened. */
+  timeIso: string;
+  /** Where it came from: window error, unhandled rejection, a Web Worker, or an error message shown. */
+  kind: DiagnosticKind;
+  /** The error message (at most MAX_MESSAGE_CHARS characters). */
+  message: string;
+  /** What the app was doing (panel, file, action), '' when unknown. */
+  context: string;
+  /** Stack trace when there was one (at most MAX_STACK_CHARS characters), else null. */
+  stack: string | null;
+}
+
+/** What the user has set up on an image: the calibration and each panel's state (its own plain JSON). */
+export interface WorkState {
+  calibration: Calibration | null;
+  /** By panel id (`periods`, `sheets`...): whatever the panel needs to show its results again. */
+  panels: Record<string, unknown>;
+}
+
+/** One step of the history. */
+export interface HistoryStep {
+  /** What the step did, in the user's words ("spot #3 added", "calibration from scale bar"). */
+  label: string;
+  /** ISO 8601 time of the step. */
+  timeIso: string;
+  /** The work state after the step. */
+  state: WorkState;
+}
+
+/** The history of one image. */
+export interface ImageHistory {
+  /** The stored image it belongs to (the key of the store). */
+  imageId: string;
+  /** Oldest first; steps[0] is the state when the image was first opened. */
+  steps: HistoryStep[];
+  /** The step shown now. */
+  index: number;
 }

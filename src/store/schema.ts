@@ -13,10 +13,10 @@ import type {
   ImageRecord,
   Measurement,
   RecipeRecord,
+  BatchFileRecord,
+  DiagnosticEntry,
+  ImageHistory,
 } from './records';
-import type { BatchFileRecord } from './batches';
-import type { DiagnosticEntry } from './diagnostics';
-import type { ImageHistory } from './history';
 import { upgradeMeasurement } from '../measure/record-version';
 import { upgradeFileResult } from '../batch/run';
 

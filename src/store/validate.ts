@@ -8,7 +8,7 @@ import { decodeImage, ImageReadError } from '../image/decode';
 import type { CalibrationSource, SampleKind } from '../image/grey-image';
 import { parsePattern } from '../diffraction/pattern';
 import { fromBase64, sha256Hex } from './bytes';
-import type { BatchFileRecord } from './batches';
+import type { BatchFileRecord } from './records';
 import type { ImageRecord } from './records';
 
 type Obj = Record<string, unknown>;
