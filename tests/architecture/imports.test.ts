@@ -76,6 +76,51 @@ const PLUMBING: Record<string, string> = {
   'components/virtual-panels.d.ts': 'the type of the build-time panel list (no code)',
 };
 
+/** The module file an import names (a relative import written without its .ts), or null outside the tree. */
+function moduleFile(target: string | null, files: Set<string>): string | null {
+  if (target === null) return null;
+  for (const candidate of [target, `${target}.ts`, `${target}/index.ts`]) if (files.has(candidate)) return candidate;
+  return null;
+}
+
+/**
+ * The import cycles among the given files: each strongly connected component of two or more
+ * files, or a file importing itself (Tarjan 1972, depth-first search with low links).
+ */
+export function importCycles(imports: Map<string, string[]>): string[][] {
+  const index = new Map<string, number>();
+  const low = new Map<string, number>();
+  const onStack = new Set<string>();
+  const stack: string[] = [];
+  const cycles: string[][] = [];
+  let next = 0;
+  const visit = (f: string) => {
+    index.set(f, next);
+    low.set(f, next);
+    next++;
+    stack.push(f);
+    onStack.add(f);
+    for (const g of imports.get(f) ?? []) {
+      if (!index.has(g)) {
+        visit(g);
+        low.set(f, Math.min(low.get(f)!, low.get(g)!));
+      } else if (onStack.has(g)) low.set(f, Math.min(low.get(f)!, index.get(g)!));
+    }
+    if (low.get(f) === index.get(f)) {
+      const component: string[] = [];
+      let g: string;
+      do {
+        g = stack.pop()!;
+        onStack.delete(g);
+        component.push(g);
+      } while (g !== f);
+      if (component.length > 1 || (imports.get(f) ?? []).includes(f)) cycles.push(component.sort());
+    }
+  };
+  for (const f of [...imports.keys()].sort()) if (!index.has(f)) visit(f);
+  return cycles;
+}
+
 const violations = (files: string[], rule: (imp: ImportOf) => boolean): string[] =>
   files.flatMap((f) => importsOf(f, readFileSync(join(ROOT, f), 'utf8')).filter(rule).map((i) => `${f}:${i.line} imports '${i.specifier}'`));
 
@@ -122,6 +167,25 @@ describe('import statements follow the package map', () => {
       return !usesLit;
     });
     expect(notLit).toEqual([]);
+  });
+
+  test('no file of src/ imports itself through other files (type-only and dynamic imports count)', () => {
+    const files = new Set(src);
+    const imports = new Map(src.map((f) => [f, importsOf(f, readFileSync(join(ROOT, f), 'utf8')).map((i) => moduleFile(i.target, files)).filter((g): g is string => g !== null)]));
+    expect(importCycles(imports)).toEqual([]);
+  });
+
+  test('the cycle finder finds a loop of three files and a file importing itself, and no loop in a chain', () => {
+    const graph = new Map([
+      ['a', ['b']],
+      ['b', ['c']],
+      ['c', ['a', 'd']],
+      ['d', []],
+      ['e', ['e']],
+      ['f', ['d']],
+    ]);
+    expect(importCycles(graph)).toEqual([['a', 'b', 'c'], ['e']]);
+    expect(importCycles(new Map([['a', ['b']], ['b', ['c']], ['c', []]]))).toEqual([]);
   });
 
   test('every plumbing file named above exists (the list cannot go stale)', () => {
