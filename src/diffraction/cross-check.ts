@@ -9,7 +9,7 @@ import { budgetCsvCells, budgetCsvHeader, formatBudget } from '../measure/measur
 import { groupAndPoolPeriods, type PeriodGroup, type SourcedPeriod } from '../measure/pool';
 import { quantile, summarize } from '../measure/stats';
 import { csvTable } from '../measure/export';
-import { escapeXml } from '../figure/batch-figure';
+import { escapeXml } from '../figure/xml';
 import type { Calibration } from '../image/grey-image';
 import type { Periodicity } from '../measure/measurement';
 

@@ -144,9 +144,6 @@ export function annotatedFigurePng(image: GreyImage, result: FileResult, regions
   return encode({ width: r.width, height: r.height, data: bytes, channels: 1, depth: 8 });
 }
 
-/** Text for an SVG or XML document (kept here for the modules that import it from here). */
-export { escapeXml };
-
 function tick(v: number): string {
   return String(Number(v.toPrecision(4)));
 }

@@ -11,7 +11,8 @@ import { displayLimits, reduceForDisplay, stretchToGrey } from '../image/display
 import { calibrationPartsText } from '../calibration/calibration';
 import { budgetContents, checkCoverageFactor, expressPeriod, formatPlusMinus, UNCERTAINTY_PARTS, UNCERTAINTY_PART_WORDS, type Measurement } from '../measure/measurement';
 import { toolOf } from '../measure/tools';
-import { escapeXml, histogramSvg, MIN_VALUES_FOR_STATISTICS, roundScaleBar } from './batch-figure';
+import { histogramSvg, MIN_VALUES_FOR_STATISTICS, roundScaleBar } from './batch-figure';
+import { escapeXml } from './xml';
 import { pooledStats } from '../batch/export';
 import type { FileResult } from '../batch/run';
 import { plotSvg, type PlotData } from './plot';
