@@ -515,7 +515,7 @@ export class StrataDiffractionPanel extends LitElement {
       <section class="o1">
         <h3>Pattern</h3>
         <div class="row">
-          <label>File <input type="file" accept=".xy,.txt,.dat,.csv,.asc" @change=${(e: Event) => this.onFile(e)} /></label>
+          <label>File <input type="file" accept=".xy,.txt,.dat,.csv,.asc,.cif" @change=${(e: Event) => this.onFile(e)} /></label>
           <button @click=${() => this.loadDemoPattern()} title="The synthetic Cu Kα pattern of the demo tactoid film">Demo pattern</button>
           <label>Wavelength
             <select @change=${(e: Event) => { this.wavelengthKey = (e.target as HTMLSelectElement).value; this.analyse(); }}>

@@ -98,7 +98,7 @@ export function mrcSeeds(): Seed[] {
   ];
 }
 
-/** Diffraction pattern seeds: whitespace, semicolon with decimal comma, three columns, q axis. */
+/** Diffraction pattern seeds: whitespace, semicolon with decimal comma, three columns, q axis, a powder CIF. */
 export function patternSeeds(): Seed[] {
   const rows: string[] = [];
   for (let i = 0; i < 60; i++) {
@@ -112,6 +112,12 @@ export function patternSeeds(): Seed[] {
     { name: 'film-semicolon.csv', bytes: enc.encode(`2theta;counts\n${semi.join('\r\n')}`) },
     { name: 'film-sigma.txt', bytes: enc.encode(`# lambda = 0.15406 nm\n${sigma.join('\n')}`) },
     { name: 'film-q.dat', bytes: enc.encode(`# q (1/nm) intensity\n${rows.map((l, i) => `${(1 + i * 0.02).toFixed(3)} ${l.split(' ')[1]}`).join('\n')}`) },
+    {
+      name: 'film-profile.cif',
+      bytes: enc.encode(
+        `data_film\n_diffrn_radiation_type 'Cu K\\a'\nloop_\n_diffrn_radiation_wavelength\n_diffrn_radiation_wavelength_wt\n1.540598 1.0\n1.544390 0.5\n_pd_meas_2theta_range_min 2.00\n_pd_meas_2theta_range_max 4.95\n_pd_meas_2theta_range_inc 0.05\nloop_\n_pd_meas_counts_total\n${rows.map((l) => l.split(' ')[1]).join('\n')}\n`,
+      ),
+    },
   ];
 }
 

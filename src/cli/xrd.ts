@@ -20,7 +20,7 @@ const usage = `Usage: stratameter xrd PATTERN [--wavelength W] [--axis 2theta|q-
                        [--ka2 doublet|none] [--internal-standard si|lab6|cubic:A±U[:F|I|P]] [--json]
 
 Finds and fits the peaks of a diffraction pattern (two or three columns: position, intensity,
-optional uncertainty), indexes them (cubic P, I, F; tetragonal P, I; hexagonal P, R; lamellar;
+optional uncertainty; or a CIF holding a measured powder profile), indexes them (cubic P, I, F; tetragonal P, I; hexagonal P, R; lamellar;
 two-phase mixtures) with a zero-shift term, and gives d with its uncertainty budget, the refined
 cells with figures of merit, crystallite sizes and Williamson–Hall size and strain.
 

@@ -90,12 +90,7 @@ export class CifError extends SyntaxError {
 }
 
 /** A token with the line it starts on. */
-interface Token {
-  text: string;
-  line: number;
-  /** True for quoted strings and text fields (never a data name or reserved word). */
-  quoted: boolean;
-}
+type Token = CifValue;
 
 /**
  * Characters that Unicode counts as white space but a CIF does not (CIF whitespace is only space,
@@ -203,6 +198,98 @@ function tokenize(text: string, fail: (line: number | null, reason: string) => n
   return tokens;
 }
 
+/** A value of a CIF with the line it starts on. */
+export interface CifValue {
+  text: string;
+  line: number;
+  /** True for quoted strings and text fields (never a data name or reserved word). */
+  quoted: boolean;
+}
+
+/** A loop of a data block: its data names (lower case) and its rows of values. */
+export interface CifLoop {
+  names: string[];
+  rows: CifValue[][];
+  /** The line of its loop_. */
+  line: number;
+}
+
+/** One data block of a CIF: its single items and its loops, data names in lower case. */
+export interface CifBlock {
+  /** The name after data_. */
+  name: string;
+  /** The line of its data_. */
+  line: number;
+  items: Map<string, CifValue>;
+  loops: CifLoop[];
+  /** The loop each looped data name belongs to (index into loops). */
+  loopOf: Map<string, number>;
+}
+
+/**
+ * Reads the data blocks of a CIF: each block's single items and loops, data names in lower case.
+ *
+ * @param text - the whole file.
+ * @param fail - stops with a reason and a line.
+ * @param maxBlocks - blocks to read; the rest of the file is not read.
+ * @returns the blocks read, and whether another data block follows them.
+ * Notes: a data name given twice in a block, a data name without a value, a loop without data
+ * names or whose values do not fill its rows, a value without a data name, and save frames or
+ * global blocks are refused through `fail`, naming the line.
+ * Reference: CIF 1.1 syntax specification (IUCr); Hall, Allen & Brown, Acta Cryst. A47, 655 (1991).
+ */
+export function readCifBlocks(text: string, fail: (line: number | null, reason: string) => never, maxBlocks = Infinity): { blocks: CifBlock[]; more: boolean } {
+  const tokens = tokenize(text, fail);
+  const blocks: CifBlock[] = [];
+  let block: CifBlock | null = null;
+  let i = 0;
+  const reserved = (t: Token) => !t.quoted && /^(data_|loop_$|save_|global_$|stop_$)/i.test(t.text);
+  const isName = (t: Token) => !t.quoted && t.text.startsWith('_');
+  const current = (t: Token): CifBlock => block ?? fail(t.line, `${t.text.slice(0, 40)} before the first data block (data_NAME)`);
+  while (i < tokens.length) {
+    const tk = tokens[i];
+    if (!tk.quoted && /^data_/i.test(tk.text)) {
+      if (blocks.length >= maxBlocks) return { blocks, more: true };
+      block = { name: tk.text.slice(5), line: tk.line, items: new Map(), loops: [], loopOf: new Map() };
+      blocks.push(block);
+      i++;
+    } else if (!tk.quoted && /^loop_$/i.test(tk.text)) {
+      const b = current(tk);
+      i++;
+      const names: string[] = [];
+      while (i < tokens.length && isName(tokens[i])) {
+        const n = tokens[i].text.toLowerCase();
+        if (b.items.has(n) || b.loopOf.has(n) || names.includes(n)) fail(tokens[i].line, `data name ${tokens[i].text} appears twice in the data block`);
+        names.push(n);
+        i++;
+      }
+      if (names.length === 0) fail(tk.line, 'a loop_ without data names');
+      const values: Token[] = [];
+      while (i < tokens.length && !isName(tokens[i]) && !reserved(tokens[i])) values.push(tokens[i++]);
+      if (values.length === 0 || values.length % names.length !== 0) {
+        fail(tk.line, `the loop (${names.join(' ')}) has ${values.length} values, not a multiple of its ${names.length} data names`);
+      }
+      const rows: Token[][] = [];
+      for (let k = 0; k < values.length; k += names.length) rows.push(values.slice(k, k + names.length));
+      for (const n of names) b.loopOf.set(n, b.loops.length);
+      b.loops.push({ names, rows, line: tk.line });
+    } else if (isName(tk)) {
+      const b = current(tk);
+      const n = tk.text.toLowerCase();
+      if (b.items.has(n) || b.loopOf.has(n)) fail(tk.line, `data name ${tk.text} appears twice in the data block`);
+      const v = tokens[i + 1];
+      if (!v || isName(v) || reserved(v)) fail(tk.line, `data name ${tk.text} has no value`);
+      b.items.set(n, v);
+      i += 2;
+    } else if (reserved(tk)) {
+      fail(tk.line, `${tk.text} (save frames, global blocks) is not read`);
+    } else {
+      fail(tk.line, `value '${tk.text.slice(0, 40)}' without a data name before it`);
+    }
+  }
+  return { blocks, more: false };
+}
+
 /** Parses one component of a symmetry operation such as '-y+1/2' or 'x-y' into coefficients and shift. */
 function parseComponent(expr: string, op: string): { row: number[]; t: number } {
   const row = [0, 0, 0];
@@ -286,57 +373,11 @@ export function parseCif(text: string, options: ParseCifOptions = {}): CifStruct
   const fail = (line: number | null, reason: string): never => {
     throw new CifError(fileName, line, reason);
   };
-  const tokens = tokenize(text, fail);
-  const items = new Map<string, Token>();
-  const loops: Array<{ names: string[]; rows: Token[][]; line: number }> = [];
-  const loopOf = new Map<string, number>();
-  let name = '';
-  let blocks = 0;
+  const { blocks, more } = readCifBlocks(text, fail, 1);
+  if (blocks.length === 0) fail(null, 'no data block (a CIF structure starts with data_NAME)');
+  const { name, items, loops, loopOf } = blocks[0];
   const notes: string[] = [];
-  let i = 0;
-  const reserved = (t: Token) => !t.quoted && /^(data_|loop_$|save_|global_$|stop_$)/i.test(t.text);
-  const isName = (t: Token) => !t.quoted && t.text.startsWith('_');
-  while (i < tokens.length) {
-    const tk = tokens[i];
-    if (!tk.quoted && /^data_/i.test(tk.text)) {
-      blocks++;
-      if (blocks > 1) break;
-      name = tk.text.slice(5);
-      i++;
-    } else if (!tk.quoted && /^loop_$/i.test(tk.text)) {
-      i++;
-      const names: string[] = [];
-      while (i < tokens.length && isName(tokens[i])) {
-        const n = tokens[i].text.toLowerCase();
-        if (items.has(n) || loopOf.has(n) || names.includes(n)) fail(tokens[i].line, `data name ${tokens[i].text} appears twice in the data block`);
-        names.push(n);
-        i++;
-      }
-      if (names.length === 0) fail(tk.line, 'a loop_ without data names');
-      const values: Token[] = [];
-      while (i < tokens.length && !isName(tokens[i]) && !reserved(tokens[i])) values.push(tokens[i++]);
-      if (values.length === 0 || values.length % names.length !== 0) {
-        fail(tk.line, `the loop (${names.join(' ')}) has ${values.length} values, not a multiple of its ${names.length} data names`);
-      }
-      const rows: Token[][] = [];
-      for (let k = 0; k < values.length; k += names.length) rows.push(values.slice(k, k + names.length));
-      for (const n of names) loopOf.set(n, loops.length);
-      loops.push({ names, rows, line: tk.line });
-    } else if (isName(tk)) {
-      const n = tk.text.toLowerCase();
-      if (items.has(n) || loopOf.has(n)) fail(tk.line, `data name ${tk.text} appears twice in the data block`);
-      const v = tokens[i + 1];
-      if (!v || isName(v) || reserved(v)) fail(tk.line, `data name ${tk.text} has no value`);
-      items.set(n, v);
-      i += 2;
-    } else if (reserved(tk)) {
-      fail(tk.line, `${tk.text} (save frames, global blocks) is not read in a structure file`);
-    } else {
-      fail(tk.line, `value '${tk.text.slice(0, 40)}' without a data name before it`);
-    }
-  }
-  if (blocks === 0) fail(null, 'no data block (a CIF structure starts with data_NAME)');
-  if (blocks > 1) notes.push('only the first data block was read');
+  if (more) notes.push('only the first data block was read');
   const num = (key: string, required: boolean): CifNumber & { line: number | null; text: string } => {
     const v = items.get(key);
     const n = v === undefined ? { value: NaN, su: 0 } : parseCifNumber(v.text);

@@ -168,8 +168,61 @@ export function parsePattern(text: string, options: ParsePatternOptions = {}): P
     if (columns === 3) ss.push(v[2]);
     lineNo.push(i + 1);
   }
-  if (xs.length < 3) throw new SyntaxError(`pattern has ${xs.length} data rows; at least 3 are needed`);
   if (headerCount > 0) notes.push(`${headerCount} header line(s) read before the data`);
+  const statements: RadiationStatement[] = [];
+  header.forEach((h, k) => {
+    try {
+      statements.push(...radiationStatements(h, `header line ${headerAt[k]}`));
+    } catch (e) {
+      // a header the user overrides need not be readable
+      if (!(e instanceof RadiationError) || options.wavelength === undefined) throw e;
+      notes.push(`${e.message} (ignored: the wavelength was given as an option)`);
+    }
+  });
+  if (bare) statements.push(bare);
+  return assemblePattern({ x: xs, y: ys, sigma: columns === 3 ? ss : null, lineNo, axis: headerAxis(header), statements, notes }, options);
+}
+
+/** Rows read from a file, before the reading rules common to every layout are applied. */
+export interface PatternRows {
+  /** Positions as written (2θ in degrees, or q), in file order. */
+  x: number[];
+  /** Intensities, in file order. */
+  y: number[];
+  /** Standard uncertainties of the intensities, or null. */
+  sigma: number[] | null;
+  /** The file's line of each row, for messages. */
+  lineNo: number[];
+  /** The axis the file declares, or null when it does not. */
+  axis: AxisUnit | null;
+  /** What the file says about the radiation. */
+  statements: RadiationStatement[];
+  /** Notes so far; the rules applied here are added. */
+  notes: string[];
+}
+
+/**
+ * Applies the reading rules every pattern layout shares: at least three rows, a decreasing axis
+ * reversed (noted), repeated or unsorted positions refused by line, the axis unit (Å⁻¹ converted
+ * to nm⁻¹), a 2θ range inside (0, 180)°, and the radiation resolved from the file's statements
+ * and the options (see resolveRadiation).
+ *
+ * @param rows the rows and statements read from the file
+ * @param options axis unit and wavelength overriding the file
+ * @returns the pattern
+ * @throws SyntaxError or RangeError naming the line or the value
+ */
+export function assemblePattern(rows: PatternRows, options: ParsePatternOptions = {}): Pattern {
+  const xs = [...rows.x];
+  const ys = [...rows.y];
+  const ss = rows.sigma ? [...rows.sigma] : [];
+  const lineNo = [...rows.lineNo];
+  const notes = rows.notes;
+  const columns = rows.sigma ? 3 : 2;
+  if (xs.length !== ys.length || xs.length !== lineNo.length || (rows.sigma && rows.sigma.length !== xs.length)) {
+    throw new RangeError(`assemblePattern: ${xs.length} positions, ${ys.length} intensities${rows.sigma ? `, ${rows.sigma.length} uncertainties` : ''} and ${lineNo.length} line numbers differ in length`);
+  }
+  if (xs.length < 3) throw new SyntaxError(`pattern has ${xs.length} data rows; at least 3 are needed`);
   let reversed = false;
   if (xs[1] < xs[0]) {
     reversed = true;
@@ -184,8 +237,8 @@ export function parsePattern(text: string, options: ParsePatternOptions = {}): P
       throw new SyntaxError(`line ${lineNo[k]}: x = ${xs[k]} is not ${reversed ? 'below' : 'above'} the previous row's ${xs[k - 1]} (x must be strictly monotonic)`);
     }
   }
-  const axisUnit: AxisUnit = options.axis ?? headerAxis(header) ?? 'twoThetaDeg';
-  if (!options.axis && !headerAxis(header)) notes.push('axis not stated: first column read as 2θ in degrees');
+  const axisUnit: AxisUnit = options.axis ?? rows.axis ?? 'twoThetaDeg';
+  if (!options.axis && !rows.axis) notes.push('axis not stated: first column read as 2θ in degrees');
   let x = Float64Array.from(xs);
   if (axisUnit === 'qInvA') {
     x = x.map((v) => v * 10);
@@ -195,17 +248,7 @@ export function parsePattern(text: string, options: ParsePatternOptions = {}): P
     throw new RangeError(`2θ range ${x[0]}–${x[x.length - 1]}° is outside (0, 180); is the first column q? (set the axis)`);
   }
   if (axisUnit !== 'twoThetaDeg' && x[0] <= 0) notes.push('q ≤ 0 rows present: d is undefined there');
-  const statements: RadiationStatement[] = [];
-  header.forEach((h, k) => {
-    try {
-      statements.push(...radiationStatements(h, `header line ${headerAt[k]}`));
-    } catch (e) {
-      // a header the user overrides need not be readable
-      if (!(e instanceof RadiationError) || options.wavelength === undefined) throw e;
-      notes.push(`${e.message} (ignored: the wavelength was given as an option)`);
-    }
-  });
-  if (bare) statements.push(bare);
+  const statements = rows.statements;
   const radiation = resolveRadiation(statements, { wavelength: options.wavelength, ka2Nm: options.ka2Nm, ka2: options.ka2, relUncertainty: options.wavelengthRelU });
   const wavelengthNm = radiation?.wavelengthNm ?? null;
   const ka2Nm = radiation?.ka2Nm ?? null;
