@@ -168,7 +168,8 @@ function toNm(numText: string, unitRaw: string | undefined, context: string): { 
  *   `Kα2 wavelength (Å): 1.544390`, `WL1 1.5406`; a unit may stand in brackets before the value;
  * - a wavelength without index: `wavelength: 0.72932(2) Å`, `λ = 0.15406 nm`, `lambda 154.06 pm`,
  *   `lam = 0.41328`; a number glued to a word (`K-alpha1`, `Cu2O`) is never a value;
- * - an energy: `energy = 17.479 keV`, `E: 12398 eV` (λ = hc/E, CODATA 2018 hc);
+ * - an energy: `energy = 17.479 keV`, `E: 12398 eV` (λ = hc/E, CODATA 2018 hc); a wavelength
+ *   written in keV or eV (`wavelength: 12.4 keV`) is read as the energy, with a note;
  * - a Kα2/Kα1 intensity ratio (`Ka2/Ka1 ratio 0.5`);
  * - an anode: `Anode: Cu`, `target = Mo`, `Cu K-alpha radiation`, `CuKa1`, `tube Co`;
  * - Kα1 only: `monochromatic`, `Kα2 stripped/removed`, `Kα1 only`, `Johansson`, `primary
@@ -225,10 +226,14 @@ export function radiationStatements(line: string, where: string): RadiationState
     const unit = unitAfter ?? bracket?.[1];
     const isEnergy = /^(energy|e)$/.test(kw);
     if (isEnergy && !(unit && /^(kev|ev)$/i.test(unit))) continue; // "E" without an energy unit is not a radiation statement
-    if (!isEnergy && unit && /^(kev|ev)$/i.test(unit) && !/energy/i.test(filler)) continue;
+    // a 'wavelength' stated in keV or eV is the photon energy: the unit says what it is
+    const energyAsWavelength = !isEnergy && !!unit && /^(kev|ev)$/i.test(unit) && !/energy/i.test(filler);
+    if (energyAsWavelength && !/^(lambda|λ|lam|wave[\s_-]*length|wl)$/i.test(kw.replace(/[\s_-]+/g, ''))) continue;
     // other numbers after a wavelength keyword: a voltage, a count, a step ("Wavelength 1 of 2")
     if (/\b(kv|ma|step|range|deg|°|time|count)/i.test(filler)) continue;
-    const { nm, unitNote } = toNm(num, unit, ctx);
+    const converted = toNm(num, unit, ctx);
+    const nm = converted.nm;
+    const unitNote = energyAsWavelength ? `${whole.trim()} is an energy (its unit is ${unit}): read as the photon energy, λ = hc/E = ${Number(nm.toPrecision(7))} nm` : converted.unitNote;
     const su = statedSu(num, paren, pm);
     const value = Number(num.replace(',', '.'));
     const relU = su !== null ? su / value : roundingRelU(num, value);

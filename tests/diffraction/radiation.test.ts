@@ -53,6 +53,14 @@ describe('wavelength from every common header style', () => {
     expect(p.radiation!.kind).toBe('synchrotron');
     expect(read('# E: 30000 eV').wavelengthNm).toBeCloseTo(HC_KEV_NM / 30, 12);
   });
+  test('a wavelength written with an energy unit is the photon energy, said in a note (the unit decides; λ = hc/E)', () => {
+    const p = read('# synchrotron, wavelength: 12.4 keV');
+    expect(p.wavelengthNm).toBeCloseTo(HC_KEV_NM / 12.4, 12);
+    expect(p.notes.join('\n')).toMatch(/12\.4 keV is an energy .* read as the photon energy/);
+    expect(read('# lambda = 17479 eV').wavelengthNm).toBeCloseTo(HC_KEV_NM / 17.479, 12);
+    // a tube voltage after the keyword is not a wavelength
+    expect(read('# Cu tube 40 kV, wavelength step 2 keV').wavelengthNm).toBe(read('# Anode: Cu').wavelengthNm);
+  });
   test('a synchrotron wavelength with its su in parentheses gives its relative uncertainty', () => {
     const p = read('# synchrotron, wavelength: 0.72932(2) Å');
     expect(p.wavelengthNm).toBeCloseTo(0.072932, 12);
