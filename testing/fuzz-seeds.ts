@@ -98,7 +98,7 @@ export function mrcSeeds(): Seed[] {
   ];
 }
 
-/** Diffraction pattern seeds: whitespace, semicolon with decimal comma, three columns, q axis, a powder CIF. */
+/** Diffraction pattern seeds: whitespace, semicolon with decimal comma, three columns, q axis, an equal-step scan, a powder CIF. */
 export function patternSeeds(): Seed[] {
   const rows: string[] = [];
   for (let i = 0; i < 60; i++) {
@@ -112,6 +112,7 @@ export function patternSeeds(): Seed[] {
     { name: 'film-semicolon.csv', bytes: enc.encode(`2theta;counts\n${semi.join('\r\n')}`) },
     { name: 'film-sigma.txt', bytes: enc.encode(`# lambda = 0.15406 nm\n${sigma.join('\n')}`) },
     { name: 'film-q.dat', bytes: enc.encode(`# q (1/nm) intensity\n${rows.map((l, i) => `${(1 + i * 0.02).toFixed(3)} ${l.split(' ')[1]}`).join('\n')}`) },
+    { name: 'film-scan.dat', bytes: enc.encode(`# Cu K-alpha\n2.00 0.05 4.95\n${rows.map((l) => l.split(' ')[1]).join(' ').replace(/((?:\S+ ){7}\S+) /g, '$1\n')}\nEnd\n`) },
     {
       name: 'film-profile.cif',
       bytes: enc.encode(

@@ -74,6 +74,69 @@ function headerAxis(lines: string[]): AxisUnit | null {
   return null;
 }
 
+/** A scan of equal steps read from its start, step and end (or count) and a run of intensities. */
+interface EqualStepScan {
+  x: number[];
+  y: number[];
+  lineNo: number[];
+  note: string;
+}
+
+/**
+ * Reads a scan written as three numbers on one line (start, step and end; start, end and step; or
+ * start, step and the number of points) followed by the intensities, one or several to a line.
+ * The reading must give exactly as many points as there are intensities; when no order does, or
+ * two orders give different scans, the file is refused naming the line rather than guessed.
+ *
+ * @param lines the file's lines
+ * @param at index of the line with the three numbers
+ * @returns the scan, or null when the lines after it are not a run of intensities
+ * @throws SyntaxError naming the line when the three numbers cannot describe the intensities
+ * Reference: an equal-step scan stored as its range and the counts is common practice of
+ * diffractometer exports.
+ */
+function equalStepScan(lines: string[], at: number): EqualStepScan | null {
+  const head = splitLine(lines[at]).map((t) => Number(t.trim().replace(',', '.')));
+  const y: number[] = [];
+  const lineNo: number[] = [];
+  let footer = -1;
+  for (let i = at + 1; i < lines.length; i++) {
+    const raw = lines[i];
+    if (raw.trim() === '' || COMMENT.test(raw)) continue;
+    const tokens = splitLine(raw);
+    if (!tokens.every((t) => NUMBER.test(t.trim()))) {
+      footer = i;
+      break;
+    }
+    for (const t of tokens) {
+      y.push(Number(t.trim().replace(',', '.')));
+      lineNo.push(i + 1);
+    }
+  }
+  if (footer >= 0 && lines.slice(footer + 1).some((l) => l.trim() !== '' && !COMMENT.test(l) && NUMBER.test((splitLine(l)[0] ?? '').trim()))) return null;
+  const n = y.length;
+  if (n < 3) return null;
+  const [a, b, c] = head;
+  const fits = (start: number, step: number, count: number) => step > 0 && Number.isFinite(start) && Math.abs(count - n) < 1e-6;
+  const readings: Array<{ start: number; step: number; words: string }> = [];
+  if (c > a && fits(a, b, Math.round((c - a) / b) + 1) && Math.abs((c - a) / b - Math.round((c - a) / b)) < 0.01) readings.push({ start: a, step: b, words: `start ${a}, step ${b}, end ${c}` });
+  if (b > a && fits(a, c, Math.round((b - a) / c) + 1) && Math.abs((b - a) / c - Math.round((b - a) / c)) < 0.01) readings.push({ start: a, step: c, words: `start ${a}, end ${b}, step ${c}` });
+  if (Number.isInteger(c) && fits(a, b, c)) readings.push({ start: a, step: b, words: `start ${a}, step ${b}, ${c} points` });
+  const distinct = readings.filter((r, k) => readings.findIndex((q) => Math.abs(q.start - r.start) < 1e-9 && Math.abs(q.step - r.step) < 1e-9 * Math.max(1, r.step)) === k);
+  const shown = `'${lines[at].trim().slice(0, 60)}'`;
+  if (distinct.length === 0) {
+    throw new SyntaxError(`line ${at + 1}: three numbers ${shown} followed by ${n} intensities: no reading as start, step and end (or end and step, or step and count) gives ${n} points`);
+  }
+  if (distinct.length > 1) {
+    throw new SyntaxError(`line ${at + 1}: three numbers ${shown} followed by ${n} intensities can be read as ${distinct.map((r) => r.words).join(' or as ')}; write the file as two columns (2θ, intensity)`);
+  }
+  const { start, step, words } = distinct[0];
+  const x = y.map((_, i) => start + i * step);
+  let note = `an equal-step scan: line ${at + 1} read as ${words} (${n} intensities on lines ${lineNo[0]}–${lineNo[n - 1]})`;
+  if (footer >= 0) note += `; text from line ${footer + 1} on left out: '${lines[footer].trim().slice(0, 60)}'`;
+  return { x, y, lineNo, note };
+}
+
 /**
  * Reads a diffraction pattern from text: two columns (position, intensity) and an optional third
  * (standard uncertainty of the intensity).
@@ -96,6 +159,9 @@ function headerAxis(lines: string[]): AxisUnit | null {
  *   `radiationStatements` and `resolveRadiation` (units Å, nm, pm, energies in keV, anode names,
  *   synchrotrons; contradicting statements are refused, quoting them); a single number alone on
  *   the first line before two- or three-column data is read as the wavelength;
+ * - three numbers on the first data line followed by intensities one or several to a line are an
+ *   equal-step scan (start, step, end; start, end, step; or start, step, count), read only when
+ *   exactly one of these orders gives as many points as there are intensities (else refused);
  * - q in Å⁻¹ is converted to nm⁻¹ (× 10).
  * Reference: file layout is common practice for two-column powder data.
  */
@@ -151,6 +217,26 @@ export function parsePattern(text: string, options: ParsePatternOptions = {}): P
           if (e instanceof RadiationError && options.wavelength === undefined) throw e;
         }
         if (bare) continue;
+      }
+    }
+    if (xs.length === 0 && tokens.length === 3) {
+      // three numbers, then a run of intensities one or several to a line: an equal-step scan
+      const next = lines.slice(i + 1).find((l) => l.trim() !== '' && !COMMENT.test(l));
+      const nextCount = next ? splitLine(next).length : 0;
+      if (nextCount === 1 || nextCount > 3) {
+        const scan = equalStepScan(lines, i);
+        if (scan) {
+          for (let k = 0; k < scan.y.length; k++) {
+            if (!Number.isFinite(scan.y[k])) throw new SyntaxError(`line ${scan.lineNo[k]}: non-finite value`);
+            if (Math.abs(scan.y[k]) > MAX_ABS_INTENSITY) throw new SyntaxError(`line ${scan.lineNo[k]}: intensity ${scan.y[k]} is not a plausible count (at most ${MAX_ABS_INTENSITY} in magnitude)`);
+          }
+          xs.push(...scan.x);
+          ys.push(...scan.y);
+          lineNo.push(...scan.lineNo);
+          columns = 2;
+          notes.push(scan.note);
+          break;
+        }
       }
     }
     if (tokens.length < 2) throw new SyntaxError(`line ${i + 1}: only one column ('${raw.trim()}'); expected position and intensity`);

@@ -84,6 +84,38 @@ describe('parsePeakList', () => {
   });
 });
 
+describe('an equal-step scan written as its range and its intensities (common practice of diffractometer exports)', () => {
+  // the first 40 points of the real COD 1516218 pattern (SOURCES.md §2: 3.000° in steps of 0.022°)
+  const real = readFileSync(FIXTURE, 'utf8').split('\n').filter((l) => l.trim() !== '' && !l.startsWith('#')).slice(0, 40);
+  const counts = real.map((l) => l.trim().split(/\s+/)[1]);
+  const rowsOf = (perLine: number) => {
+    const out: string[] = [];
+    for (let i = 0; i < counts.length; i += perLine) out.push(counts.slice(i, i + perLine).join(' '));
+    return out.join('\n');
+  };
+  const end = (3 + 39 * 0.022).toFixed(3);
+  test.each([
+    [`3.000 0.022 ${end}`, 8, 'start, step, end'],
+    [`3.000 ${end} 0.022`, 10, 'start, end, step'],
+    ['3.000 0.022 40', 1, 'start, step, count'],
+  ])('%s then the counts %i to a line (%s): the same points as the two-column file', (head, perLine, words) => {
+    const p = parsePattern(`# Cu K-alpha1 1.540598 A\n${head}\n${rowsOf(perLine)}\nEnd of scan\n`);
+    expect(p.x.length).toBe(40);
+    expect(Array.from(p.y)).toEqual(counts.map(Number));
+    real.forEach((l, i) => expect(p.x[i]).toBeCloseTo(Number(l.trim().split(/\s+/)[0]), 9));
+    expect(p.notes.join('\n')).toMatch(new RegExp(`equal-step scan: line 2 read as ${words.split(', ').map((w) => (w === 'count' ? '40 points' : w)).join('.*')}`));
+    expect(p.notes.join('\n')).toMatch(/left out: 'End of scan'/);
+    expect(p.wavelengthNm).toBeCloseTo(0.1540598, 10);
+  });
+  test('three numbers that fit no order, or two orders that give different scans, are refused naming the line', () => {
+    expect(() => parsePattern(`3.000 0.022 5.000\n${rowsOf(8)}\n`)).toThrow(/^line 1: three numbers '3\.000 0\.022 5\.000' followed by 40 intensities: no reading/);
+    // start 1, step 1, end 10 and start 1, step 1, 10 points are the same scan: read
+    expect(parsePattern(`1 1 10\n${'5 '.repeat(10)}\n`).x[9]).toBe(10);
+    // start 10, end 16, step 3 (10, 13, 16) and start 10, step 16, 3 points (10, 26, 42): two scans, refused
+    expect(() => parsePattern('10 16 3\n5\n6\n7\n')).toThrow(/^line 1: three numbers '10 16 3' followed by 3 intensities can be read as start 10, end 16, step 3 or as start 10, step 16, 3 points; write the file as two columns/);
+  });
+});
+
 describe('absurd values and file names in pattern errors', () => {
   test('an intensity, uncertainty or position far beyond any measurement is refused by line (common practice: no detector counts 10¹² in a step)', () => {
     const rows = (y: string) => `10 100\n10.1 ${y}\n10.2 120\n10.3 90\n`;
