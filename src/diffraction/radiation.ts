@@ -171,7 +171,9 @@ function toNm(numText: string, unitRaw: string | undefined, context: string): { 
  * - an energy: `energy = 17.479 keV`, `E: 12398 eV` (λ = hc/E, CODATA 2018 hc); a wavelength
  *   written in keV or eV (`wavelength: 12.4 keV`) is read as the energy, with a note;
  * - a Kα2/Kα1 intensity ratio (`Ka2/Ka1 ratio 0.5`);
- * - an anode: `Anode: Cu`, `target = Mo`, `Cu K-alpha radiation`, `CuKa1`, `tube Co`;
+ * - an anode: `Anode: Cu`, `target = Mo`, `Cu K-alpha radiation`, `CuKa1`, `tube Co`, `wavelength: Cu`;
+ * - a wavelength followed by a second number just above it (within 1 %) and a third between 0
+ *   and 1: Kα1, Kα2 and their ratio (`Wavelength = 1.540560 1.544390 0.5`);
  * - Kα1 only: `monochromatic`, `Kα2 stripped/removed`, `Kα1 only`, `Johansson`, `primary
  *   (incident-beam) monochromator`, `Ge(111)`; a secondary or graphite monochromator passes Kα2;
  * - a synchrotron: `synchrotron`, `beamline`, `undulator`.
@@ -238,10 +240,31 @@ export function radiationStatements(line: string, where: string): RadiationState
     const value = Number(num.replace(',', '.'));
     const relU = su !== null ? su / value : roundingRelU(num, value);
     const kind: RadiationStatement['kind'] = idx === '1' ? 'ka1' : idx === '2' ? 'ka2' : 'primary';
-    out.push({ kind, value: nm, relU, text: whole.trim(), where, unitNote });
+    // "Wavelength = 1.540560 1.544390 0.5": a second number just above the first (within 1 %, the
+    // Kα doublet's spacing) is its Kα2, and a third between 0 and 1 their ratio; a second number
+    // of any other size is not read, and a note says so
+    const after = new RegExp(String.raw`^\s*[,;/]?\s*${NUM}(?:\s*[,;/]?\s*${NUM})?(?![0-9.,]*\s*[A-Za-zÅ°])`).exec(rest.slice(key.lastIndex));
+    if (kind === 'primary' && after && !isEnergy && !energyAsWavelength) {
+      let second = NaN;
+      try {
+        second = toNm(after[1], unit, ctx).nm;
+      } catch {
+        // not a wavelength at all: said in the note below
+      }
+      const ratio = after[2] !== undefined ? Number(after[2].replace(',', '.')) : NaN;
+      if (second > nm * 1.0005 && second < nm * 1.01) {
+        out.push({ kind: 'ka1', value: nm, relU, text: whole.trim(), where, unitNote });
+        out.push({ kind: 'ka2', value: second, relU: roundingRelU(after[1], Number(after[1].replace(',', '.'))), text: `${whole.trim()} ${after[1]}`, where });
+        if (ratio >= 0 && ratio <= 1) out.push({ kind: 'ratio', value: ratio, relU: 0, text: `${whole.trim()} ${after[1]} ${after[2]}`, where });
+        key.lastIndex += after[0].length;
+        continue;
+      }
+    }
+    const unread = after && kind === 'primary' && !isEnergy ? `${unitNote ? `${unitNote}; ` : ''}the number after it on ${where} ('${after[0].trim()}') is not read as a wavelength` : unitNote;
+    out.push({ kind, value: nm, relU, text: whole.trim(), where, unitNote: unread });
   }
   const anode = new RegExp(
-    String.raw`(?:anode|target|tube|radiation|source)\s*(?:material|type)?\s*[:=]?\s*(${ANODE_NAMES})\b|\b(${ANODE_NAMES})\s*[-_]?\s*(?:k[\s_-]*(?:alpha|α|a)|anode|tube|target|radiation)`,
+    String.raw`(?:anode|target|tube|radiation|source|wave[\s_-]*length)\s*(?:material|type)?\s*[:=]?\s*(${ANODE_NAMES})\b|\b(${ANODE_NAMES})\s*[-_]?\s*(?:k[\s_-]*(?:alpha|α|a)|anode|tube|target|radiation)`,
     'i',
   ).exec(text);
   if (anode) {

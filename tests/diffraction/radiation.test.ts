@@ -53,6 +53,20 @@ describe('wavelength from every common header style', () => {
     expect(p.radiation!.kind).toBe('synchrotron');
     expect(read('# E: 30000 eV').wavelengthNm).toBeCloseTo(HC_KEV_NM / 30, 12);
   });
+  test('one line holding Kα1, Kα2 and their ratio, and an anode named as the wavelength (Cu Kα2 1.544390 Å as in COD 1516218, SOURCES.md §2)', () => {
+    const p = read('# Wavelength = 1.540560 1.544390 0.5');
+    expect(p.wavelengthNm).toBeCloseTo(0.154056, 10);
+    expect(p.ka2Nm).toBeCloseTo(0.154439, 10);
+    expect(p.radiation!.ka2Ratio).toBe(0.5);
+    expect(read('# Wavelength = 1.540560 1.544390 0.42').radiation!.ka2Ratio).toBe(0.42);
+    // a second number that is no Kα2 is not read, and the note says so
+    const q = read('# wavelength 1.5406 0.02');
+    expect(q.wavelengthNm).toBeCloseTo(0.15406, 10);
+    expect(q.notes.join('\n')).toMatch(/the number after it on header line 1 \('0\.02'\) is not read as a wavelength/);
+    const cu = read('# XRAY WAVELENGTH: Cu');
+    expect(cu.radiation!.anode).toBe('Cu');
+    expect(cu.ka2Nm).not.toBeNull();
+  });
   test('a wavelength written with an energy unit is the photon energy, said in a note (the unit decides; λ = hc/E)', () => {
     const p = read('# synchrotron, wavelength: 12.4 keV');
     expect(p.wavelengthNm).toBeCloseTo(HC_KEV_NM / 12.4, 12);
