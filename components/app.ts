@@ -70,10 +70,16 @@ const TEXT_STRIKES: readonly { px: number; weight: 400 | 600; kind: 'box' | 'svg
 
 const ACCEPT = '.tif,.tiff,.png,.jpg,.jpeg,.mrc,.mrcs,image/tiff,image/png,image/jpeg,.cif,.xy,.xye,.dat,.asc';
 
-/** Files that go to the diffraction panel rather than the viewer: structure files and powder patterns. */
-function diffractionFileKind(fileName: string): 'structure' | 'pattern' | null {
+/**
+ * A CIF that holds a measured powder profile (a profile loop's intensity names, as
+ * src/diffraction/powder-cif.ts reads them, DDL1 or DDLm spelling) is a pattern, not a structure.
+ */
+const POWDER_PROFILE_NAME = /_pd_(?:meas|proc)[._](?:counts|intensity)_(?:total|net)\b/i;
+
+/** Files that go to the diffraction panel rather than the viewer: structure files and powder patterns (by name, and a CIF by its content). */
+function diffractionFileKind(fileName: string, text?: string): 'structure' | 'pattern' | null {
   const ext = fileName.toLowerCase().split('.').pop() ?? '';
-  if (ext === 'cif') return 'structure';
+  if (ext === 'cif') return text !== undefined && POWDER_PROFILE_NAME.test(text) ? 'pattern' : 'structure';
   if (ext === 'xy' || ext === 'xye' || ext === 'dat' || ext === 'asc') return 'pattern';
   return null;
 }
@@ -436,9 +442,9 @@ export class StrataApp extends LitElement {
     const refused: RefusedFile[] = [];
     for (const f of files) {
       this.lastOpenError = '';
-      const kind = diffractionFileKind(f.name);
-      if (kind) {
-        const reason = await this.handToDiffraction(kind, f.name, await f.text());
+      if (diffractionFileKind(f.name)) {
+        const text = await f.text();
+        const reason = await this.handToDiffraction(diffractionFileKind(f.name, text)!, f.name, text);
         if (reason) refused.push({ fileName: f.name, reason });
         continue;
       }
@@ -855,7 +861,7 @@ export class StrataApp extends LitElement {
       <h2>Open a micrograph</h2>
       <p>TEM and STEM images as TIFF (8, 16 or 32-bit), PNG, JPEG or MRC. The pixel size is read from the file where it is stored;
         otherwise calibrate from the scale bar, a lattice spacing of a known standard, or an instrument profile.
-        Powder patterns (.xy, .xye, .dat, .asc) and structure files (.cif) open in the diffraction panel.
+        Powder patterns (.xy, .xye, .dat, .asc, or a .cif holding a measured profile) and structure files (.cif) open in the diffraction panel.
         Everything stays in this browser and works without a network.</p>
       <div class=${this.dragging ? 'drop on' : 'drop'}>
         Drop image files here, or <button @click=${() => this.renderRoot.querySelector<HTMLInputElement>('input.open')?.click()}>choose files…</button>

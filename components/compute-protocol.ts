@@ -93,7 +93,7 @@ export interface ComputeCalls {
    * or a cubic cell a ± u, standard uncertainty, nm) its cell is held and the zero shift fitted from its lines.
    */
   analysePattern: {
-    args: { text: string; wavelength?: string; fileName?: string; internalStandard?: { id: string } | { aNm: number; uANm: number; centring: 'F' | 'I' | 'P' } };
+    args: { text: string; wavelength?: string; columns?: string; fileName?: string; internalStandard?: { id: string } | { aNm: number; uANm: number; centring: 'F' | 'I' | 'P' } };
     result: { pattern: Pattern; analysis: PatternAnalysis };
   };
   /** Every stack in the session's image, skipping a scale-bar strip or panel; the period when known (px). */

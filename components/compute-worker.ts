@@ -194,11 +194,11 @@ const handlers: Handlers = {
     const { measureElectronPattern } = await import('../src/diffraction/electron/measure');
     return measureElectronPattern(image, camera, { what });
   },
-  analysePattern: async ({ text, wavelength, fileName, internalStandard }) => {
+  analysePattern: async ({ text, wavelength, columns, fileName, internalStandard }) => {
     const { readPatternFile } = await import('../src/diffraction/read-pattern');
     const { analysePattern: analyse } = await import('../src/diffraction/analyse');
     const { internalStandardFrom } = await import('../src/diffraction/internal-standard');
-    const pattern = readPatternFile(text, fileName ?? 'the pattern', { wavelength });
+    const pattern = readPatternFile(text, fileName ?? 'the pattern', { wavelength, columns });
     if (pattern.axis === 'twoTheta' && pattern.wavelengthNm === null) throw new Error('no wavelength in the file: choose one');
     const standard = internalStandard === undefined ? undefined
       : 'id' in internalStandard ? internalStandardFrom(internalStandard.id)

@@ -48,6 +48,7 @@ export class StrataDiffractionPanel extends LitElement {
     calibrationRelUncertainty: { attribute: false },
     wavelengthKey: { state: true },
     customWavelength: { state: true },
+    columnsText: { state: true },
     standardKey: { state: true },
     standardCell: { state: true },
     axisView: { state: true },
@@ -90,6 +91,8 @@ export class StrataDiffractionPanel extends LitElement {
   calibrationRelUncertainty: number | undefined = undefined;
   wavelengthKey = 'header';
   customWavelength = '';
+  /** The columns to read as typed ('1,2' or '1,2,4'); '' lets the file's column names decide. */
+  columnsText = '';
   /** The internal standard mixed into the sample: 'none', a built-in id ('si', 'lab6') or 'cubic-F' / 'cubic-I' / 'cubic-P' (a cell typed in standardCell as a ± u, nm). */
   standardKey = 'none';
   standardCell = '';
@@ -120,6 +123,10 @@ export class StrataDiffractionPanel extends LitElement {
       d.accepted = true;
       this.patternText = d.text;
       this.fileName = d.fileName ?? null;
+      this.columnsText = '';
+      // the panel's own file field no longer names the pattern shown
+      const field = this.renderRoot.querySelector<HTMLInputElement>('input[type="file"]');
+      if (field) field.value = '';
       void this.analyse();
     });
     // a structure file opened or dropped on the app: {fileName, text, accepted}, used for spot indexing
@@ -173,6 +180,7 @@ export class StrataDiffractionPanel extends LitElement {
     if (!file) return;
     this.patternText = await file.text();
     this.fileName = file.name;
+    this.columnsText = '';
     this.analyse();
   }
 
@@ -186,6 +194,7 @@ export class StrataDiffractionPanel extends LitElement {
       if (!res.ok) throw new Error(`demo pattern not found (${res.status})`);
       this.patternText = await res.text();
       this.fileName = entry.file;
+      this.columnsText = '';
       await this.analyse();
     } catch (err) {
       this.error = (err as Error).message;
@@ -199,7 +208,7 @@ export class StrataDiffractionPanel extends LitElement {
     this.busy = true;
     try {
       if (!this.compute) throw new Error('the compute worker is not available');
-      const { pattern, analysis } = await this.compute.call('analysePattern', { text: this.patternText, wavelength: this.wavelengthOption(), fileName: this.fileName || undefined, internalStandard: this.standardOption() });
+      const { pattern, analysis } = await this.compute.call('analysePattern', { text: this.patternText, wavelength: this.wavelengthOption(), columns: this.columnsText.trim() || undefined, fileName: this.fileName || undefined, internalStandard: this.standardOption() });
       this.pattern = pattern;
       this.analysis = analysis;
       this.manual = [];
@@ -525,6 +534,7 @@ export class StrataDiffractionPanel extends LitElement {
             </select>
           </label>
           ${this.wavelengthKey === 'custom' ? html`<input type="text" placeholder="1.5406A or 0.15406nm" .value=${this.customWavelength} @change=${(e: Event) => { this.customWavelength = (e.target as HTMLInputElement).value; this.analyse(); }} />` : nothing}
+          ${this.columnsText !== '' || /columns to read|column \d+ was asked/.test(this.error) ? html`<label title="The columns of 2θ (or q), intensity and optionally its uncertainty, counted from 1">Columns <input type="text" class="columns" size="7" placeholder="1,2 or 1,2,3" .value=${this.columnsText} @change=${(e: Event) => { this.columnsText = (e.target as HTMLInputElement).value; void this.analyse(); }} /></label>` : nothing}
         </div>
         <div class="row">
           <label>Internal standard

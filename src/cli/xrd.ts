@@ -14,7 +14,7 @@ import { internalStandardFrom } from '../diffraction/internal-standard';
 import { writeFile } from 'node:fs/promises';
 import { spacedHkl, spacedIndex } from '../figure/reflection-index';
 
-const usage = `Usage: stratameter xrd PATTERN [--wavelength W] [--axis 2theta|q-nm|q-A] [--k K]
+const usage = `Usage: stratameter xrd PATTERN [--wavelength W] [--axis 2theta|q-nm|q-A] [--columns X,Y[,S]] [--k K]
                        [--standard PATTERN [--save-instrument OUT.json] | --instrument PROFILE.json
                         | --instrument-fwhm DEG [--correction gaussian|lorentzian]]
                        [--ka2 doublet|none] [--internal-standard si|lab6|cubic:A±U[:F|I|P]] [--json]
@@ -29,6 +29,8 @@ Options:
                      1.5406A, 154.06pm or an energy such as 17.0keV (default: from the file's header;
                      a header and an option that disagree are refused, quoting both)
   --axis A           first column: 2theta (degrees), q-nm (nm⁻¹) or q-A (Å⁻¹) (default: header, else 2theta)
+  --columns X,Y[,S]  the columns of position, intensity and its uncertainty, counted from 1
+                     (default: from the column names on the header's last line, else 1,2[,3])
   --k K              Scherrer shape factor (default 0.9, shape unknown)
   --standard PATTERN       fit the instrument profile (Caglioti widths) from a line-profile
                            standard (e.g. LaB6, Si) measured on the same instrument
@@ -69,7 +71,7 @@ export async function loadAndAnalyse(path: string, options: Map<string, string>)
   const wl = options.get('wavelength');
   let pattern: Pattern;
   try {
-    pattern = readPatternFile(await read(path, 'pattern'), path, { axis, wavelength: wl });
+    pattern = readPatternFile(await read(path, 'pattern'), path, { axis, wavelength: wl, columns: options.get('columns') });
   } catch (e) {
     if (e instanceof PatternReadError) throw new UsageError(e.message);
     throw e;
@@ -271,7 +273,7 @@ export const command: CliCommand = {
   usage,
   async run(args: string[], io: CliIo): Promise<number> {
     const { positional, options, flags } = parseArgs(args, {
-      values: ['wavelength', 'axis', 'k', 'instrument-fwhm', 'standard', 'instrument', 'save-instrument', 'correction', 'ka2', 'min-snr', 'internal-standard'],
+      values: ['wavelength', 'axis', 'columns', 'k', 'instrument-fwhm', 'standard', 'instrument', 'save-instrument', 'correction', 'ka2', 'min-snr', 'internal-standard'],
       booleans: ['json'],
     });
     if (positional.length !== 1) throw new UsageError('give exactly one PATTERN file');

@@ -41,6 +41,8 @@ export interface ParsePatternOptions {
   ka2?: 'doublet' | 'none';
   /** Relative standard uncertainty of the wavelength (default: the table's, a stated su, or the rounding of the digits). */
   wavelengthRelU?: number;
+  /** The columns to read, 1-based, as typed: 'X,Y' or 'X,Y,S' (position, intensity, its uncertainty). Default: from the column names, else 1, 2 (and 3). */
+  columns?: string;
 }
 
 /**
@@ -137,6 +139,91 @@ function equalStepScan(lines: string[], at: number): EqualStepScan | null {
   return { x, y, lineNo, note };
 }
 
+/** Which columns of a row hold the position, the intensity and its uncertainty (0-based). */
+interface ColumnChoice {
+  x: number;
+  y: number;
+  sigma: number | null;
+}
+
+/** Names of a measured intensity column (common practice of pattern exports). */
+const MEASURED_NAME = /obs|meas|count|intens|cps|signal|^i$|^y$|^int$/i;
+/** Names of columns that are not the measurement: a model, a background, a difference. */
+const DERIVED_NAME = /calc|bkg|back|bgr|diff|fit|model|sim|delta|resid|peak/i;
+/** Names of an uncertainty column. */
+const SIGMA_NAME = /sigma|esd|err|σ|uncert|^s$|^e$|^su$|^dy$|^di$|^u$/i;
+
+/**
+ * Reads the user's column choice ('X,Y' or 'X,Y,S', 1-based).
+ * @param text as typed
+ * @returns the 0-based choice
+ * @throws RangeError naming the text when it is not two or three distinct column numbers
+ */
+export function parseColumnChoice(text: string): ColumnChoice {
+  if (typeof text !== 'string') throw new RangeError(`columns must be text such as '1,2' or '1,2,3', got ${typeof text}`);
+  const parts = text.split(/[\s,;]+/).filter((t) => t !== '');
+  const n = parts.map((t) => (/^\d{1,3}$/.test(t) ? Number(t) : NaN));
+  if ((n.length !== 2 && n.length !== 3) || !n.every((v) => v >= 1) || new Set(n).size !== n.length) {
+    throw new RangeError(`columns '${text}': give two or three distinct column numbers counted from 1 (position, intensity and optionally its uncertainty), e.g. '1,2' or '1,2,3'`);
+  }
+  return { x: n[0] - 1, y: n[1] - 1, sigma: n.length === 3 ? n[2] - 1 : null };
+}
+
+/**
+ * Decides which columns a row of `count` values holds, from the user's choice or from the names
+ * on the last header line.
+ *
+ * @param count the number of values on the first data row
+ * @param names the last header line's names, when their number is `count`, else null
+ * @param given the user's choice, or undefined
+ * @param line the first data row's line, for messages
+ * @returns the choice and a note when it is not the plain two or three columns
+ * @throws SyntaxError naming the line when more than three columns have no readable names
+ */
+function chooseColumns(count: number, names: string[] | null, given: ColumnChoice | undefined, line: number): { choice: ColumnChoice; note: string | null } {
+  const named = (k: number) => (names ? `${k + 1} ('${names[k]}')` : `${k + 1}`);
+  if (given) {
+    const top = Math.max(given.x, given.y, given.sigma ?? 0);
+    if (top >= count) throw new SyntaxError(`line ${line}: column ${top + 1} was asked for, but the rows have ${count} columns`);
+    return { choice: given, note: `columns read as given: position ${named(given.x)}, intensity ${named(given.y)}${given.sigma !== null ? `, uncertainty ${named(given.sigma)}` : ''}` };
+  }
+  if (names === null || count < 3) {
+    if (count > 3) {
+      throw new SyntaxError(`line ${line}: ${count} columns and no names for them; give the columns to read (position, intensity and optionally its uncertainty, counted from 1, e.g. 1,2 or 1,2,3)`);
+    }
+    return { choice: { x: 0, y: 1, sigma: count === 3 ? 2 : null }, note: null };
+  }
+  const others = names.map((_, k) => k).filter((k) => k !== 0);
+  const measured = others.filter((k) => MEASURED_NAME.test(names[k]) && !DERIVED_NAME.test(names[k]) && !SIGMA_NAME.test(names[k]));
+  const sigmas = others.filter((k) => SIGMA_NAME.test(names[k]) && !DERIVED_NAME.test(names[k]));
+  if (count === 3 && measured.length <= 1 && (measured.length === 0 || measured[0] === 1)) {
+    // the plain layout unless the third column is named as something other than an uncertainty
+    if (sigmas.length === 1 && sigmas[0] === 2) return { choice: { x: 0, y: 1, sigma: 2 }, note: null };
+    if (DERIVED_NAME.test(names[2])) return { choice: { x: 0, y: 1, sigma: null }, note: `column ${named(2)} is not an uncertainty by its name: not read` };
+    return { choice: { x: 0, y: 1, sigma: 2 }, note: null };
+  }
+  if (measured.length !== 1 || sigmas.length > 1) {
+    throw new SyntaxError(`line ${line}: ${count} columns named ${names.map((n) => `'${n}'`).join(', ')}: ${measured.length === 0 ? 'none is' : 'more than one is'} named as the measured intensity; give the columns to read (position, intensity and optionally its uncertainty, counted from 1, e.g. 1,2 or 1,2,3)`);
+  }
+  const choice = { x: 0, y: measured[0], sigma: sigmas.length === 1 ? sigmas[0] : null };
+  const unread = names.map((_, k) => k).filter((k) => k !== choice.x && k !== choice.y && k !== choice.sigma);
+  return {
+    choice,
+    note: `columns read by their names: position ${named(0)}, intensity ${named(choice.y)}${choice.sigma !== null ? `, uncertainty ${named(choice.sigma)}` : ''}${unread.length ? `; not read: ${unread.map(named).join(', ')}` : ''}`,
+  };
+}
+
+/** The names on a header line when there are `count` of them (comment markers removed), else null. */
+function columnNames(line: string | undefined, count: number): string[] | null {
+  if (line === undefined) return null;
+  const text = line.replace(/^\s*(#|;|!|\/\/)+\s*/, '').trim();
+  if (text === '') return null;
+  const split = text.includes('\t') ? text.split(/\t+/) : text.includes(';') ? text.split(/\s*;\s*/) : text.includes(',') ? text.split(/\s*,\s*/) : text.split(/\s+/);
+  const names = split.map((t) => t.trim()).filter((t) => t !== '');
+  if (names.length !== count || names.some((n) => NUMBER.test(n))) return null;
+  return names;
+}
+
 /**
  * Reads a diffraction pattern from text: two columns (position, intensity) and an optional third
  * (standard uncertainty of the intensity).
@@ -151,8 +238,13 @@ function equalStepScan(lines: string[], at: number): EqualStepScan | null {
  *   is an error naming the line;
  * - separators: `;` or tab when present (a comma is then a decimal comma), else whitespace
  *   (a comma inside a number is a decimal comma, a trailing comma is a separator), else comma;
- * - a data row with one column, more than three, a non-finite value, σ ≤ 0, an intensity or σ
- *   beyond 10¹² in magnitude or a position beyond 10⁵ is an error;
+ * - a data row with one column, a non-finite value, σ ≤ 0, an intensity or σ beyond 10¹² in
+ *   magnitude or a position beyond 10⁵ is an error;
+ * - columns: the option `columns` ('1,2' or '1,2,4', counted from 1), else the names on the last
+ *   header line: with more than three columns exactly one must be named as the measured
+ *   intensity (obs, meas, counts, intensity; never calc, background, difference) and at most one
+ *   as its uncertainty (sigma, esd, error), the first column being the position; a third column
+ *   named as a model or background is not read as σ; more than three unnamed columns are refused;
  * - x must be strictly monotonic; a file in decreasing order is reversed (noted), repeated or
  *   unsorted x is an error with the line number;
  * - the wavelength comes from the option, else from the header lines by the rules of
@@ -177,6 +269,8 @@ export function parsePattern(text: string, options: ParsePatternOptions = {}): P
   const lineNo: number[] = [];
   const notes: string[] = [];
   let columns = 0;
+  let choice: ColumnChoice | null = null;
+  const given = options.columns !== undefined ? parseColumnChoice(options.columns) : undefined;
   let headerCount = 0;
   for (let i = 0; i < lines.length; i++) {
     const raw = lines[i];
@@ -240,18 +334,22 @@ export function parsePattern(text: string, options: ParsePatternOptions = {}): P
       }
     }
     if (tokens.length < 2) throw new SyntaxError(`line ${i + 1}: only one column ('${raw.trim()}'); expected position and intensity`);
-    if (tokens.length > 3) throw new SyntaxError(`line ${i + 1}: ${tokens.length} columns; expected 2 (position, intensity) or 3 (with uncertainty)`);
-    if (columns === 0) columns = tokens.length;
-    else if (tokens.length !== columns) throw new SyntaxError(`line ${i + 1}: ${tokens.length} columns where earlier rows have ${columns}`);
-    const v = tokens.map((t) => Number(t.trim().replace(',', '.')));
-    if (!v.every(Number.isFinite)) throw new SyntaxError(`line ${i + 1}: non-finite value in '${raw.trim().slice(0, 60)}'`);
-    if (Math.abs(v[0]) > MAX_ABS_POSITION) throw new SyntaxError(`line ${i + 1}: position ${tokens[0].trim()} is not a plausible 2θ or q (at most ${MAX_ABS_POSITION} in magnitude)`);
-    if (Math.abs(v[1]) > MAX_ABS_INTENSITY) throw new SyntaxError(`line ${i + 1}: intensity ${tokens[1].trim()} is not a plausible count (at most ${MAX_ABS_INTENSITY} in magnitude)`);
-    if (columns === 3 && !(v[2] > 0)) throw new SyntaxError(`line ${i + 1}: uncertainty ${v[2]} must be positive`);
-    if (columns === 3 && v[2] > MAX_ABS_INTENSITY) throw new SyntaxError(`line ${i + 1}: uncertainty ${tokens[2].trim()} is not plausible (at most ${MAX_ABS_INTENSITY})`);
-    xs.push(v[0]);
-    ys.push(v[1]);
-    if (columns === 3) ss.push(v[2]);
+    if (columns === 0) {
+      columns = tokens.length;
+      const chosen = chooseColumns(columns, columnNames(header[header.length - 1], columns), given, i + 1);
+      choice = chosen.choice;
+      if (chosen.note) notes.push(chosen.note);
+    } else if (tokens.length !== columns) throw new SyntaxError(`line ${i + 1}: ${tokens.length} columns where earlier rows have ${columns}`);
+    const all = tokens.map((t) => Number(t.trim().replace(',', '.')));
+    if (!all.every(Number.isFinite)) throw new SyntaxError(`line ${i + 1}: non-finite value in '${raw.trim().slice(0, 60)}'`);
+    const { x: cx, y: cy, sigma: cs } = choice!;
+    if (Math.abs(all[cx]) > MAX_ABS_POSITION) throw new SyntaxError(`line ${i + 1}: position ${tokens[cx].trim()} is not a plausible 2θ or q (at most ${MAX_ABS_POSITION} in magnitude)`);
+    if (Math.abs(all[cy]) > MAX_ABS_INTENSITY) throw new SyntaxError(`line ${i + 1}: intensity ${tokens[cy].trim()} is not a plausible count (at most ${MAX_ABS_INTENSITY} in magnitude)`);
+    if (cs !== null && !(all[cs] > 0)) throw new SyntaxError(`line ${i + 1}: uncertainty ${all[cs]} must be positive`);
+    if (cs !== null && all[cs] > MAX_ABS_INTENSITY) throw new SyntaxError(`line ${i + 1}: uncertainty ${tokens[cs].trim()} is not plausible (at most ${MAX_ABS_INTENSITY})`);
+    xs.push(all[cx]);
+    ys.push(all[cy]);
+    if (cs !== null) ss.push(all[cs]);
     lineNo.push(i + 1);
   }
   if (headerCount > 0) notes.push(`${headerCount} header line(s) read before the data`);
@@ -266,7 +364,7 @@ export function parsePattern(text: string, options: ParsePatternOptions = {}): P
     }
   });
   if (bare) statements.push(bare);
-  return assemblePattern({ x: xs, y: ys, sigma: columns === 3 ? ss : null, lineNo, axis: headerAxis(header), statements, notes }, options);
+  return assemblePattern({ x: xs, y: ys, sigma: choice?.sigma != null ? ss : null, lineNo, axis: headerAxis(header), statements, notes }, options);
 }
 
 /** Rows read from a file, before the reading rules common to every layout are applied. */

@@ -116,6 +116,38 @@ describe('an equal-step scan written as its range and its intensities (common pr
   });
 });
 
+describe('which columns hold the pattern: the names on the header line, or the user\'s choice', () => {
+  // 30 rows of the real COD 1516218 counts (SOURCES.md §2) beside columns a refinement program or a
+  // detector adds (their values made up: only which column is read is checked)
+  const real = readFileSync(FIXTURE, 'utf8').split('\n').filter((l) => l.trim() !== '' && !l.startsWith('#')).slice(0, 30).map((l) => l.trim().split(/\s+/).map(Number));
+  const table = (names: string, row: (x: number, y: number) => number[]) => `${names}\n${real.map(([x, y]) => row(x, y).join(' ')).join('\n')}\n`;
+  const counts = real.map(([, y]) => y);
+  test('five named columns: the measured one is read and the others are named in a note', () => {
+    const p = parsePattern(table('# 2theta Yobs Ycalc Ybkg Diff', (x, y) => [x, y, y + 3, 100, -3]));
+    expect(Array.from(p.y)).toEqual(counts);
+    expect(p.sigma).toBeNull();
+    expect(p.notes.join('\n')).toMatch(/columns read by their names: position 1 \('2theta'\), intensity 2 \('Yobs'\); not read: 3 \('Ycalc'\), 4 \('Ybkg'\), 5 \('Diff'\)/);
+    const q = parsePattern(table('2theta\tI_calc\tI_obs\tesd', (x, y) => [x, y + 3, y, Math.sqrt(y)]).replace(/ /g, '\t'));
+    expect(Array.from(q.y)).toEqual(counts);
+    expect(q.sigma![0]).toBeCloseTo(Math.sqrt(counts[0]), 12);
+  });
+  test('a third column named as a model is not read as the uncertainty (it was, silently)', () => {
+    const p = parsePattern(table('# 2theta Yobs Ycalc', (x, y) => [x, y, y + 3]));
+    expect(p.sigma).toBeNull();
+    expect(p.notes.join('\n')).toMatch(/column 3 \('Ycalc'\) is not an uncertainty by its name: not read/);
+    expect(parsePattern(table('# 2theta counts sigma', (x, y) => [x, y, 5])).sigma![0]).toBe(5);
+  });
+  test('columns that cannot be told apart are refused with what to give; the user\'s choice reads any of them', () => {
+    expect(() => parsePattern(table('', (x, y) => [x, y, 1, 2]))).toThrow(/^line 2: 4 columns and no names for them; give the columns to read/);
+    expect(() => parsePattern(table('# 2theta counts_a counts_b norm', (x, y) => [x, y, y, 1]))).toThrow(/more than one is named as the measured intensity/);
+    const p = parsePattern(table('# 2theta counts_a counts_b norm', (x, y) => [x, 2 * y, y, 1]), { columns: '1,3' });
+    expect(Array.from(p.y)).toEqual(counts);
+    expect(p.notes.join('\n')).toMatch(/columns read as given: position 1 \('2theta'\), intensity 3 \('counts_b'\)/);
+    expect(() => parsePattern(table('', (x, y) => [x, y]), { columns: '1,3' })).toThrow(/^line 2: column 3 was asked for, but the rows have 2 columns/);
+    for (const bad of ['1', '1,1', '0,2', '1,2,3,4', 'a,b']) expect(() => parsePattern('10 1\n11 2\n12 3\n', { columns: bad })).toThrow(/give two or three distinct column numbers counted from 1/);
+  });
+});
+
 describe('absurd values and file names in pattern errors', () => {
   test('an intensity, uncertainty or position far beyond any measurement is refused by line (common practice: no detector counts 10¹² in a step)', () => {
     const rows = (y: string) => `10 100\n10.1 ${y}\n10.2 120\n10.3 90\n`;

@@ -157,3 +157,39 @@ test('an internal standard: Si (SRM 640f) picked in the panel measures the zero 
   await expect.poll(() => xrd.locator('p.zero-shift', { hasText: 'internal standard' }).count()).toBe(0);
   expect(errors).toEqual([]);
 }, 120_000);
+
+test('files of other layouts: four unnamed columns ask for the columns to read, and a CIF holding a measured profile opens as a pattern', async () => {
+  // the real COD 1516218 counts (public domain; tests/fixtures/reference-data/SOURCES.md §2)
+  const { readFileSync } = await import('node:fs');
+  const rows = readFileSync('tests/fixtures/reference-data/xrd-powder_propylammonium-chloride_CuKa12_COD1516218_2theta-counts.xy', 'utf8')
+    .split('\n').filter((l) => l.trim() !== '' && !l.startsWith('#')).map((l) => l.trim().split(/\s+/));
+  const errors: string[] = [];
+  s.page.on('pageerror', (e) => errors.push(String(e)));
+  await s.page.setViewportSize({ width: 1366, height: 768 });
+  await s.page.goto(s.url);
+  await s.page.locator('strata-app').getByRole('tab', { name: 'Diffraction', exact: true }).click();
+  const xrd = s.page.locator('strata-diffraction-panel');
+  const peaks = () => xrd.evaluate((el) => (el as unknown as { analysis: { peaks: unknown[] } | null }).analysis?.peaks.length ?? 0);
+  const four = `# Cu K-alpha1 1.540598 A, K-alpha2 1.544390 A\n${rows.map(([x, y]) => `${x} ${y} 1 0`).join('\n')}\n`;
+  await xrd.locator('input[type="file"]').setInputFiles({ name: 'four-columns.dat', mimeType: 'text/plain', buffer: Buffer.from(four) });
+  await expect.poll(() => xrd.locator('p.error').textContent(), { timeout: 30_000 }).toMatch(/4 columns and no names for them; give the columns to read/);
+  await xrd.locator('input.columns').fill('1,2');
+  await xrd.locator('input.columns').press('Enter');
+  await expect.poll(peaks, { timeout: 60_000 }).toBeGreaterThan(20);
+  expect(await xrd.locator('p.error').count()).toBe(0);
+  // the same counts as a CIF, opened from the app's own file button: it goes to the panel as a pattern
+  const counts: string[] = [];
+  for (let i = 0; i < rows.length; i += 8) counts.push(rows.slice(i, i + 8).map((r) => r[1]).join(' '));
+  const cif = ['data_1516218', "_diffrn_radiation_type 'Cu K\\a'", 'loop_', '_diffrn_radiation_wavelength', '_diffrn_radiation_wavelength_wt', '1.540598 1.0', '1.544390 0.5',
+    '_pd_meas_2theta_range_min 3.000', '_pd_meas_2theta_range_max 89.988', '_pd_meas_2theta_range_inc 0.022', 'loop_', '_pd_meas_counts_total', ...counts, ''].join('\n');
+  await s.page.locator('strata-app').locator('input.open').setInputFiles([{ name: 'profile.cif', mimeType: 'chemical/x-cif', buffer: Buffer.from(cif) }]);
+  await expect.poll(() => xrd.evaluate((el) => (el as unknown as { fileName: string | null }).fileName), { timeout: 30_000 }).toBe('profile.cif');
+  const notes = () => xrd.evaluate((el) => ((el as unknown as { pattern: { notes: string[] } | null }).pattern?.notes ?? []).join(' | '));
+  await expect.poll(notes, { timeout: 60_000 }).toMatch(/CIF data block '1516218'/);
+  await expect.poll(peaks, { timeout: 60_000 }).toBeGreaterThan(20);
+  await expect.poll(async () => [await xrd.locator('input.columns').count(), await xrd.locator('p.error').count()]).toEqual([0, 0]);
+  const source = (await xrd.locator('p.muted', { hasText: 'Wavelength' }).first().textContent()) ?? '';
+  expect(source).toMatch(/Cu Kα1 0\.1540598 nm \+ Kα2 0\.154439 nm.*line 6/);
+  await s.page.screenshot({ path: join(artefactDir('diffraction'), 'profile-cif-1366x768.png') });
+  expect(errors).toEqual([]);
+}, 180_000);
