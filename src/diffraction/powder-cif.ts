@@ -33,7 +33,7 @@ const OTHER_AXES: Record<string, string> = {
 
 /**
  * Whether a text is a CIF: its first line that is neither blank nor a comment starts a data block
- * (`data_NAME`), as the CIF grammar requires.
+ * (`data_NAME`), as the CIF grammar requires, and lines start with data names or loops.
  */
 export function isCifText(text: string): boolean {
   if (typeof text !== 'string') return false;
@@ -41,7 +41,8 @@ export function isCifText(text: string): boolean {
   for (const line of head.split(/\r\n|\r|\n/)) {
     const t = line.trim();
     if (t === '' || t.startsWith('#')) continue;
-    return /^data_\S/i.test(t);
+    // a CIF's data names and loops start their lines; a header word such as 'data_set' alone does not make one
+    return /^data_\S/i.test(t) && /^\s*(?:loop_|_[A-Za-z])/im.test(head);
   }
   return false;
 }

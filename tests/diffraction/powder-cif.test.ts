@@ -120,6 +120,9 @@ describe('parsePowderCif', () => {
 
   test('a file of columns is not taken for a CIF', () => {
     expect(isCifText('# data_ in a comment\n10 1\n11 2\n')).toBe(false);
-    expect(isCifText('\n# comment\ndata_x\n')).toBe(true);
+    expect(isCifText('\n# comment\ndata_x\n_cell_length_a 5\n')).toBe(true);
+    // a header word that merely starts with data_ does not make a two-column file a CIF
+    expect(isCifText('data_set 7, Cu K-alpha\n10 1\n11 2\n12 3\n')).toBe(false);
+    expect(readPatternFile('data_set 7, Cu K-alpha\n10 1\n11 2\n12 3\n', 'set7.xy').x.length).toBe(3);
   });
 });
