@@ -9,7 +9,7 @@
 import { zlibSync } from 'fflate';
 
 /** How a page's strips are compressed. */
-export type TiffCompression = 'none' | 'deflate' | 'lzw';
+export type TiffCompression = 'none' | 'deflate' | 'lzw' | 'packbits';
 
 /** The unit the resolution values count pixels per (TIFF ResolutionUnit 1, 2, 3). */
 export type TiffResolutionUnit = 'none' | 'inch' | 'cm';
@@ -21,9 +21,10 @@ export interface EncodeTiffOptions {
   height: number;
   /**
    * Samples, row-major, samplesPerPixel values per pixel interleaved. The array type sets the
-   * sample type: Uint8Array 8-bit unsigned, Uint16Array 16-bit unsigned, Float32Array 32-bit float.
+   * sample type: Uint8Array 8-bit unsigned, Uint16Array 16-bit unsigned, Uint32Array and
+   * Int32Array 32-bit unsigned and signed integers, Float32Array 32-bit float.
    */
-  data: Uint8Array | Uint16Array | Float32Array;
+  data: Uint8Array | Uint16Array | Uint32Array | Int32Array | Float32Array;
   /** 1 grey (default), 3 RGB, 4 RGBA (the fourth sample is unassociated alpha). */
   samplesPerPixel?: 1 | 3 | 4;
   /** Strip compression; default 'none'. */
@@ -162,14 +163,14 @@ function validate(o: EncodeTiffOptions): void {
   if (!Number.isInteger(o.height) || o.height < 1) throw new RangeError(`height must be a positive integer, got ${o.height}`);
   const spp = o.samplesPerPixel ?? 1;
   if (spp !== 1 && spp !== 3 && spp !== 4) throw new RangeError(`samplesPerPixel must be 1, 3 or 4, got ${spp}`);
-  if (!(o.data instanceof Uint8Array || o.data instanceof Uint16Array || o.data instanceof Float32Array)) {
-    throw new TypeError('data must be a Uint8Array, Uint16Array or Float32Array');
+  if (!(o.data instanceof Uint8Array || o.data instanceof Uint16Array || o.data instanceof Uint32Array || o.data instanceof Int32Array || o.data instanceof Float32Array)) {
+    throw new TypeError('data must be a Uint8Array, Uint16Array, Uint32Array, Int32Array or Float32Array');
   }
   if (o.data.length !== o.width * o.height * spp) {
     throw new RangeError(`data length ${o.data.length} does not match ${o.width} × ${o.height} × ${spp} = ${o.width * o.height * spp}`);
   }
   const c = o.compression ?? 'none';
-  if (c !== 'none' && c !== 'deflate' && c !== 'lzw') throw new RangeError(`compression must be 'none', 'deflate' or 'lzw', got '${c}'`);
+  if (c !== 'none' && c !== 'deflate' && c !== 'lzw' && c !== 'packbits') throw new RangeError(`compression must be 'none', 'deflate', 'lzw' or 'packbits', got '${c}'`);
   if (o.rowsPerStrip !== undefined && (!Number.isInteger(o.rowsPerStrip) || o.rowsPerStrip < 1)) {
     throw new RangeError(`rowsPerStrip must be a positive integer, got ${o.rowsPerStrip}`);
   }
@@ -180,6 +181,32 @@ function validate(o: EncodeTiffOptions): void {
     const u = o.resolution.unit;
     if (u !== 'none' && u !== 'inch' && u !== 'cm') throw new RangeError(`resolution unit must be 'none', 'inch' or 'cm', got '${u}'`);
   }
+}
+
+/**
+ * PackBits, each row packed on its own as TIFF 6.0 §9 asks: runs of 3 to 128 equal bytes as a
+ * repeat, the rest as literal runs of at most 128 bytes.
+ */
+export function packBitsRows(data: Uint8Array, rowBytes: number): Uint8Array {
+  const out: number[] = [];
+  for (let r = 0; r < data.length; r += rowBytes) {
+    const row = data.subarray(r, Math.min(data.length, r + rowBytes));
+    let i = 0;
+    while (i < row.length) {
+      let run = 1;
+      while (i + run < row.length && run < 128 && row[i + run] === row[i]) run++;
+      if (run >= 3) {
+        out.push((1 - run) & 255, row[i]);
+        i += run;
+        continue;
+      }
+      const start = i;
+      while (i < row.length && i - start < 128 && !(i + 2 < row.length && row[i] === row[i + 1] && row[i] === row[i + 2])) i++;
+      out.push(i - start - 1);
+      for (let k = start; k < i; k++) out.push(row[k]);
+    }
+  }
+  return Uint8Array.from(out);
 }
 
 interface PageLayout {
@@ -193,7 +220,7 @@ function buildPage(o: EncodeTiffOptions): PageLayout {
   const spp = o.samplesPerPixel ?? 1;
   const bytesPerSample = o.data.BYTES_PER_ELEMENT;
   const bits = bytesPerSample * 8;
-  const sampleFormat = o.data instanceof Float32Array ? 3 : 1;
+  const sampleFormat = o.data instanceof Float32Array ? 3 : o.data instanceof Int32Array ? 2 : 1;
   const rowBytes = o.width * spp * bytesPerSample;
   const rowsPerStrip = Math.min(o.height, o.rowsPerStrip ?? Math.max(1, Math.floor(65536 / rowBytes)));
   // Samples as little-endian bytes (typed arrays are little-endian on every platform we run on,
@@ -203,6 +230,8 @@ function buildPage(o: EncodeTiffOptions): PageLayout {
   const d = o.data;
   if (d instanceof Uint8Array) raw.set(d);
   else if (d instanceof Uint16Array) for (let i = 0; i < d.length; i++) view.setUint16(i * 2, d[i], true);
+  else if (d instanceof Uint32Array) for (let i = 0; i < d.length; i++) view.setUint32(i * 4, d[i], true);
+  else if (d instanceof Int32Array) for (let i = 0; i < d.length; i++) view.setInt32(i * 4, d[i], true);
   else for (let i = 0; i < d.length; i++) view.setFloat32(i * 4, d[i], true);
 
   const compression = o.compression ?? 'none';
@@ -211,14 +240,14 @@ function buildPage(o: EncodeTiffOptions): PageLayout {
   for (let y = 0; y < o.height; y += rowsPerStrip) {
     const rows = Math.min(rowsPerStrip, o.height - y);
     const chunk = raw.subarray(y * rowBytes, (y + rows) * rowBytes);
-    strips.push(compression === 'deflate' ? zlibSync(chunk, { level: (o.deflateLevel ?? 6) as 6 }) : tables ? compressLzwWith(chunk, tables) : chunk);
+    strips.push(compression === 'deflate' ? zlibSync(chunk, { level: (o.deflateLevel ?? 6) as 6 }) : tables ? compressLzwWith(chunk, tables) : compression === 'packbits' ? packBitsRows(chunk, rowBytes) : chunk);
   }
 
   const entries: Entry[] = [
     { tag: 256, type: TYPE_LONG, values: [o.width] }, // ImageWidth
     { tag: 257, type: TYPE_LONG, values: [o.height] }, // ImageLength
     { tag: 258, type: TYPE_SHORT, values: new Array(spp).fill(bits) }, // BitsPerSample
-    { tag: 259, type: TYPE_SHORT, values: [compression === 'deflate' ? 8 : compression === 'lzw' ? 5 : 1] }, // Compression
+    { tag: 259, type: TYPE_SHORT, values: [compression === 'deflate' ? 8 : compression === 'lzw' ? 5 : compression === 'packbits' ? 32773 : 1] }, // Compression
     { tag: 262, type: TYPE_SHORT, values: [spp === 1 ? 1 : 2] }, // PhotometricInterpretation: BlackIsZero / RGB
   ];
   if (o.description !== undefined) entries.push({ tag: 270, type: TYPE_ASCII, values: asciiBytes(o.description, 'description') });

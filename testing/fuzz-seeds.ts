@@ -35,7 +35,7 @@ function samples() {
 export function tiffSeeds(): Seed[] {
   const { u16, u8, f32 } = samples();
   const out: Seed[] = [];
-  const comps: TiffCompression[] = ['none', 'lzw', 'deflate'];
+  const comps: TiffCompression[] = ['none', 'lzw', 'deflate', 'packbits'];
   for (const c of comps) {
     out.push({ name: `u8-${c}.tif`, bytes: encodeTiff({ width: W, height: H, data: u8, compression: c, rowsPerStrip: 5, resolution: { x: 4e7, unit: 'cm' } }) });
     out.push({ name: `u16-${c}.tif`, bytes: encodeTiff({ width: W, height: H, data: u16, compression: c, rowsPerStrip: 6 }) });
@@ -44,6 +44,7 @@ export function tiffSeeds(): Seed[] {
   out.push({ name: 'rgb.tif', bytes: encodeTiff({ width: W, height: H, data: Uint8Array.from({ length: W * H * 3 }, (_, i) => u8[(i / 3) | 0]), samplesPerPixel: 3 }) });
   out.push({ name: 'tiled-pred2.tif', bytes: buildTiff({ width: W, height: H, bits: 16, data: u16, compression: 8, predictor: 2, tile: { width: 16, length: 16 } }) });
   out.push({ name: 'tiled-lzw-be.tif', bytes: buildTiff({ width: W, height: H, bits: 8, data: u8, compression: 5, predictor: 2, tile: { width: 16, length: 16 }, bigEndian: true }) });
+  out.push({ name: 'u32-lzw.tif', bytes: encodeTiff({ width: W, height: H, data: Uint32Array.from(u16, (v) => v * 300), compression: 'lzw', rowsPerStrip: 9 }) });
   out.push({ name: 'float-pred3.tif', bytes: buildTiff({ width: W, height: H, bits: 32, data: f32, compression: 8, predictor: 3, rowsPerStrip: 8 }) });
   return out;
 }

@@ -4,7 +4,7 @@
  * directory chain and in metadata sub-directories), then each strip or tile is decompressed
  * under a cap and turned into grey pixels row by row, so the undecoded image is never held whole.
  *
- * Reference: TIFF Revision 6.0 (Adobe, 1992) §2 (structure), §8 (baseline fields), §13 (LZW),
+ * Reference: TIFF Revision 6.0 (Adobe, 1992) §2 (structure), §8 (baseline fields), §9 (PackBits), §13 (LZW),
  * §14 (Predictor), §15 (tiles), §19 (SampleFormat); Adobe PageMaker 6.0 TIFF Technical Notes
  * (Deflate, compression 8); Adobe Photoshop TIFF Technical Note 3 (floating-point predictor 3).
  */
@@ -12,6 +12,7 @@ import type { Alloc, Budget, Decoded, Fail } from './decode-common';
 import { DEFLATE_MAX_RATIO, GreyWriter, pixelStorage, HOST_LITTLE_ENDIAN, NM_PER_CM, NM_PER_INCH, bytesText, checkDecompressed, checkSize, resolutionCalibration } from './decode-common';
 import type { Calibration, SampleKind } from './grey-image';
 import { LzwDataError, lzwDecode } from './lzw';
+import { PackBitsDataError, packBitsDecode } from './packbits';
 import { ZlibDataError, inflateZlib } from './zlib';
 
 /** Bytes per value of each field type (TIFF 6.0 §2, plus IFD = 13 from TIFF Technical Note 1). */
@@ -32,8 +33,8 @@ const TAG_NAME: Record<number, string> = {
   322: 'TileWidth', 323: 'TileLength', 324: 'TileOffsets', 325: 'TileByteCounts', 330: 'SubIFDs', 338: 'ExtraSamples',
   339: 'SampleFormat', 34665: 'Exif IFD', 34853: 'GPS IFD', 40965: 'Interoperability IFD',
 };
-const COMPRESSION_NAME: Record<number, string> = { 1: 'none', 5: 'LZW', 8: 'Deflate', 32946: 'Deflate' };
-const UNSUPPORTED_COMPRESSION: Record<number, string> = { 2: 'CCITT RLE', 3: 'CCITT fax 3', 4: 'CCITT fax 4', 6: 'old-style JPEG', 7: 'JPEG', 32773: 'PackBits' };
+const COMPRESSION_NAME: Record<number, string> = { 1: 'none', 5: 'LZW', 8: 'Deflate', 32946: 'Deflate', 32773: 'PackBits' };
+const UNSUPPORTED_COMPRESSION: Record<number, string> = { 2: 'CCITT RLE', 3: 'CCITT fax 3', 4: 'CCITT fax 4', 6: 'old-style JPEG', 7: 'JPEG' };
 /** Metadata directories walked for loops, with the tags that point to further ones. */
 const SUB_DIRECTORY_TAGS = [T.subIfds, T.exifIfd, T.gpsIfd, T.interopIfd];
 /** Most metadata directories walked (a real file has a handful). */
@@ -241,8 +242,9 @@ interface Segment {
  * @param fail - stops reading with a reason.
  * @param alloc - where the pixel and working arrays come from.
  * @returns the decoded image and the reader's warnings.
- * Notes: 8/16-bit integer (unsigned or signed) and 32-bit float samples; no compression, LZW or
- * Deflate; predictor 1, 2 (integers) or 3 (float); strips or tiles; grey, WhiteIsZero (inverted:
+ * Notes: 8/16/32-bit integer (unsigned or signed; 32-bit integers are held as 32-bit float, exact
+ * up to 2²⁴, with a warning above) and 32-bit float samples; no compression, LZW, Deflate or
+ * PackBits; predictor 1, 2 (integers) or 3 (float); strips or tiles; grey, WhiteIsZero (inverted:
  * max − v for unsigned, −1 − v for signed, −v for float) or RGB; orientation 1 only. Metadata
  * sub-directories are only checked for loops, never read.
  */
@@ -282,14 +284,14 @@ export function readTiff(src: ByteSource, budget: Budget, fail: Fail, alloc: All
     if (bits !== 32) fail(`unsupported TIFF: ${bits}-bit float samples (32-bit float is read)`);
     sampleKind = 'float';
   } else if (sampleFormat === 1 || sampleFormat === 2 || sampleFormat === 4) {
-    if (bits !== 8 && bits !== 16) fail(`unsupported TIFF: ${bits}-bit ${sampleFormat === 2 ? 'signed ' : ''}integer samples (8- and 16-bit integers and 32-bit float are read)`);
+    if (bits !== 8 && bits !== 16 && bits !== 32) fail(`unsupported TIFF: ${bits}-bit ${sampleFormat === 2 ? 'signed ' : ''}integer samples (8-, 16- and 32-bit integers and 32-bit float are read)`);
     sampleKind = sampleFormat === 2 ? 'int' : 'uint';
   } else {
     fail(`unsupported TIFF: SampleFormat ${sampleFormat} (${sampleFormat === 5 || sampleFormat === 6 ? 'complex' : 'unknown'})`);
   }
   if (!COMPRESSION_NAME[compression]) {
     const name = UNSUPPORTED_COMPRESSION[compression];
-    fail(`unsupported TIFF compression ${compression}${name ? ` (${name})` : ''}; none, LZW and Deflate are read`);
+    fail(`unsupported TIFF compression ${compression}${name ? ` (${name})` : ''}; none, LZW, Deflate and PackBits are read`);
   }
   // TIFF 6.0 §14 and Technical Note 3: 1 none, 2 horizontal differencing, 3 floating point.
   if (predictor !== 1 && predictor !== 2 && predictor !== 3) fail(`invalid TIFF: Predictor ${predictor} (1, 2 and 3 are defined, TIFF 6.0 §14)`);
@@ -357,6 +359,10 @@ export function readTiff(src: ByteSource, budget: Budget, fail: Fail, alloc: All
       // Deflate expands at most 1032:1 (RFC 1951): fewer compressed bytes cannot hold the image.
       fail(`truncated or corrupt: ${compressedTotal} bytes of Deflate data cannot hold ${imageBytes} bytes of image`);
     }
+    if (compression === 32773 && compressedTotal * 64 < imageBytes) {
+      // PackBits expands at most 64:1 (two bytes repeat one 128 times, TIFF 6.0 §9).
+      fail(`truncated or corrupt: ${compressedTotal} bytes of PackBits data cannot hold ${imageBytes} bytes of image`);
+    }
   }
 
   // Pages: walk the directory chain (guarding against loops) only to count them.
@@ -423,16 +429,19 @@ export function readTiff(src: ByteSource, budget: Budget, fail: Fail, alloc: All
         produced = need;
       } else if (compression === 5) {
         produced = lzwDecode(data, need, sink);
+      } else if (compression === 32773) {
+        produced = packBitsDecode(data, need, sink);
       } else {
         // a last strip may be stored padded to full height: the padding rows are counted, not used
         produced = inflateZlib([data], { maxBytes: s.maxBytes, sink });
       }
     } catch (e) {
-      if (e instanceof LzwDataError || e instanceof ZlibDataError) fail(`damaged TIFF data in ${s.what} (bytes ${s.offset}–${s.offset + s.count}, ${method}): ${e.message}`);
+      if (e instanceof LzwDataError || e instanceof ZlibDataError || e instanceof PackBitsDataError) fail(`damaged TIFF data in ${s.what} (bytes ${s.offset}–${s.offset + s.count}, ${method}): ${e.message}`);
       throw e;
     }
     if (produced < need) fail(`truncated or corrupt TIFF data: ${s.what} gives ${produced} bytes, ${need} expected`);
   }
+  if (rows.beyondFloat) warnings.push('32-bit integer samples beyond 16 777 216 (2²⁴) are held as 32-bit float and lose their last digits');
   if (photometric === 0) warnings.push('WhiteIsZero TIFF: values inverted so that larger is brighter');
   if (photometric < 2 && spp > 1) warnings.push(`grey TIFF with ${spp} samples per pixel: read the first`);
   const data = writer.finish(warnings);
@@ -511,6 +520,7 @@ class RowConverter {
   private readonly u8: Uint8Array;
   private readonly u16: Uint16Array;
   private readonly f32: Float32Array;
+  private readonly u32: Uint32Array;
   constructor(
     private readonly bits: number,
     private readonly kind: SampleKind,
@@ -524,7 +534,11 @@ class RowConverter {
     this.u8 = new Uint8Array(n * (bits / 8));
     this.u16 = bits === 16 ? new Uint16Array(n) : new Uint16Array(0);
     this.f32 = bits === 32 ? new Float32Array(n) : new Float32Array(0);
+    this.u32 = bits === 32 && kind !== 'float' ? new Uint32Array(n) : new Uint32Array(0);
   }
+
+  /** Whether a 32-bit integer sample beyond 2²⁴ was seen (held as float, it lost its last digits). */
+  beyondFloat = false;
 
   /** The samples of a row of `cols` pixels (valid until the next call). */
   convert(row: Uint8Array, cols: number): ArrayLike<number> {
@@ -552,8 +566,31 @@ class RowConverter {
       if (this.whiteIsZero) for (let i = 0; i < n; i++) u[i] = 0xffff - u[i];
       return this.kind === 'int' ? new Int16Array(u.buffer, 0, n) : u.subarray(0, n);
     }
-    // 32-bit float
     const out = this.f32;
+    if (this.kind !== 'float') {
+      // 32-bit integers, held as float: exact up to 2²⁴ (the writer's caller warns above)
+      const dv = new DataView(row.buffer, row.byteOffset, 4 * n);
+      const u = this.u32;
+      for (let i = 0; i < n; i++) u[i] = dv.getUint32(4 * i, this.le);
+      if (this.predictor === 2) for (let i = spp; i < n; i++) u[i] = (u[i] + u[i - spp]) >>> 0;
+      if (this.whiteIsZero) for (let i = 0; i < n; i++) u[i] = this.kind === 'int' ? ~u[i] >>> 0 : 0xffffffff - u[i];
+      let largest = 0;
+      if (this.kind === 'int') {
+        for (let i = 0; i < n; i++) {
+          const v = u[i] | 0;
+          out[i] = v;
+          if (Math.abs(v) > largest) largest = Math.abs(v);
+        }
+      } else {
+        for (let i = 0; i < n; i++) {
+          out[i] = u[i];
+          if (u[i] > largest) largest = u[i];
+        }
+      }
+      if (largest > 16777216) this.beyondFloat = true;
+      return out.subarray(0, n);
+    }
+    // 32-bit float
     if (this.predictor === 3) {
       // Bytes were differenced across the row (stride spp) after being split into planes, most significant first.
       const b = this.u8;
