@@ -24,7 +24,7 @@ const T = {
   width: 256, height: 257, bits: 258, compression: 259, photometric: 262, stripOffsets: 273,
   orientation: 274, spp: 277, rowsPerStrip: 278, stripByteCounts: 279, xRes: 282, yRes: 283, planar: 284,
   resUnit: 296, predictor: 317, tileWidth: 322, tileLength: 323, tileOffsets: 324,
-  tileByteCounts: 325, subIfds: 330, extraSamples: 338, sampleFormat: 339, exifIfd: 34665, gpsIfd: 34853, interopIfd: 40965,
+  tileByteCounts: 325, subIfds: 330, description: 270, extraSamples: 338, sampleFormat: 339, exifIfd: 34665, gpsIfd: 34853, interopIfd: 40965,
 } as const;
 const TAG_NAME: Record<number, string> = {
   256: 'ImageWidth', 257: 'ImageLength', 258: 'BitsPerSample', 259: 'Compression', 262: 'PhotometricInterpretation',
@@ -213,6 +213,42 @@ class Fields {
   rational(tag: number): number[] {
     return this.list(tag, [5, 11, 12]);
   }
+  /** An ASCII value (its first 4096 characters), or '' when absent or of another type. */
+  ascii(tag: number): string {
+    const e = this.entries.get(tag);
+    if (!e || e.type !== 2 || e.count === 0) return '';
+    const bytes = this.f.numbers({ ...e, count: Math.min(e.count, 4096) });
+    let out = '';
+    for (const b of bytes) {
+      if (b === 0) break;
+      out += String.fromCharCode(b);
+    }
+    return out;
+  }
+}
+
+/** Nanometres per length unit as an image description names it (ASCII spellings, µ escaped or as micro sign). */
+const DESCRIPTION_UNIT_NM: Record<string, number> = {
+  pm: 1e-3, picometer: 1e-3, picometre: 1e-3,
+  'å': 0.1, a: 0.1, angstrom: 0.1, ångström: 0.1, 'a°': 0.1,
+  nm: 1, nanometer: 1, nanometre: 1,
+  um: 1e3, 'µm': 1e3, 'μm': 1e3, micron: 1e3, microns: 1e3, micrometer: 1e3, micrometre: 1e3,
+  mm: 1e6, millimeter: 1e6, millimetre: 1e6,
+};
+
+/**
+ * The length unit an image description states for the resolution when the TIFF's own
+ * ResolutionUnit is 'none': a line `unit=nm` (also `micron`, `um`, `\u00B5m`, `A`) among the
+ * description's key=value lines, as scientific image editors write it.
+ * @returns the unit's name and nanometres per unit, or null when none is stated
+ */
+function descriptionUnit(description: string): { name: string; nmPerUnit: number } | null {
+  const m = /(?:^|\n)\s*unit\s*=\s*([^\n\r]{1,24})/i.exec(description);
+  if (!m) return null;
+  const raw = m[1].trim().replace(/\\u00b5/gi, 'µ').replace(/\\u00c5/gi, 'Å');
+  const key = raw.toLowerCase();
+  const nm = DESCRIPTION_UNIT_NM[key];
+  return nm === undefined ? null : { name: raw, nmPerUnit: nm };
 }
 
 /** One strip or tile: where its bytes lie and which part of the image it covers. */
@@ -452,9 +488,14 @@ export function readTiff(src: ByteSource, budget: Budget, fail: Fail, alloc: All
   if (xr.length) {
     const yr = t.rational(T.yRes);
     const unit = t.one(T.resUnit, 2);
-    const nmPerUnit = unit === 2 ? NM_PER_INCH : unit === 3 ? NM_PER_CM : null;
-    const unitName = unit === 2 ? 'inch' : unit === 3 ? 'cm' : `ResolutionUnit ${unit}`;
-    calibration = resolutionCalibration(xr[0], yr.length ? yr[0] : xr[0], nmPerUnit, unitName, 'TIFF XResolution/YResolution (tags 282/283, ResolutionUnit 296)', warnings);
+    // with ResolutionUnit 'none' (1), a unit stated in the image description (unit=nm) is the resolution's unit
+    const stated = unit === 1 ? descriptionUnit(t.ascii(T.description)) : null;
+    const nmPerUnit = unit === 2 ? NM_PER_INCH : unit === 3 ? NM_PER_CM : stated ? stated.nmPerUnit : null;
+    const unitName = unit === 2 ? 'inch' : unit === 3 ? 'cm' : stated ? stated.name : `ResolutionUnit ${unit}`;
+    const detail = stated
+      ? `TIFF XResolution/YResolution (tags 282/283) with the unit '${stated.name}' of the image description (tag 270), ResolutionUnit 296 being 'none'`
+      : 'TIFF XResolution/YResolution (tags 282/283, ResolutionUnit 296)';
+    calibration = resolutionCalibration(xr[0], yr.length ? yr[0] : xr[0], nmPerUnit, unitName, detail, warnings);
   }
   return { width, height, data, bitDepth: bits, sampleKind, calibration, warnings, mayBeNonFinite: sampleKind === 'float' };
 }

@@ -189,6 +189,27 @@ describe('TIFF', () => {
     expect(decodeImage(bytes, 'a.tif').calibration?.nmPerPx).toBeCloseTo(1, 9);
   });
 
+  // With ResolutionUnit 1 ('none', TIFF 6.0 §8) the resolution has no unit of its own; scientific image
+  // editors then state it as a line 'unit=…' of the ImageDescription (common practice of such files)
+  test('ResolutionUnit none with the image description stating unit=nm, micron or \\u00B5m: the pixel size in that unit', () => {
+    const withUnit = (unit: string, pxPerUnit: number) =>
+      decodeImage(encodeTiff({ width: 4, height: 4, data: new Uint8Array(16), resolution: { x: pxPerUnit, unit: 'none' }, description: `ImageJ=1.54f\nunit=${unit}\nmin=0.0\n` }), 'a.tif');
+    const nm = withUnit('nm', 4);
+    expect(nm.calibration?.nmPerPx).toBeCloseTo(0.25, 12);
+    expect(nm.calibration?.source).toBe('metadata');
+    expect(nm.calibration?.detail).toMatch(/unit 'nm' of the image description/);
+    expect(withUnit('micron', 20).calibration?.nmPerPx).toBeCloseTo(50, 9);
+    expect(withUnit('\\u00B5m', 20).calibration?.nmPerPx).toBeCloseTo(50, 9);
+    expect(withUnit('A', 2).calibration?.nmPerPx).toBeCloseTo(0.05, 12);
+    // no length unit: not a calibration, as before
+    const px = withUnit('pixel', 1);
+    expect(px.calibration).toBeNull();
+    expect(px.warnings.join()).toMatch(/no absolute unit/);
+    // a unit in the description never overrides a ResolutionUnit of inch or cm
+    const cm = decodeImage(encodeTiff({ width: 4, height: 4, data: new Uint8Array(16), resolution: { x: 1e7, unit: 'cm' }, description: 'unit=nm\n' }), 'a.tif');
+    expect(cm.calibration?.nmPerPx).toBeCloseTo(1, 9);
+  });
+
   describe('resolution values that are not a calibration', () => {
     const cases: [string, { x: number; unit: 'none' | 'inch' | 'cm' }, RegExp][] = [
       ['unit none', { x: 4e7, unit: 'none' }, /no absolute unit/],
