@@ -87,7 +87,7 @@ export const command: CliCommand = {
   usage,
   async run(args: string[], io: CliIo): Promise<number> {
     const { positional, options, flags } = parseArgs(args, {
-      values: ['pattern', 'saed', 'cif', 'z-max', 'wavelength', 'axis', 'k', 'instrument-fwhm', 'standard', 'instrument', 'correction', 'ka2', 'min-snr', 'internal-standard'],
+      values: ['pattern', 'saed', 'cif', 'z-max', 'wavelength', 'axis', 'columns', 'k', 'instrument-fwhm', 'standard', 'instrument', 'correction', 'ka2', 'min-snr', 'internal-standard'],
       booleans: ['json', 'all-lines'],
     });
     const patternPath = options.get('pattern');
@@ -99,7 +99,7 @@ export const command: CliCommand = {
     if (!(zMax > 0)) throw new UsageError(`--z-max must be a positive number, got '${zMaxText}'`);
     const analysis = patternPath ? (await loadAndAnalyse(patternPath, options)).analysis : null;
     if (!patternPath) {
-      const only = ['wavelength', 'axis', 'k', 'instrument-fwhm', 'standard', 'instrument', 'correction', 'ka2', 'min-snr', 'internal-standard'].filter((o) => options.has(o));
+      const only = ['wavelength', 'axis', 'columns', 'k', 'instrument-fwhm', 'standard', 'instrument', 'correction', 'ka2', 'min-snr', 'internal-standard'].filter((o) => options.has(o));
       if (only.length) throw new UsageError(`${only.map((o) => `--${o}`).join(', ')} go${only.length === 1 ? 'es' : ''} with --pattern`);
     }
     const notes: string[] = [];

@@ -73,7 +73,7 @@ export async function loadAndAnalyse(path: string, options: Map<string, string>)
   try {
     pattern = readPatternFile(await read(path, 'pattern'), path, { axis, wavelength: wl, columns: options.get('columns') });
   } catch (e) {
-    if (e instanceof PatternReadError) throw new UsageError(e.message);
+    if (e instanceof PatternReadError) throw new UsageError(/give the columns to read/.test(e.message) ? `${e.message}: --columns X,Y[,S]` : e.message);
     throw e;
   }
   if (pattern.axis === 'twoTheta' && pattern.wavelengthNm === null) {
