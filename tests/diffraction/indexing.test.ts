@@ -2,6 +2,7 @@ import { describe, expect, test } from 'vitest';
 import { dToTwoTheta } from '../../src/diffraction/bragg';
 import { indexPattern, type IndexPeak } from '../../src/diffraction/indexing';
 import { centringAllows, latticeLines } from '../../src/diffraction/lattice';
+import { gaussian, rng } from '../../testing/random';
 
 const CU1 = 0.154059292; // Cu Kα1, ITC C Table 4.2.2.1 (reference-values.md)
 
@@ -164,5 +165,51 @@ describe('a mixture of a broad-lined clay and a sharp-lined cubic phase (seeded 
     expect(lam.lines.some((l) => l.peak === 4)).toBe(false);
     expect(Math.abs(lam.cNm / 1.42 - 1)).toBeLessThan(5e-4);
     expect(Math.abs(fcc.aNm / 0.40495 - 1)).toBeLessThan(5e-4);
+  });
+});
+
+describe('an indexed cell takes every line at its worth', () => {
+  /** A lamellar order's peak at c/l, placed `errDeg` off its 2θ, with the fit's 2θ uncertainty and d uncertainty to match. */
+  const order = (c: number, l: number, errDeg: number, uDeg: number, fwhmDeg: number, intensity: number): IndexPeak => {
+    const tt = dToTwoTheta(c / l, CU1) + errDeg;
+    const th = (tt * Math.PI) / 360;
+    const d = CU1 / (2 * Math.sin(th));
+    return { dNm: d, dUncNm: (d / Math.tan(th)) * (uDeg * Math.PI) / 360, twoThetaDeg: tt, twoThetaUncDeg: uDeg, intensity, fwhmDeg };
+  };
+  test('two orders only (too few for a zero shift): the cell is their weighted mean, not one line\'s (silver behenate d001 = 5.838 nm, Blanton et al., Powder Diffr. 10, 91, 1995)', () => {
+    const c = 5.838;
+    // 001 placed 0.004° high (its cell alone 0.26 % short), 002 0.002° low (its cell alone 0.07 % long), both ± 0.004°:
+    // weighted by their d uncertainties (the second order holds c four times as well), the two errors cancel
+    const r = indexPattern([order(c, 1, 0.004, 0.004, 0.1, 100), order(c, 2, -0.002, 0.004, 0.1, 50)], { wavelengthNm: CU1, kinds: ['lamellar'] });
+    const lam = r.phases.find((p) => p.kind === 'lamellar')!;
+    expect(lam.lines.length).toBe(2);
+    expect(r.notes.join(' ')).toMatch(/too few lines to refine with a zero shift/);
+    expect(Math.abs(lam.cNm / c - 1)).toBeLessThan(2e-4);
+    expect(Math.abs(lam.cNm - c)).toBeLessThan(2 * lam.cUncNm);
+  });
+  test('a well-placed line is not weighed like a poorly placed one: over 120 seeded draws the cell scatters as weighted least squares predicts (Gauss–Markov theorem; between-line excess variance: Paule & Mandel, J. Res. Natl Bur. Stand. 87, 377, 1982)', () => {
+    // a clay's 001–004 at d001 = 1.25 nm (one water layer, reference-values §3), broad orders (FWHM 0.8°):
+    // the strong 001 placed to ± 0.002°, the weak higher orders to ± 0.010, 0.015, 0.020°
+    const c = 1.25;
+    const u = [0.002, 0.01, 0.015, 0.02];
+    const uTot = u.map((v) => Math.hypot(v, 0.002)); // the indexer's own floor of 0.002° (profile shape, common practice)
+    // weighted least squares on 2θ: var(c) = 1 / Σ (∂2θ/∂c / σ)²
+    const slope = u.map((_, j) => (dToTwoTheta(c * (1 + 1e-6) / (j + 1), CU1) - dToTwoTheta(c / (j + 1), CU1)) / (1e-6 * c));
+    const sdBest = 1 / Math.sqrt(slope.reduce((s, g, j) => s + (g / uTot[j]) ** 2, 0));
+    const normal = gaussian(rng(16));
+    const errs: number[] = [];
+    const stated: number[] = [];
+    for (let k = 0; k < 120; k++) {
+      const peaks = u.map((_, j) => order(c, j + 1, uTot[j] * normal(), u[j], 0.8, [100, 12, 18, 6][j]));
+      const lam = indexPattern(peaks, { wavelengthNm: CU1, kinds: ['lamellar'], fitZeroShift: false }).phases.find((p) => p.kind === 'lamellar')!;
+      errs.push(lam.cNm - c);
+      stated.push(lam.cUncNm);
+    }
+    const rms = Math.sqrt(errs.reduce((s, e) => s + e * e, 0) / errs.length);
+    // with a fixed allowance of 3 % of the FWHM (0.024°) on every line the four count nearly alike: measured 1.47 × sdBest
+    expect(rms).toBeLessThan(1.25 * sdBest);
+    const medianStated = [...stated].sort((a, b) => a - b)[stated.length >> 1];
+    expect(medianStated).toBeGreaterThan(0.6 * sdBest);
+    expect(medianStated).toBeLessThan(1.6 * sdBest);
   });
 });
