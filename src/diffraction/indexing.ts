@@ -927,6 +927,20 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
         const own = new Set(scope.filter((i) => !claimed.has(i)));
         const again = own.size >= 2 ? evaluate(w, first.t, own, opts) : null;
         if (again && again.fom.fN >= first.fom.fN && again.hkls.length >= Math.min(first.hkls.length, 2)) first = again;
+        // the smallest cell (de Wolff, J. Appl. Cryst. 1, 108, 1968): a cell with c or a doubled
+        // indexes every line of the cell itself plus, by its half-integer indices, some lines of the
+        // other phase; once those are the other phase's, a half cell that explains as many of the
+        // lines left, the strong ones included, is the cell
+        const ownLines = first.hkls.filter((h) => own.has(h.peak)).length;
+        const halves = cellParameters(first.t.kind) === 2 ? [{ ...first.t, c: first.t.c / 2 }, { ...first.t, a: first.t.a / 2 }] : [];
+        for (const t of halves) {
+          const half = own.size >= 2 ? evaluate(w, t, own, opts) : null;
+          if (half && half.hkls.length >= ownLines && half.strongExplained >= first.hkls.filter((h) => own.has(h.peak) && strong.has(h.peak)).length && half.fom.fN >= minFom) {
+            notes.push(`the ${LATTICE_WORDS[first.t.kind]} cell with ${t.c < first.t.c ? 'c' : 'a'} doubled (a ${first.t.a.toPrecision(6)} nm, c ${first.t.c.toPrecision(6)} nm) explains lines of the other phase too; without them the half cell explains as many lines and is taken (the smallest cell)`);
+            first = half;
+            break;
+          }
+        }
       }
       phases.push(phaseOf(first, false));
       if (second) phases.push(phaseOf(second, false));

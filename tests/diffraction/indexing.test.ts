@@ -168,6 +168,26 @@ describe('a mixture of a broad-lined clay and a sharp-lined cubic phase (seeded 
   });
 });
 
+describe('a mixture takes the smallest cell (de Wolff, J. Appl. Cryst. 1, 108, 1968)', () => {
+  test('brucite-like hexagonal (a 0.3142, c 0.4766 nm) + rutile-like tetragonal (a 0.4594, c 0.2959 nm; both from memory): not the hexagonal cell with c doubled, whose half-integer lines are the tetragonal 102 and 112 (synthetic benchmark case, seed 5, its fitted peaks)', () => {
+    // 2θ, u(2θ), area, FWHM as fitted on the drawn pattern (Cu Kα1 + Kα2)
+    const fitted = [[18.6014, 0.0028, 141.4, 0.289], [19.3045, 0.0049, 49.5, 0.240], [27.4320, 0.0021, 129.1, 0.224], [30.1822, 0.0024, 126.3, 0.267], [32.8921, 0.0021, 225.9, 0.294], [36.0797, 0.0023, 144.5, 0.222], [38.0255, 0.0042, 154.7, 0.415], [39.1858, 0.0027, 128.8, 0.268], [41.2350, 0.0037, 80.8, 0.229], [44.0343, 0.0041, 70.2, 0.226], [50.2469, 0.0045, 102.3, 0.290], [50.8928, 0.0025, 247.0, 0.326], [54.3150, 0.0021, 219.5, 0.257], [56.6209, 0.0076, 45.6, 0.258], [58.0149, 0.0112, 50.6, 0.368], [58.7053, 0.0103, 51.3, 0.335], [60.4077, 0.0050, 81.2, 0.270], [62.1654, 0.0030, 344.5, 0.353], [62.7515, 0.0032, 185.3, 0.258], [64.0465, 0.0198, 27.9, 0.399], [65.5011, 0.0071, 69.9, 0.339], [66.3223, 0.0021, 291.8, 0.280], [68.9830, 0.0028, 305.3, 0.335], [69.8005, 0.0033, 180.1, 0.306], [72.2551, 0.0020, 650.8, 0.598], [74.3976, 0.0071, 42.3, 0.218], [76.5616, 0.0226, 12.0, 0.230]];
+    const peaks: IndexPeak[] = fitted.map(([tt, u, area, fwhm]) => {
+      const th = (tt * Math.PI) / 360;
+      const d = CU1 / (2 * Math.sin(th));
+      return { dNm: d, dUncNm: (d / Math.tan(th)) * (u * Math.PI) / 360, twoThetaDeg: tt, twoThetaUncDeg: u, intensity: area, fwhmDeg: fwhm };
+    });
+    const r = indexPattern(peaks, { wavelengthNm: CU1 });
+    const hex = r.phases.find((p) => p.kind === 'hexagonal-P')!;
+    const tet = r.phases.find((p) => p.kind === 'tetragonal-P')!;
+    expect(Math.abs(hex.cNm / 0.4766 - 1)).toBeLessThan(5e-4);
+    expect(Math.abs(hex.aNm / 0.3142 - 1)).toBeLessThan(5e-4);
+    expect(Math.abs(tet.aNm / 0.4594 - 1)).toBeLessThan(5e-4);
+    expect(Math.abs(tet.cNm / 0.2959 - 1)).toBeLessThan(5e-4);
+    expect(r.notes.join(' ')).toMatch(/c doubled .* the half cell .* is taken/);
+  });
+});
+
 describe('an indexed cell takes every line at its worth', () => {
   /** A lamellar order's peak at c/l, placed `errDeg` off its 2θ, with the fit's 2θ uncertainty and d uncertainty to match. */
   const order = (c: number, l: number, errDeg: number, uDeg: number, fwhmDeg: number, intensity: number): IndexPeak => {
