@@ -106,6 +106,13 @@ export interface IndexResult {
 }
 
 const DEG = Math.PI / 180;
+/**
+ * Allowance for a line position's profile and background misfit beside the fit's own uncertainty,
+ * as a fraction of the line's FWHM (a judgement: a broad line on a halo's flank moves by a few
+ * hundredths of a degree). Used while searching; an indexed phase's cell is refined again with the
+ * allowance its own lines' scatter calls for (ownScatter), at most this.
+ */
+const PROFILE_ALLOWANCE = 0.03;
 /** Shortest cell edge considered, nm (common practice: no crystal has a lattice edge below 0.2 nm). */
 const MIN_EDGE_NM = 0.2;
 const LATTICE_WORDS: Record<LatticeKind, string> = {
@@ -134,7 +141,10 @@ interface Work {
   sq: number[];
   /** 2θ (null without a wavelength). */
   tt: Array<number | null>;
+  /** σ of 2θ: the fit's own, with an allowance of PROFILE_ALLOWANCE × FWHM for profile and background misfit. */
   stt: number[];
+  /** σ of 2θ from the fit alone. */
+  sttFit: number[];
   /** FWHM in degrees (0 when unknown). */
   fw: number[];
   strong: Set<number>;
@@ -253,7 +263,7 @@ function qOfZeroCorrected(w: Work, t: Trial, peak: number, qLine: number): numbe
 }
 
 /** Refines a, c and the zero shift by weighted least squares on 2θ (or Q for q data). */
-function refine(w: Work, t: Trial, hkls: Array<{ peak: number; hkl: [number, number, number] }>, fitZero: boolean, holdCell: boolean): { t: Trial; cov: number[][]; chi2: number; dof: number } | null {
+function refine(w: Work, t: Trial, hkls: Array<{ peak: number; hkl: [number, number, number] }>, fitZero: boolean, holdCell: boolean, allowance = PROFILE_ALLOWANCE): { t: Trial; cov: number[][]; chi2: number; dof: number } | null {
   const np0 = holdCell ? 0 : cellParameters(t.kind);
   const useZero = fitZero && w.lambda !== null;
   const np = np0 + (useZero ? 1 : 0);
@@ -261,7 +271,8 @@ function refine(w: Work, t: Trial, hkls: Array<{ peak: number; hkl: [number, num
   const twoTheta = w.lambda !== null && hkls.every((h) => w.tt[h.peak] !== null);
   const obs = hkls.map((h) => (twoTheta ? w.tt[h.peak]! : w.q[h.peak]));
   // a floor on each line's σ: profile-shape and asymmetry errors (common practice: 0.002° or 0.02 % in Q)
-  const sig = hkls.map((h) => (twoTheta ? Math.hypot(w.stt[h.peak], 0.002) : Math.hypot(w.sq[h.peak], 2e-4 * w.q[h.peak])));
+  const stt = (i: number) => (allowance === PROFILE_ALLOWANCE ? w.stt[i] : Math.max(Math.hypot(w.sttFit[i], allowance * w.fw[i]), 1e-6));
+  const sig = hkls.map((h) => (twoTheta ? Math.hypot(stt(h.peak), 0.002) : Math.hypot(w.sq[h.peak], 2e-4 * w.q[h.peak])));
   const unpack = (p: ArrayLike<number>): Trial => {
     let a = t.a;
     let c = t.c;
@@ -430,6 +441,45 @@ interface Solution {
   strongExplained: number;
   intensityShare: number;
   volume: number;
+}
+
+/**
+ * An indexed phase's cell refined again with the allowance for profile and background misfit that
+ * its own lines' scatter calls for: the smallest fraction f ≤ PROFILE_ALLOWANCE of each line's FWHM,
+ * added in quadrature to its fit uncertainty, for which χ² per degree of freedom comes down to 1
+ * (the between-line excess variance estimated from the data: Paule & Mandel, J. Res. Natl Bur.
+ * Stand. 87, 377, 1982). A fixed allowance of 3 % of the FWHM weighs a strong, well-fitted line like
+ * a weak one (four orders of a noisy lamellar series: the first, five times better placed than the
+ * fourth, counted alike), which costs the cell precision its lines have. Lines kept, zero shift
+ * kept or not as decided; with fewer than two degrees of freedom the scatter says nothing and the
+ * full allowance stays.
+ * @param w the work arrays
+ * @param s the phase's solution
+ * @returns the solution with its cell, covariance and χ² refined so (or as it was)
+ */
+function ownScatter(w: Work, s: Solution): Solution {
+  if (w.lambda === null || !s.cov) return s;
+  const clean = s.asg.flatMap((a) => (a && !a.overlap ? [{ peak: a.peak, hkl: s.lines[a.line].hkl }] : []));
+  if (clean.some((h) => w.tt[h.peak] === null)) return s;
+  const zeroKept = s.cov.length > cellParameters(s.t.kind);
+  const dof = clean.length - s.cov.length;
+  if (dof < 2) return s;
+  const at = (f: number) => refine(w, s.t, clean, zeroKept, false, f);
+  const perDof = (r: ReturnType<typeof refine>) => (r ? r.chi2 / r.dof : Infinity);
+  let r = at(0);
+  if (perDof(r) > 1) {
+    if (!(perDof(at(PROFILE_ALLOWANCE)) < 1)) return s;
+    let lo = 0;
+    let hi = PROFILE_ALLOWANCE;
+    for (let k = 0; k < 30; k++) {
+      const f = 0.5 * (lo + hi);
+      if (perDof(at(f)) > 1) lo = f;
+      else hi = f;
+    }
+    r = at(hi);
+  }
+  if (!r || Math.abs(r.t.zero) > 1) return s;
+  return { ...s, t: r.t, cov: r.cov, chi2: r.chi2, dof: r.dof };
 }
 
 /** Scores a trial cell: assigns, refines (twice, reassigning), and measures what it explains. */
@@ -602,7 +652,8 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
     // a line's position also carries its profile and background misfit, which grows with its
     // breadth: an allowance of 3 % of the FWHM beside the fit's own uncertainty (a broad line on a
     // halo's flank moves by a few hundredths of a degree)
-    stt: peaks.map((p) => Math.max(Math.hypot(p.twoThetaUncDeg ?? 0, 0.03 * (p.fwhmDeg ?? 0)), 1e-6)),
+    stt: peaks.map((p) => Math.max(Math.hypot(p.twoThetaUncDeg ?? 0, PROFILE_ALLOWANCE * (p.fwhmDeg ?? 0)), 1e-6)),
+    sttFit: peaks.map((p) => Math.max(p.twoThetaUncDeg ?? 0, 1e-6)),
     fw: peaks.map((p) => p.fwhmDeg ?? 0),
     strong,
     strongOrder: [...strong].sort((a, b) => peaks[b].dNm - peaks[a].dNm),
@@ -614,7 +665,8 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
     const more = peaks.map((_, i) => i).filter((i) => !strong.has(i)).sort((a, b) => peaks[b].intensity - peaks[a].intensity).slice(0, 6 - w.strongOrder.length);
     w.strongOrder = [...w.strongOrder, ...more].sort((a, b) => peaks[b].dNm - peaks[a].dNm);
   }
-  const phaseOf = (s: Solution, isStandard: boolean, name?: string): IndexedPhase => {
+  const phaseOf = (s0: Solution, isStandard: boolean, name?: string): IndexedPhase => {
+    const s = isStandard ? s0 : ownScatter(w, s0);
     const np0 = isStandard ? 0 : cellParameters(s.t.kind);
     const scale = Math.max(1, s.chi2 / s.dof);
     const relL = options.wavelengthRelU ?? 0;
@@ -630,45 +682,51 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
       aU = Math.hypot(aU, (Number.isFinite(s.t.a) ? s.t.a : 0) * relL);
       cU = Math.hypot(cU, s.t.c * relL);
     }
+    let t = s.t;
     if (!isStandard && !s.cov && cellParameters(s.t.kind) === 1 && s.hkls.length > 0) {
-      // too few lines to refine with a zero shift: the cell from each line (cell = d·√(h²+k²+l²)),
-      // weighted by the lines' own d uncertainties, the zero shift's allowance not included (noted)
+      // too few lines to refine with a zero shift: the cell is the weighted mean of each line's
+      // (cell = d·√(h²+k²+l²)), weighted by the lines' own d uncertainties (not the trial cell
+      // seeded on one line), the zero shift's allowance not included (noted)
       let sw = 0;
+      let swc = 0;
       for (const h of s.hkls) {
         const m = Math.sqrt(h.hkl[0] ** 2 + h.hkl[1] ** 2 + h.hkl[2] ** 2);
         const u = Math.max(peaks[h.peak].dUncNm, 1e-9) * m;
         sw += 1 / (u * u);
+        swc += (peaks[h.peak].dNm * m) / (u * u);
       }
-      const u = Math.hypot(1 / Math.sqrt(sw), s.t.c * relL);
+      const cell = swc / sw;
+      t = { ...s.t, a: s.t.kind === 'lamellar' ? s.t.a : cell, c: cell };
+      const u = Math.hypot(1 / Math.sqrt(sw), t.c * relL);
       cU = u;
-      if (s.t.kind !== 'lamellar') aU = u;
-      notes.push(`${LATTICE_WORDS[s.t.kind]} (${s.hkls.length} lines): too few lines to refine with a zero shift; its cell's uncertainty is that of its lines alone`);
+      if (t.kind !== 'lamellar') aU = u;
+      notes.push(`${LATTICE_WORDS[t.kind]} (${s.hkls.length} lines): too few lines to refine with a zero shift; its cell's uncertainty is that of its lines alone`);
     }
 
     const zFitted = opts.fitZeroShift && lambda !== null && s.cov !== null && s.cov.length > np0;
     const zU = zFitted ? Math.sqrt(Math.max(0, s.cov![np0][np0] * scale)) : null;
     const lines: IndexedLine[] = s.hkls.map((h) => {
-      const dCalc = 1 / Math.sqrt(qOf(s.t.kind, s.t.a, s.t.c, ...h.hkl));
+      const dCalc = 1 / Math.sqrt(qOf(t.kind, t.a, t.c, ...h.hkl));
       const tt = w.tt[h.peak];
-      const corrected = tt !== null && lambda !== null ? tt - s.t.zero : null;
+      const corrected = tt !== null && lambda !== null ? tt - t.zero : null;
       const dObs = corrected !== null ? lambda! / (2 * Math.sin((corrected * DEG) / 2)) : peaks[h.peak].dNm;
       return { peak: h.peak, hkl: h.hkl, dObsNm: dObs, dCalcNm: dCalc, deltaTwoThetaDeg: corrected !== null ? corrected - twoThetaOfQ(1 / (dCalc * dCalc), lambda!) : null };
     });
     lines.sort((x, y) => y.dCalcNm - x.dCalcNm);
     const explained = new Set(s.hkls.map((h) => h.peak));
     return {
-      kind: s.t.kind,
-      aNm: s.t.kind === 'lamellar' ? NaN : s.t.a,
-      cNm: s.t.c,
-      aUncNm: s.t.kind === 'lamellar' ? NaN : aU,
+      kind: t.kind,
+      aNm: t.kind === 'lamellar' ? NaN : t.a,
+      cNm: t.c,
+      aUncNm: t.kind === 'lamellar' ? NaN : aU,
       cUncNm: cU,
-      zeroShiftDeg: zFitted ? s.t.zero : null,
+      zeroShiftDeg: zFitted ? t.zero : null,
       zeroShiftUncDeg: zU,
       lines,
       unexplainedStrong: [...strong].filter((i) => !explained.has(i)),
       figureOfMerit: s.fom,
       standard: isStandard,
-      name: name ?? LATTICE_WORDS[s.t.kind],
+      name: name ?? LATTICE_WORDS[t.kind],
     };
   };
   const phases: IndexedPhase[] = [];
@@ -869,6 +927,20 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
         const own = new Set(scope.filter((i) => !claimed.has(i)));
         const again = own.size >= 2 ? evaluate(w, first.t, own, opts) : null;
         if (again && again.fom.fN >= first.fom.fN && again.hkls.length >= Math.min(first.hkls.length, 2)) first = again;
+        // the smallest cell (de Wolff, J. Appl. Cryst. 1, 108, 1968): a cell with c or a doubled
+        // indexes every line of the cell itself plus, by its half-integer indices, some lines of the
+        // other phase; once those are the other phase's, a half cell that explains as many of the
+        // lines left, the strong ones included, is the cell
+        const ownLines = first.hkls.filter((h) => own.has(h.peak)).length;
+        const halves = cellParameters(first.t.kind) === 2 ? [{ ...first.t, c: first.t.c / 2 }, { ...first.t, a: first.t.a / 2 }] : [];
+        for (const t of halves) {
+          const half = own.size >= 2 ? evaluate(w, t, own, opts) : null;
+          if (half && half.hkls.length >= ownLines && half.strongExplained >= first.hkls.filter((h) => own.has(h.peak) && strong.has(h.peak)).length && half.fom.fN >= minFom) {
+            notes.push(`the ${LATTICE_WORDS[first.t.kind]} cell with ${t.c < first.t.c ? 'c' : 'a'} doubled (a ${first.t.a.toPrecision(6)} nm, c ${first.t.c.toPrecision(6)} nm) explains lines of the other phase too; without them the half cell explains as many lines and is taken (the smallest cell)`);
+            first = half;
+            break;
+          }
+        }
       }
       phases.push(phaseOf(first, false));
       if (second) phases.push(phaseOf(second, false));
