@@ -21,15 +21,16 @@
  *    along the stack; the count is the most frequent one, and the share of positions that agree
  *    is its confidence. Mono- and bilayers are combs of one or two lines: found by their contrast.
  * 5. Rejected: a period below the smallest countable one (2.5 px) or outside the user's range, a
- *    two-dimensional lattice (the band is periodic along its axis as well), a band without
- *    resolved layers (film texture), a band that does not persist along its axis.
+ *    two-dimensional lattice (the band is periodic along its axis as well, or its comb's lines go
+ *    on, in phase, beyond both outer layers), a band without resolved layers (film texture), a
+ *    band that does not persist along its axis.
  */
 import type { GreyImage } from '../image/grey-image';
 import type { UncertaintyPx } from '../measure/measurement';
 import { periodCandidates, profilePeriodogram } from './profile';
 import { MIN_COUNTABLE_PERIOD_PX } from './limits';
 import { resamplePolyline, ridgeAxes, type RidgeAxis } from './ridges';
-import { acrossFringePower, bestPeriod, combNearPeriod, edgeToEdge, fringePowerAt, indexAt, layersResolved, periodicAlongAxis, refinePeriod, splitBand } from './count';
+import { acrossFringePower, bestPeriod, combContinues, combNearPeriod, edgeToEdge, fringePowerAt, indexAt, layersResolved, periodicAlongAxis, refinePeriod, splitBand } from './count';
 import { acrossProfile, axisFrame, robustAcrossProfile, fitLayerComb, profileBands, smoothProfile, type AcrossProfile, type AxisFrame, type CombFit, type ProfileBand } from './stack-profile';
 
 /** Review state of a sheet: automatic, accepted or rejected by the user, drawn by hand, or its count corrected by the user. */
@@ -790,6 +791,10 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
         const acrossPower = acrossFringePower(profile, fit);
         if (fit.layers >= 3 && periodicAlongAxis(image, frame, fit.centerPx, Math.max(1, 0.35 * fit.thicknessPx), periodPx, acrossPower)) {
           reject('periodic along its axis as well: a two-dimensional lattice, not a stack', fit, periodPx);
+          continue;
+        }
+        if (combContinues(image, frame, fit, polarity)) {
+          reject('its lines go on, in phase, beyond both outer layers: a lattice, not a stack', fit, periodPx);
           continue;
         }
         // ---- counts at positions along the axis ----

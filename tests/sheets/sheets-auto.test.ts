@@ -150,6 +150,24 @@ describe('detectSheets', () => {
     expect(res.rejected.some((r) => r.reason.startsWith('too faint at its own period'))).toBe(true);
     expect(res.rejected.some((r) => r.reason.includes('not a thin stack') || r.reason.startsWith('its own fundamental'))).toBe(true);
   });
+  it('refuses a comb whose lines go on, in phase, beyond both outer layers (crossed lattice)', () => {
+    // a crossed lattice (synthetic, testing/synthetic/overviews.ts: two fringe sets at 9.6 px, no
+    // stacks) gave a 4-layer sheet 53 px long: the lattice's lines go on either side of the comb
+    // with nearly its depth, while no stack of the synthetic overviews showed a fifth of it
+    const o = generateOverview('crossed-lattice', 16);
+    const res = detectSheets(o.image);
+    expect(res.sheets).toEqual([]);
+    expect(res.rejected.some((r) => r.reason.startsWith('its lines go on, in phase, beyond both outer layers'))).toBe(true);
+  });
+  it('finds a monolayer whose band is read as two periods wide (thin, film texture beside it)', () => {
+    // single lines at 4.44 px, σ about 1.2 px (synthetic truth, testing/synthetic/overviews.ts):
+    // their bands read two periods wide, and the line width fitted for two lines (2.2 px) was kept
+    // for one, so their evidence was 25–38 (60 asked for) instead of several hundred
+    const o = generateOverview('thin', 40);
+    const res = detectSheets(o.image);
+    for (const [cx, cy] of [[342, 113], [173, 411]]) foundStack(o, res, cx, cy, 1);
+    expect(scoreOverview(o.truth.stacks, res.sheets).spurious).toBeLessThanOrEqual(1);
+  });
   it('a short piece of a thick stack does not hide the stack: the stack is measured from another candidate', () => {
     // 11 layers at 7.51 px, 120 px long, 83 px thick (synthetic truth, testing/synthetic/overviews.ts):
     // its first candidate gave a piece 78 px long, shorter than the stack's thickness, so rejected;
