@@ -382,7 +382,7 @@ function polylineCoords(pts: [number, number][], x: number, y: number): { s: num
 /**
  * Joins pieces of one stack: the candidate axes break where another stack crosses, and a stack
  * may be met twice. Two pieces are one stack when their periods agree within 6 %, their counts
- * within one layer, and the nearer end of each lies on the other's axis or its straight
+ * within one layer (the same count when either has one or two: one line is not two), and the nearer end of each lies on the other's axis or its straight
  * extension (within a quarter of the thinner one's thickness plus half a period, and 12° in
  * direction), at most 90 px (a crossing stack may hide that much) or four thicknesses beyond it. Closest pairs first, repeated until
  * none is left.
@@ -448,7 +448,7 @@ function mergeGap(a: Piece, b: Piece): number | null {
   if (Math.abs(a.periodPx - b.periodPx) > 0.06 * Math.max(a.periodPx, b.periodPx)) return null;
   const na = modeCount(a.counted, a.fitLayers);
   const nb = modeCount(b.counted, b.fitLayers);
-  if (Math.abs(na - nb) > 1) return null;
+  if (Math.abs(na - nb) > 1 || (Math.min(na, nb) <= 2 && na !== nb)) return null;
   const ta = pieceThickness(a);
   const tb = pieceThickness(b);
   const tol = 0.25 * Math.min(ta, tb) + 0.5 * Math.max(a.periodPx, b.periodPx) + 1.5;

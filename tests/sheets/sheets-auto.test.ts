@@ -168,6 +168,15 @@ describe('detectSheets', () => {
     for (const [cx, cy] of [[342, 113], [173, 411]]) foundStack(o, res, cx, cy, 1);
     expect(scoreOverview(o.truth.stacks, res.sheets).spurious).toBeLessThanOrEqual(1);
   });
+  it('does not join a monolayer and a bilayer that meet end to end into one sheet (thin)', () => {
+    // a bilayer at 4.24 px whose end touches a monolayer running off at 36° (synthetic truth,
+    // testing/synthetic/overviews.ts): their pieces, one count apart, were joined into one sheet
+    // 231 px long counted 1 (positions 1, 1, 1, 2, 2, 2, 2, 3, 1, 1): one line is not two
+    const o = generateOverview('thin', 35);
+    const res = detectSheets(o.image);
+    foundStack(o, res, 420, 380, 2);
+    foundStack(o, res, 513, 405, 1);
+  });
   it('a short piece of a thick stack does not hide the stack: the stack is measured from another candidate', () => {
     // 11 layers at 7.51 px, 120 px long, 83 px thick (synthetic truth, testing/synthetic/overviews.ts):
     // its first candidate gave a piece 78 px long, shorter than the stack's thickness, so rejected;
