@@ -795,6 +795,9 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
         }
         if (combContinues(image, frame, fit, polarity)) {
           reject('its lines go on, in phase, beyond both outer layers: a lattice, not a stack', fit, periodPx);
+          // the lattice's band is not searched again from another candidate (it would give
+          // another comb of the same lattice, cut where the lattice ends on one side)
+          coverage.add(-rejected.length, frame, fit.centerPx, fit.thicknessPx / 2 + 0.5 * periodPx, angleAt, false);
           continue;
         }
         // ---- counts at positions along the axis ----
