@@ -21,15 +21,16 @@
  *    along the stack; the count is the most frequent one, and the share of positions that agree
  *    is its confidence. Mono- and bilayers are combs of one or two lines: found by their contrast.
  * 5. Rejected: a period below the smallest countable one (2.5 px) or outside the user's range, a
- *    two-dimensional lattice (the band is periodic along its axis as well), a band without
- *    resolved layers (film texture), a band that does not persist along its axis.
+ *    two-dimensional lattice (the band is periodic along its axis as well, or its comb's lines go
+ *    on, in phase, beyond both outer layers), a band without resolved layers (film texture), a
+ *    band that does not persist along its axis.
  */
 import type { GreyImage } from '../image/grey-image';
 import type { UncertaintyPx } from '../measure/measurement';
 import { periodCandidates, profilePeriodogram } from './profile';
 import { MIN_COUNTABLE_PERIOD_PX } from './limits';
 import { resamplePolyline, ridgeAxes, type RidgeAxis } from './ridges';
-import { acrossFringePower, bestPeriod, combNearPeriod, edgeToEdge, fringePowerAt, indexAt, layersResolved, periodicAlongAxis, refinePeriod, splitBand } from './count';
+import { acrossFringePower, bestPeriod, combContinues, combNearPeriod, edgeToEdge, fringePowerAt, indexAt, layersResolved, periodicAlongAxis, refinePeriod, splitBand } from './count';
 import { acrossProfile, axisFrame, robustAcrossProfile, fitLayerComb, profileBands, smoothProfile, type AcrossProfile, type AxisFrame, type CombFit, type ProfileBand } from './stack-profile';
 
 /** Review state of a sheet: automatic, accepted or rejected by the user, drawn by hand, or its count corrected by the user. */
@@ -381,7 +382,7 @@ function polylineCoords(pts: [number, number][], x: number, y: number): { s: num
 /**
  * Joins pieces of one stack: the candidate axes break where another stack crosses, and a stack
  * may be met twice. Two pieces are one stack when their periods agree within 6 %, their counts
- * within one layer, and the nearer end of each lies on the other's axis or its straight
+ * within one layer (the same count when either has one or two: one line is not two), and the nearer end of each lies on the other's axis or its straight
  * extension (within a quarter of the thinner one's thickness plus half a period, and 12° in
  * direction), at most 90 px (a crossing stack may hide that much) or four thicknesses beyond it. Closest pairs first, repeated until
  * none is left.
@@ -447,7 +448,7 @@ function mergeGap(a: Piece, b: Piece): number | null {
   if (Math.abs(a.periodPx - b.periodPx) > 0.06 * Math.max(a.periodPx, b.periodPx)) return null;
   const na = modeCount(a.counted, a.fitLayers);
   const nb = modeCount(b.counted, b.fitLayers);
-  if (Math.abs(na - nb) > 1) return null;
+  if (Math.abs(na - nb) > 1 || (Math.min(na, nb) <= 2 && na !== nb)) return null;
   const ta = pieceThickness(a);
   const tb = pieceThickness(b);
   const tol = 0.25 * Math.min(ta, tb) + 0.5 * Math.max(a.periodPx, b.periodPx) + 1.5;
@@ -790,6 +791,13 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
         const acrossPower = acrossFringePower(profile, fit);
         if (fit.layers >= 3 && periodicAlongAxis(image, frame, fit.centerPx, Math.max(1, 0.35 * fit.thicknessPx), periodPx, acrossPower)) {
           reject('periodic along its axis as well: a two-dimensional lattice, not a stack', fit, periodPx);
+          continue;
+        }
+        if (combContinues(image, frame, fit, polarity)) {
+          reject('its lines go on, in phase, beyond both outer layers: a lattice, not a stack', fit, periodPx);
+          // the lattice's band is not searched again from another candidate (it would give
+          // another comb of the same lattice, cut where the lattice ends on one side)
+          coverage.add(-rejected.length, frame, fit.centerPx, fit.thicknessPx / 2 + 0.5 * periodPx, angleAt, false);
           continue;
         }
         // ---- counts at positions along the axis ----

@@ -601,6 +601,16 @@ export function fitLayerComb(p: AcrossProfile, periodPx: number, band: { fromPx:
   let best: Best | null = null;
   for (const b of bestByCount.values()) if (!best || b.rss < best.rss) best = b;
   if (!best) return null;
+  // one or two lines in a band read as more: their line width chosen again (the width fitted
+  // for the band's count fills the band: a narrow single line in a band read two periods wide
+  // took it, and the misfit hid the line; a thin stack has only its lines' contrast)
+  if (best.layers < n0 && best.layers <= 2 && sigmas.length > 1) {
+    const again = search(best.layers, sigmas);
+    if (again && again.rss < best.rss) {
+      best = again;
+      bestByCount.set(best.layers, again);
+    }
+  }
   // residuals of the best fit: variance and lag-one correlation
   const coef = new Float64Array(4);
   combRss(D, best.layers, best.first, d, best.sigma, sign, coef);

@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { combNearPeriod } from '../../src/sheets/count';
 import { fitLayerComb, type AcrossProfile } from '../../src/sheets/stack-profile';
-import { syntheticProfile } from '../../testing/synthetic/stacks';
+import { gauss, rng, syntheticProfile } from '../../testing/synthetic/stacks';
 
 /** A profile across a stack of `layers` dark lines at `periodPx`, sampled every 0.5 px (synthetic truth, testing/synthetic/stacks.ts). */
 function stackProfile(layers: number, periodPx: number, noise: number): AcrossProfile {
@@ -32,5 +32,26 @@ describe('combNearPeriod', () => {
     const p = stackProfile(5, 4, 0.01);
     expect(() => combNearPeriod(p, { fromPx: -10, toPx: 10 }, NaN)).toThrow(/periodPx/);
     expect(() => combNearPeriod(p, { fromPx: -10, toPx: 10 }, 4, { stepsRel: [0.7] })).toThrow(/stepsRel/);
+  });
+});
+
+describe('fitLayerComb', () => {
+  it('fits one narrow line in a band read as two periods wide with its own line width (monolayer in film texture)', () => {
+    // one dark line, σ 1.2 px (0.27 of the 4.5 px period), depth 0.3 on a background of 1 with a
+    // film-texture bump beside it and noise 0.01 (synthetic truth; as a monolayer of seed 19's thin
+    // overview, bench:sheets B): its band, 7.6 px wide, is read as two layers, and the line width
+    // chosen for two lines (2.2 px) was kept for one, whose misfit left it evidence 25 of 1000 or more
+    const r = rng(5);
+    const bins = 97;
+    const values = new Float64Array(bins);
+    for (let i = 0; i < bins; i++) {
+      const u = -24 + 0.5 * i;
+      values[i] = 1 - 0.3 * Math.exp(-0.5 * (u / 1.2) ** 2) + 0.03 * Math.exp(-0.5 * ((u + 9) / 2.5) ** 2) - 0.02 * Math.exp(-0.5 * ((u - 7) / 2.5) ** 2) + 0.01 * gauss(r);
+    }
+    const p: AcrossProfile = { startPx: -24, binPx: 0.5, values, weights: new Float64Array(bins).fill(1), lengthPx: 130 };
+    const f = fitLayerComb(p, 4.5, { fromPx: -3.8, toPx: 3.8 }, { countReach: 3 })!;
+    expect(f.layers).toBe(1);
+    expect(Math.abs(f.lineSigmaPx - 1.2)).toBeLessThan(0.25);
+    expect(Math.abs(f.depth - 0.3) / 0.3).toBeLessThan(0.1);
   });
 });
