@@ -9,6 +9,16 @@ let s: Session;
 beforeAll(async () => { s = await openSession(); });
 afterAll(async () => { await s?.close(); });
 
+/** A fresh page at 1366 × 768 with the Diffraction tab open; page errors are collected. */
+async function diffractionTab() {
+  const errors: string[] = [];
+  s.page.on('pageerror', (e) => errors.push(String(e)));
+  await s.page.setViewportSize({ width: 1366, height: 768 });
+  await s.page.goto(s.url);
+  await s.page.locator('strata-app').getByRole('tab', { name: 'Diffraction', exact: true }).click();
+  return { xrd: s.page.locator('strata-diffraction-panel'), errors };
+}
+
 test('the demo pattern: the clay 00l lines indexed with their d budget, the 3.9 nm lamellar phase, no peak on the halo; spots indexed with a built-in phase', async () => {
   const errors: string[] = [];
   s.page.on('pageerror', (e) => errors.push(String(e)));
@@ -131,12 +141,7 @@ test('an internal standard: Si (SRM 640f) picked in the panel measures the zero 
   add(0.40782, null, 30, 400, [1, 0.5, 0.3, 0.35, 0.1, 0.05, 0.12, 0.1]);
   const pattern = syntheticPattern(peaks, { rangeDeg: [20, 120], stepDeg: 0.02, wavelengthNm: CU1, ka2Nm: null, zeroShiftDeg: 0.06, seed: 16 });
   const text = `# Cu Ka1 1.540593 A, primary monochromator\n${Array.from(pattern.x, (x, i) => `${x.toFixed(4)} ${pattern.y[i]}`).join('\n')}\n`;
-  const errors: string[] = [];
-  s.page.on('pageerror', (e) => errors.push(String(e)));
-  await s.page.setViewportSize({ width: 1366, height: 768 });
-  await s.page.goto(s.url);
-  await s.page.locator('strata-app').getByRole('tab', { name: 'Diffraction', exact: true }).click();
-  const xrd = s.page.locator('strata-diffraction-panel');
+  const { xrd, errors } = await diffractionTab();
   type Seen = { indexing: { zeroShiftDeg: number | null; zeroShiftUncDeg: number | null; phases: Array<{ standard: boolean; name: string }> } } | null;
   const analysis = () => xrd.evaluate((el) => (el as unknown as { analysis: Seen }).analysis);
   await xrd.locator('select.internal-standard').selectOption('si');
@@ -163,12 +168,7 @@ test('files of other layouts: four unnamed columns ask for the columns to read, 
   const { readFileSync } = await import('node:fs');
   const rows = readFileSync('tests/fixtures/reference-data/xrd-powder_propylammonium-chloride_CuKa12_COD1516218_2theta-counts.xy', 'utf8')
     .split('\n').filter((l) => l.trim() !== '' && !l.startsWith('#')).map((l) => l.trim().split(/\s+/));
-  const errors: string[] = [];
-  s.page.on('pageerror', (e) => errors.push(String(e)));
-  await s.page.setViewportSize({ width: 1366, height: 768 });
-  await s.page.goto(s.url);
-  await s.page.locator('strata-app').getByRole('tab', { name: 'Diffraction', exact: true }).click();
-  const xrd = s.page.locator('strata-diffraction-panel');
+  const { xrd, errors } = await diffractionTab();
   const peaks = () => xrd.evaluate((el) => (el as unknown as { analysis: { peaks: unknown[] } | null }).analysis?.peaks.length ?? 0);
   const four = `# Cu K-alpha1 1.540598 A, K-alpha2 1.544390 A\n${rows.map(([x, y]) => `${x} ${y} 1 0`).join('\n')}\n`;
   await xrd.locator('input[type="file"]').setInputFiles({ name: 'four-columns.dat', mimeType: 'text/plain', buffer: Buffer.from(four) });
