@@ -24,6 +24,7 @@ import { watchErrors, type ErrorLog } from './diagnostics-panel';
 import './library';
 import './viewer';
 import type { LineDrawnDetail, OverlayShape, RectDrawnDetail, StrataViewer, ViewPicture, ViewPictureKey } from './viewer';
+import { namesPowderProfile } from '../src/diffraction/profile-names';
 
 /** One demo file as listed in demo/index.json. */
 interface DemoEntry {
@@ -70,16 +71,11 @@ const TEXT_STRIKES: readonly { px: number; weight: 400 | 600; kind: 'box' | 'svg
 
 const ACCEPT = '.tif,.tiff,.png,.jpg,.jpeg,.mrc,.mrcs,image/tiff,image/png,image/jpeg,.cif,.xy,.xye,.dat,.asc';
 
-/**
- * A CIF that holds a measured powder profile (a profile loop's intensity names, as
- * src/diffraction/powder-cif.ts reads them, DDL1 or DDLm spelling) is a pattern, not a structure.
- */
-const POWDER_PROFILE_NAME = /_pd_(?:meas|proc)[._](?:counts|intensity)_(?:total|net)\b/i;
-
 /** Files that go to the diffraction panel rather than the viewer: structure files and powder patterns (by name, and a CIF by its content). */
 function diffractionFileKind(fileName: string, text?: string): 'structure' | 'pattern' | null {
   const ext = fileName.toLowerCase().split('.').pop() ?? '';
-  if (ext === 'cif') return text !== undefined && POWDER_PROFILE_NAME.test(text) ? 'pattern' : 'structure';
+  // a CIF that names a measured powder profile is a pattern, not a structure
+  if (ext === 'cif') return text !== undefined && namesPowderProfile(text) ? 'pattern' : 'structure';
   if (ext === 'xy' || ext === 'xye' || ext === 'dat' || ext === 'asc') return 'pattern';
   return null;
 }

@@ -146,6 +146,9 @@ interface ColumnChoice {
   sigma: number | null;
 }
 
+/** What a refusal of the columns asks for. */
+const ASK_COLUMNS = 'give the columns to read (position, intensity and optionally its uncertainty, counted from 1, e.g. 1,2 or 1,2,3)';
+
 /** Names of a measured intensity column (common practice of pattern exports). */
 const MEASURED_NAME = /obs|meas|count|intens|cps|signal|^i$|^y$|^int$/i;
 /** Names of columns that are not the measurement: a model, a background, a difference. */
@@ -189,7 +192,7 @@ function chooseColumns(count: number, names: string[] | null, given: ColumnChoic
   }
   if (names === null || count < 3) {
     if (count > 3) {
-      throw new SyntaxError(`line ${line}: ${count} columns and no names for them; give the columns to read (position, intensity and optionally its uncertainty, counted from 1, e.g. 1,2 or 1,2,3)`);
+      throw new SyntaxError(`line ${line}: ${count} columns and no names for them; ${ASK_COLUMNS}`);
     }
     return { choice: { x: 0, y: 1, sigma: count === 3 ? 2 : null }, note: null };
   }
@@ -203,7 +206,7 @@ function chooseColumns(count: number, names: string[] | null, given: ColumnChoic
     return { choice: { x: 0, y: 1, sigma: 2 }, note: null };
   }
   if (measured.length !== 1 || sigmas.length > 1) {
-    throw new SyntaxError(`line ${line}: ${count} columns named ${names.map((n) => `'${n}'`).join(', ')}: ${measured.length === 0 ? 'none is' : 'more than one is'} named as the measured intensity; give the columns to read (position, intensity and optionally its uncertainty, counted from 1, e.g. 1,2 or 1,2,3)`);
+    throw new SyntaxError(`line ${line}: ${count} columns named ${names.map((n) => `'${n}'`).join(', ')}: ${measured.length === 0 ? 'none is' : 'more than one is'} named as the measured intensity; ${ASK_COLUMNS}`);
   }
   const choice = { x: 0, y: measured[0], sigma: sigmas.length === 1 ? sigmas[0] : null };
   const unread = names.map((_, k) => k).filter((k) => k !== choice.x && k !== choice.y && k !== choice.sigma);
@@ -327,7 +330,6 @@ export function parsePattern(text: string, options: ParsePatternOptions = {}): P
           xs.push(...scan.x);
           ys.push(...scan.y);
           lineNo.push(...scan.lineNo);
-          columns = 2;
           notes.push(scan.note);
           break;
         }
@@ -402,7 +404,6 @@ export function assemblePattern(rows: PatternRows, options: ParsePatternOptions 
   const ss = rows.sigma ? [...rows.sigma] : [];
   const lineNo = [...rows.lineNo];
   const notes = rows.notes;
-  const columns = rows.sigma ? 3 : 2;
   if (xs.length !== ys.length || xs.length !== lineNo.length || (rows.sigma && rows.sigma.length !== xs.length)) {
     throw new RangeError(`assemblePattern: ${xs.length} positions, ${ys.length} intensities${rows.sigma ? `, ${rows.sigma.length} uncertainties` : ''} and ${lineNo.length} line numbers differ in length`);
   }
@@ -443,7 +444,7 @@ export function assemblePattern(rows: PatternRows, options: ParsePatternOptions 
     axis: axisUnit === 'twoThetaDeg' ? 'twoTheta' : 'q',
     x,
     y: Float64Array.from(ys),
-    sigma: columns === 3 ? Float64Array.from(ss) : null,
+    sigma: rows.sigma ? Float64Array.from(ss) : null,
     wavelengthNm,
     ka2Nm,
     wavelengthFrom,

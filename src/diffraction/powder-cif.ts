@@ -6,15 +6,8 @@
  */
 import { CifError, parseCifNumber, readCifBlocks, type CifBlock, type CifLoop, type CifValue } from './cif';
 import { assemblePattern, type ParsePatternOptions, type Pattern } from './pattern';
+import { PROFILE_INTENSITY_NAMES } from './profile-names';
 import { RadiationError, radiationStatements, type RadiationStatement } from './radiation';
-
-/** Intensity columns read, best first: measured counts, then measured, then processed intensities (never calculated ones). */
-export const PROFILE_INTENSITY_NAMES = [
-  '_pd_meas_counts_total',
-  '_pd_meas_intensity_total',
-  '_pd_proc_intensity_total',
-  '_pd_proc_intensity_net',
-] as const;
 
 /** 2θ columns of a profile loop, best first (degrees). */
 const TWO_THETA_NAMES = ['_pd_meas_2theta_scan', '_pd_proc_2theta_corrected', '_pd_meas_angle_2theta', '_pd_proc_2theta_scan'];
@@ -163,6 +156,7 @@ export function parsePowderCif(text: string, fileName: string, options: ParsePat
   }
   const block = withProfile[0];
   const notes: string[] = [`CIF data block '${block.name}' (line ${block.line})`];
+  if (options.columns !== undefined) notes.push(`the columns '${options.columns}' do not apply: a CIF names its columns`);
   if (withProfile.length > 1) notes.push(`${withProfile.length - 1} more data block(s) with a profile not read: ${withProfile.slice(1).map((b) => `'${b.name}'`).join(', ')}`);
   const intensityName = PROFILE_INTENSITY_NAMES.find((n) => block.loopOf.has(n))!;
   const loop = block.loops[block.loopOf.get(intensityName)!];

@@ -230,7 +230,7 @@ class Fields {
 /** Nanometres per length unit as an image description names it (ASCII spellings, µ escaped or as micro sign). */
 const DESCRIPTION_UNIT_NM: Record<string, number> = {
   pm: 1e-3, picometer: 1e-3, picometre: 1e-3,
-  'å': 0.1, a: 0.1, angstrom: 0.1, ångström: 0.1, 'a°': 0.1,
+  'å': 0.1, a: 0.1, angstrom: 0.1, ångström: 0.1,
   nm: 1, nanometer: 1, nanometre: 1,
   um: 1e3, 'µm': 1e3, 'μm': 1e3, micron: 1e3, microns: 1e3, micrometer: 1e3, micrometre: 1e3,
   mm: 1e6, millimeter: 1e6, millimetre: 1e6,

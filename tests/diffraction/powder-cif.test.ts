@@ -7,6 +7,7 @@ import { readFileSync } from 'node:fs';
 import { describe, expect, test } from 'vitest';
 import { parsePattern } from '../../src/diffraction/pattern';
 import { isCifText, parsePowderCif } from '../../src/diffraction/powder-cif';
+import { namesPowderProfile } from '../../src/diffraction/profile-names';
 import { PatternReadError, readPatternFile } from '../../src/diffraction/read-pattern';
 
 const FIXTURE = 'tests/fixtures/reference-data/xrd-powder_propylammonium-chloride_CuKa12_COD1516218_2theta-counts.xy';
@@ -116,6 +117,17 @@ describe('parsePowderCif', () => {
     const given = readPatternFile(text, 'm.cif', { wavelength: 'CuKa1' });
     expect(given.wavelengthFrom).toBe('option');
     expect(given.ka2Nm).toBeNull();
+  });
+
+  test('a profile is told from a structure file by its data names (what the app uses to route a dropped CIF)', () => {
+    expect(namesPowderProfile(propylammoniumCif())).toBe(true);
+    expect(namesPowderProfile('data_x\nloop_\n_pd_meas.intensity_total\n1\n')).toBe(true);
+    expect(namesPowderProfile(readFileSync('tests/fixtures/reference-data/crystal_graphite-2H_COD1200017.cif', 'utf8'))).toBe(false);
+    // a calculated profile alone is no measurement, and a name inside a longer one does not count
+    expect(namesPowderProfile('data_x\nloop_\n_pd_calc_intensity_total\n1\n')).toBe(false);
+    expect(namesPowderProfile('data_x\n_pd_meas_counts_total_note 1\n')).toBe(false);
+    // the columns option has nothing to choose in a CIF, and says so
+    expect(parsePowderCif(propylammoniumCif(), 'p.cif', { columns: '1,3' }).notes.join('\n')).toMatch(/the columns '1,3' do not apply/);
   });
 
   test('a file of columns is not taken for a CIF', () => {
