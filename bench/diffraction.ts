@@ -8,7 +8,9 @@
  * when a fitted peak lies within 0.3 FWHM + 0.02° of it; bands within 1°), spurious peaks (matching
  * no drawn line, required or not) and spurious peaks on a halo; every phase's cell after indexing
  * (relative error of a and c); crystallite sizes of isolated strong lines after the instrument
- * correction (Caglioti function fitted on a LaB6-like standard drawn on the same instrument).
+ * correction (Caglioti function fitted on a LaB6-like standard drawn on the same instrument), and
+ * each phase's own size (its resolved lines pooled; phases up to 100 nm found with their lattice
+ * within 1 %), with its ± (k = 2) and the number of lines.
  *   npm run bench:diffraction [-- --seed N] [--only NAME] [--patterns-only]   (another seed is a held-out set)
  */
 import { analysePattern, instrumentFromStandard } from '../src/diffraction/analyse';
@@ -45,6 +47,9 @@ interface Row {
   sizeErrs: number[];
   /** per size: its error lies within its stated ± (k = 2) */
   sizeCovered: boolean[];
+  /** per phase up to 100 nm that was indexed with its lattice: the error of its size from all its lines, and whether its ± (k = 2) covers it */
+  phaseSizeErrs: number[];
+  phaseSizeCovered: boolean[];
 }
 
 function run(sc: Scenario): Row {
@@ -90,6 +95,9 @@ function run(sc: Scenario): Row {
   let phasesOk = 0;
   let worstCell = 0;
   const phaseText: string[] = [];
+  const phaseSizeErrs: number[] = [];
+  const phaseSizeCovered: boolean[] = [];
+  const phaseSizeText: string[] = [];
   for (const ph of sc.phases) {
     const fam = ph.cell.kind.split('-')[0];
     const cands = a.indexing.phases.filter((q) => q.kind.split('-')[0] === fam || (fam === 'lamellar' && q.kind === 'lamellar'));
@@ -106,6 +114,13 @@ function run(sc: Scenario): Row {
     }
     worstCell = Math.max(worstCell, best);
     if (best <= 5e-4 && bestQ && bestQ.kind === ph.cell.kind) phasesOk++;
+    // the phase's own size (all its lines pooled), for a phase indexed with its lattice within 1 %
+    const ps = bestQ && best < 0.01 ? a.phaseSizes[a.indexing.phases.indexOf(bestQ)] : null;
+    if (ps && ph.sizeNm <= 100) {
+      phaseSizeErrs.push(ps.sizeNm / ph.sizeNm - 1);
+      phaseSizeCovered.push(Math.abs(ps.sizeNm - ph.sizeNm) <= 2 * ps.sizeUncNm);
+      phaseSizeText.push(`${(100 * (ps.sizeNm / ph.sizeNm - 1)).toFixed(1)} ± ${((200 * ps.sizeUncNm) / ph.sizeNm).toFixed(1)} (${ps.lines}${ps.model === 'mean' ? '' : ', W–H'})`);
+    }
     phaseText.push(bestQ ? `${bestQ.kind}${bestQ.kind === ph.cell.kind ? '' : ` (true ${ph.cell.kind})`} ${(100 * best).toFixed(3)} %` : `${ph.cell.kind}: not found`);
   }
   const z = a.indexing.zeroShiftDeg;
@@ -120,6 +135,7 @@ function run(sc: Scenario): Row {
       phaseText.join('; '),
       z === null ? '—' : `${z.toFixed(3)} (true ${sc.zeroShiftDeg})`,
       sizeErrs.length ? `${(100 * Math.max(...sizeErrs.map(Math.abs))).toFixed(1)} (${sizeErrs.length})` : '—',
+      phaseSizeText.length ? phaseSizeText.join('; ') : '—',
       String(ms),
     ],
     found,
@@ -133,6 +149,8 @@ function run(sc: Scenario): Row {
     lambdaOk,
     sizeErrs,
     sizeCovered,
+    phaseSizeErrs,
+    phaseSizeCovered,
   };
 }
 
@@ -142,7 +160,7 @@ for (const sc of SKIP_PATTERNS ? [] : diffractionScenarios(SEED)) {
   if (ONLY && !sc.name.includes(ONLY)) continue;
   rows.push(run(sc));
 }
-const head = ['pattern', 'λ read', 'found/required', 'spurious (+blends)', 'on halo', 'phases: lattice, worst cell error', 'zero shift °', 'size err % max (n)', 'ms'];
+const head = ['pattern', 'λ read', 'found/required', 'spurious (+blends)', 'on halo', 'phases: lattice, worst cell error', 'zero shift °', 'size err % max (n)', 'phase size err % ± 2u (lines)', 'ms'];
 const widths = head.map((h, i) => Math.max(h.length, ...rows.map((r) => r.cells[i].length)));
 const line = (r: string[]) => '| ' + r.map((c, i) => c.padEnd(widths[i])).join(' | ') + ' |';
 console.log(`Diffraction targets, seed ${SEED} (${rows.length} seeded synthetic patterns; instrument profile from a LaB6-like standard per radiation, ${std.peaks.length} lines; sizes of phases up to 100 nm)`);
@@ -157,6 +175,8 @@ console.log(`spurious (matching no drawn line): ${sum((r) => r.spurious)} in all
 console.log(`phases indexed with the right lattice and cell within 0.05 %: ${sum((r) => r.phasesOk)}/${sum((r) => r.phases)}; worst cell error ${(100 * Math.max(...rows.map((r) => (Number.isFinite(r.worstCell) ? r.worstCell : 1)))).toFixed(3)} %`);
 console.log(`wavelength read correctly: ${rows.filter((r) => r.lambdaOk).length}/${rows.length}`);
 console.log(`crystallite size after instrument correction: ${allSizes.length} isolated strong lines, |error| median ${(100 * median(allSizes.map(Math.abs))).toFixed(1)} %, max ${(100 * Math.max(...allSizes.map(Math.abs))).toFixed(1)} % (target ≤ 15 %); error within the stated ± (k = 2): ${rows.flatMap((r) => r.sizeCovered).filter(Boolean).length}/${allSizes.length}`);
+const allPhase = rows.flatMap((r) => r.phaseSizeErrs);
+console.log(`crystallite size of a phase (all its own lines pooled; phases up to 100 nm indexed with their lattice): ${allPhase.length} phases, |error| median ${(100 * median(allPhase.map(Math.abs))).toFixed(1)} %, max ${(100 * Math.max(...allPhase.map(Math.abs))).toFixed(1)} % (target ≤ 15 %); error within the stated ± (k = 2): ${rows.flatMap((r) => r.phaseSizeCovered).filter(Boolean).length}/${allPhase.length}`);
 console.log(`total ${((Date.now() - t0) / 1000).toFixed(1)} s`);
 
 // ---- spot indexing on synthetic lattice images: 5 structures × 3 zone axes × 2 seeds ----

@@ -13,6 +13,7 @@ import { parsePattern, parsePeakList, type ManualPeak, type Pattern, type PeakLi
 import { reconcile, type DiffractionLine, type MicrographPeriod, type Reconciliation } from '../src/diffraction/reconcile';
 import { indexSeries, type IndexedSeries } from '../src/diffraction/series';
 import { pm, sig } from '../src/diffraction/format';
+import { describePhaseSize } from '../src/diffraction/phase-size';
 import { budgetContents, DEFAULT_COVERAGE_FACTOR, expressPeriod, formatPlusMinus, type UncertaintyBudget } from '../src/measure/measurement';
 import { INTERNAL_STANDARDS } from '../src/diffraction/internal-standard';
 import { BUILT_IN_PHASES, type ZoneAxisResult, type ZoneSpot } from '../src/diffraction/zone-axis';
@@ -511,7 +512,7 @@ export class StrataDiffractionPanel extends LitElement {
     return {
       noun: 'peak', name: 'peaks', header, rows,
       notes: [`${this.fileName ?? 'pattern'}; wavelength ${a.radiationLabel}, from ${a.radiationSource}; u are standard uncertainties, the expanded uncertainty has k = ${k}`],
-      json: { file: this.fileName, radiation: { label: a.radiationLabel, source: a.radiationSource }, coverageFactorK: k, peaks: a.peaks, indexing: a.indexing, series: a.series, reconciliation: this.reconciliation() },
+      json: { file: this.fileName, radiation: { label: a.radiationLabel, source: a.radiationSource }, coverageFactorK: k, peaks: a.peaks, indexing: a.indexing, phaseSizes: a.phaseSizes, series: a.series, reconciliation: this.reconciliation() },
     };
   }
 
@@ -588,7 +589,7 @@ export class StrataDiffractionPanel extends LitElement {
             return html`<tr><td>${p.twoThetaDeg === null ? '—' : pm(p.twoThetaDeg, p.twoThetaUncDeg)}</td><td>${pm(p.dCorrectedNm, 2 * p.budget.combinedNm)}</td><td>${sig(p.fwhmDeg, 3)}</td><td>${sig(p.intensity, 3)}</td><td>${p.kind === 'band' ? '(hk) band' : p.crystalliteNm === null ? '—' : pm(p.crystalliteNm, 2 * (p.crystalliteUncNm ?? 0))}</td><td>${hkl}</td></tr>`;
           })}
         </table>
-        ${a.indexing.phases.map((ph, j) => html`<p>Phase ${j + 1}: ${ph.kind}, ${ph.kind === 'lamellar' ? `period ${pm(ph.cNm, 2 * ph.cUncNm)} nm` : ph.kind.startsWith('cubic') ? `a = ${pm(ph.aNm, 2 * ph.aUncNm)} nm` : `a = ${pm(ph.aNm, 2 * ph.aUncNm)} nm, c = ${pm(ph.cNm, 2 * ph.cUncNm)} nm`} (± 2u); ${ph.lines.length} lines; F${ph.figureOfMerit.n} = ${sig(ph.figureOfMerit.fN, 3)}${ph.standard ? ` — internal standard ${ph.name}, cell held` : ''}</p>`)}
+        ${a.indexing.phases.map((ph, j) => html`<p>Phase ${j + 1}: ${ph.kind}, ${ph.kind === 'lamellar' ? `period ${pm(ph.cNm, 2 * ph.cUncNm)} nm` : ph.kind.startsWith('cubic') ? `a = ${pm(ph.aNm, 2 * ph.aUncNm)} nm` : `a = ${pm(ph.aNm, 2 * ph.aUncNm)} nm, c = ${pm(ph.cNm, 2 * ph.cUncNm)} nm`} (± 2u); ${ph.lines.length} lines; F${ph.figureOfMerit.n} = ${sig(ph.figureOfMerit.fN, 3)}${ph.standard ? ` — internal standard ${ph.name}, cell held` : ''}${a.phaseSizes?.[j] ? html`<br><span class="phase-size">${describePhaseSize(a.phaseSizes[j]!, 2)}</span>` : nothing}</p>`)}
         ${a.indexing.zeroShiftDeg !== null ? html`<p class="zero-shift">${this.zeroShiftLine(a)}</p>` : nothing}
         ${a.series.map((s) => html`<p>${s.kind}: ${s.members.map((m) => spacedIndex(m.index)).join(', ')} — cell ${pm(s.cellNm, 2 * s.cellUncNm)} nm (± 2u)</p>`)}
         <p class="muted">${a.sizeMethod}. Size ± 2u: the fitted breadth (FWHM and η); the shape factor K, whose value depends on the crystallites' shape (Langford &amp; Wilson, J. Appl. Cryst. 1978), is taken as exact.</p>

@@ -11,6 +11,7 @@ import { PatternReadError, readPatternFile } from '../diffraction/read-pattern';
 import { pm, sig, tidy, tidyU } from '../diffraction/format';
 import { checkInstrumentProfile } from '../diffraction/instrument';
 import { internalStandardFrom } from '../diffraction/internal-standard';
+import { describePhaseSize, type PhaseSize } from '../diffraction/phase-size';
 import { writeFile } from 'node:fs/promises';
 import { spacedHkl, spacedIndex } from '../figure/reflection-index';
 
@@ -154,6 +155,23 @@ export async function loadAndAnalyse(path: string, options: Map<string, string>)
 const K = 2; // coverage factor of the printed ± (the record's default)
 
 /** The JSON shape of `xrd --json`: every number to the digits its uncertainty supports. */
+/** A phase's size for the JSON report: numbers to the digits their uncertainty supports (k = 1). */
+function sizeJson(ps: PhaseSize | null) {
+  if (!ps) return null;
+  return {
+    sizeNm: tidy(ps.sizeNm, ps.sizeUncNm),
+    sizeUncNm: tidyU(ps.sizeUncNm),
+    model: ps.model,
+    strain: ps.strain === null ? null : tidy(ps.strain, ps.strainUnc),
+    strainUnc: tidyU(ps.strainUnc),
+    lines: ps.lines,
+    leftOutTwoThetaDeg: ps.leftOutTwoThetaDeg,
+    reducedChi2: tidy(ps.reducedChi2, null, 3),
+    linesDisagree: ps.linesDisagree,
+    uncertaintyContains: ps.statement,
+  };
+}
+
 export function xrdReport(path: string, a: PatternAnalysis) {
   return {
     file: path,
@@ -209,7 +227,7 @@ export function xrdReport(path: string, a: PatternAnalysis) {
         mN: Math.min(20, ph.lines.length),
         lines: ph.lines.map((l) => ({ peak: l.peak, hkl: l.hkl, dObsNm: tidy(l.dObsNm, a.peaks[l.peak].budget.combinedNm), dCalcNm: tidy(l.dCalcNm, ph.cUncNm || ph.aUncNm), deltaTwoThetaDeg: tidy(l.deltaTwoThetaDeg, null, 2) })),
         unexplainedStrong: ph.unexplainedStrong,
-        williamsonHall: a.williamsonHall[i] ? { sizeNm: tidy(a.williamsonHall[i]!.sizeNm, a.williamsonHall[i]!.sizeUncNm), sizeUncNm: tidyU(a.williamsonHall[i]!.sizeUncNm), strain: tidy(a.williamsonHall[i]!.strain, a.williamsonHall[i]!.strainUnc), strainUnc: tidyU(a.williamsonHall[i]!.strainUnc), lines: a.williamsonHall[i]!.lines } : null,
+        crystalliteSize: sizeJson(a.phaseSizes[i]),
       })),
       unindexed: a.indexing.unindexed,
     },
@@ -249,8 +267,8 @@ function table(path: string, a: PatternAnalysis): string {
     const cell = ph.kind === 'lamellar' ? `period ${pm(ph.cNm, K * ph.cUncNm)} nm` : ph.kind.startsWith('cubic') ? `a = ${pm(ph.aNm, K * ph.aUncNm)} nm` : `a = ${pm(ph.aNm, K * ph.aUncNm)} nm, c = ${pm(ph.cNm, K * ph.cUncNm)} nm`;
     const fom = ph.figureOfMerit;
     lines.push(`Phase ${j + 1}${ph.standard ? ` (internal standard ${ph.name})` : ''}: ${LATTICE_LABEL[ph.kind]}, ${cell} (± ${K}u); ${ph.lines.length} lines; F${fom.n} = ${sig(fom.fN, 3)} (Smith–Snyder), M${Math.min(20, ph.lines.length)} = ${sig(fom.mN, 3)} (de Wolff)`);
-    const wh = a.williamsonHall[j];
-    if (wh) lines.push(`  Williamson–Hall over ${wh.lines} lines: size ${pm(wh.sizeNm, K * wh.sizeUncNm)} nm, microstrain ${pm(wh.strain, K * wh.strainUnc)}`);
+    const ps = a.phaseSizes[j];
+    if (ps) lines.push(`  ${describePhaseSize(ps, K)}`);
   });
   if (a.indexing.zeroShiftDeg !== null) {
     const st = a.indexing.phases.find((p) => p.standard);

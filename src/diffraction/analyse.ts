@@ -2,11 +2,14 @@
  * One call from a pattern to peaks, crystallite sizes and series: what the command line and the
  * diffraction panel show.
  */
-import { fitInstrumentProfile, instrumentWidth, sampleBreadth, williamsonHall, type InstrumentProfile, type WilliamsonHall } from './instrument';
+import { fitInstrumentProfile, instrumentWidth, sampleBreadth, type InstrumentProfile } from './instrument';
 import { indexPattern, type IndexOptions, type IndexResult } from './indexing';
+import { latticeLines } from './lattice';
+import { dToTwoTheta } from './bragg';
 import type { InternalStandard } from './internal-standard';
 import type { Pattern } from './pattern';
 import { fitPattern, type FitOptions, type FittedPeak } from './peaks';
+import { phaseCrystalliteSize, type PhaseSize } from './phase-size';
 import { scherrerSize, type BroadeningCorrection } from './scherrer';
 import { indexSeries, type IndexedSeries } from './series';
 
@@ -68,8 +71,8 @@ export interface PatternAnalysis {
   series: IndexedSeries[];
   /** The indexing of the peaks (lattices, cells, zero shift, figures of merit). */
   indexing: IndexResult;
-  /** Williamson–Hall size and strain per indexed phase (null where the lines do not allow it). */
-  williamsonHall: Array<WilliamsonHall | null>;
+  /** Crystallite size of each indexed phase from all its own lines (strain held at zero, or Williamson–Hall when a strain term is significant); null where fewer than two of its lines have a size, or for q data. */
+  phaseSizes: Array<PhaseSize | null>;
   /** Scherrer method statement. */
   sizeMethod: string;
   background: Float64Array;
@@ -99,7 +102,9 @@ export function analysePattern(pattern: Pattern, options: AnalyseOptions = {}): 
   if (profile && lambda !== null && Math.abs(profile.wavelengthNm / lambda - 1) > 0.01) throw new RangeError(`the instrument profile was measured at ${profile.wavelengthNm} nm, the pattern at ${lambda} nm: measure the standard with the same radiation`);
   let method = '';
   const warnings = new Set<string>();
-  const sizes = fit.peaks.map((p): { size: number | null; unc: number | null; sample: number | null } => {
+  // for each sized line also the breadth to average over a phase (a negative squared Gaussian sample width kept)
+  const pooled: Array<{ sampleFwhmDeg: number; sampleFwhmUncDeg: number } | null> = fit.peaks.map(() => null);
+  const sizes = fit.peaks.map((p, i): { size: number | null; unc: number | null; sample: number | null } => {
     if (p.kind === 'band') return { size: null, unc: null, sample: null };
     if (!p.given && p.fwhmUncInvNm === 0) {
       warnings.add('weak lines were fitted with their width held at the pattern\'s width trend: no size from them');
@@ -121,6 +126,8 @@ export function analysePattern(pattern: Pattern, options: AnalyseOptions = {}): 
         }
         const r = scherrerSize(sb.fwhmDeg, p.twoThetaDeg, lambda!, { k });
         const unc = r.sizeNm! * sampleBreadthUnc(p, profile, sb.fwhmDeg) / sb.fwhmDeg;
+        const signed = sampleBreadth(p.fwhmDeg, p.eta, p.twoThetaDeg, profile, true).fwhmDeg;
+        if (signed > 0) pooled[i] = { sampleFwhmDeg: signed, sampleFwhmUncDeg: sampleBreadthUnc(p, profile, signed, true) };
         if (r.sizeNm! > 100) warnings.add('some sizes exceed ~100 nm, where the Scherrer estimate loses meaning');
         return { size: r.sizeNm, unc, sample: sb.fwhmDeg };
       }
@@ -128,6 +135,7 @@ export function analysePattern(pattern: Pattern, options: AnalyseOptions = {}): 
       method = r.method.replace(/instrument [0-9.]+° removed/, typeof inst === 'function' ? 'instrument breadth from the standard removed' : `instrument ${inst}° removed`);
       for (const w of r.warnings) if (/above ~100 nm/.test(w)) warnings.add('some sizes exceed ~100 nm, where the Scherrer estimate loses meaning');
       else warnings.add('some peaks are not broader than the instrument: no size');
+      if (r.sizeNm !== null && r.sizeUncNm !== null && r.sampleFwhmDeg > 0) pooled[i] = { sampleFwhmDeg: r.sampleFwhmDeg, sampleFwhmUncDeg: (r.sampleFwhmDeg * r.sizeUncNm) / r.sizeNm };
       return { size: r.sizeNm, unc: r.sizeUncNm, sample: r.sampleFwhmDeg };
     }
     const size = (2 * Math.PI * k) / p.fwhmInvNm;
@@ -170,15 +178,24 @@ export function analysePattern(pattern: Pattern, options: AnalyseOptions = {}): 
     const combinedNm = Math.hypot(stat, methodNm, calibrationNm);
     return { ...base, dCorrectedNm: d, budget: { statisticalNm: stat, methodNm, calibrationNm, combinedNm, zeroShiftDeg: z, statement: `fit; profile shape 0.002°; ${zWords}; wavelength relative ${relL.toPrecision(2)}` } };
   });
-  // Williamson–Hall per phase, from the sample breadths of its well-determined lines
-  const wh = indexing.phases.map((ph) => {
+  // the size of each phase from its own lines that overlap nothing: a line with another reflection of
+  // an indexed phase, or another fitted line, within its FWHM has a breadth that is not one reflection's
+  // (two lines fitted as one, or two fits trading width)
+  const overlapped = overlappedLines(peaks, indexing, lambda, z ?? 0);
+  const phaseSizes = indexing.phases.map((ph, j) => {
     if (lambda === null || pattern.axis !== 'twoTheta') return null;
-    const pts = ph.lines.flatMap((l) => {
-      const q = peaks[l.peak];
-      if (q.sampleFwhmDeg === null || q.crystalliteNm === null || q.twoThetaDeg === null) return [];
-      return [{ twoThetaDeg: q.twoThetaDeg, sampleFwhmDeg: q.sampleFwhmDeg, sampleFwhmUncDeg: Math.max(q.fwhmUncDeg ?? 0, 1e-4) }];
+    const shared = new Set(indexing.phases.flatMap((o, i) => (i === j ? [] : o.lines.map((l) => l.peak))));
+    const own = [...new Set(ph.lines.map((l) => l.peak))].filter((i) => !shared.has(i) && !overlapped.has(i));
+    const pts = own.flatMap((i) => {
+      const q = peaks[i];
+      const b = pooled[i];
+      if (q.kind !== 'peak' || q.crystalliteNm === null || q.twoThetaDeg === null || b === null) return [];
+      return [{ twoThetaDeg: q.twoThetaDeg, ...b }];
     });
-    return williamsonHall(pts, lambda, k);
+    const r = phaseCrystalliteSize(pts, lambda, { k });
+    if (r?.leftOutTwoThetaDeg != null) warnings.add(`phase ${j + 1}: the line at ${r.leftOutTwoThetaDeg.toFixed(3)}° is far broader or narrower than the phase's other lines (a blend or another phase?) and is left out of the phase's size`);
+    if (r?.linesDisagree) warnings.add(`phase ${j + 1}: its lines' sizes disagree beyond their ± (χ²/ν = ${r.reducedChi2.toFixed(1)}): anisotropic crystallites or strain; the phase's ± is widened by √(χ²/ν), and the per-line sizes tell more`);
+    return r;
   });
   // series: for q data as before; for 2θ data only those carrying a strong line and not contradicted by an indexed crystal
   const top = Math.max(0, ...peaks.map((p) => p.area));
@@ -207,7 +224,7 @@ export function analysePattern(pattern: Pattern, options: AnalyseOptions = {}): 
     peaks,
     series,
     indexing,
-    williamsonHall: wh,
+    phaseSizes,
     sizeMethod: method,
     background: fit.background,
     model: fit.model,
@@ -240,16 +257,55 @@ export function instrumentFromStandard(standard: Pattern, source = 'standard', o
  * instrument's Lorentzian is taken from linearly, and the two trade off in the fit.
  * Reference: JCGM 100:2008 (GUM), law of propagation of uncertainty.
  */
-function sampleBreadthUnc(p: { fwhmDeg: number | null; fwhmUncDeg: number | null; eta: number; etaUnc: number; fwhmEtaCorrelation: number; twoThetaDeg: number | null }, profile: InstrumentProfile, sample: number): number {
+/**
+ * The fitted lines whose FWHM holds another reflection of an indexed phase (beside the one the line
+ * is indexed as) or another fitted line: their breadth is not one reflection's.
+ * Reference: common practice in line-profile analysis (only resolved, single reflections carry a size;
+ * Langford & Louër, Rep. Prog. Phys. 59, 131 (1996)).
+ */
+function overlappedLines(peaks: Array<{ kind: string; twoThetaDeg: number | null; fwhmDeg: number | null }>, indexing: IndexResult, lambda: number | null, zeroShiftDeg: number): Set<number> {
+  const out = new Set<number>();
+  const tts = peaks.map((p) => p.twoThetaDeg).filter((t): t is number => t !== null);
+  if (lambda === null || tts.length === 0) return out;
+  const ttMax = Math.min(179, Math.max(...tts) + 5);
+  const dMin = lambda / (2 * Math.sin((ttMax * Math.PI) / 360));
+  // every reflection of every indexed phase, by 2θ, with the peak it is indexed as (or -1)
+  const calc: Array<{ tt: number; peak: number }> = [];
+  for (const ph of indexing.phases) {
+    let lines: ReturnType<typeof latticeLines> = [];
+    try {
+      lines = latticeLines({ kind: ph.kind, aNm: ph.aNm, cNm: ph.cNm }, dMin);
+    } catch {
+      continue;
+    }
+    for (const l of lines) {
+      if (l.dNm < lambda / 2) continue;
+      const mine = ph.lines.find((x) => Math.abs(x.dCalcNm / l.dNm - 1) < 1e-9);
+      calc.push({ tt: dToTwoTheta(l.dNm, lambda) + zeroShiftDeg, peak: mine ? mine.peak : -1 });
+    }
+  }
+  peaks.forEach((p, i) => {
+    if (p.twoThetaDeg === null || p.fwhmDeg === null) return;
+    const w = p.fwhmDeg;
+    const near = (t: number) => Math.abs(t - p.twoThetaDeg!) < w;
+    const ownCalc = calc.filter((c) => c.peak === i).length;
+    const calcNear = calc.filter((c) => near(c.tt) && c.peak !== i).length;
+    const peakNear = peaks.some((o, j) => j !== i && o.twoThetaDeg !== null && near(o.twoThetaDeg));
+    if (calcNear > 0 || ownCalc > 1 || peakNear) out.add(i);
+  });
+  return out;
+}
+
+function sampleBreadthUnc(p: { fwhmDeg: number | null; fwhmUncDeg: number | null; eta: number; etaUnc: number; fwhmEtaCorrelation: number; twoThetaDeg: number | null }, profile: InstrumentProfile, sample: number, signed = false): number {
   const w = p.fwhmDeg!;
   const tt = p.twoThetaDeg!;
   const sw = p.fwhmUncDeg ?? 0;
   const se = p.etaUnc;
   const hw = 1e-4 * w;
-  const dW = (sampleBreadth(w + hw, p.eta, tt, profile).fwhmDeg - sampleBreadth(w - hw, p.eta, tt, profile).fwhmDeg) / (2 * hw);
+  const dW = (sampleBreadth(w + hw, p.eta, tt, profile, signed).fwhmDeg - sampleBreadth(w - hw, p.eta, tt, profile, signed).fwhmDeg) / (2 * hw);
   const e0 = Math.max(0, Math.min(1, p.eta - 1e-3));
   const e1 = Math.max(0, Math.min(1, p.eta + 1e-3));
-  const dE = e1 > e0 ? (sampleBreadth(w, e1, tt, profile).fwhmDeg - sampleBreadth(w, e0, tt, profile).fwhmDeg) / (e1 - e0) : 0;
+  const dE = e1 > e0 ? (sampleBreadth(w, e1, tt, profile, signed).fwhmDeg - sampleBreadth(w, e0, tt, profile, signed).fwhmDeg) / (e1 - e0) : 0;
   const v = dW * dW * sw * sw + dE * dE * se * se + 2 * dW * dE * p.fwhmEtaCorrelation * sw * se;
   return Number.isFinite(v) && v > 0 ? Math.sqrt(v) : sw * (w / Math.max(sample, 1e-12));
 }

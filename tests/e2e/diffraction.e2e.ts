@@ -38,6 +38,12 @@ test('the demo pattern: the clay 00l lines indexed with their d budget, the 3.9 
   expect(a.indexing.phases.some((p) => p.kind === 'lamellar' && Math.abs(p.cNm - 1.25) < 0.01)).toBe(true);
   await expect.poll(() => xrd.locator('td', { hasText: '0 0 1' }).count()).toBeGreaterThan(0);
   await expect.poll(() => xrd.locator('p', { hasText: 'from header line' }).count()).toBeGreaterThan(0);
+  // the clay phase's crystallite size from all its 00l lines, with what its ± contains (demo truth: 10 nm, Scherrer FWHM drawn)
+  const sizeText = (await xrd.locator('.phase-size').allTextContents()).find((t) => /crystallite size/.test(t)) ?? '';
+  const m = /crystallite size ([0-9.]+) ± ([0-9.]+) nm \(± 2u\) from (\d+) lines/.exec(sizeText);
+  expect(m, sizeText).not.toBeNull();
+  expect(Number(m![3])).toBeGreaterThanOrEqual(3);
+  expect(Math.abs(Number(m![1]) / 10 - 1)).toBeLessThan(0.15);
   // the one export menu: the peaks as CSV (units and k in the header, d as the panel fitted it) and the pattern's figure
   const csv = await downloadedText(s.page, () => xrd.locator('strata-export-menu button.export-csv').click());
   const { header, rows } = csvRows(csv.text);
