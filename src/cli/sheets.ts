@@ -15,7 +15,7 @@ import { sheetsAlongLine } from '../sheets/line';
 import { budgetJson, formatPlusMinus, nmPerPxAlong } from '../measure/measurement';
 import type { Summary } from '../measure/stats';
 import { expressSheet, sheetFromAuto, sheetFromLine, sheetStatistics, THICKNESS_CONVENTION, type SheetReport } from '../sheets/record';
-import { basalLine, compareWithScherrer, type ScherrerComparison } from '../sheets/xrd-compare';
+import { basalLine, compareWithScherrer, sizedLines, type ScherrerComparison } from '../sheets/xrd-compare';
 import { INDICATED_MAGNIFICATION_REL, makeCalibration } from '../calibration/calibration';
 
 const usage = `Usage: stratameter sheets IMAGE [--nm-per-px X | --scale-bar auto] [--line x0,y0,x1,y1[,width]]
@@ -173,11 +173,11 @@ async function xrdComparison(path: string, wavelength: string | undefined, sheet
   const expressed = kept.map((s) => ({ s, e: expressSheet(s, calibration) }));
   const periodNm = expressed.reduce((a, q) => a + q.e.period.value, 0) / expressed.length;
   const analysis = analysePattern(pattern);
-  const line = basalLine(analysis.peaks.map((p) => ({ dNm: p.dNm, crystalliteNm: p.crystalliteNm, crystalliteUncNm: p.crystalliteUncNm, label: p.twoThetaDeg !== null ? `${p.twoThetaDeg.toFixed(3)}° 2θ` : `q ${p.qInvNm.toFixed(3)} nm⁻¹` })), periodNm);
+  const line = basalLine(sizedLines(analysis), periodNm);
   if (!line) return { comparison: null, note: `no reflection with a Scherrer size near the stacks' period (${periodNm.toFixed(3)} nm) in ${path}` };
   const comparison = compareWithScherrer(
     expressed.map(({ s, e }) => ({ thicknessNm: e.thickness.value, layers: s.layers, lengthWeight: e.length?.value ?? 1 })),
-    { sizeNm: line.crystalliteNm!, uSizeNm: line.crystalliteUncNm ?? null, dNm: line.dNm, source: `${path}, peak at ${line.label} (d = ${line.dNm.toFixed(4)} nm); ${analysis.sizeMethod}` },
+    { sizeNm: line.crystalliteNm!, uSizeNm: line.crystalliteUncNm ?? null, dNm: line.dNm, source: `${path}, ${line.label} (d = ${line.dNm.toFixed(4)} nm); ${analysis.sizeMethod}` },
   );
   return { comparison, note: null };
 }

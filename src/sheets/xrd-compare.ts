@@ -2,6 +2,7 @@
  * Stack thickness from the micrographs beside the stack size from the basal X-ray reflection
  * (Scherrer): two measures of the same stacks along their normal.
  */
+import type { PatternAnalysis } from '../diffraction/analyse';
 
 /** The basal reflection's stack size, as the diffraction code gives it. */
 export interface XrdStackSize {
@@ -22,11 +23,30 @@ export interface XrdLine {
   crystalliteNm?: number | null;
   crystalliteUncNm?: number | null;
   label?: string;
+  /** A phase's size from several of its basal orders (preferred over a single line's). */
+  pooled?: boolean;
+}
+
+/**
+ * The sizes a comparison with micrographs can use: each fitted line's own Scherrer size, and each
+ * indexed lamellar phase's size from all its resolved 00l lines (marked `pooled`, d its period).
+ * @param a an analysis
+ * @returns d, size and its standard uncertainty, and a label naming the line or the phase
+ */
+export function sizedLines(a: PatternAnalysis): XrdLine[] {
+  const own = a.peaks.map((p) => ({ dNm: p.dNm, crystalliteNm: p.crystalliteNm, crystalliteUncNm: p.crystalliteUncNm, label: p.twoThetaDeg !== null ? `peak at ${p.twoThetaDeg.toFixed(3)}° 2θ` : `peak at q ${p.qInvNm.toFixed(3)} nm⁻¹`, pooled: false }));
+  const phases = a.indexing.phases.flatMap((ph, j) => {
+    const ps = a.phaseSizes?.[j];
+    if (ph.kind !== 'lamellar' || !ps) return [];
+    return [{ dNm: ph.cNm, crystalliteNm: ps.sizeNm, crystalliteUncNm: ps.sizeUncNm, label: `lamellar phase ${j + 1}, ${ps.lines} resolved 00l lines (${ps.model === 'mean' ? 'strain held at zero' : 'Williamson–Hall'})`, pooled: true }];
+  });
+  return [...phases, ...own];
 }
 
 /**
  * The basal reflection among a pattern's lines: the line with a size whose d is within
- * `tolerance` of the sheets' layer period (the first order of the stacking); the closest one.
+ * `tolerance` of the sheets' layer period (the first order of the stacking); a lamellar phase's
+ * size pooled over its orders first, else the closest line.
  * @param lines the pattern's lines (d in nm, Scherrer size when resolvable)
  * @param periodNm the layer period from the micrographs, nm
  * @param tolerance relative tolerance (default 0.06)
@@ -39,7 +59,8 @@ export function basalLine<T extends XrdLine>(lines: T[], periodNm: number, toler
     if (!(l.crystalliteNm && l.crystalliteNm > 0)) continue;
     const rel = Math.abs(l.dNm - periodNm) / periodNm;
     if (rel > tolerance) continue;
-    if (!best || Math.abs(l.dNm - periodNm) < Math.abs(best.dNm - periodNm)) best = l;
+    const better = !best || (!!l.pooled && !best.pooled) || (!!l.pooled === !!best.pooled && Math.abs(l.dNm - periodNm) < Math.abs(best.dNm - periodNm));
+    if (better) best = l;
   }
   return best;
 }
