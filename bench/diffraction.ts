@@ -176,7 +176,7 @@ console.log(`phases indexed with the right lattice and cell within 0.05 %: ${sum
 console.log(`wavelength read correctly: ${rows.filter((r) => r.lambdaOk).length}/${rows.length}`);
 console.log(`crystallite size after instrument correction: ${allSizes.length} isolated strong lines, |error| median ${(100 * median(allSizes.map(Math.abs))).toFixed(1)} %, max ${(100 * Math.max(...allSizes.map(Math.abs))).toFixed(1)} % (target ≤ 15 %); error within the stated ± (k = 2): ${rows.flatMap((r) => r.sizeCovered).filter(Boolean).length}/${allSizes.length}`);
 const allPhase = rows.flatMap((r) => r.phaseSizeErrs);
-console.log(`crystallite size of a phase (all its own lines pooled; phases up to 100 nm indexed with their lattice): ${allPhase.length} phases, |error| median ${(100 * median(allPhase.map(Math.abs))).toFixed(1)} %, max ${(100 * Math.max(...allPhase.map(Math.abs))).toFixed(1)} % (target ≤ 15 %); error within the stated ± (k = 2): ${rows.flatMap((r) => r.phaseSizeCovered).filter(Boolean).length}/${allPhase.length}`);
+if (allPhase.length) console.log(`crystallite size of a phase (all its own lines pooled; phases up to 100 nm indexed with their lattice): ${allPhase.length} phases, |error| median ${(100 * median(allPhase.map(Math.abs))).toFixed(1)} %, max ${(100 * Math.max(...allPhase.map(Math.abs))).toFixed(1)} % (target ≤ 15 %); error within the stated ± (k = 2): ${rows.flatMap((r) => r.phaseSizeCovered).filter(Boolean).length}/${allPhase.length}`);
 console.log(`total ${((Date.now() - t0) / 1000).toFixed(1)} s`);
 
 // ---- spot indexing on synthetic lattice images: 5 structures × 3 zone axes × 2 seeds ----

@@ -229,8 +229,12 @@ export function indexSpots(spots: ZoneSpot[], phase: ZonePhase, options: ZoneAxi
   const sd = (s: ZoneSpot) => Math.hypot(s.dUncNm, 0.25 * relTol * s.dNm);
   const matchesD = (s: ZoneSpot, d: number) => Math.abs(d - s.dNm) <= 3 * s.dUncNm + relTol * s.dNm;
   const cands = spots.map((s) => refl.filter((r) => matchesD(s, r.dNm)));
-  // the reference spot: the one with the fewest candidates among those with any; the second: the next whose direction differs by > 5° (mod 180)
-  const order = spots.map((_, i) => i).filter((i) => cands[i].length > 0).sort((a, b) => cands[a].length - cands[b].length);
+  // reference spots: those whose direction is known within the angle tolerance first, then by fewest
+  // candidates; the second of a pair is one whose direction differs by > 5° (mod 180). Several pairs
+  // are tried (a spurious or smeared spot taken as the reference must not hide the zone: sampling
+  // reference sets, Fischler & Bolles, Commun. ACM 24, 381 (1981))
+  const vague = (i: number) => ((spots[i].angleUncDeg ?? angU) > angTol ? 1 : 0);
+  const order = spots.map((_, i) => i).filter((i) => cands[i].length > 0).sort((a, b) => vague(a) - vague(b) || cands[a].length - cands[b].length);
   spots.forEach((s, i) => {
     if (cands[i].length === 0) notes.push(`spot ${i + 1} (d ${s.dNm.toPrecision(4)} nm) matches no reflection of ${phase.name} within ${(100 * relTol).toFixed(0)} % + 3σ`);
   });
@@ -239,61 +243,64 @@ export function indexSpots(spots: ZoneSpot[], phase: ZonePhase, options: ZoneAxi
     const d = (((a - b) % 360) + 540) % 360 - 180;
     return d;
   };
-  const i0 = order[0];
-  const i1 = order.find((j) => j !== i0 && Math.min(mod180(spots[j].angleDeg - spots[i0].angleDeg), 180 - mod180(spots[j].angleDeg - spots[i0].angleDeg)) > 5);
-  if (i0 === undefined || i1 === undefined) {
+  const apart = (i: number, j: number) => Math.min(mod180(spots[j].angleDeg - spots[i].angleDeg), 180 - mod180(spots[j].angleDeg - spots[i].angleDeg)) > 5;
+  const pairs: Array<[number, number]> = [];
+  for (const i of order.slice(0, 3)) for (const j of order.filter((j) => j !== i && apart(i, j)).slice(0, 3)) pairs.push([i, j]);
+  if (pairs.length === 0) {
     return { phase: phase.name, candidates: [], ambiguous: false, notes: [...notes, 'fewer than two spots in different directions match the structure: no zone axis'] };
   }
   const results = new Map<string, ZoneCandidate>();
   const signedAngle = (g1: number[], g2: number[], n: number[]) => Math.atan2(dot(cross(g1, g2), n), dot(g1, g2)) / RAD;
-  for (const r0 of cands[i0]) {
-    for (const r1 of cands[i1]) {
-      const uvw = zoneOf(r0.hkl, r1.hkl);
-      if (!uvw) continue;
-      const nCart = [0, 1, 2].map((j) => uvw[0] * dir[0][j] + uvw[1] * dir[1][j] + uvw[2] * dir[2][j]);
-      const nl = Math.sqrt(dot(nCart, nCart));
-      const n = nCart.map((v) => v / nl);
-      for (const mirror of [false, true]) {
-        const sgn = mirror ? -1 : 1;
-        const measured = (i: number) => sgn * angDiff(spots[i].angleDeg, spots[i0].angleDeg);
-        // the second spot must agree in angle (its Friedel mate is also a candidate)
-        if (Math.abs(angDiff(measured(i1), signedAngle(r0.g, r1.g, n))) > angTol) continue;
-        const assignments: SpotAssignment[] = [];
-        const unassigned: number[] = [];
-        let chi2 = 0;
-        spots.forEach((s, i) => {
-          let best: SpotAssignment | null = null;
-          let bestC = Infinity;
-          const pool = i === i0 ? [r0] : cands[i];
-          for (const r of pool) {
-            if (r.hkl[0] * uvw[0] + r.hkl[1] * uvw[1] + r.hkl[2] * uvw[2] !== 0) continue;
-            const da = i === i0 ? 0 : angDiff(measured(i), signedAngle(r0.g, r.g, n));
-            if (Math.abs(da) > angTol) continue;
-            const c = ((s.dNm - r.dNm) / sd(s)) ** 2 + (i === i0 ? 0 : (da / (s.angleUncDeg ?? angU)) ** 2);
-            if (c < bestC) {
-              bestC = c;
-              best = { spot: i, hkl: r.hkl, dCalcNm: r.dNm, dResidualNm: s.dNm - r.dNm, angleResidualDeg: da };
+  for (const [i0, i1] of pairs) {
+    for (const r0 of cands[i0]) {
+      for (const r1 of cands[i1]) {
+        const uvw = zoneOf(r0.hkl, r1.hkl);
+        if (!uvw) continue;
+        const nCart = [0, 1, 2].map((j) => uvw[0] * dir[0][j] + uvw[1] * dir[1][j] + uvw[2] * dir[2][j]);
+        const nl = Math.sqrt(dot(nCart, nCart));
+        const n = nCart.map((v) => v / nl);
+        for (const mirror of [false, true]) {
+          const sgn = mirror ? -1 : 1;
+          const measured = (i: number) => sgn * angDiff(spots[i].angleDeg, spots[i0].angleDeg);
+          // the second spot must agree in angle (its Friedel mate is also a candidate)
+          if (Math.abs(angDiff(measured(i1), signedAngle(r0.g, r1.g, n))) > angTol) continue;
+          const assignments: SpotAssignment[] = [];
+          const unassigned: number[] = [];
+          let chi2 = 0;
+          spots.forEach((s, i) => {
+            let best: SpotAssignment | null = null;
+            let bestC = Infinity;
+            const pool = i === i0 ? [r0] : cands[i];
+            for (const r of pool) {
+              if (r.hkl[0] * uvw[0] + r.hkl[1] * uvw[1] + r.hkl[2] * uvw[2] !== 0) continue;
+              const da = i === i0 ? 0 : angDiff(measured(i), signedAngle(r0.g, r.g, n));
+              if (Math.abs(da) > angTol) continue;
+              const c = ((s.dNm - r.dNm) / sd(s)) ** 2 + (i === i0 ? 0 : (da / (s.angleUncDeg ?? angU)) ** 2);
+              if (c < bestC) {
+                bestC = c;
+                best = { spot: i, hkl: r.hkl, dCalcNm: r.dNm, dResidualNm: s.dNm - r.dNm, angleResidualDeg: da };
+              }
             }
-          }
-          if (best) {
-            assignments.push(best);
-            chi2 += bestC;
-          } else unassigned.push(i);
-        });
-        const key = `${assignments.length}|${[...assignments].map((a) => a.dCalcNm.toPrecision(5) + ':' + Math.round(a.angleResidualDeg * 10)).sort().join(',')}|${Math.round(nl * 1e4)}`;
-        const dof = Math.max(1, 2 * assignments.length - 1 - 1);
-        const cand: ZoneCandidate = {
-          uvw,
-          assignments,
-          unassigned,
-          chi2,
-          reducedChi2: chi2 / dof,
-          rmsDResidualNm: Math.sqrt(assignments.reduce((s, a) => s + a.dResidualNm ** 2, 0) / assignments.length),
-          rmsAngleResidualDeg: Math.sqrt(assignments.reduce((s, a) => s + a.angleResidualDeg ** 2, 0) / Math.max(1, assignments.length - 1)),
-          mirrored: mirror,
-        };
-        const old = results.get(key);
-        if (!old || better(cand, old) < 0) results.set(key, cand);
+            if (best) {
+              assignments.push(best);
+              chi2 += bestC;
+            } else unassigned.push(i);
+          });
+          const key = `${assignments.length}|${[...assignments].map((a) => a.dCalcNm.toPrecision(5) + ':' + Math.round(a.angleResidualDeg * 10)).sort().join(',')}|${Math.round(nl * 1e4)}`;
+          const dof = Math.max(1, 2 * assignments.length - 1 - 1);
+          const cand: ZoneCandidate = {
+            uvw,
+            assignments,
+            unassigned,
+            chi2,
+            reducedChi2: chi2 / dof,
+            rmsDResidualNm: Math.sqrt(assignments.reduce((s, a) => s + a.dResidualNm ** 2, 0) / assignments.length),
+            rmsAngleResidualDeg: Math.sqrt(assignments.reduce((s, a) => s + a.angleResidualDeg ** 2, 0) / Math.max(1, assignments.length - 1)),
+            mirrored: mirror,
+          };
+          const old = results.get(key);
+          if (!old || better(cand, old) < 0) results.set(key, cand);
+        }
       }
     }
   }

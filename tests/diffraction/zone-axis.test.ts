@@ -47,6 +47,20 @@ describe('indexSpots: the zone axis of synthetic spot patterns (5 structures × 
     expect(() => indexSpots([{ dNm: -1, dUncNm: 0, angleDeg: 0 }, { dNm: 0.3, dUncNm: 0, angleDeg: 60 }], si)).toThrow(/spot 1/);
     expect(() => indexSpots([{ dNm: 0.31, dUncNm: 0, angleDeg: 0 }], si)).toThrow(/two spots/);
   });
+  test('a smeared spurious spot whose d matches a reflection but whose direction is wrong does not hide the zone (reference pairs sampled, Fischler & Bolles 1981)', () => {
+    // α-Fe along [0 1 1] as the power spectrum of a lattice image gave them (seeded synthetic image), plus a
+    // smeared spot near the 2 0 0 d at a wrong direction with an angle uncertainty of 8.8°: taken as the one
+    // reference spot it left no zone explaining two spots
+    const fe = phases[2].phase;
+    const good = syntheticZoneSpots(fe, [0, 1, 1], 7, { dMinNm: 0.07 });
+    const spurious = { dNm: 0.1401, dUncNm: 0.0066, angleDeg: good[0].angleDeg + 37, angleUncDeg: 8.8 };
+    for (const spots of [[...good, spurious], [spurious, ...good]]) {
+      const r = indexSpots(spots, fe);
+      expect(r.candidates.length).toBeGreaterThan(0);
+      expect(equivalent('cubic', r.candidates[0].uvw, [0, 1, 1])).toBe(true);
+      expect(r.candidates[0].assignments.length).toBeGreaterThanOrEqual(good.length);
+    }
+  });
   test('spots of another crystal give no candidate or a poor fit, with a note', () => {
     const r = indexSpots([{ dNm: 0.9, dUncNm: 0.001, angleDeg: 0 }, { dNm: 0.7, dUncNm: 0.001, angleDeg: 50 }], phases[0].phase);
     expect(r.candidates.length).toBe(0);
