@@ -13,6 +13,7 @@ import { CifError, parseCif, powderReflections } from '../diffraction/cif';
 import { ReportError, readMeasurementReport } from '../diffraction/measurement-report';
 import { reconcile, type DiffractionLine, type MicrographPeriod, type SheetStats } from '../diffraction/reconcile';
 import { spacedHkl, spacedLineLabel } from '../figure/reflection-index';
+import { sizedLines } from '../sheets/xrd-compare';
 
 const usage = `Usage: stratameter reconcile --pattern PATTERN | --saed SAED.json [--cif CIF] MEASUREMENT.json...
                              [--wavelength W] [--z-max Z] [--all-lines] [--json]
@@ -185,7 +186,9 @@ export const command: CliCommand = {
     }
     const calRel = rels.size === 1 ? [...rels][0] : undefined;
     if (rels.size > 1) notes.push('measurements carry different calibration uncertainties: the calibration proposal uses the full uncertainties');
-    const rec = reconcile({ periods, sheets: sheets ?? undefined, calibrationRelUncertainty: calRel }, { lines, series }, { zMax });
+    const basal = analysis ? sizedLines(analysis).find((l) => l.pooled) : undefined;
+    const basalSize = basal ? { sizeNm: basal.crystalliteNm!, sizeUncNm: basal.crystalliteUncNm!, periodNm: basal.dNm, label: basal.label! } : null;
+    const rec = reconcile({ periods, sheets: sheets ?? undefined, calibrationRelUncertainty: calRel }, { lines, series, basalSize }, { zMax });
     // unmatched lines: the strong ones (≥ 10 % of the strongest line of their source), or all with --all-lines
     const unmatchedSet = new Set(rec.unmatchedLines);
     const unmatched = lines.filter((l) => unmatchedSet.has(l.label));
@@ -233,7 +236,7 @@ export const command: CliCommand = {
     for (const l of strongUnmatched) out.push(`  ${spacedLineLabel(l.label).padEnd(32)} d ${pm(l.dNm, l.dUncNm).padEnd(22)} intensity ${sig(l.intensity ?? NaN, 3)}`);
     if (rec.thickness) {
       const t = rec.thickness;
-      out.push(`Sheets: mean thickness ${f(t.sheetMeanNm, 2)} ± ${f(t.sheetSdNm, 2)} nm (sd); 00l crystallite size ${f(t.crystalliteNm, 1)} nm` +
+      out.push(`Sheets: mean thickness ${f(t.sheetMeanNm, 2)} ± ${f(t.sheetSdNm, 2)} nm (sd); 00l crystallite size ${t.crystalliteUncNm !== null ? `${pm(t.crystalliteNm, 2 * t.crystalliteUncNm)} nm (± 2u)` : `${f(t.crystalliteNm, 1)} nm`}, ${t.crystalliteFrom}` +
         (t.layerPeriodNm ? `; layers: ${f(t.layersFromSheets!, 1)} from sheets, ${f(t.layersFromCrystallite!, 1)} from the crystallite size (period ${f(t.layerPeriodNm, 5)} nm)` : ''));
       out.push(`  ${t.note}`);
     }

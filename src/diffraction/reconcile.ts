@@ -58,6 +58,8 @@ export interface DiffractionSide {
   lines: DiffractionLine[];
   /** Series recognised among the lines (adds every member d from the fitted cell). */
   series?: IndexedSeries[];
+  /** A lamellar phase's crystallite size pooled over its resolved 00l orders, with its standard uncertainty and period (taken before the mean of the basal lines' own sizes). */
+  basalSize?: { sizeNm: number; sizeUncNm: number; periodNm: number; label: string } | null;
 }
 
 /** Options of reconcile. */
@@ -120,6 +122,9 @@ export interface Reconciliation {
     sheetMeanNm: number;
     sheetSdNm: number;
     crystalliteNm: number;
+    /** Its standard uncertainty (null for a mean of line sizes given without one), and where it came from. */
+    crystalliteUncNm: number | null;
+    crystalliteFrom: string;
     layerPeriodNm: number | null;
     layersFromSheets: number | null;
     layersFromCrystallite: number | null;
@@ -236,13 +241,16 @@ export function reconcile(micrograph: MicrographSide, diffraction: DiffractionSi
   let thickness: Reconciliation['thickness'] = null;
   const lam = (diffraction.series ?? []).find((s) => s.kind === 'lamellar');
   const basal = diffraction.lines.filter((l) => l.crystalliteNm && l.crystalliteNm > 0 && (/^00\d+$/.test(l.label) || (lam && lam.members.some((m) => Math.abs(m.dNm - l.dNm) < 1e-9))));
-  if (micrograph.sheets && micrograph.sheets.n > 0 && basal.length > 0) {
-    const size = basal.reduce((a, l) => a + l.crystalliteNm!, 0) / basal.length;
-    const period = lam ? lam.cellNm : null;
+  const pooled = diffraction.basalSize ?? null;
+  if (micrograph.sheets && micrograph.sheets.n > 0 && (pooled || basal.length > 0)) {
+    const size = pooled ? pooled.sizeNm : basal.reduce((a, l) => a + l.crystalliteNm!, 0) / basal.length;
+    const period = pooled ? pooled.periodNm : lam ? lam.cellNm : null;
     thickness = {
       sheetMeanNm: micrograph.sheets.meanNm,
       sheetSdNm: micrograph.sheets.sdNm,
       crystalliteNm: size,
+      crystalliteUncNm: pooled ? pooled.sizeUncNm : null,
+      crystalliteFrom: pooled ? pooled.label : `mean of ${basal.length} basal line${basal.length > 1 ? 's' : ''}' own sizes (no uncertainty)`,
       layerPeriodNm: period,
       layersFromSheets: period ? micrograph.sheets.meanNm / period : null,
       layersFromCrystallite: period ? size / period : null,

@@ -50,6 +50,19 @@ describe('reconcile', () => {
     expect(r.thickness!.layersFromSheets).toBeCloseTo(10, 10);
     expect(r.thickness!.layersFromCrystallite).toBeCloseTo(20, 10);
   });
+  test('a lamellar phase\'s size pooled over its 00l orders is taken before the mean of the lines\' own sizes, with its ± and where it came from', () => {
+    const r = reconcile(
+      { periods: [{ periodNm: 0.75, uncertaintyNm: 0.02 }], sheets: { n: 40, meanNm: 7.4, sdNm: 1.5 } },
+      { lines: [{ dNm: 0.74, dUncNm: 0.001, label: '001', crystalliteNm: 14.8 }, { dNm: 0.37, dUncNm: 0.001, label: '002', crystalliteNm: 12 }], basalSize: { sizeNm: 11.1, sizeUncNm: 0.4, periodNm: 0.74, label: 'lamellar phase 1, 2 resolved 00l lines' } },
+    );
+    expect(r.thickness!.crystalliteNm).toBe(11.1);
+    expect(r.thickness!.crystalliteUncNm).toBe(0.4);
+    expect(r.thickness!.layersFromCrystallite).toBeCloseTo(15, 10);
+    expect(r.thickness!.crystalliteFrom).toMatch(/lamellar phase 1/);
+    const plain = reconcile({ periods: [{ periodNm: 0.75, uncertaintyNm: 0.02 }], sheets: { n: 40, meanNm: 7.4, sdNm: 1.5 } }, { lines: [{ dNm: 0.74, dUncNm: 0.001, label: '001', crystalliteNm: 14.8 }] });
+    expect(plain.thickness!.crystalliteUncNm).toBeNull();
+    expect(plain.thickness!.crystalliteFrom).toMatch(/mean of 1 basal line/);
+  });
   test('bad input is rejected with the value', () => {
     expect(() => reconcile({ periods: [{ periodNm: -1, uncertaintyNm: 0 }] }, { lines: [] })).toThrow(/-1/);
     expect(() => reconcile({ periods: [] }, { lines: [] }, { zMax: 0 })).toThrow(/zMax/);
