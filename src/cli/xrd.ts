@@ -162,6 +162,7 @@ function sizeJson(ps: PhaseSize | null) {
     sizeNm: tidy(ps.sizeNm, ps.sizeUncNm),
     sizeUncNm: tidyU(ps.sizeUncNm),
     model: ps.model,
+    strainTested: ps.strainTested,
     strain: ps.strain === null ? null : tidy(ps.strain, ps.strainUnc),
     strainUnc: tidyU(ps.strainUnc),
     lines: ps.lines,

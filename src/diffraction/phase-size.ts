@@ -31,6 +31,8 @@ export interface PhaseSize {
   sizeUncNm: number;
   /** 'mean': one size for every line (strain held at zero: the weighted mean of β cosθ); 'williamson-hall': a size and a strain term, kept because the strain term gained more than strainDeltaChi2. */
   model: 'mean' | 'williamson-hall';
+  /** Whether a strain term could be tested (three lines or more spanning 0.1 in sin θ). */
+  strainTested: boolean;
   /** Microstrain and its standard uncertainty with the Williamson–Hall model; null with 'mean'. */
   strain: number | null;
   strainUnc: number | null;
@@ -135,8 +137,10 @@ export function phaseCrystalliteSize(lines: PhaseSizeLine[], wavelengthNm: numbe
   let dof = pts.length - 1;
   let strain: number | null = null;
   let strainVar: number | null = null;
+  let strainTested = false;
   if (pts.length >= 3) {
     const wh = williamsonHall(pts, wavelengthNm, k);
+    strainTested = wh !== null;
     if (wh && wh.strain > 0 && m.chi2 - wh.reducedChi2 * (pts.length - 2) > dChi) {
       model = 'williamson-hall';
       chi2 = wh.reducedChi2 * (pts.length - 2);
@@ -163,6 +167,7 @@ export function phaseCrystalliteSize(lines: PhaseSizeLine[], wavelengthNm: numbe
     sizeNm: size,
     sizeUncNm: sizeUnc,
     model,
+    strainTested,
     strain,
     strainUnc: strainVar === null ? null : Math.sqrt(strainVar * scale),
     lines: pts.length,
@@ -184,7 +189,7 @@ export function describePhaseSize(ps: PhaseSize, coverageK: number): string {
   const size = `crystallite size ${pm(ps.sizeNm, coverageK * ps.sizeUncNm)} nm (± ${coverageK}u) from ${ps.lines} lines`;
   const model = ps.model === 'williamson-hall'
     ? `Williamson–Hall, microstrain ${pm(ps.strain!, coverageK * ps.strainUnc!)}`
-    : 'strain held at zero (a strain term was not significant at 0.1 %)';
+    : ps.strainTested ? 'strain held at zero (a strain term was not significant at 0.1 %)' : 'strain held at zero (too few lines, or too short a range, to test a strain term)';
   const extra = [
     ps.leftOutTwoThetaDeg !== null ? `the line at ${ps.leftOutTwoThetaDeg.toFixed(3)}° left out` : '',
     ps.linesDisagree ? `lines disagree (χ²/ν ${ps.reducedChi2.toFixed(1)}): anisotropic or strained, see each line` : '',

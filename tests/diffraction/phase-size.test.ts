@@ -138,3 +138,14 @@ describe('the breadth to average keeps a negative squared Gaussian sample width 
     expect(sumCut / deltas.length / sampleL - 1).toBeGreaterThan(0.01); // 1.5 % here
   });
 });
+
+describe('what a phase size says about strain', () => {
+  test('two lines cannot test a strain term, and the text says so; five lines over a wide range can', () => {
+    const two = phaseCrystalliteSize([38.2, 44.4].map((tt) => line(tt, 25, 0, 0.05)), CU_KA1_NM, { k: K })!;
+    expect(two.strainTested).toBe(false);
+    expect(describePhaseSize(two, 2)).toMatch(/too few lines, or too short a range, to test a strain term/);
+    const five = phaseCrystalliteSize([38.2, 44.4, 64.6, 77.5, 81.7].map((tt) => line(tt, 25, 0, 0.05)), CU_KA1_NM, { k: K })!;
+    expect(five.strainTested).toBe(true);
+    expect(describePhaseSize(five, 2)).toMatch(/not significant at 0.1 %/);
+  });
+});
