@@ -3,7 +3,6 @@
  * automatically over the whole image (or a region), with their statistics and, given a powder
  * pattern, the comparison with the basal reflection's Scherrer size.
  */
-import { readFile } from 'node:fs/promises';
 import type { CliCommand, CliIo } from './command';
 import { coverageFactorOption, parseArgs, UsageError } from './command';
 import { openImageFile } from './open-image';
@@ -20,7 +19,8 @@ import { INDICATED_MAGNIFICATION_REL, makeCalibration } from '../calibration/cal
 
 const usage = `Usage: stratameter sheets IMAGE [--nm-per-px X | --scale-bar auto] [--line x0,y0,x1,y1[,width]]
                           [--region x,y,width,height] [--period-px P | --period-nm P] [--bright]
-                          [--xrd PATTERN [--wavelength W]] [--coverage-factor K] [--json]
+                          [--xrd PATTERN [--wavelength W] [--columns X,Y[,S]] [--instrument FILE | --standard FILE]]
+                          [--coverage-factor K] [--json]
 
 Counts the layers of edge-on stacks (tactoids, few-layer crystals) and measures their thickness.
 With --line, along that line (draw it across the stacks, along the layer normal, starting and
@@ -38,6 +38,9 @@ Options:
   --xrd PATTERN        a powder pattern: compare the stacks' thickness with the Scherrer size
                        of its basal reflection (the peak at the stacks' period)
   --wavelength W       the pattern's wavelength when its header has none (e.g. CuKa1)
+  --columns X,Y[,S]    the pattern's columns of position, intensity and its uncertainty (from 1)
+  --instrument FILE    an instrument profile saved by 'xrd --save-instrument', removed from the sizes
+  --standard FILE      a line-profile standard measured on the same instrument (as for xrd)
   --coverage-factor K  k of the expanded uncertainty U = k·u (default 2)
   --json               one JSON object on standard output instead of a table
 
@@ -156,23 +159,15 @@ export function sheetsInRegion(image: GreyImage, region: [number, number, number
 }
 
 /** The X-ray comparison from a pattern file. */
-async function xrdComparison(path: string, wavelength: string | undefined, sheets: SheetReport[], calibration: Calibration | null): Promise<{ comparison: ScherrerComparison | null; note: string | null }> {
-  const { readPatternFile } = await import('../diffraction/read-pattern');
-  const { analysePattern } = await import('../diffraction/analyse');
-  let text: string;
-  try {
-    text = await readFile(path, 'utf8');
-  } catch (e) {
-    throw new UsageError(`${path}: ${(e as NodeJS.ErrnoException).code === 'ENOENT' ? 'no such file' : (e as Error).message}`);
-  }
-  const pattern = readPatternFile(text, path, { wavelength });
-  if (pattern.axis === 'twoTheta' && pattern.wavelengthNm === null) throw new UsageError(`${path}: no wavelength in the header; give --wavelength (e.g. CuKa1)`);
+async function xrdComparison(path: string, patternOptions: Map<string, string>, sheets: SheetReport[], calibration: Calibration | null): Promise<{ comparison: ScherrerComparison | null; note: string | null }> {
+  // the pattern read and analysed as xrd does (wavelength, columns, instrument profile or standard)
+  const { loadAndAnalyse } = await import('./xrd');
+  const { analysis } = await loadAndAnalyse(path, patternOptions);
   if (!calibration) return { comparison: null, note: 'the X-ray comparison needs a calibrated image (nm): give --nm-per-px or --scale-bar auto' };
   const kept = sheets.filter((s) => s.status !== 'rejected');
   if (kept.length < 2) return { comparison: null, note: 'the X-ray comparison needs at least two stacks' };
   const expressed = kept.map((s) => ({ s, e: expressSheet(s, calibration) }));
   const periodNm = expressed.reduce((a, q) => a + q.e.period.value, 0) / expressed.length;
-  const analysis = analysePattern(pattern);
   const line = basalLine(sizedLines(analysis), periodNm);
   if (!line) return { comparison: null, note: `no reflection with a Scherrer size near the stacks' period (${periodNm.toFixed(3)} nm) in ${path}` };
   const comparison = compareWithScherrer(
@@ -186,7 +181,7 @@ async function xrdComparison(path: string, wavelength: string | undefined, sheet
 export async function sheetsReport(
   file: string,
   image: GreyImage,
-  opts: { line?: ReturnType<typeof parseLine>; region?: [number, number, number, number] | null; periodPx?: number; bright?: boolean; k?: number; xrd?: string; wavelength?: string },
+  opts: { line?: ReturnType<typeof parseLine>; region?: [number, number, number, number] | null; periodPx?: number; bright?: boolean; k?: number; xrd?: string; xrdOptions?: Map<string, string> },
 ): Promise<{ report: SheetsReport; notes: string[] }> {
   const notes: string[] = [];
   const cal = image.calibration;
@@ -224,7 +219,7 @@ export async function sheetsReport(
   const stats = sheetStatistics(sheets.map((sheet) => ({ sheet, calibration: cal })));
   let xrd: ScherrerComparison | null = null;
   if (opts.xrd) {
-    const x = await xrdComparison(opts.xrd, opts.wavelength, sheets, cal);
+    const x = await xrdComparison(opts.xrd, opts.xrdOptions ?? new Map(), sheets, cal);
     xrd = x.comparison;
     if (x.note) notes.push(x.note);
   }
@@ -315,14 +310,16 @@ export const command: CliCommand = {
   usage,
   async run(args: string[], io: CliIo): Promise<number> {
     const { positional, options, flags } = parseArgs(args, {
-      values: ['nm-per-px', 'scale-bar', 'line', 'region', 'period-px', 'period-nm', 'xrd', 'wavelength', 'coverage-factor'],
+      values: ['nm-per-px', 'scale-bar', 'line', 'region', 'period-px', 'period-nm', 'xrd', 'wavelength', 'columns', 'instrument', 'standard', 'coverage-factor'],
       booleans: ['json', 'bright'],
     });
     if (positional.length !== 1) throw new UsageError(`expected one IMAGE, got ${positional.length}: see 'stratameter sheets --help'`);
     if (options.has('nm-per-px') && options.has('scale-bar')) throw new UsageError('give --nm-per-px or --scale-bar auto, not both');
     if (options.has('period-px') && options.has('period-nm')) throw new UsageError('give --period-px or --period-nm, not both');
     if (options.has('line') && options.has('region')) throw new UsageError('give --line or --region, not both');
-    if (options.has('wavelength') && !options.has('xrd')) throw new UsageError('--wavelength belongs to --xrd PATTERN');
+    const xrdOnly = ['wavelength', 'columns', 'instrument', 'standard'].filter((o) => options.has(o));
+    if (xrdOnly.length && !options.has('xrd')) throw new UsageError(`${xrdOnly.map((o) => `--${o}`).join(', ')} belong${xrdOnly.length === 1 ? 's' : ''} to --xrd PATTERN`);
+    const xrdOptions = new Map(xrdOnly.map((o) => [o, options.get(o)!] as [string, string]));
     const k = coverageFactorOption(options.get('coverage-factor'));
     const scaleBar = options.get('scale-bar');
     if (scaleBar !== undefined && scaleBar !== 'auto') throw new UsageError(`--scale-bar takes 'auto', got '${scaleBar}'`);
@@ -365,7 +362,7 @@ export const command: CliCommand = {
       if (periodPx < 2) throw new UsageError(`the period is ${periodPx.toFixed(3)} px, below the sampling limit of 2 px (Nyquist): no layer of it can be resolved in this image`);
       if (periodPx < MIN_COUNTABLE_PERIOD_PX) throw new UsageError(`the period is ${periodPx.toFixed(3)} px, below ${MIN_COUNTABLE_PERIOD_PX} px where layers can be counted reliably: use an image of higher magnification`);
     }
-    const { report, notes } = await sheetsReport(file, image, { line, region, periodPx, bright: flags.has('bright'), k, xrd: options.get('xrd'), wavelength: options.get('wavelength') });
+    const { report, notes } = await sheetsReport(file, image, { line, region, periodPx, bright: flags.has('bright'), k, xrd: options.get('xrd'), xrdOptions });
     notes.push(...extraNotes);
     if (flags.has('json')) {
       io.out(`${JSON.stringify(report)}\n`);

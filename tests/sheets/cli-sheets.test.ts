@@ -53,4 +53,16 @@ describe('stratameter sheets', () => {
     expect(await main(['sheets', file, '--line', '1,2,3'], c.io)).toBe(2);
     expect(c.err.join('')).toMatch(/--line must be/);
   });
+  it('--xrd: the demo overview beside the demo pattern takes the clay phase\'s size pooled over its 00l orders (demo truth 10 nm); the pattern options belong to --xrd', async () => {
+    const c = capture();
+    const code = await main(['sheets', 'demo-data/tactoid-film_overview.tif', '--xrd', 'demo-data/tactoid-film_CuKa.xy', '--columns', '1,2', '--json'], c.io);
+    expect(code, c.err.join('')).toBe(0);
+    const r = JSON.parse(c.out.join(''));
+    expect(r.xrd.xrd.source).toMatch(/lamellar phase 1, \d+ resolved 00l lines/);
+    expect(Math.abs(r.xrd.xrd.sizeNm / 10 - 1)).toBeLessThan(0.15);
+    expect(r.xrd.xrd.uSizeNm).toBeGreaterThan(0);
+    const bad = capture();
+    expect(await main(['sheets', file, '--nm-per-px', '0.125', '--columns', '1,2'], bad.io)).toBe(2);
+    expect(bad.err.join('')).toMatch(/--columns belongs to --xrd PATTERN/);
+  }, 120000);
 });
