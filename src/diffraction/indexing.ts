@@ -405,10 +405,12 @@ function quickQs(t: Trial, qMax: number): Float64Array {
       }
     }
   }
-  out.sort((x, y) => x - y);
-  const dedup: number[] = [];
-  for (const q of out) if (!dedup.length || q > dedup[dedup.length - 1] * (1 + 1e-9)) dedup.push(q);
-  return Float64Array.from(dedup);
+  // a typed array sorts numerically without a comparator (several times faster: this is the
+  // search's inner loop)
+  const sorted = Float64Array.from(out).sort();
+  let n = 0;
+  for (let i = 0; i < sorted.length; i++) if (n === 0 || sorted[i] > sorted[n - 1] * (1 + 1e-9)) sorted[n++] = sorted[i];
+  return sorted.subarray(0, n);
 }
 
 /** Whether a line of the sorted list lies within tolerance of an observed Q (2θ tolerance when a wavelength is known). */
