@@ -151,6 +151,8 @@ interface Work {
   strongOrder: number[];
   dMin: number;
   dMax: number;
+  /** The peak of largest d (the lowest-angle line). */
+  first: number;
 }
 
 interface Trial {
@@ -162,10 +164,21 @@ interface Trial {
   allows?: (h: number, k: number, l: number) => boolean;
 }
 
-/** Lines of a trial cell within the pattern's d range. */
+/**
+ * Lines of a trial cell within the pattern's d range. At the low-angle end the range reaches down
+ * by the first line's own assignment budget (3σ of its 2θ) and the trial's zero shift: a first
+ * order at 6° moved by 0.03° changes d by 0.5 %, and a cell refined a little long must not lose
+ * its first line for lying just beyond the largest observed d.
+ */
 function linesOf(w: Work, t: Trial) {
   const cell: LatticeCell = { kind: t.kind, aNm: t.a, cNm: t.c };
-  const all = latticeLines(cell, w.dMin * 0.995, w.dMax * 1.005);
+  let dHi = w.dMax * 1.005;
+  const tt0 = w.tt[w.first];
+  if (w.lambda !== null && tt0 !== null) {
+    const low = tt0 - Math.abs(t.zero) - 3 * w.stt[w.first] - 0.02;
+    if (low > 0) dHi = Math.max(dHi, w.lambda / (2 * Math.sin((low * DEG) / 2)));
+  }
+  const all = latticeLines(cell, w.dMin * 0.995, dHi);
   return t.allows ? all.filter((l) => t.allows!(...l.hkl)) : all;
 }
 
@@ -661,6 +674,7 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
     strongOrder: [...strong].sort((a, b) => peaks[b].dNm - peaks[a].dNm),
     dMin: Math.min(...peaks.map((p) => p.dNm)),
     dMax: Math.max(...peaks.map((p) => p.dNm)),
+    first: peaks.reduce((b, p, i) => (p.dNm > peaks[b].dNm ? i : b), 0),
   };
   // enough strong lines to seed two-parameter cells: add the next strongest
   if (w.strongOrder.length < 6) {
