@@ -930,7 +930,12 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
         const both = new Set([...explained, ...(b ? b.hkls.map((h) => h.peak) : [])]);
         const strongDone = strongScope.filter((i) => both.has(i)).length;
         const gm = b ? Math.sqrt(a.fom.fN * b.fom.fN) : a.fom.fN / 4;
-        const key = [strongDone, both.size, gm];
+        // the simplest description: each free cell parameter must pay for itself with two lines
+        // explained (as above: more parameters must explain at least two more lines), so a clay's
+        // orders read as a tetragonal cell whose a catches two stray lines do not beat the lamellar
+        // stack that explains them with one parameter
+        const params = cellParameters(a.t.kind) + (b ? cellParameters(b.t.kind) : 0);
+        const key = [strongDone, both.size - 2 * params, gm];
         const better = !bestPair || key[0] > bestPair.key[0] || (key[0] === bestPair.key[0] && (key[1] > bestPair.key[1] || (key[1] === bestPair.key[1] && key[2] > bestPair.key[2])));
         if (better) bestPair = { a, b, key };
       }
