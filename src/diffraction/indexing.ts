@@ -364,7 +364,10 @@ function candidates(w: Work, kind: LatticeKind): Trial[] {
   // two-parameter lattices: Q = A·X + C·l², X = h²+k² (tetragonal) or 4(h²+hk+k²)/3 (hexagonal)
   const hex = kind.startsWith('hexagonal');
   const triples: Array<[number, number, number]> = [];
-  for (let h = 0; h <= 2; h++) for (let k = 0; k <= h; k++) for (let l = 0; l <= 4; l++) {
+  // l up to 4, and the basal lines up to 00 6: a layered cell with a long c (c/a of 5–8, e.g. a
+  // rhombohedral double hydroxide) has its 003 weak and its 006 among the strong lines, and with
+  // l ≤ 4 no pair of strong lines seeded it (all l to 6 costs twice the time for no other gain)
+  for (let h = 0; h <= 2; h++) for (let k = 0; k <= h; k++) for (let l = 0; l <= (h === 0 ? 6 : 4); l++) {
     if (h === 0 && k === 0 && l === 0) continue;
     if (!latticeAllows(kind, h, k, l)) continue;
     triples.push([h, k, l]);

@@ -243,6 +243,15 @@ function fittedPeaks(rows: number[][]): IndexPeak[] {
   });
 }
 
+describe('trial cells of a layered lattice with a long c (pairs of strong lines as low-index reflections: Werner, Z. Kristallogr. 120, 375, 1964, from memory)', () => {
+  test('a rhombohedral double hydroxide (a 0.3046, c 2.2812 nm, from memory) whose 003 is weak is seeded from its strong 006 and 101 (synthetic benchmark case, seed 29, its fitted peaks)', () => {
+    const r = indexPattern(fittedPeaks([[11.6346, 0.011, 26.65, 0.281], [23.3782, 0.0018, 362.4, 0.341], [34.2001, 0.0057, 83.61, 0.358], [34.9011, 0.023, 22.5, 0.361], [35.3967, 0.019, 22.12, 0.349], [37.5461, 0.013, 20.57, 0.305], [39.4267, 0.0016, 490.1, 0.356], [44.1345, 0.0034, 158.2, 0.363], [46.873, 0.0065, 87.85, 0.401], [47.8149, 0.017, 24.86, 0.37], [53.01, 0.021, 21.83, 0.435], [56.3911, 0.0046, 129.8, 0.414], [60.7771, 0.0033, 245.1, 0.43], [62.1017, 0.0077, 83.4, 0.409], [63.6388, 0.013, 58.09, 0.506], [66.027, 0.0036, 233.1, 0.42], [67.5127, 0.0045, 164.8, 0.396]]), { wavelengthNm: CU1 });
+    expect(r.phases.map((p) => p.kind)).toEqual(['hexagonal-R']);
+    expect(Math.abs(r.phases[0].aNm / 0.3046 - 1)).toBeLessThan(5e-4);
+    expect(Math.abs(r.phases[0].cNm / 2.2812 - 1)).toBeLessThan(5e-4);
+  });
+});
+
 describe('a smectite (d001 1.50 nm, two water layers; from memory) beside a quartz-like hexagonal phase (a 0.4913, c 0.5405 nm, from memory) on a halo', () => {
   test('its orders are a lamellar stack, not a tetragonal cell whose a catches two fragments of one split line: each free cell parameter pays with two lines (synthetic benchmark case, seed 1, its fitted peaks)', () => {
     const r = indexPattern(fittedPeaks([[5.8874, 0.0043, 716.9, 0.901], [11.784, 0.024, 56.78, 0.743], [16.3871, 0.0011, 251.3, 0.16], [17.6982, 0.027, 78.29, 0.915], [20.0186, 0.033, 105.8, 1.173], [20.8555, 0.0069, 28.02, 0.159], [26.6383, 0.0096, 19.51, 0.184], [33.1226, 0.0018, 120.4, 0.166], [36.5517, 0.0022, 111.5, 0.166], [39.4692, 0.0014, 187.6, 0.16], [40.2921, 0.0029, 68.79, 0.163], [42.4548, 0.012, 16.04, 0.174], [45.803, 0.013, 4.737, 0.083], [50.1457, 0.004, 53.14, 0.198], [50.627, 0.0075, 17.15, 0.126], [54.8934, 0.0094, 6.747, 0.083], [55.2837, 0.006, 14.34, 0.083], [55.3637, 0.0072, 12.06, 0.083], [57.3441, 0.013, 4.745, 0.083], [59.9672, 0.0025, 106.2, 0.171], [64.0484, 0.005, 77.84, 0.231], [65.7923, 0.0042, 76.16, 0.199], [67.7673, 0.056, 16.6, 0.353], [68.2417, 0.0034, 210.5, 0.351], [69.5105, 0.0048, 50.46, 0.181]]), { wavelengthNm: CU1 });
