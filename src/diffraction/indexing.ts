@@ -459,6 +459,8 @@ interface Solution {
   strongExplained: number;
   intensityShare: number;
   volume: number;
+  /** The supercell this solution was reduced from (smallestCell), if any. */
+  from?: Trial;
 }
 
 /**
@@ -610,8 +612,96 @@ function evaluate(w: Work, trial: Trial, subset: Set<number> | null, opts: Requi
       if (w.strong.has(i)) strongExplained++;
     }
   });
-  const volume = t.kind === 'lamellar' ? t.c : t.kind.startsWith('hexagonal') ? ((Math.sqrt(3) / 2) * t.a * t.a * t.c) / (t.kind === 'hexagonal-R' ? 3 : 1) : (t.a * t.a * t.c) / (t.kind.endsWith('-I') ? 2 : t.kind.endsWith('-F') ? 4 : 1);
-  return { t, hkls, lines, asg: used, fom, cov, chi2, dof, strongExplained, intensityShare: total > 0 ? share / total : 0, volume };
+  return { t, hkls, lines, asg: used, fom, cov, chi2, dof, strongExplained, intensityShare: total > 0 ? share / total : 0, volume: volumeOf(t) };
+}
+
+/** Volume of a trial's primitive cell in nm³ (for lamellar, the period). */
+function volumeOf(t: Trial): number {
+  if (t.kind === 'lamellar') return t.c;
+  if (t.kind.startsWith('hexagonal')) return ((Math.sqrt(3) / 2) * t.a * t.a * t.c) / (t.kind === 'hexagonal-R' ? 3 : 1);
+  return (t.a * t.a * t.c) / (t.kind.endsWith('-I') ? 2 : t.kind.endsWith('-F') ? 4 : 1);
+}
+
+/**
+ * The smallest cell of a solution: a cell whose every indexed line is also a line of a sub-cell
+ * (c/2; a/2; a/√2 for tetragonal, a/√3 for hexagonal: the supercells whose extra lines all have
+ * indices of one parity or residue) is that sub-cell. The sub-cell predicts each indexed line at the
+ * very same Q, so it explains the same lines with the same residuals; only the supercell's extra
+ * lines, none of them observed, go. Left as a supercell, those lines cost it in F_N, yet they also
+ * let it call a broad peak beside one of them a blend of two lines (a peak's blend needs two
+ * calculated lines within its width) and so explain a line the true cell misses by a hair: de
+ * Wolff's trap of the supercell. Repeated until no sub-cell is left. The sub-cell evaluated afresh
+ * is taken when it explains as many strong lines; else the supercell's lines carried over (a blend
+ * keeps its status), the cell refined again on the same clean lines.
+ * @param w the work arrays
+ * @param s a solution
+ * @returns the solution on its smallest cell (or s itself)
+ * Reference: de Wolff, J. Appl. Cryst. 1, 108 (1968) (the smallest cell that explains the lines;
+ * M20 counts the calculated lines); Smith & Snyder, J. Appl. Cryst. 12, 60 (1979) (F_N likewise).
+ */
+function smallestCell(w: Work, s: Solution, subset: Set<number> | null, opts: Required<Pick<IndexOptions, 'searchToleranceDeg' | 'fitZeroShift'>>): Solution {
+  let cur = s;
+  for (let depth = 0; depth < 4; depth++) {
+    const t = cur.t;
+    const subs: Trial[] = [];
+    const fam = t.kind === 'lamellar' ? 'lamellar' : t.kind.split('-')[0];
+    const family: Record<string, { kinds: LatticeKind[]; aF: number[]; cF: number[] }> = {
+      lamellar: { kinds: ['lamellar'], aF: [1], cF: [1, 1 / 2] },
+      cubic: { kinds: ['cubic-P', 'cubic-I', 'cubic-F'], aF: [1, 1 / 2], cF: [1] },
+      tetragonal: { kinds: ['tetragonal-P', 'tetragonal-I'], aF: [1, Math.SQRT1_2, 1 / 2], cF: [1, 1 / 2] },
+      hexagonal: { kinds: ['hexagonal-P', 'hexagonal-R'], aF: [1, 1 / Math.sqrt(3), 1 / 2], cF: [1, 1 / 2, 1 / 3] },
+    };
+    const f = family[fam];
+    for (const kind of f.kinds) for (const af of f.aF) for (const cf of fam === 'cubic' ? [af] : f.cF) {
+      const sub: Trial = { ...t, kind, a: t.a * af, c: fam === 'cubic' ? t.a * af : t.c * cf };
+      if (volumeOf(sub) < volumeOf(t) * (1 - 1e-6)) subs.push(sub);
+    }
+    subs.sort((x, y) => volumeOf(x) - volumeOf(y));
+    let next: Solution | null = null;
+    for (const sub of subs) {
+      if (!(sub.c >= MIN_EDGE_NM) || (sub.kind !== 'lamellar' && !(sub.a >= MIN_EDGE_NM))) continue;
+      const lines = linesOf(w, sub);
+      if (lines.length === 0) continue;
+      const qs = lines.map((l) => l.q);
+      const lineAt = (q: number) => {
+        let lo = 0;
+        let hi = qs.length;
+        while (lo < hi) {
+          const mid = (lo + hi) >>> 1;
+          if (qs[mid] < q * (1 - 1e-9)) lo = mid + 1;
+          else hi = mid;
+        }
+        return lo < qs.length && Math.abs(qs[lo] / q - 1) <= 1e-9 ? lo : -1;
+      };
+      const asg = cur.asg.map((a) => (a ? { ...a, line: lineAt(cur.lines[a.line].q) } : null));
+      if (asg.some((a) => a !== null && a.line < 0)) continue;
+      const clean = asg.flatMap((a) => (a && !a.overlap ? [{ peak: a.peak, hkl: lines[a.line].hkl }] : []));
+      const zeroKept = cur.cov !== null && cur.cov.length > cellParameters(t.kind);
+      const r = cur.cov ? refine(w, sub, clean, zeroKept, false) : null;
+      if (cur.cov && !r) continue;
+      const t2 = r ? r.t : sub;
+      next = {
+        ...cur,
+        t: t2,
+        lines,
+        asg,
+        hkls: asg.flatMap((a) => (a ? [{ peak: a.peak, hkl: lines[a.line].hkl }] : [])),
+        fom: figureOfMerit(w, t2, lines, asg),
+        cov: r ? r.cov : null,
+        chi2: r ? r.chi2 : cur.chi2,
+        dof: r ? r.dof : cur.dof,
+        volume: volumeOf(t2),
+      };
+      // the sub-cell evaluated afresh, when it explains as many strong lines on its own (its
+      // assignments are then its own; weak lines it leaves were the supercell's by its extra lines)
+      const direct = evaluate(w, t2, subset, opts);
+      if (direct && direct.strongExplained >= next.strongExplained) next = direct;
+      break;
+    }
+    if (!next) return cur;
+    cur = { ...next, from: s.t };
+  }
+  return cur;
 }
 
 /**
@@ -732,6 +822,8 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
       return { peak: h.peak, hkl: h.hkl, dObsNm: dObs, dCalcNm: dCalc, deltaTwoThetaDeg: corrected !== null ? corrected - twoThetaOfQ(1 / (dCalc * dCalc), lambda!) : null };
     });
     lines.sort((x, y) => y.dCalcNm - x.dCalcNm);
+    const cellWords = (c: Trial) => (c.kind === 'lamellar' ? `c ${c.c.toPrecision(6)} nm` : cellParameters(c.kind) === 1 ? `a ${c.a.toPrecision(6)} nm` : `a ${c.a.toPrecision(6)} nm, c ${c.c.toPrecision(6)} nm`);
+    if (s.from) notes.push(`the ${LATTICE_WORDS[s.from.kind]} cell (${cellWords(s.from)}) indexes these lines only with indices its ${LATTICE_WORDS[t.kind]} sub-cell (${cellWords(t)}) also has: the sub-cell is taken (the smallest cell)`);
     const explained = new Set(s.hkls.map((h) => h.peak));
     return {
       kind: t.kind,
@@ -796,8 +888,9 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
       }
       quick.sort((a, b) => b.score - a.score);
       for (const q of quick.slice(0, 20)) {
-        const s = evaluate(w, q.t, subset, opts);
-        if (!s) continue;
+        const s0 = evaluate(w, q.t, subset, opts);
+        if (!s0) continue;
+        const s = smallestCell(w, s0, subset, opts);
         if (topHere >= 0 && !s.hkls.some((h) => h.peak === topHere)) continue; // a phase explains the strongest line it is offered
         const minLines = s.t.kind === 'lamellar' ? 2 : cellParameters(s.t.kind) + 2;
         if (s.hkls.length < minLines) continue;
