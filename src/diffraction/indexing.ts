@@ -714,15 +714,19 @@ function smallestCell(w: Work, s: Solution, subset: Set<number> | null, opts: Re
  * Notes — the method:
  * - trial cells come from the strongest low-angle lines: for one-parameter lattices each line as
  *   each allowed low-index reflection, for two-parameter lattices each pair of lines as each pair
- *   of allowed reflections (h, k ≤ 3, l ≤ 6); only reflections the lattice's centring allows are
- *   used (ITC A integral conditions), so a solution never relies on a forbidden line;
+ *   of allowed reflections (h, k ≤ 2, l ≤ 4, and the basal 005, 006); only reflections the
+ *   lattice's centring allows are used (ITC A integral conditions), so a solution never relies on
+ *   a forbidden line;
  * - every trial is refined by least squares on 2θ with a zero-shift term (observed = calculated +
- *   Z), lines reassigned after each refinement;
+ *   Z), lines reassigned after each refinement, and reduced to its smallest cell (a supercell
+ *   whose indexed lines all belong to a sub-cell is that sub-cell);
  * - a phase must explain its strongest line and be consistent (F_N ≥ minFigureOfMerit); the
  *   solution preferred is the one that explains every strong line, and among those the one with
  *   the highest F_N — which favours the lattice with the fewest possible lines, i.e. the simplest
  *   that explains the pattern — then the smallest cell; when no single phase explains every
- *   strong line, the best phase is taken and a second one is sought among the lines it leaves;
+ *   strong line, the best phase is taken and a second one is sought among the lines it leaves
+ *   (pairs ranked by strong lines explained, then by lines explained less two per free cell
+ *   parameter);
  * - the cell's uncertainty is the refinement's (scaled by √χ²ᵣ when the lines scatter more than
  *   their σ) combined with the wavelength's relative uncertainty.
  * The lattices are those of centring only: glide and screw absences (e.g. the diamond structure's
