@@ -151,6 +151,8 @@ interface Work {
   strongOrder: number[];
   dMin: number;
   dMax: number;
+  /** The peak of largest d (the lowest-angle line). */
+  first: number;
 }
 
 interface Trial {
@@ -162,10 +164,21 @@ interface Trial {
   allows?: (h: number, k: number, l: number) => boolean;
 }
 
-/** Lines of a trial cell within the pattern's d range. */
+/**
+ * Lines of a trial cell within the pattern's d range. At the low-angle end the range reaches down
+ * by the first line's own assignment budget (3σ of its 2θ) and the trial's zero shift: a first
+ * order at 6° moved by 0.03° changes d by 0.5 %, and a cell refined a little long must not lose
+ * its first line for lying just beyond the largest observed d.
+ */
 function linesOf(w: Work, t: Trial) {
   const cell: LatticeCell = { kind: t.kind, aNm: t.a, cNm: t.c };
-  const all = latticeLines(cell, w.dMin * 0.995, w.dMax * 1.005);
+  let dHi = w.dMax * 1.005;
+  const tt0 = w.tt[w.first];
+  if (w.lambda !== null && tt0 !== null) {
+    const low = tt0 - Math.abs(t.zero) - 3 * w.stt[w.first] - 0.02;
+    if (low > 0) dHi = Math.max(dHi, w.lambda / (2 * Math.sin((low * DEG) / 2)));
+  }
+  const all = latticeLines(cell, w.dMin * 0.995, dHi);
   return t.allows ? all.filter((l) => t.allows!(...l.hkl)) : all;
 }
 
@@ -351,7 +364,10 @@ function candidates(w: Work, kind: LatticeKind): Trial[] {
   // two-parameter lattices: Q = A·X + C·l², X = h²+k² (tetragonal) or 4(h²+hk+k²)/3 (hexagonal)
   const hex = kind.startsWith('hexagonal');
   const triples: Array<[number, number, number]> = [];
-  for (let h = 0; h <= 2; h++) for (let k = 0; k <= h; k++) for (let l = 0; l <= 4; l++) {
+  // l up to 4, and the basal lines up to 00 6: a layered cell with a long c (c/a of 5–8, e.g. a
+  // rhombohedral double hydroxide) has its 003 weak and its 006 among the strong lines, and with
+  // l ≤ 4 no pair of strong lines seeded it (all l to 6 costs twice the time for no other gain)
+  for (let h = 0; h <= 2; h++) for (let k = 0; k <= h; k++) for (let l = 0; l <= (h === 0 ? 6 : 4); l++) {
     if (h === 0 && k === 0 && l === 0) continue;
     if (!latticeAllows(kind, h, k, l)) continue;
     triples.push([h, k, l]);
@@ -405,10 +421,12 @@ function quickQs(t: Trial, qMax: number): Float64Array {
       }
     }
   }
-  out.sort((x, y) => x - y);
-  const dedup: number[] = [];
-  for (const q of out) if (!dedup.length || q > dedup[dedup.length - 1] * (1 + 1e-9)) dedup.push(q);
-  return Float64Array.from(dedup);
+  // a typed array sorts numerically without a comparator (several times faster: this is the
+  // search's inner loop)
+  const sorted = Float64Array.from(out).sort();
+  let n = 0;
+  for (let i = 0; i < sorted.length; i++) if (n === 0 || sorted[i] > sorted[n - 1] * (1 + 1e-9)) sorted[n++] = sorted[i];
+  return sorted.subarray(0, n);
 }
 
 /** Whether a line of the sorted list lies within tolerance of an observed Q (2θ tolerance when a wavelength is known). */
@@ -441,6 +459,8 @@ interface Solution {
   strongExplained: number;
   intensityShare: number;
   volume: number;
+  /** The supercell this solution was reduced from (smallestCell), if any. */
+  from?: Trial;
 }
 
 /**
@@ -592,8 +612,96 @@ function evaluate(w: Work, trial: Trial, subset: Set<number> | null, opts: Requi
       if (w.strong.has(i)) strongExplained++;
     }
   });
-  const volume = t.kind === 'lamellar' ? t.c : t.kind.startsWith('hexagonal') ? ((Math.sqrt(3) / 2) * t.a * t.a * t.c) / (t.kind === 'hexagonal-R' ? 3 : 1) : (t.a * t.a * t.c) / (t.kind.endsWith('-I') ? 2 : t.kind.endsWith('-F') ? 4 : 1);
-  return { t, hkls, lines, asg: used, fom, cov, chi2, dof, strongExplained, intensityShare: total > 0 ? share / total : 0, volume };
+  return { t, hkls, lines, asg: used, fom, cov, chi2, dof, strongExplained, intensityShare: total > 0 ? share / total : 0, volume: volumeOf(t) };
+}
+
+/** Volume of a trial's primitive cell in nm³ (for lamellar, the period). */
+function volumeOf(t: Trial): number {
+  if (t.kind === 'lamellar') return t.c;
+  if (t.kind.startsWith('hexagonal')) return ((Math.sqrt(3) / 2) * t.a * t.a * t.c) / (t.kind === 'hexagonal-R' ? 3 : 1);
+  return (t.a * t.a * t.c) / (t.kind.endsWith('-I') ? 2 : t.kind.endsWith('-F') ? 4 : 1);
+}
+
+/**
+ * The smallest cell of a solution: a cell whose every indexed line is also a line of a sub-cell
+ * (c/2; a/2; a/√2 for tetragonal, a/√3 for hexagonal: the supercells whose extra lines all have
+ * indices of one parity or residue) is that sub-cell. The sub-cell predicts each indexed line at the
+ * very same Q, so it explains the same lines with the same residuals; only the supercell's extra
+ * lines, none of them observed, go. Left as a supercell, those lines cost it in F_N, yet they also
+ * let it call a broad peak beside one of them a blend of two lines (a peak's blend needs two
+ * calculated lines within its width) and so explain a line the true cell misses by a hair: de
+ * Wolff's trap of the supercell. Repeated until no sub-cell is left. The sub-cell evaluated afresh
+ * is taken when it explains as many strong lines; else the supercell's lines carried over (a blend
+ * keeps its status), the cell refined again on the same clean lines.
+ * @param w the work arrays
+ * @param s a solution
+ * @returns the solution on its smallest cell (or s itself)
+ * Reference: de Wolff, J. Appl. Cryst. 1, 108 (1968) (the smallest cell that explains the lines;
+ * M20 counts the calculated lines); Smith & Snyder, J. Appl. Cryst. 12, 60 (1979) (F_N likewise).
+ */
+function smallestCell(w: Work, s: Solution, subset: Set<number> | null, opts: Required<Pick<IndexOptions, 'searchToleranceDeg' | 'fitZeroShift'>>): Solution {
+  let cur = s;
+  for (let depth = 0; depth < 4; depth++) {
+    const t = cur.t;
+    const subs: Trial[] = [];
+    const fam = t.kind === 'lamellar' ? 'lamellar' : t.kind.split('-')[0];
+    const family: Record<string, { kinds: LatticeKind[]; aF: number[]; cF: number[] }> = {
+      lamellar: { kinds: ['lamellar'], aF: [1], cF: [1, 1 / 2] },
+      cubic: { kinds: ['cubic-P', 'cubic-I', 'cubic-F'], aF: [1, 1 / 2], cF: [1] },
+      tetragonal: { kinds: ['tetragonal-P', 'tetragonal-I'], aF: [1, Math.SQRT1_2, 1 / 2], cF: [1, 1 / 2] },
+      hexagonal: { kinds: ['hexagonal-P', 'hexagonal-R'], aF: [1, 1 / Math.sqrt(3), 1 / 2], cF: [1, 1 / 2, 1 / 3] },
+    };
+    const f = family[fam];
+    for (const kind of f.kinds) for (const af of f.aF) for (const cf of fam === 'cubic' ? [af] : f.cF) {
+      const sub: Trial = { ...t, kind, a: t.a * af, c: fam === 'cubic' ? t.a * af : t.c * cf };
+      if (volumeOf(sub) < volumeOf(t) * (1 - 1e-6)) subs.push(sub);
+    }
+    subs.sort((x, y) => volumeOf(x) - volumeOf(y));
+    let next: Solution | null = null;
+    for (const sub of subs) {
+      if (!(sub.c >= MIN_EDGE_NM) || (sub.kind !== 'lamellar' && !(sub.a >= MIN_EDGE_NM))) continue;
+      const lines = linesOf(w, sub);
+      if (lines.length === 0) continue;
+      const qs = lines.map((l) => l.q);
+      const lineAt = (q: number) => {
+        let lo = 0;
+        let hi = qs.length;
+        while (lo < hi) {
+          const mid = (lo + hi) >>> 1;
+          if (qs[mid] < q * (1 - 1e-9)) lo = mid + 1;
+          else hi = mid;
+        }
+        return lo < qs.length && Math.abs(qs[lo] / q - 1) <= 1e-9 ? lo : -1;
+      };
+      const asg = cur.asg.map((a) => (a ? { ...a, line: lineAt(cur.lines[a.line].q) } : null));
+      if (asg.some((a) => a !== null && a.line < 0)) continue;
+      const clean = asg.flatMap((a) => (a && !a.overlap ? [{ peak: a.peak, hkl: lines[a.line].hkl }] : []));
+      const zeroKept = cur.cov !== null && cur.cov.length > cellParameters(t.kind);
+      const r = cur.cov ? refine(w, sub, clean, zeroKept, false) : null;
+      if (cur.cov && !r) continue;
+      const t2 = r ? r.t : sub;
+      next = {
+        ...cur,
+        t: t2,
+        lines,
+        asg,
+        hkls: asg.flatMap((a) => (a ? [{ peak: a.peak, hkl: lines[a.line].hkl }] : [])),
+        fom: figureOfMerit(w, t2, lines, asg),
+        cov: r ? r.cov : null,
+        chi2: r ? r.chi2 : cur.chi2,
+        dof: r ? r.dof : cur.dof,
+        volume: volumeOf(t2),
+      };
+      // the sub-cell evaluated afresh, when it explains as many strong lines on its own (its
+      // assignments are then its own; weak lines it leaves were the supercell's by its extra lines)
+      const direct = evaluate(w, t2, subset, opts);
+      if (direct && direct.strongExplained >= next.strongExplained) next = direct;
+      break;
+    }
+    if (!next) return cur;
+    cur = { ...next, from: s.t };
+  }
+  return cur;
 }
 
 /**
@@ -606,15 +714,19 @@ function evaluate(w: Work, trial: Trial, subset: Set<number> | null, opts: Requi
  * Notes — the method:
  * - trial cells come from the strongest low-angle lines: for one-parameter lattices each line as
  *   each allowed low-index reflection, for two-parameter lattices each pair of lines as each pair
- *   of allowed reflections (h, k ≤ 3, l ≤ 6); only reflections the lattice's centring allows are
- *   used (ITC A integral conditions), so a solution never relies on a forbidden line;
+ *   of allowed reflections (h, k ≤ 2, l ≤ 4, and the basal 005, 006); only reflections the
+ *   lattice's centring allows are used (ITC A integral conditions), so a solution never relies on
+ *   a forbidden line;
  * - every trial is refined by least squares on 2θ with a zero-shift term (observed = calculated +
- *   Z), lines reassigned after each refinement;
+ *   Z), lines reassigned after each refinement, and reduced to its smallest cell (a supercell
+ *   whose indexed lines all belong to a sub-cell is that sub-cell);
  * - a phase must explain its strongest line and be consistent (F_N ≥ minFigureOfMerit); the
  *   solution preferred is the one that explains every strong line, and among those the one with
  *   the highest F_N — which favours the lattice with the fewest possible lines, i.e. the simplest
  *   that explains the pattern — then the smallest cell; when no single phase explains every
- *   strong line, the best phase is taken and a second one is sought among the lines it leaves;
+ *   strong line, the best phase is taken and a second one is sought among the lines it leaves
+ *   (pairs ranked by strong lines explained, then by lines explained less two per free cell
+ *   parameter);
  * - the cell's uncertainty is the refinement's (scaled by √χ²ᵣ when the lines scatter more than
  *   their σ) combined with the wavelength's relative uncertainty.
  * The lattices are those of centring only: glide and screw absences (e.g. the diamond structure's
@@ -659,6 +771,7 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
     strongOrder: [...strong].sort((a, b) => peaks[b].dNm - peaks[a].dNm),
     dMin: Math.min(...peaks.map((p) => p.dNm)),
     dMax: Math.max(...peaks.map((p) => p.dNm)),
+    first: peaks.reduce((b, p, i) => (p.dNm > peaks[b].dNm ? i : b), 0),
   };
   // enough strong lines to seed two-parameter cells: add the next strongest
   if (w.strongOrder.length < 6) {
@@ -713,6 +826,8 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
       return { peak: h.peak, hkl: h.hkl, dObsNm: dObs, dCalcNm: dCalc, deltaTwoThetaDeg: corrected !== null ? corrected - twoThetaOfQ(1 / (dCalc * dCalc), lambda!) : null };
     });
     lines.sort((x, y) => y.dCalcNm - x.dCalcNm);
+    const cellWords = (c: Trial) => (c.kind === 'lamellar' ? `c ${c.c.toPrecision(6)} nm` : cellParameters(c.kind) === 1 ? `a ${c.a.toPrecision(6)} nm` : `a ${c.a.toPrecision(6)} nm, c ${c.c.toPrecision(6)} nm`);
+    if (s.from) notes.push(`the ${LATTICE_WORDS[s.from.kind]} cell (${cellWords(s.from)}) indexes these lines only with indices its ${LATTICE_WORDS[t.kind]} sub-cell (${cellWords(t)}) also has: the sub-cell is taken (the smallest cell)`);
     const explained = new Set(s.hkls.map((h) => h.peak));
     return {
       kind: t.kind,
@@ -777,8 +892,9 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
       }
       quick.sort((a, b) => b.score - a.score);
       for (const q of quick.slice(0, 20)) {
-        const s = evaluate(w, q.t, subset, opts);
-        if (!s) continue;
+        const s0 = evaluate(w, q.t, subset, opts);
+        if (!s0) continue;
+        const s = smallestCell(w, s0, subset, opts);
         if (topHere >= 0 && !s.hkls.some((h) => h.peak === topHere)) continue; // a phase explains the strongest line it is offered
         const minLines = s.t.kind === 'lamellar' ? 2 : cellParameters(s.t.kind) + 2;
         if (s.hkls.length < minLines) continue;
@@ -914,7 +1030,12 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
         const both = new Set([...explained, ...(b ? b.hkls.map((h) => h.peak) : [])]);
         const strongDone = strongScope.filter((i) => both.has(i)).length;
         const gm = b ? Math.sqrt(a.fom.fN * b.fom.fN) : a.fom.fN / 4;
-        const key = [strongDone, both.size, gm];
+        // the simplest description: each free cell parameter must pay for itself with two lines
+        // explained (as above: more parameters must explain at least two more lines), so a clay's
+        // orders read as a tetragonal cell whose a catches two stray lines do not beat the lamellar
+        // stack that explains them with one parameter
+        const params = cellParameters(a.t.kind) + (b ? cellParameters(b.t.kind) : 0);
+        const key = [strongDone, both.size - 2 * params, gm];
         const better = !bestPair || key[0] > bestPair.key[0] || (key[0] === bestPair.key[0] && (key[1] > bestPair.key[1] || (key[1] === bestPair.key[1] && key[2] > bestPair.key[2])));
         if (better) bestPair = { a, b, key };
       }

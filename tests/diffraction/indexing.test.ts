@@ -184,7 +184,7 @@ describe('a mixture takes the smallest cell (de Wolff, J. Appl. Cryst. 1, 108, 1
     expect(Math.abs(hex.aNm / 0.3142 - 1)).toBeLessThan(5e-4);
     expect(Math.abs(tet.aNm / 0.4594 - 1)).toBeLessThan(5e-4);
     expect(Math.abs(tet.cNm / 0.2959 - 1)).toBeLessThan(5e-4);
-    expect(r.notes.join(' ')).toMatch(/c doubled .* the half cell .* is taken/);
+    expect(r.notes.join(' ')).toMatch(/the smallest cell/);
   });
 });
 
@@ -231,5 +231,57 @@ describe('an indexed cell takes every line at its worth', () => {
     const medianStated = [...stated].sort((a, b) => a - b)[stated.length >> 1];
     expect(medianStated).toBeGreaterThan(0.6 * sdBest);
     expect(medianStated).toBeLessThan(1.6 * sdBest);
+  });
+});
+
+/** Peaks as fitted on a drawn benchmark pattern: rows of 2θ, u(2θ), area, FWHM (Cu Kα1 + Kα2). */
+function fittedPeaks(rows: number[][]): IndexPeak[] {
+  return rows.map(([tt, u, area, fwhm]) => {
+    const th = (tt * Math.PI) / 360;
+    const d = CU1 / (2 * Math.sin(th));
+    return { dNm: d, dUncNm: (d / Math.tan(th)) * (u * Math.PI) / 360, twoThetaDeg: tt, twoThetaUncDeg: u, intensity: area, fwhmDeg: fwhm };
+  });
+}
+
+describe('the smallest cell that explains every strong line (de Wolff, J. Appl. Cryst. 1, 108, 1968)', () => {
+  test('a primitive tetragonal cell (a 0.626428, c 0.740545 nm; the benchmark\'s layered salt, from memory) is not taken with a·√2: the supercell\'s extra lines, none observed, made a broad blend of 400 and 322 look explained (synthetic benchmark case, seed 23, its fitted peaks)', () => {
+    const r = indexPattern(fittedPeaks([[11.9423, 0.0061, 23.72, 0.162], [14.1305, 0.0037, 45.78, 0.173], [18.538, 0.001, 260.4, 0.167], [20.0297, 0.0016, 148.5, 0.169], [23.3812, 0.0015, 142.1, 0.162], [24.0164, 0.0026, 61.34, 0.148], [27.9689, 0.0011, 308.8, 0.165], [28.4743, 0.0022, 91.94, 0.178], [30.9759, 0.0012, 247.7, 0.179], [31.4615, 0.0024, 102.2, 0.185], [31.9164, 0.0098, 16.47, 0.161], [34.1927, 0.0021, 102.8, 0.165], [36.3661, 0.0012, 266.8, 0.169], [37.5831, 0.0017, 141.5, 0.16], [39.1987, 0.0026, 89.41, 0.179], [40.3371, 0.002, 172.4, 0.174], [40.7066, 0.0022, 159.5, 0.173], [41.8557, 0.0039, 54.08, 0.176], [42.5708, 0.013, 16.02, 0.221], [43.2877, 0.012, 12.12, 0.174], [45.0744, 0.0015, 188, 0.165], [45.7617, 0.012, 15.48, 0.189], [46.8047, 0.016, 14.76, 0.211], [47.4745, 0.003, 145.6, 0.202], [47.8187, 0.0017, 277.2, 0.178], [49.1643, 0.0013, 280.2, 0.184], [50.1116, 0.0028, 93.36, 0.196], [51.4263, 0.0034, 54.47, 0.152], [52.3371, 0.0021, 274.9, 0.18], [52.644, 0.0028, 173.7, 0.178], [53.6078, 0.0016, 221.5, 0.175], [54.18, 0.0018, 199.8, 0.185], [55.7132, 0.0014, 274.2, 0.19], [57.7958, 0.011, 25.01, 0.186], [58.8883, 0.0054, 166.9, 0.352], [59.8122, 0.0039, 166, 0.207]]), { wavelengthNm: CU1 });
+    expect(r.phases.length).toBe(1);
+    const ph = r.phases[0];
+    expect(ph.kind).toBe('tetragonal-P');
+    expect(Math.abs(ph.aNm / 0.626428 - 1)).toBeLessThan(5e-4);
+    expect(Math.abs(ph.cNm / 0.740545 - 1)).toBeLessThan(5e-4);
+    // every line the supercell explained is explained by the small cell, the blend at 58.89° included
+    expect(ph.lines.length).toBe(36);
+  });
+});
+
+describe('trial cells of a layered lattice with a long c (pairs of strong lines as low-index reflections: Werner, Z. Kristallogr. 120, 375, 1964, from memory)', () => {
+  test('a rhombohedral double hydroxide (a 0.3046, c 2.2812 nm, from memory) whose 003 is weak is seeded from its strong 006 and 101 (synthetic benchmark case, seed 29, its fitted peaks)', () => {
+    const r = indexPattern(fittedPeaks([[11.6346, 0.011, 26.65, 0.281], [23.3782, 0.0018, 362.4, 0.341], [34.2001, 0.0057, 83.61, 0.358], [34.9011, 0.023, 22.5, 0.361], [35.3967, 0.019, 22.12, 0.349], [37.5461, 0.013, 20.57, 0.305], [39.4267, 0.0016, 490.1, 0.356], [44.1345, 0.0034, 158.2, 0.363], [46.873, 0.0065, 87.85, 0.401], [47.8149, 0.017, 24.86, 0.37], [53.01, 0.021, 21.83, 0.435], [56.3911, 0.0046, 129.8, 0.414], [60.7771, 0.0033, 245.1, 0.43], [62.1017, 0.0077, 83.4, 0.409], [63.6388, 0.013, 58.09, 0.506], [66.027, 0.0036, 233.1, 0.42], [67.5127, 0.0045, 164.8, 0.396]]), { wavelengthNm: CU1 });
+    expect(r.phases.map((p) => p.kind)).toEqual(['hexagonal-R']);
+    expect(Math.abs(r.phases[0].aNm / 0.3046 - 1)).toBeLessThan(5e-4);
+    expect(Math.abs(r.phases[0].cNm / 2.2812 - 1)).toBeLessThan(5e-4);
+  });
+});
+
+describe('a smectite (d001 1.50 nm, two water layers; from memory) beside a quartz-like hexagonal phase (a 0.4913, c 0.5405 nm, from memory) on a halo', () => {
+  test('its orders are a lamellar stack, not a tetragonal cell whose a catches two fragments of one split line: each free cell parameter pays with two lines (synthetic benchmark case, seed 1, its fitted peaks)', () => {
+    const r = indexPattern(fittedPeaks([[5.8874, 0.0043, 716.9, 0.901], [11.784, 0.024, 56.78, 0.743], [16.3871, 0.0011, 251.3, 0.16], [17.6982, 0.027, 78.29, 0.915], [20.0186, 0.033, 105.8, 1.173], [20.8555, 0.0069, 28.02, 0.159], [26.6383, 0.0096, 19.51, 0.184], [33.1226, 0.0018, 120.4, 0.166], [36.5517, 0.0022, 111.5, 0.166], [39.4692, 0.0014, 187.6, 0.16], [40.2921, 0.0029, 68.79, 0.163], [42.4548, 0.012, 16.04, 0.174], [45.803, 0.013, 4.737, 0.083], [50.1457, 0.004, 53.14, 0.198], [50.627, 0.0075, 17.15, 0.126], [54.8934, 0.0094, 6.747, 0.083], [55.2837, 0.006, 14.34, 0.083], [55.3637, 0.0072, 12.06, 0.083], [57.3441, 0.013, 4.745, 0.083], [59.9672, 0.0025, 106.2, 0.171], [64.0484, 0.005, 77.84, 0.231], [65.7923, 0.0042, 76.16, 0.199], [67.7673, 0.056, 16.6, 0.353], [68.2417, 0.0034, 210.5, 0.351], [69.5105, 0.0048, 50.46, 0.181]]), { wavelengthNm: CU1 });
+    expect(r.phases.map((p) => p.kind).sort()).toEqual(['hexagonal-P', 'lamellar']);
+    expect(Math.abs(r.phases.find((p) => p.kind === 'lamellar')!.cNm / 1.5 - 1)).toBeLessThan(5e-4);
+    const hex = r.phases.find((p) => p.kind === 'hexagonal-P')!;
+    expect(Math.abs(hex.aNm / 0.4913 - 1)).toBeLessThan(5e-4);
+    expect(Math.abs(hex.cNm / 0.5405 - 1)).toBeLessThan(5e-4);
+  });
+  test('a first order refined a little long keeps its line: the lines of a cell reach below the largest observed d by the first line\'s own budget (synthetic benchmark case, seed 9, its fitted peaks; its higher orders sit 0.04–0.10° low on the halo)', () => {
+    const r = indexPattern(fittedPeaks([[5.8928, 0.0044, 680.3, 0.887], [11.7497, 0.027, 50.59, 0.775], [16.4047, 0.011, 17.37, 0.186], [17.6513, 0.024, 54.69, 0.755], [20.0948, 0.036, 60.78, 0.942], [20.8614, 0.0015, 192.5, 0.168], [26.6441, 0.0099, 15.64, 0.179], [29.6522, 0.027, 13.47, 0.338], [33.1184, 0.0021, 101.8, 0.167], [36.5542, 0.0037, 67.16, 0.175], [39.466, 0.006, 31.25, 0.157], [40.3008, 0.003, 80.39, 0.201], [42.0877, 0.028, 7.626, 0.164], [42.4582, 0.0019, 170.4, 0.179], [45.8, 0.0025, 114.9, 0.189], [50.1433, 0.0018, 209.3, 0.176], [50.6253, 0.0016, 254.9, 0.183], [54.88, 0.0024, 157, 0.189], [55.295, 0.044, 21.05, 0.428], [57.2387, 0.003, 103.8, 0.199], [57.2389, 0.0031, 101.8, 0.198], [59.9621, 0.0036, 79.76, 0.182], [63.6015, 0.072, 19.75, 0.679], [65.8081, 0.05, 26.87, 0.74], [67.7535, 0.003, 126.5, 0.183], [68.3142, 0.0023, 233, 0.215]]), { wavelengthNm: CU1 });
+    const lam = r.phases.find((p) => p.kind === 'lamellar')!;
+    expect(lam).toBeDefined();
+    expect(lam.lines.some((l) => l.peak === 0 && l.hkl[2] === 1)).toBe(true);
+    // the first order read as such (another order's cell would be 25 % or more off); the higher
+    // orders' own misplacement (0.04–0.10° low) leaves the cell about 0.3 % long
+    expect(Math.abs(lam.cNm / 1.5 - 1)).toBeLessThan(5e-3);
+    expect(r.phases.some((p) => p.kind === 'hexagonal-P')).toBe(true);
   });
 });
