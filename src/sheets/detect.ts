@@ -885,7 +885,7 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
         const short = done.lengthPx < Math.max(minLengthPx, done.thicknessPx);
         if (bandOnShort && short) continue;
         pieces.push(piece);
-        if (evidence) unvotedStacks.push({ piece, imagePeriodPx, gainAt: evidence.gainAt, ownQ, leftAtP, recount: atFundamental });
+        if (evidence) unvotedStacks.push({ piece, imagePeriodPx, gainAt: evidence.gainAt, prefers: evidence.prefers, ownQ, leftAtP, recount: atFundamental });
         measured = true;
         coverage.add(pieces.length - 1, pieceFrame, offAt(pieceFrame.cumPx[Math.floor(pieceFrame.points.length / 2)]), done.thicknessPx / 2 + 0.5 * periodPx, (i) => screenAngleDeg(pieceFrame.normals[i][0], pieceFrame.normals[i][1]), short);
       }
@@ -936,9 +936,11 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
     let sharedMemo: number | null | undefined;
     const sharedQ = () => (sharedMemo === undefined ? (sharedMemo = pooledFundamental(group, minPeriodPx)) : sharedMemo);
     for (const st of group) {
-      if (!st.leftAtP) continue;
       const shared = sharedQ();
       if (shared === null) break;
+      // a stack its own fringes recounted at another fundamental takes the shared one only where
+      // that comb fits it better (two combs of as many parameters)
+      if (!st.leftAtP && !(st.ownQ !== null && Math.abs(st.ownQ - shared) > 0.05 * shared && st.prefers(shared, st.ownQ))) continue;
       if (st.ownQ !== null && Math.abs(st.ownQ - shared) <= 0.01 * shared) continue;
       // only counted again: a lattice at the shared fundamental leaves the stack at p, as it was
       const r = st.recount(shared);
@@ -1112,7 +1114,7 @@ function fundamentalOnOwnAxis(image: GreyImage, axisPx: [number, number][], fit:
  * refined (Δχ² of two fits with as many parameters; common practice); and its own strongest
  * fringes near p/2 ({@link ownFundamental}). The profile and the comb at p are made at the first call.
  */
-function fundamentalEvidence(image: GreyImage, axisPx: [number, number][], fit: CombFit, periodPx: number, polarity: 'dark' | 'bright', minPeriodPx: number): { gainAt: (q: number) => number; ownQ: () => number | null } {
+function fundamentalEvidence(image: GreyImage, axisPx: [number, number][], fit: CombFit, periodPx: number, polarity: 'dark' | 'bright', minPeriodPx: number): { gainAt: (q: number) => number; ownQ: () => number | null; prefers: (aPx: number, bPx: number) => boolean } {
   let made: { op: AcrossProfile; band: { fromPx: number; toPx: number } } | null = null;
   let atP: CombFit | null | undefined;
   const make = () => (made ??= ownAxisProfile(image, axisPx, fit, periodPx));
@@ -1129,6 +1131,16 @@ function fundamentalEvidence(image: GreyImage, axisPx: [number, number][], fit: 
     ownQ: () => {
       const m = make();
       return ownFundamental(m.op, m.band, periodPx, minPeriodPx);
+    },
+    prefers: (aPx: number, bPx: number) => {
+      const m = make();
+      const at = (q: number) => {
+        const f = fitLayerComb(m.op, q, m.band, { polarity, countReach: 3 });
+        return f && f.layers >= 4 ? refinePeriod(m.op, f, polarity, undefined).fit : f;
+      };
+      const a = at(aPx);
+      const b = at(bPx);
+      return !!a && (!b || a.rss < b.rss);
     },
   };
 }
@@ -1206,6 +1218,8 @@ interface UnvotedStack {
   ownQ: number | null;
   /** Whether it is still counted at p (its own fringes gave no fundamental). */
   leftAtP: boolean;
+  /** Whether its comb at the first period fits better than at the second (each refined; {@link fundamentalEvidence}). */
+  prefers: (aPx: number, bPx: number) => boolean;
   /** Its test at q and count there ({@link recountAtFundamental}). */
   recount: (q: number) => FundamentalOutcome;
 }
