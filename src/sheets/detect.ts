@@ -16,7 +16,8 @@
  *    period p is tested against the image's finer phase near p/2 on its own axis (a comb of
  *    every other layer), or, when the image has none there, against its own fringes near p/2
  *    (searched down to the countable limit; a fundamental found so must clear that limit and
- *    pass the lattice test).
+ *    pass the lattice test), and, once all are measured, against the fundamental the stacks
+ *    counted at p share (their comb's evidence at p/2 over p, summed).
  * 4. Layers are counted by fitting that comb on width-averaged profiles at several positions
  *    along the stack; the count is the most frequent one, and the share of positions that agree
  *    is its confidence. Mono- and bilayers are combs of one or two lines: found by their contrast.
@@ -661,6 +662,8 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
   const pieces: Piece[] = [];
   const rejected: RejectedBand[] = [];
   const coverage = new Coverage(4);
+  // stacks counted at a period with no phase of the image near its half, for the shared fundamental
+  const unvotedStacks: UnvotedStack[] = [];
   // candidates measured at the periods given (a function: run again after the periods are refined)
   // strongest bands first, so the stack is measured from its best candidate
   const measureCandidates = (tryPeriods: number[], earlier: Omit<AutoSheet, 'id'>[]): void => {
@@ -827,44 +830,36 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
         });
         // a comb of every other layer: on a candidate axis a little oblique to the layers, the
         // fine fringes wash out and a comb at twice the period fits the band; on the stack's own
-        // axis the fundamental is tested against it
-        // (the image's finer phase when its periodograms found one; otherwise the stack's own
-        // strongest fringes near p/2: a phase a harmonic of another outvoted in the periodograms)
+        // axis the fundamental is tested against it: the image's finer phase when its
+        // periodograms found one, here; otherwise (a phase outvoted by another's harmonics, or
+        // seen only at twice its period near the countable limit) the fundamental the stacks
+        // counted at this period share, once all are measured ({@link pooledFundamental})
         const finer = given === undefined && fit.layers >= 2 ? tryPeriods.find((q) => q >= minPeriodPx && Math.abs(q - periodPx / 2) <= 0.15 * (periodPx / 2)) : undefined;
         const unvoted = given === undefined && fit.layers >= 2 && finer === undefined && 1.15 * (periodPx / 2) >= minPeriodPx;
-        if (finer !== undefined || unvoted) {
-          const sub = fundamentalOnOwnAxis(image, axisPx, fit, periodPx, finer ?? null, polarity, minPeriodPx);
-          if (sub) {
-            // recounted along the stack's own axis (the fine fringes wash out along the candidate's)
-            const own = axisFrame(axisPx);
-            const shift = mean(counts.offsets);
-            const fit2: CombFit = { ...fit, layers: sub.fit.layers, periodPx: sub.periodPx, lineSigmaPx: sub.fit.lineSigmaPx, thicknessPx: sub.fit.layers * sub.periodPx, centerPx: 0, firstPx: -((sub.fit.layers - 1) * sub.periodPx) / 2 };
-            const k2 = Math.max(3, Math.min(9, Math.round((0.9 * own.lengthPx) / spacing)));
-            const seg2 = (0.9 * own.lengthPx) / k2;
-            const c2 = countAlong(image, own, fit2, sub.periodPx, [limit[0] - shift, limit[1] - shift], k2, polarity, minEvidence);
-            // the fundamental must itself be countable (found near the limit by this second look, it
-            // must clear it outright), and a comb of it no lattice
-            if (sub.periodPx < minPeriodPx) {
-              reject(`its own fundamental ${sub.periodPx.toFixed(2)} px is below ${minPeriodPx} px`, fit2, sub.periodPx);
-              continue;
-            }
-            if (fit2.layers >= 3 && periodicAlongAxis(image, own, sub.fit.centerPx, Math.max(1, 0.35 * fit2.thicknessPx), sub.periodPx, acrossFringePower(sub.profile, sub.fit))) {
-              reject('periodic along its axis as well at its own fundamental: a two-dimensional lattice, not a stack', fit2, sub.periodPx);
-              continue;
-            }
-            if (c2.counted.length >= Math.max(2, Math.ceil(k2 / 2))) {
-              fit = fit2;
-              periodPx = sub.periodPx;
-              uPeriod = sub.uPx;
-              periodSource = 'stack';
-              counts = c2;
-              pieceFrame = own;
-              offAt = offsetAlong(counts, own.lengthPx, seg2, minEvidence);
-              axisPx = own.points.map((q, i) => {
-                const o = offAt(own.cumPx[i]);
-                return [q[0] + o * own.normals[i][0], q[1] + o * own.normals[i][1]] as [number, number];
-              });
-            }
+        const atFundamental = (() => {
+          const axisNow = axisPx;
+          const fitNow = fit;
+          const periodNow = periodPx;
+          const offsetsNow = counts.offsets;
+          return (q: number) => recountAtFundamental(image, axisNow, fitNow, periodNow, q, [limit[0] - mean(offsetsNow), limit[1] - mean(offsetsNow)], polarity, minPeriodPx, spacing, minEvidence);
+        })();
+        const evidence = unvoted ? fundamentalEvidence(image, axisPx, fit, periodPx, polarity, minPeriodPx) : null;
+        const ownQ = evidence ? evidence.ownQ() : null;
+        const testAt = finer ?? ownQ;
+        let leftAtP = evidence !== null;
+        if (testAt !== null) {
+          const r = atFundamental(testAt);
+          if (r.kind === 'reject') {
+            reject(r.reason, r.fit, r.periodPx);
+            continue;
+          }
+          if (r.kind === 'recount') {
+            ({ fit, periodPx, counts, axisPx } = r);
+            uPeriod = r.uPx;
+            periodSource = 'stack';
+            pieceFrame = r.frame;
+            offAt = r.offAt;
+            leftAtP = false;
           }
         }
         // the candidate ridge of a thick band (40 px or more) may end well short of the stack's
@@ -890,6 +885,7 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
         const short = done.lengthPx < Math.max(minLengthPx, done.thicknessPx);
         if (bandOnShort && short) continue;
         pieces.push(piece);
+        if (evidence) unvotedStacks.push({ piece, imagePeriodPx, gainAt: evidence.gainAt, prefers: evidence.prefers, ownQ, leftAtP, recount: atFundamental });
         measured = true;
         coverage.add(pieces.length - 1, pieceFrame, offAt(pieceFrame.cumPx[Math.floor(pieceFrame.points.length / 2)]), done.thicknessPx / 2 + 0.5 * periodPx, (i) => screenAngleDeg(pieceFrame.normals[i][0], pieceFrame.normals[i][1]), short);
       }
@@ -931,6 +927,26 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
       for (const { m, sd } of refined) {
         for (const q of pieces) if (q.periodSource === 'image' && Math.abs(q.periodPx - m) < 1e-9) q.uPeriodPx = sd;
       }
+    }
+  }
+  // the stacks counted at a period p with no phase of the image near p/2, grouped by p: the
+  // fundamental their combs share (if any) is tested on each, as an image's finer phase is
+  for (const group of groupByPeriod(unvotedStacks)) {
+    // found only when a stack needs it (the search costs a comb fit per stack and step)
+    let sharedMemo: number | null | undefined;
+    const sharedQ = () => (sharedMemo === undefined ? (sharedMemo = pooledFundamental(group, minPeriodPx)) : sharedMemo);
+    for (const st of group) {
+      const shared = sharedQ();
+      if (shared === null) break;
+      // a stack its own fringes recounted at another fundamental takes the shared one only where
+      // that comb fits it better (two combs of as many parameters)
+      if (!st.leftAtP && !(st.ownQ !== null && Math.abs(st.ownQ - shared) > 0.05 * shared && st.prefers(shared, st.ownQ))) continue;
+      if (st.ownQ !== null && Math.abs(st.ownQ - shared) <= 0.01 * shared) continue;
+      // only counted again: a lattice at the shared fundamental leaves the stack at p, as it was
+      const r = st.recount(shared);
+      if (r.kind !== 'recount') continue;
+      const pc = st.piece;
+      Object.assign(pc, { axisPx: r.axisPx, periodPx: r.periodPx, uPeriodPx: r.uPx, periodSource: 'stack', fitLayers: r.fit.layers, counted: r.counts.counted, edges: r.counts.edge, positions: r.counts.positions });
     }
   }
   // after merging, a stack must be at least as long as the shortest stack asked for and as its
@@ -1057,36 +1073,32 @@ function offsetAlong(c: AlongCounts, L: number, seg: number, minEvidence: number
 /** Δχ² by which a comb at half the period must beat the comb at the period to replace it (likelihood ratio e⁶ ≈ 400 between two models of as many parameters). */
 export const FUNDAMENTAL_MIN_GAIN = 12;
 
+/** The profile across a stack along its own axis (the middle 90 % of its length), and the band its comb at p covers. */
+function ownAxisProfile(image: GreyImage, axisPx: [number, number][], fit: CombFit, periodPx: number): { op: AcrossProfile; band: { fromPx: number; toPx: number } } {
+  const own = axisFrame(axisPx);
+  const L = own.lengthPx;
+  const hw = fit.thicknessPx / 2 + Math.max(3 * periodPx, 8);
+  return { op: robustAcrossProfile(image, own, { fromPx: 0.05 * L, toPx: 0.95 * L, halfWidthPx: hw }), band: { fromPx: -fit.thicknessPx / 2, toPx: fit.thicknessPx / 2 } };
+}
+
 /**
- * Whether a stack counted at period p is a stack of about twice as many layers of the image's
- * finer phase q (q within 15 % of p/2; the comb at p then takes every other layer): on the
- * profile along the stack's own axis, combs at p and at q (counts free, each period refined on
- * the profile's fringes when it has four lines or more) are compared, and q is preferred when its
- * residual is lower by at least {@link FUNDAMENTAL_MIN_GAIN} noise variances.
+ * Whether a stack counted at period p is a stack of about twice as many layers at a finer
+ * period q near p/2 (the comb at p then takes every other layer): on the profile along the
+ * stack's own axis, combs at p and at q (counts free, each period refined on the profile's
+ * fringes when it has four lines or more) are compared, and q is preferred when its residual is
+ * lower by at least {@link FUNDAMENTAL_MIN_GAIN} noise variances.
  * Model choice by the likelihood ratio of two least-squares fits with as many parameters (Δχ², common practice).
  *
  * @param image the image
  * @param axisPx the stack's own axis (the candidate's shifted to the measured centres), px
  * @param fit the comb at p (its thickness sets the band)
  * @param periodPx p, px
- * @param finerPx q, px, or null to look for it on the stack's own profile
+ * @param finerPx q, px: the image's finer phase, or the fundamental the stacks at p share
  * @param polarity the layers' polarity
- * @param minPeriodPx the smallest period counted, px
  * @returns the comb at the fundamental with its refined period and uncertainty and the profile it was fitted on, or null to keep p
- * Notes: q is a phase the image's periodograms found, or, given null, the stack's own fringes
- * near p/2 ({@link ownFundamental}); with the Δχ² test this keeps a lone stack at low dose from
- * being halved on its noise.
  */
-function fundamentalOnOwnAxis(image: GreyImage, axisPx: [number, number][], fit: CombFit, periodPx: number, finerPx: number | null, polarity: 'dark' | 'bright', minPeriodPx: number): { fit: CombFit; periodPx: number; uPx: number; profile: AcrossProfile } | null {
-  const own = axisFrame(axisPx);
-  const L = own.lengthPx;
-  const hw = fit.thicknessPx / 2 + Math.max(3 * periodPx, 8);
-  const op = robustAcrossProfile(image, own, { fromPx: 0.05 * L, toPx: 0.95 * L, halfWidthPx: hw });
-  const band = { fromPx: -fit.thicknessPx / 2, toPx: fit.thicknessPx / 2 };
-  if (finerPx === null) {
-    finerPx = ownFundamental(op, band, periodPx, minPeriodPx);
-    if (finerPx === null) return null;
-  }
+function fundamentalOnOwnAxis(image: GreyImage, axisPx: [number, number][], fit: CombFit, periodPx: number, finerPx: number, polarity: 'dark' | 'bright'): { fit: CombFit; periodPx: number; uPx: number; profile: AcrossProfile } | null {
+  const { op, band } = ownAxisProfile(image, axisPx, fit, periodPx);
   const atP = fitLayerComb(op, periodPx, band, { polarity, countReach: 2 });
   const atHalf0 = fitLayerComb(op, finerPx, band, { polarity, countReach: 3 });
   if (!atP || !atHalf0) return null;
@@ -1094,6 +1106,43 @@ function fundamentalOnOwnAxis(image: GreyImage, axisPx: [number, number][], fit:
   const p = refined(atP);
   const h = refined(atHalf0);
   return (p.fit.rss - h.fit.rss) / h.fit.noiseVar >= FUNDAMENTAL_MIN_GAIN ? { ...h, profile: op } : null;
+}
+
+/**
+ * A stack's evidence for a finer period q over its comb at p, as a function of q: on the profile
+ * along its own axis, (rss at p − rss at q) / the noise variance at q, counts free, periods not
+ * refined (Δχ² of two fits with as many parameters; common practice); and its own strongest
+ * fringes near p/2 ({@link ownFundamental}). The profile and the comb at p are made at the first call.
+ */
+function fundamentalEvidence(image: GreyImage, axisPx: [number, number][], fit: CombFit, periodPx: number, polarity: 'dark' | 'bright', minPeriodPx: number): { gainAt: (q: number) => number; ownQ: () => number | null; prefers: (aPx: number, bPx: number) => boolean } {
+  let made: { op: AcrossProfile; band: { fromPx: number; toPx: number } } | null = null;
+  let atP: CombFit | null | undefined;
+  const make = () => (made ??= ownAxisProfile(image, axisPx, fit, periodPx));
+  return {
+    gainAt: (q: number) => {
+      const m = make();
+      if (atP === undefined) atP = fitLayerComb(m.op, periodPx, m.band, { polarity, countReach: 2 });
+      if (!atP) return 0;
+      // the line width scaled from p's comb and the counts next to the band's own only: a cheap
+      // lower bound of the free fit, enough to find where the stacks' evidence peaks
+      const f = fitLayerComb(m.op, q, m.band, { polarity, countReach: 1, lineSigmasPx: [Math.max(0.45, (atP.lineSigmaPx * q) / periodPx)] });
+      return f ? (atP.rss - f.rss) / f.noiseVar : 0;
+    },
+    ownQ: () => {
+      const m = make();
+      return ownFundamental(m.op, m.band, periodPx, minPeriodPx);
+    },
+    prefers: (aPx: number, bPx: number) => {
+      const m = make();
+      const at = (q: number) => {
+        const f = fitLayerComb(m.op, q, m.band, { polarity, countReach: 3 });
+        return f && f.layers >= 4 ? refinePeriod(m.op, f, polarity, undefined).fit : f;
+      };
+      const a = at(aPx);
+      const b = at(bPx);
+      return !!a && (!b || a.rss < b.rss);
+    },
+  };
 }
 
 /**
@@ -1121,6 +1170,104 @@ function ownFundamental(op: AcrossProfile, band: { fromPx: number; toPx: number 
   const m = rows.reduce((b, r, i) => (r.pw > rows[b].pw ? i : b), 0);
   if (m === 0 || m === rows.length - 1) return null;
   return rows[m].pw >= 0.25 * fringePowerAt(op, band, periodPx) ? rows[m].q : null;
+}
+
+
+/** What the test of a fundamental does to a stack: nothing, refuses it, or counts it again at the fundamental on its own axis. */
+type FundamentalOutcome =
+  | { kind: 'keep' }
+  | { kind: 'reject'; reason: string; fit: CombFit; periodPx: number }
+  | { kind: 'recount'; fit: CombFit; periodPx: number; uPx: number; counts: AlongCounts; frame: AxisFrame; offAt: (s: number) => number; axisPx: [number, number][] };
+
+/**
+ * A stack counted at p tested at a finer period q near p/2 ({@link fundamentalOnOwnAxis}) and,
+ * when q wins, counted again at q along its own axis (the fine fringes wash out along the
+ * candidate's). The fundamental must itself be countable (at least `minPeriodPx` once refined)
+ * and a comb of it no lattice (not periodic along the axis), else the stack is refused; it is
+ * kept at p when fewer than half its positions see the comb at q.
+ */
+function recountAtFundamental(image: GreyImage, axisPx: [number, number][], fit: CombFit, periodPx: number, finerPx: number, limit: [number, number], polarity: 'dark' | 'bright', minPeriodPx: number, spacing: number, minEvidence: number): FundamentalOutcome {
+  const sub = fundamentalOnOwnAxis(image, axisPx, fit, periodPx, finerPx, polarity);
+  if (!sub) return { kind: 'keep' };
+  const own = axisFrame(axisPx);
+  const fit2: CombFit = { ...fit, layers: sub.fit.layers, periodPx: sub.periodPx, lineSigmaPx: sub.fit.lineSigmaPx, thicknessPx: sub.fit.layers * sub.periodPx, centerPx: 0, firstPx: -((sub.fit.layers - 1) * sub.periodPx) / 2 };
+  if (sub.periodPx < minPeriodPx) return { kind: 'reject', reason: `its own fundamental ${sub.periodPx.toFixed(2)} px is below ${minPeriodPx} px`, fit: fit2, periodPx: sub.periodPx };
+  if (fit2.layers >= 3 && periodicAlongAxis(image, own, sub.fit.centerPx, Math.max(1, 0.35 * fit2.thicknessPx), sub.periodPx, acrossFringePower(sub.profile, sub.fit))) {
+    return { kind: 'reject', reason: 'periodic along its axis as well at its own fundamental: a two-dimensional lattice, not a stack', fit: fit2, periodPx: sub.periodPx };
+  }
+  const k2 = Math.max(3, Math.min(9, Math.round((0.9 * own.lengthPx) / spacing)));
+  const seg2 = (0.9 * own.lengthPx) / k2;
+  const c2 = countAlong(image, own, fit2, sub.periodPx, limit, k2, polarity, minEvidence);
+  if (c2.counted.length < Math.max(2, Math.ceil(k2 / 2))) return { kind: 'keep' };
+  const offAt = offsetAlong(c2, own.lengthPx, seg2, minEvidence);
+  const moved = own.points.map((q, i) => {
+    const o = offAt(own.cumPx[i]);
+    return [q[0] + o * own.normals[i][0], q[1] + o * own.normals[i][1]] as [number, number];
+  });
+  return { kind: 'recount', fit: fit2, periodPx: sub.periodPx, uPx: sub.uPx, counts: c2, frame: own, offAt, axisPx: moved };
+}
+
+/** A stack counted at a period with no phase of the image near its half, kept for the test of a shared fundamental. */
+interface UnvotedStack {
+  piece: Piece;
+  /** The image's period it was counted from (before its own refinement), px. */
+  imagePeriodPx: number;
+  /** Its Δχ² for a comb at q over its comb at p ({@link fundamentalEvidence}). */
+  gainAt: (q: number) => number;
+  /** Its own strongest fringes near p/2, px, already tested (null: none). */
+  ownQ: number | null;
+  /** Whether it is still counted at p (its own fringes gave no fundamental). */
+  leftAtP: boolean;
+  /** Whether its comb at the first period fits better than at the second (each refined; {@link fundamentalEvidence}). */
+  prefers: (aPx: number, bPx: number) => boolean;
+  /** Its test at q and count there ({@link recountAtFundamental}). */
+  recount: (q: number) => FundamentalOutcome;
+}
+
+/** Stacks whose image periods lie within 4 % of each other (one phase read from two passes). */
+function groupByPeriod(stacks: UnvotedStack[]): UnvotedStack[][] {
+  const sorted = [...stacks].sort((a, b) => a.imagePeriodPx - b.imagePeriodPx);
+  const groups: UnvotedStack[][] = [];
+  for (const st of sorted) {
+    const g = groups[groups.length - 1];
+    if (g && st.imagePeriodPx - g[0].imagePeriodPx <= 0.04 * g[0].imagePeriodPx) g.push(st);
+    else groups.push([st]);
+  }
+  return groups;
+}
+
+/**
+ * The fundamental the stacks counted at one period p share, when the image's periodograms show
+ * none near p/2 (near the countable limit a blurred stack's fine fringes keep a tenth of their
+ * contrast, and the band's shape leaks more power near p than its fringes give near p/2; or
+ * another phase's harmonics outvote it): each stack's evidence for a comb at q over its comb at p
+ * ({@link fundamentalEvidence}), summed over the stacks, at q = p/2 · (0.85 … 1.15) in 1 % steps
+ * (q ≥ the smallest countable period). Its maximum is the shared fundamental when it lies inside
+ * the range, reaches {@link FUNDAMENTAL_MIN_GAIN}, and more than half of the stacks (two at
+ * least) fit the comb at q better than at p: the stacks of a coarse phase fit no comb at q better
+ * (each gives a few noise variances below zero at every q), so one odd stack does not make it.
+ * Pooled evidence of independent fits for one shared parameter (summed log-likelihood ratios over
+ * a grid of the parameter; common practice).
+ *
+ * @param group the stacks counted at one period
+ * @param minPeriodPx the smallest period counted, px
+ * @returns the shared fundamental, px, or null when there is none
+ */
+function pooledFundamental(group: UnvotedStack[], minPeriodPx: number): number | null {
+  const p = median(group.map((g) => g.imagePeriodPx));
+  const qs: number[] = [];
+  for (let k = -15; k <= 15; k++) if ((p / 2) * (1 + 0.01 * k) >= minPeriodPx) qs.push((p / 2) * (1 + 0.01 * k));
+  // a maximum inside the range needs three steps at least
+  if (qs.length < 3) return null;
+  const rows = qs.map((q) => {
+    const gains = group.map((g) => g.gainAt(q));
+    return { q, gains, sum: gains.reduce((a, b) => a + b, 0) };
+  });
+  const m = rows.reduce((b, r, i) => (r.sum > rows[b].sum ? i : b), 0);
+  if (m === 0 || m === rows.length - 1 || rows[m].sum < FUNDAMENTAL_MIN_GAIN) return null;
+  // shared: more than half of the stacks fit the comb at q better than at p
+  const showing = rows[m].gains.filter((g) => g > 0).length;
+  return showing >= 2 && showing > group.length / 2 ? rows[m].q : null;
 }
 
 /** Stretch of axis tried at a time beyond an end, px. */

@@ -267,6 +267,33 @@ describe('detectSheets', () => {
       expect(foundStack(o, res, cx, cy, layers).sheet.periodPx).toBeGreaterThanOrEqual(MIN_COUNTABLE_PERIOD_PX);
     }
   });
+  it('counts at their shared fundamental the stacks its own fringes do not show, from the evidence of all stacks at twice it (dense, 2.79 px)', () => {
+    // dense field at 2.79 px, blur 0.97 px (synthetic truth, testing/synthetic/overviews.ts): the
+    // periodograms give 5.67 px only, and the fringe power of several stacks near 2.84 px peaks at
+    // the edge of the range searched or is below a quarter of that at 5.67 px (the band's shape
+    // dominates a blurred stack's spectrum), so they were counted at about twice their period:
+    // 4 read 2, 9 read 4, 7 read 4, 8 read 4, and a 9-layer stack's own fringes gave 3.13 px (8
+    // layers); the comb at p/2 beats the comb at p on most of the image's stacks near 2.8 px, and
+    // each of these, tested there on its own, now reads its count
+    const o = generateOverview('dense', 36);
+    const res = detectSheets(o.image);
+    for (const [cx, cy, layers] of [[446, 180, 4], [341, 420, 9], [146, 361, 7], [545, 494, 8], [142, 493, 9]]) {
+      expect(Math.abs(foundStack(o, res, cx, cy, layers).sheet.periodPx - 2.79)).toBeLessThan(0.1);
+    }
+    expect(scoreOverview(o.truth.stacks, res.sheets).spurious).toBeLessThanOrEqual(1);
+  });
+  it('counts a blurred fine phase outvoted by the coarse one at the fundamental its stacks share (two periods, 2.88 and 5.99 px)', () => {
+    // two 7-layer stacks at 2.88 px (blur 0.97 px: a tenth of their fringes' contrast) read 3 at
+    // 6.39 px; two other stacks of the phase found their own fundamental near 2.8 px, and the
+    // shared one counts these two too; the coarse stacks keep their counts
+    const o = generateOverview('two-periods', 35);
+    const res = detectSheets(o.image);
+    for (const [cx, cy] of [[173, 114], [286, 415]]) foundStack(o, res, cx, cy, 7);
+    const sc = scoreOverview(o.truth.stacks, res.sheets);
+    o.truth.stacks.forEach((t, i) => {
+      if (t.periodPx > 5 && sc.matchOf[i] >= 0) expect(res.sheets[sc.matchOf[i]].layers, `stack ${i}`).toBe(t.layers);
+    });
+  });
   it('never reports layers finer than the countable 2.5 px, nor passes them to a batch summary', async () => {
     // stacks of 2.1 px layers: resolvable in principle (above the 2 px sampling limit) but not
     // countable; the issue's "0.154 nm sheet" came from such fine lattice fringes (common practice:
