@@ -10,6 +10,7 @@ import { listBatchFiles, listBatches } from '../src/store/batches';
 import { listMeasurements, putDiffractionSet, type LibraryDb } from '../src/store/library';
 import { dToTwoTheta, parseWavelength, XRAY_LINES } from '../src/diffraction/bragg';
 import { parsePattern, parsePeakList, type ManualPeak, type Pattern, type PeakListUnit } from '../src/diffraction/pattern';
+import { fittedLineLabels } from '../src/diffraction/line-labels';
 import { reconcile, type DiffractionLine, type MicrographPeriod, type Reconciliation } from '../src/diffraction/reconcile';
 import { indexSeries, type IndexedSeries } from '../src/diffraction/series';
 import { pm, sig } from '../src/diffraction/format';
@@ -367,13 +368,9 @@ export class StrataDiffractionPanel extends LitElement {
   /** Diffraction lines from the fit or the typed list, with series labels. */
   private lines(): { lines: DiffractionLine[]; series: IndexedSeries[] } {
     if (this.analysis) {
-      const label = new Map<number, string>();
-      for (const s of this.analysis.series) for (const m of s.members) label.set(m.peak, s.kind === 'lamellar' ? m.index : `${s.kind} ${m.index}`);
-      // as the peak table writes them: "0 0 1", or "2: 0 0 1" (phase 2) when several phases are indexed
-      const phases = this.analysis.indexing.phases;
-      phases.forEach((ph, j) => { for (const l of ph.lines) if (!label.has(l.peak)) label.set(l.peak, `${phases.length > 1 ? `${j + 1}: ` : ''}${l.hkl.join(' ')}`); });
+      const labels = fittedLineLabels(this.analysis);
       return {
-        lines: this.analysis.peaks.map((p, i) => ({ dNm: p.dCorrectedNm, dUncNm: p.budget.combinedNm, label: label.get(i) ?? `d ${sig(p.dNm, 5)}`, crystalliteNm: p.crystalliteNm, intensity: p.intensity })),
+        lines: this.analysis.peaks.map((p, i) => ({ dNm: p.dCorrectedNm, dUncNm: p.budget.combinedNm, label: labels[i]!, crystalliteNm: p.crystalliteNm, intensity: p.intensity })),
         series: this.analysis.series,
       };
     }

@@ -11,6 +11,7 @@ import { pm, sig, tidy, tidyU } from '../diffraction/format';
 import { loadAndAnalyse } from './xrd';
 import { CifError, parseCif, powderReflections } from '../diffraction/cif';
 import { ReportError, readMeasurementReport } from '../diffraction/measurement-report';
+import { fittedLineLabels } from '../diffraction/line-labels';
 import { reconcile, type DiffractionLine, type MicrographPeriod, type SheetStats } from '../diffraction/reconcile';
 import { spacedHkl, spacedLineLabel } from '../figure/reflection-index';
 import { sizedLines } from '../sheets/xrd-compare';
@@ -129,17 +130,12 @@ export const command: CliCommand = {
         else sheets = l.sheets;
       }
     }
-    const seriesLabel = new Map<number, string>();
     const series = analysis?.series ?? [];
-    for (const s of series) for (const m of s.members) seriesLabel.set(m.peak, s.kind === 'lamellar' ? m.index : `${s.kind} ${m.index}`);
-    const hklOf = new Map<number, string>();
-    // an indexed line names its phase when several are indexed ('2: 0 0 1'), as xrd's peak table and the app do
-    const phases = analysis?.indexing.phases ?? [];
-    phases.forEach((ph, j) => { for (const l of ph.lines) if (!hklOf.has(l.peak)) hklOf.set(l.peak, `${phases.length > 1 ? `${j + 1}: ` : ''}${spacedHkl(l.hkl)}`); });
+    const labels = analysis ? fittedLineLabels(analysis) : [];
     const lines: DiffractionLine[] = (analysis?.peaks ?? []).map((p, i) => ({
       dNm: p.dCorrectedNm,
       dUncNm: p.budget.combinedNm,
-      label: seriesLabel.get(i) ?? hklOf.get(i) ?? (p.twoThetaDeg !== null ? `peak ${sig(p.twoThetaDeg, 5)}°` : `peak q ${sig(p.qInvNm, 5)}`),
+      label: labels[i]!,
       phase: basename(patternPath!),
       crystalliteNm: p.crystalliteNm,
       intensity: p.intensity,

@@ -240,7 +240,7 @@ export function reconcile(micrograph: MicrographSide, diffraction: DiffractionSi
   // thickness against the crystallite size of 00l lines
   let thickness: Reconciliation['thickness'] = null;
   const lam = (diffraction.series ?? []).find((s) => s.kind === 'lamellar');
-  const basal = diffraction.lines.filter((l) => l.crystalliteNm && l.crystalliteNm > 0 && (/^00\d+$/.test(l.label) || (lam && lam.members.some((m) => Math.abs(m.dNm - l.dNm) < 1e-9))));
+  const basal = diffraction.lines.filter((l) => l.crystalliteNm && l.crystalliteNm > 0 && (/^(?:\d+: )?0 ?0 ?\d+$/.test(l.label) || (lam && lam.members.some((m) => Math.abs(m.dNm - l.dNm) < 1e-9))));
   const pooled = diffraction.basalSize ?? null;
   if (micrograph.sheets && micrograph.sheets.n > 0 && (pooled || basal.length > 0)) {
     const size = pooled ? pooled.sizeNm : basal.reduce((a, l) => a + l.crystalliteNm!, 0) / basal.length;

@@ -72,13 +72,13 @@ describe('stratameter reconcile', () => {
     expect(await main(['reconcile', '--pattern', FIXTURE, m, s, '--json'], c.io)).toBe(0);
     const j = JSON.parse(c.out.join(''));
     expect(j.periods).toHaveLength(4);
-    expect(j.best[0].label).toBe('001');
+    expect(j.best[0].label).toBe('0 0 1');
     // the 110 line with the zero shift measured on the indexed lines removed: near the published 4.4295 Å (SOURCES.md §2)
     expect(j.best[1].dNm).toBeCloseTo(0.44295, 3);
     expect(j.best[1].label).toBe('1 1 0');
     expect(j.best[2]).toBeNull();
     expect(j.unmatchedPeriods[0].periodNm).toBe(2);
-    expect(j.best[3].label).toBe('001');
+    expect(j.best[3].label).toBe('0 0 1');
     expect(j.thickness.layersFromSheets).toBeCloseTo(8.15 / 0.7398, 1);
     const t = capture();
     expect(await main(['reconcile', '--pattern', FIXTURE, m], t.io)).toBe(0);
