@@ -73,6 +73,7 @@ export class StrataDiffractionPanel extends LitElement {
     css`
       table { border-collapse: collapse; width: 100%; font-variant-numeric: tabular-nums; }
       th, td { padding: 2px 4px; text-align: right; border-bottom: 1px solid var(--line); }
+      td.nowrap { white-space: nowrap; }
       th:first-child, td:first-child { text-align: left; }
       textarea { width: 100%; box-sizing: border-box; font: inherit; color: var(--text); background: #212b35; border: 1px solid var(--line); }
       /* a long option (a standard with its certified cell) must not push the column wider than the screen */
@@ -623,7 +624,7 @@ export class StrataDiffractionPanel extends LitElement {
           ${rec.best.map((b, i) => {
             const p = valid[i];
             if (!b) return html`<tr><td>${u(p.periodNm, p.uncertaintyNm)}</td><td>—</td><td></td><td></td><td></td></tr>`;
-            return html`<tr><td>${u(p.periodNm, p.uncertaintyNm)}</td><td>${spacedLineLabel(b.label)}</td><td>${u(b.dNm, b.dUncNm)}</td><td>${(100 * b.relDiff).toFixed(2)} %</td><td class=${Math.abs(b.z) <= 2 ? 'good' : 'warn'}>${b.z.toFixed(2)}</td></tr>`;
+            return html`<tr><td>${u(p.periodNm, p.uncertaintyNm)}</td><td class="nowrap">${spacedLineLabel(b.label)}</td><td>${u(b.dNm, b.dUncNm)}</td><td>${(100 * b.relDiff).toFixed(2)} %</td><td class=${Math.abs(b.z) <= 2 ? 'good' : 'warn'}>${b.z.toFixed(2)}</td></tr>`;
           })}
         </table>
         <p class="muted budget-note">± is U = k·u with k = ${k}. Period: ${same ? contents[0] : contents.map((c, i) => `row ${i + 1} ${c}`).join('; ')}. d: ${dWords}. z = (period − d) / √(u²period + u²d), standard uncertainties (k = 1).</p>
