@@ -79,11 +79,43 @@ export interface SheetsReport {
   stats: { n: number; unit: 'nm' | 'px'; thickness: StatBlock | null; thicknessNm: StatBlock | null; layers: StatBlock | null; layerCounts: [number, number][] };
   /** The layer periods used, px. */
   periodsPx: number[];
-  /** Bands examined and not reported, by reason (automatic search). */
+  /** Bands examined and not reported, by reason (automatic search); a reason's numbers are written '#'. */
   rejected: Record<string, number>;
+  /** The same, one readable line per reason: its count and the range of each of its numbers ("2 × too faint: evidence 4.1–9.8 below 12"). */
+  rejectedSummary: string[];
   /** 'no stacks found' (or why) when there are none, else null. */
   message: string | null;
   xrd: ScherrerComparison | null;
+}
+
+/**
+ * Groups reasons that differ only in their numbers and writes each group once with its count and
+ * the range of each number: "2 × too faint: evidence 4.1–9.8 below 12".
+ *
+ * @param reasons - the reasons of the bands not reported, in the search's order
+ * @returns one line per group, in the order each group first appears
+ */
+export function summariseReasons(reasons: readonly string[]): string[] {
+  const groups = new Map<string, string[][]>();
+  for (const r of reasons) {
+    const key = r.replace(/[0-9.]+/g, '#');
+    const numbers = r.match(/[0-9.]+/g) ?? [];
+    const g = groups.get(key);
+    if (g) g.push(numbers);
+    else groups.set(key, [numbers]);
+  }
+  return [...groups].map(([key, members]) => {
+    let slot = 0;
+    const text = key.replace(/#/g, () => {
+      const values = members.map((m) => m[slot]!);
+      slot++;
+      const byValue = [...values].sort((a, b) => Number(a) - Number(b));
+      const lo = byValue[0]!;
+      const hi = byValue[byValue.length - 1]!;
+      return Number(lo) === Number(hi) || Number.isNaN(Number(lo)) || Number.isNaN(Number(hi)) ? lo : `${lo}–${hi}`;
+    });
+    return `${members.length} × ${text}`;
+  });
 }
 
 function statBlock(s: Summary | null): StatBlock | null {
@@ -190,6 +222,7 @@ export async function sheetsReport(
   let sheets: SheetReport[];
   let periodsPx: number[] = [];
   let rejected: Record<string, number> = {};
+  const rejectedReasons: string[] = [];
   let message: string | null = null;
   if (opts.line) {
     const { x0, y0, x1, y1, widthPx } = opts.line;
@@ -212,6 +245,7 @@ export async function sheetsReport(
     for (const q of result.rejected) {
       const key = q.reason.replace(/[0-9.]+/g, '#');
       rejected[key] = (rejected[key] ?? 0) + 1;
+      rejectedReasons.push(q.reason);
     }
     message = result.message;
   }
@@ -244,6 +278,7 @@ export async function sheetsReport(
       stats: { n: stats.n, unit: stats.unit, thickness: statBlock(stats.thickness), thicknessNm: stats.unit === 'nm' ? statBlock(stats.thickness) : null, layers: statBlock(stats.layers), layerCounts: stats.layerCounts },
       periodsPx,
       rejected,
+      rejectedSummary: summariseReasons(rejectedReasons),
       message,
       xrd,
     },
@@ -294,8 +329,7 @@ export function formatSheets(r: SheetsReport, notes: string[]): string {
       lines.push(`thickness    mean ${t.mean.toFixed(2)} ${r.stats.unit}, sd ${t.sd.toFixed(2)}, median ${t.median.toFixed(2)} (quartiles ${t.q1.toFixed(2)}–${t.q3.toFixed(2)})${ci}`);
     }
   }
-  const rej = Object.entries(r.rejected);
-  if (rej.length) lines.push(`not reported ${rej.map(([k, n]) => `${n} × ${k}`).join('; ')}`);
+  if (r.rejectedSummary.length) lines.push(`not reported ${r.rejectedSummary.join('; ')}`);
   if (r.xrd) {
     lines.push('');
     lines.push(`X-ray        ${r.xrd.statement}`);

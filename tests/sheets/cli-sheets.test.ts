@@ -3,6 +3,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { main } from '../../src/cli/main';
+import { summariseReasons } from '../../src/cli/sheets';
 import { encodeTiff } from '../../testing/encode-tiff';
 import { syntheticImage } from '../../testing/synthetic/stacks';
 
@@ -65,4 +66,21 @@ describe('stratameter sheets', () => {
     expect(await main(['sheets', file, '--nm-per-px', '0.125', '--columns', '1,2'], bad.io)).toBe(2);
     expect(bad.err.join('')).toMatch(/--columns belongs to --xrd PATTERN/);
   }, 120000);
+});
+
+describe('summariseReasons', () => {
+  // a reason is printed with its numbers (a '#' in their place told the user nothing); common practice
+  it('writes each kind of reason once, with its count and the range of each of its numbers', () => {
+    expect(summariseReasons([
+      'too faint: evidence 8.1 below 12',
+      '56 px long: shorter than 60 px',
+      'too faint: evidence 4.1 below 12',
+      'a two-dimensional lattice, not a stack.',
+    ])).toEqual([
+      '2 × too faint: evidence 4.1–8.1 below 12',
+      '1 × 56 px long: shorter than 60 px',
+      '1 × a two-dimensional lattice, not a stack.',
+    ]);
+    expect(summariseReasons([])).toEqual([]);
+  });
 });
