@@ -169,6 +169,7 @@ function sizeJson(ps: PhaseSize | null) {
     leftOutTwoThetaDeg: ps.leftOutTwoThetaDeg,
     reducedChi2: tidy(ps.reducedChi2, null, 3),
     linesDisagree: ps.linesDisagree,
+    instrumentRemoved: ps.instrumentRemoved,
     uncertaintyContains: ps.statement,
   };
 }

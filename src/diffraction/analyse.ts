@@ -192,7 +192,7 @@ export function analysePattern(pattern: Pattern, options: AnalyseOptions = {}): 
       if (q.kind !== 'peak' || q.crystalliteNm === null || q.twoThetaDeg === null || b === null) return [];
       return [{ twoThetaDeg: q.twoThetaDeg, ...b }];
     });
-    const r = phaseCrystalliteSize(pts, lambda, { k });
+    const r = phaseCrystalliteSize(pts, lambda, { k, instrumentRemoved: profile !== null || typeof inst === 'function' || inst > 0 });
     if (r?.leftOutTwoThetaDeg != null) warnings.add(`phase ${j + 1}: the line at ${r.leftOutTwoThetaDeg.toFixed(3)}° is far broader or narrower than the phase's other lines (a blend or another phase?) and is left out of the phase's size`);
     if (r?.linesDisagree) warnings.add(`phase ${j + 1}: its lines' sizes disagree beyond their ± (χ²/ν = ${r.reducedChi2.toFixed(1)}): anisotropic crystallites or strain; the phase's ± is widened by √(χ²/ν), and the per-line sizes tell more`);
     return r;

@@ -22,6 +22,8 @@ export interface PhaseSizeOptions {
   strainDeltaChi2?: number;
   /** A line whose deleted residual (its distance from the others' mean, in its own and their standard uncertainty) exceeds this is left out, once (default 4). */
   outlierZ?: number;
+  /** Whether the lines' breadths had an instrument profile or breadth removed (default false: then the size is a lower bound and a strain term takes the instrument's growth with angle, and both say so). */
+  instrumentRemoved?: boolean;
 }
 
 /** Result of phaseCrystalliteSize. */
@@ -43,6 +45,8 @@ export interface PhaseSize {
   reducedChi2: number;
   /** True when the lines disagree beyond their ± at the 1 % level even after that: anisotropic crystallites, strain or a blend. */
   linesDisagree: boolean;
+  /** Whether the instrument's breadth was removed from the lines (false: the size is a lower bound). */
+  instrumentRemoved: boolean;
   /** What the ± contains, in words. */
   statement: string;
 }
@@ -100,6 +104,7 @@ export function phaseCrystalliteSize(lines: PhaseSizeLine[], wavelengthNm: numbe
   const k = options.k ?? 0.9;
   const dChi = options.strainDeltaChi2 ?? 10.83;
   const zOut = options.outlierZ ?? 4;
+  const instrumentRemoved = options.instrumentRemoved ?? false;
   if (!(wavelengthNm > 0 && Number.isFinite(wavelengthNm))) throw new RangeError(`wavelengthNm must be positive and finite, got ${wavelengthNm}`);
   if (!(k > 0 && k < 2)) throw new RangeError(`k must be in (0, 2), got ${k}`);
   if (!(dChi >= 0)) throw new RangeError(`strainDeltaChi2 must be non-negative, got ${dChi}`);
@@ -159,7 +164,7 @@ export function phaseCrystalliteSize(lines: PhaseSizeLine[], wavelengthNm: numbe
   const scale = Math.max(1, red);
   const size = (k * wavelengthNm) / intercept;
   const sizeUnc = (size * Math.sqrt(varIntercept * scale)) / intercept;
-  const parts = [`the ${pts.length} lines' breadth fits (FWHM, η and their correlation through the instrument correction)`];
+  const parts = [instrumentRemoved ? `the ${pts.length} lines' breadth fits (FWHM, η and their correlation through the instrument correction)` : `the ${pts.length} lines' breadth fits (FWHM, η and their correlation); no instrument correction`];
   if (scale > 1) parts.push(`scaled by √(χ²/ν) = ${Math.sqrt(red).toFixed(2)} for their scatter`);
   parts.push(model === 'williamson-hall' ? 'with a strain term (Williamson–Hall)' : 'strain held at zero');
   parts.push(`K = ${k}`);
@@ -174,6 +179,7 @@ export function phaseCrystalliteSize(lines: PhaseSizeLine[], wavelengthNm: numbe
     leftOutTwoThetaDeg: leftOut,
     reducedChi2: red,
     linesDisagree: disagree,
+    instrumentRemoved,
     statement: parts.join('; '),
   };
 }
@@ -192,6 +198,7 @@ export function describePhaseSize(ps: PhaseSize, coverageK: number): string {
     : ps.strainTested ? 'strain held at zero (a strain term was not significant at 0.1 %)' : 'strain held at zero (too few lines, or too short a range, to test a strain term)';
   const extra = [
     ps.leftOutTwoThetaDeg !== null ? `the line at ${ps.leftOutTwoThetaDeg.toFixed(3)}° left out` : '',
+    ps.instrumentRemoved ? '' : 'no instrument correction: a lower bound (give an instrument profile)',
     ps.linesDisagree ? `lines disagree (χ²/ν ${ps.reducedChi2.toFixed(1)}): anisotropic or strained, see each line` : '',
   ].filter(Boolean);
   return `${size}, ${model}${extra.length ? `; ${extra.join('; ')}` : ''}`;

@@ -37,6 +37,13 @@ describe('the crystallite size of a phase from all its lines (Scherrer 1918; Wil
     expect(ps.sizeUncNm / ps.sizeNm).toBeCloseTo(0.06 / Math.sqrt(5), 6);
     expect(ps.linesDisagree).toBe(false);
     expect(describePhaseSize(ps, 2)).toMatch(/from 5 lines, strain held at zero/);
+    // breadths that still hold the instrument's give too small a size (common practice): said, never silently
+    expect(ps.instrumentRemoved).toBe(false);
+    expect(describePhaseSize(ps, 2)).toMatch(/no instrument correction: a lower bound/);
+    const corrected = phaseCrystalliteSize(lines, CU_KA1_NM, { k: K, instrumentRemoved: true })!;
+    expect(corrected.sizeNm).toBe(ps.sizeNm);
+    expect(describePhaseSize(corrected, 2)).not.toMatch(/instrument/);
+    expect(corrected.statement).toMatch(/through the instrument correction/);
   });
 
   test('lines broadened by microstrain too: the Williamson–Hall intercept and slope are recovered (worked relation β cosθ = Kλ/D + 4ε sinθ)', () => {
@@ -98,7 +105,12 @@ describe('the crystallite size of a phase from all its lines (Scherrer 1918; Wil
     expect(a.phaseSizes.length).toBe(a.indexing.phases.length);
     const ps = a.phaseSizes[0]!;
     expect(ps.lines).toBeGreaterThanOrEqual(3);
+    expect(ps.instrumentRemoved).toBe(true);
     expect(Math.abs(ps.sizeNm / sc.phases[0].sizeNm - 1)).toBeLessThan(0.15);
+    // without the instrument profile the same lines give a smaller size, and the phase says it is a lower bound
+    const raw = analysePattern(parsePattern(sc.text)).phaseSizes[0]!;
+    expect(raw.instrumentRemoved).toBe(false);
+    expect(raw.sizeNm).toBeLessThan(ps.sizeNm);
     const own = a.indexing.phases[0].lines.map((l) => a.peaks[l.peak]).filter((p) => p.crystalliteUncNm !== null);
     expect(ps.sizeUncNm).toBeLessThan(Math.min(...own.map((p) => p.crystalliteUncNm!)));
   }, 60000);
