@@ -23,7 +23,7 @@ import {
   type SheetReport,
   type SheetsDetail,
 } from '../src/sheets/record';
-import { basalLine, compareWithScherrer, sizedLines, type ScherrerComparison } from '../src/sheets/xrd-compare';
+import { basalLine, compareWithScherrer, sizedLines, type ScherrerComparison, type XrdLine } from '../src/sheets/xrd-compare';
 import { budgetContents, formatPlusMinus, nmPerPxAlong, type UncertaintyBudget } from '../src/measure/measurement';
 import { histogram, type Summary } from '../src/measure/stats';
 import type { ComputeClient } from './compute-client';
@@ -471,14 +471,14 @@ export class StrataSheetsPanel extends LitElement {
     }
     const ex = kept.map((s) => ({ s, e: expressSheet(s, cal) }));
     const periodNm = ex.reduce((a, q) => a + q.e.period.value, 0) / ex.length;
-    let lines: { dNm: number; crystalliteNm?: number | null; crystalliteUncNm?: number | null; label?: string; pooled?: boolean }[] = [];
+    let lines: XrdLine[] = [];
     let source = set.name;
     try {
       if (set.patternText && this.compute) {
         // the pattern again, for the sizes' uncertainties (the stored lines keep the sizes only)
         const { analysis } = await this.compute.call('analysePattern', { text: set.patternText, wavelength: `${set.wavelengthNm}nm`, fileName: set.name });
         lines = sizedLines(analysis);
-        source = `${set.name}; ${analysis.sizeMethod}`;
+        source = set.name;
       } else {
         const res = set.results as unknown as StoredSetResults | null;
         lines = (res?.lines ?? []).map((l) => ({ dNm: l.dNm, crystalliteNm: l.crystalliteNm ?? null, crystalliteUncNm: null, label: l.label }));
@@ -494,7 +494,7 @@ export class StrataSheetsPanel extends LitElement {
     }
     this.comparison = compareWithScherrer(
       ex.map(({ s, e }) => ({ thicknessNm: e.thickness.value, layers: s.layers, lengthWeight: e.length?.value ?? 1 })),
-      { sizeNm: line.crystalliteNm!, uSizeNm: line.crystalliteUncNm ?? null, dNm: line.dNm, source: `${source}, ${line.label ?? ''} (d = ${line.dNm.toFixed(4)} nm)` },
+      { sizeNm: line.crystalliteNm!, uSizeNm: line.crystalliteUncNm ?? null, dNm: line.dNm, source: `${source}, ${line.label ?? 'a stored line'}, d = ${line.dNm.toFixed(4)} nm${line.method ? `; ${line.method}` : ''}` },
     );
   }
 

@@ -204,7 +204,7 @@ async function xrdComparison(path: string, patternOptions: Map<string, string>, 
   if (!line) return { comparison: null, note: `no reflection with a Scherrer size near the stacks' period (${periodNm.toFixed(3)} nm) in ${path}` };
   const comparison = compareWithScherrer(
     expressed.map(({ s, e }) => ({ thicknessNm: e.thickness.value, layers: s.layers, lengthWeight: e.length?.value ?? 1 })),
-    { sizeNm: line.crystalliteNm!, uSizeNm: line.crystalliteUncNm ?? null, dNm: line.dNm, source: `${path}, ${line.label} (d = ${line.dNm.toFixed(4)} nm); ${analysis.sizeMethod}` },
+    { sizeNm: line.crystalliteNm!, uSizeNm: line.crystalliteUncNm ?? null, dNm: line.dNm, source: `${path}, ${line.label}, d = ${line.dNm.toFixed(4)} nm; ${line.method}` },
   );
   return { comparison, note: null };
 }

@@ -25,20 +25,22 @@ export interface XrdLine {
   label?: string;
   /** A phase's size from several of its basal orders (preferred over a single line's). */
   pooled?: boolean;
+  /** How the size was obtained: K, and whether the instrument's breadth was removed. */
+  method?: string;
 }
 
 /**
  * The sizes a comparison with micrographs can use: each fitted line's own Scherrer size, and each
  * indexed lamellar phase's size from all its resolved 00l lines (marked `pooled`, d its period).
  * @param a an analysis
- * @returns d, size and its standard uncertainty, and a label naming the line or the phase
+ * @returns d, size and its standard uncertainty, a label naming the line or the phase, and how the size was obtained
  */
 export function sizedLines(a: PatternAnalysis): XrdLine[] {
-  const own = a.peaks.map((p) => ({ dNm: p.dNm, crystalliteNm: p.crystalliteNm, crystalliteUncNm: p.crystalliteUncNm, label: p.twoThetaDeg !== null ? `peak at ${p.twoThetaDeg.toFixed(3)}° 2θ` : `peak at q ${p.qInvNm.toFixed(3)} nm⁻¹`, pooled: false }));
+  const own = a.peaks.map((p) => ({ dNm: p.dNm, crystalliteNm: p.crystalliteNm, crystalliteUncNm: p.crystalliteUncNm, label: p.twoThetaDeg !== null ? `peak at ${p.twoThetaDeg.toFixed(3)}° 2θ` : `peak at q ${p.qInvNm.toFixed(3)} nm⁻¹`, pooled: false, method: a.sizeMethod }));
   const phases = a.indexing.phases.flatMap((ph, j) => {
     const ps = a.phaseSizes?.[j];
     if (ph.kind !== 'lamellar' || !ps) return [];
-    return [{ dNm: ph.cNm, crystalliteNm: ps.sizeNm, crystalliteUncNm: ps.sizeUncNm, label: `lamellar phase ${j + 1}, ${ps.lines} resolved 00l lines (${ps.model === 'mean' ? 'strain held at zero' : 'Williamson–Hall'})`, pooled: true }];
+    return [{ dNm: ph.cNm, crystalliteNm: ps.sizeNm, crystalliteUncNm: ps.sizeUncNm, label: `lamellar phase ${j + 1}, ${ps.lines} resolved 00l lines (${ps.model === 'mean' ? 'strain held at zero' : 'Williamson–Hall'})`, pooled: true, method: ps.instrumentRemoved ? 'instrument breadth removed' : 'no instrument correction: a lower bound' }];
   });
   return [...phases, ...own];
 }

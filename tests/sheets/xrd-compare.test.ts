@@ -46,5 +46,11 @@ describe('stack thickness in the micrographs beside the Scherrer size of the bas
     expect(line.pooled).toBe(true);
     expect(line.label).toMatch(/lamellar phase 1, \d+ resolved 00l lines/);
     expect(Math.abs(line.crystalliteNm! / sc.phases[0].sizeNm - 1)).toBeLessThan(0.15);
+    expect(line.method).toBe('instrument breadth removed');
+    // without the standard the breadths keep the instrument's: a smaller size, said to be a lower bound
+    const raw = basalLine(sizedLines(analysePattern(parsePattern(sc.text))), 1.25)!;
+    expect(raw.pooled).toBe(true);
+    expect(raw.method).toMatch(/no instrument correction: a lower bound/);
+    expect(raw.crystalliteNm!).toBeLessThan(line.crystalliteNm!);
   }, 60000);
 });
