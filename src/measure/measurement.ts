@@ -317,10 +317,14 @@ export function decimalsFor(u: number, significant = 2): number {
   return Math.max(0, Math.min(10, significant - 1 - Math.floor(Math.log10(u))));
 }
 
-/** "1.2503 ± 0.0041": value and uncertainty rounded to the uncertainty's second significant digit. */
+/**
+ * "1.2503 ± 0.0041": value and uncertainty rounded to the uncertainty's second significant digit.
+ * A value without a stated uncertainty (u zero, not finite, or rounding dust below 10⁻⁹ of the
+ * value) is written to four significant digits and says so: "6.454 (no ±)".
+ */
 export function formatPlusMinus(value: number, u: number, significant = 2): string {
   if (!Number.isFinite(value)) return '–';
-  if (!(u > 0) || !Number.isFinite(u)) return `${Number(value.toPrecision(6))}`;
+  if (!(u > 0) || !Number.isFinite(u) || u < 1e-9 * Math.abs(value)) return `${Number(value.toPrecision(4))} (no ±)`;
   const d = decimalsFor(u, significant);
   return `${value.toFixed(d)} ± ${u.toFixed(d)}`;
 }

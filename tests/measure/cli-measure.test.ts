@@ -132,5 +132,9 @@ describe('stratameter measure', () => {
     // Rounding to two significant digits of u (GUM 7.2.6 practice).
     expect(formatPlusMinus(0.313564, 0.0012345)).toBe('0.3136 ± 0.0012');
     expect(formatPlusMinus(12.345, 0.26)).toBe('12.35 ± 0.26');
+    // no stated uncertainty, or rounding dust: four digits and said so (a monolayer's thickness printed '6.4542208273 ± 0.0000000000')
+    expect(formatPlusMinus(6.4542208273, 0)).toBe('6.454 (no ±)');
+    expect(formatPlusMinus(6.4542208273, 3e-15)).toBe('6.454 (no ±)');
+    expect(formatPlusMinus(6.4542208273, Number.NaN)).toBe('6.454 (no ±)');
   });
 });
