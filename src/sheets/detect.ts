@@ -987,7 +987,21 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
     }
     accepted.push(sh);
   }
-  for (const sh of kept) if (accepted.includes(sh)) sheets.push({ ...sh, id: `auto-${sheets.length + 1}` });
+  // one or two lines have no period of their own: their count and thickness rest on the layer
+  // period, so they are reported only where the user gave it or a counted stack of three layers
+  // or more in the same image shows it (within 8 %); else a streak of the texture (an edge, a
+  // shadow) would be read as a monolayer at a period the texture's own spectrum gave
+  const confirmedPx = given !== undefined ? [given] : accepted.filter((o) => o.layers >= 3).map((o) => o.periodPx);
+  let unconfirmedThin = 0;
+  for (const sh of kept) {
+    if (!accepted.includes(sh)) continue;
+    if (sh.layers <= 2 && !confirmedPx.some((d) => Math.abs(sh.periodPx - d) <= 0.08 * d)) {
+      unconfirmedThin++;
+      rejected.push({ centerPx: sh.centerPx, angleDeg: sh.angleDeg, layers: sh.layers, periodPx: sh.periodPx, reason: `${sh.layers === 1 ? 'a single line' : 'two lines'} at a period no counted stack of the image confirms: give the layer period to count lone lines` });
+      continue;
+    }
+    sheets.push({ ...sh, id: `auto-${sheets.length + 1}` });
+  }
   const periods: ImagePeriod[] = periodList.map((d) => ({
     periodPx: d,
     source: given !== undefined ? 'given' : 'found',
@@ -998,7 +1012,7 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
     rejected,
     periods,
     candidates: axes.length,
-    message: sheets.length === 0 ? 'no stacks found' : null,
+    message: sheets.length > 0 ? null : unconfirmedThin > 0 ? `no stacks found; ${unconfirmedThin} single line${unconfirmedThin > 1 ? 's' : ''} or pair${unconfirmedThin > 1 ? 's' : ''} of lines seen at a period no stack confirms: give the layer period (e.g. from the basal X-ray reflection) to count them` : 'no stacks found',
     settings,
   };
 }

@@ -339,3 +339,29 @@ describe('detectSheets', () => {
     expect(() => detectSheets(img, { polarity: 'grey' as 'dark' })).toThrow(/polarity/);
   });
 });
+
+describe('lone lines need a confirmed period', () => {
+  // Real photograph of gravel (CC0; tests/fixtures/textures/SOURCES.md): no layers anywhere. Its
+  // dark streaks were read as four monolayers at 4.41 and 5.79 px, periods of the texture's own
+  // spectrum that no stack confirms.
+  it('a real texture without stacks gives no sheet, and says that lone lines need the layer period', async () => {
+    const { readFileSync } = await import('node:fs');
+    const { decodeImage } = await import('../../src/image/decode');
+    const file = new URL('../fixtures/textures/gravel.png', import.meta.url);
+    const img = decodeImage(new Uint8Array(readFileSync(file)), 'gravel.png');
+    const res = detectSheets(img, { polarity: 'dark' });
+    expect(res.sheets).toHaveLength(0);
+    expect(res.rejected.some((r) => /period no counted stack of the image confirms/.test(r.reason))).toBe(true);
+    expect(res.message).toMatch(/give the layer period/);
+  }, 60000);
+
+  it('a monolayer beside a counted stack of its period is reported', () => {
+    const img = syntheticImage(360, 360, [
+      { layers: 6, periodPx: 6, cx: 90, cy: 150, angleDeg: 0, lengthPx: 200 },
+      { layers: 1, periodPx: 6, cx: 230, cy: 300, angleDeg: 90, lengthPx: 200 },
+    ], { noise: 0.04, amorphous: 0.04, seed: 5 });
+    const res = detectSheets(img);
+    const layers = res.sheets.map((s) => s.layers).sort((a, b) => a - b);
+    expect(layers).toEqual([1, 6]);
+  }, 60000);
+});
