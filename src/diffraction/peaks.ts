@@ -968,9 +968,10 @@ function settleBackground(ctx: Context, fits0: GroupFit[], keep: Set<GroupFit>, 
  *   and the lines' Lorentzian tails trade off, and a background left high under a crowded stretch
  *   takes the tails with it (η and area too low, FWHM too large, the Scherrer size too small);
  *   groups holding a line more than 3 times the width trend (a clay order, a band) keep their fit;
- * - a strong peak (area above 15σ) is refitted with different left and right widths; when that
- *   improves χ² beyond chance (p < 0.001) and the high-angle side is at least twice as wide, it is
- *   a two-dimensional (hk) band of turbostratic layers (Warren 1941), reported without a size.
+ * - a significant, broad peak (area above the critical z, FWHM at least a tenth of the widest
+ *   allowed) is refitted alone with different left and right widths; when that improves χ² beyond
+ *   chance (p < 0.001) and the high-angle side is at least twice as wide, it is a two-dimensional
+ *   (hk) band of turbostratic layers (Warren 1941), reported without a size.
  * Uncertainties here are those of the fit alone (see analysePattern for the full d budget).
  * Reference: pseudo-Voigt: Wertheim et al., Rev. Sci. Instrum. 45, 1369 (1974); Kα2 ratio 0.5:
  * Rachinger (1948), ITC C §2.3.3.2; LM: Marquardt (1963); band shape: Warren, Phys. Rev. 59, 693 (1941).
@@ -1097,7 +1098,10 @@ export function fitPattern(pattern: Pattern, options: FitOptions = {}): PatternF
         if (lastBackground[k]) {
           if (pass === 2) heldGroups.add(f);
           for (let i = f.i0; i <= f.i1; i++) spliced[i] = previousBackground![i];
-          notes.push(`lines at ${f.members[0].c.toPrecision(4)}–${f.members[f.members.length - 1].c.toPrecision(4)} fitted on the previous background estimate: on the last one every line of their window lost its significance`);
+          const first = f.members[0].c.toPrecision(4);
+          const last = f.members[f.members.length - 1].c.toPrecision(4);
+          const where = first === last ? `the line at ${first}` : `lines at ${first}–${last}`;
+          notes.push(`${where} fitted on the previous background estimate: on the last one every line of that window lost its significance`);
         }
         fits.push(f);
         members.push(...f.members.map((m) => ({ c: m.c, a: m.a, w: m.w, eta: m.eta, rho: m.rho, split: m.split, given: m.given, init: { c: m.c, a: m.a, w: m.w } })));
