@@ -36,6 +36,21 @@ describe('combNearPeriod', () => {
 });
 
 describe('fitLayerComb', () => {
+  it('gives the same fit on a profile whose level is large (its residual sum does not cancel against the level)', () => {
+    // summed frames: the stack's contrast sits on a level of 10⁶ counts; the model has a constant
+    // term, so the comb's residual sums must not depend on the level (common practice: least
+    // squares on centred data, Golub & Van Loan, Matrix Computations, §5.3); before, 8·10⁻⁷ apart
+    const p = stackProfile(9, 4, 1e-5);
+    const low: AcrossProfile = { ...p, values: Float64Array.from(p.values, (v) => 3e4 * v) };
+    const high: AcrossProfile = { ...p, values: Float64Array.from(p.values, (v) => 3e4 * v + 1e6) };
+    const band = { fromPx: -18, toPx: 18 };
+    const a = fitLayerComb(low, 4, band)!;
+    const b = fitLayerComb(high, 4, band)!;
+    expect(a.layers).toBe(9);
+    expect(b.layers).toBe(9);
+    expect(Math.abs(a.rss / b.rss - 1)).toBeLessThan(1e-9);
+    expect(Math.abs(a.rssFewer / b.rssFewer - 1)).toBeLessThan(1e-9);
+  });
   it('fits one narrow line in a band read as two periods wide with its own line width (monolayer in film texture)', () => {
     // one dark line, σ 1.2 px (0.27 of the 4.5 px period), depth 0.3 on a background of 1 with a
     // film-texture bump beside it and noise 0.01 (synthetic truth; as a monolayer of seed 19's thin
