@@ -380,10 +380,15 @@ function polylineCoords(pts: [number, number][], x: number, y: number): { s: num
   return { s: bestS, u: bestSign * Math.sqrt(bestD2) };
 }
 
+/** Pieces whose ends lie further apart than this along the axis join only when their counts agree, px. */
+export const FAR_JOIN_PX = 90;
+
 /**
  * Joins pieces of one stack: the candidate axes break where another stack crosses, and a stack
  * may be met twice. Two pieces are one stack when their periods agree within 6 %, their counts
- * within one layer (the same count when either has one or two: one line is not two), and the nearer end of each lies on the other's axis or its straight
+ * within one layer (the same count when either has one or two: one line is not two, and when
+ * their ends lie more than {@link FAR_JOIN_PX} apart: a stack one layer thinner that far along
+ * the same line is another stack), and the nearer end of each lies on the other's axis or its straight
  * extension (within a quarter of the thinner one's thickness plus half a period, and 12° in
  * direction), at most 90 px (a crossing stack may hide that much) or four thicknesses beyond it. Closest pairs first, repeated until
  * none is left.
@@ -488,7 +493,9 @@ function mergeGap(a: Piece, b: Piece): number | null {
       gap = Math.min(gap, beyond);
     }
   }
-  return Number.isFinite(gap) ? gap : null;
+  if (!Number.isFinite(gap)) return null;
+  // far apart along one line, a count one layer off is another stack, not a piece of this one
+  return gap > FAR_JOIN_PX && na !== nb ? null : gap;
 }
 
 function polylineLengthOf(p: [number, number][]): number {

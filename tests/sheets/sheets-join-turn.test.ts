@@ -1,0 +1,26 @@
+import { describe, expect, it } from 'vitest';
+import { detectSheets } from '../../src/sheets/detect';
+import { syntheticImage } from '../../testing/synthetic/stacks';
+
+// Synthetic clay tactoids in a polymer film with known truth (testing/synthetic/stacks.ts).
+describe('pieces far apart join only when their counts agree', () => {
+  it('keeps a 5-layer and a 4-layer stack 100 px apart on one line as two stacks', () => {
+    // two stacks at 8 px, 120 px long, on one line with 100 px of film between their ends
+    // (synthetic truth): their pieces, counts one apart, were joined into one sheet 316 px long
+    // counted 5 (positions 5, 5, 5, 4, 4, 4), and the 4-layer stack was lost
+    const L = 120;
+    const truth = [
+      { layers: 5, periodPx: 8, cx: 80, cy: 130, angleDeg: 90, lengthPx: L },
+      { layers: 4, periodPx: 8, cx: 80 + L + 100, cy: 130, angleDeg: 90, lengthPx: L },
+    ];
+    const img = syntheticImage(160 + L + 100, 260, truth, { noise: 0.05, amorphous: 0.05, seed: 3 });
+    const res = detectSheets(img);
+    expect(res.sheets).toHaveLength(2);
+    for (const t of truth) {
+      const s = res.sheets.find((q) => Math.abs(q.centerPx[0] - t.cx) < L / 4 && Math.abs(q.centerPx[1] - t.cy) < 8);
+      expect(s, `the ${t.layers}-layer stack at (${t.cx}, ${t.cy})`).toBeDefined();
+      expect(s!.layers).toBe(t.layers);
+      expect(s!.lengthPx).toBeLessThan(L + 2 * t.periodPx);
+    }
+  });
+});
