@@ -905,10 +905,12 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
           onEarlier = true;
           continue;
         }
-        // a turned candidate adds a stack of three layers or more (one or two lines have no
-        // fringes to turn to); it does not touch one measured already (a piece of it where two
-        // stacks cross would join the one whose band it lies in)
-        if (!turnable && (done.layers < 3 || pieces.some((q) => {
+        // a turned candidate adds a stack of four layers or more, which refines its own period
+        // (its direction is the best of many tried: a thinner comb, at the image's period, has
+        // nothing of its own to confirm it; on a grass photograph one gave a 3-layer sheet); it
+        // does not touch a stack measured already (a piece of it where two stacks cross would
+        // join the one whose band it lies in)
+        if (!turnable && (done.layers < TURN_MIN_LAYERS || pieces.some((q) => {
           const o = finishPiece(q, minPeriodPx);
           return shareOnBand(done.axisPx, o) > 0.2 || shareOnBand(o.axisPx, done) > 0.2;
         }))) continue;
@@ -1069,6 +1071,8 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
 export const TURN_MAX_DEG = 20;
 /** Fringe power a turned direction needs over the candidate's own direction for the band to be measured again along it. */
 export const TURN_MIN_POWER_RATIO = 1.5;
+/** Fewest layers of a stack found on a turned candidate (it must refine its own period). */
+export const TURN_MIN_LAYERS = 4;
 
 /**
  * The direction of a band's own fringes near its candidate's normal: the band's pixels (a
