@@ -8,7 +8,9 @@
  * 2. Along each axis, profiles across the stack follow its local normal (./stack-profile); the
  *    band where it lies is found on the profile averaged over its whole length, touching stacks
  *    being separate bands; a band holding a stack already measured and its touching neighbour,
- *    when it yields no stack, is measured again beyond the measured stack's band.
+ *    when it yields no stack, is measured again beyond the measured stack's band; a band that
+ *    still yields none is, after the other looks, measured again on a straight axis along its
+ *    own fringes (their direction within ±20° of the candidate's normal, found by projection).
  * 3. The layer period: given (e.g. from X-ray diffraction), or the peaks of the summed
  *    periodograms of all the candidates' profiles (one or more phases); each stack takes the
  *    period whose comb of layer lines fits it best and refines it from its own fringes; a band
@@ -380,10 +382,15 @@ function polylineCoords(pts: [number, number][], x: number, y: number): { s: num
   return { s: bestS, u: bestSign * Math.sqrt(bestD2) };
 }
 
+/** Pieces whose ends lie further apart than this along the axis join only when their counts agree, px. */
+export const FAR_JOIN_PX = 90;
+
 /**
  * Joins pieces of one stack: the candidate axes break where another stack crosses, and a stack
  * may be met twice. Two pieces are one stack when their periods agree within 6 %, their counts
- * within one layer (the same count when either has one or two: one line is not two), and the nearer end of each lies on the other's axis or its straight
+ * within one layer (the same count when either has one or two: one line is not two, and when
+ * their ends lie more than {@link FAR_JOIN_PX} apart: a stack one layer thinner that far along
+ * the same line is another stack), and the nearer end of each lies on the other's axis or its straight
  * extension (within a quarter of the thinner one's thickness plus half a period, and 12° in
  * direction), at most 90 px (a crossing stack may hide that much) or four thicknesses beyond it. Closest pairs first, repeated until
  * none is left.
@@ -488,7 +495,9 @@ function mergeGap(a: Piece, b: Piece): number | null {
       gap = Math.min(gap, beyond);
     }
   }
-  return Number.isFinite(gap) ? gap : null;
+  if (!Number.isFinite(gap)) return null;
+  // far apart along one line, a count one layer off is another stack, not a piece of this one
+  return gap > FAR_JOIN_PX && na !== nb ? null : gap;
 }
 
 function polylineLengthOf(p: [number, number][]): number {
@@ -664,16 +673,23 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
   const coverage = new Coverage(4);
   // stacks counted at a period with no phase of the image near its half, for the shared fundamental
   const unvotedStacks: UnvotedStack[] = [];
+  // the bands of the last look that yielded no stack, to be measured along their own fringes
+  const failedBands: { axis: RidgeAxis; frame: AxisFrame; band: ProfileBand; periodPx: number }[] = [];
   // candidates measured at the periods given (a function: run again after the periods are refined)
   // strongest bands first, so the stack is measured from its best candidate
   const measureCandidates = (tryPeriods: number[], earlier: Omit<AutoSheet, 'id'>[]): void => {
-  for (const axis of axes) {
-    if (tryPeriods.length === 0) break;
+    if (tryPeriods.length === 0) return;
+    failedBands.length = 0;
+    for (const axis of axes) measureAxis(axis, tryPeriods, earlier, true);
+  };
+  // one candidate axis: its bands measured at the periods given; a band that yields no stack is,
+  // when `turnable`, kept in `failedBands` (a turned candidate is not turned again)
+  const measureAxis = (axis: RidgeAxis, tryPeriods: number[], earlier: Omit<AutoSheet, 'id'>[], turnable: boolean): void => {
     const axisFrame0 = axisFrame(axis.points);
     const angle0 = (i: number) => screenAngleDeg(axisFrame0.normals[i][0], axisFrame0.normals[i][1]);
     // a candidate on a stack already measured (one of its layers, or the same band) is skipped;
     // one that lies only on a piece too short to be a stack is measured, and kept if long enough
-    if (coverage.covered(axis.points, angle0, 20, true).share > 0.5) continue;
+    if (coverage.covered(axis.points, angle0, 20, true).share > 0.5) return;
     let onShort = coverage.covered(axis.points, angle0, 20, false).share > 0.5;
     // survey at each period: fringes smoothed away at half a period, fringe energy beside it
     let sv: Survey | null = null;
@@ -688,14 +704,14 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
       const score = f ? f.evidence : q.band.significance;
       if (score > svScore) { svScore = score; sv = q; }
     }
-    if (!sv || !sv.band) continue;
+    if (!sv || !sv.band) return;
     const { frame, profile } = sv;
     const angleAt = (i: number) => screenAngleDeg(frame.normals[i][0], frame.normals[i][1]);
     // the band's centre line must not lie on a stack already measured
     const svBand = sv.band;
     const mid = 0.5 * (svBand.fromPx + svBand.toPx);
     const centreLine = shiftAxis(frame, () => mid);
-    if (coverage.covered(centreLine, angleAt, 20, true).share > 0.5) continue;
+    if (coverage.covered(centreLine, angleAt, 20, true).share > 0.5) return;
     if (coverage.covered(centreLine, angleAt, 20, false).share > 0.5) onShort = true;
     const parts = splitBand(profile, svBand, tryPeriods[0], polarity);
     for (const part of parts) {
@@ -707,6 +723,10 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
       const bands = [part];
       if (free && (free.fromPx > part.fromPx + 0.5 || free.toPx < part.toPx - 0.5) && free.toPx - free.fromPx >= 1.5 * tryPeriods[0]) bands.push({ ...part, fromPx: free.fromPx, toPx: free.toPx });
       let measured = false;
+      // why the part gave no stack: it lies on a stack of the first look or in the excluded box
+      // (then it is not turned), and the image period its comb was fitted at
+      let onEarlier = false;
+      let bandPeriodPx: number | null = null;
       for (const band of bands) {
         if (measured) break;
         const bmid = 0.5 * (band.fromPx + band.toPx);
@@ -724,6 +744,7 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
         if (band.toPx < part.toPx) hi = Math.min(hi, band.toPx + 0.5 * tryPeriods[0]);
         const limit: [number, number] = [lo, hi];
         const chosen = bestPeriod(profile, band, tryPeriods, polarity, limit);
+        bandPeriodPx ??= chosen ? chosen.periodPx : null;
         const centerIdx = Math.floor(frame.points.length / 2);
         const centerAt = (off: number): [number, number] => [frame.points[centerIdx][0] + off * frame.normals[centerIdx][0], frame.points[centerIdx][1] + off * frame.normals[centerIdx][1]];
         const reject = (reason: string, fit: CombFit | null, d: number | null) => {
@@ -875,9 +896,24 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
         const { positions, counted, edge } = counts;
         const piece: Piece = { axisPx, periodPx, uPeriodPx: uPeriod, periodSource, fitLayers: fit.layers, counted, edges: edge, positions, evidence: fit.evidence };
         const done = finishPiece(piece, minPeriodPx);
-        if (inBox(done.centerPx[0], done.centerPx[1], exclude)) continue;
+        if (inBox(done.centerPx[0], done.centerPx[1], exclude)) {
+          onEarlier = true;
+          continue;
+        }
         // a second look adds stacks; it does not touch the ones measured before
-        if (earlier.some((o) => shareOnBand(done.axisPx, o) > 0.2 || shareOnBand(o.axisPx, done) > 0.2)) continue;
+        if (earlier.some((o) => shareOnBand(done.axisPx, o) > 0.2 || shareOnBand(o.axisPx, done) > 0.2)) {
+          onEarlier = true;
+          continue;
+        }
+        // a turned candidate adds a stack of four layers or more, which refines its own period
+        // (its direction is the best of many tried: a thinner comb, at the image's period, has
+        // nothing of its own to confirm it; on a grass photograph one gave a 3-layer sheet); it
+        // does not touch a stack measured already (a piece of it where two stacks cross would
+        // join the one whose band it lies in)
+        if (!turnable && (done.layers < TURN_MIN_LAYERS || pieces.some((q) => {
+          const o = finishPiece(q, minPeriodPx);
+          return shareOnBand(done.axisPx, o) > 0.2 || shareOnBand(o.axisPx, done) > 0.2;
+        }))) continue;
         // a piece too short to be a stack by itself may yet join another piece of its stack, but
         // covers its band only softly (a short wrong piece must not hide the real stack); one
         // measured on such a piece's band must be long enough by itself (else the same band would
@@ -889,8 +925,11 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
         measured = true;
         coverage.add(pieces.length - 1, pieceFrame, offAt(pieceFrame.cumPx[Math.floor(pieceFrame.points.length / 2)]), done.thicknessPx / 2 + 0.5 * periodPx, (i) => screenAngleDeg(pieceFrame.normals[i][0], pieceFrame.normals[i][1]), short);
       }
+      // a band that gave no stack may be a stack a few degrees off the candidate's axis (across
+      // it, fringes out of phase average out): measured again, with every test, on a straight
+      // axis along its own fringes when they are clearly stronger there ({@link turnedCandidate})
+      if (!measured && !onEarlier && turnable) failedBands.push({ axis, frame, band: part, periodPx: bandPeriodPx ?? tryPeriods[0] });
     }
-  }
   };
   measureCandidates(periodList.length ? [...periodList] : [], []);
   // the image's periods from the stacks that measured their own (four layers or more): the
@@ -927,6 +966,17 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
       for (const { m, sd } of refined) {
         for (const q of pieces) if (q.periodSource === 'image' && Math.abs(q.periodPx - m) < 1e-9) q.uPeriodPx = sd;
       }
+    }
+  }
+  // a band that yielded no stack may be a stack a few degrees off its candidate's axis (across
+  // it, fringes out of phase average out): after the other looks, each is measured again, with
+  // every test, on a straight axis along its own fringes when they are clearly stronger there
+  // ({@link turnedCandidate}); this adds stacks and leaves those measured as they are
+  if (periodList.length > 0) {
+    for (const fb of [...failedBands]) {
+      const nearest = periodList.reduce((b, d) => (Math.abs(d - fb.periodPx) < Math.abs(b - fb.periodPx) ? d : b), periodList[0]);
+      const turned = turnedCandidate(image, fb.axis, fb.frame, fb.band, nearest);
+      if (turned) measureAxis(turned, [...periodList], [], false);
     }
   }
   // the stacks counted at a period p with no phase of the image near p/2, grouped by p: the
@@ -1015,6 +1065,103 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
     message: sheets.length > 0 ? null : unconfirmedThin > 0 ? `no stacks found; ${unconfirmedThin} single line${unconfirmedThin > 1 ? 's' : ''} or pair${unconfirmedThin > 1 ? 's' : ''} of lines seen at a period no stack confirms: give the layer period (e.g. from the basal X-ray reflection) to count them` : 'no stacks found',
     settings,
   };
+}
+
+/** Widest turn of a band's fringe direction from its candidate's normal that is searched, degrees. */
+export const TURN_MAX_DEG = 20;
+/** Fringe power a turned direction needs over the candidate's own direction for the band to be measured again along it. */
+export const TURN_MIN_POWER_RATIO = 1.5;
+/** Fewest layers of a stack found on a turned candidate (it must refine its own period). */
+export const TURN_MIN_LAYERS = 4;
+
+/**
+ * The direction of a band's own fringes near its candidate's normal: the band's pixels (a
+ * straight strip through the band's centre, as long as the middle 80 % of the candidate and as
+ * wide as the band) are projected on directions turned up to ±{@link TURN_MAX_DEG}° from the
+ * candidate's normal (its chord's), in steps of period / length rad (the fringes then stay within
+ * a quarter period in phase over the strip), and each projected profile's fringe power at the
+ * period is taken; the direction of the most power is the band's fringe direction.
+ * Projection (Radon-transform) direction search: S. R. Deans, "The Radon Transform and Some of
+ * Its Applications", Wiley 1983.
+ *
+ * @param image the image
+ * @param centrePx the band's centre, image px
+ * @param normal the candidate's unit normal (image axes)
+ * @param lengthPx the strip's length along the candidate, px
+ * @param halfWidthPx half the band's width, px
+ * @param periodPx the image period the band's fringes are looked for at, px
+ * @returns the best turn, rad (positive from +x towards +y in image axes, y down), its unit normal, and its fringe power over the candidate's own direction's
+ */
+export function fringeDirection(image: GreyImage, centrePx: [number, number], normal: [number, number], lengthPx: number, halfWidthPx: number, periodPx: number): { turnRad: number; normal: [number, number]; powerRatio: number } {
+  if (!(periodPx > 0 && lengthPx > 0 && halfWidthPx > 0)) throw new RangeError(`periodPx, lengthPx and halfWidthPx must be positive, got ${periodPx}, ${lengthPx}, ${halfWidthPx}`);
+  const stepRad = Math.max(periodPx / lengthPx, 0.002);
+  const nSteps = Math.floor(((TURN_MAX_DEG * Math.PI) / 180) / stepRad);
+  const powerAt = (turnRad: number): { power: number; normal: [number, number] } => {
+    const c = Math.cos(turnRad);
+    const s = Math.sin(turnRad);
+    const n: [number, number] = [c * normal[0] - s * normal[1], s * normal[0] + c * normal[1]];
+    // the tangent is the normal turned back by 90° (axisFrame: normal = (ty, −tx))
+    const t: [number, number] = [-n[1], n[0]];
+    const frame = axisFrame(straightAxis(centrePx, t, lengthPx));
+    const prof = acrossProfile(image, frame, { halfWidthPx: halfWidthPx + periodPx });
+    return { power: fringePowerAt(prof, { fromPx: -halfWidthPx, toPx: halfWidthPx }, periodPx), normal: n };
+  };
+  const own = powerAt(0);
+  let best = { turnRad: 0, ...own };
+  for (let k = -nSteps; k <= nSteps; k++) {
+    if (k === 0) continue;
+    const r = powerAt(k * stepRad);
+    if (r.power > best.power) best = { turnRad: k * stepRad, ...r };
+  }
+  return { turnRad: best.turnRad, normal: best.normal, powerRatio: own.power > 0 ? best.power / own.power : best.power > 0 ? Infinity : 1 };
+}
+
+/** A straight axis through a centre along a unit tangent, points 2 px apart. */
+function straightAxis(centrePx: [number, number], tangent: [number, number], lengthPx: number): [number, number][] {
+  const n = Math.max(2, Math.round(lengthPx / 2) + 1);
+  const pts: [number, number][] = [];
+  for (let i = 0; i < n; i++) {
+    const s = -lengthPx / 2 + (lengthPx * i) / (n - 1);
+    pts.push([centrePx[0] + s * tangent[0], centrePx[1] + s * tangent[1]]);
+  }
+  return pts;
+}
+
+/**
+ * A candidate turned to its band's own fringes, for a band that yielded no stack: when the
+ * band's fringe direction ({@link fringeDirection}) carries at least {@link TURN_MIN_POWER_RATIO}
+ * times the fringe power of the candidate's own direction, a straight axis through the band's
+ * centre along those fringes (the candidate's chord length, kept inside the image), to be
+ * measured like any candidate; else null.
+ *
+ * @param image the image
+ * @param axis the candidate
+ * @param frame the candidate's axis frame
+ * @param band the band that yielded no stack (offsets across the axis, px)
+ * @param periodPx the image period its comb was fitted at, px
+ * @returns the turned candidate, or null
+ */
+function turnedCandidate(image: GreyImage, axis: RidgeAxis, frame: AxisFrame, band: { fromPx: number; toPx: number }, periodPx: number): RidgeAxis | null {
+  const pts = frame.points;
+  if (pts.length < 2) return null;
+  const a = pts[0];
+  const b = pts[pts.length - 1];
+  const chordPx = Math.hypot(b[0] - a[0], b[1] - a[1]);
+  const halfWidthPx = 0.5 * (band.toPx - band.fromPx);
+  if (!(chordPx > 8 && halfWidthPx > 0)) return null;
+  const t: [number, number] = [(b[0] - a[0]) / chordPx, (b[1] - a[1]) / chordPx];
+  const n: [number, number] = [t[1], -t[0]];
+  const mid = indexAt(frame, frame.lengthPx / 2);
+  const off = 0.5 * (band.fromPx + band.toPx);
+  const centre: [number, number] = [pts[mid][0] + off * frame.normals[mid][0], pts[mid][1] + off * frame.normals[mid][1]];
+  const dir = fringeDirection(image, centre, n, 0.8 * chordPx, halfWidthPx, periodPx);
+  if (dir.turnRad === 0 || dir.powerRatio < TURN_MIN_POWER_RATIO) return null;
+  const tt: [number, number] = [-dir.normal[1], dir.normal[0]];
+  const inside = (q: [number, number]) => q[0] >= 0 && q[1] >= 0 && q[0] <= image.width - 1 && q[1] <= image.height - 1;
+  const points = straightAxis(centre, tt, chordPx).filter(inside);
+  if (points.length < 2) return null;
+  const lengthPx = polylineLengthOf(points);
+  return lengthPx >= 8 ? { points, scalePx: axis.scalePx, strength: axis.strength, lengthPx } : null;
 }
 
 /** Counts of a stack at k positions along its candidate axis: width-averaged profiles of equal stretches, each fitted with the comb at the stack's period. */
