@@ -517,7 +517,7 @@ export class StrataSheetsPanel extends LitElement {
     ]);
     return {
       noun: 'sheet', name: 'sheets', header, rows,
-      notes: [`thickness: ${THICKNESS_CONVENTION}`, `lengths in ${cal ? 'nm' : 'px (no calibration)'}; expanded uncertainties with the coverage factor k of each row`],
+      notes: [`thickness: ${THICKNESS_CONVENTION}`, "edgeToEdge: where the band's darkening falls to half, no uncertainty stated", `lengths in ${cal ? 'nm' : 'px (no calibration)'}; expanded uncertainties with the coverage factor k of each row`],
       json: { thicknessConvention: THICKNESS_CONVENTION, unit: cal ? 'nm' : 'px', calibration: cal, sheets: expressed.map(({ s, e }) => ({ ...s, expressed: e })) },
     };
   }
@@ -611,7 +611,7 @@ export class StrataSheetsPanel extends LitElement {
       </div>
       <dl>
         <dt>thickness n·d</dt><dd>${fmt(e.thickness)} ${unit} (k = ${e.thickness.k}; ${budgetContents(e.thickness)})</dd>
-        <dt>edge to edge</dt><dd>${e.edgeToEdge.value.toPrecision(4)} ${unit}</dd>
+        <dt>edge to edge</dt><dd>${e.edgeToEdge.value.toPrecision(4)} ${unit} (where the band's darkening falls to half; no ± stated)</dd>
         <dt>period</dt><dd>${fmt(e.period)} ${unit} (${s.periodSource}; ${budgetContents(e.period)})</dd>
         ${e.length ? html`<dt>length</dt><dd>${e.length.value.toFixed(1)} ${unit}</dd>` : nothing}
         ${s.confidence !== null ? html`<dt>agreement</dt><dd>${Math.round(100 * s.confidence)} % of the positions along it gave ${s.layers}${s.correction ? ` (before the correction: ${s.correction.originalLayers})` : ''}</dd>` : nothing}

@@ -45,7 +45,7 @@ Options:
   --json               one JSON object on standard output instead of a table
 
 Thickness = layers × the stack's layer period (n·d); the edge-to-edge width of the band (where
-its darkening falls to half) is given beside it. Every ± is an expanded uncertainty (k = 2
+its darkening falls to half) is given beside it, with no ± stated. Every ± is an expanded uncertainty (k = 2
 unless --coverage-factor) and the line under the table says what it contains. Angles: the
 direction of the layer normal, 0 to 180°, counter-clockwise from +x as the image is shown.
 Results inform research; they do not replace an accredited calibration.
@@ -302,7 +302,7 @@ export function formatSheets(r: SheetsReport, notes: string[]): string {
   } else {
     const unit = r.sheets[0].thickness.uncertaintyContains !== undefined && c.nmPerPx !== null ? 'nm' : 'px';
     const v = (b: Record<string, number | string>, name: string) => formatPlusMinus(b[`${name}${unit === 'nm' ? 'Nm' : 'Px'}`] as number, b[`expandedUncertainty${unit === 'nm' ? 'Nm' : 'Px'}`] as number);
-    const head = ['#', 'layers', `thickness n·d (${unit})`, `edge-to-edge (${unit})`, `period (${unit})`, 'agree', `length (${unit})`, 'angle (°)', 'centre (px)'];
+    const head = ['#', 'layers', `thickness n·d (${unit})`, `edge-to-edge (${unit}, no ±)`, `period (${unit})`, 'agree', `length (${unit})`, 'angle (°)', 'centre (px)'];
     const rows = r.sheets.map((s, i) => [
       String(i + 1),
       String(s.layers) + (s.correction ? ` (was ${s.correction.originalLayers})` : ''),

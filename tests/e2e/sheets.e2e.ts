@@ -91,6 +91,10 @@ test('automatic sheets: every tactoid found with its count, outlines drawn, revi
   // correcting a count keeps the automatic one beside it, by the user
   await panel().locator('tr[data-id]').nth(1).click();
   const input = panel().locator('input.count');
+  // every number of the selected sheet says what its ± contains, or that it has none
+  const detail = (await panel().locator('div.detail').textContent()) ?? '';
+  expect(detail).toMatch(/thickness n·d[\s\S]*±[\s\S]*k = 2/);
+  expect(detail).toMatch(/edge to edge\s*[0-9.]+ nm \(where the band's darkening falls to half; no ± stated\)/);
   const before = sheets[1].layers;
   await input.fill(String(before + 1));
   await input.dispatchEvent('change');
