@@ -613,9 +613,9 @@ export class StrataSheetsPanel extends LitElement {
         <dt>thickness n·d</dt><dd>${fmt(e.thickness)} ${unit} (k = ${e.thickness.k}; ${budgetContents(e.thickness)})</dd>
         <dt>edge to edge</dt><dd>${e.edgeToEdge.value.toPrecision(4)} ${unit} (where the band's darkening falls to half; no ± stated)</dd>
         <dt>period</dt><dd>${fmt(e.period)} ${unit} (${s.periodSource}; ${budgetContents(e.period)})</dd>
-        ${e.length ? html`<dt>length</dt><dd>${e.length.value.toFixed(1)} ${unit}</dd>` : nothing}
+        ${e.length ? html`<dt>length</dt><dd>${e.length.value.toFixed(1)} ${unit} (along its axis; no ± stated)</dd>` : nothing}
         ${s.confidence !== null ? html`<dt>agreement</dt><dd>${Math.round(100 * s.confidence)} % of the positions along it gave ${s.layers}${s.correction ? ` (before the correction: ${s.correction.originalLayers})` : ''}</dd>` : nothing}
-        <dt>normal</dt><dd>${s.angleDeg.toFixed(1)}°, centre ${s.centerPx[0].toFixed(0)}, ${s.centerPx[1].toFixed(0)} px</dd>
+        <dt>normal</dt><dd>${s.angleDeg.toFixed(1)}°, centre ${s.centerPx[0].toFixed(0)}, ${s.centerPx[1].toFixed(0)} px (no ± stated)</dd>
         ${s.correction ? html`<dt>count</dt><dd>corrected by the user from ${s.correction.originalLayers} (automatic)</dd>` : nothing}
       </dl>
       ${s.notes.map((n) => html`<p class="muted">${n}</p>`)}
