@@ -4,6 +4,7 @@ import { detectSheets, MIN_COUNTABLE_PERIOD_PX } from '../../src/sheets/detect';
 import { axialDifferenceDeg, recursiveGaussian, structureTensor } from '../../src/sheets/structure-tensor';
 import { syntheticImage } from '../../testing/synthetic/stacks';
 import { generateOverview, scoreOverview } from '../../testing/synthetic/overviews';
+import { textureImage } from '../../testing/textures';
 
 // Synthetic clay tactoids in a polymer film with known truth (testing/synthetic/stacks.ts).
 /**
@@ -344,11 +345,8 @@ describe('lone lines need a confirmed period', () => {
   // Real photograph of gravel (CC0; tests/fixtures/textures/SOURCES.md): no layers anywhere. Its
   // dark streaks were read as four monolayers at 4.41 and 5.79 px, periods of the texture's own
   // spectrum that no stack confirms.
-  it('a real texture without stacks gives no sheet, and says that lone lines need the layer period', async () => {
-    const { readFileSync } = await import('node:fs');
-    const { decodeImage } = await import('../../src/image/decode');
-    const file = new URL('../fixtures/textures/gravel.png', import.meta.url);
-    const img = decodeImage(new Uint8Array(readFileSync(file)), 'gravel.png');
+  it('a real texture without stacks gives no sheet, and says that lone lines need the layer period', () => {
+    const img = textureImage('gravel');
     const res = detectSheets(img, { polarity: 'dark' });
     expect(res.sheets).toHaveLength(0);
     expect(res.rejected.some((r) => /period no counted stack of the image confirms/.test(r.reason))).toBe(true);

@@ -2,6 +2,7 @@ import { describe, expect, it } from 'vitest';
 import { detectSheets } from '../../src/sheets/detect';
 import { syntheticImage } from '../../testing/synthetic/stacks';
 import { generateOverview, scoreOverview } from '../../testing/synthetic/overviews';
+import { textureImage } from '../../testing/textures';
 
 // Synthetic clay tactoids in a polymer film with known truth (testing/synthetic/stacks.ts).
 describe('pieces far apart join only when their counts agree', () => {
@@ -49,11 +50,8 @@ describe('a turned candidate adds only stacks that refine their own period', () 
   // Real photograph of grass (CC0; tests/fixtures/textures/SOURCES.md), bright layers: no stacks.
   // A band measured along the best of its turned directions gave a 3-layer comb at the image's
   // period (36 px long, evidence 603), a fifth sheet beside the four the search gave before.
-  it('adds no sheet on a real texture without stacks', async () => {
-    const { readFileSync } = await import('node:fs');
-    const { decodeImage } = await import('../../src/image/decode');
-    const file = new URL('../fixtures/textures/grass.png', import.meta.url);
-    const img = decodeImage(new Uint8Array(readFileSync(file)), 'grass.png');
+  it('adds no sheet on a real texture without stacks', () => {
+    const img = textureImage('grass');
     const res = detectSheets(img, { polarity: 'bright' });
     expect(res.sheets.filter((s) => s.layers === 3)).toHaveLength(0);
     expect(res.sheets.length).toBeLessThanOrEqual(4);
