@@ -517,7 +517,7 @@ export class StrataSheetsPanel extends LitElement {
     ]);
     return {
       noun: 'sheet', name: 'sheets', header, rows,
-      notes: [`thickness: ${THICKNESS_CONVENTION}`, "edgeToEdge: where the band's darkening falls to half, no uncertainty stated", `lengths in ${cal ? 'nm' : 'px (no calibration)'}; expanded uncertainties with the coverage factor k of each row`],
+      notes: [`thickness: ${THICKNESS_CONVENTION}`, "edgeToEdge: where the band's darkening falls to half; edgeToEdge, length and angleDeg: no uncertainty stated", `lengths in ${cal ? 'nm' : 'px (no calibration)'}; expanded uncertainties with the coverage factor k of each row`],
       json: { thicknessConvention: THICKNESS_CONVENTION, unit: cal ? 'nm' : 'px', calibration: cal, sheets: expressed.map(({ s, e }) => ({ ...s, expressed: e })) },
     };
   }

@@ -302,7 +302,7 @@ export function formatSheets(r: SheetsReport, notes: string[]): string {
   } else {
     const unit = r.sheets[0].thickness.uncertaintyContains !== undefined && c.nmPerPx !== null ? 'nm' : 'px';
     const v = (b: Record<string, number | string>, name: string) => formatPlusMinus(b[`${name}${unit === 'nm' ? 'Nm' : 'Px'}`] as number, b[`expandedUncertainty${unit === 'nm' ? 'Nm' : 'Px'}`] as number);
-    const head = ['#', 'layers', `thickness n·d (${unit})`, `edge-to-edge (${unit}, no ±)`, `period (${unit})`, 'agree', `length (${unit})`, 'angle (°)', 'centre (px)'];
+    const head = ['#', 'layers', `thickness n·d (${unit})`, `edge-to-edge (${unit}, no ±)`, `period (${unit})`, 'agree', `length (${unit}, no ±)`, 'angle (°, no ±)', 'centre (px)'];
     const rows = r.sheets.map((s, i) => [
       String(i + 1),
       String(s.layers) + (s.correction ? ` (was ${s.correction.originalLayers})` : ''),

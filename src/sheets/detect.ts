@@ -501,7 +501,6 @@ function mergeGap(a: Piece, b: Piece): number | null {
   return gap > FAR_JOIN_PX && na !== nb ? null : gap;
 }
 
-
 /** One piece from two of the same stack: the axis ordered along the first's, positions pooled. */
 function joinPieces(a: Piece, b: Piece): Piece {
   const la = polylineLength(a.axisPx);
