@@ -534,6 +534,41 @@ function shareByWidth(w: Work, a: Solution, b: Solution, scope: number[], opts: 
   return [a2, b2];
 }
 
+/**
+ * The lines of a mixture that neither phase's solution holds (each phase was sought among the
+ * lines the other left, so a line where both have one can fall between them): each goes to the
+ * phase whose cell, held, puts a line nearest to it (within the search tolerance); each phase is
+ * then refined again with the lines it gained, kept when it explains more and stays consistent.
+ * @returns the two phases, refined again when they gained lines (else as given)
+ * Reference: common practice (a line of a mixture is indexed by the phase that predicts it best).
+ */
+function settleLeftLines(w: Work, a: Solution, b: Solution, scope: number[], opts: Required<Pick<IndexOptions, 'searchToleranceDeg' | 'fitZeroShift'>>, minFom: number): [Solution, Solution] {
+  const inA = new Set(a.hkls.map((h) => h.peak));
+  const inB = new Set(b.hkls.map((h) => h.peak));
+  const left = scope.filter((i) => !inA.has(i) && !inB.has(i));
+  if (left.length === 0) return [a, b];
+  const deltas = (s: Solution, own: Set<number>) => {
+    const e = evaluate(w, s.t, new Set([...own, ...left]), opts, true);
+    return new Map((e?.asg ?? []).flatMap((x) => (x && left.includes(x.peak) ? [[x.peak, x.delta] as [number, number]] : [])));
+  };
+  const dA = deltas(a, inA);
+  const dB = deltas(b, inB);
+  const toA: number[] = [];
+  const toB: number[] = [];
+  for (const i of left) {
+    const da = dA.get(i);
+    const db = dB.get(i);
+    if (da !== undefined && (db === undefined || da <= db)) toA.push(i);
+    else if (db !== undefined) toB.push(i);
+  }
+  const grow = (s: Solution, own: Set<number>, gained: number[]) => {
+    if (gained.length === 0) return s;
+    const r = evaluate(w, s.t, new Set([...own, ...gained]), opts);
+    return r && r.hkls.length > s.hkls.length && r.strongExplained >= s.strongExplained && r.fom.fN >= minFom ? r : s;
+  };
+  return [grow(a, inA, toA), grow(b, inB, toB)];
+}
+
 function evaluate(w: Work, trial: Trial, subset: Set<number> | null, opts: Required<Pick<IndexOptions, 'searchToleranceDeg' | 'fitZeroShift'>>, holdCell = false): Solution | null {
   let t = trial;
   let lines = linesOf(w, t);
@@ -615,6 +650,18 @@ function evaluate(w: Work, trial: Trial, subset: Set<number> | null, opts: Requi
   return { t, hkls, lines, asg: used, fom, cov, chi2, dof, strongExplained, intensityShare: total > 0 ? share / total : 0, volume: volumeOf(t) };
 }
 
+/**
+ * Whether a solution's refined cell fits its lines within their uncertainties: χ² at most the
+ * 0.1 % quantile of χ² with its degrees of freedom (Wilson–Hilferty approximation).
+ * Reference: Wilson & Hilferty, Proc. Natl Acad. Sci. 17, 684 (1931).
+ */
+function fitsWithin(s: Solution): boolean {
+  if (!(s.dof >= 1) || !Number.isFinite(s.chi2)) return false;
+  const k = s.dof;
+  const q999 = k * (1 - 2 / (9 * k) + 3.0902 * Math.sqrt(2 / (9 * k))) ** 3;
+  return s.chi2 <= q999;
+}
+
 /** Volume of a trial's primitive cell in nm³ (for lamellar, the period). */
 function volumeOf(t: Trial): number {
   if (t.kind === 'lamellar') return t.c;
@@ -624,7 +671,7 @@ function volumeOf(t: Trial): number {
 
 /**
  * The smallest cell of a solution: a cell whose every indexed line is also a line of a sub-cell
- * (c/2; a/2; a/√2 for tetragonal, a/√3 for hexagonal: the supercells whose extra lines all have
+ * (c/2, c/3; a/2; a/√2 for tetragonal, a/√3 for hexagonal: the supercells whose extra lines all have
  * indices of one parity or residue) is that sub-cell. The sub-cell predicts each indexed line at the
  * very same Q, so it explains the same lines with the same residuals; only the supercell's extra
  * lines, none of them observed, go. Left as a supercell, those lines cost it in F_N, yet they also
@@ -646,9 +693,9 @@ function smallestCell(w: Work, s: Solution, subset: Set<number> | null, opts: Re
     const subs: Trial[] = [];
     const fam = t.kind === 'lamellar' ? 'lamellar' : t.kind.split('-')[0];
     const family: Record<string, { kinds: LatticeKind[]; aF: number[]; cF: number[] }> = {
-      lamellar: { kinds: ['lamellar'], aF: [1], cF: [1, 1 / 2] },
+      lamellar: { kinds: ['lamellar'], aF: [1], cF: [1, 1 / 2, 1 / 3] },
       cubic: { kinds: ['cubic-P', 'cubic-I', 'cubic-F'], aF: [1, 1 / 2], cF: [1] },
-      tetragonal: { kinds: ['tetragonal-P', 'tetragonal-I'], aF: [1, Math.SQRT1_2, 1 / 2], cF: [1, 1 / 2] },
+      tetragonal: { kinds: ['tetragonal-P', 'tetragonal-I'], aF: [1, Math.SQRT1_2, 1 / 2], cF: [1, 1 / 2, 1 / 3] },
       hexagonal: { kinds: ['hexagonal-P', 'hexagonal-R'], aF: [1, 1 / Math.sqrt(3), 1 / 2], cF: [1, 1 / 2, 1 / 3] },
     };
     const f = family[fam];
@@ -917,6 +964,21 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
       if (!ca && a.strongExplained !== b.strongExplained) return b.strongExplained - a.strongExplained;
       const pa = cellParameters(a.t.kind);
       const pb = cellParameters(b.t.kind);
+      // the simplest lattice that explains the lines: a cell of fewer parameters that explains as
+      // many lines, the strong ones included, predicts no more lines in their range (a large cell's
+      // dense comb of lines matches anything) and fits them within their uncertainties (χ² below
+      // its 0.1 % quantile) is taken, however much closer the other's extra parameter brings them
+      // (F_N rewards the closeness a free parameter buys on few lines)
+      if (pa !== pb) {
+        const [simple, other] = pa < pb ? [a, b] : [b, a];
+        if (simple.hkls.length >= other.hkls.length && simple.strongExplained >= other.strongExplained && simple.fom.nPossible <= other.fom.nPossible && fitsWithin(simple)) return simple === a ? -1 : 1;
+      } else if (a.hkls.length !== b.hkls.length) {
+        // as many parameters: the cell that explains more lines, predicting no more in their range
+        // and fitting within the uncertainties, is taken (a weak line only one cell has tells them
+        // apart, as the hexagonal 110 tells a hexagonal cell from the tetragonal one of a·√3/2)
+        const [more, fewer] = a.hkls.length > b.hkls.length ? [a, b] : [b, a];
+        if (more.strongExplained >= fewer.strongExplained && more.fom.nPossible <= fewer.fom.nPossible && fitsWithin(more)) return more === a ? -1 : 1;
+      }
       // once both figures of merit are convincing (F_N ≥ 20, common practice), a larger F_N is no
       // further evidence (a few lines fit closely by chance) while lines explained are: between
       // cells of as many parameters, one explaining half as many lines again wins
@@ -1053,18 +1115,20 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
         // other phase; once those are the other phase's, a half cell that explains as many of the
         // lines left, the strong ones included, is the cell
         const ownLines = first.hkls.filter((h) => own.has(h.peak)).length;
-        const halves = cellParameters(first.t.kind) === 2 ? [{ ...first.t, c: first.t.c / 2 }, { ...first.t, a: first.t.a / 2 }] : [];
-        for (const t of halves) {
+        const parts = cellParameters(first.t.kind) === 2 ? [{ edge: 'c', n: 2 }, { edge: 'c', n: 3 }, { edge: 'a', n: 2 }] : [];
+        for (const { edge, n } of parts) {
+          const t = edge === 'c' ? { ...first.t, c: first.t.c / n } : { ...first.t, a: first.t.a / n };
           const half = own.size >= 2 ? evaluate(w, t, own, opts) : null;
           if (half && half.hkls.length >= ownLines && half.strongExplained >= first.hkls.filter((h) => own.has(h.peak) && strong.has(h.peak)).length && half.fom.fN >= minFom) {
-            notes.push(`the ${LATTICE_WORDS[first.t.kind]} cell with ${t.c < first.t.c ? 'c' : 'a'} doubled (a ${first.t.a.toPrecision(6)} nm, c ${first.t.c.toPrecision(6)} nm) explains lines of the other phase too; without them the half cell explains as many lines and is taken (the smallest cell)`);
+            notes.push(`the ${LATTICE_WORDS[first.t.kind]} cell with ${edge} ${n === 2 ? 'doubled' : 'tripled'} (a ${first.t.a.toPrecision(6)} nm, c ${first.t.c.toPrecision(6)} nm) explains lines of the other phase too; without them the cell with ${edge}/${n} explains as many lines and is taken (the smallest cell)`);
             first = half;
             break;
           }
         }
       }
-      phases.push(phaseOf(first, false));
-      if (second) phases.push(phaseOf(second, false));
+      const [firstS, secondS] = second ? settleLeftLines(w, first, second, scope, opts, minFom) : [first, null];
+      phases.push(phaseOf(firstS, false));
+      if (secondS) phases.push(phaseOf(secondS, false));
       const left = strongScope.length - bestPair!.key[0];
       if (left > 0) notes.push(`${left} strong line(s) explained by no phase found`);
     }

@@ -164,6 +164,8 @@ const SPLIT_AREA_KEPT = 0.7;
 const BACKGROUND_SETTLED_SIGMA = 0.1;
 /** Most such rounds (the benchmark's crowded tetragonal patterns settle within about eight; a pattern that does not is left as the last pass fitted it). */
 const MAX_BACKGROUND_ROUNDS = 12;
+/** χ² quantiles at 0.1 % for 1–6 degrees of freedom: the likelihood-ratio test between two descriptions of a band (Wilks 1938). */
+const CHI2_999 = [0, 10.83, 13.82, 16.27, 18.47, 20.52, 22.46];
 /** A line broader than this many times the width trend is a broad line of its own kind (a clay order, a band), not a sharp line's tails. */
 const BROAD_VS_TREND = 3;
 /** Widths of the residual search's matched filters, in units of the group's typical FWHM. */
@@ -832,8 +834,29 @@ function widthTrend(ctx: Context, fits: GroupFit[]): ((c: number) => { w: number
   const solve = (pts: FitMember[]) => {
     const ws = pts.map((m) => m.w).sort((a, b) => a - b);
     const med = ws[Math.floor(ws.length / 2)];
-    if (pts.length < 4) return () => med;
-    const k = twoTheta ? 3 : 2;
+    // two or three lines: the size and strain form alone, w² = a + b·tan²θ (a, b ≥ 0), so that a
+    // broad line at high angle is not held to the width of the lines below it; one line: its width
+    const k = pts.length >= 4 ? (twoTheta ? 3 : 2) : 0;
+    if (k === 0) {
+      if (!twoTheta || pts.length < 2) return () => med;
+      let sx = 0;
+      let sy = 0;
+      let sxx = 0;
+      let sxy = 0;
+      for (const m of pts) {
+        const t2 = Math.tan((m.c * Math.PI) / 360) ** 2;
+        sx += t2;
+        sy += m.w * m.w;
+        sxx += t2 * t2;
+        sxy += t2 * m.w * m.w;
+      }
+      const np = pts.length;
+      const den = np * sxx - sx * sx;
+      const b = den > 0 ? (np * sxy - sx * sy) / den : -1;
+      const a = (sy - b * sx) / np;
+      if (!(b >= 0 && a > 0)) return () => med;
+      return (c: number) => Math.min(Math.max(Math.sqrt(a + b * Math.tan((c * Math.PI) / 360) ** 2), 0.5 * ws[0]), 2 * ws[ws.length - 1]);
+    }
     const ata = new Float64Array(k * k);
     const atb = new Float64Array(k);
     for (const m of pts) {
@@ -1151,6 +1174,7 @@ export function fitPattern(pattern: Pattern, options: FitOptions = {}): PatternF
     for (let i = 0; i < n; i++) if (y[i] > 0) floor = Math.min(floor, y[i]);
     const positive = Float64Array.from(strippedAll, (v) => Math.max(v, Number.isFinite(floor) ? 0.5 * floor : 1e-6));
     let wide: Float64Array | null = null;
+    const reshaped = new Set<GroupFit>();
     all.forEach((m, k) => {
       if (m.given || !(m.sa > 0) || m.a / m.sa < ctx.zCrit || m.w < 0.1 * ctx.maxFwhm || m.w < 4 * ctx.step) return;
       wide ??= localBackground(x, positive, ctx.noise.variance, { halfWidth: 3 * halfWidth, robustHalfWindow });
@@ -1165,8 +1189,16 @@ export function fitPattern(pattern: Pattern, options: FitOptions = {}): PatternF
       const gain = (sym.chi2 - spl.chi2) / Math.max(1, spl.reducedChi2);
       if (gain > 10.83 && b.rho >= 2 && !b.atBound.includes('asymmetry') && b.a / Math.max(b.sa, 1e-300) >= ctx.zCrit) {
         Object.assign(m, { c: b.c, a: b.a, w: b.w, eta: b.eta, rho: b.rho, split: true, sc: b.sc, sa: b.sa, sw: b.sw, se: b.se, srho: b.srho, covAW: b.covAW, covAE: b.covAE, covWE: b.covWE, atBound: b.atBound });
+        const g = fits.find((f) => f.members.includes(m));
+        if (g) reshaped.add(g);
       }
     });
+    if (wide) for (const g of bandTailLines(ctx, fits, wide, y, profileOf)) reshaped.add(g);
+    // the groups whose members changed shape: their model drawn again from the members
+    for (const g of reshaped) {
+      const prs = g.members.map(profileOf);
+      for (let i = g.i0; i <= g.i1; i++) g.model[i - g.i0] = background[i] + prs.reduce((sum, pr) => sum + pr[i], 0);
+    }
   }
   // the model, the halos and the peaks
   const model = Float64Array.from(background);
@@ -1203,6 +1235,97 @@ export function fitPattern(pattern: Pattern, options: FitOptions = {}): PatternF
   if (useKa2) notes.push(`Kα2 fitted as a doublet: same shape, area ratio ${ctx.ratio}`);
   if (halos.length) notes.push(`${halos.length} broad halo(s) in the background (amorphous scattering): ${halos.map((h) => `at ${h.position.toPrecision(4)}, FWHM ${h.fwhm.toPrecision(3)}`).join('; ')}; not peaks`);
   return { background, smoothed, model, peaks, halos, noiseGain: ctx.noise.gain, test, rejected, notes };
+}
+
+/**
+ * A line on the high-angle tail of an (hk) band (a clay's basal order beside its band, as 003 beside
+ * the 02,11 band of a smectite). Fitted alone, such a pair reads as one broad symmetric line, or as two
+ * bands: the band's tail, left to the background, makes the line look asymmetric. Each strong broad
+ * member is described again together with the members on its tail: as a band followed by symmetric
+ * lines (the neighbours' own asymmetry withdrawn), or, with no neighbour, as a band plus one new line
+ * (started on a grid of positions along the tail). The likelihood-ratio test (Δχ², scaled by the
+ * reduced χ²) decides: a description with fewer parameters stands unless the other is better at 0.1 %;
+ * a new line is a detection and must pass the pattern's own false-alarm level (the peak test's critical
+ * z, Bonferroni over positions) as a χ² quantile for the added parameters (Wilson–Hilferty). The band
+ * must be significant and asymmetric (ρ ≥ 2, not at its bound); each line at least 2 standard
+ * uncertainties above zero (its area trades with the band's, so the joint test, not its own z, is its
+ * evidence), narrower than the band, above it in angle and at no bound. Members are changed in place;
+ * a new line joins its band's group.
+ * @returns the groups whose members changed
+ * Reference: band shape, Warren, Phys. Rev. 59, 693 (1941); test, Wilks, Ann. Math. Stat. 9, 60 (1938);
+ * χ² quantile, Wilson & Hilferty, Proc. Natl Acad. Sci. 17, 684 (1931).
+ */
+function bandTailLines(ctx: Context, fits: GroupFit[], wide: Float64Array, y: Float64Array, profileOf: (m: FitMember) => Float64Array): Set<GroupFit> {
+  const changed = new Set<GroupFit>();
+  const { x, n } = ctx;
+  const params = (ms: Member[]) => ms.reduce((s2, q) => s2 + (q.fixed ? 2 : q.split ? 5 : 4), 0);
+  const asStart = (q: Member): Member => ({ c: q.c, a: q.a, w: q.w, eta: q.eta, rho: q.rho, split: q.split, given: q.given });
+  const sig = (q: FitMember) => q.a / Math.max(q.sa, 1e-300) >= ctx.zCrit;
+  const eligible = (q: FitMember) => !q.given && !q.fixed && q.sa > 0 && sig(q) && q.w >= 0.1 * ctx.maxFwhm && q.w >= 4 * ctx.step;
+  const done = new Set<FitMember>();
+  for (const f of fits) {
+    for (const m of [...f.members]) {
+      if (done.has(m) || !eligible(m)) continue;
+      const all = fits.flatMap((g) => g.members);
+      const nb = all.filter((q) => q !== m && !q.given && q.c > m.c && q.c <= m.c + 4 * m.w);
+      // the counts with every other member taken away
+      const data = Float64Array.from(y);
+      for (const q of all) {
+        if (q === m || nb.includes(q)) continue;
+        const pr = profileOf(q);
+        for (let i = 0; i < n; i++) data[i] -= pr[i];
+      }
+      const c2 = ctx.ka2Of(m.c);
+      const window: [number, number] = [m.c - 3 * m.w, (Number.isNaN(c2) ? m.c : c2) + 12 * m.w];
+      const nowStart = [m, ...nb].map(asStart);
+      const now = fitGroup(ctx, nowStart, wide, { y: data, window });
+      if (!now) continue;
+      const band: Member = { ...asStart(m), a: m.a * (m.split ? 1 : 1.5), rho: m.split ? m.rho : 3, split: true };
+      const trials: Member[][] = [];
+      if (nb.length > 0) {
+        if (!nb.some((q) => q.split) && m.split) continue; // already a band with lines on its tail
+        trials.push([band, ...nb.map((q) => ({ ...asStart(q), rho: 1, split: false }))]);
+      } else {
+        for (const back of [0, 0.3]) for (const ahead of [0.15, 0.35, 0.6, 0.9, 1.3]) {
+          const lw = 0.45 * m.w;
+          trials.push([{ ...band, c: m.c - back * m.w }, { c: m.c + ahead * m.w, a: 0.3 * m.a, w: lw, eta: m.eta, rho: 1, split: false, given: false }]);
+        }
+      }
+      let best: GroupFit | null = null;
+      for (const t of trials) {
+        const r = fitGroup(ctx, t, wide, { y: data, window });
+        if (!r) continue;
+        const [b, ...lines] = r.members;
+        const ok = b.rho >= 2 && !b.atBound.includes('asymmetry') && sig(b) && lines.every((l) => l.a >= 2 * l.sa && l.w < b.w && l.c > b.c && l.atBound.length === 0);
+        if (ok && (!best || r.chi2 < best.chi2)) best = r;
+      }
+      if (!best) continue;
+      const dp = params(best.members) - params(nowStart);
+      const gain = (now.chi2 - best.chi2) / Math.max(1, best.reducedChi2);
+      // a new line is a detection: its Δχ² must pass the pattern's false-alarm level (the critical
+      // z of the peak test, Bonferroni over positions) for dp degrees of freedom (Wilson–Hilferty
+      // approximation of the χ² quantile); fewer parameters: the simpler stands unless 0.1 % says no
+      const wh = (k: number) => k * (1 - 2 / (9 * k) + ctx.zCrit * Math.sqrt(2 / (9 * k))) ** 3;
+      const accept = dp > 0 ? gain > Math.max(CHI2_999[Math.min(dp, 6)], wh(dp)) : dp < 0 ? gain > -CHI2_999[Math.min(-dp, 6)] : gain > 0;
+      if (!accept) continue;
+      const [b, ...lines] = best.members;
+      Object.assign(m, b, { split: true });
+      done.add(m);
+      changed.add(f);
+      lines.forEach((l, i) => {
+        if (i < nb.length) {
+          Object.assign(nb[i], l, { split: false, rho: 1 });
+          done.add(nb[i]);
+          const g = fits.find((h) => h.members.includes(nb[i]));
+          if (g) changed.add(g);
+        } else {
+          f.members.push(l);
+          done.add(l);
+        }
+      });
+    }
+  }
+  return changed;
 }
 
 /** A fitted member in every unit, with the fit uncertainties. */
