@@ -74,6 +74,9 @@ export class StrataDiffractionPanel extends LitElement {
       table { border-collapse: collapse; width: 100%; font-variant-numeric: tabular-nums; }
       th, td { padding: 2px 4px; text-align: right; border-bottom: 1px solid var(--line); }
       td.nowrap { white-space: nowrap; }
+      /* a value and its ± stay on one line; the cross-check's five columns fit the side column */
+      table.cross-check { font-size: 0.9em; }
+      table.cross-check td { white-space: nowrap; padding-left: 0.25em; padding-right: 0.25em; }
       th:first-child, td:first-child { text-align: left; }
       textarea { width: 100%; box-sizing: border-box; font: inherit; color: var(--text); background: #212b35; border: 1px solid var(--line); }
       /* a long option (a standard with its certified cell) must not push the column wider than the screen */

@@ -77,8 +77,10 @@ export interface SheetsReport {
   sheets: SheetsReportSheet[];
   /** thickness in `unit`; thicknessNm the same block when that unit is nm (as \`match\` reads it), else null. */
   stats: { n: number; unit: 'nm' | 'px'; thickness: StatBlock | null; thicknessNm: StatBlock | null; layers: StatBlock | null; layerCounts: [number, number][] };
-  /** The layer periods used, px. */
+  /** The layer periods used, px: where the search looked for layers (no ±: each sheet's own period carries its ±). */
   periodsPx: number[];
+  /** 'given' by the user (--period) or 'found' in the image. */
+  periodSource: 'given' | 'found';
   /** Bands examined and not reported, by reason (automatic search); a reason's numbers are written '#'. */
   rejected: Record<string, number>;
   /** The same, one readable line per reason: its count and the range of each of its numbers ("2 × too faint: evidence 4.1–9.8 below 12"). */
@@ -277,6 +279,7 @@ export async function sheetsReport(
       sheets: out,
       stats: { n: stats.n, unit: stats.unit, thickness: statBlock(stats.thickness), thicknessNm: stats.unit === 'nm' ? statBlock(stats.thickness) : null, layers: statBlock(stats.layers), layerCounts: stats.layerCounts },
       periodsPx,
+      periodSource: opts.periodPx !== undefined ? 'given' : 'found',
       rejected,
       rejectedSummary: summariseReasons(rejectedReasons),
       message,
@@ -295,7 +298,11 @@ export function formatSheets(r: SheetsReport, notes: string[]): string {
       ? `calibration  ${Number(c.nmPerPx.toPrecision(6))} nm per pixel, ±${Number(((c.relUncertainty ?? 0) * 100).toPrecision(3))} % (source: ${c.source})`
       : 'calibration  none',
   );
-  if (r.periodsPx.length) lines.push(`period       ${r.periodsPx.map((d) => `${d.toFixed(3)} px`).join(', ')} (layer period${r.periodsPx.length > 1 ? 's' : ''} found)`);
+  if (r.periodsPx.length) {
+    const list = r.periodsPx.map((d) => `${d.toFixed(3)} px`).join(', ');
+    const plural = r.periodsPx.length > 1 ? 's' : '';
+    lines.push(r.periodSource === 'given' ? `period       ${list} (given)` : `period       ${list} (layer period${plural} where the search found layers; no ±: each sheet's own period, with its ±, is in the table)`);
+  }
   lines.push('');
   if (r.sheets.length === 0) {
     lines.push(`${r.message ?? 'no stacks found'}`);

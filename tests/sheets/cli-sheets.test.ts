@@ -48,6 +48,13 @@ describe('stratameter sheets', () => {
     const text = c.out.join('');
     expect(text).toMatch(/layers/);
     expect(text).toMatch(/sheets\s+2/);
+    // the search's period is a starting value, not a measurement: it says it has no ± (common practice: every number says what its ± holds)
+    expect(text).toMatch(/period\s+[0-9., px]*8\.\d{3} px \(layer periods? where the search found layers; no ±/);
+  });
+  it('a period given is printed as given', async () => {
+    const c = capture();
+    expect(await main(['sheets', file, '--period-px', '8'], c.io)).toBe(0);
+    expect(c.out.join('')).toMatch(/period\s+8\.000 px \(given\)/);
   });
   it('rejects a malformed --line', async () => {
     const c = capture();
