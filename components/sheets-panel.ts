@@ -548,7 +548,7 @@ export class StrataSheetsPanel extends LitElement {
         traces: [{ label: 'grey value', y, style: 'data' }], marks: points, rules,
         description: 'Profile along the line with the layers found and the n·d extent of each sheet.',
       } satisfies PlotData}></strata-plot>
-      <p class="muted">Period ${r.periodPx === null ? '—' : `${r.periodPx.toFixed(3)} px`} (${r.periodSource ?? 'none'}).</p>
+      <p class="muted">Period ${r.periodPx === null ? '—' : `${r.periodPx.toFixed(3)} px`} (${r.periodSource === null ? 'none' : r.periodSource === 'given' ? 'given' : `from the ${r.periodSource}, no ±: each sheet's own period and its ± are in the table`}).</p>
       ${r.sheets.length
         ? html`<table>
             <tr><th>#</th><th>layers</th><th>n·d (${cal ? 'nm' : 'px'})</th><th>period</th></tr>
@@ -658,7 +658,7 @@ export class StrataSheetsPanel extends LitElement {
           <label><input type="checkbox" .checked=${this.bright} @change=${(e: Event) => (this.bright = (e.target as HTMLInputElement).checked)}> bright layers</label>
         </div>
         <p class="muted">Leave empty to find the period in the image; type it when known (e.g. from the basal X-ray reflection).
-          ${this.periods.length ? html`Found: ${this.periods.map((p) => `${(cal ? p.periodPx * nmPerPxAlong(cal, 'ring', 0) : p.periodPx).toFixed(3)} ${cal ? 'nm' : 'px'}`).join(', ')}.` : nothing}</p>
+          ${this.periods.length ? html`Found: ${this.periods.map((p) => `${(cal ? p.periodPx * nmPerPxAlong(cal, 'ring', 0) : p.periodPx).toFixed(3)} ${cal ? 'nm' : 'px'}`).join(', ')} (where the search found layers, no ±; each sheet's own period carries its ±).` : nothing}</p>
       </section>
       <section class="o2">
         <h3>Stacks in the image</h3>
