@@ -4,6 +4,7 @@
  * mixtures of two phases.
  */
 import { cellParameters, centringAllows, latticeLines, LATTICE_KINDS, qOf, type LatticeCell, type LatticeKind } from './lattice';
+import { chiSquareUpperQuantile } from '../measure/stats';
 import { levenbergMarquardt } from './lm';
 import { zeroShiftCellPartDeg, type InternalStandard } from './internal-standard';
 
@@ -656,10 +657,7 @@ function evaluate(w: Work, trial: Trial, subset: Set<number> | null, opts: Requi
  * Reference: Wilson & Hilferty, Proc. Natl Acad. Sci. 17, 684 (1931).
  */
 function fitsWithin(s: Solution): boolean {
-  if (!(s.dof >= 1) || !Number.isFinite(s.chi2)) return false;
-  const k = s.dof;
-  const q999 = k * (1 - 2 / (9 * k) + 3.0902 * Math.sqrt(2 / (9 * k))) ** 3;
-  return s.chi2 <= q999;
+  return s.dof >= 1 && Number.isFinite(s.chi2) && s.chi2 <= chiSquareUpperQuantile(0.001, s.dof);
 }
 
 /** Volume of a trial's primitive cell in nm³ (for lamellar, the period). */

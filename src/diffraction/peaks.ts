@@ -7,6 +7,7 @@ import { ka2Position, KA2_RATIO } from './bragg';
 import { findHalos, localBackground, type Halo } from './background';
 import { levenbergMarquardt, solveLinear } from './lm';
 import type { Pattern } from './pattern';
+import { chiSquareUpperQuantile } from '../measure/stats';
 import { savitzkyGolay } from './smooth';
 
 export type { Halo } from './background';
@@ -259,6 +260,8 @@ interface Context {
   ratio: number;
   ka2Of: (c: number) => number;
   zCrit: number;
+  /** The false-alarm probability per position behind zCrit (Bonferroni: the pattern's rate over its positions). */
+  alphaPerPosition: number;
   maxFwhm: number;
   minFwhm: number;
   windowFwhm: number;
@@ -306,6 +309,11 @@ interface GroupFit {
   b1: number;
 }
 
+/** A member's free parameters in a group fit: position and area always; FWHM, η (and the asymmetry of a split profile) unless its shape is held. */
+function freeParameters(m: Member): number {
+  return m.fixed ? 2 : m.split ? 5 : 4;
+}
+
 /** Extent of a member's profile (both lines) for windows and masks. */
 function extent(ctx: Context, m: Member, fwhms: number): [number, number] {
   const wl = (2 * m.w) / (1 + m.rho);
@@ -343,10 +351,7 @@ function fitGroup(ctx: Context, members: Member[], bg: Float64Array, own?: { y: 
   if (own) [lo, hi] = own.window;
   const i0 = Math.max(0, lowerIndex(x, lo));
   const i1 = Math.min(ctx.n - 1, lowerIndex(x, hi));
-  // each member's parameters: position and area always; FWHM, η (and the asymmetry of a split
-  // profile) unless the member's shape is fixed
-  const per = (m: Member) => (m.fixed ? 2 : m.split ? 5 : 4);
-  const np = 2 + members.reduce((s, m) => s + per(m), 0);
+  const np = 2 + members.reduce((s, m) => s + freeParameters(m), 0);
   if (i1 - i0 + 1 < np + 3) return null;
   const xs = x.subarray(i0, i1 + 1);
   const ys = y.subarray(i0, i1 + 1);
@@ -444,7 +449,7 @@ function fitGroup(ctx: Context, members: Member[], bg: Float64Array, own?: { y: 
       const r0 = read(p, k);
       const [ja, jb] = reachOf(r0);
       addProfile(r0, base, ja, jb, true);
-      for (let t = 0; t < per(m); t++) {
+      for (let t = 0; t < freeParameters(m); t++) {
         const j = o + t;
         const old = q[j];
         let h = t === 0 ? 1e-4 * ctx.step : 1e-6 * Math.max(Math.abs(old), 1e-2);
@@ -473,14 +478,14 @@ function fitGroup(ctx: Context, members: Member[], bg: Float64Array, own?: { y: 
     const o = offsets[k];
     const names = ['position', 'area', 'fwhm', 'eta', 'asymmetry'];
     const atBound: string[] = [];
-    for (let q = 0; q < per(m); q++) {
+    for (let q = 0; q < freeParameters(m); q++) {
       if (q === 3) continue; // η = 0 or 1 is a legitimate pure Gaussian or Lorentzian
       const span = Math.abs(upper[o + q] - lower[o + q]);
       const tolB = Number.isFinite(span) ? 1e-6 * span : 1e-12;
       if (Math.abs(P[o + q] - lower[o + q]) <= tolB || Math.abs(P[o + q] - upper[o + q]) <= tolB) atBound.push(names[q]);
     }
-    const sd = (q: number) => (q < per(m) ? Math.sqrt(Math.max(0, cov(o + q, o + q))) : 0);
-    const cv = (a: number, b: number) => (a < per(m) && b < per(m) ? cov(o + a, o + b) : 0);
+    const sd = (q: number) => (q < freeParameters(m) ? Math.sqrt(Math.max(0, cov(o + q, o + q))) : 0);
+    const cv = (a: number, b: number) => (a < freeParameters(m) && b < freeParameters(m) ? cov(o + a, o + b) : 0);
     const r = read(P, k);
     return {
       c: r.c, a: r.a, w: r.w, eta: r.e, rho: r.rho, split: m.split, given: m.given, fixed: m.fixed, init: m.init ?? { c: m.c, a: m.a, w: m.w },
@@ -611,7 +616,7 @@ function context(pattern: Pattern, options: FitOptions, extra: { useKa2?: boolea
     pattern, x, y, n, step, noise, useKa2,
     ratio: pattern.radiation?.ka2Ratio || KA2_RATIO,
     ka2Of: (c: number) => (useKa2 ? ka2Position(c, lambda!, pattern.ka2Nm!) : NaN),
-    zCrit, maxFwhm,
+    zCrit, alphaPerPosition: alpha / elements, maxFwhm,
     minFwhm: 1.2 * step,
     windowFwhm: options.windowFwhm ?? 4,
     maxGroup: options.maxGroup ?? 8,
@@ -1263,7 +1268,7 @@ export function fitPattern(pattern: Pattern, options: FitOptions = {}): PatternF
 function bandTailLines(ctx: Context, fits: GroupFit[], wide: Float64Array, y: Float64Array, profileOf: (m: FitMember) => Float64Array): Set<GroupFit> {
   const changed = new Set<GroupFit>();
   const { x, n } = ctx;
-  const params = (ms: Member[]) => ms.reduce((s2, q) => s2 + (q.fixed ? 2 : q.split ? 5 : 4), 0);
+  const params = (ms: Member[]) => ms.reduce((s2, q) => s2 + freeParameters(q), 0);
   const asStart = (q: Member): Member => ({ c: q.c, a: q.a, w: q.w, eta: q.eta, rho: q.rho, split: q.split, given: q.given });
   const sig = (q: FitMember) => q.a / Math.max(q.sa, 1e-300) >= ctx.zCrit;
   const eligible = (q: FitMember) => !q.given && !q.fixed && q.sa > 0 && sig(q) && q.w >= 0.1 * ctx.maxFwhm && q.w >= 4 * ctx.step;
@@ -1307,11 +1312,10 @@ function bandTailLines(ctx: Context, fits: GroupFit[], wide: Float64Array, y: Fl
       if (!best) continue;
       const dp = params(best.members) - params(nowStart);
       const gain = (now.chi2 - best.chi2) / Math.max(1, best.reducedChi2);
-      // a new line is a detection: its Δχ² must pass the pattern's false-alarm level (the critical
-      // z of the peak test, Bonferroni over positions) for dp degrees of freedom (Wilson–Hilferty
-      // approximation of the χ² quantile); fewer parameters: the simpler stands unless 0.1 % says no
-      const wh = (k: number) => k * (1 - 2 / (9 * k) + ctx.zCrit * Math.sqrt(2 / (9 * k))) ** 3;
-      const accept = dp > 0 ? gain > Math.max(CHI2_999[Math.min(dp, 6)], wh(dp)) : dp < 0 ? gain > -CHI2_999[Math.min(-dp, 6)] : gain > 0;
+      // a new line is a detection: its Δχ² must pass the pattern's false-alarm level (the peak
+      // test's, Bonferroni over positions) for dp degrees of freedom; fewer parameters: the simpler
+      // stands unless 0.1 % says no
+      const accept = dp > 0 ? gain > Math.max(CHI2_999[Math.min(dp, 6)], chiSquareUpperQuantile(ctx.alphaPerPosition, dp)) : dp < 0 ? gain > -CHI2_999[Math.min(-dp, 6)] : gain > 0;
       if (!accept) continue;
       const [b, ...lines] = best.members;
       Object.assign(m, b, { split: true });
