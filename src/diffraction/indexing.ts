@@ -3,7 +3,7 @@
  * R; lamellar) explains every strong line, with which cell, zero shift and figures of merit, and
  * mixtures of two phases.
  */
-import { cellParameters, centringAllows, latticeLines, LATTICE_KINDS, qOf, type LatticeCell, type LatticeKind } from './lattice';
+import { cellParameters, centringAllows, cubicMultiplicity, latticeLines, LATTICE_KINDS, qOf, type LatticeCell, type LatticeKind } from './lattice';
 import { chiSquareUpperQuantile } from '../measure/stats';
 import { levenbergMarquardt } from './lm';
 import { zeroShiftCellPartDeg, type InternalStandard } from './internal-standard';
@@ -660,6 +660,43 @@ function fitsWithin(s: Solution): boolean {
   return s.dof >= 1 && Number.isFinite(s.chi2) && s.chi2 <= chiSquareUpperQuantile(0.001, s.dof);
 }
 
+/** Scatter allowed between a line's integrated intensity and the one-atom model, as a standard deviation of ln I (preferred orientation, absorption, extinction; from memory). */
+const INTENSITY_SCATTER_LN = 0.3;
+
+/**
+ * How well a cubic solution's multiplicities explain its lines' integrated intensities with one
+ * atom per lattice point: ln(I / (m·LP)) = c0 + c1·s², the atom's scattering factor and
+ * Debye–Waller factor squared being smooth in s² = 1/(4d²), LP = (1 + cos²2θ) / (sin²θ cos θ).
+ * The primitive cell of edge a and the body-centred cell of edge a√2 index the same lines
+ * (h² + k² + l² in the ratios 1:2:3:4:5:6:8 and 2:4:6:8:10:12:16) until the body-centred cell's
+ * 321, which the primitive cell cannot index (no h² + k² + l² = 7); below it only the intensities
+ * tell them apart, through the multiplicities (the first line's 6 against 12, the second's 12 against 6).
+ * @returns χ² of the ln I residuals (scatter INTENSITY_SCATTER_LN) and its degrees of freedom, or null (fewer than four lines with 2θ)
+ * Reference: Cullity & Stock, Elements of X-Ray Diffraction, 3rd ed. (2001), ch. 4 (multiplicity,
+ * Lorentz–polarisation factor) and ch. 10 (indexing cubic patterns).
+ */
+function oneAtomIntensityChi2(w: Work, s: Solution): { chi2: number; dof: number } | null {
+  const rows: Array<{ x: number; y: number }> = [];
+  for (const h of s.hkls) {
+    const tt = w.tt[h.peak];
+    const area = w.peaks[h.peak].intensity;
+    if (tt === null || !(area > 0)) continue;
+    const n = h.hkl[0] ** 2 + h.hkl[1] ** 2 + h.hkl[2] ** 2;
+    const m = cubicMultiplicity(s.t.kind, n);
+    const th = (tt * DEG) / 2;
+    const lp = (1 + Math.cos(2 * th) ** 2) / (Math.sin(th) ** 2 * Math.cos(th));
+    rows.push({ x: 1 / (4 * w.peaks[h.peak].dNm ** 2), y: Math.log(area / (m * lp)) });
+  }
+  if (rows.length < 4) return null;
+  const n = rows.length;
+  const mx = rows.reduce((a, r) => a + r.x, 0) / n;
+  const my = rows.reduce((a, r) => a + r.y, 0) / n;
+  const sxx = rows.reduce((a, r) => a + (r.x - mx) ** 2, 0);
+  const slope = sxx > 0 ? rows.reduce((a, r) => a + (r.x - mx) * (r.y - my), 0) / sxx : 0;
+  const chi2 = rows.reduce((a, r) => a + ((r.y - my - slope * (r.x - mx)) / INTENSITY_SCATTER_LN) ** 2, 0);
+  return { chi2, dof: n - 2 };
+}
+
 /** Volume of a trial's primitive cell in nm³ (for lamellar, the period). */
 function volumeOf(t: Trial): number {
   if (t.kind === 'lamellar') return t.c;
@@ -998,8 +1035,37 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
     }
     pool.length = 0;
     pool.push(...distinct);
+    // a primitive cubic cell and the body-centred one of edge a√2 that index the very same lines,
+    // predicting as many, are told apart by the intensities (oneAtomIntensityChi2): the cell whose
+    // multiplicities explain them (χ² within its 0.1 % quantile) and the other's not by a likelihood
+    // ratio of 100 or more (Δχ² ≥ 2 ln 100) is taken; else the smaller cell stays, and is named as uncertain
+    const head = pool[0];
+    let twinNamed: Solution | null = null;
+    if (head && (head.t.kind === 'cubic-P' || head.t.kind === 'cubic-I')) {
+      const twinKind: LatticeKind = head.t.kind === 'cubic-P' ? 'cubic-I' : 'cubic-P';
+      const ratio = head.t.kind === 'cubic-P' ? Math.SQRT2 : Math.SQRT1_2;
+      const samePeaks = (x: Solution) => x.hkls.length === head.hkls.length && x.hkls.every((h) => head.hkls.some((g) => g.peak === h.peak));
+      const twin = pool.find((x) => x.t.kind === twinKind && Math.abs(x.t.a / (head.t.a * ratio) - 1) < 2e-3 && samePeaks(x) && x.fom.nPossible === head.fom.nPossible);
+      if (twin) {
+        const [p, b] = head.t.kind === 'cubic-P' ? [head, twin] : [twin, head];
+        const ip = oneAtomIntensityChi2(w, p);
+        const ib = oneAtomIntensityChi2(w, b);
+        const fits = (r: { chi2: number; dof: number } | null) => r !== null && r.chi2 <= chiSquareUpperQuantile(0.001, r.dof);
+        const lr = 2 * Math.log(100);
+        const pick = ip && ib && fits(ib) && ip.chi2 - ib.chi2 >= lr ? b : ip && ib && fits(ip) && ib.chi2 - ip.chi2 >= lr ? p : null;
+        const cellA = (x: Solution) => `a ${x.t.a.toPrecision(6)} nm`;
+        const chiWords = ip && ib ? ` (χ² of ln I with one atom per lattice point: ${ip.chi2.toFixed(1)} primitive, ${ib.chi2.toFixed(1)} body-centred, on ${ip.dof} degrees of freedom)` : '';
+        const chosen = pick ?? (p.volume <= b.volume ? p : b);
+        const other = chosen === p ? b : p;
+        pool.splice(pool.indexOf(chosen), 1);
+        pool.unshift(chosen);
+        twinNamed = other;
+        if (pick) notes.push(`${LATTICE_WORDS[other.t.kind]} (${cellA(other)}) indexes the same lines as the ${LATTICE_WORDS[chosen.t.kind]} cell (${cellA(chosen)}); the line intensities follow the ${LATTICE_WORDS[chosen.t.kind]} cell's multiplicities${chiWords}, which is taken`);
+        else notes.push(`${LATTICE_WORDS[other.t.kind]} (${cellA(other)}) indexes the same lines as the ${LATTICE_WORDS[chosen.t.kind]} cell chosen (${cellA(chosen)}, the smaller cell), and the intensities do not tell them apart${chiWords}: the body-centred cell's 321 would`);
+      }
+    }
     // another lattice that explains the same lines about as well is named, not hidden
-    const alt = pool.find((x) => x !== pool[0] && x.t.kind !== pool[0].t.kind && cellParameters(x.t.kind) === cellParameters(pool[0].t.kind) && x.strongExplained === pool[0].strongExplained && x.hkls.length >= pool[0].hkls.length && score(x) > 0.9 * score(pool[0]));
+    const alt = pool.find((x) => x !== pool[0] && x !== twinNamed && x.t.kind !== pool[0].t.kind && cellParameters(x.t.kind) === cellParameters(pool[0].t.kind) && x.strongExplained === pool[0].strongExplained && x.hkls.length >= pool[0].hkls.length && score(x) > 0.9 * score(pool[0]));
     if (alt) notes.push(`${LATTICE_WORDS[alt.t.kind]} (a ${alt.t.a.toPrecision(6)} nm${cellParameters(alt.t.kind) === 2 ? `, c ${alt.t.c.toPrecision(6)} nm` : ''}) indexes the same lines about as well as the ${LATTICE_WORDS[pool[0].t.kind]} cell chosen (the smaller cell); lines at higher angle would tell them apart`);
     return { best: pool[0], pool };
   };

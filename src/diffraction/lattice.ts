@@ -118,3 +118,24 @@ export function latticeLines(cell: LatticeCell, dMinNm: number, dMaxNm = Infinit
   }
   return [...byQ.values()].sort((x, y) => x.q - y.q);
 }
+
+/**
+ * Integer triples (h, k, l) with h² + k² + l² = n that a cubic lattice's centring allows: the multiplicities of every family of reflections at that d, summed.
+ * @param kind a cubic lattice kind
+ * @param n h² + k² + l²
+ * @returns the multiplicity of the line (0 when the centring allows no triple)
+ */
+export function cubicMultiplicity(kind: LatticeKind, n: number): number {
+  if (!kind.startsWith('cubic')) throw new RangeError(`cubicMultiplicity needs a cubic lattice, got ${kind}`);
+  if (!(Number.isInteger(n) && n >= 1)) throw new RangeError(`h² + k² + l² must be a positive integer, got ${n}`);
+  const m = Math.floor(Math.sqrt(n));
+  let count = 0;
+  for (let h = -m; h <= m; h++) for (let k = -m; k <= m; k++) {
+    const r = n - h * h - k * k;
+    if (r < 0) continue;
+    const l = Math.round(Math.sqrt(r));
+    if (l * l !== r) continue;
+    for (const ll of l === 0 ? [0] : [l, -l]) if (centringAllows(kind, Math.abs(h), Math.abs(k), Math.abs(ll))) count++;
+  }
+  return count;
+}

@@ -5,11 +5,12 @@
  * halos and zero shifts, each written as a text file with one of many header styles.
  *
  * Phases are lattices with centring extinctions only (their intensities are drawn at random, seeded),
- * except where a real cell is named; sizes are Scherrer sizes (Lorentzian broadening) on top of a
+ * except where a real cell is named or a monatomic metal's intensities follow from its atom; sizes are Scherrer sizes (Lorentzian broadening) on top of a
  * laboratory instrument profile.
  */
 import { dToTwoTheta } from '../../src/diffraction/bragg';
-import { latticeLines, type LatticeCell } from '../../src/diffraction/lattice';
+import { cubicMultiplicity, latticeLines, type LatticeCell, type LatticeKind } from '../../src/diffraction/lattice';
+import { scatteringFactor } from '../../src/diffraction/scattering';
 import { HC_KEV_NM } from '../../src/diffraction/radiation';
 import { rng } from '../random';
 import { LAB_INSTRUMENT, reflectionWidth, syntheticPattern, type SyntheticHalo, type SyntheticInstrument, type SyntheticPeak } from './diffraction-pattern';
@@ -30,6 +31,12 @@ export interface ScenarioPhase {
   bands?: Array<{ dNm: number; rel: number }>;
   /** Layered silicate style: only the 00l lines of the cell (and the bands). */
   basalOnly?: boolean;
+  /**
+   * A monatomic cubic phase (one atom of this element per lattice point): its intensities follow
+   * the multiplicity, the atom's scattering factor, a Debye–Waller factor (B drawn in 0.3–1 Å²) and
+   * the Lorentz–polarisation factor, each line scattered by 15 % (texture), instead of drawn at random.
+   */
+  element?: string;
   /** Smallest d drawn (default: the pattern's range). */
   dMinNm?: number;
 }
@@ -100,6 +107,21 @@ function expectedZ(area: number, fwhm: number, bgLevel: number, step: number): n
   return (0.5 * inside) / Math.sqrt(Math.max(1, bgLevel * pts + inside));
 }
 
+/** A standard normal deviate from a uniform source (Box–Muller). */
+function gaussOf(rnd: () => number): number {
+  return Math.sqrt(-2 * Math.log(Math.max(1e-12, rnd()))) * Math.cos(2 * Math.PI * rnd());
+}
+
+/** Integrated intensity of a monatomic cubic line: m·f²·exp(−2B s²)·LP (Cullity & Stock, Elements of X-Ray Diffraction, ch. 4). */
+function monatomicIntensity(kind: LatticeKind, element: string, hkl: [number, number, number], dNm: number, lambdaNm: number, bIsoA2: number): number {
+  const m = cubicMultiplicity(kind, hkl[0] ** 2 + hkl[1] ** 2 + hkl[2] ** 2);
+  const sA = 1 / (20 * dNm); // sin θ / λ in Å⁻¹
+  const f = scatteringFactor(element, sA);
+  const th = Math.asin(lambdaNm / (2 * dNm));
+  const lp = (1 + Math.cos(2 * th) ** 2) / (Math.sin(th) ** 2 * Math.cos(th));
+  return m * f * f * Math.exp(-2 * bIsoA2 * sA * sA) * lp;
+}
+
 /** Draws a scenario: lines of every phase with widths from the instrument and size, halos, noise. */
 function draw(s: Setup, seed: number): Scenario {
   const rnd = rng(seed * 7919 + s.name.length * 31 + s.phases.length);
@@ -116,7 +138,8 @@ function draw(s: Setup, seed: number): Scenario {
     let lines = latticeLines(ph.cell, Math.max(dMin, ph.dMinNm ?? 0), dMax).filter((l) => !ph.allows || ph.allows(...l.hkl));
     if (ph.basalOnly) lines = lines.filter((l) => l.hkl[0] === 0 && l.hkl[1] === 0);
     // random intensities, seeded; the high orders of a lamellar stack stay weak (their structure factor falls off)
-    const rel = lines.map((_, i) => ph.intensities?.[i] ?? Math.max(0.04, rnd() ** 2) * (ph.cell.kind === 'lamellar' ? 0.1 : i < 3 ? 1.5 : 1));
+    const bIso = ph.element ? 0.3 + 0.7 * rnd() : 0;
+    const rel = lines.map((l, i) => ph.intensities?.[i] ?? (ph.element ? monatomicIntensity(ph.cell.kind, ph.element, l.hkl, l.dNm, lambda, bIso) * Math.exp(0.15 * gaussOf(rnd)) : Math.max(0.04, rnd() ** 2) * (ph.cell.kind === 'lamellar' ? 0.1 : i < 3 ? 1.5 : 1)));
     const top = Math.max(...rel);
     lines.forEach((l, i) => {
       const tt = dToTwoTheta(l.dNm, lambda);
@@ -188,10 +211,10 @@ function setups(): Setup[] {
     { name: 'silver behenate, zero shift −0.05°', covers: 'lamellar, zero shift', phases: [{ name: 'AgBeh', cell: { kind: 'lamellar', aNm: NaN, cNm: 5.838 }, sizeNm: 60, strongestArea: 300, intensities: [1, 0.5, 0.45, 0.3, 0.25, 0.2, 0.15, 0.12, 0.1, 0.08] }], rangeDeg: [1.2, 16], stepDeg: 0.01, background: { a: 80, b: 2000, c: 1.5 }, zeroShiftDeg: -0.05, radiation: 'doublet', header: 1 },
     { name: 'smectite with (hk) bands', covers: 'layered silicate, (hk) bands, halo-free', phases: [{ name: 'smectite', cell: { kind: 'lamellar', aNm: NaN, cNm: 1.25 }, sizeNm: 8, strongestArea: 600, intensities: [1, 0.12, 0.18, 0.06, 0.07], bands: SMECTITE_BANDS }], rangeDeg: [3, 70], background: { a: 150, b: 2000, c: 3 }, radiation: 'doublet', header: 2 },
     { name: 'clay film on polymer halo', covers: 'layered silicate, amorphous halo', phases: [{ name: 'clay', cell: { kind: 'lamellar', aNm: NaN, cNm: 1.25 }, sizeNm: 10, strongestArea: 1500, intensities: [1, 0.12, 0.1, 0.04, 0.03] }], rangeDeg: [2, 40], background: { a: 60, b: 3000, c: 1 }, halos: [{ centerDeg: 19.6, fwhmDeg: 8.5, height: 380 }], radiation: 'doublet', header: 3 },
-    { name: 'Au-like fcc', covers: 'cubic F', phases: [{ name: 'fcc metal', cell: cubic('cubic-F', 0.40782), sizeNm: 25, strongestArea: 400 }], rangeDeg: [30, 120], radiation: 'doublet', header: 4 },
+    { name: 'Au-like fcc', covers: 'cubic F', phases: [{ name: 'fcc metal', cell: cubic('cubic-F', 0.40782), element: 'Au', sizeNm: 25, strongestArea: 400 }], rangeDeg: [30, 120], radiation: 'doublet', header: 4 },
     { name: 'Si (diamond)', covers: 'cubic F with d-glide absences, high-angle (400)', phases: [{ name: 'Si', cell: cubic('cubic-F', 0.5431020511), allows: diamond, sizeNm: 200, strongestArea: 300, intensities: [1, 0.55, 0.3, 0.06, 0.11, 0.12, 0.07, 0.05, 0.04] }], rangeDeg: [20, 130], radiation: 'doublet', header: 5 },
     { name: 'LaB6 660c', covers: 'cubic P', phases: [{ name: 'LaB6', cell: cubic('cubic-P', 0.4156826), sizeNm: 500, strongestArea: 250 }], rangeDeg: [15, 120], stepDeg: 0.01, radiation: 'doublet', header: 6 },
-    { name: 'bcc metal', covers: 'cubic I', phases: [{ name: 'bcc', cell: cubic('cubic-I', 0.3165), sizeNm: 30, strongestArea: 400 }], rangeDeg: [35, 140], radiation: 'doublet', header: 0 },
+    { name: 'bcc metal', covers: 'cubic I', phases: [{ name: 'bcc', cell: cubic('cubic-I', 0.3165), element: 'Mo', sizeNm: 30, strongestArea: 400 }], rangeDeg: [35, 140], radiation: 'doublet', header: 0 },
     { name: 'tetragonal P (layered salt)', covers: 'tetragonal P', phases: [{ name: 'layered salt', cell: { kind: 'tetragonal-P', aNm: 0.626428, cNm: 0.740545 }, sizeNm: 60, strongestArea: 300 }], rangeDeg: [8, 60], radiation: 'doublet', header: 1 },
     { name: 'tetragonal I', covers: 'tetragonal I, weak line beside a strong one', phases: [{ name: 'tetragonal I', cell: { kind: 'tetragonal-I', aNm: 0.3785, cNm: 0.9514 }, sizeNm: 35, strongestArea: 400 }], rangeDeg: [15, 90], radiation: 'doublet', header: 2 },
     { name: 'hexagonal layered (brucite-like)', covers: 'hexagonal P, layered', phases: [{ name: 'brucite-like', cell: { kind: 'hexagonal-P', aNm: 0.3142, cNm: 0.4766 }, sizeNm: 20, strongestArea: 400 }], rangeDeg: [10, 80], radiation: 'doublet', header: 3 },

@@ -1,7 +1,7 @@
 import { describe, expect, test } from 'vitest';
 import { dToTwoTheta } from '../../src/diffraction/bragg';
 import { indexPattern, type IndexPeak } from '../../src/diffraction/indexing';
-import { centringAllows, latticeLines } from '../../src/diffraction/lattice';
+import { centringAllows, cubicMultiplicity, latticeLines } from '../../src/diffraction/lattice';
 import { gaussian, rng } from '../../testing/random';
 
 const CU1 = 0.154059292; // Cu Kα1, ITC C Table 4.2.2.1 (reference-values.md)
@@ -317,5 +317,34 @@ describe('a smectite (d001 1.50 nm, two water layers; from memory) beside a quar
     // orders' own misplacement (0.04–0.10° low) leaves the cell about 0.3 % long
     expect(Math.abs(lam.cNm / 1.5 - 1)).toBeLessThan(5e-3);
     expect(r.phases.some((p) => p.kind === 'hexagonal-P')).toBe(true);
+  });
+});
+
+describe('a body-centred cubic cell and the primitive cell of a/√2 told apart by the intensities (Cullity & Stock, Elements of X-Ray Diffraction, 3rd ed., ch. 10)', () => {
+  // Both index h² + k² + l² = 2, 4, 6, 8, 10, 12 (as 1, 2, 3, 4, 5, 6 for the primitive cell) until
+  // the bcc 321, which Cu Kα cannot reach for α-Fe (d 0.0766 nm < λ/2).
+  const feLines = (rel: number[]) => peaksOf([2, 4, 6, 8, 10, 12].map((n, k) => ({ d: 0.28665 / Math.sqrt(n), i: rel[k] })));
+  test('multiplicities summed over the families at one d (common practice): 100 6, 110 12, 111 8, 300 + 221 30; bcc 110 12; fcc 111 8', () => {
+    expect([1, 2, 3, 9].map((n) => cubicMultiplicity('cubic-P', n))).toEqual([6, 12, 8, 30]);
+    expect(cubicMultiplicity('cubic-I', 2)).toBe(12);
+    expect(cubicMultiplicity('cubic-I', 1)).toBe(0);
+    expect(cubicMultiplicity('cubic-F', 3)).toBe(8);
+    expect(() => cubicMultiplicity('tetragonal-P', 2)).toThrow(/cubic/);
+  });
+  test('α-Fe with Cu Kα (a 0.28665 nm; relative intensities 100, 20, 30, 10, 12, 6, both from memory) is body-centred, said so with both χ²', () => {
+    const r = indexPattern(feLines([100, 20, 30, 10, 12, 6]), { wavelengthNm: CU1 });
+    expect(r.phases[0].kind).toBe('cubic-I');
+    expect(Math.abs(r.phases[0].aNm / 0.28665 - 1)).toBeLessThan(5e-5);
+    expect(r.notes.join(' ')).toMatch(/intensities follow the body-centred cubic cell's multiplicities \(χ² .* primitive, .* body-centred/);
+  });
+  test('CsCl with Cu Kα (a 0.4123 nm; 100 to 211 at 45, 100, 13, 17, 18, 25, from memory) stays primitive', () => {
+    const r = indexPattern(peaksOf([1, 2, 3, 4, 5, 6].map((n, k) => ({ d: 0.4123 / Math.sqrt(n), i: [45, 100, 13, 17, 18, 25][k] }))), { wavelengthNm: CU1 });
+    expect(r.phases[0].kind).toBe('cubic-P');
+    expect(Math.abs(r.phases[0].aNm / 0.4123 - 1)).toBeLessThan(5e-5);
+  });
+  test('intensities that follow neither cell leave the smaller cell, and say that the two are not told apart', () => {
+    const r = indexPattern(feLines([100, 60, 30, 50, 12, 30]), { wavelengthNm: CU1 });
+    expect(r.phases[0].kind).toBe('cubic-P');
+    expect(r.notes.join(' ')).toMatch(/body-centred cubic \(a 0\.28665\d? nm\) indexes the same lines .* the intensities do not tell them apart/);
   });
 });
