@@ -1027,6 +1027,14 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
       return share >= 0.85 || (share >= 0.5 && (axialDiff(sh.angleDeg, o.angleDeg) < 20 || (offImage && offHost) || sh.confidence < 0.6));
     });
     if (host) {
+      // the same stack found twice (each axis mostly on the other's band, near one direction):
+      // the count its positions agree on clearly better stands, though it be the shorter (a bent
+      // stack's half-count along a longer, straighter axis)
+      if (axialDiff(sh.angleDeg, host.angleDeg) < 20 && shareOnBand(host.axisPx, sh) >= 0.5 && sh.confidence >= host.confidence + 0.15) {
+        accepted[accepted.indexOf(host)] = sh;
+        rejected.push({ centerPx: host.centerPx, angleDeg: host.angleDeg, layers: host.layers, periodPx: host.periodPx, reason: `the same stack counted again along a longer axis, its positions agreeing less (${Math.round(100 * host.confidence)} % against ${Math.round(100 * sh.confidence)} %)` });
+        continue;
+      }
       rejected.push({ centerPx: sh.centerPx, angleDeg: sh.angleDeg, layers: sh.layers, periodPx: sh.periodPx, reason: 'lies on a longer stack (a piece of a crossing)' });
       continue;
     }

@@ -129,6 +129,16 @@ describe('detectSheets', () => {
       expect(sc.spurious).toBeLessThanOrEqual(1);
     }
   });
+  it('keeps the count a stack\'s positions agree on when the same bent stack is found twice', () => {
+    // a bent 10-layer stack at 8.77 px (synthetic truth, testing/synthetic/overviews.ts, bent
+    // family seed 40) was found along two axes: a 146 px one counted 10 at every position, and a
+    // longer, straighter 233 px one through half of it counted 5 at 80 % of its positions; the
+    // longer was kept and the 10 refused as a piece of it
+    const o = generateOverview('bent', 40);
+    const res = detectSheets(o.image);
+    foundStack(o, res, 391, 537, 10);
+    expect(res.rejected.some((r) => r.layers === 5 && r.reason.startsWith('the same stack counted again'))).toBe(true);
+  });
   it('measures again at the refined period the stacks missed at the periodograms\' (3 % high) one', () => {
     // touching pair at 4.82 px (synthetic truth, testing/synthetic/overviews.ts): the candidates'
     // periodograms read 4.98 px, and the 4-layer stack's comb at that period was too faint; the
