@@ -306,6 +306,25 @@ interface Piece {
 }
 
 /**
+ * The layer normal at the middle of an axis, from the chord over its middle third (at least 20 px):
+ * on a circular arc a chord runs parallel to the tangent at its midpoint, and a chord does not
+ * follow the kink where two pieces of a stack were joined across a crossing.
+ */
+function middleNormalDeg(frame: ReturnType<typeof axisFrame>): number {
+  const half = Math.min(frame.lengthPx / 2, Math.max(10, frame.lengthPx / 6));
+  const i0 = indexAt(frame, frame.lengthPx / 2 - half);
+  const i1 = indexAt(frame, frame.lengthPx / 2 + half);
+  const tx = frame.points[i1][0] - frame.points[i0][0];
+  const ty = frame.points[i1][1] - frame.points[i0][1];
+  const len = Math.hypot(tx, ty);
+  if (!(len > 0)) {
+    const mid = indexAt(frame, frame.lengthPx / 2);
+    return screenAngleDeg(frame.normals[mid][0], frame.normals[mid][1]);
+  }
+  return screenAngleDeg(ty / len, -tx / len);
+}
+
+/**
  * A piece's sheet fields: the count is the most frequent over its positions, the confidence
  * the share that agree; thickness n·d with the period's uncertainty times n and the spread of
  * the positions' n·d over √positions; the outline is the axis ± half the thickness.
@@ -337,7 +356,7 @@ function finishPiece(pc: Piece, minPeriodPx: number): Omit<AutoSheet, 'id'> {
     periodPx: d,
     uPeriodPx: { statisticalPx: pc.uPeriodPx, localVariationPx: 0, methodPx: 0 },
     periodSource: pc.periodSource,
-    angleDeg: screenAngleDeg(frame.normals[mid][0], frame.normals[mid][1]),
+    angleDeg: middleNormalDeg(frame),
     centerPx: [frame.points[mid][0], frame.points[mid][1]],
     axisPx: frame.points,
     outlinePx,
@@ -393,8 +412,10 @@ export const FAR_JOIN_PX = 90;
  * their ends lie more than {@link FAR_JOIN_PX} apart: a stack one layer thinner that far along
  * the same line is another stack), and the nearer end of each lies on the other's axis or its straight
  * extension (within a quarter of the thinner one's thickness plus half a period, and 12° in
- * direction), at most 90 px (a crossing stack may hide that much) or four thicknesses beyond it. Closest pairs first, repeated until
- * none is left.
+ * direction), at most 90 px (a crossing stack may hide that much) or four thicknesses beyond it;
+ * or, when short pieces extrapolated that far miss by their own direction's error, both axes lie
+ * end to end within that tolerance of one gently bent line (a parabola fitted to both). Closest
+ * pairs first, repeated until none is left.
  */
 function mergePieces(input: Piece[]): Piece[] {
   // pieces by id; pair gaps computed once, and again only for a newly merged piece
@@ -415,7 +436,7 @@ function mergePieces(input: Piece[]): Piece[] {
     const bi = boxes.get(i)!;
     for (const [j, q] of alive) {
       if (j === i || !overlap(bi, boxes.get(j)!)) continue;
-      const g = mergeGap(alive.get(i)!, q);
+      const g = mergeGap(alive.get(i)!, q, alive.values());
       if (g !== null) gaps.push({ i: Math.min(i, j), j: Math.max(i, j), gap: g });
     }
   };
@@ -424,7 +445,7 @@ function mergePieces(input: Piece[]): Piece[] {
     const bi = boxes.get(i)!;
     for (const j of ids) {
       if (j <= i || !overlap(bi, boxes.get(j)!)) continue;
-      const g = mergeGap(alive.get(i)!, alive.get(j)!);
+      const g = mergeGap(alive.get(i)!, alive.get(j)!, alive.values());
       if (g !== null) gaps.push({ i, j, gap: g });
     }
   }
@@ -453,7 +474,7 @@ function pieceThickness(p: Piece): number {
 }
 
 /** The gap between two pieces of one stack, or null when they are not one stack. */
-function mergeGap(a: Piece, b: Piece): number | null {
+function mergeGap(a: Piece, b: Piece, others: Iterable<Piece> = []): number | null {
   if (Math.abs(a.periodPx - b.periodPx) > 0.06 * Math.max(a.periodPx, b.periodPx)) return null;
   const na = modeCount(a.counted, a.fitLayers);
   const nb = modeCount(b.counted, b.fitLayers);
@@ -496,9 +517,91 @@ function mergeGap(a: Piece, b: Piece): number | null {
       gap = Math.min(gap, beyond);
     }
   }
+  // short pieces extrapolated far miss each other by their own direction's error: both axes
+  // fitted together as one gently bent line (a parabola across their common chord) that passes
+  // within the tolerance of every point join too, when their counts agree, their chords run within
+  // 12° and another stack crosses the gap between them (what broke the axis; two stacks of a
+  // dense field may also lie end to end)
+  if (!Number.isFinite(gap) && na === nb && axialDiff(chordDeg(a.axisPx), chordDeg(b.axisPx)) < 12) {
+    const joint = jointAxisGap(a.axisPx, b.axisPx, tol, maxGap);
+    if (joint && [...others].some((r) => r !== a && r !== b && crossesGap(r, joint.ends, a.periodPx))) gap = joint.gapPx;
+  }
   if (!Number.isFinite(gap)) return null;
   // far apart along one line, a count one layer off is another stack, not a piece of this one
   return gap > FAR_JOIN_PX && na !== nb ? null : gap;
+}
+
+/**
+ * The gap between two axes that lie end to end on one gently bent line, or null: their points in
+ * the frame of the chord between their far ends, fitted by least squares with a parabola across
+ * it, all within `tolPx` of it; the axes must not overlap along the chord, and lie at most
+ * `maxGapPx` apart.
+ */
+function jointAxisGap(a: [number, number][], b: [number, number][], tolPx: number, maxGapPx: number): { gapPx: number; ends: [[number, number], [number, number]] } | null {
+  if (a.length < 2 || b.length < 2) return null;
+  // the far ends: the pair of ends (one of each) furthest apart
+  let far: [[number, number], [number, number]] = [a[0], b[0]];
+  for (const p of [a[0], a[a.length - 1]]) for (const q of [b[0], b[b.length - 1]]) if (Math.hypot(p[0] - q[0], p[1] - q[1]) > Math.hypot(far[0][0] - far[1][0], far[0][1] - far[1][1])) far = [p, q];
+  const chord = Math.hypot(far[1][0] - far[0][0], far[1][1] - far[0][1]);
+  if (!(chord > 0)) return null;
+  const ux = (far[1][0] - far[0][0]) / chord;
+  const uy = (far[1][1] - far[0][1]) / chord;
+  const frame = (p: [number, number]) => ({ t: (p[0] - far[0][0]) * ux + (p[1] - far[0][1]) * uy, v: -(p[0] - far[0][0]) * uy + (p[1] - far[0][1]) * ux });
+  const ta = a.map(frame);
+  const tb = b.map(frame);
+  const [aLo, aHi] = [Math.min(...ta.map((p) => p.t)), Math.max(...ta.map((p) => p.t))];
+  const [bLo, bHi] = [Math.min(...tb.map((p) => p.t)), Math.max(...tb.map((p) => p.t))];
+  const gap = aHi < bLo ? bLo - aHi : bHi < aLo ? aLo - bHi : -1;
+  if (gap < 0 || gap > maxGapPx) return null;
+  // v = c0 + c1 t + c2 t², t scaled to [0, 1]
+  const pts = [...ta, ...tb].map((p) => ({ x: p.t / chord, v: p.v }));
+  const m = [[0, 0, 0], [0, 0, 0], [0, 0, 0]];
+  const r = [0, 0, 0];
+  for (const { x, v } of pts) {
+    const f = [1, x, x * x];
+    for (let i = 0; i < 3; i++) {
+      r[i] += f[i] * v;
+      for (let j = 0; j < 3; j++) m[i][j] += f[i] * f[j];
+    }
+  }
+  const c = solve3(m, r);
+  if (!c) return null;
+  for (const { x, v } of pts) if (Math.abs(v - (c[0] + c[1] * x + c[2] * x * x)) > tolPx) return null;
+  // the near ends: the point of each axis nearest the other along the chord
+  const nearEnd = (pp: [number, number][], tt: { t: number }[], hi: boolean) => pp[tt.reduce((k, q, i) => ((hi ? q.t > tt[k].t : q.t < tt[k].t) ? i : k), 0)];
+  const aFirst = aHi < bLo;
+  return { gapPx: gap, ends: [nearEnd(a, ta, aFirst), nearEnd(b, tb, !aFirst)] };
+}
+
+/** Direction of a polyline's chord (first to last point), degrees in [0, 180). */
+function chordDeg(p: [number, number][]): number {
+  const a = p[0];
+  const b = p[p.length - 1];
+  return (((Math.atan2(b[1] - a[1], b[0] - a[0]) * 180) / Math.PI) % 180 + 180) % 180;
+}
+
+/** Whether a piece's axis crosses the gap between two ends (passes within a period of the segment between them, away from both ends). */
+function crossesGap(r: Piece, ends: [[number, number], [number, number]], periodPx: number): boolean {
+  const [p, q] = ends;
+  const len = Math.hypot(q[0] - p[0], q[1] - p[1]);
+  if (!(len > 0)) return false;
+  const ux = (q[0] - p[0]) / len;
+  const uy = (q[1] - p[1]) / len;
+  const reach = pieceThickness(r) / 2 + periodPx;
+  return r.axisPx.some((pt) => {
+    const t = (pt[0] - p[0]) * ux + (pt[1] - p[1]) * uy;
+    const v = -(pt[0] - p[0]) * uy + (pt[1] - p[1]) * ux;
+    return t > -reach && t < len + reach && Math.abs(v) <= periodPx;
+  });
+}
+
+/** Solves a 3 × 3 linear system by Cramer's rule (null when singular). */
+function solve3(m: number[][], r: number[]): [number, number, number] | null {
+  const det = (q: number[][]) => q[0][0] * (q[1][1] * q[2][2] - q[1][2] * q[2][1]) - q[0][1] * (q[1][0] * q[2][2] - q[1][2] * q[2][0]) + q[0][2] * (q[1][0] * q[2][1] - q[1][1] * q[2][0]);
+  const d = det(m);
+  if (!(Math.abs(d) > 1e-12)) return null;
+  const col = (k: number) => m.map((row, i) => row.map((v, j) => (j === k ? r[i] : v)));
+  return [det(col(0)) / d, det(col(1)) / d, det(col(2)) / d];
 }
 
 /** One piece from two of the same stack: the axis ordered along the first's, positions pooled. */
