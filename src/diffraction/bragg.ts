@@ -129,6 +129,19 @@ export function ka2Position(twoThetaDeg: number, ka1Nm: number, ka2Nm: number): 
 }
 
 /**
+ * Lorentz–polarisation factor of a powder line for an unpolarised beam without a monochromator:
+ * (1 + cos²2θ) / (sin²θ cos θ).
+ * @param twoThetaDeg the line's 2θ in degrees, in (0, 180)
+ * @returns the factor (dimensionless)
+ * Reference: Cullity & Stock, Elements of X-Ray Diffraction, 3rd ed. (2001), ch. 4.
+ */
+export function lorentzPolarisation(twoThetaDeg: number): number {
+  if (!(twoThetaDeg > 0 && twoThetaDeg < 180)) throw new RangeError(`twoThetaDeg must be in (0, 180), got ${twoThetaDeg}`);
+  const th = (twoThetaDeg * Math.PI) / 360;
+  return (1 + Math.cos(2 * th) ** 2) / (Math.sin(th) ** 2 * Math.cos(th));
+}
+
+/**
  * Relativistic electron wavelength for an accelerating voltage:
  * λ = h / √(2 m₀ e U (1 + e U / (2 m₀ c²))).
  * @param voltageV accelerating voltage in volts (e.g. 200e3)

@@ -3,6 +3,7 @@
  * lists from it: d, hkl, multiplicity, systematic absences and relative intensities.
  */
 import { elementOf, scatteringFactor } from './scattering';
+import { lorentzPolarisation } from './bragg';
 
 /** A number from a CIF with its standard uncertainty from the parentheses (0 when none). */
 export interface CifNumber {
@@ -669,10 +670,10 @@ export function powderReflections(structure: CifStructure, options: ReflectionOp
         let lp = 1;
         if (lambda !== undefined) {
           const st = lambda / (2 * d);
-          if (st > 1) continue;
+          if (st >= 1) continue;
           const th = Math.asin(st);
           twoTheta = (360 / Math.PI) * th;
-          lp = (1 + Math.cos(2 * th) ** 2) / (st * st * Math.cos(th));
+          lp = lorentzPolarisation(twoTheta);
         }
         if (absent && !options.includeAbsent) continue;
         out.push({ hkl: rep, dNm: d, twoThetaDeg: twoTheta, multiplicity: members.length, f2, intensity: members.length * f2 * lp, absent });

@@ -5,6 +5,7 @@
  */
 import { cellParameters, centringAllows, cubicMultiplicity, latticeLines, LATTICE_KINDS, qOf, type LatticeCell, type LatticeKind } from './lattice';
 import { chiSquareUpperQuantile } from '../measure/stats';
+import { lorentzPolarisation } from './bragg';
 import { levenbergMarquardt } from './lm';
 import { zeroShiftCellPartDeg, type InternalStandard } from './internal-standard';
 
@@ -683,9 +684,7 @@ function oneAtomIntensityChi2(w: Work, s: Solution): { chi2: number; dof: number
     if (tt === null || !(area > 0)) continue;
     const n = h.hkl[0] ** 2 + h.hkl[1] ** 2 + h.hkl[2] ** 2;
     const m = cubicMultiplicity(s.t.kind, n);
-    const th = (tt * DEG) / 2;
-    const lp = (1 + Math.cos(2 * th) ** 2) / (Math.sin(th) ** 2 * Math.cos(th));
-    rows.push({ x: 1 / (4 * w.peaks[h.peak].dNm ** 2), y: Math.log(area / (m * lp)) });
+    rows.push({ x: 1 / (4 * w.peaks[h.peak].dNm ** 2), y: Math.log(area / (m * lorentzPolarisation(tt))) });
   }
   if (rows.length < 4) return null;
   const n = rows.length;

@@ -352,7 +352,7 @@ export function combContinues(image: GreyImage, frame: AxisFrame, fit: CombFit, 
 }
 
 /** Solution of a 3 × 3 linear system (row-major), Gaussian elimination with partial pivoting; null when singular. */
-function solve3(A: number[], b: number[]): number[] | null {
+export function solve3(A: number[], b: number[]): number[] | null {
   const M = [0, 1, 2].map((i) => [A[3 * i], A[3 * i + 1], A[3 * i + 2], b[i]]);
   for (let c = 0; c < 3; c++) {
     let piv = c;

@@ -34,7 +34,7 @@ import { periodCandidates, profilePeriodogram } from './profile';
 import { MIN_COUNTABLE_PERIOD_PX } from './limits';
 import { polylineLength, resamplePolyline, ridgeAxes, type RidgeAxis } from './ridges';
 import { TURN_MIN_LAYERS, turnedCandidate } from './fringe-direction';
-import { acrossFringePower, bestPeriod, combContinues, combNearPeriod, edgeToEdge, fringePowerAt, indexAt, layersResolved, periodicAlongAxis, refinePeriod, splitBand } from './count';
+import { acrossFringePower, bestPeriod, solve3, combContinues, combNearPeriod, edgeToEdge, fringePowerAt, indexAt, layersResolved, periodicAlongAxis, refinePeriod, splitBand } from './count';
 import { acrossProfile, axisFrame, robustAcrossProfile, fitLayerComb, profileBands, smoothProfile, type AcrossProfile, type AxisFrame, type CombFit, type ProfileBand } from './stack-profile';
 
 /** Review state of a sheet: automatic, accepted or rejected by the user, drawn by hand, or its count corrected by the user. */
@@ -414,7 +414,8 @@ export const FAR_JOIN_PX = 90;
  * extension (within a quarter of the thinner one's thickness plus half a period, and 12° in
  * direction), at most 90 px (a crossing stack may hide that much) or four thicknesses beyond it;
  * or, when short pieces extrapolated that far miss by their own direction's error, both axes lie
- * end to end within that tolerance of one gently bent line (a parabola fitted to both). Closest
+ * end to end within that tolerance of one gently bent line (a parabola fitted to both), with the
+ * same count, chords within 12° and another piece crossing the gap between them. Closest
  * pairs first, repeated until none is left.
  */
 function mergePieces(input: Piece[]): Piece[] {
@@ -555,13 +556,13 @@ function jointAxisGap(a: [number, number][], b: [number, number][], tolPx: numbe
   if (gap < 0 || gap > maxGapPx) return null;
   // v = c0 + c1 t + c2 t², t scaled to [0, 1]
   const pts = [...ta, ...tb].map((p) => ({ x: p.t / chord, v: p.v }));
-  const m = [[0, 0, 0], [0, 0, 0], [0, 0, 0]];
+  const m = [0, 0, 0, 0, 0, 0, 0, 0, 0];
   const r = [0, 0, 0];
   for (const { x, v } of pts) {
     const f = [1, x, x * x];
     for (let i = 0; i < 3; i++) {
       r[i] += f[i] * v;
-      for (let j = 0; j < 3; j++) m[i][j] += f[i] * f[j];
+      for (let j = 0; j < 3; j++) m[3 * i + j] += f[i] * f[j];
     }
   }
   const c = solve3(m, r);
@@ -593,15 +594,6 @@ function crossesGap(r: Piece, ends: [[number, number], [number, number]], period
     const v = -(pt[0] - p[0]) * uy + (pt[1] - p[1]) * ux;
     return t > -reach && t < len + reach && Math.abs(v) <= periodPx;
   });
-}
-
-/** Solves a 3 × 3 linear system by Cramer's rule (null when singular). */
-function solve3(m: number[][], r: number[]): [number, number, number] | null {
-  const det = (q: number[][]) => q[0][0] * (q[1][1] * q[2][2] - q[1][2] * q[2][1]) - q[0][1] * (q[1][0] * q[2][2] - q[1][2] * q[2][0]) + q[0][2] * (q[1][0] * q[2][1] - q[1][1] * q[2][0]);
-  const d = det(m);
-  if (!(Math.abs(d) > 1e-12)) return null;
-  const col = (k: number) => m.map((row, i) => row.map((v, j) => (j === k ? r[i] : v)));
-  return [det(col(0)) / d, det(col(1)) / d, det(col(2)) / d];
 }
 
 /** One piece from two of the same stack: the axis ordered along the first's, positions pooled. */

@@ -8,11 +8,11 @@
  * except where a real cell is named or a monatomic metal's intensities follow from its atom; sizes are Scherrer sizes (Lorentzian broadening) on top of a
  * laboratory instrument profile.
  */
-import { dToTwoTheta } from '../../src/diffraction/bragg';
+import { dToTwoTheta, lorentzPolarisation } from '../../src/diffraction/bragg';
 import { cubicMultiplicity, latticeLines, type LatticeCell, type LatticeKind } from '../../src/diffraction/lattice';
 import { scatteringFactor } from '../../src/diffraction/scattering';
 import { HC_KEV_NM } from '../../src/diffraction/radiation';
-import { rng } from '../random';
+import { gaussian, rng } from '../random';
 import { LAB_INSTRUMENT, reflectionWidth, syntheticPattern, type SyntheticHalo, type SyntheticInstrument, type SyntheticPeak } from './diffraction-pattern';
 
 /** A phase of a scenario. */
@@ -107,19 +107,12 @@ function expectedZ(area: number, fwhm: number, bgLevel: number, step: number): n
   return (0.5 * inside) / Math.sqrt(Math.max(1, bgLevel * pts + inside));
 }
 
-/** A standard normal deviate from a uniform source (Box–Muller). */
-function gaussOf(rnd: () => number): number {
-  return Math.sqrt(-2 * Math.log(Math.max(1e-12, rnd()))) * Math.cos(2 * Math.PI * rnd());
-}
-
 /** Integrated intensity of a monatomic cubic line: m·f²·exp(−2B s²)·LP (Cullity & Stock, Elements of X-Ray Diffraction, ch. 4). */
 function monatomicIntensity(kind: LatticeKind, element: string, hkl: [number, number, number], dNm: number, lambdaNm: number, bIsoA2: number): number {
   const m = cubicMultiplicity(kind, hkl[0] ** 2 + hkl[1] ** 2 + hkl[2] ** 2);
   const sA = 1 / (20 * dNm); // sin θ / λ in Å⁻¹
   const f = scatteringFactor(element, sA);
-  const th = Math.asin(lambdaNm / (2 * dNm));
-  const lp = (1 + Math.cos(2 * th) ** 2) / (Math.sin(th) ** 2 * Math.cos(th));
-  return m * f * f * Math.exp(-2 * bIsoA2 * sA * sA) * lp;
+  return m * f * f * Math.exp(-2 * bIsoA2 * sA * sA) * lorentzPolarisation(dToTwoTheta(dNm, lambdaNm));
 }
 
 /** Draws a scenario: lines of every phase with widths from the instrument and size, halos, noise. */
@@ -139,7 +132,8 @@ function draw(s: Setup, seed: number): Scenario {
     if (ph.basalOnly) lines = lines.filter((l) => l.hkl[0] === 0 && l.hkl[1] === 0);
     // random intensities, seeded; the high orders of a lamellar stack stay weak (their structure factor falls off)
     const bIso = ph.element ? 0.3 + 0.7 * rnd() : 0;
-    const rel = lines.map((l, i) => ph.intensities?.[i] ?? (ph.element ? monatomicIntensity(ph.cell.kind, ph.element, l.hkl, l.dNm, lambda, bIso) * Math.exp(0.15 * gaussOf(rnd)) : Math.max(0.04, rnd() ** 2) * (ph.cell.kind === 'lamellar' ? 0.1 : i < 3 ? 1.5 : 1)));
+    const gauss = gaussian(rnd);
+    const rel = lines.map((l, i) => ph.intensities?.[i] ?? (ph.element ? monatomicIntensity(ph.cell.kind, ph.element, l.hkl, l.dNm, lambda, bIso) * Math.exp(0.15 * gauss()) : Math.max(0.04, rnd() ** 2) * (ph.cell.kind === 'lamellar' ? 0.1 : i < 3 ? 1.5 : 1)));
     const top = Math.max(...rel);
     lines.forEach((l, i) => {
       const tt = dToTwoTheta(l.dNm, lambda);
