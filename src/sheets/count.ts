@@ -280,6 +280,213 @@ export function periodicAlongAxis(image: GreyImage, frame: AxisFrame, centre: nu
 }
 
 
+/** Least angle, in degrees, between a second fringe set's normal and the stack's normal searched by {@link secondFringeSetFills}. */
+export const SECOND_SET_MIN_CROSSING_DEG = 30;
+/** Peak over the median of its two octaves that a slanted average's period must reach ({@link secondFringeSetFills}); the slants are many trials: with an exponential periodogram a bin of noise passes 20 × median (13.9 × mean) with probability 1e-6 (common practice). */
+export const SECOND_SET_PEAK_TO_MEDIAN = 20;
+/** Shortest along-axis period of a second set searched, px (well above the sampling limit of 2 px; the set's own period is then at least about 0.75 of the layer period, as the periods along the slants are d / sin φ ≥ d; {@link secondFringeSetFills}). */
+export const SECOND_SET_MIN_PERIOD_PX = 3;
+/** Share of the whole band's amplitude of the second set that each third of the band must hold ({@link secondFringeSetFills}). */
+export const SECOND_SET_THIRD_SHARE = 0.4;
+
+/**
+ * Whether a second fringe set fills a stack's band along its whole length: the mark of a
+ * two-dimensional lattice (crossed fringes) rather than a stack, which a stack crossed by
+ * another only shows where they cross. The band's middle is averaged across its width along
+ * slanted lines s − u·cot φ in the axis frame, for crossing angles φ between the stack's normal
+ * and a second set's normal from {@link SECOND_SET_MIN_CROSSING_DEG} to 180° minus it (oblique
+ * fringes wash out in a straight average over a wide band and stay whole along their own lines;
+ * the step in φ keeps the smear across the width below a fifth of a period). A slanted average
+ * whose periodogram has a peak at 0.75–3 layer periods (and {@link SECOND_SET_MIN_PERIOD_PX} or more) standing out from its neighbourhood
+ * ({@link SECOND_SET_PEAK_TO_MEDIAN}) with at least a fifth of the across-fringe power is a
+ * second set; it fills the band when each third of the length holds at least
+ * {@link SECOND_SET_THIRD_SHARE} of the whole's amplitude at that period, at four standard errors
+ * or more. A slant projection of a periodic pattern (projection-slice theorem, Bracewell 1956).
+ *
+ * @param image the image
+ * @param frame the stack's axis
+ * @param centre offset of the band's middle across the axis, px
+ * @param halfWidth half of the width averaged, px
+ * @param periodPx the layer period, px
+ * @param acrossPower the across-fringe power of the comb ({@link acrossFringePower})
+ * @returns the second set that fills the band: its crossing angle φ in degrees (0–180, from the
+ *   frame's normal towards its tangent) and its period along the axis in px (its own period is
+ *   that × sin φ); or null
+ */
+export function secondFringeSetFills(image: GreyImage, frame: AxisFrame, centre: number, halfWidth: number, periodPx: number, acrossPower: number): { crossingDeg: number; alongPeriodPx: number } | null {
+  if (!(halfWidth > 0)) throw new RangeError(`halfWidth must be positive, got ${halfWidth}`);
+  if (!(periodPx > 0)) throw new RangeError(`periodPx must be positive, got ${periodPx}`);
+  const { width, height, data } = image;
+  const steps = Math.max(1, Math.round(halfWidth));
+  const s0 = 0.05 * frame.lengthPx;
+  const s1 = 0.95 * frame.lengthPx;
+  const minRad = (SECOND_SET_MIN_CROSSING_DEG * Math.PI) / 180;
+  const minAlongPx = Math.max(SECOND_SET_MIN_PERIOD_PX, 0.75 * periodPx);
+  // φ step: the smear across the width, 2·halfWidth·Δφ / sin²φ, below a fifth of the shortest
+  // along period searched; a first look every four steps (a smear of up to 0.4 period keeps
+  // over half the power), then the steps about each angle that shows enough power
+  const stepRad = Math.min((4 * Math.PI) / 180, (0.2 * minAlongPx) / (2 * halfWidth));
+  const coarseRad = Math.min((8 * Math.PI) / 180, 4 * stepRad);
+  // the band rectified once: rows at offsets v across (±halfWidth), columns every 0.5 px along
+  // the whole axis, bilinear (rounding to the nearest pixel along a slant beats with fine layers
+  // into a moiré near the sampling limit); NaN off the image
+  const cols = Math.floor(frame.lengthPx / 0.5) + 1;
+  const rows = 2 * steps + 1;
+  const grid = new Float64Array(rows * cols).fill(NaN);
+  for (let j = 0; j < cols; j++) {
+    const ss = 0.5 * j;
+    const i = indexAt(frame, ss);
+    const [px, py] = frame.points[i];
+    const [tx, ty] = frame.tangents[i];
+    const [nx, ny] = frame.normals[i];
+    const ds = ss - frame.cumPx[i];
+    for (let k = 0; k < rows; k++) {
+      const u = centre + ((k - steps) / steps) * halfWidth;
+      const x = px + ds * tx + u * nx;
+      const y = py + ds * ty + u * ny;
+      const x0 = Math.floor(x);
+      const y0 = Math.floor(y);
+      if (x0 < 0 || y0 < 0 || x0 + 1 >= width || y0 + 1 >= height) continue;
+      const fx = x - x0;
+      const fy = y - y0;
+      const o = y0 * width + x0;
+      grid[k * cols + j] = (1 - fy) * ((1 - fx) * data[o] + fx * data[o + 1]) + fy * ((1 - fx) * data[o + width] + fx * data[o + width + 1]);
+    }
+  }
+  // the slanted average at φ, its periodogram, and the most power any five bins of the period
+  // range hold (per sample, as the across-fringe power is)
+  const slant = (phi: number) => {
+    const shear = Math.abs(phi - Math.PI / 2) < 1e-9 ? 0 : Math.cos(phi) / Math.sin(phi);
+    const vals: number[] = [];
+    // samples every px along the axis (the periods searched are 3 px or more), averaged across
+    // ±halfWidth along the slant s − v·cot φ
+    for (let s = s0; s <= s1; s += 1) {
+      let sum = 0;
+      let cnt = 0;
+      for (let k = 0; k < rows; k++) {
+        const g = (s - ((k - steps) / steps) * halfWidth * shear) / 0.5;
+        const j = Math.floor(g);
+        if (j < 0 || j + 1 >= cols) continue;
+        const t = g - j;
+        const a = grid[k * cols + j];
+        const b = grid[k * cols + j + 1];
+        if (Number.isNaN(a) || Number.isNaN(b)) continue;
+        sum += a + t * (b - a);
+        cnt++;
+      }
+      // an average over less than half the width (the slant leaves the band's ends) is not used
+      if (cnt > steps) vals.push(sum / cnt);
+    }
+    // periods in samples = px
+    const minP = minAlongPx;
+    const maxP = Math.min(vals.length / 3, 3 * periodPx);
+    if (vals.length < 24 || !(maxP > minP)) return null;
+    let size = 1;
+    while (size < 2 * vals.length) size <<= 1;
+    const pw = profilePeriodogram(vals, size, Math.max(periodPx, 3));
+    let most = 0;
+    for (let k = Math.max(1, Math.floor(size / maxP) - 2); k <= Math.min(pw.length - 5, Math.ceil(size / minP) + 2); k++) most = Math.max(most, pw[k] + pw[k + 1] + pw[k + 2] + pw[k + 3] + pw[k + 4]);
+    // power per sample scaled to samples 0.5 px apart, as the straight test's ({@link periodicAlongAxis}):
+    // a sinusoid's peak power per sample grows with the number of samples over the same length
+    return { vals, pw, size, minP, maxP, most: (2 * most) / vals.length };
+  };
+  // the full test at one angle: the second set's power and along period there, or power 0 when it
+  // has none that fills the band
+  const none = { power: 0, alongPeriodPx: NaN };
+  const fillsAt = (sl: NonNullable<ReturnType<typeof slant>>): { power: number; alongPeriodPx: number } => {
+    const { vals, pw, size, minP, maxP } = sl;
+    // no five bins hold a fifth of the across-fringe power: no second set at this angle
+    if (sl.most <= 0.2 * acrossPower) return none;
+    const c = periodCandidates(pw, size, minP, maxP, 1)[0];
+    if (!c || c.peakToMedian < SECOND_SET_PEAK_TO_MEDIAN) return none;
+    const k = Math.round(size / c.periodPx);
+    let along = 0;
+    for (let j = Math.max(1, k - 2); j <= Math.min(pw.length - 1, k + 2); j++) along += pw[j];
+    along = (2 * along) / vals.length;
+    if (along <= 0.2 * acrossPower) return none;
+    // the set must fill the band: its amplitude at that period in each third of the length
+    const f = 1 / c.periodPx;
+    const whole = toneAmplitude(vals, 0, vals.length, f);
+    const n3 = Math.floor(vals.length / 3);
+    for (let t = 0; t < 3; t++) {
+      const part = toneAmplitude(vals, t * n3, (t + 1) * n3, f);
+      if (part.amplitude < SECOND_SET_THIRD_SHARE * whole.amplitude || part.amplitude < 4 * part.uAmplitude) return none;
+    }
+    // samples are 1 px apart: the period in samples is in px
+    return { power: along, alongPeriodPx: c.periodPx };
+  };
+  const coarse = [Math.PI / 2];
+  for (let a = Math.PI / 2 - coarseRad; a >= minRad - 1e-9; a -= coarseRad) coarse.push(a, Math.PI - a);
+  // the coarse angles with a fifth of the across power less the smear's loss (half of it at
+  // most), most power first; about each, the fine steps, and the angle of most power among those
+  // where a set fills the band
+  const looks: { phi: number; sl: NonNullable<ReturnType<typeof slant>> }[] = [];
+  for (const phi of coarse) {
+    const sl = slant(phi);
+    if (sl && sl.most > 0.1 * acrossPower) looks.push({ phi, sl });
+  }
+  looks.sort((x, y) => y.sl.most - x.sl.most);
+  for (const { phi: phi0, sl: sl0 } of looks) {
+    let best = fillsAt(sl0);
+    let bestPhi = phi0;
+    if (coarseRad > stepRad) {
+      for (let a = phi0 - coarseRad; a <= phi0 + coarseRad + 1e-9; a += stepRad) {
+        if (Math.abs(a - phi0) < 1e-9 || a < minRad - 1e-9 || a > Math.PI - minRad + 1e-9) continue;
+        const sl = slant(a);
+        const at = sl ? fillsAt(sl) : none;
+        if (at.power > best.power) {
+          best = at;
+          bestPhi = a;
+        }
+      }
+    }
+    if (best.power > 0) return { crossingDeg: (bestPhi * 180) / Math.PI, alongPeriodPx: best.alongPeriodPx };
+  }
+  return null;
+}
+
+/** Least-squares amplitude of a sinusoid of `cyclesPerSample` (with a straight background) on samples [from, to), and its standard error from the residual. */
+function toneAmplitude(v: readonly number[], from: number, to: number, cyclesPerSample: number): { amplitude: number; uAmplitude: number } {
+  const n = to - from;
+  // design: 1, x, cos, sin; normal equations solved by Gaussian elimination (4 × 4)
+  const A = Array.from({ length: 4 }, () => new Float64Array(5));
+  const row = new Float64Array(4);
+  for (let i = from; i < to; i++) {
+    const x = (i - from) / n - 0.5;
+    const w = 2 * Math.PI * cyclesPerSample * i;
+    row[0] = 1;
+    row[1] = x;
+    row[2] = Math.cos(w);
+    row[3] = Math.sin(w);
+    for (let a = 0; a < 4; a++) {
+      for (let b = 0; b < 4; b++) A[a][b] += row[a] * row[b];
+      A[a][4] += row[a] * v[i];
+    }
+  }
+  for (let c = 0; c < 4; c++) {
+    let piv = c;
+    for (let r = c + 1; r < 4; r++) if (Math.abs(A[r][c]) > Math.abs(A[piv][c])) piv = r;
+    [A[c], A[piv]] = [A[piv], A[c]];
+    if (Math.abs(A[c][c]) < 1e-12) return { amplitude: 0, uAmplitude: Infinity };
+    for (let r = 0; r < 4; r++) {
+      if (r === c) continue;
+      const m = A[r][c] / A[c][c];
+      for (let k = c; k < 5; k++) A[r][k] -= m * A[c][k];
+    }
+  }
+  const beta = A.map((r, i) => r[4] / r[i]);
+  let rss = 0;
+  for (let i = from; i < to; i++) {
+    const x = (i - from) / n - 0.5;
+    const w = 2 * Math.PI * cyclesPerSample * i;
+    rss += (v[i] - beta[0] - beta[1] * x - beta[2] * Math.cos(w) - beta[3] * Math.sin(w)) ** 2;
+  }
+  const sigma = Math.sqrt(rss / Math.max(1, n - 4));
+  // neighbouring samples of a blurred, interpolated image are correlated: twice the white-noise error
+  return { amplitude: Math.hypot(beta[2], beta[3]), uAmplitude: 2 * sigma * Math.sqrt(2 / n) };
+}
+
+
 /** Share of a comb's depth below which the lines beyond its outer layers count as background ({@link combContinues}). */
 export const CONTINUATION_MAX_SHARE = 0.5;
 /** Standard errors by which the further lines' depth must exceed zero ({@link combContinues}); the bins of a profile are correlated, so more than the usual 3. */

@@ -34,7 +34,7 @@ import { periodCandidates, profilePeriodogram } from './profile';
 import { MIN_COUNTABLE_PERIOD_PX } from './limits';
 import { polylineLength, resamplePolyline, ridgeAxes, type RidgeAxis } from './ridges';
 import { TURN_MIN_LAYERS, turnedCandidate } from './fringe-direction';
-import { acrossFringePower, bestPeriod, solve3, combContinues, combNearPeriod, edgeToEdge, fringePowerAt, indexAt, layersResolved, periodicAlongAxis, refinePeriod, splitBand } from './count';
+import { acrossFringePower, bestPeriod, solve3, combContinues, combNearPeriod, edgeToEdge, fringePowerAt, indexAt, layersResolved, periodicAlongAxis, refinePeriod, secondFringeSetFills, splitBand } from './count';
 import { acrossProfile, axisFrame, robustAcrossProfile, fitLayerComb, profileBands, smoothProfile, type AcrossProfile, type AxisFrame, type CombFit, type ProfileBand } from './stack-profile';
 
 /** Review state of a sheet: automatic, accepted or rejected by the user, drawn by hand, or its count corrected by the user. */
@@ -1092,11 +1092,20 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
   // after merging, a stack must be at least as long as the shortest stack asked for and as its
   // own thickness (an edge-on platelet is longer than thick; a shorter piece is an end or a crossing)
   const kept: Omit<AutoSheet, 'id'>[] = [];
+  const filled = new Map<Omit<AutoSheet, 'id'>, SecondSet>();
   for (const pc of mergePieces(pieces)) {
     const sh = finishPiece(pc, minPeriodPx);
     if (sh.lengthPx < Math.max(minLengthPx, sh.thicknessPx)) {
       rejected.push({ centerPx: sh.centerPx, angleDeg: sh.angleDeg, layers: sh.layers, periodPx: sh.periodPx, reason: `${sh.lengthPx.toFixed(0)} px long: shorter than ${sh.lengthPx < minLengthPx ? `${minLengthPx} px` : 'its thickness'}` });
       continue;
+    }
+    // every stack is tested again as a lattice along its whole final axis, for a second fringe set
+    // at any crossing angle: a piece was tested only for one across its axis, and may be too
+    // short to show one; a stack joined from pieces or followed beyond a piece's ends is not (on
+    // a crossed lattice, short pieces cut from it were joined and followed into long false stacks)
+    if (sh.layers >= 3) {
+      const set = latticeAlongWhole(image, sh, polarity);
+      if (set) filled.set(sh, set);
     }
     // a mono- or bilayer whose positions mostly disagree on its count (1, 2, 3 along it) is noise
     // or crossed fringes, not a thin stack (the contrast of one or two lines is all it has)
@@ -1105,6 +1114,18 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
       continue;
     }
     kept.push(sh);
+  }
+  // a second fringe set that fills a stack's band is a lattice's, unless it is the layers of
+  // another stack that crosses this one wholly (a thick stack crossing at a shallow angle covers
+  // a shorter one end to end): a stack kept, itself filled by no second set, at the set's period
+  // (within 8 %) and direction (within 8°), whose band holds half of this one's axis or more. A
+  // lattice's sets fill each other's bands, so neither excuses the other.
+  for (const [sh, set] of filled) {
+    const secondPeriodPx = set.alongPeriodPx * Math.sin((set.crossingDeg * Math.PI) / 180);
+    const crosser = kept.find((o) => o !== sh && o.layers >= 3 && !filled.has(o) && Math.abs(o.periodPx - secondPeriodPx) <= 0.08 * secondPeriodPx && Math.min(axialDiff(o.angleDeg, sh.angleDeg + set.crossingDeg), axialDiff(o.angleDeg, sh.angleDeg - set.crossingDeg)) < 8 && shareOnBand(sh.axisPx, o) >= 0.5);
+    if (crosser) continue;
+    kept.splice(kept.indexOf(sh), 1);
+    rejected.push({ centerPx: sh.centerPx, angleDeg: sh.angleDeg, layers: sh.layers, periodPx: sh.periodPx, reason: `a second fringe set, at ${set.crossingDeg.toFixed(0)}° to its layers' normal, fills its whole length: a two-dimensional lattice, not a stack` });
   }
   // a sheet whose axis lies (almost) wholly on a longer sheet's band is a piece of a crossing, or
   // that sheet seen at another angle: not a stack of its own (a stack that crosses another
@@ -1232,15 +1253,31 @@ function offsetAlong(c: AlongCounts, L: number, seg: number, minEvidence: number
   };
 }
 
+/**
+ * The lattice test on a stack along its whole final axis (joined from pieces, followed beyond a
+ * piece's ends; {@link secondFringeSetFills}): the comb at its period is fitted on the profile
+ * across that axis (middle 90 % of its length), and the band's middle (0.7 of its thickness) is
+ * searched for a second fringe set at any crossing angle.
+ * @returns the second set that fills its band, or null
+ */
+type SecondSet = NonNullable<ReturnType<typeof secondFringeSetFills>>;
+
+function latticeAlongWhole(image: GreyImage, sh: Omit<AutoSheet, 'id'>, polarity: 'dark' | 'bright'): SecondSet | null {
+  const { op, band } = ownAxisProfile(image, sh.axisPx, sh.thicknessPx, sh.periodPx);
+  const fit = fitLayerComb(op, sh.periodPx, band, { polarity, countReach: 2 });
+  if (!fit || fit.layers < 3) return null;
+  return secondFringeSetFills(image, axisFrame(sh.axisPx), fit.centerPx, Math.max(1, 0.35 * fit.thicknessPx), sh.periodPx, acrossFringePower(op, fit));
+}
+
 /** Δχ² by which a comb at half the period must beat the comb at the period to replace it (likelihood ratio e⁶ ≈ 400 between two models of as many parameters). */
 export const FUNDAMENTAL_MIN_GAIN = 12;
 
 /** The profile across a stack along its own axis (the middle 90 % of its length), and the band its comb at p covers. */
-function ownAxisProfile(image: GreyImage, axisPx: [number, number][], fit: CombFit, periodPx: number): { op: AcrossProfile; band: { fromPx: number; toPx: number } } {
+function ownAxisProfile(image: GreyImage, axisPx: [number, number][], thicknessPx: number, periodPx: number): { op: AcrossProfile; band: { fromPx: number; toPx: number } } {
   const own = axisFrame(axisPx);
   const L = own.lengthPx;
-  const hw = fit.thicknessPx / 2 + Math.max(3 * periodPx, 8);
-  return { op: robustAcrossProfile(image, own, { fromPx: 0.05 * L, toPx: 0.95 * L, halfWidthPx: hw }), band: { fromPx: -fit.thicknessPx / 2, toPx: fit.thicknessPx / 2 } };
+  const hw = thicknessPx / 2 + Math.max(3 * periodPx, 8);
+  return { op: robustAcrossProfile(image, own, { fromPx: 0.05 * L, toPx: 0.95 * L, halfWidthPx: hw }), band: { fromPx: -thicknessPx / 2, toPx: thicknessPx / 2 } };
 }
 
 /**
@@ -1260,7 +1297,7 @@ function ownAxisProfile(image: GreyImage, axisPx: [number, number][], fit: CombF
  * @returns the comb at the fundamental with its refined period and uncertainty and the profile it was fitted on, or null to keep p
  */
 function fundamentalOnOwnAxis(image: GreyImage, axisPx: [number, number][], fit: CombFit, periodPx: number, finerPx: number, polarity: 'dark' | 'bright'): { fit: CombFit; periodPx: number; uPx: number; profile: AcrossProfile } | null {
-  const { op, band } = ownAxisProfile(image, axisPx, fit, periodPx);
+  const { op, band } = ownAxisProfile(image, axisPx, fit.thicknessPx, periodPx);
   const atP = fitLayerComb(op, periodPx, band, { polarity, countReach: 2 });
   const atHalf0 = fitLayerComb(op, finerPx, band, { polarity, countReach: 3 });
   if (!atP || !atHalf0) return null;
@@ -1279,7 +1316,7 @@ function fundamentalOnOwnAxis(image: GreyImage, axisPx: [number, number][], fit:
 function fundamentalEvidence(image: GreyImage, axisPx: [number, number][], fit: CombFit, periodPx: number, polarity: 'dark' | 'bright', minPeriodPx: number): { gainAt: (q: number) => number; ownQ: () => number | null; prefers: (aPx: number, bPx: number) => boolean } {
   let made: { op: AcrossProfile; band: { fromPx: number; toPx: number } } | null = null;
   let atP: CombFit | null | undefined;
-  const make = () => (made ??= ownAxisProfile(image, axisPx, fit, periodPx));
+  const make = () => (made ??= ownAxisProfile(image, axisPx, fit.thicknessPx, periodPx));
   return {
     gainAt: (q: number) => {
       const m = make();

@@ -111,11 +111,14 @@ export function profilePeriodogram(values: ArrayLike<number>, size: number, high
   const r = Math.ceil(3 * sigma);
   const re = new Float64Array(size);
   const im = new Float64Array(size);
+  // the kernel's taps once (the same values the exponential gives at each offset)
+  const taps = new Float64Array(r + 1);
+  for (let d = 0; d <= r; d++) taps[d] = Math.exp(-0.5 * (d / sigma) ** 2);
   for (let i = 0; i < n; i++) {
     let s = 0;
     let w = 0;
     for (let k = Math.max(0, i - r); k <= Math.min(n - 1, i + r); k++) {
-      const g = Math.exp(-0.5 * ((k - i) / sigma) ** 2);
+      const g = taps[k > i ? k - i : i - k];
       s += g * values[k];
       w += g;
     }

@@ -1,6 +1,7 @@
 import { describe, expect, it } from 'vitest';
-import { combNearPeriod } from '../../src/sheets/count';
-import { fitLayerComb, type AcrossProfile } from '../../src/sheets/stack-profile';
+import { makeGreyImage } from '../../src/image/grey-image';
+import { combNearPeriod, secondFringeSetFills } from '../../src/sheets/count';
+import { axisFrame, fitLayerComb, type AcrossProfile } from '../../src/sheets/stack-profile';
 import { gauss, rng, syntheticProfile } from '../../testing/synthetic/stacks';
 
 /** A profile across a stack of `layers` dark lines at `periodPx`, sampled every 0.5 px (synthetic truth, testing/synthetic/stacks.ts). */
@@ -68,5 +69,63 @@ describe('fitLayerComb', () => {
     expect(f.layers).toBe(1);
     expect(Math.abs(f.lineSigmaPx - 1.2)).toBeLessThan(0.25);
     expect(Math.abs(f.depth - 0.3) / 0.3).toBeLessThan(0.1);
+  });
+});
+
+/**
+ * A 320 × 200 image of a band along x (centre row 100) of `layers` fringes at `periodPx`, with a
+ * second fringe set at `crossDeg` between the normals, over the columns [from, to) (synthetic;
+ * cosine fringes of contrast 0.2 and 0.15 on a level of 1, Gaussian noise σ 0.05).
+ */
+function crossedBand(periodPx: number, layers: number, crossDeg: number | null, from = 0, to = 320) {
+  const w = 320;
+  const h = 200;
+  const data = new Float32Array(w * h);
+  const r = rng(11);
+  const half = (layers * periodPx) / 2;
+  const th = ((crossDeg ?? 0) * Math.PI) / 180;
+  for (let y = 0; y < h; y++) {
+    for (let x = 0; x < w; x++) {
+      const u = y - 100;
+      let v = 1 + 0.05 * gauss(r);
+      if (Math.abs(u) <= half) {
+        v += 0.2 * Math.cos((2 * Math.PI * u) / periodPx);
+        // the second set's normal at crossDeg from the band's normal (the y axis)
+        if (crossDeg !== null && x >= from && x < to) v += 0.15 * Math.cos((2 * Math.PI * (u * Math.cos(th) + x * Math.sin(th))) / periodPx);
+      }
+      data[y * w + x] = v;
+    }
+  }
+  const frame = axisFrame([[10, 100], [310, 100]]);
+  return { image: makeGreyImage(w, h, data), frame, halfWidth: 0.35 * 2 * half };
+}
+
+describe('secondFringeSetFills', () => {
+  // across-fringe power of the band's own fringes in the straight test's units (per sample 0.5 px
+  // apart): a cosine of amplitude 0.2 over the band, as acrossFringePower gives it on such bands
+  const acrossPower = 0.2 ** 2 * ((2 * 10 * 8) / 16);
+  it('finds a second set at 60° that fills the band, which a straight average across the band washes out', () => {
+    const b = crossedBand(8, 10, 60);
+    // the angle is measured from the frame's normal, which points along +y or −y
+    const inFrame = (deg: number) => (b.frame.normals[0][1] > 0 ? deg : 180 - deg);
+    const set = secondFringeSetFills(b.image, b.frame, 0, b.halfWidth, 8, acrossPower);
+    expect(set).not.toBeNull();
+    expect(Math.abs(set!.crossingDeg - inFrame(60))).toBeLessThan(3);
+    // along the axis the second set's period is d / sin φ
+    expect(Math.abs(set!.alongPeriodPx * Math.sin((set!.crossingDeg * Math.PI) / 180) - 8)).toBeLessThan(0.4);
+    const mirrored = crossedBand(8, 10, 125);
+    const set2 = secondFringeSetFills(mirrored.image, mirrored.frame, 0, mirrored.halfWidth, 8, acrossPower);
+    expect(Math.abs(set2!.crossingDeg - inFrame(125))).toBeLessThan(3);
+  });
+  it('finds none on a stack alone, nor on a stack crossed by another over a third of its length', () => {
+    const alone = crossedBand(8, 10, null);
+    expect(secondFringeSetFills(alone.image, alone.frame, 0, alone.halfWidth, 8, acrossPower)).toBeNull();
+    const crossed = crossedBand(8, 10, 60, 120, 200);
+    expect(secondFringeSetFills(crossed.image, crossed.frame, 0, crossed.halfWidth, 8, acrossPower)).toBeNull();
+  });
+  it('rejects bad arguments by name', () => {
+    const b = crossedBand(8, 4, null);
+    expect(() => secondFringeSetFills(b.image, b.frame, 0, 0, 8, acrossPower)).toThrow(/halfWidth/);
+    expect(() => secondFringeSetFills(b.image, b.frame, 0, 10, NaN, acrossPower)).toThrow(/periodPx/);
   });
 });

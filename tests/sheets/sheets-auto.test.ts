@@ -170,6 +170,24 @@ describe('detectSheets', () => {
     expect(res.sheets).toEqual([]);
     expect(res.rejected.some((r) => r.reason.startsWith('its lines go on, in phase, beyond both outer layers'))).toBe(true);
   });
+  it('refuses a stack cut from a lattice whose second fringe set crosses at 60° (it washes out in a straight average across a wide band)', () => {
+    // a crossed lattice (synthetic, testing/synthetic/overviews.ts: two fringe sets at 11.5 px, 60°
+    // apart, no stacks) gave 6- and 5-layer sheets 124 and 90 px long, joined and followed from
+    // short pieces: averaged straight along the axis over 0.7 of a 69 px band, fringes at 60° are
+    // gone; along their own slant they fill the band's whole length
+    const o = generateOverview('crossed-lattice', 8);
+    const res = detectSheets(o.image);
+    expect(res.sheets).toEqual([]);
+    expect(res.rejected.some((r) => /a second fringe set, at (5[5-9]|6[0-5])° to its layers' normal, fills its whole length/.test(r.reason))).toBe(true);
+  });
+  it('keeps a stack that another crosses end to end at a shallow angle (its second fringe set is that stack, not a lattice)', () => {
+    // an 8-layer stack at 13.3 px, 135 px long, crossed at 30° by a 6-layer stack 80 px thick
+    // (synthetic truth, testing/synthetic/overviews.ts): the crossing covers all of its length;
+    // the crossing stack is found and filled by no second set of its own
+    const o = generateOverview('fringes', 38);
+    const res = detectSheets(o.image);
+    foundStack(o, res, 196, 112, 8);
+  });
   it('does not take a low-dose stack for a lattice because noise beside it reads as further lines', () => {
     // 7 layers at 4.52 px at 36 e/px (synthetic truth, testing/synthetic/overviews.ts): beside one
     // candidate's comb the fit of two further lines gave 1.3 of the comb's depth, at 0.1 standard
