@@ -463,6 +463,8 @@ interface Solution {
   volume: number;
   /** The supercell this solution was reduced from (smallestCell), if any. */
   from?: Trial;
+  /** d-spacings, nm, of the weak lines only that supercell indexed (left to the sub-cell's fit, or unindexed). */
+  fromOnlyDNm?: number[];
 }
 
 /**
@@ -739,6 +741,7 @@ function smallestCell(w: Work, s: Solution, subset: Set<number> | null, opts: Re
     }
     subs.sort((x, y) => volumeOf(x) - volumeOf(y));
     let next: Solution | null = null;
+    let nextOnly: number[] = [];
     for (const sub of subs) {
       if (!(sub.c >= MIN_EDGE_NM) || (sub.kind !== 'lamellar' && !(sub.a >= MIN_EDGE_NM))) continue;
       const lines = linesOf(w, sub);
@@ -754,8 +757,16 @@ function smallestCell(w: Work, s: Solution, subset: Set<number> | null, opts: Re
         }
         return lo < qs.length && Math.abs(qs[lo] / q - 1) <= 1e-9 ? lo : -1;
       };
-      const asg = cur.asg.map((a) => (a ? { ...a, line: lineAt(cur.lines[a.line].q) } : null));
-      if (asg.some((a) => a !== null && a.line < 0)) continue;
+      const mapped = cur.asg.map((a) => (a ? { ...a, line: lineAt(cur.lines[a.line].q) } : null));
+      // lines only the supercell indexes: none strong, and at most one in twenty of its indexed
+      // lines (none below twenty): a supercell predicts two to eight times the lines, so among
+      // many lines a weak stray peak (noise, a split line) falls near one of its own by chance; a
+      // real superstructure shows more of them, or strong ones
+      const only = mapped.filter((a): a is NonNullable<typeof a> => a !== null && a.line < 0);
+      const indexedCount = mapped.filter((a) => a !== null).length;
+      if (only.length > 0 && (only.some((a) => w.strong.has(a.peak)) || only.length > Math.floor(indexedCount / 20))) continue;
+      const asg = mapped.map((a) => (a && a.line >= 0 ? a : null));
+      nextOnly = only.map((a) => a.peak);
       const clean = asg.flatMap((a) => (a && !a.overlap ? [{ peak: a.peak, hkl: lines[a.line].hkl }] : []));
       const zeroKept = cur.cov !== null && cur.cov.length > cellParameters(t.kind);
       const r = cur.cov ? refine(w, sub, clean, zeroKept, false) : null;
@@ -780,7 +791,7 @@ function smallestCell(w: Work, s: Solution, subset: Set<number> | null, opts: Re
       break;
     }
     if (!next) return cur;
-    cur = { ...next, from: s.t };
+    cur = { ...next, from: s.t, fromOnlyDNm: [...(cur.fromOnlyDNm ?? []), ...nextOnly.map((i) => 1 / Math.sqrt(w.q[i]))] };
   }
   return cur;
 }
@@ -908,7 +919,14 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
     });
     lines.sort((x, y) => y.dCalcNm - x.dCalcNm);
     const cellWords = (c: Trial) => (c.kind === 'lamellar' ? `c ${c.c.toPrecision(6)} nm` : cellParameters(c.kind) === 1 ? `a ${c.a.toPrecision(6)} nm` : `a ${c.a.toPrecision(6)} nm, c ${c.c.toPrecision(6)} nm`);
-    if (s.from) notes.push(`the ${LATTICE_WORDS[s.from.kind]} cell (${cellWords(s.from)}) indexes these lines only with indices its ${LATTICE_WORDS[t.kind]} sub-cell (${cellWords(t)}) also has: the sub-cell is taken (the smallest cell)`);
+    if (s.from) {
+      const only = s.fromOnlyDNm ?? [];
+      notes.push(
+        only.length === 0
+          ? `the ${LATTICE_WORDS[s.from.kind]} cell (${cellWords(s.from)}) indexes these lines only with indices its ${LATTICE_WORDS[t.kind]} sub-cell (${cellWords(t)}) also has: the sub-cell is taken (the smallest cell)`
+          : `the ${LATTICE_WORDS[s.from.kind]} cell (${cellWords(s.from)}) indexes these lines with indices its ${LATTICE_WORDS[t.kind]} sub-cell (${cellWords(t)}) also has, but for ${only.length === 1 ? 'one weak line' : `${only.length} weak lines`} (d ${only.map((d) => d.toPrecision(5)).join(', ')} nm) that a cell predicting so many more lines meets by chance: the sub-cell is taken (the smallest cell); a superstructure would show more such lines, or strong ones`,
+      );
+    }
     const explained = new Set(s.hkls.map((h) => h.peak));
     return {
       kind: t.kind,
@@ -1189,7 +1207,18 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
           }
         }
       }
-      const [firstS, secondS] = second ? settleLeftLines(w, first, second, scope, opts, minFom) : [first, null];
+      const [settled, secondS] = second ? settleLeftLines(w, first, second, scope, opts, minFom) : [first, null];
+      let firstS = settled;
+      // once the other phase has its lines, the first may be a supercell of its own lines in more
+      // than one edge at once (a and c doubled and the centring changed: a body-centred (2a, 2c)
+      // cell whose lines all have even indices is the primitive (a, c)): the smallest cell of
+      // what it keeps, when it explains as many of those lines, the strong ones included
+      if (secondS) {
+        const taken = new Set(secondS.hkls.map((h) => h.peak));
+        const mine = new Set(scope.filter((i) => !taken.has(i)));
+        const sm = smallestCell(w, firstS, mine, opts);
+        if (sm !== firstS && sm.hkls.length >= firstS.hkls.length && sm.strongExplained >= firstS.strongExplained) firstS = sm;
+      }
       phases.push(phaseOf(firstS, false));
       if (secondS) phases.push(phaseOf(secondS, false));
       const left = strongScope.length - bestPair!.key[0];
