@@ -314,8 +314,10 @@ export const SECOND_SET_THIRD_SHARE = 0.4;
  *   that × sin φ); or null
  */
 export function secondFringeSetFills(image: GreyImage, frame: AxisFrame, centre: number, halfWidth: number, periodPx: number, acrossPower: number): { crossingDeg: number; alongPeriodPx: number } | null {
-  if (!(halfWidth > 0)) throw new RangeError(`halfWidth must be positive, got ${halfWidth}`);
-  if (!(periodPx > 0)) throw new RangeError(`periodPx must be positive, got ${periodPx}`);
+  if (!(halfWidth > 0 && Number.isFinite(halfWidth))) throw new RangeError(`halfWidth must be positive and finite, got ${halfWidth}`);
+  if (!(periodPx > 0 && Number.isFinite(periodPx))) throw new RangeError(`periodPx must be positive and finite, got ${periodPx}`);
+  if (!Number.isFinite(centre)) throw new RangeError(`centre must be finite, got ${centre}`);
+  if (!(acrossPower >= 0 && Number.isFinite(acrossPower))) throw new RangeError(`acrossPower must be non-negative and finite, got ${acrossPower}`);
   const { width, height, data } = image;
   const steps = Math.max(1, Math.round(halfWidth));
   const s0 = 0.05 * frame.lengthPx;

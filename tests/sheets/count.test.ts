@@ -127,5 +127,7 @@ describe('secondFringeSetFills', () => {
     const b = crossedBand(8, 4, null);
     expect(() => secondFringeSetFills(b.image, b.frame, 0, 0, 8, acrossPower)).toThrow(/halfWidth/);
     expect(() => secondFringeSetFills(b.image, b.frame, 0, 10, NaN, acrossPower)).toThrow(/periodPx/);
+    expect(() => secondFringeSetFills(b.image, b.frame, NaN, 10, 8, acrossPower)).toThrow(/centre/);
+    expect(() => secondFringeSetFills(b.image, b.frame, 0, 10, 8, -1)).toThrow(/acrossPower/);
   });
 });
