@@ -713,7 +713,9 @@ function volumeOf(t: Trial): number {
  * lines, none of them observed, go. Left as a supercell, those lines cost it in F_N, yet they also
  * let it call a broad peak beside one of them a blend of two lines (a peak's blend needs two
  * calculated lines within its width) and so explain a line the true cell misses by a hair: de
- * Wolff's trap of the supercell. Repeated until no sub-cell is left. The sub-cell evaluated afresh
+ * Wolff's trap of the supercell. Lines only the supercell indexes are allowed when none is strong
+ * and they are at most one in twenty of its lines (a stray weak peak meets one of its many lines by
+ * chance); they are named in the phase's note. Repeated until no sub-cell is left. The sub-cell evaluated afresh
  * is taken when it explains as many strong lines; else the supercell's lines carried over (a blend
  * keeps its status), the cell refined again on the same clean lines.
  * @param w the work arrays

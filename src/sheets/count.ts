@@ -5,6 +5,7 @@
  */
 import type { GreyImage } from '../image/grey-image';
 import { periodCandidates, profilePeriodogram } from './profile';
+import { fitSinusoidTrend } from './signal';
 import { acrossProfile, fitLayerComb, smoothProfile, type AcrossProfile, type AxisFrame, type CombFit, type ProfileBand } from './stack-profile';
 
 /** Index of the axis point nearest arc length s. */
@@ -407,11 +408,10 @@ export function secondFringeSetFills(image: GreyImage, frame: AxisFrame, centre:
     along = (2 * along) / vals.length;
     if (along <= 0.2 * acrossPower) return none;
     // the set must fill the band: its amplitude at that period in each third of the length
-    const f = 1 / c.periodPx;
-    const whole = toneAmplitude(vals, 0, vals.length, f);
+    const whole = toneAmplitude(vals, 0, vals.length, c.periodPx);
     const n3 = Math.floor(vals.length / 3);
     for (let t = 0; t < 3; t++) {
-      const part = toneAmplitude(vals, t * n3, (t + 1) * n3, f);
+      const part = toneAmplitude(vals, t * n3, (t + 1) * n3, c.periodPx);
       if (part.amplitude < SECOND_SET_THIRD_SHARE * whole.amplitude || part.amplitude < 4 * part.uAmplitude) return none;
     }
     // samples are 1 px apart: the period in samples is in px
@@ -447,45 +447,14 @@ export function secondFringeSetFills(image: GreyImage, frame: AxisFrame, centre:
   return null;
 }
 
-/** Least-squares amplitude of a sinusoid of `cyclesPerSample` (with a straight background) on samples [from, to), and its standard error from the residual. */
-function toneAmplitude(v: readonly number[], from: number, to: number, cyclesPerSample: number): { amplitude: number; uAmplitude: number } {
+/** Least-squares amplitude of a sinusoid of `periodSamples` (with a straight background) on samples [from, to), and its standard error from the residual. */
+function toneAmplitude(v: readonly number[], from: number, to: number, periodSamples: number): { amplitude: number; uAmplitude: number } {
+  const fit = fitSinusoidTrend(v, periodSamples, from, to);
+  if (!fit) return { amplitude: 0, uAmplitude: Infinity };
   const n = to - from;
-  // design: 1, x, cos, sin; normal equations solved by Gaussian elimination (4 × 4)
-  const A = Array.from({ length: 4 }, () => new Float64Array(5));
-  const row = new Float64Array(4);
-  for (let i = from; i < to; i++) {
-    const x = (i - from) / n - 0.5;
-    const w = 2 * Math.PI * cyclesPerSample * i;
-    row[0] = 1;
-    row[1] = x;
-    row[2] = Math.cos(w);
-    row[3] = Math.sin(w);
-    for (let a = 0; a < 4; a++) {
-      for (let b = 0; b < 4; b++) A[a][b] += row[a] * row[b];
-      A[a][4] += row[a] * v[i];
-    }
-  }
-  for (let c = 0; c < 4; c++) {
-    let piv = c;
-    for (let r = c + 1; r < 4; r++) if (Math.abs(A[r][c]) > Math.abs(A[piv][c])) piv = r;
-    [A[c], A[piv]] = [A[piv], A[c]];
-    if (Math.abs(A[c][c]) < 1e-12) return { amplitude: 0, uAmplitude: Infinity };
-    for (let r = 0; r < 4; r++) {
-      if (r === c) continue;
-      const m = A[r][c] / A[c][c];
-      for (let k = c; k < 5; k++) A[r][k] -= m * A[c][k];
-    }
-  }
-  const beta = A.map((r, i) => r[4] / r[i]);
-  let rss = 0;
-  for (let i = from; i < to; i++) {
-    const x = (i - from) / n - 0.5;
-    const w = 2 * Math.PI * cyclesPerSample * i;
-    rss += (v[i] - beta[0] - beta[1] * x - beta[2] * Math.cos(w) - beta[3] * Math.sin(w)) ** 2;
-  }
-  const sigma = Math.sqrt(rss / Math.max(1, n - 4));
+  const sigma = Math.sqrt(fit.rss / Math.max(1, n - 4));
   // neighbouring samples of a blurred, interpolated image are correlated: twice the white-noise error
-  return { amplitude: Math.hypot(beta[2], beta[3]), uAmplitude: 2 * sigma * Math.sqrt(2 / n) };
+  return { amplitude: Math.hypot(fit.coef[2], fit.coef[3]), uAmplitude: 2 * sigma * Math.sqrt(2 / n) };
 }
 
 

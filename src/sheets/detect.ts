@@ -1253,6 +1253,9 @@ function offsetAlong(c: AlongCounts, L: number, seg: number, minEvidence: number
   };
 }
 
+/** A second fringe set found filling a stack's band ({@link secondFringeSetFills}). */
+type SecondSet = NonNullable<ReturnType<typeof secondFringeSetFills>>;
+
 /**
  * The lattice test on a stack along its whole final axis (joined from pieces, followed beyond a
  * piece's ends; {@link secondFringeSetFills}): the comb at its period is fitted on the profile
@@ -1260,8 +1263,6 @@ function offsetAlong(c: AlongCounts, L: number, seg: number, minEvidence: number
  * searched for a second fringe set at any crossing angle.
  * @returns the second set that fills its band, or null
  */
-type SecondSet = NonNullable<ReturnType<typeof secondFringeSetFills>>;
-
 function latticeAlongWhole(image: GreyImage, sh: Omit<AutoSheet, 'id'>, polarity: 'dark' | 'bright'): SecondSet | null {
   const { op, band } = ownAxisProfile(image, sh.axisPx, sh.thicknessPx, sh.periodPx);
   const fit = fitLayerComb(op, sh.periodPx, band, { polarity, countReach: 2 });

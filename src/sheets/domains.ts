@@ -5,48 +5,27 @@
  */
 import type { GreyImage } from '../image/grey-image';
 import { profilePeriod } from './profile';
+import { fitSinusoidTrend } from './signal';
 import { axialDifferenceDeg, structureTensor } from './structure-tensor';
 
 /** R² of a least-squares sinusoid (plus constant and linear trend) of the given period fitted to a profile. */
 function sinusoidR2(v: number[], periodPx: number): number {
   const n = v.length;
-  // columns: 1, x, cos, sin; normal equations solved by Gaussian elimination
-  const cols = (i: number) => [1, i / n - 0.5, Math.cos((2 * Math.PI * i) / periodPx), Math.sin((2 * Math.PI * i) / periodPx)];
-  const a = Array.from({ length: 4 }, () => new Float64Array(5));
+  if (n < 4) return 0;
+  const fit = fitSinusoidTrend(v, periodPx);
+  if (!fit) return 0;
+  const [c0, c1] = fit.coef;
   let mean = 0;
   for (const x of v) mean += x;
   mean /= n;
-  for (let i = 0; i < n; i++) {
-    const c = cols(i);
-    for (let r = 0; r < 4; r++) {
-      for (let k = 0; k < 4; k++) a[r][k] += c[r] * c[k];
-      a[r][4] += c[r] * v[i];
-    }
-  }
-  for (let r = 0; r < 4; r++) {
-    let piv = r;
-    for (let k = r + 1; k < 4; k++) if (Math.abs(a[k][r]) > Math.abs(a[piv][r])) piv = k;
-    [a[r], a[piv]] = [a[piv], a[r]];
-    if (Math.abs(a[r][r]) < 1e-12) return 0;
-    for (let k = 0; k < 4; k++) {
-      if (k === r) continue;
-      const f = a[k][r] / a[r][r];
-      for (let j = r; j < 5; j++) a[k][j] -= f * a[r][j];
-    }
-  }
-  const coef = a.map((row, r) => row[4] / row[r]);
   // variance explained by the sinusoid beyond the constant and trend
   let ssTot = 0;
-  let ssRes = 0;
   let ssTrend = 0;
   for (let i = 0; i < n; i++) {
-    const c = cols(i);
-    const trend = coef[0] + coef[1] * c[1];
-    const fit = trend + coef[2] * c[2] + coef[3] * c[3];
     ssTot += (v[i] - mean) ** 2;
-    ssTrend += (v[i] - trend) ** 2;
-    ssRes += (v[i] - fit) ** 2;
+    ssTrend += (v[i] - c0 - c1 * (i / n - 0.5)) ** 2;
   }
+  const ssRes = fit.rss;
   return ssTot > 0 && ssTrend > 0 ? 1 - ssRes / ssTrend : 0;
 }
 

@@ -102,7 +102,9 @@ function crossedBand(periodPx: number, layers: number, crossDeg: number | null, 
 
 describe('secondFringeSetFills', () => {
   // across-fringe power of the band's own fringes in the straight test's units (per sample 0.5 px
-  // apart): a cosine of amplitude 0.2 over the band, as acrossFringePower gives it on such bands
+  // apart): the Hann-windowed periodogram's peak of a cosine of amplitude A over n samples is
+  // (A·n/4)², so per sample A²·n/16, with A 0.2 and n = 160 samples across the 80 px band (an
+  // estimate of its scale; the second set, amplitude 0.15, must carry a fifth of it)
   const acrossPower = 0.2 ** 2 * ((2 * 10 * 8) / 16);
   it('finds a second set at 60° that fills the band, which a straight average across the band washes out', () => {
     const b = crossedBand(8, 10, 60);
