@@ -765,16 +765,22 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
   const unvotedStacks: UnvotedStack[] = [];
   // the bands of the last look that yielded no stack, to be measured along their own fringes
   const failedBands: { axis: RidgeAxis; frame: AxisFrame; band: ProfileBand; periodPx: number }[] = [];
+  // the combs of the first look that were too faint, to be followed beyond their candidate's ends
+  const faintCombs: { axis: RidgeAxis; frame: AxisFrame; fit: CombFit; periodPx: number; limitPx: [number, number] }[] = [];
   // candidates measured at the periods given (a function: run again after the periods are refined)
   // strongest bands first, so the stack is measured from its best candidate
   const measureCandidates = (tryPeriods: number[], earlier: Omit<AutoSheet, 'id'>[]): void => {
     if (tryPeriods.length === 0) return;
     failedBands.length = 0;
-    for (const axis of axes) measureAxis(axis, tryPeriods, earlier, true);
+    faintCombs.length = 0;
+    for (const axis of axes) measureAxis(axis, tryPeriods, earlier, 'first');
   };
-  // one candidate axis: its bands measured at the periods given; a band that yields no stack is,
-  // when `turnable`, kept in `failedBands` (a turned candidate is not turned again)
-  const measureAxis = (axis: RidgeAxis, tryPeriods: number[], earlier: Omit<AutoSheet, 'id'>[], turnable: boolean): void => {
+  // one candidate axis: its bands measured at the periods given; on the first look a band that
+  // yields no stack is kept in `failedBands`, and a comb too faint in `faintCombs` (a turned or
+  // lengthened candidate is not turned or lengthened again; a lengthened one must keep the count
+  // it was followed with, `followedLayers`)
+  const measureAxis = (axis: RidgeAxis, tryPeriods: number[], earlier: Omit<AutoSheet, 'id'>[], look: 'first' | 'turned' | 'lengthened', followedLayers = 0): void => {
+    const turnable = look === 'first';
     const axisFrame0 = axisFrame(axis.points);
     const angle0 = (i: number) => screenAngleDeg(axisFrame0.normals[i][0], axisFrame0.normals[i][1]);
     // a candidate on a stack already measured (one of its layers, or the same band) is skipped;
@@ -860,6 +866,7 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
         }
         if (fit.evidence < minEvidence) {
           reject(`too faint: evidence ${fit.evidence.toFixed(0)} below ${minEvidence}`, fit, periodPx);
+          if (turnable && fit.layers >= 2) faintCombs.push({ axis, frame, fit, periodPx, limitPx: limit });
           continue;
         }
         let uPeriod = 0;
@@ -1000,10 +1007,13 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
         // nothing of its own to confirm it; on a grass photograph one gave a 3-layer sheet); it
         // does not touch a stack measured already (a piece of it where two stacks cross would
         // join the one whose band it lies in)
-        if (!turnable && (done.layers < TURN_MIN_LAYERS || pieces.some((q) => {
+        if (look === 'turned' && (done.layers < TURN_MIN_LAYERS || pieces.some((q) => {
           const o = finishPiece(q, minPeriodPx);
           return shareOnBand(done.axisPx, o) > 0.2 || shareOnBand(o.axisPx, done) > 0.2;
         }))) continue;
+        // a lengthened candidate keeps the count it was followed with (each stretch held it):
+        // another count is another band, which its own candidate has had every chance to give
+        if (look === 'lengthened' && done.layers !== followedLayers) continue;
         // a piece too short to be a stack by itself may yet join another piece of its stack, but
         // covers its band only softly (a short wrong piece must not hide the real stack); one
         // measured on such a piece's band must be long enough by itself (else the same band would
@@ -1066,7 +1076,27 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
     for (const fb of [...failedBands]) {
       const nearest = periodList.reduce((b, d) => (Math.abs(d - fb.periodPx) < Math.abs(b - fb.periodPx) ? d : b), periodList[0]);
       const turned = turnedCandidate(image, fb.axis, fb.frame, fb.band, nearest);
-      if (turned) measureAxis(turned, [...periodList], [], false);
+      if (turned) measureAxis(turned, [...periodList], [], 'turned');
+    }
+  }
+  // a faint comb on a short candidate (a ridge that broke up along a faint stack) is followed
+  // straight beyond the candidate's ends, a long stretch at a time, while each stretch fits the
+  // same count; once at least half as long again, the longer axis is measured with every test
+  // (its width-averaged profile gains evidence in proportion to its length)
+  if (periodList.length > 0) {
+    let measured: Omit<AutoSheet, 'id'>[] = [];
+    let measuredOf = -1;
+    const onStack = (ends: [number, number][]) => {
+      if (measuredOf !== pieces.length) {
+        measured = pieces.map((q) => finishPiece(q, minPeriodPx));
+        measuredOf = pieces.length;
+      }
+      const pts = resampleAxis(ends);
+      return measured.some((o) => shareOnBand(pts, o) > 0.2);
+    };
+    for (const fc of [...faintCombs].sort((a, b) => b.fit.evidence - a.fit.evidence)) {
+      const longer = lengthenedCandidate(image, fc, polarity, minEvidence, mask, onStack);
+      if (longer) measureAxis(longer, [...periodList], [], 'lengthened', fc.fit.layers);
     }
   }
   // the stacks counted at a period p with no phase of the image near p/2, grouped by p: the
@@ -1470,6 +1500,38 @@ function pooledFundamental(group: UnvotedStack[], minPeriodPx: number): number |
   return showing >= 2 && showing > group.length / 2 ? rows[m].q : null;
 }
 
+/** Stretch tried at a time when a faint comb's candidate is followed beyond its ends, px. */
+const LENGTHEN_STEP_PX = 32;
+
+/**
+ * A faint comb's candidate followed beyond its ends along the comb's centre line
+ * ({@link extendAxis}, a stretch of {@link LENGTHEN_STEP_PX} at a time, up to twice the candidate's
+ * length or 64 px on each side), each stretch holding the same count with two fifths of the
+ * comb's evidence per px and at least a quarter of the evidence asked of a stack, its layers
+ * resolved, and stopping at a stack already measured (in a dense field a crossing stack's band
+ * carried the comb 50 px past its stack's end, and the crossing stack was then taken for a piece
+ * of it).
+ *
+ * @param onStack given a stretch's two ends, whether it runs onto a stack already measured
+ * Region growing along a straight axis (common practice).
+ *
+ * @returns the longer candidate, or null when it grew by less than half its length
+ */
+function lengthenedCandidate(image: GreyImage, fc: { axis: RidgeAxis; frame: AxisFrame; fit: CombFit; periodPx: number; limitPx: [number, number] }, polarity: 'dark' | 'bright', minEvidence: number, mask: Uint8Array | null, onStack: (stretchPx: [number, number][]) => boolean): RidgeAxis | null {
+  const { frame, fit } = fc;
+  const centre = shiftAxis(frame, () => fit.centerPx);
+  // the candidate's profile averages 0.1–0.9 of its length
+  const perPx = fit.evidence / Math.max(1, 0.8 * frame.lengthPx);
+  const minStretch = Math.max(0.25 * minEvidence, 0.4 * perPx * LENGTHEN_STEP_PX);
+  const limit: [number, number] = [fc.limitPx[0] - fit.centerPx, fc.limitPx[1] - fit.centerPx];
+  const longer = extendAxis(image, centre, fit.layers, fit.lineSigmaPx, fc.periodPx, limit, polarity, minStretch, mask, LENGTHEN_STEP_PX, Math.max(64, 2 * frame.lengthPx), true, onStack);
+  const lengthPx = polylineLength(longer);
+  if (lengthPx < 1.5 * frame.lengthPx) return null;
+  // its ridge scale is the comb's band (a band of width w peaks at σ ≈ w/√6), so the survey's
+  // window holds the whole band and background on both sides
+  return { points: longer, scalePx: Math.max(fc.axis.scalePx, (fit.layers * fc.periodPx) / Math.sqrt(6)), strength: fc.axis.strength, lengthPx };
+}
+
 /** Stretch of axis tried at a time beyond an end, px. */
 const EXTEND_STEP_PX = 16;
 
@@ -1490,12 +1552,17 @@ const EXTEND_STEP_PX = 16;
  * @param polarity the layers' polarity
  * @param minStretchEvidence the evidence a stretch needs
  * @param mask pixels not searched (a scale bar's panel), or null
+ * @param stepPx the stretch tried at a time, px
+ * @param reachPx how far it may be followed beyond each end, px (default: as far as the stack is thick)
+ * @param eachResolved each stretch of three layers or more must show its layers
+ *   ({@link layersResolved}: a crossing stack's plain dark band fits a comb as well)
+ * @param stopAt where the following stops: given a stretch's two ends, whether it meets
+ *   something the stack must not be followed across
  * @returns the axis with what was found beyond its ends (resampled every 2 px), or the axis itself
  */
-function extendAxis(image: GreyImage, axisPx: [number, number][], layers: number, lineSigmaPx: number, periodPx: number, limitPx: [number, number], polarity: 'dark' | 'bright', minStretchEvidence: number, mask: Uint8Array | null): [number, number][] {
+function extendAxis(image: GreyImage, axisPx: [number, number][], layers: number, lineSigmaPx: number, periodPx: number, limitPx: [number, number], polarity: 'dark' | 'bright', minStretchEvidence: number, mask: Uint8Array | null, stepPx = EXTEND_STEP_PX, reachPx = Math.max(stepPx, layers * periodPx), eachResolved = false, stopAt: ((stretchPx: [number, number][]) => boolean) | null = null): [number, number][] {
   if (axisPx.length < 4) return axisPx;
   const thickness = layers * periodPx;
-  const maxPx = Math.max(EXTEND_STEP_PX, thickness);
   const half = thickness / 2 + Math.max(3 * periodPx, 8);
   const inside = (x: number, y: number) => {
     if (!(x >= 0 && y >= 0 && x <= image.width - 1 && y <= image.height - 1)) return false;
@@ -1511,15 +1578,17 @@ function extendAxis(image: GreyImage, axisPx: [number, number][], layers: number
     if (dl < 4) continue;
     const tx = (end[0] - back[0]) / dl;
     const ty = (end[1] - back[1]) / dl;
-    for (let done = 0; done + EXTEND_STEP_PX <= maxPx + 1e-9; done += EXTEND_STEP_PX) {
+    for (let done = 0; done + stepPx <= reachPx + 1e-9; done += stepPx) {
       const a: [number, number] = [end[0] + done * tx, end[1] + done * ty];
-      const b: [number, number] = [end[0] + (done + EXTEND_STEP_PX) * tx, end[1] + (done + EXTEND_STEP_PX) * ty];
+      const b: [number, number] = [end[0] + (done + stepPx) * tx, end[1] + (done + stepPx) * ty];
       if (![a, b].every((q) => inside(q[0] + half * ty, q[1] - half * tx) && inside(q[0] - half * ty, q[1] + half * tx))) break;
+      if (stopAt && stopAt([a, b])) break;
       // the stretch, ordered as the axis is (so its normals point the same way)
       const stretch = axisFrame(e === 0 ? [b, a] : [a, b]);
       const pp = acrossProfile(image, stretch, { halfWidthPx: half });
       const f = fitLayerComb(pp, periodPx, { fromPx: -thickness / 2, toPx: thickness / 2 }, { polarity, limitPx, countReach: 2, lineSigmasPx: [lineSigmaPx], centreReachPx: 0.75 * periodPx + 1 });
       if (!f || f.evidence < minStretchEvidence || f.layers !== layers || Math.abs(f.centerPx) > periodPx) break;
+      if (eachResolved && layers >= 3 && !layersResolved(pp, f, polarity, limitPx)) break;
       added[e].push(b);
     }
   }

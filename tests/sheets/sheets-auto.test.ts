@@ -188,6 +188,16 @@ describe('detectSheets', () => {
     const res = detectSheets(o.image);
     foundStack(o, res, 196, 112, 8);
   });
+  it('follows a faint stack whose candidate ridge is a short piece of it (fringes, absorbance 0.07)', () => {
+    // an 11-layer stack at 5.87 px, 251 px long, of absorbance 0.07 (synthetic truth,
+    // testing/synthetic/overviews.ts): its longest candidate ridge was 51 px, and the comb of the
+    // band averaged along it had evidence 36 (60 asked for); followed 32 px at a time while each
+    // stretch holds 11 layers, the axis is 244 px long and the stack is counted
+    const o = generateOverview('fringes', 24);
+    const res = detectSheets(o.image);
+    foundStack(o, res, 549, 281, 11);
+    expect(scoreOverview(o.truth.stacks, res.sheets).spurious).toBeLessThanOrEqual(1);
+  });
   it('does not take a low-dose stack for a lattice because noise beside it reads as further lines', () => {
     // 7 layers at 4.52 px at 36 e/px (synthetic truth, testing/synthetic/overviews.ts): beside one
     // candidate's comb the fit of two further lines gave 1.3 of the comb's depth, at 0.1 standard
