@@ -1524,12 +1524,24 @@ function lengthenedCandidate(image: GreyImage, fc: { axis: RidgeAxis; frame: Axi
   const perPx = fit.evidence / Math.max(1, 0.8 * frame.lengthPx);
   const minStretch = Math.max(0.25 * minEvidence, 0.4 * perPx * LENGTHEN_STEP_PX);
   const limit: [number, number] = [fc.limitPx[0] - fit.centerPx, fc.limitPx[1] - fit.centerPx];
-  const longer = extendAxis(image, centre, fit.layers, fit.lineSigmaPx, fc.periodPx, limit, polarity, minStretch, mask, LENGTHEN_STEP_PX, Math.max(64, 2 * frame.lengthPx), true, onStack);
+  const longer = extendAxis(image, centre, fit.layers, fit.lineSigmaPx, fc.periodPx, limit, polarity, minStretch, mask, { stepPx: LENGTHEN_STEP_PX, reachPx: Math.max(64, 2 * frame.lengthPx), eachResolved: true, stopAt: onStack });
   const lengthPx = polylineLength(longer);
   if (lengthPx < 1.5 * frame.lengthPx) return null;
   // its ridge scale is the comb's band (a band of width w peaks at σ ≈ w/√6), so the survey's
   // window holds the whole band and background on both sides
   return { points: longer, scalePx: Math.max(fc.axis.scalePx, (fit.layers * fc.periodPx) / Math.sqrt(6)), strength: fc.axis.strength, lengthPx };
+}
+
+/** How {@link extendAxis} follows an axis beyond its ends. */
+interface FollowOptions {
+  /** The stretch tried at a time, px (default {@link EXTEND_STEP_PX}). */
+  stepPx?: number;
+  /** How far it may be followed beyond each end, px (default: as far as the stack is thick). */
+  reachPx?: number;
+  /** Each stretch of three layers or more must show its layers ({@link layersResolved}: a crossing stack's plain dark band fits a comb as well). */
+  eachResolved?: boolean;
+  /** Where the following stops: given a stretch's two ends, whether it meets something the stack must not be followed across. */
+  stopAt?: ((stretchPx: [number, number][]) => boolean) | null;
 }
 
 /** Stretch of axis tried at a time beyond an end, px. */
@@ -1552,16 +1564,14 @@ const EXTEND_STEP_PX = 16;
  * @param polarity the layers' polarity
  * @param minStretchEvidence the evidence a stretch needs
  * @param mask pixels not searched (a scale bar's panel), or null
- * @param stepPx the stretch tried at a time, px
- * @param reachPx how far it may be followed beyond each end, px (default: as far as the stack is thick)
- * @param eachResolved each stretch of three layers or more must show its layers
- *   ({@link layersResolved}: a crossing stack's plain dark band fits a comb as well)
- * @param stopAt where the following stops: given a stretch's two ends, whether it meets
- *   something the stack must not be followed across
+ * @param follow stretch, reach and the further conditions on each stretch ({@link FollowOptions})
  * @returns the axis with what was found beyond its ends (resampled every 2 px), or the axis itself
  */
-function extendAxis(image: GreyImage, axisPx: [number, number][], layers: number, lineSigmaPx: number, periodPx: number, limitPx: [number, number], polarity: 'dark' | 'bright', minStretchEvidence: number, mask: Uint8Array | null, stepPx = EXTEND_STEP_PX, reachPx = Math.max(stepPx, layers * periodPx), eachResolved = false, stopAt: ((stretchPx: [number, number][]) => boolean) | null = null): [number, number][] {
+function extendAxis(image: GreyImage, axisPx: [number, number][], layers: number, lineSigmaPx: number, periodPx: number, limitPx: [number, number], polarity: 'dark' | 'bright', minStretchEvidence: number, mask: Uint8Array | null, follow: FollowOptions = {}): [number, number][] {
   if (axisPx.length < 4) return axisPx;
+  const stepPx = follow.stepPx ?? EXTEND_STEP_PX;
+  const reachPx = follow.reachPx ?? Math.max(stepPx, layers * periodPx);
+  const { eachResolved = false, stopAt = null } = follow;
   const thickness = layers * periodPx;
   const half = thickness / 2 + Math.max(3 * periodPx, 8);
   const inside = (x: number, y: number) => {
