@@ -991,7 +991,9 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
           if (polylineLength(longer) >= Math.max(minLengthPx, fit.layers * periodPx)) axisPx = longer;
         }
         const { positions, counted, edge } = counts;
-        const piece: Piece = { axisPx, periodPx, uPeriodPx: uPeriod, periodSource, fitLayers: fit.layers, counted, edges: edge, positions, evidence: fit.evidence };
+        // a period read from the image's periodograms (votes within 4 %, a few per cent high near
+        // the sampling limit) carries that reading's uncertainty until its stacks refine it
+        const piece: Piece = { axisPx, periodPx, uPeriodPx: periodSource === 'image' ? IMAGE_PERIOD_RELATIVE_U * periodPx : uPeriod, periodSource, fitLayers: fit.layers, counted, edges: edge, positions, evidence: fit.evidence };
         const done = finishPiece(piece, minPeriodPx);
         if (inBox(done.centerPx[0], done.centerPx[1], exclude)) {
           onEarlier = true;
@@ -1036,6 +1038,8 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
   // periodograms of the candidates read a few per cent high near the sampling limit; thinner
   // stacks then take the median of their phase's refined periods (five stacks at least), with the spread among those
   // stacks as their period's uncertainty (a thin stack's own period is not measured)
+  // the spread of each refined phase period among its stacks
+  const refinedSpread = new Map<number, number>();
   if (given === undefined) {
     const refined: { m: number; sd: number }[] = [];
     let moved = false;
@@ -1053,6 +1057,7 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
       if (Math.abs(m - d) > 0.015 * d) moved = true;
       periodList[k] = m;
       refined.push({ m, sd });
+      refinedSpread.set(m, sd);
     }
     // two periodogram peaks of one phase refine to the same period: kept once
     const unique = periodList.filter((d, k) => periodList.findIndex((e) => Math.abs(e - d) < 1e-9) === k);
@@ -1117,6 +1122,22 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
       if (r.kind !== 'recount') continue;
       const pc = st.piece;
       Object.assign(pc, { axisPx: r.axisPx, periodPx: r.periodPx, uPeriodPx: r.uPx, periodSource: 'stack', fitLayers: r.fit.layers, counted: r.counts.counted, edges: r.counts.edge, positions: r.counts.positions });
+    }
+  }
+  // a stack's own refined period trades count against period when its fringes are weak (n − 1
+  // layers at d·n/(n − 1) span the same band): where the comb at its phase's period, measured on
+  // the image's stacks, fits its band about as well, that period and its count stand
+  if (given === undefined && periodList.length > 0) {
+    for (const pc of pieces) {
+      if (pc.periodSource !== 'stack' || pc.fitLayers < 3) continue;
+      const near = periodList.filter((d) => Math.abs(pc.periodPx - d) > 0.01 * d && Math.abs(pc.periodPx - d) <= 0.15 * d);
+      const spread = (d: number) => refinedSpread.get(d) ?? IMAGE_PERIOD_RELATIVE_U * d;
+      for (const d of near.sort((a, b) => Math.abs(pc.periodPx - a) - Math.abs(pc.periodPx - b))) {
+        const r = recountAtShared(image, pc, d, polarity, spacing, minEvidence);
+        if (!r) continue;
+        Object.assign(pc, { axisPx: r.axisPx, periodPx: d, uPeriodPx: spread(d), periodSource: 'image', fitLayers: r.fit.layers, counted: r.counts.counted, edges: r.counts.edge, positions: r.counts.positions });
+        break;
+      }
     }
   }
   // after merging, a stack must be at least as long as the shortest stack asked for and as its
@@ -1309,6 +1330,49 @@ function ownAxisProfile(image: GreyImage, axisPx: [number, number][], thicknessP
   const L = own.lengthPx;
   const hw = thicknessPx / 2 + Math.max(3 * periodPx, 8);
   return { op: robustAcrossProfile(image, own, { fromPx: 0.05 * L, toPx: 0.95 * L, halfWidthPx: hw }), band: { fromPx: -thicknessPx / 2, toPx: thicknessPx / 2 } };
+}
+
+/** Standard uncertainty of a layer period read from the image's periodograms and not refined on five stacks or more, as a fraction of it (votes within 4 % form one period, read a few per cent high near the sampling limit). */
+export const IMAGE_PERIOD_RELATIVE_U = 0.03;
+
+/** Δχ² by which a stack's comb at its own period must beat the comb at its phase's period to keep its own (one parameter more; Akaike's penalty of 2 per parameter). */
+export const OWN_PERIOD_MIN_GAIN = 2;
+
+/**
+ * A stack counted again at its phase's period, when the comb there fits the band on its own axis
+ * about as well as the comb at its own refined period: counts free and periods fixed in both, the
+ * phase's period is kept unless the stack's own improves the residual by more than
+ * {@link OWN_PERIOD_MIN_GAIN} noise variances. Model choice by Akaike's information criterion
+ * (Akaike, IEEE Trans. Autom. Control 19, 716, 1974).
+ *
+ * @param image the image
+ * @param pc the stack, counted at its own refined period
+ * @param sharedPx the period of its phase, px
+ * @param polarity the layers' polarity
+ * @param spacing the spacing of count positions along the axis, px
+ * @param minEvidence the evidence a comb needs
+ * @returns the comb and the counts at the phase's period on the re-centred axis, or null to keep the stack as it is
+ */
+function recountAtShared(image: GreyImage, pc: Piece, sharedPx: number, polarity: 'dark' | 'bright', spacing: number, minEvidence: number): { fit: CombFit; counts: AlongCounts; axisPx: [number, number][] } | null {
+  const thicknessPx = pieceThickness(pc);
+  const { op, band } = ownAxisProfile(image, pc.axisPx, thicknessPx, pc.periodPx);
+  const own = fitLayerComb(op, pc.periodPx, band, { polarity, countReach: 3 });
+  const at = fitLayerComb(op, sharedPx, band, { polarity, countReach: 3 });
+  if (!own || !at || at.evidence < minEvidence) return null;
+  if ((at.rss - own.rss) / own.noiseVar > OWN_PERIOD_MIN_GAIN) return null;
+  const frame = axisFrame(pc.axisPx);
+  const reach = at.thicknessPx / 2 + 1.5 * sharedPx;
+  const limit: [number, number] = [at.centerPx - reach, at.centerPx + reach];
+  const k = Math.max(3, Math.min(9, Math.round((0.9 * frame.lengthPx) / spacing)));
+  const seg = (0.9 * frame.lengthPx) / k;
+  const counts = countAlong(image, frame, at, sharedPx, limit, k, polarity, minEvidence);
+  if (counts.counted.length < Math.max(2, Math.ceil(k / 2))) return null;
+  const offAt = offsetAlong(counts, frame.lengthPx, seg, minEvidence);
+  const axisPx = frame.points.map((q, i) => {
+    const o = offAt(frame.cumPx[i]);
+    return [q[0] + o * frame.normals[i][0], q[1] + o * frame.normals[i][1]] as [number, number];
+  });
+  return { fit: at, counts, axisPx };
 }
 
 /**
@@ -1605,6 +1669,7 @@ function extendAxis(image: GreyImage, axisPx: [number, number][], layers: number
   if (added[0].length === 0 && added[1].length === 0) return axisPx;
   return resampleAxis([...added[0].reverse(), ...axisPx, ...added[1]]);
 }
+
 
 /** Share of a polyline's points that lie on a sheet's band (inside its length, within half its thickness and a period of its axis). */
 function shareOnBand(points: [number, number][], o: Pick<AutoSheet, 'axisPx' | 'lengthPx' | 'thicknessPx' | 'periodPx'>): number {

@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { makeGreyImage } from '../../src/image/grey-image';
-import { detectSheets, MIN_COUNTABLE_PERIOD_PX } from '../../src/sheets/detect';
+import { detectSheets, IMAGE_PERIOD_RELATIVE_U, MIN_COUNTABLE_PERIOD_PX } from '../../src/sheets/detect';
 import { axialDifferenceDeg, recursiveGaussian, structureTensor } from '../../src/sheets/structure-tensor';
 import { syntheticImage } from '../../testing/synthetic/stacks';
 import { generateOverview, scoreOverview } from '../../testing/synthetic/overviews';
@@ -197,6 +197,23 @@ describe('detectSheets', () => {
     const res = detectSheets(o.image);
     foundStack(o, res, 549, 281, 11);
     expect(scoreOverview(o.truth.stacks, res.sheets).spurious).toBeLessThanOrEqual(1);
+  });
+  it('counts a stack at its phase\'s period when its own refined period only trades a layer for a wider period (dense, 3.56 px)', () => {
+    // 9 layers at 3.56 px, 83 px long (synthetic truth, testing/synthetic/overviews.ts): its own
+    // refined period walked to 3.86 px with 8 layers (n·d nearly the same); the comb at the period
+    // of the image's 20 other stacks fits its band as well, so that period and its count stand
+    const o = generateOverview('dense', 3);
+    const res = detectSheets(o.image);
+    const { sheet } = foundStack(o, res, 308, 440, 9);
+    expect(Math.abs(sheet.periodPx - 3.56) / 3.56).toBeLessThan(0.02);
+  });
+  it('gives the sheets on the period the image\'s periodograms read its reading\'s uncertainty, not zero (thin)', () => {
+    // the mono- and bilayers take the period the periodograms read (two stacks do not refine it):
+    // that reading's uncertainty (votes within 4 %) enters their thickness
+    const res = detectSheets(generateOverview('thin', 17).image);
+    const thin = res.sheets.filter((s) => s.periodSource === 'image');
+    expect(thin.length).toBeGreaterThan(0);
+    for (const s of thin) expect(s.uPeriodPx.statisticalPx / s.periodPx).toBeCloseTo(IMAGE_PERIOD_RELATIVE_U, 6);
   });
   it('does not take a low-dose stack for a lattice because noise beside it reads as further lines', () => {
     // 7 layers at 4.52 px at 36 e/px (synthetic truth, testing/synthetic/overviews.ts): beside one
