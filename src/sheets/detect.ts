@@ -1205,6 +1205,14 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
       rejected.push({ centerPx: sh.centerPx, angleDeg: sh.angleDeg, layers: sh.layers, periodPx: sh.periodPx, reason: 'lies on a longer stack (a piece of a crossing)' });
       continue;
     }
+    // a faint comb alongside a longer stack at its period, its outer layer closer than half a
+    // period to the stack's: not a stack of its own (two stacks that close are one band of
+    // layers); the stack's edge and the background beside it fitted as a comb
+    const beside = accepted.find((o) => alongside(sh, o) && sh.evidence / sh.lengthPx < ALONGSIDE_EVIDENCE_SHARE * (o.evidence / o.lengthPx));
+    if (beside) {
+      rejected.push({ centerPx: sh.centerPx, angleDeg: sh.angleDeg, layers: sh.layers, periodPx: sh.periodPx, reason: `alongside a longer stack at its period, less than half a period from it, with ${Math.round((100 * (sh.evidence / sh.lengthPx)) / (beside.evidence / beside.lengthPx))} % of its evidence per px: that stack's edge, not a stack` });
+      continue;
+    }
     accepted.push(sh);
   }
   // one or two lines have no period of their own: their count and thickness rest on the layer
@@ -1670,6 +1678,31 @@ function extendAxis(image: GreyImage, axisPx: [number, number][], layers: number
   return resampleAxis([...added[0].reverse(), ...axisPx, ...added[1]]);
 }
 
+
+/** A comb alongside a stack is taken as that stack's edge below this share of its evidence per px of length. */
+export const ALONGSIDE_EVIDENCE_SHARE = 1 / 3;
+
+/**
+ * Whether sheet a lies alongside sheet b: within 10° of its direction and 6 % of its period, with
+ * 85 % of a's axis beside b's axis (within b's length) and the gap between their bands, on average
+ * over those points, under half of b's period.
+ */
+function alongside(a: Omit<AutoSheet, 'id'>, b: Omit<AutoSheet, 'id'>): boolean {
+  if (axialDiff(a.angleDeg, b.angleDeg) > 10 || Math.abs(a.periodPx - b.periodPx) > 0.06 * b.periodPx) return false;
+  let tried = 0;
+  let on = 0;
+  let gapSum = 0;
+  for (let k = 0; k < a.axisPx.length; k += 3) {
+    const c = polylineCoords(b.axisPx, a.axisPx[k][0], a.axisPx[k][1]);
+    tried++;
+    const gap = Math.abs(c.u) - (a.thicknessPx + b.thicknessPx) / 2;
+    if (c.s >= 0 && c.s <= b.lengthPx && gap < b.periodPx) {
+      on++;
+      gapSum += gap;
+    }
+  }
+  return tried > 0 && on >= 0.85 * tried && gapSum / on < 0.5 * b.periodPx;
+}
 
 /** Share of a polyline's points that lie on a sheet's band (inside its length, within half its thickness and a period of its axis). */
 function shareOnBand(points: [number, number][], o: Pick<AutoSheet, 'axisPx' | 'lengthPx' | 'thicknessPx' | 'periodPx'>): number {

@@ -207,6 +207,15 @@ describe('detectSheets', () => {
     const { sheet } = foundStack(o, res, 308, 440, 9);
     expect(Math.abs(sheet.periodPx - 3.56) / 3.56).toBeLessThan(0.02);
   });
+  it('does not report a faint comb alongside a stack, less than half a period from it, as a stack (two orientations)', () => {
+    // a 3-layer stack at 2.72 px (synthetic truth, testing/synthetic/overviews.ts); near its end two
+    // 3-layer combs, 56 px long, lay either side of its band with a fifth of its evidence per px
+    const o = generateOverview('two-orientations', 18);
+    const res = detectSheets(o.image);
+    foundStack(o, res, 232, 499, 3);
+    expect(scoreOverview(o.truth.stacks, res.sheets).spurious).toBe(0);
+    expect(res.rejected.filter((r) => r.reason.startsWith('alongside a longer stack')).length).toBeGreaterThanOrEqual(2);
+  });
   it('gives the sheets on the period the image\'s periodograms read its reading\'s uncertainty, not zero (thin)', () => {
     // the mono- and bilayers take the period the periodograms read (two stacks do not refine it):
     // that reading's uncertainty (votes within 4 %) enters their thickness
