@@ -1159,9 +1159,10 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
       if (set) filled.set(sh, set);
     }
     // a mono- or bilayer whose positions mostly disagree on its count (1, 2, 3 along it) is noise
-    // or crossed fringes, not a thin stack (the contrast of one or two lines is all it has)
-    if (sh.layers <= 2 && sh.confidence < 0.5) {
-      rejected.push({ centerPx: sh.centerPx, angleDeg: sh.angleDeg, layers: sh.layers, periodPx: sh.periodPx, reason: `${sh.layers === 1 ? 'a single line' : 'two lines'} counted alike at only ${Math.round(100 * sh.confidence)} % of its positions: not a thin stack` });
+    // or crossed fringes, not a thin stack (the contrast of one or two lines is all it has); one
+    // short enough to be counted at three positions only must be counted alike at all three
+    if (sh.layers <= 2 && (sh.confidence < 0.5 || (sh.positions.length <= 3 && sh.confidence < 1))) {
+      rejected.push({ centerPx: sh.centerPx, angleDeg: sh.angleDeg, layers: sh.layers, periodPx: sh.periodPx, reason: `${sh.layers === 1 ? 'a single line' : 'two lines'} counted alike at only ${Math.round(100 * sh.confidence)} % of its ${sh.positions.length} positions: not a thin stack` });
       continue;
     }
     kept.push(sh);

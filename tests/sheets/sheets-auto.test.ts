@@ -216,6 +216,16 @@ describe('detectSheets', () => {
     expect(scoreOverview(o.truth.stacks, res.sheets).spurious).toBe(0);
     expect(res.rejected.filter((r) => r.reason.startsWith('alongside a longer stack')).length).toBeGreaterThanOrEqual(2);
   });
+  it('refuses a short pair of lines counted otherwise at one of its three positions (thin)', () => {
+    // a 37 px streak read as two lines at two positions and as one at the third (synthetic
+    // overview, testing/synthetic/overviews.ts: no stack there); every true mono- and bilayer is kept
+    const o = generateOverview('thin', 17);
+    const res = detectSheets(o.image);
+    const sc = scoreOverview(o.truth.stacks, res.sheets);
+    expect(sc.spurious).toBe(0);
+    expect(sc.matchOf.every((m) => m >= 0)).toBe(true);
+    expect(res.sheets.some((s) => Math.hypot(s.centerPx[0] - 526, s.centerPx[1] - 527) < 10)).toBe(false);
+  });
   it('gives the sheets on the period the image\'s periodograms read its reading\'s uncertainty, not zero (thin)', () => {
     // the mono- and bilayers take the period the periodograms read (two stacks do not refine it):
     // that reading's uncertainty (votes within 4 %) enters their thickness
