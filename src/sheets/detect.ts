@@ -332,7 +332,6 @@ function middleNormalDeg(frame: ReturnType<typeof axisFrame>): number {
 function finishPiece(pc: Piece, minPeriodPx: number): Omit<AutoSheet, 'id'> {
   const frame = axisFrame(pc.axisPx.length >= 2 ? pc.axisPx : [pc.axisPx[0], pc.axisPx[0]]);
   const layers = modeCount(pc.counted, pc.fitLayers);
-  const agree = pc.counted.filter((c) => c === layers).length;
   const d = pc.periodPx;
   const thicknessPx = layers * d;
   const half = thicknessPx / 2;
@@ -361,7 +360,7 @@ function finishPiece(pc: Piece, minPeriodPx: number): Omit<AutoSheet, 'id'> {
     axisPx: frame.points,
     outlinePx,
     lengthPx: frame.lengthPx,
-    confidence: pc.counted.length ? agree / pc.counted.length : 0,
+    confidence: agreement(pc.counted, pc.fitLayers),
     evidence: pc.evidence,
     positions: pc.positions,
     notes,
@@ -468,6 +467,13 @@ function mergePieces(input: Piece[]): Piece[] {
     pairWith(id);
   }
   return [...alive.values()];
+}
+
+/** The share of counts that agree with their most frequent one (a piece's confidence). */
+function agreement(counted: number[], fitLayers: number): number {
+  if (counted.length === 0) return 0;
+  const n = modeCount(counted, fitLayers);
+  return counted.filter((c) => c === n).length / counted.length;
 }
 
 function pieceThickness(p: Piece): number {
@@ -1128,13 +1134,15 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
   // layers at d·n/(n − 1) span the same band): where the comb at its phase's period, measured on
   // the image's stacks, fits its band about as well, that period and its count stand
   if (given === undefined && periodList.length > 0) {
+    const spread = (d: number) => refinedSpread.get(d) ?? IMAGE_PERIOD_RELATIVE_U * d;
     for (const pc of pieces) {
       if (pc.periodSource !== 'stack' || pc.fitLayers < 3) continue;
       const near = periodList.filter((d) => Math.abs(pc.periodPx - d) > 0.01 * d && Math.abs(pc.periodPx - d) <= 0.15 * d);
-      const spread = (d: number) => refinedSpread.get(d) ?? IMAGE_PERIOD_RELATIVE_U * d;
       for (const d of near.sort((a, b) => Math.abs(pc.periodPx - a) - Math.abs(pc.periodPx - b))) {
         const r = recountAtShared(image, pc, d, polarity, spacing, minEvidence);
-        if (!r) continue;
+        // the phase's period must make the positions agree on the count at least as well (a piece
+        // that runs over two stacks end to end only trades which one its count follows)
+        if (!r || agreement(r.counts.counted, r.fit.layers) < agreement(pc.counted, pc.fitLayers)) continue;
         Object.assign(pc, { axisPx: r.axisPx, periodPx: d, uPeriodPx: spread(d), periodSource: 'image', fitLayers: r.fit.layers, counted: r.counts.counted, edges: r.counts.edge, positions: r.counts.positions });
         break;
       }

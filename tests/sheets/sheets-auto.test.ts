@@ -226,6 +226,15 @@ describe('detectSheets', () => {
     expect(sc.matchOf.every((m) => m >= 0)).toBe(true);
     expect(res.sheets.some((s) => Math.hypot(s.centerPx[0] - 526, s.centerPx[1] - 527) < 10)).toBe(false);
   });
+  it('keeps a stack at its own period when the phase\'s period makes its positions agree less (sparse)', () => {
+    // a candidate ran over a 5-layer and a 3-layer stack end to end (synthetic truth,
+    // testing/synthetic/overviews.ts); recounted at the image's period its positions read
+    // 5, 5, 5, 2, 3, 3, and the piece then joined a 6-layer stack's into one 542 px sheet
+    const o = generateOverview('sparse', 24);
+    const res = detectSheets(o.image);
+    expect(res.sheets.every((s) => s.lengthPx < 400)).toBe(true);
+    expect(scoreOverview(o.truth.stacks, res.sheets).spurious).toBe(0);
+  });
   it('gives the sheets on the period the image\'s periodograms read its reading\'s uncertainty, not zero (thin)', () => {
     // the mono- and bilayers take the period the periodograms read (two stacks do not refine it):
     // that reading's uncertainty (votes within 4 %) enters their thickness
