@@ -1173,6 +1173,11 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
       rejected.push({ centerPx: sh.centerPx, angleDeg: sh.angleDeg, layers: sh.layers, periodPx: sh.periodPx, reason: `${sh.layers === 1 ? 'a single line' : 'two lines'} counted alike at only ${Math.round(100 * sh.confidence)} % of its ${sh.positions.length} positions: not a thin stack` });
       continue;
     }
+    // a short stack (three positions) whose positions agree on no count has no count to report
+    if (sh.layers >= 3 && sh.positions.length <= 3 && sh.confidence <= 0.5) {
+      rejected.push({ centerPx: sh.centerPx, angleDeg: sh.angleDeg, layers: sh.layers, periodPx: sh.periodPx, reason: `its ${sh.positions.length} positions agree on no count (${sh.positions.map((q) => q.layers ?? '–').join(', ')} layers): no count to report` });
+      continue;
+    }
     kept.push(sh);
   }
   // a second fringe set that fills a stack's band is a lattice's, unless it is the layers of

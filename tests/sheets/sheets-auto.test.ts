@@ -235,6 +235,13 @@ describe('detectSheets', () => {
     expect(res.sheets.every((s) => s.lengthPx < 400)).toBe(true);
     expect(scoreOverview(o.truth.stacks, res.sheets).spurious).toBe(0);
   });
+  it('refuses a short stack whose positions agree on no count (crossed lattice)', () => {
+    // at a crossed lattice's edge (synthetic, testing/synthetic/overviews.ts: no stacks), a 36 px
+    // comb of 3 lines was seen at two of its three positions, as 4 and 3 layers
+    const res = detectSheets(generateOverview('crossed-lattice', 33).image);
+    expect(res.sheets).toEqual([]);
+    expect(res.rejected.some((r) => r.reason.includes('agree on no count'))).toBe(true);
+  });
   it('gives the sheets on the period the image\'s periodograms read its reading\'s uncertainty, not zero (thin)', () => {
     // the mono- and bilayers take the period the periodograms read (two stacks do not refine it):
     // that reading's uncertainty (votes within 4 %) enters their thickness
