@@ -19,14 +19,17 @@
  *    every other layer), or, when the image has none there, against its own fringes near p/2
  *    (searched down to the countable limit; a fundamental found so must clear that limit and
  *    pass the lattice test), and, once all are measured, against the fundamental the stacks
- *    counted at p share (their comb's evidence at p/2 over p, summed).
+ *    counted at p share (their comb's evidence at p/2 over p, summed); a stack whose own refined
+ *    period is off its phase's is counted at the phase's period unless its own fits clearly
+ *    better (by Akaike's criterion: weak fringes trade a layer for a wider period).
  * 4. Layers are counted by fitting that comb on width-averaged profiles at several positions
  *    along the stack; the count is the most frequent one, and the share of positions that agree
  *    is its confidence. Mono- and bilayers are combs of one or two lines: found by their contrast.
  * 5. Rejected: a period below the smallest countable one (2.5 px) or outside the user's range, a
  *    two-dimensional lattice (the band is periodic along its axis as well, or its comb's lines go
  *    on, in phase, beyond both outer layers), a band without resolved layers (film texture), a
- *    band that does not persist along its axis.
+ *    band that does not persist along its axis, a short stack whose positions agree on no count,
+ *    a faint comb alongside a stronger stack at its period (that stack's edge).
  */
 import type { GreyImage } from '../image/grey-image';
 import type { UncertaintyPx } from '../measure/measurement';
