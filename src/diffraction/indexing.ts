@@ -698,6 +698,75 @@ function oneAtomIntensityChi2(w: Work, s: Solution): { chi2: number; dof: number
   return { chi2, dof: n - 2 };
 }
 
+/** Lines of a sorted comb with Q in [lo, hi] (binary searches). */
+function countBetween(qs: ReadonlyArray<{ q: number }>, lo: number, hi: number): number {
+  const first = (x: number) => {
+    let a = 0;
+    let b = qs.length;
+    while (a < b) {
+      const m = (a + b) >>> 1;
+      if (qs[m].q < x) a = m + 1;
+      else b = m;
+    }
+    return a;
+  };
+  return first(hi * (1 + 1e-12)) - first(lo);
+}
+
+/**
+ * The chance that a line of the pattern which is no reflection of a solution's cell is assigned to
+ * one of its calculated lines anyway: with the cell's lines around it (±10 % in Q) taken as a
+ * Poisson comb of their local density ρ, the chance of one within the assignment window (±3σ of
+ * its 2θ, at least ±0.03°; for q data ±(3σ + 0.2 %) in Q), or of two within ±0.6 FWHM (the window
+ * in which a broad peak is called a blend of two lines), 1 − (1 − p₁)(1 − p₂).
+ * @param w the work arrays
+ * @param s the solution (its lines sorted by Q)
+ * @param i the peak
+ * @returns the probability, 0–1
+ * Reference: de Wolff, J. Appl. Cryst. 1, 108 (1968): 2⟨ε⟩N/Q, the denominator of M20, is the
+ * chance that a line falls within ε of one of N calculated lines by accident.
+ */
+function chanceOfMatch(w: Work, s: Solution, i: number): number {
+  const qi = w.q[i];
+  const lo = Math.max(qi * 0.9, 1 / (w.dMax * 1.005) ** 2);
+  const hi = Math.min(qi * 1.1, 1 / (w.dMin * 0.995) ** 2);
+  if (!(hi > lo)) return 1;
+  const n = countBetween(s.lines, lo, hi);
+  const tt = w.tt[i];
+  let mOne: number;
+  let mTwo = 0;
+  if (w.lambda !== null && tt !== null) {
+    const spanDeg = twoThetaOfQ(hi, w.lambda) - twoThetaOfQ(lo, w.lambda);
+    if (!(spanDeg > 0)) return 1;
+    const perDeg = n / spanDeg;
+    mOne = perDeg * 2 * Math.max(0.03, 3 * w.stt[i]);
+    if (w.fw[i] > 0) mTwo = perDeg * 2 * 0.6 * w.fw[i];
+  } else {
+    mOne = (n / (hi - lo)) * 2 * (3 * w.sq[i] + 0.002 * qi);
+  }
+  const pOne = 1 - Math.exp(-mOne);
+  const pTwo = 1 - Math.exp(-mTwo) * (1 + mTwo);
+  return 1 - (1 - pOne) * (1 - pTwo);
+}
+
+/**
+ * The strong lines solution a explains and b does not, as evidence for a: counted only when a's
+ * comb of lines is unlikely to meet them all by chance. If they are no reflections of a's cell, a
+ * meets them all with probability Πp (chanceOfMatch); if they are, with probability 1: a likelihood
+ * ratio of 1/Πp, counted when it reaches √10 (Jeffreys' first grade of evidence); below that they
+ * count for nothing. A cell of three times the lines catches a broad band of another phase (a
+ * clay's (06,33) band fitted as a peak) with odds of four to one and must not win by it.
+ * @returns how many strong lines count for a against b (all or none)
+ * Reference: Jeffreys, Theory of Probability, 3rd ed. (1961), appendix B (grades of evidence: a
+ * Bayes factor below 10^½ is "barely worth mentioning"); de Wolff, J. Appl. Cryst. 1, 108 (1968).
+ */
+function strongBeyondChance(w: Work, a: Solution, b: Solution, strongHere: number[]): number {
+  const only = strongHere.filter((i) => a.asg[i] && !b.asg[i]);
+  if (only.length === 0) return 0;
+  const chanceAll = only.reduce((acc, i) => acc * chanceOfMatch(w, a, i), 1);
+  return chanceAll <= 1 / Math.sqrt(10) ? only.length : 0;
+}
+
 /** Volume of a trial's primitive cell in nm³ (for lamellar, the period). */
 function volumeOf(t: Trial): number {
   if (t.kind === 'lamellar') return t.c;
@@ -1010,12 +1079,17 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
     const score = (x: Solution) => x.fom.fN * (x.hkls.length / nHere) ** 2;
     // the order of preference: every strong line explained; then the most strong lines; then the
     // simplest description: a two-parameter cell must score twice a one-parameter one (it can
-    // index more by chance); then the score; within 10 %, the smaller cell
+    // index more by chance); then the score; within 10 %, the smaller cell. Strong lines one cell
+    // explains and the other not decide only when the first cell's lines are unlikely to meet them
+    // by chance (strongBeyondChance); else the comparison goes on as if both explained as many
     const compare = (a: Solution, b: Solution) => {
       const ca = a.strongExplained >= needStrong ? 1 : 0;
       const cb = b.strongExplained >= needStrong ? 1 : 0;
-      if (ca !== cb) return cb - ca;
-      if (!ca && a.strongExplained !== b.strongExplained) return b.strongExplained - a.strongExplained;
+      if (ca !== cb || (!ca && a.strongExplained !== b.strongExplained)) {
+        const ea = strongBeyondChance(w, a, b, strongHere);
+        const eb = strongBeyondChance(w, b, a, strongHere);
+        if (ea !== eb) return eb - ea;
+      }
       const pa = cellParameters(a.t.kind);
       const pb = cellParameters(b.t.kind);
       // the simplest lattice that explains the lines: a cell of fewer parameters that explains as

@@ -308,6 +308,17 @@ describe('a smectite (d001 1.50 nm, two water layers; from memory) beside a quar
     expect(Math.abs(hex.aNm / 0.4913 - 1)).toBeLessThan(5e-4);
     expect(Math.abs(hex.cNm / 0.5405 - 1)).toBeLessThan(5e-4);
   });
+  test('the hexagonal cell is its primitive one, not a rhombohedral cell of three times the lines whose comb meets a broad fragment of the clay\'s (06,33) band by chance (synthetic benchmark case, seed 43, its fitted peaks; drawn: c 1.5 nm and a 0.4913, c 0.5405 nm)', () => {
+    // the band at 62.17° (FWHM 1.30°) is a strong line neither phase has; the rhombohedral cell
+    // a 0.851, c 1.590 nm puts a line 0.05° from it and two within its width, the primitive cell none
+    const r = indexPattern(fittedPeaks([[5.8827, 0.0046, 639.4, 0.892], [11.7775, 0.029, 47.61, 0.722], [16.3868, 0.0011, 251.2, 0.151], [17.6838, 0.024, 45.55, 0.631], [20.0347, 0.03, 76.03, 0.988], [20.8648, 0.0033, 65.32, 0.158], [33.1206, 0.013, 13.49, 0.201], [36.5497, 0.0047, 39.67, 0.159], [39.4668, 0.0021, 104.0, 0.159], [42.4312, 0.0088, 56.77, 0.341], [45.7941, 0.0073, 27.9, 0.175], [48.4901, 0.031, 28.82, 0.644], [50.6234, 0.0042, 57.32, 0.18], [54.9329, 0.054, 35.98, 0.594], [55.3322, 0.0042, 101.4, 0.191], [59.986, 0.057, 21.81, 0.714], [62.1734, 0.016, 148.8, 1.301], [65.7924, 0.0067, 29.74, 0.164], [67.7521, 0.027, 37.82, 0.376], [68.271, 0.005, 126.8, 0.329], [69.5047, 0.0049, 63.99, 0.21]]), { wavelengthNm: CU1 });
+    expect(r.phases.map((p) => p.kind).sort()).toEqual(['hexagonal-P', 'lamellar']);
+    const hex = r.phases.find((p) => p.kind === 'hexagonal-P')!;
+    expect(Math.abs(hex.aNm / 0.4913 - 1)).toBeLessThan(5e-4);
+    expect(Math.abs(hex.cNm / 0.5405 - 1)).toBeLessThan(5e-4);
+    // the band is no line of the hexagonal phase
+    expect(hex.lines.some((l) => l.peak === 16)).toBe(false);
+  });
   test('a first order refined a little long keeps its line: the lines of a cell reach below the largest observed d by the first line\'s own budget (synthetic benchmark case, seed 9, its fitted peaks; its higher orders sit 0.04–0.10° low on the halo)', () => {
     const r = indexPattern(fittedPeaks([[5.8928, 0.0044, 680.3, 0.887], [11.7497, 0.027, 50.59, 0.775], [16.4047, 0.011, 17.37, 0.186], [17.6513, 0.024, 54.69, 0.755], [20.0948, 0.036, 60.78, 0.942], [20.8614, 0.0015, 192.5, 0.168], [26.6441, 0.0099, 15.64, 0.179], [29.6522, 0.027, 13.47, 0.338], [33.1184, 0.0021, 101.8, 0.167], [36.5542, 0.0037, 67.16, 0.175], [39.466, 0.006, 31.25, 0.157], [40.3008, 0.003, 80.39, 0.201], [42.0877, 0.028, 7.626, 0.164], [42.4582, 0.0019, 170.4, 0.179], [45.8, 0.0025, 114.9, 0.189], [50.1433, 0.0018, 209.3, 0.176], [50.6253, 0.0016, 254.9, 0.183], [54.88, 0.0024, 157, 0.189], [55.295, 0.044, 21.05, 0.428], [57.2387, 0.003, 103.8, 0.199], [57.2389, 0.0031, 101.8, 0.198], [59.9621, 0.0036, 79.76, 0.182], [63.6015, 0.072, 19.75, 0.679], [65.8081, 0.05, 26.87, 0.74], [67.7535, 0.003, 126.5, 0.183], [68.3142, 0.0023, 233, 0.215]]), { wavelengthNm: CU1 });
     const lam = r.phases.find((p) => p.kind === 'lamellar')!;
