@@ -1283,7 +1283,10 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
           }
         }
       }
-      const [settled, secondS] = second ? settleLeftLines(w, first, second, scope, opts, minFom) : [first, null];
+      // a line both phases' cells explain goes to the phase whose breadth it has (as for the pair that replaces one cell)
+      let secondW = second;
+      if (second) [first, secondW] = shareByWidth(w, first, second, scope, opts);
+      const [settled, secondS] = secondW ? settleLeftLines(w, first, secondW, scope, opts, minFom) : [first, null];
       let firstS = settled;
       // once the other phase has its lines, the first may be a supercell of its own lines in more
       // than one edge at once (a and c doubled and the centring changed: a body-centred (2a, 2c)
