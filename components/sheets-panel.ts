@@ -686,7 +686,7 @@ export class StrataSheetsPanel extends LitElement {
                 </tr>`;
               })}
             </table>
-            <p class="muted">± is the expanded uncertainty (k = 2) of the thickness n·d (layers × period): the period's fit and the spread along the stack, with the calibration. * a count corrected by you (the automatic one is kept).</p>
+            <p class="muted">± is the expanded uncertainty (k = 2) of the thickness n·d (layers × period): the period's uncertainty (its fit on the stack, its phase's spread, or the image's reading, 3 %), the spread along the stack, and the calibration. * a count corrected by you (the automatic one is kept).</p>
             <div class="row">
               <label><input type="checkbox" .checked=${this.acceptedOnly} @change=${(e: Event) => (this.acceptedOnly = (e.target as HTMLInputElement).checked)}> count accepted only</label>
             </div>

@@ -296,7 +296,9 @@ interface Piece {
   /** The stack's axis (middle of its thickness), image px. */
   axisPx: [number, number][];
   periodPx: number;
+  /** Standard uncertainty of the period, px, and which part of the budget it is: the fit on the stack's own fringes (statistical), the spread of its phase's refined periods (local variation), or the periodograms' reading (method). */
   uPeriodPx: number;
+  uPeriodPart: 'statisticalPx' | 'localVariationPx' | 'methodPx';
   periodSource: AutoSheet['periodSource'];
   /** Count on the length-averaged profile (breaks ties of the positions). */
   fitLayers: number;
@@ -341,6 +343,8 @@ function finishPiece(pc: Piece, minPeriodPx: number): Omit<AutoSheet, 'id'> {
   const nd = pc.counted.map((c) => c * d);
   const sdNd = nd.length > 1 ? Math.sqrt(nd.reduce((acc, v) => acc + (v - mean(nd)) ** 2, 0) / (nd.length - 1)) : 0;
   const mid = indexAt(frame, frame.lengthPx / 2);
+  // the period's uncertainty, times n, in its own part of the budget
+  const uPeriod = (n: number): UncertaintyPx => ({ statisticalPx: 0, localVariationPx: 0, methodPx: 0, [pc.uPeriodPart]: n * pc.uPeriodPx });
   const outlinePx: [number, number][] = [
     ...frame.points.map((q, i) => [q[0] + half * frame.normals[i][0], q[1] + half * frame.normals[i][1]] as [number, number]),
     ...frame.points.map((q, i) => [q[0] - half * frame.normals[i][0], q[1] - half * frame.normals[i][1]] as [number, number]).reverse(),
@@ -353,10 +357,10 @@ function finishPiece(pc: Piece, minPeriodPx: number): Omit<AutoSheet, 'id'> {
     status: 'auto',
     layers,
     thicknessPx,
-    uThicknessPx: { statisticalPx: layers * pc.uPeriodPx, localVariationPx: nd.length ? sdNd / Math.sqrt(nd.length) : 0, methodPx: 0 },
+    uThicknessPx: { ...uPeriod(layers), localVariationPx: Math.hypot(uPeriod(layers).localVariationPx, nd.length ? sdNd / Math.sqrt(nd.length) : 0) },
     edgeToEdgePx: pc.edges.length ? mean(pc.edges) : thicknessPx,
     periodPx: d,
-    uPeriodPx: { statisticalPx: pc.uPeriodPx, localVariationPx: 0, methodPx: 0 },
+    uPeriodPx: uPeriod(1),
     periodSource: pc.periodSource,
     angleDeg: middleNormalDeg(frame),
     centerPx: [frame.points[mid][0], frame.points[mid][1]],
@@ -625,6 +629,7 @@ function joinPieces(a: Piece, b: Piece): Piece {
     axisPx: resampleAxis(pts.map((q) => q.p)),
     periodPx: (a.periodPx * wa + b.periodPx * wb) / (wa + wb),
     uPeriodPx: Math.max(a.uPeriodPx, b.uPeriodPx),
+    uPeriodPart: a.uPeriodPx >= b.uPeriodPx ? a.uPeriodPart : b.uPeriodPart,
     periodSource: a.periodSource === 'stack' || b.periodSource === 'stack' ? (a.periodSource === 'given' ? 'given' : 'stack') : a.periodSource,
     fitLayers: a.evidence >= b.evidence ? a.fitLayers : b.fitLayers,
     counted: [...a.counted, ...b.counted],
@@ -1002,7 +1007,7 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
         const { positions, counted, edge } = counts;
         // a period read from the image's periodograms (votes within 4 %, a few per cent high near
         // the sampling limit) carries that reading's uncertainty until its stacks refine it
-        const piece: Piece = { axisPx, periodPx, uPeriodPx: periodSource === 'image' ? IMAGE_PERIOD_RELATIVE_U * periodPx : uPeriod, periodSource, fitLayers: fit.layers, counted, edges: edge, positions, evidence: fit.evidence };
+        const piece: Piece = { axisPx, periodPx, uPeriodPx: periodSource === 'image' ? IMAGE_PERIOD_RELATIVE_U * periodPx : uPeriod, uPeriodPart: periodSource === 'image' ? 'methodPx' : 'statisticalPx', periodSource, fitLayers: fit.layers, counted, edges: edge, positions, evidence: fit.evidence };
         const done = finishPiece(piece, minPeriodPx);
         if (inBox(done.centerPx[0], done.centerPx[1], exclude)) {
           onEarlier = true;
@@ -1062,6 +1067,7 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
         if (q.periodSource !== 'image' || Math.abs(q.periodPx - d) > 1e-9) continue;
         q.periodPx = m;
         q.uPeriodPx = sd;
+        q.uPeriodPart = 'localVariationPx';
       }
       if (Math.abs(m - d) > 0.015 * d) moved = true;
       periodList[k] = m;
@@ -1078,7 +1084,7 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
       rejected.length = 0;
       measureCandidates([...periodList], pieces.map((q) => finishPiece(q, minPeriodPx)));
       for (const { m, sd } of refined) {
-        for (const q of pieces) if (q.periodSource === 'image' && Math.abs(q.periodPx - m) < 1e-9) q.uPeriodPx = sd;
+        for (const q of pieces) if (q.periodSource === 'image' && Math.abs(q.periodPx - m) < 1e-9) Object.assign(q, { uPeriodPx: sd, uPeriodPart: 'localVariationPx' });
       }
     }
   }
@@ -1130,7 +1136,7 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
       const r = st.recount(shared);
       if (r.kind !== 'recount') continue;
       const pc = st.piece;
-      Object.assign(pc, { axisPx: r.axisPx, periodPx: r.periodPx, uPeriodPx: r.uPx, periodSource: 'stack', fitLayers: r.fit.layers, counted: r.counts.counted, edges: r.counts.edge, positions: r.counts.positions });
+      Object.assign(pc, { axisPx: r.axisPx, periodPx: r.periodPx, uPeriodPx: r.uPx, uPeriodPart: 'statisticalPx', periodSource: 'stack', fitLayers: r.fit.layers, counted: r.counts.counted, edges: r.counts.edge, positions: r.counts.positions });
     }
   }
   // a stack's own refined period trades count against period when its fringes are weak (n − 1
@@ -1146,7 +1152,7 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
         // the phase's period must make the positions agree on the count at least as well (a piece
         // that runs over two stacks end to end only trades which one its count follows)
         if (!r || agreement(r.counts.counted, r.fit.layers) < agreement(pc.counted, pc.fitLayers)) continue;
-        Object.assign(pc, { axisPx: r.axisPx, periodPx: d, uPeriodPx: spread(d), periodSource: 'image', fitLayers: r.fit.layers, counted: r.counts.counted, edges: r.counts.edge, positions: r.counts.positions });
+        Object.assign(pc, { axisPx: r.axisPx, periodPx: d, uPeriodPx: spread(d), uPeriodPart: refinedSpread.has(d) ? 'localVariationPx' : 'methodPx', periodSource: 'image', fitLayers: r.fit.layers, counted: r.counts.counted, edges: r.counts.edge, positions: r.counts.positions });
         break;
       }
     }

@@ -248,7 +248,12 @@ describe('detectSheets', () => {
     const res = detectSheets(generateOverview('thin', 17).image);
     const thin = res.sheets.filter((s) => s.periodSource === 'image');
     expect(thin.length).toBeGreaterThan(0);
-    for (const s of thin) expect(s.uPeriodPx.statisticalPx / s.periodPx).toBeCloseTo(IMAGE_PERIOD_RELATIVE_U, 6);
+    for (const s of thin) {
+      // a reading's allowance (method), not a fit's scatter
+      expect(s.uPeriodPx.methodPx / s.periodPx).toBeCloseTo(IMAGE_PERIOD_RELATIVE_U, 6);
+      expect(s.uPeriodPx.statisticalPx).toBe(0);
+      expect(s.uThicknessPx.methodPx).toBeCloseTo(s.layers * s.uPeriodPx.methodPx, 9);
+    }
   });
   it('does not take a low-dose stack for a lattice because noise beside it reads as further lines', () => {
     // 7 layers at 4.52 px at 36 e/px (synthetic truth, testing/synthetic/overviews.ts): beside one
