@@ -345,6 +345,7 @@ function finishPiece(pc: Piece, minPeriodPx: number): Omit<AutoSheet, 'id'> {
   const mid = indexAt(frame, frame.lengthPx / 2);
   // the period's uncertainty, times n, in its own part of the budget
   const uPeriod = (n: number): UncertaintyPx => ({ statisticalPx: 0, localVariationPx: 0, methodPx: 0, [pc.uPeriodPart]: n * pc.uPeriodPx });
+  const uPeriodTimesN = uPeriod(layers);
   const outlinePx: [number, number][] = [
     ...frame.points.map((q, i) => [q[0] + half * frame.normals[i][0], q[1] + half * frame.normals[i][1]] as [number, number]),
     ...frame.points.map((q, i) => [q[0] - half * frame.normals[i][0], q[1] - half * frame.normals[i][1]] as [number, number]).reverse(),
@@ -357,7 +358,7 @@ function finishPiece(pc: Piece, minPeriodPx: number): Omit<AutoSheet, 'id'> {
     status: 'auto',
     layers,
     thicknessPx,
-    uThicknessPx: { ...uPeriod(layers), localVariationPx: Math.hypot(uPeriod(layers).localVariationPx, nd.length ? sdNd / Math.sqrt(nd.length) : 0) },
+    uThicknessPx: { ...uPeriodTimesN, localVariationPx: Math.hypot(uPeriodTimesN.localVariationPx, nd.length ? sdNd / Math.sqrt(nd.length) : 0) },
     edgeToEdgePx: pc.edges.length ? mean(pc.edges) : thicknessPx,
     periodPx: d,
     uPeriodPx: uPeriod(1),
@@ -1051,11 +1052,10 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
   // the image's periods from the stacks that measured their own (four layers or more): the
   // periodograms of the candidates read a few per cent high near the sampling limit; thinner
   // stacks then take the median of their phase's refined periods (five stacks at least), with the spread among those
-  // stacks as their period's uncertainty (a thin stack's own period is not measured)
-  // the spread of each refined phase period among its stacks
+  // stacks as their period's uncertainty (a thin stack's own period is not measured); each
+  // refined period with that spread
   const refinedSpread = new Map<number, number>();
   if (given === undefined) {
-    const refined: { m: number; sd: number }[] = [];
     let moved = false;
     for (let k = 0; k < periodList.length; k++) {
       const d = periodList[k];
@@ -1071,7 +1071,6 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
       }
       if (Math.abs(m - d) > 0.015 * d) moved = true;
       periodList[k] = m;
-      refined.push({ m, sd });
       refinedSpread.set(m, sd);
     }
     // two periodogram peaks of one phase refine to the same period: kept once
@@ -1083,7 +1082,7 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
       // refined periods, and their first rejections are superseded
       rejected.length = 0;
       measureCandidates([...periodList], pieces.map((q) => finishPiece(q, minPeriodPx)));
-      for (const { m, sd } of refined) {
+      for (const [m, sd] of refinedSpread) {
         for (const q of pieces) if (q.periodSource === 'image' && Math.abs(q.periodPx - m) < 1e-9) Object.assign(q, { uPeriodPx: sd, uPeriodPart: 'localVariationPx' });
       }
     }
@@ -1391,19 +1390,9 @@ function recountAtShared(image: GreyImage, pc: Piece, sharedPx: number, polarity
   const at = fitLayerComb(op, sharedPx, band, { polarity, countReach: 3 });
   if (!own || !at || at.evidence < minEvidence) return null;
   if ((at.rss - own.rss) / own.noiseVar > OWN_PERIOD_MIN_GAIN) return null;
-  const frame = axisFrame(pc.axisPx);
   const reach = at.thicknessPx / 2 + 1.5 * sharedPx;
-  const limit: [number, number] = [at.centerPx - reach, at.centerPx + reach];
-  const k = Math.max(3, Math.min(9, Math.round((0.9 * frame.lengthPx) / spacing)));
-  const seg = (0.9 * frame.lengthPx) / k;
-  const counts = countAlong(image, frame, at, sharedPx, limit, k, polarity, minEvidence);
-  if (counts.counted.length < Math.max(2, Math.ceil(k / 2))) return null;
-  const offAt = offsetAlong(counts, frame.lengthPx, seg, minEvidence);
-  const axisPx = frame.points.map((q, i) => {
-    const o = offAt(frame.cumPx[i]);
-    return [q[0] + o * frame.normals[i][0], q[1] + o * frame.normals[i][1]] as [number, number];
-  });
-  return { fit: at, counts, axisPx };
+  const c = countOnAxis(image, axisFrame(pc.axisPx), at, sharedPx, [at.centerPx - reach, at.centerPx + reach], polarity, spacing, minEvidence);
+  return c && { fit: at, counts: c.counts, axisPx: c.axisPx };
 }
 
 /**
@@ -1520,16 +1509,25 @@ function recountAtFundamental(image: GreyImage, axisPx: [number, number][], fit:
   if (fit2.layers >= 3 && periodicAlongAxis(image, own, sub.fit.centerPx, Math.max(1, 0.35 * fit2.thicknessPx), sub.periodPx, acrossFringePower(sub.profile, sub.fit))) {
     return { kind: 'reject', reason: 'periodic along its axis as well at its own fundamental: a two-dimensional lattice, not a stack', fit: fit2, periodPx: sub.periodPx };
   }
-  const k2 = Math.max(3, Math.min(9, Math.round((0.9 * own.lengthPx) / spacing)));
-  const seg2 = (0.9 * own.lengthPx) / k2;
-  const c2 = countAlong(image, own, fit2, sub.periodPx, limit, k2, polarity, minEvidence);
-  if (c2.counted.length < Math.max(2, Math.ceil(k2 / 2))) return { kind: 'keep' };
-  const offAt = offsetAlong(c2, own.lengthPx, seg2, minEvidence);
-  const moved = own.points.map((q, i) => {
-    const o = offAt(own.cumPx[i]);
-    return [q[0] + o * own.normals[i][0], q[1] + o * own.normals[i][1]] as [number, number];
+  const c = countOnAxis(image, own, fit2, sub.periodPx, limit, polarity, spacing, minEvidence);
+  if (!c) return { kind: 'keep' };
+  return { kind: 'recount', fit: fit2, periodPx: sub.periodPx, uPx: sub.uPx, counts: c.counts, frame: own, offAt: c.offAt, axisPx: c.axisPx };
+}
+
+/**
+ * A comb counted at positions along an axis (one every `spacing` px, 3–9), and the axis moved to
+ * the stack's centres there; null when the stack is seen at fewer than half of them.
+ */
+function countOnAxis(image: GreyImage, frame: AxisFrame, fit: CombFit, periodPx: number, limit: [number, number], polarity: 'dark' | 'bright', spacing: number, minEvidence: number): { counts: AlongCounts; offAt: (s: number) => number; axisPx: [number, number][] } | null {
+  const k = Math.max(3, Math.min(9, Math.round((0.9 * frame.lengthPx) / spacing)));
+  const counts = countAlong(image, frame, fit, periodPx, limit, k, polarity, minEvidence);
+  if (counts.counted.length < Math.max(2, Math.ceil(k / 2))) return null;
+  const offAt = offsetAlong(counts, frame.lengthPx, (0.9 * frame.lengthPx) / k, minEvidence);
+  const axisPx = frame.points.map((q, i) => {
+    const o = offAt(frame.cumPx[i]);
+    return [q[0] + o * frame.normals[i][0], q[1] + o * frame.normals[i][1]] as [number, number];
   });
-  return { kind: 'recount', fit: fit2, periodPx: sub.periodPx, uPx: sub.uPx, counts: c2, frame: own, offAt, axisPx: moved };
+  return { counts, offAt, axisPx };
 }
 
 /** A stack counted at a period with no phase of the image near its half, kept for the test of a shared fundamental. */
