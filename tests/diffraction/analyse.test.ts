@@ -143,3 +143,38 @@ describe('the instrument profile from a line-profile standard (seeded synthetic 
     }
   }, 240000);
 });
+
+describe('a lamellar cell from broad low-angle orders carries no bias of the profile fit (synthetic truth, no counting noise; common practice)', () => {
+  // a clay of 10 nm crystallites, d001 = 1.25 nm (one water layer, reference-values §3), orders 001–005
+  // of FWHM about 0.8° (Lorentzian), Cu Kα1 + Kα2, drawn with their expected counts and no noise: on a
+  // flat background, and on a steep low-angle background with a polymer halo under the orders. The
+  // benchmark's clay cells scatter by 0.03–0.06 % over redrawn noise with no common sign (issue #16,
+  // docs/validation.md); this pins the part that is not noise: where the profiles drawn and fitted are
+  // the same, the background's curvature under broad orders may move the cell by a small fraction of its u.
+  test('the cell within 0.015 % of the drawn one and within half its own standard uncertainty, with and without a curved background', async () => {
+    const { reflectionWidth, syntheticPattern } = await import('../../testing/synthetic/diffraction-pattern');
+    const { dToTwoTheta } = await import('../../src/diffraction/bragg');
+    const CU1 = 0.154059292; // Cu Kα1, nm (ITC C Table 4.2.2.6)
+    const cNm = 1.25;
+    const areas = [1500, 180, 150, 60, 45];
+    const peaks = areas.map((area, j) => {
+      const tt = dToTwoTheta(cNm / (j + 1), CU1);
+      const w = reflectionWidth(tt, 10, CU1);
+      return { twoThetaDeg: tt, area, fwhmDeg: w.fwhmDeg, eta: w.eta };
+    });
+    const cases = [
+      { name: 'flat background', background: { a: 60, b: 0, c: 1 }, halos: [] },
+      { name: 'steep low-angle background and a halo', background: { a: 60, b: 3000, c: 1 }, halos: [{ centerDeg: 19.6, fwhmDeg: 8.5, height: 380 }] },
+    ];
+    for (const k of cases) {
+      const pattern = syntheticPattern(peaks, { rangeDeg: [2, 40], stepDeg: 0.02, background: k.background, halos: k.halos, seed: null });
+      pattern.sigma = Float64Array.from(pattern.y, (v) => Math.sqrt(Math.max(v, 1)));
+      const a = analysePattern(pattern);
+      const lam = a.indexing.phases.find((p) => p.kind === 'lamellar');
+      expect(lam, k.name).toBeDefined();
+      expect(lam!.lines.length, k.name).toBe(5);
+      expect(Math.abs(lam!.cNm / cNm - 1), k.name).toBeLessThan(1.5e-4);
+      expect(Math.abs(lam!.cNm - cNm), k.name).toBeLessThan(0.5 * lam!.cUncNm);
+    }
+  }, 60000);
+});
