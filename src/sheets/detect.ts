@@ -4,7 +4,9 @@
  *
  * 1. Candidate axes: ridges of the scale-normalised Hessian over scale space (./ridges): a stack
  *    is a band darker than the film (mass-thickness contrast) or a band of fringes; crossing
- *    stacks are followed through the crossing, bent ones along their curvature.
+ *    stacks are followed through the crossing, bent ones along their curvature. Once the
+ *    image's periods are known, regions of coherent fringe energy at each period add candidates
+ *    (./fringe-regions): stacks that show fringes but hardly darken the film.
  * 2. Along each axis, profiles across the stack follow its local normal (./stack-profile); the
  *    band where it lies is found on the profile averaged over its whole length, touching stacks
  *    being separate bands; a band holding a stack already measured and its touching neighbour,
@@ -37,6 +39,7 @@ import { periodCandidates, profilePeriodogram } from './profile';
 import { MIN_COUNTABLE_PERIOD_PX } from './limits';
 import { polylineLength, resamplePolyline, ridgeAxes, type RidgeAxis } from './ridges';
 import { TURN_MIN_LAYERS, turnedCandidate } from './fringe-direction';
+import { fringeRegionAxes } from './fringe-regions';
 import { acrossFringePower, bestPeriod, solve3, combContinues, combNearPeriod, edgeToEdge, fringePowerAt, indexAt, layersResolved, periodicAlongAxis, refinePeriod, secondFringeSetFills, splitBand } from './count';
 import { acrossProfile, axisFrame, robustAcrossProfile, fitLayerComb, profileBands, smoothProfile, type AcrossProfile, type AxisFrame, type CombFit, type ProfileBand } from './stack-profile';
 
@@ -801,6 +804,9 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
     // a candidate on a stack already measured (one of its layers, or the same band) is skipped;
     // one that lies only on a piece too short to be a stack is measured, and kept if long enough
     if (coverage.covered(axis.points, angle0, 20, true).share > 0.5) return;
+    // a candidate from fringe energy that runs onto a stack already measured, at any angle, is
+    // that stack's end or edge (where the fringes stop, their energy turns)
+    if (fringeCandidates.has(axis) && coverage.covered(axis.points, angle0, 90, false).share > FRINGE_CANDIDATE_MAX_ON_STACK) return;
     let onShort = coverage.covered(axis.points, angle0, 20, false).share > 0.5;
     // survey at each period: fringes smoothed away at half a period, fringe energy beside it
     let sv: Survey | null = null;
@@ -883,6 +889,14 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
           reject(`too faint: evidence ${fit.evidence.toFixed(0)} below ${minEvidence}`, fit, periodPx);
           if (turnable && fit.layers >= 2) faintCombs.push({ axis, frame, fit, periodPx, limitPx: limit });
           continue;
+        }
+        // a comb centred beyond the image's edge was fitted on the few bins at its edge
+        {
+          const [x, y] = centerAt(fit.centerPx);
+          if (x < 0 || y < 0 || x > image.width - 1 || y > image.height - 1) {
+            reject('its centre lies outside the image', fit, periodPx);
+            continue;
+          }
         }
         let uPeriod = 0;
         let periodSource: AutoSheet['periodSource'] = given !== undefined ? 'given' : 'image';
@@ -1048,6 +1062,7 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
       if (!measured && !onEarlier && turnable) failedBands.push({ axis, frame, band: part, periodPx: bandPeriodPx ?? tryPeriods[0] });
     }
   };
+  const fringeCandidates = new Set<RidgeAxis>();
   measureCandidates(periodList.length ? [...periodList] : [], []);
   // the image's periods from the stacks that measured their own (four layers or more): the
   // periodograms of the candidates read a few per cent high near the sampling limit; thinner
@@ -1085,6 +1100,16 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
       for (const [m, sd] of refinedSpread) {
         for (const q of pieces) if (q.periodSource === 'image' && Math.abs(q.periodPx - m) < 1e-9) Object.assign(q, { uPeriodPx: sd, uPeriodPart: 'localVariationPx' });
       }
+    }
+  }
+  // candidates from fringe energy at each of the image's (refined) periods, after the ridges (a
+  // stack with fringes but little darkening breaks into short ridges on a textured film)
+  for (const d of [...periodList]) {
+    if (d < minPeriodPx) continue;
+    for (const a of fringeRegionAxes(image, d, { mask, minLengthPx: Math.min(minLengthPx, 24) })) {
+      fringeCandidates.add(a);
+      axes.push(a);
+      measureAxis(a, [...periodList], [], 'first');
     }
   }
   // a band that yielded no stack may be a stack a few degrees off its candidate's axis (across
@@ -1699,6 +1724,9 @@ function extendAxis(image: GreyImage, axisPx: [number, number][], layers: number
   return resampleAxis([...added[0].reverse(), ...axisPx, ...added[1]]);
 }
 
+
+/** A candidate from fringe energy is not measured when more than this share of its axis lies on a stack already measured (at any angle). */
+const FRINGE_CANDIDATE_MAX_ON_STACK = 0.5;
 
 /** A comb alongside a stack is taken as that stack's edge below this share of its evidence per px of length. */
 export const ALONGSIDE_EVIDENCE_SHARE = 1 / 3;

@@ -176,7 +176,7 @@ export function recursiveGaussian(src: PixelArray, width: number, height: number
   const c1 = new Float64Array(width);
   const c2 = new Float64Array(width);
   const c3 = new Float64Array(width);
-  const fwd = new Float64Array(width * height);
+  const fwd = new Float32Array(width * height);
   for (let x = 0; x < width; x++) { c1[x] = out[x]; c2[x] = out[x]; c3[x] = out[x]; }
   for (let y = 0; y < height; y++) {
     const row = y * width;

@@ -198,6 +198,19 @@ describe('detectSheets', () => {
     foundStack(o, res, 549, 281, 11);
     expect(scoreOverview(o.truth.stacks, res.sheets).spurious).toBeLessThanOrEqual(1);
   });
+  it('finds stacks that show fringes but hardly darken the film by their fringe energy (fringes, absorbance 0.04–0.06)', () => {
+    // synthetic truth, testing/synthetic/overviews.ts: an 11-layer stack at 5.87 px, 150 px long,
+    // and a 3-layer one 240 px long, of absorbance 0.04 and 0.06 with phase-contrast fringes; their
+    // candidate ridges were pieces 27–60 px long on the film's texture (best comb evidence 8–15 of
+    // the 60 asked for, or an axis 10° off the layers); on the true axis their combs have evidence
+    // 314 and 586. The regions of coherent fringe energy at the image's period give axes along
+    // them (src/sheets/fringe-regions.ts)
+    const o = generateOverview('fringes', 24);
+    const res = detectSheets(o.image);
+    foundStack(o, res, 183, 264, 11);
+    foundStack(o, res, 567, 441, 3);
+    expect(scoreOverview(o.truth.stacks, res.sheets).spurious).toBeLessThanOrEqual(1);
+  });
   it('counts a stack at its phase\'s period when its own refined period only trades a layer for a wider period (dense, 3.56 px)', () => {
     // 9 layers at 3.56 px, 83 px long (synthetic truth, testing/synthetic/overviews.ts): its own
     // refined period walked to 3.86 px with 8 layers (n·d nearly the same); the comb at the period
