@@ -10,7 +10,9 @@
  * (relative error of a and c); crystallite sizes of isolated strong lines after the instrument
  * correction (Caglioti function fitted on a LaB6-like standard drawn on the same instrument), and
  * each phase's own size (its resolved lines pooled; phases up to 100 nm found with their lattice
- * within 1 %), with its ± (k = 2) and the number of lines.
+ * within 1 %), with its ± (k = 2) and the number of lines. Lines are drawn with the Lorentz–polarisation
+ * factor of their setup across the profile (random powder or oriented film, with or without a
+ * monochromator, none for the synchrotron scans), and each pattern is analysed with that geometry.
  *   npm run bench:diffraction [-- --seed N] [--only NAME] [--patterns-only]   (another seed is a held-out set)
  */
 import { analysePattern, instrumentFromStandard } from '../src/diffraction/analyse';
@@ -56,7 +58,8 @@ function run(sc: Scenario): Row {
   const t = Date.now();
   const pattern = parsePattern(sc.text);
   const lambdaOk = pattern.wavelengthNm !== null && Math.abs(pattern.wavelengthNm / sc.wavelengthNm - 1) < 1e-6 && (sc.ka2Nm === null ? pattern.ka2Nm === null : pattern.ka2Nm !== null && Math.abs(pattern.ka2Nm / sc.ka2Nm - 1) < 1e-4);
-  const a = analysePattern(pattern, { instrument: instrumentFor(sc.wavelengthNm, sc.ka2Nm !== null) });
+  // the LP geometry is stated by the user, as a wavelength missing from a header would be
+  const a = analysePattern(pattern, { instrument: instrumentFor(sc.wavelengthNm, sc.ka2Nm !== null), lp: sc.lp });
   const fitted = a.peaks.map((p) => ({ tt: p.twoThetaDeg! - sc.zeroShiftDeg, p }));
   const used = new Set<number>();
   let found = 0;

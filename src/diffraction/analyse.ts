@@ -6,6 +6,7 @@ import { fitInstrumentProfile, instrumentWidth, sampleBreadth, type InstrumentPr
 import { indexPattern, type IndexOptions, type IndexResult } from './indexing';
 import { latticeLines } from './lattice';
 import { dToTwoTheta } from './bragg';
+import { DEFAULT_LP_GEOMETRY, describeLpGeometry, lpGeometry } from './lorentz-polarisation';
 import type { InternalStandard } from './internal-standard';
 import type { Pattern } from './pattern';
 import { fitPattern, type FitOptions, type FittedPeak } from './peaks';
@@ -75,6 +76,8 @@ export interface PatternAnalysis {
   /** Wavelength label and where it came from (quoted), for every result. */
   radiationLabel: string;
   radiationSource: string;
+  /** The Lorentz–polarisation geometry modelled across each line, in words, for every result ('none' for q data). */
+  lpLabel: string;
   peaks: AnalysedPeak[];
   /** Series of q data (lamellar, 2D-hexagonal, cubic mesophases); for 2θ data those with a strong line that no indexed phase contradicts. */
   series: IndexedSeries[];
@@ -253,6 +256,7 @@ export function analysePattern(pattern: Pattern, options: AnalyseOptions = {}): 
     ka2Nm: pattern.ka2Nm,
     radiationLabel: pattern.radiation?.label ?? (lambda !== null ? `${lambda} nm` : 'none'),
     radiationSource: pattern.radiation?.source ?? pattern.wavelengthFrom,
+    lpLabel: pattern.axis === 'twoTheta' ? describeLpGeometry(lpGeometry(options.lp ?? DEFAULT_LP_GEOMETRY)) : describeLpGeometry({ specimen: 'none', monochromatorTwoThetaDeg: null }),
     peaks,
     series,
     indexing,

@@ -1,10 +1,12 @@
 /**
  * Seeded synthetic powder patterns with known truth, for tests and benchmarks: pseudo-Voigt
  * reflections with their Kα2 companions, asymmetric two-dimensional (hk) bands of turbostratic
- * layers, broad amorphous halos, a zero shift, and Poisson counting noise.
+ * layers, the lines multiplied across their profiles by the Lorentz–polarisation factor of the
+ * geometry, broad amorphous halos, a zero shift, and Poisson counting noise.
  */
 import { dToTwoTheta, ka2Position, KA2_RATIO } from '../../src/diffraction/bragg';
 import type { Pattern } from '../../src/diffraction/pattern';
+import { DEFAULT_LP_GEOMETRY, lpFactor, lpGeometry, type LpGeometry } from '../../src/diffraction/lorentz-polarisation';
 import { pseudoVoigt } from '../../src/diffraction/peaks';
 import { voigtToPseudoVoigt } from '../../src/diffraction/voigt';
 import { rng } from '../random';
@@ -53,6 +55,12 @@ export interface SyntheticOptions {
   zeroShiftDeg?: number;
   /** Seed of the Poisson noise; null for noise-free (default 1). */
   seed?: number | null;
+  /**
+   * The Lorentz–polarisation factor drawn across each line (not a band): a line of area A centred at
+   * 2θ₀ is A·shape(2θ − 2θ₀)·LP(2θ)/LP(2θ₀), LP at the true angle (before the zero shift); halos and
+   * the background are drawn as given (default: random powder, Bragg–Brentano, no monochromator).
+   */
+  lp?: LpGeometry;
 }
 
 /** The seeded uniform generator on [0, 1) used for synthetic patterns (mulberry32, testing/random.ts). */
@@ -95,10 +103,11 @@ function warren(a: number): number {
 }
 
 /**
- * Draws a powder pattern: pseudo-Voigt reflections (with their Kα2 companions), Warren (hk)
- * bands, halos and a smooth background, with seeded Poisson counting noise.
+ * Draws a powder pattern: pseudo-Voigt reflections (with their Kα2 companions), each multiplied
+ * across its profile by the LP factor, Warren (hk) bands, halos and a smooth background, with
+ * seeded Poisson counting noise.
  * @param peaks reflections (Kα1)
- * @param options range, step, radiation, background, halos, zero shift and seed
+ * @param options range, step, radiation, background, halos, zero shift, LP geometry and seed
  * @returns a Pattern with the wavelength set (a doublet when ka2Nm is given)
  * Reference: synthetic data with known truth (common practice for testing profile fits).
  */
@@ -111,6 +120,7 @@ export function syntheticPattern(peaks: SyntheticPeak[], options: SyntheticOptio
   const ratio = options.ka2Ratio ?? KA2_RATIO;
   const bg = options.background ?? { a: 200, b: 2000, c: 4 };
   const zero = options.zeroShiftDeg ?? 0;
+  const lp = lpGeometry(options.lp ?? DEFAULT_LP_GEOMETRY);
   const seed = options.seed === undefined ? 1 : options.seed;
   const rnd = seed === null ? null : seededRandom(seed);
   const n = Math.floor((x1 - x0) / step + 1e-9) + 1;
@@ -123,6 +133,8 @@ export function syntheticPattern(peaks: SyntheticPeak[], options: SyntheticOptio
     for (const h of options.halos ?? []) v += h.height * Math.exp((-4 * Math.LN2 * (t - h.centerDeg) ** 2) / h.fwhmDeg ** 2);
     y[i] = v;
   }
+  // the LP factor at each point's true angle (the zero shift moves the scale, not the physics)
+  const lpAt = Float64Array.from(x, (t) => lpFactor(t - zero, lp));
   for (const p of peaks) {
     const own: Array<{ at: number; scale: number }> = [{ at: p.twoThetaDeg, scale: 1 }];
     if (ka2) {
@@ -132,7 +144,9 @@ export function syntheticPattern(peaks: SyntheticPeak[], options: SyntheticOptio
     for (const l of own) {
       const lam = l.scale === 1 ? lambda : ka2!;
       if (p.kind === 'band') {
-        // Warren band: sample the shape, normalise to unit area over the pattern, scale
+        // Warren band: sample the shape, normalise to unit area over the pattern, scale (drawn without
+        // the LP factor, as before: a two-dimensional reflection's angle factor differs from a line's
+        // and is not drawn)
         const la = p.bandLaNm ?? 8;
         const s0 = Math.sin((l.at * Math.PI) / 360);
         const shape = new Float64Array(n);
@@ -144,7 +158,8 @@ export function syntheticPattern(peaks: SyntheticPeak[], options: SyntheticOptio
         }
         if (sum > 0) for (let i = 0; i < n; i++) y[i] += (l.scale * p.area * shape[i]) / sum;
       } else {
-        for (let i = 0; i < n; i++) y[i] += l.scale * p.area * pseudoVoigt(x[i] - l.at - zero, p.fwhmDeg, p.eta);
+        const lp0 = lpFactor(l.at, lp);
+        for (let i = 0; i < n; i++) y[i] += (l.scale * p.area * pseudoVoigt(x[i] - l.at - zero, p.fwhmDeg, p.eta) * lpAt[i]) / lp0;
       }
     }
   }

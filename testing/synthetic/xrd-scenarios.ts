@@ -11,6 +11,7 @@
 import { dToTwoTheta, lorentzPolarisation } from '../../src/diffraction/bragg';
 import { cubicMultiplicity, latticeLines, type LatticeCell, type LatticeKind } from '../../src/diffraction/lattice';
 import { scatteringFactor } from '../../src/diffraction/scattering';
+import type { LpGeometry } from '../../src/diffraction/lorentz-polarisation';
 import { HC_KEV_NM } from '../../src/diffraction/radiation';
 import { gaussian, rng } from '../random';
 import { LAB_INSTRUMENT, reflectionWidth, syntheticPattern, type SyntheticHalo, type SyntheticInstrument, type SyntheticPeak } from './diffraction-pattern';
@@ -57,6 +58,8 @@ export interface Scenario {
   halos: SyntheticHalo[];
   zeroShiftDeg: number;
   instrument: SyntheticInstrument;
+  /** The Lorentz–polarisation geometry the lines were drawn with (the user states it to the analysis, as the wavelength). */
+  lp: LpGeometry;
 }
 
 /** Header styles: how a file states its radiation (each one a common export's way). */
@@ -94,6 +97,8 @@ interface Setup {
   header: number;
   /** Multiplies every count (strong noise: below 1). */
   countScale?: number;
+  /** LP geometry across each line (default: random powder, Bragg–Brentano, no monochromator). */
+  lp?: LpGeometry;
 }
 
 /**
@@ -164,7 +169,8 @@ function draw(s: Setup, seed: number): Scenario {
       else a.findable = false;
     }
   }
-  const pattern = syntheticPattern(peaks, { rangeDeg: s.rangeDeg, stepDeg: step, wavelengthNm: lambda, ka2Nm: ka2, background: bgS, halos, zeroShiftDeg: s.zeroShiftDeg ?? 0, seed });
+  const lp = s.lp ?? POWDER;
+  const pattern = syntheticPattern(peaks, { rangeDeg: s.rangeDeg, stepDeg: step, wavelengthNm: lambda, ka2Nm: ka2, background: bgS, halos, zeroShiftDeg: s.zeroShiftDeg ?? 0, seed, lp });
   let header: string;
   if (s.radiation === 'doublet') header = HEADER_STYLES[s.header % HEADER_STYLES.length].make(CU1, CU2);
   else header = MONO_HEADER_STYLES[s.header % MONO_HEADER_STYLES.length].make(lambda);
@@ -180,8 +186,21 @@ function draw(s: Setup, seed: number): Scenario {
     halos,
     zeroShiftDeg: s.zeroShiftDeg ?? 0,
     instrument: LAB_INSTRUMENT,
+    lp,
   };
 }
+
+/**
+ * LP geometries of the setups, varied so the benchmark is not tuned to one: random powders and
+ * oriented clay films, with and without a monochromator (graphite 002 diffracted-beam with Cu Kα,
+ * 2θm 26.6°; Johansson Ge(111) primary, 27.3°; d 0.3354 and 0.3266 nm, from memory), and none for
+ * the synchrotron scans (transmission data taken as corrected by the beamline's reduction).
+ */
+const POWDER: LpGeometry = { specimen: 'powder', monochromatorTwoThetaDeg: null };
+const POWDER_GRAPHITE: LpGeometry = { specimen: 'powder', monochromatorTwoThetaDeg: 26.6 };
+const FILM: LpGeometry = { specimen: 'oriented-film', monochromatorTwoThetaDeg: null };
+const FILM_GRAPHITE: LpGeometry = { specimen: 'oriented-film', monochromatorTwoThetaDeg: 26.6 };
+const NO_LP: LpGeometry = { specimen: 'none', monochromatorTwoThetaDeg: null };
 
 /** Smectite-like layers, d001 = 1.25 nm (one water layer; reference-values §3) with turbostratic bands (02,11), (13,20), (06,33) (common practice). */
 const SMECTITE_BANDS = [
@@ -201,29 +220,29 @@ const diamond = (h: number, k: number, l: number) => {
 function setups(): Setup[] {
   const cubic = (kind: 'cubic-P' | 'cubic-I' | 'cubic-F', a: number): LatticeCell => ({ kind, aNm: a, cNm: a });
   return [
-    { name: 'lamellar 3.2 nm', covers: 'lamellar series, low angle', phases: [{ name: 'organoclay', cell: { kind: 'lamellar', aNm: NaN, cNm: 3.2 }, sizeNm: 40, strongestArea: 250, intensities: [1, 0.35, 0.15, 0.08, 0.05] }], rangeDeg: [1.5, 15], background: { a: 60, b: 3000, c: 1.2 }, radiation: 'doublet', header: 0 },
+    { name: 'lamellar 3.2 nm', covers: 'lamellar series, low angle', phases: [{ name: 'organoclay', cell: { kind: 'lamellar', aNm: NaN, cNm: 3.2 }, sizeNm: 40, strongestArea: 250, intensities: [1, 0.35, 0.15, 0.08, 0.05] }], rangeDeg: [1.5, 15], background: { a: 60, b: 3000, c: 1.2 }, radiation: 'doublet', header: 0, lp: FILM_GRAPHITE },
     { name: 'silver behenate, zero shift −0.05°', covers: 'lamellar, zero shift', phases: [{ name: 'AgBeh', cell: { kind: 'lamellar', aNm: NaN, cNm: 5.838 }, sizeNm: 60, strongestArea: 300, intensities: [1, 0.5, 0.45, 0.3, 0.25, 0.2, 0.15, 0.12, 0.1, 0.08] }], rangeDeg: [1.2, 16], stepDeg: 0.01, background: { a: 80, b: 2000, c: 1.5 }, zeroShiftDeg: -0.05, radiation: 'doublet', header: 1 },
-    { name: 'smectite with (hk) bands', covers: 'layered silicate, (hk) bands, halo-free', phases: [{ name: 'smectite', cell: { kind: 'lamellar', aNm: NaN, cNm: 1.25 }, sizeNm: 8, strongestArea: 600, intensities: [1, 0.12, 0.18, 0.06, 0.07], bands: SMECTITE_BANDS }], rangeDeg: [3, 70], background: { a: 150, b: 2000, c: 3 }, radiation: 'doublet', header: 2 },
-    { name: 'clay film on polymer halo', covers: 'layered silicate, amorphous halo', phases: [{ name: 'clay', cell: { kind: 'lamellar', aNm: NaN, cNm: 1.25 }, sizeNm: 10, strongestArea: 1500, intensities: [1, 0.12, 0.1, 0.04, 0.03] }], rangeDeg: [2, 40], background: { a: 60, b: 3000, c: 1 }, halos: [{ centerDeg: 19.6, fwhmDeg: 8.5, height: 380 }], radiation: 'doublet', header: 3 },
-    { name: 'Au-like fcc', covers: 'cubic F', phases: [{ name: 'fcc metal', cell: cubic('cubic-F', 0.40782), element: 'Au', sizeNm: 25, strongestArea: 400 }], rangeDeg: [30, 120], radiation: 'doublet', header: 4 },
+    { name: 'smectite with (hk) bands', covers: 'layered silicate, (hk) bands, halo-free', phases: [{ name: 'smectite', cell: { kind: 'lamellar', aNm: NaN, cNm: 1.25 }, sizeNm: 8, strongestArea: 600, intensities: [1, 0.12, 0.18, 0.06, 0.07], bands: SMECTITE_BANDS }], rangeDeg: [3, 70], background: { a: 150, b: 2000, c: 3 }, radiation: 'doublet', header: 2, lp: POWDER_GRAPHITE },
+    { name: 'clay film on polymer halo', covers: 'layered silicate, amorphous halo', phases: [{ name: 'clay', cell: { kind: 'lamellar', aNm: NaN, cNm: 1.25 }, sizeNm: 10, strongestArea: 1500, intensities: [1, 0.12, 0.1, 0.04, 0.03] }], rangeDeg: [2, 40], background: { a: 60, b: 3000, c: 1 }, halos: [{ centerDeg: 19.6, fwhmDeg: 8.5, height: 380 }], radiation: 'doublet', header: 3, lp: FILM },
+    { name: 'Au-like fcc', covers: 'cubic F', phases: [{ name: 'fcc metal', cell: cubic('cubic-F', 0.40782), element: 'Au', sizeNm: 25, strongestArea: 400 }], rangeDeg: [30, 120], radiation: 'doublet', header: 4, lp: POWDER_GRAPHITE },
     { name: 'Si (diamond)', covers: 'cubic F with d-glide absences, high-angle (400)', phases: [{ name: 'Si', cell: cubic('cubic-F', 0.5431020511), allows: diamond, sizeNm: 200, strongestArea: 300, intensities: [1, 0.55, 0.3, 0.06, 0.11, 0.12, 0.07, 0.05, 0.04] }], rangeDeg: [20, 130], radiation: 'doublet', header: 5 },
     { name: 'LaB6 660c', covers: 'cubic P', phases: [{ name: 'LaB6', cell: cubic('cubic-P', 0.4156826), sizeNm: 500, strongestArea: 250 }], rangeDeg: [15, 120], stepDeg: 0.01, radiation: 'doublet', header: 6 },
-    { name: 'bcc metal', covers: 'cubic I', phases: [{ name: 'bcc', cell: cubic('cubic-I', 0.3165), element: 'Mo', sizeNm: 30, strongestArea: 400 }], rangeDeg: [35, 140], radiation: 'doublet', header: 0 },
+    { name: 'bcc metal', covers: 'cubic I', phases: [{ name: 'bcc', cell: cubic('cubic-I', 0.3165), element: 'Mo', sizeNm: 30, strongestArea: 400 }], rangeDeg: [35, 140], radiation: 'doublet', header: 0, lp: POWDER_GRAPHITE },
     { name: 'tetragonal P (layered salt)', covers: 'tetragonal P', phases: [{ name: 'layered salt', cell: { kind: 'tetragonal-P', aNm: 0.626428, cNm: 0.740545 }, sizeNm: 60, strongestArea: 300 }], rangeDeg: [8, 60], radiation: 'doublet', header: 1 },
-    { name: 'tetragonal I', covers: 'tetragonal I, weak line beside a strong one', phases: [{ name: 'tetragonal I', cell: { kind: 'tetragonal-I', aNm: 0.3785, cNm: 0.9514 }, sizeNm: 35, strongestArea: 400 }], rangeDeg: [15, 90], radiation: 'doublet', header: 2 },
+    { name: 'tetragonal I', covers: 'tetragonal I, weak line beside a strong one', phases: [{ name: 'tetragonal I', cell: { kind: 'tetragonal-I', aNm: 0.3785, cNm: 0.9514 }, sizeNm: 35, strongestArea: 400 }], rangeDeg: [15, 90], radiation: 'doublet', header: 2, lp: POWDER_GRAPHITE },
     { name: 'hexagonal layered (brucite-like)', covers: 'hexagonal P, layered', phases: [{ name: 'brucite-like', cell: { kind: 'hexagonal-P', aNm: 0.3142, cNm: 0.4766 }, sizeNm: 20, strongestArea: 400 }], rangeDeg: [10, 80], radiation: 'doublet', header: 3 },
-    { name: 'hexagonal R (LDH-like)', covers: 'hexagonal R, layered', phases: [{ name: 'LDH-like', cell: { kind: 'hexagonal-R', aNm: 0.3046, cNm: 2.2812 }, sizeNm: 25, strongestArea: 500 }], rangeDeg: [5, 70], radiation: 'doublet', header: 4 },
+    { name: 'hexagonal R (LDH-like)', covers: 'hexagonal R, layered', phases: [{ name: 'LDH-like', cell: { kind: 'hexagonal-R', aNm: 0.3046, cNm: 2.2812 }, sizeNm: 25, strongestArea: 500 }], rangeDeg: [5, 70], radiation: 'doublet', header: 4, lp: POWDER_GRAPHITE },
     { name: 'graphite-like hexagonal', covers: 'hexagonal P with 00l: l = 2n', phases: [{ name: 'graphite-like', cell: { kind: 'hexagonal-P', aNm: 0.24612, cNm: 0.67079 }, allows: (h, k, l) => !(h === 0 && k === 0 && l % 2 !== 0) && !((h - k) % 3 === 0 && l % 2 !== 0), sizeNm: 40, strongestArea: 600 }], rangeDeg: [15, 90], radiation: 'doublet', header: 5 },
-    { name: 'two phases: Si + LaB6', covers: 'mixture of two cubic phases', phases: [{ name: 'Si', cell: cubic('cubic-F', 0.5431020511), allows: diamond, sizeNm: 150, strongestArea: 300 }, { name: 'LaB6', cell: cubic('cubic-P', 0.4156826), sizeNm: 300, strongestArea: 200 }], rangeDeg: [18, 100], stepDeg: 0.01, radiation: 'doublet', header: 6 },
+    { name: 'two phases: Si + LaB6', covers: 'mixture of two cubic phases', phases: [{ name: 'Si', cell: cubic('cubic-F', 0.5431020511), allows: diamond, sizeNm: 150, strongestArea: 300 }, { name: 'LaB6', cell: cubic('cubic-P', 0.4156826), sizeNm: 300, strongestArea: 200 }], rangeDeg: [18, 100], stepDeg: 0.01, radiation: 'doublet', header: 6, lp: POWDER_GRAPHITE },
     { name: 'two phases: clay + fcc', covers: 'mixture: lamellar + cubic F, halo', phases: [{ name: 'clay', cell: { kind: 'lamellar', aNm: NaN, cNm: 1.42 }, sizeNm: 12, strongestArea: 800, intensities: [1, 0.1, 0.15, 0.05] }, { name: 'fcc', cell: cubic('cubic-F', 0.40495), sizeNm: 40, strongestArea: 300 }], rangeDeg: [3, 85], background: { a: 120, b: 2500, c: 2 }, halos: [{ centerDeg: 21, fwhmDeg: 9, height: 250 }], radiation: 'doublet', header: 0 },
     { name: 'two phases: hexagonal + tetragonal', covers: 'mixture of two 2-parameter phases', phases: [{ name: 'hex', cell: { kind: 'hexagonal-P', aNm: 0.3142, cNm: 0.4766 }, sizeNm: 30, strongestArea: 350 }, { name: 'tet', cell: { kind: 'tetragonal-P', aNm: 0.4594, cNm: 0.2959 }, sizeNm: 40, strongestArea: 300 }], rangeDeg: [15, 80], radiation: 'doublet', header: 1 },
-    { name: 'Kα1 only, synchrotron fcc', covers: 'single wavelength (energy header)', phases: [{ name: 'fcc', cell: cubic('cubic-F', 0.40782), sizeNm: 30, strongestArea: 500 }], rangeDeg: [10, 60], stepDeg: 0.01, radiation: 0.0729318814, header: 0 },
-    { name: 'Kα1 only, synchrotron hexagonal', covers: 'single wavelength with su', phases: [{ name: 'hex', cell: { kind: 'hexagonal-P', aNm: 0.3142, cNm: 0.4766 }, sizeNm: 25, strongestArea: 500 }], rangeDeg: [5, 45], stepDeg: 0.01, radiation: 0.0729, header: 1 },
-    { name: 'Kα1 only, monochromated tube', covers: 'Kα1 only stated', phases: [{ name: 'tet', cell: { kind: 'tetragonal-P', aNm: 0.626428, cNm: 0.740545 }, sizeNm: 50, strongestArea: 300 }], rangeDeg: [8, 60], radiation: CU1, header: 2 },
+    { name: 'Kα1 only, synchrotron fcc', covers: 'single wavelength (energy header)', phases: [{ name: 'fcc', cell: cubic('cubic-F', 0.40782), sizeNm: 30, strongestArea: 500 }], rangeDeg: [10, 60], stepDeg: 0.01, radiation: 0.0729318814, header: 0, lp: NO_LP },
+    { name: 'Kα1 only, synchrotron hexagonal', covers: 'single wavelength with su', phases: [{ name: 'hex', cell: { kind: 'hexagonal-P', aNm: 0.3142, cNm: 0.4766 }, sizeNm: 25, strongestArea: 500 }], rangeDeg: [5, 45], stepDeg: 0.01, radiation: 0.0729, header: 1, lp: NO_LP },
+    { name: 'Kα1 only, monochromated tube', covers: 'Kα1 only stated', phases: [{ name: 'tet', cell: { kind: 'tetragonal-P', aNm: 0.626428, cNm: 0.740545 }, sizeNm: 50, strongestArea: 300 }], rangeDeg: [8, 60], radiation: CU1, header: 2, lp: { specimen: 'powder', monochromatorTwoThetaDeg: 27.3 } },
     { name: 'strong noise, fcc', covers: 'low counts', phases: [{ name: 'fcc', cell: cubic('cubic-F', 0.40495), sizeNm: 30, strongestArea: 700 }], rangeDeg: [30, 140], countScale: 0.15, radiation: 'doublet', header: 3 },
-    { name: 'strong noise, lamellar', covers: 'low counts, low angle', phases: [{ name: 'lamellar', cell: { kind: 'lamellar', aNm: NaN, cNm: 4.0 }, sizeNm: 40, strongestArea: 400, intensities: [1, 0.3, 0.12, 0.06] }], rangeDeg: [1.2, 12], background: { a: 40, b: 2000, c: 1.2 }, countScale: 0.2, radiation: 'doublet', header: 4 },
+    { name: 'strong noise, lamellar', covers: 'low counts, low angle', phases: [{ name: 'lamellar', cell: { kind: 'lamellar', aNm: NaN, cNm: 4.0 }, sizeNm: 40, strongestArea: 400, intensities: [1, 0.3, 0.12, 0.06] }], rangeDeg: [1.2, 12], background: { a: 40, b: 2000, c: 1.2 }, countScale: 0.2, radiation: 'doublet', header: 4, lp: FILM_GRAPHITE },
     { name: 'fcc on glass halo', covers: 'cubic F on an amorphous halo', phases: [{ name: 'fcc', cell: cubic('cubic-F', 0.40782), sizeNm: 20, strongestArea: 250 }], rangeDeg: [15, 90], halos: [{ centerDeg: 22, fwhmDeg: 8, height: 500 }], radiation: 'doublet', header: 5 },
-    { name: 'tetragonal, zero shift +0.04°', covers: 'zero shift from the indexed series', phases: [{ name: 'tet', cell: { kind: 'tetragonal-P', aNm: 0.626428, cNm: 0.740545 }, sizeNm: 50, strongestArea: 300 }], rangeDeg: [8, 60], zeroShiftDeg: 0.04, radiation: 'doublet', header: 6 },
+    { name: 'tetragonal, zero shift +0.04°', covers: 'zero shift from the indexed series', phases: [{ name: 'tet', cell: { kind: 'tetragonal-P', aNm: 0.626428, cNm: 0.740545 }, sizeNm: 50, strongestArea: 300 }], rangeDeg: [8, 60], zeroShiftDeg: 0.04, radiation: 'doublet', header: 6, lp: POWDER_GRAPHITE },
     { name: 'smectite + quartz-like hexagonal on halo', covers: 'bands, halo and a hexagonal phase', phases: [{ name: 'smectite', cell: { kind: 'lamellar', aNm: NaN, cNm: 1.5 }, sizeNm: 9, strongestArea: 700, intensities: [1, 0.1, 0.12, 0.05], bands: SMECTITE_BANDS }, { name: 'hexagonal', cell: { kind: 'hexagonal-P', aNm: 0.4913, cNm: 0.5405 }, sizeNm: 60, strongestArea: 250 }], rangeDeg: [3, 70], halos: [{ centerDeg: 18, fwhmDeg: 9, height: 200 }], radiation: 'doublet', header: 0 },
   ];
 }
