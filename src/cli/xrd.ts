@@ -18,7 +18,8 @@ import { spacedHkl, spacedIndex } from '../figure/reflection-index';
 const usage = `Usage: stratameter xrd PATTERN [--wavelength W] [--axis 2theta|q-nm|q-A] [--columns X,Y[,S]] [--k K]
                        [--standard PATTERN [--save-instrument OUT.json] | --instrument PROFILE.json
                         | --instrument-fwhm DEG [--correction gaussian|lorentzian]]
-                       [--ka2 doublet|none] [--internal-standard si|lab6|cubic:A±U[:F|I|P]] [--json]
+                       [--ka2 doublet|none] [--lp powder|film|none [--monochromator DEG]]
+                       [--internal-standard si|lab6|cubic:A±U[:F|I|P]] [--json]
 
 Finds and fits the peaks of a diffraction pattern (two or three columns: position, intensity,
 optional uncertainty; or a CIF holding a measured powder profile), indexes them (cubic P, I, F; tetragonal P, I; hexagonal P, R; lamellar;
@@ -40,6 +41,12 @@ Options:
   --instrument-fwhm DEG    a constant instrumental FWHM in degrees 2θ instead
   --correction R     with --instrument-fwhm: gaussian (quadratic, default) or lorentzian (linear)
   --ka2 M            doublet: fit Kα2 with each peak (default for a tube's Kα1); none
+  --lp G             the Lorentz–polarisation factor fitted across each line of a 2θ pattern, so a
+                     broad low-angle line's centre is its Bragg angle: powder (random powder,
+                     Bragg–Brentano, default), film (an oriented clay film, Lorentz 1/sin 2θ), or
+                     none (transmission or synchrotron data that need none, or already corrected)
+  --monochromator DEG  2θ of the monochromator crystal (graphite 002 with Cu Kα: 26.6), for the
+                     polarisation term of --lp powder or film (default: none)
   --internal-standard S    a standard mixed into the sample: its certified cell is held and the
                      zero shift (with specimen displacement) is fitted from its lines, its
                      uncertainty containing the fit and the certified cell: si (NIST SRM 640f),
@@ -89,12 +96,19 @@ export async function loadAndAnalyse(path: string, options: Map<string, string>)
   };
   const ka2 = options.get('ka2');
   if (ka2 !== undefined && ka2 !== 'doublet' && ka2 !== 'none') throw new UsageError(`--ka2 must be doublet or none, got '${ka2}'`);
+  const lpText = options.get('lp');
+  const LP_NAMES: Record<string, 'powder' | 'oriented-film' | 'none'> = { powder: 'powder', film: 'oriented-film', none: 'none' };
+  if (lpText !== undefined && !Object.hasOwn(LP_NAMES, lpText)) throw new UsageError(`--lp must be powder, film or none, got '${lpText}'`);
+  const mono = num('monochromator');
+  if (mono !== undefined && !(mono > 0 && mono < 180)) throw new UsageError(`--monochromator must be a 2θ in (0, 180) degrees, got '${options.get('monochromator')}'`);
+  if (mono !== undefined && lpText === 'none') throw new UsageError('--monochromator has no effect with --lp none');
   const correction = options.get('correction');
   if (correction !== undefined && correction !== 'gaussian' && correction !== 'lorentzian') throw new UsageError(`--correction must be gaussian or lorentzian, got '${correction}'`);
   const opts: AnalyseOptions = {
     k: num('k'),
     minSnr: num('min-snr'),
     ka2: ka2 as 'doublet' | 'none' | undefined,
+    lp: { specimen: LP_NAMES[lpText ?? 'powder'], monochromatorTwoThetaDeg: mono ?? null },
     correction: correction as 'gaussian' | 'lorentzian' | undefined,
   };
   const stdText = options.get('internal-standard');
@@ -181,6 +195,7 @@ export function xrdReport(path: string, a: PatternAnalysis) {
     ka2Nm: tidy(a.ka2Nm),
     radiation: a.radiationLabel,
     radiationSource: a.radiationSource,
+    lorentzPolarisation: a.lpLabel,
     sizeMethod: a.sizeMethod,
     dUncertainty: `dUncNm is the fit's standard uncertainty; dBudget holds standard uncertainties (k = 1) by source and dCombinedNm their root sum of squares; dCorrectedNm has the measured zero shift removed`,
     peaks: a.peaks.map((p) => ({
@@ -251,6 +266,7 @@ function table(path: string, a: PatternAnalysis): string {
   const lines: string[] = [];
   lines.push(`${path}: ${a.peaks.length} peaks`);
   lines.push(`wavelength: ${a.radiationLabel} — from ${a.radiationSource}`);
+  lines.push(`Lorentz–polarisation factor across each line: ${a.lpLabel}`);
   lines.push(`d ± U: U = ${K}u, u combining the fit, the profile shape, the zero shift (${a.indexing.zeroShiftDeg !== null ? 'measured and removed' : 'not measured: an allowance'}) and the wavelength`);
   lines.push('');
   lines.push('   2θ (°)              d (nm)                 FWHM (°)   height   size (nm)   hkl');
@@ -293,7 +309,7 @@ export const command: CliCommand = {
   usage,
   async run(args: string[], io: CliIo): Promise<number> {
     const { positional, options, flags } = parseArgs(args, {
-      values: ['wavelength', 'axis', 'columns', 'k', 'instrument-fwhm', 'standard', 'instrument', 'save-instrument', 'correction', 'ka2', 'min-snr', 'internal-standard'],
+      values: ['wavelength', 'axis', 'columns', 'k', 'instrument-fwhm', 'standard', 'instrument', 'save-instrument', 'correction', 'ka2', 'min-snr', 'internal-standard', 'lp', 'monochromator'],
       booleans: ['json'],
     });
     if (positional.length !== 1) throw new UsageError('give exactly one PATTERN file');

@@ -18,6 +18,7 @@ describe('stratameter xrd', () => {
     expect(await main(['xrd', FIXTURE, '--json'], c.io)).toBe(0);
     const j = JSON.parse(c.out.join(''));
     expect(j.wavelengthNm).toBeCloseTo(0.1540598, 9);
+    expect(j.lorentzPolarisation).toBe('random powder, Bragg–Brentano, no monochromator'); // the default geometry, stated
     const p001 = j.peaks.find((p: any) => Math.abs(p.twoThetaDeg - 11.96) < 0.05);
     expect(p001.dNm).toBeCloseTo(0.7392, 3);
     for (const key of ['twoThetaDeg', 'dNm', 'qInvNm', 'fwhmDeg', 'intensity', 'area', 'crystalliteNm', 'dUncNm', 'fwhmUncDeg']) expect(typeof p001[key]).toBe('number');
@@ -25,6 +26,21 @@ describe('stratameter xrd', () => {
     // c = 7.40545 Å (published cell, SOURCES.md §2)
     expect(Math.abs(lam.cellNm - 0.740545) / 0.740545).toBeLessThan(0.005);
     expect(lam.members[0]).toEqual({ index: '001', dNm: expect.any(Number), residual: expect.any(Number) });
+  });
+  test('--lp and --monochromator: the geometry is printed with the results; bad values are refused with the value named', { timeout: 60000 }, async () => {
+    let c = capture();
+    expect(await main(['xrd', FIXTURE, '--lp', 'film', '--monochromator', '26.6'], c.io)).toBe(0);
+    expect(c.out.join('')).toMatch(/Lorentz–polarisation factor across each line: oriented film, Bragg–Brentano, monochromator 2θm 26\.6°/);
+    c = capture();
+    expect(await main(['xrd', FIXTURE, '--lp', 'flat'], c.io)).toBe(2);
+    expect(c.err.join('')).toMatch(/--lp must be powder, film or none, got 'flat'/);
+    c = capture();
+    expect(await main(['xrd', FIXTURE, '--lp', 'constructor'], c.io)).toBe(2);
+    c = capture();
+    expect(await main(['xrd', FIXTURE, '--monochromator', '190'], c.io)).toBe(2);
+    expect(c.err.join('')).toMatch(/'190'/);
+    c = capture();
+    expect(await main(['xrd', FIXTURE, '--lp', 'none', '--monochromator', '26.6'], c.io)).toBe(2);
   });
   test('errors: no wavelength, a bad wavelength, a missing file', async () => {
     const dir = mkdtempSync(join(tmpdir(), 'strata-xrd-'));
