@@ -20,6 +20,7 @@ import type { PlotData } from '../src/figure/plot';
 import type { RectPx, Spot } from '../src/measure/spectrum';
 import type { Pattern } from '../src/diffraction/pattern';
 import type { PatternAnalysis } from '../src/diffraction/analyse';
+import type { LpGeometry } from '../src/diffraction/lorentz-polarisation';
 import type { ZoneAxisResult, ZoneSpot } from '../src/diffraction/zone-axis';
 import type { AutoSheetsResult } from '../src/sheets/detect';
 import type { LineSheetsResult } from '../src/sheets/line';
@@ -90,10 +91,11 @@ export interface ComputeCalls {
   /** Reads a diffraction pattern's text and fits its peaks (seconds on a few thousand points). */
   /**
    * A powder pattern's peaks, budgets and indexing; with an internal standard (a built-in one by id,
-   * or a cubic cell a ± u, standard uncertainty, nm) its cell is held and the zero shift fitted from its lines.
+   * or a cubic cell a ± u, standard uncertainty, nm) its cell is held and the zero shift fitted from its lines;
+   * `lp` is the Lorentz–polarisation geometry fitted across each line (default: random powder, Bragg–Brentano, no monochromator).
    */
   analysePattern: {
-    args: { text: string; wavelength?: string; columns?: string; fileName?: string; internalStandard?: { id: string } | { aNm: number; uANm: number; centring: 'F' | 'I' | 'P' } };
+    args: { text: string; wavelength?: string; columns?: string; fileName?: string; internalStandard?: { id: string } | { aNm: number; uANm: number; centring: 'F' | 'I' | 'P' }; lp?: LpGeometry };
     result: { pattern: Pattern; analysis: PatternAnalysis };
   };
   /** Every stack in the session's image, skipping a scale-bar strip or panel; the period when known (px). */

@@ -194,7 +194,7 @@ const handlers: Handlers = {
     const { measureElectronPattern } = await import('../src/diffraction/electron/measure');
     return measureElectronPattern(image, camera, { what });
   },
-  analysePattern: async ({ text, wavelength, columns, fileName, internalStandard }) => {
+  analysePattern: async ({ text, wavelength, columns, fileName, internalStandard, lp }) => {
     const { readPatternFile } = await import('../src/diffraction/read-pattern');
     const { analysePattern: analyse } = await import('../src/diffraction/analyse');
     const { internalStandardFrom } = await import('../src/diffraction/internal-standard');
@@ -203,7 +203,7 @@ const handlers: Handlers = {
     const standard = internalStandard === undefined ? undefined
       : 'id' in internalStandard ? internalStandardFrom(internalStandard.id)
         : internalStandardFrom(`cubic:${internalStandard.aNm}±${internalStandard.uANm}:${internalStandard.centring}`);
-    return { pattern, analysis: analyse(pattern, { internalStandard: standard }) };
+    return { pattern, analysis: analyse(pattern, { internalStandard: standard, lp }) };
   },
   indexSpots: async ({ spots, cifText, cifName, builtIn }) => {
     const z = await import('../src/diffraction/zone-axis');

@@ -4,6 +4,7 @@
 import { groupAndPoolPeriods, type SourcedPeriod } from '../src/measure/pool';
 import { LitElement, css, html, nothing, type TemplateResult } from 'lit';
 import type { PatternAnalysis } from '../src/diffraction/analyse';
+import type { LpGeometry } from '../src/diffraction/lorentz-polarisation';
 import type { ComputeClient } from './compute-client';
 import { diffractionSetRecord } from '../src/diffraction/stored-set';
 import { listBatchFiles, listBatches } from '../src/store/batches';
@@ -50,6 +51,8 @@ export class StrataDiffractionPanel extends LitElement {
     calibrationRelUncertainty: { attribute: false },
     wavelengthKey: { state: true },
     customWavelength: { state: true },
+    lpSpecimen: { state: true },
+    monochromatorText: { state: true },
     columnsText: { state: true },
     standardKey: { state: true },
     standardCell: { state: true },
@@ -97,6 +100,10 @@ export class StrataDiffractionPanel extends LitElement {
   calibrationRelUncertainty: number | undefined = undefined;
   wavelengthKey = 'header';
   customWavelength = '';
+  /** The specimen whose Lorentz–polarisation factor is fitted across each line of a 2θ pattern (src/diffraction/lorentz-polarisation.ts). */
+  lpSpecimen: LpGeometry['specimen'] = 'powder';
+  /** The monochromator's 2θ in degrees as typed; '' for none. */
+  monochromatorText = '';
   /** The columns to read as typed ('1,2' or '1,2,4'); '' lets the file's column names decide. */
   columnsText = '';
   /** The internal standard mixed into the sample: 'none', a built-in id ('si', 'lab6') or 'cubic-F' / 'cubic-I' / 'cubic-P' (a cell typed in standardCell as a ± u, nm). */
@@ -174,6 +181,15 @@ export class StrataDiffractionPanel extends LitElement {
     return `Zero shift ${u2}° (± 2u, k = 2), measured on the internal standard ${std.name} (${std.lines.length} lines, its cell held) and removed from d; the ± contains the fit of the standard's lines and ${cell}.`;
   }
 
+  /** The Lorentz–polarisation geometry for analysePattern; throws naming the text when the monochromator 2θ is not a number in (0, 180). */
+  private lpOption(): LpGeometry {
+    const t = this.monochromatorText.trim().replace(',', '.');
+    if (this.lpSpecimen === 'none' || t === '') return { specimen: this.lpSpecimen, monochromatorTwoThetaDeg: null };
+    const deg = Number(t);
+    if (!(deg > 0 && deg < 180)) throw new Error(`type the monochromator's 2θ in degrees, between 0 and 180 (graphite 002 with Cu Kα: 26.6), or leave it empty for none; got "${this.monochromatorText}"`);
+    return { specimen: this.lpSpecimen, monochromatorTwoThetaDeg: deg };
+  }
+
   private wavelengthOption(): string | undefined {
     if (this.wavelengthKey === 'header') return undefined;
     if (this.wavelengthKey === 'custom') return this.customWavelength.trim() || undefined;
@@ -214,7 +230,7 @@ export class StrataDiffractionPanel extends LitElement {
     this.busy = true;
     try {
       if (!this.compute) throw new Error('the compute worker is not available');
-      const { pattern, analysis } = await this.compute.call('analysePattern', { text: this.patternText, wavelength: this.wavelengthOption(), columns: this.columnsText.trim() || undefined, fileName: this.fileName || undefined, internalStandard: this.standardOption() });
+      const { pattern, analysis } = await this.compute.call('analysePattern', { text: this.patternText, wavelength: this.wavelengthOption(), columns: this.columnsText.trim() || undefined, fileName: this.fileName || undefined, internalStandard: this.standardOption(), lp: this.lpOption() });
       this.pattern = pattern;
       this.analysis = analysis;
       this.manual = [];
@@ -507,13 +523,13 @@ export class StrataDiffractionPanel extends LitElement {
     }
     const hklOf = (i: number) => a.indexing.phases.flatMap((ph) => ph.lines.filter((l) => l.peak === i).map((l) => l.hkl.join(' ')))[0] ?? null;
     const header = ['peak', 'kind', 'twoThetaDeg', 'uTwoThetaDeg', 'dNm', 'uStatisticalDNm', 'uMethodDNm', 'uCalibrationDNm', 'uCombinedDNm', 'expandedDNm', 'coverageFactorK',
-      'fwhmDeg', 'height', 'crystalliteNm', 'uCrystalliteNm', 'hkl', 'wavelength', 'dContains'];
+      'fwhmDeg', 'height', 'crystalliteNm', 'uCrystalliteNm', 'hkl', 'wavelength', 'lorentzPolarisation', 'dContains'];
     const rows = a.peaks.map((p, i) => [i + 1, p.kind, p.twoThetaDeg, p.twoThetaUncDeg, p.dCorrectedNm, p.budget.statisticalNm, p.budget.methodNm, p.budget.calibrationNm,
-      p.budget.combinedNm, k * p.budget.combinedNm, k, p.fwhmDeg, p.intensity, p.crystalliteNm, p.crystalliteUncNm, hklOf(i), `${a.radiationLabel} (${a.radiationSource})`, p.budget.statement]);
+      p.budget.combinedNm, k * p.budget.combinedNm, k, p.fwhmDeg, p.intensity, p.crystalliteNm, p.crystalliteUncNm, hklOf(i), `${a.radiationLabel} (${a.radiationSource})`, a.lpLabel, p.budget.statement]);
     return {
       noun: 'peak', name: 'peaks', header, rows,
-      notes: [`${this.fileName ?? 'pattern'}; wavelength ${a.radiationLabel}, from ${a.radiationSource}; u are standard uncertainties, the expanded uncertainty has k = ${k}`],
-      json: { file: this.fileName, radiation: { label: a.radiationLabel, source: a.radiationSource }, coverageFactorK: k, peaks: a.peaks, indexing: a.indexing, phaseSizes: a.phaseSizes, series: a.series, reconciliation: this.reconciliation() },
+      notes: [`${this.fileName ?? 'pattern'}; wavelength ${a.radiationLabel}, from ${a.radiationSource}; Lorentz–polarisation factor across each line: ${a.lpLabel}; u are standard uncertainties, the expanded uncertainty has k = ${k}`],
+      json: { file: this.fileName, radiation: { label: a.radiationLabel, source: a.radiationSource }, lorentzPolarisation: a.lpLabel, coverageFactorK: k, peaks: a.peaks, indexing: a.indexing, phaseSizes: a.phaseSizes, series: a.series, reconciliation: this.reconciliation() },
     };
   }
 
@@ -537,6 +553,16 @@ export class StrataDiffractionPanel extends LitElement {
           </label>
           ${this.wavelengthKey === 'custom' ? html`<input type="text" placeholder="1.5406A or 0.15406nm" .value=${this.customWavelength} @change=${(e: Event) => { this.customWavelength = (e.target as HTMLInputElement).value; this.analyse(); }} />` : nothing}
           ${this.columnsText !== '' || /columns to read|column \d+ was asked/.test(this.error) ? html`<label title="The columns of 2θ (or q), intensity and optionally its uncertainty, counted from 1">Columns <input type="text" class="columns" size="7" placeholder="1,2 or 1,2,3" .value=${this.columnsText} @change=${(e: Event) => { this.columnsText = (e.target as HTMLInputElement).value; void this.analyse(); }} /></label>` : nothing}
+        </div>
+        <div class="row">
+          <label title="The Lorentz–polarisation factor fitted across each line of a 2θ pattern, so that a broad low-angle line's fitted centre is its Bragg angle">Lorentz–polarisation
+            <select class="lp-geometry" @change=${(e: Event) => { this.lpSpecimen = (e.target as HTMLSelectElement).value as LpGeometry['specimen']; void this.analyse(); }}>
+              <option value="powder" ?selected=${this.lpSpecimen === 'powder'}>random powder (Bragg–Brentano)</option>
+              <option value="oriented-film" ?selected=${this.lpSpecimen === 'oriented-film'}>oriented film (Bragg–Brentano)</option>
+              <option value="none" ?selected=${this.lpSpecimen === 'none'}>none (transmission, synchrotron)</option>
+            </select>
+          </label>
+          ${this.lpSpecimen !== 'none' ? html`<label title="2θ of the monochromator crystal, for the polarisation term (graphite 002 with Cu Kα: 26.6°); empty: no monochromator">Monochromator 2θ (°) <input type="text" class="monochromator" size="5" placeholder="none" .value=${this.monochromatorText} @change=${(e: Event) => { this.monochromatorText = (e.target as HTMLInputElement).value; void this.analyse(); }} /></label>` : nothing}
         </div>
         <div class="row">
           <label>Internal standard
@@ -582,7 +608,7 @@ export class StrataDiffractionPanel extends LitElement {
       </section>
       ${a ? html`<section class="o3">
         <h3>Peaks (${a.peaks.length})</h3>
-        <p class="muted">Wavelength ${a.radiationLabel} — from ${a.radiationSource}. d ± 2u: fit, profile shape, zero shift (${a.indexing.zeroShiftDeg !== null ? 'measured, removed' : 'allowance'}) and wavelength.</p>
+        <p class="muted">Wavelength ${a.radiationLabel} — from ${a.radiationSource}. <span class="lp-label">Lorentz–polarisation factor across each line: ${a.lpLabel}.</span> d ± 2u: fit, profile shape, zero shift (${a.indexing.zeroShiftDeg !== null ? 'measured, removed' : 'allowance'}) and wavelength.</p>
         <table>
           <tr><th>2θ (°)</th><th>d (nm) ± 2u</th><th>FWHM (°)</th><th>height</th><th>size (nm) ± 2u</th><th>hkl</th></tr>
           ${a.peaks.map((p, i) => {

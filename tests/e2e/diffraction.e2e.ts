@@ -129,6 +129,40 @@ test('cross-check: the fringes measured in a micrograph against the pattern; at 
   await s.page.screenshot({ path: join(artefactDir('diffraction'), 'wide-1366x768.png') });
 }, 120_000);
 
+test('the Lorentz–polarisation geometry chosen beside the wavelength reaches the worker\'s fit, is shown next to the wavelength and goes into the export', async () => {
+  const { xrd, errors } = await diffractionTab();
+  const lpLabel = () => xrd.evaluate((el) => (el as unknown as { analysis: { lpLabel: string } | null }).analysis?.lpLabel ?? null);
+  const shown = () => xrd.locator('p.muted', { hasText: 'Wavelength' }).locator('span.lp-label').textContent();
+  await xrd.locator('button', { hasText: 'Demo pattern' }).click();
+  // the default: a random powder in Bragg–Brentano reflection
+  await expect.poll(lpLabel, { timeout: 60_000 }).toBe('random powder, Bragg–Brentano, no monochromator');
+  await expect.poll(shown).toContain('random powder, Bragg–Brentano, no monochromator');
+  // an oriented film, then a graphite monochromator (2θm 26.6° with Cu Kα, common practice); a monochromator 2θ that is no angle is refused naming it
+  await xrd.locator('select.lp-geometry').selectOption('oriented-film');
+  await expect.poll(lpLabel, { timeout: 60_000 }).toBe('oriented film, Bragg–Brentano, no monochromator');
+  await xrd.locator('input.monochromator').fill('200');
+  await xrd.locator('input.monochromator').press('Enter');
+  await expect.poll(() => xrd.locator('p.error').textContent()).toMatch(/monochromator's 2θ in degrees, between 0 and 180.*got "200"/);
+  await xrd.locator('input.monochromator').fill('26.6');
+  await xrd.locator('input.monochromator').press('Enter');
+  const film = 'oriented film, Bragg–Brentano, monochromator 2θm 26.6°';
+  await expect.poll(lpLabel, { timeout: 60_000 }).toBe(film);
+  await expect.poll(shown).toContain(film);
+  expect(await xrd.locator('p.error').count()).toBe(0);
+  // the export keeps it as it keeps the wavelength's source: a CSV column and note, and the JSON
+  const csv = await downloadedText(s.page, () => xrd.locator('strata-export-menu button.export-csv').click());
+  expect(csvRows(csv.text).header).toContain('lorentzPolarisation');
+  expect(csv.text).toContain(`Lorentz–polarisation factor across each line: ${film}`);
+  const json = await downloadedText(s.page, () => xrd.locator('strata-export-menu button.export-json').click());
+  expect(json.text).toContain(`"lorentzPolarisation": "${film}"`);
+  // none (transmission, synchrotron): no monochromator to give
+  await xrd.locator('select.lp-geometry').selectOption('none');
+  await expect.poll(lpLabel, { timeout: 60_000 }).toBe('none');
+  await expect.poll(shown).toContain('none');
+  expect(await xrd.locator('input.monochromator').count()).toBe(0);
+  expect(errors).toEqual([]);
+}, 120_000);
+
 test('an internal standard: Si (SRM 640f) picked in the panel measures the zero shift of a Si + fcc-metal pattern; the line says what its ± contains', async () => {
   // Si at the SRM 640f cell (a = 0.5431144 ± 0.000008 nm, k = 2; Black et al., Powder Diffr. 35 (2020),
   // reference-values.md §2) with its d-glide (ITC A, Fd-3m), an fcc metal (a = 0.40782 nm, from memory)
