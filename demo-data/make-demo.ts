@@ -14,6 +14,7 @@ import { fileURLToPath } from 'node:url';
 import { encode } from 'fast-png';
 import { encodeTiff } from '../testing/encode-tiff';
 import { drawText, fillRect, measureText, type Raster } from '../src/figure/draw-text';
+import { DEFAULT_LP_GEOMETRY, lpFactor } from '../src/diffraction/lorentz-polarisation';
 import { gaussian as gauss, rng } from '../testing/random';
 
 const OUT = dirname(fileURLToPath(import.meta.url));
@@ -466,9 +467,10 @@ const index: IndexEntry[] = [];
   for (let i = 0; i < n; i++) {
     const x = start + i * step;
     let y = 60 + 4000 * Math.exp(-x / 0.9) + 380 * Math.exp(-((x - 19.6) ** 2) / (2 * 3.6 ** 2)); // air scatter + polymer halo
+    // each line tilted by the Lorentz–polarisation factor across it (random powder, Bragg–Brentano, no monochromator)
     for (const p of truthPeaks) {
-      y += p.heightCounts * pv(x, p.twoThetaKa1Deg, p.fwhmDeg, 0.4);
-      y += ratio * p.heightCounts * pv(x, p.twoThetaKa2Deg, p.fwhmDeg, 0.4);
+      y += p.heightCounts * pv(x, p.twoThetaKa1Deg, p.fwhmDeg, 0.4) * (lpFactor(x, DEFAULT_LP_GEOMETRY) / lpFactor(p.twoThetaKa1Deg, DEFAULT_LP_GEOMETRY));
+      y += ratio * p.heightCounts * pv(x, p.twoThetaKa2Deg, p.fwhmDeg, 0.4) * (lpFactor(x, DEFAULT_LP_GEOMETRY) / lpFactor(p.twoThetaKa2Deg, DEFAULT_LP_GEOMETRY));
     }
     out.push(`${x.toFixed(2)} ${poisson(y, r, g)}`);
   }
@@ -489,7 +491,8 @@ const index: IndexEntry[] = [];
       lamellarPeriodNm: dLam / 10,
       crystalliteSizeNm: crystalliteNm,
       scherrerK: K,
-      profile: 'pseudo-Voigt, eta 0.4',
+      profile: 'pseudo-Voigt, eta 0.4, times LP(2θ)/LP(2θ0) across each line',
+      lorentzPolarisation: 'random powder, Bragg–Brentano, no monochromator',
       stepDeg: step,
       peaks: truthPeaks,
       background: '60 + 4000 exp(-2θ/0.9°) + 380 exp(-(2θ-19.6°)²/(2·3.6°²))',
