@@ -84,6 +84,7 @@ export class StrataDiffractionPanel extends LitElement {
       textarea { width: 100%; box-sizing: border-box; font: inherit; color: var(--text); background: #212b35; border: 1px solid var(--line); }
       /* a long option (a standard with its certified cell) must not push the column wider than the screen */
       select.internal-standard { max-width: 15em; }
+      select.lp-geometry { max-width: 15em; }
       .error { color: #f08a7a; }
       td.good { color: #7fd18b; }
       td.warn { color: #f0c05a; }
