@@ -804,9 +804,6 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
     // a candidate on a stack already measured (one of its layers, or the same band) is skipped;
     // one that lies only on a piece too short to be a stack is measured, and kept if long enough
     if (coverage.covered(axis.points, angle0, 20, true).share > 0.5) return;
-    // a candidate from fringe energy that runs onto a stack already measured, at any angle, is
-    // that stack's end or edge (where the fringes stop, their energy turns)
-    if (fringeCandidates.has(axis) && coverage.covered(axis.points, angle0, 90, false).share > FRINGE_CANDIDATE_MAX_ON_STACK) return;
     let onShort = coverage.covered(axis.points, angle0, 20, false).share > 0.5;
     // survey at each period: fringes smoothed away at half a period, fringe energy beside it
     let sv: Survey | null = null;
@@ -1062,7 +1059,6 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
       if (!measured && !onEarlier && turnable) failedBands.push({ axis, frame, band: part, periodPx: bandPeriodPx ?? tryPeriods[0] });
     }
   };
-  const fringeCandidates = new Set<RidgeAxis>();
   measureCandidates(periodList.length ? [...periodList] : [], []);
   // the image's periods from the stacks that measured their own (four layers or more): the
   // periodograms of the candidates read a few per cent high near the sampling limit; thinner
@@ -1107,8 +1103,10 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
   for (const d of [...periodList]) {
     if (d < minPeriodPx) continue;
     for (const a of fringeRegionAxes(image, d, { mask, minLengthPx: Math.min(minLengthPx, 24) })) {
-      fringeCandidates.add(a);
       axes.push(a);
+      // one that runs onto a stack already measured, at any angle (a tolerance of 90°), is that
+      // stack's end or edge (where the fringes stop, their energy turns)
+      if (coverage.covered(a.points, () => 0, 90, false).share > FRINGE_CANDIDATE_MAX_ON_STACK) continue;
       measureAxis(a, [...periodList], [], 'first');
     }
   }

@@ -4,7 +4,7 @@
  * but hardly darken the film (phase-contrast fringes), whose scale-space ridges break into short
  * pieces on a textured film.
  */
-import type { GreyImage } from '../image/grey-image';
+import type { GreyImage, PixelArray } from '../image/grey-image';
 import { solve3 } from './count';
 import { MIN_COUNTABLE_PERIOD_PX } from './limits';
 import { resamplePolyline, type RidgeAxis } from './ridges';
@@ -38,10 +38,11 @@ export interface FringeRegionOptions {
  * @param options mask, shortest region, thresholds and turning tolerance
  * @returns candidate axes, strongest first; `scalePx` is set so that a survey's first width guess
  *   (2.45 scales) is the region's width across its fringes
- * Notes: the gradient products are summed over cells of ⌊p/2⌋ px (at least 2) before the tensor
- * is averaged, so the averaging and the labelling cost (2/p)² of the image; a margin of two
- * integration scales (1.5 p, at least 3 px) at the border is not searched. The threshold's median and MAD are those of the whole image: where stacks cover more than
- * half of it, regions are fewer, not false. A region is a candidate only; every test of a stack
+ * Notes: the image is binned so that the period spans 3–6 bins, and the gradient products are
+ * summed over cells of about half a period (at least 2 bins) before the tensor is averaged, so
+ * the averaging and the labelling cost about (2/p)² of the image; a margin of two integration
+ * scales (1.5 p, at least 3 px) at the border is not searched. The threshold's median and MAD are
+ * those of the whole image: where stacks cover more than half of it, regions are fewer, not false. A region is a candidate only; every test of a stack
  * (comb evidence, resolved layers, persistence, the lattice tests) is made on it afterwards.
  */
 export function fringeRegionAxes(image: GreyImage, periodPx: number, options: FringeRegionOptions = {}): RidgeAxis[] {
@@ -57,16 +58,15 @@ export function fringeRegionAxes(image: GreyImage, periodPx: number, options: Fr
   const mask = options.mask ?? null;
   if (mask && mask.length !== W * H) throw new RangeError(`mask length ${mask.length} ≠ ${W} × ${H}`);
 
-  // the image binned by b so that the period is 3–6 binned px (a fringe of 3 px or more loses at
-  // most a quarter of its contrast in the bins), then band-passed at the period: fine noise and
-  // the film's slow variation removed
+  // the image binned by b so that the period is 3–6 binned px (a fringe of 3 binned px or more
+  // keeps at least 0.83 of its contrast along each axis), then band-passed at the period: fine
+  // noise and the film's slow variation removed
   const bin = Math.max(1, Math.floor(periodPx / 3));
   const pb = periodPx / bin;
   const bw = Math.floor(W / bin);
   const bh = Math.floor(H / bin);
-  let binned: Float32Array;
-  if (bin === 1) binned = Float32Array.from(image.data);
-  else {
+  let binned: PixelArray = image.data;
+  if (bin > 1) {
     binned = new Float32Array(bw * bh);
     for (let y = 0; y < bh * bin; y++) {
       const row = ((y / bin) | 0) * bw;
