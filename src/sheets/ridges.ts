@@ -103,23 +103,33 @@ function axialDiffRad(a: number, b: number): number {
   return d;
 }
 
+/** The best ridge response of one level over its scales, pixel by pixel. */
+interface BestRidge {
+  /** Strength in noise standard deviations (0: no ridge). */
+  strength: Float32Array;
+  /** Direction of the band's normal, image axes, radians. */
+  normal: Float32Array;
+  /** Scale of the strongest response, image px. */
+  scalePx: Float32Array;
+}
+
 /**
  * Ridge strength of one level at one scale: σ^1.5·(λ₁ − |λ₂|) where λ₁ ≥ λ₂ are the Hessian
- * eigenvalues of the smoothed (polarity-corrected) image, and the direction of λ₁'s eigenvector
- * (the band's normal, image axes, radians).
+ * eigenvalues of the smoothed (polarity-corrected) image, in noise standard deviations (of the
+ * normalised Laplacian on the background); where it beats the level's best so far, the best
+ * takes it with the direction of λ₁'s eigenvector (the band's normal) and the scale.
  */
-function ridgeAtScale(l: Level, sigma: number, sign: number): { strength: Float32Array; normal: Float32Array; noiseSd: number } {
+function ridgeAtScale(l: Level, sigma: number, sign: number, best: BestRidge, scalePx: number): void {
   const { width: w, height: h } = l;
   const L = recursiveGaussian(l.data, w, h, sigma);
-  const strength = new Float32Array(w * h);
-  const normal = new Float32Array(w * h);
   const norm = sign * sigma ** 1.5;
   // the background's response: the normalised Laplacian at about 20 000 places
   const step = Math.max(1, Math.floor((w * h) / 20000));
   const lap = new Float32Array(Math.ceil((w * h) / step));
   let nl = 0;
   for (let i = w + 1; i < w * h - w - 1; i += step) lap[nl++] = norm * (L[i + 1] + L[i - 1] + L[i + w] + L[i - w] - 4 * L[i]);
-  const noiseSd = robustSd(lap.subarray(0, nl), 1);
+  const inv = 1 / robustSd(lap.subarray(0, nl), 1);
+  const { strength, normal, scalePx: scale } = best;
   for (let y = 1; y < h - 1; y++) {
     const row = y * w;
     for (let x = 1; x < w - 1; x++) {
@@ -134,13 +144,13 @@ function ridgeAtScale(l: Level, sigma: number, sign: number): { strength: Float3
       const l1 = m + r;
       if (l1 <= 0) continue;
       const l2 = m - r;
-      const v = l1 - Math.abs(l2);
-      if (v <= 0) continue;
+      const v = Math.fround(l1 - Math.abs(l2)) * inv;
+      if (v <= 0 || !(v > strength[i])) continue;
       strength[i] = v;
       normal[i] = 0.5 * Math.atan2(2 * b, a - d);
+      scale[i] = scalePx;
     }
   }
-  return { strength, normal, noiseSd };
 }
 
 /** The longest path through a connected set of grid pixels (two breadth-first searches). */
@@ -367,21 +377,9 @@ export function ridgeAxes(image: GreyImage, options: RidgeAxesOptions = {}): Rid
     const scales = [minScale * 2 ** octave, minScale * 2 ** octave * Math.SQRT2].filter((s) => s <= maxScale * 1.001);
     if (scales.length === 0 || level.width < 24 || level.height < 24) break;
     const { width: w, height: h, factor } = level;
-    const best = new Float32Array(w * h);
-    const bestNormal = new Float32Array(w * h);
-    const bestScale = new Float32Array(w * h);
-    for (const s of scales) {
-      const r = ridgeAtScale(level, s / factor, sign);
-      const inv = 1 / r.noiseSd;
-      for (let i = 0; i < w * h; i++) {
-        const v = r.strength[i] * inv;
-        if (v > best[i]) {
-          best[i] = v;
-          bestNormal[i] = r.normal[i];
-          bestScale[i] = s;
-        }
-      }
-    }
+    const ridge: BestRidge = { strength: new Float32Array(w * h), normal: new Float32Array(w * h), scalePx: new Float32Array(w * h) };
+    for (const s of scales) ridgeAtScale(level, s / factor, sign, ridge, s);
+    const { strength: best, normal: bestNormal, scalePx: bestScale } = ridge;
     if (mask) {
       for (let y = 0; y < h; y++) {
         for (let x = 0; x < w; x++) {
@@ -419,13 +417,19 @@ export function ridgeAxes(image: GreyImage, options: RidgeAxesOptions = {}): Rid
           const c2 = packed[3 * i + 1];
           const s2 = packed[3 * i + 2];
           let sum = best[i];
+          // inside, no sample can leave the image (the steps are at most `reach` pixels)
+          const inside = x >= reach && y >= reach && x < w - reach && y < h - reach;
           for (let t = 1; t <= reach; t++) {
             // both directions along the ridge
             for (let sg = -1; sg <= 1; sg += 2) {
-              const xx = Math.round(x + sg * t * ux);
-              const yy = Math.round(y + sg * t * uy);
-              if (xx < 0 || yy < 0 || xx >= w || yy >= h) continue;
-              const j = 3 * (yy * w + xx);
+              const dx = Math.round(sg * t * ux);
+              const dy = Math.round(sg * t * uy);
+              if (!inside) {
+                const xx = x + dx;
+                const yy = y + dy;
+                if (xx < 0 || yy < 0 || xx >= w || yy >= h) continue;
+              }
+              const j = 3 * (i + dy * w + dx);
               const bj = packed[j];
               // cos of twice the angle difference ≥ cos 60° ⇔ the normals agree within 30°
               if (bj > 0 && packed[j + 1] * c2 + packed[j + 2] * s2 >= minCos2) sum += bj;

@@ -291,12 +291,23 @@ export function profileBands(
         if (!(i0 > 0) || o0 < 0.2 * T0 || o0 < 4) continue;
         const iv = Cv[b] - Cv[a];
         const ivv = Cvv[b] - Cvv[a];
-        const out = lineRss(o0, T1 - (C1[b] - C1[a]), T2 - (C2[b] - C2[a]), Tv - iv, Txv - (Cxv[b] - Cxv[a]), Tvv - ivv);
+        // the background line outside (lineRss, written out: this loop is the function's cost)
+        const s1 = T1 - (C1[b] - C1[a]);
+        const sv = Tv - iv;
+        const sxv = Txv - (Cxv[b] - Cxv[a]);
+        const det = o0 * (T2 - (C2[b] - C2[a])) - s1 * s1;
+        let lineA = sv / o0;
+        let lineB = 0;
+        if (det > 1e-12) {
+          lineB = (o0 * sxv - s1 * sv) / det;
+          lineA = (sv - lineB * s1) / o0;
+        }
         const mean = iv / i0;
         // the band must stand above the background line at its middle
         const xm = x(0.5 * (a + b - 1));
-        if (!(mean > out.a + out.b * xm)) continue;
-        const rss = out.rss + (ivv - (iv * iv) / i0);
+        if (!(mean > lineA + lineB * xm)) continue;
+        const lineRssOut = det > 1e-12 ? Tvv - ivv - lineA * sv - lineB * sxv : Tvv - ivv - (sv * sv) / o0;
+        const rss = lineRssOut + (ivv - (iv * iv) / i0);
         const score = -rss;
         if (score > best) {
           best = score;
