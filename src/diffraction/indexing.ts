@@ -767,6 +767,19 @@ function strongBeyondChance(w: Work, a: Solution, b: Solution, strongHere: numbe
   return chanceAll <= 1 / Math.sqrt(10) ? only.length : 0;
 }
 
+/**
+ * A phase convincing on its own, as one of a pair that replaces a single cell: Smith–Snyder F_N ≥ 20,
+ * or de Wolff's M_N ≥ 20. F_N scales with 1/⟨|Δ2θ|⟩ alone, so a clay's broad orders, each placed to
+ * a few hundredths of a degree, stay near 20 however sparse and regular their comb; M_N divides the
+ * same mean error by the density of the cell's calculated lines (Q_N / 2N_poss), the chance that
+ * lines meet the comb by accident, which is what the bar is for. 20 is twice de Wolff's 10 for a
+ * substantially correct indexing, as F_N ≥ 20 is strict.
+ * Reference: de Wolff, J. Appl. Cryst. 1, 108 (1968); Smith & Snyder, J. Appl. Cryst. 12, 60 (1979).
+ */
+function convincingAlone(s: Solution): boolean {
+  return s.fom.fN >= 20 || s.fom.mN >= 20;
+}
+
 /** Volume of a trial's primitive cell in nm³ (for lamellar, the period). */
 function volumeOf(t: Trial): number {
   if (t.kind === 'lamellar') return t.c;
@@ -1208,8 +1221,9 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
           // a single cell that is not convincing itself (F_N < 20) gives way to two convincing phases
           // explaining every strong line, even with up to two weak lines fewer (left unindexed)
           const better = (both.size >= firstBest.hkls.length + extra && gm > firstBest.fom.fN) || (firstBest.fom.fN < 20 && extra === 0 && both.size >= firstBest.hkls.length - 2);
-          // each phase of the pair must be convincing on its own (F_N ≥ 20 and at least half the single cell's): a cell of high indices fits a few lines by chance
-          const convincing = Math.min(one.fom.fN, two.fom.fN) >= Math.max(20, 0.5 * firstBest.fom.fN);
+          // each phase of the pair must be convincing on its own (at least half the single cell's F_N, and
+          // F_N ≥ 20 or M_N ≥ 20): a cell of high indices fits a few lines by chance
+          const convincing = [one, two].every((x) => x.fom.fN >= 0.5 * firstBest.fom.fN && convincingAlone(x));
           if (strongDone >= strongScope.length && one.hkls.length >= 3 && two.hkls.length >= 3 && better && convincing) {
             const [oneW, twoW] = shareByWidth(w, one, two, scope, opts);
             phases.push(phaseOf(oneW, false), phaseOf(twoW, false));
@@ -1240,7 +1254,12 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
       }
     } else {
       // a mixture: each of the leading single-phase solutions with the best phase among the lines it leaves
+      // the simplest cells among them too: two-parameter cells whose c is a clay's period and whose a
+      // catches a few lines of the other phase explain more lines each and can fill the first ten,
+      // leaving out the lamellar stack or cubic cell that pairs with the other phase (de Wolff 1968:
+      // the smallest cell; each description is then judged by the same key below)
       const leaders = found.pool.slice(0, 10);
+      for (const x of found.pool.filter((y) => cellParameters(y.t.kind) === 1).slice(0, 4)) if (!leaders.includes(x)) leaders.push(x);
       let bestPair: { a: Solution; b: Solution | null; key: number[] } | null = null;
       for (const a of leaders) {
         const explained = new Set(a.hkls.map((h) => h.peak));
@@ -1260,6 +1279,8 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
       }
       let first = bestPair!.a;
       const second = bestPair!.b;
+      // what the search said of its best single cell no longer applies when another leads the pair
+      if (first !== firstBest) notes.splice(firstNotesAt, firstNotesEnd - firstNotesAt);
       if (second) {
         // lines the second phase explains are taken from the first, which is refined again without them
         const bAll = evaluate(w, second.t, new Set(scope), opts, true);
