@@ -811,12 +811,16 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
     const perPeriod = tryPeriods.map((d) => ({ d, q: survey(image, axis, polarity, d, axisFrame0) }));
     const powers = perPeriod.map(({ d, q }) => (q.band ? fringePowerAt(q.profile, q.band, d) : 0));
     const topPower = Math.max(...powers);
-    for (let i = 0; i < perPeriod.length; i++) {
-      const { d, q } = perPeriod[i];
-      if (!q.band || (perPeriod.length > 1 && powers[i] < 0.25 * topPower)) continue;
-      const f = fitLayerComb(q.profile, d, q.band, { polarity, countReach: 3 });
-      const score = f ? f.evidence : q.band.significance;
-      if (score > svScore) { svScore = score; sv = q; }
+    const eligible = perPeriod.filter(({ q }, i) => q.band && !(perPeriod.length > 1 && powers[i] < 0.25 * topPower));
+    // with one survey to choose from, no comb is fitted to score it
+    if (eligible.length === 1) sv = eligible[0].q;
+    else {
+      for (const { d, q } of eligible) {
+        if (!q.band) continue;
+        const f = fitLayerComb(q.profile, d, q.band, { polarity, countReach: 3 });
+        const score = f ? f.evidence : q.band.significance;
+        if (score > svScore) { svScore = score; sv = q; }
+      }
     }
     if (!sv || !sv.band) return;
     const { frame, profile } = sv;

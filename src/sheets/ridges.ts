@@ -111,6 +111,9 @@ interface BestRidge {
   normal: Float32Array;
   /** Scale of the strongest response, image px. */
   scalePx: Float32Array;
+  /** cos and sin of twice the normal's direction (from the Hessian, without trigonometry). */
+  cos2: Float32Array;
+  sin2: Float32Array;
 }
 
 /**
@@ -129,7 +132,7 @@ function ridgeAtScale(l: Level, sigma: number, sign: number, best: BestRidge, sc
   let nl = 0;
   for (let i = w + 1; i < w * h - w - 1; i += step) lap[nl++] = norm * (L[i + 1] + L[i - 1] + L[i + w] + L[i - w] - 4 * L[i]);
   const inv = 1 / robustSd(lap.subarray(0, nl), 1);
-  const { strength, normal, scalePx: scale } = best;
+  const { strength, normal, scalePx: scale, cos2, sin2 } = best;
   for (let y = 1; y < h - 1; y++) {
     const row = y * w;
     for (let x = 1; x < w - 1; x++) {
@@ -149,6 +152,9 @@ function ridgeAtScale(l: Level, sigma: number, sign: number, best: BestRidge, sc
       strength[i] = v;
       normal[i] = 0.5 * Math.atan2(2 * b, a - d);
       scale[i] = scalePx;
+      // twice the normal's angle has cosine (a − d)/2r and sine b/r (r > 0 here: λ₁ − |λ₂| > 0)
+      cos2[i] = (0.5 * (a - d)) / r;
+      sin2[i] = b / r;
     }
   }
 }
@@ -377,7 +383,7 @@ export function ridgeAxes(image: GreyImage, options: RidgeAxesOptions = {}): Rid
     const scales = [minScale * 2 ** octave, minScale * 2 ** octave * Math.SQRT2].filter((s) => s <= maxScale * 1.001);
     if (scales.length === 0 || level.width < 24 || level.height < 24) break;
     const { width: w, height: h, factor } = level;
-    const ridge: BestRidge = { strength: new Float32Array(w * h), normal: new Float32Array(w * h), scalePx: new Float32Array(w * h) };
+    const ridge: BestRidge = { strength: new Float32Array(w * h), normal: new Float32Array(w * h), scalePx: new Float32Array(w * h), cos2: new Float32Array(w * h), sin2: new Float32Array(w * h) };
     for (const s of scales) ridgeAtScale(level, s / factor, sign, ridge, s);
     const { strength: best, normal: bestNormal, scalePx: bestScale } = ridge;
     if (mask) {
@@ -404,18 +410,19 @@ export function ridgeAxes(image: GreyImage, options: RidgeAxesOptions = {}): Rid
       for (let i = 0; i < w * h; i++) {
         if (best[i] <= 0) continue;
         packed[3 * i] = best[i];
-        packed[3 * i + 1] = Math.cos(2 * bestNormal[i]);
-        packed[3 * i + 2] = Math.sin(2 * bestNormal[i]);
+        packed[3 * i + 1] = ridge.cos2[i];
+        packed[3 * i + 2] = ridge.sin2[i];
       }
       for (let y = 0; y < h; y++) {
         for (let x = 0; x < w; x++) {
           const i = y * w + x;
           if (best[i] <= 0) continue;
-          const a = bestNormal[i];
-          const ux = -Math.sin(a);
-          const uy = Math.cos(a);
           const c2 = packed[3 * i + 1];
           const s2 = packed[3 * i + 2];
+          // the direction along the ridge, (−sin a, cos a) for the normal's angle a ∈ [−90°, 90°],
+          // by the half-angle formulas (cos a ≥ 0; the sign of sin a is that of sin 2a)
+          const uy = Math.sqrt(Math.max(0, 0.5 * (1 + c2)));
+          const ux = (s2 < 0 ? 1 : -1) * Math.sqrt(Math.max(0, 0.5 * (1 - c2)));
           let sum = best[i];
           // inside, no sample can leave the image (the steps are at most `reach` pixels)
           const inside = x >= reach && y >= reach && x < w - reach && y < h - reach;

@@ -585,10 +585,13 @@ export function fitLayerComb(p: AcrossProfile, periodPx: number, band: { fromPx:
     hi = Math.min(hi, Math.floor(toBin(options.limitPx[1])) + 1);
   }
   if (hi - lo < 8) return null;
-  const u = new Float64Array(n);
-  const y = new Float64Array(n);
-  const w = new Float64Array(n);
-  const lin = new Float64Array(n);
+  // one buffer for the bins' arrays (a typed array of its own each costs an allocation outside
+  // the heap; this function runs some ten thousand times on an overview)
+  const buf = new Float64Array(6 * n + 56);
+  const u = buf.subarray(0, n);
+  const y = buf.subarray(n, 2 * n);
+  const w = buf.subarray(2 * n, 3 * n);
+  const lin = buf.subarray(3 * n, 4 * n);
   for (let i = 0; i < n; i++) u[i] = p.startPx + i * p.binPx;
   const mid = 0.5 * (u[lo] + u[hi - 1]);
   const span = Math.max(1, u[hi - 1] - u[lo]);
@@ -617,7 +620,7 @@ export function fitLayerComb(p: AcrossProfile, periodPx: number, band: { fromPx:
       syy += w[i] * y[i] * y[i];
     }
   }
-  const D: CombData = { lo, hi, u, y, w, lin, s11, s1l, sll, s1y, sly, syy, comb: new Float64Array(n), box: new Float64Array(n), binPx: p.binPx, nearest: new Int32Array(n), A: new Float64Array(16), b: new Float64Array(4), x: new Float64Array(4), L: new Float64Array(16), z: new Float64Array(4) };
+  const D: CombData = { lo, hi, u, y, w, lin, s11, s1l, sll, s1y, sly, syy, comb: buf.subarray(4 * n, 5 * n), box: buf.subarray(5 * n, 6 * n), binPx: p.binPx, nearest: new Int32Array(n), A: buf.subarray(6 * n, 6 * n + 16), b: buf.subarray(6 * n + 16, 6 * n + 20), x: buf.subarray(6 * n + 20, 6 * n + 24), L: buf.subarray(6 * n + 24, 6 * n + 40), z: buf.subarray(6 * n + 40, 6 * n + 44) };
   // the background alone
   const det = s11 * sll - s1l * s1l;
   if (!(det > 0)) return null;
