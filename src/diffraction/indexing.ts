@@ -1278,7 +1278,21 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
         if (better) bestPair = { a, b, key };
       }
       let first = bestPair!.a;
-      const second = bestPair!.b;
+      let second = bestPair!.b;
+      if (second) {
+        // the simplest description: when the second phase's cell, refined on every line, explains
+        // every strong line and every line the pair explains, with a figure of merit no worse than
+        // the weaker of the two, the pair is one phase (its first member a coincidence cell that held
+        // lines of the second: a layered cell's strongest lines have l too high to seed a trial cell,
+        // so the cell is first found among the lines another cell leaves; de Wolff 1968, the smallest cell)
+        const alone = evaluate(w, second.t, new Set(scope), opts);
+        const pairLines = new Set([...first.hkls, ...second.hkls].map((h) => h.peak));
+        if (alone && alone.strongExplained >= strongScope.length && alone.hkls.length >= pairLines.size && alone.fom.fN >= Math.min(first.fom.fN, second.fom.fN)) {
+          notes.push(`one ${LATTICE_WORDS[alone.t.kind]} cell explains every line that the ${LATTICE_WORDS[first.t.kind]} cell (a ${first.t.a.toPrecision(6)} nm${cellParameters(first.t.kind) === 2 ? `, c ${first.t.c.toPrecision(6)} nm` : ''}) and it explain together: one phase (the simplest description)`);
+          first = alone;
+          second = null;
+        }
+      }
       // what the search said of its best single cell no longer applies when another leads the pair
       if (first !== firstBest) notes.splice(firstNotesAt, firstNotesEnd - firstNotesAt);
       if (second) {

@@ -214,6 +214,21 @@ describe('a mixture is sought from the simplest cells too (the smallest cell: de
   });
 });
 
+describe('a pair whose second cell alone explains every line is one phase (the simplest description: de Wolff, J. Appl. Cryst. 1, 108, 1968)', () => {
+  test('a layered double hydroxide (rhombohedral, a 0.3046, c 2.2812 nm; the benchmark\'s LDH-like phase, from memory) is one phase, not a body-centred cubic cell of 1.289 nm holding its five strongest lines beside it, and no zero shift is reported (synthetic benchmark case, seed 3, its fitted peaks; drawn without a zero shift)', () => {
+    // 2θ, u(2θ), area, FWHM as fitted (Cu Kα1 + Kα2): the strong lines are 0 1 5, 1 0 7, 0 0 12, 1 0 10,
+    // 0 0 15 (with 1 1 0) and 1 0 13, whose l is too high to seed a trial cell; the basal 003 and 006 are weak
+    const r = indexPattern(fittedPeaks([[11.6182, 0.0147, 29.8, 0.358], [23.3767, 0.0093, 34.7, 0.302], [34.1953, 0.0147, 27.9, 0.36], [34.8788, 0.0245, 19.8, 0.36], [35.373, 0.0181, 26.8, 0.389], [37.4914, 0.0177, 17.8, 0.32], [39.4227, 0.0043, 126.7, 0.378], [44.1359, 0.0032, 191.9, 0.369], [46.8853, 0.0248, 21.8, 0.421], [47.8061, 0.0036, 177.6, 0.372], [53.029, 0.0024, 328.9, 0.389], [56.3659, 0.0255, 23.3, 0.473], [60.8147, 0.0013, 969.4, 0.428], [62.138, 0.0294, 15.9, 0.369], [63.6374, 0.0038, 186.9, 0.421], [66.0525, 0.0206, 21, 0.383], [67.5052, 0.0086, 76.3, 0.437]]), { wavelengthNm: CU1 });
+    expect(r.phases.map((p) => p.kind)).toEqual(['hexagonal-R']);
+    const ldh = r.phases[0];
+    expect(Math.abs(ldh.aNm / 0.3046 - 1)).toBeLessThan(5e-4);
+    expect(Math.abs(ldh.cNm / 2.2812 - 1)).toBeLessThan(5e-4);
+    expect(r.unindexed).toEqual([]);
+    // the cubic cell's zero shift (−0.10°) went with it
+    expect(r.zeroShiftDeg === null || Math.abs(r.zeroShiftDeg) < 3 * (r.zeroShiftUncDeg ?? 0)).toBe(true);
+  });
+});
+
 describe('a mixture takes the smallest cell (de Wolff, J. Appl. Cryst. 1, 108, 1968)', () => {
   test('brucite-like hexagonal (a 0.3142, c 0.4766 nm) + rutile-like tetragonal (a 0.4594, c 0.2959 nm; both from memory): not the hexagonal cell with c doubled, whose half-integer lines are the tetragonal 102 and 112 (synthetic benchmark case, seed 5, its fitted peaks)', () => {
     // 2θ, u(2θ), area, FWHM as fitted on the drawn pattern (Cu Kα1 + Kα2)
