@@ -1260,7 +1260,16 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
       // the smallest cell; each description is then judged by the same key below)
       const leaders = found.pool.slice(0, 10);
       for (const x of found.pool.filter((y) => cellParameters(y.t.kind) === 1).slice(0, 4)) if (!leaders.includes(x)) leaders.push(x);
-      let bestPair: { a: Solution; b: Solution | null; key: number[] } | null = null;
+      let bestPair: { a: Solution; b: Solution | null; key: number[]; both: Set<number> } | null = null;
+      // strong lines one description explains and the other does not count for it only beyond chance
+      // (strongBeyondChance, for a pair: each line judged by the cell of the pair that explains it): a
+      // two-parameter cell whose dense comb meets a clay's (hk) band fitted as a broad peak must not
+      // win over the lamellar stack by it
+      const beyondChance = (pair: { a: Solution; b: Solution | null }, only: number[]): number => {
+        if (only.length === 0) return 0;
+        const chanceAll = only.reduce((acc, i) => acc * chanceOfMatch(w, pair.a.hkls.some((h) => h.peak === i) || !pair.b ? pair.a : pair.b, i), 1);
+        return chanceAll <= 1 / Math.sqrt(10) ? only.length : 0;
+      };
       for (const a of leaders) {
         const explained = new Set(a.hkls.map((h) => h.peak));
         const rest = new Set(scope.filter((i) => !explained.has(i)));
@@ -1274,8 +1283,14 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
         // stack that explains them with one parameter
         const params = cellParameters(a.t.kind) + (b ? cellParameters(b.t.kind) : 0);
         const key = [strongDone, both.size - 2 * params, gm];
-        const better = !bestPair || key[0] > bestPair.key[0] || (key[0] === bestPair.key[0] && (key[1] > bestPair.key[1] || (key[1] === bestPair.key[1] && key[2] > bestPair.key[2])));
-        if (better) bestPair = { a, b, key };
+        let better = !bestPair;
+        if (bestPair) {
+          const common = strongScope.filter((i) => both.has(i) && bestPair!.both.has(i)).length;
+          const mine = common + beyondChance({ a, b }, strongScope.filter((i) => both.has(i) && !bestPair!.both.has(i)));
+          const theirs = common + beyondChance(bestPair, strongScope.filter((i) => !both.has(i) && bestPair!.both.has(i)));
+          better = mine > theirs || (mine === theirs && (key[1] > bestPair.key[1] || (key[1] === bestPair.key[1] && key[2] > bestPair.key[2])));
+        }
+        if (better) bestPair = { a, b, key, both };
       }
       let first = bestPair!.a;
       let second = bestPair!.b;

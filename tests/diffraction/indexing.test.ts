@@ -229,6 +229,22 @@ describe('a pair whose second cell alone explains every line is one phase (the s
   });
 });
 
+describe('strong lines one mixture explains and another does not count only beyond chance, as between single cells (Jeffreys, Theory of Probability, 3rd ed., 1961; de Wolff, J. Appl. Cryst. 1, 108, 1968)', () => {
+  test('smectite + quartz-like: a lamellar stack beside the hexagonal phase, not a hexagonal cell of c 1.500 and a 0.512 nm whose dense comb meets the smectite\'s (02,11) band fitted as a broad peak and three quartz lines (synthetic benchmark case, seed 5, its fitted peaks; drawn: lamellar c 1.5 nm, hexagonal a 0.4913, c 0.5405 nm)', () => {
+    // 2θ, u(2θ), area, FWHM as fitted (Cu Kα1 + Kα2, on a halo); the line at 20.06° (FWHM 1.02°) is the band
+    const r = indexPattern(fittedPeaks([[5.9006, 0.0085, 323.1, 0.72], [11.8127, 0.0277, 62.7, 0.934], [16.3814, 0.0149, 26.8, 0.293], [17.7031, 0.023, 55.4, 0.766], [20.0563, 0.032, 81.8, 1.021], [20.8551, 0.0027, 90.9, 0.167], [26.6501, 0.0104, 16.6, 0.19], [29.7679, 0.0263, 47.1, 0.791], [33.1217, 0.0014, 197.1, 0.164], [36.5503, 0.0015, 188.9, 0.174], [40.2968, 0.0066, 25.3, 0.184], [42.4561, 0.0022, 111.8, 0.173], [45.8002, 0.0017, 207.9, 0.168], [50.1412, 0.0022, 174.2, 0.187], [50.6252, 0.0017, 244.4, 0.197], [54.878, 0.0037, 78.7, 0.167], [55.3278, 0.0024, 149.9, 0.186], [57.2375, 0.0018, 203.1, 0.186], [59.9642, 0.0018, 201.3, 0.191], [65.7942, 0.0024, 158.8, 0.197], [67.7649, 0.0147, 22.9, 0.185], [68.1553, 0.0025, 217.6, 0.209], [69.5335, 0.0226, 10.8, 0.193]]), { wavelengthNm: CU1 });
+    expect(r.phases.map((p) => p.kind).sort()).toEqual(['hexagonal-P', 'lamellar']);
+    const lam = r.phases.find((p) => p.kind === 'lamellar')!;
+    const hex = r.phases.find((p) => p.kind === 'hexagonal-P')!;
+    expect(Math.abs(lam.cNm / 1.5 - 1)).toBeLessThan(5e-4);
+    expect(Math.abs(hex.aNm / 0.4913 - 1)).toBeLessThan(5e-4);
+    expect(Math.abs(hex.cNm / 0.5405 - 1)).toBeLessThan(5e-4);
+    // the band, no Bragg line of either cell, is left unindexed and said so
+    expect(r.unindexed).toEqual([4]);
+    expect(r.notes.join(' ')).toMatch(/1 strong line\(s\) explained by no phase found/);
+  });
+});
+
 describe('a mixture takes the smallest cell (de Wolff, J. Appl. Cryst. 1, 108, 1968)', () => {
   test('brucite-like hexagonal (a 0.3142, c 0.4766 nm) + rutile-like tetragonal (a 0.4594, c 0.2959 nm; both from memory): not the hexagonal cell with c doubled, whose half-integer lines are the tetragonal 102 and 112 (synthetic benchmark case, seed 5, its fitted peaks)', () => {
     // 2θ, u(2θ), area, FWHM as fitted on the drawn pattern (Cu Kα1 + Kα2)
