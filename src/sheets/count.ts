@@ -358,16 +358,19 @@ export function secondFringeSetFills(image: GreyImage, frame: AxisFrame, centre:
   }
   // the slanted average at φ, its periodogram, and the most power any five bins of the period
   // range hold (per sample, as the across-fringe power is)
+  const rowShift = new Float64Array(rows);
   const slant = (phi: number) => {
     const shear = Math.abs(phi - Math.PI / 2) < 1e-9 ? 0 : Math.cos(phi) / Math.sin(phi);
     const vals: number[] = [];
+    // each row's shift along the slant, v·cot φ
+    for (let k = 0; k < rows; k++) rowShift[k] = ((k - steps) / steps) * halfWidth * shear;
     // samples every px along the axis (the periods searched are 3 px or more), averaged across
     // ±halfWidth along the slant s − v·cot φ
     for (let s = s0; s <= s1; s += 1) {
       let sum = 0;
       let cnt = 0;
       for (let k = 0; k < rows; k++) {
-        const g = (s - ((k - steps) / steps) * halfWidth * shear) / 0.5;
+        const g = (s - rowShift[k]) * 2;
         const j = Math.floor(g);
         if (j < 0 || j + 1 >= cols) continue;
         const t = g - j;

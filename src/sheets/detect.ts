@@ -1213,6 +1213,17 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
       rejected.push({ centerPx: sh.centerPx, angleDeg: sh.angleDeg, layers: sh.layers, periodPx: sh.periodPx, reason: `its ${sh.positions.length} positions agree on no count (${sh.positions.map((q) => q.layers ?? '–').join(', ')} layers): no count to report` });
       continue;
     }
+    // a stack at a period that none of the image's phases shows (its own fundamental, searched
+    // for on it alone) has no other stack to confirm that period: its positions must each see
+    // it, their median evidence reaching what a stack needs (film texture gave a 6-layer comb at
+    // half a crossed lattice's period, seen at its positions with evidence 24, 103 and 38)
+    if (given === undefined && periodList.length > 0 && Math.min(...periodList.map((d) => Math.abs(sh.periodPx - d) / d)) > OFF_PHASE_RELATIVE) {
+      const ev = median(sh.positions.map((q) => q.evidence));
+      if (ev < minEvidence) {
+        rejected.push({ centerPx: sh.centerPx, angleDeg: sh.angleDeg, layers: sh.layers, periodPx: sh.periodPx, reason: `its period ${sh.periodPx.toFixed(2)} px is none of the image's, and its positions see it faintly (median evidence ${ev.toFixed(0)} below ${minEvidence}): not confirmed` });
+        continue;
+      }
+    }
     kept.push(sh);
   }
   // a second fringe set that fills a stack's band is a lattice's, unless it is the layers of
@@ -1778,3 +1789,6 @@ function median(v: number[]): number {
   const m = s.length >> 1;
   return s.length % 2 ? s[m] : 0.5 * (s[m - 1] + s[m]);
 }
+
+/** A stack whose period lies further than this (relative) from every image phase is at a period of its own, and must be confirmed at its positions. */
+const OFF_PHASE_RELATIVE = 0.1;

@@ -157,15 +157,16 @@ export function periodCandidates(
   let maxPower = 0;
   for (let k = kLo; k <= kHi; k++) maxPower = Math.max(maxPower, power[k]);
   const found: { k: number; score: number; median: number }[] = [];
-  const window: number[] = [];
+  // the two octaves' samples (at most 129 of them: the step is a 64th of the span), sorted as numbers
+  const window = new Float64Array(256);
   for (let k = kLo; k <= kHi; k++) {
     if (!(power[k] >= power[k - 1] && power[k] >= power[k + 1]) || power[k] < 0.002 * maxPower) continue;
     const a = Math.max(1, Math.floor(k / 2));
     const b = Math.min(size / 2 - 1, Math.ceil(k * 2));
-    window.length = 0;
-    for (let j = a; j <= b; j += Math.max(1, Math.floor((b - a) / 64))) window.push(power[j]);
-    window.sort((x, y) => x - y);
-    const med = window[window.length >> 1] || 1e-300;
+    let nw = 0;
+    for (let j = a; j <= b; j += Math.max(1, Math.floor((b - a) / 64))) window[nw++] = power[j];
+    const sorted = window.subarray(0, nw).sort();
+    const med = sorted[nw >> 1] || 1e-300;
     found.push({ k, score: power[k] / med, median: med });
   }
   found.sort((p, q) => q.score - p.score);

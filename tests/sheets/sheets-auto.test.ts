@@ -255,6 +255,14 @@ describe('detectSheets', () => {
     expect(res.sheets).toEqual([]);
     expect(res.rejected.some((r) => r.reason.includes('agree on no count'))).toBe(true);
   });
+  it('refuses a stack at a period of its own that its positions see only faintly (crossed lattice: film texture at half its period)', () => {
+    // on the film beside a crossed lattice (synthetic, testing/synthetic/overviews.ts: no stacks;
+    // the image's only phase 10.9 px) texture gave a 6-layer comb at its own fundamental, 5.6 px,
+    // seen at its three positions with evidence 24, 103 and 38
+    const res = detectSheets(generateOverview('crossed-lattice', 19).image);
+    expect(res.sheets).toEqual([]);
+    expect(res.rejected.some((r) => r.reason.includes('is none of the image\'s'))).toBe(true);
+  });
   it('gives the sheets on the period the image\'s periodograms read its reading\'s uncertainty, not zero (thin)', () => {
     // the mono- and bilayers take the period the periodograms read (two stacks do not refine it):
     // that reading's uncertainty (votes within 4 %) enters their thickness
