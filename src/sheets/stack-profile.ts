@@ -90,7 +90,6 @@ export interface AcrossProfileOptions {
 export function acrossProfile(image: GreyImage, frame: AxisFrame, options: AcrossProfileOptions): AcrossProfile {
   const U = options.halfWidthPx;
   const bin = options.binPx ?? 0.5;
-  const off = options.offsetPx ?? 0;
   const from = options.fromPx ?? 0;
   const to = options.toPx ?? frame.lengthPx;
   if (!(U > 0 && Number.isFinite(U))) throw new RangeError(`halfWidthPx must be a positive number, got ${U}`);
@@ -100,9 +99,25 @@ export function acrossProfile(image: GreyImage, frame: AxisFrame, options: Acros
   const startPx = -((nb - 1) * bin) / 2;
   const sum = new Float64Array(nb);
   const weights = new Float64Array(nb);
+  binAcross(image, frame, from, to, U, bin, options.offsetPx ?? 0, sum, weights);
+  const values = new Float64Array(nb);
+  for (let j = 0; j < nb; j++) values[j] = weights[j] > 0 ? sum[j] / weights[j] : NaN;
+  return { startPx, binPx: bin, values, weights, lengthPx: Math.max(0, to - from) };
+}
+
+/**
+ * The pixels of the band between arc lengths from and to, each added to the two bins nearest its
+ * distance from the axis (`sum` and `weights` of length nb = ⌊2U/bin⌋ + 1, bins centred on 0).
+ */
+function binAcross(image: GreyImage, frame: AxisFrame, from: number, to: number, U: number, bin: number, off: number, sum: Float64Array, weights: Float64Array): void {
+  const nb = sum.length;
+  const startPx = -((nb - 1) * bin) / 2;
   const { width, height, data } = image;
   const { points, tangents, normals, cumPx } = frame;
   const n = points.length;
+  // the strip's corners, x and y (counter-clockwise from the back left)
+  const cxs = new Float64Array(4);
+  const cys = new Float64Array(4);
   for (let i = 0; i < n; i++) {
     if (cumPx[i] < from - 1e-9 || cumPx[i] > to + 1e-9) continue;
     const before = i > 0 ? 0.5 * (cumPx[i] - cumPx[i - 1]) : 0.5 * (n > 1 ? cumPx[1] - cumPx[0] : 1);
@@ -112,18 +127,15 @@ export function acrossProfile(image: GreyImage, frame: AxisFrame, options: Acros
     const [nx, ny] = normals[i];
     const cx = px + off * nx;
     const cy = py + off * ny;
-    // the strip's corners
-    const corners: [number, number][] = [
-      [cx - before * tx - U * nx, cy - before * ty - U * ny],
-      [cx + after * tx - U * nx, cy + after * ty - U * ny],
-      [cx + after * tx + U * nx, cy + after * ty + U * ny],
-      [cx - before * tx + U * nx, cy - before * ty + U * ny],
-    ];
+    cxs[0] = cx - before * tx - U * nx; cys[0] = cy - before * ty - U * ny;
+    cxs[1] = cx + after * tx - U * nx; cys[1] = cy + after * ty - U * ny;
+    cxs[2] = cx + after * tx + U * nx; cys[2] = cy + after * ty + U * ny;
+    cxs[3] = cx - before * tx + U * nx; cys[3] = cy - before * ty + U * ny;
     let y0 = Infinity;
     let y1 = -Infinity;
-    for (const c of corners) {
-      y0 = Math.min(y0, c[1]);
-      y1 = Math.max(y1, c[1]);
+    for (let k = 0; k < 4; k++) {
+      y0 = Math.min(y0, cys[k]);
+      y1 = Math.max(y1, cys[k]);
     }
     const ya = Math.max(0, Math.ceil(y0));
     const yb = Math.min(height - 1, Math.floor(y1));
@@ -131,11 +143,13 @@ export function acrossProfile(image: GreyImage, frame: AxisFrame, options: Acros
       let xl = Infinity;
       let xr = -Infinity;
       for (let k = 0; k < 4; k++) {
-        const a = corners[k];
-        const b = corners[(k + 1) % 4];
-        if ((a[1] <= y && b[1] >= y) || (b[1] <= y && a[1] >= y)) {
-          const x = a[1] === b[1] ? Math.min(a[0], b[0]) : a[0] + ((y - a[1]) / (b[1] - a[1])) * (b[0] - a[0]);
-          const x2 = a[1] === b[1] ? Math.max(a[0], b[0]) : x;
+        const ax = cxs[k];
+        const ay = cys[k];
+        const bx = cxs[(k + 1) % 4];
+        const by = cys[(k + 1) % 4];
+        if ((ay <= y && by >= y) || (by <= y && ay >= y)) {
+          const x = ay === by ? Math.min(ax, bx) : ax + ((y - ay) / (by - ay)) * (bx - ax);
+          const x2 = ay === by ? Math.max(ax, bx) : x;
           xl = Math.min(xl, x);
           xr = Math.max(xr, x2);
         }
@@ -163,9 +177,6 @@ export function acrossProfile(image: GreyImage, frame: AxisFrame, options: Acros
       }
     }
   }
-  const values = new Float64Array(nb);
-  for (let j = 0; j < nb; j++) values[j] = weights[j] > 0 ? sum[j] / weights[j] : NaN;
-  return { startPx, binPx: bin, values, weights, lengthPx: Math.max(0, to - from) };
 }
 
 /** Gaussian smoothing of a profile with weights (NaN bins ignored), σ in bins. */
@@ -743,33 +754,42 @@ export function robustAcrossProfile(image: GreyImage, frame: AxisFrame, options:
   const k = Math.floor((to - from) / piece);
   if (k < 4) return acrossProfile(image, frame, options);
   const step = (to - from) / k;
-  const parts: AcrossProfile[] = [];
-  for (let j = 0; j < k; j++) parts.push(acrossProfile(image, frame, { ...options, fromPx: from + j * step, toPx: from + (j + 1) * step - 1e-6 }));
-  const nb = parts[0].values.length;
+  // each piece's bins as acrossProfile gives them, in one buffer (piece j at row j)
+  const U = options.halfWidthPx;
+  const bin = options.binPx ?? 0.5;
+  if (!(U > 0 && Number.isFinite(U))) throw new RangeError(`halfWidthPx must be a positive number, got ${U}`);
+  if (!(bin > 0 && bin <= 2)) throw new RangeError(`binPx must be in (0, 2], got ${bin}`);
+  const nb = Math.floor((2 * U) / bin) + 1;
+  const partSum = new Float64Array(k * nb);
+  const partWeight = new Float64Array(k * nb);
+  for (let j = 0; j < k; j++) binAcross(image, frame, from + j * step, from + (j + 1) * step - 1e-6, U, bin, options.offsetPx ?? 0, partSum.subarray(j * nb, (j + 1) * nb), partWeight.subarray(j * nb, (j + 1) * nb));
   const values = new Float64Array(nb);
   const weights = new Float64Array(nb);
-  const col: number[] = [];
+  const col = new Float64Array(k);
   for (let i = 0; i < nb; i++) {
-    col.length = 0;
+    let nc = 0;
     let wsum = 0;
-    for (const q of parts) {
-      if (q.weights[i] > 0 && Number.isFinite(q.values[i])) {
-        col.push(q.values[i]);
-        wsum += q.weights[i];
+    for (let j = 0; j < k; j++) {
+      const w = partWeight[j * nb + i];
+      // the piece's value, as acrossProfile gives it (NaN where it has no pixel)
+      const v = w > 0 ? partSum[j * nb + i] / w : NaN;
+      if (w > 0 && Number.isFinite(v)) {
+        col[nc++] = v;
+        wsum += w;
       }
     }
-    if (col.length === 0) {
+    if (nc === 0) {
       values[i] = NaN;
       continue;
     }
-    col.sort((a, b) => a - b);
-    const a = Math.floor(col.length / 4);
-    const b = Math.max(a + 1, col.length - a);
+    const sorted = col.subarray(0, nc).sort();
+    const a = Math.floor(nc / 4);
+    const b = Math.max(a + 1, nc - a);
     let s = 0;
-    for (let t = a; t < b; t++) s += col[t];
+    for (let t = a; t < b; t++) s += sorted[t];
     values[i] = s / (b - a);
     // the middle half carries about 0.8 of the information of all pieces (for normal noise)
     weights[i] = 0.8 * wsum;
   }
-  return { startPx: parts[0].startPx, binPx: parts[0].binPx, values, weights, lengthPx: to - from };
+  return { startPx: -((nb - 1) * bin) / 2, binPx: bin, values, weights, lengthPx: to - from };
 }
