@@ -206,11 +206,12 @@ export function periodsWithFringes(p: AcrossProfile, band: { fromPx: number; toP
 export function refinePeriod(p: AcrossProfile, fit: CombFit, polarity: 'dark' | 'bright', limit: [number, number] | undefined): { periodPx: number; uPx: number; fit: CombFit } {
   const d0 = fit.periodPx;
   const at = (d: number) => fitLayerComb(p, d, { fromPx: fit.centerPx - (fit.layers * d) / 2, toPx: fit.centerPx + (fit.layers * d) / 2 }, { polarity, limitPx: limit, layers: fit.layers, lineSigmasPx: [fit.lineSigmaPx], centreReachPx: 0.5 * d });
-  const scan = (centre: number, step: number, half: number): { d: number; f: CombFit }[] => {
+  const scan = (centre: number, step: number, half: number, atCentre?: CombFit): { d: number; f: CombFit }[] => {
     const rows: { d: number; f: CombFit }[] = [];
     for (let k = -half; k <= half; k++) {
       const d = centre * (1 + step * k);
-      const f = at(d);
+      // the centre's comb is known when the scan is about the coarse scan's best
+      const f = k === 0 && atCentre ? atCentre : at(d);
       if (f) rows.push({ d, f });
     }
     return rows;
@@ -219,7 +220,7 @@ export function refinePeriod(p: AcrossProfile, fit: CombFit, polarity: 'dark' | 
   const coarse = scan(d0, 0.01, 6);
   if (coarse.length < 3) return { periodPx: d0, uPx: 0, fit };
   const c = coarse[argmin(coarse)];
-  const rows = scan(c.d, 0.0025, 4);
+  const rows = scan(c.d, 0.0025, 4, c.f);
   if (rows.length < 3) return { periodPx: c.d, uPx: 0.03 * c.d, fit: c.f };
   const m = argmin(rows);
   if (m === 0 || m === rows.length - 1) return { periodPx: rows[m].d, uPx: 0.01 * rows[m].d, fit: rows[m].f };

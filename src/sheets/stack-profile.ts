@@ -299,7 +299,9 @@ export function profileBands(
         if (taken[b - 1]) break;
         const i0 = C0[b] - C0[a];
         const o0 = T0 - i0;
-        if (!(i0 > 0) || o0 < 0.2 * T0 || o0 < 4) continue;
+        // too little left outside: the more so for every longer band from a
+        if (o0 < 0.2 * T0 || o0 < 4) break;
+        if (!(i0 > 0)) continue;
         const iv = Cv[b] - Cv[a];
         const ivv = Cvv[b] - Cvv[a];
         // the background line outside (lineRss, written out: this loop is the function's cost)
