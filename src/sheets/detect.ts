@@ -777,6 +777,9 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
   else periodList.push(...imagePeriods(surveys, maxPeriodPx));
 
   const pieces: Piece[] = [];
+  // the pieces' sheets while turned candidates are measured (pieces are then only added, not
+  // changed: each is finished once, not once for every turned candidate)
+  const finishedWhileTurning = new Map<Piece, Omit<AutoSheet, 'id'>>();
   const rejected: RejectedBand[] = [];
   const coverage = new Coverage(4);
   // stacks counted at a period with no phase of the image near its half, for the shared fundamental
@@ -1040,7 +1043,8 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
         // does not touch a stack measured already (a piece of it where two stacks cross would
         // join the one whose band it lies in)
         if (look === 'turned' && (done.layers < TURN_MIN_LAYERS || pieces.some((q) => {
-          const o = finishPiece(q, minPeriodPx);
+          let o = finishedWhileTurning.get(q);
+          if (!o) finishedWhileTurning.set(q, (o = finishPiece(q, minPeriodPx)));
           return shareOnBand(done.axisPx, o) > 0.2 || shareOnBand(o.axisPx, done) > 0.2;
         }))) continue;
         // a lengthened candidate keeps the count it was followed with (each stretch held it):
