@@ -749,6 +749,9 @@ function chanceOfMatch(w: Work, s: Solution, i: number): number {
   return 1 - (1 - pOne) * (1 - pTwo);
 }
 
+/** A line broader (or narrower) than this many times its cell's other lines is no evidence for the cell (as a broad line of its own kind in the profile fit: a clay order, a band). */
+const BREADTH_FACTOR = 3;
+
 /**
  * The strong lines solution a explains and b does not, as evidence for a: counted only when a's
  * comb of lines is unlikely to meet them all by chance. If they are no reflections of a's cell, a
@@ -761,7 +764,18 @@ function chanceOfMatch(w: Work, s: Solution, i: number): number {
  * Bayes factor below 10^½ is "barely worth mentioning"); de Wolff, J. Appl. Cryst. 1, 108 (1968).
  */
 function strongBeyondChance(w: Work, a: Solution, b: Solution, strongHere: number[]): number {
-  const only = strongHere.filter((i) => a.asg[i] && !b.asg[i]);
+  // a line more than three times broader or narrower than the cell's other lines is no reflection of
+  // its crystallites (one phase's lines share its breadth: Scherrer 1918, Williamson & Hall 1953), but
+  // another phase's line or a band that its comb meets: no evidence for the cell, whatever the odds
+  const typical = (i: number) => {
+    const v = a.hkls.map((h) => h.peak).filter((j) => j !== i && w.fw[j] > 0).map((j) => w.fw[j]).sort((x, y) => x - y);
+    return v.length ? v[Math.floor(v.length / 2)] : 0;
+  };
+  const sameBreadth = (i: number) => {
+    const t = typical(i);
+    return !(t > 0 && w.fw[i] > 0) || Math.abs(Math.log(w.fw[i] / t)) <= Math.log(BREADTH_FACTOR);
+  };
+  const only = strongHere.filter((i) => a.asg[i] && !b.asg[i] && sameBreadth(i));
   if (only.length === 0) return 0;
   const chanceAll = only.reduce((acc, i) => acc * chanceOfMatch(w, a, i), 1);
   return chanceAll <= 1 / Math.sqrt(10) ? only.length : 0;

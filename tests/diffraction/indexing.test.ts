@@ -245,6 +245,19 @@ describe('strong lines one mixture explains and another does not count only beyo
   });
 });
 
+describe('a strong line far broader than a cell\'s other lines is no evidence for that cell (one phase\'s lines share its breadth: Scherrer 1918; Williamson & Hall, Acta Metall. 1, 22, 1953)', () => {
+  test('smectite + quartz-like: the quartz-like phase is hexagonal (a 0.4913, c 0.5405 nm), not a tetragonal cell of a 0.5405, c 0.4255 nm whose comb meets the smectite\'s (06,33) band fitted as broad peaks at 61.9 and 62.5° (FWHM 0.76° among lines of 0.15–0.33°) with a chance of 0.04 (synthetic benchmark case, seed 43, its fitted peaks; drawn: lamellar c 1.5 nm, hexagonal a 0.4913, c 0.5405 nm)', () => {
+    // 2θ, u(2θ), area, FWHM as fitted (Cu Kα1 + Kα2, on a halo)
+    const r = indexPattern(fittedPeaks([[5.8819, 0.0046, 642.2, 0.891], [11.7759, 0.0298, 64.8, 0.919], [16.3868, 0.0011, 252.1, 0.152], [17.6879, 0.0243, 57, 0.693], [20.0506, 0.0332, 89.2, 1.051], [20.8651, 0.0033, 65.7, 0.158], [33.1194, 0.0131, 13.8, 0.204], [36.5495, 0.0047, 39.7, 0.158], [39.4668, 0.0021, 103.8, 0.159], [42.432, 0.0088, 56.8, 0.34], [45.7944, 0.0072, 27.1, 0.166], [48.4872, 0.0313, 31.2, 0.665], [50.6232, 0.0039, 58.3, 0.172], [54.9242, 0.0506, 36.5, 0.588], [55.3322, 0.0041, 101.6, 0.191], [61.945, 0.0329, 81.2, 0.763], [62.5116, 0.0404, 73.9, 0.763], [65.7918, 0.0067, 29.4, 0.163], [67.7422, 0.024, 32, 0.332], [68.2704, 0.0047, 137.6, 0.333], [69.5036, 0.0049, 69.5, 0.216]]), { wavelengthNm: CU1 });
+    expect(r.phases.map((p) => p.kind).sort()).toEqual(['hexagonal-P', 'lamellar']);
+    const hex = r.phases.find((p) => p.kind === 'hexagonal-P')!;
+    expect(Math.abs(hex.aNm / 0.4913 - 1)).toBeLessThan(5e-4);
+    expect(Math.abs(hex.cNm / 0.5405 - 1)).toBeLessThan(5e-4);
+    // the band's pieces (20.05°, 61.9°, 62.5°) belong to no cell
+    expect(r.unindexed).toEqual([4, 15, 16]);
+  });
+});
+
 describe('a mixture takes the smallest cell (de Wolff, J. Appl. Cryst. 1, 108, 1968)', () => {
   test('brucite-like hexagonal (a 0.3142, c 0.4766 nm) + rutile-like tetragonal (a 0.4594, c 0.2959 nm; both from memory): not the hexagonal cell with c doubled, whose half-integer lines are the tetragonal 102 and 112 (synthetic benchmark case, seed 5, its fitted peaks)', () => {
     // 2θ, u(2θ), area, FWHM as fitted on the drawn pattern (Cu Kα1 + Kα2)
