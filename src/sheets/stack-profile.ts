@@ -295,26 +295,29 @@ export function profileBands(
     for (let a = 0; a < n; a++) {
       if (taken[a]) continue;
       const bEnd = Math.min(n, a + maxBins);
+      // the sums up to a, once for every band from a
+      const C0a = C0[a], C1a = C1[a], C2a = C2[a], Cva = Cv[a], Cxva = Cxv[a], Cvva = Cvv[a];
+      const outFloor = Math.max(0.2 * T0, 4);
       for (let b = a + minBins; b <= bEnd; b++) {
         if (taken[b - 1]) break;
-        const i0 = C0[b] - C0[a];
+        const i0 = C0[b] - C0a;
         const o0 = T0 - i0;
         // too little left outside: the more so for every longer band from a
-        if (o0 < 0.2 * T0 || o0 < 4) break;
+        if (o0 < outFloor) break;
         if (!(i0 > 0)) continue;
-        const iv = Cv[b] - Cv[a];
-        const ivv = Cvv[b] - Cvv[a];
+        const iv = Cv[b] - Cva;
+        const ivv = Cvv[b] - Cvva;
         // the background line outside (lineRss, written out: this loop is the function's cost)
-        const s1 = T1 - (C1[b] - C1[a]);
+        const s1 = T1 - (C1[b] - C1a);
         const sv = Tv - iv;
-        const sxv = Txv - (Cxv[b] - Cxv[a]);
-        const det = o0 * (T2 - (C2[b] - C2[a])) - s1 * s1;
-        let lineA = sv / o0;
+        const sxv = Txv - (Cxv[b] - Cxva);
+        const det = o0 * (T2 - (C2[b] - C2a)) - s1 * s1;
+        let lineA: number;
         let lineB = 0;
         if (det > 1e-12) {
           lineB = (o0 * sxv - s1 * sv) / det;
           lineA = (sv - lineB * s1) / o0;
-        }
+        } else lineA = sv / o0;
         const mean = iv / i0;
         // the band must stand above the background line at its middle
         const xm = x(0.5 * (a + b - 1));
