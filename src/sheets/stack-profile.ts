@@ -266,10 +266,12 @@ export function profileBands(
   const maxBins = Math.max(minBins, Math.round((MAX_BAND_PERIODS * periodPx) / p.binPx));
   const corrBins = Math.max(2, periodPx / p.binPx);
   const x = (i: number) => (i - n / 2) / n;
+  // prefix sums over the usable, untaken bins: count, x, x², v, x·v, v²; one buffer for every
+  // round (each round rewrites them from index 1; index 0 stays 0)
+  const sums = new Float64Array(6 * (n + 1));
+  const C0 = sums.subarray(0, n + 1), C1 = sums.subarray(n + 1, 2 * (n + 1)), C2 = sums.subarray(2 * (n + 1), 3 * (n + 1));
+  const Cv = sums.subarray(3 * (n + 1), 4 * (n + 1)), Cxv = sums.subarray(4 * (n + 1), 5 * (n + 1)), Cvv = sums.subarray(5 * (n + 1), 6 * (n + 1));
   for (let round = 0; round < maxBands; round++) {
-    // prefix sums over the usable, untaken bins: count, x, x², v, x·v, v²
-    const C0 = new Float64Array(n + 1), C1 = new Float64Array(n + 1), C2 = new Float64Array(n + 1);
-    const Cv = new Float64Array(n + 1), Cxv = new Float64Array(n + 1), Cvv = new Float64Array(n + 1);
     for (let i = 0; i < n; i++) {
       const use = ok[i] && !taken[i] ? 1 : 0;
       const xi = x(i);
