@@ -401,9 +401,11 @@ export function ridgeAxes(image: GreyImage, options: RidgeAxesOptions = {}): Rid
     // Cabral & Leedom, SIGGRAPH 1993)
     {
       const reach = Math.max(3, Math.round(2.5 * (scales[0] / factor) + 2));
-      const avg = new Float32Array(w * h);
       const cosTol = Math.cos((30 * Math.PI) / 180);
       const minCos2 = 2 * cosTol * cosTol - 1;
+      // in noise units of the average: noise strength is about independent from sample to
+      // sample along a random direction, so its mean over the line shrinks by √(2·reach + 1)
+      const gain = Math.sqrt(2 * reach + 1);
       // strength and the cos and sin of twice each normal, once per pixel and side by side (the
       // inner loop reads all three at each neighbour: one cache line, not three)
       const packed = new Float32Array(3 * w * h);
@@ -442,13 +444,10 @@ export function ridgeAxes(image: GreyImage, options: RidgeAxesOptions = {}): Rid
               if (bj > 0 && packed[j + 1] * c2 + packed[j + 2] * s2 >= minCos2) sum += bj;
             }
           }
-          avg[i] = sum / (2 * reach + 1);
+          // written in place: the neighbours are read from the packed copy
+          best[i] = Math.fround(sum / (2 * reach + 1)) * gain;
         }
       }
-      // in noise units of the average: noise strength is about independent from sample to
-      // sample along a random direction, so its mean over the line shrinks by √(2·reach + 1)
-      const gain = Math.sqrt(2 * reach + 1);
-      for (let i = 0; i < w * h; i++) best[i] = avg[i] * gain;
     }
     // non-maximum suppression across the ridge (normal quantised to 8 neighbours)
     const centre = new Uint8Array(w * h);
