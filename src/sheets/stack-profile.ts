@@ -88,14 +88,10 @@ export interface AcrossProfileOptions {
  * between the strip's edges, so the cost is the band's area.
  */
 export function acrossProfile(image: GreyImage, frame: AxisFrame, options: AcrossProfileOptions): AcrossProfile {
-  const U = options.halfWidthPx;
-  const bin = options.binPx ?? 0.5;
+  const { U, bin, nb } = profileBins(options);
   const from = options.fromPx ?? 0;
   const to = options.toPx ?? frame.lengthPx;
-  if (!(U > 0 && Number.isFinite(U))) throw new RangeError(`halfWidthPx must be a positive number, got ${U}`);
-  if (!(bin > 0 && bin <= 2)) throw new RangeError(`binPx must be in (0, 2], got ${bin}`);
   if (!(to >= from)) throw new RangeError(`toPx (${to}) must not be below fromPx (${from})`);
-  const nb = Math.floor((2 * U) / bin) + 1;
   const startPx = -((nb - 1) * bin) / 2;
   const sum = new Float64Array(nb);
   const weights = new Float64Array(nb);
@@ -103,6 +99,15 @@ export function acrossProfile(image: GreyImage, frame: AxisFrame, options: Acros
   const values = new Float64Array(nb);
   for (let j = 0; j < nb; j++) values[j] = weights[j] > 0 ? sum[j] / weights[j] : NaN;
   return { startPx, binPx: bin, values, weights, lengthPx: Math.max(0, to - from) };
+}
+
+/** A profile's half-width U and bin width (checked), and its number of bins ⌊2U/bin⌋ + 1. */
+function profileBins(options: AcrossProfileOptions): { U: number; bin: number; nb: number } {
+  const U = options.halfWidthPx;
+  const bin = options.binPx ?? 0.5;
+  if (!(U > 0 && Number.isFinite(U))) throw new RangeError(`halfWidthPx must be a positive number, got ${U}`);
+  if (!(bin > 0 && bin <= 2)) throw new RangeError(`binPx must be in (0, 2], got ${bin}`);
+  return { U, bin, nb: Math.floor((2 * U) / bin) + 1 };
 }
 
 /**
@@ -762,11 +767,7 @@ export function robustAcrossProfile(image: GreyImage, frame: AxisFrame, options:
   if (k < 4) return acrossProfile(image, frame, options);
   const step = (to - from) / k;
   // each piece's bins as acrossProfile gives them, in one buffer (piece j at row j)
-  const U = options.halfWidthPx;
-  const bin = options.binPx ?? 0.5;
-  if (!(U > 0 && Number.isFinite(U))) throw new RangeError(`halfWidthPx must be a positive number, got ${U}`);
-  if (!(bin > 0 && bin <= 2)) throw new RangeError(`binPx must be in (0, 2], got ${bin}`);
-  const nb = Math.floor((2 * U) / bin) + 1;
+  const { U, bin, nb } = profileBins(options);
   const partSum = new Float64Array(k * nb);
   const partWeight = new Float64Array(k * nb);
   for (let j = 0; j < k; j++) binAcross(image, frame, from + j * step, from + (j + 1) * step - 1e-6, U, bin, options.offsetPx ?? 0, partSum.subarray(j * nb, (j + 1) * nb), partWeight.subarray(j * nb, (j + 1) * nb));
