@@ -1387,10 +1387,29 @@ type SecondSet = NonNullable<ReturnType<typeof secondFringeSetFills>>;
  * @returns the second set that fills its band, or null
  */
 function latticeAlongWhole(image: GreyImage, sh: Omit<AutoSheet, 'id'>, polarity: 'dark' | 'bright'): SecondSet | null {
-  const { op, band } = ownAxisProfile(image, sh.axisPx, sh.thicknessPx, sh.periodPx);
-  const fit = fitLayerComb(op, sh.periodPx, band, { polarity, countReach: 2 });
-  if (!fit || fit.layers < 3) return null;
-  return secondFringeSetFills(image, axisFrame(sh.axisPx), fit.centerPx, Math.max(1, 0.35 * fit.thicknessPx), sh.periodPx, acrossFringePower(op, fit));
+  const onAxis = (axisPx: [number, number][]): SecondSet | null => {
+    const { op, band } = ownAxisProfile(image, axisPx, sh.thicknessPx, sh.periodPx);
+    const fit = fitLayerComb(op, sh.periodPx, band, { polarity, countReach: 2 });
+    if (!fit || fit.layers < 3) return null;
+    return secondFringeSetFills(image, axisFrame(axisPx), fit.centerPx, Math.max(1, 0.35 * fit.thicknessPx), sh.periodPx, acrossFringePower(op, fit));
+  };
+  const set = onAxis(sh.axisPx);
+  if (set) return set;
+  // a lattice is straight, but pieces cut from it join at offsets a period apart into a jogged
+  // axis, along which a second set's phase slips and its peak is lost (a jog of 6 px left a peak
+  // 10 times its neighbourhood where the straight chord showed one 1000 times it): an axis that
+  // strays from its chord by more than half a period and less than a quarter of the stack's
+  // thickness is tested along the chord too, whose band stays within the stack's
+  const first = sh.axisPx[0];
+  const last = sh.axisPx[sh.axisPx.length - 1];
+  const chordPx = Math.hypot(last[0] - first[0], last[1] - first[1]);
+  if (!(chordPx > 0)) return null;
+  const nx = -(last[1] - first[1]) / chordPx;
+  const ny = (last[0] - first[0]) / chordPx;
+  let strayPx = 0;
+  for (const [x, y] of sh.axisPx) strayPx = Math.max(strayPx, Math.abs((x - first[0]) * nx + (y - first[1]) * ny));
+  if (strayPx <= 0.5 * sh.periodPx || strayPx > 0.25 * sh.thicknessPx) return null;
+  return onAxis(resampleAxis([first, last]));
 }
 
 /** Δχ² by which a comb at half the period must beat the comb at the period to replace it (likelihood ratio e⁶ ≈ 400 between two models of as many parameters). */

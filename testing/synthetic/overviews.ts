@@ -369,6 +369,7 @@ function planFamily(family: OverviewFamily, seed: number, sizePx?: number): Plan
         p.lattices.push({ cx: uniformIn(r, 0.3 * size, 0.7 * size), cy: uniformIn(r, 0.3 * size, 0.7 * size), radiusPx: uniformIn(r, 0.12 * size, 0.3 * size), periodPx: d, anglesDeg: [a + 40 * k, a + 40 * k + pick(r, [60, 90, 120])], amplitude: uniformIn(r, 0.06, 0.15) });
       }
       p.notes.push('crossed lattice fringes, no stacks');
+      for (const L of p.lattices) p.notes.push(`lattice d ${L.periodPx.toFixed(2)} px at ${L.cx.toFixed(0)},${L.cy.toFixed(0)} r ${L.radiusPx.toFixed(0)} normals ${L.anglesDeg.map((x) => x.toFixed(0)).join('/')}° amplitude ${L.amplitude.toFixed(3)}`);
       break;
     }
   }

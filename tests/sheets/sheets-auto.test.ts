@@ -180,6 +180,16 @@ describe('detectSheets', () => {
     expect(res.sheets).toEqual([]);
     expect(res.rejected.some((r) => /a second fringe set, at (5[5-9]|6[0-5])° to its layers' normal, fills its whole length/.test(r.reason))).toBe(true);
   });
+  it('refuses a stack joined from lattice pieces at offsets a period apart (tested along its chord)', () => {
+    // a crossed lattice (synthetic, testing/synthetic/overviews.ts: two fringe sets at 4.82 px, 60°
+    // apart, no stacks) gave a 6-layer sheet 398 px long joined from straight pieces with a 6 px
+    // jog: along the jogged axis the second set's phase slips (peak 10 times its neighbourhood);
+    // along the chord it is whole
+    const o = generateOverview('crossed-lattice', 13);
+    const res = detectSheets(o.image);
+    expect(res.sheets).toEqual([]);
+    expect(res.rejected.some((r) => r.reason.includes('a second fringe set'))).toBe(true);
+  });
   it('keeps a stack that another crosses end to end at a shallow angle (its second fringe set is that stack, not a lattice)', () => {
     // an 8-layer stack at 13.3 px, 135 px long, crossed at 30° by a 6-layer stack 80 px thick
     // (synthetic truth, testing/synthetic/overviews.ts): the crossing covers all of its length;
