@@ -433,6 +433,10 @@ export function secondFringeSetFills(image: GreyImage, frame: AxisFrame, centre:
   }
   looks.sort((x, y) => y.sl.most - x.sl.most);
   for (const { phi: phi0, sl: sl0 } of looks) {
+    // the fine steps only about a look whose periodogram peak stands half as far out as a set
+    // needs (the smear at a coarse angle keeps half the power or more: it halves the peak at most)
+    const c0 = periodCandidates(sl0.pw, sl0.size, sl0.minP, sl0.maxP, 1)[0];
+    if (!c0 || c0.peakToMedian < 0.5 * SECOND_SET_PEAK_TO_MEDIAN) continue;
     let best = fillsAt(sl0);
     let bestPhi = phi0;
     if (coarseRad > stepRad) {

@@ -488,8 +488,9 @@ function combRss(D: CombData, layers: number, first: number, d: number, sg: numb
   // outwards from its peak bin by the exact product recurrence exp(−(t+h)²a) = exp(−t²a)·exp(−(2th+h²)a)
   // (two exponentials a line instead of one a bin and line; rounding ~1e-14 relative)
   const { nearest, binPx: h } = D;
+  const invD = 1 / d;
   for (let i = lo; i < hi; i++) {
-    nearest[i] = Math.round((u[i] - first) / d);
+    nearest[i] = Math.round((u[i] - first) * invD);
     comb[i] = 0;
   }
   const stepRatio = Math.exp(-2 * h * h * inv);
@@ -539,8 +540,13 @@ function combRss(D: CombData, layers: number, first: number, d: number, sg: numb
     if (withBox) {
       // the step's edges are Gaussian-blurred like the lines; far from both edges it is 0 or 1
       let bx: number;
+      // (beyond 5σ from an edge its erf is ±1 to 6·10⁻⁷, as the step is taken to be 0 or 1 there)
+      const nearA = ui < edgeA + 5 * sg;
+      const nearB = ui > edgeB - 5 * sg;
       if (ui < edgeA - 5 * sg || ui > edgeB + 5 * sg) bx = 0;
-      else if (ui > edgeA + 5 * sg && ui < edgeB - 5 * sg) bx = 1;
+      else if (!nearA && !nearB) bx = 1;
+      else if (!nearB) bx = 0.5 * (erf((ui - edgeA) * es) + 1);
+      else if (!nearA) bx = 0.5 * (1 - erf((ui - edgeB) * es));
       else bx = 0.5 * (erf((ui - edgeA) * es) - erf((ui - edgeB) * es));
       box[i] = bx;
       const wb = wi * bx;
