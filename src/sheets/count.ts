@@ -104,6 +104,8 @@ export interface CombNearPeriodOptions {
   minPeriodPx?: number;
   /** Relative steps tried either side of the period (default 1 %, 2 %, 3 % and 4 %). */
   stepsRel?: number[];
+  /** Line widths (Gaussian σ, px) tried (default: those {@link fitLayerComb} tries at each period). */
+  lineSigmasPx?: number[];
 }
 
 /**
@@ -131,7 +133,7 @@ export function combNearPeriod(p: AcrossProfile, band: { fromPx: number; toPx: n
     for (const sign of [-1, 1]) {
       const d = periodPx * (1 + sign * s);
       if (d < minPeriodPx) continue;
-      const f = fitLayerComb(p, d, band, { polarity: options.polarity, limitPx: options.limitPx, countReach: 3 });
+      const f = fitLayerComb(p, d, band, { polarity: options.polarity, limitPx: options.limitPx, countReach: 3, lineSigmasPx: options.lineSigmasPx });
       if (f && f.evidence >= minEvidence && (!best || f.rss < best.fit.rss)) best = { fit: f, periodPx: d };
     }
   }

@@ -883,7 +883,9 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
           // sampling limit); over many layers a small error puts the comb out of phase with the
           // stack, so the band's own best period within ±4 % is tried before it is called faint
           // (a band of four periods or more: a thinner one hardly goes out of phase)
-          const retry = combNearPeriod(profile, band, periodPx, { polarity, limitPx: limit, minEvidence, minPeriodPx });
+          // (at the line width of the comb at the estimate: a few per cent in period leave the
+          // lines' width as it is, and each retry then costs a fifth of the width search)
+          const retry = combNearPeriod(profile, band, periodPx, { polarity, limitPx: limit, minEvidence, minPeriodPx, lineSigmasPx: [fit.lineSigmaPx] });
           if (retry && retry.fit.layers >= 4 && retry.fit.thicknessPx <= sv.frame.lengthPx) {
             ({ fit, periodPx } = retry);
             retried = true;
