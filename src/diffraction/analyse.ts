@@ -2,7 +2,7 @@
  * One call from a pattern to peaks, crystallite sizes and series: what the command line and the
  * diffraction panel show.
  */
-import { fitInstrumentProfile, instrumentWidth, sampleBreadth, type InstrumentProfile } from './instrument';
+import { fitInstrumentProfile, instrumentWidth, sampleBreadth, sampleBreadthUncDeg, type InstrumentProfile } from './instrument';
 import { indexPattern, type IndexOptions, type IndexResult } from './indexing';
 import { latticeLines } from './lattice';
 import { dToTwoTheta } from './bragg';
@@ -137,9 +137,9 @@ export function analysePattern(pattern: Pattern, options: AnalyseOptions = {}): 
           return { size: null, unc: null, sample: sb.fwhmDeg };
         }
         const r = scherrerSize(sb.fwhmDeg, p.twoThetaDeg, lambda!, { k });
-        const unc = r.sizeNm! * sampleBreadthUnc(p, profile, sb.fwhmDeg) / sb.fwhmDeg;
+        const unc = r.sizeNm! * sampleBreadthUncDeg(p, profile, sb.fwhmDeg) / sb.fwhmDeg;
         const signed = sampleBreadth(p.fwhmDeg, p.eta, p.twoThetaDeg, profile, true).fwhmDeg;
-        if (signed > 0) pooled[i] = { sampleFwhmDeg: signed, sampleFwhmUncDeg: sampleBreadthUnc(p, profile, signed, true) };
+        if (signed > 0) pooled[i] = { sampleFwhmDeg: signed, sampleFwhmUncDeg: sampleBreadthUncDeg(p, profile, signed, true) };
         if (r.sizeNm! > 100) warnings.add('some sizes exceed ~100 nm, where the Scherrer estimate loses meaning');
         return { size: r.sizeNm, unc, sample: sb.fwhmDeg };
       }
@@ -287,13 +287,6 @@ export function instrumentFromStandard(standard: Pattern, source = 'standard', o
 }
 
 /**
- * Standard uncertainty of a line's sample breadth (degrees) from its fitted FWHM and η and their
- * correlation: the breadth's derivatives in both by central differences, u² = JᵀCJ (GUM §5.2).
- * η matters as much as the FWHM: it decides how much of the width is Lorentzian, which the
- * instrument's Lorentzian is taken from linearly, and the two trade off in the fit.
- * Reference: JCGM 100:2008 (GUM), law of propagation of uncertainty.
- */
-/**
  * The fitted lines whose FWHM holds another reflection of an indexed phase (beside the one the line
  * is indexed as) or another fitted line: their breadth is not one reflection's.
  * Reference: common practice in line-profile analysis (only resolved, single reflections carry a size;
@@ -330,18 +323,4 @@ function overlappedLines(peaks: Array<{ kind: string; twoThetaDeg: number | null
     if (calcNear > 0 || ownCalc > 1 || peakNear) out.add(i);
   });
   return out;
-}
-
-function sampleBreadthUnc(p: { fwhmDeg: number | null; fwhmUncDeg: number | null; eta: number; etaUnc: number; fwhmEtaCorrelation: number; twoThetaDeg: number | null }, profile: InstrumentProfile, sample: number, signed = false): number {
-  const w = p.fwhmDeg!;
-  const tt = p.twoThetaDeg!;
-  const sw = p.fwhmUncDeg ?? 0;
-  const se = p.etaUnc;
-  const hw = 1e-4 * w;
-  const dW = (sampleBreadth(w + hw, p.eta, tt, profile, signed).fwhmDeg - sampleBreadth(w - hw, p.eta, tt, profile, signed).fwhmDeg) / (2 * hw);
-  const e0 = Math.max(0, Math.min(1, p.eta - 1e-3));
-  const e1 = Math.max(0, Math.min(1, p.eta + 1e-3));
-  const dE = e1 > e0 ? (sampleBreadth(w, e1, tt, profile, signed).fwhmDeg - sampleBreadth(w, e0, tt, profile, signed).fwhmDeg) / (e1 - e0) : 0;
-  const v = dW * dW * sw * sw + dE * dE * se * se + 2 * dW * dE * p.fwhmEtaCorrelation * sw * se;
-  return Number.isFinite(v) && v > 0 ? Math.sqrt(v) : sw * (w / Math.max(sample, 1e-12));
 }

@@ -188,6 +188,68 @@ export function sampleBreadth(fwhmDeg: number, eta: number, twoThetaDeg: number,
   return { fwhmDeg: gammaG + gammaL > 0 ? voigtToPseudoVoigt(gammaG, gammaL).fwhm : 0, gammaG, gammaL };
 }
 
+/**
+ * Standard uncertainty of a line's sample breadth (degrees) from its fitted FWHM and η and their
+ * correlation. η matters as much as the FWHM: it decides how much of the width is Lorentzian, which
+ * the instrument's Lorentzian is taken from linearly, and the two trade off in the fit.
+ *
+ * The breadth a line's own size uses (its squared Gaussian part cut at zero) is propagated linearly,
+ * u² = JᵀCJ with the derivatives by central differences (GUM §5.2). The signed breadth a phase's size
+ * averages (signed = true) is not linear in η near η = 1, where most lines of a Lorentzian-broadened
+ * sample are fitted: it barely moves with η at the bound itself, yet moves by several per cent between
+ * η = 1 and the 0.9–0.97 a fit's ± reaches, so the linearised ± of a line fitted at the bound left that
+ * part out (on the benchmark's seeds 1–4, 17 of 1064 pooled breadths lay beyond 3u). It is propagated
+ * by the unscented transform instead: the breadth at the fit and at four points ±√3 standard
+ * deviations along the Cholesky factor of the (FWHM, η) covariance, weighted 1/3 and 1/6 each, u² the
+ * weighted spread (the linear law for a linear breadth); a point beyond η's range [0, 1] is replaced
+ * by the reflection of its partner through the fit (the breadth's change the other way, mirrored).
+ * @param p the line's fitted FWHM (degrees), η, their standard uncertainties and correlation, and 2θ
+ * @param profile the instrument profile
+ * @param sample the line's sample breadth, degrees (for the fallback when the fit gave no covariance)
+ * @param signed the signed breadth (a phase's average) rather than the cut one (a line's own size)
+ * @returns the breadth's standard uncertainty, degrees 2θ
+ * Reference: JCGM 100:2008 (GUM) §5.2; Julier & Uhlmann, Proc. IEEE 92, 401 (2004) (unscented
+ * transform, n = 2, κ = 1).
+ */
+export function sampleBreadthUncDeg(p: { fwhmDeg: number | null; fwhmUncDeg: number | null; eta: number; etaUnc: number; fwhmEtaCorrelation: number; twoThetaDeg: number | null }, profile: InstrumentProfile, sample: number, signed = false): number {
+  const w = p.fwhmDeg!;
+  const tt = p.twoThetaDeg!;
+  const sw = p.fwhmUncDeg ?? 0;
+  const se = p.etaUnc;
+  if (!signed) {
+    const hw = 1e-4 * w;
+    const dW = (sampleBreadth(w + hw, p.eta, tt, profile).fwhmDeg - sampleBreadth(w - hw, p.eta, tt, profile).fwhmDeg) / (2 * hw);
+    const e0 = Math.max(0, Math.min(1, p.eta - 1e-3));
+    const e1 = Math.max(0, Math.min(1, p.eta + 1e-3));
+    const dE = e1 > e0 ? (sampleBreadth(w, e1, tt, profile).fwhmDeg - sampleBreadth(w, e0, tt, profile).fwhmDeg) / (e1 - e0) : 0;
+    const v = dW * dW * sw * sw + dE * dE * se * se + 2 * dW * dE * p.fwhmEtaCorrelation * sw * se;
+    return Number.isFinite(v) && v > 0 ? Math.sqrt(v) : sw * (w / Math.max(sample, 1e-12));
+  }
+  const r = Math.max(-1, Math.min(1, p.fwhmEtaCorrelation));
+  const seF = Number.isFinite(se) ? se : 0;
+  // Cholesky factor of the (FWHM, η) covariance: columns (sw, r·se) and (0, se·√(1 − r²)); √(n + κ) = √3
+  const cols: Array<[number, number]> = [[sw, r * seF], [0, seF * Math.sqrt(Math.max(0, 1 - r * r))]];
+  const spread = Math.sqrt(3);
+  const f0 = sampleBreadth(w, p.eta, tt, profile, true).fwhmDeg;
+  const vals = [f0];
+  const weights = [1 / 3];
+  for (const [cw, ce] of cols) {
+    const side = (sgn: number) => {
+      const e = p.eta + sgn * spread * ce;
+      const ww = w + sgn * spread * cw;
+      return { inside: e >= 0 && e <= 1 && ww > 0, f: sampleBreadth(Math.max(ww, 1e-3 * w), Math.max(0, Math.min(1, e)), tt, profile, true).fwhmDeg };
+    };
+    const up = side(1);
+    const down = side(-1);
+    // one point beyond the range: its partner's change mirrored; both beyond it: both clamped
+    vals.push(up.inside || !down.inside ? up.f : 2 * f0 - down.f, down.inside || !up.inside ? down.f : 2 * f0 - up.f);
+    weights.push(1 / 6, 1 / 6);
+  }
+  const mean = vals.reduce((a, v, i) => a + weights[i] * v, 0);
+  const v = vals.reduce((a, x, i) => a + weights[i] * (x - mean) ** 2, 0);
+  return Number.isFinite(v) && v > 0 ? Math.sqrt(v) : sw * (w / Math.max(sample, 1e-12));
+}
+
 /** Result of williamsonHall. */
 export interface WilliamsonHall {
   /** Volume-weighted size D = Kλ/intercept, nm, and its standard uncertainty. */
