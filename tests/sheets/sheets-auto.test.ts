@@ -190,6 +190,18 @@ describe('detectSheets', () => {
     expect(res.sheets).toEqual([]);
     expect(res.rejected.some((r) => r.reason.includes('a second fringe set'))).toBe(true);
   });
+  it('refuses a stack at half an image period at which no stack stands, when its positions do not confirm it (a lattice harmonic)', () => {
+    // crossed lattices (synthetic, testing/synthetic/overviews.ts): at 10.0 px (seed 10) a 3-layer
+    // comb at 5.0 px on the lattice's edge, positions reading 3, 3 and 1 layers; three lattices at
+    // 10.0 px (seed 48) and film beside them, a 5-layer comb at 4.8 px reading 5, 5 and 3. Both
+    // images' periods hold the lattice's period and its half, and no stack stands at the former
+    for (const seed of [10, 48]) {
+      const o = generateOverview('crossed-lattice', seed);
+      const res = detectSheets(o.image);
+      expect(res.sheets).toEqual([]);
+      expect(res.rejected.some((r) => r.reason.startsWith('its period is half the image'))).toBe(true);
+    }
+  });
   it('keeps a stack that another crosses end to end at a shallow angle (its second fringe set is that stack, not a lattice)', () => {
     // an 8-layer stack at 13.3 px, 135 px long, crossed at 30° by a 6-layer stack 80 px thick
     // (synthetic truth, testing/synthetic/overviews.ts): the crossing covers all of its length;
