@@ -105,15 +105,16 @@ function axialDiffRad(a: number, b: number): number {
 
 /** The best ridge response of one level over its scales, pixel by pixel. */
 interface BestRidge {
-  /** Strength in noise standard deviations (0: no ridge). */
-  strength: Float32Array;
+  /**
+   * Per pixel, side by side: the strength in noise standard deviations (0: no ridge), and the cos
+   * and sin of twice the normal's direction (from the Hessian, without trigonometry); the line
+   * integral reads all three at each neighbour (one cache line, not three).
+   */
+  packed: Float32Array;
   /** Direction of the band's normal, image axes, radians. */
   normal: Float32Array;
   /** Scale of the strongest response, image px. */
   scalePx: Float32Array;
-  /** cos and sin of twice the normal's direction (from the Hessian, without trigonometry). */
-  cos2: Float32Array;
-  sin2: Float32Array;
 }
 
 /**
@@ -132,7 +133,7 @@ function ridgeAtScale(l: Level, sigma: number, sign: number, best: BestRidge, sc
   let nl = 0;
   for (let i = w + 1; i < w * h - w - 1; i += step) lap[nl++] = norm * (L[i + 1] + L[i - 1] + L[i + w] + L[i - w] - 4 * L[i]);
   const inv = 1 / robustSd(lap.subarray(0, nl), 1);
-  const { strength, normal, scalePx: scale, cos2, sin2 } = best;
+  const { packed, normal, scalePx: scale } = best;
   for (let y = 1; y < h - 1; y++) {
     const row = y * w;
     for (let x = 1; x < w - 1; x++) {
@@ -148,13 +149,13 @@ function ridgeAtScale(l: Level, sigma: number, sign: number, best: BestRidge, sc
       if (l1 <= 0) continue;
       const l2 = m - r;
       const v = Math.fround(l1 - Math.abs(l2)) * inv;
-      if (v <= 0 || !(v > strength[i])) continue;
-      strength[i] = v;
+      if (v <= 0 || !(v > packed[3 * i])) continue;
+      packed[3 * i] = v;
       normal[i] = 0.5 * Math.atan2(2 * b, a - d);
       scale[i] = scalePx;
       // twice the normal's angle has cosine (a − d)/2r and sine b/r (r > 0 here: λ₁ − |λ₂| > 0)
-      cos2[i] = (0.5 * (a - d)) / r;
-      sin2[i] = b / r;
+      packed[3 * i + 1] = (0.5 * (a - d)) / r;
+      packed[3 * i + 2] = b / r;
     }
   }
 }
@@ -383,18 +384,20 @@ export function ridgeAxes(image: GreyImage, options: RidgeAxesOptions = {}): Rid
     const scales = [minScale * 2 ** octave, minScale * 2 ** octave * Math.SQRT2].filter((s) => s <= maxScale * 1.001);
     if (scales.length === 0 || level.width < 24 || level.height < 24) break;
     const { width: w, height: h, factor } = level;
-    const ridge: BestRidge = { strength: new Float32Array(w * h), normal: new Float32Array(w * h), scalePx: new Float32Array(w * h), cos2: new Float32Array(w * h), sin2: new Float32Array(w * h) };
+    const ridge: BestRidge = { packed: new Float32Array(3 * w * h), normal: new Float32Array(w * h), scalePx: new Float32Array(w * h) };
     for (const s of scales) ridgeAtScale(level, s / factor, sign, ridge, s);
-    const { strength: best, normal: bestNormal, scalePx: bestScale } = ridge;
+    const { packed, normal: bestNormal, scalePx: bestScale } = ridge;
     if (mask) {
       for (let y = 0; y < h; y++) {
         for (let x = 0; x < w; x++) {
           const fx = Math.min(image.width - 1, Math.floor((x + 0.5) * factor));
           const fy = Math.min(image.height - 1, Math.floor((y + 0.5) * factor));
-          if (mask[fy * image.width + fx]) best[y * w + x] = 0;
+          if (mask[fy * image.width + fx]) packed[3 * (y * w + x)] = 0;
         }
       }
     }
+    // the strength averaged along the ridge (0 where there is none)
+    const best = new Float32Array(w * h);
     // average the strength along the ridge (±reach level px in the local direction, counting only
     // samples whose normal agrees within 30°): a line integral that lifts faint but straight
     // lines above the pixel noise, as an oriented filter would (line integral convolution,
@@ -406,26 +409,17 @@ export function ridgeAxes(image: GreyImage, options: RidgeAxesOptions = {}): Rid
       // in noise units of the average: noise strength is about independent from sample to
       // sample along a random direction, so its mean over the line shrinks by √(2·reach + 1)
       const gain = Math.sqrt(2 * reach + 1);
-      // strength and the cos and sin of twice each normal, once per pixel and side by side (the
-      // inner loop reads all three at each neighbour: one cache line, not three)
-      const packed = new Float32Array(3 * w * h);
-      for (let i = 0; i < w * h; i++) {
-        if (best[i] <= 0) continue;
-        packed[3 * i] = best[i];
-        packed[3 * i + 1] = ridge.cos2[i];
-        packed[3 * i + 2] = ridge.sin2[i];
-      }
       for (let y = 0; y < h; y++) {
         for (let x = 0; x < w; x++) {
           const i = y * w + x;
-          if (best[i] <= 0) continue;
+          if (packed[3 * i] <= 0) continue;
           const c2 = packed[3 * i + 1];
           const s2 = packed[3 * i + 2];
           // the direction along the ridge, (−sin a, cos a) for the normal's angle a ∈ [−90°, 90°],
           // by the half-angle formulas (cos a ≥ 0; the sign of sin a is that of sin 2a)
           const uy = Math.sqrt(Math.max(0, 0.5 * (1 + c2)));
           const ux = (s2 < 0 ? 1 : -1) * Math.sqrt(Math.max(0, 0.5 * (1 - c2)));
-          let sum = best[i];
+          let sum = packed[3 * i];
           // inside, no sample can leave the image (the steps are at most `reach` pixels)
           const inside = x >= reach && y >= reach && x < w - reach && y < h - reach;
           for (let t = 1; t <= reach; t++) {
@@ -444,7 +438,6 @@ export function ridgeAxes(image: GreyImage, options: RidgeAxesOptions = {}): Rid
               if (bj > 0 && packed[j + 1] * c2 + packed[j + 2] * s2 >= minCos2) sum += bj;
             }
           }
-          // written in place: the neighbours are read from the packed copy
           best[i] = Math.fround(sum / (2 * reach + 1)) * gain;
         }
       }
