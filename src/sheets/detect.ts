@@ -1279,6 +1279,22 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
       rejected.push({ centerPx: sh.centerPx, angleDeg: sh.angleDeg, layers: sh.layers, periodPx: sh.periodPx, reason: `alongside a longer stack at its period, less than half a period from it, with ${Math.round((100 * (sh.evidence / sh.lengthPx)) / (beside.evidence / beside.lengthPx))} % of its evidence per px: that stack's edge, not a stack` });
       continue;
     }
+    // a stack at twice the period of a longer stack of three layers or more that it continues
+    // along one line, as thick within a period: that stack's end, every other layer line taken for
+    // a layer (a 4-layer stack at 2.88 px was found in its middle, and its two ends as bilayers at
+    // 5.99 px, the image's coarser phase)
+    const doubled = accepted.find((o) => isDoubledEnd(sh, o));
+    if (doubled) {
+      rejected.push({ centerPx: sh.centerPx, angleDeg: sh.angleDeg, layers: sh.layers, periodPx: sh.periodPx, reason: `continues a stack of ${doubled.layers} layers at ${doubled.periodPx.toFixed(2)} px, half its period, as thick: that stack's end, read at twice its period` });
+      continue;
+    }
+    // (and the other way round: a longer one accepted before it may be this stack's end so read)
+    if (sh.layers >= 3) {
+      for (const o of accepted.filter((q) => isDoubledEnd(q, sh))) {
+        accepted.splice(accepted.indexOf(o), 1);
+        rejected.push({ centerPx: o.centerPx, angleDeg: o.angleDeg, layers: o.layers, periodPx: o.periodPx, reason: `continues a stack of ${sh.layers} layers at ${sh.periodPx.toFixed(2)} px, half its period, as thick: that stack's end, read at twice its period` });
+      }
+    }
     accepted.push(sh);
   }
   // one or two lines have no period of their own: their count and thickness rest on the layer
@@ -1813,6 +1829,37 @@ function alongside(a: Omit<AutoSheet, 'id'>, b: Omit<AutoSheet, 'id'>): boolean 
     }
   }
   return tried > 0 && on >= 0.85 * tried && gapSum / on < 0.5 * b.periodPx;
+}
+
+const SIN_10 = Math.sin((10 * Math.PI) / 180);
+
+/** Whether `a` is the end of stack `b` (three layers or more) read at twice b's period: within 6 % of 2·p, directions within 15°, as thick within 1.5 periods, on b's line beyond its ends ({@link continuesAlong}). */
+function isDoubledEnd(a: Omit<AutoSheet, 'id'>, b: Omit<AutoSheet, 'id'>): boolean {
+  return b.layers >= 3 && Math.abs(a.periodPx - 2 * b.periodPx) <= 0.12 * b.periodPx && axialDiff(a.angleDeg, b.angleDeg) < 15 && Math.abs(a.thicknessPx - b.thicknessPx) <= 1.5 * b.periodPx && continuesAlong(a, b);
+}
+
+/**
+ * Whether a sheet lies on the line of another beyond its ends: every third point of its axis
+ * within a third of the other's thickness (and at least a period), plus its distance past the
+ * other's end × sin 10°, of the other's axis extended,
+ * most of them beyond its ends, the nearest at most 90 px (or four thicknesses) past them.
+ */
+function continuesAlong(a: Omit<AutoSheet, 'id'>, b: Omit<AutoSheet, 'id'>): boolean {
+  const tol = Math.max(b.periodPx, b.thicknessPx / 3);
+  const maxGap = Math.max(90, 4 * b.thicknessPx);
+  let tried = 0;
+  let beyond = 0;
+  let gap = Infinity;
+  for (let k = 0; k < a.axisPx.length; k += 3) {
+    const c = polylineCoords(b.axisPx, a.axisPx[k][0], a.axisPx[k][1]);
+    tried++;
+    const past = c.s < 0 ? -c.s : c.s > b.lengthPx ? c.s - b.lengthPx : 0;
+    // the other's direction extended, within 10° (a gently bent stack, an axis's own error)
+    if (Math.abs(c.u) > tol + past * SIN_10) return false;
+    if (past > 0) beyond++;
+    gap = Math.min(gap, past);
+  }
+  return tried > 0 && beyond >= 0.5 * tried && gap <= maxGap;
 }
 
 /** Share of a polyline's points that lie on a sheet's band (inside its length, within half its thickness and a period of its axis). */

@@ -202,6 +202,17 @@ describe('detectSheets', () => {
       expect(res.rejected.some((r) => r.reason.startsWith('its period is half the image'))).toBe(true);
     }
   });
+  it("refuses a stack's ends read as bilayers at twice its period (two phases, the finer's stack found in its middle)", () => {
+    // phases at 2.88 and 5.99 px (synthetic truth, testing/synthetic/overviews.ts): a 4-layer stack
+    // at 2.88 px, 243 px long, was found in its middle (51 px) and its two ends as bilayers at the
+    // image's coarser period, as thick; the ends are refused and every true stack is still found
+    const o = generateOverview('two-periods', 35);
+    const res = detectSheets(o.image);
+    const sc = scoreOverview(o.truth.stacks, res.sheets);
+    expect(sc.spurious).toBe(0);
+    expect(sc.matchOf.every((m) => m >= 0)).toBe(true);
+    expect(res.rejected.filter((r) => r.reason.endsWith('read at twice its period')).length).toBeGreaterThanOrEqual(2);
+  });
   it('keeps a stack that another crosses end to end at a shallow angle (its second fringe set is that stack, not a lattice)', () => {
     // an 8-layer stack at 13.3 px, 135 px long, crossed at 30° by a 6-layer stack 80 px thick
     // (synthetic truth, testing/synthetic/overviews.ts): the crossing covers all of its length;
