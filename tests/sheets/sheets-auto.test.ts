@@ -213,6 +213,16 @@ describe('detectSheets', () => {
     expect(sc.matchOf.every((m) => m >= 0)).toBe(true);
     expect(res.rejected.filter((r) => r.reason.endsWith('read at twice its period')).length).toBeGreaterThanOrEqual(2);
   });
+  it("refuses a stack's end measured at a second reading of its period (the same count, as thick, on its line)", () => {
+    // a 5-layer stack at 2.99 px, 193 px long (synthetic truth, testing/synthetic/overviews.ts):
+    // found over 113 px at 2.93 px, and a 33 px piece beyond its end at the image's second
+    // reading of the phase, 3.18 px (8.5 % apart: pieces join within 6 %); the piece is refused
+    const o = generateOverview('sparse', 20);
+    const res = detectSheets(o.image);
+    expect(res.sheets.some((q) => Math.hypot(q.centerPx[0] - 67, q.centerPx[1] - 126) < 10)).toBe(false);
+    expect(res.rejected.some((r) => r.reason.endsWith('measured at another reading of its period'))).toBe(true);
+    foundStack(o, res, 126, 140, 5);
+  });
   it('keeps a stack that another crosses end to end at a shallow angle (its second fringe set is that stack, not a lattice)', () => {
     // an 8-layer stack at 13.3 px, 135 px long, crossed at 30° by a 6-layer stack 80 px thick
     // (synthetic truth, testing/synthetic/overviews.ts): the crossing covers all of its length;
