@@ -477,21 +477,38 @@ interface Solution {
  * line: a clay's strong 001 (placed to a few mdeg, but with the most leverage on c) then counted like
  * its weak higher orders, and orders scattering 1.6 times beyond their σ gave a cell 1.23 times as
  * scattered as the lines allow (tests/diffraction/indexing.test.ts); with the lines' own weights,
- * 1.01. Lines kept, zero shift kept or not as decided; with fewer than two degrees of freedom the
- * scatter says nothing and the search's allowance stays.
+ * 1.01. Weighed at its own σ, a strong line must be one reflection: a line with another of the
+ * cell's reflections within its FWHM that no other peak took is left out of this refinement (while
+ * two degrees of freedom remain), as it is of the phase's size (a brucite-like 002 fitted as one peak
+ * with its weak 101 0.33° away sat 0.025° high and, at its own small σ, moved c by 0.03 %). Zero shift
+ * kept or not as decided; with fewer than two degrees of freedom the scatter says nothing and the
+ * search's allowance stays.
  * @param w the work arrays
  * @param s the phase's solution
  * @returns the solution with its cell, covariance and χ² refined so (or as it was)
- * Reference: weighted least squares (Gauss–Markov); Birge, Phys. Rev. 40, 207 (1932).
+ * Reference: weighted least squares (Gauss–Markov); Birge, Phys. Rev. 40, 207 (1932); single
+ * reflections: Langford & Louër, Rep. Prog. Phys. 59, 131 (1996).
  */
 function ownScatter(w: Work, s: Solution): Solution {
   if (w.lambda === null || !s.cov) return s;
-  const clean = s.asg.flatMap((a) => (a && !a.overlap ? [{ peak: a.peak, hkl: s.lines[a.line].hkl }] : []));
+  const clean = s.asg.flatMap((a) => (a && !a.overlap ? [{ peak: a.peak, line: a.line, hkl: s.lines[a.line].hkl }] : []));
   if (clean.some((h) => w.tt[h.peak] === null)) return s;
   const zeroKept = s.cov.length > cellParameters(s.t.kind);
   const dof = clean.length - s.cov.length;
   if (dof < 2) return s;
-  const r = refine(w, s.t, clean, zeroKept, false, 0);
+  // weighed at its own σ, a strong line must be one reflection: another of the cell's reflections
+  // within its FWHM that no other peak took pulls its fitted position (only resolved, single
+  // reflections are measured: Langford & Louër 1996, as for the sizes)
+  const lambda = w.lambda;
+  const taken = new Set(s.asg.flatMap((a) => (a ? [a.line] : [])));
+  const tcOf = s.lines.map((l) => twoThetaOfQ(l.q, lambda) + s.t.zero);
+  const single = clean.filter((h) => {
+    const tt = w.tt[h.peak]!;
+    const fw = w.fw[h.peak];
+    return !(fw > 0) || !tcOf.some((tc, j) => j !== h.line && !taken.has(j) && Math.abs(tc - tcOf[h.line]) > 1e-4 && Math.abs(tt - tc) < fw);
+  });
+  const use = single.length - s.cov.length >= 2 ? single : clean;
+  const r = refine(w, s.t, use.map((h) => ({ peak: h.peak, hkl: h.hkl })), zeroKept, false, 0);
   if (!r || Math.abs(r.t.zero) > 1) return s;
   return { ...s, t: r.t, cov: r.cov, chi2: r.chi2, dof: r.dof };
 }

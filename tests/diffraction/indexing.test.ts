@@ -349,6 +349,36 @@ describe('an indexed cell takes every line at its worth', () => {
   });
 });
 
+describe('a line weighed at its own σ must be one reflection (only resolved, single reflections are measured: Langford & Louër, Rep. Prog. Phys. 59, 131, 1996)', () => {
+  test('brucite (a 0.3142, c 0.4766 nm, COD 1000054): its strong 002 fitted as one peak with the weak 101 0.33° away (within its FWHM) sits 0.025° high; the cell is refined without it, within 0.01 % and its ±2u', () => {
+    const a = 0.3142;
+    const c = 0.4766;
+    const normal = gaussian(rng(5));
+    // every reflection to 80° as a fitted peak (FWHM 0.45°), placed within its σ, but the 002 + 101 pair: one peak at their
+    // intensity-weighted position (a fit of one profile to two lines 0.33° apart), its σ that of a strong line
+    const rows: number[][] = [];
+    const lines = latticeLines({ kind: 'hexagonal-P', aNm: a, cNm: c }, CU1 / (2 * Math.sin((80 * Math.PI) / 360)));
+    const tt = (hkl: number[]) => dToTwoTheta(lines.find((l) => l.hkl.join() === hkl.join())!.dNm, CU1);
+    const t002 = tt([0, 0, 2]);
+    const t101 = tt([1, 0, 1]);
+    for (const l of lines) {
+      const key = l.hkl.join();
+      if (key === '1,0,1') continue;
+      const area = key === '0,0,2' ? 400 : 60 + 40 * Math.abs(normal());
+      const u = key === '0,0,2' ? 0.002 : 0.006;
+      const pos = key === '0,0,2' ? (400 * t002 + 33 * t101) / 433 : dToTwoTheta(l.dNm, CU1) + u * normal();
+      rows.push([pos, u, area, 0.45]);
+    }
+    rows.sort((x, y) => x[0] - y[0]);
+    const r = indexPattern(fittedPeaks(rows), { wavelengthNm: CU1 });
+    const ph = r.phases[0];
+    expect(ph.kind).toBe('hexagonal-P');
+    expect(Math.abs(ph.cNm / c - 1)).toBeLessThan(1e-4);
+    expect(Math.abs(ph.cNm - c)).toBeLessThan(2 * ph.cUncNm);
+    expect(Math.abs(ph.aNm / a - 1)).toBeLessThan(1e-4);
+  });
+});
+
 /** Peaks as fitted on a drawn benchmark pattern: rows of 2θ, u(2θ), area, FWHM (Cu Kα1 + Kα2). */
 function fittedPeaks(rows: number[][]): IndexPeak[] {
   return rows.map(([tt, u, area, fwhm]) => {
