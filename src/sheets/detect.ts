@@ -1126,7 +1126,7 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
   // ({@link turnedCandidate}); this adds stacks and leaves those measured as they are
   if (periodList.length > 0) {
     for (const fb of [...failedBands]) {
-      const nearest = periodList.reduce((b, d) => (Math.abs(d - fb.periodPx) < Math.abs(b - fb.periodPx) ? d : b), periodList[0]);
+      const nearest = nearestPeriod(periodList, fb.periodPx);
       const turned = turnedCandidate(image, fb.axis, fb.frame, fb.band, nearest);
       if (turned) measureAxis(turned, [...periodList], [], 'turned');
     }
@@ -1283,24 +1283,24 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
     // along one line, as thick within a period: that stack's end, every other layer line taken for
     // a layer (a 4-layer stack at 2.88 px was found in its middle, and its two ends as bilayers at
     // 5.99 px, the image's coarser phase)
-    const doubled = accepted.find((o) => isDoubledEnd(sh, o));
+    const doubled = accepted.find((o) => isEndReadAgain(sh, o, 'doubled'));
     if (doubled) {
-      rejected.push({ centerPx: sh.centerPx, angleDeg: sh.angleDeg, layers: sh.layers, periodPx: sh.periodPx, reason: `continues a stack of ${doubled.layers} layers at ${doubled.periodPx.toFixed(2)} px, half its period, as thick: that stack's end, read at twice its period` });
+      rejected.push(doubledEnd(sh, doubled));
       continue;
     }
     // a shorter stack of the same count at a period within 10 % that continues a longer one's
     // line, as thick: that stack's end measured at a second reading of its period (pieces join
     // within 6 %; a 33 px end of a 5-layer stack at 2.99 px took a reading at 3.18 px and stood apart)
-    const sameEnd = accepted.find((o) => o.layers >= 3 && o.layers === sh.layers && Math.abs(sh.periodPx - o.periodPx) <= 0.1 * o.periodPx && axialDiff(sh.angleDeg, o.angleDeg) < 15 && Math.abs(sh.thicknessPx - o.thicknessPx) <= 1.5 * o.periodPx && continuesAlong(sh, o));
+    const sameEnd = accepted.find((o) => isEndReadAgain(sh, o, 'second reading'));
     if (sameEnd) {
       rejected.push({ centerPx: sh.centerPx, angleDeg: sh.angleDeg, layers: sh.layers, periodPx: sh.periodPx, reason: `continues a longer stack of as many layers at ${sameEnd.periodPx.toFixed(2)} px, as thick: that stack's end, measured at another reading of its period` });
       continue;
     }
     // (and the other way round: a longer one accepted before it may be this stack's end so read)
     if (sh.layers >= 3) {
-      for (const o of accepted.filter((q) => isDoubledEnd(q, sh))) {
+      for (const o of accepted.filter((q) => isEndReadAgain(q, sh, 'doubled'))) {
         accepted.splice(accepted.indexOf(o), 1);
-        rejected.push({ centerPx: o.centerPx, angleDeg: o.angleDeg, layers: o.layers, periodPx: o.periodPx, reason: `continues a stack of ${sh.layers} layers at ${sh.periodPx.toFixed(2)} px, half its period, as thick: that stack's end, read at twice its period` });
+        rejected.push(doubledEnd(o, sh));
       }
     }
     accepted.push(sh);
@@ -1320,7 +1320,7 @@ export function detectSheets(image: GreyImage, options: AutoSheetOptions = {}): 
   // three or more stacks at that period beside it)
   const harmonicOf = (sh: Omit<AutoSheet, 'id'>): number | null => {
     if (given !== undefined || periodList.length < 2) return null;
-    const phase = periodList.reduce((b, d) => (Math.abs(d - sh.periodPx) < Math.abs(b - sh.periodPx) ? d : b), periodList[0]);
+    const phase = nearestPeriod(periodList, sh.periodPx);
     if (Math.abs(phase - sh.periodPx) > 0.1 * phase) return null;
     const coarse = periodList.find((D) => Math.abs(D / 2 - phase) <= 0.03 * phase);
     if (coarse === undefined || accepted.some((o) => o.layers >= 3 && Math.abs(o.periodPx - coarse) <= 0.08 * coarse)) return null;
@@ -1841,16 +1841,32 @@ function alongside(a: Omit<AutoSheet, 'id'>, b: Omit<AutoSheet, 'id'>): boolean 
 
 const SIN_10 = Math.sin((10 * Math.PI) / 180);
 
-/** Whether `a` is the end of stack `b` (three layers or more) read at twice b's period: within 6 % of 2·p, directions within 15°, as thick within 1.5 periods, on b's line beyond its ends ({@link continuesAlong}). */
-function isDoubledEnd(a: Omit<AutoSheet, 'id'>, b: Omit<AutoSheet, 'id'>): boolean {
-  return b.layers >= 3 && Math.abs(a.periodPx - 2 * b.periodPx) <= 0.12 * b.periodPx && axialDiff(a.angleDeg, b.angleDeg) < 15 && Math.abs(a.thicknessPx - b.thicknessPx) <= 1.5 * b.periodPx && continuesAlong(a, b);
+/**
+ * Whether `a` is the end of stack `b` (three layers or more) measured again: directions within
+ * 15°, as thick within 1.5 of b's periods, on b's line beyond its ends ({@link continuesAlong}),
+ * and either at twice b's period (within 6 %: every other layer line taken for a layer) or, of
+ * b's count, at a second reading of b's period (within 10 %).
+ */
+function isEndReadAgain(a: Omit<AutoSheet, 'id'>, b: Omit<AutoSheet, 'id'>, how: 'doubled' | 'second reading'): boolean {
+  const periodFits = how === 'doubled' ? Math.abs(a.periodPx - 2 * b.periodPx) <= 0.12 * b.periodPx : a.layers === b.layers && Math.abs(a.periodPx - b.periodPx) <= 0.1 * b.periodPx;
+  return b.layers >= 3 && periodFits && axialDiff(a.angleDeg, b.angleDeg) < 15 && Math.abs(a.thicknessPx - b.thicknessPx) <= 1.5 * b.periodPx && continuesAlong(a, b);
+}
+
+/** The refusal of `a`, stack `b`'s end read at twice its period. */
+function doubledEnd(a: Omit<AutoSheet, 'id'>, b: Omit<AutoSheet, 'id'>): RejectedBand {
+  return { centerPx: a.centerPx, angleDeg: a.angleDeg, layers: a.layers, periodPx: a.periodPx, reason: `continues a stack of ${b.layers} layers at ${b.periodPx.toFixed(2)} px, half its period, as thick: that stack's end, read at twice its period` };
+}
+
+/** The one of `periodsPx` (not empty) nearest `px`. */
+function nearestPeriod(periodsPx: number[], px: number): number {
+  return periodsPx.reduce((b, d) => (Math.abs(d - px) < Math.abs(b - px) ? d : b), periodsPx[0]);
 }
 
 /**
- * Whether a sheet lies on the line of another beyond its ends: every third point of its axis
- * within a third of the other's thickness (and at least a period), plus its distance past the
- * other's end × sin 10°, of the other's axis extended,
- * most of them beyond its ends, the nearest at most 90 px (or four thicknesses) past them.
+ * Whether a sheet lies on the line of another beyond its ends: every third point of its axis lies
+ * within a third of the other's thickness (at least a period), plus its distance past the other's
+ * end × sin 10°, of the other's axis extended; half of them or more lie past its ends, the nearest
+ * at most 90 px (or four thicknesses) past them.
  */
 function continuesAlong(a: Omit<AutoSheet, 'id'>, b: Omit<AutoSheet, 'id'>): boolean {
   const tol = Math.max(b.periodPx, b.thicknessPx / 3);
