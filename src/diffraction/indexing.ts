@@ -489,7 +489,7 @@ interface Solution {
  * Reference: weighted least squares (Gauss–Markov); Birge, Phys. Rev. 40, 207 (1932); single
  * reflections: Langford & Louër, Rep. Prog. Phys. 59, 131 (1996).
  */
-function ownScatter(w: Work, s: Solution): Solution {
+function ownScatter(w: Work, s: Solution, other?: Solution): Solution {
   if (w.lambda === null || !s.cov) return s;
   const clean = s.asg.flatMap((a) => (a && !a.overlap ? [{ peak: a.peak, line: a.line, hkl: s.lines[a.line].hkl }] : []));
   if (clean.some((h) => w.tt[h.peak] === null)) return s;
@@ -502,10 +502,18 @@ function ownScatter(w: Work, s: Solution): Solution {
   const lambda = w.lambda;
   const taken = new Set(s.asg.flatMap((a) => (a ? [a.line] : [])));
   const tcOf = s.lines.map((l) => twoThetaOfQ(l.q, lambda) + s.t.zero);
+  // in a mixture, a reflection of the other phase within the line's breadth (its own FWHM or the
+  // phase's typical one, whichever is larger: a broad line fitted narrow beside a sharp one is
+  // itself the sign) pulls it too, whether fitted as one peak or as two
+  const otherTc = other ? other.lines.map((l) => twoThetaOfQ(l.q, lambda) + other.t.zero) : [];
+  const fws = clean.map((h) => w.fw[h.peak]).filter((x) => x > 0).sort((x, y) => x - y);
+  const typicalFw = fws.length ? fws[Math.floor(fws.length / 2)] : 0;
   const single = clean.filter((h) => {
     const tt = w.tt[h.peak]!;
     const fw = w.fw[h.peak];
-    return !(fw > 0) || !tcOf.some((tc, j) => j !== h.line && !taken.has(j) && Math.abs(tc - tcOf[h.line]) > 1e-4 && Math.abs(tt - tc) < fw);
+    if (!(fw > 0)) return true;
+    if (otherTc.some((tc) => Math.abs(tt - tc) < Math.max(fw, typicalFw))) return false;
+    return !tcOf.some((tc, j) => j !== h.line && !taken.has(j) && Math.abs(tc - tcOf[h.line]) > 1e-4 && Math.abs(tt - tc) < fw);
   });
   const use = single.length - s.cov.length >= 2 ? single : clean;
   const r = refine(w, s.t, use.map((h) => ({ peak: h.peak, hkl: h.hkl })), zeroKept, false, 0);
@@ -975,8 +983,8 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
     const more = peaks.map((_, i) => i).filter((i) => !strong.has(i)).sort((a, b) => peaks[b].intensity - peaks[a].intensity).slice(0, 6 - w.strongOrder.length);
     w.strongOrder = [...w.strongOrder, ...more].sort((a, b) => peaks[b].dNm - peaks[a].dNm);
   }
-  const phaseOf = (s0: Solution, isStandard: boolean, name?: string): IndexedPhase => {
-    const s = isStandard ? s0 : ownScatter(w, s0);
+  const phaseOf = (s0: Solution, isStandard: boolean, name?: string, other?: Solution): IndexedPhase => {
+    const s = isStandard ? s0 : ownScatter(w, s0, other);
     const np0 = isStandard ? 0 : cellParameters(s.t.kind);
     const scale = Math.max(1, s.chi2 / s.dof);
     const relL = options.wavelengthRelU ?? 0;
@@ -1247,7 +1255,7 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
           const convincing = [one, two].every((x) => x.fom.fN >= 0.5 * firstBest.fom.fN && convincingAlone(x));
           if (strongDone >= strongScope.length && one.hkls.length >= 3 && two.hkls.length >= 3 && better && convincing) {
             const [oneW, twoW] = shareByWidth(w, one, two, scope, opts);
-            phases.push(phaseOf(oneW, false), phaseOf(twoW, false));
+            phases.push(phaseOf(oneW, false, undefined, twoW), phaseOf(twoW, false, undefined, oneW));
             notes.push(`two phases (${LATTICE_WORDS[one.t.kind]} and ${LATTICE_WORDS[two.t.kind]}) explain the lines better than one ${LATTICE_WORDS[firstBest.t.kind]} cell (a ${firstBest.t.a.toPrecision(6)} nm, c ${firstBest.t.c.toPrecision(6)} nm)`);
             mixtureFirst = true;
             // what the search said of the single cell (another lattice as good) no longer applies
@@ -1261,17 +1269,16 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
     }
     if (mixtureFirst) complete = true;
     else if (complete || !(options.mixtures ?? true)) {
-      phases.push(phaseOf(firstBest, false));
-      if (!complete) notes.push(`${strongScope.length - firstBest.strongExplained} strong line(s) left unexplained by one phase (mixtures not tried)`);
       // weaker lines the phase leaves may be a second, minor phase
       const explained = new Set(firstBest.hkls.map((h) => h.peak));
       const rest = new Set(scope.filter((i) => !explained.has(i)));
-      if (complete && (options.mixtures ?? true) && rest.size >= 2) {
-        const two = search(rest)?.best ?? null;
-        if (two && two.hkls.length >= 2 && two.fom.fN >= 2 * minFom) {
-          phases.push(phaseOf(two, false));
-          notes.push(`a minor second phase (${LATTICE_WORDS[two.t.kind]}) explains ${two.hkls.length} of the weaker lines the first leaves`);
-        }
+      const found = complete && (options.mixtures ?? true) && rest.size >= 2 ? search(rest)?.best ?? null : null;
+      const two = found && found.hkls.length >= 2 && found.fom.fN >= 2 * minFom ? found : null;
+      phases.push(phaseOf(firstBest, false, undefined, two ?? undefined));
+      if (!complete) notes.push(`${strongScope.length - firstBest.strongExplained} strong line(s) left unexplained by one phase (mixtures not tried)`);
+      if (two) {
+        phases.push(phaseOf(two, false, undefined, firstBest));
+        notes.push(`a minor second phase (${LATTICE_WORDS[two.t.kind]}) explains ${two.hkls.length} of the weaker lines the first leaves`);
       }
     } else {
       // a mixture: each of the leading single-phase solutions with the best phase among the lines it leaves
@@ -1369,8 +1376,8 @@ export function indexPattern(peaks: IndexPeak[], options: IndexOptions): IndexRe
         const sm = smallestCell(w, firstS, mine, opts);
         if (sm !== firstS && sm.hkls.length >= firstS.hkls.length && sm.strongExplained >= firstS.strongExplained) firstS = sm;
       }
-      phases.push(phaseOf(firstS, false));
-      if (secondS) phases.push(phaseOf(secondS, false));
+      phases.push(phaseOf(firstS, false, undefined, secondS ?? undefined));
+      if (secondS) phases.push(phaseOf(secondS, false, undefined, firstS));
       const left = strongScope.length - bestPair!.key[0];
       if (left > 0) notes.push(`${left} strong line(s) explained by no phase found`);
     }
