@@ -207,41 +207,46 @@ for (const sc of SKIP_PATTERNS ? [] : diffractionScenarios(SEED)) {
   if (ONLY && !sc.name.includes(ONLY)) continue;
   rows.push(run(sc));
 }
-const head = ['pattern', 'λ read', 'found/required', 'spurious (+blends)', 'on halo', 'phases: lattice, worst cell error (its u)', 'zero shift °', 'size err % max (n)', 'phase size err % ± 2u (lines)', 'ms'];
-const widths = head.map((h, i) => Math.max(h.length, ...rows.map((r) => r.cells[i].length)));
-const line = (r: string[]) => '| ' + r.map((c, i) => c.padEnd(widths[i])).join(' | ') + ' |';
-console.log(`Diffraction targets, seed ${SEED} (${rows.length} seeded synthetic patterns; instrument profile from a LaB6-like standard per radiation, ${std.peaks.length} lines; sizes of phases up to 100 nm)`);
-console.log(line(head));
-console.log('|' + widths.map((w) => '-'.repeat(w + 2)).join('|') + '|');
-for (const r of rows) console.log(line(r.cells));
-const sum = (f: (r: Row) => number) => rows.reduce((s, r) => s + f(r), 0);
-const allSizes = rows.flatMap((r) => r.sizeErrs);
-console.log('');
-console.log(`peaks found: ${sum((r) => r.found)}/${sum((r) => r.required)} (${((100 * sum((r) => r.found)) / Math.max(1, sum((r) => r.required))).toFixed(1)} %; target ≥ 97 %)`);
-console.log(`spurious (matching no drawn line): ${sum((r) => r.spurious)} in all, at most ${Math.max(...rows.map((r) => r.spurious))} in one pattern (target ≤ 1), ${sum((r) => r.onHalo)} on a halo (target 0); blends of real lines fitted as one broad peak: ${sum((r) => r.blends)}`);
-console.log(`phases indexed with the right lattice and cell within 0.05 %: ${sum((r) => r.phasesOk)}/${sum((r) => r.phases)}; worst cell error ${(100 * Math.max(...rows.map((r) => (Number.isFinite(r.worstCell) ? r.worstCell : 1)))).toFixed(3)} %`);
-console.log(`phases found with their lattice (cell within 1 %) whose cell error lies within the stated ± (k = 2; a and c, the larger in units of its u in brackets): ${sum((r) => r.cellsCovered)}/${sum((r) => r.cellsJudged)}; indexed phases matching no drawn phase: ${sum((r) => r.falsePhases)}`);
-// a target the data cannot support is not an estimator's miss: the cells the data fix to u ≤ 0.025 %
-// (so that 0.05 % lies at 2u or beyond) are held to 0.05 %, the others to their stated ± (k = 2)
-const judged = rows.flatMap((r) => r.cellJudged);
-const fixed = judged.filter((j) => j.relU <= 2.5e-4);
-const loose = judged.filter((j) => j.relU > 2.5e-4);
-console.log(`  of those, cells the data fix to u ≤ 0.025 %: ${fixed.filter((j) => j.err <= 5e-4).length}/${fixed.length} within 0.05 %; cells whose own u exceeds 0.025 % (counting noise beyond the target): ${loose.length}, ${loose.filter((j) => j.err <= 2 * j.relU).length} within ±2u${loose.length ? ` (u ${loose.map((j) => (100 * j.relU).toFixed(3)).join(', ')} %)` : ''}`);
-console.log(`wavelength read correctly: ${rows.filter((r) => r.lambdaOk).length}/${rows.length}`);
-console.log(`crystallite size after instrument correction: ${allSizes.length} isolated strong lines, |error| median ${(100 * median(allSizes.map(Math.abs))).toFixed(1)} %, max ${(100 * Math.max(...allSizes.map(Math.abs))).toFixed(1)} % (target ≤ 15 %); error within the stated ± (k = 2): ${rows.flatMap((r) => r.sizeCovered).filter(Boolean).length}/${allSizes.length}`);
-// a bias shows as a signed mean off zero beyond its standard error; noise does not
-const meanSize = allSizes.reduce((a, b) => a + b, 0) / Math.max(1, allSizes.length);
-const seSize = Math.sqrt(allSizes.reduce((a, b) => a + (b - meanSize) ** 2, 0) / Math.max(1, allSizes.length - 1) / Math.max(1, allSizes.length));
-console.log(`  signed mean error ${(100 * meanSize).toFixed(1)} ± ${(100 * seSize).toFixed(1)} % (± its standard error)`);
-const sizeRelU = rows.flatMap((r) => r.sizeRelU);
-const firm = allSizes.filter((_, i) => sizeRelU[i] <= 0.075);
-const soft = allSizes.map((e, i) => ({ e, u: sizeRelU[i] })).filter((x) => x.u > 0.075);
-console.log(`  of those, sizes the data fix to u ≤ 7.5 % (so that 15 % lies at 2u or beyond): ${firm.length}, |error| max ${firm.length ? (100 * Math.max(...firm.map(Math.abs))).toFixed(1) : '—'} % (target ≤ 15 %); sizes whose own u exceeds 7.5 %: ${soft.length}, ${soft.filter((x) => Math.abs(x.e) <= 2 * x.u * (1 + x.e)).length} within ±2u`);
-const misses = rows.flatMap((r) => r.sizeMisses);
-if (misses.length) console.log(`  lines beyond 15 %: ${misses.join('; ')}`);
-const allPhase = rows.flatMap((r) => r.phaseSizeErrs);
-if (allPhase.length) console.log(`crystallite size of a phase (all its own lines pooled; phases up to 100 nm indexed with their lattice): ${allPhase.length} phases, |error| median ${(100 * median(allPhase.map(Math.abs))).toFixed(1)} %, max ${(100 * Math.max(...allPhase.map(Math.abs))).toFixed(1)} % (target ≤ 15 %); error within the stated ± (k = 2): ${rows.flatMap((r) => r.phaseSizeCovered).filter(Boolean).length}/${allPhase.length}`);
-console.log(`total ${((Date.now() - t0) / 1000).toFixed(1)} s`);
+// the patterns' table and totals, when patterns were run (not with --spots-only)
+if (rows.length) printPatternTotals();
+
+function printPatternTotals(): void {
+  const head = ['pattern', 'λ read', 'found/required', 'spurious (+blends)', 'on halo', 'phases: lattice, worst cell error (its u)', 'zero shift °', 'size err % max (n)', 'phase size err % ± 2u (lines)', 'ms'];
+  const widths = head.map((h, i) => Math.max(h.length, ...rows.map((r) => r.cells[i].length)));
+  const line = (r: string[]) => '| ' + r.map((c, i) => c.padEnd(widths[i])).join(' | ') + ' |';
+  console.log(`Diffraction targets, seed ${SEED} (${rows.length} seeded synthetic patterns; instrument profile from a LaB6-like standard per radiation, ${std.peaks.length} lines; sizes of phases up to 100 nm)`);
+  console.log(line(head));
+  console.log('|' + widths.map((w) => '-'.repeat(w + 2)).join('|') + '|');
+  for (const r of rows) console.log(line(r.cells));
+  const sum = (f: (r: Row) => number) => rows.reduce((s, r) => s + f(r), 0);
+  const allSizes = rows.flatMap((r) => r.sizeErrs);
+  console.log('');
+  console.log(`peaks found: ${sum((r) => r.found)}/${sum((r) => r.required)} (${((100 * sum((r) => r.found)) / Math.max(1, sum((r) => r.required))).toFixed(1)} %; target ≥ 97 %)`);
+  console.log(`spurious (matching no drawn line): ${sum((r) => r.spurious)} in all, at most ${Math.max(...rows.map((r) => r.spurious))} in one pattern (target ≤ 1), ${sum((r) => r.onHalo)} on a halo (target 0); blends of real lines fitted as one broad peak: ${sum((r) => r.blends)}`);
+  console.log(`phases indexed with the right lattice and cell within 0.05 %: ${sum((r) => r.phasesOk)}/${sum((r) => r.phases)}; worst cell error ${(100 * Math.max(...rows.map((r) => (Number.isFinite(r.worstCell) ? r.worstCell : 1)))).toFixed(3)} %`);
+  console.log(`phases found with their lattice (cell within 1 %) whose cell error lies within the stated ± (k = 2; a and c, the larger in units of its u in brackets): ${sum((r) => r.cellsCovered)}/${sum((r) => r.cellsJudged)}; indexed phases matching no drawn phase: ${sum((r) => r.falsePhases)}`);
+  // a target the data cannot support is not an estimator's miss: the cells the data fix to u ≤ 0.025 %
+  // (so that 0.05 % lies at 2u or beyond) are held to 0.05 %, the others to their stated ± (k = 2)
+  const judged = rows.flatMap((r) => r.cellJudged);
+  const fixed = judged.filter((j) => j.relU <= 2.5e-4);
+  const loose = judged.filter((j) => j.relU > 2.5e-4);
+  console.log(`  of those, cells the data fix to u ≤ 0.025 %: ${fixed.filter((j) => j.err <= 5e-4).length}/${fixed.length} within 0.05 %; cells whose own u exceeds 0.025 % (counting noise beyond the target): ${loose.length}, ${loose.filter((j) => j.err <= 2 * j.relU).length} within ±2u${loose.length ? ` (u ${loose.map((j) => (100 * j.relU).toFixed(3)).join(', ')} %)` : ''}`);
+  console.log(`wavelength read correctly: ${rows.filter((r) => r.lambdaOk).length}/${rows.length}`);
+  console.log(`crystallite size after instrument correction: ${allSizes.length} isolated strong lines, |error| median ${(100 * median(allSizes.map(Math.abs))).toFixed(1)} %, max ${(100 * Math.max(...allSizes.map(Math.abs))).toFixed(1)} % (target ≤ 15 %); error within the stated ± (k = 2): ${rows.flatMap((r) => r.sizeCovered).filter(Boolean).length}/${allSizes.length}`);
+  // a bias shows as a signed mean off zero beyond its standard error; noise does not
+  const meanSize = allSizes.reduce((a, b) => a + b, 0) / Math.max(1, allSizes.length);
+  const seSize = Math.sqrt(allSizes.reduce((a, b) => a + (b - meanSize) ** 2, 0) / Math.max(1, allSizes.length - 1) / Math.max(1, allSizes.length));
+  console.log(`  signed mean error ${(100 * meanSize).toFixed(1)} ± ${(100 * seSize).toFixed(1)} % (± its standard error)`);
+  const sizeRelU = rows.flatMap((r) => r.sizeRelU);
+  const firm = allSizes.filter((_, i) => sizeRelU[i] <= 0.075);
+  const soft = allSizes.map((e, i) => ({ e, u: sizeRelU[i] })).filter((x) => x.u > 0.075);
+  console.log(`  of those, sizes the data fix to u ≤ 7.5 % (so that 15 % lies at 2u or beyond): ${firm.length}, |error| max ${firm.length ? (100 * Math.max(...firm.map(Math.abs))).toFixed(1) : '—'} % (target ≤ 15 %); sizes whose own u exceeds 7.5 %: ${soft.length}, ${soft.filter((x) => Math.abs(x.e) <= 2 * x.u * (1 + x.e)).length} within ±2u`);
+  const misses = rows.flatMap((r) => r.sizeMisses);
+  if (misses.length) console.log(`  lines beyond 15 %: ${misses.join('; ')}`);
+  const allPhase = rows.flatMap((r) => r.phaseSizeErrs);
+  if (allPhase.length) console.log(`crystallite size of a phase (all its own lines pooled; phases up to 100 nm indexed with their lattice): ${allPhase.length} phases, |error| median ${(100 * median(allPhase.map(Math.abs))).toFixed(1)} %, max ${(100 * Math.max(...allPhase.map(Math.abs))).toFixed(1)} % (target ≤ 15 %); error within the stated ± (k = 2): ${rows.flatMap((r) => r.phaseSizeCovered).filter(Boolean).length}/${allPhase.length}`);
+  console.log(`total ${((Date.now() - t0) / 1000).toFixed(1)} s`);
+}
 
 // ---- spot indexing on synthetic lattice images: 5 structures × 3 zone axes × 2 seeds ----
 if (!process.argv.includes('--patterns-only')) await spotBench();
