@@ -17,7 +17,7 @@
  * with its standard error (a bias shows as a mean off zero, noise does not). Lines are drawn with the Lorentz–polarisation
  * factor of their setup across the profile (random powder or oriented film, with or without a
  * monochromator, none for the synchrotron scans), and each pattern is analysed with that geometry.
- *   npm run bench:diffraction [-- --seed N] [--only NAME] [--patterns-only]   (another seed is a held-out set)
+ *   npm run bench:diffraction [-- --seed N] [--only NAME] [--patterns-only | --spots-only]   (another seed is a held-out set)
  */
 import { analysePattern, instrumentFromStandard } from '../src/diffraction/analyse';
 import type { InstrumentProfile } from '../src/diffraction/instrument';
