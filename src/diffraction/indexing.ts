@@ -480,15 +480,24 @@ interface Solution {
  * 1.01. Weighed at its own σ, a strong line must be one reflection: a line with another of the
  * cell's reflections within its FWHM that no other peak took is left out of this refinement (while
  * two degrees of freedom remain), as it is of the phase's size (a brucite-like 002 fitted as one peak
- * with its weak 101 0.33° away sat 0.025° high and, at its own small σ, moved c by 0.03 %). Zero shift
- * kept or not as decided; with fewer than two degrees of freedom the scatter says nothing and the
- * search's allowance stays.
+ * with its weak 101 0.33° away sat 0.025° high and, at its own small σ, moved c by 0.03 %). In a
+ * mixture, so is a line with a reflection of the other phase within its breadth (its own FWHM or
+ * the phase's typical one): a clay's 007 fitted as one peak narrowed by the fcc 200 0.09° away had
+ * moved c by 0.05 %. Zero shift kept or not as decided; with fewer than two degrees of freedom the
+ * scatter says nothing and the search's allowance stays.
  * @param w the work arrays
  * @param s the phase's solution
+ * @param other the other phase of a mixture, if any
  * @returns the solution with its cell, covariance and χ² refined so (or as it was)
  * Reference: weighted least squares (Gauss–Markov); Birge, Phys. Rev. 40, 207 (1932); single
  * reflections: Langford & Louër, Rep. Prog. Phys. 59, 131 (1996).
  */
+/** The median FWHM of the given peaks (those with one), degrees; 0 when none has one. */
+function typicalFwhm(w: Work, peaks: number[]): number {
+  const v = peaks.map((i) => w.fw[i]).filter((x) => x > 0).sort((x, y) => x - y);
+  return v.length ? v[Math.floor(v.length / 2)] : 0;
+}
+
 function ownScatter(w: Work, s: Solution, other?: Solution): Solution {
   if (w.lambda === null || !s.cov) return s;
   const clean = s.asg.flatMap((a) => (a && !a.overlap ? [{ peak: a.peak, line: a.line, hkl: s.lines[a.line].hkl }] : []));
@@ -506,8 +515,7 @@ function ownScatter(w: Work, s: Solution, other?: Solution): Solution {
   // phase's typical one, whichever is larger: a broad line fitted narrow beside a sharp one is
   // itself the sign) pulls it too, whether fitted as one peak or as two
   const otherTc = other ? other.lines.map((l) => twoThetaOfQ(l.q, lambda) + other.t.zero) : [];
-  const fws = clean.map((h) => w.fw[h.peak]).filter((x) => x > 0).sort((x, y) => x - y);
-  const typicalFw = fws.length ? fws[Math.floor(fws.length / 2)] : 0;
+  const typicalFw = typicalFwhm(w, clean.map((h) => h.peak));
   const single = clean.filter((h) => {
     const tt = w.tt[h.peak]!;
     const fw = w.fw[h.peak];
@@ -532,10 +540,7 @@ function ownScatter(w: Work, s: Solution, other?: Solution): Solution {
  * Hall 1953), so breadth tells the phases of a mixture apart (common practice).
  */
 function shareByWidth(w: Work, a: Solution, b: Solution, scope: number[], opts: Required<Pick<IndexOptions, 'searchToleranceDeg' | 'fitZeroShift'>>): [Solution, Solution] {
-  const typical = (s: Solution) => {
-    const v = s.hkls.map((h) => w.fw[h.peak]).filter((x) => x > 0).sort((x, y) => x - y);
-    return v.length ? v[Math.floor(v.length / 2)] : 0;
-  };
+  const typical = (s: Solution) => typicalFwhm(w, s.hkls.map((h) => h.peak));
   const wa = typical(a);
   const wb = typical(b);
   if (!(wa > 0 && wb > 0) || Math.max(wa, wb) / Math.min(wa, wb) < 1.5) return [a, b];
@@ -782,10 +787,7 @@ function strongBeyondChance(w: Work, a: Solution, b: Solution, strongHere: numbe
   // a line more than three times broader or narrower than the cell's other lines is no reflection of
   // its crystallites (one phase's lines share its breadth: Scherrer 1918, Williamson & Hall 1953), but
   // another phase's line or a band that its comb meets: no evidence for the cell, whatever the odds
-  const typical = (i: number) => {
-    const v = a.hkls.map((h) => h.peak).filter((j) => j !== i && w.fw[j] > 0).map((j) => w.fw[j]).sort((x, y) => x - y);
-    return v.length ? v[Math.floor(v.length / 2)] : 0;
-  };
+  const typical = (i: number) => typicalFwhm(w, a.hkls.map((h) => h.peak).filter((j) => j !== i));
   const sameBreadth = (i: number) => {
     const t = typical(i);
     return !(t > 0 && w.fw[i] > 0) || Math.abs(Math.log(w.fw[i] / t)) <= Math.log(BREADTH_FACTOR);

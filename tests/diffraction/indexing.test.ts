@@ -380,7 +380,7 @@ describe('a line weighed at its own σ must be one reflection (only resolved, si
 });
 
 describe('in a mixture, a line with the other phase\'s reflection within its breadth is a blend (Langford & Louër, Rep. Prog. Phys. 59, 131, 1996)', () => {
-  test('a clay (c 1.42 nm) + an fcc phase (a 0.40495 nm, aluminium-like, from memory): the clay\'s 007 fitted as one narrowed peak with the fcc 200 0.09° away sits 0.05° high at a small σ; the clay\'s cell is refined without it, within 0.02 % and its ±2u (0.06 % with it)', () => {
+  test('a clay (c 1.42 nm, the benchmark\'s drawn clay) + an fcc phase (a 0.40495 nm, aluminium-like, from memory): the clay\'s 007 fitted as one narrowed peak with the fcc 200 0.09° away sits 0.05° high at a small σ; the clay\'s cell is refined without it, within 0.02 % and its ±2u (0.06 % with it)', () => {
     const c = 1.42;
     const a = 0.40495;
     const normal = gaussian(rng(15));
